@@ -1,0 +1,147 @@
+//! The crate's one error enum, [`Error`], and the sensor fault it carries.
+
+use core::fmt;
+
+/// Why a temperature sensor gave no temperature.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum SensorFault {
+    /// The sensor reads as an open circuit (code at or near the rail on the open side).
+    Open,
+    /// The sensor reads as a short circuit (code at or near the rail on the short side).
+    Short,
+    /// The resistance is physically possible but outside the range the sensor model covers.
+    OutOfModelRange,
+}
+
+/// What was wrong with a calibration that cannot be evaluated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum CalibrationDefect {
+    /// ADC bits outside 1..=24.
+    AdcBits,
+    /// The rail margin leaves no usable code.
+    RailMargin,
+    /// The temperature range is empty, reversed or not finite.
+    TemperatureRange,
+    /// The x range is empty, reversed or not finite.
+    XRange,
+    /// A coefficient is not finite, or a series or surface is longer than its capacity.
+    Coefficient,
+    /// The slope is zero, negative or not finite somewhere in the temperature range.
+    ZeroSlope,
+    /// The temperature normalisation (centre, half span, reference) is unusable.
+    Normalisation,
+}
+
+/// Every way a reading can fail to become a value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum Error {
+    /// The ADC code is larger than the converter can produce (`code > 2^bits − 1`).
+    CodeOutOfAdcRange {
+        /// The code given.
+        code: u32,
+        /// The largest code of the converter.
+        max: u32,
+    },
+    /// The ADC code is at or within the configured margin of a rail: the front end or ADC is saturated.
+    Saturated {
+        /// The code given.
+        code: u32,
+    },
+    /// The corrected value lies below the calibrated x range, or the front end has lost its sensitivity there.
+    BelowRange,
+    /// The corrected value lies above the calibrated x range.
+    AboveRange,
+    /// The temperature lies outside the calibrated range (plus any allowed extrapolation).
+    TemperatureOutOfRange {
+        /// The temperature given, in °C.
+        celsius: f32,
+    },
+    /// The temperature sensor is faulty.
+    Sensor(SensorFault),
+    /// An input (temperature, resistance, …) is NaN or infinite.
+    NonFinite,
+    /// The calibration cannot be evaluated.
+    InvalidCalibration(CalibrationDefect),
+    /// No valid calibration is loaded.
+    NotCalibrated,
+}
+
+impl Error {
+    /// A stable snake_case name of the variant (used in CSV `error` columns and logs).
+    pub const fn name(&self) -> &'static str {
+        match self {
+            Error::CodeOutOfAdcRange { .. } => "code_out_of_adc_range",
+            Error::Saturated { .. } => "saturated",
+            Error::BelowRange => "below_range",
+            Error::AboveRange => "above_range",
+            Error::TemperatureOutOfRange { .. } => "temperature_out_of_range",
+            Error::Sensor(_) => "sensor_fault",
+            Error::NonFinite => "non_finite",
+            Error::InvalidCalibration(_) => "invalid_calibration",
+            Error::NotCalibrated => "not_calibrated",
+        }
+    }
+}
+
+impl fmt::Display for SensorFault {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            SensorFault::Open => "sensor open circuit",
+            SensorFault::Short => "sensor short circuit",
+            SensorFault::OutOfModelRange => "sensor resistance outside the model's range",
+        })
+    }
+}
+
+impl fmt::Display for CalibrationDefect {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            CalibrationDefect::AdcBits => "ADC bits must be 1..=24",
+            CalibrationDefect::RailMargin => "rail margin leaves no usable code",
+            CalibrationDefect::TemperatureRange => "temperature range empty or not finite",
+            CalibrationDefect::XRange => "x range empty or not finite",
+            CalibrationDefect::Coefficient => "coefficient not finite or series too long",
+            CalibrationDefect::ZeroSlope => "slope zero, negative or not finite",
+            CalibrationDefect::Normalisation => "temperature normalisation unusable",
+        })
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Error::CodeOutOfAdcRange { code, max } => {
+                write!(f, "ADC code {code} outside the converter's range 0..={max}")
+            }
+            Error::Saturated { code } => write!(f, "ADC code {code} at or near a rail (saturated)"),
+            Error::BelowRange => f.write_str("reading below the calibrated range"),
+            Error::AboveRange => f.write_str("reading above the calibrated range"),
+            Error::TemperatureOutOfRange { celsius } => {
+                write!(f, "temperature {celsius} °C outside the calibrated range")
+            }
+            Error::Sensor(s) => write!(f, "temperature sensor fault: {s}"),
+            Error::NonFinite => f.write_str("input is NaN or infinite"),
+            Error::InvalidCalibration(d) => write!(f, "invalid calibration: {d}"),
+            Error::NotCalibrated => f.write_str("no valid calibration loaded"),
+        }
+    }
+}
+
+impl core::error::Error for SensorFault {}
+impl core::error::Error for CalibrationDefect {}
+impl core::error::Error for Error {}
+
+impl From<SensorFault> for Error {
+    fn from(s: SensorFault) -> Self {
+        Error::Sensor(s)
+    }
+}

@@ -1,0 +1,36 @@
+//! # logtrim
+//!
+//! Correction of readings from a log-ratio front end — two op-amps and a matched transistor pair that turn
+//! two currents into `Vout = G·n·(kT/q)·ln(I_sig/I_ref)` — into a trustworthy ratio, on microcontrollers with
+//! and without an FPU.
+//!
+//! The crate is `no_std`, allocates nothing and does not panic on any input: every fallible step returns an
+//! [`Error`]. The modules, each owning one concept:
+//!
+//! | module | owns |
+//! |---|---|
+//! | [`physics`] | SI constants and the thermal voltage kT/q |
+//! | [`math`] | the f32 math backends (libm by default, micromath opt-in) |
+//! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
+//! | [`error`] | the one error enum of the crate |
+//! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
+//!
+//! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
+//! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
+#![no_std]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![cfg_attr(not(test), deny(clippy::unwrap_used, clippy::expect_used, clippy::panic, clippy::indexing_slicing))]
+
+#[cfg(test)]
+extern crate std;
+
+pub mod calibration;
+pub mod error;
+pub mod math;
+pub mod physics;
+pub mod units;
+
+pub use calibration::{Calibration, Reading};
+pub use error::Error;
+pub use units::Unit;
