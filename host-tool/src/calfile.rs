@@ -1,0 +1,187 @@
+//! The calibration file (`COEFFS.json`): a versioned JSON format of logtrim's own.
+//!
+//! ```json
+//! {
+//!   "format": "logtrim-calibration",
+//!   "version": 1,
+//!   "unit": "SN-0042",              // optional serial
+//!   "created_unix_s": 1764614400,   // seconds since 1970-01-01 UTC
+//!   "generator": "logtrim 0.1.0",
+//!   "calibration": { ... },         // firmware-lib's `Calibration`, field by field
+//!   "temperature_sensor": null,     // optional: how the temperature channel's code becomes °C
+//!   "fit": { ... }                  // optional: the fit's summary (model chosen, residuals, CV figures)
+//! }
+//! ```
+//!
+//! Readers refuse another `format` and any `version` they do not know; unknown fields are refused too, so a
+//! typo in a hand-edited file is an error, not a silently ignored setting.
+
+use std::path::Path;
+
+use logtrim::Calibration;
+use serde::{Deserialize, Serialize};
+
+/// The `format` string of a calibration file.
+pub const FORMAT: &str = "logtrim-calibration";
+/// The current version of the format.
+pub const VERSION: u32 = 1;
+
+/// A calibration file's contents.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CalFile {
+    /// Always [`FORMAT`].
+    pub format: String,
+    /// The format version, [`VERSION`] for files written by this build.
+    pub version: u32,
+    /// The unit's serial, if known.
+    #[serde(default)]
+    pub unit: Option<String>,
+    /// When the calibration was made, seconds since the Unix epoch (UTC).
+    pub created_unix_s: u64,
+    /// The program that wrote the file.
+    pub generator: String,
+    /// The calibration itself.
+    pub calibration: Calibration,
+    /// How the temperature channel is converted, if the unit reads a raw sensor (free-form until the
+    /// sensor description lands; `null` for a digital sensor in °C).
+    #[serde(default)]
+    pub temperature_sensor: Option<serde_json::Value>,
+    /// A summary of the fit that produced the calibration.
+    #[serde(default)]
+    pub fit: Option<serde_json::Value>,
+}
+
+/// Errors reading or writing a calibration file.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum CalFileError {
+    /// The file could not be read or written.
+    #[error("{path}: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// The file is not valid JSON of this format.
+    #[error("{path}: line {line}, column {column}: {message}")]
+    Json {
+        /// The file.
+        path: String,
+        /// Line of the defect (1-based).
+        line: usize,
+        /// Column of the defect (1-based).
+        column: usize,
+        /// What was wrong.
+        message: String,
+    },
+    /// The file is of another format or an unknown version.
+    #[error("{path}: format {format:?} version {version} is not a logtrim calibration this build reads (expected {FORMAT:?} version {VERSION})")]
+    Version {
+        /// The file.
+        path: String,
+        /// The format string found.
+        format: String,
+        /// The version found.
+        version: u32,
+    },
+    /// The calibration inside does not validate.
+    #[error("{path}: {error}")]
+    Invalid {
+        /// The file.
+        path: String,
+        /// The firmware's verdict.
+        error: logtrim::Error,
+    },
+}
+
+impl CalFile {
+    /// Wraps a calibration with the current time and this build's name.
+    pub fn new(calibration: Calibration, unit: Option<String>) -> CalFile {
+        let now = std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map(|d| d.as_secs())
+            .unwrap_or(0);
+        CalFile {
+            format: FORMAT.to_string(),
+            version: VERSION,
+            unit,
+            created_unix_s: now,
+            generator: format!("logtrim {}", env!("CARGO_PKG_VERSION")),
+            calibration,
+            temperature_sensor: None,
+            fit: None,
+        }
+    }
+
+    /// Parses a calibration file from JSON text; `path` only names it in errors.
+    pub fn from_json(text: &str, path: &str) -> Result<CalFile, CalFileError> {
+        #[derive(Deserialize)]
+        struct Head {
+            format: String,
+            version: u32,
+        }
+        let json_err = |e: serde_json::Error| CalFileError::Json {
+            path: path.to_string(),
+            line: e.line(),
+            column: e.column(),
+            message: e.to_string(),
+        };
+        let head: Head = serde_json::from_str(text).map_err(json_err)?;
+        if head.format != FORMAT || head.version != VERSION {
+            return Err(CalFileError::Version {
+                path: path.to_string(),
+                format: head.format,
+                version: head.version,
+            });
+        }
+        let file: CalFile = serde_json::from_str(text).map_err(json_err)?;
+        file.calibration
+            .validate()
+            .map_err(|error| CalFileError::Invalid { path: path.to_string(), error })?;
+        Ok(file)
+    }
+
+    /// Reads and validates a calibration file.
+    pub fn load(path: &Path) -> Result<CalFile, CalFileError> {
+        let p = path.display().to_string();
+        let text =
+            std::fs::read_to_string(path).map_err(|source| CalFileError::Io { path: p.clone(), source })?;
+        CalFile::from_json(&text, &p)
+    }
+
+    /// The file as pretty JSON.
+    pub fn to_json(&self) -> String {
+        // Serialising plain data with string keys cannot fail.
+        serde_json::to_string_pretty(self).unwrap_or_default()
+    }
+
+    /// Writes the file atomically.
+    pub fn save(&self, path: &Path) -> Result<(), CalFileError> {
+        let mut text = self.to_json();
+        text.push('\n');
+        crate::output::write_atomic(path, text.as_bytes())
+            .map_err(|source| CalFileError::Io { path: path.display().to_string(), source })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn round_trip_and_refusals() {
+        let cal = Calibration::nominal(16, 32768.0, 2000.0, 25.0);
+        let f = CalFile::new(cal, Some("SN-1".into()));
+        let text = f.to_json();
+        let back = CalFile::from_json(&text, "mem").unwrap();
+        assert_eq!(back, f);
+        let other = text.replace("\"version\": 1", "\"version\": 99");
+        assert!(matches!(CalFile::from_json(&other, "mem"), Err(CalFileError::Version { version: 99, .. })));
+        let typo = text.replace("\"unit\"", "\"unti\"");
+        assert!(matches!(CalFile::from_json(&typo, "mem"), Err(CalFileError::Json { .. })));
+        let bad = text.replace("\"bits\": 16", "\"bits\": 0");
+        assert!(matches!(CalFile::from_json(&bad, "mem"), Err(CalFileError::Invalid { .. })));
+    }
+}

@@ -1,0 +1,87 @@
+//! Writing output files atomically: write to a temporary file beside the target, then rename, so a failure
+//! never leaves a half-written file.
+
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+/// An output file that appears under its final name only when [`AtomicFile::commit`] succeeds.
+/// Dropped without commit, the temporary file is removed.
+pub struct AtomicFile {
+    target: PathBuf,
+    tmp: PathBuf,
+    file: Option<io::BufWriter<std::fs::File>>,
+}
+
+impl AtomicFile {
+    /// Creates the temporary file beside `target`.
+    pub fn create(target: &Path) -> io::Result<AtomicFile> {
+        let dir = match target.parent() {
+            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
+        let name = target.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        let tmp = dir.join(format!(".{name}.tmp-{}", std::process::id()));
+        let file = std::fs::File::create(&tmp)?;
+        Ok(AtomicFile { target: target.to_path_buf(), tmp, file: Some(io::BufWriter::new(file)) })
+    }
+
+    /// Flushes, syncs and renames the temporary file to the target.
+    pub fn commit(mut self) -> io::Result<()> {
+        if let Some(f) = self.file.take() {
+            let f = f.into_inner().map_err(|e| e.into_error())?;
+            f.sync_all()?;
+        }
+        std::fs::rename(&self.tmp, &self.target)
+    }
+}
+
+impl Write for AtomicFile {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        match self.file.as_mut() {
+            Some(f) => f.write(buf),
+            None => Err(io::Error::other("file already committed")),
+        }
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        match self.file.as_mut() {
+            Some(f) => f.flush(),
+            None => Ok(()),
+        }
+    }
+}
+
+impl Drop for AtomicFile {
+    fn drop(&mut self) {
+        if self.file.take().is_some() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// Writes `bytes` to `target` atomically.
+pub fn write_atomic(target: &Path, bytes: &[u8]) -> io::Result<()> {
+    let mut f = AtomicFile::create(target)?;
+    f.write_all(bytes)?;
+    f.commit()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn dropped_file_leaves_nothing() {
+        let dir = std::env::temp_dir().join(format!("logtrim-out-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let target = dir.join("a.txt");
+        {
+            let mut f = AtomicFile::create(&target).unwrap();
+            f.write_all(b"half").unwrap();
+        }
+        assert!(!target.exists());
+        assert_eq!(std::fs::read_dir(&dir).unwrap().count(), 0);
+        write_atomic(&target, b"whole").unwrap();
+        assert_eq!(std::fs::read(&target).unwrap(), b"whole");
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
+}
