@@ -8,11 +8,13 @@
 //! | module | owns |
 //! |---|---|
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
+//! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod calfile;
+pub mod fit;
 pub mod output;
 
 pub use logtrim;

@@ -1,0 +1,370 @@
+//! The fitted forward model: its size ([`Spec`]), its parameters ([`Params`]), prediction and Jacobian,
+//! and the translation into firmware-lib's [`Calibration`].
+//!
+//! The model is the one documented in `logtrim::calibration`:
+//!
+//! ```text
+//! code − L = [ P_c(τ) + (T_K/T_ref)·P_s(τ)·ln(e^x + β(τ)) + P_h(τ)·e^x ] / (1 + q·τ),  β = exp(b₀ + b₁τ)
+//! ```
+//!
+//! It is linear in the Chebyshev coefficients of `P_c`, `P_s` and `P_h` and non-linear in `q`, `b₀`, `b₁`.
+
+use logtrim::calibration::{
+    AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_SERIES,
+};
+use serde::Serialize;
+
+/// The size of a model: which terms it has and how many coefficients each carries.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+pub struct Spec {
+    /// Chebyshev terms of the offset numerator P_c (1..=MAX_SERIES).
+    pub offset_terms: usize,
+    /// Chebyshev terms of the slope numerator P_s (1..=MAX_SERIES).
+    pub slope_terms: usize,
+    /// Chebyshev terms of the bulk-resistance numerator P_h (0 = no high-end bend).
+    pub bulk_terms: usize,
+    /// Whether the gain pole q (a compensating resistor's tempco) is fitted.
+    pub pole: bool,
+    /// Whether the bias-current term β(τ) is fitted.
+    pub bias: bool,
+}
+
+impl Spec {
+    /// Number of linear parameters.
+    pub fn n_linear(&self) -> usize {
+        self.offset_terms + self.slope_terms + self.bulk_terms
+    }
+    /// Number of all parameters.
+    pub fn n_params(&self) -> usize {
+        self.n_linear() + usize::from(self.pole) + 2 * usize::from(self.bias)
+    }
+    /// The largest number of coefficients of any series over temperature.
+    pub fn temperature_terms(&self) -> usize {
+        self.offset_terms.max(self.slope_terms).max(self.bulk_terms)
+    }
+    /// A short text such as `offset 3, slope 2, bulk 1, pole, bias`.
+    pub fn describe(&self) -> String {
+        let mut s =
+            format!("offset {}, slope {}, bulk {}", self.offset_terms, self.slope_terms, self.bulk_terms);
+        if self.pole {
+            s.push_str(", pole");
+        }
+        if self.bias {
+            s.push_str(", bias");
+        }
+        s
+    }
+}
+
+/// The normalisation of a fit's variables.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Norm {
+    /// L: level-shift code subtracted from every code.
+    pub level: f64,
+    /// T_c, °C.
+    pub t_center_c: f64,
+    /// T_h, K.
+    pub t_half_span_k: f64,
+    /// T_ref, K.
+    pub t_ref_k: f64,
+}
+
+impl Norm {
+    /// τ of a temperature in °C.
+    pub fn tau(&self, temp_c: f64) -> f64 {
+        (temp_c - self.t_center_c) / self.t_half_span_k
+    }
+}
+
+/// A model's parameters.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Params {
+    /// The model size.
+    pub spec: Spec,
+    /// P_c coefficients, codes.
+    pub offset: Vec<f64>,
+    /// P_s coefficients, codes per neper at T_ref.
+    pub slope: Vec<f64>,
+    /// P_h coefficients, codes per unit ratio.
+    pub bulk: Vec<f64>,
+    /// q.
+    pub pole: f64,
+    /// b₀, b₁ of β(τ) = exp(b₀ + b₁τ).
+    pub ln_beta: [f64; 2],
+}
+
+/// One calibration row, prepared for the fit.
+#[derive(Debug, Clone, Copy)]
+pub struct Prep {
+    /// τ of the measured temperature.
+    pub tau: f64,
+    /// T_K/T_ref.
+    pub ptat: f64,
+    /// x = ln ratio.
+    pub x: f64,
+    /// e^x.
+    pub ex: f64,
+    /// code − L.
+    pub code: f64,
+    /// √weight.
+    pub sw: f64,
+}
+
+impl Prep {
+    /// Prepares a row.
+    pub fn new(norm: &Norm, code: f64, temp_c: f64, x: f64, weight: f64) -> Prep {
+        Prep {
+            tau: norm.tau(temp_c),
+            ptat: (temp_c + logtrim::physics::ZERO_CELSIUS_K) / norm.t_ref_k,
+            x,
+            ex: x.exp(),
+            code: code - norm.level,
+            sw: weight.sqrt(),
+        }
+    }
+}
+
+/// Chebyshev polynomials T_0..T_{n-1} at t.
+pub fn chebyshev(t: f64, out: &mut [f64; MAX_SERIES]) {
+    out[0] = 1.0;
+    out[1] = t;
+    for k in 2..MAX_SERIES {
+        out[k] = 2.0 * t * out[k - 1] - out[k - 2];
+    }
+}
+
+fn dot(c: &[f64], t: &[f64; MAX_SERIES]) -> f64 {
+    c.iter().zip(t.iter()).map(|(a, b)| a * b).sum()
+}
+
+impl Params {
+    /// Zero parameters of a spec, with the non-linear ones at neutral values.
+    pub fn zero(spec: Spec) -> Params {
+        Params {
+            spec,
+            offset: vec![0.0; spec.offset_terms],
+            slope: vec![0.0; spec.slope_terms],
+            bulk: vec![0.0; spec.bulk_terms],
+            pole: 0.0,
+            ln_beta: [-30.0, 0.0],
+        }
+    }
+
+    /// β at τ (0 when the term is off).
+    pub fn beta(&self, tau: f64) -> f64 {
+        if self.spec.bias {
+            (self.ln_beta[0] + self.ln_beta[1] * tau).exp()
+        } else {
+            0.0
+        }
+    }
+
+    /// The predicted code − L of a row.
+    pub fn predict(&self, p: &Prep) -> f64 {
+        let mut t = [0.0; MAX_SERIES];
+        chebyshev(p.tau, &mut t);
+        let z = (p.ex + self.beta(p.tau)).ln();
+        let num = dot(&self.offset, &t) + p.ptat * z * dot(&self.slope, &t) + p.ex * dot(&self.bulk, &t);
+        num / (1.0 + self.pole * p.tau)
+    }
+
+    /// The parameter vector in the order: offset, slope, bulk, [pole], [b₀, b₁].
+    pub fn to_vec(&self) -> Vec<f64> {
+        let mut v = Vec::with_capacity(self.spec.n_params());
+        v.extend_from_slice(&self.offset);
+        v.extend_from_slice(&self.slope);
+        v.extend_from_slice(&self.bulk);
+        if self.spec.pole {
+            v.push(self.pole);
+        }
+        if self.spec.bias {
+            v.extend_from_slice(&self.ln_beta);
+        }
+        v
+    }
+
+    /// Sets parameters from a vector in the order of [`Params::to_vec`].
+    pub fn set_vec(&mut self, v: &[f64]) {
+        let s = self.spec;
+        let mut it = v.iter().copied();
+        for c in self.offset.iter_mut().chain(self.slope.iter_mut()).chain(self.bulk.iter_mut()) {
+            *c = it.next().unwrap_or(0.0);
+        }
+        if s.pole {
+            self.pole = it.next().unwrap_or(0.0);
+        }
+        if s.bias {
+            self.ln_beta[0] = it.next().unwrap_or(-30.0);
+            self.ln_beta[1] = it.next().unwrap_or(0.0);
+        }
+    }
+
+    /// Sets the linear parameters from a vector in the order offset, slope, bulk.
+    pub fn set_linear(&mut self, v: &[f64]) {
+        let mut it = v.iter().copied();
+        for c in self.offset.iter_mut().chain(self.slope.iter_mut()).chain(self.bulk.iter_mut()) {
+            *c = it.next().unwrap_or(0.0);
+        }
+    }
+
+    /// One row of the linear design (already multiplied by √w / den), for the current non-linear values.
+    pub fn linear_row(&self, p: &Prep, out: &mut Vec<f64>) {
+        let mut t = [0.0; MAX_SERIES];
+        chebyshev(p.tau, &mut t);
+        let f = p.sw / (1.0 + self.pole * p.tau);
+        let z = (p.ex + self.beta(p.tau)).ln();
+        out.clear();
+        out.extend(t.iter().take(self.spec.offset_terms).map(|v| v * f));
+        out.extend(t.iter().take(self.spec.slope_terms).map(|v| v * f * p.ptat * z));
+        out.extend(t.iter().take(self.spec.bulk_terms).map(|v| v * f * p.ex));
+    }
+
+    /// The residual √w·(code − prediction) and its gradient with respect to the parameter vector
+    /// (the Jacobian row of the residual, i.e. −√w·∂prediction/∂p).
+    pub fn residual_and_gradient(&self, p: &Prep, grad: &mut Vec<f64>) -> f64 {
+        let s = self.spec;
+        let mut t = [0.0; MAX_SERIES];
+        chebyshev(p.tau, &mut t);
+        let den = 1.0 + self.pole * p.tau;
+        let beta = self.beta(p.tau);
+        let z = (p.ex + beta).ln();
+        let ps = dot(&self.slope, &t);
+        let num = dot(&self.offset, &t) + p.ptat * z * ps + p.ex * dot(&self.bulk, &t);
+        let pred = num / den;
+        let g = -p.sw / den;
+        grad.clear();
+        grad.extend(t.iter().take(s.offset_terms).map(|v| v * g));
+        grad.extend(t.iter().take(s.slope_terms).map(|v| v * g * p.ptat * z));
+        grad.extend(t.iter().take(s.bulk_terms).map(|v| v * g * p.ex));
+        if s.pole {
+            grad.push(p.sw * p.tau * num / (den * den));
+        }
+        if s.bias {
+            let d = g * p.ptat * ps * beta / (p.ex + beta);
+            grad.push(d);
+            grad.push(d * p.tau);
+        }
+        p.sw * (p.code - pred)
+    }
+
+    /// ∂prediction/∂x at a row (codes per neper), used to turn code residuals into x errors.
+    pub fn dcode_dx(&self, p: &Prep) -> f64 {
+        let mut t = [0.0; MAX_SERIES];
+        chebyshev(p.tau, &mut t);
+        let den = 1.0 + self.pole * p.tau;
+        let beta = self.beta(p.tau);
+        (p.ptat * dot(&self.slope, &t) * p.ex / (p.ex + beta) + p.ex * dot(&self.bulk, &t)) / den
+    }
+}
+
+/// Ranges and ADC settings recorded in a calibration.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Envelope {
+    /// ADC scaling (bits, rail margin); the level shift is taken from the fit's normalisation.
+    pub bits: u8,
+    /// Codes within this many of either rail are refused as saturated.
+    pub rail_margin: u32,
+    /// The calibrated temperature range.
+    pub temperature: TemperatureRange,
+    /// The calibrated x range.
+    pub x_range: XRange,
+}
+
+impl Envelope {
+    /// An envelope that accepts everything the model can evaluate (for cross-validation and residuals).
+    pub fn open(bits: u8) -> Envelope {
+        Envelope {
+            bits,
+            rail_margin: 0,
+            temperature: TemperatureRange { min_c: -200.0, max_c: 500.0, extrapolation_k: 0.0 },
+            x_range: XRange { min: -80.0, max: 80.0, min_sensitivity: 0.0 },
+        }
+    }
+}
+
+fn series(c: &[f64]) -> Series {
+    let v: Vec<f32> = c.iter().map(|&v| v as f32).collect();
+    Series::from_slice(&v).unwrap_or(Series::ZERO)
+}
+
+/// The firmware calibration of fitted parameters.
+pub fn to_calibration(params: &Params, norm: &Norm, env: &Envelope) -> Calibration {
+    Calibration {
+        adc: AdcScaling { bits: env.bits, rail_margin: env.rail_margin, level_shift_code: norm.level as f32 },
+        temperature: env.temperature,
+        x_range: env.x_range,
+        model: Model {
+            t_center_c: norm.t_center_c as f32,
+            t_half_span_k: norm.t_half_span_k as f32,
+            t_ref_k: norm.t_ref_k as f32,
+            pole: if params.spec.pole { params.pole as f32 } else { 0.0 },
+            offset: series(&params.offset),
+            slope: series(&params.slope),
+            bulk: series(&params.bulk),
+            bias: if params.spec.bias {
+                BiasTerm {
+                    enabled: true,
+                    ln_beta0: params.ln_beta[0] as f32,
+                    ln_beta1: params.ln_beta[1] as f32,
+                }
+            } else {
+                BiasTerm::OFF
+            },
+            residual: Residual::OFF,
+        },
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn spec() -> Spec {
+        Spec { offset_terms: 3, slope_terms: 2, bulk_terms: 1, pole: true, bias: true }
+    }
+
+    fn params() -> Params {
+        let mut p = Params::zero(spec());
+        p.offset = vec![120.0, 30.0, -5.0];
+        p.slope = vec![5600.0, 40.0];
+        p.bulk = vec![9.0];
+        p.pole = -0.15;
+        p.ln_beta = [-9.0, 3.5];
+        p
+    }
+
+    #[test]
+    fn prediction_matches_the_firmware_forward_model() {
+        let norm = Norm { level: 30000.0, t_center_c: 32.5, t_half_span_k: 52.5, t_ref_k: 305.65 };
+        let p = params();
+        let cal = to_calibration(&p, &norm, &Envelope::open(16));
+        for (x, t) in [(-6.0, -20.0), (0.0, 25.0), (4.0, 85.0), (-3.0, 60.0)] {
+            let row = Prep::new(&norm, 0.0, t, x, 1.0);
+            let mine = p.predict(&row) + norm.level;
+            let fw = cal.forward_code_f64(x, t);
+            // The firmware stores f32 coefficients: agreement to ~1e-6 relative of the largest term.
+            assert!((mine - fw).abs() < 0.05, "x={x} t={t}: {mine} vs {fw}");
+        }
+    }
+
+    #[test]
+    fn gradient_matches_finite_differences() {
+        let norm = Norm { level: 30000.0, t_center_c: 32.5, t_half_span_k: 52.5, t_ref_k: 305.65 };
+        let p = params();
+        let row = Prep::new(&norm, 31000.0, 70.0, -5.0, 2.0);
+        let mut g = Vec::new();
+        let r0 = p.residual_and_gradient(&row, &mut g);
+        let v = p.to_vec();
+        for i in 0..v.len() {
+            let h = 1e-6 * v[i].abs().max(1e-3);
+            let mut q = p.clone();
+            let mut w = v.clone();
+            w[i] += h;
+            q.set_vec(&w);
+            let mut g2 = Vec::new();
+            let r1 = q.residual_and_gradient(&row, &mut g2);
+            let fd = (r1 - r0) / h;
+            assert!((fd - g[i]).abs() <= 1e-4 + 1e-4 * g[i].abs(), "param {i}: fd {fd} vs {}", g[i]);
+        }
+    }
+}

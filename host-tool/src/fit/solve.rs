@@ -1,0 +1,234 @@
+//! The solvers behind the fit: linear least squares by blocked Householder QR and an SVD of the small
+//! triangular factor (nalgebra), and non-linear refinement by Levenberg–Marquardt (the
+//! `levenberg-marquardt` crate). No normal equations are formed anywhere.
+
+use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
+use nalgebra::{DMatrix, DVector, Dyn, Owned};
+use rayon::prelude::*;
+
+use super::model::{Params, Prep};
+
+/// Rows per block of the blocked (tall-skinny) QR.
+const BLOCK: usize = 8192;
+
+/// The result of a linear least-squares solve.
+#[derive(Debug, Clone)]
+pub struct LinearSolution {
+    /// The coefficients.
+    pub coeffs: Vec<f64>,
+    /// Σ residual².
+    pub sse: f64,
+    /// Numerical rank found by the SVD.
+    pub rank: usize,
+    /// Condition number of the column-scaled design (σ_max/σ_min of the kept singular values).
+    pub condition: f64,
+}
+
+/// Solves `min ‖A c − b‖` where row i of `[A | b]` is produced by `row(i, &mut buf)` (the row's p design
+/// values followed by its target), for `n` rows and `p` columns.
+///
+/// Columns are scaled to unit norm, the augmented matrix is reduced to its triangular factor block by block
+/// (in parallel), and the small factor is solved by SVD, which gives the minimum-norm solution when the
+/// design is rank-deficient.
+pub fn linear_lstsq<F>(n: usize, p: usize, row: F) -> Option<LinearSolution>
+where
+    F: Fn(usize, &mut Vec<f64>) + Sync,
+{
+    if n < p || p == 0 {
+        return None;
+    }
+    // Column norms for scaling.
+    let norms: Vec<f64> = (0..n)
+        .into_par_iter()
+        .fold(
+            || (vec![0.0; p + 1], Vec::with_capacity(p + 1)),
+            |(mut acc, mut buf), i| {
+                row(i, &mut buf);
+                for (a, v) in acc.iter_mut().zip(&buf) {
+                    *a += v * v;
+                }
+                (acc, buf)
+            },
+        )
+        .map(|(a, _)| a)
+        .reduce(|| vec![0.0; p + 1], |a, b| a.iter().zip(&b).map(|(x, y)| x + y).collect());
+    let scale: Vec<f64> = norms.iter().take(p).map(|s| if *s > 0.0 { 1.0 / s.sqrt() } else { 1.0 }).collect();
+
+    let blocks: Vec<(usize, usize)> = (0..n).step_by(BLOCK).map(|s| (s, (s + BLOCK).min(n))).collect();
+    let factors: Vec<DMatrix<f64>> = blocks
+        .par_iter()
+        .map(|&(s, e)| {
+            let m = e - s;
+            let mut a = DMatrix::<f64>::zeros(m, p + 1);
+            let mut buf = Vec::with_capacity(p + 1);
+            for (r, i) in (s..e).enumerate() {
+                row(i, &mut buf);
+                for c in 0..p {
+                    a[(r, c)] = buf.get(c).copied().unwrap_or(0.0) * scale[c];
+                }
+                a[(r, p)] = buf.get(p).copied().unwrap_or(0.0);
+            }
+            triangular_factor(a)
+        })
+        .collect();
+    let mut stacked = DMatrix::<f64>::zeros(factors.iter().map(|f| f.nrows()).sum(), p + 1);
+    let mut r0 = 0;
+    for f in &factors {
+        stacked.view_mut((r0, 0), (f.nrows(), p + 1)).copy_from(f);
+        r0 += f.nrows();
+    }
+    let r = triangular_factor(stacked);
+    let rr = r.view((0, 0), (p.min(r.nrows()), p)).into_owned();
+    let qtb = r.view((0, p), (p.min(r.nrows()), 1)).into_owned();
+    let resid_tail = if r.nrows() > p { r[(p, p)] } else { 0.0 };
+    let svd = rr.clone().svd(true, true);
+    let smax = svd.singular_values.max();
+    if !(smax.is_finite() && smax > 0.0) {
+        return None;
+    }
+    let eps = smax * 1e-12 * (p as f64);
+    let rank = svd.singular_values.iter().filter(|s| **s > eps).count();
+    let smin = svd.singular_values.iter().copied().filter(|s| *s > eps).fold(f64::INFINITY, f64::min);
+    let sol = svd.solve(&qtb, eps).ok()?;
+    // Residual: the part of Qᵀb outside the range of R plus the augmented column's tail.
+    let fitted = &rr * &sol;
+    let in_range: f64 = (&qtb - fitted).norm_squared();
+    let coeffs: Vec<f64> = (0..p).map(|c| sol[(c, 0)] * scale[c]).collect();
+    if coeffs.iter().any(|c| !c.is_finite()) {
+        return None;
+    }
+    Some(LinearSolution { coeffs, sse: in_range + resid_tail * resid_tail, rank, condition: smax / smin })
+}
+
+/// The upper-triangular factor R (min(m, k) × k) of a Householder QR of `a` (m × k).
+fn triangular_factor(a: DMatrix<f64>) -> DMatrix<f64> {
+    let k = a.ncols();
+    if a.nrows() == 0 {
+        return DMatrix::zeros(0, k);
+    }
+    a.qr().r()
+}
+
+/// Solves the linear parameters of `params` (its non-linear values held) on `rows`; returns the SSE.
+pub fn solve_linear(params: &mut Params, rows: &[Prep]) -> Option<f64> {
+    let p = params.spec.n_linear();
+    let snapshot = params.clone();
+    let sol = linear_lstsq(rows.len(), p, |i, buf| {
+        let r = &rows[i];
+        snapshot.linear_row(r, buf);
+        buf.push(r.sw * r.code);
+    })?;
+    params.set_linear(&sol.coeffs);
+    Some(sol.sse)
+}
+
+/// Σ residual² of `params` on `rows`.
+pub fn sse(params: &Params, rows: &[Prep]) -> f64 {
+    rows.par_iter()
+        .map(|r| {
+            let e = r.sw * (r.code - params.predict(r));
+            e * e
+        })
+        .sum()
+}
+
+struct Problem<'a> {
+    rows: &'a [Prep],
+    params: Params,
+}
+
+impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
+    type ResidualStorage = Owned<f64, Dyn>;
+    type JacobianStorage = Owned<f64, Dyn, Dyn>;
+    type ParameterStorage = Owned<f64, Dyn>;
+
+    fn set_params(&mut self, x: &DVector<f64>) {
+        self.params.set_vec(x.as_slice());
+    }
+
+    fn params(&self) -> DVector<f64> {
+        DVector::from_vec(self.params.to_vec())
+    }
+
+    fn residuals(&self) -> Option<DVector<f64>> {
+        let v: Vec<f64> = self.rows.par_iter().map(|r| r.sw * (r.code - self.params.predict(r))).collect();
+        v.iter().all(|e| e.is_finite()).then(|| DVector::from_vec(v))
+    }
+
+    fn jacobian(&self) -> Option<DMatrix<f64>> {
+        let p = self.params.spec.n_params();
+        let n = self.rows.len();
+        let grads: Vec<Vec<f64>> = self
+            .rows
+            .par_iter()
+            .map(|r| {
+                let mut g = Vec::with_capacity(p);
+                self.params.residual_and_gradient(r, &mut g);
+                g
+            })
+            .collect();
+        let m = DMatrix::from_fn(n, p, |i, j| grads[i].get(j).copied().unwrap_or(0.0));
+        m.iter().all(|e| e.is_finite()).then_some(m)
+    }
+}
+
+/// Refines all parameters by Levenberg–Marquardt from `start`; returns the refined parameters and SSE.
+/// A refinement that does not lower the SSE returns the start.
+pub fn refine(start: &Params, rows: &[Prep]) -> (Params, f64) {
+    let s0 = sse(start, rows);
+    let problem = Problem { rows, params: start.clone() };
+    let (done, report) = LevenbergMarquardt::new().with_patience(60).minimize(problem);
+    let s1 = sse(&done.params, rows);
+    if std::env::var_os("LOGTRIM_DEBUG_FIT").is_some() {
+        eprintln!(
+            "LM {:?} evals {} sse {s0:.4e} -> {s1:.4e}",
+            report.termination, report.number_of_evaluations
+        );
+    }
+    if s1.is_finite() && s1 <= s0 {
+        (done.params, s1)
+    } else {
+        (start.clone(), s0)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn exact_line_and_rank_deficiency() {
+        // y = 2 + 3 t on 100 points; a duplicated column makes the design rank-deficient: the minimum-norm
+        // solution splits the coefficient evenly.
+        let t: Vec<f64> = (0..100).map(|i| i as f64 / 10.0).collect();
+        let s = linear_lstsq(100, 3, |i, b| {
+            b.clear();
+            b.extend_from_slice(&[1.0, t[i], t[i], 2.0 + 3.0 * t[i]]);
+        })
+        .unwrap();
+        assert_eq!(s.rank, 2);
+        assert!((s.coeffs[0] - 2.0).abs() < 1e-10);
+        assert!((s.coeffs[1] - 1.5).abs() < 1e-10 && (s.coeffs[2] - 1.5).abs() < 1e-10);
+        assert!(s.sse < 1e-18);
+    }
+
+    #[test]
+    fn residual_sum_matches_direct_computation() {
+        let n = 20_000;
+        let f = |i: usize| ((i as f64) * 0.37).sin();
+        let s = linear_lstsq(n, 2, |i, b| {
+            b.clear();
+            let t = i as f64 / n as f64;
+            b.extend_from_slice(&[1.0, t, 1.0 + t + 0.01 * f(i)]);
+        })
+        .unwrap();
+        let direct: f64 = (0..n)
+            .map(|i| {
+                let t = i as f64 / n as f64;
+                let e = 1.0 + t + 0.01 * f(i) - s.coeffs[0] - s.coeffs[1] * t;
+                e * e
+            })
+            .sum();
+        assert!((s.sse - direct).abs() <= 1e-9 + 1e-7 * direct, "{} vs {direct}", s.sse);
+    }
+}
