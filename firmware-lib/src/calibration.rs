@@ -6,7 +6,7 @@
 //! `P(τ) = Σ c_k T_k(τ)`, the fitted forward model of a unit (code as a function of x and T) is
 //!
 //! ```text
-//! code = L + [ P_c(τ) + (T_K/T_ref)·P_s(τ)·ln(e^x + β(τ)) + P_h(τ)·e^x ] / (1 + q·τ)
+//! code = L + [ P_c(τ) + ρ·(T_K/T_ref)·β(τ) + (T_K/T_ref)·P_s(τ)·ln(e^x + β(τ)) + P_h(τ)·e^x ] / (1 + q·τ)
 //! β(τ) = exp(b_0 + b_1·τ)                       (zero when the bias term is off)
 //! ```
 //!
@@ -20,7 +20,8 @@
 //!   same gain, plus ADC offset.
 //! * `β(τ)` is the op-amp input bias current over the reference current. It adds to the signal current and
 //!   bends the low end: `ln(e^x + β)`. Bias currents grow exponentially with temperature, so `ln β` is linear
-//!   in T.
+//!   in T. The reference input's bias current adds `ln(1 + β_r)` ≈ `β_r` on the other side of the pair;
+//!   with the same temperature law it is the offset term `ρ·(T_K/T_ref)·β(τ)` (ρ in codes, either sign).
 //! * `P_h(τ)·e^x` is the bulk-resistance term `I_sig·r` that bends the high end.
 //!
 //! The firmware inverts this model: with `w = (code − L − c_0)/S` (offset and slope at the temperature) and
@@ -170,11 +171,13 @@ pub struct BiasTerm {
     pub ln_beta0: f32,
     /// `b₁`: slope of ln β per unit τ.
     pub ln_beta1: f32,
+    /// `ρ`: the reference input's bias term in the offset, codes (0 when that input has no bias current).
+    pub reference: f32,
 }
 
 impl BiasTerm {
     /// No bias term.
-    pub const OFF: BiasTerm = BiasTerm { enabled: false, ln_beta0: 0.0, ln_beta1: 0.0 };
+    pub const OFF: BiasTerm = BiasTerm { enabled: false, ln_beta0: 0.0, ln_beta1: 0.0, reference: 0.0 };
 }
 
 /// The generic residual `R(ξ, τ) = Σ r_ij T_i(ξ) T_j(τ)` added to x last.
@@ -337,8 +340,10 @@ impl Calibration {
             x0 = x - r.eval(xi, tau);
         }
         let ex0 = libm::exp(x0);
+        let ptat = t_k / f64::from(m.t_ref_k);
         f64::from(self.adc.level_shift_code)
             + (m.offset.eval(tau)
+                + f64::from(m.bias.reference) * ptat * beta
                 + t_k / f64::from(m.t_ref_k) * m.slope.eval(tau) * libm::log(ex0 + beta)
                 + m.bulk.eval(tau) * ex0)
                 / den
@@ -382,7 +387,10 @@ impl Calibration {
             && r.x_center.is_finite()
             && r.x_half_span.is_finite()
             && r.x_half_span > 0.0;
-        let bias_ok = m.bias.ln_beta0.is_finite() && m.bias.ln_beta1.is_finite() && m.bias.ln_beta0 < 30.0;
+        let bias_ok = m.bias.ln_beta0.is_finite()
+            && m.bias.ln_beta1.is_finite()
+            && m.bias.reference.is_finite()
+            && m.bias.ln_beta0 < 30.0;
         if !(series_ok(&m.offset) && series_ok(&m.slope) && series_ok(&m.bulk) && residual_ok && bias_ok)
             || !m.pole.is_finite()
         {
@@ -465,10 +473,10 @@ impl Calibration {
         if !(slope > zero) || !slope.finite() {
             return Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope));
         }
-        let offset = m.offset.eval(tau) / den;
         let h = m.bulk.eval(tau) / den / slope;
         let beta =
             if m.bias.enabled { M::exp(of(m.bias.ln_beta0) + of(m.bias.ln_beta1) * tau) } else { zero };
+        let offset = (m.offset.eval(tau) + of(m.bias.reference) * (t_k / of(m.t_ref_k)) * beta) / den;
 
         let w = (code - of(self.adc.level_shift_code) - offset) / slope;
         if w > of(MAX_EXP_ARG) {

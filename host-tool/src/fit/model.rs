@@ -4,10 +4,12 @@
 //! The model is the one documented in `logtrim::calibration`:
 //!
 //! ```text
-//! code − L = [ P_c(τ) + (T_K/T_ref)·P_s(τ)·ln(e^x + β(τ)) + P_h(τ)·e^x ] / (1 + q·τ),  β = exp(b₀ + b₁τ)
+//! code − L = [ P_c(τ) + ρ·(T_K/T_ref)·β + (T_K/T_ref)·P_s(τ)·ln(e^x + β) + P_h(τ)·e^x ] / (1 + q·τ)
+//! β = exp(b₀ + b₁τ)
 //! ```
 //!
-//! It is linear in the Chebyshev coefficients of `P_c`, `P_s` and `P_h` and non-linear in `q`, `b₀`, `b₁`.
+//! It is linear in the Chebyshev coefficients of `P_c`, `P_s`, `P_h` and in ρ, and non-linear in `q`, `b₀`,
+//! `b₁`.
 
 use logtrim::calibration::{
     AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_SERIES,
@@ -30,9 +32,9 @@ pub struct Spec {
 }
 
 impl Spec {
-    /// Number of linear parameters.
+    /// Number of linear parameters (ρ comes with the bias term).
     pub fn n_linear(&self) -> usize {
-        self.offset_terms + self.slope_terms + self.bulk_terms
+        self.offset_terms + self.slope_terms + self.bulk_terms + usize::from(self.bias)
     }
     /// Number of all parameters.
     pub fn n_params(&self) -> usize {
@@ -91,6 +93,8 @@ pub struct Params {
     pub pole: f64,
     /// b₀, b₁ of β(τ) = exp(b₀ + b₁τ).
     pub ln_beta: [f64; 2],
+    /// ρ: the reference input's bias term, codes.
+    pub bias_ref: f64,
 }
 
 /// One calibration row, prepared for the fit.
@@ -147,6 +151,7 @@ impl Params {
             bulk: vec![0.0; spec.bulk_terms],
             pole: 0.0,
             ln_beta: [-30.0, 0.0],
+            bias_ref: 0.0,
         }
     }
 
@@ -163,17 +168,24 @@ impl Params {
     pub fn predict(&self, p: &Prep) -> f64 {
         let mut t = [0.0; MAX_SERIES];
         chebyshev(p.tau, &mut t);
-        let z = (p.ex + self.beta(p.tau)).ln();
-        let num = dot(&self.offset, &t) + p.ptat * z * dot(&self.slope, &t) + p.ex * dot(&self.bulk, &t);
+        let beta = self.beta(p.tau);
+        let z = (p.ex + beta).ln();
+        let num = dot(&self.offset, &t)
+            + self.bias_ref * p.ptat * beta
+            + p.ptat * z * dot(&self.slope, &t)
+            + p.ex * dot(&self.bulk, &t);
         num / (1.0 + self.pole * p.tau)
     }
 
-    /// The parameter vector in the order: offset, slope, bulk, [pole], [b₀, b₁].
+    /// The parameter vector in the order: offset, slope, bulk, [ρ], [pole], [b₀, b₁].
     pub fn to_vec(&self) -> Vec<f64> {
         let mut v = Vec::with_capacity(self.spec.n_params());
         v.extend_from_slice(&self.offset);
         v.extend_from_slice(&self.slope);
         v.extend_from_slice(&self.bulk);
+        if self.spec.bias {
+            v.push(self.bias_ref);
+        }
         if self.spec.pole {
             v.push(self.pole);
         }
@@ -190,6 +202,9 @@ impl Params {
         for c in self.offset.iter_mut().chain(self.slope.iter_mut()).chain(self.bulk.iter_mut()) {
             *c = it.next().unwrap_or(0.0);
         }
+        if s.bias {
+            self.bias_ref = it.next().unwrap_or(0.0);
+        }
         if s.pole {
             self.pole = it.next().unwrap_or(0.0);
         }
@@ -199,11 +214,14 @@ impl Params {
         }
     }
 
-    /// Sets the linear parameters from a vector in the order offset, slope, bulk.
+    /// Sets the linear parameters from a vector in the order offset, slope, bulk, [ρ].
     pub fn set_linear(&mut self, v: &[f64]) {
         let mut it = v.iter().copied();
         for c in self.offset.iter_mut().chain(self.slope.iter_mut()).chain(self.bulk.iter_mut()) {
             *c = it.next().unwrap_or(0.0);
+        }
+        if self.spec.bias {
+            self.bias_ref = it.next().unwrap_or(0.0);
         }
     }
 
@@ -212,11 +230,15 @@ impl Params {
         let mut t = [0.0; MAX_SERIES];
         chebyshev(p.tau, &mut t);
         let f = p.sw / (1.0 + self.pole * p.tau);
-        let z = (p.ex + self.beta(p.tau)).ln();
+        let beta = self.beta(p.tau);
+        let z = (p.ex + beta).ln();
         out.clear();
         out.extend(t.iter().take(self.spec.offset_terms).map(|v| v * f));
         out.extend(t.iter().take(self.spec.slope_terms).map(|v| v * f * p.ptat * z));
         out.extend(t.iter().take(self.spec.bulk_terms).map(|v| v * f * p.ex));
+        if self.spec.bias {
+            out.push(f * p.ptat * beta);
+        }
     }
 
     /// The residual √w·(code − prediction) and its gradient with respect to the parameter vector
@@ -229,18 +251,24 @@ impl Params {
         let beta = self.beta(p.tau);
         let z = (p.ex + beta).ln();
         let ps = dot(&self.slope, &t);
-        let num = dot(&self.offset, &t) + p.ptat * z * ps + p.ex * dot(&self.bulk, &t);
+        let num = dot(&self.offset, &t)
+            + self.bias_ref * p.ptat * beta
+            + p.ptat * z * ps
+            + p.ex * dot(&self.bulk, &t);
         let pred = num / den;
         let g = -p.sw / den;
         grad.clear();
         grad.extend(t.iter().take(s.offset_terms).map(|v| v * g));
         grad.extend(t.iter().take(s.slope_terms).map(|v| v * g * p.ptat * z));
         grad.extend(t.iter().take(s.bulk_terms).map(|v| v * g * p.ex));
+        if s.bias {
+            grad.push(g * p.ptat * beta);
+        }
         if s.pole {
             grad.push(p.sw * p.tau * num / (den * den));
         }
         if s.bias {
-            let d = g * p.ptat * ps * beta / (p.ex + beta);
+            let d = g * p.ptat * (ps / (p.ex + beta) + self.bias_ref) * beta;
             grad.push(d);
             grad.push(d * p.tau);
         }
@@ -306,6 +334,7 @@ pub fn to_calibration(params: &Params, norm: &Norm, env: &Envelope) -> Calibrati
                     enabled: true,
                     ln_beta0: params.ln_beta[0] as f32,
                     ln_beta1: params.ln_beta[1] as f32,
+                    reference: params.bias_ref as f32,
                 }
             } else {
                 BiasTerm::OFF
@@ -330,6 +359,7 @@ mod tests {
         p.bulk = vec![9.0];
         p.pole = -0.15;
         p.ln_beta = [-9.0, 3.5];
+        p.bias_ref = -4.0;
         p
     }
 

@@ -11,7 +11,7 @@ fn synthetic(seed: u64, with_bias: bool) -> (Calibration, FitData) {
     c.model.slope = Series::from_slice(&[3500.0, 25.0]).unwrap();
     c.model.bulk = Series::from_slice(&[12.0]).unwrap();
     if with_bias {
-        c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6 };
+        c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
     }
     let mut state = seed;
     let mut uniform = move || {
