@@ -274,12 +274,18 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     let (tmin, tmax) =
         data.temp_c.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &t| (a.min(t), b.max(t)));
     let tc = 0.5 * (tmin + tmax);
+    let (xmin_data, xmax_data) = data
+        .ratio
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &r| (a.min(r.ln()), b.max(r.ln())));
     let level = median(data.code.iter().map(|&c| f64::from(c)).collect()).round();
     let norm = Norm {
         level,
         t_center_c: (tc * 64.0).round() / 64.0,
         t_half_span_k: (0.5 * (tmax - tmin)).max(1.0),
         t_ref_k: (tc * 64.0).round() / 64.0 + logtrim::physics::ZERO_CELSIUS_K,
+        x_center: 0.5 * (xmin_data + xmax_data),
+        x_half_span: (0.5 * (xmax_data - xmin_data)).max(0.5),
     };
     let weight = |i: usize| data.weight.get(i).copied().unwrap_or(1.0);
     let prep =
@@ -293,7 +299,15 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
 
     let mut notes = Vec::new();
     let mut cv = Vec::new();
-    let base = Spec { offset_terms: 2, slope_terms: 1, bulk_terms: 0, pole: nsp >= 3, bias: false };
+    let base = Spec {
+        offset_terms: 2,
+        slope_terms: 1,
+        bulk_terms: 0,
+        pole: nsp >= 3,
+        bias: false,
+        residual_x: 0,
+        residual_t: 0,
+    };
     let (chosen, mut params) = match opt.spec {
         Some(spec) => {
             check_spec(spec, nsp, n)?;
@@ -407,6 +421,18 @@ fn check_spec(spec: Spec, nsp: usize, n: usize) -> Result<(), FitError> {
             spec: spec.describe(),
             why: format!(
                 "{t_terms} coefficients over temperature need at least {t_terms} set-points, {nsp} given"
+            ),
+        });
+    }
+    if spec.residual_x > logtrim::calibration::MAX_RESIDUAL
+        || spec.residual_t > logtrim::calibration::MAX_RESIDUAL
+        || spec.residual_t > nsp
+    {
+        return Err(FitError::Underdetermined {
+            spec: spec.describe(),
+            why: format!(
+                "the residual takes at most {m}x{m} terms and no more terms over temperature than set-points ({nsp})",
+                m = logtrim::calibration::MAX_RESIDUAL
             ),
         });
     }

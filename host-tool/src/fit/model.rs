@@ -12,7 +12,8 @@
 //! `b₁`.
 
 use logtrim::calibration::{
-    AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_SERIES,
+    AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL,
+    MAX_SERIES,
 };
 use serde::Serialize;
 
@@ -29,6 +30,10 @@ pub struct Spec {
     pub pole: bool,
     /// Whether the bias-current term β(τ) is fitted.
     pub bias: bool,
+    /// Chebyshev terms in ξ of the generic residual R(ξ, τ) (0 = no residual).
+    pub residual_x: usize,
+    /// Chebyshev terms in τ of the generic residual (0 = no residual).
+    pub residual_t: usize,
 }
 
 impl Spec {
@@ -36,7 +41,7 @@ impl Spec {
     pub fn n_linear(&self) -> usize {
         self.offset_terms + self.slope_terms + self.bulk_terms + usize::from(self.bias)
     }
-    /// Number of all parameters.
+    /// Number of parameters refined by Levenberg–Marquardt (all but the generic residual's).
     pub fn n_params(&self) -> usize {
         self.n_linear() + usize::from(self.pole) + 2 * usize::from(self.bias)
     }
@@ -54,7 +59,15 @@ impl Spec {
         if self.bias {
             s.push_str(", bias");
         }
+        if self.has_residual() {
+            s.push_str(&format!(", residual {}x{}", self.residual_x, self.residual_t));
+        }
         s
+    }
+
+    /// Whether the generic residual is part of the model.
+    pub fn has_residual(&self) -> bool {
+        self.residual_x > 0 && self.residual_t > 0
     }
 }
 
@@ -69,6 +82,10 @@ pub struct Norm {
     pub t_half_span_k: f64,
     /// T_ref, K.
     pub t_ref_k: f64,
+    /// x_c: centre of the x normalisation ξ of the residual.
+    pub x_center: f64,
+    /// x_h: half span of the x normalisation.
+    pub x_half_span: f64,
 }
 
 impl Norm {
@@ -95,6 +112,8 @@ pub struct Params {
     pub ln_beta: [f64; 2],
     /// ρ: the reference input's bias term, codes.
     pub bias_ref: f64,
+    /// Coefficients r_ij of the generic residual, at index `i·residual_t + j`.
+    pub residual: Vec<f64>,
 }
 
 /// One calibration row, prepared for the fit.
@@ -102,6 +121,8 @@ pub struct Params {
 pub struct Prep {
     /// τ of the measured temperature.
     pub tau: f64,
+    /// ξ of x.
+    pub xi: f64,
     /// T_K/T_ref.
     pub ptat: f64,
     /// x = ln ratio.
@@ -119,6 +140,7 @@ impl Prep {
     pub fn new(norm: &Norm, code: f64, temp_c: f64, x: f64, weight: f64) -> Prep {
         Prep {
             tau: norm.tau(temp_c),
+            xi: (x - norm.x_center) / norm.x_half_span,
             ptat: (temp_c + logtrim::physics::ZERO_CELSIUS_K) / norm.t_ref_k,
             x,
             ex: x.exp(),
@@ -152,6 +174,7 @@ impl Params {
             pole: 0.0,
             ln_beta: [-30.0, 0.0],
             bias_ref: 0.0,
+            residual: vec![0.0; spec.residual_x * spec.residual_t],
         }
     }
 
@@ -275,6 +298,19 @@ impl Params {
         p.sw * (p.code - pred)
     }
 
+    /// The generic residual R(ξ, τ) at a row, nepers.
+    pub fn residual_at(&self, p: &Prep) -> f64 {
+        if !self.spec.has_residual() {
+            return 0.0;
+        }
+        let mut tx = [0.0; MAX_SERIES];
+        let mut tt = [0.0; MAX_SERIES];
+        chebyshev(p.xi, &mut tx);
+        chebyshev(p.tau, &mut tt);
+        let nt = self.spec.residual_t;
+        self.residual.iter().enumerate().map(|(k, c)| c * tx[k / nt] * tt[k % nt]).sum()
+    }
+
     /// ∂prediction/∂x at a row (codes per neper), used to turn code residuals into x errors.
     pub fn dcode_dx(&self, p: &Prep) -> f64 {
         let mut t = [0.0; MAX_SERIES];
@@ -339,9 +375,28 @@ pub fn to_calibration(params: &Params, norm: &Norm, env: &Envelope) -> Calibrati
             } else {
                 BiasTerm::OFF
             },
-            residual: Residual::OFF,
+            residual: residual(params, norm),
         },
     }
+}
+
+fn residual(params: &Params, norm: &Norm) -> Residual {
+    let s = params.spec;
+    if !s.has_residual() || s.residual_x > MAX_RESIDUAL || s.residual_t > MAX_RESIDUAL {
+        return Residual::OFF;
+    }
+    let mut r = Residual {
+        nx: s.residual_x as u8,
+        nt: s.residual_t as u8,
+        x_center: norm.x_center as f32,
+        x_half_span: norm.x_half_span as f32,
+        ..Residual::OFF
+    };
+    for (k, c) in params.residual.iter().enumerate() {
+        let (i, j) = (k / s.residual_t, k % s.residual_t);
+        r.coeffs[i * MAX_RESIDUAL + j] = *c as f32;
+    }
+    r
 }
 
 #[cfg(test)]
@@ -349,7 +404,15 @@ mod tests {
     use super::*;
 
     fn spec() -> Spec {
-        Spec { offset_terms: 3, slope_terms: 2, bulk_terms: 1, pole: true, bias: true }
+        Spec {
+            offset_terms: 3,
+            slope_terms: 2,
+            bulk_terms: 1,
+            pole: true,
+            bias: true,
+            residual_x: 2,
+            residual_t: 2,
+        }
     }
 
     fn params() -> Params {
@@ -360,26 +423,49 @@ mod tests {
         p.pole = -0.15;
         p.ln_beta = [-9.0, 3.5];
         p.bias_ref = -4.0;
+        p.residual = vec![0.002, -0.001, 0.0005, 0.0003];
         p
     }
 
     #[test]
     fn prediction_matches_the_firmware_forward_model() {
-        let norm = Norm { level: 30000.0, t_center_c: 32.5, t_half_span_k: 52.5, t_ref_k: 305.65 };
+        let norm = Norm {
+            level: 30000.0,
+            t_center_c: 32.5,
+            t_half_span_k: 52.5,
+            t_ref_k: 305.65,
+            x_center: -1.0,
+            x_half_span: 5.5,
+        };
         let p = params();
         let cal = to_calibration(&p, &norm, &Envelope::open(16));
         for (x, t) in [(-6.0, -20.0), (0.0, 25.0), (4.0, 85.0), (-3.0, 60.0)] {
             let row = Prep::new(&norm, 0.0, t, x, 1.0);
             let mine = p.predict(&row) + norm.level;
-            let fw = cal.forward_code_f64(x, t);
+            let mut plain = cal;
+            plain.model.residual = Residual::OFF;
+            let fw = plain.forward_code_f64(x, t);
             // The firmware stores f32 coefficients: agreement to ~1e-6 relative of the largest term.
             assert!((mine - fw).abs() < 0.05, "x={x} t={t}: {mine} vs {fw}");
+            // The residual acts in the inverse direction: x = x0 + R(ξ(x0), τ).
+            let code = cal.forward_code_f64(x, t);
+            let x0 = plain.correct_f64(code, t).unwrap().x;
+            let xi = (x0 - norm.x_center) / norm.x_half_span;
+            let r = p.residual_at(&Prep { xi, ..row });
+            assert!((x0 + r - x).abs() < 1e-6, "residual at x={x} t={t}: {x0} + {r} vs {x}");
         }
     }
 
     #[test]
     fn gradient_matches_finite_differences() {
-        let norm = Norm { level: 30000.0, t_center_c: 32.5, t_half_span_k: 52.5, t_ref_k: 305.65 };
+        let norm = Norm {
+            level: 30000.0,
+            t_center_c: 32.5,
+            t_half_span_k: 52.5,
+            t_ref_k: 305.65,
+            x_center: -1.0,
+            x_half_span: 5.5,
+        };
         let p = params();
         let row = Prep::new(&norm, 31000.0, 70.0, -5.0, 2.0);
         let mut g = Vec::new();

@@ -50,8 +50,39 @@ pub fn fit_spec(rows: &[Prep], spec: Spec, warm: Option<&Params>) -> Option<(Par
         grid_start(&mut start, rows)?;
     }
     solve_linear(&mut start, rows)?;
-    let (p, s) = refine(&start, rows);
+    let (mut p, s) = refine(&start, rows);
+    if spec.has_residual() {
+        fit_residual(&mut p, rows)?;
+    }
     Some((p, s))
+}
+
+/// Fits the generic residual R(ξ, τ) to what the physical terms leave, in x, weighted so that the fit is
+/// least squares in codes (each row's x error times its sensitivity ∂code/∂x).
+pub fn fit_residual(params: &mut Params, rows: &[Prep]) -> Option<()> {
+    let s = params.spec;
+    let (nx, nt) = (s.residual_x, s.residual_t);
+    let base =
+        Params { spec: Spec { residual_x: 0, residual_t: 0, ..s }, residual: vec![], ..params.clone() };
+    let sol = super::solve::linear_lstsq(rows.len(), nx * nt, |i, buf| {
+        let r = &rows[i];
+        let d = base.dcode_dx(r);
+        let w = r.sw * d;
+        let e = (r.code - base.predict(r)) / d;
+        let mut tx = [0.0; logtrim::calibration::MAX_SERIES];
+        let mut tt = [0.0; logtrim::calibration::MAX_SERIES];
+        super::model::chebyshev(r.xi, &mut tx);
+        super::model::chebyshev(r.tau, &mut tt);
+        buf.clear();
+        for a in tx.iter().take(nx) {
+            for b in tt.iter().take(nt) {
+                buf.push(a * b * w);
+            }
+        }
+        buf.push(-e * w);
+    })?;
+    params.residual = sol.coeffs;
+    Some(())
 }
 
 /// Picks starting non-linear values on a coarse grid (each point a linear solve on a few rows).
@@ -103,9 +134,8 @@ pub fn x_errors(params: &Params, rows: &[Prep]) -> Vec<f64> {
     rows.iter()
         .map(|r| {
             let d = params.dcode_dx(r);
-            let e = (r.code - params.predict(r)) / if d.abs() > 1e-9 { d } else { 1e-9 };
-            // Measured, not estimated: the x error is the negative of code error over sensitivity.
-            -e
+            // x̂ − x ≈ (code − prediction)/(∂code/∂x), plus the residual added after the inversion.
+            (r.code - params.predict(r)) / if d.abs() > 1e-9 { d } else { 1e-9 } + params.residual_at(r)
         })
         .collect()
 }
@@ -166,6 +196,17 @@ pub fn moves(spec: Spec, n_train: usize, max_series: usize) -> Vec<Spec> {
     }
     if !spec.bias && n_train >= 2 {
         out.push(Spec { bias: true, ..spec });
+    }
+    let max_r = logtrim::calibration::MAX_RESIDUAL;
+    if !spec.has_residual() {
+        out.push(Spec { residual_x: 3, residual_t: 1, ..spec });
+    } else {
+        if spec.residual_x < max_r {
+            out.push(Spec { residual_x: spec.residual_x + 1, ..spec });
+        }
+        if spec.residual_t < max_r.min(n_train) {
+            out.push(Spec { residual_t: spec.residual_t + 1, ..spec });
+        }
     }
     out
 }
