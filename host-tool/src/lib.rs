@@ -10,11 +10,15 @@
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
+//! | [`frontend`] | the f64 reference model of one front end (physics, noise, the oracle) and the presets |
+//! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod calfile;
 pub mod fit;
+pub mod data;
+pub mod frontend;
 pub mod output;
 
 pub use logtrim;

@@ -1,0 +1,698 @@
+//! The project's reference model of one log-ratio front end, in f64: the physics from the two currents to
+//! the ADC code, the temperature channel, the noise, and the oracle that inverts the exact model.
+//!
+//! # The model
+//!
+//! With `T` the unit's true temperature in °C, `T_K = T + 273.15`, `V_T = k·T_K/q`, x = ln(I_sig/I_ref):
+//!
+//! ```text
+//! I_b(T)  = I_b,25 · 2^((T − 25)/D)                         bias current, doubling every D kelvin
+//! I_1     = I_ref·e^x + I_b,sig(T)                           collector current of the signal transistor
+//! I_2     = I_ref     + I_b,ref(T)                           collector current of the reference transistor
+//! ΔV      = n·V_T·ln(I_1/I_2) + r·(I_1 − I_2)                the pair: log ratio plus bulk resistance
+//!         + ΔV_BE,25 · T_K/298.15                            pair mismatch (PTAT)
+//!         + V_os,in(T) + V_os,out(T)                         op-amp offsets, V_os(T) = V_os,25 + drift·(T − 25)
+//! G(T)    = 1 + (G_25 − 1)/(1 + α·(T − 25))                  output stage: R1 has tempco α (0 = uncompensated)
+//! V_out   = G(T)·ΔV + V_shift
+//! code    = round( 2^bits·(1 + ε)·V_out/V_ref + c_off + noise ),  clamped to 0 ..= 2^bits − 1
+//! ```
+//!
+//! The output-stage offset sits at the non-inverting input of the gain stage, so it sees the same gain
+//! (the noise gain of a non-inverting stage) as the input stage's. The code is monotone increasing in x: both
+//! `ln(I_1)` and `r·I_1` increase with `I_sig`.
+//!
+//! The temperature channel ([`TemperatureChannel`]) turns the unit's true temperature into what the
+//! firmware reads; during a chamber run the unit's temperature jitters around the set-point
+//! ([`OperatingRange::setpoint_jitter_k_rms`]).
+//!
+//! # The oracle
+//!
+//! [`FrontEnd::oracle`] is the best x that an observer who knows this exact model can recover from one noisy
+//! `(code, measured temperature)` pair: it undoes the deterministic part of the temperature channel (its
+//! offset and slope error, which a calibration absorbs as well), then inverts the noise-free code at that
+//! temperature by safeguarded Newton iteration in a bracket. Its error against the truth is the irreducible
+//! error that any calibration is measured against.
+
+mod presets;
+#[cfg(test)]
+mod tests;
+
+use std::path::Path;
+
+use logtrim::physics::{thermal_voltage, ZERO_CELSIUS_K};
+use rand::Rng;
+use rand_distr::{Distribution, StandardNormal};
+use serde::{Deserialize, Serialize};
+
+pub use presets::{preset, Preset, PRESETS};
+
+/// 25 °C in kelvin: the reference temperature of every "at 25 °C" parameter.
+pub const T25_K: f64 = 25.0 + ZERO_CELSIUS_K;
+
+/// Lowest x the oracle searches (a ratio of about 1.8e-35): below it a code is "below the floor".
+const X_SEARCH_MIN: f64 = -80.0;
+/// Highest x the oracle searches.
+const X_SEARCH_MAX: f64 = 60.0;
+
+/// One front end, as a JSON-loadable description (see the module docs for the equations).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FrontEnd {
+    /// A short name (a preset's name, or one of the user's choosing).
+    pub name: String,
+    /// Free text describing the unit.
+    #[serde(default)]
+    pub description: String,
+    /// The matched transistor pair.
+    pub pair: PairModel,
+    /// The op-amps: offsets and input bias currents.
+    pub amplifiers: AmplifierModel,
+    /// The output stage: gain network and level shift.
+    pub output_stage: OutputStage,
+    /// The log channel's ADC.
+    pub adc: AdcModel,
+    /// How the unit's temperature is measured.
+    pub temperature_sensor: TemperatureChannel,
+    /// The ranges the unit is specified and calibrated over.
+    pub operating: OperatingRange,
+    /// Unit-to-unit spread of the parameters, for simulated production batches (none if absent).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub spread: Option<UnitSpread>,
+}
+
+/// The matched transistor pair.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct PairModel {
+    /// Ideality factor n of the emitter junctions (dimensionless, 1.000…1.01 in this connection).
+    pub ideality: f64,
+    /// Reference current I_ref, A.
+    pub i_ref_a: f64,
+    /// Pair mismatch ΔV_BE at 25 °C, V (proportional to absolute temperature; sign as it adds to ΔV).
+    pub mismatch_v_25c: f64,
+    /// Bulk emitter/base resistance r of each transistor, Ω (I·r adds to each V_BE).
+    pub bulk_resistance_ohm: f64,
+}
+
+/// The op-amps of the log stage and the output stage.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AmplifierModel {
+    /// Input-stage offset voltage at 25 °C, V (referred to ΔV).
+    pub input_offset_v: f64,
+    /// Input-stage offset drift, V/K.
+    pub input_offset_drift_v_per_k: f64,
+    /// Output-stage offset voltage at 25 °C, V (at the gain stage's non-inverting input).
+    pub output_offset_v: f64,
+    /// Output-stage offset drift, V/K.
+    pub output_offset_drift_v_per_k: f64,
+    /// Input bias current on the signal input at 25 °C, A (≥ 0: it adds to the signal current).
+    pub bias_signal_a_25c: f64,
+    /// Input bias current on the reference input at 25 °C, A (≥ 0: it adds to the reference current).
+    #[serde(default)]
+    pub bias_reference_a_25c: f64,
+    /// Temperature interval over which the bias currents double, K (about 10 K for FET inputs).
+    pub bias_doubling_k: f64,
+}
+
+/// The output stage: a non-inverting gain `G = 1 + R2/R1(T)` and a level shift.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OutputStage {
+    /// Gain G at 25 °C (≥ 1, dimensionless).
+    pub gain_25c: f64,
+    /// Linear tempco α of the compensating resistor R1, 1/K (≈ +3300e-6…+3500e-6; 0 = uncompensated).
+    pub r1_tempco_per_k: f64,
+    /// Level shift added after the gain, V (the output at x = 0 for an ideal pair).
+    pub level_shift_v: f64,
+}
+
+fn default_bits() -> u8 {
+    16
+}
+
+/// The log channel's ADC.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct AdcModel {
+    /// Resolution, bits (1..=24, default 16).
+    #[serde(default = "default_bits")]
+    pub bits: u8,
+    /// Reference voltage (full scale), V: one LSB is `V_ref / 2^bits`.
+    pub vref_v: f64,
+    /// Gain error ε, as a fraction (the transfer is multiplied by 1 + ε).
+    pub gain_error: f64,
+    /// Offset, codes.
+    pub offset_codes: f64,
+    /// Noise at the converter's input, codes rms (before rounding).
+    pub noise_codes_rms: f64,
+}
+
+/// How the unit's temperature reaches the firmware.
+///
+/// Only a digital sensor (a reading in °C) exists so far. A raw channel (an NTC or RTD divider read by an
+/// ADC, whose code the firmware linearises) will become a further variant holding firmware-lib's sensor
+/// description; its readings are [`MeasuredTemperature::Code`], written as a `temp_code` column.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
+#[non_exhaustive]
+pub enum TemperatureChannel {
+    /// A digital sensor that reports °C: `T_m = 25 + (T − 25)(1 + slope_error) + offset + noise`, rounded to
+    /// the resolution.
+    Digital {
+        /// Offset of the reading, K (includes any steady gradient between the sensor and the pair).
+        offset_k: f64,
+        /// Slope error of the reading, as a fraction.
+        #[serde(default)]
+        slope_error: f64,
+        /// Noise of one reading, K rms.
+        noise_k_rms: f64,
+        /// Resolution of the reading, K (0 = unquantised).
+        #[serde(default)]
+        resolution_k: f64,
+    },
+}
+
+/// A temperature as the firmware receives it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MeasuredTemperature {
+    /// A reading in °C (a digital sensor): written as a `temp_c` column.
+    Celsius(f64),
+    /// The raw ADC code of a temperature channel: written as a `temp_code` column.
+    Code(u32),
+}
+
+impl MeasuredTemperature {
+    /// The CSV column this kind of reading is written to.
+    pub fn column(&self) -> &'static str {
+        match self {
+            MeasuredTemperature::Celsius(_) => "temp_c",
+            MeasuredTemperature::Code(_) => "temp_code",
+        }
+    }
+}
+
+/// The ranges a unit is specified and calibrated over.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OperatingRange {
+    /// Lowest operating (and calibration) temperature, °C.
+    pub temp_min_c: f64,
+    /// Highest operating temperature, °C.
+    pub temp_max_c: f64,
+    /// Lowest ratio I_sig/I_ref to calibrate.
+    pub ratio_min: f64,
+    /// Highest ratio I_sig/I_ref to calibrate.
+    pub ratio_max: f64,
+    /// How much the unit's own temperature wanders around a chamber set-point, K rms.
+    pub setpoint_jitter_k_rms: f64,
+}
+
+/// Unit-to-unit spread (one standard deviation each) for simulated batches; a missing field means no spread.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(default, deny_unknown_fields)]
+pub struct UnitSpread {
+    /// Ideality factor n, absolute.
+    pub ideality: f64,
+    /// Pair mismatch at 25 °C, V.
+    pub mismatch_v: f64,
+    /// Bulk resistance, relative (log-normal).
+    pub bulk_resistance_rel: f64,
+    /// Each op-amp's offset at 25 °C, V.
+    pub offset_v: f64,
+    /// Each op-amp's offset drift, V/K.
+    pub offset_drift_v_per_k: f64,
+    /// Bias currents, relative (log-normal; the same factor for both inputs of one unit).
+    pub bias_rel: f64,
+    /// Gain at 25 °C, relative.
+    pub gain_rel: f64,
+    /// Compensating resistor's tempco, 1/K (applied only where the nominal tempco is not 0).
+    pub tempco_per_k: f64,
+    /// Level shift, V.
+    pub level_shift_v: f64,
+    /// ADC gain error, absolute fraction.
+    pub adc_gain_error: f64,
+    /// ADC offset, codes.
+    pub adc_offset_codes: f64,
+    /// Temperature sensor offset, K.
+    pub sensor_offset_k: f64,
+}
+
+/// Errors loading or checking a front-end description.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum FrontEndError {
+    /// The file could not be read.
+    #[error("{path}: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+    /// The file is not valid JSON of this description.
+    #[error("{path}: line {line}, column {column}: {message}")]
+    Json {
+        /// The file.
+        path: String,
+        /// Line of the defect (1-based).
+        line: usize,
+        /// Column of the defect (1-based).
+        column: usize,
+        /// What was wrong.
+        message: String,
+    },
+    /// A parameter is outside what the model can describe.
+    #[error("{name}: {field} = {value:?} is not allowed; expected {expected}")]
+    Invalid {
+        /// The front end's name.
+        name: String,
+        /// The parameter, as its JSON path (e.g. `pair.ideality`).
+        field: &'static str,
+        /// The value given.
+        value: f64,
+        /// What the model needs.
+        expected: &'static str,
+    },
+}
+
+impl FrontEnd {
+    /// Parses a description from JSON text and validates it; `path` only names the source in errors.
+    pub fn from_json(text: &str, path: &str) -> Result<FrontEnd, FrontEndError> {
+        let fe: FrontEnd = serde_json::from_str(text).map_err(|e| FrontEndError::Json {
+            path: path.to_string(),
+            line: e.line(),
+            column: e.column(),
+            message: e.to_string(),
+        })?;
+        fe.validate()?;
+        Ok(fe)
+    }
+
+    /// Reads and validates a description from a JSON file.
+    pub fn load(path: &Path) -> Result<FrontEnd, FrontEndError> {
+        let p = path.display().to_string();
+        let text =
+            std::fs::read_to_string(path).map_err(|source| FrontEndError::Io { path: p.clone(), source })?;
+        FrontEnd::from_json(&text, &p)
+    }
+
+    /// The description as pretty JSON (with a trailing newline).
+    pub fn to_json(&self) -> String {
+        // Plain data with string keys and finite numbers: serialising cannot fail.
+        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
+        s.push('\n');
+        s
+    }
+
+    /// Checks every parameter against what the model can describe, over the operating range widened by
+    /// 50 K on either side (so that chamber jitter and extrapolation stay inside the model).
+    pub fn validate(&self) -> Result<(), FrontEndError> {
+        let bad = |field: &'static str, value: f64, expected: &'static str| {
+            Err(FrontEndError::Invalid { name: self.name.clone(), field, value, expected })
+        };
+        let finite = |v: f64| v.is_finite();
+        let p = &self.pair;
+        if !(finite(p.ideality) && (0.9..=2.0).contains(&p.ideality)) {
+            return bad("pair.ideality", p.ideality, "a finite ideality factor in 0.9..=2");
+        }
+        if !(finite(p.i_ref_a) && p.i_ref_a > 0.0) {
+            return bad("pair.i_ref_a", p.i_ref_a, "a positive current in A");
+        }
+        if !(finite(p.mismatch_v_25c) && p.mismatch_v_25c.abs() < 0.1) {
+            return bad("pair.mismatch_v_25c", p.mismatch_v_25c, "a finite voltage below 0.1 V in magnitude");
+        }
+        if !(finite(p.bulk_resistance_ohm) && p.bulk_resistance_ohm >= 0.0) {
+            return bad("pair.bulk_resistance_ohm", p.bulk_resistance_ohm, "a resistance ≥ 0 Ω");
+        }
+        let a = &self.amplifiers;
+        for (field, v) in [
+            ("amplifiers.input_offset_v", a.input_offset_v),
+            ("amplifiers.input_offset_drift_v_per_k", a.input_offset_drift_v_per_k),
+            ("amplifiers.output_offset_v", a.output_offset_v),
+            ("amplifiers.output_offset_drift_v_per_k", a.output_offset_drift_v_per_k),
+        ] {
+            if !(finite(v) && v.abs() < 0.1) {
+                return bad(field, v, "a finite value below 0.1 in magnitude");
+            }
+        }
+        for (field, v) in [
+            ("amplifiers.bias_signal_a_25c", a.bias_signal_a_25c),
+            ("amplifiers.bias_reference_a_25c", a.bias_reference_a_25c),
+        ] {
+            if !(finite(v) && v >= 0.0) {
+                return bad(field, v, "a bias current ≥ 0 A (it adds to the collector current)");
+            }
+        }
+        if !(finite(a.bias_doubling_k) && a.bias_doubling_k >= 1.0) {
+            return bad("amplifiers.bias_doubling_k", a.bias_doubling_k, "a doubling interval ≥ 1 K");
+        }
+        let g = &self.output_stage;
+        if !(finite(g.gain_25c) && (1.0..=1e4).contains(&g.gain_25c)) {
+            return bad("output_stage.gain_25c", g.gain_25c, "a gain in 1..=10000 (non-inverting stage)");
+        }
+        if !(finite(g.r1_tempco_per_k) && g.r1_tempco_per_k.abs() < 0.02) {
+            return bad(
+                "output_stage.r1_tempco_per_k",
+                g.r1_tempco_per_k,
+                "a tempco below 0.02 /K in magnitude",
+            );
+        }
+        if !finite(g.level_shift_v) {
+            return bad("output_stage.level_shift_v", g.level_shift_v, "a finite voltage");
+        }
+        let d = &self.adc;
+        if !(1..=24).contains(&d.bits) {
+            return bad("adc.bits", f64::from(d.bits), "1..=24 bits");
+        }
+        if !(finite(d.vref_v) && d.vref_v > 0.0) {
+            return bad("adc.vref_v", d.vref_v, "a positive reference voltage");
+        }
+        if !(finite(d.gain_error) && d.gain_error.abs() < 0.5) {
+            return bad("adc.gain_error", d.gain_error, "a fraction below 0.5 in magnitude");
+        }
+        if !finite(d.offset_codes) {
+            return bad("adc.offset_codes", d.offset_codes, "a finite offset in codes");
+        }
+        if !(finite(d.noise_codes_rms) && d.noise_codes_rms >= 0.0) {
+            return bad("adc.noise_codes_rms", d.noise_codes_rms, "a noise ≥ 0 codes rms");
+        }
+        match self.temperature_sensor {
+            TemperatureChannel::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
+                if !(finite(offset_k) && offset_k.abs() < 50.0) {
+                    return bad("temperature_sensor.offset_k", offset_k, "a finite offset below 50 K");
+                }
+                if !(finite(slope_error) && slope_error.abs() < 0.5) {
+                    return bad("temperature_sensor.slope_error", slope_error, "a fraction below 0.5");
+                }
+                if !(finite(noise_k_rms) && noise_k_rms >= 0.0) {
+                    return bad("temperature_sensor.noise_k_rms", noise_k_rms, "a noise ≥ 0 K rms");
+                }
+                if !(finite(resolution_k) && resolution_k >= 0.0) {
+                    return bad("temperature_sensor.resolution_k", resolution_k, "a resolution ≥ 0 K");
+                }
+            }
+        }
+        let o = &self.operating;
+        if !(finite(o.temp_min_c) && o.temp_min_c > -200.0) {
+            return bad("operating.temp_min_c", o.temp_min_c, "a temperature above −200 °C");
+        }
+        if !(finite(o.temp_max_c) && o.temp_max_c > o.temp_min_c && o.temp_max_c < 300.0) {
+            return bad(
+                "operating.temp_max_c",
+                o.temp_max_c,
+                "a temperature above temp_min_c and below 300 °C",
+            );
+        }
+        if !(finite(o.ratio_min) && o.ratio_min > 0.0) {
+            return bad("operating.ratio_min", o.ratio_min, "a positive finite ratio");
+        }
+        if !(finite(o.ratio_max) && o.ratio_max > o.ratio_min) {
+            return bad("operating.ratio_max", o.ratio_max, "a finite ratio above ratio_min");
+        }
+        if !(finite(o.setpoint_jitter_k_rms) && o.setpoint_jitter_k_rms >= 0.0) {
+            return bad("operating.setpoint_jitter_k_rms", o.setpoint_jitter_k_rms, "a jitter ≥ 0 K rms");
+        }
+        for t in [o.temp_min_c - 50.0, o.temp_max_c + 50.0] {
+            let den = 1.0 + g.r1_tempco_per_k * (t - 25.0);
+            if den.is_nan() || den <= 0.05 {
+                return bad(
+                    "output_stage.r1_tempco_per_k",
+                    g.r1_tempco_per_k,
+                    "a tempco that keeps R1 positive over the operating range ± 50 K",
+                );
+            }
+        }
+        if let Some(s) = &self.spread {
+            for (field, v) in [
+                ("spread.ideality", s.ideality),
+                ("spread.mismatch_v", s.mismatch_v),
+                ("spread.bulk_resistance_rel", s.bulk_resistance_rel),
+                ("spread.offset_v", s.offset_v),
+                ("spread.offset_drift_v_per_k", s.offset_drift_v_per_k),
+                ("spread.bias_rel", s.bias_rel),
+                ("spread.gain_rel", s.gain_rel),
+                ("spread.tempco_per_k", s.tempco_per_k),
+                ("spread.level_shift_v", s.level_shift_v),
+                ("spread.adc_gain_error", s.adc_gain_error),
+                ("spread.adc_offset_codes", s.adc_offset_codes),
+                ("spread.sensor_offset_k", s.sensor_offset_k),
+            ] {
+                if !(finite(v) && v >= 0.0) {
+                    return bad(field, v, "a standard deviation ≥ 0");
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// The largest code of the log channel's ADC.
+    pub fn max_code(&self) -> u32 {
+        (1u32 << self.adc.bits.clamp(1, 24)) - 1
+    }
+
+    /// Volts per code of the log channel (the LSB), ignoring the gain error.
+    pub fn lsb_v(&self) -> f64 {
+        self.adc.vref_v / f64::from(1u32 << self.adc.bits.clamp(1, 24))
+    }
+
+    /// A bias current at `t_c` from its value at 25 °C.
+    pub fn bias_current_a(&self, at_25c: f64, t_c: f64) -> f64 {
+        at_25c * libm::exp2((t_c - 25.0) / self.amplifiers.bias_doubling_k)
+    }
+
+    /// β(T) = I_b,sig(T)/I_ref: the bias current on the signal input relative to the reference current.
+    pub fn beta(&self, t_c: f64) -> f64 {
+        self.bias_current_a(self.amplifiers.bias_signal_a_25c, t_c) / self.pair.i_ref_a
+    }
+
+    /// The gain G(T) of the output stage.
+    pub fn gain(&self, t_c: f64) -> f64 {
+        let g = &self.output_stage;
+        1.0 + (g.gain_25c - 1.0) / (1.0 + g.r1_tempco_per_k * (t_c - 25.0))
+    }
+
+    /// The ideal slope n·(kT/q)·G(T) of the output, V per neper (no bends).
+    pub fn ideal_slope_v_per_neper(&self, t_c: f64) -> f64 {
+        self.pair.ideality * thermal_voltage(t_c + ZERO_CELSIUS_K) * self.gain(t_c)
+    }
+
+    /// The pair's output ΔV in volts at x and the unit's true temperature (before the gain stage).
+    pub fn pair_voltage(&self, x: f64, t_c: f64) -> f64 {
+        let t_k = t_c + ZERO_CELSIUS_K;
+        let p = &self.pair;
+        let a = &self.amplifiers;
+        let vt = thermal_voltage(t_k);
+        let beta = self.beta(t_c);
+        let i_sig = p.i_ref_a * libm::exp(x);
+        let i1 = i_sig + p.i_ref_a * beta;
+        let i2 = p.i_ref_a + self.bias_current_a(a.bias_reference_a_25c, t_c);
+        // ln(I_1/I_2) = ln(e^x + β) + ln(I_ref/I_2), with ln(e^x + β) evaluated without underflow.
+        let ln_i1_over_iref = ln_exp_plus(x, beta);
+        let log_term = p.ideality * vt * (ln_i1_over_iref + libm::log(p.i_ref_a / i2));
+        let bulk = p.bulk_resistance_ohm * (i1 - i2);
+        let mismatch = p.mismatch_v_25c * t_k / T25_K;
+        let dt = t_c - 25.0;
+        let offsets = a.input_offset_v
+            + a.input_offset_drift_v_per_k * dt
+            + a.output_offset_v
+            + a.output_offset_drift_v_per_k * dt;
+        log_term + bulk + mismatch + offsets
+    }
+
+    /// The output voltage V_out at x and the unit's true temperature, V.
+    pub fn output_voltage(&self, x: f64, t_c: f64) -> f64 {
+        self.gain(t_c) * self.pair_voltage(x, t_c) + self.output_stage.level_shift_v
+    }
+
+    /// Codes per volt of the converter, including its gain error.
+    fn codes_per_volt(&self) -> f64 {
+        (1.0 + self.adc.gain_error) / self.lsb_v()
+    }
+
+    /// The exact, noise-free, unrounded code at x and the unit's true temperature.
+    pub fn code_exact(&self, x: f64, t_c: f64) -> f64 {
+        self.output_voltage(x, t_c) * self.codes_per_volt() + self.adc.offset_codes
+    }
+
+    /// ∂code/∂x of [`FrontEnd::code_exact`], codes per neper (always > 0).
+    pub fn code_slope(&self, x: f64, t_c: f64) -> f64 {
+        let p = &self.pair;
+        let vt = thermal_voltage(t_c + ZERO_CELSIUS_K);
+        let ex = libm::exp(x);
+        let beta = self.beta(t_c);
+        // d ln(e^x + β)/dx = e^x/(e^x + β) = 1/(1 + β e^−x), written to stay finite at both ends.
+        let frac = 1.0 / (1.0 + beta * libm::exp(-x));
+        let dv = p.ideality * vt * frac + p.bulk_resistance_ohm * p.i_ref_a * ex;
+        self.gain(t_c) * dv * self.codes_per_volt()
+    }
+
+    /// The local sensitivity ∂code/∂x relative to the ideal slope (1 for an ideal front end; it collapses
+    /// where the bias current swamps the signal and exceeds 1 where the bulk resistance bends the high end).
+    pub fn sensitivity(&self, x: f64, t_c: f64) -> f64 {
+        self.code_slope(x, t_c) / (self.ideal_slope_v_per_neper(t_c) * self.codes_per_volt())
+    }
+
+    /// The noise-free code: [`FrontEnd::code_exact`] rounded and clamped to the converter's range.
+    pub fn code_noise_free(&self, x: f64, t_c: f64) -> u32 {
+        self.quantise(self.code_exact(x, t_c))
+    }
+
+    /// Rounds a fractional code to an integer and clamps it to the rails, as a converter does.
+    pub fn quantise(&self, code: f64) -> u32 {
+        let max = f64::from(self.max_code());
+        let c = libm::round(code);
+        if c.is_nan() || c <= 0.0 {
+            0
+        } else if c >= max {
+            self.max_code()
+        } else {
+            c as u32
+        }
+    }
+
+    /// A noisy ADC code at x and the unit's true temperature.
+    pub fn sample_code<R: Rng + ?Sized>(&self, x: f64, t_c: f64, rng: &mut R) -> u32 {
+        let n: f64 = StandardNormal.sample(rng);
+        self.quantise(self.code_exact(x, t_c) + self.adc.noise_codes_rms * n)
+    }
+
+    /// A noisy temperature reading of a unit whose true temperature is `t_c`.
+    pub fn measure_temperature<R: Rng + ?Sized>(&self, t_c: f64, rng: &mut R) -> MeasuredTemperature {
+        match self.temperature_sensor {
+            TemperatureChannel::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
+                let n: f64 = StandardNormal.sample(rng);
+                let t = 25.0 + (t_c - 25.0) * (1.0 + slope_error) + offset_k + noise_k_rms * n;
+                let t = if resolution_k > 0.0 { libm::round(t / resolution_k) * resolution_k } else { t };
+                MeasuredTemperature::Celsius(t)
+            }
+        }
+    }
+
+    /// The unit's temperature as best known from a reading: the reading with the channel's deterministic
+    /// errors (offset, slope error) undone. `None` if the reading is of a kind this channel does not give.
+    pub fn temperature_estimate_c(&self, reading: MeasuredTemperature) -> Option<f64> {
+        match (self.temperature_sensor, reading) {
+            (TemperatureChannel::Digital { offset_k, slope_error, .. }, MeasuredTemperature::Celsius(t)) => {
+                Some(25.0 + (t - 25.0 - offset_k) / (1.0 + slope_error))
+            }
+            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Code(_)) => None,
+        }
+    }
+
+    /// The oracle: the x that the exact model gives for one noisy reading (see the module docs).
+    ///
+    /// `None` where no x can be recovered: the code is at a rail (the converter saturated, the true value
+    /// lies anywhere beyond), the code lies below the floor that the bias current sets at the low end, or
+    /// the temperature reading is of a kind this front end's channel does not give.
+    pub fn oracle(&self, code: u32, temperature: MeasuredTemperature) -> Option<f64> {
+        if code == 0 || code >= self.max_code() {
+            return None;
+        }
+        let t = self.temperature_estimate_c(temperature)?;
+        self.invert_code(f64::from(code), t)
+    }
+
+    /// Inverts [`FrontEnd::code_exact`] at the true temperature `t_c`: the x whose exact code is `code`.
+    ///
+    /// The code is monotone increasing in x; the root is bracketed, then found by Newton steps that fall
+    /// back to bisection whenever a step would leave the bracket (the low-end bend flattens the curve).
+    /// `None` if the code lies outside what any x in −80…60 produces, or an input is not finite.
+    pub fn invert_code(&self, code: f64, t_c: f64) -> Option<f64> {
+        if !(code.is_finite() && t_c.is_finite()) {
+            return None;
+        }
+        let f = |x: f64| self.code_exact(x, t_c) - code;
+        // Bracket, starting from the operating range and widening geometrically.
+        let (mut lo, mut hi) =
+            (libm::log(self.operating.ratio_min) - 2.0, libm::log(self.operating.ratio_max) + 2.0);
+        let mut step = 4.0;
+        while f(lo) > 0.0 {
+            if lo <= X_SEARCH_MIN {
+                return None;
+            }
+            lo = (lo - step).max(X_SEARCH_MIN);
+            step *= 2.0;
+        }
+        step = 4.0;
+        while f(hi) < 0.0 {
+            if hi >= X_SEARCH_MAX {
+                return None;
+            }
+            hi = (hi + step).min(X_SEARCH_MAX);
+            step *= 2.0;
+        }
+        // Safeguarded Newton from the linear interpolate.
+        let (flo, fhi) = (f(lo), f(hi));
+        let mut x = if fhi > flo { lo - flo * (hi - lo) / (fhi - flo) } else { 0.5 * (lo + hi) };
+        for _ in 0..200 {
+            let fx = f(x);
+            if fx == 0.0 {
+                return Some(x);
+            }
+            if fx < 0.0 {
+                lo = x;
+            } else {
+                hi = x;
+            }
+            let d = self.code_slope(x, t_c);
+            let newton = x - fx / d;
+            let next =
+                if newton > lo && newton < hi && newton.is_finite() { newton } else { 0.5 * (lo + hi) };
+            if (next - x).abs() <= 1e-13 * (1.0 + x.abs()) || hi - lo <= 1e-13 * (1.0 + x.abs()) {
+                return Some(next);
+            }
+            x = next;
+        }
+        Some(x)
+    }
+
+    /// Draws one unit of a production batch from this description's [`UnitSpread`] (the nominal unit if
+    /// there is none). The drawn unit carries no spread of its own and is named `"<name>/<serial>"`.
+    pub fn draw_unit<R: Rng + ?Sized>(&self, serial: &str, rng: &mut R) -> Result<FrontEnd, FrontEndError> {
+        let mut u = self.clone();
+        u.name = format!("{}/{serial}", self.name);
+        u.spread = None;
+        let Some(s) = self.spread else {
+            return Ok(u);
+        };
+        let mut n = || -> f64 { StandardNormal.sample(rng) };
+        u.pair.ideality += s.ideality * n();
+        u.pair.mismatch_v_25c += s.mismatch_v * n();
+        u.pair.bulk_resistance_ohm *= libm::exp(s.bulk_resistance_rel * n());
+        u.amplifiers.input_offset_v += s.offset_v * n();
+        u.amplifiers.output_offset_v += s.offset_v * n();
+        u.amplifiers.input_offset_drift_v_per_k += s.offset_drift_v_per_k * n();
+        u.amplifiers.output_offset_drift_v_per_k += s.offset_drift_v_per_k * n();
+        let bias_factor = libm::exp(s.bias_rel * n());
+        u.amplifiers.bias_signal_a_25c *= bias_factor;
+        u.amplifiers.bias_reference_a_25c *= bias_factor;
+        u.output_stage.gain_25c = 1.0 + (u.output_stage.gain_25c - 1.0) * (1.0 + s.gain_rel * n());
+        let dt = n();
+        if u.output_stage.r1_tempco_per_k != 0.0 {
+            u.output_stage.r1_tempco_per_k += s.tempco_per_k * dt;
+        }
+        u.output_stage.level_shift_v += s.level_shift_v * n();
+        u.adc.gain_error += s.adc_gain_error * n();
+        u.adc.offset_codes += s.adc_offset_codes * n();
+        let so = n();
+        match &mut u.temperature_sensor {
+            TemperatureChannel::Digital { offset_k, .. } => *offset_k += s.sensor_offset_k * so,
+        }
+        u.validate()?;
+        Ok(u)
+    }
+}
+
+/// ln(e^x + β) for β ≥ 0, without overflow or underflow for any finite x.
+fn ln_exp_plus(x: f64, beta: f64) -> f64 {
+    if beta <= 0.0 {
+        return x;
+    }
+    let lb = libm::log(beta);
+    if x >= lb {
+        x + libm::log1p(libm::exp(lb - x))
+    } else {
+        lb + libm::log1p(libm::exp(x - lb))
+    }
+}
