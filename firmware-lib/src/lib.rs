@@ -33,6 +33,8 @@ extern crate std;
 pub mod calibration;
 pub mod error;
 pub mod filter;
+#[cfg(feature = "hal")]
+pub mod hal;
 pub mod math;
 pub mod physics;
 pub mod units;
