@@ -13,8 +13,9 @@ use crate::units::Unit;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Reject {
-    /// The median of an odd number of samples. Rejects up to (n − 1)/2 outliers on either side, keeps no
-    /// averaging gain beyond that of one sample plus the order statistic's own.
+    /// The median of an odd number of samples. Rejects up to (n − 1)/2 outliers, at a price in noise: for
+    /// Gaussian noise its standard deviation is about √(π/2) ≈ 1.25 times that of the plain mean of the same
+    /// samples (from memory). It is one whole code, so it keeps no fraction.
     Median,
     /// The mean of the samples that remain after dropping the `trim` lowest and the `trim` highest.
     /// `trim = 0` is the plain mean.
