@@ -14,6 +14,8 @@
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
 //! | [`error`] | the one error enum of the crate |
 //! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
+//! | [`filter`] | smoothing of readings for displays: a first-order filter in x with its time constant in samples |
+//! | `hal` | (feature `hal`) a measurement cycle on embedded-hal 1.0: converter trait, oversampling, status |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -30,6 +32,9 @@ extern crate std;
 
 pub mod calibration;
 pub mod error;
+pub mod filter;
+#[cfg(feature = "hal")]
+pub mod hal;
 pub mod math;
 pub mod physics;
 pub mod units;
