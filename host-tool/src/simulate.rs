@@ -7,7 +7,9 @@
 //! operating range (not only at set-points), and keeps the truth (x, T and the oracle's x) apart.
 //!
 //! Everything is drawn from ChaCha8 streams seeded by one `u64`: one stream per (purpose, unit), so a unit's
-//! data do not depend on how many other units or readings were asked for, and a run is bit-reproducible.
+//! data do not depend on how many other units or readings were asked for, and a run is bit-reproducible
+//! (for the generator and distribution versions that `Cargo.lock` pins; the model itself uses libm, not the
+//! platform's math library).
 //!
 //! Files ([`Simulation::write_to`]):
 //!
@@ -27,7 +29,7 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, StandardNormal};
 use serde::Serialize;
 
-use crate::frontend::{FrontEnd, FrontEndError, MeasuredTemperature};
+use crate::frontend::{FrontEnd, FrontEndError, MeasuredTemperature, Sample};
 
 /// Most rows a run may have, all files together (a guard against a typo'd size).
 pub const MAX_ROWS: usize = 50_000_000;
@@ -249,8 +251,7 @@ pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) ->
                 let n: f64 = StandardNormal.sample(&mut rng);
                 let t_true_c = sp + jitter * n;
                 let x_true = libm::log(ratio);
-                let code = fe.sample_code(x_true, t_true_c, &mut rng);
-                let temperature = fe.measure_temperature(t_true_c, &mut rng);
+                let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
                 rows.push(ChamberRow { unit, setpoint_c: sp, t_true_c, ratio, x_true, code, temperature });
             }
         }
@@ -273,8 +274,7 @@ pub fn validation_run(
         .map(|i| {
             let x_true = rng.random_range(x0..=x1);
             let t_true_c = rng.random_range(o.temp_min_c..=o.temp_max_c);
-            let code = fe.sample_code(x_true, t_true_c, &mut rng);
-            let temperature = fe.measure_temperature(t_true_c, &mut rng);
+            let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
             ValidationRow {
                 id: first_id + i as u64,
                 unit,
