@@ -11,6 +11,7 @@
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
 //! | [`frontend`] | the f64 reference model of one front end (physics, noise, the oracle) and the presets |
+//! | [`simulate`] | seeded chamber and validation runs of simulated units, and their files |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -20,5 +21,6 @@ pub mod fit;
 pub mod data;
 pub mod frontend;
 pub mod output;
+pub mod simulate;
 
 pub use logtrim;

@@ -192,6 +192,15 @@ impl MeasuredTemperature {
     }
 }
 
+/// One noisy reading as the firmware receives it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Sample {
+    /// The log channel's ADC code.
+    pub code: u32,
+    /// The temperature channel's reading.
+    pub temperature: MeasuredTemperature,
+}
+
 /// The ranges a unit is specified and calibrated over.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -555,6 +564,13 @@ impl FrontEnd {
     pub fn sample_code<R: Rng + ?Sized>(&self, x: f64, t_c: f64, rng: &mut R) -> u32 {
         let n: f64 = StandardNormal.sample(rng);
         self.quantise(self.code_exact(x, t_c) + self.adc.noise_codes_rms * n)
+    }
+
+    /// One noisy reading at x and the unit's true temperature: the ADC code, then the temperature reading
+    /// (drawn in that order).
+    pub fn sample<R: Rng + ?Sized>(&self, x: f64, t_c: f64, rng: &mut R) -> Sample {
+        let code = self.sample_code(x, t_c, rng);
+        Sample { code, temperature: self.measure_temperature(t_c, rng) }
     }
 
     /// A noisy temperature reading of a unit whose true temperature is `t_c`.

@@ -7,6 +7,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod simulate;
+
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
 #[derive(Parser)]
 #[command(name = "logtrim", version, about, long_about = None)]
@@ -19,6 +21,8 @@ struct Cli {
 enum Command {
     /// Print the version and the formats this build reads and writes.
     Info,
+    /// Simulate chamber calibration and validation runs of a front end, with the truth kept apart.
+    Simulate(simulate::SimulateArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -52,6 +56,7 @@ fn main() -> ExitCode {
             );
             Ok(())
         }
+        Command::Simulate(args) => simulate::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

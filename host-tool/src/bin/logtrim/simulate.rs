@@ -1,0 +1,156 @@
+//! `logtrim simulate`: simulate chamber calibration and validation runs of a front end and write their files.
+
+use std::f64::consts::LN_10;
+use std::path::PathBuf;
+
+use clap::Args;
+use logtrim_host::frontend::{FrontEnd, PRESETS};
+use logtrim_host::simulate::{self, ChamberPlan, Plan};
+
+use crate::Failure;
+
+/// Options of `logtrim simulate`.
+#[derive(Args, Debug)]
+pub struct SimulateArgs {
+    /// Built-in front end to simulate (see --list-presets).
+    #[arg(long, value_name = "NAME", conflicts_with = "frontend")]
+    preset: Option<String>,
+    /// Front-end description to simulate: a JSON file as written by --write-preset.
+    #[arg(long, value_name = "FILE.json")]
+    frontend: Option<PathBuf>,
+    /// Seed of every random draw: the same seed and sizes give the same files, bit for bit.
+    #[arg(long, default_value_t = 1)]
+    seed: u64,
+    /// Directory to write cal.csv, readings.csv, truth.csv, frontend.json and manifest.json into
+    /// (created if missing).
+    #[arg(long, value_name = "DIR")]
+    out_dir: Option<PathBuf>,
+    /// Chamber temperature set-points, evenly spaced over the operating range, ends included.
+    #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().setpoints)]
+    setpoints: usize,
+    /// Ratios per sweep, log-spaced over the operating range, ends included.
+    #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().ratios_per_setpoint)]
+    ratios: usize,
+    /// Sweeps at each set-point.
+    #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().repeats)]
+    repeats: usize,
+    /// Validation readings per unit, at random (ratio, temperature) over the whole range.
+    #[arg(long, value_name = "N", default_value_t = Plan::default().validation_count)]
+    validation: usize,
+    /// Units to simulate; more than one draws each from the description's unit-to-unit spread and adds
+    /// a `unit` column to every CSV file.
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    units: usize,
+    /// Write the chosen front end's description to FILE as JSON (to start your own from it); with
+    /// --out-dir the simulation runs as well.
+    #[arg(long, value_name = "FILE")]
+    write_preset: Option<PathBuf>,
+    /// List the built-in front ends and stop.
+    #[arg(long)]
+    list_presets: bool,
+}
+
+/// Runs the verb.
+pub fn run(args: SimulateArgs) -> Result<(), Failure> {
+    if args.list_presets {
+        for p in PRESETS {
+            println!("{:<24} {}", p.name, p.summary);
+        }
+        return Ok(());
+    }
+    let fe = chosen_frontend(&args)?;
+    if let Some(path) = &args.write_preset {
+        logtrim_host::output::write_atomic(path, fe.to_json().as_bytes())
+            .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
+        println!("wrote {} (front end {:?})", path.display(), fe.name);
+    }
+    let Some(dir) = &args.out_dir else {
+        if args.write_preset.is_some() {
+            return Ok(());
+        }
+        return Err(Failure::input("nothing to do: give --out-dir DIR to simulate, or --write-preset FILE"));
+    };
+    let plan = Plan {
+        seed: args.seed,
+        chamber: ChamberPlan {
+            setpoints: args.setpoints,
+            ratios_per_setpoint: args.ratios,
+            repeats: args.repeats,
+        },
+        validation_count: args.validation,
+        units: args.units,
+    };
+    let sim = simulate::simulate(&fe, &plan).map_err(Failure::input)?;
+    let written = sim.write_to(dir).map_err(Failure::input)?;
+    summary(&sim, &written);
+    Ok(())
+}
+
+fn chosen_frontend(args: &SimulateArgs) -> Result<FrontEnd, Failure> {
+    let names = || PRESETS.iter().map(|p| p.name).collect::<Vec<_>>().join(", ");
+    match (&args.preset, &args.frontend) {
+        (Some(name), _) => logtrim_host::frontend::preset(name).ok_or_else(|| {
+            Failure::input(format!("--preset {name:?}: no such preset; expected one of: {}", names()))
+        }),
+        (None, Some(path)) => FrontEnd::load(path).map_err(Failure::input),
+        (None, None) => Err(Failure::input(format!(
+            "no front end: give --preset NAME (one of: {}) or --frontend FILE.json",
+            names()
+        ))),
+    }
+}
+
+fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
+    let fe = &sim.nominal;
+    let o = &fe.operating;
+    let p = &sim.plan;
+    let units =
+        if p.units == 1 { "1 unit".to_string() } else { format!("{} units drawn from its spread", p.units) };
+    println!("simulated {:?}, seed {}, {units}", fe.name, p.seed);
+    if !fe.description.is_empty() {
+        println!("  {}", fe.description);
+    }
+    println!(
+        "  {}…{} °C, ratios {:e}…{:e}; slope at 25 °C {:.4} V/decade ({:.1} codes/Np)",
+        o.temp_min_c,
+        o.temp_max_c,
+        o.ratio_min,
+        o.ratio_max,
+        fe.ideal_slope_v_per_neper(25.0) * LN_10,
+        fe.code_slope(0.0, 25.0)
+    );
+    let sps: Vec<String> =
+        simulate::setpoints(fe, p.chamber.setpoints).iter().map(|t| format!("{t:.1}")).collect();
+    let width = written.iter().map(|w| w.path.display().to_string().chars().count()).max().unwrap_or(0);
+    for w in written {
+        let name = w.path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        let what = match name.as_str() {
+            "cal.csv" => format!(
+                "chamber run: set-points {} °C × {} ratios × {} repeats",
+                sps.join(", "),
+                p.chamber.ratios_per_setpoint,
+                p.chamber.repeats
+            ),
+            "readings.csv" => "validation readings at random (ratio, T) over the whole range".into(),
+            "truth.csv" => "their truth: ratio, x_true, t_true_c and the oracle's x".into(),
+            "frontend.json" => "the front end simulated".into(),
+            "units.json" => "each unit's drawn front end".into(),
+            "manifest.json" => "what generated these files".into(),
+            _ => String::new(),
+        };
+        let rows = w.rows.map(|r| format!("{r:>7} rows")).unwrap_or_default();
+        println!("wrote {:<width$} {rows:>12}  {what}", w.path.display().to_string());
+    }
+    let s = sim.oracle_stats();
+    println!(
+        "oracle on the validation run ({} readings; {} undefined: at a rail or below the bias-current floor):",
+        s.count, s.undefined
+    );
+    for (label, np) in [("rms", s.rms_np), ("max", s.max_np)] {
+        println!(
+            "  {label} {np:.3e} Np = {:.3e} dB (10·log10, power ratios) = {:.3e} dB (20·log10, amplitude ratios)",
+            np * 10.0 / LN_10,
+            np * 20.0 / LN_10
+        );
+    }
+}

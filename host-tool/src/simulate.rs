@@ -1,0 +1,521 @@
+//! Seeded chamber and validation runs of simulated units, and the files they are written to.
+//!
+//! A **chamber run** visits evenly spaced temperature set-points spanning the front end's operating range;
+//! at each it sweeps log-spaced ratios from `ratio_min` to `ratio_max`, several times over. The unit's own
+//! temperature jitters around the set-point and is read through the unit's temperature channel. A
+//! **validation run** takes readings at random (x, T), uniform in x = ln ratio and in T over the whole
+//! operating range (not only at set-points), and keeps the truth (x, T and the oracle's x) apart.
+//!
+//! Everything is drawn from ChaCha8 streams seeded by one `u64`: one stream per (purpose, unit), so a unit's
+//! data do not depend on how many other units or readings were asked for, and a run is bit-reproducible
+//! (for the generator and distribution versions that `Cargo.lock` pins; the model itself uses libm, not the
+//! platform's math library).
+//!
+//! Files ([`Simulation::write_to`]):
+//!
+//! | file | columns / contents |
+//! |---|---|
+//! | `cal.csv` | `code,temp_c,ratio` (`unit,` first for a batch; `temp_code` for a raw temperature channel) |
+//! | `readings.csv` | `id,code,temp_c` (`id,unit,code,temp_c` for a batch) |
+//! | `truth.csv` | `id,ratio,x_true,t_true_c,x_oracle` (`id,unit,…` for a batch; `x_oracle` empty where undefined) |
+//! | `frontend.json` | the front end simulated (the nominal one, with its spread, for a batch) |
+//! | `units.json` | a batch only: every unit's drawn front end, by serial |
+//! | `manifest.json` | what generated the files: version, seed, sizes, oracle figures |
+
+use std::path::{Path, PathBuf};
+
+use rand::{RngExt, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, StandardNormal};
+use serde::Serialize;
+
+use crate::frontend::{FrontEnd, FrontEndError, MeasuredTemperature, Sample};
+
+/// Most rows a run may have, all files together (a guard against a typo'd size).
+pub const MAX_ROWS: usize = 50_000_000;
+
+/// The stream of a ChaCha8 generator for one purpose and one unit.
+#[derive(Debug, Clone, Copy)]
+enum Purpose {
+    UnitDraw = 1,
+    Chamber = 2,
+    Validation = 3,
+}
+
+fn rng_for(seed: u64, purpose: Purpose, unit: usize) -> ChaCha8Rng {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    rng.set_stream(((purpose as u64) << 32) | unit as u64);
+    rng
+}
+
+/// The shape of a chamber run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct ChamberPlan {
+    /// Temperature set-points, evenly spaced over the operating range, ends included (≥ 2).
+    pub setpoints: usize,
+    /// Ratios per sweep, log-spaced from `ratio_min` to `ratio_max`, ends included (≥ 2).
+    pub ratios_per_setpoint: usize,
+    /// Sweeps at each set-point (≥ 1).
+    pub repeats: usize,
+}
+
+impl Default for ChamberPlan {
+    fn default() -> Self {
+        ChamberPlan { setpoints: 6, ratios_per_setpoint: 41, repeats: 3 }
+    }
+}
+
+/// Everything a simulation needs besides the front end.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct Plan {
+    /// The seed of every random draw.
+    pub seed: u64,
+    /// The chamber run of each unit.
+    pub chamber: ChamberPlan,
+    /// Validation readings per unit (≥ 1).
+    pub validation_count: usize,
+    /// Units (≥ 1). One unit is the front end as described; more are drawn from its spread.
+    pub units: usize,
+}
+
+impl Default for Plan {
+    fn default() -> Self {
+        Plan { seed: 1, chamber: ChamberPlan::default(), validation_count: 5000, units: 1 }
+    }
+}
+
+/// One simulated unit.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SimUnit {
+    /// Its serial (`U0001`, …).
+    pub serial: String,
+    /// Its exact front end.
+    pub frontend: FrontEnd,
+}
+
+/// One reading of a chamber run, with the truth behind it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ChamberRow {
+    /// Index of the unit in [`Simulation::units`].
+    pub unit: usize,
+    /// The chamber's set-point, °C.
+    pub setpoint_c: f64,
+    /// The unit's true temperature, °C.
+    pub t_true_c: f64,
+    /// The applied ratio I_sig/I_ref.
+    pub ratio: f64,
+    /// x = ln ratio.
+    pub x_true: f64,
+    /// The noisy ADC code.
+    pub code: u32,
+    /// The temperature as the firmware reads it.
+    pub temperature: MeasuredTemperature,
+}
+
+/// One reading of a validation run, with the truth behind it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ValidationRow {
+    /// Reading id, 1-based, unique across units.
+    pub id: u64,
+    /// Index of the unit in [`Simulation::units`].
+    pub unit: usize,
+    /// The true ratio I_sig/I_ref.
+    pub ratio: f64,
+    /// x = ln ratio.
+    pub x_true: f64,
+    /// The unit's true temperature, °C.
+    pub t_true_c: f64,
+    /// The noisy ADC code.
+    pub code: u32,
+    /// The temperature as the firmware reads it.
+    pub temperature: MeasuredTemperature,
+    /// The oracle's x for this reading ([`FrontEnd::oracle`]); `None` where it is undefined.
+    pub x_oracle: Option<f64>,
+}
+
+/// The oracle's error against the truth over a validation run.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct OracleStats {
+    /// Readings where the oracle is defined.
+    pub count: usize,
+    /// Readings where it is not (a rail, or below the bias-current floor).
+    pub undefined: usize,
+    /// Root-mean-square error, nepers.
+    pub rms_np: f64,
+    /// Largest absolute error, nepers.
+    pub max_np: f64,
+}
+
+impl OracleStats {
+    /// The figures of a set of readings.
+    pub fn of(rows: &[ValidationRow]) -> OracleStats {
+        let (mut n, mut ss, mut max) = (0usize, 0.0f64, 0.0f64);
+        for r in rows {
+            if let Some(x) = r.x_oracle {
+                let e = x - r.x_true;
+                n += 1;
+                ss += e * e;
+                max = max.max(e.abs());
+            }
+        }
+        let rms = if n > 0 { (ss / n as f64).sqrt() } else { f64::NAN };
+        OracleStats {
+            count: n,
+            undefined: rows.len() - n,
+            rms_np: rms,
+            max_np: if n > 0 { max } else { f64::NAN },
+        }
+    }
+}
+
+/// A whole simulation: the units, their chamber runs and their validation runs.
+#[derive(Debug, Clone)]
+pub struct Simulation {
+    /// The front end as given (for a batch, the nominal unit with its spread).
+    pub nominal: FrontEnd,
+    /// The plan it was run with.
+    pub plan: Plan,
+    /// The units simulated.
+    pub units: Vec<SimUnit>,
+    /// Every unit's chamber run, unit by unit.
+    pub chamber: Vec<ChamberRow>,
+    /// Every unit's validation run, unit by unit.
+    pub validation: Vec<ValidationRow>,
+}
+
+/// Errors of a simulation.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum SimError {
+    /// A size of the plan is unusable.
+    #[error("{what} = {value}: expected {expected}")]
+    Plan {
+        /// The size.
+        what: &'static str,
+        /// The value given.
+        value: usize,
+        /// What is needed.
+        expected: &'static str,
+    },
+    /// The front end (or a unit drawn from it) is invalid.
+    #[error(transparent)]
+    FrontEnd(#[from] FrontEndError),
+    /// An output file could not be written.
+    #[error("{path}: {source}")]
+    Io {
+        /// The file.
+        path: String,
+        /// The I/O error.
+        source: std::io::Error,
+    },
+}
+
+/// The set-points of a chamber run: `n` evenly spaced temperatures over the operating range, ends included.
+pub fn setpoints(fe: &FrontEnd, n: usize) -> Vec<f64> {
+    spaced(fe.operating.temp_min_c, fe.operating.temp_max_c, n)
+}
+
+/// The ratios of one sweep: `n` log-spaced ratios from `ratio_min` to `ratio_max`, ends included.
+pub fn sweep_ratios(fe: &FrontEnd, n: usize) -> Vec<f64> {
+    let (a, b) = (libm::log(fe.operating.ratio_min), libm::log(fe.operating.ratio_max));
+    let mut r: Vec<f64> = spaced(a, b, n).into_iter().map(libm::exp).collect();
+    // Keep the ends exactly as specified (exp(ln r) may differ from r in the last bit).
+    if n >= 2 {
+        if let Some(first) = r.first_mut() {
+            *first = fe.operating.ratio_min;
+        }
+        if let Some(last) = r.last_mut() {
+            *last = fe.operating.ratio_max;
+        }
+    }
+    r
+}
+
+fn spaced(a: f64, b: f64, n: usize) -> Vec<f64> {
+    match n {
+        0 => Vec::new(),
+        1 => vec![0.5 * (a + b)],
+        _ => (0..n).map(|i| a + (b - a) * i as f64 / (n - 1) as f64).collect(),
+    }
+}
+
+/// One unit's chamber run, drawn from its own random stream.
+pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) -> Vec<ChamberRow> {
+    let mut rng = rng_for(seed, Purpose::Chamber, unit);
+    let ratios = sweep_ratios(fe, plan.ratios_per_setpoint);
+    let jitter = fe.operating.setpoint_jitter_k_rms;
+    let mut rows = Vec::with_capacity(plan.setpoints * plan.repeats * ratios.len());
+    for sp in setpoints(fe, plan.setpoints) {
+        for _ in 0..plan.repeats {
+            for &ratio in &ratios {
+                let n: f64 = StandardNormal.sample(&mut rng);
+                let t_true_c = sp + jitter * n;
+                let x_true = libm::log(ratio);
+                let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
+                rows.push(ChamberRow { unit, setpoint_c: sp, t_true_c, ratio, x_true, code, temperature });
+            }
+        }
+    }
+    rows
+}
+
+/// One unit's validation run of `count` readings, ids from `first_id` on, drawn from its own stream.
+pub fn validation_run(
+    fe: &FrontEnd,
+    count: usize,
+    unit: usize,
+    first_id: u64,
+    seed: u64,
+) -> Vec<ValidationRow> {
+    let mut rng = rng_for(seed, Purpose::Validation, unit);
+    let o = &fe.operating;
+    let (x0, x1) = (libm::log(o.ratio_min), libm::log(o.ratio_max));
+    (0..count)
+        .map(|i| {
+            let x_true = rng.random_range(x0..=x1);
+            let t_true_c = rng.random_range(o.temp_min_c..=o.temp_max_c);
+            let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
+            ValidationRow {
+                id: first_id + i as u64,
+                unit,
+                ratio: libm::exp(x_true),
+                x_true,
+                t_true_c,
+                code,
+                temperature,
+                x_oracle: fe.oracle(code, temperature),
+            }
+        })
+        .collect()
+}
+
+/// The serial of the `i`-th unit (0-based) of a batch.
+pub fn serial(i: usize) -> String {
+    format!("U{:04}", i + 1)
+}
+
+/// Runs a whole simulation: draws the units, then each unit's chamber and validation runs.
+pub fn simulate(fe: &FrontEnd, plan: &Plan) -> Result<Simulation, SimError> {
+    fe.validate()?;
+    check_plan(plan)?;
+    let units: Vec<SimUnit> = if plan.units == 1 {
+        vec![SimUnit { serial: serial(0), frontend: fe.clone() }]
+    } else {
+        (0..plan.units)
+            .map(|i| {
+                let s = serial(i);
+                let mut rng = rng_for(plan.seed, Purpose::UnitDraw, i);
+                fe.draw_unit(&s, &mut rng).map(|frontend| SimUnit { serial: s, frontend })
+            })
+            .collect::<Result<_, _>>()?
+    };
+    let mut chamber = Vec::new();
+    let mut validation = Vec::new();
+    for (i, u) in units.iter().enumerate() {
+        chamber.extend(chamber_run(&u.frontend, &plan.chamber, i, plan.seed));
+        let first_id = (i * plan.validation_count) as u64 + 1;
+        validation.extend(validation_run(&u.frontend, plan.validation_count, i, first_id, plan.seed));
+    }
+    Ok(Simulation { nominal: fe.clone(), plan: *plan, units, chamber, validation })
+}
+
+fn check_plan(plan: &Plan) -> Result<(), SimError> {
+    let bad = |what, value, expected| Err(SimError::Plan { what, value, expected });
+    let c = &plan.chamber;
+    if c.setpoints < 2 {
+        return bad("set-points", c.setpoints, "at least 2 (they span the operating range, ends included)");
+    }
+    if c.ratios_per_setpoint < 2 {
+        return bad("ratios per set-point", c.ratios_per_setpoint, "at least 2 (ratio_min and ratio_max)");
+    }
+    if c.repeats < 1 {
+        return bad("repeats", c.repeats, "at least 1");
+    }
+    if plan.validation_count < 1 {
+        return bad("validation readings", plan.validation_count, "at least 1");
+    }
+    if plan.units < 1 {
+        return bad("units", plan.units, "at least 1");
+    }
+    let per_unit = c
+        .setpoints
+        .checked_mul(c.ratios_per_setpoint)
+        .and_then(|v| v.checked_mul(c.repeats))
+        .and_then(|v| v.checked_add(plan.validation_count));
+    match per_unit.and_then(|v| v.checked_mul(plan.units)) {
+        Some(total) if total <= MAX_ROWS => Ok(()),
+        total => bad("rows in all", total.unwrap_or(usize::MAX), "at most 50,000,000 (MAX_ROWS)"),
+    }
+}
+
+/// One file written by [`Simulation::write_to`].
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct WrittenFile {
+    /// Where it was written.
+    pub path: PathBuf,
+    /// Data rows, for a CSV file.
+    pub rows: Option<usize>,
+}
+
+impl Simulation {
+    /// The oracle's figures over every validation reading.
+    pub fn oracle_stats(&self) -> OracleStats {
+        OracleStats::of(&self.validation)
+    }
+
+    fn batch(&self) -> bool {
+        self.units.len() > 1
+    }
+
+    fn temp_column(&self) -> &'static str {
+        self.chamber.first().map_or("temp_c", |r| r.temperature.column())
+    }
+
+    /// `cal.csv`: `[unit,]code,temp_c,ratio`.
+    pub fn cal_csv(&self) -> Vec<u8> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let mut head = Vec::new();
+        if self.batch() {
+            head.push("unit");
+        }
+        head.extend(["code", self.temp_column(), "ratio"]);
+        let mut out = CsvOut(&mut w);
+        out.row(head.iter().map(|s| s.to_string()));
+        for r in &self.chamber {
+            let mut f = Vec::with_capacity(4);
+            if self.batch() {
+                f.push(self.units[r.unit].serial.clone());
+            }
+            f.extend([r.code.to_string(), temperature_field(r.temperature), r.ratio.to_string()]);
+            out.row(f);
+        }
+        into_bytes(w)
+    }
+
+    /// `readings.csv`: `id,[unit,]code,temp_c`.
+    pub fn readings_csv(&self) -> Vec<u8> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let mut head = vec!["id"];
+        if self.batch() {
+            head.push("unit");
+        }
+        head.extend(["code", self.temp_column()]);
+        let mut out = CsvOut(&mut w);
+        out.row(head.iter().map(|s| s.to_string()));
+        for r in &self.validation {
+            let mut f = vec![r.id.to_string()];
+            if self.batch() {
+                f.push(self.units[r.unit].serial.clone());
+            }
+            f.extend([r.code.to_string(), temperature_field(r.temperature)]);
+            out.row(f);
+        }
+        into_bytes(w)
+    }
+
+    /// `truth.csv`: `id,[unit,]ratio,x_true,t_true_c,x_oracle`.
+    pub fn truth_csv(&self) -> Vec<u8> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let mut head = vec!["id"];
+        if self.batch() {
+            head.push("unit");
+        }
+        head.extend(["ratio", "x_true", "t_true_c", "x_oracle"]);
+        let mut out = CsvOut(&mut w);
+        out.row(head.iter().map(|s| s.to_string()));
+        for r in &self.validation {
+            let mut f = vec![r.id.to_string()];
+            if self.batch() {
+                f.push(self.units[r.unit].serial.clone());
+            }
+            f.extend([
+                r.ratio.to_string(),
+                r.x_true.to_string(),
+                r.t_true_c.to_string(),
+                r.x_oracle.map(|x| x.to_string()).unwrap_or_default(),
+            ]);
+            out.row(f);
+        }
+        into_bytes(w)
+    }
+
+    /// `manifest.json`: what generated the files, with the plan and the oracle's figures.
+    pub fn manifest_json(&self, files: &[&str]) -> String {
+        let m = serde_json::json!({
+            "generator": format!("logtrim {} simulate — generated file, do not edit", env!("CARGO_PKG_VERSION")),
+            "frontend": self.nominal.name,
+            "plan": self.plan,
+            "setpoints_c": setpoints(&self.nominal, self.plan.chamber.setpoints),
+            "units": self.units.iter().map(|u| u.serial.as_str()).collect::<Vec<_>>(),
+            "rows": { "cal": self.chamber.len(), "validation": self.validation.len() },
+            "oracle": self.oracle_stats(),
+            "files": files,
+        });
+        let mut s = serde_json::to_string_pretty(&m).unwrap_or_default();
+        s.push('\n');
+        s
+    }
+
+    /// `units.json` for a batch: every unit's front end by serial.
+    pub fn units_json(&self) -> String {
+        let m = serde_json::json!({
+            "generator": format!("logtrim {} simulate — generated file, do not edit", env!("CARGO_PKG_VERSION")),
+            "units": self.units,
+        });
+        let mut s = serde_json::to_string_pretty(&m).unwrap_or_default();
+        s.push('\n');
+        s
+    }
+
+    /// Writes every file into `dir` (created if missing), each atomically. All contents are built before the
+    /// first file is written.
+    pub fn write_to(&self, dir: &Path) -> Result<Vec<WrittenFile>, SimError> {
+        let mut files: Vec<(&str, Vec<u8>, Option<usize>)> = vec![
+            ("cal.csv", self.cal_csv(), Some(self.chamber.len())),
+            ("readings.csv", self.readings_csv(), Some(self.validation.len())),
+            ("truth.csv", self.truth_csv(), Some(self.validation.len())),
+            ("frontend.json", self.nominal.to_json().into_bytes(), None),
+        ];
+        if self.batch() {
+            files.push(("units.json", self.units_json().into_bytes(), None));
+        }
+        let mut names: Vec<&str> = files.iter().map(|f| f.0).collect();
+        names.push("manifest.json");
+        let manifest = self.manifest_json(&names).into_bytes();
+        files.push(("manifest.json", manifest, None));
+        std::fs::create_dir_all(dir)
+            .map_err(|source| SimError::Io { path: dir.display().to_string(), source })?;
+        let mut written = Vec::new();
+        for (name, bytes, rows) in files {
+            let path = dir.join(name);
+            crate::output::write_atomic(&path, &bytes)
+                .map_err(|source| SimError::Io { path: path.display().to_string(), source })?;
+            written.push(WrittenFile { path, rows });
+        }
+        Ok(written)
+    }
+}
+
+fn temperature_field(t: MeasuredTemperature) -> String {
+    match t {
+        MeasuredTemperature::Celsius(c) => c.to_string(),
+        MeasuredTemperature::Code(c) => c.to_string(),
+    }
+}
+
+/// A CSV writer into memory: writing to a `Vec` cannot fail, so rows are written without a `Result`.
+struct CsvOut<'a>(&'a mut csv::Writer<Vec<u8>>);
+
+impl CsvOut<'_> {
+    fn row<I: IntoIterator<Item = String>>(&mut self, fields: I) {
+        // Only an I/O error of the inner writer could fail this, and a Vec does not fail.
+        let _ = self.0.write_record(fields);
+    }
+}
+
+fn into_bytes(w: csv::Writer<Vec<u8>>) -> Vec<u8> {
+    w.into_inner().unwrap_or_default()
+}
+
+#[cfg(test)]
+mod tests;
