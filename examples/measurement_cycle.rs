@@ -61,7 +61,7 @@ fn unit_calibration() -> Calibration {
     c.model.t_half_span_k = 20.0;
     c.model.offset = Series::from_slice(&[35.0, 6.0]).unwrap_or(Series::ZERO); // pair mismatch and drift
     c.model.slope = Series::from_slice(&[1_800.0, 9.0]).unwrap_or(Series::ZERO); // what the tempco leaves
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -11.0, ln_beta1: 2.0 }; // ~17 ppm at 25 °C
+    c.model.bias = BiasTerm { enabled: true, ln_beta0: -11.0, ln_beta1: 2.0, reference: 0.0 }; // ~17 ppm at 25 °C
     c
 }
 

@@ -67,7 +67,8 @@ const MAX_EXP_ARG: f32 = 80.0;
 pub struct AdcScaling {
     /// Resolution of the converter in bits (1..=24); codes run from 0 to 2^bits − 1.
     pub bits: u8,
-    /// Codes within this many of either rail are reported as [`Error::Saturated`].
+    /// Codes at either rail (0 and 2^bits − 1) or within this many of it are reported as
+    /// [`Error::Saturated`]: a converter returns its end code for every input beyond it.
     pub rail_margin: u32,
     /// The code at which the log stage's output is zero (its level shift), in codes.
     pub level_shift_code: f32,
@@ -88,7 +89,7 @@ impl AdcScaling {
         if code > max {
             return Err(Error::CodeOutOfAdcRange { code, max });
         }
-        if code < self.rail_margin || code > max.saturating_sub(self.rail_margin) {
+        if code <= self.rail_margin || code >= max.saturating_sub(self.rail_margin) {
             return Err(Error::Saturated { code });
         }
         Ok(())
@@ -419,6 +420,42 @@ impl Calibration {
     /// Corrects one reading with a chosen f32 backend.
     pub fn correct_with<B: Backend>(&self, code: u32, temp_c: f32) -> Result<Reading, Error> {
         let p = self.evaluate::<F32Math<B>>(code, temp_c)?;
+        Ok(Reading { x: p.x, temperature_extrapolated: p.extrapolated })
+    }
+
+    /// Corrects a fractional code, such as the mean of a burst of readings, with the default backend.
+    ///
+    /// The code is checked as both of its neighbouring whole codes would be (a mean that touches a rail or
+    /// the margin is saturated), then evaluated without rounding. An f32 holds 24 bits exactly, so a
+    /// 16-bit converter's mean keeps 8 fractional bits.
+    pub fn correct_mean(&self, code: f32, temp_c: f32) -> Result<Reading, Error> {
+        self.correct_mean_with::<Libm>(code, temp_c)
+    }
+
+    /// [`Calibration::correct_mean`] with a chosen backend.
+    pub fn correct_mean_with<B: Backend>(&self, code: f32, temp_c: f32) -> Result<Reading, Error> {
+        if !code.is_finite() {
+            return Err(Error::NonFinite);
+        }
+        let max = self.adc.max_code()?;
+        let (lo, hi) = (libm::floorf(code), libm::ceilf(code));
+        let as_code = |v: f32| {
+            if v < 0.0 {
+                None
+            } else if v > max as f32 {
+                Some(u32::MAX)
+            } else {
+                Some(v as u32)
+            }
+        };
+        match (as_code(lo), as_code(hi)) {
+            (Some(a), Some(b)) => {
+                self.adc.check_code(a)?;
+                self.adc.check_code(b)?;
+            }
+            _ => return Err(Error::CodeOutOfAdcRange { code: 0, max }),
+        }
+        let p = self.evaluate_real::<F32Math<B>>(code, temp_c)?;
         Ok(Reading { x: p.x, temperature_extrapolated: p.extrapolated })
     }
 

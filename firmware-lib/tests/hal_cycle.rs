@@ -453,7 +453,7 @@ fn bent_unit() -> Calibration {
     c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap();
     c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap();
     c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6 };
+    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: 0.0 };
     c
 }
 

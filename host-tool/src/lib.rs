@@ -17,8 +17,8 @@
 #![deny(missing_docs)]
 
 pub mod calfile;
-pub mod fit;
 pub mod data;
+pub mod fit;
 pub mod frontend;
 pub mod output;
 pub mod simulate;

@@ -4,8 +4,8 @@
 //! The cycle averages *codes* and corrects once (the reasons are in [`crate::hal::cycle`]). A mean of
 //! N codes has up to log2(N) more bits than one code, so the corrector takes the mean exactly, as a sum and
 //! a count, and decides itself how much of the fraction it can use. An integer fixed-point corrector can
-//! take `sum·2^k / count` as a code with k fractional bits; the f32 [`Calibration`] does the same by
-//! evaluating a copy of itself scaled by `2^k` (see [`Corrector::correct`] for `Calibration`).
+//! take `sum·2^k / count` as a code with k fractional bits; the f32 [`Calibration`] takes the same value as
+//! an f32 ([`Calibration::correct_mean`]).
 
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
@@ -120,11 +120,9 @@ impl Corrector for Calibration {
     }
 
     /// A whole mean goes to [`Calibration::correct`] as it is. A fractional mean is checked by its two
-    /// neighbouring codes, then corrected at `k = min(8, 24 − bits)` fractional bits by a copy of the
-    /// calibration with every code-domain quantity (level shift, offset, slope and bulk coefficients, rail
-    /// margin, width) scaled by `2^k`. Scaling by a power of two is exact in floating point, so the copy
-    /// computes bit for bit what the original would for a fractional code. A 24-bit converter leaves no
-    /// room (k = 0): its mean is rounded to the nearest code.
+    /// neighbouring codes and corrected by [`Calibration::correct_mean`] at `k = min(8, 24 − bits)`
+    /// fractional bits (exact in an f32). A 24-bit converter leaves no room (k = 0): its mean is rounded
+    /// to the nearest code.
     fn correct(&self, code: MeanCode, temp_c: f32) -> Result<Reading, Error> {
         let max = self.adc.max_code()?;
         let (lo, frac) = code.floor().ok_or(Error::CodeOutOfAdcRange { code: u32::MAX, max })?;
@@ -134,37 +132,13 @@ impl Corrector for Calibration {
         }
         Corrector::check_code(self, lo.saturating_add(1))?;
         let k = MEAN_FRACTION_BITS.min(24u8.saturating_sub(self.adc.bits));
-        if k == 0 {
-            let nearest = code.to_fixed(0).ok_or(Error::CodeOutOfAdcRange { code: u32::MAX, max })?;
-            return Calibration::correct(self, nearest, temp_c);
-        }
         let fixed = code.to_fixed(k).ok_or(Error::CodeOutOfAdcRange { code: u32::MAX, max })?;
-        let scaled = scaled_by_pow2(self, k);
-        Calibration::correct(&scaled, fixed, temp_c).map_err(|e| unscale_error(e, k))
-    }
-}
-
-/// A copy of `c` that takes codes `2^k` times larger (see [`Corrector::correct`] for `Calibration`).
-fn scaled_by_pow2(c: &Calibration, k: u8) -> Calibration {
-    let f = libm::ldexpf(1.0, i32::from(k));
-    let mut s = *c;
-    s.adc.bits = c.adc.bits.saturating_add(k);
-    s.adc.rail_margin = c.adc.rail_margin.saturating_mul(1u32 << k.min(31));
-    s.adc.level_shift_code = c.adc.level_shift_code * f;
-    for series in [&mut s.model.offset, &mut s.model.slope, &mut s.model.bulk] {
-        for v in series.coeffs.iter_mut() {
-            *v *= f;
+        if k == 0 {
+            return Calibration::correct(self, fixed, temp_c);
         }
-    }
-    s
-}
-
-/// Maps codes in an error of the scaled calibration back to converter codes.
-fn unscale_error(e: Error, k: u8) -> Error {
-    match e {
-        Error::Saturated { code } => Error::Saturated { code: code >> k },
-        Error::CodeOutOfAdcRange { code, max } => Error::CodeOutOfAdcRange { code: code >> k, max: max >> k },
-        other => other,
+        // `fixed` < 2^24, so it and its scaled value are exact in an f32.
+        let mean = fixed as f32 / (1u32 << k) as f32;
+        Calibration::correct_mean(self, mean, temp_c)
     }
 }
 
@@ -185,7 +159,7 @@ mod tests {
         c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap();
         c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap();
         c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap();
-        c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6 };
+        c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: -2.5 };
         c
     }
 
@@ -204,15 +178,14 @@ mod tests {
     }
 
     #[test]
-    fn scaled_copy_is_bit_exact_on_whole_codes() {
+    fn whole_means_equal_single_codes() {
         let c = bent_unit();
-        let s = scaled_by_pow2(&c, 8);
-        assert_eq!(s.validate(), Ok(()));
         for t in [-20.0f32, 0.0, 25.0, 60.0, 85.0] {
             for code in (200u32..65_300).step_by(1031) {
                 let a = Calibration::correct(&c, code, t);
-                let b = Calibration::correct(&s, code << 8, t).map_err(|e| unscale_error(e, 8));
+                let b = Corrector::correct(&c, MeanCode::new(u64::from(code) * 4, 4).unwrap(), t);
                 assert_eq!(a, b, "code {code} at {t} °C");
+                assert_eq!(a, Calibration::correct_mean(&c, code as f32, t), "code {code} at {t} °C");
             }
         }
     }
