@@ -5,7 +5,7 @@
 //! | model | R → T | T → R |
 //! |---|---|---|
 //! | [`Beta`] | `1/T = 1/T₀ + ln(R/R₀)/β` | `R = R₀·exp(β·(1/T − 1/T₀))` |
-//! | [`SteinhartHart`] | `1/T = A + B·L + C·L³`, `L = ln R` | the real root of the depressed cubic `L³ + (B/C)·L + (A − 1/T)/C = 0` |
+//! | [`SteinhartHart`] | `1/T = A + B·L + C·L³`, `L = ln R` | a root of `L³ + (B/C)·L + (A − 1/T)/C = 0` |
 //!
 //! The Beta model is the Steinhart–Hart equation with `C = 0`, `B = 1/β`, `A = 1/T₀ − ln R₀/β`
 //! ([`Beta::to_steinhart_hart`]).
