@@ -144,8 +144,13 @@ impl Divider {
             Placement::LowSide => rs * below / above,
             Placement::HighSide => rs * above / below,
         };
+        // Only an absurd series resistor (near the ends of f32) gets here: a resistance that overflows reads
+        // as an open circuit, one that underflows to zero as a short.
         if !r.finite() {
-            return Err(Error::Sensor(at_top));
+            return Err(Error::Sensor(SensorFault::Open));
+        }
+        if !(r > F::lit(0.0)) {
+            return Err(Error::Sensor(SensorFault::Short));
         }
         Ok(r)
     }

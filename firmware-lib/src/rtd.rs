@@ -104,7 +104,12 @@ fn resistance<F: SensorFloat>(rtd: &Rtd, t: F) -> Result<F, Error> {
     if t < F::lit(MIN_C) || t > F::lit(MAX_C) {
         return Err(Error::Sensor(SensorFault::OutOfModelRange));
     }
-    Ok(F::of(rtd.r0_ohm) * ratio(t))
+    let ohm = F::of(rtd.r0_ohm) * ratio(t);
+    if !ohm.finite() {
+        // Only an R₀ near the top of f32 overflows.
+        return Err(Error::Sensor(SensorFault::OutOfModelRange));
+    }
+    Ok(ohm)
 }
 
 fn celsius<F: SensorFloat>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
@@ -232,5 +237,6 @@ mod tests {
         let bad = Error::InvalidCalibration(CalibrationDefect::Coefficient);
         assert_eq!(Rtd { r0_ohm: 0.0 }.celsius(100.0), Err(bad));
         assert_eq!(Rtd { r0_ohm: f32::NAN }.resistance(0.0), Err(bad));
+        assert_eq!(Rtd { r0_ohm: f32::MAX }.resistance(1.0), Err(oor));
     }
 }

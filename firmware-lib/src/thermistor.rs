@@ -281,13 +281,15 @@ fn check_point(p: CurvePoint) -> Result<(f64, f64), FitError> {
     Ok((1.0 / t_k, libm::log(p.ohm)))
 }
 
-/// °C from 1/T, or OutOfModelRange where 1/T gives no temperature above absolute zero.
+/// °C from 1/T, or OutOfModelRange where 1/T gives no temperature above absolute zero (at the type's
+/// precision: a temperature that rounds to −273.15 °C is refused too).
 fn celsius_from_inverse<F: SensorFloat>(inv_t: F) -> Result<F, Error> {
     let t_k = F::lit(1.0) / inv_t;
-    if !(inv_t > F::lit(0.0)) || !t_k.finite() {
+    let t_c = t_k - F::lit(ZERO_CELSIUS_K);
+    if !(inv_t > F::lit(0.0)) || !t_k.finite() || !(t_c > F::lit(-ZERO_CELSIUS_K)) {
         return Err(Error::Sensor(SensorFault::OutOfModelRange));
     }
-    Ok(t_k - F::lit(ZERO_CELSIUS_K))
+    Ok(t_c)
 }
 
 /// 1/T in 1/K from °C, checked.
