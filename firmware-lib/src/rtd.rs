@@ -224,6 +224,25 @@ mod tests {
         assert!(worst32 < 2e-3, "f32 {worst32} K");
     }
 
+    proptest::proptest! {
+        #![proptest_config(proptest::test_runner::Config {
+            cases: 500,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(12),
+            ..proptest::test_runner::Config::default()
+        })]
+
+        /// Random temperatures and R₀ values round-trip: to 1 nK in f64, to 2 mK in f32.
+        #[test]
+        fn random_round_trips(t in MIN_C..=MAX_C, r0 in 10.0f32..10_000.0) {
+            let rtd = Rtd { r0_ohm: r0 };
+            let r = rtd.resistance_f64(t).unwrap();
+            let back = rtd.celsius_f64(r).unwrap();
+            proptest::prop_assert!(close(back, t, 1e-9, 0.0), "{} {}", t, back);
+            let back32 = f64::from(rtd.celsius(rtd.resistance(t as f32).unwrap()).unwrap());
+            proptest::prop_assert!(close(back32, t, 2e-3, 0.0), "{} {}", t, back32);
+        }
+    }
+
     #[test]
     fn outside_the_standard_range_is_out_of_model_range() {
         let oor = Error::Sensor(SensorFault::OutOfModelRange);

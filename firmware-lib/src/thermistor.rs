@@ -528,6 +528,31 @@ mod tests {
         }
     }
 
+    proptest::proptest! {
+        #![proptest_config(proptest::test_runner::Config {
+            cases: 300,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(11),
+            ..proptest::test_runner::Config::default()
+        })]
+
+        /// On random NTC-like coefficient sets (C of either sign) and temperatures, the closed-form inverse
+        /// agrees with bisection on the definition, and both directions round-trip, in f64 and f32.
+        #[test]
+        fn sh_inverse_on_random_curves(a in 0.5e-3f64..1.5e-3, b in 1.5e-4f64..3.5e-4, c in -1e-7f64..3e-7,
+                                       t in -50.0f64..150.0) {
+            let sh = SteinhartHart { a: a as f32, b: b as f32, c: c as f32 };
+            let want = bisect_ohm(&sh, t);
+            // Only where the curve puts the temperature between 1 Ω and 1 GΩ (the bisection bracket).
+            proptest::prop_assume!(want > 1.001 && want < 0.999e9);
+            let got = sh.resistance_f64(t).unwrap();
+            proptest::prop_assert!(close(got, want, 0.0, 1e-9), "{:?} {} {} {}", sh, t, got, want);
+            proptest::prop_assert!(close(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
+            let got32 = sh.resistance(t as f32).unwrap();
+            proptest::prop_assert!(close(f64::from(got32), want, 0.0, 2e-5), "{:?} {} {} {}", sh, t, got32, want);
+            proptest::prop_assert!(close(f64::from(sh.celsius(got32).unwrap()), t, 5e-3, 0.0));
+        }
+    }
+
     #[test]
     fn negative_c_beyond_the_turning_point_is_out_of_model_range() {
         // With C < 0, d(1/T)/dL = B + 3CL² vanishes at L = √(B/(3|C|)): beyond it the curve turns back.
