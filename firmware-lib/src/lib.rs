@@ -16,6 +16,10 @@
 //! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
 //! | [`filter`] | smoothing of readings for displays: a first-order filter in x with its time constant in samples |
 //! | `hal` | (feature `hal`) a measurement cycle on embedded-hal 1.0: converter trait, oversampling, status |
+//! | [`thermistor`] | NTC thermistors: Beta model and Steinhart–Hart, resistance ↔ temperature, fits from points |
+//! | [`rtd`] | platinum RTDs (Pt100, Pt1000, any R₀) by Callendar–Van Dusen with the IEC 60751 coefficients |
+//! | [`divider`] | ADC code → sensor resistance for a ratiometric divider, with open/short detection |
+//! | [`sensor`] | the temperature channel of a unit: element behind a divider, code → °C |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -31,14 +35,22 @@
 extern crate std;
 
 pub mod calibration;
+pub mod divider;
 pub mod error;
 pub mod filter;
 #[cfg(feature = "hal")]
 pub mod hal;
 pub mod math;
 pub mod physics;
+pub mod rtd;
+pub mod sensor;
+pub mod thermistor;
 pub mod units;
 
 pub use calibration::{Calibration, Reading};
+pub use divider::{Divider, Placement};
 pub use error::Error;
+pub use rtd::Rtd;
+pub use sensor::{SensorElement, TemperatureSensor};
+pub use thermistor::{Beta, SteinhartHart};
 pub use units::Unit;

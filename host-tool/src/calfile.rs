@@ -43,10 +43,10 @@ pub struct CalFile {
     pub generator: String,
     /// The calibration itself.
     pub calibration: Calibration,
-    /// How the temperature channel is converted, if the unit reads a raw sensor (free-form until the
-    /// sensor description lands; `null` for a digital sensor in °C).
+    /// How the temperature channel's raw code becomes °C, if the unit reads a thermistor or RTD through
+    /// a divider (`null` for a digital sensor that reads in °C).
     #[serde(default)]
-    pub temperature_sensor: Option<serde_json::Value>,
+    pub temperature_sensor: Option<logtrim::sensor::TemperatureSensor>,
     /// A summary of the fit that produced the calibration.
     #[serde(default)]
     pub fit: Option<serde_json::Value>,
@@ -140,6 +140,9 @@ impl CalFile {
         file.calibration
             .validate()
             .map_err(|error| CalFileError::Invalid { path: path.to_string(), error })?;
+        if let Some(s) = &file.temperature_sensor {
+            s.validate().map_err(|error| CalFileError::Invalid { path: path.to_string(), error })?;
+        }
         Ok(file)
     }
 

@@ -21,6 +21,13 @@ impl<T: TemperatureChannel + ?Sized> TemperatureChannel for &T {
     }
 }
 
+/// A thermistor or RTD behind a ratiometric divider, read by its raw code.
+impl TemperatureChannel for crate::sensor::TemperatureSensor {
+    fn celsius(&self, code: u32) -> Result<f32, Error> {
+        crate::sensor::TemperatureSensor::celsius(self, code)
+    }
+}
+
 /// A [`TemperatureChannel`] made of a function or closure `Fn(u32) -> Result<f32, Error>`.
 #[derive(Clone, Copy)]
 pub struct FromFn<F>(pub F);
