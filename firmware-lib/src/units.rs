@@ -61,7 +61,7 @@ impl Unit {
             Unit::DbAmplitude => "db_amplitude",
             Unit::Absorbance => "absorbance",
             Unit::TransmittancePercent => "transmittance_pct",
-            Unit::Ratio => "ratio",
+            Unit::Ratio => "linear_ratio",
         }
     }
 

@@ -7,17 +7,21 @@
 //!
 //! | module | owns |
 //! |---|---|
+//! | [`apply`] | running the firmware correction over a readings file and writing the results |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
 //! | [`frontend`] | the f64 reference model of one front end (physics, noise, the oracle) and the presets |
 //! | [`simulate`] | seeded chamber and validation runs of simulated units, and their files |
+//! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod apply;
 pub mod calfile;
 pub mod data;
+pub mod demo;
 pub mod fit;
 pub mod frontend;
 pub mod output;

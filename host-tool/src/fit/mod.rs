@@ -35,6 +35,20 @@ pub struct FitData {
     pub weight: Vec<f64>,
 }
 
+impl FitData {
+    /// The rows of a calibration file, all of them or those of one unit (index into the file's units).
+    pub fn from_rows(rows: &[crate::data::CalRow], unit: Option<u32>) -> FitData {
+        let mut d = FitData::default();
+        for r in rows.iter().filter(|r| unit.is_none() || r.unit == unit) {
+            d.code.push(r.code);
+            d.temp_c.push(r.temp_c);
+            d.ratio.push(r.ratio);
+            d.weight.push(r.weight);
+        }
+        d
+    }
+}
+
 /// Options of a fit.
 #[derive(Debug, Clone)]
 pub struct FitOptions {
