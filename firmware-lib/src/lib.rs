@@ -14,6 +14,7 @@
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
 //! | [`error`] | the one error enum of the crate |
 //! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
+//! | [`image`] | per-unit calibration images: binary layout, checked parsing, writing, A/B slots |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -30,10 +31,12 @@ extern crate std;
 
 pub mod calibration;
 pub mod error;
+pub mod image;
 pub mod math;
 pub mod physics;
 pub mod units;
 
 pub use calibration::{Calibration, Reading};
 pub use error::Error;
+pub use image::{Image, ImageError};
 pub use units::Unit;
