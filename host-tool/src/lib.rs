@@ -9,10 +9,12 @@
 //! |---|---|
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
+//! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod calfile;
+pub mod image_file;
 pub mod output;
 
 pub use logtrim;

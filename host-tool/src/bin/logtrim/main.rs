@@ -7,6 +7,9 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod image;
+mod inspect;
+
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
 #[derive(Parser)]
 #[command(name = "logtrim", version, about, long_about = None)]
@@ -19,6 +22,10 @@ struct Cli {
 enum Command {
     /// Print the version and the formats this build reads and writes.
     Info,
+    /// Build a unit's calibration image (binary or Intel HEX) from a calibration file.
+    Image(image::Args),
+    /// Decode and check a calibration image file (binary or Intel HEX) and print it; exit 1 if it is bad.
+    Inspect(inspect::Args),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -50,8 +57,15 @@ fn main() -> ExitCode {
                 logtrim_host::calfile::FORMAT,
                 logtrim_host::calfile::VERSION
             );
+            println!(
+                "calibration images: format version {}, {} bytes with the f32 model",
+                logtrim::image::layout::header::VERSION_VALUE,
+                logtrim::image::layout::F32_IMAGE_LEN
+            );
             Ok(())
         }
+        Command::Image(args) => image::run(args),
+        Command::Inspect(args) => inspect::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
