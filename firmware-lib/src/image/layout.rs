@@ -340,7 +340,7 @@ pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
             };
             writeln!(
                 w,
-                "| {name} | {} | {} | `{}` | {} | {} |",
+                "| {name} | {} | {} | `{}` | `{}` | {} |",
                 f.offset,
                 f.size(),
                 f.name,

@@ -3,7 +3,7 @@
 //!
 //! A corrupted or foreign image is never used: [`Image::parse`] checks every byte once, up front, and
 //! either returns an [`Image`] whose accessors cannot fail or a specific [`ImageError`]. Writing needs no
-//! allocation either ([`write`] fills a caller's buffer). The A/B slot helpers are in [`slots`].
+//! allocation either ([`write`](fn@write) fills a caller's buffer). The A/B slot helpers are in [`slots`].
 //!
 //! # Format (version 1)
 //!
@@ -35,7 +35,7 @@
 //! A typical image (the two required sections only) is [`layout::F32_IMAGE_LEN`] = 264 bytes.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
-//! by [`write`] the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260):
+//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260):
 //!
 #![doc = include_str!("LAYOUT.md")]
 //!

@@ -5,7 +5,7 @@
 //! # Which slot wins
 //!
 //! [`select`] parses both slots ([`Image::parse_prefix`]: bytes after the image, erased flash say, are
-//! ignored) and uses the valid image with the higher [sequence counter](ImageInfo::sequence). Equal counters
+//! ignored) and uses the valid image with the higher [sequence counter](super::ImageInfo::sequence). Equal counters
 //! (which [`next_write`] never produces) are broken by the later calibration time, then in favour of slot A.
 //! The counter, not the calibration time, decides because the time is only as good as the line's clock and
 //! a unit may be re-imaged with an older calibration on purpose; the counter records the order of the
@@ -20,8 +20,6 @@
 //! reading as [`Error::NotCalibrated`]. There is deliberately no way to obtain a [`Calibration`] from a slot
 //! that failed its checks, and no fallback to a nominal equation that could be mistaken for a calibrated
 //! value.
-//!
-//! [`ImageInfo::sequence`]: super::ImageInfo::sequence
 
 use core::fmt;
 
