@@ -199,6 +199,7 @@ impl<'a> Image<'a> {
 
 /// Iterator over the sections of a checked [`Image`].
 #[derive(Debug, Clone)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Sections<'a> {
     rest: &'a [u8],
 }
@@ -215,6 +216,29 @@ impl<'a> Iterator for Sections<'a> {
         Some(Section { kind, payload })
     }
 }
+
+// Every public type of the module can be logged with defmt (a build with the feature fails otherwise).
+#[cfg(feature = "defmt")]
+const _: () = {
+    const fn is_format<T: defmt::Format>() {}
+    is_format::<Image<'static>>();
+    is_format::<Section<'static>>();
+    is_format::<Sections<'static>>();
+    is_format::<ImageInfo<'static>>();
+    is_format::<ImageError>();
+    is_format::<ValueError>();
+    is_format::<WriteError>();
+    is_format::<layout::Field>();
+    is_format::<layout::Kind>();
+    is_format::<layout::Part>();
+    is_format::<slots::SlotId>();
+    is_format::<slots::Rejected>();
+    is_format::<slots::Selection<'static>>();
+    is_format::<slots::NoValidImage>();
+    is_format::<slots::WritePlan>();
+    is_format::<slots::SequenceExhausted>();
+    is_format::<slots::ActiveCalibration>();
+};
 
 #[cfg(test)]
 mod tests;
