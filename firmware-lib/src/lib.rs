@@ -20,6 +20,7 @@
 //! | [`rtd`] | platinum RTDs (Pt100, Pt1000, any R₀) by Callendar–Van Dusen with the IEC 60751 coefficients |
 //! | [`divider`] | ADC code → sensor resistance for a ratiometric divider, with open/short detection |
 //! | [`sensor`] | the temperature channel of a unit: element behind a divider, code → °C |
+//! | [`image`] | per-unit calibration images: binary layout, checked parsing, writing, A/B slots |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -40,6 +41,7 @@ pub mod error;
 pub mod filter;
 #[cfg(feature = "hal")]
 pub mod hal;
+pub mod image;
 pub mod math;
 pub mod physics;
 pub mod rtd;
@@ -50,6 +52,7 @@ pub mod units;
 pub use calibration::{Calibration, Reading};
 pub use divider::{Divider, Placement};
 pub use error::Error;
+pub use image::{Image, ImageError};
 pub use rtd::Rtd;
 pub use sensor::{SensorElement, TemperatureSensor};
 pub use thermistor::{Beta, SteinhartHart};

@@ -63,13 +63,21 @@ pub enum ApplyError {
     Io(#[from] io::Error),
 }
 
-fn correct_one<B: Backend>(cal: &Calibration, code: u32, temp: &Result<f64, Error>) -> Result<Reading, Error> {
+fn correct_one<B: Backend>(
+    cal: &Calibration,
+    code: u32,
+    temp: &Result<f64, Error>,
+) -> Result<Reading, Error> {
     let t = (*temp)?;
     cal.correct_with::<B>(code, t as f32)
 }
 
 /// Corrects every row of `readings` (in parallel) with the chosen arithmetic.
-pub fn correct_rows(cal: &Calibration, readings: &Readings, arith: Arithmetic) -> Vec<Result<Reading, Error>> {
+pub fn correct_rows(
+    cal: &Calibration,
+    readings: &Readings,
+    arith: Arithmetic,
+) -> Vec<Result<Reading, Error>> {
     readings
         .rows
         .par_iter()
@@ -144,7 +152,11 @@ mod tests {
     fn rows_pass_through_and_refusals_are_named() {
         let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
         let csv = "id,temp_c,code,note\n1,25,35768,a\n2,25,65535,b\n3,nan,33000,c\n";
-        let r = read_readings(csv.as_bytes(), "mem.csv", &ReadOptions { skip_bad_rows: true, ..Default::default() });
+        let r = read_readings(
+            csv.as_bytes(),
+            "mem.csv",
+            &ReadOptions { skip_bad_rows: true, ..Default::default() },
+        );
         let readings = match r {
             Ok(r) => r,
             Err(e) => panic!("{e}"),
@@ -156,7 +168,11 @@ mod tests {
         let lines: Vec<&str> = text.lines().collect();
         assert_eq!(lines[0], format!("id,temp_c,code,note,{}", added_columns().join(",")));
         // Row 1: x = 3000/3000 = 1 Np at T_ref; 10·log10(e) = 4.3429448 dB (ISO 80000-3 via 1 Np).
-        assert!(lines[1].starts_with("1,25,35768,a,1.0,0.4342945,4.342945,8.68589,-0.4342945,"), "{}", lines[1]);
+        assert!(
+            lines[1].starts_with("1,25,35768,a,1.0,0.4342945,4.342945,8.68589,-0.4342945,"),
+            "{}",
+            lines[1]
+        );
         assert!(lines[1].ends_with(",0,"), "{}", lines[1]);
         assert!(lines[2].ends_with(",,saturated"), "{}", lines[2]);
         assert_eq!(s.rejected, 1 + usize::from(lines.len() == 4));

@@ -118,7 +118,8 @@ impl TwoPoint {
     /// Makes the two-point calibration of one unit's chamber rows.
     pub fn from_chamber(rows: &[ChamberRow], unit: usize) -> Option<TwoPoint> {
         let rows: Vec<&ChamberRow> = rows.iter().filter(|r| r.unit == unit).collect();
-        let sp = rows.iter().map(|r| r.setpoint_c).min_by(|a, b| (a - 25.0).abs().total_cmp(&(b - 25.0).abs()))?;
+        let sp =
+            rows.iter().map(|r| r.setpoint_c).min_by(|a, b| (a - 25.0).abs().total_cmp(&(b - 25.0).abs()))?;
         let at: Vec<&&ChamberRow> = rows.iter().filter(|r| r.setpoint_c == sp).collect();
         let mut xs: Vec<f64> = at.iter().map(|r| r.x_true).collect();
         xs.sort_by(f64::total_cmp);
@@ -218,7 +219,11 @@ pub fn render(out: &DemoOutcome) -> String {
     use std::fmt::Write;
     let db = 10.0 / std::f64::consts::LN_10;
     let mut s = String::new();
-    let _ = writeln!(s, "{:<20} {:>7} {:>8} {:>11} {:>11} {:>10} {:>10} {:>9}", "method", "values", "refused", "rms [Np]", "max [Np]", "rms [dB]", "max [dB]", "max [%]");
+    let _ = writeln!(
+        s,
+        "{:<20} {:>7} {:>8} {:>11} {:>11} {:>10} {:>10} {:>9}",
+        "method", "values", "refused", "rms [Np]", "max [Np]", "rms [dB]", "max [dB]", "max [%]"
+    );
     for m in &out.methods {
         let _ = writeln!(
             s,

@@ -15,6 +15,7 @@
 //! | [`simulate`] | seeded chamber and validation runs of simulated units, and their files |
 //! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
+//! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
@@ -24,6 +25,7 @@ pub mod data;
 pub mod demo;
 pub mod fit;
 pub mod frontend;
+pub mod image_file;
 pub mod output;
 pub mod simulate;
 

@@ -7,6 +7,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod image;
+mod inspect;
 mod simulate;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -23,6 +25,10 @@ enum Command {
     Info,
     /// Simulate chamber calibration and validation runs of a front end, with the truth kept apart.
     Simulate(simulate::SimulateArgs),
+    /// Build a unit's calibration image (binary or Intel HEX) from a calibration file.
+    Image(image::Args),
+    /// Decode and check a calibration image file (binary or Intel HEX) and print it; exit 1 if it is bad.
+    Inspect(inspect::Args),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -54,9 +60,16 @@ fn main() -> ExitCode {
                 logtrim_host::calfile::FORMAT,
                 logtrim_host::calfile::VERSION
             );
+            println!(
+                "calibration images: format version {}, {} bytes with the f32 model",
+                logtrim::image::layout::header::VERSION_VALUE,
+                logtrim::image::layout::F32_IMAGE_LEN
+            );
             Ok(())
         }
         Command::Simulate(args) => simulate::run(args),
+        Command::Image(args) => image::run(args),
+        Command::Inspect(args) => inspect::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,0 +1,253 @@
+//! Why an image was refused ([`ImageError`]), why a calibration cannot be stored ([`ValueError`]) and why an
+//! image could not be written ([`WriteError`]).
+
+use core::fmt;
+
+use crate::error::Error;
+
+/// A value that the image format cannot carry or that no reader may use. Checked identically when an image
+/// is written and when it is parsed, so whatever the writer accepts the parser accepts too.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ValueError {
+    /// A stored f32 is NaN or infinite (every stored coefficient is checked, used or not).
+    NonFinite {
+        /// The layout field (see [`layout`](super::layout)).
+        field: &'static str,
+        /// The element within an array field (0 for a scalar).
+        index: u8,
+    },
+    /// A term count is larger than the capacity of its table.
+    TableSize {
+        /// The layout field holding the count.
+        field: &'static str,
+        /// The count found.
+        found: u8,
+        /// The largest count allowed.
+        capacity: u8,
+    },
+    /// The decoded calibration fails [`Calibration::validate`](crate::Calibration::validate).
+    Calibration(Error),
+}
+
+/// Why bytes were refused as a calibration image. Every defect has its own variant; the checks run in the
+/// order the variants are listed (see [the image docs](super#order-of-the-checks)).
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ImageError {
+    /// Fewer bytes than the header, or than the total length the header declares.
+    Truncated {
+        /// Bytes needed.
+        needed: u32,
+        /// Bytes available.
+        available: u32,
+    },
+    /// The first four bytes are not the magic: not an image of this format (erased or foreign memory).
+    BadMagic {
+        /// The bytes found.
+        found: [u8; 4],
+    },
+    /// A format version this build does not read.
+    UnsupportedVersion {
+        /// The version found.
+        found: u16,
+    },
+    /// The declared total length is impossible: shorter than a header and CRC, not a multiple of 4, or
+    /// longer than [`MAX_LEN`](super::layout::MAX_LEN).
+    BadLength {
+        /// The length declared.
+        declared: u32,
+    },
+    /// The bytes hold more than the declared image ([`Image::parse`](super::Image::parse) wants exactly one
+    /// image; [`Image::parse_prefix`](super::Image::parse_prefix) allows trailing bytes).
+    LengthMismatch {
+        /// The length declared.
+        declared: u32,
+        /// The length of the bytes given.
+        actual: u32,
+    },
+    /// The stored CRC is not the CRC of the image: it was corrupted or not written completely.
+    CrcMismatch {
+        /// The CRC stored in the trailer.
+        stored: u32,
+        /// The CRC computed over the image.
+        computed: u32,
+    },
+    /// A section header or payload runs past the end of the body.
+    SectionOverrun {
+        /// Offset of the section header in the image.
+        offset: u32,
+    },
+    /// A section's payload length is not a multiple of 4.
+    SectionAlignment {
+        /// The section type.
+        kind: u16,
+        /// The payload length.
+        len: u16,
+    },
+    /// A section of a known type has the wrong payload length for its layout.
+    SectionLength {
+        /// The section type.
+        kind: u16,
+        /// The payload length found.
+        found: u16,
+        /// The payload length of the layout.
+        expected: u16,
+    },
+    /// A critical section type (bit 15 clear) that this build does not know.
+    UnknownSection {
+        /// The section type.
+        kind: u16,
+    },
+    /// A section type appears more than once.
+    DuplicateSection {
+        /// The section type.
+        kind: u16,
+    },
+    /// The header's section count differs from the sections in the body.
+    SectionCount {
+        /// The count in the header.
+        declared: u16,
+        /// The sections found.
+        found: u32,
+    },
+    /// A required section is absent.
+    MissingSection {
+        /// The section type.
+        kind: u16,
+    },
+    /// The serial is not printable ASCII followed by NUL padding.
+    BadSerial,
+    /// A reserved byte is not zero.
+    ReservedNotZero {
+        /// Offset of the byte in the image.
+        offset: u32,
+    },
+    /// A flag byte holds something other than 0 or 1.
+    BadFlag {
+        /// The layout field.
+        field: &'static str,
+        /// The value found.
+        found: u8,
+    },
+    /// A value is out of range (see [`ValueError`]).
+    Value(ValueError),
+}
+
+/// Why an image could not be written. Every check runs before the first byte is written, so after any of
+/// these the buffer is as it was.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum WriteError {
+    /// The buffer is shorter than the image.
+    BufferTooSmall {
+        /// Bytes the image needs.
+        needed: u32,
+        /// Bytes the buffer has.
+        available: u32,
+    },
+    /// The serial is longer than 16 bytes or holds something other than printable ASCII (0x20–0x7E).
+    BadSerial,
+    /// An extra section cannot be stored: its type is one the writer produces itself, or its payload is not
+    /// a multiple of 4 bytes or longer than a section can hold.
+    BadSection {
+        /// The section type.
+        kind: u16,
+    },
+    /// The image would be longer than [`MAX_LEN`](super::layout::MAX_LEN).
+    TooLong {
+        /// The length it would have.
+        len: u32,
+    },
+    /// The calibration cannot be stored (see [`ValueError`]).
+    Value(ValueError),
+}
+
+impl From<ValueError> for ImageError {
+    fn from(e: ValueError) -> Self {
+        ImageError::Value(e)
+    }
+}
+
+impl From<ValueError> for WriteError {
+    fn from(e: ValueError) -> Self {
+        WriteError::Value(e)
+    }
+}
+
+impl fmt::Display for ValueError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ValueError::NonFinite { field, index } => write!(f, "{field}[{index}] is NaN or infinite"),
+            ValueError::TableSize { field, found, capacity } => {
+                write!(f, "{field} is {found}, more than the capacity {capacity}")
+            }
+            ValueError::Calibration(e) => write!(f, "calibration does not validate: {e}"),
+        }
+    }
+}
+
+impl fmt::Display for ImageError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            ImageError::Truncated { needed, available } => {
+                write!(f, "image truncated: {available} bytes, {needed} needed")
+            }
+            ImageError::BadMagic { found: [a, b, c, d] } => {
+                write!(f, "not a calibration image: starts with {a:02x} {b:02x} {c:02x} {d:02x}")
+            }
+            ImageError::UnsupportedVersion { found } => {
+                write!(f, "image format version {found} is not supported (this build reads 1)")
+            }
+            ImageError::BadLength { declared } => write!(f, "declared image length {declared} is impossible"),
+            ImageError::LengthMismatch { declared, actual } => {
+                write!(f, "image declares {declared} bytes but {actual} were given")
+            }
+            ImageError::CrcMismatch { stored, computed } => {
+                write!(f, "CRC mismatch: stored {stored:#010x}, computed {computed:#010x}")
+            }
+            ImageError::SectionOverrun { offset } => {
+                write!(f, "section at offset {offset} runs past the end of the body")
+            }
+            ImageError::SectionAlignment { kind, len } => {
+                write!(f, "section {kind:#06x} has length {len}, not a multiple of 4")
+            }
+            ImageError::SectionLength { kind, found, expected } => {
+                write!(f, "section {kind:#06x} has length {found}, its layout has {expected}")
+            }
+            ImageError::UnknownSection { kind } => write!(f, "unknown critical section {kind:#06x}"),
+            ImageError::DuplicateSection { kind } => write!(f, "section {kind:#06x} appears twice"),
+            ImageError::SectionCount { declared, found } => {
+                write!(f, "header declares {declared} sections, the body holds {found}")
+            }
+            ImageError::MissingSection { kind } => write!(f, "required section {kind:#06x} is missing"),
+            ImageError::BadSerial => f.write_str("serial is not printable ASCII with NUL padding"),
+            ImageError::ReservedNotZero { offset } => {
+                write!(f, "reserved byte at offset {offset} is not zero")
+            }
+            ImageError::BadFlag { field, found } => write!(f, "{field} is {found}, not 0 or 1"),
+            ImageError::Value(e) => write!(f, "{e}"),
+        }
+    }
+}
+
+impl fmt::Display for WriteError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            WriteError::BufferTooSmall { needed, available } => {
+                write!(f, "buffer of {available} bytes too small: the image needs {needed}")
+            }
+            WriteError::BadSerial => f.write_str("serial must be at most 16 printable ASCII characters"),
+            WriteError::BadSection { kind } => write!(f, "extra section {kind:#06x} cannot be stored"),
+            WriteError::TooLong { len } => write!(f, "image of {len} bytes exceeds the format's maximum"),
+            WriteError::Value(e) => write!(f, "{e}"),
+        }
+    }
+}
+
+impl core::error::Error for ValueError {}
+impl core::error::Error for ImageError {}
+impl core::error::Error for WriteError {}

@@ -1,0 +1,244 @@
+//! Per-unit calibration images: the binary form of one unit's calibration in EEPROM or flash, how it is
+//! written, how it is checked when it is read back, and how a unit chooses between two slots.
+//!
+//! A corrupted or foreign image is never used: [`Image::parse`] checks every byte once, up front, and
+//! either returns an [`Image`] whose accessors cannot fail or a specific [`ImageError`]. Writing needs no
+//! allocation either ([`write`](fn@write) fills a caller's buffer). The A/B slot helpers are in [`slots`].
+//!
+//! # Format (version 1)
+//!
+//! Little-endian throughout; `f32` values are IEEE 754 binary32 bit patterns, stored bit-exact.
+//!
+//! ```text
+//! header (40 bytes) | section | section | … | CRC-32 (4 bytes)
+//! section = kind u16 | len u16 | payload (len bytes, len a multiple of 4)
+//! ```
+//!
+//! * The **header** carries the magic `LTCI`, the format version, the number of sections, the total length,
+//!   a sequence counter for the two-slot layout, the calibration time (u64 Unix seconds, UTC) and the unit
+//!   serial (16 bytes of printable ASCII, NUL-padded).
+//! * The **body** is a sequence of typed sections. Version 1 defines two, both required exactly once, in any
+//!   order: `0x0001` *ranges* (the calibrated ADC, temperature and x ranges) and `0x0002` *model_f32* (the f32
+//!   model: every field of [`Calibration`] not in *ranges*, including unused coefficients, so an image
+//!   round-trips a calibration bit for bit).
+//! * A section type with bit 15 set is **optional**: a reader that does not know it skips it (it is still
+//!   covered by the CRC). A type with bit 15 clear is **critical**: a reader that does not know it refuses
+//!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8003`–`0x80ff` are reserved
+//!   for this project. The fixed-point tables (a per-temperature slope/offset stage, an i16 residual surface
+//!   over (x, T), an exp table and a temperature-sensor table, each with its dims and scales) are planned as
+//!   their own section: optional to readers that correct in f32, checked (dims against the payload length,
+//!   scales, monotone knots) by the readers that use them, exactly as *model_f32* is checked here.
+//! * The **trailer** is the CRC-32 of every byte before it: the IEEE 802.3 reflected CRC-32 (polynomial
+//!   0x04C11DB7, reflected in and out, init and xor-out 0xFFFFFFFF), catalogue name CRC-32/ISO-HDLC, computed
+//!   with the `crc` crate ([`crc32`]).
+//!
+//! A typical image (the two required sections only) is [`layout::F32_IMAGE_LEN`] = 268 bytes.
+//!
+//! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
+//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260):
+//!
+#![doc = include_str!("LAYOUT.md")]
+//!
+//! # Order of the checks
+//!
+//! [`Image::parse`] runs its checks in this order, and stops at the first that fails:
+//!
+//! 1. **Magic** (4 bytes): erased flash (all `0xff`), blank EEPROM (all `0x00`) and foreign data are
+//!    rejected at once, at the cost of one comparison, before any length is believed.
+//! 2. **Header present, version known**: the rest of the header is only interpreted under a version this
+//!    build knows.
+//! 3. **Declared length** sane (at least header + CRC, a multiple of 4, at most [`layout::MAX_LEN`]),
+//!    present in full ([`ImageError::Truncated`] otherwise) and, for [`Image::parse`], equal to the number
+//!    of bytes given ([`ImageError::LengthMismatch`]). This bounds the work of the next step, so a
+//!    corrupted length cannot make the reader hash megabytes of memory.
+//! 4. **CRC** over the declared length. It comes *before* the structural checks: once it matches, the
+//!    section walk and the value checks only ever see bytes exactly as the writer wrote them (barring a
+//!    2⁻³² coincidence), so a corrupted image is reported as what it is, a CRC mismatch, and not as whatever
+//!    structural defect the corruption happens to look like. The parser is panic-free on any input either
+//!    way (it is fuzzed without the CRC as well), so this order is about fast, honest rejection, not about
+//!    memory safety.
+//! 5. **Structure**: sections lie within the body, are 4-byte multiples, known critical types have their
+//!    layout's length, none is duplicated, the count matches the header, both required sections are present.
+//! 6. **Values**: the serial, reserved bytes (zero), flags (0 or 1), term counts within their tables'
+//!    capacities, every stored f32 finite, and finally [`Calibration::validate`]. The CRC cannot catch a
+//!    writer that stored a bad value with a correct CRC; these checks do.
+//!
+//! Every step is bounded by the declared length, allocates nothing and returns a specific error.
+//!
+//! # Example
+//!
+//! ```
+//! use logtrim::image::{self, Image, ImageInfo};
+//! use logtrim::Calibration;
+//!
+//! let cal = Calibration::nominal(16, 32768.0, 2000.0, 25.0);
+//! let info = ImageInfo { serial: "PH-2207-0042", calibrated_at: 1_764_614_400, sequence: 7 };
+//! let mut buf = [0u8; image::layout::F32_IMAGE_LEN];
+//! let n = image::write(&mut buf, &info, &cal)?;
+//!
+//! let img = Image::parse(&buf[..n])?;
+//! assert_eq!(img.calibration(), cal);
+//! assert_eq!(img.serial(), "PH-2207-0042");
+//!
+//! buf[100] ^= 0x04; // one flipped bit
+//! assert!(matches!(Image::parse(&buf), Err(image::ImageError::CrcMismatch { .. })));
+//! # Ok::<(), Box<dyn core::error::Error>>(())
+//! ```
+
+mod error;
+pub mod layout;
+mod parse;
+pub mod slots;
+mod write;
+
+pub use error::{ImageError, ValueError, WriteError};
+pub use write::{encoded_len, write, write_with_sections, ImageInfo};
+
+use crate::calibration::Calibration;
+
+/// The image CRC: CRC-32/ISO-HDLC (IEEE 802.3, reflected, polynomial 0x04C11DB7) from the `crc` crate.
+pub const CRC32: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
+
+/// The CRC-32/ISO-HDLC of `bytes`.
+pub fn crc32(bytes: &[u8]) -> u32 {
+    CRC32.checksum(bytes)
+}
+
+/// A section of an image: its type and payload.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Section<'a> {
+    /// The section type (bit 15 set: optional).
+    pub kind: u16,
+    /// The payload.
+    pub payload: &'a [u8],
+}
+
+/// A calibration image that passed every check. Its accessors cannot fail.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Image<'a> {
+    bytes: &'a [u8],
+    version: u16,
+    sequence: u32,
+    calibrated_at: u64,
+    serial: &'a str,
+    crc: u32,
+    calibration: Calibration,
+}
+
+impl<'a> Image<'a> {
+    /// Checks `bytes` as exactly one image (see [the order of the checks](self#order-of-the-checks)).
+    /// Trailing bytes beyond the declared length are an error ([`ImageError::LengthMismatch`]).
+    pub fn parse(bytes: &'a [u8]) -> Result<Image<'a>, ImageError> {
+        parse::parse(bytes, parse::Extent::Exact).map(|(image, _)| image)
+    }
+
+    /// Checks an image at the start of `bytes` (a slot, a flash page) and returns it with the bytes after
+    /// it, which are not part of the image and are not checked (erased flash, say).
+    pub fn parse_prefix(bytes: &'a [u8]) -> Result<(Image<'a>, &'a [u8]), ImageError> {
+        parse::parse(bytes, parse::Extent::Prefix)
+    }
+
+    /// The unit's calibration.
+    pub fn calibration(&self) -> Calibration {
+        self.calibration
+    }
+
+    /// The unit serial (printable ASCII, possibly empty).
+    pub fn serial(&self) -> &'a str {
+        self.serial
+    }
+
+    /// When the unit was calibrated, Unix seconds (UTC).
+    pub fn calibrated_at(&self) -> u64 {
+        self.calibrated_at
+    }
+
+    /// The write counter used to choose between two slots.
+    pub fn sequence(&self) -> u32 {
+        self.sequence
+    }
+
+    /// The format version.
+    pub fn version(&self) -> u16 {
+        self.version
+    }
+
+    /// The stored (and verified) CRC.
+    pub fn crc(&self) -> u32 {
+        self.crc
+    }
+
+    /// The image's bytes, header to CRC.
+    pub fn as_bytes(&self) -> &'a [u8] {
+        self.bytes
+    }
+
+    /// The image's length in bytes.
+    pub fn len(&self) -> usize {
+        self.bytes.len()
+    }
+
+    /// Always false: an image holds at least a header and a CRC (for clippy's `len` convention).
+    pub fn is_empty(&self) -> bool {
+        self.bytes.is_empty()
+    }
+
+    /// The sections in the order they appear, known and optional ones alike.
+    pub fn sections(&self) -> Sections<'a> {
+        let end = self.bytes.len().saturating_sub(layout::trailer::LEN);
+        Sections { rest: self.bytes.get(layout::header::LEN..end).unwrap_or(&[]) }
+    }
+
+    /// The payload of the first section of type `kind`, if there is one.
+    pub fn section(&self, kind: u16) -> Option<&'a [u8]> {
+        self.sections().find(|s| s.kind == kind).map(|s| s.payload)
+    }
+}
+
+/// Iterator over the sections of a checked [`Image`].
+#[derive(Debug, Clone)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Sections<'a> {
+    rest: &'a [u8],
+}
+
+impl<'a> Iterator for Sections<'a> {
+    type Item = Section<'a>;
+
+    fn next(&mut self) -> Option<Section<'a>> {
+        let (head, rest) = self.rest.split_at_checked(layout::section::HEADER_LEN)?;
+        let kind = u16::from_le_bytes(parse::array(head, &layout::section::KIND)?);
+        let len = u16::from_le_bytes(parse::array(head, &layout::section::LEN)?);
+        let (payload, rest) = rest.split_at_checked(usize::from(len))?;
+        self.rest = rest;
+        Some(Section { kind, payload })
+    }
+}
+
+// Every public type of the module can be logged with defmt (a build with the feature fails otherwise).
+#[cfg(feature = "defmt")]
+const _: () = {
+    const fn is_format<T: defmt::Format>() {}
+    is_format::<Image<'static>>();
+    is_format::<Section<'static>>();
+    is_format::<Sections<'static>>();
+    is_format::<ImageInfo<'static>>();
+    is_format::<ImageError>();
+    is_format::<ValueError>();
+    is_format::<WriteError>();
+    is_format::<layout::Field>();
+    is_format::<layout::Kind>();
+    is_format::<layout::Part>();
+    is_format::<slots::SlotId>();
+    is_format::<slots::Rejected>();
+    is_format::<slots::Selection<'static>>();
+    is_format::<slots::NoValidImage>();
+    is_format::<slots::WritePlan>();
+    is_format::<slots::SequenceExhausted>();
+    is_format::<slots::ActiveCalibration>();
+};
+
+#[cfg(test)]
+mod tests;

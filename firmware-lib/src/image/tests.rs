@@ -1,0 +1,761 @@
+use std::string::String;
+use std::vec::Vec;
+
+use proptest::prelude::*;
+
+use super::layout::{self, header, model_f32, ranges, section, trailer};
+use super::slots::{self, ActiveCalibration, Rejected, SlotId};
+use super::*;
+use crate::calibration::{BiasTerm, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL, MAX_SERIES};
+use crate::error::{CalibrationDefect, Error};
+
+/// A unit with every model term in use (a strong low-end bend, a high-end bend, a residual).
+fn hard_unit() -> Calibration {
+    let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
+    c.adc.rail_margin = 16;
+    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
+    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
+    c.model.t_center_c = 32.5;
+    c.model.t_half_span_k = 52.5;
+    c.model.pole = -0.12;
+    c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap();
+    c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap();
+    c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap();
+    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: -2.5 };
+    let mut r = Residual::OFF;
+    r.nx = 3;
+    r.nt = 2;
+    r.x_center = -2.5;
+    r.x_half_span = 6.5;
+    r.coeffs[0] = 1e-3;
+    r.coeffs[1] = -2e-4;
+    r.coeffs[MAX_RESIDUAL] = 5e-4;
+    r.coeffs[2 * MAX_RESIDUAL + 1] = 7e-5;
+    c.model.residual = r;
+    c
+}
+
+const INFO: ImageInfo<'static> =
+    ImageInfo { serial: "OPM-3-000417", calibrated_at: 1_764_614_400, sequence: 3 };
+
+fn image_of(cal: &Calibration, info: &ImageInfo<'_>) -> Vec<u8> {
+    let mut buf = std::vec![0u8; layout::F32_IMAGE_LEN];
+    let n = write(&mut buf, info, cal).unwrap();
+    assert_eq!(n, buf.len());
+    buf
+}
+
+fn typical() -> Vec<u8> {
+    image_of(&hard_unit(), &INFO)
+}
+
+/// Recomputes the CRC of an image whose bytes were changed on purpose (a writer that stores bad values
+/// with a correct CRC: only the structural and value checks can catch it).
+fn fix_crc(img: &mut [u8]) {
+    let n = img.len() - trailer::LEN;
+    let crc = crc32fast::hash(&img[..n]);
+    img[n..].copy_from_slice(&crc.to_le_bytes());
+}
+
+/// An image assembled from parts by the test itself, following the documented layout, with a correct CRC.
+fn assemble(count: u16, sections: &[(u16, &[u8])]) -> Vec<u8> {
+    let mut v = Vec::new();
+    v.extend_from_slice(b"LTCI");
+    v.extend_from_slice(&1u16.to_le_bytes());
+    v.extend_from_slice(&count.to_le_bytes());
+    v.extend_from_slice(&[0; 4]); // total length, set below
+    v.extend_from_slice(&9u32.to_le_bytes());
+    v.extend_from_slice(&1_700_000_000u64.to_le_bytes());
+    v.extend_from_slice(b"ASSEMBLED\0\0\0\0\0\0\0");
+    assert_eq!(v.len(), 40);
+    for (kind, payload) in sections {
+        v.extend_from_slice(&kind.to_le_bytes());
+        v.extend_from_slice(&(payload.len() as u16).to_le_bytes());
+        v.extend_from_slice(payload);
+    }
+    let total = (v.len() + 4) as u32;
+    v[8..12].copy_from_slice(&total.to_le_bytes());
+    let crc = crc32fast::hash(&v);
+    v.extend_from_slice(&crc.to_le_bytes());
+    v
+}
+
+/// The payloads of the two required sections of an image written by `write`.
+fn payloads(img: &[u8]) -> (Vec<u8>, Vec<u8>) {
+    let r0 = header::LEN + section::HEADER_LEN;
+    let m0 = r0 + ranges::LEN + section::HEADER_LEN;
+    (img[r0..r0 + ranges::LEN].to_vec(), img[m0..m0 + model_f32::LEN].to_vec())
+}
+
+/// Every f32 of a calibration as its bit pattern, and every integer, by exhaustive destructuring: a field
+/// added to `Calibration` and forgotten by the image fails to compile here.
+fn bits(c: &Calibration) -> Vec<u64> {
+    let Calibration { adc, temperature, x_range, model } = *c;
+    let crate::calibration::AdcScaling { bits, rail_margin, level_shift_code } = adc;
+    let TemperatureRange { min_c, max_c, extrapolation_k } = temperature;
+    let XRange { min, max, min_sensitivity } = x_range;
+    let crate::calibration::Model {
+        t_center_c,
+        t_half_span_k,
+        t_ref_k,
+        pole,
+        offset,
+        slope,
+        bulk,
+        bias,
+        residual,
+    } = model;
+    let BiasTerm { enabled, ln_beta0, ln_beta1, reference } = bias;
+    let Residual { nx, nt, x_center, x_half_span, coeffs } = residual;
+    let mut v: Vec<u64> = std::vec![u64::from(bits), u64::from(rail_margin), u64::from(enabled)];
+    let f = [
+        level_shift_code,
+        min_c,
+        max_c,
+        extrapolation_k,
+        min,
+        max,
+        min_sensitivity,
+        t_center_c,
+        t_half_span_k,
+        t_ref_k,
+        pole,
+        ln_beta0,
+        ln_beta1,
+        reference,
+        x_center,
+        x_half_span,
+    ];
+    v.extend(f.iter().map(|x| u64::from(x.to_bits())));
+    for s in [offset, slope, bulk] {
+        let Series { len, coeffs } = s;
+        v.push(u64::from(len));
+        v.extend(coeffs.iter().map(|x| u64::from(x.to_bits())));
+    }
+    v.extend([u64::from(nx), u64::from(nt)]);
+    v.extend(coeffs.iter().map(|x| u64::from(x.to_bits())));
+    v
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// The CRC and the layout
+
+#[test]
+fn crc_is_crc32_iso_hdlc_check_value() {
+    // CRC catalogue check value of CRC-32/ISO-HDLC over ASCII "123456789" (also in NUMERICS.md).
+    assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
+    // And not CRC-32C (Castagnoli), whose check value is 0xE3069283 (same catalogue).
+    assert_ne!(crc32(b"123456789"), 0xE306_9283);
+}
+
+#[test]
+fn stored_crc_agrees_with_an_independent_implementation() {
+    // crc32fast is an independent implementation of the IEEE CRC-32 (a general-purpose reference library).
+    let img = typical();
+    let n = img.len() - 4;
+    let stored = u32::from_le_bytes(img[n..].try_into().unwrap());
+    assert_eq!(stored, crc32fast::hash(&img[..n]));
+    assert_eq!(Image::parse(&img).unwrap().crc(), stored);
+}
+
+#[test]
+fn layout_parts_are_contiguous_and_sized() {
+    for part in layout::PARTS {
+        let mut at = 0;
+        for f in part.fields {
+            assert_eq!(f.offset, at, "{}.{} not contiguous", part.name, f.name);
+            at = f.end();
+        }
+        let len = match part.name {
+            "header" => header::LEN,
+            "section header" => section::HEADER_LEN,
+            "ranges" => ranges::LEN,
+            "model_f32" => model_f32::LEN,
+            "trailer" => trailer::LEN,
+            other => panic!("unexpected part {other}"),
+        };
+        assert_eq!(at, len, "{}", part.name);
+    }
+    assert_eq!(header::LEN, 40);
+    assert_eq!(ranges::LEN, 32);
+    assert_eq!(model_f32::LEN, 184);
+    assert_eq!(layout::F32_IMAGE_LEN, 268);
+}
+
+#[test]
+fn layout_table_in_the_docs_is_rendered_from_the_constants() {
+    let mut table = String::new();
+    layout::write_markdown_table(&mut table).unwrap();
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/src/image/LAYOUT.md");
+    if std::env::var_os("LOGTRIM_BLESS").is_some() {
+        std::fs::write(path, &table).unwrap();
+    }
+    let doc = std::fs::read_to_string(path).unwrap();
+    assert_eq!(doc, table, "LAYOUT.md is stale: run the tests with LOGTRIM_BLESS=1 to regenerate it");
+}
+
+#[test]
+fn written_bytes_sit_where_the_layout_says() {
+    // Read a few fields back by hand at their documented offsets, independently of the parser.
+    let img = typical();
+    assert_eq!(&img[0..4], b"LTCI");
+    assert_eq!(u16::from_le_bytes([img[4], img[5]]), 1);
+    assert_eq!(u16::from_le_bytes([img[6], img[7]]), 2);
+    assert_eq!(u32::from_le_bytes(img[8..12].try_into().unwrap()), 268);
+    assert_eq!(u32::from_le_bytes(img[12..16].try_into().unwrap()), 3);
+    assert_eq!(u64::from_le_bytes(img[16..24].try_into().unwrap()), 1_764_614_400);
+    assert_eq!(&img[24..40], b"OPM-3-000417\0\0\0\0");
+    assert_eq!(u16::from_le_bytes([img[40], img[41]]), 0x0001);
+    assert_eq!(u16::from_le_bytes([img[42], img[43]]), 32);
+    assert_eq!(img[44], 16); // adc bits
+    assert_eq!(f32::from_le_bytes(img[52..56].try_into().unwrap()), -20.0); // t_min_c
+    assert_eq!(u16::from_le_bytes([img[76], img[77]]), 0x0002);
+    assert_eq!(u16::from_le_bytes([img[78], img[79]]), 184);
+    assert_eq!(f32::from_le_bytes(img[80..84].try_into().unwrap()), 32768.0); // level shift
+    assert_eq!(img[80 + 23], 1); // bias enabled
+    assert_eq!(f32::from_le_bytes(img[80 + 52..80 + 56].try_into().unwrap()), 1900.0);
+    // slope c0
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Round trips
+
+#[test]
+fn round_trip_with_accessors() {
+    let img = typical();
+    let parsed = Image::parse(&img).unwrap();
+    assert_eq!(bits(&parsed.calibration()), bits(&hard_unit()));
+    assert_eq!(parsed.serial(), "OPM-3-000417");
+    assert_eq!(parsed.calibrated_at(), 1_764_614_400);
+    assert_eq!(parsed.sequence(), 3);
+    assert_eq!(parsed.version(), 1);
+    assert_eq!(parsed.len(), 268);
+    assert_eq!(parsed.as_bytes(), &img[..]);
+    let kinds: Vec<u16> = parsed.sections().map(|s| s.kind).collect();
+    assert_eq!(kinds, [ranges::KIND, model_f32::KIND]);
+    // The loaded calibration corrects exactly as the original.
+    let c = hard_unit();
+    for code in [20_000u32, 32_768, 40_000] {
+        assert_eq!(parsed.calibration().correct(code, 40.0), c.correct(code, 40.0));
+    }
+}
+
+#[test]
+fn empty_and_full_length_serials() {
+    for s in ["", "0123456789ABCDEF", " lead and trail "] {
+        let info = ImageInfo { serial: s, ..INFO };
+        let img = image_of(&hard_unit(), &info);
+        assert_eq!(Image::parse(&img).unwrap().serial(), s);
+    }
+}
+
+#[test]
+fn optional_sections_are_skipped_and_kept() {
+    let table: Vec<u8> = (0..2048u32).map(|i| (i * 7) as u8).collect();
+    let extra = [Section { kind: 0x8010, payload: &table }, Section { kind: 0x8011, payload: &[] }];
+    let len = encoded_len(&extra).unwrap();
+    assert_eq!(len, 268 + 4 + 2048 + 4);
+    let mut buf = std::vec![0u8; len];
+    assert_eq!(write_with_sections(&mut buf, &INFO, &hard_unit(), &extra).unwrap(), len);
+    let img = Image::parse(&buf).unwrap();
+    assert_eq!(bits(&img.calibration()), bits(&hard_unit()));
+    assert_eq!(img.section(0x8010), Some(&table[..]));
+    assert_eq!(img.section(0x8011), Some(&[][..]));
+    assert_eq!(img.section(0x8012), None);
+    assert_eq!(img.sections().count(), 4);
+}
+
+/// Finite f32 of any bit pattern (both zeros, subnormals, extremes).
+fn finite() -> impl Strategy<Value = f32> + Clone {
+    any::<u32>().prop_map(f32::from_bits).prop_filter("finite", |v| v.is_finite())
+}
+
+fn series(
+    c0: impl Strategy<Value = f32>,
+    rest: impl Strategy<Value = f32> + Clone,
+) -> impl Strategy<Value = Series> {
+    (0..=MAX_SERIES as u8, c0, proptest::array::uniform5(rest)).prop_map(|(len, c0, r)| {
+        let mut s = Series::ZERO;
+        s.len = len;
+        s.coeffs[0] = c0;
+        s.coeffs[1..].copy_from_slice(&r);
+        s
+    })
+}
+
+prop_compose! {
+    fn calibration()(
+        bits in 8u8..=24,
+        margin_frac in 0.0f64..0.2,
+        level in finite(),
+        t_min in -60.0f32..40.0,
+        t_span in 5.0f32..150.0,
+        extra in 0.0f32..10.0,
+        x_min in -20.0f32..0.0,
+        x_span in 0.5f32..20.0,
+        min_sens in finite(),
+        pole in -0.5f32..0.5,
+        t_ref in 150.0f32..500.0,
+        offset in series(finite(), finite()),
+        slope_len in 1..=MAX_SERIES as u8,
+        slope_c0 in 100.0f32..5000.0,
+        slope_rest in proptest::array::uniform5(-0.04f32..0.04),
+        bulk in series(finite(), finite()),
+        bias in (any::<bool>(), -60.0f32..29.0, finite(), finite()),
+        res_dims in (0..=MAX_RESIDUAL as u8, 0..=MAX_RESIDUAL as u8),
+        res_norm in (finite(), 1e-3f32..100.0),
+        res in proptest::array::uniform16(finite()),
+    ) -> Calibration {
+        let mut c = Calibration::nominal(bits, level, slope_c0, 25.0);
+        let max = (1u64 << bits) - 1;
+        c.adc.rail_margin = (max as f64 * margin_frac) as u32;
+        c.temperature = TemperatureRange { min_c: t_min, max_c: t_min + t_span, extrapolation_k: extra };
+        c.x_range = XRange { min: x_min, max: x_min + x_span, min_sensitivity: min_sens };
+        // Normalise τ over the range with its excursions so |τ| ≤ 1, where the slope series stays positive.
+        c.model.t_center_c = t_min + 0.5 * t_span;
+        c.model.t_half_span_k = 0.5 * t_span + extra + 1.0;
+        c.model.t_ref_k = t_ref;
+        c.model.pole = pole;
+        c.model.offset = offset;
+        c.model.slope.len = slope_len;
+        for (d, r) in c.model.slope.coeffs[1..].iter_mut().zip(slope_rest) {
+            *d = r * slope_c0;
+        }
+        c.model.bulk = bulk;
+        c.model.bias = BiasTerm { enabled: bias.0, ln_beta0: bias.1, ln_beta1: bias.2, reference: bias.3 };
+        c.model.residual = Residual { nx: res_dims.0, nt: res_dims.1, x_center: res_norm.0, x_half_span: res_norm.1, coeffs: res };
+        c
+    }
+}
+
+fn serial() -> impl Strategy<Value = String> {
+    proptest::collection::vec(0x20u8..=0x7e, 0..=16).prop_map(|b| String::from_utf8(b).unwrap())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+    #[test]
+    fn calibration_image_calibration_is_bit_exact(
+        cal in calibration(), s in serial(), at in any::<u64>(), seq in any::<u32>()
+    ) {
+        prop_assume!(cal.validate().is_ok());
+        let info = ImageInfo { serial: &s, calibrated_at: at, sequence: seq };
+        let img = image_of(&cal, &info);
+        let parsed = Image::parse(&img).unwrap();
+        prop_assert_eq!(bits(&parsed.calibration()), bits(&cal));
+        prop_assert_eq!(parsed.serial(), s.as_str());
+        prop_assert_eq!(parsed.calibrated_at(), at);
+        prop_assert_eq!(parsed.sequence(), seq);
+        // Writing the parsed calibration again gives the same bytes.
+        prop_assert_eq!(image_of(&parsed.calibration(), &info), img);
+    }
+
+    /// Someone else's images: byte errors anywhere after the magic, with the CRC recomputed (as a faulty
+    /// writer would). Whatever is accepted must be exactly what our writer would have written, so no byte
+    /// of an accepted image escapes the checks.
+    #[test]
+    fn corrupted_images_with_a_correct_crc_are_refused_or_canonical(
+        edits in proptest::collection::vec((4usize..260, any::<u8>()), 1..6)
+    ) {
+        let mut img = typical();
+        for (at, v) in edits {
+            img[at] = v;
+        }
+        fix_crc(&mut img);
+        if let Ok(p) = Image::parse(&img) {
+            prop_assert!(p.calibration().validate().is_ok());
+            let info = ImageInfo { serial: p.serial(), calibrated_at: p.calibrated_at(), sequence: p.sequence() };
+            prop_assert_eq!(image_of(&p.calibration(), &info), img);
+        }
+    }
+
+    /// Two units' images spliced at a random point (a write torn between two calibrations): refused unless
+    /// the splice equals one of them.
+    #[test]
+    fn spliced_images_are_refused(cut in 1usize..263, seq in 4u32..100) {
+        let a = typical();
+        let mut other = hard_unit();
+        other.model.slope.coeffs[0] = 1901.5;
+        let b = image_of(&other, &ImageInfo { serial: "OPM-3-000418", calibrated_at: 1_764_700_000, sequence: seq });
+        let mut s = a[..cut].to_vec();
+        s.extend_from_slice(&b[cut..]);
+        match Image::parse(&s) {
+            Ok(_) => prop_assert!(s == a || s == b),
+            Err(_) => prop_assert!(s != a && s != b),
+        }
+    }
+
+    #[test]
+    fn arbitrary_bytes_are_refused_without_panic(bytes in proptest::collection::vec(any::<u8>(), 0..400)) {
+        prop_assert!(Image::parse(&bytes).is_err());
+        prop_assert!(Image::parse_prefix(&bytes).is_err());
+    }
+
+    /// Arbitrary bodies behind a plausible header and a correct CRC: the structure checks must hold alone.
+    #[test]
+    fn arbitrary_bodies_with_correct_crc_never_panic(
+        count in 0u16..4, body in proptest::collection::vec(any::<u8>(), 0..300)
+    ) {
+        let mut v = assemble(count, &[]);
+        v.truncate(40);
+        v.extend_from_slice(&body);
+        while !v.len().is_multiple_of(4) { v.push(0); }
+        v.extend_from_slice(&[0; 4]);
+        let total = v.len() as u32;
+        v[8..12].copy_from_slice(&total.to_le_bytes());
+        fix_crc(&mut v);
+        if let Ok(p) = Image::parse(&v) {
+            prop_assert!(p.calibration().validate().is_ok());
+        }
+    }
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Corruption: every single-bit flip, every truncation
+
+/// Which check a single flipped bit at `byte` must trip, by the documented order of the checks.
+fn expected_for_flip(byte: usize, got: &ImageError) -> bool {
+    match byte {
+        0..=3 => matches!(got, ImageError::BadMagic { .. }),
+        4..=5 => matches!(got, ImageError::UnsupportedVersion { .. }),
+        8..=11 => matches!(
+            got,
+            ImageError::BadLength { .. } | ImageError::Truncated { .. } | ImageError::LengthMismatch { .. }
+        ),
+        _ => matches!(got, ImageError::CrcMismatch { .. }),
+    }
+}
+
+fn check_every_bit_flip(img: &[u8]) -> usize {
+    let mut work = img.to_vec();
+    // A slot: the image followed by erased flash, parsed with parse_prefix.
+    let mut slot = img.to_vec();
+    slot.extend_from_slice(&[0xff; 64]);
+    let mut n = 0;
+    for byte in 0..img.len() {
+        for bit in 0..8 {
+            work[byte] ^= 1 << bit;
+            match Image::parse(&work) {
+                Ok(_) => panic!("flip of bit {bit} of byte {byte} accepted"),
+                Err(e) => assert!(expected_for_flip(byte, &e), "byte {byte} bit {bit}: {e:?}"),
+            }
+            work[byte] ^= 1 << bit;
+            slot[byte] ^= 1 << bit;
+            assert!(Image::parse_prefix(&slot).is_err(), "slot: flip of bit {bit} of byte {byte} accepted");
+            slot[byte] ^= 1 << bit;
+            n += 1;
+        }
+    }
+    assert!(Image::parse(&work).is_ok(), "the image was restored");
+    n
+}
+
+#[test]
+fn every_single_bit_flip_is_rejected() {
+    assert_eq!(check_every_bit_flip(&typical()), 268 * 8);
+}
+
+#[test]
+fn every_single_bit_flip_of_a_larger_image_is_rejected() {
+    // A few-KiB image, the size the fixed-point tables will bring.
+    let table: Vec<u8> = (0..2048u32).map(|i| (i * 31 + 7) as u8).collect();
+    let extra = [Section { kind: 0x8010, payload: &table }];
+    let mut buf = std::vec![0u8; encoded_len(&extra).unwrap()];
+    write_with_sections(&mut buf, &INFO, &hard_unit(), &extra).unwrap();
+    assert_eq!(check_every_bit_flip(&buf), buf.len() * 8);
+}
+
+#[test]
+fn every_truncation_is_rejected() {
+    let img = typical();
+    for n in 0..img.len() {
+        let want = if n < header::LEN { header::LEN } else { img.len() };
+        let e = Image::parse(&img[..n]).unwrap_err();
+        assert_eq!(e, ImageError::Truncated { needed: want as u32, available: n as u32 }, "length {n}");
+        assert_eq!(Image::parse_prefix(&img[..n]).unwrap_err(), e);
+    }
+}
+
+#[test]
+fn erased_blank_and_foreign_memory_are_not_images() {
+    assert_eq!(Image::parse(&[0xff; 268]).unwrap_err(), ImageError::BadMagic { found: [0xff; 4] });
+    assert_eq!(Image::parse(&[0; 268]).unwrap_err(), ImageError::BadMagic { found: [0; 4] });
+    assert!(matches!(Image::parse(b"{\"format\": \"json\"}"), Err(ImageError::BadMagic { .. })));
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Each check has its own error
+
+#[test]
+fn header_errors() {
+    let img = typical();
+    let mut v = img.clone();
+    v[4] = 2;
+    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::UnsupportedVersion { found: 2 });
+    for bad in [0u32, 43, 262, 65540, u32::MAX] {
+        let mut v = img.clone();
+        v[8..12].copy_from_slice(&bad.to_le_bytes());
+        assert_eq!(Image::parse(&v).unwrap_err(), ImageError::BadLength { declared: bad });
+    }
+    let mut v = img.clone();
+    v.push(0);
+    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::LengthMismatch { declared: 268, actual: 269 });
+    assert!(Image::parse_prefix(&v).is_ok());
+    let mut v = img.clone();
+    v[100] ^= 0x10;
+    let computed = crc32fast::hash(&v[..264]);
+    let stored = u32::from_le_bytes(v[264..].try_into().unwrap());
+    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::CrcMismatch { stored, computed });
+}
+
+#[test]
+fn structure_errors() {
+    let img = typical();
+    let (r, m) = payloads(&img);
+    let ok = assemble(2, &[(ranges::KIND, &r), (model_f32::KIND, &m)]);
+    assert!(Image::parse(&ok).is_ok());
+    // Sections in the other order are fine too.
+    assert!(Image::parse(&assemble(2, &[(model_f32::KIND, &m), (ranges::KIND, &r)])).is_ok());
+
+    let cases: &[(Vec<u8>, ImageError)] = &[
+        (
+            assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m)]),
+            ImageError::SectionCount { declared: 3, found: 2 },
+        ),
+        (assemble(1, &[(ranges::KIND, &r)]), ImageError::MissingSection { kind: model_f32::KIND }),
+        (assemble(1, &[(model_f32::KIND, &m)]), ImageError::MissingSection { kind: ranges::KIND }),
+        (
+            assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (ranges::KIND, &r)]),
+            ImageError::DuplicateSection { kind: ranges::KIND },
+        ),
+        (
+            assemble(3, &[(ranges::KIND, &r), (0x0042, &[0; 8]), (model_f32::KIND, &m)]),
+            ImageError::UnknownSection { kind: 0x0042 },
+        ),
+        (
+            assemble(2, &[(ranges::KIND, &r[..28]), (model_f32::KIND, &m)]),
+            ImageError::SectionLength { kind: ranges::KIND, found: 28, expected: 32 },
+        ),
+    ];
+    for (bytes, want) in cases {
+        assert_eq!(&Image::parse(bytes).unwrap_err(), want);
+    }
+    // Misaligned section inside an aligned total: 3 payload bytes + 1 trailing byte.
+    let mut v = assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (0x8001, &[1, 2, 3, 4])]);
+    let at = 40 + 36 + 188 + 2;
+    v[at..at + 2].copy_from_slice(&3u16.to_le_bytes());
+    fix_crc(&mut v);
+    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::SectionAlignment { kind: 0x8001, len: 3 });
+    // A section header that runs past the body.
+    let mut v = img.clone();
+    v[78..80].copy_from_slice(&188u16.to_le_bytes());
+    fix_crc(&mut v);
+    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::SectionOverrun { offset: 76 });
+    // (A partial section header cannot occur without a misaligned section before it: the body is a
+    // multiple of 4 bytes, and the alignment check comes first.)
+}
+
+#[test]
+fn value_errors() {
+    let img = typical();
+    let m0 = 80; // model_f32 payload offset
+    let r0 = 44; // ranges payload offset
+    let edit = |at: usize, bytes: &[u8]| {
+        let mut v = img.clone();
+        v[at..at + bytes.len()].copy_from_slice(bytes);
+        fix_crc(&mut v);
+        Image::parse(&v).unwrap_err()
+    };
+    assert_eq!(edit(24 + 3, &[0x07]), ImageError::BadSerial); // a control character
+    assert_eq!(edit(24 + 2, &[0x80]), ImageError::BadSerial); // not ASCII
+    assert_eq!(edit(24 + 14, b"X"), ImageError::BadSerial); // text after the NUL padding
+    assert_eq!(edit(r0 + 2, &[1]), ImageError::ReservedNotZero { offset: (r0 + 2) as u32 });
+    assert_eq!(edit(m0 + 27, &[9]), ImageError::ReservedNotZero { offset: (m0 + 27) as u32 });
+    assert_eq!(edit(m0 + 23, &[2]), ImageError::BadFlag { field: "bias_enabled", found: 2 });
+    assert_eq!(
+        edit(m0 + 21, &[7]),
+        ImageError::Value(ValueError::TableSize { field: "slope_len", found: 7, capacity: 6 })
+    );
+    assert_eq!(
+        edit(m0 + 25, &[5]),
+        ImageError::Value(ValueError::TableSize { field: "residual_nt", found: 5, capacity: 4 })
+    );
+    // NaN in an unused coefficient (slope has 3 terms; index 5 is unused) is still refused.
+    assert_eq!(
+        edit(m0 + 52 + 20, &f32::NAN.to_le_bytes()),
+        ImageError::Value(ValueError::NonFinite { field: "slope_coeffs", index: 5 })
+    );
+    assert_eq!(
+        edit(r0 + 12, &f32::INFINITY.to_le_bytes()),
+        ImageError::Value(ValueError::NonFinite { field: "t_max_c", index: 0 })
+    );
+    for bits in [0u8, 25] {
+        assert_eq!(
+            edit(r0, &[bits]),
+            ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(CalibrationDefect::AdcBits)))
+        );
+    }
+    // A reversed temperature range.
+    assert_eq!(
+        edit(r0 + 8, &100.0f32.to_le_bytes()),
+        ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(
+            CalibrationDefect::TemperatureRange
+        )))
+    );
+    // A negative slope.
+    assert_eq!(
+        edit(m0 + 52, &(-1900.0f32).to_le_bytes()),
+        ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)))
+    );
+}
+
+#[test]
+fn errors_display_specifically() {
+    let e = ImageError::Truncated { needed: 268, available: 100 };
+    assert_eq!(std::format!("{e}"), "image truncated: 100 bytes, 268 needed");
+    let e = ImageError::BadMagic { found: *b"\x7fELF" };
+    assert_eq!(std::format!("{e}"), "not a calibration image: starts with 7f 45 4c 46");
+    let e = ImageError::Value(ValueError::NonFinite { field: "pole", index: 0 });
+    assert_eq!(std::format!("{e}"), "pole[0] is NaN or infinite");
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Writing
+
+#[test]
+fn write_errors_leave_the_buffer_untouched() {
+    let cal = hard_unit();
+    let mut buf = [0xa5u8; 300];
+    let e = write(&mut buf[..100], &INFO, &cal).unwrap_err();
+    assert_eq!(e, WriteError::BufferTooSmall { needed: 268, available: 100 });
+    for s in ["0123456789ABCDEFG", "tab\there", "Prüfling-7"] {
+        let info = ImageInfo { serial: s, ..INFO };
+        assert_eq!(write(&mut buf, &info, &cal).unwrap_err(), WriteError::BadSerial, "{s:?}");
+    }
+    let mut nan = cal;
+    nan.model.bulk.coeffs[4] = f32::NAN;
+    assert_eq!(
+        write(&mut buf, &INFO, &nan).unwrap_err(),
+        WriteError::Value(ValueError::NonFinite { field: "bulk_coeffs", index: 4 })
+    );
+    let mut long = cal;
+    long.model.offset.len = 9;
+    assert!(matches!(write(&mut buf, &INFO, &long), Err(WriteError::Value(ValueError::TableSize { .. }))));
+    let mut bad = cal;
+    bad.x_range.max = bad.x_range.min;
+    assert!(matches!(write(&mut buf, &INFO, &bad), Err(WriteError::Value(ValueError::Calibration(_)))));
+    for (kind, payload) in [(0x0042u16, &[0u8; 4][..]), (ranges::KIND, &[0; 32][..]), (0x8042, &[0; 3][..])] {
+        let extra = [Section { kind, payload }];
+        assert_eq!(
+            write_with_sections(&mut buf, &INFO, &cal, &extra).unwrap_err(),
+            WriteError::BadSection { kind }
+        );
+    }
+    let big = std::vec![0u8; 65532];
+    let extra = [Section { kind: 0x8001, payload: &big }];
+    assert_eq!(
+        write_with_sections(&mut buf, &INFO, &cal, &extra).unwrap_err(),
+        WriteError::TooLong { len: (268 + 4 + 65532) as u32 }
+    );
+    assert!(buf.iter().all(|&b| b == 0xa5), "a failed write changed the buffer");
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Two slots
+
+fn unit_image(seq: u32, at: u64, slope: f32) -> Vec<u8> {
+    let mut c = hard_unit();
+    c.model.slope.coeffs[0] = slope;
+    let mut v = image_of(&c, &ImageInfo { serial: "OPM-3-000417", calibrated_at: at, sequence: seq });
+    v.extend_from_slice(&[0xff; 60]); // the rest of a 324-byte slot, erased
+    v
+}
+
+#[test]
+fn the_newest_valid_slot_wins() {
+    let old = unit_image(4, 1_800_000_000, 1900.0);
+    let new = unit_image(5, 1_700_000_000, 1950.0); // an older clock: the counter decides
+    let s = slots::select(&old, &new).unwrap();
+    assert_eq!(s.slot, SlotId::B);
+    assert_eq!(s.image.calibration().model.slope.coeffs[0], 1950.0);
+    assert_eq!(s.other, Rejected::Older { sequence: 4, calibrated_at: 1_800_000_000 });
+    let s = slots::select(&new, &old).unwrap();
+    assert_eq!(s.slot, SlotId::A);
+
+    // Equal counters: the later time, then slot A.
+    let a = unit_image(5, 1_700_000_000, 1900.0);
+    let b = unit_image(5, 1_700_000_100, 1950.0);
+    assert_eq!(slots::select(&a, &b).unwrap().slot, SlotId::B);
+    let a2 = a.clone();
+    let s = slots::select(&a, &a2).unwrap();
+    assert_eq!((s.slot, s.other), (SlotId::A, Rejected::Tie { identical: true }));
+    let c = unit_image(5, 1_700_000_000, 1950.0);
+    assert_eq!(slots::select(&a, &c).unwrap().other, Rejected::Tie { identical: false });
+}
+
+#[test]
+fn an_invalid_slot_is_reported_with_its_error() {
+    let good = unit_image(2, 1_700_000_000, 1900.0);
+    let mut bad = unit_image(3, 1_700_000_000, 1950.0);
+    bad[150] ^= 1;
+    let s = slots::select(&good, &bad).unwrap();
+    assert_eq!(s.slot, SlotId::A);
+    assert!(matches!(s.other, Rejected::Invalid(ImageError::CrcMismatch { .. })));
+    let s = slots::select(&[0xff; 324], &good).unwrap();
+    assert_eq!((s.slot, s.other), (SlotId::B, Rejected::Invalid(ImageError::BadMagic { found: [0xff; 4] })));
+}
+
+#[test]
+fn neither_slot_valid_means_not_calibrated() {
+    let mut bad = unit_image(3, 1_700_000_000, 1950.0);
+    bad[150] ^= 1;
+    let sel = slots::select(&[0xff; 324], &bad);
+    let e = sel.unwrap_err();
+    assert_eq!(e.a, ImageError::BadMagic { found: [0xff; 4] });
+    assert!(matches!(e.b, ImageError::CrcMismatch { .. }));
+    let active = ActiveCalibration::from_selection(&sel);
+    assert!(!active.is_calibrated());
+    assert_eq!(active.correct(32768, 25.0), Err(Error::NotCalibrated));
+    assert_eq!(active.calibration().err(), Some(Error::NotCalibrated));
+    assert_eq!(Error::from(e), Error::NotCalibrated);
+    // With a valid slot, the active calibration corrects as the image's.
+    let good = unit_image(2, 1_700_000_000, 1900.0);
+    let active = ActiveCalibration::from_selection(&slots::select(&bad, &good));
+    assert_eq!(active.correct(33000, 30.0), hard_unit().correct(33000, 30.0));
+}
+
+#[test]
+fn a_write_cut_short_at_any_byte_keeps_the_old_image() {
+    // Slot A holds sequence 6; the new image goes to slot B over an older image, and power fails after k
+    // bytes. At every k the unit boots with a valid image, the new one only once it is complete.
+    let a = unit_image(6, 1_700_000_000, 1900.0);
+    let b_old = unit_image(5, 1_690_000_000, 1880.0);
+    let plan = slots::next_write(&a, &b_old).unwrap();
+    assert_eq!(plan, slots::WritePlan { slot: SlotId::B, sequence: 7 });
+    let new = unit_image(plan.sequence, 1_710_000_000, 1920.0);
+    let mut b = b_old.clone();
+    for k in 0..=new.len() {
+        b[..k].copy_from_slice(&new[..k]);
+        let s = slots::select(&a, &b).unwrap();
+        let slope = s.image.calibration().model.slope.coeffs[0];
+        if k < 268 {
+            assert_eq!((s.slot, slope), (SlotId::A, 1900.0), "k = {k}");
+        } else {
+            assert_eq!((s.slot, slope), (SlotId::B, 1920.0), "k = {k}");
+        }
+        b.copy_from_slice(&b_old);
+    }
+}
+
+#[test]
+fn next_write_plans() {
+    let erased = [0xffu8; 324];
+    assert_eq!(slots::next_write(&erased, &erased), Ok(slots::WritePlan { slot: SlotId::A, sequence: 1 }));
+    let a = unit_image(1, 1_700_000_000, 1900.0);
+    assert_eq!(slots::next_write(&a, &erased), Ok(slots::WritePlan { slot: SlotId::B, sequence: 2 }));
+    let b = unit_image(2, 1_700_000_000, 1900.0);
+    assert_eq!(slots::next_write(&a, &b), Ok(slots::WritePlan { slot: SlotId::A, sequence: 3 }));
+    let last = unit_image(u32::MAX, 1_700_000_000, 1900.0);
+    assert_eq!(slots::next_write(&last, &erased), Err(slots::SequenceExhausted));
+}

@@ -1,0 +1,211 @@
+//! Writing an image into a caller's buffer, without allocation. Everything is checked before the first
+//! byte is written, with the same value checks the parser applies, so the writer never produces an image
+//! the parser refuses and never leaves a half-written buffer behind an error.
+
+use super::layout::{self, header, model_f32, ranges, section, trailer, Field};
+use super::parse::{check_values, len_u32};
+use super::{crc32, Section, WriteError};
+use crate::calibration::Calibration;
+
+/// What the header says about the unit, besides its calibration.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ImageInfo<'s> {
+    /// The unit serial: at most 16 printable ASCII characters (0x20–0x7E); may be empty.
+    pub serial: &'s str,
+    /// When the unit was calibrated, Unix seconds (UTC).
+    pub calibrated_at: u64,
+    /// The write counter: of two valid slots, the one with the higher counter is used
+    /// (see [`slots`](super::slots)).
+    pub sequence: u32,
+}
+
+/// The length of an image holding the required sections and `extra`, or why it cannot be written.
+pub fn encoded_len(extra: &[Section<'_>]) -> Result<usize, WriteError> {
+    let mut len = layout::F32_IMAGE_LEN;
+    for s in extra {
+        let bad = WriteError::BadSection { kind: s.kind };
+        if s.kind & section::OPTIONAL_BIT == 0
+            || !s.payload.len().is_multiple_of(section::ALIGN)
+            || s.payload.len() > usize::from(u16::MAX)
+        {
+            return Err(bad);
+        }
+        len = len.saturating_add(section::HEADER_LEN + s.payload.len());
+    }
+    if len > layout::MAX_LEN {
+        return Err(WriteError::TooLong { len: len_u32(len) });
+    }
+    Ok(len)
+}
+
+/// Writes an image of `calibration` (the two required sections) at the start of `buf` and returns its
+/// length, [`layout::F32_IMAGE_LEN`] bytes.
+pub fn write(buf: &mut [u8], info: &ImageInfo<'_>, calibration: &Calibration) -> Result<usize, WriteError> {
+    write_with_sections(buf, info, calibration, &[])
+}
+
+/// Writes an image with the required sections followed by `extra` sections, which must be optional
+/// types (bit 15 set) with payloads of a multiple of 4 bytes. Returns the image's length.
+pub fn write_with_sections(
+    buf: &mut [u8],
+    info: &ImageInfo<'_>,
+    calibration: &Calibration,
+    extra: &[Section<'_>],
+) -> Result<usize, WriteError> {
+    let serial = encode_serial(info.serial)?;
+    check_values(calibration)?;
+    let len = encoded_len(extra)?;
+    let count = u16::try_from(2 + extra.len()).map_err(|_| WriteError::TooLong { len: len_u32(len) })?;
+    let available = len_u32(buf.len());
+    let too_small = WriteError::BufferTooSmall { needed: len_u32(len), available };
+    let out = buf.get_mut(..len).ok_or(too_small)?;
+    let head = Head { serial, count, len, info };
+    let written = fill(out, &head, calibration, extra);
+    if written.is_err() {
+        // Only reachable if the writer and the layout disagreed; leave no partial image behind.
+        out.fill(0);
+    }
+    written.map(|()| len)
+}
+
+struct Head<'i> {
+    serial: [u8; 16],
+    count: u16,
+    len: usize,
+    info: &'i ImageInfo<'i>,
+}
+
+/// Writes the whole image into `out`, whose length was computed from the same layout.
+fn fill(
+    out: &mut [u8],
+    h: &Head<'_>,
+    calibration: &Calibration,
+    extra: &[Section<'_>],
+) -> Result<(), WriteError> {
+    let mut w = Writer { out, base: 0 };
+    w.put(&header::MAGIC, &header::MAGIC_VALUE)?;
+    w.put(&header::VERSION, &header::VERSION_VALUE.to_le_bytes())?;
+    w.put(&header::SECTION_COUNT, &h.count.to_le_bytes())?;
+    w.put(&header::TOTAL_LEN, &len_u32(h.len).to_le_bytes())?;
+    w.put(&header::SEQUENCE, &h.info.sequence.to_le_bytes())?;
+    w.put(&header::CALIBRATED_AT, &h.info.calibrated_at.to_le_bytes())?;
+    w.put(&header::SERIAL, &h.serial)?;
+    let mut at = header::LEN;
+    at = w.section(at, ranges::KIND, ranges::LEN, |p| put_ranges(p, calibration))?;
+    at = w.section(at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
+    for s in extra {
+        at = w.section(at, s.kind, s.payload.len(), |p| p.put_at(0, s.payload))?;
+    }
+    let crc = crc32(w.out.get(..at).ok_or(w.too_small(at))?);
+    w.base = at;
+    w.put(&trailer::CRC, &crc.to_le_bytes())
+}
+
+/// The serial as its 16 stored bytes, NUL-padded.
+fn encode_serial(serial: &str) -> Result<[u8; 16], WriteError> {
+    let mut out = [0u8; 16];
+    if serial.len() > out.len() || !serial.bytes().all(|b| (0x20..=0x7e).contains(&b)) {
+        return Err(WriteError::BadSerial);
+    }
+    for (d, s) in out.iter_mut().zip(serial.bytes()) {
+        *d = s;
+    }
+    Ok(out)
+}
+
+/// Writes fields at `base + field.offset` within `out`.
+struct Writer<'b> {
+    out: &'b mut [u8],
+    base: usize,
+}
+
+impl Writer<'_> {
+    fn too_small(&self, needed: usize) -> WriteError {
+        WriteError::BufferTooSmall { needed: len_u32(needed), available: len_u32(self.out.len()) }
+    }
+
+    /// Writes `bytes` at `offset` from the current base.
+    fn put_at(&mut self, offset: usize, bytes: &[u8]) -> Result<(), WriteError> {
+        let at = self.base + offset;
+        let end = at + bytes.len();
+        let err = self.too_small(end);
+        let dst = self.out.get_mut(at..end).ok_or(err)?;
+        for (d, s) in dst.iter_mut().zip(bytes) {
+            *d = *s;
+        }
+        Ok(())
+    }
+
+    /// Writes a field's bytes (the value's size is the field's size: the round-trip tests hold the two
+    /// together).
+    fn put(&mut self, f: &Field, bytes: &[u8]) -> Result<(), WriteError> {
+        self.put_at(f.offset, bytes)
+    }
+
+    fn f32(&mut self, f: &Field, v: f32) -> Result<(), WriteError> {
+        self.put(f, &v.to_le_bytes())
+    }
+
+    fn f32s(&mut self, f: &Field, vs: &[f32]) -> Result<(), WriteError> {
+        for (i, v) in vs.iter().enumerate() {
+            self.put_at(f.offset + 4 * i, &v.to_le_bytes())?;
+        }
+        Ok(())
+    }
+
+    /// Writes a section header at `at`, then its payload through `body`; returns the offset after it.
+    fn section(
+        &mut self,
+        at: usize,
+        kind: u16,
+        len: usize,
+        body: impl FnOnce(&mut Writer<'_>) -> Result<(), WriteError>,
+    ) -> Result<usize, WriteError> {
+        let len16 = u16::try_from(len).map_err(|_| WriteError::BadSection { kind })?;
+        self.base = at;
+        self.put(&section::KIND, &kind.to_le_bytes())?;
+        self.put(&section::LEN, &len16.to_le_bytes())?;
+        self.base = at + section::HEADER_LEN;
+        body(self)?;
+        Ok(self.base + len)
+    }
+}
+
+fn put_ranges(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
+    w.put(&ranges::ADC_BITS, &[c.adc.bits])?;
+    w.put(&ranges::RESERVED, &[0; 3])?;
+    w.put(&ranges::RAIL_MARGIN, &c.adc.rail_margin.to_le_bytes())?;
+    w.f32(&ranges::T_MIN, c.temperature.min_c)?;
+    w.f32(&ranges::T_MAX, c.temperature.max_c)?;
+    w.f32(&ranges::T_EXTRAPOLATION, c.temperature.extrapolation_k)?;
+    w.f32(&ranges::X_MIN, c.x_range.min)?;
+    w.f32(&ranges::X_MAX, c.x_range.max)?;
+    w.f32(&ranges::X_MIN_SENSITIVITY, c.x_range.min_sensitivity)
+}
+
+fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
+    use model_f32 as mf;
+    let m = &c.model;
+    w.f32(&mf::LEVEL_SHIFT, c.adc.level_shift_code)?;
+    w.f32(&mf::T_CENTER, m.t_center_c)?;
+    w.f32(&mf::T_HALF_SPAN, m.t_half_span_k)?;
+    w.f32(&mf::T_REF, m.t_ref_k)?;
+    w.f32(&mf::POLE, m.pole)?;
+    w.put(&mf::OFFSET_LEN, &[m.offset.len])?;
+    w.put(&mf::SLOPE_LEN, &[m.slope.len])?;
+    w.put(&mf::BULK_LEN, &[m.bulk.len])?;
+    w.put(&mf::BIAS_ENABLED, &[u8::from(m.bias.enabled)])?;
+    w.put(&mf::RESIDUAL_NX, &[m.residual.nx])?;
+    w.put(&mf::RESIDUAL_NT, &[m.residual.nt])?;
+    w.put(&mf::RESERVED, &[0; 2])?;
+    w.f32s(&mf::OFFSET, &m.offset.coeffs)?;
+    w.f32s(&mf::SLOPE, &m.slope.coeffs)?;
+    w.f32s(&mf::BULK, &m.bulk.coeffs)?;
+    w.f32(&mf::LN_BETA0, m.bias.ln_beta0)?;
+    w.f32(&mf::LN_BETA1, m.bias.ln_beta1)?;
+    w.f32(&mf::BIAS_REFERENCE, m.bias.reference)?;
+    w.f32(&mf::RESIDUAL_X_CENTER, m.residual.x_center)?;
+    w.f32(&mf::RESIDUAL_X_HALF_SPAN, m.residual.x_half_span)?;
+    w.f32s(&mf::RESIDUAL, &m.residual.coeffs)
+}

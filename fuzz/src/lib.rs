@@ -1,0 +1,103 @@
+//! The properties the fuzz targets check, shared so that each target is one line.
+//!
+//! A target fails (libFuzzer reports a crash and saves the input under `artifacts/`) on a panic anywhere in
+//! the code under test, or when one of the properties below does not hold.
+
+use logtrim::image::{self, layout, slots, Image, ImageInfo, Section};
+
+/// Image bytes from anyone: parsing never panics, and whatever is accepted is fully valid and re-encodes to
+/// the same bytes (so no accepted byte escaped the checks).
+pub fn check_image(data: &[u8]) {
+    let exact = Image::parse(data);
+    let prefix = Image::parse_prefix(data);
+    match (&exact, &prefix) {
+        (Ok(a), Ok((b, rest))) => assert!(a == b && rest.is_empty()),
+        (Ok(_), Err(e)) => panic!("exact parse accepted what prefix parse refused: {e:?}"),
+        (Err(e), Ok((_, rest))) => {
+            assert!(!rest.is_empty(), "prefix parse accepted exactly what parse refused: {e:?}")
+        }
+        (Err(_), Err(_)) => {}
+    }
+    if let Ok((img, _)) = prefix {
+        accepted(&img);
+    }
+    // The two-slot choice on the bytes cut in two never panics, and picks a valid image if any.
+    let (a, b) = data.split_at(data.len() / 2);
+    let sel = slots::select(a, b);
+    let any_valid = Image::parse_prefix(a).is_ok() || Image::parse_prefix(b).is_ok();
+    assert_eq!(sel.is_ok(), any_valid);
+    let _ = slots::next_write(a, b);
+    let active = slots::ActiveCalibration::from_selection(&sel);
+    if !any_valid {
+        assert_eq!(active.correct(1000, 25.0), Err(logtrim::Error::NotCalibrated));
+    }
+}
+
+fn accepted(img: &Image<'_>) {
+    let cal = img.calibration();
+    assert_eq!(cal.validate(), Ok(()));
+    // Re-encode with the optional sections it carries; bytes must match when the required sections came
+    // first in the writer's order, and the calibration must match in any case.
+    let extra: Vec<Section<'_>> = img
+        .sections()
+        .filter(|s| s.kind != layout::ranges::KIND && s.kind != layout::model_f32::KIND)
+        .collect();
+    let info =
+        ImageInfo { serial: img.serial(), calibrated_at: img.calibrated_at(), sequence: img.sequence() };
+    let mut buf = vec![0u8; img.len()];
+    let n = image::write_with_sections(&mut buf, &info, &cal, &extra).expect("an accepted image re-encodes");
+    assert_eq!(n, img.len());
+    let kinds: Vec<u16> = img.sections().map(|s| s.kind).take(2).collect();
+    if kinds == [layout::ranges::KIND, layout::model_f32::KIND] {
+        assert_eq!(&buf[..], img.as_bytes(), "accepted image is not canonical");
+    }
+    let again = Image::parse(&buf).expect("a re-encoded image parses");
+    assert_eq!(again.calibration(), cal);
+    // Correcting with any accepted calibration never panics, at and beyond every edge.
+    let max = (1u32 << cal.adc.bits.min(24)) - 1;
+    let t = cal.temperature;
+    for code in [0, 1, max / 3, max / 2, max - 1, max, max + 1, u32::MAX] {
+        for temp in [t.min_c, t.max_c, 0.5 * (t.min_c + t.max_c), t.min_c - t.extrapolation_k - 1.0, f32::NAN]
+        {
+            let _ = cal.correct(code, temp);
+            let _ = cal.correct_f64(f64::from(code), f64::from(temp));
+        }
+    }
+}
+
+/// Arbitrary bytes made into a plausible image: right magic and version, the total length of the bytes
+/// (padded to a multiple of 4) and a correct CRC, so that the fuzzer explores the structural and value
+/// checks behind the CRC, as a faulty writer elsewhere would exercise them.
+pub fn check_image_with_valid_crc(data: &[u8]) {
+    let mut v = data.to_vec();
+    if v.len() < layout::header::LEN {
+        v.resize(layout::header::LEN, 0);
+    }
+    while !v.len().is_multiple_of(4) {
+        v.push(0);
+    }
+    v.extend_from_slice(&[0; 4]);
+    v[0..4].copy_from_slice(&layout::header::MAGIC_VALUE);
+    v[4..6].copy_from_slice(&layout::header::VERSION_VALUE.to_le_bytes());
+    let total = v.len() as u32;
+    v[8..12].copy_from_slice(&total.to_le_bytes());
+    let n = v.len() - 4;
+    let crc = image::crc32(&v[..n]);
+    v[n..].copy_from_slice(&crc.to_le_bytes());
+    check_image(&v);
+}
+
+/// Intel HEX from anyone: decoding never panics, and what decodes re-encodes and decodes to the same data.
+pub fn check_intel_hex(data: &[u8]) {
+    use logtrim_host::image_file as f;
+    let Ok(decoded) = f::decode_file(data) else { return };
+    if decoded.format == f::ImageFormat::Hex {
+        let base = decoded.base.expect("a HEX file has a base address");
+        for record_len in [16, 32] {
+            let text = f::to_intel_hex(&decoded.bytes, base, record_len).expect("decoded data re-encodes");
+            let again = f::from_intel_hex(&text).expect("re-encoded HEX decodes");
+            assert_eq!((again.base, &again.bytes), (base, &decoded.bytes));
+        }
+    }
+    check_image(&decoded.bytes);
+}

@@ -1,0 +1,43 @@
+//! `logtrim inspect`: decode and check an image file (binary or Intel HEX) exactly as the firmware would,
+//! and print it. A bad image exits with 1 and its specific error.
+
+use std::path::PathBuf;
+
+use logtrim_host::image_file::{self, ImageFileError, ImageFormat};
+
+use crate::Failure;
+
+/// Options of `logtrim inspect`.
+#[derive(Debug, clap::Args)]
+pub struct Args {
+    /// The image file: raw binary, or Intel HEX (recognised by its leading ':').
+    pub image: PathBuf,
+    /// Print JSON instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+pub fn run(args: Args) -> Result<(), Failure> {
+    let name = args.image.display().to_string();
+    let file = image_file::read_file(&args.image).map_err(|e| match e {
+        ImageFileError::Io { .. } => Failure::input(e),
+        // A HEX file whose records are broken is a bad image file.
+        other => Failure::check(format!("{name}: bad Intel HEX: {other}")),
+    })?;
+    let img =
+        logtrim::Image::parse(&file.bytes).map_err(|e| Failure::check(format!("{name}: bad image: {e}")))?;
+    let place = match (file.format, file.base) {
+        (ImageFormat::Hex, Some(base)) => format!("Intel HEX, {} bytes at {base:#010x}", file.bytes.len()),
+        _ => format!("binary, {} bytes", file.bytes.len()),
+    };
+    if args.json {
+        let mut v = image_file::describe_json(&img);
+        v["file"] = serde_json::json!(name);
+        v["base_address"] = serde_json::json!(file.base);
+        println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+    } else {
+        println!("{name}: {place}");
+        print!("{}", image_file::describe(&img));
+    }
+    Ok(())
+}

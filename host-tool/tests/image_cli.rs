@@ -1,0 +1,197 @@
+//! `logtrim image` and `logtrim inspect` end to end: files written, read back, checked, and the exit codes
+//! (0 ok, 1 a bad image, 2 bad input) with their specific messages.
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+use logtrim::calibration::{BiasTerm, Series, TemperatureRange, XRange};
+use logtrim::{Calibration, Image};
+use logtrim_host::calfile::CalFile;
+
+fn logtrim(args: &[&str], dir: &Path) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).current_dir(dir).output().unwrap()
+}
+
+fn code(o: &Output) -> i32 {
+    o.status.code().unwrap()
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
+/// A gas detector's reference-channel unit, invented for the test.
+fn coeffs(dir: &Path, unit: Option<&str>) -> Calibration {
+    let mut c = Calibration::nominal(16, 32768.0, 2100.0, 25.0);
+    c.adc.rail_margin = 12;
+    c.temperature = TemperatureRange { min_c: -10.0, max_c: 60.0, extrapolation_k: 3.0 };
+    c.x_range = XRange { min: -7.0, max: 3.0, min_sensitivity: 0.1 };
+    c.model.t_center_c = 25.0;
+    c.model.t_half_span_k = 40.0;
+    c.model.offset = Series::from_slice(&[80.0, 12.5]).unwrap();
+    c.model.slope = Series::from_slice(&[2000.0, 25.0]).unwrap();
+    c.model.bias = BiasTerm { enabled: true, ln_beta0: -11.0, ln_beta1: 2.8, reference: 0.0 };
+    let mut f = CalFile::new(c, unit.map(str::to_string));
+    f.created_unix_s = 1_767_225_600;
+    f.save(&dir.join("COEFFS.json")).unwrap();
+    c
+}
+
+#[test]
+fn binary_image_round_trip() {
+    let dir = tempfile::tempdir().unwrap();
+    let cal = coeffs(dir.path(), Some("GD-REF-00731"));
+    let o = logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin", "--sequence", "12"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+    assert_eq!(bytes.len(), 268);
+    let img = Image::parse(&bytes).unwrap();
+    assert_eq!(img.calibration(), cal);
+    assert_eq!((img.serial(), img.sequence(), img.calibrated_at()), ("GD-REF-00731", 12, 1_767_225_600));
+
+    let o = logtrim(&["inspect", "UNIT.bin"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(out.contains("UNIT.bin: binary, 268 bytes"), "{out}");
+    assert!(out.contains("serial       GD-REF-00731"), "{out}");
+    assert!(out.contains("sequence     12"), "{out}");
+    assert!(out.contains("2026-01-01 00:00:00 UTC"), "{out}");
+    assert!(out.contains("slope      2 terms: [2000, 25]"), "{out}");
+
+    let o = logtrim(&["inspect", "--json", "UNIT.bin"], dir.path());
+    assert_eq!(code(&o), 0);
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["serial"], "GD-REF-00731");
+    assert_eq!(v["calibration"]["adc"]["rail_margin"], 12);
+}
+
+#[test]
+fn intel_hex_image_at_a_base_address() {
+    let dir = tempfile::tempdir().unwrap();
+    let cal = coeffs(dir.path(), Some("GD-REF-00731"));
+    let args =
+        ["image", "COEFFS.json", "-o", "UNIT.hex", "--base-address", "0x0801_FF80", "--record-len", "32"];
+    let o = logtrim(&args, dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    let text = std::fs::read_to_string(dir.path().join("UNIT.hex")).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines[0], ":020000040801F1"); // upper address 0x0801
+    assert!(lines.contains(&":020000040802F0"), "crossing 0x0802_0000 needs a new upper address:\n{text}");
+    assert_eq!(*lines.last().unwrap(), ":00000001FF");
+    let back = logtrim_host::image_file::from_intel_hex(&text).unwrap();
+    assert_eq!(back.base, 0x0801_FF80);
+    assert_eq!(Image::parse(&back.bytes).unwrap().calibration(), cal);
+
+    let o = logtrim(&["inspect", "UNIT.hex"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    assert!(stdout(&o).contains("Intel HEX, 268 bytes at 0x0801ff80"), "{}", stdout(&o));
+
+    // --format overrides the extension.
+    let o = logtrim(&["image", "COEFFS.json", "-o", "unit.img", "--format", "hex"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    assert!(std::fs::read_to_string(dir.path().join("unit.img")).unwrap().starts_with(':'));
+}
+
+#[test]
+fn bad_images_exit_1_with_the_specific_error() {
+    let dir = tempfile::tempdir().unwrap();
+    coeffs(dir.path(), Some("GD-REF-00731"));
+    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
+    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.hex"], dir.path())), 0);
+    let good = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+
+    let cases: Vec<(&str, Vec<u8>, &str)> = vec![
+        (
+            "flip.bin",
+            {
+                let mut b = good.clone();
+                b[150] ^= 0x08;
+                b
+            },
+            "CRC mismatch",
+        ),
+        ("short.bin", good[..200].to_vec(), "image truncated: 200 bytes, 268 needed"),
+        (
+            "long.bin",
+            {
+                let mut b = good.clone();
+                b.push(0);
+                b
+            },
+            "declares 268 bytes but 269 were given",
+        ),
+        ("erased.bin", vec![0xff; 268], "not a calibration image: starts with ff ff ff ff"),
+        (
+            "v2.bin",
+            {
+                let mut b = good.clone();
+                b[4] = 2;
+                b
+            },
+            "format version 2 is not supported",
+        ),
+    ];
+    for (name, bytes, want) in cases {
+        std::fs::write(dir.path().join(name), bytes).unwrap();
+        let o = logtrim(&["inspect", name], dir.path());
+        assert_eq!(code(&o), 1, "{name}: {}", stderr(&o));
+        assert!(stderr(&o).contains(want), "{name}: {}", stderr(&o));
+        assert!(stdout(&o).is_empty(), "{name}: a bad image must not be printed as if valid");
+    }
+
+    let hex = std::fs::read_to_string(dir.path().join("UNIT.hex")).unwrap();
+    let mut lines: Vec<String> = hex.lines().map(str::to_string).collect();
+    // Change one data byte of the third record and leave its checksum: the record checksum catches it.
+    let third = &mut lines[2];
+    let flipped = if &third[9..11] == "00" { "01" } else { "00" };
+    third.replace_range(9..11, flipped);
+    std::fs::write(dir.path().join("bad.hex"), lines.join("\n") + "\n").unwrap();
+    let o = logtrim(&["inspect", "bad.hex"], dir.path());
+    assert_eq!(code(&o), 1);
+    assert!(stderr(&o).contains("line 3: record checksum"), "{}", stderr(&o));
+}
+
+#[test]
+fn bad_input_exits_2_and_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    coeffs(dir.path(), None);
+    let cases: &[(&[&str], &str)] = &[
+        (
+            &["image", "COEFFS.json", "-o", "a.bin", "--serial", "SEVENTEEN-CHARS-X"],
+            "at most 16 printable ASCII",
+        ),
+        (&["image", "COEFFS.json", "-o", "a.bin", "--serial", "Prüfling"], "at most 16 printable ASCII"),
+        (&["image", "COEFFS.json", "-o", "a.bin", "--base-address", "0x100"], "Intel HEX output only"),
+        (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "flash"], "is not an address"),
+        (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "0xFFFFFF00"], "32-bit address space"),
+        (&["image", "COEFFS.json", "-o", "a.hex", "--record-len", "20"], "record length 20"),
+        (&["image", "MISSING.json", "-o", "a.bin"], "MISSING.json"),
+        (&["inspect", "MISSING.bin"], "MISSING.bin"),
+    ];
+    for (args, want) in cases {
+        let o = logtrim(args, dir.path());
+        assert_eq!(code(&o), 2, "{args:?}: {}", stderr(&o));
+        assert!(stderr(&o).contains(want), "{args:?}: {}", stderr(&o));
+    }
+    // A calibration file that does not validate.
+    let text = std::fs::read_to_string(dir.path().join("COEFFS.json")).unwrap();
+    std::fs::write(dir.path().join("BAD.json"), text.replace("\"bits\": 16", "\"bits\": 30")).unwrap();
+    let o = logtrim(&["image", "BAD.json", "-o", "a.bin"], dir.path());
+    assert_eq!(code(&o), 2, "{}", stderr(&o));
+    // Nothing was written, not even a temporary file.
+    let names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    let mut names = names;
+    names.sort();
+    assert_eq!(names, ["BAD.json", "COEFFS.json"]);
+    // Without any serial the image is still built, with a warning.
+    let o = logtrim(&["image", "COEFFS.json", "-o", "a.bin"], dir.path());
+    assert_eq!(code(&o), 0);
+    assert!(stderr(&o).contains("warning: no serial"), "{}", stderr(&o));
+}
