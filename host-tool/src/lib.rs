@@ -8,6 +8,7 @@
 //! | module | owns |
 //! |---|---|
 //! | [`apply`] | running the firmware correction over a readings file and writing the results |
+//! | [`batch`] | production-line batches: many units fitted in parallel, one calibration and image each |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
@@ -20,6 +21,7 @@
 #![deny(missing_docs)]
 
 pub mod apply;
+pub mod batch;
 pub mod calfile;
 pub mod data;
 pub mod demo;

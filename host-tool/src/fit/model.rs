@@ -65,6 +65,78 @@ impl Spec {
         s
     }
 
+    /// The size in the form [`Spec::parse`] reads (for `--model`).
+    pub fn to_arg(&self) -> String {
+        let mut s =
+            format!("offset={},slope={},bulk={}", self.offset_terms, self.slope_terms, self.bulk_terms);
+        if self.pole {
+            s.push_str(",pole");
+        }
+        if self.bias {
+            s.push_str(",bias");
+        }
+        if self.has_residual() {
+            s.push_str(&format!(",residual={}x{}", self.residual_x, self.residual_t));
+        }
+        s
+    }
+
+    /// Parses a size such as `offset=3,slope=2,bulk=1,pole,bias,residual=3x2` (terms not named are off;
+    /// offset and slope default to 2 and 1 terms).
+    pub fn parse(text: &str) -> Result<Spec, String> {
+        let mut s = Spec {
+            offset_terms: 2,
+            slope_terms: 1,
+            bulk_terms: 0,
+            pole: false,
+            bias: false,
+            residual_x: 0,
+            residual_t: 0,
+        };
+        for part in text.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+            let (key, value) = match part.split_once('=') {
+                Some((k, v)) => (k.trim(), Some(v.trim())),
+                None => (part, None),
+            };
+            let count = |v: Option<&str>| -> Result<usize, String> {
+                v.ok_or_else(|| format!("{key:?} needs a number of terms, e.g. {key}=2"))?
+                    .parse::<usize>()
+                    .map_err(|_| format!("{key:?}: {:?} is not a whole number", v.unwrap_or("")))
+            };
+            match key {
+                "offset" => s.offset_terms = count(value)?,
+                "slope" => s.slope_terms = count(value)?,
+                "bulk" => s.bulk_terms = count(value)?,
+                "pole" if value.is_none() => s.pole = true,
+                "bias" if value.is_none() => s.bias = true,
+                "residual" => {
+                    let v = value.ok_or("\"residual\" needs a size such as residual=3x2")?;
+                    let (a, b) = v.split_once('x').ok_or(format!("residual size {v:?} is not of the form NxM"))?;
+                    s.residual_x = a.trim().parse().map_err(|_| format!("residual size {v:?} is not NxM"))?;
+                    s.residual_t = b.trim().parse().map_err(|_| format!("residual size {v:?} is not NxM"))?;
+                }
+                other => {
+                    return Err(format!(
+                        "unknown model term {other:?}: expected offset=N, slope=N, bulk=N, pole, bias, residual=NxM"
+                    ))
+                }
+            }
+        }
+        if s.offset_terms == 0
+            || s.slope_terms == 0
+            || s.offset_terms > MAX_SERIES
+            || s.slope_terms > MAX_SERIES
+        {
+            return Err(format!("offset and slope take 1..={MAX_SERIES} terms"));
+        }
+        if s.bulk_terms > MAX_SERIES || s.residual_x > MAX_RESIDUAL || s.residual_t > MAX_RESIDUAL {
+            return Err(format!(
+                "bulk takes at most {MAX_SERIES} terms, residual at most {MAX_RESIDUAL}x{MAX_RESIDUAL}"
+            ));
+        }
+        Ok(s)
+    }
+
     /// Whether the generic residual is part of the model.
     pub fn has_residual(&self) -> bool {
         self.residual_x > 0 && self.residual_t > 0
@@ -454,6 +526,16 @@ mod tests {
             let r = p.residual_at(&Prep { xi, ..row });
             assert!((x0 + r - x).abs() < 1e-6, "residual at x={x} t={t}: {x0} + {r} vs {x}");
         }
+    }
+
+    #[test]
+    fn spec_parses_and_refuses() {
+        assert_eq!(Spec::parse("offset=3,slope=2,bulk=1,pole,bias,residual=2x2"), Ok(spec()));
+        assert_eq!(Spec::parse(&spec().to_arg()), Ok(spec()));
+        assert!(Spec::parse("offset=0").is_err());
+        assert!(Spec::parse("offset=x").unwrap_err().contains("not a whole number"));
+        assert!(Spec::parse("wobble").unwrap_err().contains("unknown model term"));
+        assert!(Spec::parse("residual=9x1").is_err());
     }
 
     #[test]

@@ -7,6 +7,9 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod apply;
+mod demo;
+mod fit;
 mod image;
 mod inspect;
 mod simulate;
@@ -23,6 +26,13 @@ struct Cli {
 enum Command {
     /// Print the version and the formats this build reads and writes.
     Info,
+    /// Run the whole job on simulated units: chamber run, fit, and corrected held-out readings, with the
+    /// error of the nominal equation, a room-temperature two-point calibration and logtrim side by side.
+    Demo(demo::DemoArgs),
+    /// Fit a calibration (COEFFS.json) from chamber data; a batch of units gets one file and image each.
+    Fit(fit::FitArgs),
+    /// Correct a readings CSV with a calibration, as the firmware would, and write the results.
+    Apply(apply::ApplyArgs),
     /// Simulate chamber calibration and validation runs of a front end, with the truth kept apart.
     Simulate(simulate::SimulateArgs),
     /// Build a unit's calibration image (binary or Intel HEX) from a calibration file.
@@ -68,6 +78,9 @@ fn main() -> ExitCode {
             Ok(())
         }
         Command::Simulate(args) => simulate::run(args),
+        Command::Demo(args) => demo::run(args),
+        Command::Fit(args) => fit::run(args),
+        Command::Apply(args) => apply::run(args),
         Command::Image(args) => image::run(args),
         Command::Inspect(args) => inspect::run(args),
     };

@@ -1,0 +1,87 @@
+//! `logtrim apply`: run the firmware's correction over a readings file and write the results as CSV.
+
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+use logtrim_host::apply::{correct_rows, write_results, Arithmetic};
+use logtrim_host::calfile::CalFile;
+use logtrim_host::data::{read_readings_file, ReadOptions};
+use logtrim_host::output::AtomicFile;
+
+use crate::Failure;
+
+/// Which of the firmware's arithmetic paths to run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PathArg {
+    /// f32 with libm (parts with an FPU).
+    F32,
+    /// f32 with micromath's fast approximations.
+    F32Micromath,
+}
+
+/// Options of `logtrim apply`.
+#[derive(Args, Debug)]
+pub struct ApplyArgs {
+    /// The unit's calibration file.
+    coeffs: PathBuf,
+    /// Readings: a CSV with code and temp_c (or temp_code, converted by the calibration file's sensor);
+    /// every other column is copied to the output.
+    readings: PathBuf,
+    /// The output CSV: the input columns plus ln_ratio, the other units, temperature_extrapolated, error.
+    #[arg(short, long, value_name = "OUT.csv")]
+    output: PathBuf,
+    /// The firmware arithmetic to run.
+    #[arg(long, value_enum, default_value_t = PathArg::F32)]
+    path: PathArg,
+    /// Skip rows with bad values (each is listed) instead of refusing the file.
+    #[arg(long)]
+    skip_bad_rows: bool,
+}
+
+/// Runs the verb.
+pub fn run(args: ApplyArgs) -> Result<(), Failure> {
+    let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
+    let cal = file.calibration;
+    let sensor = file.temperature_sensor;
+    // The firmware converts the temperature channel in f32: so does apply.
+    let conv = move |code: u32| -> Result<f64, logtrim::Error> {
+        match &sensor {
+            Some(s) => s.celsius(code).map(f64::from),
+            None => Err(logtrim::Error::NotCalibrated),
+        }
+    };
+    let opts = ReadOptions {
+        adc_bits: cal.adc.bits,
+        skip_bad_rows: args.skip_bad_rows,
+        temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
+    };
+    let readings = read_readings_file(&args.readings, &opts).map_err(Failure::input)?;
+    for e in &readings.skipped {
+        eprintln!("skipped: {e}");
+    }
+    let arith = match args.path {
+        PathArg::F32 => Arithmetic::F32,
+        PathArg::F32Micromath => Arithmetic::F32Micromath,
+    };
+    let results = correct_rows(&cal, &readings, arith);
+    let out = AtomicFile::create(&args.output)
+        .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    let mut out = out;
+    let summary = write_results(&readings, &results, &mut out).map_err(Failure::input)?;
+    out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    let by: Vec<String> = summary.by_error.iter().map(|(k, v)| format!("{v} {k}")).collect();
+    println!(
+        "{} rows: {} corrected, {} rejected{}{}; wrote {}",
+        summary.rows,
+        summary.rows - summary.rejected,
+        summary.rejected,
+        if by.is_empty() { String::new() } else { format!(" ({})", by.join(", ")) },
+        if summary.extrapolated > 0 {
+            format!(", {} with extrapolated temperature", summary.extrapolated)
+        } else {
+            String::new()
+        },
+        args.output.display()
+    );
+    Ok(())
+}
