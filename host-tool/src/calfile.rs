@@ -162,9 +162,22 @@ impl CalFile {
 
     /// Writes the file atomically.
     pub fn save(&self, path: &Path) -> Result<(), CalFileError> {
+        self.save_with(path, crate::output::write_atomic)
+    }
+
+    /// Writes the file atomically, leaving the flush to disk to [`crate::output::sync_all_deferred`].
+    pub fn save_deferred(&self, path: &Path) -> Result<(), CalFileError> {
+        self.save_with(path, crate::output::write_atomic_deferred)
+    }
+
+    fn save_with(
+        &self,
+        path: &Path,
+        write: fn(&Path, &[u8]) -> std::io::Result<()>,
+    ) -> Result<(), CalFileError> {
         let mut text = self.to_json();
         text.push('\n');
-        crate::output::write_atomic(path, text.as_bytes())
+        write(path, text.as_bytes())
             .map_err(|source| CalFileError::Io { path: path.display().to_string(), source })
     }
 }

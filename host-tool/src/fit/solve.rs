@@ -10,6 +10,9 @@ use super::model::{Params, Prep};
 
 /// Rows per block of the blocked (tall-skinny) QR.
 const BLOCK: usize = 8192;
+/// Below this many rows, residuals and Jacobians are computed on one thread (a small unit's fit runs in
+/// parallel with other units' instead).
+const PARALLEL_ROWS: usize = 4096;
 
 /// The result of a linear least-squares solve.
 #[derive(Debug, Clone)]
@@ -38,39 +41,43 @@ where
         return None;
     }
     // Column norms for scaling.
-    let norms: Vec<f64> = (0..n)
-        .into_par_iter()
-        .fold(
-            || (vec![0.0; p + 1], Vec::with_capacity(p + 1)),
-            |(mut acc, mut buf), i| {
-                row(i, &mut buf);
-                for (a, v) in acc.iter_mut().zip(&buf) {
-                    *a += v * v;
-                }
-                (acc, buf)
-            },
-        )
-        .map(|(a, _)| a)
-        .reduce(|| vec![0.0; p + 1], |a, b| a.iter().zip(&b).map(|(x, y)| x + y).collect());
+    let add_row = |(mut acc, mut buf): (Vec<f64>, Vec<f64>), i: usize| {
+        row(i, &mut buf);
+        for (a, v) in acc.iter_mut().zip(&buf) {
+            *a += v * v;
+        }
+        (acc, buf)
+    };
+    let norms: Vec<f64> = if n >= PARALLEL_ROWS {
+        (0..n)
+            .into_par_iter()
+            .fold(|| (vec![0.0; p + 1], Vec::with_capacity(p + 1)), add_row)
+            .map(|(a, _)| a)
+            .reduce(|| vec![0.0; p + 1], |a, b| a.iter().zip(&b).map(|(x, y)| x + y).collect())
+    } else {
+        (0..n).fold((vec![0.0; p + 1], Vec::with_capacity(p + 1)), add_row).0
+    };
     let scale: Vec<f64> = norms.iter().take(p).map(|s| if *s > 0.0 { 1.0 / s.sqrt() } else { 1.0 }).collect();
 
     let blocks: Vec<(usize, usize)> = (0..n).step_by(BLOCK).map(|s| (s, (s + BLOCK).min(n))).collect();
-    let factors: Vec<DMatrix<f64>> = blocks
-        .par_iter()
-        .map(|&(s, e)| {
-            let m = e - s;
-            let mut a = DMatrix::<f64>::zeros(m, p + 1);
-            let mut buf = Vec::with_capacity(p + 1);
-            for (r, i) in (s..e).enumerate() {
-                row(i, &mut buf);
-                for c in 0..p {
-                    a[(r, c)] = buf.get(c).copied().unwrap_or(0.0) * scale[c];
-                }
-                a[(r, p)] = buf.get(p).copied().unwrap_or(0.0);
+    let factor_of = |&(s, e): &(usize, usize)| {
+        let m = e - s;
+        let mut a = DMatrix::<f64>::zeros(m, p + 1);
+        let mut buf = Vec::with_capacity(p + 1);
+        for (r, i) in (s..e).enumerate() {
+            row(i, &mut buf);
+            for c in 0..p {
+                a[(r, c)] = buf.get(c).copied().unwrap_or(0.0) * scale[c];
             }
-            triangular_factor(a)
-        })
-        .collect();
+            a[(r, p)] = buf.get(p).copied().unwrap_or(0.0);
+        }
+        triangular_factor(a)
+    };
+    let factors: Vec<DMatrix<f64>> = if blocks.len() > 1 {
+        blocks.par_iter().map(factor_of).collect()
+    } else {
+        blocks.iter().map(factor_of).collect()
+    };
     let mut stacked = DMatrix::<f64>::zeros(factors.iter().map(|f| f.nrows()).sum(), p + 1);
     let mut r0 = 0;
     for f in &factors {
@@ -124,12 +131,15 @@ pub fn solve_linear(params: &mut Params, rows: &[Prep]) -> Option<f64> {
 
 /// Σ residual² of `params` on `rows`.
 pub fn sse(params: &Params, rows: &[Prep]) -> f64 {
-    rows.par_iter()
-        .map(|r| {
-            let e = r.sw * (r.code - params.predict(r));
-            e * e
-        })
-        .sum()
+    let f = |r: &Prep| {
+        let e = r.sw * (r.code - params.predict(r));
+        e * e
+    };
+    if rows.len() >= PARALLEL_ROWS {
+        rows.par_iter().map(f).sum()
+    } else {
+        rows.iter().map(f).sum()
+    }
 }
 
 struct Problem<'a> {
@@ -151,23 +161,46 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
     }
 
     fn residuals(&self) -> Option<DVector<f64>> {
-        let v: Vec<f64> = self.rows.par_iter().map(|r| r.sw * (r.code - self.params.predict(r))).collect();
+        let f = |r: &Prep| r.sw * (r.code - self.params.predict(r));
+        let v: Vec<f64> = if self.rows.len() >= PARALLEL_ROWS {
+            self.rows.par_iter().map(f).collect()
+        } else {
+            self.rows.iter().map(f).collect()
+        };
         v.iter().all(|e| e.is_finite()).then(|| DVector::from_vec(v))
     }
 
     fn jacobian(&self) -> Option<DMatrix<f64>> {
         let p = self.params.spec.n_params();
         let n = self.rows.len();
-        let grads: Vec<Vec<f64>> = self
-            .rows
-            .par_iter()
-            .map(|r| {
-                let mut g = Vec::with_capacity(p);
+        let mut m = DMatrix::<f64>::zeros(n, p);
+        let fill = |chunk: &[Prep], m: &mut DMatrix<f64>, r0: usize| {
+            let mut g = Vec::with_capacity(p);
+            for (k, r) in chunk.iter().enumerate() {
                 self.params.residual_and_gradient(r, &mut g);
-                g
-            })
-            .collect();
-        let m = DMatrix::from_fn(n, p, |i, j| grads[i].get(j).copied().unwrap_or(0.0));
+                for (j, v) in g.iter().enumerate().take(p) {
+                    m[(r0 + k, j)] = *v;
+                }
+            }
+        };
+        if n >= PARALLEL_ROWS {
+            // Rows in parallel blocks, each into its own matrix, then copied into place.
+            let blocks: Vec<(usize, DMatrix<f64>)> = self
+                .rows
+                .par_chunks(BLOCK)
+                .enumerate()
+                .map(|(b, chunk)| {
+                    let mut part = DMatrix::<f64>::zeros(chunk.len(), p);
+                    fill(chunk, &mut part, 0);
+                    (b * BLOCK, part)
+                })
+                .collect();
+            for (r0, part) in blocks {
+                m.view_mut((r0, 0), (part.nrows(), p)).copy_from(&part);
+            }
+        } else {
+            fill(self.rows, &mut m, 0);
+        }
         m.iter().all(|e| e.is_finite()).then_some(m)
     }
 }

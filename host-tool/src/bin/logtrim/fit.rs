@@ -162,18 +162,28 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         }
         b
     });
-    let results = fit_units(&jobs, &opt, sensor.as_ref(), &args.output, bar.as_ref());
+    let (spec, results) = fit_units(&jobs, &opt, sensor.as_ref(), &args.output, bar.as_ref());
     if let Some(b) = bar {
         b.finish_and_clear();
     }
     let failed: Vec<_> = results.iter().filter(|r| r.outcome.is_err()).collect();
+    match spec {
+        Some(s) if args.model.is_none() => println!(
+            "model for the batch (cross-validated on up to {} pilot units): {}",
+            logtrim_host::batch::PILOT_UNITS,
+            s.to_arg()
+        ),
+        _ => {}
+    }
     for r in &results {
         match &r.outcome {
-            Ok((json, _)) if !args.quiet => println!(
-                "{:<16} ok      cv rms {:.3e} Np  {}",
+            Ok((json, _)) if !args.quiet || r.note.is_some() => println!(
+                "{:<16} ok      worst set-point rms {:.3e} Np, noise floor {}  {}{}",
                 r.serial,
-                r.cv_rms_np.unwrap_or(f64::NAN),
-                json.display()
+                r.worst_rms_np.unwrap_or(f64::NAN),
+                r.noise_floor_np.map(|f| format!("{f:.3e} Np")).unwrap_or_else(|| "n/a".into()),
+                json.display(),
+                r.note.as_ref().map(|n| format!("\n{:<16} note    {n}", "")).unwrap_or_default()
             ),
             Ok(_) => {}
             Err(why) => println!("{:<16} FAILED  {why}", r.serial),

@@ -1,0 +1,88 @@
+//! Throughput of the host's main jobs on this machine, CSV parsing included. Prints figures; judges nothing.
+//!
+//! * fit: 1,000,000 calibration rows of the uncompensated preset (8 set-points × 250 ratios × 500
+//!   sweeps), read from CSV text and fitted (model search on a thinned subset, final solve on all rows);
+//! * apply: 1,000,000 readings read from CSV, corrected by firmware-lib's f32 path, written as CSV;
+//! * batch: 1,000 units × 400 rows each, fitted in parallel, one calibration file and image per unit.
+//!
+//! Run with `cargo bench -p logtrim-host --bench throughput`. Goals: fit and apply under 3 s each, the
+//! batch under 10 s, on 2 cores.
+
+use std::time::Instant;
+
+use logtrim_host::apply::{correct_rows, write_results, Arithmetic};
+use logtrim_host::batch::{fit_units, UnitJob};
+use logtrim_host::data::{read_calibration, read_readings, ReadOptions};
+use logtrim_host::demo::fit_data;
+use logtrim_host::fit::{fit, FitData, FitOptions};
+use logtrim_host::frontend::preset;
+use logtrim_host::simulate::{simulate, ChamberPlan, Plan};
+
+fn main() {
+    let fe = preset("gas-uncompensated").expect("preset");
+    let opt = FitOptions::default();
+
+    // fit: 1M rows.
+    let plan = Plan {
+        seed: 5,
+        chamber: ChamberPlan { setpoints: 8, ratios_per_setpoint: 250, repeats: 500 },
+        validation_count: 1_000_000,
+        units: 1,
+    };
+    let sim = simulate(&fe, &plan).expect("simulate");
+    let cal_csv = sim.cal_csv();
+    let readings_csv = sim.readings_csv();
+    println!("fit: {} rows, {:.1} MB of CSV", sim.chamber.len(), cal_csv.len() as f64 / 1e6);
+    let t = Instant::now();
+    let data = read_calibration(cal_csv.as_slice(), "bench.csv", &ReadOptions::default()).expect("read");
+    let t_read = t.elapsed().as_secs_f64();
+    let out = fit(&FitData::from_rows(&data.rows, None), &opt).expect("fit");
+    let t_fit = t.elapsed().as_secs_f64();
+    println!("fit: read {t_read:.3} s, read + fit {t_fit:.3} s (goal < 3 s); model {}", out.chosen.to_arg());
+
+    // apply: 1M readings.
+    let t = Instant::now();
+    let readings =
+        read_readings(readings_csv.as_slice(), "readings.csv", &ReadOptions::default()).expect("read");
+    let t_read = t.elapsed().as_secs_f64();
+    let results = correct_rows(&out.calibration, &readings, Arithmetic::F32);
+    let t_corr = t.elapsed().as_secs_f64();
+    let mut sink = Vec::with_capacity(readings_csv.len() * 2);
+    let summary = write_results(&readings, &results, &mut sink).expect("write");
+    let t_all = t.elapsed().as_secs_f64();
+    println!(
+        "apply: {} rows, read {t_read:.3} s, + correct {t_corr:.3} s, + write {t_all:.3} s (goal < 3 s); {} rejected",
+        summary.rows, summary.rejected
+    );
+
+    // batch: 1000 units × 400 rows.
+    let plan = Plan {
+        seed: 6,
+        chamber: ChamberPlan { setpoints: 5, ratios_per_setpoint: 40, repeats: 2 },
+        validation_count: 1,
+        units: 1000,
+    };
+    let sim = simulate(&fe, &plan).expect("simulate");
+    let jobs: Vec<UnitJob> = (0..plan.units)
+        .map(|u| UnitJob {
+            serial: sim.units[u].serial.clone(),
+            data: fit_data(&sim.chamber, u).expect("data"),
+        })
+        .collect();
+    let base = std::env::var_os("LOGTRIM_BENCH_DIR")
+        .map(std::path::PathBuf::from)
+        .unwrap_or_else(std::env::temp_dir);
+    let dir = base.join(format!("logtrim-bench-batch-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("dir");
+    let t = Instant::now();
+    let (spec, results) = fit_units(&jobs, &opt, None, &dir, None);
+    let secs = t.elapsed().as_secs_f64();
+    let failed = results.iter().filter(|r| r.outcome.is_err()).count();
+    println!(
+        "batch: {} units × {} rows in {secs:.2} s (goal < 10 s), {failed} failed, model {}",
+        jobs.len(),
+        jobs[0].data.code.len(),
+        spec.map(|s| s.to_arg()).unwrap_or_default()
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
