@@ -101,3 +101,44 @@ pub fn check_intel_hex(data: &[u8]) {
     }
     check_image(&decoded.bytes);
 }
+
+/// CSV text from anyone, read as calibration data and as readings (with and without skipping bad rows):
+/// the readers never panic; what they accept holds only valid values; a sensor converter that fails is
+/// reported per row in readings and as an error in calibration data.
+pub fn check_csv(data: &[u8]) {
+    use logtrim_host::data::{read_calibration, read_readings, ReadOptions};
+    let conv = |code: u32| -> Result<f64, logtrim::Error> {
+        if code % 7 == 0 {
+            Err(logtrim::Error::Sensor(logtrim::error::SensorFault::Open))
+        } else {
+            Ok(f64::from(code % 200) - 50.0)
+        }
+    };
+    for skip in [false, true] {
+        for bits in [12u8, 16] {
+            let opts = ReadOptions { adc_bits: bits, skip_bad_rows: skip, temp_converter: Some(&conv) };
+            if let Ok(cal) = read_calibration(data, "fuzz.csv", &opts) {
+                let max = (1u32 << bits) - 1;
+                for r in &cal.rows {
+                    assert!(r.code <= max && r.temp_c.is_finite());
+                    assert!(r.ratio.is_finite() && r.ratio > 0.0);
+                    assert!(r.weight.is_finite() && r.weight > 0.0);
+                    assert!(r.unit.is_none_or(|u| (u as usize) < cal.units.len()));
+                }
+                if !skip {
+                    assert!(cal.skipped.is_empty());
+                }
+            }
+            if let Ok(rd) = read_readings(data, "fuzz.csv", &opts) {
+                let max = (1u32 << bits) - 1;
+                for r in &rd.rows {
+                    assert!(r.code <= max);
+                    if let Ok(t) = r.temp_c {
+                        assert!(t.is_finite());
+                    }
+                    assert_eq!(r.record.len(), rd.headers.len());
+                }
+            }
+        }
+    }
+}
