@@ -13,6 +13,7 @@
 //! | [`frontend`] | the f64 reference model of one front end (physics, noise, the oracle) and the presets |
 //! | [`simulate`] | seeded chamber and validation runs of simulated units, and their files |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
+//! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
 //! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -23,6 +24,7 @@ pub mod fit;
 pub mod frontend;
 pub mod output;
 pub mod plot;
+pub mod report;
 pub mod simulate;
 
 pub use logtrim;
