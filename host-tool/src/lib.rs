@@ -7,6 +7,7 @@
 //!
 //! | module | owns |
 //! |---|---|
+//! | [`budget`] | the error budget of a design before any unit is built (contributions, RSS, worst case) |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
@@ -18,6 +19,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod budget;
 pub mod calfile;
 pub mod data;
 pub mod fit;

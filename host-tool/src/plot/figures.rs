@@ -152,8 +152,7 @@ pub fn error_vs_x(
                 style: Style::LineAndMarkers,
             });
         }
-        let title =
-            if refused > 0 { format!("{which}: {refused} readings refused") } else { which.to_string() };
+        let title = refused_title(which, refused);
         panels.push(Panel {
             title,
             x_label: "x = ln(I_sig/I_ref) [Np]".into(),
@@ -166,6 +165,15 @@ pub fn error_vs_x(
         subtitle: subtitle.to_string(),
         panels,
         size: (1200, 560),
+    }
+}
+
+/// A panel's caption with the count of refused readings, if any.
+fn refused_title(which: &str, refused: usize) -> String {
+    match refused {
+        0 => which.to_string(),
+        1 => format!("{which}: 1 reading refused"),
+        n => format!("{which}: {n} readings refused"),
     }
 }
 
@@ -242,8 +250,7 @@ pub fn error_vs_temperature(
                 style: Style::Dashed,
             });
         }
-        let title =
-            if refused > 0 { format!("{which}: {refused} readings refused") } else { which.to_string() };
+        let title = refused_title(which, refused);
         panels.push(Panel {
             title,
             x_label: "unit's true temperature [°C]".into(),

@@ -7,6 +7,8 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod budget;
+mod plot;
 mod simulate;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -23,6 +25,12 @@ enum Command {
     Info,
     /// Simulate chamber calibration and validation runs of a front end, with the truth kept apart.
     Simulate(simulate::SimulateArgs),
+    /// Draw a calibrated unit's charts as SVG: error against x before and after correction, error against
+    /// temperature over a validation run, and the f32 correction's error map.
+    Plot(plot::PlotArgs),
+    /// Estimate a design's error budget before any unit is built: each contribution to the error in x, their
+    /// root-sum-square and worst case.
+    Budget(budget::BudgetArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -57,6 +65,8 @@ fn main() -> ExitCode {
             Ok(())
         }
         Command::Simulate(args) => simulate::run(args),
+        Command::Plot(args) => plot::run(args),
+        Command::Budget(args) => budget::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
