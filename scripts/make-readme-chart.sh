@@ -1,0 +1,22 @@
+#!/usr/bin/env bash
+# Regenerates docs/error-vs-x.svg, the README's chart: a simulated unit of a built-in front end, fitted, and
+# its error in x against x before and after correction.
+#
+# Until the CLI has a `fit` verb, the simulation and the fit run through the library's `readme_chart`
+# example; the chart is drawn by `logtrim plot`. Seeded: the same preset and seed give the same data.
+#
+#   scripts/make-readme-chart.sh [PRESET] [SEED]     (default: gas-uncompensated 7)
+set -euo pipefail
+cd "$(dirname "$0")/.."
+preset="${1:-gas-uncompensated}"
+seed="${2:-7}"
+work="$(mktemp -d)"
+trap 'rm -rf "$work"' EXIT
+
+cargo build -q -p logtrim-host --bin logtrim --example readme_chart
+target="${CARGO_TARGET_DIR:-target}/debug"
+"$target/examples/readme_chart" "$preset" "$seed" "$work" >/dev/null
+"$target/logtrim" plot "$work/COEFFS.json" "$work/cal.csv" -o "$work/charts" >/dev/null
+mkdir -p docs
+cp "$work/charts/U0001-error-vs-x.svg" docs/error-vs-x.svg
+echo "wrote docs/error-vs-x.svg ($preset, seed $seed)"
