@@ -331,7 +331,10 @@ pub fn render_lines(fig: &LineFigure) -> Result<String, PlotError> {
         }
     }
     let (w, h) = fig.size;
-    let per_row = ((w.saturating_sub(40)) / 210).max(1) as usize;
+    // Legend columns as wide as the longest label needs (about 7 px a character at this size), 150 px at least.
+    let longest = legend.iter().map(|(l, _, _)| l.chars().count()).max().unwrap_or(0) as u32;
+    let column = (48 + 7 * longest).max(150);
+    let per_row = ((w.saturating_sub(40)) / column).max(1) as usize;
     let legend_rows = legend.len().div_ceil(per_row) as u32;
     let legend_h = 14 + 22 * legend_rows;
     let mut svg = String::new();
@@ -346,7 +349,7 @@ pub fn render_lines(fig: &LineFigure) -> Result<String, PlotError> {
         for (panel, area) in fig.panels.iter().zip(areas.iter()) {
             draw_panel(area, panel).map_err(&e)?;
         }
-        draw_legend(&foot, &legend, per_row).map_err(&e)?;
+        draw_legend(&foot, &legend, per_row, column as i32).map_err(&e)?;
         root.present().map_err(&e)?;
     }
     Ok(stamp(svg))
@@ -433,13 +436,18 @@ fn draw_panel(area: &Area<'_>, panel: &Panel) -> DrawResult<()> {
     Ok(())
 }
 
-fn draw_legend(area: &Area<'_>, entries: &[(String, RGBColor, Style)], per_row: usize) -> DrawResult<()> {
+fn draw_legend(
+    area: &Area<'_>,
+    entries: &[(String, RGBColor, Style)],
+    per_row: usize,
+    column: i32,
+) -> DrawResult<()> {
     let style = TextStyle::from((FONT, 13).into_font())
         .color(&BLACK)
         .pos(text_anchor::Pos::new(text_anchor::HPos::Left, text_anchor::VPos::Center));
     for (k, (label, c, s)) in entries.iter().enumerate() {
         let (col, row) = ((k % per_row) as i32, (k / per_row) as i32);
-        let (x, y) = (30 + col * 210, 12 + row * 22);
+        let (x, y) = (30 + col * column, 12 + row * 22);
         match s {
             Style::Markers => {
                 area.draw(&Circle::new((x + 12, y), 3, c.filled()))?;
