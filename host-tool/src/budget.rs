@@ -51,6 +51,9 @@ const LN10: f64 = std::f64::consts::LN_10;
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 #[serde(default, deny_unknown_fields)]
 pub struct BudgetSpec {
+    /// Free text: what the design is, or what wrote the file (ignored by the budget).
+    #[serde(skip_serializing_if = "String::is_empty")]
+    pub note: String,
     /// The log channel's converter.
     pub adc: AdcSpec,
     /// The converter's reference.

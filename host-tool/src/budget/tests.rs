@@ -105,6 +105,7 @@ fn reference_error_matches_the_reference_model_with_a_gain_error() {
 /// Np/K (at 25 °C).
 fn round_design() -> BudgetSpec {
     BudgetSpec {
+        note: "round figures, worked by hand".into(),
         adc: AdcSpec { bits: 16, vref_v: 4.096, noise_lsb_rms: 0.3, oversampling: 9 },
         reference: ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 20.0, ratiometric_level_shift: false },
         front_end: FrontEndSpec {
