@@ -9,6 +9,7 @@
 //! |---|---|
 //! | [`apply`] | running the firmware correction over a readings file and writing the results |
 //! | [`batch`] | production-line batches: many units fitted in parallel, one calibration and image each |
+//! | [`budget`] | the error budget of a design before any unit is built (contributions, RSS, worst case) |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
 //! | [`output`] | writing output files atomically (temporary file, then rename) |
@@ -17,11 +18,14 @@
 //! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
 //! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
+//! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
+//! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod apply;
 pub mod batch;
+pub mod budget;
 pub mod calfile;
 pub mod data;
 pub mod demo;
@@ -29,6 +33,8 @@ pub mod fit;
 pub mod frontend;
 pub mod image_file;
 pub mod output;
+pub mod plot;
+pub mod report;
 pub mod simulate;
 
 pub use logtrim;

@@ -25,15 +25,32 @@ fn s(p: &Path) -> &str {
 
 fn simulate(dir: &Path, units: &str) {
     let (code, out, err) = logtrim(&[
-        "simulate", "--preset", "gas-uncompensated", "--out-dir", s(dir), "--setpoints", "5", "--ratios", "21",
-        "--repeats", "2", "--validation", "500", "--units", units, "--seed", "3",
+        "simulate",
+        "--preset",
+        "gas-uncompensated",
+        "--out-dir",
+        s(dir),
+        "--setpoints",
+        "5",
+        "--ratios",
+        "21",
+        "--repeats",
+        "2",
+        "--validation",
+        "500",
+        "--units",
+        units,
+        "--seed",
+        "3",
     ]);
     assert_eq!(code, 0, "{out}{err}");
 }
 
 fn files_in(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> =
-        std::fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
     v.sort();
     v
 }
@@ -45,7 +62,10 @@ fn fit_then_apply_corrects_the_held_out_run() {
     let coeffs = d.join("coeffs.json");
     let (code, out, err) = logtrim(&["fit", s(&d.join("cal.csv")), "-o", s(&coeffs)]);
     assert_eq!(code, 0, "{out}{err}");
-    assert!(out.contains("cross-validation") && out.contains("noise floor") && out.contains("wrote"), "{out}");
+    assert!(
+        out.contains("cross-validation") && out.contains("noise floor") && out.contains("wrote"),
+        "{out}"
+    );
     let corrected = d.join("out.csv");
     let (code, out, err) = logtrim(&["apply", s(&coeffs), s(&d.join("readings.csv")), "-o", s(&corrected)]);
     assert_eq!(code, 0, "{out}{err}");

@@ -67,8 +67,10 @@ pub struct FitOptions {
     pub rail_margin: Option<u32>,
     /// Readings where the front end's sensitivity has fallen below this fraction of ideal are refused.
     pub min_sensitivity: f64,
-    /// Allowance added to each end of the calibrated x range, nepers.
-    pub x_margin: f64,
+    /// Allowance added to each end of the calibrated x range, nepers; `None`: [`AUTO_MARGIN_SIGMAS`]
+    /// times the rms error in x of the rows at that end (at most [`MAX_AUTO_MARGIN`]), so that a reading
+    /// of a true value at the end of the range is not refused because of its noise.
+    pub x_margin: Option<f64>,
     /// Bounded temperature extrapolation allowed (and flagged) beyond the calibrated range, K.
     pub extrapolation_k: f64,
     /// Smallest span of ratios accepted, decades.
@@ -87,13 +89,18 @@ impl Default for FitOptions {
             search_rows: 16_000,
             rail_margin: None,
             min_sensitivity: 0.1,
-            x_margin: 0.0,
+            x_margin: None,
             extrapolation_k: 0.0,
             min_span_decades: 1.0,
             min_rows_per_setpoint: 8,
         }
     }
 }
+
+/// The automatic x-range allowance in multiples of the rms error at each end.
+pub const AUTO_MARGIN_SIGMAS: f64 = 4.0;
+/// The largest automatic x-range allowance, nepers.
+pub const MAX_AUTO_MARGIN: f64 = 0.05;
 
 /// Why data cannot be fitted. Each message says what to add or change.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -374,6 +381,17 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     let rail_margin = opt.rail_margin.unwrap_or_else(|| 1u32 << opt.bits.saturating_sub(13)).max(1);
     let (xmin, xmax) =
         all.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), r| (a.min(r.x), b.max(r.x)));
+    let end_margin = |near: &dyn Fn(f64) -> bool| -> f64 {
+        let rows: Vec<Prep> = all.iter().filter(|r| near(r.x)).copied().collect();
+        let e = select::x_errors(&params, &rows);
+        let rms = (e.iter().map(|v| v * v).sum::<f64>() / e.len().max(1) as f64).sqrt();
+        (AUTO_MARGIN_SIGMAS * rms).min(MAX_AUTO_MARGIN)
+    };
+    let edge = 0.02 * (xmax - xmin);
+    let (margin_lo, margin_hi) = match opt.x_margin {
+        Some(m) => (m, m),
+        None => (end_margin(&|x| x <= xmin + edge), end_margin(&|x| x >= xmax - edge)),
+    };
     let env = Envelope {
         bits: opt.bits,
         rail_margin,
@@ -383,8 +401,8 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
             extrapolation_k: opt.extrapolation_k as f32,
         },
         x_range: XRange {
-            min: (xmin - opt.x_margin) as f32,
-            max: (xmax + opt.x_margin) as f32,
+            min: (xmin - margin_lo) as f32,
+            max: (xmax + margin_hi) as f32,
             min_sensitivity: opt.min_sensitivity as f32,
         },
     };

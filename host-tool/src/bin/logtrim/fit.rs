@@ -49,9 +49,10 @@ pub struct FitArgs {
     /// (where bias current swamps the signal).
     #[arg(long, default_value_t = FitOptions::default().min_sensitivity, value_name = "FRACTION")]
     min_sensitivity: f64,
-    /// Widen the calibrated x range by this much at each end, nepers.
-    #[arg(long, default_value_t = 0.0, value_name = "NEPERS")]
-    x_margin: f64,
+    /// Widen the calibrated x range by this much at each end, nepers (default: four times the rms error
+    /// of the readings at that end, at most 0.05, so noise alone does not push an end reading out).
+    #[arg(long, value_name = "NEPERS")]
+    x_margin: Option<f64>,
     /// Allow (and flag) readings up to this far outside the calibrated temperature range, K.
     #[arg(long, default_value_t = 0.0, value_name = "K")]
     extrapolate: f64,
@@ -61,6 +62,10 @@ pub struct FitArgs {
     /// Only this unit of a file with a unit column.
     #[arg(long, value_name = "SERIAL")]
     unit: Option<String>,
+    /// Also write a fit report in Markdown, with its charts, into this folder (to file with the unit's
+    /// record).
+    #[arg(long, value_name = "DIR")]
+    report: Option<PathBuf>,
     /// Print only the summary line.
     #[arg(short, long)]
     quiet: bool,
@@ -244,5 +249,20 @@ fn fit_one(
     file.fit = serde_json::to_value(&out).ok();
     file.save(&args.output).map_err(Failure::input)?;
     println!("wrote {} ({} rows, model {})", args.output.display(), job.data.code.len(), out.chosen.to_arg());
+    if let Some(dir) = &args.report {
+        std::fs::create_dir_all(dir).map_err(|e| Failure::input(format!("{}: {e}", dir.display())))?;
+        let source = args.input.display().to_string();
+        let report = logtrim_host::report::FitReport {
+            calfile: &file,
+            outcome: &out,
+            data: &job.data,
+            options: opt,
+            source: &source,
+        };
+        let written = report.write_to(dir).map_err(Failure::input)?;
+        if let Some(page) = written.first() {
+            println!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
+        }
+    }
     Ok(())
 }

@@ -8,10 +8,12 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 mod apply;
+mod budget;
 mod demo;
 mod fit;
 mod image;
 mod inspect;
+mod plot;
 mod simulate;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -39,6 +41,12 @@ enum Command {
     Image(image::Args),
     /// Decode and check a calibration image file (binary or Intel HEX) and print it; exit 1 if it is bad.
     Inspect(inspect::Args),
+    /// Draw a calibrated unit's charts as SVG: error against x before and after correction, error against
+    /// temperature over a validation run, and the f32 correction's error map.
+    Plot(plot::PlotArgs),
+    /// Estimate a design's error budget before any unit is built: each contribution to the error in x, their
+    /// root-sum-square and worst case.
+    Budget(budget::BudgetArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -83,6 +91,8 @@ fn main() -> ExitCode {
         Command::Apply(args) => apply::run(args),
         Command::Image(args) => image::run(args),
         Command::Inspect(args) => inspect::run(args),
+        Command::Plot(args) => plot::run(args),
+        Command::Budget(args) => budget::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

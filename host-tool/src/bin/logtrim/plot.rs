@@ -1,0 +1,143 @@
+//! `logtrim plot`: draw the charts of a calibrated unit as SVG files.
+
+use std::path::{Path, PathBuf};
+
+use clap::Args;
+use logtrim_host::calfile::CalFile;
+use logtrim_host::data::{self, ReadOptions};
+use logtrim_host::fit::FitData;
+use logtrim_host::plot::figures::{self, ErrorUnit};
+use logtrim_host::plot::validation::read_validation;
+use logtrim_host::plot::{render_heat_map, render_lines};
+use logtrim_host::report::{file_prefix, utc};
+
+use crate::Failure;
+
+/// Options of `logtrim plot`.
+///
+/// "Before correction" is the unit's nominal equation: x = (code − L₀)/(S₀·T/T_ref), a slope proportional
+/// to absolute temperature, with the calibration's own zero code L₀ and slope S₀ at its reference
+/// temperature and nothing else (what a one-point trim would leave). "After" is firmware-lib's f32
+/// correction with the calibration.
+#[derive(Args, Debug)]
+pub struct PlotArgs {
+    /// The unit's calibration file (COEFFS.json, as `logtrim fit` writes it).
+    #[arg(value_name = "COEFFS.json")]
+    coeffs: PathBuf,
+    /// The chamber data it was fitted to (code, temp_c, ratio).
+    #[arg(value_name = "CAL.csv")]
+    cal: PathBuf,
+    /// A validation run's readings (id, code, temp_c) for the error-against-temperature chart; needs --truth.
+    #[arg(long, value_name = "READINGS.csv", requires = "truth")]
+    validation: Option<PathBuf>,
+    /// The truth of the validation run (id, x_true or ratio, t_true_c, optional x_oracle).
+    #[arg(long, value_name = "TRUTH.csv", requires = "validation")]
+    truth: Option<PathBuf>,
+    /// Directory to write the SVG files into (created if missing).
+    #[arg(short = 'o', long = "out-dir", value_name = "DIR")]
+    out_dir: PathBuf,
+    /// The unit's serial in files of a batch (a `unit` column); default: the calibration file's serial.
+    #[arg(long, value_name = "SERIAL")]
+    serial: Option<String>,
+    /// Unit of the error axes: np, mnp (millinepers), db10 (10·log10, power ratios), db20 (20·log10,
+    /// amplitude ratios) or pct (% of ratio).
+    #[arg(long, value_name = "UNIT", default_value = "mnp", value_parser = parse_unit)]
+    error_unit: ErrorUnit,
+    /// Temperature bins of the error-against-temperature chart.
+    #[arg(long, value_name = "N", default_value_t = 12, value_parser = clap::value_parser!(u32).range(1..=200))]
+    bins: u32,
+    /// Cells of the f32 error map: CODESxTEMPERATURES.
+    #[arg(long, value_name = "NXxNY", default_value = "96x40", value_parser = parse_cells)]
+    map_cells: (usize, usize),
+    /// A gap in measured temperature larger than this (K) separates two chamber set-points (as in the fit).
+    #[arg(long, value_name = "K", default_value_t = 2.0)]
+    setpoint_gap: f64,
+}
+
+fn parse_unit(s: &str) -> Result<ErrorUnit, String> {
+    ErrorUnit::from_name(s).ok_or_else(|| {
+        let names: Vec<&str> = ErrorUnit::ALL.iter().map(|u| u.name()).collect();
+        format!("{s:?} is not an error unit; expected one of: {}", names.join(", "))
+    })
+}
+
+fn parse_cells(s: &str) -> Result<(usize, usize), String> {
+    let bad = || format!("{s:?}: expected two cell counts 1..=400 as NXxNY, e.g. 96x40");
+    let (a, b) = s.split_once(['x', 'X']).ok_or_else(bad)?;
+    let n = |v: &str| v.trim().parse::<usize>().ok().filter(|n| (1..=400).contains(n));
+    Ok((n(a).ok_or_else(bad)?, n(b).ok_or_else(bad)?))
+}
+
+/// Runs the verb.
+pub fn run(args: PlotArgs) -> Result<(), Failure> {
+    if !(args.setpoint_gap.is_finite() && args.setpoint_gap > 0.0) {
+        return Err(Failure::input(format!(
+            "--setpoint-gap {}: expected a positive gap in K",
+            args.setpoint_gap
+        )));
+    }
+    let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
+    let cal = file.calibration;
+    let serial = args.serial.clone().or_else(|| file.unit.clone());
+    let data = chamber_rows(&args.cal, cal.adc.bits, serial.as_deref())?;
+    let who = serial.as_deref().map_or_else(|| "unit".to_string(), |s| format!("unit {s}"));
+    let coeffs_name = args.coeffs.file_name().map_or_else(String::new, |n| n.to_string_lossy().into_owned());
+    let sub = format!("{who}, calibrated {} ({coeffs_name})", utc(file.created_unix_s));
+    let prefix = file_prefix(serial.as_deref());
+
+    // Every chart is drawn before the first file is written.
+    let mut out: Vec<(String, String)> = Vec::new();
+    let vs_x = figures::error_vs_x(&cal, &data, args.setpoint_gap, args.error_unit, &sub);
+    out.push((format!("{prefix}-error-vs-x.svg"), render_lines(&vs_x).map_err(Failure::input)?));
+    if let (Some(r), Some(t)) = (&args.validation, &args.truth) {
+        let points = read_validation(r, t, serial.as_deref(), cal.adc.bits).map_err(Failure::input)?;
+        let fig = figures::error_vs_temperature(&cal, &points, args.bins as usize, args.error_unit, &sub);
+        out.push((format!("{prefix}-error-vs-temperature.svg"), render_lines(&fig).map_err(Failure::input)?));
+    }
+    let (nx, ny) = args.map_cells;
+    let map = figures::f32_error_map(&cal, nx, ny, &sub).map_err(Failure::input)?;
+    out.push((format!("{prefix}-f32-error-map.svg"), render_heat_map(&map).map_err(Failure::input)?));
+
+    std::fs::create_dir_all(&args.out_dir)
+        .map_err(|e| Failure::input(format!("{}: {e}", args.out_dir.display())))?;
+    for (name, svg) in out {
+        let path = args.out_dir.join(name);
+        logtrim_host::output::write_atomic(&path, svg.as_bytes())
+            .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
+        println!("wrote {}", path.display());
+    }
+    Ok(())
+}
+
+/// The chamber rows of one unit as fit data (in a batch file, the rows of `serial`).
+fn chamber_rows(path: &Path, bits: u8, serial: Option<&str>) -> Result<FitData, Failure> {
+    let cal = data::read_calibration_file(path, &ReadOptions { adc_bits: bits, ..ReadOptions::default() })
+        .map_err(Failure::input)?;
+    let keep = match (cal.units.is_empty(), serial) {
+        (true, _) => None,
+        (false, None) => {
+            return Err(Failure::input(format!(
+                "{}: rows of {} units; choose one with --serial SERIAL",
+                path.display(),
+                cal.units.len()
+            )))
+        }
+        (false, Some(s)) => match cal.units.iter().position(|u| u == s) {
+            Some(i) => Some(i as u32),
+            None => {
+                return Err(Failure::input(format!(
+                    "{}: no rows of unit {s:?}; the file has: {}",
+                    path.display(),
+                    cal.units.join(", ")
+                )))
+            }
+        },
+    };
+    let mut d = FitData::default();
+    for r in cal.rows.iter().filter(|r| keep.is_none() || r.unit == keep) {
+        d.code.push(r.code);
+        d.temp_c.push(r.temp_c);
+        d.ratio.push(r.ratio);
+    }
+    Ok(d)
+}

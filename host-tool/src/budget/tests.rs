@@ -1,0 +1,179 @@
+use super::*;
+use crate::frontend::{preset, FrontEnd};
+
+/// An ideal front end in the reference model: ideality 1, no offsets, no bias current, no bulk resistance,
+/// no compensation, an exact converter. Its slope is n·(kT/q)·G: the PTAT law.
+fn ideal_frontend(zero_v: f64) -> FrontEnd {
+    let mut fe = preset("gas-uncompensated").expect("preset");
+    fe.pair.ideality = 1.0;
+    fe.pair.mismatch_v_25c = 0.0;
+    fe.pair.bulk_resistance_ohm = 0.0;
+    fe.amplifiers.input_offset_v = 0.0;
+    fe.amplifiers.input_offset_drift_v_per_k = 0.0;
+    fe.amplifiers.output_offset_v = 0.0;
+    fe.amplifiers.output_offset_drift_v_per_k = 0.0;
+    fe.amplifiers.bias_signal_a_25c = 0.0;
+    fe.amplifiers.bias_reference_a_25c = 0.0;
+    fe.output_stage.r1_tempco_per_k = 0.0;
+    fe.output_stage.level_shift_v = zero_v;
+    fe.adc.gain_error = 0.0;
+    fe.adc.offset_codes = 0.0;
+    fe.validate().expect("a valid front end");
+    fe
+}
+
+/// The budget spec of the same design: its slope at 25 °C and the PTAT law (no slope drift given).
+fn spec_of(fe: &FrontEnd) -> BudgetSpec {
+    let mut s = BudgetSpec::default();
+    s.adc.bits = fe.adc.bits;
+    s.adc.vref_v = fe.adc.vref_v;
+    s.front_end.slope_v_per_decade = LN10 * fe.ideal_slope_v_per_neper(25.0);
+    s.front_end.slope_at_c = 25.0;
+    s.front_end.slope_drift_ppm_per_k = None;
+    s.front_end.zero_v = fe.output_stage.level_shift_v;
+    s.temperature.min_c = fe.operating.temp_min_c;
+    s.temperature.max_c = fe.operating.temp_max_c;
+    s
+}
+
+fn close(got: f64, want: f64, rel: f64) -> bool {
+    (got - want).abs() <= 1e-15 + rel * want.abs()
+}
+
+const POINTS: [(f64, f64); 5] = [(-6.9, -20.0), (-2.0, 0.0), (0.5, 25.0), (3.0, 60.0), (4.6, 85.0)];
+
+#[test]
+fn the_law_is_the_reference_models_ideal_front_end() {
+    let fe = ideal_frontend(2.0);
+    let s = spec_of(&fe);
+    for (x, t) in POINTS {
+        assert!(close(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-12), "x={x} t={t}");
+    }
+}
+
+#[test]
+fn dx_dcode_matches_finite_differences_of_the_reference_model() {
+    let fe = ideal_frontend(2.0);
+    let s = spec_of(&fe);
+    for (x, t) in POINTS {
+        let c = fe.code_exact(x, t);
+        let fd = (fe.invert_code(c + 1.0, t).unwrap() - fe.invert_code(c - 1.0, t).unwrap()) / 2.0;
+        assert!(close(s.dx_dcode(t), fd, 1e-8), "x={x} t={t}: {} vs {fd}", s.dx_dcode(t));
+    }
+}
+
+#[test]
+fn dx_dt_matches_finite_differences_of_the_reference_model() {
+    let fe = ideal_frontend(2.0);
+    let s = spec_of(&fe);
+    let h = 0.01;
+    for (x, t) in POINTS {
+        let c = fe.code_exact(x, t);
+        let fd = (fe.invert_code(c, t + h).unwrap() - fe.invert_code(c, t - h).unwrap()) / (2.0 * h);
+        assert!(close(s.dx_dt(x, t), fd, 1e-6), "x={x} t={t}: {} vs {fd}", s.dx_dt(x, t));
+        // Common practice: an uncompensated slope drifts +1/T, so ∂x/∂T = −x/T_K.
+        assert!(close(fd, -x / (t + 273.15), 1e-6));
+    }
+}
+
+#[test]
+fn reference_error_matches_the_reference_model_with_a_gain_error() {
+    for ratiometric in [false, true] {
+        let fe = ideal_frontend(2.0);
+        let mut s = spec_of(&fe);
+        s.reference.ratiometric_level_shift = ratiometric;
+        let delta = 2e-3;
+        // A reference high by δ: every code is 1/(1 + δ) of nominal, the converter's gain error in the model;
+        // a ratiometric level shift rises with the reference.
+        let mut off = fe.clone();
+        off.adc.gain_error = 1.0 / (1.0 + delta) - 1.0;
+        if ratiometric {
+            off.output_stage.level_shift_v *= 1.0 + delta;
+        }
+        for (x, t) in POINTS {
+            let read = fe.invert_code(off.code_exact(x, t), t).unwrap();
+            let want = read - x;
+            let got = s.reference_error(x, t, delta);
+            assert!(close(got, want, 1e-7), "ratiometric {ratiometric}, x={x} t={t}: {got} vs {want}");
+        }
+    }
+}
+
+/// A design with round figures, worked by hand:
+/// LSB = 4.096 V / 2^16 = 62.5 µV; S_ref = 0.25 V/Np at 25 °C with +2000 ppm/K, so S = 0.25 V/Np at 25 °C
+/// and 0.275 at 75 °C; ∂x/∂code ≤ 62.5e-6/0.25 = 2.5e-4 Np/LSB; x from −4 to 2, |∂x/∂T| ≤ 4 × 0.002 = 0.008
+/// Np/K (at 25 °C).
+fn round_design() -> BudgetSpec {
+    BudgetSpec {
+        note: "round figures, worked by hand".into(),
+        adc: AdcSpec { bits: 16, vref_v: 4.096, noise_lsb_rms: 0.3, oversampling: 9 },
+        reference: ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 20.0, ratiometric_level_shift: false },
+        front_end: FrontEndSpec {
+            slope_v_per_decade: 0.25 * LN10,
+            slope_at_c: 25.0,
+            slope_drift_ppm_per_k: Some(2000.0),
+            zero_v: 1.0,
+            ratio_min: (-4.0f64).exp(),
+            ratio_max: 2.0f64.exp(),
+        },
+        temperature: TemperatureSpec {
+            min_c: 25.0,
+            max_c: 75.0,
+            calibration_c: None,
+            sensor_accuracy_k: 0.5,
+            sensor_noise_k_rms: 0.1,
+            readings_averaged: 4,
+        },
+        arithmetic: ArithmeticSpec { error_lsb: 0.2 },
+    }
+}
+
+#[test]
+fn rss_and_worst_case_match_hand_computed_values() {
+    let b = round_design().compute().unwrap();
+    let np: Vec<f64> = b.contributions.iter().map(|c| c.size.np).collect();
+    // By hand: quantisation 2.5e-4/√12 (noise 0.3 LSB does not dither: not averaged); noise 0.3/√9 LSB;
+    // arithmetic 0.2 LSB; sensor 0.5 K × 0.008; sensor noise 0.1/√4 K × 0.008; reference drift
+    // 20 ppm/K × 25 K = 5e-4 at V/S = 1/0.25 + 2 = 6 Np: 6 × 5e-4/(1 + 5e-4).
+    let want = [7.216_878_364_870_324e-5, 2.5e-5, 5e-5, 4e-3, 4e-4, 2.998_500_749_625_187_7e-3];
+    assert_eq!(np.len(), want.len());
+    for (k, (g, w)) in np.iter().zip(want).enumerate() {
+        assert!(close(*g, w, 1e-9), "contribution {k} ({}): {g} vs {w}", b.contributions[k].name);
+    }
+    // √(Σ squares) and the linear sum, computed by hand from the figures above.
+    assert!(close(b.rss.np, 5.015_908_699_212_551e-3, 1e-9), "{}", b.rss.np);
+    assert!(close(b.worst_case.np, 7.545_669_533_273_891e-3, 1e-9), "{}", b.worst_case.np);
+    // Units: 1 Np = 20/ln 10 dB for amplitude ratios, half that for power (ISO 80000-3).
+    assert!(close(b.rss.db_20log10, b.rss.np * 8.685_889_638, 1e-9));
+    assert!(close(b.rss.db_10log10, b.rss.np * 4.342_944_819, 1e-9));
+    assert!(close(b.rss.pct_of_ratio, 100.0 * (b.rss.np.exp() - 1.0), 1e-12));
+    // The tolerance is removed by calibration, listed at its uncorrected size: 6 × 1e-3/(1 + 1e-3).
+    assert!(close(b.removed_by_calibration[0].size.np, 5.994_005_994_005_995e-3, 1e-9));
+}
+
+#[test]
+fn oversampling_averages_quantisation_only_when_noise_dithers() {
+    let mut s = round_design();
+    s.adc.noise_lsb_rms = 0.6;
+    let b = s.compute().unwrap();
+    // Quantisation LSB/√12 over √9 (dithered), ADC noise 0.6/√9 LSB.
+    assert!(close(b.contributions[0].lsb.unwrap(), 1.0 / 12f64.sqrt() / 3.0, 1e-12));
+    assert!(close(b.contributions[1].lsb.unwrap(), 0.2, 1e-12));
+}
+
+#[test]
+fn bad_figures_are_named() {
+    let mut s = round_design();
+    s.adc.bits = 0;
+    let e = s.compute().unwrap_err().to_string();
+    assert_eq!(e, "adc.bits = 0: expected 1..=24 bits");
+    let mut s = round_design();
+    s.front_end.slope_drift_ppm_per_k = Some(-30_000.0);
+    assert!(s.compute().unwrap_err().to_string().starts_with("front_end.slope_drift_ppm_per_k = -30000"));
+    let e = BudgetSpec::from_json("{\"adc\": {\"bitz\": 12}}", "d.json").unwrap_err().to_string();
+    assert!(e.starts_with("d.json: line 1, column"), "{e}");
+    assert!(e.contains("bitz"), "{e}");
+    let s = BudgetSpec::from_json("{\"adc\": {\"bits\": 12}}", "d.json").unwrap();
+    assert_eq!(s.adc.bits, 12);
+    assert_eq!(s.adc.vref_v, AdcSpec::default().vref_v, "missing figures take their defaults");
+}

@@ -1,0 +1,353 @@
+//! The charts of one calibrated unit, built from its calibration and its data into the plain figures of
+//! [`super`]:
+//!
+//! | figure | what it shows |
+//! |---|---|
+//! | [`error_vs_x`] | the error in x against x at each chamber set-point, before and after correction |
+//! | [`error_vs_temperature`] | rms and max error per temperature bin over a validation run, before and after |
+//! | [`f32_error_map`] | the f32 correction's error against the f64 reference over (ADC code, temperature), in LSB |
+//!
+//! Corrections are made with firmware-lib's f32 [`Calibration::correct`], the code the MCU runs.
+//!
+//! # "Before correction"
+//!
+//! Before correction a unit would be read with its nominal equation ([`nominal_of`]): the ideal law
+//! `x = (code − L₀) / (S₀ · T_K/T_ref)` ([`Calibration::nominal`]), a slope proportional to absolute
+//! temperature as kT/q gives, with no offset drift and no bends. `L₀` and `S₀` are the calibration's own
+//! zero code and slope at its reference temperature T_ref: the code its model (without the bias-current,
+//! bulk-resistance and residual terms) gives at ratio 1 and at ratio e, at T_ref. A fitted calibration's
+//! raw `level_shift_code` is only a normalisation (the median code of its data), so the zero is taken from
+//! the model rather than from that field. The "before" error is therefore what a one-point trim at T_ref
+//! leaves: offset drift, the compensation's residual slope drift, and the bends at either end.
+
+use std::collections::BTreeMap;
+
+use logtrim::calibration::{BiasTerm, Residual, Series};
+use logtrim::Calibration;
+
+use super::validation::ValidationPoint;
+use super::{Axis, ColourScale, Grid, HeatMap, LineFigure, Panel, PlotError, Style};
+use crate::fit::FitData;
+
+/// The unit in which an error in x is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ErrorUnit {
+    /// Nepers.
+    Np,
+    /// Millinepers.
+    #[default]
+    MilliNp,
+    /// Decibels for power-like ratios, 10·log10.
+    DbPower,
+    /// Decibels for amplitude-like ratios, 20·log10.
+    DbAmplitude,
+    /// Per cent of the ratio: `100·(e^error − 1)`.
+    PercentOfRatio,
+}
+
+impl ErrorUnit {
+    /// Every unit, in the order of [`ErrorUnit::name`]'s documentation.
+    pub const ALL: [ErrorUnit; 5] = [
+        ErrorUnit::Np,
+        ErrorUnit::MilliNp,
+        ErrorUnit::DbPower,
+        ErrorUnit::DbAmplitude,
+        ErrorUnit::PercentOfRatio,
+    ];
+
+    /// The short name used on the command line: `np`, `mnp`, `db10`, `db20`, `pct`.
+    pub fn name(self) -> &'static str {
+        match self {
+            ErrorUnit::Np => "np",
+            ErrorUnit::MilliNp => "mnp",
+            ErrorUnit::DbPower => "db10",
+            ErrorUnit::DbAmplitude => "db20",
+            ErrorUnit::PercentOfRatio => "pct",
+        }
+    }
+
+    /// Parses a name given by [`ErrorUnit::name`].
+    pub fn from_name(s: &str) -> Option<ErrorUnit> {
+        ErrorUnit::ALL.into_iter().find(|u| u.name().eq_ignore_ascii_case(s))
+    }
+
+    /// The unit as written on an axis.
+    pub fn label(self) -> &'static str {
+        match self {
+            ErrorUnit::Np => "Np",
+            ErrorUnit::MilliNp => "mNp",
+            ErrorUnit::DbPower => "dB, 10·log10",
+            ErrorUnit::DbAmplitude => "dB, 20·log10",
+            ErrorUnit::PercentOfRatio => "% of ratio",
+        }
+    }
+
+    /// An error in x (nepers) in this unit.
+    pub fn of_np(self, e: f64) -> f64 {
+        match self {
+            ErrorUnit::Np => e,
+            ErrorUnit::MilliNp => 1e3 * e,
+            ErrorUnit::DbPower => 10.0 * std::f64::consts::LOG10_E * e,
+            ErrorUnit::DbAmplitude => 20.0 * std::f64::consts::LOG10_E * e,
+            ErrorUnit::PercentOfRatio => 100.0 * e.exp_m1(),
+        }
+    }
+}
+
+/// The nominal equation of a unit (see the module docs): PTAT slope and zero code from the calibration at
+/// its reference temperature, nothing else.
+pub fn nominal_of(cal: &Calibration) -> Calibration {
+    let mut plain = *cal;
+    plain.model.bias = BiasTerm::OFF;
+    plain.model.bulk = Series::ZERO;
+    plain.model.residual = Residual::OFF;
+    let t_ref_c = f64::from(cal.model.t_ref_k) - logtrim::physics::ZERO_CELSIUS_K;
+    let zero = plain.forward_code_f64(0.0, t_ref_c);
+    let slope = plain.forward_code_f64(1.0, t_ref_c) - zero;
+    Calibration::nominal(cal.adc.bits, zero as f32, slope as f32, t_ref_c as f32)
+}
+
+/// The error in x of the f32 correction of one reading, or `None` where the firmware refuses it.
+fn error_of(cal: &Calibration, code: u32, temp_c: f64, x_true: f64) -> Option<f64> {
+    cal.correct(code, temp_c as f32).ok().map(|r| f64::from(r.x) - x_true)
+}
+
+/// The error in x against x at each chamber set-point, before (nominal equation) and after correction.
+///
+/// Rows are grouped into set-points as the fit groups them (a gap above `gap_k` starts a new one); each
+/// point is the mean error over the repeats at one applied ratio. Readings the firmware refuses are left
+/// out and counted in the panel's caption.
+pub fn error_vs_x(
+    cal: &Calibration,
+    data: &FitData,
+    gap_k: f64,
+    unit: ErrorUnit,
+    subtitle: &str,
+) -> LineFigure {
+    let nominal = nominal_of(cal);
+    let groups = crate::fit::setpoints(&data.temp_c, gap_k);
+    let mut panels = Vec::new();
+    for (which, c) in [("before correction (nominal equation)", &nominal), ("after correction", cal)] {
+        let mut refused = 0usize;
+        let mut series = Vec::new();
+        for g in &groups {
+            let mean_t = g.iter().map(|&i| data.temp_c[i]).sum::<f64>() / g.len().max(1) as f64;
+            let mut by_ratio: BTreeMap<u64, (f64, f64, usize)> = BTreeMap::new();
+            for &i in g {
+                let x = data.ratio[i].ln();
+                match error_of(c, data.code[i], data.temp_c[i], x) {
+                    Some(e) => {
+                        // Keyed by x's bits mapped to an order-preserving integer, so the line runs in x.
+                        let slot = by_ratio.entry(order_key(x)).or_insert((x, 0.0, 0));
+                        slot.1 += e;
+                        slot.2 += 1;
+                    }
+                    None => refused += 1,
+                }
+            }
+            let points = by_ratio.values().map(|&(x, sum, n)| (x, unit.of_np(sum / n as f64))).collect();
+            series.push(super::Series {
+                label: format!("{mean_t:.1} °C"),
+                points,
+                style: Style::LineAndMarkers,
+            });
+        }
+        let title = refused_title(which, refused);
+        panels.push(Panel {
+            title,
+            x_label: "x = ln(I_sig/I_ref) [Np]".into(),
+            y_label: format!("error in x [{}]", unit.label()),
+            series,
+        });
+    }
+    LineFigure {
+        title: "Error in x against x, per chamber set-point".into(),
+        subtitle: subtitle.to_string(),
+        panels,
+        size: (1200, 560),
+    }
+}
+
+/// A panel's caption with the count of refused readings, if any.
+fn refused_title(which: &str, refused: usize) -> String {
+    match refused {
+        0 => which.to_string(),
+        1 => format!("{which}: 1 reading refused"),
+        n => format!("{which}: {n} readings refused"),
+    }
+}
+
+/// A u64 whose order is the order of the f64 (for finite values).
+fn order_key(v: f64) -> u64 {
+    let b = v.to_bits();
+    if b >> 63 == 1 {
+        !b
+    } else {
+        b | (1 << 63)
+    }
+}
+
+/// The rms and max |error| per bin of the unit's true temperature over a validation run, before (nominal
+/// equation) and after correction; after correction with the oracle's rms (the irreducible error of the
+/// readings) for comparison, when the truth has it. Bins are `bins` equal slices of the run's range of
+/// true temperature; an empty bin breaks the lines.
+pub fn error_vs_temperature(
+    cal: &Calibration,
+    points: &[ValidationPoint],
+    bins: usize,
+    unit: ErrorUnit,
+    subtitle: &str,
+) -> LineFigure {
+    let bins = bins.max(1);
+    let (t0, t1) = points
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.t_true_c), b.max(p.t_true_c)));
+    let width = if t1 > t0 { (t1 - t0) / bins as f64 } else { 1.0 };
+    let bin_of = |t: f64| (((t - t0) / width) as usize).min(bins - 1);
+    let centre = |k: usize| t0 + (k as f64 + 0.5) * width;
+    let nominal = nominal_of(cal);
+    let mut panels = Vec::new();
+    for (which, c, with_oracle) in
+        [("before correction (nominal equation)", &nominal, false), ("after correction", cal, true)]
+    {
+        let mut acc = vec![(0.0f64, 0.0f64, 0usize); bins];
+        let mut oracle = vec![(0.0f64, 0usize); bins];
+        let mut refused = 0usize;
+        for p in points {
+            let k = bin_of(p.t_true_c);
+            match error_of(c, p.code, p.temp_c, p.x_true) {
+                Some(e) => {
+                    acc[k].0 += e * e;
+                    acc[k].1 = acc[k].1.max(e.abs());
+                    acc[k].2 += 1;
+                }
+                None => refused += 1,
+            }
+            if let Some(xo) = p.x_oracle {
+                oracle[k].0 += (xo - p.x_true).powi(2);
+                oracle[k].1 += 1;
+            }
+        }
+        let line = |f: &dyn Fn(usize) -> f64| (0..bins).map(|k| (centre(k), f(k))).collect::<Vec<_>>();
+        let rms =
+            |k: usize| if acc[k].2 > 0 { unit.of_np((acc[k].0 / acc[k].2 as f64).sqrt()) } else { f64::NAN };
+        let max = |k: usize| if acc[k].2 > 0 { unit.of_np(acc[k].1) } else { f64::NAN };
+        let mut series = vec![
+            super::Series { label: "rms error".into(), points: line(&rms), style: Style::LineAndMarkers },
+            super::Series { label: "max |error|".into(), points: line(&max), style: Style::LineAndMarkers },
+        ];
+        if with_oracle && oracle.iter().any(|o| o.1 > 0) {
+            let orms = |k: usize| {
+                if oracle[k].1 > 0 {
+                    unit.of_np((oracle[k].0 / oracle[k].1 as f64).sqrt())
+                } else {
+                    f64::NAN
+                }
+            };
+            series.push(super::Series {
+                label: "oracle rms (irreducible)".into(),
+                points: line(&orms),
+                style: Style::Dashed,
+            });
+        }
+        let title = refused_title(which, refused);
+        panels.push(Panel {
+            title,
+            x_label: "unit's true temperature [°C]".into(),
+            y_label: format!("error in x [{}]", unit.label()),
+            series,
+        });
+    }
+    LineFigure {
+        title: "Error against temperature over the validation run".into(),
+        subtitle: subtitle.to_string(),
+        panels,
+        size: (1200, 540),
+    }
+}
+
+/// The error of the f32 correction ([`Calibration::correct`]) against the f64 reference
+/// ([`Calibration::correct_f64`]) at the same code and the same (f32) temperature, in LSB (the x error over
+/// ∂x/∂code), over `nx × ny` cells of (ADC code, temperature). The temperature axis is the calibrated
+/// range; the code axis spans the codes of the calibrated x range at every temperature, with a 4 % margin
+/// so the refused edges show. A cell the firmware refuses has no value.
+pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) -> Result<HeatMap, PlotError> {
+    let t = &cal.temperature;
+    let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
+    let (mut c0, mut c1) = (f64::INFINITY, f64::NEG_INFINITY);
+    for k in 0..=8 {
+        let tc = tmin + (tmax - tmin) * f64::from(k) / 8.0;
+        for x in [cal.x_range.min, cal.x_range.max] {
+            let c = cal.forward_code_f64(f64::from(x), tc);
+            if c.is_finite() {
+                c0 = c0.min(c);
+                c1 = c1.max(c);
+            }
+        }
+    }
+    let max_code = f64::from(cal.adc.max_code().unwrap_or(1));
+    let (c0, c1) = if c1 > c0 { super::padded(c0, c1, 0.04) } else { (0.0, max_code) };
+    let (c0, c1) = (c0.max(0.0), c1.min(max_code));
+    let grid = Grid::from_fn(
+        Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
+        Axis { label: "temperature [°C]".into(), min: tmin, max: tmax },
+        nx,
+        ny,
+        |code, temp| {
+            let code = code.round() as u32;
+            let t32 = temp as f32;
+            match (cal.correct(code, t32), cal.correct_f64(f64::from(code), f64::from(t32))) {
+                (Ok(a), Ok(b)) if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 => {
+                    (f64::from(a.x) - b.x) / b.dx_dcode
+                }
+                _ => f64::NAN,
+            }
+        },
+    )?;
+    Ok(HeatMap {
+        title: "f32 correction against the f64 reference".into(),
+        subtitle: subtitle.to_string(),
+        grid,
+        value_label: "error of f32 [LSB]".into(),
+        scale: ColourScale::Diverging,
+        no_value_label: "refused by the firmware (out of range)".into(),
+        size: (1000, 620),
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn error_units() {
+        // ISO 80000-3: 1 Np = 20/ln 10 dB = 8.685889638 dB for amplitude ratios; half that for power.
+        assert!((ErrorUnit::DbAmplitude.of_np(1.0) - 8.685_889_638).abs() < 1e-9);
+        assert!((ErrorUnit::DbPower.of_np(1.0) - 4.342_944_819).abs() < 1e-9);
+        // A ratio error of e^0.01 − 1 = 1.005017 % (exp from std, an independent reference library).
+        assert!((ErrorUnit::PercentOfRatio.of_np(0.01) - 100.0 * (0.01f64.exp() - 1.0)).abs() < 1e-12);
+        for u in ErrorUnit::ALL {
+            assert_eq!(ErrorUnit::from_name(u.name()), Some(u));
+        }
+    }
+
+    #[test]
+    fn order_key_orders_like_f64() {
+        let v = [-3.5, -1e-9, 0.0, 1e-9, 2.0, 7.25];
+        for w in v.windows(2) {
+            assert!(order_key(w[0]) < order_key(w[1]), "{w:?}");
+        }
+    }
+
+    #[test]
+    fn nominal_reads_an_ideal_ptat_unit_exactly() {
+        // An ideal unit (PTAT slope, constant zero): its nominal equation is itself, so "before" is exact.
+        let ideal = Calibration::nominal(16, 30000.0, 2000.0, 25.0);
+        let n = nominal_of(&ideal);
+        for (x, t) in [(-4.0, 0.0), (0.0, 25.0), (3.0, 70.0)] {
+            let code = ideal.forward_code_f64(x, t);
+            let got = n.correct_f64(code, t).unwrap().x;
+            assert!((got - x).abs() < 1e-4, "x={x} t={t}: {got}");
+        }
+    }
+}

@@ -1,0 +1,159 @@
+//! `logtrim plot` and `logtrim budget` end to end: files written, exit codes, errors on bad input.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use logtrim_host::calfile::CalFile;
+use logtrim_host::fit::{self, FitData, FitOptions};
+use logtrim_host::frontend::{preset, MeasuredTemperature};
+use logtrim_host::simulate::{self, ChamberPlan, Plan};
+
+fn logtrim(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("logtrim-cli-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    d
+}
+
+/// A simulated unit's files and its calibration, fitted with a fixed model (quick).
+fn unit_files(dir: &Path) -> PathBuf {
+    let fe = preset("photometer-compensated").unwrap();
+    let plan = Plan {
+        seed: 11,
+        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 },
+        validation_count: 400,
+        units: 1,
+    };
+    let sim = simulate::simulate(&fe, &plan).unwrap();
+    sim.write_to(dir).unwrap();
+    let mut d = FitData::default();
+    for r in &sim.chamber {
+        let MeasuredTemperature::Celsius(t) = r.temperature else { panic!("the preset reads °C") };
+        d.code.push(r.code);
+        d.temp_c.push(t);
+        d.ratio.push(r.ratio);
+    }
+    let spec = fit::model::Spec {
+        offset_terms: 3,
+        slope_terms: 2,
+        bulk_terms: 1,
+        pole: true,
+        bias: true,
+        residual_x: 0,
+        residual_t: 0,
+    };
+    let out = fit::fit(&d, &FitOptions { spec: Some(spec), ..FitOptions::default() }).unwrap();
+    let coeffs = dir.join("COEFFS.json");
+    CalFile::new(out.calibration, Some("PH-0042".into())).save(&coeffs).unwrap();
+    coeffs
+}
+
+#[test]
+fn plot_writes_three_well_formed_charts() {
+    let d = scratch("plot");
+    let coeffs = unit_files(&d);
+    let out = d.join("charts");
+    let s = |p: &Path| p.to_str().unwrap().to_string();
+    let (code, stdout, stderr) = logtrim(&[
+        "plot",
+        &s(&coeffs),
+        &s(&d.join("cal.csv")),
+        "--validation",
+        &s(&d.join("readings.csv")),
+        "--truth",
+        &s(&d.join("truth.csv")),
+        "-o",
+        &s(&out),
+        "--map-cells",
+        "32x10",
+    ]);
+    assert_eq!(code, 0, "{stdout}{stderr}");
+    for name in ["PH-0042-error-vs-x.svg", "PH-0042-error-vs-temperature.svg", "PH-0042-f32-error-map.svg"] {
+        let svg = std::fs::read_to_string(out.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
+        roxmltree::Document::parse(&svg).unwrap_or_else(|e| panic!("{name}: {e}"));
+        assert!(stdout.contains(name), "{stdout}");
+    }
+    assert_eq!(std::fs::read_dir(&out).unwrap().count(), 3, "nothing else, no temporary files");
+
+    // A truth file that lacks a reading: exit 2, the file and the id named, and no chart written.
+    let truth = std::fs::read_to_string(d.join("truth.csv")).unwrap();
+    let short: String = truth.lines().take(10).map(|l| format!("{l}\n")).collect();
+    std::fs::write(d.join("short.csv"), short).unwrap();
+    let out2 = d.join("charts2");
+    let (code, _, stderr) = logtrim(&[
+        "plot",
+        &s(&coeffs),
+        &s(&d.join("cal.csv")),
+        "--validation",
+        &s(&d.join("readings.csv")),
+        "--truth",
+        &s(&d.join("short.csv")),
+        "-o",
+        &s(&out2),
+    ]);
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("reading id 10 has no row in") && stderr.contains("short.csv"), "{stderr}");
+    assert!(!out2.exists(), "no half-written output");
+
+    // --validation without --truth is a usage error.
+    let (code, _, stderr) =
+        logtrim(&["plot", &s(&coeffs), &s(&d.join("cal.csv")), "--validation", "r.csv", "-o", &s(&out2)]);
+    assert_eq!(code, 2, "{stderr}");
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
+fn budget_json_adds_up_and_bad_files_are_located() {
+    let (code, stdout, stderr) = logtrim(&["budget", "--json", "--bits", "14", "--oversampling", "4"]);
+    assert_eq!(code, 0, "{stderr}");
+    let v: serde_json::Value = serde_json::from_str(&stdout).unwrap();
+    assert_eq!(v["spec"]["adc"]["bits"], 14);
+    assert!(v["generator"].as_str().unwrap().starts_with("logtrim "));
+    let np: Vec<f64> =
+        v["contributions"].as_array().unwrap().iter().map(|c| c["size"]["np"].as_f64().unwrap()).collect();
+    assert_eq!(np.len(), 6);
+    let rss = np.iter().map(|x| x * x).sum::<f64>().sqrt();
+    assert!((v["rss"]["np"].as_f64().unwrap() - rss).abs() <= 1e-12 * rss);
+    let sum: f64 = np.iter().sum();
+    assert!((v["worst_case"]["np"].as_f64().unwrap() - sum).abs() <= 1e-12 * sum);
+
+    let d = scratch("budget");
+    let spec = d.join("design.json");
+    let (code, _, stderr) = logtrim(&["budget", "--write-spec", spec.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(std::fs::read_to_string(&spec).unwrap().contains("generated by logtrim"));
+    let (code, table, _) = logtrim(&["budget", spec.to_str().unwrap()]);
+    assert_eq!(code, 0);
+    for want in [
+        "quantisation",
+        "ADC noise (N = 16)",
+        "reference drift",
+        "root-sum-square",
+        "worst case (linear sum)",
+        "[dB 10·log10]",
+        "[dB 20·log10]",
+        "[% ratio]",
+    ] {
+        assert!(table.contains(want), "{want:?} missing:\n{table}");
+    }
+    std::fs::write(&spec, "{\n  \"adc\": { \"bits\": \"sixteen\" }\n}\n").unwrap();
+    let (code, _, stderr) = logtrim(&["budget", spec.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("design.json: line 2"), "{stderr}");
+    let (code, _, stderr) = logtrim(&["budget", "--t-min", "80", "--t-max", "20"]);
+    assert_eq!(code, 2);
+    assert!(
+        stderr.contains("temperature.max_c = 20: expected a temperature above temperature.min_c"),
+        "{stderr}"
+    );
+    std::fs::remove_dir_all(&d).unwrap();
+}
