@@ -529,7 +529,7 @@ pub fn render_report(out: &FitOutcome) -> String {
         for r in &out.cv {
             let _ = writeln!(
                 s,
-                "  {} {:<44} rms {:.3e} Np  max {:.3e} Np  ({} folds)",
+                "  {} {:<52} rms {:.3e} Np  max {:.3e} Np  ({} folds)",
                 if r.chosen { "*" } else { " " },
                 r.spec.describe(),
                 r.rms,
