@@ -23,8 +23,14 @@ fn check(name: &str, plan: Plan) {
         let ours = logtrim_errors(&out.calibration, &val);
         let v = versus_oracle(&ours, &val);
         let refused = ours.iter().filter(|e| e.is_none()).count();
-        let label = format!("{name} seed {} unit {unit}: rms {:.2}x max {:.2}x over {} readings, {refused} refused, model {}",
-            plan.seed, v.rms_ratio, v.max_ratio, v.count, out.chosen.to_arg());
+        let label = format!(
+            "{name} seed {} unit {unit}: rms {:.2}x max {:.2}x over {} readings, {refused} refused, model {}",
+            plan.seed,
+            v.rms_ratio,
+            v.max_ratio,
+            v.count,
+            out.chosen.to_arg()
+        );
         eprintln!("{label}");
         assert!(v.count as f64 >= 0.98 * val.len() as f64, "too few readings compared: {label}");
         assert!(v.rms_ratio <= RMS_BOUND, "{label}");
