@@ -17,6 +17,7 @@
 //! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
 //! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
+//! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
@@ -29,6 +30,7 @@ pub mod fit;
 pub mod frontend;
 pub mod image_file;
 pub mod output;
+pub mod sensor_tool;
 pub mod simulate;
 
 pub use logtrim;

@@ -12,6 +12,7 @@ mod demo;
 mod fit;
 mod image;
 mod inspect;
+mod sensor;
 mod simulate;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -39,6 +40,9 @@ enum Command {
     Image(image::Args),
     /// Decode and check a calibration image file (binary or Intel HEX) and print it; exit 1 if it is bad.
     Inspect(inspect::Args),
+    /// Temperature channels from a data sheet: thermistor coefficients from points, R–T tables with the
+    /// divider's codes, and the settings file that `fit --sensor` reads.
+    Sensor(sensor::SensorArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -83,6 +87,7 @@ fn main() -> ExitCode {
         Command::Apply(args) => apply::run(args),
         Command::Image(args) => image::run(args),
         Command::Inspect(args) => inspect::run(args),
+        Command::Sensor(args) => sensor::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
