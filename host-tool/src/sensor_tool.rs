@@ -726,9 +726,10 @@ pub struct TableSpec {
 pub struct CodeColumns {
     /// The exact (fractional, noise-free) code.
     pub exact: f64,
-    /// The code rounded, as the converter gives it (clamped to its range).
+    /// The code rounded, as the converter gives it (saturated at its top code).
     pub code: u32,
-    /// What the firmware's f32 conversion makes of that code, or why it refuses it.
+    /// What the firmware's f32 conversion makes of that code, or why it refuses it
+    /// ([`logtrim::Error::CodeOutOfAdcRange`] where the exact code lies beyond the converter).
     pub firmware_c: Result<f32, logtrim::Error>,
     /// The temperature step of one code there, K.
     pub k_per_code: f64,
@@ -830,10 +831,16 @@ fn code_columns(
     let rejected = |error| SensorToolError::Rejected { what: format!("{t} °C"), error };
     let exact = d.code_f64(ohm).map_err(rejected)?;
     let max = d.max_code().map_err(rejected)?;
-    let code = if exact <= 0.0 { 0 } else { exact.round().min(f64::from(max)) as u32 };
-    let firmware_c = match channel {
-        Channel::Sensor(s) => s.celsius(code),
-        _ => d.resistance(code).and_then(|r| element.celsius(r)),
+    let rounded = exact.round().max(0.0);
+    let code = rounded.min(f64::from(max)) as u32;
+    let firmware_c = if rounded > f64::from(max) {
+        // The converter saturates at its top code: say so rather than convert the clipped code.
+        Err(logtrim::Error::CodeOutOfAdcRange { code: rounded.min(f64::from(u32::MAX)) as u32, max })
+    } else {
+        match channel {
+            Channel::Sensor(s) => s.celsius(code),
+            _ => d.resistance(code).and_then(|r| element.celsius(r)),
+        }
     };
     // Codes per kelvin by a central difference of the same forward chain (one-sided at a model's edge).
     let h = 1e-3;

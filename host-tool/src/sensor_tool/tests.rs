@@ -141,6 +141,16 @@ fn table_codes_follow_the_divider_equation_and_read_back() {
     // Finest near R = R_s (25 °C), coarser at the ends.
     let at = |t: f64| rows.iter().find(|r| r.celsius == t).unwrap().code.unwrap().k_per_code;
     assert!(at(25.0) < at(-40.0) && at(25.0) < at(125.0));
+    // A divider supply above the ADC's reference (full scale 5000 codes of a 12-bit converter): the cold
+    // end lies beyond the converter, and the table says so instead of converting the clipped code.
+    let over = Divider { full_scale_code: 5000, ..divider };
+    let rows_over =
+        table(Channel::Divided(&element, &over), &TableSpec { from_c: -40.0, to_c: 0.0, step_k: 40.0 })
+            .unwrap();
+    let cold = rows_over[0].code.unwrap();
+    assert!(cold.exact > 4095.5 && cold.code == 4095, "{cold:?}");
+    assert!(matches!(cold.firmware_c, Err(logtrim::Error::CodeOutOfAdcRange { max: 4095, .. })), "{cold:?}");
+    assert!(rows_over[1].code.unwrap().firmware_c.is_ok());
     // A 10 kΩ NTC against 10 kΩ reads half scale at 25 °C (common practice for NTC dividers).
     assert!(within(rows.iter().find(|r| r.celsius == 25.0).unwrap().code.unwrap().exact, 2048.0, 1e-9, 0.0));
 }
