@@ -72,8 +72,8 @@ pub enum DemoError {
     /// The fit refused the simulated data.
     #[error(transparent)]
     Fit(#[from] FitError),
-    /// The simulated front end reads its temperature as a raw code, which the demo does not convert.
-    #[error("the demo needs a front end with a digital temperature sensor (temp_c)")]
+    /// A chamber reading's temperature is a raw code that the front end's channel did not convert to °C.
+    #[error("a chamber reading's temperature is a raw code that the channel's description does not convert to °C (a sensor fault, or outside its valid range)")]
     RawTemperature,
 }
 
@@ -186,15 +186,25 @@ pub fn versus_oracle(ours: &[Option<f64>], rows: &[ValidationRow]) -> VersusOrac
 /// Runs the demo on one front end (unit 0 of the simulation).
 pub fn run(fe: &FrontEnd, plan: &Plan, fit_options: &FitOptions) -> Result<DemoOutcome, DemoError> {
     let simulation = simulate(fe, plan)?;
-    let data = fit_data(&simulation.chamber, 0)?;
+    // Every method sees the temperature as the firmware reads it: a raw channel's code converted by the
+    // channel's nominal description (a code it refuses stays a code, and is refused by every method).
+    let read = |t: MeasuredTemperature| fe.firmware_celsius(t).map_or(t, MeasuredTemperature::Celsius);
+    let chamber: Vec<ChamberRow> =
+        simulation.chamber.iter().map(|r| ChamberRow { temperature: read(r.temperature), ..*r }).collect();
+    let data = fit_data(&chamber, 0)?;
     let fit = fit(&data, fit_options)?;
-    let val: Vec<ValidationRow> = simulation.validation.iter().filter(|r| r.unit == 0).cloned().collect();
+    let val: Vec<ValidationRow> = simulation
+        .validation
+        .iter()
+        .filter(|r| r.unit == 0)
+        .map(|r| ValidationRow { temperature: read(r.temperature), ..*r })
+        .collect();
     let design = &simulation.nominal;
     let nominal: Vec<Option<f64>> = val
         .iter()
         .map(|r| celsius(r.temperature).ok().map(|t| nominal_x(design, r.code, t) - r.x_true))
         .collect();
-    let two = TwoPoint::from_chamber(&simulation.chamber, 0);
+    let two = TwoPoint::from_chamber(&chamber, 0);
     let two_point: Vec<Option<f64>> = val
         .iter()
         .map(|r| {

@@ -20,6 +20,7 @@
 //! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
 //! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
 //! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
+//! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
@@ -35,6 +36,7 @@ pub mod image_file;
 pub mod output;
 pub mod plot;
 pub mod report;
+pub mod sensor_tool;
 pub mod simulate;
 
 pub use logtrim;

@@ -16,7 +16,7 @@
 //! | file | columns / contents |
 //! |---|---|
 //! | `cal.csv` | `code,temp_c,ratio` (`unit,` first for a batch; `temp_code` for a raw temperature channel) |
-//! | `readings.csv` | `id,code,temp_c` (`id,unit,code,temp_c` for a batch) |
+//! | `readings.csv` | `id,code,temp_c` (`id,unit,code,temp_c` for a batch; `temp_code` for a raw channel) |
 //! | `truth.csv` | `id,ratio,x_true,t_true_c,x_oracle` (`id,unit,…` for a batch; `x_oracle` empty where undefined) |
 //! | `frontend.json` | the front end simulated (the nominal one, with its spread, for a batch) |
 //! | `units.json` | a batch only: every unit's drawn front end, by serial |
@@ -371,7 +371,7 @@ impl Simulation {
         self.chamber.first().map_or("temp_c", |r| r.temperature.column())
     }
 
-    /// `cal.csv`: `[unit,]code,temp_c,ratio`.
+    /// `cal.csv`: `[unit,]code,temp_c,ratio` (`temp_code` instead of `temp_c` for a raw temperature channel).
     pub fn cal_csv(&self) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
         let mut head = Vec::new();
@@ -392,7 +392,7 @@ impl Simulation {
         into_bytes(w)
     }
 
-    /// `readings.csv`: `id,[unit,]code,temp_c`.
+    /// `readings.csv`: `id,[unit,]code,temp_c` (`temp_code` for a raw temperature channel).
     pub fn readings_csv(&self) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
         let mut head = vec!["id"];

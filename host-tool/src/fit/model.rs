@@ -272,7 +272,8 @@ impl Params {
         num / (1.0 + self.pole * p.tau)
     }
 
-    /// The parameter vector in the order: offset, slope, bulk, (ρ), (pole), (b₀, b₁).
+    /// The parameter vector in the order: offset, slope, bulk, (ρ), (pole), (b₀, b₁), the parenthesised
+    /// ones only where the spec has them.
     pub fn to_vec(&self) -> Vec<f64> {
         let mut v = Vec::with_capacity(self.spec.n_params());
         v.extend_from_slice(&self.offset);
@@ -309,7 +310,7 @@ impl Params {
         }
     }
 
-    /// Sets the linear parameters from a vector in the order offset, slope, bulk, (ρ).
+    /// Sets the linear parameters from a vector in the order offset, slope, bulk, (ρ where the spec has it).
     pub fn set_linear(&mut self, v: &[f64]) {
         let mut it = v.iter().copied();
         for c in self.offset.iter_mut().chain(self.slope.iter_mut()).chain(self.bulk.iter_mut()) {

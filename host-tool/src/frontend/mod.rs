@@ -28,10 +28,13 @@
 //! # The oracle
 //!
 //! [`FrontEnd::oracle`] is the best x that an observer who knows this exact model can recover from one noisy
-//! `(code, measured temperature)` pair: it undoes the deterministic part of the temperature channel (its
-//! offset and slope error, which a calibration absorbs as well), then inverts the noise-free code at that
-//! temperature by safeguarded Newton iteration in a bracket. Its error against the truth is the irreducible
-//! error that any calibration is measured against.
+//! `(code, measured temperature)` pair: it undoes the deterministic part of the temperature channel, which a
+//! calibration absorbs as well ([`FrontEnd::temperature_estimate_c`]: a digital sensor's offset and slope
+//! error; a raw channel's element and series-resistor tolerances and its gradient, by reading the code
+//! through the unit's actual parts instead of the nominal ones), then inverts the noise-free code at that
+//! temperature by safeguarded Newton iteration in a bracket. What it cannot undo is the noise: the log
+//! channel's, the digital sensor's noise and resolution, a raw channel's ADC noise and quantisation. Its
+//! error against the truth is the irreducible error that any calibration is measured against.
 
 mod presets;
 #[cfg(test)]
@@ -40,6 +43,8 @@ mod tests;
 use std::path::Path;
 
 use logtrim::physics::{thermal_voltage, ZERO_CELSIUS_K};
+use logtrim::sensor::TemperatureSensor;
+use logtrim::{Divider, Placement};
 use rand::Rng;
 use rand_distr::{Distribution, StandardNormal};
 use serde::{Deserialize, Serialize};
@@ -150,9 +155,10 @@ pub struct AdcModel {
 
 /// How the unit's temperature reaches the firmware.
 ///
-/// Only a digital sensor (a reading in °C) exists so far. A raw channel (an NTC or RTD divider read by an
-/// ADC, whose code the firmware linearises) will become a further variant holding firmware-lib's sensor
-/// description; its readings are [`MeasuredTemperature::Code`], written as a `temp_code` column.
+/// A digital sensor reports °C ([`MeasuredTemperature::Celsius`], a `temp_c` column). A raw channel is a
+/// thermistor or RTD behind a divider, read by an ADC of its own; the firmware receives its code
+/// ([`MeasuredTemperature::Code`], a `temp_code` column) and linearises it with firmware-lib's
+/// [`TemperatureSensor`].
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
 #[non_exhaustive]
@@ -170,6 +176,36 @@ pub enum TemperatureChannel {
         /// Resolution of the reading, K (0 = unquantised).
         #[serde(default)]
         resolution_k: f64,
+    },
+    /// A thermistor or RTD behind a ratiometric divider, read by its own ADC: the firmware receives the code.
+    ///
+    /// `sensor` is the channel as designed (nominal element, nominal series resistor, ADC, fault margins,
+    /// valid range): the description the firmware is given. The unit's own parts differ from it by the
+    /// deterministic errors below; the code at the pair's true temperature `T` is
+    ///
+    /// ```text
+    /// R    = R_nominal(T + offset_k) · (1 + element_error)          the element's tolerance (R25 or R0 error)
+    /// R_s  = series_ohm · (1 + series_error)                        the series resistor's tolerance
+    /// code = round( divider code of R against R_s + noise ),        clamped to 0 ..= 2^bits − 1
+    /// ```
+    ///
+    /// The divider's code is firmware-lib's forward model ([`Divider::code_f64`]), the element's curve its
+    /// `resistance_f64`.
+    Raw {
+        /// The channel as designed, in firmware-lib's description (what the firmware linearises with).
+        sensor: TemperatureSensor,
+        /// The element's resistance error against its nominal curve, as a fraction, the same at every
+        /// temperature (an R25 tolerance of an NTC, an R0 tolerance of an RTD; 0.01 = +1 %).
+        #[serde(default)]
+        element_error: f64,
+        /// The series resistor's error against its nominal value, as a fraction.
+        #[serde(default)]
+        series_error: f64,
+        /// Steady difference between the element's temperature and the pair's, K (a gradient on the board).
+        #[serde(default)]
+        offset_k: f64,
+        /// Noise at the temperature ADC's input, codes rms (before rounding).
+        noise_codes_rms: f64,
     },
 }
 
@@ -243,8 +279,10 @@ pub struct UnitSpread {
     pub adc_gain_error: f64,
     /// ADC offset, codes.
     pub adc_offset_codes: f64,
-    /// Temperature sensor offset, K.
+    /// Temperature sensor offset, K (for a raw channel: the gradient between its element and the pair).
     pub sensor_offset_k: f64,
+    /// A raw temperature channel's element error (its R25 or R0 tolerance), absolute fraction.
+    pub sensor_element_rel: f64,
 }
 
 /// Errors loading or checking a front-end description.
@@ -282,6 +320,14 @@ pub enum FrontEndError {
         value: f64,
         /// What the model needs.
         expected: &'static str,
+    },
+    /// A raw temperature channel's description is refused by firmware-lib's `validate()`.
+    #[error("{name}: temperature_sensor.sensor: {error}; expected a channel description that firmware-lib accepts")]
+    Sensor {
+        /// The front end's name.
+        name: String,
+        /// firmware-lib's verdict.
+        error: logtrim::Error,
     },
 }
 
@@ -401,6 +447,27 @@ impl FrontEnd {
                     return bad("temperature_sensor.resolution_k", resolution_k, "a resolution ≥ 0 K");
                 }
             }
+            TemperatureChannel::Raw { sensor, element_error, series_error, offset_k, noise_codes_rms } => {
+                sensor
+                    .validate()
+                    .map_err(|error| FrontEndError::Sensor { name: self.name.clone(), error })?;
+                if !(finite(element_error) && element_error.abs() < 0.5) {
+                    return bad("temperature_sensor.element_error", element_error, "a fraction below 0.5");
+                }
+                if !(finite(series_error) && series_error.abs() < 0.5) {
+                    return bad("temperature_sensor.series_error", series_error, "a fraction below 0.5");
+                }
+                if !(finite(offset_k) && offset_k.abs() < 50.0) {
+                    return bad("temperature_sensor.offset_k", offset_k, "a finite offset below 50 K");
+                }
+                if !(finite(noise_codes_rms) && noise_codes_rms >= 0.0) {
+                    return bad(
+                        "temperature_sensor.noise_codes_rms",
+                        noise_codes_rms,
+                        "a noise ≥ 0 codes rms",
+                    );
+                }
+            }
         }
         let o = &self.operating;
         if !(finite(o.temp_min_c) && o.temp_min_c > -200.0) {
@@ -421,6 +488,34 @@ impl FrontEnd {
         }
         if !(finite(o.setpoint_jitter_k_rms) && o.setpoint_jitter_k_rms >= 0.0) {
             return bad("operating.setpoint_jitter_k_rms", o.setpoint_jitter_k_rms, "a jitter ≥ 0 K rms");
+        }
+        if let TemperatureChannel::Raw { sensor, .. } = self.temperature_sensor {
+            // The firmware must be able to read the unit over its whole operating range …
+            if f64::from(sensor.min_c) > o.temp_min_c {
+                return bad(
+                    "temperature_sensor.sensor.min_c",
+                    f64::from(sensor.min_c),
+                    "a valid range that starts at or below operating.temp_min_c",
+                );
+            }
+            if f64::from(sensor.max_c) < o.temp_max_c {
+                return bad(
+                    "temperature_sensor.sensor.max_c",
+                    f64::from(sensor.max_c),
+                    "a valid range that ends at or above operating.temp_max_c",
+                );
+            }
+            // … and the element's model must give a code wherever the simulation may take the unit.
+            for i in 0..=20 {
+                let t = o.temp_min_c - 50.0 + (o.temp_max_c - o.temp_min_c + 100.0) * f64::from(i) / 20.0;
+                if self.raw_code_exact(t).is_none() {
+                    return bad(
+                        "temperature_sensor.sensor.element",
+                        t,
+                        "an element whose curve covers the operating range ± 50 K",
+                    );
+                }
+            }
         }
         for t in [o.temp_min_c - 50.0, o.temp_max_c + 50.0] {
             let den = 1.0 + g.r1_tempco_per_k * (t - 25.0);
@@ -446,6 +541,7 @@ impl FrontEnd {
                 ("spread.adc_gain_error", s.adc_gain_error),
                 ("spread.adc_offset_codes", s.adc_offset_codes),
                 ("spread.sensor_offset_k", s.sensor_offset_k),
+                ("spread.sensor_element_rel", s.sensor_element_rel),
             ] {
                 if !(finite(v) && v >= 0.0) {
                     return bad(field, v, "a standard deviation ≥ 0");
@@ -582,17 +678,99 @@ impl FrontEnd {
                 let t = if resolution_k > 0.0 { libm::round(t / resolution_k) * resolution_k } else { t };
                 MeasuredTemperature::Celsius(t)
             }
+            TemperatureChannel::Raw { sensor, noise_codes_rms, .. } => {
+                let n: f64 = StandardNormal.sample(rng);
+                let max = sensor.divider.max_code().unwrap_or(0);
+                // A validated front end gives a code over its operating range ± 50 K; beyond the element's
+                // model the sensor reads as open (the rail on its open side).
+                let exact = self.raw_code_exact(t_c).unwrap_or(match sensor.divider.placement {
+                    Placement::LowSide => f64::from(max),
+                    Placement::HighSide => 0.0,
+                });
+                let c = libm::round(exact + noise_codes_rms * n);
+                let code = if c.is_nan() || c <= 0.0 {
+                    0
+                } else if c >= f64::from(max) {
+                    max
+                } else {
+                    c as u32
+                };
+                MeasuredTemperature::Code(code)
+            }
+        }
+    }
+
+    /// A raw channel's divider as the unit is built: the series resistor with its error, and no fault
+    /// margins (those are the firmware's policy, not physics). `None` for a digital channel.
+    fn raw_divider(&self) -> Option<Divider> {
+        let TemperatureChannel::Raw { sensor, series_error, .. } = self.temperature_sensor else {
+            return None;
+        };
+        let d = sensor.divider;
+        let series_ohm = (f64::from(d.series_ohm) * (1.0 + series_error)) as f32;
+        Some(Divider { series_ohm, open_margin: 0, short_margin: 0, ..d })
+    }
+
+    /// The exact (fractional, noise-free) code of a raw temperature channel when the pair is at `t_c`, from
+    /// the unit's actual parts. `None` for a digital channel, or where the element's model gives no
+    /// resistance.
+    pub fn raw_code_exact(&self, t_c: f64) -> Option<f64> {
+        let TemperatureChannel::Raw { sensor, element_error, offset_k, .. } = self.temperature_sensor else {
+            return None;
+        };
+        let ohm = sensor.element.resistance_f64(t_c + offset_k).ok()? * (1.0 + element_error);
+        self.raw_divider()?.code_f64(ohm).ok()
+    }
+
+    /// The temperature channel's description as the firmware is given it: a raw channel's nominal
+    /// [`TemperatureSensor`]; `None` for a digital sensor, whose readings are already in °C.
+    pub fn firmware_sensor(&self) -> Option<TemperatureSensor> {
+        match self.temperature_sensor {
+            TemperatureChannel::Raw { sensor, .. } => Some(sensor),
+            TemperatureChannel::Digital { .. } => None,
+        }
+    }
+
+    /// The temperature the firmware computes from a reading: a digital reading as it is, a raw code through
+    /// the channel's nominal description in f32 (as on the MCU). Readings of the other kind are refused
+    /// with [`logtrim::Error::NotCalibrated`] (no description converts them).
+    pub fn firmware_celsius(&self, reading: MeasuredTemperature) -> Result<f64, logtrim::Error> {
+        match (self.temperature_sensor, reading) {
+            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Celsius(t)) => Ok(t),
+            (TemperatureChannel::Raw { sensor, .. }, MeasuredTemperature::Code(c)) => {
+                sensor.celsius(c).map(f64::from)
+            }
+            _ => Err(logtrim::Error::NotCalibrated),
         }
     }
 
     /// The unit's temperature as best known from a reading: the reading with the channel's deterministic
-    /// errors (offset, slope error) undone. `None` if the reading is of a kind this channel does not give.
+    /// errors undone. `None` if the reading is of a kind this channel does not give, or gives no temperature.
+    ///
+    /// * Digital: the offset and slope error are undone, `25 + (T_m − 25 − offset)/(1 + slope_error)`.
+    /// * Raw: the code is read through the unit's *actual* parts instead of the nominal ones — the divider
+    ///   with the series resistor's error (firmware-lib's `Divider::resistance_f64`, no fault margins), the
+    ///   resistance divided by `1 + element_error`, the nominal curve inverted (`celsius_f64`), the gradient
+    ///   `offset_k` taken off. Left in are the channel's ADC noise and quantisation. The firmware's valid
+    ///   range is not applied (the oracle knows the physics, not the firmware's policy); a code at either
+    ///   rail (0 or `2^bits − 1`, where the true value lies anywhere beyond) gives `None`.
     pub fn temperature_estimate_c(&self, reading: MeasuredTemperature) -> Option<f64> {
         match (self.temperature_sensor, reading) {
             (TemperatureChannel::Digital { offset_k, slope_error, .. }, MeasuredTemperature::Celsius(t)) => {
                 Some(25.0 + (t - 25.0 - offset_k) / (1.0 + slope_error))
             }
-            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Code(_)) => None,
+            (
+                TemperatureChannel::Raw { sensor, element_error, offset_k, .. },
+                MeasuredTemperature::Code(c),
+            ) => {
+                if c == 0 || c >= sensor.divider.max_code().ok()? {
+                    return None;
+                }
+                let ohm = self.raw_divider()?.resistance_f64(c).ok()? / (1.0 + element_error);
+                Some(sensor.element.celsius_f64(ohm).ok()? - offset_k)
+            }
+            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Code(_))
+            | (TemperatureChannel::Raw { .. }, MeasuredTemperature::Celsius(_)) => None,
         }
     }
 
@@ -694,6 +872,11 @@ impl FrontEnd {
         let so = n();
         match &mut u.temperature_sensor {
             TemperatureChannel::Digital { offset_k, .. } => *offset_k += s.sensor_offset_k * so,
+            TemperatureChannel::Raw { offset_k, element_error, .. } => {
+                *offset_k += s.sensor_offset_k * so;
+                // Drawn after every other parameter, so that digital units draw exactly as before.
+                *element_error += s.sensor_element_rel * n();
+            }
         }
         u.validate()?;
         Ok(u)

@@ -1,5 +1,9 @@
 //! Built-in front-end descriptions, set in invented scenarios, for users to start from.
 
+use logtrim::sensor::{SensorElement, TemperatureSensor};
+use logtrim::thermistor::Beta;
+use logtrim::{Divider, Placement};
+
 use super::{
     AdcModel, AmplifierModel, FrontEnd, OperatingRange, OutputStage, PairModel, TemperatureChannel,
     UnitSpread,
@@ -35,6 +39,12 @@ pub const PRESETS: &[Preset] = &[
             "outdoor gas detector with a reference channel: uncompensated, −20…85 °C, strong low-end bend",
         build: gas_uncompensated,
     },
+    Preset {
+        name: "photometer-ntc",
+        summary:
+            "the bench photometer with its temperature read raw: a 10 kΩ NTC behind a divider, 12-bit ADC",
+        build: photometer_ntc,
+    },
 ];
 
 /// The built-in description of that name.
@@ -57,6 +67,7 @@ fn line_spread(compensated: bool) -> UnitSpread {
         adc_gain_error: 0.001,
         adc_offset_codes: 2.0,
         sensor_offset_k: 0.15,
+        sensor_element_rel: 0.005,
     }
 }
 
@@ -149,5 +160,44 @@ fn gas_uncompensated() -> FrontEnd {
             setpoint_jitter_k_rms: 0.1,
         },
         spread: Some(line_spread(false)),
+    }
+}
+
+/// The NTC channel of the photometer variant: a 10 kΩ (at 25 °C) thermistor with β = 3900 K from the
+/// 12-bit ADC's input to ground, a 10 kΩ series resistor to the ADC's reference (so the code rises as
+/// the NTC cools), valid −40…125 °C; 8 codes at either rail count as open or short (invented figures).
+fn photometer_ntc_channel() -> TemperatureSensor {
+    TemperatureSensor {
+        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }),
+        divider: Divider {
+            open_margin: 8,
+            short_margin: 8,
+            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
+        },
+        min_c: -40.0,
+        max_c: 125.0,
+    }
+}
+
+/// The bench photometer of [`photometer_compensated`] in a cost-reduced build: instead of a digital
+/// sensor, an NTC thermistor behind a divider on a spare 12-bit ADC input, linearised by the firmware. This
+/// unit's NTC reads 0.6 % above its nominal R25, its 0.1 % series resistor 0.04 % low, and the NTC sits
+/// 0.1 K warmer than the pair (invented figures).
+fn photometer_ntc() -> FrontEnd {
+    let base = photometer_compensated();
+    FrontEnd {
+        name: "photometer-ntc".into(),
+        description: "Bench absorbance photometer, sample channel, cost-reduced build (invented scenario): the \
+                      compensated front end with its temperature read raw from a 10 kΩ NTC (β 3900 K) behind a \
+                      10 kΩ divider on a 12-bit ADC."
+            .into(),
+        temperature_sensor: TemperatureChannel::Raw {
+            sensor: photometer_ntc_channel(),
+            element_error: 0.006,
+            series_error: -0.0004,
+            offset_k: 0.1,
+            noise_codes_rms: 0.4,
+        },
+        ..base
     }
 }

@@ -1,4 +1,5 @@
 use super::*;
+use logtrim::sensor::TemperatureSensor;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 
@@ -182,7 +183,9 @@ fn noise_has_the_stated_rms() {
     // 0.7 codes of noise plus rounding (1/12 code²): √(0.49 + 0.0833) = 0.757 codes rms.
     let rms = (ss / f64::from(n)).sqrt();
     assert!(within(rms, (0.49f64 + 1.0 / 12.0).sqrt(), 0.0, 0.06), "{rms}");
-    let TemperatureChannel::Digital { offset_k, noise_k_rms, .. } = fe.temperature_sensor;
+    let TemperatureChannel::Digital { offset_k, noise_k_rms, .. } = fe.temperature_sensor else {
+        panic!("gas-uncompensated reads a digital sensor")
+    };
     let (mut s, mut ss) = (0.0, 0.0);
     for _ in 0..n {
         let MeasuredTemperature::Celsius(m) = fe.measure_temperature(t, &mut rng) else { panic!() };
@@ -245,11 +248,27 @@ fn oracle_error_on_noise_free_codes_is_within_half_an_lsb() {
             (o.temp_max_c, 4.0),
         ] {
             let code = fe.code_noise_free(x, t);
-            // A reading exactly as the sensor would report the true temperature without noise.
-            let TemperatureChannel::Digital { offset_k, slope_error, .. } = fe.temperature_sensor;
-            let m = MeasuredTemperature::Celsius(25.0 + (t - 25.0) * (1.0 + slope_error) + offset_k);
+            // A reading exactly as the sensor would report the true temperature without noise. A raw
+            // channel's code is rounded as well: that costs up to half a temperature code, carried into x
+            // through ∂x/∂T = −(∂code/∂T)/(∂code/∂x) of the log channel.
+            let (m, t_rounding_k) = match fe.temperature_sensor {
+                TemperatureChannel::Digital { offset_k, slope_error, .. } => {
+                    (MeasuredTemperature::Celsius(25.0 + (t - 25.0) * (1.0 + slope_error) + offset_k), 0.0)
+                }
+                TemperatureChannel::Raw { .. } => {
+                    let c = fe.raw_code_exact(t).unwrap();
+                    let h = 1e-3;
+                    let per_k =
+                        (fe.raw_code_exact(t + h).unwrap() - fe.raw_code_exact(t - h).unwrap()) / (2.0 * h);
+                    (MeasuredTemperature::Code(c.round() as u32), 0.5 / per_k.abs())
+                }
+            };
+            let h = 1e-4;
+            let dcdt = (fe.code_exact(x, t + h) - fe.code_exact(x, t - h)) / (2.0 * h);
+            let dxdt = dcdt / fe.code_slope(x, t);
+            let tol = 0.5 / fe.code_slope(x, t) * 1.001 + dxdt.abs() * t_rounding_k * 1.001 + 1e-9;
             let got = fe.oracle(code, m).unwrap();
-            assert!((got - x).abs() <= 0.5 / fe.code_slope(x, t) * 1.001 + 1e-9, "{} {t} {x}: {got}", p.name);
+            assert!((got - x).abs() <= tol, "{} {t} {x}: {got}", p.name);
         }
     }
 }
@@ -316,4 +335,163 @@ fn drawn_units_differ_reproducibly_and_stay_valid() {
     plain.spread = None;
     let u = plain.draw_unit("U1", &mut ChaCha8Rng::seed_from_u64(1)).unwrap();
     assert_eq!(u.pair, plain.pair);
+}
+
+fn raw_parts(fe: &FrontEnd) -> (TemperatureSensor, f64, f64, f64, f64) {
+    let TemperatureChannel::Raw { sensor, element_error, series_error, offset_k, noise_codes_rms } =
+        fe.temperature_sensor
+    else {
+        panic!("{} reads a digital sensor", fe.name)
+    };
+    (sensor, element_error, series_error, offset_k, noise_codes_rms)
+}
+
+#[test]
+fn raw_channel_code_follows_the_beta_curve_and_the_divider_equation() {
+    let fe = preset("photometer-ntc").unwrap();
+    let (sensor, e_el, e_s, offset_k, _) = raw_parts(&fe);
+    assert!(matches!(sensor.element, logtrim::SensorElement::NtcBeta(_)));
+    for t in [-40.0, 0.0, 25.0, 47.5, 70.0, 120.0] {
+        // Written out here: the Beta model R = R25·exp(β(1/T − 1/T25)) (its definition, common practice) with
+        // the element's error, against a series resistor with its error; a low-side sensor reads
+        // 2^bits·R/(R + R_s) (Ohm's law on the divider).
+        let t_k = t + offset_k + 273.15;
+        let r = 10_000.0 * (3900.0 * (1.0 / t_k - 1.0 / 298.15)).exp() * (1.0 + e_el);
+        let rs = 10_000.0 * (1.0 + e_s);
+        let want = 4096.0 * r / (r + rs);
+        let got = fe.raw_code_exact(t).unwrap();
+        // The series resistor is stored in f32: 6e-8 relative.
+        assert!(within(got, want, 1e-9, 1e-7), "{t} °C: {got} vs {want}");
+    }
+    // The code rises as the NTC cools (low side), and a 10 kΩ NTC on 10 kΩ reads near half scale at 25 °C.
+    assert!(fe.raw_code_exact(0.0).unwrap() > fe.raw_code_exact(70.0).unwrap());
+    assert!(within(fe.raw_code_exact(25.0).unwrap(), 2048.0, 20.0, 0.0));
+}
+
+#[test]
+fn raw_channel_noise_has_the_stated_rms_and_stays_on_the_converter() {
+    let fe = preset("photometer-ntc").unwrap();
+    let (_, _, _, _, noise) = raw_parts(&fe);
+    let mut rng = ChaCha8Rng::seed_from_u64(3);
+    let exact = fe.raw_code_exact(40.0).unwrap();
+    let n = 4000;
+    let mut ss = 0.0;
+    for _ in 0..n {
+        let MeasuredTemperature::Code(c) = fe.measure_temperature(40.0, &mut rng) else { panic!() };
+        assert!(c <= 4095);
+        ss += (f64::from(c) - exact).powi(2);
+    }
+    // Noise plus rounding (1/12 code²).
+    let rms = (ss / f64::from(n)).sqrt();
+    assert!(within(rms, (noise * noise + 1.0 / 12.0).sqrt(), 0.0, 0.06), "{rms}");
+}
+
+#[test]
+fn raw_oracle_undoes_the_tolerances_that_the_nominal_reading_keeps() {
+    let fe = preset("photometer-ntc").unwrap();
+    let (sensor, ..) = raw_parts(&fe);
+    for t in [0.0, 25.0, 70.0] {
+        let exact = fe.raw_code_exact(t).unwrap();
+        let h = 1e-3;
+        let per_k = (fe.raw_code_exact(t + h).unwrap() - fe.raw_code_exact(t - h).unwrap()) / (2.0 * h);
+        let m = MeasuredTemperature::Code(exact.round() as u32);
+        // Half a code of rounding, in kelvin.
+        let half_code_k = 0.5 / per_k.abs();
+        let est = fe.temperature_estimate_c(m).unwrap();
+        assert!((est - t).abs() <= 1.01 * half_code_k + 1e-6, "{t} °C: estimate {est}");
+        // The firmware's reading with the nominal description keeps the tolerances: +0.6 % on the NTC reads
+        // colder by about ln(1.006)·T²/β (from the Beta curve), the 0.1 K gradient warmer.
+        let nominal = fe.firmware_celsius(m).unwrap();
+        let t_k = t + 273.15;
+        let shift = -(1.006f64.ln() - (1.0 - 0.0004f64).ln()) * t_k * t_k / 3900.0 + 0.1;
+        assert!(
+            (nominal - t - shift).abs() <= 1.01 * half_code_k + 0.01,
+            "{t} °C: nominal {nominal}, shift {shift}"
+        );
+        assert_eq!(nominal, f64::from(sensor.celsius(exact.round() as u32).unwrap()));
+    }
+    // Rails and readings of the other kind give nothing.
+    assert_eq!(fe.temperature_estimate_c(MeasuredTemperature::Code(0)), None);
+    assert_eq!(fe.temperature_estimate_c(MeasuredTemperature::Code(4095)), None);
+    assert_eq!(fe.temperature_estimate_c(MeasuredTemperature::Celsius(25.0)), None);
+    assert_eq!(fe.oracle(30_000, MeasuredTemperature::Celsius(25.0)), None);
+    assert!(fe.firmware_celsius(MeasuredTemperature::Celsius(25.0)).is_err());
+    let digital = preset("photometer-compensated").unwrap();
+    assert_eq!(digital.temperature_estimate_c(MeasuredTemperature::Code(2000)), None);
+    assert_eq!(digital.firmware_sensor(), None);
+    assert_eq!(fe.firmware_sensor(), Some(sensor));
+}
+
+#[test]
+fn raw_channel_descriptions_are_checked() {
+    let fe = preset("photometer-ntc").unwrap();
+    let with = |f: &dyn Fn(&mut TemperatureChannel)| {
+        let mut b = fe.clone();
+        f(&mut b.temperature_sensor);
+        b.validate()
+    };
+    // A valid range that does not cover the operating range (0…70 °C) names the field.
+    let e = with(&|c| {
+        if let TemperatureChannel::Raw { sensor, .. } = c {
+            sensor.max_c = 60.0
+        }
+    })
+    .unwrap_err();
+    assert!(matches!(e, FrontEndError::Invalid { field: "temperature_sensor.sensor.max_c", .. }), "{e}");
+    // A description firmware-lib refuses carries its verdict.
+    let e = with(&|c| {
+        if let TemperatureChannel::Raw { sensor, .. } = c {
+            sensor.divider.series_ohm = -1.0
+        }
+    })
+    .unwrap_err();
+    assert!(matches!(e, FrontEndError::Sensor { .. }), "{e}");
+    assert!(e.to_string().contains("temperature_sensor.sensor"), "{e}");
+    let e = with(&|c| {
+        if let TemperatureChannel::Raw { element_error, .. } = c {
+            *element_error = f64::NAN
+        }
+    })
+    .unwrap_err();
+    assert!(matches!(e, FrontEndError::Invalid { field: "temperature_sensor.element_error", .. }), "{e}");
+    // An RTD whose curve stops at −200 °C cannot follow a unit simulated down to −160 − 50 °C.
+    let e = with(&|c| {
+        if let TemperatureChannel::Raw { sensor, .. } = c {
+            sensor.element = logtrim::SensorElement::Rtd(logtrim::Rtd::PT1000);
+            sensor.divider.series_ohm = 1000.0;
+        }
+    });
+    assert_eq!(e.ok(), Some(()));
+    let mut cold = fe.clone();
+    cold.temperature_sensor = {
+        let TemperatureChannel::Raw { mut sensor, .. } = fe.temperature_sensor else { panic!() };
+        sensor.element = logtrim::SensorElement::Rtd(logtrim::Rtd::PT1000);
+        sensor.min_c = -200.0;
+        TemperatureChannel::Raw {
+            sensor,
+            element_error: 0.0,
+            series_error: 0.0,
+            offset_k: 0.0,
+            noise_codes_rms: 0.0,
+        }
+    };
+    cold.operating.temp_min_c = -160.0;
+    let e = cold.validate().unwrap_err();
+    assert!(matches!(e, FrontEndError::Invalid { field: "temperature_sensor.sensor.element", .. }), "{e}");
+}
+
+#[test]
+fn drawn_raw_units_spread_their_element_but_not_their_description() {
+    let fe = preset("photometer-ntc").unwrap();
+    let a = fe.draw_unit("U1", &mut ChaCha8Rng::seed_from_u64(1)).unwrap();
+    let b = fe.draw_unit("U2", &mut ChaCha8Rng::seed_from_u64(2)).unwrap();
+    let (sa, ea, ..) = raw_parts(&a);
+    let (sb, eb, ..) = raw_parts(&b);
+    assert_eq!(sa, sb);
+    assert_ne!(ea, eb);
+    // The pair draws exactly as the digital photometer's does (the element is drawn last).
+    let d =
+        preset("photometer-compensated").unwrap().draw_unit("U1", &mut ChaCha8Rng::seed_from_u64(1)).unwrap();
+    assert_eq!(a.pair, d.pair);
+    assert_eq!(a.adc, d.adc);
 }

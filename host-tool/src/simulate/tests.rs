@@ -66,14 +66,22 @@ fn chamber_run_spans_the_range_at_its_set_points() {
         // Log-spaced: equal steps in ln ratio.
         let step = (ratios[1] / ratios[0]).ln();
         assert!(ratios.windows(2).all(|w| ((w[1] / w[0]).ln() - step).abs() < 1e-12));
-        let TemperatureChannel::Digital { offset_k, noise_k_rms, resolution_k, slope_error } =
-            fe.temperature_sensor;
-        let spread = (fe.operating.setpoint_jitter_k_rms.powi(2) + noise_k_rms.powi(2)).sqrt();
         for r in &rows {
             assert!(sps.contains(&r.setpoint_c));
             assert!(ratios.contains(&r.ratio) && r.x_true == r.ratio.ln());
-            let want = 25.0 + (r.setpoint_c - 25.0) * (1.0 + slope_error) + offset_k;
-            assert!((temp(r.temperature) - want).abs() < 6.0 * spread + resolution_k, "{r:?}");
+            match fe.temperature_sensor {
+                TemperatureChannel::Digital { offset_k, noise_k_rms, resolution_k, slope_error } => {
+                    let spread = (fe.operating.setpoint_jitter_k_rms.powi(2) + noise_k_rms.powi(2)).sqrt();
+                    let want = 25.0 + (r.setpoint_c - 25.0) * (1.0 + slope_error) + offset_k;
+                    assert!((temp(r.temperature) - want).abs() < 6.0 * spread + resolution_k, "{r:?}");
+                }
+                // A raw channel reads the unit's true temperature, within its ADC noise and rounding.
+                TemperatureChannel::Raw { noise_codes_rms, .. } => {
+                    let MeasuredTemperature::Code(c) = r.temperature else { panic!("{r:?}") };
+                    let exact = fe.raw_code_exact(r.t_true_c).unwrap();
+                    assert!((f64::from(c) - exact).abs() < 6.0 * noise_codes_rms + 0.5, "{r:?}");
+                }
+            }
             assert!((r.t_true_c - r.setpoint_c).abs() < 6.0 * fe.operating.setpoint_jitter_k_rms);
             // The code is the front end's at the true temperature, within noise.
             let exact = fe.code_exact(r.x_true, r.t_true_c);
@@ -110,14 +118,24 @@ fn oracle_error_matches_the_propagated_noise_floor() {
     for p in PRESETS {
         let fe = p.frontend();
         let rows = validation_run(&fe, 3000, 0, 1, 21);
-        let TemperatureChannel::Digital { noise_k_rms, resolution_k, slope_error, .. } =
-            fe.temperature_sensor;
         let var_code = fe.adc.noise_codes_rms.powi(2) + 1.0 / 12.0;
-        // The sensor's noise seen in true-temperature units, after its slope error is undone.
-        let var_t = (noise_k_rms.powi(2) + resolution_k.powi(2) / 12.0) / (1.0 + slope_error).powi(2);
+        // The sensor's noise seen in true-temperature units: a digital sensor's after its slope error is
+        // undone; a raw channel's ADC noise plus rounding through its codes per kelvin at that temperature.
+        let var_t = |t: f64| match fe.temperature_sensor {
+            TemperatureChannel::Digital { noise_k_rms, resolution_k, slope_error, .. } => {
+                (noise_k_rms.powi(2) + resolution_k.powi(2) / 12.0) / (1.0 + slope_error).powi(2)
+            }
+            TemperatureChannel::Raw { noise_codes_rms, .. } => {
+                let h = 1e-3;
+                let per_k =
+                    (fe.raw_code_exact(t + h).unwrap() - fe.raw_code_exact(t - h).unwrap()) / (2.0 * h);
+                (noise_codes_rms.powi(2) + 1.0 / 12.0) / (per_k * per_k)
+            }
+        };
         let (mut predicted, mut n) = (0.0, 0);
         for r in rows.iter().filter(|r| r.x_oracle.is_some()) {
             let (x, t, h) = (r.x_true, r.t_true_c, 1e-4);
+            let var_t = var_t(t);
             let dcdx = (fe.code_exact(x + h, t) - fe.code_exact(x - h, t)) / (2.0 * h);
             let dcdt = (fe.code_exact(x, t + h) - fe.code_exact(x, t - h)) / (2.0 * h);
             predicted += (var_code + var_t * dcdt * dcdt) / (dcdx * dcdx);

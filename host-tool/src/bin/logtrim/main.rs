@@ -14,6 +14,7 @@ mod fit;
 mod image;
 mod inspect;
 mod plot;
+mod sensor;
 mod simulate;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -47,6 +48,9 @@ enum Command {
     /// Estimate a design's error budget before any unit is built: each contribution to the error in x, their
     /// root-sum-square and worst case.
     Budget(budget::BudgetArgs),
+    /// Temperature channels from a data sheet: thermistor coefficients from points, R–T tables with the
+    /// divider's codes, and the settings file that `fit --sensor` reads.
+    Sensor(sensor::SensorArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -93,6 +97,7 @@ fn main() -> ExitCode {
         Command::Inspect(args) => inspect::run(args),
         Command::Plot(args) => plot::run(args),
         Command::Budget(args) => budget::run(args),
+        Command::Sensor(args) => sensor::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
