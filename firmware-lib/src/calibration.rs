@@ -533,6 +533,113 @@ impl Calibration {
     }
 }
 
+/// The temperature-dependent stage of the inverse model at one temperature, in f64 (a host helper for
+/// table generation): `w = (code − offset_codes)/slope`, then the bends with `h` and `β`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StageF64 {
+    /// The code at which w = 0: the level shift plus the offset `P_c(τ)/(1 + qτ)`, codes.
+    pub offset_codes: f64,
+    /// The slope `S = (T_K/T_ref)·P_s(τ)/(1 + qτ)`, codes per neper.
+    pub slope: f64,
+    /// `h = P_h(τ)/(1 + qτ)/S`, the bulk term over the slope.
+    pub bulk_over_slope: f64,
+    /// `β(τ)`, zero when the bias term is off.
+    pub beta: f64,
+    /// `ln β(τ) = b₀ + b₁τ`, or `None` when the bias term is off.
+    pub ln_beta: Option<f64>,
+    /// The normalised temperature τ.
+    pub tau: f64,
+}
+
+/// x evaluated from w (no range checks) by [`Calibration::x_from_w_f64`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct XFromW {
+    /// x = ln(I_sig/I_ref), residual included.
+    pub x: f64,
+    /// The local sensitivity ∂w/∂x (1 for an ideal front end).
+    pub sensitivity: f64,
+}
+
+impl Calibration {
+    /// The temperature-dependent stage at `temp_c` in f64, exactly as [`Calibration::correct_f64`] computes
+    /// it. No range check on the temperature; an error only where the slope is not positive and finite.
+    pub fn stage_f64(&self, temp_c: f64) -> Result<StageF64, Error> {
+        let m = &self.model;
+        let tau = (temp_c - f64::from(m.t_center_c)) / f64::from(m.t_half_span_k);
+        let den = 1.0 + f64::from(m.pole) * tau;
+        let t_k = temp_c + crate::physics::ZERO_CELSIUS_K;
+        let slope = t_k / f64::from(m.t_ref_k) * m.slope.eval(tau) / den;
+        if !(slope > 0.0) || !slope.is_finite() {
+            return Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope));
+        }
+        let offset = m.offset.eval(tau) / den;
+        let h = m.bulk.eval(tau) / den / slope;
+        let ln_beta = if m.bias.enabled {
+            Some(f64::from(m.bias.ln_beta0) + f64::from(m.bias.ln_beta1) * tau)
+        } else {
+            None
+        };
+        let beta = ln_beta.map_or(0.0, libm::exp);
+        Ok(StageF64 {
+            offset_codes: f64::from(self.adc.level_shift_code) + offset,
+            slope,
+            bulk_over_slope: h,
+            beta,
+            ln_beta,
+            tau,
+        })
+    }
+
+    /// x from w = (code − offset)/slope at `temp_c`, in f64, by the same steps as [`Calibration::correct_f64`]
+    /// but without any range check (a host helper for table generation, defined also outside the ADC's
+    /// codes). [`Error::BelowRange`] where the bias current swamps the signal (`e^z ≤ β`: no x exists).
+    pub fn x_from_w_f64(&self, w: f64, temp_c: f64) -> Result<XFromW, Error> {
+        if !(w.is_finite() && temp_c.is_finite()) {
+            return Err(Error::NonFinite);
+        }
+        let st = self.stage_f64(temp_c)?;
+        if w > f64::from(MAX_EXP_ARG) {
+            return Err(Error::AboveRange);
+        }
+        let (h, beta) = (st.bulk_over_slope, st.beta);
+        let mut z = w;
+        if h != 0.0 {
+            for _ in 0..NEWTON_STEPS {
+                let ez = libm::exp(z);
+                let f = z + h * (ez - beta) - w;
+                let d = 1.0 + h * ez;
+                if !(d > 0.0) {
+                    return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
+                }
+                let step = f / d;
+                z -= step;
+                if !(step.abs() > 2e-7 * (1.0 + z.abs())) {
+                    break;
+                }
+            }
+        }
+        let ez = libm::exp(z);
+        let y = ez - beta;
+        if !(y > 0.0) {
+            return Err(Error::BelowRange);
+        }
+        let x0 = libm::log(y);
+        let sensitivity = y / ez + h * y;
+        let r = &self.model.residual;
+        let xi = (x0 - f64::from(r.x_center)) / f64::from(r.x_half_span);
+        let x = x0 + r.eval(xi, st.tau);
+        if !x.is_finite() {
+            return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
+        }
+        Ok(XFromW { x, sensitivity })
+    }
+}
+
+/// [`Error::TemperatureOutOfRange`] for a temperature given in m°C (for integer code that has no float types).
+pub fn temperature_out_of_range_millicelsius(millicelsius: i32) -> Error {
+    Error::TemperatureOutOfRange { celsius: millicelsius as f32 / 1000.0 }
+}
+
 struct Point<F> {
     x: F,
     extrapolated: bool,

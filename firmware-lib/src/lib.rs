@@ -14,6 +14,7 @@
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
 //! | [`error`] | the one error enum of the crate |
 //! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
+//! | [`fixed`] | the integer fixed-point correction from host-generated tables, for cores without an FPU |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -30,6 +31,7 @@ extern crate std;
 
 pub mod calibration;
 pub mod error;
+pub mod fixed;
 pub mod math;
 pub mod physics;
 pub mod units;
