@@ -15,7 +15,7 @@
 //! sample (only possible without the bias bend removed, [`TableOptions::bias_bend`] off), the row is
 //! continued linearly from its last two defined samples.
 //!
-//! Default sizes (16 temperature knots, 40 x̃ knots, 64 sensor segments) keep a 16-bit unit's tables near
+//! Default sizes (16 temperature knots, 40 x̃ knots, 128 sensor segments) keep a 16-bit unit's tables near
 //! 2 KiB; [`FixedTables::bytes`] and [`logtrim::fixed::universal::BYTES`] give the exact figures.
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
@@ -58,7 +58,7 @@ pub struct TableOptions {
 
 impl Default for TableOptions {
     fn default() -> Self {
-        TableOptions { t_knots: 16, xa_knots: 40, sensor_segments: 64, bias_bend: true }
+        TableOptions { t_knots: 16, xa_knots: 40, sensor_segments: 128, bias_bend: true }
     }
 }
 
@@ -120,10 +120,18 @@ pub struct SensorTableOwned {
     pub code_hi: u32,
     /// Knot spacing `2^step_log2` codes.
     pub step_log2: u8,
-    /// The fault for codes below the span.
+    /// The fault for codes just below the span.
     pub fault_below: SensorFault,
-    /// The fault for codes above the span.
+    /// Codes below this one report `fault_far_below`.
+    pub far_below_code: u32,
+    /// The fault for codes below `far_below_code`.
+    pub fault_far_below: SensorFault,
+    /// The fault for codes just above the span.
     pub fault_above: SensorFault,
+    /// Codes above this one report `fault_far_above`.
+    pub far_above_code: u32,
+    /// The fault for codes above `far_above_code`.
+    pub fault_far_above: SensorFault,
     /// Control points, θ (Q10 m°C).
     pub knots: Vec<i32>,
 }
@@ -164,7 +172,11 @@ impl FixedTables {
                 code_hi: s.code_hi,
                 step_log2: s.step_log2,
                 fault_below: s.fault_below,
+                far_below_code: s.far_below_code,
+                fault_far_below: s.fault_far_below,
                 fault_above: s.fault_above,
+                far_above_code: s.far_above_code,
+                fault_far_above: s.fault_far_above,
                 knots: &s.knots,
             }),
         }
@@ -233,11 +245,16 @@ fn sample_positions(segments: usize) -> Vec<f64> {
     (0..=segments * SAMPLES_PER_SEGMENT).map(|k| k as f64 / SAMPLES_PER_SEGMENT as f64).collect()
 }
 
-/// The pseudo-inverse of a spline's design matrix at the sample positions.
+/// The least-squares operator of a spline at the sample positions: `(AᵀA)⁻¹Aᵀ` of its design matrix `A`,
+/// computed from a QR factorisation (`R⁻¹Qᵀ`, never the normal equations). The design matrix of a uniform
+/// B-spline sampled eight times per segment has full column rank.
 fn fit_operator(segments: usize, positions: &[f64]) -> Result<DMatrix<f64>, TableError> {
-    design(segments, positions)
-        .pseudo_inverse(1e-12)
-        .map_err(|e| TableError::Model { what: "spline fit", detail: e.to_string() })
+    let qr = design(segments, positions).qr();
+    let qt = qr.q().transpose();
+    qr.r().solve_upper_triangular(&qt).ok_or_else(|| TableError::Model {
+        what: "spline fit",
+        detail: format!("{} samples do not determine {} control points", positions.len(), segments + 3),
+    })
 }
 
 /// Control points of a spline with `segments` segments fitted by least squares to `values` at `positions`.
@@ -317,17 +334,28 @@ fn u_of_xa(xa: f64, st: &StageF64, bend: bool) -> f64 {
     }
 }
 
-/// The u below which the sensitivity is under `min_s` at one temperature, by bisection; `None` if the
-/// sensitivity is never under it in `[lo, hi]`.
+/// The u below which the sensitivity is under `min_s` at one temperature: the first crossing above `lo`
+/// (found by doubling steps, then bisection), `hi` if there is none up to `hi`, `None` if the sensitivity
+/// is not under `min_s` at `lo`. (Above the first crossing the sensitivity may fall again only far beyond
+/// the converter's codes, where a negative bulk term takes over; `hi` is the top of the usable codes.)
 fn sensitivity_limit(cal: &Calibration, temp_c: f64, min_s: f64, lo: f64, hi: f64) -> Option<f64> {
     let sens = |u: f64| cal.x_from_w_f64(u, temp_c).map(|r| r.sensitivity).unwrap_or(0.0);
     if sens(lo) >= min_s {
         return None;
     }
-    if sens(hi) < min_s {
-        return Some(hi);
+    let (mut a, mut b) = (lo, lo);
+    let mut step = 1e-6;
+    loop {
+        b = (b + step).min(hi);
+        if sens(b) >= min_s {
+            break;
+        }
+        if b >= hi {
+            return Some(hi);
+        }
+        a = b;
+        step *= 2.0;
     }
-    let (mut a, mut b) = (lo, hi);
     for _ in 0..200 {
         let m = 0.5 * (a + b);
         if sens(m) < min_s {
@@ -442,7 +470,7 @@ pub fn build(
             Some(lb) => lb + 1e-9,
             None => u_of_code(code_lo, st) - 50.0,
         };
-        let hi = u_of_code(code_hi, st) + 50.0;
+        let hi = u_of_code(code_hi, st) + 1.0;
         limits.push(if min_s > 0.0 { sensitivity_limit(cal, t, min_s, lo, hi) } else { None });
     }
     let u_min = if limits.iter().any(Option::is_some) {
@@ -577,12 +605,43 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
     if let Some((c, _)) = vals[lo_idx..=hi_idx].iter().find(|(_, r)| !ok(r)) {
         return Err(TableError::Sensor(format!("the valid span has a hole at code {c}")));
     }
-    let fault = |idx: Option<usize>| match idx.and_then(|i| vals.get(i)) {
-        Some((_, Err(logtrim::Error::Sensor(f)))) => *f,
+    // The fault zones on each side: at most two (next to the span, and at the rail).
+    let fault_of = |r: &Result<f64, logtrim::Error>| match r {
+        Err(logtrim::Error::Sensor(f)) => *f,
         _ => SensorFault::OutOfModelRange,
     };
-    let fault_below = fault(lo_idx.checked_sub(1));
-    let fault_above = fault(Some(hi_idx + 1));
+    let zones =
+        |side: &mut dyn Iterator<Item = &(u32, Result<f64, logtrim::Error>)>| -> Result<_, TableError> {
+            let mut out: Vec<(SensorFault, u32)> = Vec::new(); // (fault, the zone's last code going outwards)
+            for (c, r) in side {
+                let f = fault_of(r);
+                match out.last_mut() {
+                    Some((g, last)) if *g == f => *last = *c,
+                    _ => out.push((f, *c)),
+                }
+            }
+            if out.len() > 2 {
+                return Err(TableError::Sensor(format!(
+                    "{} different fault zones on one side of the valid span; the table holds two",
+                    out.len()
+                )));
+            }
+            Ok(out)
+        };
+    let below = zones(&mut vals[..lo_idx].iter().rev())?;
+    let above = zones(&mut vals[hi_idx + 1..].iter())?;
+    let default = SensorFault::OutOfModelRange;
+    let fault_below = below.first().map_or(default, |z| z.0);
+    let (far_below_code, fault_far_below) = match below.get(1) {
+        // The far zone starts just past the near zone's last code.
+        Some(z) => (below[0].1, z.0),
+        None => (0, fault_below),
+    };
+    let fault_above = above.first().map_or(default, |z| z.0);
+    let (far_above_code, fault_far_above) = match above.get(1) {
+        Some(z) => (above[0].1, z.0),
+        None => (u32::MAX, fault_above),
+    };
     let (code_lo, code_hi) = (vals[lo_idx].0, vals[hi_idx].0);
     let span = u64::from(code_hi - code_lo).max(1);
     let step_log2 =
@@ -591,8 +650,8 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
         })?;
     let step = 1u64 << step_log2;
     let segments = span.div_ceil(step) as usize;
-    // Every code of the span if that is at most 16 per segment, else 16 evenly spread per segment.
-    let stride = (step / 16).max(1);
+    // Every code of the span if that is at most eight per segment, else eight evenly spread per segment.
+    let stride = (step / SAMPLES_PER_SEGMENT as u64).max(1);
     let mut pos = Vec::new();
     let mut val = Vec::new();
     let mut code = u64::from(code_lo);
@@ -607,7 +666,18 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
     }
     let c = fit_spline(segments, &pos, &val)?;
     let knots = to_i32("sensor temperature", &c, THETA_PER_C)?;
-    Ok(SensorTableOwned { code_lo, code_hi, step_log2, fault_below, fault_above, knots })
+    Ok(SensorTableOwned {
+        code_lo,
+        code_hi,
+        step_log2,
+        fault_below,
+        far_below_code,
+        fault_far_below,
+        fault_above,
+        far_above_code,
+        fault_far_above,
+        knots,
+    })
 }
 
 /// The universal bias-bend table `G(v) = ln(1 − e^(−v))` (see [`logtrim::fixed::transcend`]): per octave,

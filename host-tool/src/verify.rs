@@ -12,7 +12,10 @@
 //!   or both errors of different kinds. A disagreement is **at an edge** when the reference's own status
 //!   changes within ±[`VerifyOptions::edge_codes`] codes of it at the same temperature: there, a fraction of
 //!   an LSB in x, in the sensitivity or in a range limit legitimately moves the point across the edge.
-//!   Edge disagreements are counted and reported; any other disagreement fails the verification.
+//!   With a raw temperature channel, a temperature error (out of range, sensor fault) is also at an edge
+//!   where the temperature's own status changes at a neighbouring channel code: the table's fraction of a
+//!   millikelvin can move a code across the range end. Edge disagreements are counted and reported; any
+//!   other disagreement fails the verification.
 //!
 //! # The temperature grid
 //!
@@ -232,6 +235,9 @@ impl Status {
             _ => false,
         }
     }
+    fn is_temperature_error(&self) -> bool {
+        matches!(self, Status::Err(Error::TemperatureOutOfRange { .. } | Error::Sensor(_)))
+    }
     fn name(&self) -> String {
         match self {
             Status::Value(_) => "ok".to_string(),
@@ -281,6 +287,28 @@ struct GridTemp {
     millicelsius: i32,
     /// The channel code (with a raw channel).
     code: Option<u32>,
+    /// With a raw channel: whether the temperature's own status (in range, out of range, sensor fault)
+    /// differs at a neighbouring channel code, so that temperature errors here are at an edge.
+    temperature_edge: bool,
+}
+
+/// The kind of status a temperature alone gives, for the temperature edge of a raw channel.
+fn temperature_kind(cal: &Calibration, t: &Result<f64, Error>) -> String {
+    match t {
+        Err(e) => Status::Err(*e).name(),
+        Ok(t) => {
+            let tr = &cal.temperature;
+            let (lo, hi) = (
+                f64::from(tr.min_c) - f64::from(tr.extrapolation_k),
+                f64::from(tr.max_c) + f64::from(tr.extrapolation_k),
+            );
+            if *t < lo || *t > hi {
+                "temperature_out_of_range".into()
+            } else {
+                "ok".into()
+            }
+        }
+    }
 }
 
 /// The results of one row (temperature).
@@ -402,11 +430,19 @@ fn temperature_grid(
     opts: &VerifyOptions,
 ) -> Result<Vec<GridTemp>, VerifyError> {
     if let Some(ch) = channel {
+        let kind = |c: u32| temperature_kind(cal, &(ch.celsius)(c));
+        let (first, last) = (*ch.codes.start(), *ch.codes.end());
         let grid: Vec<GridTemp> = ch
             .codes
             .clone()
             .step_by(opts.temp_stride)
-            .map(|c| GridTemp { celsius: (ch.celsius)(c), millicelsius: 0, code: Some(c) })
+            .map(|c| {
+                let k = kind(c);
+                let neighbours =
+                    [c.checked_sub(1).filter(|&n| n >= first), c.checked_add(1).filter(|&n| n <= last)];
+                let temperature_edge = neighbours.iter().flatten().any(|&n| kind(n) != k);
+                GridTemp { celsius: (ch.celsius)(c), millicelsius: 0, code: Some(c), temperature_edge }
+            })
             .collect();
         if grid.is_empty() {
             return Err(VerifyError::Sensor("the temperature channel has no codes".into()));
@@ -424,7 +460,12 @@ fn temperature_grid(
     Ok(mcs
         .into_iter()
         .step_by(opts.temp_stride)
-        .map(|mc| GridTemp { celsius: Ok(mc as f64 / 1000.0), millicelsius: mc as i32, code: None })
+        .map(|mc| GridTemp {
+            celsius: Ok(mc as f64 / 1000.0),
+            millicelsius: mc as i32,
+            code: None,
+            temperature_edge: false,
+        })
         .collect())
 }
 
@@ -519,6 +560,9 @@ fn row(
                 }
                 _ if r.same_kind(p) => acc.agree += 1,
                 _ if at_edge(i) => acc.edge += 1,
+                _ if g.temperature_edge && (r.is_temperature_error() || p.is_temperature_error()) => {
+                    acc.edge += 1
+                }
                 _ => {
                     acc.outside += 1;
                     if examples.len() < MAX_EXAMPLES {

@@ -8,7 +8,8 @@
 //! 1. The code is checked exactly as in the f32 path ([`Error::CodeOutOfAdcRange`], [`Error::Saturated`]).
 //! 2. The temperature θ comes from the caller in m°C, or from the temperature channel's code through
 //!    [`SensorTable`] (a cubic spline indexed by the code itself; codes outside the sensor's valid span are
-//!    [`Error::Sensor`]). It must lie in the calibrated range plus the allowed extrapolation
+//!    [`Error::Sensor`], with up to two fault zones on each side, e.g. "out of the model's range" next to
+//!    the span and "short" or "open" at the rail). It must lie in the calibrated range plus the allowed extrapolation
 //!    ([`Error::TemperatureOutOfRange`] otherwise; beyond the calibrated range the reading is flagged).
 //! 3. Four tables over temperature, cubic B-splines on one uniform grid sharing one set of weights, give the
 //!    offset `O(T)` (codes, level shift included), the inverse slope `1/S(T)` (nepers per code), the bias
@@ -162,10 +163,18 @@ pub struct SensorTable<'a> {
     pub code_hi: u32,
     /// Knot spacing `2^step_log2` codes (0..=16); knot 0 is at `code_lo`.
     pub step_log2: u8,
-    /// The fault reported for codes below `code_lo`.
+    /// The fault reported for codes in `far_below_code..code_lo`.
     pub fault_below: SensorFault,
-    /// The fault reported for codes above `code_hi`.
+    /// Codes below this one report [`SensorTable::fault_far_below`] (0: none).
+    pub far_below_code: u32,
+    /// The fault reported for codes below `far_below_code` (e.g. a short at the rail).
+    pub fault_far_below: SensorFault,
+    /// The fault reported for codes in `code_hi + 1..=far_above_code`.
     pub fault_above: SensorFault,
+    /// Codes above this one report [`SensorTable::fault_far_above`] (`u32::MAX`: none).
+    pub far_above_code: u32,
+    /// The fault reported for codes above `far_above_code` (e.g. an open circuit at the rail).
+    pub fault_far_above: SensorFault,
     /// Control points, θ (Q10 m°C): `segments + 3` of them, the first at knot −1.
     pub knots: &'a [i32],
 }
@@ -225,7 +234,7 @@ pub struct FixedReading {
 }
 
 /// 1/ln 10 in Q32.
-const INV_LN10_Q32: i64 = 1_865_280_596;
+const INV_LN10_Q32: i64 = 1_865_280_597;
 /// 10/ln 10 in Q28.
 const DB10_Q28: i64 = 1_165_800_373;
 /// 20/ln 10 in Q28.
@@ -299,10 +308,12 @@ impl<'a> FixedCalibration<'a> {
     pub fn theta_from_code(&self, temp_code: u32) -> Result<i32, Error> {
         let s = self.sensor.as_ref().ok_or(Error::NotCalibrated)?;
         if temp_code < s.code_lo {
-            return Err(Error::Sensor(s.fault_below));
+            let f = if temp_code < s.far_below_code { s.fault_far_below } else { s.fault_below };
+            return Err(Error::Sensor(f));
         }
         if temp_code > s.code_hi {
-            return Err(Error::Sensor(s.fault_above));
+            let f = if temp_code > s.far_above_code { s.fault_far_above } else { s.fault_above };
+            return Err(Error::Sensor(f));
         }
         let sh = u32::from(s.step_log2).min(16);
         let pos = i64::from(temp_code - s.code_lo) << (POS_FRAC - sh); // < 2^52

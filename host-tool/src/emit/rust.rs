@@ -96,14 +96,22 @@ pub fn render(t: &FixedTables, prov: &Provenance) -> String {
         code_hi: {},
         step_log2: {},
         fault_below: {},
+        far_below_code: {},
+        fault_far_below: {},
         fault_above: {},
+        far_above_code: {},
+        fault_far_above: {},
         knots: &LOGTRIM_SENSOR,
     }})",
                 s.code_lo,
                 s.code_hi,
                 s.step_log2,
                 fault(s.fault_below),
-                fault(s.fault_above)
+                s.far_below_code,
+                fault(s.fault_far_below),
+                fault(s.fault_above),
+                s.far_above_code,
+                fault(s.fault_far_above)
             )
         }
         None => "None".to_string(),
