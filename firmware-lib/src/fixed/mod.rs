@@ -392,7 +392,7 @@ impl<'a> FixedCalibration<'a> {
         if pos < 0 {
             return Err(Error::BelowRange);
         }
-        if pos > (xa_knots as i64 - 1) << POS_FRAC {
+        if pos > (xa_knots as i64 - 1) * (1 << POS_FRAC) {
             return Err(Error::AboveRange);
         }
         let (col, t) = segment(pos, xa_knots);

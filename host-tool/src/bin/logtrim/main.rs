@@ -7,6 +7,9 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
+mod emit;
+mod verify;
+
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
 #[derive(Parser)]
 #[command(name = "logtrim", version, about, long_about = None)]
@@ -19,6 +22,10 @@ struct Cli {
 enum Command {
     /// Print the version and the formats this build reads and writes.
     Info,
+    /// Verify the fixed-point and f32 paths against the f64 reference over every code and temperature.
+    Verify(verify::VerifyArgs),
+    /// Emit the unit's fixed-point tables as Rust, C or JSON.
+    Emit(emit::EmitArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -52,6 +59,8 @@ fn main() -> ExitCode {
             );
             Ok(())
         }
+        Command::Verify(args) => verify::run(&args),
+        Command::Emit(args) => emit::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
