@@ -30,7 +30,7 @@
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
-use logtrim::fixed::{FixedCalibration, FixedReading, X_FRAC};
+use logtrim::fixed::{FixedCalibration, X_FRAC};
 use logtrim::math::Libm;
 use logtrim::{Calibration, Error};
 use rayon::prelude::*;
@@ -64,6 +64,10 @@ pub struct VerifyOptions {
     pub edge_codes: u32,
     /// The f32 backend.
     pub f32_backend: F32Backend,
+    /// Verify the fixed-point path.
+    pub check_fixed: bool,
+    /// Verify the f32 path.
+    pub check_f32: bool,
     /// Show a progress bar (the caller decides whether there is a terminal).
     pub progress: bool,
 }
@@ -77,6 +81,8 @@ impl Default for VerifyOptions {
             temp_stride: 1,
             edge_codes: 1,
             f32_backend: F32Backend::Libm,
+            check_fixed: true,
+            check_f32: true,
             progress: false,
         }
     }
@@ -175,6 +181,8 @@ pub struct StatusAgreement {
 /// The verification of one path.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct PathReport {
+    /// Whether the path was verified at all (see [`VerifyOptions::check_fixed`]).
+    pub checked: bool,
     /// Errors.
     pub errors: PathErrors,
     /// Status agreement.
@@ -205,11 +213,11 @@ pub struct VerifyReport {
 impl VerifyReport {
     /// Whether the fixed path is within the bound and agrees outside the edge band.
     pub fn fixed_passed(&self) -> bool {
-        self.fixed.errors.max_lsb <= self.bound_lsb && self.fixed.status.outside == 0
+        !self.fixed.checked || (self.fixed.errors.max_lsb <= self.bound_lsb && self.fixed.status.outside == 0)
     }
     /// Whether the f32 path is within the bound and agrees outside the edge band.
     pub fn f32_passed(&self) -> bool {
-        self.f32.errors.max_lsb <= self.bound_lsb && self.f32.status.outside == 0
+        !self.f32.checked || (self.f32.errors.max_lsb <= self.bound_lsb && self.f32.status.outside == 0)
     }
     /// Both paths passed.
     pub fn passed(&self) -> bool {
@@ -395,10 +403,11 @@ pub fn run(
             dst.extend(src.into_iter().take(room));
         }
     }
-    let report = |a: &Acc, examples: Vec<Disagreement>| {
+    let report = |checked: bool, a: &Acc, examples: Vec<Disagreement>| {
         let n = a.n.max(1) as f64;
         let rms_np = (a.ss_np / n).sqrt();
         PathReport {
+            checked,
             errors: PathErrors {
                 compared: a.n,
                 max_np: a.max_np,
@@ -418,8 +427,8 @@ pub fn run(
         reference_values: total.reference_values,
         bound_lsb: opts.bound_lsb,
         edge_codes: opts.edge_codes,
-        fixed: report(&total.fixed, total.fixed_examples),
-        f32: report(&total.f32, total.f32_examples),
+        fixed: report(opts.check_fixed, &total.fixed, total.fixed_examples),
+        f32: report(opts.check_f32, &total.f32, total.f32_examples),
         f32_backend: opts.f32_backend,
     })
 }
@@ -477,102 +486,110 @@ fn row(
     opts: &VerifyOptions,
 ) -> RowOut {
     let q = 2f64.powi(X_FRAC as i32);
-    let fixed_of = |r: Result<FixedReading, Error>| match r {
-        Ok(v) => Status::Value(f64::from(v.x) / q),
-        Err(e) => Status::Err(e),
+    // The fixed path's temperature stage, once per row; per code this is exactly `correct`/`correct_raw`
+    // (the code is checked first, then the stage's own error, then the log channel).
+    let stage = match g.code {
+        Some(tc) => fixed.stage_code(tc),
+        None => fixed.stage_millicelsius(g.millicelsius),
     };
+    let t32 = g.celsius.map(|t| t as f32);
     let n = codes.len();
     let mut reference = Vec::with_capacity(n);
-    let mut dxdc = Vec::with_capacity(n);
-    let mut fx = Vec::with_capacity(n);
-    let mut f3 = Vec::with_capacity(n);
-    for &code in codes {
+    // (index, path status) of each point where a path disagrees with the reference.
+    let mut pending: [Vec<(usize, Status)>; 2] = [Vec::new(), Vec::new()];
+    let mut out = RowOut::default();
+    let temp_c = g.celsius.unwrap_or(f64::NAN);
+    for (i, &code) in codes.iter().enumerate() {
         let (r, d) = match g.celsius {
             Ok(t) => match cal.correct_f64(f64::from(code), t) {
                 Ok(v) => (Status::Value(v.x), v.dx_dcode),
                 Err(e) => (Status::Err(e), 0.0),
             },
-            Err(e) => match cal.adc.check_code(code) {
-                Err(ce) => (Status::Err(ce), 0.0),
-                Ok(()) => (Status::Err(e), 0.0),
-            },
+            Err(e) => (Status::Err(cal.adc.check_code(code).err().unwrap_or(e)), 0.0),
         };
-        reference.push(r);
-        dxdc.push(d);
-        fx.push(fixed_of(match g.code {
-            Some(tc) => fixed.correct_raw(code, tc),
-            None => fixed.correct(code, g.millicelsius),
-        }));
-        f3.push(match g.celsius {
-            Ok(t) => {
-                let t = t as f32;
-                let r = match opts.f32_backend {
+        let fx = if !opts.check_fixed {
+            Err(Error::NotCalibrated)
+        } else {
+            match &stage {
+                Ok(s) => fixed.correct_staged(s, code).map(|v| f64::from(v.x) / q),
+                Err(e) => Err(fixed.check_code(code).err().unwrap_or(*e)),
+            }
+        };
+        let f3 = if !opts.check_f32 {
+            Err(Error::NotCalibrated)
+        } else {
+            match t32 {
+                Ok(t) => match opts.f32_backend {
                     F32Backend::Libm => cal.correct_with::<Libm>(code, t),
                     F32Backend::Micromath => cal.correct_with::<logtrim::math::Micromath>(code, t),
-                };
-                match r {
-                    Ok(v) => Status::Value(f64::from(v.x)),
-                    Err(e) => Status::Err(e),
                 }
+                .map(|v| f64::from(v.x)),
+                Err(e) => Err(cal.adc.check_code(code).err().unwrap_or(e)),
             }
-            Err(e) => match cal.adc.check_code(code) {
-                Err(ce) => Status::Err(ce),
-                Ok(()) => Status::Err(e),
-            },
-        });
-    }
-    let band = (opts.edge_codes as usize).div_ceil(opts.code_stride as usize).max(1);
-    let at_edge = |i: usize| {
-        let lo = i.saturating_sub(band);
-        let hi = (i + band).min(n - 1);
-        (lo..=hi).any(|j| !reference[j].same_kind(&reference[i]))
-    };
-    let temp_c = g.celsius.unwrap_or(f64::NAN);
-    let mut out = RowOut {
-        reference_values: reference.iter().filter(|s| matches!(s, Status::Value(_))).count() as u64,
-        ..Default::default()
-    };
-    for (path, acc, examples) in
-        [(&fx, &mut out.fixed, &mut out.fixed_examples), (&f3, &mut out.f32, &mut out.f32_examples)]
-    {
-        for i in 0..n {
-            let (r, p) = (&reference[i], &path[i]);
-            match (r, p) {
-                (Status::Value(xr), Status::Value(x)) => {
+        };
+        for (k, p) in [(opts.check_fixed, fx), (opts.check_f32, f3)]
+            .into_iter()
+            .enumerate()
+            .filter_map(|(k, (on, p))| on.then_some((k, p)))
+        {
+            let acc = if k == 0 { &mut out.fixed } else { &mut out.f32 };
+            match (&r, p) {
+                (Status::Value(xr), Ok(x)) => {
                     acc.agree += 1;
                     let e = (x - xr).abs();
-                    let lsb = if dxdc[i] != 0.0 { e / dxdc[i].abs() } else { f64::INFINITY };
+                    let lsb = if d != 0.0 { e / d.abs() } else { f64::INFINITY };
                     acc.n += 1;
                     acc.max_np = acc.max_np.max(e);
                     acc.ss_np += e * e;
                     acc.ss_lsb += lsb * lsb;
                     if lsb > acc.max_lsb || acc.worst.is_none() {
                         acc.max_lsb = acc.max_lsb.max(lsb);
-                        acc.worst = Some(Worst {
-                            code: codes[i],
-                            temp_c,
-                            temp_code: g.code,
-                            x_ref: *xr,
-                            x: *x,
-                            err_lsb: lsb,
-                        });
+                        acc.worst =
+                            Some(Worst { code, temp_c, temp_code: g.code, x_ref: *xr, x, err_lsb: lsb });
                     }
                 }
-                _ if r.same_kind(p) => acc.agree += 1,
-                _ if at_edge(i) => acc.edge += 1,
-                _ if g.temperature_edge && (r.is_temperature_error() || p.is_temperature_error()) => {
-                    acc.edge += 1
-                }
-                _ => {
-                    acc.outside += 1;
-                    if examples.len() < MAX_EXAMPLES {
-                        examples.push(Disagreement {
-                            code: codes[i],
-                            temp_c,
-                            reference: r.name(),
-                            path: p.name(),
-                        });
+                (_, p) => {
+                    let p = match p {
+                        Ok(x) => Status::Value(x),
+                        Err(e) => Status::Err(e),
+                    };
+                    if r.same_kind(&p) {
+                        acc.agree += 1;
+                    } else {
+                        pending[k].push((i, p));
                     }
+                }
+            }
+        }
+        out.reference_values += u64::from(matches!(r, Status::Value(_)));
+        reference.push(r);
+    }
+    // Classify the disagreements now that the reference's whole row is known.
+    let band = (opts.edge_codes as usize).div_ceil(opts.code_stride as usize).max(1);
+    let at_edge = |i: usize| {
+        let lo = i.saturating_sub(band);
+        let hi = (i + band).min(n - 1);
+        (lo..=hi).any(|j| !reference[j].same_kind(&reference[i]))
+    };
+    for (k, list) in pending.iter().enumerate() {
+        let (acc, examples) = if k == 0 {
+            (&mut out.fixed, &mut out.fixed_examples)
+        } else {
+            (&mut out.f32, &mut out.f32_examples)
+        };
+        for (i, p) in list {
+            let r = &reference[*i];
+            if at_edge(*i) || (g.temperature_edge && (r.is_temperature_error() || p.is_temperature_error())) {
+                acc.edge += 1;
+            } else {
+                acc.outside += 1;
+                if examples.len() < MAX_EXAMPLES {
+                    examples.push(Disagreement {
+                        code: codes[*i],
+                        temp_c,
+                        reference: r.name(),
+                        path: p.name(),
+                    });
                 }
             }
         }
@@ -598,6 +615,10 @@ impl std::fmt::Display for VerifyReport {
         for (name, p, ok) in
             [("fixed", &self.fixed, self.fixed_passed()), (backend, &self.f32, self.f32_passed())]
         {
+            if !p.checked {
+                writeln!(f, "{name}: not verified")?;
+                continue;
+            }
             let e = &p.errors;
             writeln!(f, "{name}: {}", if ok { "PASS" } else { "FAIL" })?;
             writeln!(

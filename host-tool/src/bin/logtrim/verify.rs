@@ -19,6 +19,17 @@ pub enum BackendArg {
     Micromath,
 }
 
+/// Which paths to verify.
+#[derive(ValueEnum, Debug, Clone, Copy, PartialEq, Eq)]
+pub enum PathArg {
+    /// The fixed-point and the f32 path.
+    Both,
+    /// The fixed-point path only.
+    Fixed,
+    /// The f32 path only.
+    F32,
+}
+
 /// Arguments of `logtrim verify`.
 #[derive(Args, Debug)]
 pub struct VerifyArgs {
@@ -33,6 +44,9 @@ pub struct VerifyArgs {
     /// The f32 path's backend.
     #[arg(long, value_enum, default_value_t = BackendArg::Libm)]
     pub backend: BackendArg,
+    /// The paths to verify against the f64 reference.
+    #[arg(long, value_enum, default_value_t = PathArg::Both)]
+    pub path: PathArg,
     /// Verify every N-th log code only (a quicker, sampled run).
     #[arg(long, default_value_t = 1)]
     pub code_stride: u32,
@@ -63,6 +77,8 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
             BackendArg::Libm => F32Backend::Libm,
             BackendArg::Micromath => F32Backend::Micromath,
         },
+        check_fixed: args.path != PathArg::F32,
+        check_f32: args.path != PathArg::Fixed,
         progress: std::io::stderr().is_terminal() && std::io::stdout().is_terminal(),
     };
     let start = std::time::Instant::now();
