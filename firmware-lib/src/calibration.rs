@@ -488,7 +488,6 @@ impl Calibration {
     fn evaluate_real<M: MathOps>(&self, code: M::F, temp_c: M::F) -> Result<Point<M::F>, Error> {
         type F<M> = <M as MathOps>::F;
         let of = F::<M>::of;
-        let zero = of(0.0);
         let one = of(1.0);
         if !temp_c.finite() {
             return Err(Error::NonFinite);
@@ -502,23 +501,51 @@ impl Calibration {
         }
         let extrapolated = temp_c < tmin || temp_c > tmax;
 
+        let st = self.stage::<M>(temp_c)?;
+        let w = (code - st.offset) / st.slope;
+        let (x, sens) = self.x_from_w::<M>(w, &st)?;
+        if sens < of(self.x_range.min_sensitivity) || x < of(self.x_range.min) {
+            return Err(Error::BelowRange);
+        }
+        if x > of(self.x_range.max) {
+            return Err(Error::AboveRange);
+        }
+        // ∂x/∂code ≈ 1/(slope · sens) (the residual's own slope is small by construction).
+        let dx_dcode = one / (st.slope * sens);
+        Ok(Point { x, extrapolated, sens, dx_dcode })
+    }
+
+    /// The temperature-dependent stage of the inverse at one temperature: offset (level shift included)
+    /// and slope in codes, `h` = bulk term over slope, β, and τ.
+    fn stage<M: MathOps>(&self, temp_c: M::F) -> Result<Stage<M::F>, Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let zero = of(0.0);
         let m = &self.model;
         let tau = (temp_c - of(m.t_center_c)) / of(m.t_half_span_k);
-        let den = one + of(m.pole) * tau;
-        let t_k = temp_c + F::<M>::zero_celsius_k();
-        let slope = t_k / of(m.t_ref_k) * m.slope.eval(tau) / den;
+        let den = of(1.0) + of(m.pole) * tau;
+        let ptat = (temp_c + F::<M>::zero_celsius_k()) / of(m.t_ref_k);
+        let slope = ptat * m.slope.eval(tau) / den;
         if !(slope > zero) || !slope.finite() {
             return Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope));
         }
-        let h = m.bulk.eval(tau) / den / slope;
-        let beta =
-            if m.bias.enabled { M::exp(of(m.bias.ln_beta0) + of(m.bias.ln_beta1) * tau) } else { zero };
-        let offset = (m.offset.eval(tau) + of(m.bias.reference) * (t_k / of(m.t_ref_k)) * beta) / den;
+        let ln_beta = of(m.bias.ln_beta0) + of(m.bias.ln_beta1) * tau;
+        let beta = if m.bias.enabled { M::exp(ln_beta) } else { zero };
+        let offset =
+            of(self.adc.level_shift_code) + (m.offset.eval(tau) + of(m.bias.reference) * ptat * beta) / den;
+        Ok(Stage { offset, slope, h: m.bulk.eval(tau) / den / slope, beta, ln_beta, tau })
+    }
 
-        let w = (code - of(self.adc.level_shift_code) - offset) / slope;
+    /// x and the sensitivity ∂w/∂x from w at a stage: Newton on `z + h(e^z − β) = w`, `x₀ = ln(e^z − β)`,
+    /// then the residual. No range checks; [`Error::BelowRange`] where no x exists (`e^z ≤ β`).
+    fn x_from_w<M: MathOps>(&self, w: M::F, st: &Stage<M::F>) -> Result<(M::F, M::F), Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let (zero, one) = (of(0.0), of(1.0));
         if w > of(MAX_EXP_ARG) {
             return Err(Error::AboveRange);
         }
+        let (h, beta) = (st.h, st.beta);
         // Newton on F(z) = z + h(e^z − β) − w, F'(z) = 1 + h e^z, from z = w.
         let mut z = w;
         if h != zero {
@@ -544,21 +571,13 @@ impl Calibration {
         let x0 = M::ln(y);
         // Sensitivity ∂w/∂x = e^x/(e^x + β) + h e^x.
         let sens = y / ez + h * y;
-        let r = &m.residual;
+        let r = &self.model.residual;
         let xi = (x0 - of(r.x_center)) / of(r.x_half_span);
-        let x = x0 + r.eval(xi, tau);
+        let x = x0 + r.eval(xi, st.tau);
         if !x.finite() {
             return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
         }
-        if sens < of(self.x_range.min_sensitivity) || x < of(self.x_range.min) {
-            return Err(Error::BelowRange);
-        }
-        if x > of(self.x_range.max) {
-            return Err(Error::AboveRange);
-        }
-        // ∂x/∂code ≈ 1/(slope · sens) (the residual's own slope is small by construction).
-        let dx_dcode = one / (slope * sens);
-        Ok(Point { x, extrapolated, sens, dx_dcode })
+        Ok((x, sens))
     }
 
     /// The checks that every correction repeats: cheap enough for each call, enough to rule out panics
@@ -576,6 +595,75 @@ impl Calibration {
         }
         Ok(())
     }
+}
+
+/// The temperature-dependent stage of the inverse model at one temperature, in f64 (a host helper for
+/// table generation): `w = (code − offset_codes)/slope`, then the bends with `h` and `β`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StageF64 {
+    /// The code at which w = 0: the level shift plus the offset `P_c(τ)/(1 + qτ)`, codes.
+    pub offset_codes: f64,
+    /// The slope `S = (T_K/T_ref)·P_s(τ)/(1 + qτ)`, codes per neper.
+    pub slope: f64,
+    /// `h = P_h(τ)/(1 + qτ)/S`, the bulk term over the slope.
+    pub bulk_over_slope: f64,
+    /// `β(τ)`, zero when the bias term is off.
+    pub beta: f64,
+    /// `ln β(τ) = b₀ + b₁τ`, or `None` when the bias term is off.
+    pub ln_beta: Option<f64>,
+    /// The normalised temperature τ.
+    pub tau: f64,
+}
+
+/// x evaluated from w (no range checks) by [`Calibration::x_from_w_f64`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct XFromW {
+    /// x = ln(I_sig/I_ref), residual included.
+    pub x: f64,
+    /// The local sensitivity ∂w/∂x (1 for an ideal front end).
+    pub sensitivity: f64,
+}
+
+impl Calibration {
+    /// The temperature-dependent stage at `temp_c` in f64, exactly as [`Calibration::correct_f64`] computes
+    /// it. No range check on the temperature; an error only where the slope is not positive and finite.
+    pub fn stage_f64(&self, temp_c: f64) -> Result<StageF64, Error> {
+        let st = self.stage::<F64Math>(temp_c)?;
+        Ok(StageF64 {
+            offset_codes: st.offset,
+            slope: st.slope,
+            bulk_over_slope: st.h,
+            beta: st.beta,
+            ln_beta: self.model.bias.enabled.then_some(st.ln_beta),
+            tau: st.tau,
+        })
+    }
+
+    /// x from w = (code − offset)/slope at `temp_c`, in f64, by the same steps as [`Calibration::correct_f64`]
+    /// but without any range check (a host helper for table generation, defined also outside the ADC's
+    /// codes). [`Error::BelowRange`] where the bias current swamps the signal (`e^z ≤ β`: no x exists).
+    pub fn x_from_w_f64(&self, w: f64, temp_c: f64) -> Result<XFromW, Error> {
+        if !(w.is_finite() && temp_c.is_finite()) {
+            return Err(Error::NonFinite);
+        }
+        let st = self.stage::<F64Math>(temp_c)?;
+        let (x, sensitivity) = self.x_from_w::<F64Math>(w, &st)?;
+        Ok(XFromW { x, sensitivity })
+    }
+}
+
+/// [`Error::TemperatureOutOfRange`] for a temperature given in m°C (for integer code that has no float types).
+pub fn temperature_out_of_range_millicelsius(millicelsius: i32) -> Error {
+    Error::TemperatureOutOfRange { celsius: millicelsius as f32 / 1000.0 }
+}
+
+struct Stage<F> {
+    offset: F,
+    slope: F,
+    h: F,
+    beta: F,
+    ln_beta: F,
+    tau: F,
 }
 
 struct Point<F> {

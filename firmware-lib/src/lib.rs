@@ -21,6 +21,7 @@
 //! | [`divider`] | ADC code → sensor resistance for a ratiometric divider, with open/short detection |
 //! | [`sensor`] | the temperature channel of a unit: element behind a divider, code → °C |
 //! | [`image`] | per-unit calibration images: binary layout, checked parsing, writing, A/B slots |
+//! | [`fixed`] | the integer fixed-point correction from host-generated tables, for cores without an FPU |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -39,6 +40,7 @@ pub mod calibration;
 pub mod divider;
 pub mod error;
 pub mod filter;
+pub mod fixed;
 #[cfg(feature = "hal")]
 pub mod hal;
 pub mod image;

@@ -21,6 +21,9 @@
 //! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
 //! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
+//! | [`emit`] | Rust, C and JSON renderings of a unit's fixed-point tables |
+//! | [`tables`] | the fixed-point tables of a calibration (and of a raw temperature channel), universal tables |
+//! | [`verify`] | exhaustive verification of the fixed-point and f32 paths against the f64 reference |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
@@ -30,6 +33,7 @@ pub mod budget;
 pub mod calfile;
 pub mod data;
 pub mod demo;
+pub mod emit;
 pub mod fit;
 pub mod frontend;
 pub mod image_file;
@@ -38,5 +42,7 @@ pub mod plot;
 pub mod report;
 pub mod sensor_tool;
 pub mod simulate;
+pub mod tables;
+pub mod verify;
 
 pub use logtrim;

@@ -10,12 +10,14 @@ use clap::{Parser, Subcommand};
 mod apply;
 mod budget;
 mod demo;
+mod emit;
 mod fit;
 mod image;
 mod inspect;
 mod plot;
 mod sensor;
 mod simulate;
+mod verify;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
 #[derive(Parser)]
@@ -51,6 +53,10 @@ enum Command {
     /// Temperature channels from a data sheet: thermistor coefficients from points, R–T tables with the
     /// divider's codes, and the settings file that `fit --sensor` reads.
     Sensor(sensor::SensorArgs),
+    /// Verify the fixed-point and f32 paths against the f64 reference over every code and temperature.
+    Verify(verify::VerifyArgs),
+    /// Emit the unit's fixed-point tables as Rust, C or JSON.
+    Emit(emit::EmitArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -98,6 +104,8 @@ fn main() -> ExitCode {
         Command::Plot(args) => plot::run(args),
         Command::Budget(args) => budget::run(args),
         Command::Sensor(args) => sensor::run(args),
+        Command::Verify(args) => verify::run(&args),
+        Command::Emit(args) => emit::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,0 +1,357 @@
+//! Unit tests of the fixed path on hand-built tables: statuses at every extreme, exact values where the
+//! tables make them exact, unit conversions against published values, and no panic on garbage tables.
+//! (Accuracy against the f64 model is the host's job: `host-tool/tests/fixed_tables.rs` and `logtrim verify`.)
+
+use std::vec;
+use std::vec::Vec;
+
+use super::*;
+use crate::calibration::temperature_out_of_range_millicelsius as t_err;
+
+/// A linear unit: x = (code − 32768)/4096 Np at every temperature, −5…55 °C accepted, 0…50 °C calibrated,
+/// x in [−7, 7], a temperature channel with θ = 10 m°C per code from code 100 to 4000.
+struct Owned {
+    header: FixedHeader,
+    offset: Vec<i32>,
+    inv_slope: Vec<i32>,
+    ln_bias: Vec<i32>,
+    u_min: Vec<i32>,
+    residual: Vec<i16>,
+    sensor: Vec<i32>,
+}
+
+const Q24: i64 = 1 << 24;
+
+fn linear() -> Owned {
+    let header = FixedHeader {
+        layout: LAYOUT_VERSION,
+        adc_max_code: 65535,
+        rail_margin: 16,
+        temp_min: 0,
+        temp_max: 50_000 * 1024,
+        temp_lo: -5_000 * 1024,
+        temp_hi: 55_000 * 1024,
+        t_knots: 4,
+        t_origin: -5_000 * 1024,
+        t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
+        offset_frac: 14,
+        inv_slope_frac: 42,
+        bias_bend: false,
+        sensitivity_limit: false,
+        xa_knots: 5,
+        xa_origin: -9 * (1 << 24),
+        xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
+        residual_frac: 16,
+        x_min: -7 * (1 << 24),
+        x_max: 7 * (1 << 24),
+    };
+    Owned {
+        header,
+        offset: vec![32768 << 14; 6],
+        inv_slope: vec![1 << 30; 6],
+        ln_bias: vec![],
+        u_min: vec![],
+        residual: vec![0; 6 * 7],
+        // θ(code) = (code − 100)·10 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)).
+        sensor: (0..19).map(|i| (i - 1) * 256 * 10 * 1024).collect(),
+    }
+}
+
+impl Owned {
+    fn view(&self) -> FixedCalibration<'_> {
+        FixedCalibration {
+            header: self.header,
+            offset: &self.offset,
+            inv_slope: &self.inv_slope,
+            ln_bias: &self.ln_bias,
+            u_min: &self.u_min,
+            residual: &self.residual,
+            sensor: Some(SensorTable {
+                code_lo: 100,
+                code_hi: 4000,
+                step_log2: 8,
+                fault_below: SensorFault::OutOfModelRange,
+                far_below_code: 10,
+                fault_far_below: SensorFault::Short,
+                fault_above: SensorFault::OutOfModelRange,
+                far_above_code: 4090,
+                fault_far_above: SensorFault::Open,
+                knots: &self.sensor,
+            }),
+        }
+    }
+}
+
+fn x_of(code: u32) -> i32 {
+    ((i64::from(code) - 32768) * 4096) as i32
+}
+
+#[test]
+fn hand_built_tables_validate() {
+    assert_eq!(linear().view().validate(), Ok(()));
+}
+
+#[test]
+fn linear_tables_are_exact() {
+    let o = linear();
+    let c = o.view();
+    for code in [4096, 20000, 32768, 32769, 40000, 61440] {
+        for t in [-5000, 0, 25_000, 50_000, 55_000] {
+            let r = c.correct(code, t).unwrap();
+            assert_eq!(r.x, x_of(code), "code {code} at {t} m°C");
+        }
+    }
+    assert_eq!(c.correct(32768 + 4096, 25_000).unwrap().x, 1 << 24);
+}
+
+#[test]
+fn code_extremes() {
+    let o = linear();
+    let c = o.view();
+    assert_eq!(c.correct(0, 25_000), Err(Error::Saturated { code: 0 }));
+    assert_eq!(c.correct(15, 25_000), Err(Error::Saturated { code: 15 }));
+    // A code at the margin counts as saturated, as in the f32 path; code 17 is inside the rails but
+    // x = −7.996 is below the calibrated x range.
+    assert_eq!(c.correct(16, 25_000), Err(Error::Saturated { code: 16 }));
+    assert_eq!(c.correct(17, 25_000), Err(Error::BelowRange));
+    assert_eq!(c.correct(65518, 25_000), Err(Error::AboveRange));
+    assert_eq!(c.correct(65519, 25_000), Err(Error::Saturated { code: 65519 }));
+    assert_eq!(c.correct(65520, 25_000), Err(Error::Saturated { code: 65520 }));
+    assert_eq!(c.correct(65535, 25_000), Err(Error::Saturated { code: 65535 }));
+    assert_eq!(c.correct(65536, 25_000), Err(Error::CodeOutOfAdcRange { code: 65536, max: 65535 }));
+    assert_eq!(c.correct(u32::MAX, 25_000), Err(Error::CodeOutOfAdcRange { code: u32::MAX, max: 65535 }));
+    // The code is checked before the temperature, as in the f32 path.
+    assert_eq!(c.correct(u32::MAX, i32::MAX), Err(Error::CodeOutOfAdcRange { code: u32::MAX, max: 65535 }));
+    assert_eq!(c.correct_raw(0, u32::MAX), Err(Error::Saturated { code: 0 }));
+    // The x range ends are inclusive.
+    assert_eq!(c.correct(4096, 25_000).map(|r| r.x), Ok(-7 << 24));
+    assert_eq!(c.correct(4095, 25_000), Err(Error::BelowRange));
+    assert_eq!(c.correct(61440, 25_000).map(|r| r.x), Ok(7 << 24));
+    assert_eq!(c.correct(61441, 25_000), Err(Error::AboveRange));
+}
+
+#[test]
+fn temperature_extremes_and_extrapolation() {
+    let o = linear();
+    let c = o.view();
+    let code = 40000;
+    for t in [0, 1, 25_000, 49_999, 50_000] {
+        assert!(!c.correct(code, t).unwrap().temperature_extrapolated, "{t}");
+    }
+    for t in [-5000, -4999, -1, 50_001, 54_999, 55_000] {
+        assert!(c.correct(code, t).unwrap().temperature_extrapolated, "{t}");
+    }
+    for t in [-5001, 55_001, i32::MIN, i32::MIN + 1, i32::MAX, -273_150] {
+        assert_eq!(c.correct(code, t), Err(t_err(t)), "{t}");
+    }
+    let mut strict = linear();
+    strict.header.temp_lo = strict.header.temp_min;
+    strict.header.temp_hi = strict.header.temp_max;
+    assert_eq!(strict.view().correct(code, 50_001), Err(t_err(50_001)));
+    assert_eq!(strict.view().correct(code, -1), Err(t_err(-1)));
+}
+
+#[test]
+fn sensor_table_and_faults() {
+    let o = linear();
+    let c = o.view();
+    assert_eq!(c.theta_from_code(100), Ok(0));
+    assert_eq!(c.theta_from_code(356), Ok(256 * 10 * 1024));
+    assert_eq!(c.theta_from_code(2600), Ok(25_000 * 1024));
+    assert_eq!(c.theta_from_code(4000), Ok(39_000 * 1024));
+    assert_eq!(c.theta_from_code(99), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+    assert_eq!(c.theta_from_code(10), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+    assert_eq!(c.theta_from_code(9), Err(Error::Sensor(SensorFault::Short)));
+    assert_eq!(c.theta_from_code(0), Err(Error::Sensor(SensorFault::Short)));
+    assert_eq!(c.theta_from_code(4001), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+    assert_eq!(c.theta_from_code(4090), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+    assert_eq!(c.theta_from_code(4091), Err(Error::Sensor(SensorFault::Open)));
+    assert_eq!(c.theta_from_code(u32::MAX), Err(Error::Sensor(SensorFault::Open)));
+    assert_eq!(c.correct_raw(40000, 2600), c.correct(40000, 25_000));
+    assert_eq!(c.correct_raw(40000, 5000), Err(Error::Sensor(SensorFault::Open)));
+    // Codes 100…4000 map to 0…39 °C: all inside; a table reaching past the range gives the range error.
+    let mut hot = linear();
+    hot.sensor.iter_mut().for_each(|k| *k = k.saturating_mul(2));
+    assert_eq!(hot.view().correct_raw(40000, 3000), Err(t_err(58_000)));
+    // Without a sensor table, a raw temperature code cannot be converted.
+    let mut none = o.view();
+    none.sensor = None;
+    assert_eq!(none.correct_raw(40000, 2600), Err(Error::NotCalibrated));
+}
+
+#[test]
+fn staged_correction_equals_the_direct_one() {
+    let o = linear();
+    let c = o.view();
+    let stage = c.stage_millicelsius(52_000).unwrap();
+    assert!(stage.extrapolated());
+    for code in (0..=65535u32).step_by(101).chain([u32::MAX]) {
+        assert_eq!(c.correct_staged(&stage, code), c.correct(code, 52_000));
+    }
+    assert_eq!(c.stage_millicelsius(60_000), Err(t_err(60_000)));
+    assert_eq!(c.stage_code(4001), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+}
+
+#[test]
+fn sensitivity_limit_and_bias_floor() {
+    let mut o = linear();
+    o.header.bias_bend = true;
+    o.header.sensitivity_limit = true;
+    // λ = −5 Np; u_min = −4 Np.
+    o.ln_bias = vec![-5 << 24; 6];
+    o.u_min = vec![-4 << 24; 6];
+    // A wider x̃ grid and x range, so the swamped low end (x̃ down to −12 Np) stays inside them.
+    o.header.x_min = -16 << 24;
+    o.header.xa_origin = -18 << 24;
+    o.header.xa_inv_step = 1_864_135; // floor(2^24 / 9 Np)
+    let c = o.view();
+    assert_eq!(c.validate(), Ok(()));
+    let code_at = |u_np: i64| (32768 + u_np * 4096) as u32;
+    assert_eq!(c.correct(code_at(-4) - 1, 25_000), Err(Error::BelowRange));
+    let at = c.correct(code_at(-4), 25_000).unwrap();
+    // x̃ = u + G(1 Np) = −4 + ln(1 − e^−1): 1 − 1/e = 0.6321205588 and ln 0.6321205588 = −0.4586751454
+    // (values from memory of standard tables), −0.4586751454 · 2^24 = −7_695_292.
+    assert!((i64::from(at.x) - (-4 * Q24 - 7_695_292)).abs() < 32, "{}", at.x);
+    // Without the sensitivity limit, the bend table's floor (v < 2^−10 Np) refuses the swamped low end.
+    o.header.sensitivity_limit = false;
+    let c = o.view();
+    let floor_code = 32768 - 5 * 4096; // u = λ exactly: v = 0
+    assert_eq!(c.correct(floor_code, 25_000), Err(Error::BelowRange));
+    assert_eq!(c.correct(floor_code + 1, 25_000), Err(Error::BelowRange)); // v = 2^−12 < 2^−10
+    assert!(c.correct(floor_code + 5, 25_000).is_ok()); // v = 5·2^−12 > 2^−10
+                                                        // x increases with the code wherever it is defined.
+    let mut last = i32::MIN;
+    for code in floor_code + 5..61000 {
+        let x = c.correct(code, 25_000).unwrap().x;
+        assert!(x > last, "code {code}");
+        last = x;
+    }
+}
+
+#[test]
+fn units_against_published_values() {
+    let one = FixedReading { x: 1 << 24, temperature_extrapolated: false };
+    // ISO 80000-3: 1 Np = 8.685889638 dB (amplitude); power dB are half. 8.685889638 · 2^24 = 145_725_046.6.
+    assert!((one.value(Unit::DbAmplitude).unwrap() - 145_725_047).abs() <= 2);
+    assert!((one.value(Unit::DbPower).unwrap() - 72_862_523).abs() <= 2);
+    // log10(e) = 0.4342944819 → 7_286_252.3 in Q24.
+    assert!((one.value(Unit::Decades).unwrap() - 7_286_252).abs() <= 1);
+    assert_eq!(one.value(Unit::Nepers), Ok(1 << 24));
+    // e = 2.718281828 → 11_674_931_554.5 in Q32 (relative budget 1.5e-8: ±180).
+    assert!((one.value(Unit::Ratio).unwrap() - 11_674_931_555).abs() <= 180);
+    assert!((one.value(Unit::TransmittancePercent).unwrap() - 4_560_520_138).abs() <= 70);
+    // Common practice: 10 % transmittance is 1 AU. ln 0.1 = −2.302585093 → −38_630_967.5 in Q24.
+    let tenth = FixedReading { x: -38_630_967, temperature_extrapolated: false };
+    assert!((tenth.value(Unit::Absorbance).unwrap() - Q24).abs() <= 1);
+    assert!((tenth.value(Unit::TransmittancePercent).unwrap() - 10 * Q24).abs() <= 4);
+    // The extremes of x: log units fit, the linear ones report that they do not.
+    for x in [i32::MIN, i32::MAX] {
+        let r = FixedReading { x, temperature_extrapolated: false };
+        for u in [Unit::Nepers, Unit::Decades, Unit::DbPower, Unit::DbAmplitude, Unit::Absorbance] {
+            assert!(r.value(u).is_ok(), "{u:?} at {x}");
+        }
+    }
+    let big = FixedReading { x: i32::MAX, temperature_extrapolated: false };
+    assert_eq!(big.value(Unit::Ratio), Err(Error::AboveRange));
+    assert_eq!(big.value(Unit::TransmittancePercent), Err(Error::AboveRange));
+    let small = FixedReading { x: i32::MIN, temperature_extrapolated: false };
+    assert_eq!(small.value(Unit::Ratio), Ok(0));
+    assert_eq!(value_frac_bits(Unit::Ratio), 32);
+    assert_eq!(value_frac_bits(Unit::DbPower), 24);
+}
+
+#[test]
+fn validate_names_the_defect() {
+    use CalibrationDefect as D;
+    let check = |f: &dyn Fn(&mut Owned), want: CalibrationDefect| {
+        let mut o = linear();
+        f(&mut o);
+        assert_eq!(o.view().validate(), Err(Error::InvalidCalibration(want)));
+    };
+    check(&|o| o.header.layout = 9, D::Coefficient);
+    check(&|o| o.header.adc_max_code = 1 << 24, D::AdcBits);
+    check(&|o| o.header.rail_margin = 40000, D::RailMargin);
+    check(&|o| o.header.temp_min = o.header.temp_max, D::TemperatureRange);
+    check(&|o| o.header.temp_lo = o.header.temp_min + 1, D::TemperatureRange);
+    check(&|o| o.header.x_max = o.header.x_min, D::XRange);
+    check(&|o| o.header.t_inv_step = 0, D::Normalisation);
+    check(&|o| o.header.t_origin += 1024, D::Normalisation);
+    check(&|o| o.header.offset_frac = 31, D::Coefficient);
+    check(&|o| o.header.offset_frac = 16, D::Coefficient); // 65535 · 2^16 does not fit below 2^31
+    check(&|o| o.residual.pop().map_or((), |_| ()), D::Coefficient);
+    check(&|o| o.header.bias_bend = true, D::Coefficient); // λ table missing
+    check(&|o| o.inv_slope[2] = 0, D::ZeroSlope);
+    check(&|o| o.sensor.truncate(10), D::Coefficient);
+}
+
+/// A seeded xorshift generator (Marsaglia 2003), so the garbage below is the same on every run.
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        self.0
+    }
+    fn i32(&mut self) -> i32 {
+        // Mostly extremes and small values, some uniform.
+        match self.next() % 6 {
+            0 => i32::MIN,
+            1 => i32::MAX,
+            2 => (self.next() % 64) as i32 - 32,
+            _ => self.next() as i32,
+        }
+    }
+}
+
+#[test]
+fn garbage_tables_never_panic_or_wrap() {
+    // Overflow checks are on in test builds: any wrapping operation would panic here.
+    let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+    for _ in 0..4000 {
+        let mut o = linear();
+        let h = &mut o.header;
+        h.adc_max_code = rng.next() as u32;
+        h.rail_margin = (rng.next() % 64) as u32;
+        h.temp_min = rng.i32();
+        h.temp_max = rng.i32();
+        h.temp_lo = i32::MIN;
+        h.temp_hi = i32::MAX;
+        h.t_knots = rng.next() as u16;
+        h.t_origin = rng.i32();
+        h.t_inv_step = rng.i32();
+        h.offset_frac = rng.next() as u8;
+        h.inv_slope_frac = rng.next() as u8;
+        h.bias_bend = rng.next().is_multiple_of(2);
+        h.sensitivity_limit = rng.next().is_multiple_of(2);
+        h.xa_knots = rng.next() as u16;
+        h.xa_origin = rng.i32();
+        h.xa_inv_step = rng.i32();
+        h.residual_frac = rng.next() as u8;
+        h.x_min = rng.i32();
+        h.x_max = rng.i32();
+        let len = (rng.next() % 80) as usize;
+        o.offset = (0..len).map(|_| rng.i32()).collect();
+        o.inv_slope = (0..len).map(|_| rng.i32()).collect();
+        o.ln_bias = (0..len).map(|_| rng.i32()).collect();
+        o.u_min = (0..len).map(|_| rng.i32()).collect();
+        o.residual = (0..(rng.next() % 400) as usize).map(|_| rng.next() as i16).collect();
+        o.sensor = (0..(rng.next() % 30) as usize).map(|_| rng.i32()).collect();
+        let c = o.view();
+        let _ = c.validate();
+        for _ in 0..8 {
+            let code = match rng.next() % 3 {
+                0 => rng.next() as u32,
+                1 => (rng.next() % 65536) as u32,
+                _ => u32::MAX,
+            };
+            if let Ok(r) = c.correct(code, rng.i32()) {
+                for u in Unit::ALL {
+                    let _ = r.value(u);
+                }
+            }
+            let _ = c.correct_raw(code, rng.next() as u32);
+        }
+    }
+}

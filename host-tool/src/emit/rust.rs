@@ -1,0 +1,167 @@
+//! Rust source for firmware: `const` arrays and a `const FixedCalibration<'static>` borrowing them, to be
+//! brought in with `include!(concat!(env!("OUT_DIR"), "/unit.rs"))` from a build script's output. The items
+//! are `pub`, named `LOGTRIM_*`; wrap the `include!` in a module to namespace several units.
+//!
+//! [`universal_source`] renders the firmware crate's own `fixed/universal.rs` (the same for every unit).
+
+use super::{banner, number_lines, Provenance};
+use crate::tables::{FixedTables, TableError};
+use logtrim::error::SensorFault;
+use logtrim::fixed::FixedHeader;
+
+fn fault(f: SensorFault) -> &'static str {
+    match f {
+        SensorFault::Open => "logtrim::error::SensorFault::Open",
+        SensorFault::Short => "logtrim::error::SensorFault::Short",
+        _ => "logtrim::error::SensorFault::OutOfModelRange",
+    }
+}
+
+fn array<T: std::fmt::Display>(out: &mut String, name: &str, ty: &str, values: &[T], per_line: usize) {
+    out.push_str(&format!("pub const {name}: [{ty}; {}] = [\n", values.len()));
+    out.push_str(&number_lines(values, per_line, "    "));
+    out.push_str("];\n");
+}
+
+fn header_literal(h: &FixedHeader) -> String {
+    format!(
+        "logtrim::fixed::FixedHeader {{
+        layout: {},
+        adc_max_code: {},
+        rail_margin: {},
+        temp_min: {},
+        temp_max: {},
+        temp_lo: {},
+        temp_hi: {},
+        t_knots: {},
+        t_origin: {},
+        t_inv_step: {},
+        offset_frac: {},
+        inv_slope_frac: {},
+        bias_bend: {},
+        sensitivity_limit: {},
+        xa_knots: {},
+        xa_origin: {},
+        xa_inv_step: {},
+        residual_frac: {},
+        x_min: {},
+        x_max: {},
+    }}",
+        h.layout,
+        h.adc_max_code,
+        h.rail_margin,
+        h.temp_min,
+        h.temp_max,
+        h.temp_lo,
+        h.temp_hi,
+        h.t_knots,
+        h.t_origin,
+        h.t_inv_step,
+        h.offset_frac,
+        h.inv_slope_frac,
+        h.bias_bend,
+        h.sensitivity_limit,
+        h.xa_knots,
+        h.xa_origin,
+        h.xa_inv_step,
+        h.residual_frac,
+        h.x_min,
+        h.x_max
+    )
+}
+
+/// Rust source of a unit's tables.
+pub fn render(t: &FixedTables, prov: &Provenance) -> String {
+    let mut out = format!("// {}\n", banner());
+    if let Some(u) = &prov.unit {
+        out.push_str(&format!("// unit: {u}\n"));
+    }
+    if let Some(s) = &prov.source {
+        out.push_str(&format!("// from: {s}\n"));
+    }
+    out.push_str(&format!("// {} bytes of tables; formats in the docs of `logtrim::fixed`.\n\n", t.bytes()));
+    let stride = usize::from(t.header.xa_knots) + 2;
+    array(&mut out, "LOGTRIM_OFFSET", "i32", &t.offset, 6);
+    array(&mut out, "LOGTRIM_INV_SLOPE", "i32", &t.inv_slope, 6);
+    array(&mut out, "LOGTRIM_LN_BIAS", "i32", &t.ln_bias, 6);
+    array(&mut out, "LOGTRIM_U_MIN", "i32", &t.u_min, 6);
+    out.push_str(&format!("/// r(x̃, T): {} rows of {stride}.\n", t.residual.len() / stride.max(1)));
+    array(&mut out, "LOGTRIM_RESIDUAL", "i16", &t.residual, stride.min(14));
+    let sensor = match &t.sensor {
+        Some(s) => {
+            array(&mut out, "LOGTRIM_SENSOR", "i32", &s.knots, 6);
+            format!(
+                "Some(logtrim::fixed::SensorTable {{
+        code_lo: {},
+        code_hi: {},
+        step_log2: {},
+        fault_below: {},
+        far_below_code: {},
+        fault_far_below: {},
+        fault_above: {},
+        far_above_code: {},
+        fault_far_above: {},
+        knots: &LOGTRIM_SENSOR,
+    }})",
+                s.code_lo,
+                s.code_hi,
+                s.step_log2,
+                fault(s.fault_below),
+                s.far_below_code,
+                fault(s.fault_far_below),
+                fault(s.fault_above),
+                s.far_above_code,
+                fault(s.fault_far_above)
+            )
+        }
+        None => "None".to_string(),
+    };
+    out.push_str(&format!(
+        "
+/// The unit's fixed-point calibration.
+pub const LOGTRIM_FIXED: logtrim::fixed::FixedCalibration<'static> = logtrim::fixed::FixedCalibration {{
+    header: {},
+    offset: &LOGTRIM_OFFSET,
+    inv_slope: &LOGTRIM_INV_SLOPE,
+    ln_bias: &LOGTRIM_LN_BIAS,
+    u_min: &LOGTRIM_U_MIN,
+    residual: &LOGTRIM_RESIDUAL,
+    sensor: {sensor},
+}};
+",
+        header_literal(&t.header)
+    ));
+    out
+}
+
+/// The firmware crate's `fixed/universal.rs`: the bias-bend and `2^(j/32)` tables.
+pub fn universal_source() -> Result<String, TableError> {
+    use logtrim::fixed::transcend::BEND_STRIDE;
+    let bend = crate::tables::universal_bend()?;
+    let exp2 = crate::tables::universal_exp2();
+    let mut out = format!("// {}\n", banner());
+    out.push_str(
+        "//! The universal tables of the fixed path, the same for every unit (generated on the host by
+//! `logtrim_host::tables::universal_bend` and `universal_exp2`; a host test regenerates this file and
+//! compares).
+//!
+//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24, one row per octave of v (see
+//!   [`super::transcend`]), fitted by least squares to the exact function.
+//! * [`EXP2`]: `2^(j/32)` for j = 0..32, Q30.
+
+use super::transcend::{BEND_LEN, EXP2_LEN};
+
+/// Bytes of flash the universal tables take.
+pub const BYTES: usize = 4 * (BEND_LEN + EXP2_LEN);
+
+/// `G(v)` control points, one row of `BEND_STRIDE` per octave.
+#[rustfmt::skip]
+pub static BEND: [i32; BEND_LEN] = [
+",
+    );
+    out.push_str(&number_lines(&bend, BEND_STRIDE, "    "));
+    out.push_str("];\n\n/// `2^(j/32)`, Q30.\n#[rustfmt::skip]\npub static EXP2: [i32; EXP2_LEN] = [\n");
+    out.push_str(&number_lines(&exp2, 8, "    "));
+    out.push_str("];\n");
+    Ok(out)
+}

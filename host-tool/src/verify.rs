@@ -1,0 +1,653 @@
+//! Verification of the firmware math: every log ADC code against a temperature grid across the calibrated
+//! range, the fixed-point path ([`logtrim::fixed`]) and the f32 path ([`Calibration::correct_with`]) each
+//! compared with the f64 evaluation of the same calibration ([`Calibration::correct_f64`]).
+//!
+//! # What is measured
+//!
+//! * Errors, where the reference and the path under test both give a value: `|x − x_ref|` in nepers, in dB
+//!   (power, `10·log10`: 1 Np = 4.343 dB; amplitude dB are twice these), and in ADC-LSB equivalents
+//!   `|x − x_ref| / |∂x/∂code|` (the reference's own derivative), with the worst input. The bound (default
+//!   ¼ LSB) applies to the LSB figure of each path.
+//! * Status agreement: a path and the reference disagree when one gives a value and the other an error,
+//!   or both errors of different kinds. A disagreement is **at an edge** when the reference's own status
+//!   changes within ±[`VerifyOptions::edge_codes`] codes of it at the same temperature: there, a fraction of
+//!   an LSB in x, in the sensitivity or in a range limit legitimately moves the point across the edge.
+//!   With a raw temperature channel, a temperature error (out of range, sensor fault) is also at an edge
+//!   where the temperature's own status changes at a neighbouring channel code: the table's fraction of a
+//!   millikelvin can move a code across the range end. Edge disagreements are counted and reported; any
+//!   other disagreement fails the verification.
+//!
+//! # The temperature grid
+//!
+//! With a raw temperature channel, every code of the channel (the reference and the f32 path take the
+//! sensor function's f64 temperature, the fixed path the code through its table, so the table's error is
+//! part of the figure). Otherwise m°C integers from the lowest to the highest accepted temperature
+//! (calibrated range plus extrapolation) in steps of at most [`VerifyOptions::temp_step_k`], both ends
+//! included; the fixed path takes the m°C, the f32 path the same temperature as f32.
+//!
+//! Temperature rows run in parallel (rayon).
+
+// Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
+#![allow(clippy::neg_cmp_op_on_partial_ord)]
+
+use logtrim::fixed::{FixedCalibration, X_FRAC};
+use logtrim::math::Libm;
+use logtrim::{Calibration, Error};
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// 1 Np in power dB.
+const DB_PER_NP: f64 = 10.0 * std::f64::consts::LOG10_E;
+
+/// The f32 backend the f32 path is verified with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum F32Backend {
+    /// libm's `logf`/`expf` (the firmware's default).
+    Libm,
+    /// micromath's approximations (opt-in, coarse).
+    Micromath,
+}
+
+/// Options of a verification.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VerifyOptions {
+    /// The error bound in LSB equivalents for both paths.
+    pub bound_lsb: f64,
+    /// Largest step of the temperature grid, K (without a raw temperature channel).
+    pub temp_step_k: f64,
+    /// Every `code_stride`-th log code (1 = every code; larger for sampled runs).
+    pub code_stride: u32,
+    /// Every `temp_stride`-th temperature of the grid (1 = all).
+    pub temp_stride: usize,
+    /// Half width of the edge band, codes.
+    pub edge_codes: u32,
+    /// The f32 backend.
+    pub f32_backend: F32Backend,
+    /// Verify the fixed-point path.
+    pub check_fixed: bool,
+    /// Verify the f32 path.
+    pub check_f32: bool,
+    /// Show a progress bar (the caller decides whether there is a terminal).
+    pub progress: bool,
+}
+
+impl Default for VerifyOptions {
+    fn default() -> Self {
+        VerifyOptions {
+            bound_lsb: 0.25,
+            temp_step_k: 0.05,
+            code_stride: 1,
+            temp_stride: 1,
+            edge_codes: 1,
+            f32_backend: F32Backend::Libm,
+            check_fixed: true,
+            check_f32: true,
+            progress: false,
+        }
+    }
+}
+
+/// A raw temperature channel for the sweep (see [`crate::tables::TemperatureChannel`]).
+pub use crate::tables::TemperatureChannel;
+
+/// Why a verification could not run.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum VerifyError {
+    /// An option is out of its range.
+    #[error("option {name}: {message}")]
+    Option {
+        /// The option.
+        name: &'static str,
+        /// What is wrong.
+        message: String,
+    },
+    /// The calibration does not validate.
+    #[error("the calibration does not validate: {0}")]
+    Calibration(logtrim::Error),
+    /// The fixed tables do not validate.
+    #[error("the fixed-point tables do not validate: {0}")]
+    Tables(logtrim::Error),
+    /// The fixed tables have no sensor table but a raw channel was given (or the reverse).
+    #[error("{0}")]
+    Sensor(String),
+}
+
+/// The input at which a worst error occurred.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Worst {
+    /// The log ADC code.
+    pub code: u32,
+    /// The temperature, °C (the sensor function's value with a raw channel).
+    pub temp_c: f64,
+    /// The temperature channel's code, with a raw channel.
+    pub temp_code: Option<u32>,
+    /// The reference x.
+    pub x_ref: f64,
+    /// The path's x.
+    pub x: f64,
+    /// The error, LSB equivalents.
+    pub err_lsb: f64,
+}
+
+/// Error figures of one path.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct PathErrors {
+    /// Points where both the path and the reference gave a value.
+    pub compared: u64,
+    /// Largest error, nepers.
+    pub max_np: f64,
+    /// RMS error, nepers.
+    pub rms_np: f64,
+    /// Largest error, power dB.
+    pub max_db: f64,
+    /// RMS error, power dB.
+    pub rms_db: f64,
+    /// Largest error, LSB equivalents.
+    pub max_lsb: f64,
+    /// RMS error, LSB equivalents.
+    pub rms_lsb: f64,
+    /// Where the largest LSB error occurred.
+    pub worst: Option<Worst>,
+}
+
+/// A status disagreement with the reference.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Disagreement {
+    /// The log code.
+    pub code: u32,
+    /// The temperature, °C.
+    pub temp_c: f64,
+    /// The reference's status (`ok` or the error's name).
+    pub reference: String,
+    /// The path's status.
+    pub path: String,
+}
+
+/// Status agreement of one path.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct StatusAgreement {
+    /// Points where the path and the reference agree (both values, or the same error).
+    pub agree: u64,
+    /// Disagreements inside the edge band.
+    pub edge: u64,
+    /// Disagreements outside it (failures).
+    pub outside: u64,
+    /// The first few disagreements outside the band.
+    pub examples: Vec<Disagreement>,
+}
+
+/// The verification of one path.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PathReport {
+    /// Whether the path was verified at all (see [`VerifyOptions::check_fixed`]).
+    pub checked: bool,
+    /// Errors.
+    pub errors: PathErrors,
+    /// Status agreement.
+    pub status: StatusAgreement,
+}
+
+/// The result of a verification.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct VerifyReport {
+    /// Log codes swept per temperature.
+    pub codes: u64,
+    /// Temperatures swept.
+    pub temperatures: u64,
+    /// Points where the reference gave a value.
+    pub reference_values: u64,
+    /// The bound, LSB equivalents.
+    pub bound_lsb: f64,
+    /// Half width of the edge band, codes.
+    pub edge_codes: u32,
+    /// The fixed-point path.
+    pub fixed: PathReport,
+    /// The f32 path.
+    pub f32: PathReport,
+    /// The f32 backend.
+    pub f32_backend: F32Backend,
+}
+
+impl VerifyReport {
+    /// Whether the fixed path is within the bound and agrees outside the edge band.
+    pub fn fixed_passed(&self) -> bool {
+        !self.fixed.checked || (self.fixed.errors.max_lsb <= self.bound_lsb && self.fixed.status.outside == 0)
+    }
+    /// Whether the f32 path is within the bound and agrees outside the edge band.
+    pub fn f32_passed(&self) -> bool {
+        !self.f32.checked || (self.f32.errors.max_lsb <= self.bound_lsb && self.f32.status.outside == 0)
+    }
+    /// Both paths passed.
+    pub fn passed(&self) -> bool {
+        self.fixed_passed() && self.f32_passed()
+    }
+}
+
+/// Status of one evaluation: a value or an error kind.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Status {
+    Value(f64),
+    Err(Error),
+}
+
+impl Status {
+    fn same_kind(&self, other: &Status) -> bool {
+        match (self, other) {
+            (Status::Value(_), Status::Value(_)) => true,
+            (Status::Err(a), Status::Err(b)) => match (a, b) {
+                (Error::Sensor(x), Error::Sensor(y)) => x == y,
+                _ => a.name() == b.name(),
+            },
+            _ => false,
+        }
+    }
+    fn is_temperature_error(&self) -> bool {
+        matches!(self, Status::Err(Error::TemperatureOutOfRange { .. } | Error::Sensor(_)))
+    }
+    fn name(&self) -> String {
+        match self {
+            Status::Value(_) => "ok".to_string(),
+            Status::Err(Error::Sensor(f)) => format!("sensor_fault({f})"),
+            Status::Err(e) => e.name().to_string(),
+        }
+    }
+}
+
+/// Running error sums of one path over some rows.
+#[derive(Debug, Clone, Copy, Default)]
+struct Acc {
+    n: u64,
+    max_np: f64,
+    ss_np: f64,
+    max_lsb: f64,
+    ss_lsb: f64,
+    worst: Option<Worst>,
+    agree: u64,
+    edge: u64,
+    outside: u64,
+}
+
+impl Acc {
+    fn merge(mut self, o: Acc) -> Acc {
+        self.n += o.n;
+        self.max_np = self.max_np.max(o.max_np);
+        self.ss_np += o.ss_np;
+        self.ss_lsb += o.ss_lsb;
+        if o.max_lsb > self.max_lsb || self.worst.is_none() {
+            self.max_lsb = self.max_lsb.max(o.max_lsb);
+            self.worst = o.worst.or(self.worst);
+        }
+        self.agree += o.agree;
+        self.edge += o.edge;
+        self.outside += o.outside;
+        self
+    }
+}
+
+/// One temperature of the grid.
+#[derive(Debug, Clone, Copy)]
+struct GridTemp {
+    /// °C for the reference.
+    celsius: Result<f64, Error>,
+    /// m°C for the fixed path (without a raw channel).
+    millicelsius: i32,
+    /// The channel code (with a raw channel).
+    code: Option<u32>,
+    /// With a raw channel: whether the temperature's own status (in range, out of range, sensor fault)
+    /// differs at a neighbouring channel code, so that temperature errors here are at an edge.
+    temperature_edge: bool,
+}
+
+/// The kind of status a temperature alone gives, for the temperature edge of a raw channel.
+fn temperature_kind(cal: &Calibration, t: &Result<f64, Error>) -> String {
+    match t {
+        Err(e) => Status::Err(*e).name(),
+        Ok(t) => {
+            let tr = &cal.temperature;
+            let (lo, hi) = (
+                f64::from(tr.min_c) - f64::from(tr.extrapolation_k),
+                f64::from(tr.max_c) + f64::from(tr.extrapolation_k),
+            );
+            if *t < lo || *t > hi {
+                "temperature_out_of_range".into()
+            } else {
+                "ok".into()
+            }
+        }
+    }
+}
+
+/// The results of one row (temperature).
+#[derive(Debug, Clone, Default)]
+struct RowOut {
+    reference_values: u64,
+    fixed: Acc,
+    f32: Acc,
+    fixed_examples: Vec<Disagreement>,
+    f32_examples: Vec<Disagreement>,
+}
+
+const MAX_EXAMPLES: usize = 10;
+
+/// Runs the verification of `fixed` (tables of `cal`) and of the f32 path against `cal.correct_f64`.
+pub fn run(
+    cal: &Calibration,
+    fixed: &FixedCalibration<'_>,
+    channel: Option<&TemperatureChannel<'_>>,
+    opts: &VerifyOptions,
+) -> Result<VerifyReport, VerifyError> {
+    let opt = |name, m: &str| VerifyError::Option { name, message: m.to_string() };
+    if !(opts.bound_lsb >= 0.0) {
+        return Err(opt("bound_lsb", "must be ≥ 0"));
+    }
+    if !(opts.temp_step_k > 0.0 && opts.temp_step_k.is_finite()) {
+        return Err(opt("temp_step_k", "must be > 0"));
+    }
+    if opts.code_stride == 0 || opts.temp_stride == 0 {
+        return Err(opt("stride", "must be ≥ 1"));
+    }
+    cal.validate().map_err(VerifyError::Calibration)?;
+    fixed.validate().map_err(VerifyError::Tables)?;
+    match (channel.is_some(), fixed.sensor.is_some()) {
+        (true, false) => {
+            return Err(VerifyError::Sensor(
+                "a raw temperature channel was given but the tables have no sensor table".into(),
+            ))
+        }
+        (false, true) => {
+            return Err(VerifyError::Sensor(
+                "the tables have a sensor table: give the raw temperature channel to verify it".into(),
+            ))
+        }
+        _ => {}
+    }
+    let grid = temperature_grid(cal, channel, opts)?;
+    let max_code = cal.adc.max_code().map_err(VerifyError::Calibration)?;
+    let codes: Vec<u32> = (0..=max_code).step_by(opts.code_stride as usize).collect();
+
+    let bar = if opts.progress {
+        let b = indicatif::ProgressBar::new(grid.len() as u64);
+        b.set_style(
+            indicatif::ProgressStyle::with_template("verify {bar:40} {pos}/{len} temperatures, {eta} left")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        Some(b)
+    } else {
+        None
+    };
+    let rows: Vec<RowOut> = grid
+        .par_iter()
+        .map(|g| {
+            let r = row(cal, fixed, g, &codes, opts);
+            if let Some(b) = &bar {
+                b.inc(1);
+            }
+            r
+        })
+        .collect();
+    if let Some(b) = bar {
+        b.finish_and_clear();
+    }
+
+    let mut total = RowOut::default();
+    for r in rows {
+        total.reference_values += r.reference_values;
+        total.fixed = total.fixed.merge(r.fixed);
+        total.f32 = total.f32.merge(r.f32);
+        for (dst, src) in
+            [(&mut total.fixed_examples, r.fixed_examples), (&mut total.f32_examples, r.f32_examples)]
+        {
+            let room = MAX_EXAMPLES.saturating_sub(dst.len());
+            dst.extend(src.into_iter().take(room));
+        }
+    }
+    let report = |checked: bool, a: &Acc, examples: Vec<Disagreement>| {
+        let n = a.n.max(1) as f64;
+        let rms_np = (a.ss_np / n).sqrt();
+        PathReport {
+            checked,
+            errors: PathErrors {
+                compared: a.n,
+                max_np: a.max_np,
+                rms_np,
+                max_db: a.max_np * DB_PER_NP,
+                rms_db: rms_np * DB_PER_NP,
+                max_lsb: a.max_lsb,
+                rms_lsb: (a.ss_lsb / n).sqrt(),
+                worst: a.worst,
+            },
+            status: StatusAgreement { agree: a.agree, edge: a.edge, outside: a.outside, examples },
+        }
+    };
+    Ok(VerifyReport {
+        codes: codes.len() as u64,
+        temperatures: grid.len() as u64,
+        reference_values: total.reference_values,
+        bound_lsb: opts.bound_lsb,
+        edge_codes: opts.edge_codes,
+        fixed: report(opts.check_fixed, &total.fixed, total.fixed_examples),
+        f32: report(opts.check_f32, &total.f32, total.f32_examples),
+        f32_backend: opts.f32_backend,
+    })
+}
+
+fn temperature_grid(
+    cal: &Calibration,
+    channel: Option<&TemperatureChannel<'_>>,
+    opts: &VerifyOptions,
+) -> Result<Vec<GridTemp>, VerifyError> {
+    if let Some(ch) = channel {
+        let kind = |c: u32| temperature_kind(cal, &(ch.celsius)(c));
+        let (first, last) = (*ch.codes.start(), *ch.codes.end());
+        let grid: Vec<GridTemp> = ch
+            .codes
+            .clone()
+            .step_by(opts.temp_stride)
+            .map(|c| {
+                let k = kind(c);
+                let neighbours =
+                    [c.checked_sub(1).filter(|&n| n >= first), c.checked_add(1).filter(|&n| n <= last)];
+                let temperature_edge = neighbours.iter().flatten().any(|&n| kind(n) != k);
+                GridTemp { celsius: (ch.celsius)(c), millicelsius: 0, code: Some(c), temperature_edge }
+            })
+            .collect();
+        if grid.is_empty() {
+            return Err(VerifyError::Sensor("the temperature channel has no codes".into()));
+        }
+        return Ok(grid);
+    }
+    let tr = &cal.temperature;
+    let lo = ((f64::from(tr.min_c) - f64::from(tr.extrapolation_k)) * 1000.0).ceil() as i64;
+    let hi = ((f64::from(tr.max_c) + f64::from(tr.extrapolation_k)) * 1000.0).floor() as i64;
+    let step = ((opts.temp_step_k * 1000.0).floor() as i64).max(1);
+    let mut mcs: Vec<i64> = (lo..=hi).step_by(step as usize).collect();
+    if mcs.last() != Some(&hi) {
+        mcs.push(hi);
+    }
+    Ok(mcs
+        .into_iter()
+        .step_by(opts.temp_stride)
+        .map(|mc| GridTemp {
+            celsius: Ok(mc as f64 / 1000.0),
+            millicelsius: mc as i32,
+            code: None,
+            temperature_edge: false,
+        })
+        .collect())
+}
+
+fn row(
+    cal: &Calibration,
+    fixed: &FixedCalibration<'_>,
+    g: &GridTemp,
+    codes: &[u32],
+    opts: &VerifyOptions,
+) -> RowOut {
+    let q = 2f64.powi(X_FRAC as i32);
+    // The fixed path's temperature stage, once per row; per code this is exactly `correct`/`correct_raw`
+    // (the code is checked first, then the stage's own error, then the log channel).
+    let stage = match g.code {
+        Some(tc) => fixed.stage_code(tc),
+        None => fixed.stage_millicelsius(g.millicelsius),
+    };
+    let t32 = g.celsius.map(|t| t as f32);
+    let n = codes.len();
+    let mut reference = Vec::with_capacity(n);
+    // (index, path status) of each point where a path disagrees with the reference.
+    let mut pending: [Vec<(usize, Status)>; 2] = [Vec::new(), Vec::new()];
+    let mut out = RowOut::default();
+    let temp_c = g.celsius.unwrap_or(f64::NAN);
+    for (i, &code) in codes.iter().enumerate() {
+        let (r, d) = match g.celsius {
+            Ok(t) => match cal.correct_f64(f64::from(code), t) {
+                Ok(v) => (Status::Value(v.x), v.dx_dcode),
+                Err(e) => (Status::Err(e), 0.0),
+            },
+            Err(e) => (Status::Err(cal.adc.check_code(code).err().unwrap_or(e)), 0.0),
+        };
+        let fx = if !opts.check_fixed {
+            Err(Error::NotCalibrated)
+        } else {
+            match &stage {
+                Ok(s) => fixed.correct_staged(s, code).map(|v| f64::from(v.x) / q),
+                Err(e) => Err(fixed.check_code(code).err().unwrap_or(*e)),
+            }
+        };
+        let f3 = if !opts.check_f32 {
+            Err(Error::NotCalibrated)
+        } else {
+            match t32 {
+                Ok(t) => match opts.f32_backend {
+                    F32Backend::Libm => cal.correct_with::<Libm>(code, t),
+                    F32Backend::Micromath => cal.correct_with::<logtrim::math::Micromath>(code, t),
+                }
+                .map(|v| f64::from(v.x)),
+                Err(e) => Err(cal.adc.check_code(code).err().unwrap_or(e)),
+            }
+        };
+        for (k, p) in [(opts.check_fixed, fx), (opts.check_f32, f3)]
+            .into_iter()
+            .enumerate()
+            .filter_map(|(k, (on, p))| on.then_some((k, p)))
+        {
+            let acc = if k == 0 { &mut out.fixed } else { &mut out.f32 };
+            match (&r, p) {
+                (Status::Value(xr), Ok(x)) => {
+                    acc.agree += 1;
+                    let e = (x - xr).abs();
+                    let lsb = if d != 0.0 { e / d.abs() } else { f64::INFINITY };
+                    acc.n += 1;
+                    acc.max_np = acc.max_np.max(e);
+                    acc.ss_np += e * e;
+                    acc.ss_lsb += lsb * lsb;
+                    if lsb > acc.max_lsb || acc.worst.is_none() {
+                        acc.max_lsb = acc.max_lsb.max(lsb);
+                        acc.worst =
+                            Some(Worst { code, temp_c, temp_code: g.code, x_ref: *xr, x, err_lsb: lsb });
+                    }
+                }
+                (_, p) => {
+                    let p = match p {
+                        Ok(x) => Status::Value(x),
+                        Err(e) => Status::Err(e),
+                    };
+                    if r.same_kind(&p) {
+                        acc.agree += 1;
+                    } else {
+                        pending[k].push((i, p));
+                    }
+                }
+            }
+        }
+        out.reference_values += u64::from(matches!(r, Status::Value(_)));
+        reference.push(r);
+    }
+    // Classify the disagreements now that the reference's whole row is known.
+    let band = (opts.edge_codes as usize).div_ceil(opts.code_stride as usize).max(1);
+    let at_edge = |i: usize| {
+        let lo = i.saturating_sub(band);
+        let hi = (i + band).min(n - 1);
+        (lo..=hi).any(|j| !reference[j].same_kind(&reference[i]))
+    };
+    for (k, list) in pending.iter().enumerate() {
+        let (acc, examples) = if k == 0 {
+            (&mut out.fixed, &mut out.fixed_examples)
+        } else {
+            (&mut out.f32, &mut out.f32_examples)
+        };
+        for (i, p) in list {
+            let r = &reference[*i];
+            if at_edge(*i) || (g.temperature_edge && (r.is_temperature_error() || p.is_temperature_error())) {
+                acc.edge += 1;
+            } else {
+                acc.outside += 1;
+                if examples.len() < MAX_EXAMPLES {
+                    examples.push(Disagreement {
+                        code: codes[*i],
+                        temp_c,
+                        reference: r.name(),
+                        path: p.name(),
+                    });
+                }
+            }
+        }
+    }
+    out
+}
+
+impl std::fmt::Display for VerifyReport {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        writeln!(
+            f,
+            "swept {} codes × {} temperatures = {} points; the reference gives a value at {}",
+            self.codes,
+            self.temperatures,
+            self.codes * self.temperatures,
+            self.reference_values
+        )?;
+        writeln!(f, "bound {} LSB; edge band ±{} code(s)", self.bound_lsb, self.edge_codes)?;
+        let backend = match self.f32_backend {
+            F32Backend::Libm => "f32 (libm)",
+            F32Backend::Micromath => "f32 (micromath)",
+        };
+        for (name, p, ok) in
+            [("fixed", &self.fixed, self.fixed_passed()), (backend, &self.f32, self.f32_passed())]
+        {
+            if !p.checked {
+                writeln!(f, "{name}: not verified")?;
+                continue;
+            }
+            let e = &p.errors;
+            writeln!(f, "{name}: {}", if ok { "PASS" } else { "FAIL" })?;
+            writeln!(
+                f,
+                "  error  max {:.3e} Np  {:.3e} dB  {:.4} LSB;  rms {:.3e} Np  {:.3e} dB  {:.4} LSB  ({} points)",
+                e.max_np, e.max_db, e.max_lsb, e.rms_np, e.rms_db, e.rms_lsb, e.compared
+            )?;
+            if let Some(w) = &e.worst {
+                let tc = w.temp_code.map(|c| format!(" (temperature code {c})")).unwrap_or_default();
+                writeln!(
+                    f,
+                    "  worst  code {} at {:.3} °C{tc}: x {:.7} vs reference {:.7}",
+                    w.code, w.temp_c, w.x, w.x_ref
+                )?;
+            }
+            let s = &p.status;
+            writeln!(
+                f,
+                "  status agree {}, disagree at edges {}, disagree elsewhere {}",
+                s.agree, s.edge, s.outside
+            )?;
+            for d in &s.examples {
+                writeln!(
+                    f,
+                    "    code {} at {:.3} °C: reference {}, path {}",
+                    d.code, d.temp_c, d.reference, d.path
+                )?;
+            }
+        }
+        Ok(())
+    }
+}

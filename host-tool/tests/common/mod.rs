@@ -1,0 +1,5 @@
+//! Fixtures shared by the fixed-path tests, benches and examples.
+#![allow(dead_code)]
+
+pub mod ntc;
+pub mod units;
