@@ -3,13 +3,14 @@
 //! error of an oracle that knows the exact front-end model and reads the same noisy code and temperature.
 //!
 //! The reference model and its oracle are the simulator's (`logtrim_host::frontend`), the correction is
-//! firmware-lib's f32 path. Cases: both presets at two seeds, units drawn with the production line's
+//! firmware-lib's f32 path and its integer fixed-point path (default tables). Cases: both presets at two seeds, units drawn with the production line's
 //! unit-to-unit spread, and a sparser chamber plan (5 set-points, fewer ratios).
 
-use logtrim_host::demo::{fit_data, logtrim_errors, versus_oracle};
+use logtrim_host::demo::{fit_data, fixed_errors, logtrim_errors, versus_oracle};
 use logtrim_host::fit::{fit, FitOptions};
 use logtrim_host::frontend::preset;
 use logtrim_host::simulate::{simulate, ChamberPlan, Plan};
+use logtrim_host::tables::{build, TableOptions};
 
 const RMS_BOUND: f64 = 1.3;
 const MAX_BOUND: f64 = 2.5;
@@ -20,21 +21,25 @@ fn check(name: &str, plan: Plan) {
     for unit in 0..plan.units {
         let out = fit(&fit_data(&sim.chamber, unit).unwrap(), &FitOptions::default()).unwrap();
         let val: Vec<_> = sim.validation.iter().filter(|r| r.unit == unit).cloned().collect();
-        let ours = logtrim_errors(&out.calibration, &val);
-        let v = versus_oracle(&ours, &val);
-        let refused = ours.iter().filter(|e| e.is_none()).count();
-        let label = format!(
-            "{name} seed {} unit {unit}: rms {:.2}x max {:.2}x over {} readings, {refused} refused, model {}",
-            plan.seed,
-            v.rms_ratio,
-            v.max_ratio,
-            v.count,
-            out.chosen.to_arg()
-        );
-        eprintln!("{label}");
-        assert!(v.count as f64 >= 0.98 * val.len() as f64, "too few readings compared: {label}");
-        assert!(v.rms_ratio <= RMS_BOUND, "{label}");
-        assert!(v.max_ratio <= MAX_BOUND, "{label}");
+        let tables = build(&out.calibration, None, &TableOptions::default()).unwrap();
+        let paths =
+            [("f32", logtrim_errors(&out.calibration, &val)), ("fixed", fixed_errors(&tables.view(), &val))];
+        for (path, ours) in paths {
+            let v = versus_oracle(&ours, &val);
+            let refused = ours.iter().filter(|e| e.is_none()).count();
+            let label = format!(
+                "{name} seed {} unit {unit} {path}: rms {:.2}x max {:.2}x over {} readings, {refused} refused, model {}",
+                plan.seed,
+                v.rms_ratio,
+                v.max_ratio,
+                v.count,
+                out.chosen.to_arg()
+            );
+            eprintln!("{label}");
+            assert!(v.count as f64 >= 0.98 * val.len() as f64, "too few readings compared: {label}");
+            assert!(v.rms_ratio <= RMS_BOUND, "{label}");
+            assert!(v.max_ratio <= MAX_BOUND, "{label}");
+        }
     }
 }
 

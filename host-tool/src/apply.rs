@@ -25,6 +25,81 @@ pub enum Arithmetic {
     F32Micromath,
 }
 
+/// A corrected row: the value in every unit of [`Unit::ALL`] (as the path computed it, widened to f64 for
+/// writing) and whether the temperature was extrapolated.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RowValue {
+    /// x = ln(I_sig/I_ref).
+    pub x: f64,
+    /// The value in each unit of [`Unit::ALL`], in that order.
+    pub units: [f64; 7],
+    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
+    pub temperature_extrapolated: bool,
+    /// Digits to write: the f32 path's values are f32 (shortest f32 text); the fixed path's are exact
+    /// binary fractions (shortest f64 text).
+    pub f32_digits: bool,
+}
+
+impl RowValue {
+    fn of_f32(r: &Reading) -> RowValue {
+        let mut units = [0.0; 7];
+        for (v, u) in units.iter_mut().zip(Unit::ALL) {
+            *v = f64::from(r.value(u));
+        }
+        RowValue {
+            x: f64::from(r.x),
+            units,
+            temperature_extrapolated: r.temperature_extrapolated,
+            f32_digits: true,
+        }
+    }
+
+    fn of_fixed(r: &logtrim::fixed::FixedReading) -> Result<RowValue, Error> {
+        let mut units = [0.0; 7];
+        for (v, u) in units.iter_mut().zip(Unit::ALL) {
+            let q = r.value(u)?;
+            *v = q as f64 / (1u64 << logtrim::fixed::value_frac_bits(u)) as f64;
+        }
+        let x = f64::from(r.x) / f64::from(1u32 << logtrim::fixed::X_FRAC);
+        Ok(RowValue { x, units, temperature_extrapolated: r.temperature_extrapolated, f32_digits: false })
+    }
+}
+
+/// Corrects every row of `readings` (in parallel) with the firmware's integer fixed-point path.
+///
+/// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
+/// temperature-sensor table, as on the MCU.
+pub fn correct_rows_fixed(
+    fixed: &logtrim::fixed::FixedCalibration<'_>,
+    readings: &Readings,
+) -> Vec<Result<RowValue, Error>> {
+    let raw = readings.columns.temperature_kind == crate::data::TemperatureColumn::Code;
+    let col = readings.columns.temperature;
+    readings
+        .rows
+        .par_iter()
+        .map(|r| {
+            let reading = if raw {
+                let code = r
+                    .record
+                    .get(col)
+                    .and_then(|b| std::str::from_utf8(b).ok())
+                    .and_then(|t| t.trim().parse::<u32>().ok())
+                    .ok_or(Error::NonFinite)?;
+                fixed.correct_raw(r.code, code)?
+            } else {
+                let t = r.temp_c?;
+                let mc = (t * 1000.0).round();
+                if !(mc >= f64::from(i32::MIN) && mc <= f64::from(i32::MAX)) {
+                    return Err(Error::TemperatureOutOfRange { celsius: t as f32 });
+                }
+                fixed.correct(r.code, mc as i32)?
+            };
+            RowValue::of_fixed(&reading)
+        })
+        .collect()
+}
+
 /// Columns `apply` adds after the input's.
 pub fn added_columns() -> Vec<&'static str> {
     let mut v: Vec<&'static str> = Unit::ALL.iter().map(|u| u.name()).collect();
@@ -77,13 +152,16 @@ pub fn correct_rows(
     cal: &Calibration,
     readings: &Readings,
     arith: Arithmetic,
-) -> Vec<Result<Reading, Error>> {
+) -> Vec<Result<RowValue, Error>> {
     readings
         .rows
         .par_iter()
-        .map(|r| match arith {
-            Arithmetic::F32 => correct_one::<Libm>(cal, r.code, &r.temp_c),
-            Arithmetic::F32Micromath => correct_one::<logtrim::math::Micromath>(cal, r.code, &r.temp_c),
+        .map(|r| {
+            match arith {
+                Arithmetic::F32 => correct_one::<Libm>(cal, r.code, &r.temp_c),
+                Arithmetic::F32Micromath => correct_one::<logtrim::math::Micromath>(cal, r.code, &r.temp_c),
+            }
+            .map(|v| RowValue::of_f32(&v))
         })
         .collect()
 }
@@ -91,7 +169,7 @@ pub fn correct_rows(
 /// Writes the input rows with the results of [`correct_rows`] as CSV.
 pub fn write_results<W: Write>(
     readings: &Readings,
-    results: &[Result<Reading, Error>],
+    results: &[Result<RowValue, Error>],
     out: W,
 ) -> Result<ApplySummary, ApplyError> {
     let added = added_columns();
@@ -107,6 +185,13 @@ pub fn write_results<W: Write>(
     let mut summary = ApplySummary { rows: readings.rows.len(), ..ApplySummary::default() };
     let mut rec = csv::ByteRecord::new();
     let mut buf = ryu::Buffer::new();
+    let mut text = |v: f64, f32_digits: bool| -> Vec<u8> {
+        if f32_digits {
+            buf.format(v as f32).as_bytes().to_vec()
+        } else {
+            buf.format(v).as_bytes().to_vec()
+        }
+    };
     for (row, res) in readings.rows.iter().zip(results) {
         rec.clear();
         for f in row.record.iter() {
@@ -114,8 +199,8 @@ pub fn write_results<W: Write>(
         }
         match res {
             Ok(r) => {
-                for u in Unit::ALL {
-                    rec.push_field(buf.format(r.value(u)).as_bytes());
+                for v in r.units {
+                    rec.push_field(&text(v, r.f32_digits));
                 }
                 rec.push_field(if r.temperature_extrapolated { b"1" } else { b"0" });
                 rec.push_field(b"");

@@ -182,6 +182,26 @@ impl CalFile {
     }
 }
 
+impl CalFile {
+    /// The fixed-point tables of this unit: the calibration's, with a temperature-sensor table when the
+    /// file describes a raw temperature channel (every code of the channel's converter, converted by
+    /// firmware-lib's sensor code in f64).
+    pub fn fixed_tables(
+        &self,
+        opts: &crate::tables::TableOptions,
+    ) -> Result<crate::tables::FixedTables, crate::tables::TableError> {
+        match &self.temperature_sensor {
+            None => crate::tables::build(&self.calibration, None, opts),
+            Some(sensor) => {
+                let max = sensor.divider.max_code().map_err(crate::tables::TableError::Calibration)?;
+                let celsius = |code: u32| sensor.celsius_f64(code);
+                let channel = crate::tables::TemperatureChannel { codes: 0..=max, celsius: &celsius };
+                crate::tables::build(&self.calibration, Some(&channel), opts)
+            }
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -10,7 +10,8 @@
 //!   resistor's nominal tempco) at the measured temperature;
 //! * **two-point at room**: offset and slope from two known ratios at the set-point nearest 25 °C, the
 //!   slope carried to other temperatures by the design's temperature law (the usual bench calibration);
-//! * **logtrim**: the fitted calibration, corrected by firmware-lib's f32 path exactly as on the MCU;
+//! * **logtrim**: the fitted calibration, corrected by firmware-lib's f32 path and by its integer
+//!   fixed-point path (from the default tables) exactly as on the MCU;
 //! * **noise-only limit**: the oracle of the reference model, which knows the exact front end and only
 //!   suffers the noise of the code and the temperature reading.
 
@@ -58,8 +59,10 @@ pub struct DemoOutcome {
     pub fit: FitOutcome,
     /// nominal, two-point at room, logtrim, noise-only limit, in that order.
     pub methods: Vec<MethodStats>,
-    /// logtrim against the oracle.
+    /// logtrim's f32 path against the oracle.
     pub versus_oracle: VersusOracle,
+    /// logtrim's fixed-point path against the oracle.
+    pub versus_oracle_fixed: VersusOracle,
 }
 
 /// Why the demo could not run.
@@ -72,6 +75,9 @@ pub enum DemoError {
     /// The fit refused the simulated data.
     #[error(transparent)]
     Fit(#[from] FitError),
+    /// The fixed-point tables could not be made.
+    #[error(transparent)]
+    Tables(#[from] crate::tables::TableError),
     /// A chamber reading's temperature is a raw code that the front end's channel did not convert to °C.
     #[error("a chamber reading's temperature is a raw code that the channel's description does not convert to °C (a sensor fault, or outside its valid range)")]
     RawTemperature,
@@ -166,6 +172,22 @@ pub fn logtrim_errors(cal: &Calibration, rows: &[ValidationRow]) -> Vec<Option<f
         .collect()
 }
 
+/// Errors of the integer fixed-point path on a validation run, temperatures passed in m°C (None where it
+/// refuses a reading).
+pub fn fixed_errors(
+    fixed: &logtrim::fixed::FixedCalibration<'_>,
+    rows: &[ValidationRow],
+) -> Vec<Option<f64>> {
+    let scale = f64::from(1u32 << logtrim::fixed::X_FRAC);
+    rows.iter()
+        .map(|r| {
+            let t = celsius(r.temperature).ok()?;
+            let mc = (t * 1000.0).round() as i32;
+            fixed.correct(r.code, mc).ok().map(|v| f64::from(v.x) / scale - r.x_true)
+        })
+        .collect()
+}
+
 /// logtrim's errors against the oracle's, on the readings both give a value for.
 pub fn versus_oracle(ours: &[Option<f64>], rows: &[ValidationRow]) -> VersusOracle {
     let pairs: Vec<(f64, f64)> = ours
@@ -214,14 +236,18 @@ pub fn run(fe: &FrontEnd, plan: &Plan, fit_options: &FitOptions) -> Result<DemoO
         .collect();
     let ours = logtrim_errors(&fit.calibration, &val);
     let oracle: Vec<Option<f64>> = val.iter().map(|r| r.x_oracle.map(|x| x - r.x_true)).collect();
+    let tables = crate::tables::build(&fit.calibration, None, &crate::tables::TableOptions::default())?;
+    let ours_fixed = fixed_errors(&tables.view(), &val);
+    let versus_oracle_fixed = versus_oracle(&ours_fixed, &val);
     let versus_oracle = versus_oracle(&ours, &val);
     let methods = vec![
         stats("nominal equation", &nominal),
         stats("two-point at room", &two_point),
         stats("logtrim fit (f32)", &ours),
+        stats("logtrim fit (fixed)", &ours_fixed),
         stats("noise-only limit", &oracle),
     ];
-    Ok(DemoOutcome { simulation, fit, methods, versus_oracle })
+    Ok(DemoOutcome { simulation, fit, methods, versus_oracle, versus_oracle_fixed })
 }
 
 /// The side-by-side table of a demo outcome.
@@ -248,11 +274,12 @@ pub fn render(out: &DemoOutcome) -> String {
             (m.max_np.exp() - 1.0) * 100.0
         );
     }
-    let v = &out.versus_oracle;
-    let _ = writeln!(
-        s,
-        "logtrim / noise-only limit on {} readings: rms {:.2}x (target <= 1.3x), max {:.2}x (target <= 2.5x)",
-        v.count, v.rms_ratio, v.max_ratio
-    );
+    for (path, v) in [("f32", &out.versus_oracle), ("fixed", &out.versus_oracle_fixed)] {
+        let _ = writeln!(
+            s,
+            "logtrim ({path}) / noise-only limit on {} readings: rms {:.2}x (target <= 1.3x), max {:.2}x (target <= 2.5x)",
+            v.count, v.rms_ratio, v.max_ratio
+        );
+    }
     s
 }

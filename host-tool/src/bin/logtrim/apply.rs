@@ -3,7 +3,7 @@
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use logtrim_host::apply::{correct_rows, write_results, Arithmetic};
+use logtrim_host::apply::{correct_rows, correct_rows_fixed, write_results, Arithmetic};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::data::{read_readings_file, ReadOptions};
 use logtrim_host::output::AtomicFile;
@@ -17,6 +17,9 @@ pub enum PathArg {
     F32,
     /// f32 with micromath's fast approximations.
     F32Micromath,
+    /// The integer fixed-point path (parts without an FPU), from the tables `logtrim emit` would write
+    /// with its default sizes.
+    Fixed,
 }
 
 /// Options of `logtrim apply`.
@@ -59,11 +62,16 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     for e in &readings.skipped {
         eprintln!("skipped: {e}");
     }
-    let arith = match args.path {
-        PathArg::F32 => Arithmetic::F32,
-        PathArg::F32Micromath => Arithmetic::F32Micromath,
+    let results = match args.path {
+        PathArg::F32 => correct_rows(&cal, &readings, Arithmetic::F32),
+        PathArg::F32Micromath => correct_rows(&cal, &readings, Arithmetic::F32Micromath),
+        PathArg::Fixed => {
+            let tables = file
+                .fixed_tables(&logtrim_host::tables::TableOptions::default())
+                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
+            correct_rows_fixed(&tables.view(), &readings)
+        }
     };
-    let results = correct_rows(&cal, &readings, arith);
     let out = AtomicFile::create(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     let mut out = out;
