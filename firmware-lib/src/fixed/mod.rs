@@ -31,29 +31,32 @@
 //!
 //! # Q formats
 //!
-//! `Qn` means the integer is the value times 2^n. θ is the internal temperature.
+//! `Qn` means the integer is the value times 2^n. θ is the internal temperature. Spline control points are
+//! stored divided by 6 per axis (see the weights in the spline core), which the host folds into each
+//! table's scale.
 //!
 //! | quantity | type | format |
 //! |---|---|---|
 //! | log ADC code, temperature ADC code | u32 | integer code |
 //! | temperature input | i32 | m°C |
-//! | θ, internal temperature; [`FixedHeader`] temperatures; [`SensorTable::knots`] | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
+//! | θ, internal temperature; [`FixedHeader`] temperatures | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
+//! | [`SensorTable::knots`] | i32 | θ / 6 |
 //! | knot positions | i64 | Q20 knots; segment = position >> 20, fraction t = low 20 bits |
-//! | spline weights | i64 | Q28, four per axis, summing to exactly 2^28 |
-//! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` |
-//! | [`FixedCalibration::inv_slope`] 1/S(T) | i32 | Np/code · 2^`inv_slope_frac` |
-//! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np |
+//! | spline weights | i64 | six times the basis, Q28, four per axis, summing to exactly 6·2^28 |
+//! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
+//! | [`FixedCalibration::inv_slope`] 1/S(T) | i32 | Np/code · 2^`inv_slope_frac` / 6 |
+//! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np / 6 |
 //! | u, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i64 inside, i32 out | Q24 Np |
-//! | [`universal::BEND`] G control points | i32 | Q24 Np |
+//! | [`universal::BEND`] G control points | i32 | Q24 Np / 6 |
 //! | [`universal::EXP2`] 2^(j/32) | i32 | Q30 |
-//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` |
+//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 36 |
 //! | residual partial sums | i64 | Np · 2^(`residual_frac` + 14) |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
 //!
 //! # Overflow
 //!
-//! Every product is of a Q28 weight and a stored i32/i16 value (below 2^59, four-term sums below 2^61), of
+//! Every product is of a weight and a stored i32/i16 value (four-term sums below 2^61.6), of
 //! two values already bounded to i32 range (`saturating_mul` where both come from data), or of a value
 //! bounded to ±2^31 and a constant below 2^32. Intermediate nepers are clamped to ±2^31 (±128 Np, far
 //! outside any table, so the clamp can only turn into a range error). Shift counts from data are clamped.
@@ -84,7 +87,9 @@ mod tests;
 use crate::calibration::temperature_out_of_range_millicelsius;
 use crate::error::{CalibrationDefect, Error, SensorFault};
 use crate::units::Unit;
-use interp::{dot4, four_i16, rescale, round_shr, segment, spline1, weights, POS_FRAC, W_BITS};
+use interp::{
+    dot4, four_i16, rescale, round_shr, round_shr_small, segment, spline1, weights, POS_FRAC, W_BITS,
+};
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
 pub const LAYOUT_VERSION: u8 = 1;
@@ -272,7 +277,7 @@ const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficien
 
 impl<'a> FixedCalibration<'a> {
     /// Checks a log channel code against the converter and the rail margin, as the f32 path does.
-    #[inline]
+    #[inline(always)]
     pub fn check_code(&self, code: u32) -> Result<(), Error> {
         let h = &self.header;
         let max = h.adc_max_code;
@@ -286,7 +291,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
-    #[inline]
+    #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let stage = self.stage_millicelsius(temp_mc)?;
@@ -295,7 +300,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// Corrects one reading from raw codes: `code` from the log channel, `temp_code` from the temperature
     /// channel (through [`FixedCalibration::sensor`]).
-    #[inline]
+    #[inline(always)]
     pub fn correct_raw(&self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let stage = self.stage_code(temp_code)?;
@@ -304,7 +309,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// θ (Q10 m°C) from the temperature channel's code. [`Error::Sensor`] outside the sensor's valid span;
     /// [`Error::NotCalibrated`] when this calibration has no sensor table.
-    #[inline]
+    #[inline(always)]
     pub fn theta_from_code(&self, temp_code: u32) -> Result<i32, Error> {
         let s = self.sensor.as_ref().ok_or(Error::NotCalibrated)?;
         if temp_code < s.code_lo {
@@ -324,7 +329,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The temperature stage at a temperature in m°C.
-    #[inline]
+    #[inline(always)]
     pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<TemperatureStage, Error> {
         let theta = i64::from(temp_mc) << THETA_FRAC;
         self.stage_theta(theta).map_err(|e| match e {
@@ -334,7 +339,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The temperature stage at the temperature channel's code.
-    #[inline]
+    #[inline(always)]
     pub fn stage_code(&self, temp_code: u32) -> Result<TemperatureStage, Error> {
         let theta = self.theta_from_code(temp_code)?;
         self.stage_theta(i64::from(theta)).map_err(|e| match e {
@@ -347,7 +352,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The temperature stage at θ (Q10 m°C).
-    #[inline]
+    #[inline(always)]
     pub fn stage_theta(&self, theta: i64) -> Result<TemperatureStage, Error> {
         let h = &self.header;
         if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
@@ -366,7 +371,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The log-channel part of a correction at a temperature stage. The code is checked again (cheap).
-    #[inline]
+    #[inline(always)]
     pub fn correct_staged(&self, stage: &TemperatureStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let x = self.x_q24(stage, code)?;
@@ -374,7 +379,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// x in Q24 at a temperature stage for a checked code.
-    #[inline]
+    #[inline(always)]
     fn x_q24(&self, stage: &TemperatureStage, code: u32) -> Result<i32, Error> {
         let h = &self.header;
         let qo = u32::from(h.offset_frac).min(30);
@@ -403,14 +408,12 @@ impl<'a> FixedCalibration<'a> {
             let start =
                 stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
             let start = start.ok_or(BAD_TABLE)?;
-            *row = round_shr(
-                dot4(&wu, four_i16(self.residual, start).ok_or(BAD_TABLE)?),
-                W_BITS - RESIDUAL_GUARD,
-            );
+            // Below 2^45.6 before the shift, 2^31.6 after.
+            *row = dot4(&wu, four_i16(self.residual, start).ok_or(BAD_TABLE)?) >> (W_BITS - RESIDUAL_GUARD);
         }
-        // Rows are below 2^(15 + 14): the outer sum stays below 2^57.
-        let r = round_shr(dot4(&stage.w, rows), W_BITS);
-        let r = rescale(r, u32::from(h.residual_frac).min(24) + RESIDUAL_GUARD, X_FRAC);
+        // The outer sum stays below 2^62.2.
+        let r = round_shr_small(dot4(&stage.w, rows), W_BITS);
+        let r = rescale(r, u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD, X_FRAC);
         let x = xa + r;
         if x < i64::from(h.x_min) {
             return Err(Error::BelowRange);
@@ -458,7 +461,7 @@ impl<'a> FixedCalibration<'a> {
         let scales_ok = h.offset_frac <= 30
             && (i64::from(h.adc_max_code) << h.offset_frac) < 1 << 31
             && h.inv_slope_frac <= 62
-            && h.residual_frac <= 24
+            && h.residual_frac <= 30
             && nxa >= 2
             && h.xa_inv_step > 0;
         let lens_ok = self.offset.len() == nt + 2

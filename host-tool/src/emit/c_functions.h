@@ -50,19 +50,23 @@ static inline int64_t lt_rescale(int64_t x, unsigned from, unsigned to) {
     return from >= to ? lt_round_shr(x, from - to) : lt_sat_shl(x, to - from);
 }
 
+/* Six times the cubic B-spline basis at t (Q20), Q28; the tables store control points divided by 6. */
 static inline void lt_weights(int64_t t, int64_t w[4]) {
-    const int64_t d = (int64_t)6 << 32;
-    int64_t s, t2, t3, s3;
+    int64_t s, t2, t3, s2, s3;
     t = lt_clamp(t, 0, LT_ONE);
     s = LT_ONE - t;
-    t2 = t * t;
-    t3 = t2 * t;
-    s3 = s * s * s;
-    w[0] = s3 / d;
-    w[3] = t3 / d;
-    w[1] = (3 * t3 - 6 * (t2 << 20) + ((int64_t)4 << 60)) / d;
-    w[2] = ((int64_t)1 << LT_W_BITS) - w[0] - w[1] - w[3];
+    t2 = (t * t) >> 12;
+    t3 = (t2 * t) >> 20;
+    s2 = (s * s) >> 12;
+    s3 = (s2 * s) >> 20;
+    w[0] = s3;
+    w[1] = 3 * t3 - 6 * t2 + ((int64_t)4 << LT_W_BITS);
+    w[2] = ((int64_t)6 << LT_W_BITS) - s3 - w[1] - t3;
+    w[3] = t3;
 }
+
+/* Rounded x / 2^n for the bounded spline sums (|x| < 2^62, 1 <= n <= 62). */
+static inline int64_t lt_round_shr_small(int64_t x, unsigned n) { return lt_asr(x + ((int64_t)1 << (n - 1)), n); }
 
 static inline void lt_segment(int64_t pos, uint64_t knots, int64_t *seg, int64_t *t) {
     int64_t k = knots < 2u ? 2 : (knots > ((uint64_t)1 << 40) ? ((int64_t)1 << 40) : (int64_t)knots);
@@ -78,7 +82,7 @@ static inline int64_t lt_dot4_32(const int64_t w[4], const int32_t *c) {
 /* One spline value from four control points at start, or LT_BAD_TABLE past the end. */
 static inline lt_status lt_spline1(const int32_t *table, uint32_t len, int64_t start, const int64_t w[4], int64_t *out) {
     if (start < 0 || (uint64_t)start + 4u > (uint64_t)len) return LT_BAD_TABLE;
-    *out = lt_round_shr(lt_dot4_32(w, table + start), LT_W_BITS);
+    *out = lt_round_shr_small(lt_dot4_32(w, table + start), LT_W_BITS);
     return LT_OK;
 }
 
@@ -185,7 +189,7 @@ static inline lt_status lt_stage_code(const lt_fixed *c, uint32_t temp_code, lt_
 static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, uint32_t code, lt_reading *out) {
     unsigned qo = c->offset_frac > 30u ? 30u : c->offset_frac;
     unsigned qs = c->inv_slope_frac > 62u ? 62u : c->inv_slope_frac;
-    unsigned fr = c->residual_frac > 24u ? 24u : c->residual_frac;
+    unsigned fr = c->residual_frac > 30u ? 30u : c->residual_frac;
     int64_t diff, u, xa, g, pos, col, t, wu[4], rows[4], r, x;
     uint64_t stride = (uint64_t)c->xa_knots + 2u;
     int k, i;
@@ -209,9 +213,9 @@ static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, 
         int64_t acc = 0;
         if (start + 4u > (uint64_t)c->residual_len) return LT_BAD_TABLE;
         for (i = 0; i < 4; i++) acc += wu[i] * c->residual[start + (uint64_t)i];
-        rows[k] = lt_round_shr(acc, LT_W_BITS - 14);
+        rows[k] = lt_asr(acc, LT_W_BITS - 14);
     }
-    r = lt_round_shr(s->w[0] * rows[0] + s->w[1] * rows[1] + s->w[2] * rows[2] + s->w[3] * rows[3], LT_W_BITS);
+    r = lt_round_shr_small(s->w[0] * rows[0] + s->w[1] * rows[1] + s->w[2] * rows[2] + s->w[3] * rows[3], LT_W_BITS);
     r = lt_rescale(r, fr + 14u, LT_X_FRAC);
     x = xa + r;
     if (x < c->x_min) return LT_BELOW_RANGE;

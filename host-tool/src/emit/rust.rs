@@ -145,7 +145,7 @@ pub fn universal_source() -> Result<String, TableError> {
 //! `logtrim_host::tables::universal_bend` and `universal_exp2`; a host test regenerates this file and
 //! compares).
 //!
-//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24, one row per octave of v (see
+//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24 divided by 6, one row per octave of v (see
 //!   [`super::transcend`]), fitted by least squares to the exact function.
 //! * [`EXP2`]: `2^(j/32)` for j = 0..32, Q30.
 
