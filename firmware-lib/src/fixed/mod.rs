@@ -331,24 +331,14 @@ impl<'a> FixedCalibration<'a> {
     /// The temperature stage at a temperature in m°C.
     #[inline(always)]
     pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<TemperatureStage, Error> {
-        let theta = i64::from(temp_mc) << THETA_FRAC;
-        self.stage_theta(theta).map_err(|e| match e {
-            Error::TemperatureOutOfRange { .. } => temperature_out_of_range_millicelsius(temp_mc),
-            e => e,
-        })
+        self.stage_theta(i64::from(temp_mc) << THETA_FRAC)
     }
 
     /// The temperature stage at the temperature channel's code.
     #[inline(always)]
     pub fn stage_code(&self, temp_code: u32) -> Result<TemperatureStage, Error> {
         let theta = self.theta_from_code(temp_code)?;
-        self.stage_theta(i64::from(theta)).map_err(|e| match e {
-            Error::TemperatureOutOfRange { .. } => {
-                let mc = round_shr(i64::from(theta), THETA_FRAC) as i32; // |θ| < 2^31: fits
-                temperature_out_of_range_millicelsius(mc)
-            }
-            e => e,
-        })
+        self.stage_theta(i64::from(theta))
     }
 
     /// The temperature stage at θ (Q10 m°C).
@@ -356,7 +346,9 @@ impl<'a> FixedCalibration<'a> {
     pub fn stage_theta(&self, theta: i64) -> Result<TemperatureStage, Error> {
         let h = &self.header;
         if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
-            return Err(temperature_out_of_range_millicelsius(0));
+            // The temperature in m°C for the error (clamped to i32 only for θ far beyond any sensor).
+            let mc = round_shr(theta, THETA_FRAC).clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
+            return Err(temperature_out_of_range_millicelsius(mc));
         }
         let extrapolated = theta < i64::from(h.temp_min) || theta > i64::from(h.temp_max);
         let pos = (theta - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT;
