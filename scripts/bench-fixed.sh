@@ -22,7 +22,7 @@ echo
 echo "=== instructions per sample (callgrind, $N samples, only inside the sample loop) ==="
 if command -v valgrind >/dev/null; then
   declare -A IR
-  for p in fixed-raw fixed-mc fixed-staged naive-raw naive-mc; do
+  for p in fixed-raw fixed-mc fixed-staged fixed-row naive-raw naive-mc; do
     valgrind --tool=callgrind --callgrind-out-file="$OUT/cg.$p" --toggle-collect='*run_*' \
       "$LOOP" "$p" "$N" >/dev/null 2>"$OUT/vg.$p"
     total=$(grep -E '^summary:' "$OUT/cg.$p" | awk '{print $2}')
@@ -32,6 +32,7 @@ if command -v valgrind >/dev/null; then
   awk -v a="${IR[naive-raw]}" -v b="${IR[fixed-raw]}" 'BEGIN { printf "  naive-raw / fixed-raw = %.2fx\n", a / b }'
   awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-mc]}" 'BEGIN { printf "  naive-mc / fixed-mc  = %.2fx\n", a / b }'
   awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-staged]}" 'BEGIN { printf "  naive-mc / fixed-staged = %.2fx\n", a / b }'
+  awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-row]}" 'BEGIN { printf "  naive-mc / fixed-row = %.2fx\n", a / b }'
   echo "  (goal: under 150 per sample and at least 3x fewer than naive)"
 else
   echo "  valgrind not found: skipped"

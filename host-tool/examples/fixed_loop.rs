@@ -6,8 +6,10 @@
 //! * `naive-raw`: the same in f32 with libm `logf`/`expf`: the NTC's β equation, then
 //!   `Calibration::correct` and `Unit::DbPower`;
 //! * `fixed-mc` / `naive-mc`: from the log code and a temperature (m°C, or °C in f32) to power dB;
-//! * `fixed-staged`: the log channel alone (`correct_staged` and dB), with each sample's temperature stage
-//!   computed beforehand: what a firmware pays per log sample when the temperature is read less often.
+//! * `fixed-staged`: the log channel alone (`correct_staged` and dB), with the temperature stages computed
+//!   beforehand (64 temperatures): what a firmware pays per log sample when it reads the temperature less
+//!   often than the log channel;
+//! * `fixed-row`: the same through a `RowStage` (the residual collapsed over temperature per stage).
 //!
 //! Inputs are drawn by a seeded generator from the calibrated range of the hard uncompensated unit.
 
@@ -93,8 +95,19 @@ fn run_fixed_staged(
     stages: &[logtrim::fixed::TemperatureStage],
 ) -> i64 {
     let mut acc = 0i64;
-    for (i, s) in inp.iter().zip(stages) {
-        if let Ok(r) = f.correct_staged(s, black_box(i.code)) {
+    for (k, i) in inp.iter().enumerate() {
+        if let Ok(r) = f.correct_staged(&stages[k % stages.len()], black_box(i.code)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed::RowStage]) -> i64 {
+    let mut acc = 0i64;
+    for (k, i) in inp.iter().enumerate() {
+        if let Ok(r) = f.correct_row(&rows[k % rows.len()], black_box(i.code)) {
             acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
         }
     }
@@ -138,17 +151,25 @@ fn main() {
         }
     };
     let f = tables.view();
-    let inp = inputs(&cal, n);
-    let stages: Vec<_> = if path == "fixed-staged" {
-        inp.iter().filter_map(|i| f.stage_millicelsius(i.mc).ok()).collect()
-    } else {
-        Vec::new()
-    };
+    let mut inp = inputs(&cal, n);
+    // For the staged paths: 64 temperatures, sample k at temperature k mod 64 (log codes drawn there).
+    let temps: Vec<Input> = inp.iter().take(64).copied().collect();
+    let stages: Vec<_> = temps.iter().filter_map(|i| f.stage_millicelsius(i.mc).ok()).collect();
+    let rows: Vec<_> = stages.iter().filter_map(|s| f.row_stage(s).ok()).collect();
+    if path == "fixed-staged" || path == "fixed-row" {
+        for (k, i) in inp.iter_mut().enumerate() {
+            let t = f64::from(temps[k % temps.len()].celsius);
+            let x = f64::from(cal.x_range.min)
+                + f64::from(cal.x_range.max - cal.x_range.min) * ((k * 7919) % 1_000_000) as f64 / 1e6;
+            i.code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
+        }
+    }
     let start = std::time::Instant::now();
     let out = match path {
         "fixed-raw" => run_fixed_raw(&f, &inp) as f64,
         "fixed-mc" => run_fixed_mc(&f, &inp) as f64,
         "fixed-staged" => run_fixed_staged(&f, &inp, &stages) as f64,
+        "fixed-row" => run_fixed_row(&f, &inp, &rows) as f64,
         "naive-raw" => f64::from(run_naive_raw(&cal, &inp)),
         "naive-mc" => f64::from(run_naive_mc(&cal, &inp)),
         other => {

@@ -50,7 +50,7 @@
 //! | [`universal::BEND`] G control points | i32 | Q24 Np / 6 |
 //! | [`universal::EXP2`] 2^(j/32) | i32 | Q30 |
 //! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 36 |
-//! | residual partial sums | i64 | Np · 2^(`residual_frac` + 14) |
+//! | residual columns collapsed over T | i64 (i32 in a [`RowStage`]) | Np · 2^(`residual_frac` + 13) / 6 |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
 //!
@@ -106,7 +106,7 @@ pub const T_POS_SHIFT: u32 = 28;
 /// `xa_inv_step = 2^48 / (knot step in Q24 Np)` = `2^24 / (knot step in Np)`.
 pub const XA_POS_SHIFT: u32 = 28;
 /// Extra fraction bits kept in the residual's partial sums.
-pub const RESIDUAL_GUARD: u32 = 14;
+pub const RESIDUAL_GUARD: u32 = 13;
 /// Intermediate nepers are clamped to ±2^31 in Q24 (±128 Np).
 const X_CLAMP: i64 = 1 << 31;
 
@@ -227,6 +227,26 @@ impl TemperatureStage {
     }
 }
 
+/// Capacity of a [`RowStage`]: residual grids of up to `ROW_CAPACITY − 2` x̃ knots.
+pub const ROW_CAPACITY: usize = 66;
+
+/// A [`TemperatureStage`] with the residual collapsed over temperature for every x̃ column
+/// ([`FixedCalibration::row_stage`]), for [`FixedCalibration::correct_row`]. 280 bytes, no heap.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RowStage {
+    stage: TemperatureStage,
+    row: [i32; ROW_CAPACITY],
+    len: usize,
+}
+
+impl RowStage {
+    /// The temperature lies outside the calibrated range, within the allowed extrapolation.
+    pub fn extrapolated(&self) -> bool {
+        self.stage.extrapolated
+    }
+}
+
 /// A corrected reading in fixed point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
@@ -256,6 +276,7 @@ pub const fn value_frac_bits(unit: Unit) -> u32 {
 impl FixedReading {
     /// The reading in a unit, as an integer with [`value_frac_bits`] fraction bits. The linear units are
     /// [`Error::AboveRange`] where they do not fit an i64 (x above about 21 Np).
+    #[inline(always)]
     pub fn value(&self, unit: Unit) -> Result<i64, Error> {
         let x = i64::from(self.x);
         Ok(match unit {
@@ -366,13 +387,68 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     pub fn correct_staged(&self, stage: &TemperatureStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
-        let x = self.x_q24(stage, code)?;
+        let x = self.x_q24(stage, code, None)?;
         Ok(FixedReading { x, temperature_extrapolated: stage.extrapolated })
+    }
+
+    /// Residual columns `col..col + 4` collapsed over the stage's temperature:
+    /// `(Σ_k w_k · r[seg + k][col + i]) >> (28 − 13)`, each below 2^30.6 (weights sum to 6·2^28, i16 values).
+    #[inline(always)]
+    fn columns(&self, stage: &TemperatureStage, col: usize) -> Result<[i64; 4], Error> {
+        let stride = usize::from(self.header.xa_knots) + 2;
+        let mut rows = [[0i64; 4]; 4];
+        for (k, r) in rows.iter_mut().enumerate() {
+            let start =
+                stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
+            *r = four_i16(self.residual, start.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
+        }
+        let w = &stage.w;
+        let mut out = [0i64; 4];
+        for (i, o) in out.iter_mut().enumerate() {
+            let c = [rows[0][i], rows[1][i], rows[2][i], rows[3][i]];
+            *o = dot4(w, c) >> (W_BITS - RESIDUAL_GUARD);
+        }
+        Ok(out)
+    }
+
+    /// The temperature stage with the residual collapsed over temperature for every x̃ column: the
+    /// per-sample work of [`FixedCalibration::correct_row`] is then one cubic in x̃ (a firmware that reads
+    /// the temperature less often than the log channel builds one per temperature reading). Results are
+    /// bit-identical to [`FixedCalibration::correct_staged`]. [`Error::InvalidCalibration`] when the grid has
+    /// more than [`ROW_CAPACITY`] − 2 knots.
+    pub fn row_stage(&self, stage: &TemperatureStage) -> Result<RowStage, Error> {
+        let n = usize::from(self.header.xa_knots) + 2;
+        if n > ROW_CAPACITY {
+            return Err(BAD_TABLE);
+        }
+        let mut row = [0i32; ROW_CAPACITY];
+        // Four columns at a time; the last group may overlap the one before it.
+        let mut col = 0;
+        while col < n {
+            let start = col.min(n.saturating_sub(4));
+            let c = self.columns(stage, start)?;
+            for (dst, v) in row.iter_mut().skip(start).zip(c) {
+                // Below 2^30.6: fits.
+                *dst = v as i32;
+            }
+            col = start + 4;
+        }
+        Ok(RowStage { stage: *stage, row, len: n })
+    }
+
+    /// The log-channel part of a correction at a [`RowStage`]: bit-identical to
+    /// [`FixedCalibration::correct_staged`] at the same stage, with a quarter of the residual's work.
+    #[inline(always)]
+    pub fn correct_row(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
+        self.check_code(code)?;
+        let row = rs.row.get(..rs.len).ok_or(BAD_TABLE)?;
+        let x = self.x_q24(&rs.stage, code, Some(row))?;
+        Ok(FixedReading { x, temperature_extrapolated: rs.stage.extrapolated })
     }
 
     /// x in Q24 at a temperature stage for a checked code.
     #[inline(always)]
-    fn x_q24(&self, stage: &TemperatureStage, code: u32) -> Result<i32, Error> {
+    fn x_q24(&self, stage: &TemperatureStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
         let h = &self.header;
         let qo = u32::from(h.offset_frac).min(30);
         let qs = u32::from(h.inv_slope_frac).min(62);
@@ -394,17 +470,13 @@ impl<'a> FixedCalibration<'a> {
         }
         let (col, t) = segment(pos, xa_knots);
         let wu = weights(t);
-        let stride = xa_knots + 2;
-        let mut rows = [0i64; 4];
-        for (k, row) in rows.iter_mut().enumerate() {
-            let start =
-                stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
-            let start = start.ok_or(BAD_TABLE)?;
-            // Below 2^45.6 before the shift, 2^31.6 after.
-            *row = dot4(&wu, four_i16(self.residual, start).ok_or(BAD_TABLE)?) >> (W_BITS - RESIDUAL_GUARD);
-        }
-        // The outer sum stays below 2^62.2.
-        let r = round_shr_small(dot4(&stage.w, rows), W_BITS);
+        // The residual's four columns, already collapsed over temperature (each below 2^30.6).
+        let cols = match row {
+            Some(row) => interp::four_i32(row, col).ok_or(BAD_TABLE)?,
+            None => self.columns(stage, col)?,
+        };
+        // Below 2^61.2.
+        let r = round_shr_small(dot4(&wu, cols), W_BITS);
         let r = rescale(r, u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD, X_FRAC);
         let x = xa + r;
         if x < i64::from(h.x_min) {

@@ -194,6 +194,31 @@ fn staged_correction_equals_the_direct_one() {
 }
 
 #[test]
+fn row_stage_is_bit_identical_to_the_stage() {
+    let mut o = linear();
+    // A residual with structure, so the collapse has something to get wrong.
+    for (i, r) in o.residual.iter_mut().enumerate() {
+        *r = ((i as i32 * 7919) % 2001 - 1000) as i16;
+    }
+    let c = o.view();
+    for t in [-5000, 12_345, 55_000] {
+        let s = c.stage_millicelsius(t).unwrap();
+        let rs = c.row_stage(&s).unwrap();
+        assert_eq!(rs.extrapolated(), s.extrapolated());
+        for code in (0..=65535u32).step_by(7).chain([u32::MAX]) {
+            assert_eq!(c.correct_row(&rs, code), c.correct_staged(&s, code), "code {code} at {t}");
+        }
+    }
+    // Grids wider than the row's capacity are refused, not truncated.
+    let mut wide = linear();
+    wide.header.xa_knots = ROW_CAPACITY as u16;
+    wide.residual = vec![0; 6 * (ROW_CAPACITY + 2)];
+    let c = wide.view();
+    let s = c.stage_millicelsius(0).unwrap();
+    assert_eq!(c.row_stage(&s), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
+}
+
+#[test]
 fn sensitivity_limit_and_bias_floor() {
     let mut o = linear();
     o.header.bias_bend = true;
