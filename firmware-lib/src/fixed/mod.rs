@@ -403,10 +403,10 @@ impl<'a> FixedCalibration<'a> {
             *r = four_i16(self.residual, start.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
         }
         let w = &stage.w;
+        let [r0, r1, r2, r3] = rows;
         let mut out = [0i64; 4];
-        for (i, o) in out.iter_mut().enumerate() {
-            let c = [rows[0][i], rows[1][i], rows[2][i], rows[3][i]];
-            *o = dot4(w, c) >> (W_BITS - RESIDUAL_GUARD);
+        for ((((o, a), b), c), d) in out.iter_mut().zip(r0).zip(r1).zip(r2).zip(r3) {
+            *o = dot4(w, [a, b, c, d]) >> (W_BITS - RESIDUAL_GUARD);
         }
         Ok(out)
     }
