@@ -24,6 +24,12 @@
 //!    outside the calibrated x range is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
 //! 6. [`FixedReading::value`] turns x into any [`Unit`] (`e^x` for the linear units from [`transcend`]).
 //!
+//! Steps 2–3 depend on the temperature only: [`FixedCalibration::correct`] does everything per call;
+//! a firmware that reads the temperature less often than the log channel computes a [`TemperatureStage`]
+//! (or a [`RowStage`], which also collapses the residual over temperature) per temperature reading and
+//! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample. All three
+//! give bit-identical results.
+//!
 //! Why `x̃` and not `u` as the residual's coordinate: near the swamped low end `x − u` behaves like
 //! `ln(u − λ)` and moves with temperature; no uniform (u, T) grid of a few KiB interpolates it to ¼ LSB on a
 //! unit with a strong hot bend (the host's table tests measure it). Removed analytically, it leaves a surface
