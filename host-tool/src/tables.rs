@@ -449,11 +449,12 @@ pub fn build(
     }
     header.offset_frac = offset_frac as u8;
     header.inv_slope_frac = inv_slope_frac as u8;
-    let offset = to_i32("offset", &offset_c, 2f64.powi(offset_frac as i32))?;
-    let inv_slope = to_i32("inverse slope", &inv_slope_c, 2f64.powi(inv_slope_frac as i32))?;
+    // Control points are stored divided by 6 per axis (the firmware's weights are six times the basis).
+    let offset = to_i32("offset", &offset_c, 2f64.powi(offset_frac as i32) / 6.0)?;
+    let inv_slope = to_i32("inverse slope", &inv_slope_c, 2f64.powi(inv_slope_frac as i32) / 6.0)?;
     let ln_bias = if bias {
         let c = fit_t(stages.iter().map(|s| s.ln_beta.unwrap_or(0.0)).collect());
-        to_i32("bias floor", &c, X_SCALE)?
+        to_i32("bias floor", &c, X_SCALE / 6.0)?
     } else {
         Vec::new()
     };
@@ -483,7 +484,7 @@ pub fn build(
         }
         let vals: Vec<f64> = limits.iter().map(|l| l.unwrap_or(0.0)).collect();
         header.sensitivity_limit = true;
-        to_i32("sensitivity limit", &fit_t(vals), X_SCALE)?
+        to_i32("sensitivity limit", &fit_t(vals), X_SCALE / 6.0)?
     } else {
         Vec::new()
     };
@@ -540,9 +541,10 @@ pub fn build(
         }
     }
     let x_fit = fit_operator(nx - 1, &x_pos)?;
-    let c = &t_fit * f * x_fit.transpose(); // (nt + 2) × (nx + 2)
+    // Stored divided by 36: 6 per axis.
+    let c = (&t_fit * f * x_fit.transpose()) / 36.0; // (nt + 2) × (nx + 2)
     let cv: Vec<f64> = c.iter().copied().collect();
-    let frac = choose_frac("residual", &cv, 0.0, 32767.0, 24)?;
+    let frac = choose_frac("residual", &cv, 0.0, 32767.0, 30)?;
     header.residual_frac = frac as u8;
     let scale = 2f64.powi(frac as i32);
     let mut residual = Vec::with_capacity(cv.len());
@@ -665,7 +667,7 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
         code += stride;
     }
     let c = fit_spline(segments, &pos, &val)?;
-    let knots = to_i32("sensor temperature", &c, THETA_PER_C)?;
+    let knots = to_i32("sensor temperature", &c, THETA_PER_C / 6.0)?;
     Ok(SensorTableOwned {
         code_lo,
         code_hi,
@@ -681,7 +683,7 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
 }
 
 /// The universal bias-bend table `G(v) = ln(1 − e^(−v))` (see [`logtrim::fixed::transcend`]): per octave,
-/// the spline control points fitted to the exact function, Q24.
+/// the spline control points fitted to the exact function, Q24, divided by 6.
 pub fn universal_bend() -> Result<Vec<i32>, TableError> {
     use logtrim::fixed::transcend::{BEND_FIRST_EXP, BEND_OCTAVES, BEND_SEGMENTS};
     let pos = sample_positions(BEND_SEGMENTS);
@@ -698,7 +700,7 @@ pub fn universal_bend() -> Result<Vec<i32>, TableError> {
             .collect();
         let c = &pinv * DMatrix::from_column_slice(vals.len(), 1, &vals);
         let cv: Vec<f64> = c.iter().copied().collect();
-        out.extend(to_i32("bend table", &cv, X_SCALE)?);
+        out.extend(to_i32("bend table", &cv, X_SCALE / 6.0)?);
     }
     Ok(out)
 }

@@ -15,7 +15,8 @@
 //!   With a raw temperature channel, a temperature error (out of range, sensor fault) is also at an edge
 //!   where the temperature's own status changes at a neighbouring channel code: the table's fraction of a
 //!   millikelvin can move a code across the range end. Edge disagreements are counted and reported; any
-//!   other disagreement fails the verification.
+//!   other disagreement fails the verification. In a sampled run (`code_stride` > 1) the band reaches the
+//!   neighbouring sampled codes.
 //!
 //! # The temperature grid
 //!

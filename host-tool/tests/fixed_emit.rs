@@ -70,7 +70,8 @@ fn emitted_json_round_trips() {
     assert_eq!(back, t);
 }
 
-/// One input line for the C driver and the Rust path: `m CODE TEMP_MC` or `r CODE TEMP_CODE`.
+/// One input line for the C driver and the Rust path: `m CODE TEMP_MC`, `r CODE TEMP_CODE`, or
+/// `w CODE TEMP_MC` (through a row stage).
 fn inputs() -> Vec<(char, u32, i64)> {
     let mut v = Vec::new();
     let codes: Vec<u32> = (0..=65535u32)
@@ -97,6 +98,9 @@ fn inputs() -> Vec<(char, u32, i64)> {
         for tc in [0, 5, 6, 141, 142, 300, 700, 1500, 2500, 3995, 3996, 4089, 4090, 4095, u32::MAX] {
             v.push(('r', code, i64::from(tc)));
         }
+        for mc in [-25_000, -3_217, 40_000, 90_000, 90_001] {
+            v.push(('w', code, mc));
+        }
     }
     v
 }
@@ -104,6 +108,10 @@ fn inputs() -> Vec<(char, u32, i64)> {
 fn rust_line(c: &FixedCalibration<'_>, kind: char, code: u32, t: i64) -> String {
     let r: Result<FixedReading, Error> = match kind {
         'm' => c.correct(code, t as i32),
+        'w' => c
+            .stage_millicelsius(t as i32)
+            .and_then(|s| c.row_stage(&s))
+            .and_then(|rs| c.correct_row(&rs, code)),
         _ => c.correct_raw(code, t as u32),
     };
     let mut s = format!("{}", status_code(&r));
@@ -126,8 +134,18 @@ int main(void) {
     long long t;
     while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
         lt_reading r;
-        lt_status st = kind == 'm' ? lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r)
-                                   : lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
+        lt_status st;
+        if (kind == 'w') {
+            lt_stage s;
+            lt_row_stage rs;
+            st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
+            if (st == LT_OK) st = lt_row_stage_from(&LT_UNIT, &s, &rs);
+            if (st == LT_OK) st = lt_correct_row(&LT_UNIT, &rs, (uint32_t)code, &r);
+        } else if (kind == 'm') {
+            st = lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r);
+        } else {
+            st = lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
+        }
         printf("%d", (int)st);
         if (st == LT_OK) {
             int u;

@@ -4,11 +4,16 @@
 //! A uniform cubic B-spline with control points `c_k` has, on segment `s` at fraction `t ∈ [0, 1]`, the value
 //! `Σ_{k=0..3} B_k(t)·c_{s+k}` with `B_0 = (1−t)³/6`, `B_1 = (3t³ − 6t² + 4)/6`, `B_2 = (−3t³ + 3t² + 3t + 1)/6`,
 //! `B_3 = t³/6`. The weights are positive and sum to one, so a table never rings past its control points,
-//! and the spline is C² across segments. Here `t` is Q20 and the weights are Q28, summing to exactly 2^28.
+//! and the spline is C² across segments.
 //!
-//! Bounds (why nothing overflows for any stored value): `t ≤ 2^20`, so `t³ ≤ 2^60` and the largest
-//! numerator, `(3t³ − 6t² + 4)` at t = 1 in Q60, is 2^62; the weights are positive and sum to 2^28, so a
-//! weighted sum of stored i32 values is at most 2^59 in magnitude.
+//! In integers, `t` is Q20 and the weights are **six times** the basis, `6·B_k(t)` in Q28 (integer
+//! polynomials in t, no division), summing to exactly 6·2^28; every table stores its control points
+//! divided by 6 per axis (by 36 for the 2-D residual), folded into the table's scale by the host, so
+//! `Σ 6B_k · c_k/6` is the spline's value. `t² and t³` are truncated to Q28.
+//!
+//! Bounds (why nothing overflows for any stored value): `t ≤ 2^20`, so `t·t ≤ 2^40` and `t²·t ≤ 2^48`
+//! before their shifts; the weights are positive and sum to 6·2^28 < 2^30.6, so a weighted sum of stored
+//! i32 values is below 2^61.6 in magnitude and of i16 values below 2^45.6.
 
 /// Fraction bits of the basis weights.
 pub(crate) const W_BITS: u32 = 28;
@@ -17,25 +22,28 @@ pub(crate) const POS_FRAC: u32 = 20;
 /// One knot step in a position.
 pub(crate) const ONE: i64 = 1 << POS_FRAC;
 
-/// The four basis weights at `t` (Q20, clamped to `[0, 2^20]`), Q28, summing to exactly 2^28.
-#[inline]
+/// Six times the four basis weights at `t` (Q20, clamped to `[0, 2^20]`), Q28, summing to exactly 6·2^28.
+#[inline(always)]
 pub(crate) fn weights(t: i64) -> [i64; 4] {
-    const D: i64 = 6 << 32; // divide by 6 and go from Q60 to Q28 (all numerators are ≥ 0: truncation is floor)
     let t = t.clamp(0, ONE);
     let s = ONE - t;
-    let t2 = t * t; // Q40, ≤ 2^40
-    let t3 = t2 * t; // Q60, ≤ 2^60
-    let s3 = s * s * s; // Q60
-    let w0 = s3 / D;
-    let w3 = t3 / D;
-    // 3t³ − 6t² + 4 is in [1, 4] on [0, 1]; 3t³ − 6t² ≥ −3 is summed first.
-    let w1 = (3 * t3 - 6 * (t2 << 20) + (4 << 60)) / D;
-    let w2 = (1 << W_BITS) - w0 - w1 - w3;
-    [w0, w1, w2, w3]
+    let t2 = (t * t) >> 12; // Q28
+    let t3 = (t2 * t) >> 20; // Q28
+    let s2 = (s * s) >> 12;
+    let s3 = (s2 * s) >> 20;
+    // 3t³ − 6t² + 4 is in [1, 4] on [0, 1].
+    let w1 = 3 * t3 - 6 * t2 + (4 << W_BITS);
+    [s3, w1, (6 << W_BITS) - s3 - w1 - t3, t3]
+}
+
+/// `x / 2^n` rounded to nearest (ties up) for `|x| < 2^62` and `1 ≤ n ≤ 62` (the spline sums).
+#[inline(always)]
+pub(crate) fn round_shr_small(x: i64, n: u32) -> i64 {
+    (x + (1 << (n - 1))) >> n
 }
 
 /// `x / 2^n` rounded to nearest (ties up), `n` clamped to 0..=62. Saturates instead of overflowing.
-#[inline]
+#[inline(always)]
 pub(crate) fn round_shr(x: i64, n: u32) -> i64 {
     let n = n.min(62);
     if n == 0 {
@@ -45,13 +53,13 @@ pub(crate) fn round_shr(x: i64, n: u32) -> i64 {
 }
 
 /// `x · 2^n` for `n` clamped to 0..=62, saturating.
-#[inline]
+#[inline(always)]
 pub(crate) fn sat_shl(x: i64, n: u32) -> i64 {
     x.saturating_mul(1i64 << n.min(62))
 }
 
 /// Moves a value from `from` to `to` fraction bits (rounding when bits are dropped, saturating when added).
-#[inline]
+#[inline(always)]
 pub(crate) fn rescale(x: i64, from: u32, to: u32) -> i64 {
     if from >= to {
         round_shr(x, from - to)
@@ -60,14 +68,14 @@ pub(crate) fn rescale(x: i64, from: u32, to: u32) -> i64 {
     }
 }
 
-/// Σ wₖ·cₖ of four weights and four stored values (below 2^61 in magnitude: see the module docs).
-#[inline]
+/// Σ wₖ·cₖ of four weights and four stored values (below 2^61.6 in magnitude: see the module docs).
+#[inline(always)]
 pub(crate) fn dot4(w: &[i64; 4], c: [i64; 4]) -> i64 {
     w[0] * c[0] + w[1] * c[1] + w[2] * c[2] + w[3] * c[3]
 }
 
 /// Four consecutive entries of `table` from `start`, widened to i64, or `None` past the end.
-#[inline]
+#[inline(always)]
 pub(crate) fn four_i32(table: &[i32], start: usize) -> Option<[i64; 4]> {
     let s = table.get(start..start.checked_add(4)?)?;
     let a: &[i32; 4] = s.try_into().ok()?;
@@ -75,22 +83,23 @@ pub(crate) fn four_i32(table: &[i32], start: usize) -> Option<[i64; 4]> {
 }
 
 /// Four consecutive entries of `table` from `start`, widened to i64, or `None` past the end.
-#[inline]
+#[inline(always)]
 pub(crate) fn four_i16(table: &[i16], start: usize) -> Option<[i64; 4]> {
     let s = table.get(start..start.checked_add(4)?)?;
     let a: &[i16; 4] = s.try_into().ok()?;
     Some([i64::from(a[0]), i64::from(a[1]), i64::from(a[2]), i64::from(a[3])])
 }
 
-/// One spline value: the Q28-weighted sum of four control points from `start`, back in their own format.
-#[inline]
+/// One spline value: the weighted sum of four control points from `start` (stored divided by 6), back
+/// in the table's format.
+#[inline(always)]
 pub(crate) fn spline1(table: &[i32], start: usize, w: &[i64; 4]) -> Option<i64> {
-    Some(round_shr(dot4(w, four_i32(table, start)?), W_BITS))
+    Some(round_shr_small(dot4(w, four_i32(table, start)?), W_BITS))
 }
 
 /// Segment index and Q20 fraction of a Q20 knot position on a grid of `knots` knots (≥ 2): the segment is
 /// clamped to `0..=knots−2`, the fraction to `[0, 2^20]`.
-#[inline]
+#[inline(always)]
 pub(crate) fn segment(pos: i64, knots: usize) -> (usize, i64) {
     let last = (knots.max(2) as i64).min(1 << 40) - 2;
     let seg = (pos >> POS_FRAC).clamp(0, last);
@@ -104,18 +113,17 @@ mod tests {
     #[test]
     fn weights_sum_to_one_and_match_the_basis() {
         // The uniform cubic B-spline basis (de Boor, "A Practical Guide to Splines"): at t = 0 the weights
-        // are 1/6, 4/6, 1/6, 0; at t = 1/2 they are 1/48, 23/48, 23/48, 1/48.
+        // are 1/6, 4/6, 1/6, 0; at t = 1/2 they are 1/48, 23/48, 23/48, 1/48 (here times 6).
         let one = 1i64 << W_BITS;
         for t in (0..=ONE).step_by(97).chain([ONE]) {
             let w = weights(t);
-            assert_eq!(w.iter().sum::<i64>(), one, "t={t}");
+            assert_eq!(w.iter().sum::<i64>(), 6 * one, "t={t}");
             assert!(w.iter().all(|&x| x >= 0));
         }
         let w = weights(0);
-        assert!((w[0] - one / 6).abs() <= 1 && (w[1] - 4 * one / 6).abs() <= 1 && w[3] == 0);
+        assert_eq!(w, [one, 4 * one, one, 0]);
         let w = weights(ONE / 2);
-        assert!((w[0] - one / 48).abs() <= 1 && (w[1] - 23 * one / 48).abs() <= 1);
-        assert!((w[2] - 23 * one / 48).abs() <= 2 && (w[3] - one / 48).abs() <= 1);
+        assert_eq!(w, [one / 8, 23 * one / 8, 23 * one / 8, one / 8]);
         // Out-of-range fractions clamp instead of overflowing.
         assert_eq!(weights(i64::MIN), weights(0));
         assert_eq!(weights(i64::MAX), weights(ONE));

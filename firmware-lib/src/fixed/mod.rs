@@ -24,6 +24,12 @@
 //!    outside the calibrated x range is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
 //! 6. [`FixedReading::value`] turns x into any [`Unit`] (`e^x` for the linear units from [`transcend`]).
 //!
+//! Steps 2–3 depend on the temperature only: [`FixedCalibration::correct`] does everything per call;
+//! a firmware that reads the temperature less often than the log channel computes a [`TemperatureStage`]
+//! (or a [`RowStage`], which also collapses the residual over temperature) per temperature reading and
+//! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample. All three
+//! give bit-identical results.
+//!
 //! Why `x̃` and not `u` as the residual's coordinate: near the swamped low end `x − u` behaves like
 //! `ln(u − λ)` and moves with temperature; no uniform (u, T) grid of a few KiB interpolates it to ¼ LSB on a
 //! unit with a strong hot bend (the host's table tests measure it). Removed analytically, it leaves a surface
@@ -31,29 +37,32 @@
 //!
 //! # Q formats
 //!
-//! `Qn` means the integer is the value times 2^n. θ is the internal temperature.
+//! `Qn` means the integer is the value times 2^n. θ is the internal temperature. Spline control points are
+//! stored divided by 6 per axis (see the weights in the spline core), which the host folds into each
+//! table's scale.
 //!
 //! | quantity | type | format |
 //! |---|---|---|
 //! | log ADC code, temperature ADC code | u32 | integer code |
 //! | temperature input | i32 | m°C |
-//! | θ, internal temperature; [`FixedHeader`] temperatures; [`SensorTable::knots`] | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
+//! | θ, internal temperature; [`FixedHeader`] temperatures | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
+//! | [`SensorTable::knots`] | i32 | θ / 6 |
 //! | knot positions | i64 | Q20 knots; segment = position >> 20, fraction t = low 20 bits |
-//! | spline weights | i64 | Q28, four per axis, summing to exactly 2^28 |
-//! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` |
-//! | [`FixedCalibration::inv_slope`] 1/S(T) | i32 | Np/code · 2^`inv_slope_frac` |
-//! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np |
+//! | spline weights | i64 | six times the basis, Q28, four per axis, summing to exactly 6·2^28 |
+//! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
+//! | [`FixedCalibration::inv_slope`] 1/S(T) | i32 | Np/code · 2^`inv_slope_frac` / 6 |
+//! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np / 6 |
 //! | u, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i64 inside, i32 out | Q24 Np |
-//! | [`universal::BEND`] G control points | i32 | Q24 Np |
+//! | [`universal::BEND`] G control points | i32 | Q24 Np / 6 |
 //! | [`universal::EXP2`] 2^(j/32) | i32 | Q30 |
-//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` |
-//! | residual partial sums | i64 | Np · 2^(`residual_frac` + 14) |
+//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 36 |
+//! | residual columns collapsed over T | i64 (i32 in a [`RowStage`]) | Np · 2^(`residual_frac` + 13) / 6 |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
 //!
 //! # Overflow
 //!
-//! Every product is of a Q28 weight and a stored i32/i16 value (below 2^59, four-term sums below 2^61), of
+//! Every product is of a weight and a stored i32/i16 value (four-term sums below 2^61.6), of
 //! two values already bounded to i32 range (`saturating_mul` where both come from data), or of a value
 //! bounded to ±2^31 and a constant below 2^32. Intermediate nepers are clamped to ±2^31 (±128 Np, far
 //! outside any table, so the clamp can only turn into a range error). Shift counts from data are clamped.
@@ -84,7 +93,9 @@ mod tests;
 use crate::calibration::temperature_out_of_range_millicelsius;
 use crate::error::{CalibrationDefect, Error, SensorFault};
 use crate::units::Unit;
-use interp::{dot4, four_i16, rescale, round_shr, segment, spline1, weights, POS_FRAC, W_BITS};
+use interp::{
+    dot4, four_i16, rescale, round_shr, round_shr_small, segment, spline1, weights, POS_FRAC, W_BITS,
+};
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
 pub const LAYOUT_VERSION: u8 = 1;
@@ -101,7 +112,7 @@ pub const T_POS_SHIFT: u32 = 28;
 /// `xa_inv_step = 2^48 / (knot step in Q24 Np)` = `2^24 / (knot step in Np)`.
 pub const XA_POS_SHIFT: u32 = 28;
 /// Extra fraction bits kept in the residual's partial sums.
-pub const RESIDUAL_GUARD: u32 = 14;
+pub const RESIDUAL_GUARD: u32 = 13;
 /// Intermediate nepers are clamped to ±2^31 in Q24 (±128 Np).
 const X_CLAMP: i64 = 1 << 31;
 
@@ -222,6 +233,26 @@ impl TemperatureStage {
     }
 }
 
+/// Capacity of a [`RowStage`]: residual grids of up to `ROW_CAPACITY − 2` x̃ knots.
+pub const ROW_CAPACITY: usize = 66;
+
+/// A [`TemperatureStage`] with the residual collapsed over temperature for every x̃ column
+/// ([`FixedCalibration::row_stage`]), for [`FixedCalibration::correct_row`]. 280 bytes, no heap.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct RowStage {
+    stage: TemperatureStage,
+    row: [i32; ROW_CAPACITY],
+    len: usize,
+}
+
+impl RowStage {
+    /// The temperature lies outside the calibrated range, within the allowed extrapolation.
+    pub fn extrapolated(&self) -> bool {
+        self.stage.extrapolated
+    }
+}
+
 /// A corrected reading in fixed point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
@@ -251,6 +282,7 @@ pub const fn value_frac_bits(unit: Unit) -> u32 {
 impl FixedReading {
     /// The reading in a unit, as an integer with [`value_frac_bits`] fraction bits. The linear units are
     /// [`Error::AboveRange`] where they do not fit an i64 (x above about 21 Np).
+    #[inline(always)]
     pub fn value(&self, unit: Unit) -> Result<i64, Error> {
         let x = i64::from(self.x);
         Ok(match unit {
@@ -272,7 +304,7 @@ const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficien
 
 impl<'a> FixedCalibration<'a> {
     /// Checks a log channel code against the converter and the rail margin, as the f32 path does.
-    #[inline]
+    #[inline(always)]
     pub fn check_code(&self, code: u32) -> Result<(), Error> {
         let h = &self.header;
         let max = h.adc_max_code;
@@ -286,7 +318,7 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
-    #[inline]
+    #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let stage = self.stage_millicelsius(temp_mc)?;
@@ -295,7 +327,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// Corrects one reading from raw codes: `code` from the log channel, `temp_code` from the temperature
     /// channel (through [`FixedCalibration::sensor`]).
-    #[inline]
+    #[inline(always)]
     pub fn correct_raw(&self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let stage = self.stage_code(temp_code)?;
@@ -304,7 +336,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// θ (Q10 m°C) from the temperature channel's code. [`Error::Sensor`] outside the sensor's valid span;
     /// [`Error::NotCalibrated`] when this calibration has no sensor table.
-    #[inline]
+    #[inline(always)]
     pub fn theta_from_code(&self, temp_code: u32) -> Result<i32, Error> {
         let s = self.sensor.as_ref().ok_or(Error::NotCalibrated)?;
         if temp_code < s.code_lo {
@@ -324,34 +356,26 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The temperature stage at a temperature in m°C.
-    #[inline]
+    #[inline(always)]
     pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<TemperatureStage, Error> {
-        let theta = i64::from(temp_mc) << THETA_FRAC;
-        self.stage_theta(theta).map_err(|e| match e {
-            Error::TemperatureOutOfRange { .. } => temperature_out_of_range_millicelsius(temp_mc),
-            e => e,
-        })
+        self.stage_theta(i64::from(temp_mc) << THETA_FRAC)
     }
 
     /// The temperature stage at the temperature channel's code.
-    #[inline]
+    #[inline(always)]
     pub fn stage_code(&self, temp_code: u32) -> Result<TemperatureStage, Error> {
         let theta = self.theta_from_code(temp_code)?;
-        self.stage_theta(i64::from(theta)).map_err(|e| match e {
-            Error::TemperatureOutOfRange { .. } => {
-                let mc = round_shr(i64::from(theta), THETA_FRAC) as i32; // |θ| < 2^31: fits
-                temperature_out_of_range_millicelsius(mc)
-            }
-            e => e,
-        })
+        self.stage_theta(i64::from(theta))
     }
 
     /// The temperature stage at θ (Q10 m°C).
-    #[inline]
+    #[inline(always)]
     pub fn stage_theta(&self, theta: i64) -> Result<TemperatureStage, Error> {
         let h = &self.header;
         if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
-            return Err(temperature_out_of_range_millicelsius(0));
+            // The temperature in m°C for the error (clamped to i32 only for θ far beyond any sensor).
+            let mc = round_shr(theta, THETA_FRAC).clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
+            return Err(temperature_out_of_range_millicelsius(mc));
         }
         let extrapolated = theta < i64::from(h.temp_min) || theta > i64::from(h.temp_max);
         let pos = (theta - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT;
@@ -366,16 +390,71 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// The log-channel part of a correction at a temperature stage. The code is checked again (cheap).
-    #[inline]
+    #[inline(always)]
     pub fn correct_staged(&self, stage: &TemperatureStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
-        let x = self.x_q24(stage, code)?;
+        let x = self.x_q24(stage, code, None)?;
         Ok(FixedReading { x, temperature_extrapolated: stage.extrapolated })
     }
 
+    /// Residual columns `col..col + 4` collapsed over the stage's temperature:
+    /// `(Σ_k w_k · r[seg + k][col + i]) >> (28 − 13)`, each below 2^30.6 (weights sum to 6·2^28, i16 values).
+    #[inline(always)]
+    fn columns(&self, stage: &TemperatureStage, col: usize) -> Result<[i64; 4], Error> {
+        let stride = usize::from(self.header.xa_knots) + 2;
+        let mut rows = [[0i64; 4]; 4];
+        for (k, r) in rows.iter_mut().enumerate() {
+            let start =
+                stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
+            *r = four_i16(self.residual, start.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
+        }
+        let w = &stage.w;
+        let [r0, r1, r2, r3] = rows;
+        let mut out = [0i64; 4];
+        for ((((o, a), b), c), d) in out.iter_mut().zip(r0).zip(r1).zip(r2).zip(r3) {
+            *o = dot4(w, [a, b, c, d]) >> (W_BITS - RESIDUAL_GUARD);
+        }
+        Ok(out)
+    }
+
+    /// The temperature stage with the residual collapsed over temperature for every x̃ column: the
+    /// per-sample work of [`FixedCalibration::correct_row`] is then one cubic in x̃ (a firmware that reads
+    /// the temperature less often than the log channel builds one per temperature reading). Results are
+    /// bit-identical to [`FixedCalibration::correct_staged`]. [`Error::InvalidCalibration`] when the grid has
+    /// more than [`ROW_CAPACITY`] − 2 knots.
+    pub fn row_stage(&self, stage: &TemperatureStage) -> Result<RowStage, Error> {
+        let n = usize::from(self.header.xa_knots) + 2;
+        if n > ROW_CAPACITY {
+            return Err(BAD_TABLE);
+        }
+        let mut row = [0i32; ROW_CAPACITY];
+        // Four columns at a time; the last group may overlap the one before it.
+        let mut col = 0;
+        while col < n {
+            let start = col.min(n.saturating_sub(4));
+            let c = self.columns(stage, start)?;
+            for (dst, v) in row.iter_mut().skip(start).zip(c) {
+                // Below 2^30.6: fits.
+                *dst = v as i32;
+            }
+            col = start + 4;
+        }
+        Ok(RowStage { stage: *stage, row, len: n })
+    }
+
+    /// The log-channel part of a correction at a [`RowStage`]: bit-identical to
+    /// [`FixedCalibration::correct_staged`] at the same stage, with a quarter of the residual's work.
+    #[inline(always)]
+    pub fn correct_row(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
+        self.check_code(code)?;
+        let row = rs.row.get(..rs.len).ok_or(BAD_TABLE)?;
+        let x = self.x_q24(&rs.stage, code, Some(row))?;
+        Ok(FixedReading { x, temperature_extrapolated: rs.stage.extrapolated })
+    }
+
     /// x in Q24 at a temperature stage for a checked code.
-    #[inline]
-    fn x_q24(&self, stage: &TemperatureStage, code: u32) -> Result<i32, Error> {
+    #[inline(always)]
+    fn x_q24(&self, stage: &TemperatureStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
         let h = &self.header;
         let qo = u32::from(h.offset_frac).min(30);
         let qs = u32::from(h.inv_slope_frac).min(62);
@@ -397,20 +476,14 @@ impl<'a> FixedCalibration<'a> {
         }
         let (col, t) = segment(pos, xa_knots);
         let wu = weights(t);
-        let stride = xa_knots + 2;
-        let mut rows = [0i64; 4];
-        for (k, row) in rows.iter_mut().enumerate() {
-            let start =
-                stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
-            let start = start.ok_or(BAD_TABLE)?;
-            *row = round_shr(
-                dot4(&wu, four_i16(self.residual, start).ok_or(BAD_TABLE)?),
-                W_BITS - RESIDUAL_GUARD,
-            );
-        }
-        // Rows are below 2^(15 + 14): the outer sum stays below 2^57.
-        let r = round_shr(dot4(&stage.w, rows), W_BITS);
-        let r = rescale(r, u32::from(h.residual_frac).min(24) + RESIDUAL_GUARD, X_FRAC);
+        // The residual's four columns, already collapsed over temperature (each below 2^30.6).
+        let cols = match row {
+            Some(row) => interp::four_i32(row, col).ok_or(BAD_TABLE)?,
+            None => self.columns(stage, col)?,
+        };
+        // Below 2^61.2.
+        let r = round_shr_small(dot4(&wu, cols), W_BITS);
+        let r = rescale(r, u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD, X_FRAC);
         let x = xa + r;
         if x < i64::from(h.x_min) {
             return Err(Error::BelowRange);
@@ -458,7 +531,7 @@ impl<'a> FixedCalibration<'a> {
         let scales_ok = h.offset_frac <= 30
             && (i64::from(h.adc_max_code) << h.offset_frac) < 1 << 31
             && h.inv_slope_frac <= 62
-            && h.residual_frac <= 24
+            && h.residual_frac <= 30
             && nxa >= 2
             && h.xa_inv_step > 0;
         let lens_ok = self.offset.len() == nt + 2

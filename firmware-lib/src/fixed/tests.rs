@@ -8,8 +8,9 @@ use std::vec::Vec;
 use super::*;
 use crate::calibration::temperature_out_of_range_millicelsius as t_err;
 
-/// A linear unit: x = (code − 32768)/4096 Np at every temperature, −5…55 °C accepted, 0…50 °C calibrated,
-/// x in [−7, 7], a temperature channel with θ = 10 m°C per code from code 100 to 4000.
+/// A linear unit: x = (code − 32769)·6/32768 Np at every temperature (values whose control points divide
+/// by 6 exactly), −5…55 °C accepted, 0…50 °C calibrated, x in ±27306·6/32768 Np (about ±5 Np), a
+/// temperature channel with θ = 15 m°C per code from code 100 to 4000.
 struct Owned {
     header: FixedHeader,
     offset: Vec<i32>,
@@ -21,6 +22,8 @@ struct Owned {
 }
 
 const Q24: i64 = 1 << 24;
+/// The x range's ends: 27306 codes from the centre.
+const X_LIM: i32 = 27306 * 3072;
 
 fn linear() -> Owned {
     let header = FixedHeader {
@@ -42,18 +45,20 @@ fn linear() -> Owned {
         xa_origin: -9 * (1 << 24),
         xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
         residual_frac: 16,
-        x_min: -7 * (1 << 24),
-        x_max: 7 * (1 << 24),
+        x_min: -X_LIM,
+        x_max: X_LIM,
     };
     Owned {
         header,
-        offset: vec![32768 << 14; 6],
-        inv_slope: vec![1 << 30; 6],
+        // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
+        offset: vec![10923 << 13; 6],
+        inv_slope: vec![1 << 27; 6],
         ln_bias: vec![],
         u_min: vec![],
         residual: vec![0; 6 * 7],
-        // θ(code) = (code − 100)·10 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)).
-        sensor: (0..19).map(|i| (i - 1) * 256 * 10 * 1024).collect(),
+        // θ(code) = (code − 100)·15 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)),
+        // stored divided by 6.
+        sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
     }
 }
 
@@ -83,7 +88,7 @@ impl Owned {
 }
 
 fn x_of(code: u32) -> i32 {
-    ((i64::from(code) - 32768) * 4096) as i32
+    ((i64::from(code) - 32769) * 3072) as i32
 }
 
 #[test]
@@ -95,13 +100,13 @@ fn hand_built_tables_validate() {
 fn linear_tables_are_exact() {
     let o = linear();
     let c = o.view();
-    for code in [4096, 20000, 32768, 32769, 40000, 61440] {
+    for code in [5463, 20000, 32768, 32769, 40000, 60075] {
         for t in [-5000, 0, 25_000, 50_000, 55_000] {
             let r = c.correct(code, t).unwrap();
             assert_eq!(r.x, x_of(code), "code {code} at {t} m°C");
         }
     }
-    assert_eq!(c.correct(32768 + 4096, 25_000).unwrap().x, 1 << 24);
+    assert_eq!(c.correct(32769 + 5461, 25_000).unwrap().x, 5461 * 3072);
 }
 
 #[test]
@@ -111,7 +116,7 @@ fn code_extremes() {
     assert_eq!(c.correct(0, 25_000), Err(Error::Saturated { code: 0 }));
     assert_eq!(c.correct(15, 25_000), Err(Error::Saturated { code: 15 }));
     // A code at the margin counts as saturated, as in the f32 path; code 17 is inside the rails but
-    // x = −7.996 is below the calibrated x range.
+    // its x is below the calibrated x range.
     assert_eq!(c.correct(16, 25_000), Err(Error::Saturated { code: 16 }));
     assert_eq!(c.correct(17, 25_000), Err(Error::BelowRange));
     assert_eq!(c.correct(65518, 25_000), Err(Error::AboveRange));
@@ -124,10 +129,10 @@ fn code_extremes() {
     assert_eq!(c.correct(u32::MAX, i32::MAX), Err(Error::CodeOutOfAdcRange { code: u32::MAX, max: 65535 }));
     assert_eq!(c.correct_raw(0, u32::MAX), Err(Error::Saturated { code: 0 }));
     // The x range ends are inclusive.
-    assert_eq!(c.correct(4096, 25_000).map(|r| r.x), Ok(-7 << 24));
-    assert_eq!(c.correct(4095, 25_000), Err(Error::BelowRange));
-    assert_eq!(c.correct(61440, 25_000).map(|r| r.x), Ok(7 << 24));
-    assert_eq!(c.correct(61441, 25_000), Err(Error::AboveRange));
+    assert_eq!(c.correct(5463, 25_000).map(|r| r.x), Ok(-X_LIM));
+    assert_eq!(c.correct(5462, 25_000), Err(Error::BelowRange));
+    assert_eq!(c.correct(60075, 25_000).map(|r| r.x), Ok(X_LIM));
+    assert_eq!(c.correct(60076, 25_000), Err(Error::AboveRange));
 }
 
 #[test]
@@ -156,9 +161,9 @@ fn sensor_table_and_faults() {
     let o = linear();
     let c = o.view();
     assert_eq!(c.theta_from_code(100), Ok(0));
-    assert_eq!(c.theta_from_code(356), Ok(256 * 10 * 1024));
-    assert_eq!(c.theta_from_code(2600), Ok(25_000 * 1024));
-    assert_eq!(c.theta_from_code(4000), Ok(39_000 * 1024));
+    assert_eq!(c.theta_from_code(356), Ok(256 * 15 * 1024));
+    assert_eq!(c.theta_from_code(1100), Ok(15_000 * 1024));
+    assert_eq!(c.theta_from_code(4000), Ok(58_500 * 1024));
     assert_eq!(c.theta_from_code(99), Err(Error::Sensor(SensorFault::OutOfModelRange)));
     assert_eq!(c.theta_from_code(10), Err(Error::Sensor(SensorFault::OutOfModelRange)));
     assert_eq!(c.theta_from_code(9), Err(Error::Sensor(SensorFault::Short)));
@@ -167,12 +172,11 @@ fn sensor_table_and_faults() {
     assert_eq!(c.theta_from_code(4090), Err(Error::Sensor(SensorFault::OutOfModelRange)));
     assert_eq!(c.theta_from_code(4091), Err(Error::Sensor(SensorFault::Open)));
     assert_eq!(c.theta_from_code(u32::MAX), Err(Error::Sensor(SensorFault::Open)));
-    assert_eq!(c.correct_raw(40000, 2600), c.correct(40000, 25_000));
+    assert_eq!(c.correct_raw(40000, 1100), c.correct(40000, 15_000));
     assert_eq!(c.correct_raw(40000, 5000), Err(Error::Sensor(SensorFault::Open)));
-    // Codes 100…4000 map to 0…39 °C: all inside; a table reaching past the range gives the range error.
-    let mut hot = linear();
-    hot.sensor.iter_mut().for_each(|k| *k = k.saturating_mul(2));
-    assert_eq!(hot.view().correct_raw(40000, 3000), Err(t_err(58_000)));
+    // Codes 100…4000 map to 0…58.5 °C; past 55 °C the temperature is out of range.
+    assert_eq!(c.correct_raw(40000, 3766), Ok(c.correct(40000, 54_990).unwrap()));
+    assert_eq!(c.correct_raw(40000, 3767), Err(t_err(55_005)));
     // Without a sensor table, a raw temperature code cannot be converted.
     let mut none = o.view();
     none.sensor = None;
@@ -193,35 +197,60 @@ fn staged_correction_equals_the_direct_one() {
 }
 
 #[test]
+fn row_stage_is_bit_identical_to_the_stage() {
+    let mut o = linear();
+    // A residual with structure, so the collapse has something to get wrong.
+    for (i, r) in o.residual.iter_mut().enumerate() {
+        *r = ((i as i32 * 7919) % 2001 - 1000) as i16;
+    }
+    let c = o.view();
+    for t in [-5000, 12_345, 55_000] {
+        let s = c.stage_millicelsius(t).unwrap();
+        let rs = c.row_stage(&s).unwrap();
+        assert_eq!(rs.extrapolated(), s.extrapolated());
+        for code in (0..=65535u32).step_by(7).chain([u32::MAX]) {
+            assert_eq!(c.correct_row(&rs, code), c.correct_staged(&s, code), "code {code} at {t}");
+        }
+    }
+    // Grids wider than the row's capacity are refused, not truncated.
+    let mut wide = linear();
+    wide.header.xa_knots = ROW_CAPACITY as u16;
+    wide.residual = vec![0; 6 * (ROW_CAPACITY + 2)];
+    let c = wide.view();
+    let s = c.stage_millicelsius(0).unwrap();
+    assert_eq!(c.row_stage(&s), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
+}
+
+#[test]
 fn sensitivity_limit_and_bias_floor() {
     let mut o = linear();
     o.header.bias_bend = true;
     o.header.sensitivity_limit = true;
-    // λ = −5 Np; u_min = −4 Np.
-    o.ln_bias = vec![-5 << 24; 6];
-    o.u_min = vec![-4 << 24; 6];
+    // λ = −4.5 Np; u_min = −3.75 Np (stored divided by 6).
+    o.ln_bias = vec![-(3 << 22); 6];
+    o.u_min = vec![-10_485_760; 6];
     // A wider x̃ grid and x range, so the swamped low end (x̃ down to −12 Np) stays inside them.
     o.header.x_min = -16 << 24;
     o.header.xa_origin = -18 << 24;
     o.header.xa_inv_step = 1_864_135; // floor(2^24 / 9 Np)
     let c = o.view();
     assert_eq!(c.validate(), Ok(()));
-    let code_at = |u_np: i64| (32768 + u_np * 4096) as u32;
-    assert_eq!(c.correct(code_at(-4) - 1, 25_000), Err(Error::BelowRange));
-    let at = c.correct(code_at(-4), 25_000).unwrap();
-    // x̃ = u + G(1 Np) = −4 + ln(1 − e^−1): 1 − 1/e = 0.6321205588 and ln 0.6321205588 = −0.4586751454
-    // (values from memory of standard tables), −0.4586751454 · 2^24 = −7_695_292.
-    assert!((i64::from(at.x) - (-4 * Q24 - 7_695_292)).abs() < 32, "{}", at.x);
+    let u_min_code = 32769 - 20480; // u = −3.75 Np
+    assert_eq!(c.correct(u_min_code - 1, 25_000), Err(Error::BelowRange));
+    let at = c.correct(u_min_code, 25_000).unwrap();
+    // x̃ = u + G(0.75 Np) = −3.75 + ln(1 − e^−0.75): e^−0.75 = 0.4723665527, ln 0.5276334473 = −0.6393535
+    // (values from memory of standard tables); −4.3893535 · 2^24 = −73_641_131.
+    assert!((i64::from(at.x) + 73_641_131).abs() < 32, "{}", at.x);
     // Without the sensitivity limit, the bend table's floor (v < 2^−10 Np) refuses the swamped low end.
     o.header.sensitivity_limit = false;
     let c = o.view();
-    let floor_code = 32768 - 5 * 4096; // u = λ exactly: v = 0
+    let floor_code = 32769 - 24576; // u = λ exactly: v = 0
     assert_eq!(c.correct(floor_code, 25_000), Err(Error::BelowRange));
-    assert_eq!(c.correct(floor_code + 1, 25_000), Err(Error::BelowRange)); // v = 2^−12 < 2^−10
-    assert!(c.correct(floor_code + 5, 25_000).is_ok()); // v = 5·2^−12 > 2^−10
+    assert_eq!(c.correct(floor_code + 5, 25_000), Err(Error::BelowRange)); // v = 30/32768 < 2^−10
+    assert!(c.correct(floor_code + 6, 25_000).is_ok()); // v = 36/32768 > 2^−10
                                                         // x increases with the code wherever it is defined.
     let mut last = i32::MIN;
-    for code in floor_code + 5..61000 {
+    for code in floor_code + 6..60000 {
         let x = c.correct(code, 25_000).unwrap().x;
         assert!(x > last, "code {code}");
         last = x;

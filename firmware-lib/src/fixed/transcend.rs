@@ -45,7 +45,7 @@ const LOG2E_Q30: i64 = 1_549_082_005;
 const LN2_Q30: i64 = 744_261_118;
 
 /// `G(v) = ln(1 − e^(−v))` for `v` in Q24 nepers, Q24 result; [`Error::BelowRange`] below the table.
-#[inline]
+#[inline(always)]
 pub fn bend_q24(v: i64) -> Result<i64, Error> {
     let floor_bit = 24 + BEND_FIRST_EXP; // 14
     if v < (1i64 << floor_bit) {
@@ -67,7 +67,7 @@ pub fn bend_q24(v: i64) -> Result<i64, Error> {
 
 /// `e^x` for `x` in Q24 nepers, as Q32 in an i64; [`Error::AboveRange`] where it does not fit (x ≥ 21.48).
 /// Results below 2^−32 round to 0.
-#[inline]
+#[inline(always)]
 pub fn exp_q32(x: i64) -> Result<i64, Error> {
     // y = x·log2(e) in Q30; x is bounded to ±2^31 (±128 Np) first so the product stays below 2^62.
     let x = x.clamp(-(1i64 << 31), 1i64 << 31);

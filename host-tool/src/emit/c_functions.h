@@ -50,19 +50,23 @@ static inline int64_t lt_rescale(int64_t x, unsigned from, unsigned to) {
     return from >= to ? lt_round_shr(x, from - to) : lt_sat_shl(x, to - from);
 }
 
+/* Six times the cubic B-spline basis at t (Q20), Q28; the tables store control points divided by 6. */
 static inline void lt_weights(int64_t t, int64_t w[4]) {
-    const int64_t d = (int64_t)6 << 32;
-    int64_t s, t2, t3, s3;
+    int64_t s, t2, t3, s2, s3;
     t = lt_clamp(t, 0, LT_ONE);
     s = LT_ONE - t;
-    t2 = t * t;
-    t3 = t2 * t;
-    s3 = s * s * s;
-    w[0] = s3 / d;
-    w[3] = t3 / d;
-    w[1] = (3 * t3 - 6 * (t2 << 20) + ((int64_t)4 << 60)) / d;
-    w[2] = ((int64_t)1 << LT_W_BITS) - w[0] - w[1] - w[3];
+    t2 = (t * t) >> 12;
+    t3 = (t2 * t) >> 20;
+    s2 = (s * s) >> 12;
+    s3 = (s2 * s) >> 20;
+    w[0] = s3;
+    w[1] = 3 * t3 - 6 * t2 + ((int64_t)4 << LT_W_BITS);
+    w[2] = ((int64_t)6 << LT_W_BITS) - s3 - w[1] - t3;
+    w[3] = t3;
 }
+
+/* Rounded x / 2^n for the bounded spline sums (|x| < 2^62, 1 <= n <= 62). */
+static inline int64_t lt_round_shr_small(int64_t x, unsigned n) { return lt_asr(x + ((int64_t)1 << (n - 1)), n); }
 
 static inline void lt_segment(int64_t pos, uint64_t knots, int64_t *seg, int64_t *t) {
     int64_t k = knots < 2u ? 2 : (knots > ((uint64_t)1 << 40) ? ((int64_t)1 << 40) : (int64_t)knots);
@@ -78,7 +82,7 @@ static inline int64_t lt_dot4_32(const int64_t w[4], const int32_t *c) {
 /* One spline value from four control points at start, or LT_BAD_TABLE past the end. */
 static inline lt_status lt_spline1(const int32_t *table, uint32_t len, int64_t start, const int64_t w[4], int64_t *out) {
     if (start < 0 || (uint64_t)start + 4u > (uint64_t)len) return LT_BAD_TABLE;
-    *out = lt_round_shr(lt_dot4_32(w, table + start), LT_W_BITS);
+    *out = lt_round_shr_small(lt_dot4_32(w, table + start), LT_W_BITS);
     return LT_OK;
 }
 
@@ -181,16 +185,32 @@ static inline lt_status lt_stage_code(const lt_fixed *c, uint32_t temp_code, lt_
     return lt_stage_theta(c, theta, s);
 }
 
-/* The log-channel part of a correction at a stage. */
-static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, uint32_t code, lt_reading *out) {
+/* Residual columns col..col+3 collapsed over the stage's temperature (each below 2^30.6). */
+static inline lt_status lt_columns(const lt_fixed *c, const lt_stage *s, int64_t col, int64_t out[4]) {
+    uint64_t stride = (uint64_t)c->xa_knots + 2u;
+    int64_t rows[4][4];
+    int k, i;
+    for (k = 0; k < 4; k++) {
+        uint64_t start = ((uint64_t)s->seg + (uint64_t)k) * stride + (uint64_t)col;
+        if (start + 4u > (uint64_t)c->residual_len) return LT_BAD_TABLE;
+        for (i = 0; i < 4; i++) rows[k][i] = c->residual[start + (uint64_t)i];
+    }
+    for (i = 0; i < 4; i++) {
+        out[i] = lt_asr(s->w[0] * rows[0][i] + s->w[1] * rows[1][i] + s->w[2] * rows[2][i] + s->w[3] * rows[3][i],
+                        LT_W_BITS - 13);
+    }
+    return LT_OK;
+}
+
+/* x in Q24 at a stage; row is the stage's collapsed residual (lt_row_stage) or NULL. */
+static inline lt_status lt_x_q24(const lt_fixed *c, const lt_stage *s, uint32_t code, const int32_t *row,
+                                 uint32_t row_len, int32_t *x_out) {
     unsigned qo = c->offset_frac > 30u ? 30u : c->offset_frac;
     unsigned qs = c->inv_slope_frac > 62u ? 62u : c->inv_slope_frac;
-    unsigned fr = c->residual_frac > 24u ? 24u : c->residual_frac;
-    int64_t diff, u, xa, g, pos, col, t, wu[4], rows[4], r, x;
-    uint64_t stride = (uint64_t)c->xa_knots + 2u;
-    int k, i;
-    lt_status st = lt_check_code(c, code);
-    if (st != LT_OK) return st;
+    unsigned fr = c->residual_frac > 30u ? 30u : c->residual_frac;
+    int64_t diff, u, xa, g, pos, col, t, wu[4], cols[4], r, x;
+    int i;
+    lt_status st;
     diff = ((int64_t)code << qo) - s->offset;
     u = lt_clamp(lt_rescale(lt_sat_mul(diff, s->inv_slope), qo + qs, LT_X_FRAC), -LT_X_CLAMP, LT_X_CLAMP);
     if (u < s->u_min) return LT_BELOW_RANGE;
@@ -204,20 +224,62 @@ static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, 
     if (pos > ((int64_t)c->xa_knots - 1) * LT_ONE) return LT_ABOVE_RANGE;
     lt_segment(pos, c->xa_knots, &col, &t);
     lt_weights(t, wu);
-    for (k = 0; k < 4; k++) {
-        uint64_t start = ((uint64_t)s->seg + (uint64_t)k) * stride + (uint64_t)col;
-        int64_t acc = 0;
-        if (start + 4u > (uint64_t)c->residual_len) return LT_BAD_TABLE;
-        for (i = 0; i < 4; i++) acc += wu[i] * c->residual[start + (uint64_t)i];
-        rows[k] = lt_round_shr(acc, LT_W_BITS - 14);
+    if (row) {
+        if ((uint64_t)col + 4u > (uint64_t)row_len) return LT_BAD_TABLE;
+        for (i = 0; i < 4; i++) cols[i] = row[col + i];
+    } else if ((st = lt_columns(c, s, col, cols)) != LT_OK) {
+        return st;
     }
-    r = lt_round_shr(s->w[0] * rows[0] + s->w[1] * rows[1] + s->w[2] * rows[2] + s->w[3] * rows[3], LT_W_BITS);
-    r = lt_rescale(r, fr + 14u, LT_X_FRAC);
+    r = lt_round_shr_small(wu[0] * cols[0] + wu[1] * cols[1] + wu[2] * cols[2] + wu[3] * cols[3], LT_W_BITS);
+    r = lt_rescale(r, fr + 13u, LT_X_FRAC);
     x = xa + r;
     if (x < c->x_min) return LT_BELOW_RANGE;
     if (x > c->x_max) return LT_ABOVE_RANGE;
-    out->x = (int32_t)x;
+    *x_out = (int32_t)x;
+    return LT_OK;
+}
+
+/* The log-channel part of a correction at a stage. */
+static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, uint32_t code, lt_reading *out) {
+    lt_status st = lt_check_code(c, code);
+    if (st != LT_OK) return st;
+    if ((st = lt_x_q24(c, s, code, 0, 0u, &out->x)) != LT_OK) return st;
     out->temperature_extrapolated = s->extrapolated;
+    return LT_OK;
+}
+
+/* A stage with the residual collapsed over temperature for every x̃ column (see logtrim::fixed::RowStage). */
+#define LT_ROW_CAPACITY 66
+typedef struct lt_row_stage {
+    lt_stage stage;
+    int32_t row[LT_ROW_CAPACITY];
+    uint32_t len;
+} lt_row_stage;
+
+static inline lt_status lt_row_stage_from(const lt_fixed *c, const lt_stage *s, lt_row_stage *rs) {
+    uint32_t n = (uint32_t)c->xa_knots + 2u, col = 0, start;
+    int64_t v[4];
+    int i;
+    lt_status st;
+    if (n > LT_ROW_CAPACITY) return LT_BAD_TABLE;
+    for (i = 0; i < LT_ROW_CAPACITY; i++) rs->row[i] = 0;
+    while (col < n) {
+        start = col < (n >= 4u ? n - 4u : 0u) ? col : (n >= 4u ? n - 4u : 0u);
+        if ((st = lt_columns(c, s, start, v)) != LT_OK) return st;
+        for (i = 0; i < 4 && start + (uint32_t)i < LT_ROW_CAPACITY; i++) rs->row[start + (uint32_t)i] = (int32_t)v[i];
+        col = start + 4u;
+    }
+    rs->stage = *s;
+    rs->len = n;
+    return LT_OK;
+}
+
+/* The log-channel part at a row stage: bit-identical to lt_correct_staged. */
+static inline lt_status lt_correct_row(const lt_fixed *c, const lt_row_stage *rs, uint32_t code, lt_reading *out) {
+    lt_status st = lt_check_code(c, code);
+    if (st != LT_OK) return st;
+    if ((st = lt_x_q24(c, &rs->stage, code, rs->row, rs->len, &out->x)) != LT_OK) return st;
+    out->temperature_extrapolated = rs->stage.extrapolated;
     return LT_OK;
 }
 

@@ -2,6 +2,23 @@
 //! brought in with `include!(concat!(env!("OUT_DIR"), "/unit.rs"))` from a build script's output. The items
 //! are `pub`, named `LOGTRIM_*`; wrap the `include!` in a module to namespace several units.
 //!
+//! A build script (with `logtrim-host` as a build dependency) does what `logtrim emit --format rust` does:
+//!
+//! ```no_run
+//! # fn main() -> Result<(), Box<dyn std::error::Error>> {
+//! use logtrim_host::{calfile::CalFile, emit, tables};
+//! let file = CalFile::load("unit.json".as_ref())?;
+//! let t = tables::build(&file.calibration, None, &tables::TableOptions::default())?;
+//! let text = emit::rust::render(&t, &emit::Provenance { unit: file.unit.clone(), source: None });
+//! let out = std::path::PathBuf::from(std::env::var("OUT_DIR")?).join("unit.rs");
+//! logtrim_host::output::write_atomic(&out, text.as_bytes())?;
+//! println!("cargo:rerun-if-changed=unit.json");
+//! # Ok(()) }
+//! ```
+//!
+//! and the firmware writes `mod unit { include!(concat!(env!("OUT_DIR"), "/unit.rs")); }` and corrects
+//! with `unit::LOGTRIM_FIXED.correct(code, temp_mc)`.
+//!
 //! [`universal_source`] renders the firmware crate's own `fixed/universal.rs` (the same for every unit).
 
 use super::{banner, number_lines, Provenance};
@@ -145,7 +162,7 @@ pub fn universal_source() -> Result<String, TableError> {
 //! `logtrim_host::tables::universal_bend` and `universal_exp2`; a host test regenerates this file and
 //! compares).
 //!
-//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24, one row per octave of v (see
+//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24 divided by 6, one row per octave of v (see
 //!   [`super::transcend`]), fitted by least squares to the exact function.
 //! * [`EXP2`]: `2^(j/32)` for j = 0..32, Q30.
 

@@ -1,0 +1,182 @@
+//! A loop of corrected samples for instruction counting (`scripts/bench-fixed.sh` runs it under
+//! valgrind's callgrind, collecting only inside the `run_*` functions) and quick timing.
+//!
+//! `fixed_loop PATH N`, PATH one of:
+//! * `fixed-raw`: the fixed path from raw codes (log code, NTC channel code) to power dB;
+//! * `naive-raw`: the same in f32 with libm `logf`/`expf`: the NTC's β equation, then
+//!   `Calibration::correct` and `Unit::DbPower`;
+//! * `fixed-mc` / `naive-mc`: from the log code and a temperature (m°C, or °C in f32) to power dB;
+//! * `fixed-staged`: the log channel alone (`correct_staged` and dB), with the temperature stages computed
+//!   beforehand (64 temperatures): what a firmware pays per log sample when it reads the temperature less
+//!   often than the log channel;
+//! * `fixed-row`: the same through a `RowStage` (the residual collapsed over temperature per stage).
+//!
+//! Inputs are drawn by a seeded generator from the calibrated range of the hard uncompensated unit.
+
+#[path = "../tests/common/mod.rs"]
+mod common;
+
+use std::hint::black_box;
+
+use common::{ntc, units};
+use logtrim::fixed::FixedCalibration;
+use logtrim::{Calibration, Unit};
+use logtrim_host::tables::{self, TableOptions, TemperatureChannel};
+
+/// One input: log code, temperature channel code, temperature in m°C and in °C.
+#[derive(Clone, Copy)]
+struct Input {
+    code: u32,
+    temp_code: u32,
+    mc: i32,
+    celsius: f32,
+}
+
+fn inputs(cal: &Calibration, n: usize) -> Vec<Input> {
+    // Temperature codes whose temperature is inside the calibrated range.
+    let tr = cal.temperature;
+    let tcodes: Vec<(u32, f64)> = ntc::CODES
+        .filter_map(|c| ntc::celsius(c).ok().map(|t| (c, t)))
+        .filter(|&(_, t)| t >= f64::from(tr.min_c) && t <= f64::from(tr.max_c))
+        .collect();
+    let mut s: u64 = 0x2545_f491_4f6c_dd1d;
+    let mut next = move || {
+        s ^= s << 13;
+        s ^= s >> 7;
+        s ^= s << 17;
+        s
+    };
+    (0..n)
+        .map(|_| {
+            let (temp_code, t) = tcodes[(next() % tcodes.len() as u64) as usize];
+            // A log code from x uniform over the calibrated x range at that temperature.
+            let x = f64::from(cal.x_range.min)
+                + (f64::from(cal.x_range.max - cal.x_range.min)) * (next() % 1_000_000) as f64 / 1e6;
+            let code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
+            Input { code, temp_code, mc: (t * 1000.0).round() as i32, celsius: t as f32 }
+        })
+        .collect()
+}
+
+/// The f32 β equation of the NTC channel (the naive firmware's linearisation).
+#[inline(always)]
+fn ntc_celsius_f32(code: u32) -> f32 {
+    let c = code as f32;
+    let r = 10_000.0 * c / (4095.0 - c);
+    1.0 / (1.0 / 298.15 + <logtrim::math::Libm as logtrim::math::Backend>::ln(r / 10_000.0) / 3950.0) - 273.15
+}
+
+#[inline(never)]
+fn run_fixed_raw(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
+    let mut acc = 0i64;
+    for i in inp {
+        if let Ok(r) = f.correct_raw(black_box(i.code), black_box(i.temp_code)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_fixed_mc(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
+    let mut acc = 0i64;
+    for i in inp {
+        if let Ok(r) = f.correct(black_box(i.code), black_box(i.mc)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_fixed_staged(
+    f: &FixedCalibration<'_>,
+    inp: &[Input],
+    stages: &[logtrim::fixed::TemperatureStage],
+) -> i64 {
+    let mut acc = 0i64;
+    for (k, i) in inp.iter().enumerate() {
+        if let Ok(r) = f.correct_staged(&stages[k % stages.len()], black_box(i.code)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed::RowStage]) -> i64 {
+    let mut acc = 0i64;
+    for (k, i) in inp.iter().enumerate() {
+        if let Ok(r) = f.correct_row(&rows[k % rows.len()], black_box(i.code)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_naive_raw(cal: &Calibration, inp: &[Input]) -> f32 {
+    let mut acc = 0.0f32;
+    for i in inp {
+        let t = ntc_celsius_f32(black_box(i.temp_code));
+        if let Ok(r) = cal.correct(black_box(i.code), t) {
+            acc += Unit::DbPower.from_x(r.x);
+        }
+    }
+    acc
+}
+
+#[inline(never)]
+fn run_naive_mc(cal: &Calibration, inp: &[Input]) -> f32 {
+    let mut acc = 0.0f32;
+    for i in inp {
+        if let Ok(r) = cal.correct(black_box(i.code), black_box(i.celsius)) {
+            acc += Unit::DbPower.from_x(r.x);
+        }
+    }
+    acc
+}
+
+fn main() {
+    let args: Vec<String> = std::env::args().collect();
+    let path = args.get(1).map(String::as_str).unwrap_or("fixed-raw");
+    let n: usize = args.get(2).and_then(|s| s.parse().ok()).unwrap_or(1_000_000);
+    let cal = units::hard_uncompensated();
+    let channel = TemperatureChannel { codes: ntc::CODES, celsius: &ntc::celsius };
+    let tables = match tables::build(&cal, Some(&channel), &TableOptions::default()) {
+        Ok(t) => t,
+        Err(e) => {
+            eprintln!("fixed_loop: {e}");
+            std::process::exit(2);
+        }
+    };
+    let f = tables.view();
+    let mut inp = inputs(&cal, n);
+    // For the staged paths: 64 temperatures, sample k at temperature k mod 64 (log codes drawn there).
+    let temps: Vec<Input> = inp.iter().take(64).copied().collect();
+    let stages: Vec<_> = temps.iter().filter_map(|i| f.stage_millicelsius(i.mc).ok()).collect();
+    let rows: Vec<_> = stages.iter().filter_map(|s| f.row_stage(s).ok()).collect();
+    if path == "fixed-staged" || path == "fixed-row" {
+        for (k, i) in inp.iter_mut().enumerate() {
+            let t = f64::from(temps[k % temps.len()].celsius);
+            let x = f64::from(cal.x_range.min)
+                + f64::from(cal.x_range.max - cal.x_range.min) * ((k * 7919) % 1_000_000) as f64 / 1e6;
+            i.code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
+        }
+    }
+    let start = std::time::Instant::now();
+    let out = match path {
+        "fixed-raw" => run_fixed_raw(&f, &inp) as f64,
+        "fixed-mc" => run_fixed_mc(&f, &inp) as f64,
+        "fixed-staged" => run_fixed_staged(&f, &inp, &stages) as f64,
+        "fixed-row" => run_fixed_row(&f, &inp, &rows) as f64,
+        "naive-raw" => f64::from(run_naive_raw(&cal, &inp)),
+        "naive-mc" => f64::from(run_naive_mc(&cal, &inp)),
+        other => {
+            eprintln!("fixed_loop: unknown path {other}");
+            std::process::exit(2);
+        }
+    };
+    let ns = start.elapsed().as_nanos() as f64 / n as f64;
+    println!("{path}: {n} samples, {ns:.1} ns per sample (checksum {out:e})");
+}
