@@ -67,15 +67,9 @@ pub fn load_tables(
     t: &TableArgs,
 ) -> Result<(CalFile, tables::FixedTables), Failure> {
     let file = CalFile::load(coeffs).map_err(Failure::input)?;
-    if file.temperature_sensor.is_some() {
-        eprintln!(
-            "logtrim: note: {}: the temperature sensor description is not read by this build; the tables take \
-             temperatures in m°C",
-            coeffs.display()
-        );
-    }
-    let tables = tables::build(&file.calibration, None, &t.options())
-        .map_err(|e| Failure::input(format!("{}: {e}", coeffs.display())))?;
+    // A raw temperature channel described in the file gets its code → temperature table too.
+    let tables =
+        file.fixed_tables(&t.options()).map_err(|e| Failure::input(format!("{}: {e}", coeffs.display())))?;
     Ok((file, tables))
 }
 

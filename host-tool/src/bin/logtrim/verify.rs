@@ -82,7 +82,18 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         progress: std::io::stderr().is_terminal() && std::io::stdout().is_terminal(),
     };
     let start = std::time::Instant::now();
-    let report = verify::run(&file.calibration, &tables.view(), None, &opts).map_err(Failure::input)?;
+    // With a raw temperature channel, every temperature code is swept through the sensor's own
+    // conversion (f64) as the reference.
+    let report = match &file.temperature_sensor {
+        None => verify::run(&file.calibration, &tables.view(), None, &opts),
+        Some(sensor) => {
+            let max = sensor.divider.max_code().map_err(Failure::input)?;
+            let celsius = |code: u32| sensor.celsius_f64(code);
+            let channel = logtrim_host::tables::TemperatureChannel { codes: 0..=max, celsius: &celsius };
+            verify::run(&file.calibration, &tables.view(), Some(&channel), &opts)
+        }
+    }
+    .map_err(Failure::input)?;
     let secs = start.elapsed().as_secs_f64();
     if args.json {
         let text = serde_json::to_string_pretty(&report).map_err(Failure::input)?;
