@@ -28,7 +28,7 @@
 //! |---|---|---|
 //! | absorbance and blank (from `FixedReading::value(Unit::Absorbance)`) | i64 | Q24 AU |
 //! | K ([`MG_PER_L_PER_AU_Q16`]) | i64 | Q16 mg/L per AU, `round(3062/43 · 2^16)` = 4 666 773 |
-//! | concentration ([`concentration_q16`]) | i32 | Q16 mg/L (1 LSB ≈ 15 µg/L, range ±32 768 mg/L) |
+//! | concentration ([`concentration_q16`]) | i32 | Q16 mg/L (1 LSB = 2⁻¹⁶ mg/L ≈ 0.015 µg/L, range ±32 768 mg/L) |
 //!
 //! `c_q16 = (A_q24 − A₀_q24) · K_q16 / 2^24`, rounded to the nearest, halves away from zero. The product is
 //! checked: a difference or a product that does not fit, or a result outside i32, is
