@@ -159,19 +159,19 @@ impl fmt::Display for FieldError {
             FieldError::Correction(e) => write!(f, "factory correction: {e}"),
             FieldError::OffsetPastLimit { offset_q24, limit_q24 } => write!(
                 f,
-                "trim offset {} Np is past the limit of ±{} Np: a fault, not a drift to trim",
+                "trim offset {:+.6} Np is past the limit of ±{:.6} Np: a fault, not a drift to trim",
                 np(offset_q24),
                 np(i64::from(limit_q24))
             ),
             FieldError::GainPastLimit { gain_q30, limit_q30 } => write!(
                 f,
-                "trim gain {} is past the limit of 1 ± {}: a fault, not a drift to trim",
+                "trim gain {:.6} is past the limit of 1 ± {:.6}: a fault, not a drift to trim",
                 gain(gain_q30),
                 gain(i64::from(limit_q30))
             ),
             FieldError::StandardsTooClose { separation_q24, min_q24 } => write!(
                 f,
-                "the standards read {} Np apart, less than the {} Np a gain needs",
+                "the standards read {:.6} Np apart, less than the {:.6} Np a gain needs",
                 np(separation_q24),
                 np(i64::from(min_q24))
             ),
