@@ -110,3 +110,34 @@ pub(super) fn check_binding(record: RecordType, bound: u32, factory: Option<u32>
         _ => Ok(()),
     }
 }
+
+/// A measurement cycle's corrector with field layers on top (feature `hal`): the factory corrector does
+/// the correction of the mean code exactly as before, then the layers apply, so
+/// [`Cycle`](crate::hal::Cycle) reports trimmed, blank-relative values.
+#[cfg(feature = "hal")]
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Layered<C> {
+    /// The factory corrector (a [`Calibration`](crate::Calibration)), untouched.
+    pub factory: C,
+    /// The trim and blank applied to its readings.
+    pub layers: Layers,
+}
+
+#[cfg(feature = "hal")]
+impl<C: crate::hal::Corrector> crate::hal::Corrector for Layered<C> {
+    /// The factory corrector's check.
+    fn validate(&self) -> Result<(), Error> {
+        self.factory.validate()
+    }
+
+    /// The factory corrector's check.
+    fn check_code(&self, code: u32) -> Result<(), Error> {
+        self.factory.check_code(code)
+    }
+
+    /// The factory correction of the mean code, then the layers.
+    fn correct(&self, code: crate::hal::MeanCode, temp_c: f32) -> Result<Reading, Error> {
+        self.factory.correct(code, temp_c).map(|r| self.layers.apply(&r))
+    }
+}

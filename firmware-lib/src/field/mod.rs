@@ -6,7 +6,7 @@
 //! |---|---|
 //! | [`blank`] | [`Blank`]: the reading of a blank and readings relative to it, `x − x_blank` |
 //! | [`trim`] | [`Trim`]: one- and two-point trims `x' = g·x + o`, their computation from standards, [`TrimLimits`] |
-//! | [`layers`] | [`Layers`]: a channel's trim and blank, applied in that order to factory readings |
+//! | [`layers`] | [`Layers`]: a channel's trim and blank, applied in that order to factory readings; `Layered`, a measurement cycle's corrector with them (feature `hal`) |
 //! | [`channels`] | [`Bank`] and [`FixedBank`]: several channels, one temperature conversion (and stage) per cycle |
 //! | [`record`] | the records' shared header and framing checks, and their errors |
 //! | [`layout`] | the records' byte layout, described once |
@@ -85,6 +85,8 @@ use core::fmt;
 
 pub use blank::{Blank, BlankParts};
 pub use channels::{Bank, BankError, Channel, Cycle, FixedBank, FixedChannel, FixedCycle};
+#[cfg(feature = "hal")]
+pub use layers::Layered;
 pub use layers::Layers;
 pub use record::{RecordError, RecordInfo, RecordType, ValueError, WriteError};
 pub use trim::{FixedStandard, Standard, Trim, TrimKind, TrimLimits, TrimParts};
@@ -255,4 +257,6 @@ const _: () = {
     is_format::<BankError>();
     is_format::<layout::Field>();
     is_format::<layout::Kind>();
+    #[cfg(feature = "hal")]
+    is_format::<Layered<Calibration>>();
 };

@@ -672,3 +672,19 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
     assert_eq!(bank.correct_factory(&cycle, 1, codes[1]), chans[1].calibration.correct(codes[1], 30_000));
     assert!(FixedBank::new(chans, 3).is_err());
 }
+
+#[cfg(feature = "hal")]
+#[test]
+fn a_layered_corrector_gives_the_cycle_trimmed_blank_relative_values() {
+    use crate::hal::{Corrector, MeanCode};
+    let cal = f32_twin();
+    let layers = Layers::new(Some(two_point()), Some(blank()), &TrimLimits::DEFAULT, None).unwrap();
+    let c = Layered { factory: cal, layers };
+    assert_eq!(Corrector::validate(&c), Ok(()));
+    assert_eq!(Corrector::check_code(&c, 0), Err(crate::Error::Saturated { code: 0 }));
+    for (sum, n) in [(40_000u64, 1u32), (3 * 41_000 + 1, 3), (16 * 30_000 + 5, 16)] {
+        let m = MeanCode::new(sum, n).unwrap();
+        let want = Corrector::correct(&cal, m, 25.0).map(|r| layers.apply(&r));
+        assert_eq!(Corrector::correct(&c, m, 25.0), want);
+    }
+}
