@@ -688,3 +688,25 @@ fn a_layered_corrector_gives_the_cycle_trimmed_blank_relative_values() {
         assert_eq!(Corrector::correct(&c, m, 25.0), want);
     }
 }
+
+#[test]
+fn millicelsius_rounds_and_refuses_non_finite() {
+    assert_eq!(millicelsius(25.0), Ok(25_000));
+    assert_eq!(millicelsius(-0.0004), Ok(0));
+    assert_eq!(millicelsius(-12.3456), Ok(-12_346));
+    assert_eq!(millicelsius(f32::NAN), Err(crate::Error::NonFinite));
+    assert!(matches!(millicelsius(3.0e6), Err(crate::Error::TemperatureOutOfRange { .. })));
+}
+
+#[test]
+fn a_blank_record_in_a_larger_slot_parses_with_the_rest_left_alone() {
+    let mut page = [0xffu8; 64];
+    page[..44].copy_from_slice(&blank().to_bytes());
+    let (b, rest) = Blank::parse_prefix(&page).unwrap();
+    assert_eq!((b, rest.len()), (blank(), 20));
+    assert_eq!(Blank::parse(&page), Err(RecordError::LengthMismatch { declared: 44, actual: 64 }));
+    // Writing into a short buffer fails and leaves it untouched.
+    let mut short = [7u8; 43];
+    assert_eq!(blank().write(&mut short), Err(WriteError::BufferTooSmall { needed: 44, available: 43 }));
+    assert_eq!(short, [7u8; 43]);
+}
