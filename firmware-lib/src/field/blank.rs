@@ -56,7 +56,8 @@ pub struct Blank {
     parts: BlankParts,
 }
 
-/// The value checks of an x stored as f32 and Q24 (shared with the trim's offset).
+/// The value checks of an x stored as f32 and Q24 (shared with the trim's offset), in integer arithmetic.
+#[deny(clippy::float_arithmetic)]
 pub(super) fn check_x(
     x: f32,
     q: i32,
@@ -79,7 +80,8 @@ pub(super) fn check_x(
 
 impl Blank {
     /// The one checked constructor: x finite and within ±100 Np in both forms, the two forms within 2^-10
-    /// Np of each other, at least one sample.
+    /// Np of each other, at least one sample. Integer arithmetic only.
+    #[deny(clippy::float_arithmetic)]
     pub fn new(parts: BlankParts) -> Result<Blank, ValueError> {
         check_x(parts.x, parts.x_q24, bl::X_F32.name, bl::X_Q24.name)?;
         if parts.samples == 0 {

@@ -31,9 +31,9 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
     let out = logtrim_host::blank::compute(&cal, &tables.view(), &readings, args.record.info())
         .map_err(Failure::input)?;
     let b = out.blank.parts();
-    let serial = file.unit.clone().unwrap_or_else(|| "the unit".into());
+    let serial = file.unit.clone().unwrap_or_else(|| "(no serial)".into());
     println!(
-        "blank of {serial} (fingerprint {:#010x}): {} readings at {:.2} °C, spread {:.5} Np rms",
+        "unit {serial}, calibration {:#010x}: blank of {} readings at {:.2} °C, spread {:.5} Np rms",
         b.info.factory, b.samples, out.temp_c, out.spread_np
     );
     let x = b.x;

@@ -135,12 +135,14 @@ pub fn run(args: TrimArgs) -> Result<(), Failure> {
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
     let fp = logtrim::field::fingerprint(&cal).map_err(|e| Failure::input(format!("{e:?}")))?;
-    let serial = file.unit.clone().unwrap_or_else(|| "the unit".into());
+    let serial = file.unit.clone().unwrap_or_else(|| "(no serial)".into());
     let trim = match &args.standards {
         None => {
             let info = RecordInfo { factory: fp, ..args.record.info() };
             let t = Trim::cleared(info, (args.clear_temp * 1000.0).round() as i32);
-            println!("calibration of {serial} (fingerprint {fp:#010x}): trim cleared, readings are the factory calibration's");
+            println!(
+                "unit {serial}, calibration {fp:#010x}: trim cleared, readings are the factory calibration's"
+            );
             t
         }
         Some(path) => {
@@ -169,7 +171,7 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
     let n: usize = out.standards.iter().map(|s| s.readings).sum();
     let t = out.trim.parts();
     println!(
-        "calibration of {serial} (fingerprint {fp:#010x}): {} standards, {n} readings at {:.2} °C",
+        "unit {serial}, calibration {fp:#010x}: {} standards, {n} readings at {:.2} °C",
         out.standards.len(),
         f64::from(t.temp_mc) / 1000.0
     );
