@@ -22,6 +22,7 @@
 //! | [`sensor`] | the temperature channel of a unit: element behind a divider, code → °C |
 //! | [`image`] | per-unit calibration images: binary layout, checked parsing, writing, A/B slots |
 //! | [`fixed`] | the integer fixed-point correction from host-generated tables, for cores without an FPU |
+//! | [`field`] | field layers over the factory calibration: blank referencing, trims against standards, several channels |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
@@ -39,6 +40,7 @@ extern crate std;
 pub mod calibration;
 pub mod divider;
 pub mod error;
+pub mod field;
 pub mod filter;
 pub mod fixed;
 #[cfg(feature = "hal")]

@@ -5,10 +5,15 @@
 //! `temperature_extrapolated` (`1` where the temperature lay outside the calibrated range within the
 //! allowed extrapolation, else `0`) and `error`. A row the firmware refuses has empty values and the error
 //! variant's name (`below_range`, `saturated`, …) in `error`; the run goes on.
+//!
+//! With field layers ([`correct_rows_layered`], [`correct_rows_fixed_layered`], from record files by
+//! [`layers_from_files`]) the values are those of the factory reading after the trim, and relative to
+//! the blank when there is one (`absorbance` is then the absorbance against the blank).
 
 use std::collections::BTreeMap;
 use std::io::{self, Write};
 
+use logtrim::field::Layers;
 use logtrim::math::{Backend, Libm};
 use logtrim::{Calibration, Error, Reading, Unit};
 use rayon::prelude::*;
@@ -65,6 +70,40 @@ impl RowValue {
     }
 }
 
+/// The factory fixed-path reading of every row of `readings` (in parallel), as on the MCU.
+///
+/// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
+/// temperature-sensor table, as on the MCU.
+pub fn factory_readings_fixed(
+    fixed: &logtrim::fixed::FixedCalibration<'_>,
+    readings: &Readings,
+) -> Vec<Result<logtrim::fixed::FixedReading, Error>> {
+    let raw = readings.columns.temperature_kind == crate::data::TemperatureColumn::Code;
+    let col = readings.columns.temperature;
+    readings
+        .rows
+        .par_iter()
+        .map(|r| {
+            if raw {
+                let code = r
+                    .record
+                    .get(col)
+                    .and_then(|b| std::str::from_utf8(b).ok())
+                    .and_then(|t| t.trim().parse::<u32>().ok())
+                    .ok_or(Error::NonFinite)?;
+                fixed.correct_raw(r.code, code)
+            } else {
+                let t = r.temp_c?;
+                let mc = (t * 1000.0).round();
+                if !(mc >= f64::from(i32::MIN) && mc <= f64::from(i32::MAX)) {
+                    return Err(Error::TemperatureOutOfRange { celsius: t as f32 });
+                }
+                fixed.correct(r.code, mc as i32)
+            }
+        })
+        .collect()
+}
+
 /// Corrects every row of `readings` (in parallel) with the firmware's integer fixed-point path.
 ///
 /// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
@@ -73,30 +112,19 @@ pub fn correct_rows_fixed(
     fixed: &logtrim::fixed::FixedCalibration<'_>,
     readings: &Readings,
 ) -> Vec<Result<RowValue, Error>> {
-    let raw = readings.columns.temperature_kind == crate::data::TemperatureColumn::Code;
-    let col = readings.columns.temperature;
-    readings
-        .rows
-        .par_iter()
-        .map(|r| {
-            let reading = if raw {
-                let code = r
-                    .record
-                    .get(col)
-                    .and_then(|b| std::str::from_utf8(b).ok())
-                    .and_then(|t| t.trim().parse::<u32>().ok())
-                    .ok_or(Error::NonFinite)?;
-                fixed.correct_raw(r.code, code)?
-            } else {
-                let t = r.temp_c?;
-                let mc = (t * 1000.0).round();
-                if !(mc >= f64::from(i32::MIN) && mc <= f64::from(i32::MAX)) {
-                    return Err(Error::TemperatureOutOfRange { celsius: t as f32 });
-                }
-                fixed.correct(r.code, mc as i32)?
-            };
-            RowValue::of_fixed(&reading)
-        })
+    correct_rows_fixed_layered(fixed, readings, &Layers::FACTORY)
+}
+
+/// [`correct_rows_fixed`] with field layers (a trim, a blank) on top of the factory correction, in the
+/// fixed path's integer arithmetic.
+pub fn correct_rows_fixed_layered(
+    fixed: &logtrim::fixed::FixedCalibration<'_>,
+    readings: &Readings,
+    layers: &Layers,
+) -> Vec<Result<RowValue, Error>> {
+    factory_readings_fixed(fixed, readings)
+        .into_iter()
+        .map(|r| r.and_then(|r| layers.apply_fixed(&r)).and_then(|r| RowValue::of_fixed(&r)))
         .collect()
 }
 
@@ -147,23 +175,85 @@ fn correct_one<B: Backend>(
     cal.correct_with::<B>(code, t as f32)
 }
 
+/// The factory f32-path reading of every row of `readings` (in parallel), with the chosen backend.
+pub fn factory_readings(
+    cal: &Calibration,
+    readings: &Readings,
+    arith: Arithmetic,
+) -> Vec<Result<Reading, Error>> {
+    readings
+        .rows
+        .par_iter()
+        .map(|r| match arith {
+            Arithmetic::F32 => correct_one::<Libm>(cal, r.code, &r.temp_c),
+            Arithmetic::F32Micromath => correct_one::<logtrim::math::Micromath>(cal, r.code, &r.temp_c),
+        })
+        .collect()
+}
+
 /// Corrects every row of `readings` (in parallel) with the chosen arithmetic.
 pub fn correct_rows(
     cal: &Calibration,
     readings: &Readings,
     arith: Arithmetic,
 ) -> Vec<Result<RowValue, Error>> {
-    readings
-        .rows
-        .par_iter()
-        .map(|r| {
-            match arith {
-                Arithmetic::F32 => correct_one::<Libm>(cal, r.code, &r.temp_c),
-                Arithmetic::F32Micromath => correct_one::<logtrim::math::Micromath>(cal, r.code, &r.temp_c),
-            }
-            .map(|v| RowValue::of_f32(&v))
-        })
+    correct_rows_layered(cal, readings, arith, &Layers::FACTORY)
+}
+
+/// [`correct_rows`] with field layers (a trim, a blank) on top of the factory correction.
+pub fn correct_rows_layered(
+    cal: &Calibration,
+    readings: &Readings,
+    arith: Arithmetic,
+    layers: &Layers,
+) -> Vec<Result<RowValue, Error>> {
+    factory_readings(cal, readings, arith)
+        .into_iter()
+        .map(|r| r.map(|r| RowValue::of_f32(&layers.apply(&r))))
         .collect()
+}
+
+/// A trim and a blank read from their record files and installed over a calibration as the firmware
+/// would ([`Layers::new`]): each record checked, bound to this calibration, the trim within `limits`.
+pub fn layers_from_files(
+    cal: &Calibration,
+    trim: Option<&std::path::Path>,
+    blank: Option<&std::path::Path>,
+    limits: &logtrim::field::TrimLimits,
+) -> Result<Layers, LayerError> {
+    let trim = trim.map(crate::trim::read_trim_file).transpose()?;
+    let blank = blank.map(crate::trim::read_blank_file).transpose()?;
+    let fp = logtrim::field::fingerprint(cal).map_err(|e| LayerError::Fingerprint(format!("{e:?}")))?;
+    Layers::new(trim, blank, limits, Some(fp)).map_err(LayerError::Refused)
+}
+
+/// Why the field layers of an apply run could not be installed.
+#[derive(Debug, thiserror::Error)]
+#[non_exhaustive]
+pub enum LayerError {
+    /// A record file could not be read or is not a valid record.
+    #[error(transparent)]
+    File(#[from] crate::trim::RecordFileError),
+    /// firmware-lib refuses to install a record (made on another calibration, a trim past the limits).
+    #[error("--trim/--blank: {0}")]
+    Refused(logtrim::field::FieldError),
+    /// The calibration cannot be fingerprinted.
+    #[error("the calibration cannot be stored as an image to fingerprint it: {0}")]
+    Fingerprint(String),
+}
+
+impl LayerError {
+    /// True for a refusal that is a failed check (exit 1): a trim past the limits. A bad or foreign file
+    /// is bad input (exit 2).
+    pub fn is_check(&self) -> bool {
+        matches!(
+            self,
+            LayerError::Refused(
+                logtrim::field::FieldError::OffsetPastLimit { .. }
+                    | logtrim::field::FieldError::GainPastLimit { .. }
+            )
+        )
+    }
 }
 
 /// Writes the input rows with the results of [`correct_rows`] as CSV.

@@ -8,6 +8,7 @@
 //! | module | owns |
 //! |---|---|
 //! | [`apply`] | running the firmware correction over a readings file and writing the results |
+//! | [`blank`] | blank records from readings of a blank (`logtrim blank`) |
 //! | [`batch`] | production-line batches: many units fitted in parallel, one calibration and image each |
 //! | [`budget`] | the error budget of a design before any unit is built (contributions, RSS, worst case) |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
@@ -23,12 +24,14 @@
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
 //! | [`emit`] | Rust, C and JSON renderings of a unit's fixed-point tables |
 //! | [`tables`] | the fixed-point tables of a calibration (and of a raw temperature channel), universal tables |
+//! | [`trim`] | field trims from readings of reference standards (`logtrim trim`), trim and blank record files |
 //! | [`verify`] | exhaustive verification of the fixed-point and f32 paths against the f64 reference |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 pub mod apply;
 pub mod batch;
+pub mod blank;
 pub mod budget;
 pub mod calfile;
 pub mod data;
@@ -43,6 +46,7 @@ pub mod report;
 pub mod sensor_tool;
 pub mod simulate;
 pub mod tables;
+pub mod trim;
 pub mod verify;
 
 pub use logtrim;

@@ -20,7 +20,18 @@
 //! | `truth.csv` | `id,ratio,x_true,t_true_c,x_oracle` (`id,unit,…` for a batch; `x_oracle` empty where undefined) |
 //! | `frontend.json` | the front end simulated (the nominal one, with its spread, for a batch) |
 //! | `units.json` | a batch only: every unit's drawn front end, by serial |
+//! | `standards.csv` | an aged unit only: `[unit,]code,temp_c,ratio`, readings of two reference standards |
+//! | `blank.csv` | an aged unit only: `[unit,]code,temp_c`, readings of a blank |
 //! | `manifest.json` | what generated the files: version, seed, sizes, oracle figures |
+//!
+//! # Aged units
+//!
+//! A front end with [`FrontEnd::aging`] is calibrated as it was (the chamber run ignores the ageing) and
+//! measured as it is now: the validation run and two field runs see the drift. The field runs are what a
+//! field trim and a blank are made from: [`STANDARDS_PER_UNIT`] reference standards at a quarter and three
+//! quarters of the calibrated x range, and a blank at ratio 1 (the centre of the range when 1 lies outside
+//! it), [`FIELD_READINGS`] readings each, at [`FIELD_TEMP_C`] (clamped into the operating range) with the
+//! usual set-point jitter.
 
 use std::path::{Path, PathBuf};
 
@@ -40,7 +51,16 @@ enum Purpose {
     UnitDraw = 1,
     Chamber = 2,
     Validation = 3,
+    Standards = 4,
+    Blank = 5,
 }
+
+/// Reference standards read by an aged unit's standards run.
+pub const STANDARDS_PER_UNIT: usize = 2;
+/// Readings of each standard, and of the blank.
+pub const FIELD_READINGS: usize = 16;
+/// The temperature of the field runs, °C (clamped into the operating range).
+pub const FIELD_TEMP_C: f64 = 25.0;
 
 fn rng_for(seed: u64, purpose: Purpose, unit: usize) -> ChaCha8Rng {
     let mut rng = ChaCha8Rng::seed_from_u64(seed);
@@ -133,6 +153,27 @@ pub struct ValidationRow {
     pub x_oracle: Option<f64>,
 }
 
+/// One reading of a field run (reference standards, a blank), with the truth behind it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FieldRow {
+    /// Index of the unit in [`Simulation::units`].
+    pub unit: usize,
+    /// Which standard (0-based; 0 for a blank).
+    pub standard: usize,
+    /// The standard's (known) ratio I_sig/I_ref.
+    pub ratio: f64,
+    /// x = ln ratio.
+    pub x_true: f64,
+    /// The unit's true temperature, °C.
+    pub t_true_c: f64,
+    /// The noisy ADC code.
+    pub code: u32,
+    /// The temperature as the firmware reads it.
+    pub temperature: MeasuredTemperature,
+    /// The oracle's x for this reading; `None` where it is undefined.
+    pub x_oracle: Option<f64>,
+}
+
 /// The oracle's error against the truth over a validation run.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct OracleStats {
@@ -181,6 +222,10 @@ pub struct Simulation {
     pub chamber: Vec<ChamberRow>,
     /// Every unit's validation run, unit by unit.
     pub validation: Vec<ValidationRow>,
+    /// Every aged unit's standards run (empty for a unit without ageing).
+    pub standards: Vec<FieldRow>,
+    /// Every aged unit's blank run (empty for a unit without ageing).
+    pub blank: Vec<FieldRow>,
 }
 
 /// Errors of a simulation.
@@ -239,8 +284,11 @@ fn spaced(a: f64, b: f64, n: usize) -> Vec<f64> {
     }
 }
 
-/// One unit's chamber run, drawn from its own random stream.
+/// One unit's chamber run, drawn from its own random stream. The unit is measured as it was calibrated:
+/// any [`FrontEnd::aging`] is ignored.
 pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) -> Vec<ChamberRow> {
+    let calibrated = fe.as_calibrated();
+    let fe = &calibrated;
     let mut rng = rng_for(seed, Purpose::Chamber, unit);
     let ratios = sweep_ratios(fe, plan.ratios_per_setpoint);
     let jitter = fe.operating.setpoint_jitter_k_rms;
@@ -289,6 +337,79 @@ pub fn validation_run(
         .collect()
 }
 
+/// The standards of an aged unit's standards run: [`STANDARDS_PER_UNIT`] ratios at a quarter and three
+/// quarters of the operating x range.
+pub fn standard_ratios(fe: &FrontEnd) -> Vec<f64> {
+    let (a, b) = (libm::log(fe.operating.ratio_min), libm::log(fe.operating.ratio_max));
+    [0.25, 0.75].iter().map(|q| libm::exp(a + q * (b - a))).collect()
+}
+
+/// The ratio of an aged unit's blank: 1 when it lies in the operating range, else the range's geometric
+/// centre.
+pub fn blank_ratio(fe: &FrontEnd) -> f64 {
+    let o = &fe.operating;
+    if (o.ratio_min..=o.ratio_max).contains(&1.0) {
+        1.0
+    } else {
+        libm::sqrt(o.ratio_min * o.ratio_max)
+    }
+}
+
+/// The temperature of the field runs: [`FIELD_TEMP_C`] clamped into the operating range.
+pub fn field_temp_c(fe: &FrontEnd) -> f64 {
+    FIELD_TEMP_C.clamp(fe.operating.temp_min_c, fe.operating.temp_max_c)
+}
+
+/// `readings` readings of each ratio at `temp_c` (with the set-point jitter), the unit as it is now (with
+/// its ageing), from the stream of `purpose`.
+fn field_run(
+    fe: &FrontEnd,
+    ratios: &[f64],
+    temp_c: f64,
+    readings: usize,
+    unit: usize,
+    rng: &mut ChaCha8Rng,
+) -> Vec<FieldRow> {
+    let jitter = fe.operating.setpoint_jitter_k_rms;
+    let mut rows = Vec::with_capacity(ratios.len() * readings);
+    for (standard, &ratio) in ratios.iter().enumerate() {
+        let x_true = libm::log(ratio);
+        for _ in 0..readings {
+            let n: f64 = StandardNormal.sample(rng);
+            let t_true_c = temp_c + jitter * n;
+            let Sample { code, temperature } = fe.sample(x_true, t_true_c, rng);
+            let x_oracle = fe.oracle(code, temperature);
+            rows.push(FieldRow { unit, standard, ratio, x_true, t_true_c, code, temperature, x_oracle });
+        }
+    }
+    rows
+}
+
+/// One unit's readings of reference standards of known `ratios`, `readings` each at `temp_c`, from its own
+/// random stream (the unit as it is now, with its ageing).
+pub fn standards_run(
+    fe: &FrontEnd,
+    ratios: &[f64],
+    temp_c: f64,
+    readings: usize,
+    unit: usize,
+    seed: u64,
+) -> Vec<FieldRow> {
+    field_run(fe, ratios, temp_c, readings, unit, &mut rng_for(seed, Purpose::Standards, unit))
+}
+
+/// One unit's readings of a blank of `ratio`, `readings` of them at `temp_c`, from its own random stream.
+pub fn blank_run(
+    fe: &FrontEnd,
+    ratio: f64,
+    temp_c: f64,
+    readings: usize,
+    unit: usize,
+    seed: u64,
+) -> Vec<FieldRow> {
+    field_run(fe, &[ratio], temp_c, readings, unit, &mut rng_for(seed, Purpose::Blank, unit))
+}
+
 /// The serial of the `i`-th unit (0-based) of a batch.
 pub fn serial(i: usize) -> String {
     format!("U{:04}", i + 1)
@@ -311,12 +432,20 @@ pub fn simulate(fe: &FrontEnd, plan: &Plan) -> Result<Simulation, SimError> {
     };
     let mut chamber = Vec::new();
     let mut validation = Vec::new();
+    let mut standards = Vec::new();
+    let mut blank = Vec::new();
     for (i, u) in units.iter().enumerate() {
-        chamber.extend(chamber_run(&u.frontend, &plan.chamber, i, plan.seed));
+        let fe = &u.frontend;
+        chamber.extend(chamber_run(fe, &plan.chamber, i, plan.seed));
         let first_id = (i * plan.validation_count) as u64 + 1;
-        validation.extend(validation_run(&u.frontend, plan.validation_count, i, first_id, plan.seed));
+        validation.extend(validation_run(fe, plan.validation_count, i, first_id, plan.seed));
+        if fe.aging.is_some() {
+            let t = field_temp_c(fe);
+            standards.extend(standards_run(fe, &standard_ratios(fe), t, FIELD_READINGS, i, plan.seed));
+            blank.extend(blank_run(fe, blank_ratio(fe), t, FIELD_READINGS, i, plan.seed));
+        }
     }
-    Ok(Simulation { nominal: fe.clone(), plan: *plan, units, chamber, validation })
+    Ok(Simulation { nominal: fe.clone(), plan: *plan, units, chamber, validation, standards, blank })
 }
 
 fn check_plan(plan: &Plan) -> Result<(), SimError> {
@@ -392,6 +521,43 @@ impl Simulation {
         into_bytes(w)
     }
 
+    /// A field run as CSV: `[unit,]code,temp_c[,ratio]`.
+    fn field_csv(&self, rows: &[FieldRow], with_ratio: bool) -> Vec<u8> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let mut head = Vec::new();
+        if self.batch() {
+            head.push("unit");
+        }
+        head.extend(["code", self.temp_column()]);
+        if with_ratio {
+            head.push("ratio");
+        }
+        let mut out = CsvOut(&mut w);
+        out.row(head.iter().map(|s| s.to_string()));
+        for r in rows {
+            let mut f = Vec::with_capacity(4);
+            if self.batch() {
+                f.push(self.units[r.unit].serial.clone());
+            }
+            f.extend([r.code.to_string(), temperature_field(r.temperature)]);
+            if with_ratio {
+                f.push(r.ratio.to_string());
+            }
+            out.row(f);
+        }
+        into_bytes(w)
+    }
+
+    /// `standards.csv`: `[unit,]code,temp_c,ratio` of the standards runs.
+    pub fn standards_csv(&self) -> Vec<u8> {
+        self.field_csv(&self.standards, true)
+    }
+
+    /// `blank.csv`: `[unit,]code,temp_c` of the blank runs.
+    pub fn blank_csv(&self) -> Vec<u8> {
+        self.field_csv(&self.blank, false)
+    }
+
     /// `readings.csv`: `id,[unit,]code,temp_c` (`temp_code` for a raw temperature channel).
     pub fn readings_csv(&self) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
@@ -451,6 +617,13 @@ impl Simulation {
             "oracle": self.oracle_stats(),
             "files": files,
         });
+        let mut m = m;
+        if let Some(a) = self.nominal.aging {
+            m["aging"] = serde_json::json!(a);
+            m["rows"]["standards"] = serde_json::json!(self.standards.len());
+            m["rows"]["blank"] = serde_json::json!(self.blank.len());
+            m["field_temp_c"] = serde_json::json!(field_temp_c(&self.nominal));
+        }
         let mut s = serde_json::to_string_pretty(&m).unwrap_or_default();
         s.push('\n');
         s
@@ -478,6 +651,10 @@ impl Simulation {
         ];
         if self.batch() {
             files.push(("units.json", self.units_json().into_bytes(), None));
+        }
+        if !self.standards.is_empty() {
+            files.push(("standards.csv", self.standards_csv(), Some(self.standards.len())));
+            files.push(("blank.csv", self.blank_csv(), Some(self.blank.len())));
         }
         let mut names: Vec<&str> = files.iter().map(|f| f.0).collect();
         names.push("manifest.json");

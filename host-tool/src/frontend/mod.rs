@@ -17,6 +17,10 @@
 //! code    = round( 2^bits·(1 + ε)·V_out/V_ref + c_off + noise ),  clamped to 0 ..= 2^bits − 1
 //! ```
 //!
+//! A unit that has drifted since its calibration ([`Aging`], [`FrontEnd::aging`]) has
+//! `V_out = k·G(T)·ΔV + V_shift + δV`: a gain factor `k` on the output stage and an offset `δV` at its
+//! output. The simulator applies it to the validation, standards and blank runs, not to the chamber run.
+//!
 //! The output-stage offset sits at the non-inverting input of the gain stage, so it sees the same gain
 //! (the noise gain of a non-inverting stage) as the input stage's. The code is monotone increasing in x: both
 //! `ln(I_1)` and `r·I_1` increase with `I_sig`.
@@ -83,6 +87,29 @@ pub struct FrontEnd {
     /// Unit-to-unit spread of the parameters, for simulated production batches (none if absent).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub spread: Option<UnitSpread>,
+    /// How the unit has drifted since its calibration (none if absent): in effect for the validation,
+    /// standards and blank runs, never for the chamber run (see [`Aging`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub aging: Option<Aging>,
+}
+
+/// Drift of a unit since it was calibrated, as seen at the output stage: its gain has changed by a factor
+/// and an offset has appeared at its output (resistor and reference ageing, op-amp offset drift).
+///
+/// ```text
+/// V_out = gain_factor · G(T)·ΔV + V_shift + output_offset_v
+/// ```
+///
+/// In x this is close to `x' = gain_factor·x + output_offset_v/(G(T)·n·kT/q)`: a gain pivoting about
+/// x = 0 and an offset that follows the slope's temperature law, which a field trim (one constant offset
+/// and gain) corrects fully at the trim's temperature and mostly elsewhere.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Aging {
+    /// Offset that has appeared at the output since calibration, V.
+    pub output_offset_v: f64,
+    /// Factor on the output stage's gain since calibration (1 = unchanged).
+    pub gain_factor: f64,
 }
 
 /// The matched transistor pair.
@@ -527,6 +554,18 @@ impl FrontEnd {
                 );
             }
         }
+        if let Some(a) = &self.aging {
+            if !(finite(a.output_offset_v) && a.output_offset_v.abs() < 1.0) {
+                return bad(
+                    "aging.output_offset_v",
+                    a.output_offset_v,
+                    "a finite offset below 1 V in magnitude",
+                );
+            }
+            if !(finite(a.gain_factor) && (0.5..=2.0).contains(&a.gain_factor)) {
+                return bad("aging.gain_factor", a.gain_factor, "a gain factor in 0.5..=2");
+            }
+        }
         if let Some(s) = &self.spread {
             for (field, v) in [
                 ("spread.ideality", s.ideality),
@@ -607,7 +646,18 @@ impl FrontEnd {
 
     /// The output voltage V_out at x and the unit's true temperature, V.
     pub fn output_voltage(&self, x: f64, t_c: f64) -> f64 {
-        self.gain(t_c) * self.pair_voltage(x, t_c) + self.output_stage.level_shift_v
+        let (k, dv) = self.aging.map_or((1.0, 0.0), |a| (a.gain_factor, a.output_offset_v));
+        k * self.gain(t_c) * self.pair_voltage(x, t_c) + self.output_stage.level_shift_v + dv
+    }
+
+    /// The unit as it was calibrated: this description without its [`Aging`].
+    pub fn as_calibrated(&self) -> FrontEnd {
+        FrontEnd { aging: None, ..self.clone() }
+    }
+
+    /// This unit after ageing: the description with `aging` in effect.
+    pub fn aged(&self, aging: Aging) -> FrontEnd {
+        FrontEnd { aging: Some(aging), ..self.clone() }
     }
 
     /// Codes per volt of the converter, including its gain error.
@@ -629,13 +679,16 @@ impl FrontEnd {
         // d ln(e^x + β)/dx = e^x/(e^x + β) = 1/(1 + β e^−x), written to stay finite at both ends.
         let frac = 1.0 / (1.0 + beta * libm::exp(-x));
         let dv = p.ideality * vt * frac + p.bulk_resistance_ohm * p.i_ref_a * ex;
-        self.gain(t_c) * dv * self.codes_per_volt()
+        let k = self.aging.map_or(1.0, |a| a.gain_factor);
+        k * self.gain(t_c) * dv * self.codes_per_volt()
     }
 
     /// The local sensitivity ∂code/∂x relative to the ideal slope (1 for an ideal front end; it collapses
     /// where the bias current swamps the signal and exceeds 1 where the bulk resistance bends the high end).
+    /// An aged unit's gain factor is part of its ideal slope here: ageing does not bend the curve.
     pub fn sensitivity(&self, x: f64, t_c: f64) -> f64 {
-        self.code_slope(x, t_c) / (self.ideal_slope_v_per_neper(t_c) * self.codes_per_volt())
+        let k = self.aging.map_or(1.0, |a| a.gain_factor);
+        self.code_slope(x, t_c) / (k * self.ideal_slope_v_per_neper(t_c) * self.codes_per_volt())
     }
 
     /// The noise-free code: [`FrontEnd::code_exact`] rounded and clamped to the converter's range.

@@ -110,6 +110,7 @@ fn photometer_compensated() -> FrontEnd {
             setpoint_jitter_k_rms: 0.05,
         },
         spread: Some(line_spread(true)),
+        aging: None,
     }
 }
 
@@ -160,6 +161,7 @@ fn gas_uncompensated() -> FrontEnd {
             setpoint_jitter_k_rms: 0.1,
         },
         spread: Some(line_spread(false)),
+        aging: None,
     }
 }
 

@@ -3,7 +3,9 @@
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use logtrim_host::apply::{correct_rows, correct_rows_fixed, write_results, Arithmetic};
+use logtrim_host::apply::{
+    correct_rows_fixed_layered, correct_rows_layered, layers_from_files, write_results, Arithmetic,
+};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::data::{read_readings_file, ReadOptions};
 use logtrim_host::output::AtomicFile;
@@ -39,6 +41,14 @@ pub struct ApplyArgs {
     /// Skip rows with bad values (each is listed) instead of refusing the file.
     #[arg(long)]
     skip_bad_rows: bool,
+    /// A trim record (`logtrim trim`) to apply on top of the factory calibration.
+    #[arg(long, value_name = "TRIM.bin")]
+    trim: Option<PathBuf>,
+    /// A blank record (`logtrim blank`): every value is then relative to the blank (absorbance against it).
+    #[arg(long, value_name = "BLANK.bin")]
+    blank: Option<PathBuf>,
+    #[command(flatten)]
+    limits: crate::trim::LimitArgs,
 }
 
 /// Runs the verb.
@@ -58,18 +68,21 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         skip_bad_rows: args.skip_bad_rows,
         temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
     };
+    let limits = args.limits.limits()?;
+    let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
+        .map_err(|e| if e.is_check() { Failure::check(&e) } else { Failure::input(&e) })?;
     let readings = read_readings_file(&args.readings, &opts).map_err(Failure::input)?;
     for e in &readings.skipped {
         eprintln!("skipped: {e}");
     }
     let results = match args.path {
-        PathArg::F32 => correct_rows(&cal, &readings, Arithmetic::F32),
-        PathArg::F32Micromath => correct_rows(&cal, &readings, Arithmetic::F32Micromath),
+        PathArg::F32 => correct_rows_layered(&cal, &readings, Arithmetic::F32, &layers),
+        PathArg::F32Micromath => correct_rows_layered(&cal, &readings, Arithmetic::F32Micromath, &layers),
         PathArg::Fixed => {
             let tables = file
                 .fixed_tables(&logtrim_host::tables::TableOptions::default())
                 .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
-            correct_rows_fixed(&tables.view(), &readings)
+            correct_rows_fixed_layered(&tables.view(), &readings, &layers)
         }
     };
     let out = AtomicFile::create(&args.output)
@@ -77,6 +90,25 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     let mut out = out;
     let summary = write_results(&readings, &results, &mut out).map_err(Failure::input)?;
     out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    if let Some(t) = layers.trim() {
+        let p = t.parts();
+        println!(
+            "trim: {} (record {}), x' = g·x + o with g = {:.6}, o = {:+.6} Np",
+            p.kind.name(),
+            p.info.sequence,
+            p.gain,
+            p.offset
+        );
+    }
+    if let Some(b) = layers.blank() {
+        println!(
+            "blank: x = {:+.6} Np at {:.2} °C (record {}, {} readings): values are relative to it",
+            b.x(),
+            f64::from(b.temp_mc()) / 1000.0,
+            b.info().sequence,
+            b.samples()
+        );
+    }
     let by: Vec<String> = summary.by_error.iter().map(|(k, v)| format!("{v} {k}")).collect();
     println!(
         "{} rows: {} corrected, {} rejected{}{}; wrote {}",

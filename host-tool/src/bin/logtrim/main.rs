@@ -8,6 +8,7 @@ use std::process::ExitCode;
 use clap::{Parser, Subcommand};
 
 mod apply;
+mod blank;
 mod budget;
 mod demo;
 mod emit;
@@ -17,6 +18,7 @@ mod inspect;
 mod plot;
 mod sensor;
 mod simulate;
+mod trim;
 mod verify;
 
 /// Calibrate, verify and emit firmware tables for log-ratio front ends.
@@ -57,6 +59,11 @@ enum Command {
     Verify(verify::VerifyArgs),
     /// Emit the unit's fixed-point tables as Rust, C or JSON.
     Emit(emit::EmitArgs),
+    /// Compute a field trim record (offset, or offset and gain) from readings of one or two reference
+    /// standards, on top of the factory calibration; exit 1 if the trim is past its limits.
+    Trim(trim::TrimArgs),
+    /// Make a blank record from readings of a blank, for readings relative to it (`apply --blank`).
+    Blank(blank::BlankArgs),
 }
 
 /// An error of the binary: a message and the exit code it maps to.
@@ -106,6 +113,8 @@ fn main() -> ExitCode {
         Command::Sensor(args) => sensor::run(args),
         Command::Verify(args) => verify::run(&args),
         Command::Emit(args) => emit::run(&args),
+        Command::Trim(args) => trim::run(args),
+        Command::Blank(args) => blank::run(args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
