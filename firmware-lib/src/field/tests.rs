@@ -394,8 +394,9 @@ fn limits_convert_exactly() {
 // ---------------------------------------------------------------------------------------------------------
 // Layers on real corrections
 
-/// A linear fixed-point unit: x = (code − 32768)/4096 Np at every temperature, 0…50 °C (−5…55 accepted),
-/// a temperature channel of 10 m°C per code from code 100 (the fixed module's own test unit).
+/// A linear fixed-point unit: x = (code − 32769)/(32768/6) Np at every temperature, 0…50 °C (−5…55
+/// accepted), a temperature channel of 15 m°C per code from code 100 (the fixed module's own test unit;
+/// the tables store spline control points divided by 6, so these values are the exact ones).
 struct Owned {
     header: FixedHeader,
     offset: Vec<i32>,
@@ -429,10 +430,11 @@ fn linear(temp_max_c: i32) -> Owned {
     };
     Owned {
         header,
-        offset: vec![32768 << 14; 6],
-        inv_slope: vec![1 << 30; 6],
+        // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
+        offset: vec![10923 << 13; 6],
+        inv_slope: vec![1 << 27; 6],
         residual: vec![0; 6 * 7],
-        sensor: (0..19).map(|i| (i - 1) * 256 * 10 * 1024).collect(),
+        sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
     }
 }
 
@@ -461,9 +463,12 @@ impl Owned {
     }
 }
 
-/// The f32 twin of `linear` at 25 °C: 4096 codes per neper at T_ref = 25 °C.
+/// Codes per neper of `linear`.
+const SLOPE: f64 = 32768.0 / 6.0;
+
+/// The f32 twin of `linear` at 25 °C: 32768/6 codes per neper at T_ref = 25 °C.
 fn f32_twin() -> crate::Calibration {
-    let mut c = crate::Calibration::nominal(16, 32768.0, 4096.0, 25.0);
+    let mut c = crate::Calibration::nominal(16, 32769.0, SLOPE as f32, 25.0);
     c.adc.rail_margin = 16;
     c.temperature = TemperatureRange { min_c: 0.0, max_c: 50.0, extrapolation_k: 5.0 };
     c.x_range.min = -7.0;
@@ -529,18 +534,18 @@ fn blank_relative_absorbance_of_a_tenfold_attenuation_is_one() {
     // Common practice: a sample that passes 10 % of the blank's light reads 1 AU against the blank.
     let cal = f32_twin();
     let blank_code = 40_000u32;
-    let sample_code = blank_code - (4096.0 * core::f64::consts::LN_10).round() as u32; // ln(1/10) Np lower
+    let sample_code = blank_code - (SLOPE * core::f64::consts::LN_10).round() as u32; // ln(1/10) Np lower
     let b = Blank::from_reading(info(), &cal.correct(blank_code, 25.0).unwrap(), 25_000, 1).unwrap();
     let l = Layers::new(None, Some(b), &TrimLimits::DEFAULT, None).unwrap();
     let a = l.apply(&cal.correct(sample_code, 25.0).unwrap()).value(Unit::Absorbance);
-    // One code is 1/4096 Np = 1.06e-4 AU: the rounding of the code is the only error.
-    assert!((a - 1.0).abs() < 1.1e-4, "{a}");
+    // One code is 6/32768 Np = 0.8e-4 AU: the rounding of the code is the only error.
+    assert!((a - 1.0).abs() < 0.9e-4, "{a}");
 }
 
 #[test]
 fn f32_and_fixed_layers_agree_within_a_quarter_lsb() {
     // The linear unit and its f32 twin agree at 25 °C; the layers must keep them within ¼ LSB
-    // (1/4 of 1/4096 Np, times the trim's gain).
+    // (1/4 of 6/32768 Np, times the trim's gain).
     let owned = linear(50);
     let fixed = owned.view();
     let cal = f32_twin();
@@ -554,7 +559,7 @@ fn f32_and_fixed_layers_agree_within_a_quarter_lsb() {
     let bq = Blank::from_fixed(info(), &fixed.correct(blank_code, 25_000).unwrap(), 25_000, 1).unwrap();
     let lf = Layers::new(Some(trim_f), Some(bf32), &TrimLimits::DEFAULT, None).unwrap();
     let lq = Layers::new(Some(trim_q), Some(bq), &TrimLimits::DEFAULT, None).unwrap();
-    let lsb = 1.0 / 4096.0;
+    let lsb = 1.0 / SLOPE;
     let mut worst: f64 = 0.0;
     for code in (100u32..65_400).step_by(61) {
         let (Ok(r), Ok(rq)) = (cal.correct(code, 25.0), fixed.correct(code, 25_000)) else { continue };
@@ -654,14 +659,14 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
         FixedChannel { calibration: narrow.view(), layers: Layers::FACTORY },
     ];
     let bank = FixedBank::new(chans, 0).unwrap();
-    // Code 3100 is 30 °C on the temperature channel: outside the narrow channel's 0…25 °C.
-    let cycle = bank.cycle_from_code(3100).unwrap();
+    // Code 2100 is 30 °C on the temperature channel: outside the narrow channel's 0…25 °C.
+    let cycle = bank.cycle_from_code(2100).unwrap();
     assert_eq!(cycle.millicelsius(), 30_000);
     let codes = [30_000, 36_000, 33_000];
     let got = bank.correct(&cycle, &codes);
     for i in 0..2 {
         let c = &chans[i];
-        let want = c.calibration.correct_raw(codes[i], 3100).and_then(|r| c.layers.apply_fixed(&r));
+        let want = c.calibration.correct_raw(codes[i], 2100).and_then(|r| c.layers.apply_fixed(&r));
         assert_eq!(got[i], want, "channel {i}");
     }
     assert_eq!(got[2], Err(crate::calibration::temperature_out_of_range_millicelsius(30_000)));
