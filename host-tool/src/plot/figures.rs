@@ -374,7 +374,7 @@ pub fn fixed_error_map(
                 if let (Ok(a), Ok(b)) = (fixed.correct(code, mc), cal.correct_f64(f64::from(code), temp)) {
                     if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 {
                         let e = (f64::from(a.x) / q24 - b.x) / b.dx_dcode;
-                        if !(worst.abs() >= e.abs()) {
+                        if worst.is_nan() || e.abs() > worst.abs() {
                             worst = e;
                         }
                     }
