@@ -2,29 +2,7 @@
 //! an image, how its structure is checked by the parser, and how its tables reach a [`FixedCalibration`]
 //! without allocation.
 //!
-//! # Two steps, both before any value is used
-//!
-//! [`FixedCalibration`] borrows its tables as `&[i32]`/`&[i16]` slices, and an image is a `&[u8]`: without
-//! `unsafe` (and on any byte order and alignment) the tables cannot be borrowed from the image's bytes.
-//! They are copied, once, into a [`FixedStorage`] the caller owns (arrays of fixed capacities, in RAM), and
-//! the calibration borrows from there. So the checks are split where the copy is:
-//!
-//! 1. [`Image::parse`](super::Image::parse) checks the section's **structure**, like every other section:
-//!    the flags (0 or 1), the reserved and padding bytes (zero), the sensor's fault codes, the size of
-//!    every table against the dimensions in the section's own header
-//!    ([`ValueError::FixedTableSize`]: `offset` must have `t_knots + 2` entries, `ln_bias` none without the
-//!    bias bend, …), the payload's length against those sizes ([`ImageError::SectionLength`]), and the
-//!    converter's largest code and rail margin against the *ranges* section
-//!    ([`ValueError::FixedMismatch`]). After this the tables can be located and copied without any check.
-//! 2. [`FixedStorage::load`] (or [`Image::fixed_into`](super::Image::fixed_into)) copies the tables
-//!    ([`ImageError::FixedCapacity`] if they do not fit) and runs [`FixedCalibration::validate`] on the
-//!    result ([`ValueError::Fixed`]). Only then does [`FixedStorage::calibration`] lend it.
-//!
-//! A reader that corrects in f32 only needs step 1 (the section is optional to it). A reader that uses
-//! the fixed path runs both, and [`slots::select_fixed`](super::slots::select_fixed) treats an image whose
-//! tables fail step 2 as invalid, so the other slot is used. The writer applies the same rules (sizes,
-//! agreement with *ranges*, `validate`) before writing a byte, so it never writes a section a reader
-//! refuses.
+//! How the section is checked in two steps is documented on [`FixedSection`].
 
 use core::fmt;
 
@@ -140,7 +118,7 @@ fn len_u16(n: u64) -> u16 {
     u16::try_from(n).unwrap_or(u16::MAX)
 }
 
-/// Decodes and checks the structure of a fixed section (step 1 of the [module docs](self)).
+/// Decodes and checks the structure of a fixed section (step 1 in the docs of [`FixedSection`]).
 pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<FixedSection<'a>, ImageError> {
     if p.bytes.len() < lf::HEAD_LEN {
         return Err(p.short());
@@ -283,7 +261,31 @@ impl ExactSizeIterator for I16Values<'_> {}
 
 /// The fixed section of a checked image: its header, the sensor's description and its tables, still in
 /// the image's bytes. Structurally checked (sizes, flags, padding); its values are checked by
-/// [`FixedStorage::load`] (see the [module docs](self)).
+/// [`FixedStorage::load`].
+///
+/// # Two steps, both before any value is used
+///
+/// [`FixedCalibration`] borrows its tables as `&[i32]`/`&[i16]` slices, and an image is a `&[u8]`: without
+/// `unsafe` (and on any byte order and alignment) the tables cannot be borrowed from the image's bytes.
+/// They are copied, once, into a [`FixedStorage`] the caller owns (arrays of fixed capacities, in RAM), and
+/// the calibration borrows from there. So the checks are split where the copy is:
+///
+/// 1. [`Image::parse`](super::Image::parse) checks the section's **structure**, like every other section:
+///    the flags (0 or 1), the reserved and padding bytes (zero), the sensor's fault codes, the size of
+///    every table against the dimensions in the section's own header
+///    ([`ValueError::FixedTableSize`]: `offset` must have `t_knots + 2` entries, `ln_bias` none without the
+///    bias bend, …), the payload's length against those sizes ([`ImageError::SectionLength`]), and the
+///    converter's largest code and rail margin against the *ranges* section
+///    ([`ValueError::FixedMismatch`]). After this the tables can be located and copied without any check.
+/// 2. [`FixedStorage::load`] (or [`Image::fixed_into`](super::Image::fixed_into)) copies the tables
+///    ([`ImageError::FixedCapacity`] if they do not fit) and runs [`FixedCalibration::validate`] on the
+///    result ([`ValueError::Fixed`]). Only then does [`FixedStorage::calibration`] lend it.
+///
+/// A reader that corrects in f32 only needs step 1 (the section is optional to it). A reader that uses
+/// the fixed path runs both, and [`slots::select_fixed`](super::slots::select_fixed) treats an image whose
+/// tables fail step 2 as invalid, so the other slot is used. The writer applies the same rules (sizes,
+/// agreement with *ranges*, `validate`) before writing a byte, so it never writes a section a reader
+/// refuses.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedSection<'a> {
