@@ -3,7 +3,18 @@
 //! A target fails (libFuzzer reports a crash and saves the input under `artifacts/`) on a panic anywhere in
 //! the code under test, or when one of the properties below does not hold.
 
-use logtrim::image::{self, layout, slots, Image, ImageInfo, Section};
+use std::cell::RefCell;
+
+use logtrim::fixed::FixedCalibration;
+use logtrim::image::{self, layout, slots, FixedStorage, Image, ImageError, ImageInfo, Section, ValueError};
+
+/// Storage large enough for any fixed section a 65 532-byte payload can hold (about 400 KB, allocated
+/// once per thread), so that a load can only fail on the tables' values, never on capacity.
+type Largest = FixedStorage<16384, 32768, 16384>;
+
+thread_local! {
+    static STORAGE: RefCell<Box<Largest>> = RefCell::new(Box::new(Largest::new()));
+}
 
 /// Image bytes from anyone: parsing never panics, and whatever is accepted is fully valid and re-encodes to
 /// the same bytes (so no accepted byte escaped the checks).
@@ -36,23 +47,22 @@ pub fn check_image(data: &[u8]) {
 fn accepted(img: &Image<'_>) {
     let cal = img.calibration();
     assert_eq!(cal.validate(), Ok(()));
-    // Re-encode with the optional sections it carries; bytes must match when the required sections came
-    // first in the writer's order, and the calibration must match in any case.
-    let extra: Vec<Section<'_>> = img
-        .sections()
-        .filter(|s| s.kind != layout::ranges::KIND && s.kind != layout::model_f32::KIND)
-        .collect();
-    let info =
-        ImageInfo { serial: img.serial(), calibrated_at: img.calibrated_at(), sequence: img.sequence() };
-    let mut buf = vec![0u8; img.len()];
-    let n = image::write_with_sections(&mut buf, &info, &cal, &extra).expect("an accepted image re-encodes");
-    assert_eq!(n, img.len());
-    let kinds: Vec<u16> = img.sections().map(|s| s.kind).take(2).collect();
-    if kinds == [layout::ranges::KIND, layout::model_f32::KIND] {
-        assert_eq!(&buf[..], img.as_bytes(), "accepted image is not canonical");
-    }
-    let again = Image::parse(&buf).expect("a re-encoded image parses");
-    assert_eq!(again.calibration(), cal);
+    STORAGE.with(|s| {
+        let mut storage = s.borrow_mut();
+        match img.fixed_into(&mut **storage) {
+            Ok(fixed) => {
+                assert_eq!(fixed.validate(), Ok(()));
+                re_encode(img, Some(&fixed));
+                correct_fixed(&fixed);
+            }
+            // Only the tables' own values can refuse a load here (the storage holds any section).
+            Err(ImageError::MissingSection { kind }) => {
+                assert!(kind == layout::fixed::KIND && img.fixed().is_none());
+                re_encode(img, None);
+            }
+            Err(e) => assert!(matches!(e, ImageError::Value(ValueError::Fixed(_))), "load refused with {e:?}"),
+        }
+    });
     // Correcting with any accepted calibration never panics, at and beyond every edge.
     let max = (1u32 << cal.adc.bits.min(24)) - 1;
     let t = cal.temperature;
@@ -61,6 +71,50 @@ fn accepted(img: &Image<'_>) {
         {
             let _ = cal.correct(code, temp);
             let _ = cal.correct_f64(f64::from(code), f64::from(temp));
+        }
+    }
+}
+
+/// Re-encodes an accepted image with its fixed calibration (as loaded) and the optional sections it
+/// carries: the bytes must match when its sections came in the writer's order, and the calibration must
+/// match in any case.
+fn re_encode(img: &Image<'_>, fixed: Option<&FixedCalibration<'_>>) {
+    let cal = img.calibration();
+    let known = [layout::ranges::KIND, layout::model_f32::KIND, layout::fixed::KIND];
+    let extra: Vec<Section<'_>> = img.sections().filter(|s| !known.contains(&s.kind)).collect();
+    let info =
+        ImageInfo { serial: img.serial(), calibrated_at: img.calibrated_at(), sequence: img.sequence() };
+    let mut buf = vec![0u8; img.len()];
+    let n = image::write_with_fixed(&mut buf, &info, &cal, fixed, &extra).expect("an accepted image re-encodes");
+    assert_eq!(n, img.len());
+    let again = Image::parse(&buf).expect("a re-encoded image parses");
+    assert_eq!(again.calibration(), cal);
+    let kinds = |i: &Image<'_>| i.sections().map(|s| s.kind).collect::<Vec<u16>>();
+    if kinds(&again) == kinds(img) {
+        assert_eq!(&buf[..], img.as_bytes(), "accepted image is not canonical");
+    }
+}
+
+/// Corrects with an accepted image's fixed calibration at and beyond every edge: never a panic, and a
+/// value only inside the calibrated x range.
+fn correct_fixed(f: &FixedCalibration<'_>) {
+    let h = f.header;
+    let max = h.adc_max_code;
+    let mc = |theta: i32| theta / 1024;
+    let temps = [mc(h.temp_lo), mc(h.temp_min), mc(h.temp_max), mc(h.temp_hi), mc(h.temp_hi) + 1, i32::MIN, i32::MAX];
+    for code in [0, 1, h.rail_margin, h.rail_margin + 1, max / 3, max / 2, max - 1, max, max + 1, u32::MAX] {
+        for t in temps {
+            if let Ok(r) = f.correct(code, t) {
+                assert!(r.x >= h.x_min && r.x <= h.x_max);
+                for unit in logtrim::Unit::ALL {
+                    let _ = r.value(unit);
+                }
+            }
+        }
+        if let Some(s) = &f.sensor {
+            for tc in [0, s.code_lo.saturating_sub(1), s.code_lo, s.code_hi / 2 + s.code_lo / 2, s.code_hi, s.code_hi + 1, u32::MAX] {
+                let _ = f.correct_raw(code, tc);
+            }
         }
     }
 }

@@ -2,7 +2,9 @@
 //! Intel HEX for a programmer, reading either back, and describing a checked image for people.
 //!
 //! The image format itself (layout, checks) is firmware-lib's [`logtrim::image`]; this module only moves
-//! its bytes in and out of files.
+//! its bytes in and out of files. An image built here carries the fixed-point tables of
+//! [`CalFile::fixed_tables`] in its fixed section unless asked not to ([`build_image_with`]); they are read
+//! back through firmware-lib's own loader ([`load_fixed`]).
 //!
 //! # Intel HEX
 //!
@@ -20,9 +22,11 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 use ihex::Record;
-use logtrim::image::{self, layout, Image, ImageInfo};
+use logtrim::fixed::FixedCalibration;
+use logtrim::image::{self, layout, FixedStorage, Image, ImageError, ImageInfo};
 
 use crate::calfile::CalFile;
+use crate::tables::{FixedTables, SensorTableOwned, TableError, TableOptions};
 
 /// The file formats of an image.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -64,6 +68,9 @@ pub enum ImageFileError {
     /// The calibration cannot be written as an image.
     #[error("cannot build the image: {0}")]
     Write(image::WriteError),
+    /// The fixed-point tables for the image's fixed section could not be generated.
+    #[error("cannot build the fixed-point tables for the image: {0}")]
+    Tables(TableError),
     /// Not a usable Intel HEX record length.
     #[error("record length {0} is not supported (use 16 or 32)")]
     RecordLen(usize),
@@ -111,18 +118,75 @@ pub enum ImageFileError {
     },
 }
 
-/// Builds the image of a calibration file. The serial is `serial` if given, else the file's `unit`, else
-/// empty; the calibration time is the file's `created_unix_s`.
+/// Builds the image of a calibration file with the f32 sections only (see [`build_image_with`]).
 pub fn build_image(file: &CalFile, serial: Option<&str>, sequence: u32) -> Result<Vec<u8>, ImageFileError> {
+    build_image_with(file, serial, sequence, None)
+}
+
+/// Builds the image of a calibration file, with the fixed section of its fixed-point tables
+/// ([`CalFile::fixed_tables`] with `tables`, a temperature-sensor table included when the file describes a
+/// raw temperature channel) when `tables` is given. The serial is `serial` if given, else the file's `unit`,
+/// else empty; the calibration time is the file's `created_unix_s`.
+pub fn build_image_with(
+    file: &CalFile,
+    serial: Option<&str>,
+    sequence: u32,
+    tables: Option<&TableOptions>,
+) -> Result<Vec<u8>, ImageFileError> {
     let serial = serial.or(file.unit.as_deref()).unwrap_or("");
     let info = ImageInfo { serial, calibrated_at: file.created_unix_s, sequence };
-    let mut buf = vec![0u8; layout::F32_IMAGE_LEN];
-    let n = image::write(&mut buf, &info, &file.calibration).map_err(|e| match e {
+    let fixed = tables.map(|o| file.fixed_tables(o)).transpose().map_err(ImageFileError::Tables)?;
+    let view = fixed.as_ref().map(FixedTables::view);
+    let cal = &file.calibration;
+    let write_err = |e| match e {
         image::WriteError::BadSerial => ImageFileError::Serial { serial: serial.to_string() },
         other => ImageFileError::Write(other),
-    })?;
+    };
+    let len = image::encoded_len_with_fixed(cal, view.as_ref(), &[]).map_err(write_err)?;
+    let mut buf = vec![0u8; len];
+    let n = image::write_with_fixed(&mut buf, &info, cal, view.as_ref(), &[]).map_err(write_err)?;
     buf.truncate(n);
     Ok(buf)
+}
+
+/// A storage large enough for any fixed section (a section payload holds at most 65 532 bytes), so that
+/// a load from an image fails only on the tables' values.
+pub type HostFixedStorage = FixedStorage<16384, 32768, 16384>;
+
+/// The fixed-point tables of a checked image, loaded exactly as the firmware loads them
+/// ([`Image::fixed_into`]: copied out of the image and checked by `FixedCalibration::validate`), as the
+/// host's owned form. `Ok(None)` if the image has no fixed section.
+pub fn load_fixed(img: &Image<'_>) -> Result<Option<FixedTables>, ImageError> {
+    if img.fixed().is_none() {
+        return Ok(None);
+    }
+    let mut storage = Box::new(HostFixedStorage::new());
+    let view = img.fixed_into(&mut storage)?;
+    Ok(Some(owned(&view)))
+}
+
+/// The owned form of a fixed calibration.
+pub fn owned(view: &FixedCalibration<'_>) -> FixedTables {
+    FixedTables {
+        header: view.header,
+        offset: view.offset.to_vec(),
+        inv_slope: view.inv_slope.to_vec(),
+        ln_bias: view.ln_bias.to_vec(),
+        u_min: view.u_min.to_vec(),
+        residual: view.residual.to_vec(),
+        sensor: view.sensor.as_ref().map(|s| SensorTableOwned {
+            code_lo: s.code_lo,
+            code_hi: s.code_hi,
+            step_log2: s.step_log2,
+            fault_below: s.fault_below,
+            far_below_code: s.far_below_code,
+            fault_far_below: s.fault_far_below,
+            fault_above: s.fault_above,
+            far_above_code: s.far_above_code,
+            fault_far_above: s.fault_far_above,
+            knots: s.knots.to_vec(),
+        }),
+    }
 }
 
 /// Parses an address: decimal, or hexadecimal with a `0x` prefix; `_` separators are allowed.
@@ -313,6 +377,7 @@ fn section_name(kind: u16) -> &'static str {
     match kind {
         layout::ranges::KIND => "ranges",
         layout::model_f32::KIND => "model_f32",
+        layout::fixed::KIND => "fixed (fixed-point tables)",
         k if k & layout::section::OPTIONAL_BIT != 0 => "optional (not known to this build)",
         _ => "unknown",
     }
@@ -389,7 +454,120 @@ pub fn describe(img: &Image<'_>) -> String {
         let row = &r.coeffs[i * logtrim::calibration::MAX_RESIDUAL..][..usize::from(r.nt)];
         let _ = writeln!(s, "    r[{i}]     [{}]", list(row));
     }
+    describe_fixed(&mut s, img);
     s
+}
+
+/// θ (Q10 m°C) in °C.
+fn theta_c(theta: i32) -> f64 {
+    f64::from(theta) / (1000.0 * f64::from(1u32 << logtrim::fixed::THETA_FRAC))
+}
+
+/// Q24 nepers.
+fn q24(v: i32) -> f64 {
+    f64::from(v) / f64::from(1u32 << logtrim::fixed::X_FRAC)
+}
+
+fn on_off(b: bool) -> &'static str {
+    if b {
+        "on"
+    } else {
+        "off"
+    }
+}
+
+/// The fixed section's part of [`describe`].
+fn describe_fixed(s: &mut String, img: &Image<'_>) {
+    let Some(sec) = img.fixed() else {
+        let _ = writeln!(s, "fixed-point tables: none (the f32 model only)");
+        return;
+    };
+    let h = sec.header();
+    let status = match load_fixed(img) {
+        Ok(_) => "load and validate (ok)".to_string(),
+        Err(e) => format!("REFUSED: {e}"),
+    };
+    let _ = writeln!(s, "fixed-point tables: {status}");
+    let _ = writeln!(s, "  layout     version {}", h.layout);
+    let _ = writeln!(
+        s,
+        "  t grid     {} knots from {:.3} °C; calibrated {:.3} to {:.3} °C, accepted {:.3} to {:.3} °C",
+        h.t_knots,
+        theta_c(h.t_origin),
+        theta_c(h.temp_min),
+        theta_c(h.temp_max),
+        theta_c(h.temp_lo),
+        theta_c(h.temp_hi)
+    );
+    let step = 2f64.powi((logtrim::fixed::XA_POS_SHIFT + logtrim::fixed::POSITION_FRAC) as i32)
+        / f64::from(h.xa_inv_step)
+        / f64::from(1u32 << logtrim::fixed::X_FRAC);
+    let _ = writeln!(
+        s,
+        "  x̃ grid     {} knots from {:.4} Np, step {:.4} Np; x range {:.4} to {:.4} Np",
+        h.xa_knots,
+        q24(h.xa_origin),
+        step,
+        q24(h.x_min),
+        q24(h.x_max)
+    );
+    let _ = writeln!(
+        s,
+        "  scales     offset 2^{}, inverse slope 2^{}, residual 2^{} (i16)",
+        h.offset_frac, h.inv_slope_frac, h.residual_frac
+    );
+    let _ = writeln!(
+        s,
+        "  terms      bias bend {}, sensitivity limit {}",
+        on_off(h.bias_bend),
+        on_off(h.sensitivity_limit)
+    );
+    let sizes: Vec<String> =
+        layout::fixed::TABLES.iter().map(|t| format!("{} {}", t.name, sec.len_of(t))).collect();
+    let _ = writeln!(s, "  entries    {}", sizes.join(", "));
+    match sec.sensor() {
+        None => {
+            let _ = writeln!(s, "  sensor     none (temperatures in m°C)");
+        }
+        Some(t) => {
+            let _ = writeln!(
+                s,
+                "  sensor     codes {} to {}, knots every {} codes; below: {}, below {}: {}; above: {}, above {}: {}",
+                t.code_lo,
+                t.code_hi,
+                1u32 << t.step_log2.min(16),
+                t.fault_below,
+                t.far_below_code,
+                t.fault_far_below,
+                t.fault_above,
+                t.far_above_code,
+                t.fault_far_above
+            );
+        }
+    }
+}
+
+/// The fixed section's part of [`describe_json`].
+fn fixed_json(img: &Image<'_>) -> serde_json::Value {
+    let Some(sec) = img.fixed() else { return serde_json::Value::Null };
+    let sizes: serde_json::Map<String, serde_json::Value> =
+        layout::fixed::TABLES.iter().map(|t| (t.name.to_string(), sec.len_of(t).into())).collect();
+    let (ok, error) = match load_fixed(img) {
+        Ok(_) => (true, serde_json::Value::Null),
+        Err(e) => (false, e.to_string().into()),
+    };
+    // The sensor's description without its knots (they are in the tables, counted in "entries").
+    let mut sensor = serde_json::to_value(sec.sensor()).unwrap_or_default();
+    if let Some(o) = sensor.as_object_mut() {
+        o.remove("knots");
+    }
+    serde_json::json!({
+        "valid": ok,
+        "error": error,
+        "header": sec.header(),
+        "entries": sizes,
+        "sensor": sensor,
+    })
 }
 
 /// A checked image as JSON (header fields, sections and the calibration, field by field).
@@ -408,6 +586,7 @@ pub fn describe_json(img: &Image<'_>) -> serde_json::Value {
             "name": section_name(s.kind),
         })).collect::<Vec<_>>(),
         "calibration": img.calibration(),
+        "fixed": fixed_json(img),
     })
 }
 

@@ -1,12 +1,16 @@
 //! `logtrim image` and `logtrim inspect` end to end: files written, read back, checked, and the exit codes
-//! (0 ok, 1 a bad image, 2 bad input) with their specific messages.
+//! (0 ok, 1 a bad image, 2 bad input) with their specific messages; the fixed-point tables in the image by
+//! default, identical to the ones the library builds for the file, and left out with `--no-fixed`.
 
 use std::path::Path;
 use std::process::{Command, Output};
 
 use logtrim::calibration::{BiasTerm, Series, TemperatureRange, XRange};
+use logtrim::image::layout;
 use logtrim::{Calibration, Image};
 use logtrim_host::calfile::CalFile;
+use logtrim_host::image_file::load_fixed;
+use logtrim_host::tables::TableOptions;
 
 fn logtrim(args: &[&str], dir: &Path) -> Output {
     Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).current_dir(dir).output().unwrap()
@@ -45,11 +49,14 @@ fn coeffs(dir: &Path, unit: Option<&str>) -> Calibration {
 fn binary_image_round_trip() {
     let dir = tempfile::tempdir().unwrap();
     let cal = coeffs(dir.path(), Some("GD-REF-00731"));
-    let o = logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin", "--sequence", "12"], dir.path());
+    let o =
+        logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin", "--sequence", "12", "--no-fixed"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
+    assert!(stdout(&o).contains("268 byte image (binary; f32 model only)"), "{}", stdout(&o));
     let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
     assert_eq!(bytes.len(), 268);
     let img = Image::parse(&bytes).unwrap();
+    assert!(img.fixed().is_none());
     assert_eq!(img.calibration(), cal);
     assert_eq!((img.serial(), img.sequence(), img.calibrated_at()), ("GD-REF-00731", 12, 1_767_225_600));
 
@@ -61,12 +68,89 @@ fn binary_image_round_trip() {
     assert!(out.contains("sequence     12"), "{out}");
     assert!(out.contains("2026-01-01 00:00:00 UTC"), "{out}");
     assert!(out.contains("slope      2 terms: [2000, 25]"), "{out}");
+    assert!(out.contains("fixed-point tables: none"), "{out}");
 
     let o = logtrim(&["inspect", "--json", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0);
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["serial"], "GD-REF-00731");
     assert_eq!(v["calibration"]["adc"]["rail_margin"], 12);
+    assert!(v["fixed"].is_null());
+}
+
+#[test]
+fn images_carry_the_fixed_point_tables_by_default() {
+    let dir = tempfile::tempdir().unwrap();
+    coeffs(dir.path(), Some("GD-REF-00731"));
+    let o = logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    assert!(stdout(&o).contains("fixed-point tables 16×40 knots"), "{}", stdout(&o));
+    let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+    let img = Image::parse(&bytes).unwrap();
+    // The tables the library builds for the file, bit for bit, read back through the firmware's loader.
+    let file = CalFile::load(&dir.path().join("COEFFS.json")).unwrap();
+    let want = file.fixed_tables(&TableOptions::default()).unwrap();
+    assert_eq!(load_fixed(&img).unwrap(), Some(want.clone()));
+    // The image is the f32 image, a section header and the section (fields, tables, padding).
+    let tables = 4 * (want.offset.len() + want.inv_slope.len() + want.ln_bias.len() + want.u_min.len())
+        + 2 * want.residual.len();
+    assert_eq!(bytes.len(), 268 + 4 + layout::fixed::HEAD_LEN + tables.next_multiple_of(4));
+    assert!(bytes.len() <= 4096, "{} bytes", bytes.len());
+
+    let o = logtrim(&["inspect", "UNIT.bin"], dir.path());
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    let out = stdout(&o);
+    assert!(out.contains(&format!("UNIT.bin: binary, {} bytes", bytes.len())), "{out}");
+    assert!(out.contains("0x8003      1896 bytes  fixed (fixed-point tables)"), "{out}");
+    assert!(out.contains("fixed-point tables: load and validate (ok)"), "{out}");
+    assert!(out.contains("t grid     16 knots"), "{out}");
+    assert!(out.contains("accepted -13.000 to 63.000 °C"), "{out}");
+    assert!(
+        out.contains(
+            "entries    offset 18, inv_slope 18, ln_bias 18, u_min 18, sensor_knots 0, residual 756"
+        ),
+        "{out}"
+    );
+    assert!(out.contains("sensor     none"), "{out}");
+    let o = logtrim(&["inspect", "--json", "UNIT.bin"], dir.path());
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["fixed"]["valid"], true);
+    assert_eq!(v["fixed"]["entries"]["residual"], 756);
+    assert_eq!(v["fixed"]["header"]["t_knots"], 16);
+
+    // Other table sizes.
+    let o = logtrim(
+        &["image", "COEFFS.json", "-o", "SMALL.bin", "--t-knots", "8", "--xa-knots", "24"],
+        dir.path(),
+    );
+    assert_eq!(code(&o), 0, "{}", stderr(&o));
+    let small = std::fs::read(dir.path().join("SMALL.bin")).unwrap();
+    let t = load_fixed(&Image::parse(&small).unwrap()).unwrap().unwrap();
+    assert_eq!((t.header.t_knots, t.header.xa_knots, t.residual.len()), (8, 24, 10 * 26));
+}
+
+#[test]
+fn tables_a_firmware_would_refuse_exit_1_after_the_description() {
+    // A zero inverse slope in the tables with a correct CRC, as a faulty writer elsewhere could produce: the
+    // image's structure is fine, so it is described, but a fixed-point firmware refuses its tables.
+    let dir = tempfile::tempdir().unwrap();
+    coeffs(dir.path(), Some("GD-REF-00731"));
+    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
+    let mut b = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+    let inv_slope = 268 + layout::fixed::HEAD_LEN + 4 * 18;
+    b[inv_slope..inv_slope + 4].copy_from_slice(&0i32.to_le_bytes());
+    let n = b.len() - 4;
+    let crc = logtrim::image::crc32(&b[..n]);
+    b[n..].copy_from_slice(&crc.to_le_bytes());
+    std::fs::write(dir.path().join("zero.bin"), &b).unwrap();
+    let o = logtrim(&["inspect", "zero.bin"], dir.path());
+    assert_eq!(code(&o), 1, "{}", stderr(&o));
+    assert!(stdout(&o).contains("fixed-point tables: REFUSED"), "{}", stdout(&o));
+    assert!(
+        stderr(&o).contains("zero.bin: bad fixed-point tables: fixed-point tables do not validate: invalid calibration: slope zero"),
+        "{}",
+        stderr(&o)
+    );
 }
 
 #[test]
@@ -88,7 +172,8 @@ fn intel_hex_image_at_a_base_address() {
 
     let o = logtrim(&["inspect", "UNIT.hex"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
-    assert!(stdout(&o).contains("Intel HEX, 268 bytes at 0x0801ff80"), "{}", stdout(&o));
+    let len = back.bytes.len();
+    assert!(stdout(&o).contains(&format!("Intel HEX, {len} bytes at 0x0801ff80")), "{}", stdout(&o));
 
     // --format overrides the extension.
     let o = logtrim(&["image", "COEFFS.json", "-o", "unit.img", "--format", "hex"], dir.path());
@@ -103,6 +188,11 @@ fn bad_images_exit_1_with_the_specific_error() {
     assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
     assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.hex"], dir.path())), 0);
     let good = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+    let n = good.len();
+    let (needed, declares) = (
+        format!("image truncated: 200 bytes, {n} needed"),
+        format!("declares {n} bytes but {} were given", n + 1),
+    );
 
     let cases: Vec<(&str, Vec<u8>, &str)> = vec![
         (
@@ -114,7 +204,7 @@ fn bad_images_exit_1_with_the_specific_error() {
             },
             "CRC mismatch",
         ),
-        ("short.bin", good[..200].to_vec(), "image truncated: 200 bytes, 268 needed"),
+        ("short.bin", good[..200].to_vec(), &needed),
         (
             "long.bin",
             {
@@ -122,7 +212,7 @@ fn bad_images_exit_1_with_the_specific_error() {
                 b.push(0);
                 b
             },
-            "declares 268 bytes but 269 were given",
+            &declares,
         ),
         ("erased.bin", vec![0xff; 268], "not a calibration image: starts with ff ff ff ff"),
         (
@@ -169,6 +259,7 @@ fn bad_input_exits_2_and_writes_nothing() {
         (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "flash"], "is not an address"),
         (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "0xFFFFFF00"], "32-bit address space"),
         (&["image", "COEFFS.json", "-o", "a.hex", "--record-len", "20"], "record length 20"),
+        (&["image", "COEFFS.json", "-o", "a.bin", "--t-knots", "2"], "t_knots: must be 4..=1000"),
         (&["image", "MISSING.json", "-o", "a.bin"], "MISSING.json"),
         (&["inspect", "MISSING.bin"], "MISSING.bin"),
     ];

@@ -112,6 +112,46 @@ fn plot_writes_three_well_formed_charts() {
 }
 
 #[test]
+fn plot_draws_the_fixed_point_error_map_on_request() {
+    let d = scratch("plot-fixed");
+    let coeffs = unit_files(&d);
+    let out = d.join("charts");
+    let s = |p: &Path| p.to_str().unwrap().to_string();
+    let base = ["plot".to_string(), s(&coeffs), s(&d.join("cal.csv")), "-o".into(), s(&out)];
+    let args = |extra: &[&str]| -> Vec<String> {
+        base.iter().cloned().chain(extra.iter().map(|a| a.to_string())).collect()
+    };
+    let run = |a: Vec<String>| logtrim(&a.iter().map(String::as_str).collect::<Vec<_>>());
+    let (code, stdout, stderr) = run(args(&["--map-cells", "24x8", "--fixed-map", "--map-codes", "4"]));
+    assert_eq!(code, 0, "{stdout}{stderr}");
+    let name = "PH-0042-fixed-error-map.svg";
+    assert!(stdout.contains(name), "{stdout}");
+    let svg = std::fs::read_to_string(out.join(name)).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let text: String = doc.descendants().filter(|n| n.is_text()).filter_map(|n| n.text()).collect();
+    assert!(text.contains("fixed-point correction against the f64 reference"), "{text}");
+    assert!(text.contains("error of fixed point [LSB]"), "{text}");
+    assert!(text.contains("tables 16×40 knots; worst of 4 codes per cell"), "{text}");
+    // Without the flag there is no such file; table sizes reach the map.
+    std::fs::remove_dir_all(&out).unwrap();
+    let (code, _, stderr) = run(args(&["--map-cells", "24x8"]));
+    assert_eq!(code, 0, "{stderr}");
+    assert!(!out.join(name).exists());
+    let (code, _, stderr) = run(args(&["--map-cells", "24x8", "--fixed-map", "--t-knots", "8"]));
+    assert_eq!(code, 0, "{stderr}");
+    assert!(std::fs::read_to_string(out.join(name)).unwrap().contains("tables 8×40 knots"));
+    // Bad table sizes and a bad count of codes are errors of input, and nothing is written.
+    std::fs::remove_dir_all(&out).unwrap();
+    let (code, _, stderr) = run(args(&["--fixed-map", "--xa-knots", "1"]));
+    assert_eq!(code, 2, "{stderr}");
+    assert!(stderr.contains("xa_knots"), "{stderr}");
+    assert!(!out.exists(), "no chart written when one of them fails");
+    let (code, _, stderr) = run(args(&["--fixed-map", "--map-codes", "0"]));
+    assert_eq!(code, 2, "{stderr}");
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
 fn budget_json_adds_up_and_bad_files_are_located() {
     let (code, stdout, stderr) = logtrim(&["budget", "--json", "--bits", "14", "--oversampling", "4"]);
     assert_eq!(code, 0, "{stderr}");

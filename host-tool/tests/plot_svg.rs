@@ -10,10 +10,11 @@ use logtrim_host::frontend::preset;
 use logtrim_host::plot::figures::{self, ErrorUnit};
 use logtrim_host::plot::validation::ValidationPoint;
 use logtrim_host::plot::{
-    render_heat_map, render_lines, series_colour, Axis, ColourScale, Grid, HeatMap, LineFigure, Panel,
-    PlotError, Series, Style,
+    render_heat_map, render_lines, scale_colour, series_colour, Axis, ColourScale, Grid, HeatMap, LineFigure,
+    Panel, PlotError, Series, Style, DIVERGING,
 };
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
+use logtrim_host::tables::{build, TableOptions};
 
 fn keep(name: &str, svg: &str) {
     if let Ok(dir) = std::env::var("LOGTRIM_KEEP_SVG") {
@@ -197,6 +198,77 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
     assert!(rects >= nx * ny + 96, "{rects} rectangles");
     let grey = count_coloured(&doc, "rect", "fill", "#C4C4C4");
     assert_eq!(grey, nx * ny - valued + 1, "grey cells and the key");
+}
+
+#[test]
+fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
+    let cal = rich_calibration();
+    let tables = build(&cal, None, &TableOptions::default()).unwrap();
+    let fixed = tables.view();
+    let (nx, ny, per_cell) = (40, 12, 9);
+    let map = figures::fixed_error_map(&cal, &fixed, nx, ny, per_cell, "coarse grid").unwrap();
+    // The grid holds what it says: recompute every cell directly from firmware-lib, independently of the
+    // figure's code (the cell's codes from its edges, the worst signed error among them).
+    let g = &map.grid;
+    let (x0, x1) = (g.x_axis().min, g.x_axis().max);
+    let width = (x1 - x0) / nx as f64;
+    let (mut valued, mut worst) = (0, 0.0f64);
+    for j in 0..ny {
+        for i in 0..nx {
+            let (centre, t) = g.centre(i, j);
+            let mc = (t * 1000.0).round() as i32;
+            let (first, last) = ((centre - width / 2.0).ceil(), (centre + width / 2.0).floor());
+            let errors: Vec<f64> = (0..per_cell)
+                .filter_map(|k| {
+                    let code =
+                        (first + (last - first) * f64::from(k) / f64::from(per_cell - 1)).round() as u32;
+                    let a = fixed.correct(code, mc).ok()?;
+                    let b = cal.correct_f64(f64::from(code), f64::from(mc) / 1000.0).ok()?;
+                    Some((f64::from(a.x) / f64::from(1 << 24) - b.x) / b.dx_dcode)
+                })
+                .collect();
+            let v = g.get(i, j).unwrap();
+            match errors.iter().copied().reduce(|a, b| if b.abs() > a.abs() { b } else { a }) {
+                Some(want) => {
+                    valued += 1;
+                    assert_eq!(v, want, "cell ({i}, {j})");
+                    worst = worst.max(v.abs());
+                }
+                None => assert!(v.is_nan(), "cell ({i}, {j}) without a value"),
+            }
+        }
+    }
+    assert!(valued > nx * ny / 2, "most cells are in range: {valued}");
+    assert!(valued < nx * ny, "the margin shows refused cells");
+    // The default tables hold this hard unit to a fraction of an LSB (`logtrim verify`'s bound is ¼).
+    assert!(worst > 0.0 && worst < 0.25, "worst cell {worst} LSB");
+
+    let svg = render_heat_map(&map).unwrap();
+    keep("fixed_heat_map.svg", &svg);
+    let doc = parse(&svg);
+    let t = texts(&doc);
+    for want in [
+        "fixed-point correction against the f64 reference",
+        "coarse grid; worst of 9 codes per cell",
+        "ADC code of the log channel",
+        "temperature [°C]",
+        "error of fixed point [LSB]",
+        "refused by the", // the grey key, wrapped
+    ] {
+        assert!(t.iter().any(|s| s.contains(want)), "text {want:?} missing in {t:?}");
+    }
+    // The colour scale: the bar's 96 steps run through the diverging palette from end to end, and it is
+    // symmetric about zero (ticks of both signs).
+    for k in [0usize, 47, 48, 95] {
+        let c = hex(scale_colour(&DIVERGING, (k as f64 + 0.5) / 96.0));
+        assert!(count_coloured(&doc, "rect", "fill", &c) >= 1, "colour bar step {k} ({c})");
+    }
+    assert!(t.iter().any(|s| s.starts_with('-') || s.starts_with('−')), "negative ticks: {t:?}");
+    let cells = doc.descendants().filter(|n| n.has_tag_name("rect")).count();
+    assert!(cells >= nx * ny + 96, "{cells} rectangles");
+    assert_eq!(count_coloured(&doc, "rect", "fill", "#C4C4C4"), nx * ny - valued + 1, "grey cells and key");
+    // No codes per cell is a bad grid, not a panic.
+    assert!(matches!(figures::fixed_error_map(&cal, &fixed, nx, ny, 0, ""), Err(PlotError::BadGrid { .. })));
 }
 
 /// A small simulated chamber run of a preset, fitted with a fixed model (no search: quick).

@@ -1,14 +1,38 @@
 //! The pluggable correction of a cycle: the [`Corrector`] trait, the exact mean of a burst of codes it
-//! takes ([`MeanCode`]), and its implementation for the f32 [`Calibration`].
+//! takes ([`MeanCode`]), what it gives back ([`Corrected`]), and its implementations for the f32
+//! [`Calibration`] and the integer [`FixedCalibration`].
 //!
 //! The cycle averages *codes* and corrects once (the reasons are in [`crate::hal::cycle`]). A mean of
 //! N codes has up to log2(N) more bits than one code, so the corrector takes the mean exactly, as a sum and
-//! a count, and decides itself how much of the fraction it can use. An integer fixed-point corrector can
-//! take `sum·2^k / count` as a code with k fractional bits; the f32 [`Calibration`] takes the same value as
-//! an f32 ([`Calibration::correct_mean`]).
+//! a count, and decides itself how much of the fraction it can use. The f32 [`Calibration`] takes the mean
+//! as an f32 with 8 fractional bits ([`Calibration::correct_mean`]).
+//!
+//! # The fixed path in a cycle
+//!
+//! [`FixedCalibration`] corrects whole codes only. A fractional mean is corrected by **linear
+//! interpolation between its two neighbouring codes**: the mean is taken with 8 fractional bits
+//! ([`MeanCode::to_fixed`]), the temperature stage is computed once, both neighbours are corrected at it,
+//! and `x = x_lo + (x_hi − x_lo)·f/256`. The correction is smooth over one code (its second derivative
+//! moves x by far less than a millionth of a code's step there), so the interpolation costs nothing
+//! measurable against the f64 reference (`tests/hal_fixed_cycle.rs` at the workspace root measures it);
+//! rounding the mean to a whole code instead would cost up to ½ LSB. Within one code of an edge of the
+//! calibrated range, where one neighbour is refused, the mean takes the result of the neighbour nearer to
+//! it: its error if that one is refused, its value (at most ½ code from the mean's) otherwise.
+//!
+//! The temperature arrives from the cycle in °C as an f32 (the [`TemperatureChannel`] trait's unit). It
+//! becomes the fixed path's θ (m°C · 2^10) by an exact integer decomposition of the f32's bits, rounded to
+//! nearest: no float arithmetic. The result is computed in integers throughout, in the configured unit
+//! ([`FixedReading::value`]), and handed to the cycle both as that integer ([`Corrected::fixed`],
+//! [`crate::hal::Measurement::fixed`]) and as f32: one integer-to-float conversion and one multiplication by
+//! a power of two each for x and the value, a few dozen cycles in software floating point on a core without
+//! an FPU (the f32 path's logarithms, exponentials and Newton steps are thousands).
+//!
+//! [`TemperatureChannel`]: crate::hal::TemperatureChannel
 
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
+use crate::fixed::{value_frac_bits, FixedCalibration, FixedReading, THETA_FRAC, X_FRAC};
+use crate::units::Unit;
 
 /// Fractional bits of a mean code that the f32 correction resolves (1/256 code), where the converter's
 /// width leaves room below the 24 bits an f32 holds exactly.
@@ -73,10 +97,38 @@ impl MeanCode {
     }
 }
 
+/// The integer result of a fixed-point correction: x and the value in the cycle's unit, exactly as the fixed
+/// path computed them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FixedValue {
+    /// x = ln(I_sig/I_ref), Q24 nepers.
+    pub x_q24: i32,
+    /// The value in the unit, with [`FixedValue::frac_bits`] fraction bits ([`FixedReading::value`]).
+    pub value: i64,
+    /// Fraction bits of [`FixedValue::value`] ([`value_frac_bits`]: 32 for a ratio, 24 otherwise).
+    pub frac_bits: u32,
+}
+
+/// What a corrector gives the cycle: x and the value in the configured unit, both finite, and the integer
+/// form when the corrector computes in fixed point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Corrected {
+    /// x = ln(I_sig/I_ref).
+    pub x: f32,
+    /// The reading in the unit asked for.
+    pub value: f32,
+    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
+    pub temperature_extrapolated: bool,
+    /// The integer result of a fixed-point corrector (`None` for the f32 path).
+    pub fixed: Option<FixedValue>,
+}
+
 /// A correction (ADC code, temperature) → x that a measurement cycle can use.
 ///
-/// Implemented for the f32 [`Calibration`]; the integer fixed-point correction implements it too, so a
-/// board picks the one that suits its core without touching the cycle.
+/// Implemented for the f32 [`Calibration`] and the integer [`FixedCalibration`], so a board picks the one
+/// that suits its core without touching the cycle.
 pub trait Corrector {
     /// The full check of the coefficients, run once when the corrector is installed in a cycle. A
     /// corrector that fails it is never used: every cycle reports an invalid calibration.
@@ -87,6 +139,21 @@ pub trait Corrector {
 
     /// Corrects the mean of a burst of codes at a temperature in °C.
     fn correct(&self, code: MeanCode, temp_c: f32) -> Result<Reading, Error>;
+
+    /// Corrects the mean of a burst of codes and expresses it in `unit`: what the cycle reports. The
+    /// default converts [`Corrector::correct`]'s x with [`Unit::from_x`]; a non-finite x is
+    /// [`Error::NonFinite`], a value that overflows the f32 [`Error::AboveRange`].
+    fn correct_in(&self, code: MeanCode, temp_c: f32, unit: Unit) -> Result<Corrected, Error> {
+        let r = self.correct(code, temp_c)?;
+        if !r.x.is_finite() {
+            return Err(Error::NonFinite);
+        }
+        let value = unit.from_x(r.x);
+        if !value.is_finite() {
+            return Err(Error::AboveRange);
+        }
+        Ok(Corrected { x: r.x, value, temperature_extrapolated: r.temperature_extrapolated, fixed: None })
+    }
 }
 
 impl<C: Corrector + ?Sized> Corrector for &C {
@@ -98,6 +165,9 @@ impl<C: Corrector + ?Sized> Corrector for &C {
     }
     fn correct(&self, code: MeanCode, temp_c: f32) -> Result<Reading, Error> {
         C::correct(self, code, temp_c)
+    }
+    fn correct_in(&self, code: MeanCode, temp_c: f32, unit: Unit) -> Result<Corrected, Error> {
+        C::correct_in(self, code, temp_c, unit)
     }
 }
 
@@ -139,6 +209,134 @@ impl Corrector for Calibration {
         // `fixed` < 2^24, so it and its scaled value are exact in an f32.
         let mean = fixed as f32 / (1u32 << k) as f32;
         Calibration::correct_mean(self, mean, temp_c)
+    }
+}
+
+/// Fraction bits of a mean code that the fixed path interpolates with.
+pub const FIXED_MEAN_FRACTION_BITS: u8 = 8;
+
+/// θ (m°C · 2^10, the fixed path's temperature) of a temperature in °C, rounded to nearest (ties away from
+/// zero), by integer arithmetic on the f32's bits: exact for every finite f32. [`Error::NonFinite`] for
+/// NaN and infinities; magnitudes beyond any θ saturate (and are then out of range).
+pub fn theta_of_celsius(temp_c: f32) -> Result<i64, Error> {
+    if !temp_c.is_finite() {
+        return Err(Error::NonFinite);
+    }
+    let bits = temp_c.to_bits();
+    let exp = ((bits >> 23) & 0xff) as i32;
+    if exp == 0 {
+        // Zero and subnormals: |t| < 2^-126 °C, far below half a θ step.
+        return Ok(0);
+    }
+    // |t| = m · 2^(exp − 150) with a 24-bit m, so |t|·1 024 000 = m·1 024 000 · 2^(exp − 150), and
+    // m·1 024 000 < 2^44.
+    let m = u64::from((bits & 0x7f_ffff) | 0x80_0000);
+    let p = m * (1000 << THETA_FRAC);
+    let shift = exp - 150;
+    let magnitude = if shift >= 0 {
+        if shift > 18 {
+            i64::MAX
+        } else {
+            (p << shift) as i64 // < 2^62
+        }
+    } else {
+        let s = shift.unsigned_abs();
+        if s >= 63 {
+            0
+        } else {
+            ((p + (1 << (s - 1))) >> s) as i64
+        }
+    };
+    Ok(if bits >> 31 == 1 { -magnitude } else { magnitude })
+}
+
+/// An integer in Q`frac` as f32: one integer-to-float conversion and one multiplication by a power of two.
+fn q_to_f32(v: i64, frac: u32) -> f32 {
+    // 2^-frac as an f32 bit pattern (frac ≤ 32 here, so the exponent stays normal).
+    let scale = f32::from_bits((127 - frac.min(126)) << 23);
+    v as f32 * scale
+}
+
+/// The fixed-point correction of a mean code at a temperature in °C, as the cycle uses it (see [the module
+/// docs](self#the-fixed-path-in-a-cycle)): the codes are checked first (both neighbours of a fractional mean,
+/// as in the f32 path), then the temperature; a fractional mean is interpolated between its neighbours.
+pub fn correct_mean_fixed(
+    cal: &FixedCalibration<'_>,
+    code: MeanCode,
+    temp_c: f32,
+) -> Result<FixedReading, Error> {
+    let max = cal.header.adc_max_code;
+    let beyond = Error::CodeOutOfAdcRange { code: u32::MAX, max };
+    let (lo, frac) = code.floor().ok_or(beyond)?;
+    cal.check_code(lo)?;
+    if frac {
+        cal.check_code(lo.saturating_add(1))?;
+    }
+    let theta = theta_of_celsius(temp_c)?;
+    let stage = cal.stage_theta(theta).map_err(|e| match e {
+        Error::TemperatureOutOfRange { .. } => Error::TemperatureOutOfRange { celsius: temp_c },
+        e => e,
+    })?;
+    if !frac {
+        return cal.correct_staged(&stage, lo);
+    }
+    let k = u32::from(FIXED_MEAN_FRACTION_BITS);
+    let fixed = code.to_fixed(FIXED_MEAN_FRACTION_BITS).ok_or(beyond)?;
+    // Rounded to 1/256 code, the mean may reach the upper neighbour (a whole code, checked above).
+    let (base, f) = (fixed >> k, i64::from(fixed & ((1 << k) - 1)));
+    if f == 0 {
+        return cal.correct_staged(&stage, base);
+    }
+    let a = cal.correct_staged(&stage, base);
+    let b = cal.correct_staged(&stage, base.saturating_add(1));
+    let (near, far) = if f < 1 << (k - 1) { (a, b) } else { (b, a) };
+    match (near, far) {
+        (Ok(_), Ok(_)) => {}
+        (near, _) => return near,
+    }
+    let (a, b) = (a?, b?);
+    // |x_hi − x_lo| < 2^32 and f < 2^8: no overflow; the result lies between two i32 values.
+    let dx = (i64::from(b.x) - i64::from(a.x)) * f;
+    let x = i64::from(a.x) + ((dx + (1 << (k - 1))) >> k);
+    Ok(FixedReading {
+        x: i32::try_from(x).unwrap_or(a.x),
+        temperature_extrapolated: a.temperature_extrapolated,
+    })
+}
+
+impl Corrector for FixedCalibration<'_> {
+    /// [`FixedCalibration::validate`].
+    fn validate(&self) -> Result<(), Error> {
+        FixedCalibration::validate(self)
+    }
+
+    /// [`FixedCalibration::check_code`]: a code at or within the rail margin of either rail is
+    /// [`Error::Saturated`] (so are both rail codes with a margin of 0), as in the f32 path.
+    fn check_code(&self, code: u32) -> Result<(), Error> {
+        FixedCalibration::check_code(self, code)
+    }
+
+    /// [`correct_mean_fixed`], with x as f32.
+    fn correct(&self, code: MeanCode, temp_c: f32) -> Result<Reading, Error> {
+        let r = correct_mean_fixed(self, code, temp_c)?;
+        Ok(Reading {
+            x: q_to_f32(i64::from(r.x), X_FRAC),
+            temperature_extrapolated: r.temperature_extrapolated,
+        })
+    }
+
+    /// [`correct_mean_fixed`], the value in `unit` in integers ([`FixedReading::value`]: a linear unit that
+    /// does not fit is [`Error::AboveRange`]), then both as f32.
+    fn correct_in(&self, code: MeanCode, temp_c: f32, unit: Unit) -> Result<Corrected, Error> {
+        let r = correct_mean_fixed(self, code, temp_c)?;
+        let value = r.value(unit)?;
+        let frac_bits = value_frac_bits(unit);
+        Ok(Corrected {
+            x: q_to_f32(i64::from(r.x), X_FRAC),
+            value: q_to_f32(value, frac_bits),
+            temperature_extrapolated: r.temperature_extrapolated,
+            fixed: Some(FixedValue { x_q24: r.x, value, frac_bits }),
+        })
     }
 }
 
@@ -236,5 +434,225 @@ mod tests {
         let m = MeanCode::new(2 * 9_000_000 + 1, 2).unwrap(); // 9 000 000.5 → 9 000 001
         let r = Corrector::correct(&c, m, 25.0).unwrap();
         assert_eq!(Ok(r), Calibration::correct(&c, 9_000_001, 25.0));
+    }
+
+    // -----------------------------------------------------------------------------------------------------
+    // The fixed corrector, on hand-built linear tables: x = (code − 32768)/4096 Np at every temperature,
+    // −5…55 °C accepted, 0…50 °C calibrated, x in [−7, 7] Np (the structure of `fixed::tests::linear`). A
+    // linear correction makes the interpolation of a mean exact, so every expected value is exact too.
+
+    mod fixed_path {
+        use std::vec;
+        use std::vec::Vec;
+
+        use super::*;
+        use crate::error::SensorFault;
+        use crate::fixed::{FixedHeader, SensorTable, LAYOUT_VERSION};
+        use crate::hal::temperature::{FixedSensorTable, TemperatureChannel};
+
+        struct Owned {
+            offset: Vec<i32>,
+            inv_slope: Vec<i32>,
+            residual: Vec<i16>,
+            sensor: Vec<i32>,
+        }
+
+        fn owned() -> Owned {
+            Owned {
+                offset: vec![32768 << 14; 6],
+                inv_slope: vec![1 << 30; 6],
+                residual: vec![0; 6 * 7],
+                // θ(code) = (code − 100)·10 m°C, knots every 256 codes from code 100.
+                sensor: (0..19).map(|i| (i - 1) * 256 * 10 * 1024).collect(),
+            }
+        }
+
+        fn view(o: &Owned) -> FixedCalibration<'_> {
+            FixedCalibration {
+                header: FixedHeader {
+                    layout: LAYOUT_VERSION,
+                    adc_max_code: 65535,
+                    rail_margin: 16,
+                    temp_min: 0,
+                    temp_max: 50_000 * 1024,
+                    temp_lo: -5_000 * 1024,
+                    temp_hi: 55_000 * 1024,
+                    t_knots: 4,
+                    t_origin: -5_000 * 1024,
+                    t_inv_step: 13_743_895,
+                    offset_frac: 14,
+                    inv_slope_frac: 42,
+                    bias_bend: false,
+                    sensitivity_limit: false,
+                    xa_knots: 5,
+                    xa_origin: -9 * (1 << 24),
+                    xa_inv_step: 3_728_270,
+                    residual_frac: 16,
+                    x_min: -7 * (1 << 24),
+                    x_max: 7 * (1 << 24),
+                },
+                offset: &o.offset,
+                inv_slope: &o.inv_slope,
+                ln_bias: &[],
+                u_min: &[],
+                residual: &o.residual,
+                sensor: Some(SensorTable {
+                    code_lo: 100,
+                    code_hi: 4000,
+                    step_log2: 8,
+                    fault_below: SensorFault::OutOfModelRange,
+                    far_below_code: 10,
+                    fault_far_below: SensorFault::Short,
+                    fault_above: SensorFault::OutOfModelRange,
+                    far_above_code: 4090,
+                    fault_far_above: SensorFault::Open,
+                    knots: &o.sensor,
+                }),
+            }
+        }
+
+        /// x in Q24 of a mean of 1/256-code resolution on the linear unit: 4096 codes per neper.
+        fn want_q24(mean_256: i64) -> i32 {
+            ((mean_256 - (32768 << 8)) * 16) as i32
+        }
+
+        #[test]
+        fn theta_is_the_rounded_product_of_the_f32() {
+            // Reference: std's f64, in which t · 1 024 000 is exact for every f32 t (24 + 7 significant
+            // bits), rounded half away from zero as `f64::round` does.
+            let reference = |t: f32| (f64::from(t) * 1_024_000.0).round() as i64;
+            for t in [0.0f32, -0.0, 25.0, -40.0, 85.0, 0.001, 1e-6, -1e-9, 123.456, 0.000_488_281_25] {
+                assert_eq!(theta_of_celsius(t), Ok(reference(t)), "{t}");
+            }
+            // Ties round away from zero: 2^-14 °C is exactly 62.5 θ.
+            assert_eq!(theta_of_celsius(1.0 / 16384.0), Ok(63));
+            assert_eq!(theta_of_celsius(-1.0 / 16384.0), Ok(-63));
+            // Every exponent, seeded pseudo-random mantissas (an LCG, common practice).
+            let mut state = 12345u32;
+            for _ in 0..20_000 {
+                state = state.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
+                let t = f32::from_bits(state);
+                if !t.is_finite() {
+                    assert_eq!(theta_of_celsius(t), Err(Error::NonFinite));
+                } else if f64::from(t).abs() < 1e12 {
+                    assert_eq!(theta_of_celsius(t), Ok(reference(t)), "{t:e}");
+                } else {
+                    let got = theta_of_celsius(t).unwrap();
+                    assert!(got.unsigned_abs() >= 1 << 50, "{t:e} → {got}");
+                }
+            }
+            assert_eq!(theta_of_celsius(f32::NAN), Err(Error::NonFinite));
+            assert_eq!(theta_of_celsius(f32::NEG_INFINITY), Err(Error::NonFinite));
+            assert_eq!(theta_of_celsius(f32::MAX), Ok(i64::MAX));
+            assert_eq!(theta_of_celsius(f32::MIN_POSITIVE / 2.0), Ok(0));
+        }
+
+        #[test]
+        fn whole_means_equal_single_codes() {
+            let o = owned();
+            let c = view(&o);
+            for code in (4096u32..61_441).step_by(1009) {
+                for t in [-5.0f32, 0.0, 25.0, 50.0, 55.0] {
+                    let m = MeanCode::new(u64::from(code) * 8, 8).unwrap();
+                    let want = c.correct(code, (t * 1000.0) as i32);
+                    assert_eq!(correct_mean_fixed(&c, m, t), want, "code {code} at {t} °C");
+                }
+            }
+        }
+
+        #[test]
+        fn a_fractional_mean_is_interpolated_exactly_on_a_linear_unit() {
+            let o = owned();
+            let c = view(&o);
+            for base in (5000u64..60_000).step_by(4999) {
+                for (extra, n) in
+                    [(1u64, 2u32), (1, 4), (3, 4), (5, 16), (1, 3), (2, 3), (255, 256), (1, 1000)]
+                {
+                    let m = MeanCode::new(base * u64::from(n) + extra, n).unwrap();
+                    let mean_256 = i64::from(m.to_fixed(8).unwrap());
+                    let r = correct_mean_fixed(&c, m, 30.0).unwrap();
+                    assert_eq!(r.x, want_q24(mean_256), "{base} + {extra}/{n}");
+                    // Against the exact mean: within the 1/512 code of the mean's rounding.
+                    let exact = (base as f64 + extra as f64 / f64::from(n) - 32768.0) / 4096.0;
+                    let err_codes = (f64::from(r.x) / f64::from(1 << 24) - exact).abs() * 4096.0;
+                    assert!(err_codes <= 1.0 / 512.0 + 1e-9, "{base} + {extra}/{n}: {err_codes} codes");
+                }
+            }
+        }
+
+        #[test]
+        fn edges_rails_and_temperatures() {
+            let o = owned();
+            let c = view(&o);
+            let at = |sum: u64, n: u32, t: f32| correct_mean_fixed(&c, MeanCode::new(sum, n).unwrap(), t);
+            // x = 7 Np at code 61440 is the top of the range; 61441 is above it.
+            assert_eq!(at(4 * 61440 + 1, 4, 25.0).map(|r| r.x), Ok(7 << 24)); // nearer 61440: its value
+            assert_eq!(at(4 * 61440 + 3, 4, 25.0), Err(Error::AboveRange)); // nearer 61441: its error
+            assert_eq!(at(4 * 4095 + 3, 4, 25.0).map(|r| r.x), Ok(-7 << 24)); // nearer 4096
+            assert_eq!(at(4 * 4095 + 1, 4, 25.0), Err(Error::BelowRange));
+            // A mean touching the rail margin is saturated, with the code that touches it.
+            assert_eq!(at(16 + 17, 2, 25.0), Err(Error::Saturated { code: 16 }));
+            assert_eq!(at(65518 + 65519, 2, 25.0), Err(Error::Saturated { code: 65519 }));
+            assert_eq!(at(2 * 70_000, 2, 25.0), Err(Error::CodeOutOfAdcRange { code: 70_000, max: 65535 }));
+            assert_eq!(at(u64::MAX, 1, 25.0), Err(Error::CodeOutOfAdcRange { code: u32::MAX, max: 65535 }));
+            // The codes are checked before the temperature, as in the f32 path.
+            assert_eq!(at(2 * 10, 2, f32::NAN), Err(Error::Saturated { code: 10 }));
+            assert_eq!(at(2 * 40_000 + 1, 2, f32::NAN), Err(Error::NonFinite));
+            assert_eq!(at(2 * 40_000 + 1, 2, 55.5), Err(Error::TemperatureOutOfRange { celsius: 55.5 }));
+            assert!(at(2 * 40_000 + 1, 2, 52.0).unwrap().temperature_extrapolated);
+            assert!(!at(2 * 40_000 + 1, 2, 49.0).unwrap().temperature_extrapolated);
+        }
+
+        #[test]
+        fn the_cycle_gets_the_integer_value_and_its_f32() {
+            let o = owned();
+            let c = view(&o);
+            let m = MeanCode::new(4 * (32768 + 4096) + 2, 4).unwrap(); // x = 1 + 0.5/4096 Np
+            for unit in Unit::ALL {
+                let r = Corrector::correct_in(&c, m, 25.0, unit).unwrap();
+                let f = r.fixed.unwrap();
+                let reading = correct_mean_fixed(&c, m, 25.0).unwrap();
+                assert_eq!(f.x_q24, reading.x);
+                assert_eq!(Ok(f.value), reading.value(unit));
+                assert_eq!(f.frac_bits, value_frac_bits(unit));
+                let scale = (f.frac_bits as f64).exp2();
+                assert!(
+                    (f64::from(r.value) - f.value as f64 / scale).abs()
+                        <= 1e-6 * (f.value as f64 / scale).abs()
+                );
+                assert_eq!(r.x, reading.x as f32 / (1u32 << 24) as f32);
+            }
+            // 1 Np + 1/8192 Np as a power ratio in dB: 10/ln 10 · x (ISO 80000-3: 1 Np ≙ 20/ln 10 dB for
+            // amplitude, half that for power).
+            let r = Corrector::correct_in(&c, m, 25.0, Unit::DbPower).unwrap();
+            let want = 10.0 / core::f64::consts::LN_10 * (1.0 + 0.5 / 4096.0);
+            assert!((f64::from(r.value) - want).abs() < 1e-6, "{}", r.value);
+            // A ratio beyond what the integer form holds (x = 7 Np is fine; the x range ends there).
+            let top = MeanCode::single(61440);
+            assert!(Corrector::correct_in(&c, top, 25.0, Unit::Ratio).is_ok());
+        }
+
+        #[test]
+        fn the_sensor_table_as_a_temperature_channel() {
+            let o = owned();
+            let ch = FixedSensorTable(view(&o));
+            // θ = (code − 100)·10 m°C: code 2600 is 25 °C.
+            assert_eq!(ch.celsius(2600), Ok(25.0));
+            assert_eq!(ch.celsius(100), Ok(0.0));
+            assert_eq!(ch.celsius(5), Err(Error::Sensor(SensorFault::Short)));
+            assert_eq!(ch.celsius(4095), Err(Error::Sensor(SensorFault::Open)));
+            assert_eq!(ch.celsius(4050), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+            // Back through the corrector's conversion, θ comes back to the f32's precision: two roundings
+            // of 2^-24 relative each, at most 5 θ (5 µK) at 39 °C here.
+            for code in (100u32..=4000).step_by(37) {
+                let t = ch.celsius(code).unwrap();
+                let theta = i64::from(view(&o).theta_from_code(code).unwrap());
+                let bound = (theta.abs() as f64 * 2f64.powi(-23)).ceil() as i64 + 1;
+                assert!((theta_of_celsius(t).unwrap() - theta).abs() <= bound, "code {code}");
+            }
+            let mut no_sensor = view(&o);
+            no_sensor.sensor = None;
+            assert_eq!(FixedSensorTable(no_sensor).celsius(2600), Err(Error::NotCalibrated));
+        }
     }
 }

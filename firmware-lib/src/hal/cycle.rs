@@ -10,7 +10,9 @@
 //! 4. Reject outliers in each burst ([`Reject`]) and reduce it: the log channel to a [`MeanCode`], the
 //!    temperature to one value in °C.
 //! 5. Correct the mean code at that temperature with the installed [`Corrector`], and convert x to the
-//!    configured [`Unit`].
+//!    configured [`Unit`] ([`Corrector::correct_in`]: in f32 for [`crate::Calibration`], in integers for
+//!    [`crate::fixed::FixedCalibration`], which also reports the integer result,
+//!    [`Measurement::fixed`]).
 //!
 //! # Codes are averaged first, then corrected once
 //!
@@ -60,7 +62,7 @@ use embedded_hal::delay::DelayNs;
 
 use super::adc::{AdcChannel, Error as _, ErrorKind};
 use super::config::{Channel, CheckedConfig, ConfigError, CycleConfig, Oversampling, Reject};
-use super::correct::{Corrector, MeanCode};
+use super::correct::{Corrector, FixedValue, MeanCode};
 use super::temperature::TemperatureChannel;
 use crate::error::Error;
 use crate::units::Unit;
@@ -164,6 +166,7 @@ pub struct Measurement {
     unit: Unit,
     value: Option<f32>,
     x: Option<f32>,
+    fixed: Option<FixedValue>,
     log_code: Option<MeanCode>,
     temperature_c: Option<f32>,
     status: Status,
@@ -176,6 +179,7 @@ impl Measurement {
             unit,
             value: None,
             x: None,
+            fixed: None,
             log_code: None,
             temperature_c: None,
             status: Status::default(),
@@ -203,6 +207,13 @@ impl Measurement {
     /// The reading as x = ln(I_sig/I_ref), present exactly when [`Measurement::value`] is.
     pub fn x(&self) -> Option<f32> {
         self.x
+    }
+
+    /// The integer result of a fixed-point corrector (x in Q24 and the value in [`Measurement::unit`] with its
+    /// fraction bits), present exactly when [`Measurement::value`] is and the corrector computes in fixed
+    /// point; `None` for the f32 path.
+    pub fn fixed(&self) -> Option<FixedValue> {
+        self.fixed
     }
 
     /// The mean of the kept log-channel codes, whenever the burst was read (also without calibration and
@@ -338,19 +349,13 @@ where
 
         if m.error.is_none() {
             if let (Some(c), Some(code), Some(t)) = (corrector, m.log_code, m.temperature_c) {
-                match c.correct(code, t) {
+                match c.correct_in(code, t, cfg.unit) {
                     Err(e) => m.fail(CycleError::Correction(e)),
                     Ok(r) => {
-                        let v = cfg.unit.from_x(r.x);
-                        if !r.x.is_finite() {
-                            m.fail(CycleError::Correction(Error::NonFinite));
-                        } else if !v.is_finite() {
-                            m.fail(CycleError::Correction(Error::AboveRange));
-                        } else {
-                            m.status.temperature_extrapolated = r.temperature_extrapolated;
-                            m.x = Some(r.x);
-                            m.value = Some(v);
-                        }
+                        m.status.temperature_extrapolated = r.temperature_extrapolated;
+                        m.x = Some(r.x);
+                        m.value = Some(r.value);
+                        m.fixed = r.fixed;
                     }
                 }
             }

@@ -6,7 +6,7 @@
 //! | [`adc`] | the [`AdcChannel`] trait a board implements per converter channel, and its error kinds |
 //! | [`sar16`] | [`SpiSar16`]: a ready channel for a 16-bit SAR converter on an [`embedded_hal::spi::SpiDevice`] |
 //! | [`temperature`] | the [`TemperatureChannel`] trait (code → °C) with a closure wrapper and a digital sensor |
-//! | [`correct`] | the [`Corrector`] trait, the exact [`MeanCode`] it takes, its implementation for [`crate::Calibration`] |
+//! | [`correct`] | the [`Corrector`] trait, the exact [`MeanCode`] it takes, its implementations for [`crate::Calibration`] and [`crate::fixed::FixedCalibration`] |
 //! | [`config`] | [`CycleConfig`], [`Oversampling`], [`Reject`] and the check against the buffer capacity |
 //! | [`cycle`] | [`Cycle`], [`Measurement`], [`Status`]: the cycle itself, and why codes are averaged first |
 //!
@@ -52,7 +52,7 @@ pub mod temperature;
 
 pub use adc::{AdcChannel, ErrorKind};
 pub use config::{Channel, CheckedConfig, ConfigError, CycleConfig, Oversampling, Reject};
-pub use correct::{Corrector, MeanCode};
+pub use correct::{Corrected, Corrector, FixedValue, MeanCode};
 pub use cycle::{Cycle, CycleError, Measurement, Status};
 pub use sar16::{Coding, SpiSar16};
-pub use temperature::{DigitalCelsius, TemperatureChannel};
+pub use temperature::{DigitalCelsius, FixedSensorTable, TemperatureChannel};

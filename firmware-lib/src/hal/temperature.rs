@@ -1,6 +1,6 @@
-//! Turning the temperature channel's code into °C: the [`TemperatureChannel`] trait and two ready
-//! implementations, a function wrapper ([`FromFn`]) and a digital sensor that already reads in °C
-//! ([`DigitalCelsius`]).
+//! Turning the temperature channel's code into °C: the [`TemperatureChannel`] trait and three ready
+//! implementations, a function wrapper ([`FromFn`]), a digital sensor that already reads in °C
+//! ([`DigitalCelsius`]) and the sensor table of a fixed-point calibration ([`FixedSensorTable`]).
 //!
 //! The trait has the shape of the crate's sensor linearisations (`fn celsius(&self, code) -> Result<f32,
 //! Error>`), so any of them can serve a cycle directly. A sensor fault is an `Err`, typically
@@ -25,6 +25,26 @@ impl<T: TemperatureChannel + ?Sized> TemperatureChannel for &T {
 impl TemperatureChannel for crate::sensor::TemperatureSensor {
     fn celsius(&self, code: u32) -> Result<f32, Error> {
         crate::sensor::TemperatureSensor::celsius(self, code)
+    }
+}
+
+/// The temperature-sensor table of a fixed-point calibration as a [`TemperatureChannel`], for a board that
+/// corrects with the fixed path and reads its temperature raw: the code goes through
+/// [`FixedCalibration::theta_from_code`] in integers, and θ becomes °C with one integer-to-float conversion
+/// and one division. The fixed corrector turns that °C back into θ to the f32's precision (about
+/// 2⁻²³ relative: at most about 10 µK at 85 °C, a hundredth of a millikelvin). A calibration without a sensor table gives
+/// [`Error::NotCalibrated`] for every code.
+///
+/// [`FixedCalibration::theta_from_code`]: crate::fixed::FixedCalibration::theta_from_code
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FixedSensorTable<'a>(pub crate::fixed::FixedCalibration<'a>);
+
+impl TemperatureChannel for FixedSensorTable<'_> {
+    fn celsius(&self, code: u32) -> Result<f32, Error> {
+        let theta = self.0.theta_from_code(code)?;
+        // One rounding: the quotient of two exact f32 (|θ| < 2^31 rounds once on conversion, 1 024 000 is exact).
+        Ok(theta as f32 / (1000 << crate::fixed::THETA_FRAC) as f32)
     }
 }
 

@@ -29,6 +29,25 @@ pub enum ValueError {
     },
     /// The decoded calibration fails [`Calibration::validate`](crate::Calibration::validate).
     Calibration(Error),
+    /// A table of the fixed section does not have the size its dimensions give (for instance an `offset`
+    /// table that is not `t_knots + 2` long, or a `ln_bias` table without the bias bend).
+    FixedTableSize {
+        /// The table (see [`layout::fixed::TABLES`](super::layout::fixed::TABLES)).
+        table: &'static str,
+        /// The number of entries found.
+        found: u32,
+        /// The number its dimensions call for.
+        expected: u32,
+    },
+    /// A field of the fixed section disagrees with the same quantity in the *ranges* section (tables of
+    /// another unit or converter).
+    FixedMismatch {
+        /// The field of the fixed section.
+        field: &'static str,
+    },
+    /// The fixed-point tables fail
+    /// [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate).
+    Fixed(Error),
 }
 
 /// Why bytes were refused as a calibration image. Every defect has its own variant; the checks run in the
@@ -132,8 +151,25 @@ pub enum ImageError {
         /// The value found.
         found: u8,
     },
+    /// A byte that encodes one of a few choices (a sensor fault) holds none of them.
+    BadEnum {
+        /// The layout field.
+        field: &'static str,
+        /// The value found.
+        found: u8,
+    },
     /// A value is out of range (see [`ValueError`]).
     Value(ValueError),
+    /// The fixed section's tables do not fit the caller's
+    /// [`FixedStorage`](super::FixedStorage) (the image itself may be fine).
+    FixedCapacity {
+        /// The table (see [`layout::fixed::TABLES`](super::layout::fixed::TABLES)).
+        table: &'static str,
+        /// The entries it has.
+        needed: u32,
+        /// The entries the storage holds.
+        capacity: u32,
+    },
 }
 
 /// Why an image could not be written. Every check runs before the first byte is written, so after any of
@@ -162,6 +198,14 @@ pub enum WriteError {
         /// The length it would have.
         len: u32,
     },
+    /// A section's payload would be longer than a section can hold (65 532 bytes), or one of its tables
+    /// longer than its count field can say.
+    SectionTooLong {
+        /// The section type.
+        kind: u16,
+        /// The payload length it would have (saturated at `u32::MAX`).
+        len: u32,
+    },
     /// The calibration cannot be stored (see [`ValueError`]).
     Value(ValueError),
 }
@@ -186,6 +230,13 @@ impl fmt::Display for ValueError {
                 write!(f, "{field} is {found}, more than the capacity {capacity}")
             }
             ValueError::Calibration(e) => write!(f, "calibration does not validate: {e}"),
+            ValueError::FixedTableSize { table, found, expected } => {
+                write!(f, "fixed table {table} has {found} entries, its dimensions call for {expected}")
+            }
+            ValueError::FixedMismatch { field } => {
+                write!(f, "fixed section's {field} disagrees with the ranges section")
+            }
+            ValueError::Fixed(e) => write!(f, "fixed-point tables do not validate: {e}"),
         }
     }
 }
@@ -229,7 +280,12 @@ impl fmt::Display for ImageError {
                 write!(f, "reserved byte at offset {offset} is not zero")
             }
             ImageError::BadFlag { field, found } => write!(f, "{field} is {found}, not 0 or 1"),
+            ImageError::BadEnum { field, found } => write!(f, "{field} is {found}, not a known value"),
             ImageError::Value(e) => write!(f, "{e}"),
+            ImageError::FixedCapacity { table, needed, capacity } => write!(
+                f,
+                "fixed table {table} has {needed} entries, the storage holds {capacity}: a larger FixedStorage is needed"
+            ),
         }
     }
 }
@@ -243,6 +299,9 @@ impl fmt::Display for WriteError {
             WriteError::BadSerial => f.write_str("serial must be at most 16 printable ASCII characters"),
             WriteError::BadSection { kind } => write!(f, "extra section {kind:#06x} cannot be stored"),
             WriteError::TooLong { len } => write!(f, "image of {len} bytes exceeds the format's maximum"),
+            WriteError::SectionTooLong { kind, len } => {
+                write!(f, "section {kind:#06x} of {len} bytes exceeds what a section holds")
+            }
             WriteError::Value(e) => write!(f, "{e}"),
         }
     }

@@ -24,6 +24,8 @@ pub enum Kind {
     U32,
     /// A little-endian u64.
     U64,
+    /// A little-endian two's-complement i32.
+    I32,
     /// A little-endian IEEE 754 binary32.
     F32,
     /// This many consecutive little-endian binary32 values.
@@ -40,7 +42,7 @@ impl Kind {
         match self {
             Kind::U8 => 1,
             Kind::U16 => 2,
-            Kind::U32 | Kind::F32 => 4,
+            Kind::U32 | Kind::I32 | Kind::F32 => 4,
             Kind::U64 => 8,
             Kind::F32Array(n) => 4 * n as usize,
             Kind::Bytes(n) | Kind::Ascii(n) | Kind::Reserved(n) => n as usize,
@@ -55,6 +57,7 @@ impl Kind {
             Kind::U16 => "u16",
             Kind::U32 => "u32",
             Kind::U64 => "u64",
+            Kind::I32 => "i32",
             Kind::F32 => "f32",
             Kind::F32Array(_) => "f32[]",
             Kind::Ascii(_) => "ASCII",
@@ -96,6 +99,49 @@ impl Field {
     pub const fn end(&self) -> usize {
         self.offset + self.kind.size()
     }
+}
+
+/// The element type of a variable-length table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Elem {
+    /// Little-endian two's-complement i32.
+    I32,
+    /// Little-endian two's-complement i16.
+    I16,
+}
+
+impl Elem {
+    /// Bytes per element.
+    pub const fn size(self) -> usize {
+        match self {
+            Elem::I32 => 4,
+            Elem::I16 => 2,
+        }
+    }
+
+    /// The type as written in the layout table.
+    pub const fn type_name(self) -> &'static str {
+        match self {
+            Elem::I32 => "i32",
+            Elem::I16 => "i16",
+        }
+    }
+}
+
+/// A table of a variable number of elements that follows a part's fields: its length is the value of a
+/// count field of the same part. The tables of a part follow its fields in the order listed, without gaps.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Table {
+    /// A short snake_case name (used in error messages).
+    pub name: &'static str,
+    /// The element type.
+    pub elem: Elem,
+    /// The field holding the number of elements.
+    pub count: Field,
+    /// What the table holds.
+    pub doc: &'static str,
 }
 
 /// The fixed header at offset 0 of every image.
@@ -281,6 +327,219 @@ pub mod model_f32 {
     ];
 }
 
+/// Section `0x8003`: the integer fixed-point form of the calibration ([`FixedCalibration`]): the
+/// [`FixedHeader`] scalars, the table sizes, the temperature sensor's description, then the tables. Optional:
+/// a reader that corrects in f32 may ignore it; [`Image::parse`](super::Image::parse) checks its structure
+/// and [`Image::fixed_into`](super::Image::fixed_into) its values.
+///
+/// [`FixedCalibration`]: crate::fixed::FixedCalibration
+/// [`FixedHeader`]: crate::fixed::FixedHeader
+pub mod fixed {
+    use super::{Elem, Field, Kind, Table};
+
+    /// Section type.
+    pub const KIND: u16 = 0x8003;
+
+    /// Layout version of the fixed form.
+    pub const LAYOUT: Field =
+        Field::first("layout", Kind::U8, "layout version of the fixed form (`fixed::LAYOUT_VERSION`)");
+    /// Bias bend switch.
+    pub const BIAS_BEND: Field =
+        LAYOUT.then("bias_bend", Kind::U8, "bias bend removed with λ(T): 0 off, 1 on");
+    /// Sensitivity limit switch.
+    pub const SENSITIVITY_LIMIT: Field =
+        BIAS_BEND.then("sensitivity_limit", Kind::U8, "u < u_min(T) is below range: 0 off, 1 on");
+    /// Sensor table present.
+    pub const HAS_SENSOR: Field =
+        SENSITIVITY_LIMIT.then("has_sensor", Kind::U8, "temperature-sensor table: 0 absent, 1 present");
+    /// Offset fraction bits.
+    pub const OFFSET_FRAC: Field = HAS_SENSOR.then("offset_frac", Kind::U8, "fraction bits of `offset`");
+    /// Inverse-slope fraction bits.
+    pub const INV_SLOPE_FRAC: Field =
+        OFFSET_FRAC.then("inv_slope_frac", Kind::U8, "fraction bits of `inv_slope`");
+    /// Residual fraction bits.
+    pub const RESIDUAL_FRAC: Field =
+        INV_SLOPE_FRAC.then("residual_frac", Kind::U8, "fraction bits of `residual`");
+    /// Padding.
+    pub const RESERVED: Field = RESIDUAL_FRAC.then("reserved", Kind::Reserved(1), "zero");
+    /// Temperature knots.
+    pub const T_KNOTS: Field =
+        RESERVED.then("t_knots", Kind::U16, "knots of the temperature grid (control points: + 2)");
+    /// x̃ knots.
+    pub const XA_KNOTS: Field =
+        T_KNOTS.then("xa_knots", Kind::U16, "knots of the residual's x̃ grid (control points: + 2)");
+    /// Largest code.
+    pub const ADC_MAX_CODE: Field =
+        XA_KNOTS.then("adc_max_code", Kind::U32, "largest code of the log channel, as in *ranges*");
+    /// Rail margin.
+    pub const RAIL_MARGIN: Field = ADC_MAX_CODE.then(
+        "rail_margin",
+        Kind::U32,
+        "codes this close to a rail are saturated, as in *ranges*",
+    );
+    /// Lowest calibrated temperature.
+    pub const TEMP_MIN: Field =
+        RAIL_MARGIN.then("temp_min", Kind::I32, "lowest calibrated temperature, θ (m°C · 2^10)");
+    /// Highest calibrated temperature.
+    pub const TEMP_MAX: Field = TEMP_MIN.then("temp_max", Kind::I32, "highest calibrated temperature, θ");
+    /// Lowest accepted temperature.
+    pub const TEMP_LO: Field = TEMP_MAX.then("temp_lo", Kind::I32, "lowest accepted temperature, θ");
+    /// Highest accepted temperature.
+    pub const TEMP_HI: Field = TEMP_LO.then("temp_hi", Kind::I32, "highest accepted temperature, θ");
+    /// Temperature grid origin.
+    pub const T_ORIGIN: Field = TEMP_HI.then("t_origin", Kind::I32, "θ of temperature knot 0");
+    /// Temperature grid scale.
+    pub const T_INV_STEP: Field = T_ORIGIN.then("t_inv_step", Kind::I32, "2^48 / temperature knot step in θ");
+    /// x̃ grid origin.
+    pub const XA_ORIGIN: Field = T_INV_STEP.then("xa_origin", Kind::I32, "x̃ of knot 0, Q24 Np");
+    /// x̃ grid scale.
+    pub const XA_INV_STEP: Field = XA_ORIGIN.then("xa_inv_step", Kind::I32, "2^24 / x̃ knot step in Np");
+    /// Lowest calibrated x.
+    pub const X_MIN: Field = XA_INV_STEP.then("x_min", Kind::I32, "lowest calibrated x, Q24 Np");
+    /// Highest calibrated x.
+    pub const X_MAX: Field = X_MIN.then("x_max", Kind::I32, "highest calibrated x, Q24 Np");
+    /// Offset table length.
+    pub const OFFSET_LEN: Field = X_MAX.then("offset_len", Kind::U16, "entries of `offset`: t_knots + 2");
+    /// Inverse-slope table length.
+    pub const INV_SLOPE_LEN: Field =
+        OFFSET_LEN.then("inv_slope_len", Kind::U16, "entries of `inv_slope`: t_knots + 2");
+    /// Bias-floor table length.
+    pub const LN_BIAS_LEN: Field = INV_SLOPE_LEN.then(
+        "ln_bias_len",
+        Kind::U16,
+        "entries of `ln_bias`: t_knots + 2 with the bias bend, else 0",
+    );
+    /// Sensitivity-limit table length.
+    pub const U_MIN_LEN: Field = LN_BIAS_LEN.then(
+        "u_min_len",
+        Kind::U16,
+        "entries of `u_min`: t_knots + 2 with the sensitivity limit, else 0",
+    );
+    /// Residual table length.
+    pub const RESIDUAL_LEN: Field =
+        U_MIN_LEN.then("residual_len", Kind::U16, "entries of `residual`: (t_knots + 2)·(xa_knots + 2)");
+    /// Sensor table length.
+    pub const SENSOR_KNOTS_LEN: Field = RESIDUAL_LEN.then(
+        "sensor_knots_len",
+        Kind::U16,
+        "entries of `sensor_knots`: segments + 3 with a sensor table, else 0",
+    );
+    /// Sensor span, low end.
+    pub const SENSOR_CODE_LO: Field = SENSOR_KNOTS_LEN.then(
+        "sensor_code_lo",
+        Kind::U32,
+        "lowest code of the sensor's valid span (0 without)",
+    );
+    /// Sensor span, high end.
+    pub const SENSOR_CODE_HI: Field =
+        SENSOR_CODE_LO.then("sensor_code_hi", Kind::U32, "highest code of the valid span (0 without)");
+    /// Far-below fault zone.
+    pub const SENSOR_FAR_BELOW: Field = SENSOR_CODE_HI.then(
+        "sensor_far_below_code",
+        Kind::U32,
+        "codes below it report `fault_far_below` (0 without a sensor)",
+    );
+    /// Far-above fault zone.
+    pub const SENSOR_FAR_ABOVE: Field = SENSOR_FAR_BELOW.then(
+        "sensor_far_above_code",
+        Kind::U32,
+        "codes above it report `fault_far_above` (0 without a sensor)",
+    );
+    /// Sensor knot spacing.
+    pub const SENSOR_STEP_LOG2: Field =
+        SENSOR_FAR_ABOVE.then("sensor_step_log2", Kind::U8, "sensor knot spacing 2^n codes, n ≤ 16");
+    /// Fault just below the span.
+    pub const FAULT_BELOW: Field =
+        SENSOR_STEP_LOG2.then("fault_below", Kind::U8, "0 open, 1 short, 2 outside the model's range");
+    /// Fault far below the span.
+    pub const FAULT_FAR_BELOW: Field = FAULT_BELOW.then("fault_far_below", Kind::U8, "as `fault_below`");
+    /// Fault just above the span.
+    pub const FAULT_ABOVE: Field = FAULT_FAR_BELOW.then("fault_above", Kind::U8, "as `fault_below`");
+    /// Fault far above the span.
+    pub const FAULT_FAR_ABOVE: Field = FAULT_ABOVE.then("fault_far_above", Kind::U8, "as `fault_below`");
+    /// Padding.
+    pub const RESERVED2: Field = FAULT_FAR_ABOVE.then("reserved2", Kind::Reserved(3), "zero");
+
+    /// Length of the fixed part, before the tables.
+    pub const HEAD_LEN: usize = RESERVED2.end();
+
+    /// The fields in order.
+    pub const FIELDS: &[Field] = &[
+        LAYOUT,
+        BIAS_BEND,
+        SENSITIVITY_LIMIT,
+        HAS_SENSOR,
+        OFFSET_FRAC,
+        INV_SLOPE_FRAC,
+        RESIDUAL_FRAC,
+        RESERVED,
+        T_KNOTS,
+        XA_KNOTS,
+        ADC_MAX_CODE,
+        RAIL_MARGIN,
+        TEMP_MIN,
+        TEMP_MAX,
+        TEMP_LO,
+        TEMP_HI,
+        T_ORIGIN,
+        T_INV_STEP,
+        XA_ORIGIN,
+        XA_INV_STEP,
+        X_MIN,
+        X_MAX,
+        OFFSET_LEN,
+        INV_SLOPE_LEN,
+        LN_BIAS_LEN,
+        U_MIN_LEN,
+        RESIDUAL_LEN,
+        SENSOR_KNOTS_LEN,
+        SENSOR_CODE_LO,
+        SENSOR_CODE_HI,
+        SENSOR_FAR_BELOW,
+        SENSOR_FAR_ABOVE,
+        SENSOR_STEP_LOG2,
+        FAULT_BELOW,
+        FAULT_FAR_BELOW,
+        FAULT_ABOVE,
+        FAULT_FAR_ABOVE,
+        RESERVED2,
+    ];
+
+    /// O(T) control points.
+    pub const OFFSET: Table =
+        Table { name: "offset", elem: Elem::I32, count: OFFSET_LEN, doc: "O(T), codes · 2^offset_frac" };
+    /// 1/S(T) control points.
+    pub const INV_SLOPE: Table = Table {
+        name: "inv_slope",
+        elem: Elem::I32,
+        count: INV_SLOPE_LEN,
+        doc: "1/S(T), Np/code · 2^inv_slope_frac, all > 0",
+    };
+    /// λ(T) control points.
+    pub const LN_BIAS: Table =
+        Table { name: "ln_bias", elem: Elem::I32, count: LN_BIAS_LEN, doc: "λ(T) = ln β(T), Q24 Np" };
+    /// u_min(T) control points.
+    pub const U_MIN: Table =
+        Table { name: "u_min", elem: Elem::I32, count: U_MIN_LEN, doc: "u_min(T), Q24 Np" };
+    /// The sensor table's control points.
+    pub const SENSOR_KNOTS: Table = Table {
+        name: "sensor_knots",
+        elem: Elem::I32,
+        count: SENSOR_KNOTS_LEN,
+        doc: "θ over the sensor code, the first at knot −1",
+    };
+    /// r(x̃, T) control points.
+    pub const RESIDUAL: Table = Table {
+        name: "residual",
+        elem: Elem::I16,
+        count: RESIDUAL_LEN,
+        doc: "r(x̃, T), Np · 2^residual_frac, row-major by temperature; then zero padding to a multiple of 4",
+    };
+
+    /// The tables in the order they follow the fields: every i32 table first, so each starts 4-byte aligned.
+    pub const TABLES: &[Table] = &[OFFSET, INV_SLOPE, LN_BIAS, U_MIN, SENSOR_KNOTS, RESIDUAL];
+}
+
 /// The CRC at the end of every image.
 pub mod trailer {
     use super::{Field, Kind};
@@ -311,6 +570,7 @@ const _: () = assert!(section::HEADER_LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(ranges::LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(model_f32::LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(MAX_LEN.is_multiple_of(section::ALIGN));
+const _: () = assert!(fixed::HEAD_LEN.is_multiple_of(section::ALIGN));
 
 /// One part of the layout, for tables and generated offsets.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -322,26 +582,31 @@ pub struct Part {
     pub kind: Option<u16>,
     /// Its fields in order.
     pub fields: &'static [Field],
+    /// The variable-length tables that follow its fields, in order (empty for most parts).
+    pub tables: &'static [Table],
 }
 
 /// Every part of the layout in the order it appears in an image.
 pub const PARTS: &[Part] = &[
-    Part { name: "header", kind: None, fields: header::FIELDS },
-    Part { name: "section header", kind: None, fields: section::FIELDS },
-    Part { name: "ranges", kind: Some(ranges::KIND), fields: ranges::FIELDS },
-    Part { name: "model_f32", kind: Some(model_f32::KIND), fields: model_f32::FIELDS },
-    Part { name: "trailer", kind: None, fields: trailer::FIELDS },
+    Part { name: "header", kind: None, fields: header::FIELDS, tables: &[] },
+    Part { name: "section header", kind: None, fields: section::FIELDS, tables: &[] },
+    Part { name: "ranges", kind: Some(ranges::KIND), fields: ranges::FIELDS, tables: &[] },
+    Part { name: "model_f32", kind: Some(model_f32::KIND), fields: model_f32::FIELDS, tables: &[] },
+    Part { name: "fixed", kind: Some(fixed::KIND), fields: fixed::FIELDS, tables: fixed::TABLES },
+    Part { name: "trailer", kind: None, fields: trailer::FIELDS, tables: &[] },
 ];
 
-/// Renders the layout as the Markdown table shown in the [`image`](super) docs.
+/// Renders the layout as the Markdown table shown in the [`image`](super) docs. The tables of a part follow
+/// its fields back to back: their offset is shown as `+`, their size as a multiple of their count field.
 pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
     w.write_str("| part | offset | size | field | type | meaning |\n|---|---:|---:|---|---|---|\n")?;
     for part in PARTS {
+        let name = || match part.kind {
+            Some(k) => PartName::Section(part.name, k),
+            None => PartName::Plain(part.name),
+        };
         for f in part.fields {
-            let name = match part.kind {
-                Some(k) => PartName::Section(part.name, k),
-                None => PartName::Plain(part.name),
-            };
+            let name = name();
             writeln!(
                 w,
                 "| {name} | {} | {} | `{}` | `{}` | {} |",
@@ -350,6 +615,19 @@ pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
                 f.name,
                 TypeOf(f),
                 f.doc
+            )?;
+        }
+        for t in part.tables {
+            writeln!(
+                w,
+                "| {} | + | {}·`{}` | `{}` | `{}[{}]` | {} |",
+                name(),
+                t.elem.size(),
+                t.count.name,
+                t.name,
+                t.elem.type_name(),
+                t.count.name,
+                t.doc
             )?;
         }
     }

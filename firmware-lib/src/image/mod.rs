@@ -17,25 +17,29 @@
 //! * The **header** carries the magic `LTCI`, the format version, the number of sections, the total length,
 //!   a sequence counter for the two-slot layout, the calibration time (u64 Unix seconds, UTC) and the unit
 //!   serial (16 bytes of printable ASCII, NUL-padded).
-//! * The **body** is a sequence of typed sections. Version 1 defines two, both required exactly once, in any
-//!   order: `0x0001` *ranges* (the calibrated ADC, temperature and x ranges) and `0x0002` *model_f32* (the f32
-//!   model: every field of [`Calibration`] not in *ranges*, including unused coefficients, so an image
-//!   round-trips a calibration bit for bit).
+//! * The **body** is a sequence of typed sections. Version 1 defines two required ones, each exactly once,
+//!   in any order: `0x0001` *ranges* (the calibrated ADC, temperature and x ranges) and `0x0002` *model_f32*
+//!   (the f32 model: every field of [`Calibration`] not in *ranges*, including unused coefficients, so an
+//!   image round-trips a calibration bit for bit). One more is defined and optional: `0x8003` *fixed*, the
+//!   integer fixed-point form of the same calibration ([`FixedCalibration`](crate::fixed::FixedCalibration):
+//!   its header's scalars, the size of every table, the temperature sensor's description, then the
+//!   tables), for cores without an FPU (see [`FixedSection`] for how it is checked and loaded without
+//!   allocation).
 //! * A section type with bit 15 set is **optional**: a reader that does not know it skips it (it is still
 //!   covered by the CRC). A type with bit 15 clear is **critical**: a reader that does not know it refuses
-//!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8003`–`0x80ff` are reserved
-//!   for this project. The fixed-point tables (a per-temperature slope/offset stage, an i16 residual surface
-//!   over (x, T), an exp table and a temperature-sensor table, each with its dims and scales) are planned as
-//!   their own section: optional to readers that correct in f32, checked (dims against the payload length,
-//!   scales, monotone knots) by the readers that use them, exactly as *model_f32* is checked here.
+//!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8004`–`0x80ff` are reserved
+//!   for this project.
 //! * The **trailer** is the CRC-32 of every byte before it: the IEEE 802.3 reflected CRC-32 (polynomial
 //!   0x04C11DB7, reflected in and out, init and xor-out 0xFFFFFFFF), catalogue name CRC-32/ISO-HDLC, computed
 //!   with the `crc` crate ([`crc32`]).
 //!
-//! A typical image (the two required sections only) is [`layout::F32_IMAGE_LEN`] = 268 bytes.
+//! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
+//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is about 2.2 KiB, 2.7 KiB
+//! with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
-//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260):
+//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260;
+//! [`write_with_fixed`] puts the *fixed* section's header at 264 and its payload at 268):
 //!
 #![doc = include_str!("LAYOUT.md")]
 //!
@@ -57,11 +61,18 @@
 //!    structural defect the corruption happens to look like. The parser is panic-free on any input either
 //!    way (it is fuzzed without the CRC as well), so this order is about fast, honest rejection, not about
 //!    memory safety.
-//! 5. **Structure**: sections lie within the body, are 4-byte multiples, known critical types have their
-//!    layout's length, none is duplicated, the count matches the header, both required sections are present.
+//! 5. **Structure**: sections lie within the body, are 4-byte multiples, known sections of a fixed layout
+//!    have their layout's length, none is duplicated, the count matches the header, both required sections
+//!    are present.
 //! 6. **Values**: the serial, reserved bytes (zero), flags (0 or 1), term counts within their tables'
-//!    capacities, every stored f32 finite, and finally [`Calibration::validate`]. The CRC cannot catch a
-//!    writer that stored a bad value with a correct CRC; these checks do.
+//!    capacities, every stored f32 finite, and [`Calibration::validate`]. Then, if there is a fixed section,
+//!    its structure: flags, reserved and padding bytes, sensor fault codes, every table's size against the
+//!    section's own dimensions ([`ValueError::FixedTableSize`]), the payload length against those sizes,
+//!    and the converter against *ranges* ([`ValueError::FixedMismatch`]). The CRC cannot catch a writer
+//!    that stored a bad value with a correct CRC; these checks do.
+//!
+//! The fixed section's table values are checked by [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate)
+//! when they are copied out ([`Image::fixed_into`], [`FixedStorage::load`]), before they can be used.
 //!
 //! Every step is bounded by the declared length, allocates nothing and returns a specific error.
 //!
@@ -86,15 +97,20 @@
 //! ```
 
 mod error;
+mod fixed;
 pub mod layout;
 mod parse;
 pub mod slots;
 mod write;
 
 pub use error::{ImageError, ValueError, WriteError};
-pub use write::{encoded_len, write, write_with_sections, ImageInfo};
+pub use fixed::{DefaultFixedStorage, FixedSection, FixedStorage, I16Values, I32Values};
+pub use write::{
+    encoded_len, encoded_len_with_fixed, write, write_with_fixed, write_with_sections, ImageInfo,
+};
 
 use crate::calibration::Calibration;
+use crate::fixed::FixedCalibration;
 
 /// The image CRC: CRC-32/ISO-HDLC (IEEE 802.3, reflected, polynomial 0x04C11DB7) from the `crc` crate.
 pub const CRC32: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
@@ -125,6 +141,7 @@ pub struct Image<'a> {
     serial: &'a str,
     crc: u32,
     calibration: Calibration,
+    fixed: Option<FixedSection<'a>>,
 }
 
 impl<'a> Image<'a> {
@@ -143,6 +160,24 @@ impl<'a> Image<'a> {
     /// The unit's calibration.
     pub fn calibration(&self) -> Calibration {
         self.calibration
+    }
+
+    /// The fixed section, if the image has one (structurally checked; see [`FixedSection`]).
+    pub fn fixed(&self) -> Option<FixedSection<'a>> {
+        self.fixed
+    }
+
+    /// The unit's fixed-point calibration: the fixed section's tables copied into `storage` and checked
+    /// with [`FixedCalibration::validate`] ([`FixedStorage::load`]). [`ImageError::MissingSection`] if the
+    /// image has no fixed section, [`ImageError::FixedCapacity`] if the tables do not fit the storage,
+    /// [`ImageError::Value`] with [`ValueError::Fixed`] if they do not validate.
+    pub fn fixed_into<'s, const T: usize, const R: usize, const S: usize>(
+        &self,
+        storage: &'s mut FixedStorage<T, R, S>,
+    ) -> Result<FixedCalibration<'s>, ImageError> {
+        let missing = ImageError::MissingSection { kind: layout::fixed::KIND };
+        storage.load(&self.fixed.ok_or(missing)?)?;
+        storage.calibration().ok_or(missing)
     }
 
     /// The unit serial (printable ASCII, possibly empty).
@@ -222,6 +257,12 @@ impl<'a> Iterator for Sections<'a> {
 const _: () = {
     const fn is_format<T: defmt::Format>() {}
     is_format::<Image<'static>>();
+    is_format::<FixedSection<'static>>();
+    is_format::<DefaultFixedStorage>();
+    is_format::<I32Values<'static>>();
+    is_format::<I16Values<'static>>();
+    is_format::<layout::Elem>();
+    is_format::<layout::Table>();
     is_format::<Section<'static>>();
     is_format::<Sections<'static>>();
     is_format::<ImageInfo<'static>>();

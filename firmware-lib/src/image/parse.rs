@@ -1,8 +1,8 @@
 //! The one checked constructor behind [`Image::parse`]: bytes in, a fully validated [`Image`] or a specific
 //! [`ImageError`] out. The order of the checks is documented in the [module docs](super#order-of-the-checks).
 
-use super::layout::{self, header, model_f32, ranges, section, trailer, Field};
-use super::{crc32, Image, ImageError, ValueError};
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section, trailer, Field};
+use super::{crc32, fixed, Image, ImageError, ValueError};
 use crate::calibration::{
     AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL,
     MAX_SERIES,
@@ -76,31 +76,37 @@ pub(super) fn parse(bytes: &[u8], extent: Extent) -> Result<(Image<'_>, &[u8]), 
         decode_serial(head.get(header::SERIAL.offset..header::SERIAL.end()).ok_or(short(header::LEN))?)?;
     let calibration = decode(&ranges_part, &model_part)?;
     check_values(&calibration)?;
+    let fixed = found.fixed.as_ref().map(|p| fixed::decode(p, &calibration)).transpose()?;
 
     let sequence = field_u32(&header::SEQUENCE)?;
     let calibrated_at =
         array(head, &header::CALIBRATED_AT).map(u64::from_le_bytes).ok_or(short(header::LEN))?;
-    Ok((Image { bytes: image, version, sequence, calibrated_at, serial, crc: stored, calibration }, rest))
+    Ok((
+        Image { bytes: image, version, sequence, calibrated_at, serial, crc: stored, calibration, fixed },
+        rest,
+    ))
 }
 
 /// A known section's payload and where it lies in the image.
-struct Part<'a> {
-    kind: u16,
+pub(super) struct Part<'a> {
+    pub(super) kind: u16,
+    /// The payload length of the layout (for a section of variable length, its smallest).
     expected: usize,
     /// Offset of the payload in the image.
-    base: usize,
-    bytes: &'a [u8],
+    pub(super) base: usize,
+    pub(super) bytes: &'a [u8],
 }
 
 struct Found<'a> {
     count: u32,
     ranges: Option<Part<'a>>,
     model: Option<Part<'a>>,
+    fixed: Option<Part<'a>>,
 }
 
 /// Walks the body's sections: bounds, alignment, known lengths, duplicates, unknown critical types.
 fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
-    let mut found = Found { count: 0, ranges: None, model: None };
+    let mut found = Found { count: 0, ranges: None, model: None, fixed: None };
     let mut rest = body;
     let mut offset = header::LEN;
     while !rest.is_empty() {
@@ -113,17 +119,20 @@ fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
         }
         let (payload, after) = after.split_at_checked(usize::from(len)).ok_or(overrun)?;
         let base = offset + section::HEADER_LEN;
+        // Known sections: where they go, their length, and whether the length is fixed by the layout (the
+        // fixed section's length follows from its own table sizes, checked when it is decoded).
         let slot = match kind {
-            ranges::KIND => Some((&mut found.ranges, ranges::LEN)),
-            model_f32::KIND => Some((&mut found.model, model_f32::LEN)),
+            ranges::KIND => Some((&mut found.ranges, ranges::LEN, true)),
+            model_f32::KIND => Some((&mut found.model, model_f32::LEN, true)),
+            lf::KIND => Some((&mut found.fixed, lf::HEAD_LEN, false)),
             k if k & section::OPTIONAL_BIT != 0 => None,
             k => return Err(ImageError::UnknownSection { kind: k }),
         };
-        if let Some((slot, expected)) = slot {
+        if let Some((slot, expected, exact)) = slot {
             if slot.is_some() {
                 return Err(ImageError::DuplicateSection { kind });
             }
-            if usize::from(len) != expected {
+            if exact && usize::from(len) != expected {
                 return Err(ImageError::SectionLength { kind, found: len, expected: len_u16(expected) });
             }
             *slot = Some(Part { kind, expected, base, bytes: payload });
@@ -153,8 +162,9 @@ fn decode_serial(raw: &[u8]) -> Result<&str, ImageError> {
 }
 
 impl Part<'_> {
-    /// A payload too short for its layout (the walk has already refused those: this is a second guard).
-    fn short(&self) -> ImageError {
+    /// A payload too short for its layout (the walk has already refused those of a fixed length: for them
+    /// this is a second guard).
+    pub(super) fn short(&self) -> ImageError {
         ImageError::SectionLength {
             kind: self.kind,
             found: len_u16(self.bytes.len()),
@@ -167,12 +177,20 @@ impl Part<'_> {
         array(self.bytes, f).ok_or(self.short())
     }
 
-    fn u8(&self, f: &Field) -> Result<u8, ImageError> {
+    pub(super) fn u8(&self, f: &Field) -> Result<u8, ImageError> {
         self.get::<1>(f).map(|[b]| b)
     }
 
-    fn u32(&self, f: &Field) -> Result<u32, ImageError> {
+    pub(super) fn u16(&self, f: &Field) -> Result<u16, ImageError> {
+        self.get(f).map(u16::from_le_bytes)
+    }
+
+    pub(super) fn u32(&self, f: &Field) -> Result<u32, ImageError> {
         self.get(f).map(u32::from_le_bytes)
+    }
+
+    pub(super) fn i32(&self, f: &Field) -> Result<i32, ImageError> {
+        self.get(f).map(i32::from_le_bytes)
     }
 
     fn f32(&self, f: &Field) -> Result<f32, ImageError> {
@@ -192,7 +210,8 @@ impl Part<'_> {
         Ok(out)
     }
 
-    fn reserved(&self, f: &Field) -> Result<(), ImageError> {
+    /// The field's bytes are all zero ([`ImageError::ReservedNotZero`] at the first that is not).
+    pub(super) fn reserved(&self, f: &Field) -> Result<(), ImageError> {
         let raw = self.bytes.get(f.offset..f.end()).ok_or(self.short())?;
         match raw.iter().position(|&b| b != 0) {
             Some(i) => Err(ImageError::ReservedNotZero { offset: len_u32(self.base + f.offset + i) }),
@@ -200,7 +219,7 @@ impl Part<'_> {
         }
     }
 
-    fn flag(&self, f: &Field) -> Result<bool, ImageError> {
+    pub(super) fn flag(&self, f: &Field) -> Result<bool, ImageError> {
         match self.u8(f)? {
             0 => Ok(false),
             1 => Ok(true),

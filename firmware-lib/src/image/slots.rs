@@ -13,6 +13,11 @@
 //!
 //! The slot that loses is reported with the reason: its specific [`ImageError`], or [`Rejected::Older`].
 //!
+//! A unit that corrects with the fixed-point path uses [`select_fixed`]: the same choice, except that an
+//! image counts as valid only if it has a fixed section whose tables load into the caller's
+//! [`FixedStorage`] and pass [`FixedCalibration::validate`]. A newer image with bad tables thus loses to
+//! an older good one, as a corrupted image would.
+//!
 //! # Neither slot valid
 //!
 //! When neither slot holds a valid image, [`select`] returns [`NoValidImage`] with both errors for the log,
@@ -23,9 +28,10 @@
 
 use core::fmt;
 
-use super::{Image, ImageError};
+use super::{layout, FixedStorage, Image, ImageError};
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
+use crate::fixed::FixedCalibration;
 
 /// One of the two slots.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -92,8 +98,39 @@ pub struct NoValidImage {
 
 /// Chooses the newest valid image of two slots (see the [module docs](self)).
 pub fn select<'a>(a: &'a [u8], b: &'a [u8]) -> Result<Selection<'a>, NoValidImage> {
-    match (Image::parse_prefix(a), Image::parse_prefix(b)) {
-        (Ok((ia, _)), Ok((ib, _))) => {
+    let parse = |bytes: &'a [u8]| Image::parse_prefix(bytes).map(|(image, _)| image);
+    choose(parse(a), parse(b))
+}
+
+/// Chooses the newest image of two slots whose fixed-point tables load and validate, and returns it with
+/// its [`FixedCalibration`] in `storage` (see the [module docs](self)). An image without a fixed section
+/// is refused with [`ImageError::MissingSection`]; tables too large for `storage` with
+/// [`ImageError::FixedCapacity`].
+pub fn select_fixed<'a, 's, const T: usize, const R: usize, const S: usize>(
+    a: &'a [u8],
+    b: &'a [u8],
+    storage: &'s mut FixedStorage<T, R, S>,
+) -> Result<(Selection<'a>, FixedCalibration<'s>), NoValidImage> {
+    let mut check = |bytes: &'a [u8]| -> Result<Image<'a>, ImageError> {
+        let (image, _) = Image::parse_prefix(bytes)?;
+        let missing = ImageError::MissingSection { kind: layout::fixed::KIND };
+        storage.load(&image.fixed().ok_or(missing)?)?;
+        Ok(image)
+    };
+    let (ra, rb) = (check(a), check(b));
+    let selection = choose(ra, rb)?;
+    // The storage holds the tables of the last image checked: load the chosen one's (it loaded before).
+    let reload = selection.image.fixed_into(storage).map_err(|e| NoValidImage { a: e, b: e })?;
+    Ok((selection, reload))
+}
+
+/// The choice between two slots' outcomes.
+fn choose<'a>(
+    a: Result<Image<'a>, ImageError>,
+    b: Result<Image<'a>, ImageError>,
+) -> Result<Selection<'a>, NoValidImage> {
+    match (a, b) {
+        (Ok(ia), Ok(ib)) => {
             let key = |i: &Image<'_>| (i.sequence(), i.calibrated_at());
             let (image, slot, loser) =
                 if key(&ib) > key(&ia) { (ib, SlotId::B, ia) } else { (ia, SlotId::A, ib) };
@@ -104,8 +141,8 @@ pub fn select<'a>(a: &'a [u8], b: &'a [u8]) -> Result<Selection<'a>, NoValidImag
             };
             Ok(Selection { image, slot, other })
         }
-        (Ok((image, _)), Err(e)) => Ok(Selection { image, slot: SlotId::A, other: Rejected::Invalid(e) }),
-        (Err(e), Ok((image, _))) => Ok(Selection { image, slot: SlotId::B, other: Rejected::Invalid(e) }),
+        (Ok(image), Err(e)) => Ok(Selection { image, slot: SlotId::A, other: Rejected::Invalid(e) }),
+        (Err(e), Ok(image)) => Ok(Selection { image, slot: SlotId::B, other: Rejected::Invalid(e) }),
         (Err(a), Err(b)) => Err(NoValidImage { a, b }),
     }
 }

@@ -171,6 +171,7 @@ fn layout_parts_are_contiguous_and_sized() {
             "section header" => section::HEADER_LEN,
             "ranges" => ranges::LEN,
             "model_f32" => model_f32::LEN,
+            "fixed" => layout::fixed::HEAD_LEN,
             "trailer" => trailer::LEN,
             other => panic!("unexpected part {other}"),
         };
@@ -179,7 +180,13 @@ fn layout_parts_are_contiguous_and_sized() {
     assert_eq!(header::LEN, 40);
     assert_eq!(ranges::LEN, 32);
     assert_eq!(model_f32::LEN, 184);
+    assert_eq!(layout::fixed::HEAD_LEN, 96);
     assert_eq!(layout::F32_IMAGE_LEN, 268);
+    // Every table's count field is a u16 field of its own part.
+    for t in layout::fixed::TABLES {
+        assert!(layout::fixed::FIELDS.contains(&t.count), "{}", t.name);
+        assert_eq!(t.count.kind, layout::Kind::U16, "{}", t.name);
+    }
 }
 
 #[test]
@@ -758,4 +765,562 @@ fn next_write_plans() {
     assert_eq!(slots::next_write(&a, &b), Ok(slots::WritePlan { slot: SlotId::A, sequence: 3 }));
     let last = unit_image(u32::MAX, 1_700_000_000, 1900.0);
     assert_eq!(slots::next_write(&last, &erased), Err(slots::SequenceExhausted));
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// The fixed section
+
+mod fixed_section {
+    use std::vec;
+
+    use super::*;
+    use crate::error::SensorFault;
+    use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+    use layout::fixed as lf;
+
+    /// Owned fixed-point tables, built by hand: a linear unit (x = (code − 32768)/4096 Np, the structure
+    /// of `fixed::tests::linear`) made uneven on purpose, so that every table's content matters: drifting
+    /// offset and slope, a bias floor and a sensitivity limit, a non-zero residual, a sensor table. The
+    /// converter is that of `hard_unit()` (16 bits, rail margin 16), as the format requires.
+    pub(super) struct Owned {
+        pub header: FixedHeader,
+        pub offset: Vec<i32>,
+        pub inv_slope: Vec<i32>,
+        pub ln_bias: Vec<i32>,
+        pub u_min: Vec<i32>,
+        pub residual: Vec<i16>,
+        pub sensor: Option<Vec<i32>>,
+    }
+
+    pub(super) fn owned(seed: u32, sensor: bool, bias: bool) -> Owned {
+        // A small deterministic generator (an LCG with the usual Numerical Recipes constants, common
+        // practice): the content only has to be uneven and reproducible.
+        let mut state = seed.wrapping_mul(2_654_435_761).wrapping_add(1);
+        let mut next = move |span: i32| {
+            state = state.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
+            (state >> 8) as i32 % span
+        };
+        let header = FixedHeader {
+            layout: LAYOUT_VERSION,
+            adc_max_code: 65535,
+            rail_margin: 16,
+            temp_min: 0,
+            temp_max: 50_000 * 1024,
+            temp_lo: -5_000 * 1024,
+            temp_hi: 55_000 * 1024,
+            t_knots: 4,
+            t_origin: -5_000 * 1024,
+            t_inv_step: 13_743_895,
+            offset_frac: 14,
+            inv_slope_frac: 42,
+            bias_bend: bias,
+            sensitivity_limit: bias,
+            xa_knots: 5,
+            xa_origin: -9 * (1 << 24),
+            xa_inv_step: 3_728_270,
+            residual_frac: 16,
+            x_min: -7 * (1 << 24),
+            x_max: 7 * (1 << 24),
+        };
+        let q24 = 1 << 24;
+        Owned {
+            header,
+            offset: (0..6).map(|i| (32768 << 14) + 300_000 * i + next(50_000)).collect(),
+            inv_slope: (0..6).map(|i| (1 << 30) - 2_000_000 * i + next(100_000)).collect(),
+            ln_bias: if bias {
+                (0..6).map(|i| -11 * q24 + i * q24 / 2 + next(1000)).collect()
+            } else {
+                vec![]
+            },
+            u_min: if bias { (0..6).map(|i| -10 * q24 + i * q24 / 2 + next(1000)).collect() } else { vec![] },
+            residual: (0..42).map(|_| next(400) as i16 - 200).collect(),
+            sensor: sensor.then(|| (0..19).map(|i| (i - 1) * 256 * 10 * 1024 + next(500)).collect()),
+        }
+    }
+
+    impl Owned {
+        pub(super) fn view(&self) -> FixedCalibration<'_> {
+            FixedCalibration {
+                header: self.header,
+                offset: &self.offset,
+                inv_slope: &self.inv_slope,
+                ln_bias: &self.ln_bias,
+                u_min: &self.u_min,
+                residual: &self.residual,
+                sensor: self.sensor.as_ref().map(|knots| SensorTable {
+                    code_lo: 100,
+                    code_hi: 4000,
+                    step_log2: 8,
+                    fault_below: SensorFault::OutOfModelRange,
+                    far_below_code: 10,
+                    fault_far_below: SensorFault::Short,
+                    fault_above: SensorFault::OutOfModelRange,
+                    far_above_code: 4090,
+                    fault_far_above: SensorFault::Open,
+                    knots,
+                }),
+            }
+        }
+    }
+
+    /// Storage of the size of these small tables.
+    type Small = FixedStorage<6, 42, 19>;
+
+    pub(super) fn image_with(fixed: &FixedCalibration<'_>) -> Vec<u8> {
+        let cal = hard_unit();
+        let len = encoded_len_with_fixed(&cal, Some(fixed), &[]).unwrap();
+        let mut buf = vec![0u8; len];
+        assert_eq!(write_with_fixed(&mut buf, &INFO, &cal, Some(fixed), &[]).unwrap(), len);
+        buf
+    }
+
+    /// Offset of the fixed section's payload in an image written by `write_with_fixed` (after the two
+    /// required sections and its own section header).
+    const P0: usize = 268;
+
+    fn edit(img: &[u8], at: usize, bytes: &[u8]) -> Vec<u8> {
+        let mut v = img.to_vec();
+        v[at..at + bytes.len()].copy_from_slice(bytes);
+        fix_crc(&mut v);
+        v
+    }
+
+    /// Every correction the tables can be asked for, on a grid of log codes, temperatures and sensor codes.
+    fn corrections(c: &FixedCalibration<'_>) -> Vec<Result<crate::fixed::FixedReading, Error>> {
+        let mut out = Vec::new();
+        for code in (0..=66_000u32).step_by(997).chain([16, 17, 65519, 65520]) {
+            for t in [-6_000, -5_000, 0, 12_345, 25_000, 50_000, 55_000, 55_001] {
+                out.push(c.correct(code, t));
+            }
+            for tc in [0u32, 9, 10, 99, 100, 1234, 4000, 4001, 4090, 4091] {
+                out.push(c.correct_raw(code, tc));
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn hand_built_tables_validate() {
+        for (sensor, bias) in [(true, true), (false, false), (true, false), (false, true)] {
+            assert_eq!(owned(7, sensor, bias).view().validate(), Ok(()), "sensor {sensor}, bias {bias}");
+        }
+    }
+
+    #[test]
+    fn tables_image_tables_round_trip_bit_exact() {
+        for (seed, sensor, bias) in [(1, true, true), (2, false, false), (3, true, false), (4, false, true)] {
+            let o = owned(seed, sensor, bias);
+            let img = image_with(&o.view());
+            let parsed = Image::parse(&img).unwrap();
+            let kinds: Vec<u16> = parsed.sections().map(|s| s.kind).collect();
+            assert_eq!(kinds, [ranges::KIND, model_f32::KIND, lf::KIND]);
+            assert_eq!(bits(&parsed.calibration()), bits(&hard_unit()));
+            let mut storage = Small::new();
+            let loaded = parsed.fixed_into(&mut storage).unwrap();
+            // Every field and every table entry, bit for bit (FixedCalibration compares its slices).
+            assert_eq!(loaded, o.view(), "seed {seed}");
+            // The section's own accessors give the same tables, without a copy.
+            let sec = parsed.fixed().unwrap();
+            assert_eq!(sec.header(), o.header);
+            assert!(sec.offset().eq(o.offset.iter().copied()));
+            assert!(sec.inv_slope().eq(o.inv_slope.iter().copied()));
+            assert!(sec.ln_bias().eq(o.ln_bias.iter().copied()));
+            assert!(sec.u_min().eq(o.u_min.iter().copied()));
+            assert!(sec.residual().eq(o.residual.iter().copied()));
+            assert!(sec.sensor_knots().eq(o.sensor.iter().flatten().copied()));
+            assert_eq!(sec.len_of(&lf::RESIDUAL), 42);
+            assert_eq!(sec.len_of(&lf::LN_BIAS), if bias { 6 } else { 0 });
+            // Writing the loaded tables again gives the same bytes.
+            assert_eq!(image_with(&loaded), img);
+        }
+    }
+
+    #[test]
+    fn the_fixed_correction_from_the_image_equals_the_one_from_memory() {
+        let o = owned(11, true, true);
+        let img = image_with(&o.view());
+        let mut storage = DefaultFixedStorage::new();
+        let loaded = Image::parse(&img).unwrap().fixed_into(&mut storage).unwrap();
+        let (a, b) = (corrections(&loaded), corrections(&o.view()));
+        assert_eq!(a, b);
+        // The grid does reach values and every kind of refusal.
+        assert!(a.iter().filter(|r| r.is_ok()).count() > 100);
+        for name in ["saturated", "below_range", "above_range", "temperature_out_of_range", "sensor_fault"] {
+            assert!(a.iter().any(|r| r.is_err_and(|e| e.name() == name)), "{name}");
+        }
+    }
+
+    #[test]
+    fn images_without_the_section_have_no_fixed_calibration() {
+        let img = typical();
+        let parsed = Image::parse(&img).unwrap();
+        assert!(parsed.fixed().is_none());
+        let mut storage = Small::new();
+        assert_eq!(parsed.fixed_into(&mut storage), Err(ImageError::MissingSection { kind: lf::KIND }));
+        assert!(storage.calibration().is_none());
+    }
+
+    #[test]
+    fn every_single_bit_flip_of_an_image_with_the_section_is_rejected() {
+        let img = image_with(&owned(5, true, true).view());
+        // 268 bytes of the f32 image (CRC included), the section header, its fields and its tables.
+        assert_eq!(img.len(), 268 + 4 + 96 + 4 * (4 * 6 + 19) + 2 * 42);
+        assert_eq!(check_every_bit_flip(&img), img.len() * 8);
+    }
+
+    #[test]
+    fn every_truncation_of_an_image_with_the_section_is_rejected() {
+        let img = image_with(&owned(5, true, true).view());
+        for n in 0..img.len() {
+            let want = if n < header::LEN { header::LEN } else { img.len() };
+            let e = Image::parse(&img[..n]).unwrap_err();
+            assert_eq!(e, ImageError::Truncated { needed: want as u32, available: n as u32 }, "length {n}");
+        }
+        // A section cut short inside an image whose lengths were rewritten to match (a writer that lost the
+        // end of the tables): refused by the section's own sizes.
+        for cut in [4usize, 8, 84, 200] {
+            let mut v = img[..img.len() - 4 - cut].to_vec();
+            let len = u16::from_le_bytes([v[266], v[267]]) - cut as u16;
+            v[266..268].copy_from_slice(&len.to_le_bytes());
+            let total = (v.len() + 4) as u32;
+            v[8..12].copy_from_slice(&total.to_le_bytes());
+            v.extend_from_slice(&[0; 4]);
+            fix_crc(&mut v);
+            let e = Image::parse(&v).unwrap_err();
+            assert!(
+                matches!(
+                    e,
+                    ImageError::SectionLength { kind: lf::KIND, .. } | ImageError::SectionAlignment { .. }
+                ),
+                "cut {cut}: {e:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn inconsistent_table_sizes_have_their_own_error() {
+        let img = image_with(&owned(5, true, true).view());
+        let at = |f: &layout::Field| P0 + f.offset;
+        let size_err = |table, found, expected| {
+            Err(ImageError::Value(ValueError::FixedTableSize { table, found, expected }))
+        };
+        // A count that disagrees with the dimensions.
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::OFFSET_LEN), &7u16.to_le_bytes())),
+            size_err("offset", 7, 6)
+        );
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::U_MIN_LEN), &0u16.to_le_bytes())),
+            size_err("u_min", 0, 6)
+        );
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::RESIDUAL_LEN), &48u16.to_le_bytes())),
+            size_err("residual", 48, 42)
+        );
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::SENSOR_KNOTS_LEN), &20u16.to_le_bytes())),
+            size_err("sensor_knots", 20, 19)
+        );
+        // Dimensions that disagree with the counts: the first table that does not fit is named.
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::T_KNOTS), &5u16.to_le_bytes())),
+            size_err("offset", 6, 7)
+        );
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::XA_KNOTS), &6u16.to_le_bytes())),
+            size_err("residual", 42, 48)
+        );
+        // A bias-bend table without the bias bend.
+        assert_eq!(Image::parse(&edit(&img, at(&lf::BIAS_BEND), &[0])), size_err("ln_bias", 6, 0));
+        // A sensor table whose span calls for more knots (4200 codes in 256-code steps: 17 segments, not 16).
+        assert_eq!(
+            Image::parse(&edit(&img, at(&lf::SENSOR_CODE_HI), &4300u32.to_le_bytes())),
+            size_err("sensor_knots", 19, 20)
+        );
+    }
+
+    #[test]
+    fn a_payload_longer_or_shorter_than_its_tables_is_refused() {
+        // Assembled by hand with the documented layout: the payload with 4 extra bytes, then 4 bytes fewer.
+        let img = image_with(&owned(5, true, true).view());
+        let (r, m) = payloads(&img);
+        let fixed = img[P0..img.len() - 4].to_vec();
+        let want = fixed.len() as u16;
+        let mut longer = fixed.clone();
+        longer.extend_from_slice(&[0; 4]);
+        let v = assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (lf::KIND, &longer)]);
+        assert_eq!(
+            Image::parse(&v).unwrap_err(),
+            ImageError::SectionLength { kind: lf::KIND, found: want + 4, expected: want }
+        );
+        let v =
+            assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (lf::KIND, &fixed[..fixed.len() - 4])]);
+        assert_eq!(
+            Image::parse(&v).unwrap_err(),
+            ImageError::SectionLength { kind: lf::KIND, found: want - 4, expected: want }
+        );
+        // Shorter than the section's fields.
+        let v = assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (lf::KIND, &fixed[..40])]);
+        assert_eq!(
+            Image::parse(&v).unwrap_err(),
+            ImageError::SectionLength { kind: lf::KIND, found: 40, expected: 96 }
+        );
+        // In another order, and twice.
+        let v = assemble(3, &[(lf::KIND, &fixed), (model_f32::KIND, &m), (ranges::KIND, &r)]);
+        assert!(Image::parse(&v).unwrap().fixed().is_some());
+        let v =
+            assemble(4, &[(ranges::KIND, &r), (lf::KIND, &fixed), (model_f32::KIND, &m), (lf::KIND, &fixed)]);
+        assert_eq!(Image::parse(&v).unwrap_err(), ImageError::DuplicateSection { kind: lf::KIND });
+    }
+
+    #[test]
+    fn section_value_errors() {
+        let img = image_with(&owned(5, true, true).view());
+        let at = |f: &layout::Field| P0 + f.offset;
+        let parse = |v: Vec<u8>| Image::parse(&v).map(|_| ());
+        assert_eq!(
+            parse(edit(&img, at(&lf::SENSITIVITY_LIMIT), &[2])),
+            Err(ImageError::BadFlag { field: "sensitivity_limit", found: 2 })
+        );
+        assert_eq!(
+            parse(edit(&img, at(&lf::FAULT_FAR_ABOVE), &[3])),
+            Err(ImageError::BadEnum { field: "fault_far_above", found: 3 })
+        );
+        assert_eq!(
+            parse(edit(&img, at(&lf::RESERVED2) + 1, &[1])),
+            Err(ImageError::ReservedNotZero { offset: (at(&lf::RESERVED2) + 1) as u32 })
+        );
+        assert_eq!(
+            parse(edit(&img, at(&lf::ADC_MAX_CODE), &4095u32.to_le_bytes())),
+            Err(ImageError::Value(ValueError::FixedMismatch { field: "adc_max_code" }))
+        );
+        assert_eq!(
+            parse(edit(&img, at(&lf::RAIL_MARGIN), &8u32.to_le_bytes())),
+            Err(ImageError::Value(ValueError::FixedMismatch { field: "rail_margin" }))
+        );
+        // Without a sensor table its fields are stored as zero.
+        let no_sensor = image_with(&owned(5, false, true).view());
+        assert_eq!(
+            parse(edit(&no_sensor, at(&lf::SENSOR_CODE_HI), &[1])),
+            Err(ImageError::ReservedNotZero { offset: at(&lf::SENSOR_CODE_HI) as u32 })
+        );
+        assert_eq!(
+            parse(edit(&no_sensor, at(&lf::FAULT_BELOW), &[1])),
+            Err(ImageError::ReservedNotZero { offset: at(&lf::FAULT_BELOW) as u32 })
+        );
+    }
+
+    #[test]
+    fn padding_after_the_residual_is_zero() {
+        // 5 temperature knots: 7 × 7 = 49 residual entries, 98 bytes, 2 bytes of padding.
+        let mut o = owned(5, false, false);
+        o.header.t_knots = 5; // the 20 K grid now reaches past the accepted range, which is allowed
+        o.offset.push(o.offset[5]);
+        o.inv_slope.push(o.inv_slope[5]);
+        o.residual.extend_from_slice(&[3; 7]);
+        assert_eq!(o.view().validate(), Ok(()));
+        let img = image_with(&o.view());
+        let pad = img.len() - 4 - 2;
+        assert_eq!(&img[pad..pad + 2], &[0, 0]);
+        assert_eq!(
+            Image::parse(&edit(&img, pad + 1, &[0x40])).unwrap_err(),
+            ImageError::ReservedNotZero { offset: (pad + 1) as u32 }
+        );
+    }
+
+    #[test]
+    fn table_values_are_checked_when_loaded() {
+        // A zero inverse slope with a correct CRC (a faulty writer elsewhere): the structure is fine, the
+        // tables fail `FixedCalibration::validate` when they are loaded, and nothing is lent.
+        let img = image_with(&owned(5, true, true).view());
+        let inv0 = P0 + 96 + 4 * 6 + 4 * 3; // inv_slope[3]
+        let bad = edit(&img, inv0, &0i32.to_le_bytes());
+        let parsed = Image::parse(&bad).unwrap();
+        let mut storage = Small::new();
+        assert_eq!(
+            parsed.fixed_into(&mut storage),
+            Err(ImageError::Value(ValueError::Fixed(Error::InvalidCalibration(
+                CalibrationDefect::ZeroSlope
+            ))))
+        );
+        assert!(storage.calibration().is_none());
+        // A layout version this build does not know.
+        let bad = edit(&img, P0 + lf::LAYOUT.offset, &[9]);
+        assert!(matches!(
+            Image::parse(&bad).unwrap().fixed_into(&mut storage),
+            Err(ImageError::Value(ValueError::Fixed(_)))
+        ));
+        // A failed load forgets what was loaded before.
+        assert!(Image::parse(&img).unwrap().fixed_into(&mut storage).is_ok());
+        assert!(storage.calibration().is_some());
+        let sec = Image::parse(&bad).unwrap().fixed().unwrap();
+        assert!(storage.load(&sec).is_err());
+        assert!(storage.calibration().is_none());
+    }
+
+    #[test]
+    fn tables_larger_than_the_storage_are_a_capacity_error() {
+        let img = image_with(&owned(5, true, true).view());
+        let parsed = Image::parse(&img).unwrap();
+        let capacity = |table, needed, capacity| Err(ImageError::FixedCapacity { table, needed, capacity });
+        assert_eq!(parsed.fixed_into(&mut FixedStorage::<5, 42, 19>::new()), capacity("offset", 6, 5));
+        assert_eq!(parsed.fixed_into(&mut FixedStorage::<6, 41, 19>::new()), capacity("residual", 42, 41));
+        assert_eq!(
+            parsed.fixed_into(&mut FixedStorage::<6, 42, 18>::new()),
+            capacity("sensor_knots", 19, 18)
+        );
+        assert!(parsed.fixed_into(&mut FixedStorage::<100, 1000, 100>::new()).is_ok());
+        assert!(std::format!(
+            "{}",
+            ImageError::FixedCapacity { table: "residual", needed: 42, capacity: 41 }
+        )
+        .contains("residual has 42 entries, the storage holds 41"));
+    }
+
+    #[test]
+    fn the_writer_refuses_what_a_reader_would() {
+        let cal = hard_unit();
+        let mut buf = [0xa5u8; 1024];
+        let mut o = owned(5, true, true);
+        o.offset.push(1);
+        let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
+        assert_eq!(
+            e,
+            WriteError::Value(ValueError::FixedTableSize { table: "offset", found: 7, expected: 6 })
+        );
+        let mut o = owned(5, true, true);
+        o.header.bias_bend = false;
+        let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
+        assert_eq!(
+            e,
+            WriteError::Value(ValueError::FixedTableSize { table: "ln_bias", found: 6, expected: 0 })
+        );
+        let mut o = owned(5, true, true);
+        o.header.rail_margin = 4;
+        let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
+        assert_eq!(e, WriteError::Value(ValueError::FixedMismatch { field: "rail_margin" }));
+        let mut o = owned(5, true, true);
+        o.inv_slope[2] = -1;
+        let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
+        assert_eq!(
+            e,
+            WriteError::Value(ValueError::Fixed(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)))
+        );
+        // The fixed section only goes in through its own argument.
+        let o = owned(5, true, true);
+        let extra = [Section { kind: lf::KIND, payload: &[0; 96] }];
+        assert_eq!(
+            write_with_sections(&mut buf, &INFO, &cal, &extra).unwrap_err(),
+            WriteError::BadSection { kind: lf::KIND }
+        );
+        // Too small a buffer.
+        let need = encoded_len_with_fixed(&cal, Some(&o.view()), &[]).unwrap();
+        let e = write_with_fixed(&mut buf[..need - 1], &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
+        assert_eq!(e, WriteError::BufferTooSmall { needed: need as u32, available: need as u32 - 1 });
+        assert!(buf.iter().all(|&b| b == 0xa5), "a failed write changed the buffer");
+        // More tables than a section holds: 128 × 2 temperature knots and 300 x̃ knots.
+        let mut big = owned(5, false, false);
+        big.header.t_knots = 126;
+        big.header.xa_knots = 298;
+        big.offset = vec![32768 << 14; 128];
+        big.inv_slope = vec![1 << 30; 128];
+        big.residual = vec![0; 128 * 300];
+        assert!(matches!(
+            write_with_fixed(&mut buf, &INFO, &cal, Some(&big.view()), &[]),
+            Err(WriteError::SectionTooLong { kind: lf::KIND, .. })
+        ));
+    }
+
+    #[test]
+    fn optional_sections_after_the_fixed_one_are_kept() {
+        let o = owned(5, true, true);
+        let cal = hard_unit();
+        let note = [7u8; 12];
+        let extra = [Section { kind: 0x8040, payload: &note }];
+        let len = encoded_len_with_fixed(&cal, Some(&o.view()), &extra).unwrap();
+        let mut buf = vec![0u8; len];
+        write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &extra).unwrap();
+        let img = Image::parse(&buf).unwrap();
+        let kinds: Vec<u16> = img.sections().map(|s| s.kind).collect();
+        assert_eq!(kinds, [ranges::KIND, model_f32::KIND, lf::KIND, 0x8040]);
+        assert_eq!(img.section(0x8040), Some(&note[..]));
+        assert_eq!(img.fixed_into(&mut Small::new()).unwrap(), o.view());
+    }
+
+    fn slot_with(seq: u32, o: &Owned) -> Vec<u8> {
+        let cal = hard_unit();
+        let info = ImageInfo { sequence: seq, ..INFO };
+        let len = encoded_len_with_fixed(&cal, Some(&o.view()), &[]).unwrap();
+        let mut v = vec![0u8; len];
+        write_with_fixed(&mut v, &info, &cal, Some(&o.view()), &[]).unwrap();
+        v.extend_from_slice(&[0xff; 40]);
+        v
+    }
+
+    #[test]
+    fn select_fixed_prefers_the_newest_image_whose_tables_load() {
+        let old = owned(1, true, true);
+        let new = owned(2, true, true);
+        let (a, b) = (slot_with(3, &old), slot_with(4, &new));
+        let mut storage = Small::new();
+        let (s, c) = slots::select_fixed(&a, &b, &mut storage).unwrap();
+        assert_eq!((s.slot, s.image.sequence()), (SlotId::B, 4));
+        assert_eq!(c, new.view());
+        let (s, c) = slots::select_fixed(&b, &a, &mut storage).unwrap();
+        assert_eq!(s.slot, SlotId::A);
+        assert_eq!(c, new.view());
+
+        // The newer image's tables do not validate (correct CRC): the older one is used.
+        let mut bad = b.clone();
+        let n = bad.len() - 40;
+        bad[P0 + 96 + 24..P0 + 96 + 28].copy_from_slice(&0i32.to_le_bytes());
+        fix_crc(&mut bad[..n]);
+        assert!(Image::parse_prefix(&bad).is_ok(), "the structure is fine");
+        let (s, c) = slots::select_fixed(&a, &bad, &mut storage).unwrap();
+        assert_eq!(s.slot, SlotId::A);
+        assert_eq!(c, old.view());
+        assert!(matches!(s.other, Rejected::Invalid(ImageError::Value(ValueError::Fixed(_)))));
+
+        // An image without a fixed section does not count; with none left, the unit is not calibrated.
+        let f32_only = unit_image(9, 1_700_000_000, 1900.0);
+        let (s, _) = slots::select_fixed(&f32_only, &a, &mut storage).unwrap();
+        assert_eq!(s.slot, SlotId::B);
+        assert_eq!(s.other, Rejected::Invalid(ImageError::MissingSection { kind: lf::KIND }));
+        let e = slots::select_fixed(&f32_only, &[0xff; 400], &mut storage).unwrap_err();
+        assert_eq!(e.a, ImageError::MissingSection { kind: lf::KIND });
+        // The f32 choice is unchanged: the newest valid image, fixed section or not.
+        assert_eq!(slots::select(&f32_only, &a).unwrap().slot, SlotId::A);
+        // Tables too large for the storage count as invalid too.
+        let e = slots::select_fixed(&a, &b, &mut FixedStorage::<6, 42, 4>::new()).unwrap_err();
+        assert!(matches!(e.a, ImageError::FixedCapacity { table: "sensor_knots", .. }));
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 256, ..ProptestConfig::default() })]
+
+        /// Someone else's images with a fixed section: byte errors anywhere in it, with the CRC recomputed.
+        /// Whatever is accepted re-encodes to the same bytes once loaded, and corrects without panicking;
+        /// what does not load is refused with an error, not a panic.
+        #[test]
+        fn corrupted_fixed_sections_are_refused_or_canonical(
+            edits in proptest::collection::vec((P0..P0 + 96 + 200, any::<u8>()), 1..5),
+            seed in 0u32..1000,
+        ) {
+            let o = owned(seed, true, true);
+            let mut img = image_with(&o.view());
+            for (at, v) in edits {
+                let at = at.min(img.len() - 5);
+                img[at] = v;
+            }
+            fix_crc(&mut img);
+            if let Ok(p) = Image::parse(&img) {
+                let mut storage = FixedStorage::<64, 4096, 256>::new();
+                if let Ok(c) = p.fixed_into(&mut storage) {
+                    prop_assert_eq!(c.validate(), Ok(()));
+                    prop_assert_eq!(image_with(&c), img);
+                    let _ = corrections(&c);
+                }
+            }
+        }
+    }
 }

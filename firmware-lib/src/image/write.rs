@@ -2,10 +2,12 @@
 //! byte is written, with the same value checks the parser applies, so the writer never produces an image
 //! the parser refuses and never leaves a half-written buffer behind an error.
 
-use super::layout::{self, header, model_f32, ranges, section, trailer, Field};
+use super::fixed::{check_for_write, fault_code};
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section, trailer, Field};
 use super::parse::{check_values, len_u32};
 use super::{crc32, Section, WriteError};
 use crate::calibration::Calibration;
+use crate::fixed::FixedCalibration;
 
 /// What the header says about the unit, besides its calibration.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -22,10 +24,30 @@ pub struct ImageInfo<'s> {
 
 /// The length of an image holding the required sections and `extra`, or why it cannot be written.
 pub fn encoded_len(extra: &[Section<'_>]) -> Result<usize, WriteError> {
-    let mut len = layout::F32_IMAGE_LEN;
+    extra_len(layout::F32_IMAGE_LEN, extra)
+}
+
+/// The length of an image holding the required sections, the fixed section of `fixed` (if given) and
+/// `extra`, or why it cannot be written. `calibration` is the one the image will carry (the fixed section
+/// must describe its converter).
+pub fn encoded_len_with_fixed(
+    calibration: &Calibration,
+    fixed: Option<&FixedCalibration<'_>>,
+    extra: &[Section<'_>],
+) -> Result<usize, WriteError> {
+    let base = match fixed {
+        None => layout::F32_IMAGE_LEN,
+        Some(f) => layout::F32_IMAGE_LEN + section::HEADER_LEN + check_for_write(f, calibration)?.0,
+    };
+    extra_len(base, extra)
+}
+
+fn extra_len(base: usize, extra: &[Section<'_>]) -> Result<usize, WriteError> {
+    let mut len = base;
     for s in extra {
         let bad = WriteError::BadSection { kind: s.kind };
         if s.kind & section::OPTIONAL_BIT == 0
+            || s.kind == lf::KIND
             || !s.payload.len().is_multiple_of(section::ALIGN)
             || s.payload.len() > usize::from(u16::MAX)
         {
@@ -42,26 +64,41 @@ pub fn encoded_len(extra: &[Section<'_>]) -> Result<usize, WriteError> {
 /// Writes an image of `calibration` (the two required sections) at the start of `buf` and returns its
 /// length, [`layout::F32_IMAGE_LEN`] bytes.
 pub fn write(buf: &mut [u8], info: &ImageInfo<'_>, calibration: &Calibration) -> Result<usize, WriteError> {
-    write_with_sections(buf, info, calibration, &[])
+    write_with_fixed(buf, info, calibration, None, &[])
 }
 
 /// Writes an image with the required sections followed by `extra` sections, which must be optional
-/// types (bit 15 set) with payloads of a multiple of 4 bytes. Returns the image's length.
+/// types (bit 15 set) other than the fixed section's, with payloads of a multiple of 4 bytes. Returns the
+/// image's length.
 pub fn write_with_sections(
     buf: &mut [u8],
     info: &ImageInfo<'_>,
     calibration: &Calibration,
     extra: &[Section<'_>],
 ) -> Result<usize, WriteError> {
+    write_with_fixed(buf, info, calibration, None, extra)
+}
+
+/// Writes an image with the required sections, the fixed section of `fixed` if given (checked as a
+/// reader checks it: table sizes, the converter against `calibration`, [`FixedCalibration::validate`]),
+/// then `extra` sections (as for [`write_with_sections`]). Returns the image's length.
+pub fn write_with_fixed(
+    buf: &mut [u8],
+    info: &ImageInfo<'_>,
+    calibration: &Calibration,
+    fixed: Option<&FixedCalibration<'_>>,
+    extra: &[Section<'_>],
+) -> Result<usize, WriteError> {
     let serial = encode_serial(info.serial)?;
     check_values(calibration)?;
-    let len = encoded_len(extra)?;
-    let count = u16::try_from(2 + extra.len()).map_err(|_| WriteError::TooLong { len: len_u32(len) })?;
+    let len = encoded_len_with_fixed(calibration, fixed, extra)?;
+    let sections = 2 + usize::from(fixed.is_some()) + extra.len();
+    let count = u16::try_from(sections).map_err(|_| WriteError::TooLong { len: len_u32(len) })?;
     let available = len_u32(buf.len());
     let too_small = WriteError::BufferTooSmall { needed: len_u32(len), available };
     let out = buf.get_mut(..len).ok_or(too_small)?;
     let head = Head { serial, count, len, info };
-    let written = fill(out, &head, calibration, extra);
+    let written = fill(out, &head, calibration, fixed, extra);
     if written.is_err() {
         // Only reachable if the writer and the layout disagreed; leave no partial image behind.
         out.fill(0);
@@ -81,6 +118,7 @@ fn fill(
     out: &mut [u8],
     h: &Head<'_>,
     calibration: &Calibration,
+    fixed: Option<&FixedCalibration<'_>>,
     extra: &[Section<'_>],
 ) -> Result<(), WriteError> {
     let mut w = Writer { out, base: 0 };
@@ -94,6 +132,10 @@ fn fill(
     let mut at = header::LEN;
     at = w.section(at, ranges::KIND, ranges::LEN, |p| put_ranges(p, calibration))?;
     at = w.section(at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
+    if let Some(f) = fixed {
+        let (len, _) = check_for_write(f, calibration)?;
+        at = w.section(at, lf::KIND, len, |p| put_fixed(p, f))?;
+    }
     for s in extra {
         at = w.section(at, s.kind, s.payload.len(), |p| p.put_at(0, s.payload))?;
     }
@@ -144,6 +186,18 @@ impl Writer<'_> {
     }
 
     fn f32(&mut self, f: &Field, v: f32) -> Result<(), WriteError> {
+        self.put(f, &v.to_le_bytes())
+    }
+
+    fn u16(&mut self, f: &Field, v: u16) -> Result<(), WriteError> {
+        self.put(f, &v.to_le_bytes())
+    }
+
+    fn u32(&mut self, f: &Field, v: u32) -> Result<(), WriteError> {
+        self.put(f, &v.to_le_bytes())
+    }
+
+    fn i32(&mut self, f: &Field, v: i32) -> Result<(), WriteError> {
         self.put(f, &v.to_le_bytes())
     }
 
@@ -208,4 +262,86 @@ fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
     w.f32(&mf::RESIDUAL_X_CENTER, m.residual.x_center)?;
     w.f32(&mf::RESIDUAL_X_HALF_SPAN, m.residual.x_half_span)?;
     w.f32s(&mf::RESIDUAL, &m.residual.coeffs)
+}
+
+/// Writes the fixed section's payload (sizes already checked by [`check_for_write`]): the fields, then the
+/// tables back to back in the layout's order, then zero padding (the buffer is written in full, so the
+/// padding is written explicitly).
+fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteError> {
+    let h = &f.header;
+    let count =
+        |n: usize| u16::try_from(n).map_err(|_| WriteError::SectionTooLong { kind: lf::KIND, len: u32::MAX });
+    w.put(&lf::LAYOUT, &[h.layout])?;
+    w.put(&lf::BIAS_BEND, &[u8::from(h.bias_bend)])?;
+    w.put(&lf::SENSITIVITY_LIMIT, &[u8::from(h.sensitivity_limit)])?;
+    w.put(&lf::HAS_SENSOR, &[u8::from(f.sensor.is_some())])?;
+    w.put(&lf::OFFSET_FRAC, &[h.offset_frac])?;
+    w.put(&lf::INV_SLOPE_FRAC, &[h.inv_slope_frac])?;
+    w.put(&lf::RESIDUAL_FRAC, &[h.residual_frac])?;
+    w.put(&lf::RESERVED, &[0])?;
+    w.u16(&lf::T_KNOTS, h.t_knots)?;
+    w.u16(&lf::XA_KNOTS, h.xa_knots)?;
+    w.u32(&lf::ADC_MAX_CODE, h.adc_max_code)?;
+    w.u32(&lf::RAIL_MARGIN, h.rail_margin)?;
+    w.i32(&lf::TEMP_MIN, h.temp_min)?;
+    w.i32(&lf::TEMP_MAX, h.temp_max)?;
+    w.i32(&lf::TEMP_LO, h.temp_lo)?;
+    w.i32(&lf::TEMP_HI, h.temp_hi)?;
+    w.i32(&lf::T_ORIGIN, h.t_origin)?;
+    w.i32(&lf::T_INV_STEP, h.t_inv_step)?;
+    w.i32(&lf::XA_ORIGIN, h.xa_origin)?;
+    w.i32(&lf::XA_INV_STEP, h.xa_inv_step)?;
+    w.i32(&lf::X_MIN, h.x_min)?;
+    w.i32(&lf::X_MAX, h.x_max)?;
+    let knots: &[i32] = f.sensor.as_ref().map_or(&[], |s| s.knots);
+    w.u16(&lf::OFFSET_LEN, count(f.offset.len())?)?;
+    w.u16(&lf::INV_SLOPE_LEN, count(f.inv_slope.len())?)?;
+    w.u16(&lf::LN_BIAS_LEN, count(f.ln_bias.len())?)?;
+    w.u16(&lf::U_MIN_LEN, count(f.u_min.len())?)?;
+    w.u16(&lf::RESIDUAL_LEN, count(f.residual.len())?)?;
+    w.u16(&lf::SENSOR_KNOTS_LEN, count(knots.len())?)?;
+    match &f.sensor {
+        Some(s) => {
+            w.u32(&lf::SENSOR_CODE_LO, s.code_lo)?;
+            w.u32(&lf::SENSOR_CODE_HI, s.code_hi)?;
+            w.u32(&lf::SENSOR_FAR_BELOW, s.far_below_code)?;
+            w.u32(&lf::SENSOR_FAR_ABOVE, s.far_above_code)?;
+            w.put(&lf::SENSOR_STEP_LOG2, &[s.step_log2])?;
+            w.put(&lf::FAULT_BELOW, &[fault_code(s.fault_below)])?;
+            w.put(&lf::FAULT_FAR_BELOW, &[fault_code(s.fault_far_below)])?;
+            w.put(&lf::FAULT_ABOVE, &[fault_code(s.fault_above)])?;
+            w.put(&lf::FAULT_FAR_ABOVE, &[fault_code(s.fault_far_above)])?;
+        }
+        None => {
+            for fld in [lf::SENSOR_CODE_LO, lf::SENSOR_CODE_HI, lf::SENSOR_FAR_BELOW, lf::SENSOR_FAR_ABOVE] {
+                w.u32(&fld, 0)?;
+            }
+            for fld in [
+                lf::SENSOR_STEP_LOG2,
+                lf::FAULT_BELOW,
+                lf::FAULT_FAR_BELOW,
+                lf::FAULT_ABOVE,
+                lf::FAULT_FAR_ABOVE,
+            ] {
+                w.put(&fld, &[0])?;
+            }
+        }
+    }
+    w.put(&lf::RESERVED2, &[0; 3])?;
+    let mut at = lf::HEAD_LEN;
+    for table in [f.offset, f.inv_slope, f.ln_bias, f.u_min, knots] {
+        for v in table {
+            w.put_at(at, &v.to_le_bytes())?;
+            at += 4;
+        }
+    }
+    for v in f.residual {
+        w.put_at(at, &v.to_le_bytes())?;
+        at += 2;
+    }
+    while !at.is_multiple_of(section::ALIGN) {
+        w.put_at(at, &[0])?;
+        at += 1;
+    }
+    Ok(())
 }

@@ -6,8 +6,10 @@
 //! | [`error_vs_x`] | the error in x against x at each chamber set-point, before and after correction |
 //! | [`error_vs_temperature`] | rms and max error per temperature bin over a validation run, before and after |
 //! | [`f32_error_map`] | the f32 correction's error against the f64 reference over (ADC code, temperature), in LSB |
+//! | [`fixed_error_map`] | the same for the integer fixed-point correction, worst of several codes per cell |
 //!
-//! Corrections are made with firmware-lib's f32 [`Calibration::correct`], the code the MCU runs.
+//! Corrections are made with firmware-lib's f32 [`Calibration::correct`] and its fixed-point
+//! [`FixedCalibration::correct`], the code the MCU runs.
 //!
 //! # "Before correction"
 //!
@@ -23,6 +25,7 @@
 use std::collections::BTreeMap;
 
 use logtrim::calibration::{BiasTerm, Residual, Series};
+use logtrim::fixed::{FixedCalibration, X_FRAC};
 use logtrim::Calibration;
 
 use super::validation::ValidationPoint;
@@ -266,12 +269,9 @@ pub fn error_vs_temperature(
     }
 }
 
-/// The error of the f32 correction ([`Calibration::correct`]) against the f64 reference
-/// ([`Calibration::correct_f64`]) at the same code and the same (f32) temperature, in LSB (the x error over
-/// ∂x/∂code), over `nx × ny` cells of (ADC code, temperature). The temperature axis is the calibrated
-/// range; the code axis spans the codes of the calibrated x range at every temperature, with a 4 % margin
-/// so the refused edges show. A cell the firmware refuses has no value.
-pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) -> Result<HeatMap, PlotError> {
+/// The codes of the calibrated x range at every calibrated temperature, with a 4 % margin each side so the
+/// refused edges show, within the converter's codes.
+fn code_span(cal: &Calibration) -> (f64, f64) {
     let t = &cal.temperature;
     let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
     let (mut c0, mut c1) = (f64::INFINITY, f64::NEG_INFINITY);
@@ -287,7 +287,18 @@ pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) ->
     }
     let max_code = f64::from(cal.adc.max_code().unwrap_or(1));
     let (c0, c1) = if c1 > c0 { super::padded(c0, c1, 0.04) } else { (0.0, max_code) };
-    let (c0, c1) = (c0.max(0.0), c1.min(max_code));
+    (c0.max(0.0), c1.min(max_code))
+}
+
+/// The error of the f32 correction ([`Calibration::correct`]) against the f64 reference
+/// ([`Calibration::correct_f64`]) at the same code and the same (f32) temperature, in LSB (the x error over
+/// ∂x/∂code), over `nx × ny` cells of (ADC code, temperature). The temperature axis is the calibrated
+/// range; the code axis spans the codes of the calibrated x range at every temperature, with a 4 % margin
+/// so the refused edges show. A cell the firmware refuses has no value.
+pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) -> Result<HeatMap, PlotError> {
+    let t = &cal.temperature;
+    let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
+    let (c0, c1) = code_span(cal);
     let grid = Grid::from_fn(
         Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
         Axis { label: "temperature [°C]".into(), min: tmin, max: tmax },
@@ -309,6 +320,78 @@ pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) ->
         subtitle: subtitle.to_string(),
         grid,
         value_label: "error of f32 [LSB]".into(),
+        scale: ColourScale::Diverging,
+        no_value_label: "refused by the firmware (out of range)".into(),
+        size: (1000, 620),
+    })
+}
+
+/// The error of the integer fixed-point correction ([`FixedCalibration::correct`], the tables of the
+/// calibration: `logtrim_host::tables::build`) against the f64 reference ([`Calibration::correct_f64`]) at
+/// the same code and temperature, in LSB (the x error over ∂x/∂code), over `nx × ny` cells of (ADC code,
+/// temperature); the axes are those of [`f32_error_map`]. Each cell holds the signed error of largest
+/// magnitude over `codes_per_cell` codes spread evenly across it (both ends included), at the cell's
+/// central temperature rounded to the m°C the fixed path takes: a table's error moves with the code at the
+/// scale of its knots, which one code per cell can miss. Codes where either path refuses the reading are
+/// left out; a cell without any value is drawn grey. The temperature is given in m°C, so a sensor table in
+/// the tables is not used here (`logtrim verify` covers it).
+pub fn fixed_error_map(
+    cal: &Calibration,
+    fixed: &FixedCalibration<'_>,
+    nx: usize,
+    ny: usize,
+    codes_per_cell: u32,
+    subtitle: &str,
+) -> Result<HeatMap, PlotError> {
+    if codes_per_cell == 0 {
+        return Err(PlotError::BadGrid {
+            what: "0 codes per cell".into(),
+            expected: "at least one code per cell",
+        });
+    }
+    let t = &cal.temperature;
+    let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
+    let (c0, c1) = code_span(cal);
+    let cell = (c1 - c0) / nx.max(1) as f64;
+    let q24 = f64::from(1u32 << X_FRAC);
+    let grid = Grid::from_fn(
+        Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
+        Axis { label: "temperature [°C]".into(), min: tmin, max: tmax },
+        nx,
+        ny,
+        |centre, temp| {
+            let mc = (temp * 1000.0).round() as i32;
+            let temp = f64::from(mc) / 1000.0;
+            let (first, last) = ((centre - 0.5 * cell).ceil(), (centre + 0.5 * cell).floor());
+            let mut worst = f64::NAN;
+            for k in 0..codes_per_cell {
+                let f = if codes_per_cell == 1 { 0.5 } else { f64::from(k) / f64::from(codes_per_cell - 1) };
+                let code = (first + (last - first).max(0.0) * f).round();
+                if !(0.0..=f64::from(u32::MAX)).contains(&code) {
+                    continue;
+                }
+                let code = code as u32;
+                if let (Ok(a), Ok(b)) = (fixed.correct(code, mc), cal.correct_f64(f64::from(code), temp)) {
+                    if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 {
+                        let e = (f64::from(a.x) / q24 - b.x) / b.dx_dcode;
+                        if worst.is_nan() || e.abs() > worst.abs() {
+                            worst = e;
+                        }
+                    }
+                }
+            }
+            worst
+        },
+    )?;
+    Ok(HeatMap {
+        title: "fixed-point correction against the f64 reference".into(),
+        subtitle: if subtitle.is_empty() {
+            format!("worst of {codes_per_cell} codes per cell")
+        } else {
+            format!("{subtitle}; worst of {codes_per_cell} codes per cell")
+        },
+        grid,
+        value_label: "error of fixed point [LSB]".into(),
         scale: ColourScale::Diverging,
         no_value_label: "refused by the firmware (out of range)".into(),
         size: (1000, 620),

@@ -1,5 +1,7 @@
 //! `logtrim image`: build a unit's calibration image from a calibration file, as a raw binary for an
-//! EEPROM writer or as Intel HEX for a flash programmer.
+//! EEPROM writer or as Intel HEX for a flash programmer. The image carries the unit's fixed-point tables
+//! (the same as `logtrim emit` generates, with the temperature-sensor table of a raw channel) unless
+//! `--no-fixed` is given.
 
 use std::path::PathBuf;
 
@@ -7,6 +9,7 @@ use clap::ValueEnum;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::image_file::{self, ImageFormat};
 
+use crate::emit::TableArgs;
 use crate::Failure;
 
 /// Output formats.
@@ -41,6 +44,12 @@ pub struct Args {
     /// Sequence counter of the image; of two valid A/B slots the firmware uses the higher one.
     #[arg(long, value_name = "N", default_value_t = 1)]
     pub sequence: u32,
+    /// Leave out the fixed-point tables: an image for firmware that corrects in f32 only.
+    #[arg(long)]
+    pub no_fixed: bool,
+    /// Sizes of the fixed-point tables (ignored with --no-fixed).
+    #[command(flatten)]
+    pub tables: TableArgs,
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
@@ -60,11 +69,15 @@ pub fn run(args: Args) -> Result<(), Failure> {
         return Err(Failure::input("--record-len applies to Intel HEX output only (--format hex)"));
     }
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
-    let bytes =
-        image_file::build_image(&file, args.serial.as_deref(), args.sequence).map_err(Failure::input)?;
-    // The image is checked as the firmware will check it before anything is written.
+    let options = args.tables.options();
+    let tables = (!args.no_fixed).then_some(&options);
+    let bytes = image_file::build_image_with(&file, args.serial.as_deref(), args.sequence, tables)
+        .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
+    // The image is checked as the firmware will check it before anything is written, its tables loaded as
+    // a fixed-point firmware loads them.
     let img =
         logtrim::Image::parse(&bytes).map_err(|e| Failure::check(format!("built image refused: {e}")))?;
+    image_file::load_fixed(&img).map_err(|e| Failure::check(format!("built image's tables refused: {e}")))?;
     if img.serial().is_empty() {
         eprintln!(
             "logtrim: warning: no serial (neither --serial nor \"unit\" in the file): the image carries none"
@@ -76,8 +89,16 @@ pub fn run(args: Args) -> Result<(), Failure> {
         ImageFormat::Bin => "binary".to_string(),
         ImageFormat::Hex => format!("Intel HEX at {base:#010x}"),
     };
+    let fixed = match img.fixed() {
+        None => "f32 model only".to_string(),
+        Some(sec) => {
+            let h = sec.header();
+            let sensor = if sec.sensor().is_some() { ", sensor table" } else { "" };
+            format!("fixed-point tables {}×{} knots{sensor}", h.t_knots, h.xa_knots)
+        }
+    };
     println!(
-        "{}: {} byte image ({place}), serial {:?}, sequence {}, CRC-32 {:#010x}",
+        "{}: {} byte image ({place}; {fixed}), serial {:?}, sequence {}, CRC-32 {:#010x}",
         args.output.display(),
         img.len(),
         img.serial(),

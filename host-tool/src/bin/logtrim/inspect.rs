@@ -1,5 +1,6 @@
 //! `logtrim inspect`: decode and check an image file (binary or Intel HEX) exactly as the firmware would,
-//! and print it. A bad image exits with 1 and its specific error.
+//! and print it, its fixed-point tables included. A bad image exits with 1 and its specific error; so does
+//! an image whose fixed-point tables a fixed-point firmware would refuse (after printing what it holds).
 
 use std::path::PathBuf;
 
@@ -39,5 +40,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         println!("{name}: {place}");
         print!("{}", image_file::describe(&img));
     }
+    image_file::load_fixed(&img)
+        .map_err(|e| Failure::check(format!("{name}: bad fixed-point tables: {e}")))?;
     Ok(())
 }

@@ -1,4 +1,6 @@
-//! `logtrim plot`: draw the charts of a calibrated unit as SVG files.
+//! `logtrim plot`: draw the charts of a calibrated unit as SVG files; with `--fixed-map`, also the error map
+//! of the integer fixed-point path (the tables `logtrim emit` and `logtrim image` carry) against the f64
+//! reference.
 
 use std::path::{Path, PathBuf};
 
@@ -11,6 +13,7 @@ use logtrim_host::plot::validation::read_validation;
 use logtrim_host::plot::{render_heat_map, render_lines};
 use logtrim_host::report::{file_prefix, utc};
 
+use crate::emit::TableArgs;
 use crate::Failure;
 
 /// Options of `logtrim plot`.
@@ -52,6 +55,16 @@ pub struct PlotArgs {
     /// A gap in measured temperature larger than this (K) separates two chamber set-points (as in the fit).
     #[arg(long, value_name = "K", default_value_t = 2.0)]
     setpoint_gap: f64,
+    /// Also draw the fixed-point path's error map against the f64 reference (PREFIX-fixed-error-map.svg),
+    /// on the cells of --map-cells, from the unit's fixed-point tables (sizes as for `logtrim emit`).
+    #[arg(long)]
+    fixed_map: bool,
+    /// Codes evaluated per cell of the fixed-point map; a cell shows the largest error among them.
+    #[arg(long, value_name = "N", default_value_t = 16, value_parser = clap::value_parser!(u32).range(1..=4096))]
+    map_codes: u32,
+    /// Sizes of the fixed-point tables (with --fixed-map).
+    #[command(flatten)]
+    tables: TableArgs,
 }
 
 fn parse_unit(s: &str) -> Result<ErrorUnit, String> {
@@ -97,6 +110,15 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
     let (nx, ny) = args.map_cells;
     let map = figures::f32_error_map(&cal, nx, ny, &sub).map_err(Failure::input)?;
     out.push((format!("{prefix}-f32-error-map.svg"), render_heat_map(&map).map_err(Failure::input)?));
+    if args.fixed_map {
+        let tables = file
+            .fixed_tables(&args.tables.options())
+            .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
+        let sub = format!("{sub}; tables {}×{} knots", tables.header.t_knots, tables.header.xa_knots);
+        let map = figures::fixed_error_map(&cal, &tables.view(), nx, ny, args.map_codes, &sub)
+            .map_err(Failure::input)?;
+        out.push((format!("{prefix}-fixed-error-map.svg"), render_heat_map(&map).map_err(Failure::input)?));
+    }
 
     std::fs::create_dir_all(&args.out_dir)
         .map_err(|e| Failure::input(format!("{}: {e}", args.out_dir.display())))?;

@@ -1,0 +1,120 @@
+//! The fixed section of images of fitted units: both simulator presets fitted from a simulated chamber
+//! run, and one of them with a raw NTC temperature channel. For each, the tables built for the calibration
+//! file go into an image and come back out through the firmware's loader bit for bit, the fixed correction
+//! from the image equals the one from the tables in memory everywhere (every log code at a few
+//! temperatures; every sensor code for the raw channel), and the image fits a 4 KiB flash page.
+//!
+//! Prints the image sizes (run with `--nocapture` to see them).
+
+use logtrim::fixed::FixedCalibration;
+use logtrim::image::{DefaultFixedStorage, Image};
+use logtrim::{Beta, Divider, Placement, SensorElement, TemperatureSensor};
+use logtrim_host::calfile::CalFile;
+use logtrim_host::demo::fit_data;
+use logtrim_host::fit::{fit, FitOptions};
+use logtrim_host::frontend::preset;
+use logtrim_host::image_file::{build_image_with, load_fixed};
+use logtrim_host::simulate::{simulate, Plan};
+use logtrim_host::tables::TableOptions;
+
+/// The flash page budget of the issue.
+const BUDGET: usize = 4096;
+
+fn fitted(name: &str) -> CalFile {
+    let fe = preset(name).unwrap();
+    let plan = Plan { validation_count: 10, ..Plan::default() };
+    let sim = simulate(&fe, &plan).unwrap();
+    let out = fit(&fit_data(&sim.chamber, 0).unwrap(), &FitOptions::default()).unwrap();
+    let mut f = CalFile::new(out.calibration, Some(format!("{}-0001", &name[..3].to_uppercase())));
+    f.created_unix_s = 1_767_225_600;
+    f
+}
+
+/// A 10 kΩ NTC (β = 3950 K at 25 °C, typical catalogue values, common practice) at the low side of a
+/// ratiometric divider with 10 kΩ on a 12-bit converter, modelled −40…125 °C.
+fn ntc_channel() -> TemperatureSensor {
+    TemperatureSensor {
+        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
+        divider: Divider {
+            open_margin: 8,
+            short_margin: 8,
+            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
+        },
+        min_c: -40.0,
+        max_c: 125.0,
+    }
+}
+
+/// Every log code at the ends and the middle of the accepted temperature range, in m°C.
+fn every_code(a: &FixedCalibration<'_>, b: &FixedCalibration<'_>) -> usize {
+    let h = a.header;
+    let mc = |theta: i32| theta / 1024;
+    let temps =
+        [mc(h.temp_lo), mc(h.temp_min), (mc(h.temp_min) + mc(h.temp_max)) / 2, mc(h.temp_max), mc(h.temp_hi)];
+    let mut values = 0;
+    for t in temps {
+        for code in 0..=h.adc_max_code + 1 {
+            let (x, y) = (a.correct(code, t), b.correct(code, t));
+            assert_eq!(x, y, "code {code} at {t} m°C");
+            values += usize::from(x.is_ok());
+        }
+    }
+    values
+}
+
+fn check(file: &CalFile, label: &str) -> usize {
+    let tables = file.fixed_tables(&TableOptions::default()).unwrap();
+    let bytes = build_image_with(file, None, 1, Some(&TableOptions::default())).unwrap();
+    let img = Image::parse(&bytes).unwrap();
+    assert_eq!(img.calibration(), file.calibration);
+    // Bit for bit, through the firmware's loader into the storage sized for the default tables.
+    assert_eq!(load_fixed(&img).unwrap().as_ref(), Some(&tables), "{label}");
+    let mut storage = DefaultFixedStorage::new();
+    let from_image = img.fixed_into(&mut storage).unwrap();
+    assert_eq!(from_image, tables.view());
+    let values = every_code(&from_image, &tables.view());
+    assert!(values > 10_000, "{label}: only {values} values");
+    eprintln!(
+        "{label}: image {} bytes ({} of f32 model, {} of fixed section), tables {} bytes",
+        bytes.len(),
+        logtrim::image::layout::F32_IMAGE_LEN,
+        bytes.len() - logtrim::image::layout::F32_IMAGE_LEN,
+        tables.bytes()
+    );
+    assert!(bytes.len() <= BUDGET, "{label}: {} bytes", bytes.len());
+    bytes.len()
+}
+
+#[test]
+fn both_presets_round_trip_through_an_image_within_4_kib() {
+    for name in ["photometer-compensated", "gas-uncompensated"] {
+        check(&fitted(name), name);
+    }
+}
+
+#[test]
+fn a_raw_temperature_channel_adds_its_table_and_stays_within_4_kib() {
+    let mut file = fitted("photometer-compensated");
+    let without = check(&file, "photometer-compensated, m°C");
+    file.temperature_sensor = Some(ntc_channel());
+    let with = check(&file, "photometer-compensated, 12-bit NTC channel");
+    let tables = file.fixed_tables(&TableOptions::default()).unwrap();
+    let knots = tables.sensor.as_ref().unwrap().knots.len();
+    assert!(knots <= 131, "{knots} sensor knots do not fit the default storage");
+    assert_eq!(with - without, 4 * knots);
+    // Every sensor code at a few log codes: the raw path from the image equals the one in memory.
+    let bytes = build_image_with(&file, None, 1, Some(&TableOptions::default())).unwrap();
+    let img = Image::parse(&bytes).unwrap();
+    let mut storage = DefaultFixedStorage::new();
+    let a = img.fixed_into(&mut storage).unwrap();
+    let b = tables.view();
+    let mut values = 0;
+    for code in [1000u32, 20_000, 32_768, 45_000, 64_000] {
+        for tc in 0..=4096u32 {
+            let (x, y) = (a.correct_raw(code, tc), b.correct_raw(code, tc));
+            assert_eq!(x, y, "code {code}, sensor code {tc}");
+            values += usize::from(x.is_ok());
+        }
+    }
+    assert!(values > 1000, "{values}");
+}
