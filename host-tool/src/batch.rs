@@ -98,7 +98,9 @@ pub fn fit_unit(
     if let Err(e) = file.save_deferred(&json) {
         return fail(e.to_string());
     }
-    let image = crate::image_file::build_image(&file, Some(&job.serial), 1)
+    // The image carries the fixed-point tables too, as `logtrim image` writes by default.
+    let tables = crate::tables::TableOptions::default();
+    let image = crate::image_file::build_image_with(&file, Some(&job.serial), 1, Some(&tables))
         .map_err(|e| e.to_string())
         .and_then(|bytes| {
             crate::output::write_atomic_deferred(&bin, &bytes).map_err(|e| format!("{}: {e}", bin.display()))

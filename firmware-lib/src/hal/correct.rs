@@ -437,9 +437,10 @@ mod tests {
     }
 
     // -----------------------------------------------------------------------------------------------------
-    // The fixed corrector, on hand-built linear tables: x = (code − 32768)/4096 Np at every temperature,
-    // −5…55 °C accepted, 0…50 °C calibrated, x in [−7, 7] Np (the structure of `fixed::tests::linear`). A
-    // linear correction makes the interpolation of a mean exact, so every expected value is exact too.
+    // The fixed corrector, on hand-built linear tables: x = (code − 32769)·6/32768 Np at every
+    // temperature, −5…55 °C accepted, 0…50 °C calibrated, x in [−5.25, 5.25] Np, i.e. codes 4097…61441
+    // (the structure of `fixed::tests::linear`; the tables store control points divided by 6). A linear
+    // correction makes the interpolation of a mean exact, so every expected value is exact too.
 
     mod fixed_path {
         use std::vec;
@@ -459,11 +460,12 @@ mod tests {
 
         fn owned() -> Owned {
             Owned {
-                offset: vec![32768 << 14; 6],
-                inv_slope: vec![1 << 30; 6],
+                // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
+                offset: vec![10923 << 13; 6],
+                inv_slope: vec![1 << 27; 6],
                 residual: vec![0; 6 * 7],
-                // θ(code) = (code − 100)·10 m°C, knots every 256 codes from code 100.
-                sensor: (0..19).map(|i| (i - 1) * 256 * 10 * 1024).collect(),
+                // θ(code) = (code − 100)·15 m°C, knots every 256 codes from code 100 (divided by 6).
+                sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
             }
         }
 
@@ -488,8 +490,8 @@ mod tests {
                     xa_origin: -9 * (1 << 24),
                     xa_inv_step: 3_728_270,
                     residual_frac: 16,
-                    x_min: -7 * (1 << 24),
-                    x_max: 7 * (1 << 24),
+                    x_min: -X_LIM,
+                    x_max: X_LIM,
                 },
                 offset: &o.offset,
                 inv_slope: &o.inv_slope,
@@ -511,9 +513,12 @@ mod tests {
             }
         }
 
-        /// x in Q24 of a mean of 1/256-code resolution on the linear unit: 4096 codes per neper.
+        /// 5.25 Np in Q24: the ends of the linear unit's x range (codes 4097 and 61441).
+        const X_LIM: i32 = 21 << 22;
+
+        /// x in Q24 of a mean of 1/256-code resolution on the linear unit: 32768/6 codes per neper.
         fn want_q24(mean_256: i64) -> i32 {
-            ((mean_256 - (32768 << 8)) * 16) as i32
+            ((mean_256 - (32769 << 8)) * 12) as i32
         }
 
         #[test]
@@ -551,7 +556,7 @@ mod tests {
         fn whole_means_equal_single_codes() {
             let o = owned();
             let c = view(&o);
-            for code in (4096u32..61_441).step_by(1009) {
+            for code in (4097u32..61_442).step_by(1009) {
                 for t in [-5.0f32, 0.0, 25.0, 50.0, 55.0] {
                     let m = MeanCode::new(u64::from(code) * 8, 8).unwrap();
                     let want = c.correct(code, (t * 1000.0) as i32);
@@ -573,8 +578,9 @@ mod tests {
                     let r = correct_mean_fixed(&c, m, 30.0).unwrap();
                     assert_eq!(r.x, want_q24(mean_256), "{base} + {extra}/{n}");
                     // Against the exact mean: within the 1/512 code of the mean's rounding.
-                    let exact = (base as f64 + extra as f64 / f64::from(n) - 32768.0) / 4096.0;
-                    let err_codes = (f64::from(r.x) / f64::from(1 << 24) - exact).abs() * 4096.0;
+                    let slope = 32768.0 / 6.0;
+                    let exact = (base as f64 + extra as f64 / f64::from(n) - 32769.0) / slope;
+                    let err_codes = (f64::from(r.x) / f64::from(1 << 24) - exact).abs() * slope;
                     assert!(err_codes <= 1.0 / 512.0 + 1e-9, "{base} + {extra}/{n}: {err_codes} codes");
                 }
             }
@@ -585,11 +591,11 @@ mod tests {
             let o = owned();
             let c = view(&o);
             let at = |sum: u64, n: u32, t: f32| correct_mean_fixed(&c, MeanCode::new(sum, n).unwrap(), t);
-            // x = 7 Np at code 61440 is the top of the range; 61441 is above it.
-            assert_eq!(at(4 * 61440 + 1, 4, 25.0).map(|r| r.x), Ok(7 << 24)); // nearer 61440: its value
-            assert_eq!(at(4 * 61440 + 3, 4, 25.0), Err(Error::AboveRange)); // nearer 61441: its error
-            assert_eq!(at(4 * 4095 + 3, 4, 25.0).map(|r| r.x), Ok(-7 << 24)); // nearer 4096
-            assert_eq!(at(4 * 4095 + 1, 4, 25.0), Err(Error::BelowRange));
+            // x = 5.25 Np at code 61441 is the top of the range; 61442 is above it.
+            assert_eq!(at(4 * 61441 + 1, 4, 25.0).map(|r| r.x), Ok(X_LIM)); // nearer 61441: its value
+            assert_eq!(at(4 * 61441 + 3, 4, 25.0), Err(Error::AboveRange)); // nearer 61442: its error
+            assert_eq!(at(4 * 4096 + 3, 4, 25.0).map(|r| r.x), Ok(-X_LIM)); // nearer 4097
+            assert_eq!(at(4 * 4096 + 1, 4, 25.0), Err(Error::BelowRange));
             // A mean touching the rail margin is saturated, with the code that touches it.
             assert_eq!(at(16 + 17, 2, 25.0), Err(Error::Saturated { code: 16 }));
             assert_eq!(at(65518 + 65519, 2, 25.0), Err(Error::Saturated { code: 65519 }));
@@ -607,7 +613,7 @@ mod tests {
         fn the_cycle_gets_the_integer_value_and_its_f32() {
             let o = owned();
             let c = view(&o);
-            let m = MeanCode::new(4 * (32768 + 4096) + 2, 4).unwrap(); // x = 1 + 0.5/4096 Np
+            let m = MeanCode::new(4 * (32769 + 16384) + 2, 4).unwrap(); // x = (16384.5)·6/32768 Np
             for unit in Unit::ALL {
                 let r = Corrector::correct_in(&c, m, 25.0, unit).unwrap();
                 let f = r.fixed.unwrap();
@@ -622,13 +628,13 @@ mod tests {
                 );
                 assert_eq!(r.x, reading.x as f32 / (1u32 << 24) as f32);
             }
-            // 1 Np + 1/8192 Np as a power ratio in dB: 10/ln 10 · x (ISO 80000-3: 1 Np ≙ 20/ln 10 dB for
-            // amplitude, half that for power).
+            // x as a power ratio in dB: 10/ln 10 · x (ISO 80000-3: 1 Np ≙ 20/ln 10 dB for amplitude, half
+            // that for power).
             let r = Corrector::correct_in(&c, m, 25.0, Unit::DbPower).unwrap();
-            let want = 10.0 / core::f64::consts::LN_10 * (1.0 + 0.5 / 4096.0);
+            let want = 10.0 / core::f64::consts::LN_10 * (16384.5 * 6.0 / 32768.0);
             assert!((f64::from(r.value) - want).abs() < 1e-6, "{}", r.value);
-            // A ratio beyond what the integer form holds (x = 7 Np is fine; the x range ends there).
-            let top = MeanCode::single(61440);
+            // The top of the x range (5.25 Np) is well inside what the integer ratio holds.
+            let top = MeanCode::single(61441);
             assert!(Corrector::correct_in(&c, top, 25.0, Unit::Ratio).is_ok());
         }
 
@@ -636,8 +642,8 @@ mod tests {
         fn the_sensor_table_as_a_temperature_channel() {
             let o = owned();
             let ch = FixedSensorTable(view(&o));
-            // θ = (code − 100)·10 m°C: code 2600 is 25 °C.
-            assert_eq!(ch.celsius(2600), Ok(25.0));
+            // θ = (code − 100)·15 m°C: code 1300 is 18 °C.
+            assert_eq!(ch.celsius(1300), Ok(18.0));
             assert_eq!(ch.celsius(100), Ok(0.0));
             assert_eq!(ch.celsius(5), Err(Error::Sensor(SensorFault::Short)));
             assert_eq!(ch.celsius(4095), Err(Error::Sensor(SensorFault::Open)));
@@ -652,7 +658,7 @@ mod tests {
             }
             let mut no_sensor = view(&o);
             no_sensor.sensor = None;
-            assert_eq!(FixedSensorTable(no_sensor).celsius(2600), Err(Error::NotCalibrated));
+            assert_eq!(FixedSensorTable(no_sensor).celsius(1300), Err(Error::NotCalibrated));
         }
     }
 }

@@ -825,8 +825,9 @@ mod fixed_section {
         let q24 = 1 << 24;
         Owned {
             header,
-            offset: (0..6).map(|i| (32768 << 14) + 300_000 * i + next(50_000)).collect(),
-            inv_slope: (0..6).map(|i| (1 << 30) - 2_000_000 * i + next(100_000)).collect(),
+            // Stored divided by 6, as the fixed tables store their control points.
+            offset: (0..6).map(|i| ((32768 << 14) + 300_000 * i + next(50_000)) / 6).collect(),
+            inv_slope: (0..6).map(|i| ((1 << 30) - 2_000_000 * i + next(100_000)) / 6).collect(),
             ln_bias: if bias {
                 (0..6).map(|i| -11 * q24 + i * q24 / 2 + next(1000)).collect()
             } else {
@@ -834,7 +835,7 @@ mod fixed_section {
             },
             u_min: if bias { (0..6).map(|i| -10 * q24 + i * q24 / 2 + next(1000)).collect() } else { vec![] },
             residual: (0..42).map(|_| next(400) as i16 - 200).collect(),
-            sensor: sensor.then(|| (0..19).map(|i| (i - 1) * 256 * 10 * 1024 + next(500)).collect()),
+            sensor: sensor.then(|| (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()),
         }
     }
 
