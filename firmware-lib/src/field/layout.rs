@@ -10,90 +10,8 @@
 
 use core::fmt;
 
-/// How a field's bytes are interpreted.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Kind {
-    /// Fixed bytes (the magic).
-    Bytes(u8),
-    /// An unsigned byte.
-    U8,
-    /// A little-endian u16.
-    U16,
-    /// A little-endian u32.
-    U32,
-    /// A little-endian u64.
-    U64,
-    /// A little-endian two's-complement i32.
-    I32,
-    /// A little-endian IEEE 754 binary32.
-    F32,
-    /// Reserved bytes: written as zero, and a record with any other value is refused.
-    Reserved(u8),
-}
-
-impl Kind {
-    /// The size of a field of this kind, in bytes.
-    pub const fn size(self) -> usize {
-        match self {
-            Kind::U8 => 1,
-            Kind::U16 => 2,
-            Kind::U32 | Kind::I32 | Kind::F32 => 4,
-            Kind::U64 => 8,
-            Kind::Bytes(n) | Kind::Reserved(n) => n as usize,
-        }
-    }
-}
-
-impl fmt::Display for Kind {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match self {
-            Kind::Bytes(n) => write!(f, "bytes[{n}]"),
-            Kind::U8 => f.write_str("u8"),
-            Kind::U16 => f.write_str("u16"),
-            Kind::U32 => f.write_str("u32"),
-            Kind::U64 => f.write_str("u64"),
-            Kind::I32 => f.write_str("i32"),
-            Kind::F32 => f.write_str("f32"),
-            Kind::Reserved(_) => f.write_str("zero"),
-        }
-    }
-}
-
-/// One field of a record: where it lies and what it means.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Field {
-    /// A short snake_case name (used in error messages).
-    pub name: &'static str,
-    /// Offset from the start of the record, in bytes.
-    pub offset: usize,
-    /// How the bytes are read; the size follows from it.
-    pub kind: Kind,
-    /// What the field holds.
-    pub doc: &'static str,
-}
-
-impl Field {
-    const fn first(name: &'static str, kind: Kind, doc: &'static str) -> Field {
-        Field { name, offset: 0, kind, doc }
-    }
-
-    /// The field that follows this one directly.
-    const fn then(self, name: &'static str, kind: Kind, doc: &'static str) -> Field {
-        Field { name, offset: self.end(), kind, doc }
-    }
-
-    /// Size in bytes.
-    pub const fn size(&self) -> usize {
-        self.kind.size()
-    }
-
-    /// Offset one past the last byte of the field.
-    pub const fn end(&self) -> usize {
-        self.offset + self.kind.size()
-    }
-}
+// The field records are described with the image layout's own vocabulary of fields and kinds.
+pub use crate::image::layout::{Field, Kind};
 
 /// The header every field record starts with.
 pub mod header {
@@ -228,7 +146,14 @@ const _: () = assert!(trim::OFFSET_F32.offset.is_multiple_of(4));
 pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
     w.write_str("| record | offset | size | field | type | meaning |\n|---|---:|---:|---|---|---|\n")?;
     let row = |w: &mut dyn fmt::Write, part: &str, f: &Field, offset: usize| {
-        writeln!(w, "| {part} | {offset} | {} | `{}` | `{}` | {} |", f.size(), f.name, f.kind, f.doc)
+        writeln!(
+            w,
+            "| {part} | {offset} | {} | `{}` | `{}` | {} |",
+            f.size(),
+            f.name,
+            f.kind.display(),
+            f.doc
+        )
     };
     for f in header::FIELDS {
         row(w, "both", f, f.offset)?;

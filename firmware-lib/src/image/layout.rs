@@ -49,6 +49,23 @@ impl Kind {
         }
     }
 
+    /// The type with its count where it has one (`bytes[4]`, `f32[6]`), as the field records' table
+    /// writes it.
+    pub fn display(self) -> impl fmt::Display {
+        struct D(Kind);
+        impl fmt::Display for D {
+            fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+                match self.0 {
+                    Kind::Bytes(n) => write!(f, "bytes[{n}]"),
+                    Kind::F32Array(n) => write!(f, "f32[{n}]"),
+                    Kind::Ascii(n) => write!(f, "ASCII[{n}]"),
+                    k => f.write_str(k.type_name()),
+                }
+            }
+        }
+        D(self)
+    }
+
     /// The type as written in the layout table.
     pub const fn type_name(self) -> &'static str {
         match self {
@@ -81,12 +98,12 @@ pub struct Field {
 }
 
 impl Field {
-    const fn first(name: &'static str, kind: Kind, doc: &'static str) -> Field {
+    pub(crate) const fn first(name: &'static str, kind: Kind, doc: &'static str) -> Field {
         Field { name, offset: 0, kind, doc }
     }
 
     /// The field that follows this one directly.
-    const fn then(self, name: &'static str, kind: Kind, doc: &'static str) -> Field {
+    pub(crate) const fn then(self, name: &'static str, kind: Kind, doc: &'static str) -> Field {
         Field { name, offset: self.end(), kind, doc }
     }
 
