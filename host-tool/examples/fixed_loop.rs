@@ -10,6 +10,11 @@
 //!   beforehand (64 temperatures): what a firmware pays per log sample when it reads the temperature less
 //!   often than the log channel;
 //! * `fixed-row`: the same through a `RowStage` (the residual collapsed over temperature per stage).
+//! * `fixed-cached`: raw codes to power dB through a `StageCache`, on a stream whose temperature channel
+//!   gives a new code (drawn anew over the calibrated range) every `HOLD` samples, as a firmware that reads
+//!   its temperature channel once per `HOLD` log samples; the stage is rebuilt at every new code.
+//! * `naive-raw-held`: `naive-raw` on that same stream (the naive path recomputes everything anyway).
+//! * `fixed-cached-miss`: the cache with a new temperature code at every sample (its worst case).
 //!
 //! Inputs are drawn by a seeded generator from the calibrated range of the hard uncompensated unit.
 
@@ -19,9 +24,12 @@ mod common;
 use std::hint::black_box;
 
 use common::{ntc, units};
-use logtrim::fixed::FixedCalibration;
+use logtrim::fixed::{FixedCalibration, StageCache};
 use logtrim::{Calibration, Unit};
 use logtrim_host::tables::{self, TableOptions, TemperatureChannel};
+
+/// Log samples per temperature reading in the `fixed-cached` stream.
+const HOLD: usize = 64;
 
 /// One input: log code, temperature channel code, temperature in m°C and in °C.
 #[derive(Clone, Copy)]
@@ -115,6 +123,17 @@ fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed
 }
 
 #[inline(never)]
+fn run_fixed_cached(cache: &mut StageCache<'_>, inp: &[Input]) -> i64 {
+    let mut acc = 0i64;
+    for i in inp {
+        if let Ok(r) = cache.correct_raw(black_box(i.code), black_box(i.temp_code)) {
+            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+        }
+    }
+    acc
+}
+
+#[inline(never)]
 fn run_naive_raw(cal: &Calibration, inp: &[Input]) -> f32 {
     let mut acc = 0.0f32;
     for i in inp {
@@ -164,13 +183,25 @@ fn main() {
             i.code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
         }
     }
+    if path == "fixed-cached" || path == "naive-raw-held" {
+        for k in 0..inp.len() {
+            let held = inp[k - k % HOLD];
+            let i = &mut inp[k];
+            (i.temp_code, i.mc, i.celsius) = (held.temp_code, held.mc, held.celsius);
+            let x = f64::from(cal.x_range.min)
+                + f64::from(cal.x_range.max - cal.x_range.min) * ((k * 7919) % 1_000_000) as f64 / 1e6;
+            i.code = cal.forward_code_f64(x, f64::from(held.celsius)).round().clamp(0.0, 65535.0) as u32;
+        }
+    }
+    let mut cache = StageCache::new(f);
     let start = std::time::Instant::now();
     let out = match path {
         "fixed-raw" => run_fixed_raw(&f, &inp) as f64,
         "fixed-mc" => run_fixed_mc(&f, &inp) as f64,
         "fixed-staged" => run_fixed_staged(&f, &inp, &stages) as f64,
         "fixed-row" => run_fixed_row(&f, &inp, &rows) as f64,
-        "naive-raw" => f64::from(run_naive_raw(&cal, &inp)),
+        "fixed-cached" | "fixed-cached-miss" => run_fixed_cached(&mut cache, &inp) as f64,
+        "naive-raw" | "naive-raw-held" => f64::from(run_naive_raw(&cal, &inp)),
         "naive-mc" => f64::from(run_naive_mc(&cal, &inp)),
         other => {
             eprintln!("fixed_loop: unknown path {other}");

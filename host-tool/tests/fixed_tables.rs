@@ -265,3 +265,29 @@ fn exhaustive_verify_of_the_hand_units() {
         assert!(r.passed(), "{name}: {r}");
     }
 }
+
+/// The per-sample path of a firmware with a slow temperature channel (`StageCache`, the row stage of the
+/// last temperature code) gives exactly what the direct path gives, on real tables: every log code of the
+/// converter at temperature codes across the NTC's span and beyond it, hits and misses interleaved.
+#[test]
+fn stage_cache_matches_the_direct_path_on_real_tables() {
+    use logtrim::fixed::StageCache;
+    let channel = TemperatureChannel { codes: ntc::CODES, celsius: &ntc::celsius };
+    let mut rng = Rng(0x0123_4567_89ab_cdef);
+    for (name, cal) in units::all().into_iter().take(3) {
+        let t = tables::build(&cal, Some(&channel), &TableOptions::default()).unwrap();
+        let f = t.view();
+        let mut cache = StageCache::new(f);
+        let (mut ok, mut compared) = (0u64, 0u64);
+        for _ in 0..60 {
+            let tc = (rng.unit() * 4200.0) as u32;
+            for code in (0..=65535u32).step_by(1 + (rng.unit() * 13.0) as usize) {
+                let direct = f.correct_raw(code, tc);
+                assert_eq!(cache.correct_raw(code, tc), direct, "{name}: code {code}, temperature code {tc}");
+                ok += u64::from(direct.is_ok());
+                compared += 1;
+            }
+        }
+        assert!(ok > compared / 4, "{name}: only {ok} of {compared} readings were in range");
+    }
+}

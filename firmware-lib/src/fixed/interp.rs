@@ -25,7 +25,14 @@ pub(crate) const ONE: i64 = 1 << POS_FRAC;
 /// Six times the four basis weights at `t` (Q20, clamped to `[0, 2^20]`), Q28, summing to exactly 6·2^28.
 #[inline(always)]
 pub(crate) fn weights(t: i64) -> [i64; 4] {
-    let t = t.clamp(0, ONE);
+    weights_in(t.clamp(0, ONE))
+}
+
+/// [`weights`] for a fraction the caller has already bounded to `[0, 2^20]` (a masked or range-checked
+/// position), without the clamp. Outside that range the products could overflow: every call site says
+/// why its `t` is in range.
+#[inline(always)]
+pub(crate) fn weights_in(t: i64) -> [i64; 4] {
     let s = ONE - t;
     let t2 = (t * t) >> 12; // Q28
     let t3 = (t2 * t) >> 20; // Q28

@@ -27,8 +27,11 @@
 //! Steps 2–3 depend on the temperature only: [`FixedCalibration::correct`] does everything per call;
 //! a firmware that reads the temperature less often than the log channel computes a [`TemperatureStage`]
 //! (or a [`RowStage`], which also collapses the residual over temperature) per temperature reading and
-//! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample. All three
-//! give bit-identical results.
+//! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample; a
+//! [`StageCache`] does that bookkeeping itself, rebuilding its row stage only when the temperature code (or
+//! m°C value) changes. All of them give bit-identical results, errors included. (A row stage also turns the
+//! header's scales into plain shifts and limits where it can prove, for every code of the converter, that
+//! the saturating forms never saturate: the per-sample work drops by about a third.)
 //!
 //! Why `x̃` and not `u` as the residual's coordinate: near the swamped low end `x − u` behaves like
 //! `ln(u − λ)` and moves with temperature; no uniform (u, T) grid of a few KiB interpolates it to ¼ LSB on a
@@ -242,14 +245,268 @@ pub const ROW_CAPACITY: usize = 66;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RowStage {
     stage: TemperatureStage,
+    fast: Option<RowFast>,
     row: [i32; ROW_CAPACITY],
     len: usize,
+}
+
+/// Everything the log channel needs at one temperature, gathered from the header and the stage, for the
+/// plain-arithmetic form of steps 3–5 ([`RowFast::x`]). Built only where that form is exactly the general
+/// one ([`LinearStep::new`] proved the linear step; the grid has at least two knots).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct RowFast {
+    linear: LinearStep,
+    u_min: i64,
+    ln_bias: i64,
+    bias_bend: bool,
+    xa_origin: i64,
+    xa_inv_step: i64,
+    /// `(xa_knots − 1)·2^20`: the last position on the grid.
+    pos_max: i64,
+    /// `xa_knots − 2`: the last segment.
+    seg_max: usize,
+    scale: ResidualScale,
+    x_min: i64,
+    x_max: i64,
+}
+
+impl RowFast {
+    fn new(h: &FixedHeader, stage: &TemperatureStage) -> Option<RowFast> {
+        let knots = usize::from(h.xa_knots);
+        if knots < 2 {
+            return None;
+        }
+        Some(RowFast {
+            linear: LinearStep::new(h, stage)?,
+            u_min: stage.u_min,
+            ln_bias: stage.ln_bias,
+            bias_bend: h.bias_bend,
+            xa_origin: i64::from(h.xa_origin),
+            xa_inv_step: i64::from(h.xa_inv_step),
+            pos_max: (knots as i64 - 1) << POS_FRAC,
+            seg_max: knots - 2,
+            scale: ResidualScale::of(h),
+            x_min: i64::from(h.x_min),
+            x_max: i64::from(h.x_max),
+        })
+    }
+
+    /// x in Q24 for a checked code: the same steps and results as [`FixedCalibration::x_from_u`] with the
+    /// collapsed row, with the header's scales already turned into shifts and limits.
+    #[inline(always)]
+    fn x(&self, row: &[i32; ROW_CAPACITY], code: u32) -> Result<i32, Error> {
+        // Inside ±2^31 for every code (`LinearStep::new`), so the general form's clamp is a no-op.
+        let u = self.linear.u(code);
+        if u < self.u_min {
+            return Err(Error::BelowRange);
+        }
+        let xa = if self.bias_bend { u + transcend::bend_q24(u - self.ln_bias)? } else { u };
+        let pos = (xa - self.xa_origin).saturating_mul(self.xa_inv_step) >> XA_POS_SHIFT;
+        if pos < 0 {
+            return Err(Error::BelowRange);
+        }
+        if pos > self.pos_max {
+            return Err(Error::AboveRange);
+        }
+        // 0 ≤ pos ≤ (knots − 1)·2^20, so the segment needs only the upper clamp and t lies in [0, 2^20]:
+        // what `segment` gives.
+        let seg = ((pos >> POS_FRAC) as usize).min(self.seg_max);
+        let t = pos - ((seg as i64) << POS_FRAC);
+        // seg + 4 ≤ knots + 2, the row's length: never past the collapsed columns.
+        let cols = interp::four_i32(row, seg).ok_or(BAD_TABLE)?;
+        let r = self.scale.apply(round_shr_small(dot4(&interp::weights_in(t), cols), W_BITS));
+        let x = xa + r;
+        if x < self.x_min {
+            return Err(Error::BelowRange);
+        }
+        if x > self.x_max {
+            return Err(Error::AboveRange);
+        }
+        Ok(x as i32)
+    }
+}
+
+/// The linear step `u = ((code << qo) − O)·(1/S)` rescaled to Q24, in plain arithmetic: built only where the
+/// row stage has proved, at both ends of the converter's codes, that neither the product nor the rounding
+/// saturates and that u stays inside the ±2^31 clamp (u is linear in the code, so the ends bound every
+/// code). It then gives exactly the general form's result with a third of its instructions.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct LinearStep {
+    qo: u32,
+    offset: i64,
+    inv_slope: i64,
+    round: i64,
+    shr: u32,
+}
+
+/// The residual's move from `residual_frac + 13` fraction bits to Q24: `((r << left) + round) >> right`,
+/// one of the shifts zero. For the residual's values (below 2^33.2, shifts below 20) this is exactly
+/// [`rescale`]: no rounding add or left shift can saturate.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+struct ResidualScale {
+    left: u32,
+    right: u32,
+    round: i64,
+}
+
+impl ResidualScale {
+    #[inline(always)]
+    fn of(h: &FixedHeader) -> ResidualScale {
+        let from = u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD; // 13..=43
+        match from.checked_sub(X_FRAC) {
+            Some(0) => ResidualScale { left: 0, right: 0, round: 0 },
+            Some(n) => ResidualScale { left: 0, right: n, round: 1 << (n - 1) },
+            None => ResidualScale { left: X_FRAC - from, right: 0, round: 0 },
+        }
+    }
+
+    #[inline(always)]
+    fn apply(self, r: i64) -> i64 {
+        ((r << self.left) + self.round) >> self.right
+    }
+}
+
+impl LinearStep {
+    /// The step at a stage, or `None` where only the general (saturating) form is exact.
+    fn new(h: &FixedHeader, stage: &TemperatureStage) -> Option<LinearStep> {
+        let qo = u32::from(h.offset_frac).min(30);
+        let qs = u32::from(h.inv_slope_frac).min(62);
+        // Only right shifts (from ≥ 24 fraction bits) have a plain form; n is clamped as in `round_shr`.
+        let shr = (qo + qs).checked_sub(X_FRAC)?.min(62);
+        let round = if shr == 0 { 0 } else { 1i64 << (shr - 1) };
+        let step = LinearStep { qo, offset: stage.offset, inv_slope: stage.inv_slope, round, shr };
+        let u_at = |code: u32| -> Option<i64> {
+            let diff = (i64::from(code) << qo) - stage.offset;
+            let u = diff.checked_mul(stage.inv_slope)?.checked_add(round)? >> shr;
+            (-X_CLAMP..=X_CLAMP).contains(&u).then_some(u)
+        };
+        u_at(0)?;
+        u_at(h.adc_max_code)?;
+        Some(step)
+    }
+
+    /// u in Q24 for a code within the converter's range (checked by the caller).
+    #[inline(always)]
+    fn u(&self, code: u32) -> i64 {
+        // Bounded at both ends of the codes by `new`, so nothing here overflows.
+        ((((i64::from(code)) << self.qo) - self.offset) * self.inv_slope + self.round) >> self.shr
+    }
 }
 
 impl RowStage {
     /// The temperature lies outside the calibrated range, within the allowed extrapolation.
     pub fn extrapolated(&self) -> bool {
         self.stage.extrapolated
+    }
+}
+
+/// A fixed calibration with the [`RowStage`] of the last temperature it was given: the per-sample path of a
+/// firmware whose temperature moves slowly next to its log channel. A new temperature code (or m°C value)
+/// builds the stage (about the work of ten samples); the same one reuses it, so a sample costs the log
+/// channel's work alone. Results are bit-identical to [`FixedCalibration::correct_raw`] and
+/// [`FixedCalibration::correct`] for every input, errors included (only successful stages are kept).
+///
+/// The cache owns its calibration (a [`FixedCalibration`] is a few slices and a header), so a stage can
+/// never be reused with other tables. About 500 bytes of RAM, no heap.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct StageCache<'a> {
+    cal: FixedCalibration<'a>,
+    /// The kept stage's temperature: a temperature code, or `1 << 32 | m°C as u32`; [`NO_KEY`] when empty.
+    key: u64,
+    row: RowStage,
+    /// Lowest and highest code outside the rail margins: the one range check of a sample.
+    code_lo: u32,
+    code_hi: u32,
+}
+
+/// [`StageCache::key`] when no stage is kept (above every key).
+const NO_KEY: u64 = u64::MAX;
+
+/// A row stage that is never read (the cache starts with [`NO_KEY`]).
+const EMPTY_ROW: RowStage = RowStage {
+    stage: TemperatureStage {
+        extrapolated: false,
+        seg: 0,
+        w: [0; 4],
+        offset: 0,
+        inv_slope: 0,
+        ln_bias: 0,
+        u_min: 0,
+    },
+    fast: None,
+    row: [0; ROW_CAPACITY],
+    len: 0,
+};
+
+impl<'a> StageCache<'a> {
+    /// An empty cache over a calibration (validate the calibration first, as for direct use).
+    pub const fn new(cal: FixedCalibration<'a>) -> StageCache<'a> {
+        let h = &cal.header;
+        let code_lo = h.rail_margin.saturating_add(1);
+        let code_hi = match h.adc_max_code.checked_sub(h.rail_margin) {
+            Some(v) => v.saturating_sub(1),
+            None => 0,
+        };
+        StageCache { cal, key: NO_KEY, row: EMPTY_ROW, code_lo, code_hi }
+    }
+
+    /// The calibration the cache corrects with.
+    pub fn calibration(&self) -> &FixedCalibration<'a> {
+        &self.cal
+    }
+
+    /// Forgets the kept stage (nothing else changes: the next call builds it again).
+    pub fn clear(&mut self) {
+        self.key = NO_KEY;
+    }
+
+    /// [`FixedCalibration::correct_raw`] through the cache.
+    #[inline(always)]
+    pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
+        self.correct_keyed(code, u64::from(temp_code))
+    }
+
+    /// [`FixedCalibration::correct`] through the cache.
+    #[inline(always)]
+    pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
+        self.correct_keyed(code, 1 << 32 | u64::from(temp_mc as u32))
+    }
+
+    #[inline(always)]
+    fn correct_keyed(&mut self, code: u32, key: u64) -> Result<FixedReading, Error> {
+        // The same order of checks as the direct path: the code, then the temperature. Codes between the
+        // rail margins pass `check_code`; the others get its exact error.
+        if !(self.code_lo <= code && code <= self.code_hi) {
+            self.cal.check_code(code)?;
+        }
+        if key != self.key {
+            return self.miss(code, key);
+        }
+        self.cal.correct_row_checked(&self.row, code)
+    }
+
+    /// A new temperature: builds and keeps its row stage (out of line: the rare path). Where no row stage
+    /// can be built (a residual grid wider than [`ROW_CAPACITY`], or tables `validate` refuses), the
+    /// reading goes through the plain stage, uncached, exactly as the direct path computes it.
+    #[inline(never)]
+    fn miss(&mut self, code: u32, key: u64) -> Result<FixedReading, Error> {
+        self.key = NO_KEY;
+        let stage = if key >> 32 == 0 {
+            self.cal.stage_code(key as u32)?
+        } else {
+            self.cal.stage_millicelsius(key as u32 as i32)?
+        };
+        match self.cal.fill_row_stage(&stage, &mut self.row) {
+            Ok(()) => {
+                self.key = key;
+                self.cal.correct_row_checked(&self.row, code)
+            }
+            Err(_) => self.cal.correct_staged(&stage, code),
+        }
     }
 }
 
@@ -402,19 +659,22 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     fn columns(&self, stage: &TemperatureStage, col: usize) -> Result<[i64; 4], Error> {
         let stride = usize::from(self.header.xa_knots) + 2;
-        let mut rows = [[0i64; 4]; 4];
-        for (k, r) in rows.iter_mut().enumerate() {
-            let start =
-                stage.seg.checked_add(k).and_then(|j| j.checked_mul(stride)).and_then(|j| j.checked_add(col));
-            *r = four_i16(self.residual, start.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
-        }
-        let w = &stage.w;
-        let [r0, r1, r2, r3] = rows;
-        let mut out = [0i64; 4];
-        for ((((o, a), b), c), d) in out.iter_mut().zip(r0).zip(r1).zip(r2).zip(r3) {
-            *o = dot4(w, [a, b, c, d]) >> (W_BITS - RESIDUAL_GUARD);
-        }
-        Ok(out)
+        // The four rows' windows start at `first + k·stride`; one slice holds all of them.
+        let first = stage.seg.checked_mul(stride).and_then(|j| j.checked_add(col)).ok_or(BAD_TABLE)?;
+        let end = stride.checked_mul(3).and_then(|j| j.checked_add(first)).and_then(|j| j.checked_add(4));
+        let block = self.residual.get(first..end.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
+        let r0 = four_i16(block, 0).ok_or(BAD_TABLE)?;
+        let r1 = four_i16(block, stride).ok_or(BAD_TABLE)?;
+        let r2 = four_i16(block, 2 * stride).ok_or(BAD_TABLE)?;
+        let r3 = four_i16(block, 3 * stride).ok_or(BAD_TABLE)?;
+        let [w0, w1, w2, w3] = stage.w;
+        let sh = W_BITS - RESIDUAL_GUARD;
+        Ok([
+            (w0 * r0[0] + w1 * r1[0] + w2 * r2[0] + w3 * r3[0]) >> sh,
+            (w0 * r0[1] + w1 * r1[1] + w2 * r2[1] + w3 * r3[1]) >> sh,
+            (w0 * r0[2] + w1 * r1[2] + w2 * r2[2] + w3 * r3[2]) >> sh,
+            (w0 * r0[3] + w1 * r1[3] + w2 * r2[3] + w3 * r3[3]) >> sh,
+        ])
     }
 
     /// The temperature stage with the residual collapsed over temperature for every x̃ column: the
@@ -423,23 +683,40 @@ impl<'a> FixedCalibration<'a> {
     /// bit-identical to [`FixedCalibration::correct_staged`]. [`Error::InvalidCalibration`] when the grid has
     /// more than [`ROW_CAPACITY`] − 2 knots.
     pub fn row_stage(&self, stage: &TemperatureStage) -> Result<RowStage, Error> {
+        let mut rs = EMPTY_ROW;
+        self.fill_row_stage(stage, &mut rs)?;
+        Ok(rs)
+    }
+
+    /// [`FixedCalibration::row_stage`] into a caller's row stage (no copy of its 66 columns).
+    fn fill_row_stage(&self, stage: &TemperatureStage, rs: &mut RowStage) -> Result<(), Error> {
         let n = usize::from(self.header.xa_knots) + 2;
         if n > ROW_CAPACITY {
             return Err(BAD_TABLE);
         }
-        let mut row = [0i32; ROW_CAPACITY];
-        // Four columns at a time; the last group may overlap the one before it.
-        let mut col = 0;
-        while col < n {
-            let start = col.min(n.saturating_sub(4));
-            let c = self.columns(stage, start)?;
-            for (dst, v) in row.iter_mut().skip(start).zip(c) {
-                // Below 2^30.6: fits.
-                *dst = v as i32;
-            }
-            col = start + 4;
+        // The four rows of the stage's segment, each `n` control points long, collapsed column by column
+        // exactly as `columns` does it four at a time.
+        let first = stage.seg.checked_mul(n).ok_or(BAD_TABLE)?;
+        let row_k = |k: usize| {
+            let start = n.checked_mul(k).and_then(|j| j.checked_add(first))?;
+            self.residual.get(start..start.checked_add(n)?)
+        };
+        let (r0, r1, r2, r3) = match (row_k(0), row_k(1), row_k(2), row_k(3)) {
+            (Some(a), Some(b), Some(c), Some(d)) => (a, b, c, d),
+            _ => return Err(BAD_TABLE),
+        };
+        let [w0, w1, w2, w3] = stage.w;
+        let sh = W_BITS - RESIDUAL_GUARD;
+        let cols = r0.iter().zip(r1).zip(r2).zip(r3);
+        for (dst, (((&a, &b), &c), &d)) in rs.row.iter_mut().zip(cols) {
+            let v = (w0 * i64::from(a) + w1 * i64::from(b) + w2 * i64::from(c) + w3 * i64::from(d)) >> sh;
+            // Below 2^30.6 (weights summing to 6·2^28, i16 values, shifted by 15): fits.
+            *dst = v as i32;
         }
-        Ok(RowStage { stage: *stage, row, len: n })
+        rs.stage = *stage;
+        rs.fast = RowFast::new(&self.header, stage);
+        rs.len = n;
+        Ok(())
     }
 
     /// The log-channel part of a correction at a [`RowStage`]: bit-identical to
@@ -447,20 +724,54 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     pub fn correct_row(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
-        let row = rs.row.get(..rs.len).ok_or(BAD_TABLE)?;
-        let x = self.x_q24(&rs.stage, code, Some(row))?;
+        self.correct_row_checked(rs, code)
+    }
+
+    /// [`FixedCalibration::correct_row`] for a code already checked.
+    #[inline(always)]
+    fn correct_row_checked(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
+        let x = match &rs.fast {
+            Some(f) => f.x(&rs.row, code)?,
+            None => {
+                let row = rs.row.get(..rs.len).ok_or(BAD_TABLE)?;
+                self.x_from_u(
+                    &rs.stage,
+                    self.u_q24(&rs.stage, code),
+                    Some(row),
+                    ResidualScale::of(&self.header),
+                )?
+            }
+        };
         Ok(FixedReading { x, temperature_extrapolated: rs.stage.extrapolated })
+    }
+
+    /// u = (code − O(T))/S(T) in Q24 for a checked code, clamped to ±2^31 (any table content).
+    #[inline(always)]
+    fn u_q24(&self, stage: &TemperatureStage, code: u32) -> i64 {
+        let h = &self.header;
+        let qo = u32::from(h.offset_frac).min(30);
+        let qs = u32::from(h.inv_slope_frac).min(62);
+        // code < 2^32, so code·2^30 < 2^62; the offset is below 2^33.6 (six times an i32).
+        let diff = (i64::from(code) << qo) - stage.offset;
+        rescale(diff.saturating_mul(stage.inv_slope), qo + qs, X_FRAC).clamp(-X_CLAMP, X_CLAMP)
     }
 
     /// x in Q24 at a temperature stage for a checked code.
     #[inline(always)]
     fn x_q24(&self, stage: &TemperatureStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
+        self.x_from_u(stage, self.u_q24(stage, code), row, ResidualScale::of(&self.header))
+    }
+
+    /// x in Q24 from u (steps 4 and 5 of the chain).
+    #[inline(always)]
+    fn x_from_u(
+        &self,
+        stage: &TemperatureStage,
+        u: i64,
+        row: Option<&[i32]>,
+        scale: ResidualScale,
+    ) -> Result<i32, Error> {
         let h = &self.header;
-        let qo = u32::from(h.offset_frac).min(30);
-        let qs = u32::from(h.inv_slope_frac).min(62);
-        // code < 2^32, so code·2^30 < 2^62; the offset is in i32 range.
-        let diff = (i64::from(code) << qo) - stage.offset;
-        let u = rescale(diff.saturating_mul(stage.inv_slope), qo + qs, X_FRAC).clamp(-X_CLAMP, X_CLAMP);
         if u < stage.u_min {
             return Err(Error::BelowRange);
         }
@@ -481,9 +792,8 @@ impl<'a> FixedCalibration<'a> {
             Some(row) => interp::four_i32(row, col).ok_or(BAD_TABLE)?,
             None => self.columns(stage, col)?,
         };
-        // Below 2^61.2.
-        let r = round_shr_small(dot4(&wu, cols), W_BITS);
-        let r = rescale(r, u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD, X_FRAC);
+        // Below 2^61.2 before the shift, 2^33.2 after it.
+        let r = scale.apply(round_shr_small(dot4(&wu, cols), W_BITS));
         let x = xa + r;
         if x < i64::from(h.x_min) {
             return Err(Error::BelowRange);

@@ -221,6 +221,93 @@ fn row_stage_is_bit_identical_to_the_stage() {
     assert_eq!(c.row_stage(&s), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
 }
 
+/// A linear unit with a bias bend, a sensitivity limit and a structured residual: every step of the chain
+/// does something.
+fn bent() -> Owned {
+    let mut o = linear();
+    o.header.bias_bend = true;
+    o.header.sensitivity_limit = true;
+    o.ln_bias = (0..6).map(|i| -(3 << 22) + i * 40_000).collect();
+    o.u_min = vec![-10_485_760; 6];
+    o.header.x_min = -16 << 24;
+    o.header.xa_origin = -18 << 24;
+    o.header.xa_inv_step = 1_864_135;
+    for (i, r) in o.residual.iter_mut().enumerate() {
+        *r = ((i as i32 * 7919) % 2001 - 1000) as i16;
+    }
+    o
+}
+
+#[test]
+fn stage_cache_is_bit_identical_to_the_direct_path() {
+    for o in [linear(), bent()] {
+        let c = o.view();
+        let mut cache = StageCache::new(c);
+        // Temperature codes repeated, alternating, in and out of the sensor's span; log codes over the whole
+        // converter and beyond, so hits, misses and every error go through the cache.
+        let temp_codes = [2000, 2000, 2001, 2000, 99, 4001, 9, 5000, 100, 4000, 3000, 3000];
+        for (k, &tc) in temp_codes.iter().cycle().take(60).enumerate() {
+            for code in (0..=65535u32).step_by(997 + k).chain([15, 16, 17, 65519, 65520, u32::MAX]) {
+                assert_eq!(
+                    cache.correct_raw(code, tc),
+                    c.correct_raw(code, tc),
+                    "code {code}, temp code {tc}"
+                );
+            }
+        }
+        // m°C keys never collide with temperature codes of the same number.
+        for (tc, mc) in [(2000u32, 2000i32), (3000, 3000), (3000, -3000), (2000, 2000)] {
+            for code in (0..=65535u32).step_by(1009) {
+                assert_eq!(cache.correct(code, mc), c.correct(code, mc), "code {code} at {mc} m°C");
+                assert_eq!(
+                    cache.correct_raw(code, tc),
+                    c.correct_raw(code, tc),
+                    "code {code}, temp code {tc}"
+                );
+            }
+        }
+        for mc in [-5001, -5000, 55_000, 55_001, i32::MIN, i32::MAX] {
+            assert_eq!(cache.correct(30_000, mc), c.correct(30_000, mc), "{mc} m°C");
+        }
+        cache.clear();
+        assert_eq!(cache.correct(30_000, 20_000), c.correct(30_000, 20_000));
+        assert_eq!(cache.calibration(), &c);
+    }
+}
+
+#[test]
+fn row_stage_fast_form_matches_at_the_scale_limits() {
+    // The plain-arithmetic row form is only used where it is exact; near the scales' limits it must step
+    // aside to the saturating form and still agree with the direct path.
+    let mut rng = Rng(0x2545_f491_4f6c_dd1d);
+    for _ in 0..300 {
+        let mut o = bent();
+        o.header.offset_frac = (rng.next() % 34) as u8;
+        o.header.inv_slope_frac = (rng.next() % 66) as u8;
+        o.header.residual_frac = (rng.next() % 34) as u8;
+        o.header.adc_max_code = [65535, 1 << 20, u32::MAX][(rng.next() % 3) as usize];
+        let off = rng.i32();
+        let slope = rng.i32().max(1);
+        o.offset = vec![off; 6];
+        o.inv_slope = vec![slope; 6];
+        for r in o.residual.iter_mut() {
+            *r = rng.next() as i16;
+        }
+        let c = o.view();
+        let mut cache = StageCache::new(c);
+        for tc in [150, 2000, 3999] {
+            for _ in 0..40 {
+                let code = (rng.next() % (u64::from(o.header.adc_max_code) + 2)) as u32;
+                assert_eq!(
+                    cache.correct_raw(code, tc),
+                    c.correct_raw(code, tc),
+                    "code {code}, temp code {tc}"
+                );
+            }
+        }
+    }
+}
+
 #[test]
 fn sensitivity_limit_and_bias_floor() {
     let mut o = linear();
@@ -380,7 +467,8 @@ fn garbage_tables_never_panic_or_wrap() {
                     let _ = r.value(u);
                 }
             }
-            let _ = c.correct_raw(code, rng.next() as u32);
+            let tc = rng.next() as u32;
+            assert_eq!(StageCache::new(c).correct_raw(code, tc), c.correct_raw(code, tc));
         }
     }
 }

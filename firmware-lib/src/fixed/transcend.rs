@@ -12,7 +12,7 @@
 //! Measured errors are in the module's tests (exhaustive where the input is 16-bit or less) and in the
 //! host's table tests.
 
-use super::interp::{round_shr, segment, spline1, weights, POS_FRAC};
+use super::interp::{round_shr, spline1, weights_in, POS_FRAC};
 use super::universal::{BEND, EXP2};
 use crate::error::Error;
 
@@ -56,12 +56,15 @@ pub fn bend_q24(v: i64) -> Result<i64, Error> {
     }
     // v is in [2^14, 2^29): its top bit e24 is 14..=28.
     let e24 = 63 - v.leading_zeros();
-    let octave = (e24 as i32 - floor_bit) as usize;
+    let octave = (e24 - floor_bit as u32) as usize;
     let m = v - (1i64 << e24); // < 2^e24 ≤ 2^28
-    let pos = (m << (POS_FRAC + BEND_SEGMENTS_LOG2)) >> e24; // Q20 knots inside the octave, < 2^51 before the shift
-    let (seg, t) = segment(pos, BEND_SEGMENTS + 1);
+                               // Q20 knots inside the octave: below 8·2^20 (m·2^23 < 2^51 before the shift), so the segment is the top
+                               // three bits and the fraction the low twenty, as `segment` would clamp them.
+    let pos = (m << (POS_FRAC + BEND_SEGMENTS_LOG2)) >> e24;
+    let seg = ((pos >> POS_FRAC) as usize) & (BEND_SEGMENTS - 1);
+    let t = pos & ((1i64 << POS_FRAC) - 1);
     let start = octave * BEND_STRIDE + seg;
-    spline1(&BEND, start, &weights(t))
+    spline1(&BEND, start, &weights_in(t))
         .ok_or(Error::InvalidCalibration(crate::error::CalibrationDefect::Coefficient))
 }
 
