@@ -100,3 +100,22 @@ fn naive_f32_raw_to_db(b: divan::Bencher) {
         acc
     });
 }
+
+/// Fixed path through a `StageCache`, raw codes to power dB, on a stream whose temperature code changes
+/// every 64 samples (a slow temperature channel): the same inputs with each temperature held for 64.
+#[divan::bench(sample_count = 50)]
+fn fixed_cached_raw_to_db(b: divan::Bencher) {
+    let s = setup();
+    let held: Vec<(u32, u32)> =
+        s.inputs.iter().enumerate().map(|(k, &(code, _, _, _))| (code, s.inputs[k - k % 64].1)).collect();
+    let mut cache = logtrim::fixed::StageCache::new(s.tables.view());
+    b.counter(divan::counter::ItemsCount::new(N)).bench_local(|| {
+        let mut acc = 0i64;
+        for &(code, tc) in &held {
+            if let Ok(r) = cache.correct_raw(black_box(code), black_box(tc)) {
+                acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
+            }
+        }
+        acc
+    });
+}
