@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 
 use common::{ntc, units};
-use logtrim::fixed::{FixedCalibration, FixedReading};
+use logtrim::fixed::{FixedCalibration, FixedReading, StageCache};
 use logtrim::{Error, Unit};
 use logtrim_host::emit::{self, c::status_code, Format, Provenance};
 use logtrim_host::tables::{self, FixedTables, TableOptions, TemperatureChannel};
@@ -102,12 +102,24 @@ fn inputs() -> Vec<(char, u32, i64)> {
             v.push(('w', code, mc));
         }
     }
+    // Through one stage cache kept across lines: temperatures repeated (hits), changed (misses), bad ones
+    // (uncached errors), and m°C keys next to temperature codes of the same number.
+    for &code in &codes {
+        for tc in [1500u32, 1500, 300, 300, 4095, 1500] {
+            v.push(('c', code, i64::from(tc)));
+        }
+        for mc in [1500i64, 1500, 40_000, 90_001] {
+            v.push(('k', code, mc));
+        }
+    }
     v
 }
 
-fn rust_line(c: &FixedCalibration<'_>, kind: char, code: u32, t: i64) -> String {
+fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, code: u32, t: i64) -> String {
     let r: Result<FixedReading, Error> = match kind {
         'm' => c.correct(code, t as i32),
+        'c' => cache.correct_raw(code, t as u32),
+        'k' => cache.correct(code, t as i32),
         'w' => c
             .stage_millicelsius(t as i32)
             .and_then(|s| c.row_stage(&s))
@@ -132,10 +144,16 @@ int main(void) {
     char kind;
     unsigned long code;
     long long t;
+    static lt_stage_cache cache;
+    lt_stage_cache_init(&cache, &LT_UNIT);
     while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
         lt_reading r;
         lt_status st;
-        if (kind == 'w') {
+        if (kind == 'c') {
+            st = lt_stage_cache_correct_raw(&cache, (uint32_t)code, (uint32_t)t, &r);
+        } else if (kind == 'k') {
+            st = lt_stage_cache_correct(&cache, (uint32_t)code, (int32_t)t, &r);
+        } else if (kind == 'w') {
             lt_stage s;
             lt_row_stage rs;
             st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
@@ -203,9 +221,10 @@ fn emitted_c_compiles_and_agrees_bit_for_bit() {
     let lines: Vec<&str> = text.lines().collect();
     assert_eq!(lines.len(), inputs.len());
     let view = t.view();
+    let mut cache = StageCache::new(view);
     let mut ok = 0;
     for ((k, code, t), line) in inputs.iter().zip(&lines) {
-        let want = rust_line(&view, *k, *code, *t);
+        let want = rust_line(&view, &mut cache, *k, *code, *t);
         assert_eq!(*line, want, "input {k} {code} {t}");
         ok += usize::from(line.starts_with("0 "));
     }

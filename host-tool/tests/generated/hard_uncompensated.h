@@ -285,7 +285,7 @@ static inline lt_status lt_stage_millicelsius(const lt_fixed *c, int32_t temp_mc
 }
 
 static inline lt_status lt_stage_code(const lt_fixed *c, uint32_t temp_code, lt_stage *s) {
-    int32_t theta;
+    int32_t theta = 0;
     lt_status st = lt_theta_from_code(c, temp_code, &theta);
     if (st != LT_OK) return st;
     return lt_stage_theta(c, theta, s);
@@ -387,6 +387,51 @@ static inline lt_status lt_correct_row(const lt_fixed *c, const lt_row_stage *rs
     if ((st = lt_x_q24(c, &rs->stage, code, rs->row, rs->len, &out->x)) != LT_OK) return st;
     out->temperature_extrapolated = rs->stage.extrapolated;
     return LT_OK;
+}
+
+/* The row stage of the last temperature (see logtrim::fixed::StageCache): rebuilt only when the temperature
+ * code (or m°C value) changes, bit-identical to lt_correct_raw / lt_correct, errors included. Start it with
+ * lt_stage_cache_init; one cache belongs to one calibration. */
+typedef struct lt_stage_cache {
+    const lt_fixed *cal;
+    int valid;
+    uint64_t key; /* a temperature code, or 1 << 32 | (uint32_t)m°C */
+    lt_row_stage rs;
+} lt_stage_cache;
+
+static inline void lt_stage_cache_init(lt_stage_cache *k, const lt_fixed *c) {
+    k->cal = c;
+    k->valid = 0;
+    k->key = 0u;
+}
+
+static inline lt_status lt_stage_cache_keyed(lt_stage_cache *k, uint32_t code, uint64_t key, lt_reading *out) {
+    const lt_fixed *c = k->cal;
+    lt_stage s;
+    lt_status st = lt_check_code(c, code);
+    if (st != LT_OK) return st;
+    if (!(k->valid && k->key == key)) {
+        k->valid = 0;
+        st = (key >> 32) == 0u ? lt_stage_code(c, (uint32_t)key, &s)
+                               : lt_stage_millicelsius(c, (int32_t)(uint32_t)(key & 0xffffffffu), &s);
+        if (st != LT_OK) return st;
+        /* Where no row stage can be built, the plain stage, uncached. */
+        if (lt_row_stage_from(c, &s, &k->rs) != LT_OK) return lt_correct_staged(c, &s, code, out);
+        k->valid = 1;
+        k->key = key;
+    }
+    return lt_correct_row(c, &k->rs, code, out);
+}
+
+/* lt_correct_raw through a stage cache. */
+static inline lt_status lt_stage_cache_correct_raw(lt_stage_cache *k, uint32_t code, uint32_t temp_code,
+                                                   lt_reading *out) {
+    return lt_stage_cache_keyed(k, code, (uint64_t)temp_code, out);
+}
+
+/* lt_correct through a stage cache. */
+static inline lt_status lt_stage_cache_correct(lt_stage_cache *k, uint32_t code, int32_t temp_mc, lt_reading *out) {
+    return lt_stage_cache_keyed(k, code, ((uint64_t)1 << 32) | (uint64_t)(uint32_t)temp_mc, out);
 }
 
 /* Corrects one reading: log code and temperature in m°C. */
