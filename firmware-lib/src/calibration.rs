@@ -41,6 +41,11 @@
 //!
 //! The same code is evaluated in f32 (with a chosen [`Backend`]) and in f64 ([`Calibration::correct_f64`],
 //! the host's reference), so the host tests exactly what the firmware runs.
+//!
+//! A correction is a temperature stage (the temperature's checks, offset, slope, bends and τ), computed once
+//! per temperature by [`Calibration::stage_with`] (f32) or [`Calibration::reference_stage`] (f64), and a
+//! per-code part, [`Calibration::correct_staged`] or [`Calibration::correct_staged_f64`].
+//! [`Calibration::correct_with`] is exactly the two f32 steps in one call.
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
@@ -418,8 +423,28 @@ impl Calibration {
     }
 
     /// Corrects one reading with a chosen f32 backend.
+    ///
+    /// This is [`Calibration::stage_with`] followed by [`Calibration::correct_staged`]: the errors come in
+    /// this order: the code ([`AdcScaling::check_code`]), then the temperature (non-finite, invalid
+    /// calibration, out of range, slope), then the log channel (range, sensitivity).
     pub fn correct_with<B: Backend>(&self, code: u32, temp_c: f32) -> Result<Reading, Error> {
-        let p = self.evaluate::<F32Math<B>>(code, temp_c)?;
+        self.correct_staged(&self.stage_with::<B>(temp_c), code)
+    }
+
+    /// The temperature-dependent part of an f32 correction at `temp_c`, computed once and reusable for any
+    /// number of log codes at that temperature ([`Calibration::correct_staged`]). A temperature that cannot
+    /// be corrected is kept in the stage as its error, reported for each code that passes its own check.
+    pub fn stage_with<B: Backend>(&self, temp_c: f32) -> F32Stage<B> {
+        F32Stage { inner: self.temperature_stage::<F32Math<B>>(temp_c), backend: core::marker::PhantomData }
+    }
+
+    /// The log-channel part of an f32 correction at a stage of this calibration: bit for bit the result
+    /// (value or error) of [`Calibration::correct_with`] at the stage's temperature. A stage made by another
+    /// calibration gives that calibration's temperature terms (no panic, but a meaningless reading).
+    pub fn correct_staged<B: Backend>(&self, stage: &F32Stage<B>, code: u32) -> Result<Reading, Error> {
+        self.adc.check_code(code)?;
+        let ts = stage.inner.as_ref().map_err(|e| *e)?;
+        let p = self.evaluate_staged::<F32Math<B>>(f32::of_u32(code), ts)?;
         Ok(Reading { x: p.x, temperature_extrapolated: p.extrapolated })
     }
 
@@ -479,16 +504,16 @@ impl Calibration {
         })
     }
 
-    fn evaluate<M: MathOps>(&self, code: u32, temp_c: f32) -> Result<Point<M::F>, Error> {
-        self.adc.check_code(code)?;
-        self.evaluate_real::<M>(M::F::of_u32(code), M::F::of_f32_input(temp_c)?)
-    }
-
     /// The common body of the f32 and f64 corrections, after the code has been checked.
     fn evaluate_real<M: MathOps>(&self, code: M::F, temp_c: M::F) -> Result<Point<M::F>, Error> {
+        let ts = self.temperature_stage::<M>(temp_c)?;
+        self.evaluate_staged::<M>(code, &ts)
+    }
+
+    /// The temperature part of [`Calibration::evaluate_real`]: the temperature's checks and the stage.
+    fn temperature_stage<M: MathOps>(&self, temp_c: M::F) -> Result<TempStage<M::F>, Error> {
         type F<M> = <M as MathOps>::F;
         let of = F::<M>::of;
-        let one = of(1.0);
         if !temp_c.finite() {
             return Err(Error::NonFinite);
         }
@@ -500,10 +525,17 @@ impl Calibration {
             return Err(Error::TemperatureOutOfRange { celsius: temp_c.to_f32() });
         }
         let extrapolated = temp_c < tmin || temp_c > tmax;
+        Ok(TempStage { st: self.stage::<M>(temp_c)?, extrapolated })
+    }
 
-        let st = self.stage::<M>(temp_c)?;
+    /// The log-channel part of [`Calibration::evaluate_real`] at a temperature stage.
+    fn evaluate_staged<M: MathOps>(&self, code: M::F, ts: &TempStage<M::F>) -> Result<Point<M::F>, Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let one = of(1.0);
+        let (st, extrapolated) = (&ts.st, ts.extrapolated);
         let w = (code - st.offset) / st.slope;
-        let (x, sens) = self.x_from_w::<M>(w, &st)?;
+        let (x, sens) = self.x_from_w::<M>(w, st)?;
         if sens < of(self.x_range.min_sensitivity) || x < of(self.x_range.min) {
             return Err(Error::BelowRange);
         }
@@ -652,11 +684,113 @@ impl Calibration {
     }
 }
 
+impl Calibration {
+    /// The temperature-dependent part of [`Calibration::correct_f64`] at `temp_c`, computed once and reusable
+    /// for any number of whole log codes at that temperature ([`Calibration::correct_staged_f64`]).
+    pub fn reference_stage(&self, temp_c: f64) -> ReferenceStage {
+        ReferenceStage { non_finite: !temp_c.is_finite(), inner: self.temperature_stage::<F64Math>(temp_c) }
+    }
+
+    /// The log-channel part of the f64 reference at a stage of this calibration: bit for bit the result
+    /// (value or error) of [`Calibration::correct_f64`]`(f64::from(code), temp_c)` at the stage's temperature.
+    pub fn correct_staged_f64(&self, stage: &ReferenceStage, code: u32) -> Result<ReadingF64, Error> {
+        if stage.non_finite {
+            return Err(Error::NonFinite);
+        }
+        self.adc.check_code(code)?;
+        let ts = stage.inner.as_ref().map_err(|e| *e)?;
+        let p = self.evaluate_staged::<F64Math>(f64::from(code), ts)?;
+        Ok(ReadingF64 {
+            x: p.x,
+            temperature_extrapolated: p.extrapolated,
+            sensitivity: p.sens,
+            dx_dcode: p.dx_dcode,
+        })
+    }
+}
+
 /// [`Error::TemperatureOutOfRange`] for a temperature given in m°C (for integer code that has no float types).
 pub fn temperature_out_of_range_millicelsius(millicelsius: i32) -> Error {
     Error::TemperatureOutOfRange { celsius: millicelsius as f32 / 1000.0 }
 }
 
+/// The temperature-dependent part of an f32 correction with backend `B`, made by
+/// [`Calibration::stage_with`] for [`Calibration::correct_staged`]: the temperature's checks and the stage of
+/// the inverse (offset, slope, bends, τ), or the temperature's error.
+pub struct F32Stage<B> {
+    inner: Result<TempStage<f32>, Error>,
+    backend: core::marker::PhantomData<fn() -> B>,
+}
+
+impl<B> F32Stage<B> {
+    /// The temperature's error, if it cannot be corrected (reported only for codes that pass their check).
+    pub fn error(&self) -> Option<Error> {
+        self.inner.err()
+    }
+
+    /// Whether the temperature lies outside the calibrated range, within the allowed extrapolation.
+    pub fn extrapolated(&self) -> bool {
+        matches!(&self.inner, Ok(ts) if ts.extrapolated)
+    }
+}
+
+impl<B> Clone for F32Stage<B> {
+    fn clone(&self) -> Self {
+        *self
+    }
+}
+
+impl<B> Copy for F32Stage<B> {}
+
+impl<B> core::fmt::Debug for F32Stage<B> {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.debug_struct("F32Stage").field("inner", &self.inner).finish()
+    }
+}
+
+impl<B> PartialEq for F32Stage<B> {
+    fn eq(&self, other: &Self) -> bool {
+        self.inner == other.inner
+    }
+}
+
+#[cfg(feature = "defmt")]
+impl<B> defmt::Format for F32Stage<B> {
+    fn format(&self, f: defmt::Formatter<'_>) {
+        match &self.inner {
+            Ok(ts) => {
+                defmt::write!(f, "F32Stage {{ extrapolated: {}, tau: {} }}", ts.extrapolated, ts.st.tau)
+            }
+            Err(e) => defmt::write!(f, "F32Stage {{ error: {} }}", e),
+        }
+    }
+}
+
+/// The temperature-dependent part of the f64 reference, made by [`Calibration::reference_stage`] for
+/// [`Calibration::correct_staged_f64`] (a host helper, as [`Calibration::correct_f64`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReferenceStage {
+    /// The temperature is NaN or infinite: [`Error::NonFinite`] comes before the code's own check, as in
+    /// [`Calibration::correct_f64`].
+    non_finite: bool,
+    inner: Result<TempStage<f64>, Error>,
+}
+
+impl ReferenceStage {
+    /// The temperature's error, if it cannot be corrected.
+    pub fn error(&self) -> Option<Error> {
+        self.inner.err()
+    }
+}
+
+/// A temperature's checks done and its stage computed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct TempStage<F> {
+    st: Stage<F>,
+    extrapolated: bool,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
 struct Stage<F> {
     offset: F,
     slope: F,
@@ -719,7 +853,6 @@ trait Real:
 {
     fn of(v: f32) -> Self;
     fn of_u32(v: u32) -> Self;
-    fn of_f32_input(v: f32) -> Result<Self, Error>;
     fn finite(self) -> bool;
     fn abs_(self) -> Self;
     fn to_f32(self) -> f32;
@@ -733,9 +866,6 @@ impl Real for f32 {
     }
     fn of_u32(v: u32) -> Self {
         v as f32
-    }
-    fn of_f32_input(v: f32) -> Result<Self, Error> {
-        Ok(v)
     }
     fn finite(self) -> bool {
         self.is_finite()
@@ -757,9 +887,6 @@ impl Real for f64 {
     }
     fn of_u32(v: u32) -> Self {
         f64::from(v)
-    }
-    fn of_f32_input(v: f32) -> Result<Self, Error> {
-        Ok(f64::from(v))
     }
     fn finite(self) -> bool {
         self.is_finite()

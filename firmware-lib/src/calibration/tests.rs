@@ -1,4 +1,6 @@
 use super::*;
+use std::vec;
+use std::vec::Vec;
 
 fn hard_unit() -> Calibration {
     // An uncompensated-like unit with a strong low-end bend and a visible high-end bend.
@@ -125,5 +127,145 @@ fn residual_is_added_and_undone_by_forward() {
         let code = c.forward_code_f64(x, 40.0);
         let r = c.correct_f64(code, 40.0).unwrap();
         assert!((r.x - x).abs() < 1e-9, "{} vs {x}", r.x);
+    }
+}
+
+/// Temperatures for the staged sweeps: a dense grid over and beyond the accepted range, the range's ends and
+/// their f32 neighbours, and non-finite values.
+fn sweep_temperatures(c: &Calibration) -> Vec<f32> {
+    let t = &c.temperature;
+    let (lo, hi) = (t.min_c - t.extrapolation_k, t.max_c + t.extrapolation_k);
+    let mut v: Vec<f32> = (0..=400).map(|i| lo - 7.0 + (hi - lo + 14.0) * i as f32 / 400.0).collect();
+    for e in [lo, hi, t.min_c, t.max_c] {
+        v.extend([e, f32::from_bits(e.to_bits() - 1), f32::from_bits(e.to_bits() + 1)]);
+    }
+    v.extend([f32::NAN, f32::INFINITY, f32::NEG_INFINITY]);
+    v
+}
+
+/// Codes for the staged sweeps: every 7th code, both rails with their margins, and codes beyond the converter.
+fn sweep_codes(c: &Calibration) -> Vec<u32> {
+    let max = c.adc.max_code().unwrap_or(65535);
+    let m = c.adc.rail_margin;
+    let mut v: Vec<u32> = (0..=max).step_by(7).collect();
+    v.extend((0..=m + 2).chain(max - m - 2..=max + 2));
+    v.extend([70000, u32::MAX]);
+    v
+}
+
+/// Calibrations for the staged sweeps: the hard unit, one without bends (no Newton), one without
+/// extrapolation, and invalid ones (the temperature stage's own errors, the converter's bits).
+fn sweep_units() -> Vec<Calibration> {
+    let mut v = vec![hard_unit()];
+    let mut plain = hard_unit();
+    plain.model.bulk = Series::ZERO;
+    plain.model.bias = BiasTerm::OFF;
+    v.push(plain);
+    let mut strict = hard_unit();
+    strict.temperature.extrapolation_k = 0.0;
+    v.push(strict);
+    let mut flat = hard_unit();
+    flat.model.slope = Series::ZERO;
+    v.push(flat);
+    let mut hollow = hard_unit();
+    hollow.x_range.max = hollow.x_range.min;
+    v.push(hollow);
+    let mut wide = hard_unit();
+    wide.adc.bits = 30;
+    v.push(wide);
+    v
+}
+
+fn same_f32(a: &Result<Reading, Error>, b: &Result<Reading, Error>) -> bool {
+    match (a, b) {
+        (Ok(a), Ok(b)) => {
+            a.x.to_bits() == b.x.to_bits() && a.temperature_extrapolated == b.temperature_extrapolated
+        }
+        (Err(a), Err(b)) => a == b,
+        _ => false,
+    }
+}
+
+fn same_f64(a: &Result<ReadingF64, Error>, b: &Result<ReadingF64, Error>) -> bool {
+    match (a, b) {
+        (Ok(a), Ok(b)) => {
+            a.x.to_bits() == b.x.to_bits()
+                && a.temperature_extrapolated == b.temperature_extrapolated
+                && a.sensitivity.to_bits() == b.sensitivity.to_bits()
+                && a.dx_dcode.to_bits() == b.dx_dcode.to_bits()
+        }
+        (Err(a), Err(b)) => a == b,
+        _ => false,
+    }
+}
+
+/// One f32 stage reused for every code gives, bit for bit, what a fresh evaluation of the same point gives:
+/// the code's check, then the temperature's checks and stage, then the log channel, all for that one point.
+fn staged_f32_matches<B: Backend>() {
+    for c in sweep_units() {
+        let codes = sweep_codes(&c);
+        let (mut values, mut errors) = (0u32, 0u32);
+        for t in sweep_temperatures(&c) {
+            let stage = c.stage_with::<B>(t);
+            for &code in &codes {
+                let staged = c.correct_staged(&stage, code);
+                let fresh = c
+                    .adc
+                    .check_code(code)
+                    .and_then(|()| c.evaluate_real::<F32Math<B>>(code as f32, t))
+                    .map(|p| Reading { x: p.x, temperature_extrapolated: p.extrapolated });
+                assert!(
+                    same_f32(&staged, &fresh),
+                    "code {code} at {t} °C: staged {staged:?}, fresh {fresh:?}"
+                );
+                let public = c.correct_with::<B>(code, t);
+                assert!(same_f32(&staged, &public), "code {code} at {t} °C: staged {staged:?}, {public:?}");
+                if staged.is_ok() {
+                    values += 1;
+                } else {
+                    errors += 1;
+                }
+            }
+        }
+        // The sweep reaches both values and errors wherever the calibration is valid.
+        assert!(errors > 0);
+        assert_eq!(values > 0, c.validate().is_ok(), "{values} values");
+    }
+}
+
+#[test]
+fn staged_f32_is_bit_identical_to_a_fresh_correction() {
+    staged_f32_matches::<Libm>();
+}
+
+#[cfg(feature = "micromath")]
+#[test]
+fn staged_f32_is_bit_identical_with_micromath() {
+    staged_f32_matches::<crate::math::Micromath>();
+}
+
+#[test]
+fn staged_f64_is_bit_identical_to_correct_f64() {
+    for c in sweep_units() {
+        let codes = sweep_codes(&c);
+        let mut kinds = std::collections::BTreeSet::new();
+        let temps = sweep_temperatures(&c).into_iter().map(f64::from).chain([25.123456789, -24.9999999]);
+        for t in temps {
+            let stage = c.reference_stage(t);
+            for &code in &codes {
+                let staged = c.correct_staged_f64(&stage, code);
+                let direct = c.correct_f64(f64::from(code), t);
+                assert!(same_f64(&staged, &direct), "code {code} at {t} °C: staged {staged:?}, {direct:?}");
+                kinds.insert(staged.map_or_else(|e| e.name(), |_| "ok"));
+            }
+        }
+        // Every kind of outcome the sweep is meant to reach is reached on the valid units.
+        if c.validate().is_ok() {
+            for k in ["ok", "saturated", "code_out_of_adc_range", "below_range", "above_range", "non_finite"]
+            {
+                assert!(kinds.contains(k), "{k} not reached: {kinds:?}");
+            }
+            assert!(kinds.contains("temperature_out_of_range"), "{kinds:?}");
+        }
     }
 }
