@@ -269,3 +269,73 @@ fn staged_f64_is_bit_identical_to_correct_f64() {
         }
     }
 }
+
+/// The warm-started reference against the exact one at every code of a temperature (and at every 97th code,
+/// where the start is farther off): the same status everywhere, x within 1e-12 Np, sensitivity and ∂x/∂code
+/// within 1e-12 relative. Returns the share of codes the warm start answered and the largest x difference.
+fn sweep_against_exact(c: &Calibration, stride: usize) -> (f64, f64) {
+    let t = &c.temperature;
+    let (lo, hi) = (t.min_c - t.extrapolation_k, t.max_c + t.extrapolation_k);
+    let max = c.adc.max_code().unwrap_or(65535);
+    let (mut warm, mut points, mut worst) = (0u64, 0u64, 0f64);
+    for i in 0..=24 {
+        let temp = f64::from(lo - 1.0) + f64::from(hi - lo + 2.0) * f64::from(i) / 24.0;
+        let stage = c.reference_stage(temp);
+        let mut sweep = c.reference_sweep(temp);
+        for code in (0..=max + 1).step_by(stride) {
+            let exact = c.correct_staged_f64(&stage, code);
+            let got = sweep.correct(code);
+            points += 1;
+            match (&exact, &got) {
+                (Ok(a), Ok(b)) => {
+                    let dx = (a.x - b.x).abs();
+                    worst = worst.max(dx);
+                    let rel = |p: f64, q: f64| (p - q).abs() <= 1e-12 * p.abs();
+                    assert!(
+                        dx <= 1e-12
+                            && rel(a.sensitivity, b.sensitivity)
+                            && rel(a.dx_dcode, b.dx_dcode)
+                            && a.temperature_extrapolated == b.temperature_extrapolated,
+                        "code {code} at {temp} °C: exact {a:?}, warm {b:?}"
+                    );
+                }
+                (Err(a), Err(b)) => assert_eq!(a, b, "code {code} at {temp} °C"),
+                _ => panic!("code {code} at {temp} °C: exact {exact:?}, warm {got:?}"),
+            }
+        }
+        warm += sweep.warm_points();
+    }
+    (warm as f64 / points as f64, worst)
+}
+
+#[test]
+fn warm_started_reference_matches_the_exact_reference() {
+    let hard = hard_unit();
+    // A strong bulk term: h·e^z passes ½ inside the x range, where only the exact path may answer.
+    let mut bulky = hard_unit();
+    bulky.model.bulk = Series::from_slice(&[300.0, 20.0]).unwrap_or(Series::ZERO);
+    // No sensitivity limit: values right down to where e^x vanishes next to β.
+    let mut open = hard_unit();
+    open.x_range = XRange { min: -30.0, max: 4.0, min_sensitivity: 0.0 };
+    // A negative bulk term (h < 0): the warm start never answers.
+    let mut negative = hard_unit();
+    negative.model.bulk = Series::from_slice(&[-6.0]).unwrap_or(Series::ZERO);
+    let mut plain = hard_unit();
+    plain.model.bulk = Series::ZERO;
+    for (name, c, least_warm) in [
+        ("hard", hard, 0.4),
+        ("bulky", bulky, 0.2),
+        ("open", open, 0.4),
+        ("negative", negative, 0.0),
+        ("plain", plain, 0.0),
+    ] {
+        for stride in [1, 97] {
+            let (share, worst) = sweep_against_exact(&c, stride);
+            std::eprintln!("{name}, every {stride}: warm {share:.3}, largest x difference {worst:.2e} Np");
+            assert!(share >= least_warm, "{name}: warm start answered only {share}");
+            if least_warm == 0.0 {
+                assert_eq!(share, 0.0, "{name}: no warm start where h ≤ 0");
+            }
+        }
+    }
+}
