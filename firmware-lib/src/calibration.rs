@@ -615,12 +615,26 @@ impl Calibration {
         type F<M> = <M as MathOps>::F;
         let of = F::<M>::of;
         let zero = of(0.0);
-        let (h, beta) = (st.h, st.beta);
+        let beta = st.beta;
         let y = ez - beta; // e^x
         if !(y > zero) {
             return Err(Error::BelowRange);
         }
-        let x0 = M::ln(y);
+        self.x_from_parts::<M>(ez, y, M::ln(y), st)
+    }
+
+    /// The end of [`Calibration::x_from_ez`] from `e^z`, `e^x = e^z − β > 0` and `x₀ = ln e^x`: the
+    /// sensitivity and the residual.
+    fn x_from_parts<M: MathOps>(
+        &self,
+        ez: M::F,
+        y: M::F,
+        x0: M::F,
+        st: &Stage<M::F>,
+    ) -> Result<(M::F, M::F), Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let h = st.h;
         // Sensitivity ∂w/∂x = e^x/(e^x + β) + h e^x.
         let sens = y / ez + h * y;
         let r = &self.model.residual;
@@ -727,7 +741,7 @@ impl Calibration {
     pub fn reference_sweep(&self, temp_c: f64) -> ReferenceSweep<'_> {
         let stage = self.reference_stage(temp_c);
         let inv_slope = stage.inner.as_ref().map_or(0.0, |ts| 1.0 / ts.st.slope);
-        ReferenceSweep { cal: self, stage, inv_slope, seed: None, warm: 0 }
+        ReferenceSweep { cal: self, stage, inv_slope, seed: None, near: Anchors::NONE, warm: 0 }
     }
 }
 
@@ -738,7 +752,8 @@ impl Calibration {
 /// `z + h(e^z − β) = w` by Newton from the previous code's solution (a second-order prediction, then steps
 /// until one is at most 1e-9, its error then below 1e-18), with one `exp` per code where the exact path,
 /// started at `z = w`, takes two to four. The two solutions differ only by the exact path's own remaining
-/// error (half its last step squared, its last step at most `2e-7·(1 + |z|)`).
+/// error (half its last step squared, its last step at most `2e-7·(1 + |z|)`) and rounding. Its `exp` and
+/// `ln` are libm's at an anchor, renewed every few codes, and short series from there (within 3 ULP).
 ///
 /// It vouches for the status only where the exact path provably converges to the same root within its
 /// steps (`h > 0` and `h·(e^z + β) ≤ ½`) and the point is farther than a thousand times that remaining
@@ -753,7 +768,65 @@ pub struct ReferenceSweep<'a> {
     /// `1/slope`: the warm start's w is `(code − offset)·(1/slope)`, within 2 ULP of the exact path's.
     inv_slope: f64,
     seed: Option<Seed>,
+    near: Anchors,
     warm: u64,
+}
+
+/// `exp` and `ln` near points where libm evaluated them: `e^z = e^a·e^(z−a)` and
+/// `ln y = ln b + ln(1 + (y − b)/b)` by short series while `|z − a|` and `|y − b|/b` stay at most
+/// [`ANCHOR_REACH`] (e^z within 3 ULP of libm's own value, ln y within `4e-16·(1 + |ln y|)` of it), a new
+/// anchor from libm beyond.
+#[derive(Debug, Clone, Copy)]
+struct Anchors {
+    /// a and e^a.
+    z: f64,
+    exp_z: f64,
+    /// b, ln b and 1/b.
+    y: f64,
+    ln_y: f64,
+    inv_y: f64,
+}
+
+/// How far from its anchor [`Anchors`] evaluates a series: the first omitted terms are then below 1e-19
+/// (`t⁶/720` for `exp`, `t⁷/7` for `ln`).
+const ANCHOR_REACH: f64 = 2e-3;
+
+impl Anchors {
+    const NONE: Anchors =
+        Anchors { z: f64::NAN, exp_z: f64::NAN, y: f64::NAN, ln_y: f64::NAN, inv_y: f64::NAN };
+
+    /// e^z.
+    #[inline(always)]
+    fn exp(&mut self, z: f64) -> f64 {
+        let t = z - self.z;
+        if !(libm::fabs(t) <= ANCHOR_REACH) {
+            self.z = z;
+            self.exp_z = libm::exp(z);
+            return self.exp_z;
+        }
+        // e^t − 1 to t⁵, split for a short dependency chain.
+        let t2 = t * t;
+        let em1 = t + t2 * ((0.5 + t * (1.0 / 6.0)) + t2 * (1.0 / 24.0 + t * (1.0 / 120.0)));
+        self.exp_z + self.exp_z * em1
+    }
+
+    /// ln y, for y > 0.
+    #[inline(always)]
+    fn ln(&mut self, y: f64) -> f64 {
+        let r = (y - self.y) * self.inv_y;
+        if !(libm::fabs(r) <= ANCHOR_REACH) {
+            self.y = y;
+            self.ln_y = libm::log(y);
+            self.inv_y = 1.0 / y;
+            return self.ln_y;
+        }
+        // ln(1 + r) to r⁶, split for a short dependency chain.
+        let r2 = r * r;
+        let a = r - r2 * 0.5;
+        let b = r * (1.0 / 3.0) - r2 * 0.25;
+        let c = r * 0.2 - r2 * (1.0 / 6.0);
+        self.ln_y + (a + r2 * (b + r2 * c))
+    }
 }
 
 /// A solution of the bend's equation to start the next one from.
@@ -789,7 +862,7 @@ impl ReferenceSweep<'_> {
         let st = &ts.st;
         if let Some(seed) = self.seed.take() {
             let w = (f64::from(code) - st.offset) * self.inv_slope;
-            if let Some(r) = warm(cal, ts, w, seed, &mut self.seed) {
+            if let Some(r) = warm(cal, ts, w, seed, &mut self.seed, &mut self.near) {
                 self.warm += 1;
                 return r;
             }
@@ -817,6 +890,7 @@ fn warm(
     w: f64,
     seed: Seed,
     next: &mut Option<Seed>,
+    near: &mut Anchors,
 ) -> Option<Result<ReadingF64, Error>> {
     let st = &ts.st;
     let (h, beta) = (st.h, st.beta);
@@ -829,7 +903,7 @@ fn warm(
     let mut z = seed.z + g - 0.5 * h * seed.ez * g * g * seed.inv_d;
     let (mut ez, mut inv_d) = (f64::NAN, 0.0);
     for _ in 0..WARM_STEPS {
-        let e = libm::exp(z);
+        let e = near.exp(z);
         inv_d = 1.0 / (1.0 + h * e);
         let step = (z + h * (e - beta) - w) * inv_d;
         z -= step;
@@ -862,7 +936,7 @@ fn warm(
     if y < 0.0 {
         return Some(Err(Error::BelowRange));
     }
-    let (x, sens) = cal.x_from_ez::<F64Math>(ez, st).ok()?;
+    let (x, sens) = cal.x_from_parts::<F64Math>(ez, y, near.ln(y), st).ok()?;
     let xr = &cal.x_range;
     // Errors in the sensitivity e^x/e^z + h e^x (β < e^z here) and, times e^x, in x = ln e^x + R.
     let sens_err = (rel + 2e-15) * (1.0 + he) + 1e-15;
