@@ -214,18 +214,39 @@ impl Residual {
     };
 
     fn eval<F: Real>(&self, xi: F, tau: F) -> F {
+        self.at_tau(tau).eval(xi)
+    }
+
+    /// The residual collapsed over τ: the coefficients of its series in ξ at one temperature.
+    fn at_tau<F: Real>(&self, tau: F) -> ResidualAtTau<F> {
         let nx = usize::from(self.nx).min(MAX_RESIDUAL);
         let nt = usize::from(self.nt).min(MAX_RESIDUAL);
-        if nx == 0 || nt == 0 {
-            return F::of(0.0);
-        }
-        // Collapse over τ for each i, then Clenshaw over ξ.
         let mut over_x = [F::of(0.0); MAX_RESIDUAL];
+        if nx == 0 || nt == 0 {
+            return ResidualAtTau { n: 0, over_x };
+        }
         for (i, slot) in over_x.iter_mut().enumerate().take(nx) {
             let row = self.coeffs.get(i * MAX_RESIDUAL..i * MAX_RESIDUAL + nt).unwrap_or(&[]);
             *slot = clenshaw(row, tau);
         }
-        clenshaw_f(over_x.get(..nx).unwrap_or(&[]), xi)
+        ResidualAtTau { n: nx, over_x }
+    }
+}
+
+/// The residual at one temperature: `R(ξ) = Σ_i c_i T_i(ξ)` with `c_i = Σ_j r_ij T_j(τ)` (Clenshaw over τ done).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct ResidualAtTau<F> {
+    /// Terms in use; 0 makes the residual zero.
+    n: usize,
+    over_x: [F; MAX_RESIDUAL],
+}
+
+impl<F: Real> ResidualAtTau<F> {
+    fn eval(&self, xi: F) -> F {
+        if self.n == 0 {
+            return F::of(0.0);
+        }
+        clenshaw_f(self.over_x.get(..self.n).unwrap_or(&[]), xi)
     }
 }
 
@@ -570,7 +591,8 @@ impl Calibration {
         let beta = if m.bias.enabled { M::exp(ln_beta) } else { zero };
         let offset =
             of(self.adc.level_shift_code) + (m.offset.eval(tau) + of(m.bias.reference) * ptat * beta) / den;
-        Ok(Stage { offset, slope, h: m.bulk.eval(tau) / den / slope, beta, ln_beta, tau })
+        let residual = m.residual.at_tau(tau);
+        Ok(Stage { offset, slope, h: m.bulk.eval(tau) / den / slope, beta, ln_beta, tau, residual })
     }
 
     /// x and the sensitivity ∂w/∂x from w at a stage: Newton on `z + h(e^z − β) = w`, `x₀ = ln(e^z − β)`,
@@ -639,7 +661,7 @@ impl Calibration {
         let sens = y / ez + h * y;
         let r = &self.model.residual;
         let xi = (x0 - of(r.x_center)) / of(r.x_half_span);
-        let x = x0 + r.eval(xi, st.tau);
+        let x = x0 + st.residual.eval(xi);
         if !x.finite() {
             return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
         }
@@ -1053,6 +1075,8 @@ struct Stage<F> {
     beta: F,
     ln_beta: F,
     tau: F,
+    /// The residual's series in ξ at τ.
+    residual: ResidualAtTau<F>,
 }
 
 struct Point<F> {
