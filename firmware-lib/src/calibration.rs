@@ -778,7 +778,7 @@ impl Calibration {
 /// `ln` are libm's at an anchor, renewed every few codes, and short series from there (within 3 ULP).
 ///
 /// It vouches for the status only where the exact path provably converges to the same root within its
-/// steps (`h > 0` and `h·(e^z + β) ≤ ½`) and the point is farther than a thousand times that remaining
+/// steps (`h ≥ 0` and `h·(e^z + β) ≤ ½`; without a bend, `h = 0`, both take `z = w`) and the point is farther than a thousand times that remaining
 /// error, propagated to e^x, the sensitivity and x, from every limit (`e^x = 0`, the sensitivity limit,
 /// both ends of the x range). It gives a value only where `e^z/e^x`, by which z's rounding grows in x, is
 /// at most 100 (the two paths' x then agree within 1e-12 Np). Everywhere else, and after any error that
@@ -917,24 +917,30 @@ fn warm(
     let st = &ts.st;
     let (h, beta) = (st.h, st.beta);
     // Where w may lie on the other side of the exact path's limit, the exact path decides.
-    if !(h > 0.0 && w < f64::from(MAX_EXP_ARG) - 1e-9) {
+    if !(h >= 0.0 && w < f64::from(MAX_EXP_ARG) - 1e-9) {
         return None;
     }
-    // z(w) to second order from the seed: z' = 1/(1 + h e^z), z'' = −h e^z/(1 + h e^z)³.
-    let g = (w - seed.w) * seed.inv_d;
-    let mut z = seed.z + g - 0.5 * h * seed.ez * g * g * seed.inv_d;
-    let (mut ez, mut inv_d) = (f64::NAN, 0.0);
-    for _ in 0..WARM_STEPS {
-        let e = near.exp(z);
-        inv_d = 1.0 / (1.0 + h * e);
-        let step = (z + h * (e - beta) - w) * inv_d;
-        z -= step;
-        if libm::fabs(step) <= WARM_STEP {
-            // e^(z − step): the first omitted term of the series is below 2e-28 relative.
-            ez = e * (1.0 - step + 0.5 * step * step);
-            break;
+    let (z, ez, inv_d) = if h == 0.0 {
+        // No bend: z = w, as the exact path takes it without a Newton step.
+        (w, near.exp(w), 1.0)
+    } else {
+        // z(w) to second order from the seed: z' = 1/(1 + h e^z), z'' = −h e^z/(1 + h e^z)³.
+        let g = (w - seed.w) * seed.inv_d;
+        let mut z = seed.z + g - 0.5 * h * seed.ez * g * g * seed.inv_d;
+        let (mut ez, mut inv_d) = (f64::NAN, 0.0);
+        for _ in 0..WARM_STEPS {
+            let e = near.exp(z);
+            inv_d = 1.0 / (1.0 + h * e);
+            let step = (z + h * (e - beta) - w) * inv_d;
+            z -= step;
+            if libm::fabs(step) <= WARM_STEP {
+                // e^(z − step): the first omitted term of the series is below 2e-28 relative.
+                ez = e * (1.0 - step + 0.5 * step * step);
+                break;
+            }
         }
-    }
+        (z, ez, inv_d)
+    };
     if !(ez.is_finite() && z.is_finite()) {
         return None;
     }

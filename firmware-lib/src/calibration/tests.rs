@@ -320,6 +320,7 @@ fn warm_started_reference_matches_the_exact_reference() {
     // A negative bulk term (h < 0): the warm start never answers.
     let mut negative = hard_unit();
     negative.model.bulk = Series::from_slice(&[-6.0]).unwrap_or(Series::ZERO);
+    // No bulk term (h = 0): both paths take z = w.
     let mut plain = hard_unit();
     plain.model.bulk = Series::ZERO;
     for (name, c, least_warm) in [
@@ -327,14 +328,14 @@ fn warm_started_reference_matches_the_exact_reference() {
         ("bulky", bulky, 0.2),
         ("open", open, 0.4),
         ("negative", negative, 0.0),
-        ("plain", plain, 0.0),
+        ("plain", plain, 0.4),
     ] {
         for stride in [1, 97] {
             let (share, worst) = sweep_against_exact(&c, stride);
             std::eprintln!("{name}, every {stride}: warm {share:.3}, largest x difference {worst:.2e} Np");
             assert!(share >= least_warm, "{name}: warm start answered only {share}");
             if least_warm == 0.0 {
-                assert_eq!(share, 0.0, "{name}: no warm start where h ≤ 0");
+                assert_eq!(share, 0.0, "{name}: no warm start where h < 0");
             }
         }
     }
