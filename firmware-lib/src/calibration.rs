@@ -772,17 +772,19 @@ impl Calibration {
 /// [`ReferenceSweep::correct`] gives the status (value or error) of [`Calibration::correct_staged_f64`] at
 /// every code, and its x, sensitivity and ∂x/∂code to f64 precision, but solves the bend's
 /// `z + h(e^z − β) = w` by Newton from the previous code's solution (a second-order prediction, then steps
-/// until one is at most 1e-9, its error then below 1e-18), with one `exp` per code where the exact path,
+/// until one is at most 1e-9, its error then below 1e-18): one exponential per code where the exact path,
 /// started at `z = w`, takes two to four. The two solutions differ only by the exact path's own remaining
 /// error (half its last step squared, its last step at most `2e-7·(1 + |z|)`) and rounding. Its `exp` and
 /// `ln` are libm's at an anchor, renewed every few codes, and short series from there (within 3 ULP).
+/// Codes may come in any order; in increasing order the warm start answers almost everywhere.
 ///
 /// It vouches for the status only where the exact path provably converges to the same root within its
-/// steps (`h ≥ 0` and `h·(e^z + β) ≤ ½`; without a bend, `h = 0`, both take `z = w`) and the point is farther than a thousand times that remaining
-/// error, propagated to e^x, the sensitivity and x, from every limit (`e^x = 0`, the sensitivity limit,
-/// both ends of the x range). It gives a value only where `e^z/e^x`, by which z's rounding grows in x, is
-/// at most 100 (the two paths' x then agree within 1e-12 Np). Everywhere else, and after any error that
-/// leaves no solution to start from, it runs the exact path itself.
+/// steps (`h ≥ 0` and `h·(e^z + β) ≤ ½`; without a bend, `h = 0`, both take `z = w`) and the point lies
+/// farther than a thousand times that remaining error, propagated to e^x, the sensitivity and x, from
+/// every limit (`e^x = 0`, the sensitivity limit, both ends of the x range). It gives a value only where
+/// `e^z/e^x`, by which z's rounding grows in x, is at most 100 (the two paths' x then agree within
+/// 1e-12 Np). Everywhere else, and after any error that leaves no solution to start from, it runs the
+/// exact path itself.
 #[derive(Debug, Clone)]
 pub struct ReferenceSweep<'a> {
     cal: &'a Calibration,
