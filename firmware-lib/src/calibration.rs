@@ -41,6 +41,11 @@
 //!
 //! The same code is evaluated in f32 (with a chosen [`Backend`]) and in f64 ([`Calibration::correct_f64`],
 //! the host's reference), so the host tests exactly what the firmware runs.
+//!
+//! A correction is a temperature stage (the temperature's checks, offset, slope, bends and τ), computed once
+//! per temperature by [`Calibration::stage_with`] (f32) or [`Calibration::reference_stage`] (f64), and a
+//! per-code part, [`Calibration::correct_staged`] or [`Calibration::correct_staged_f64`].
+//! [`Calibration::correct_with`] is exactly the two f32 steps in one call.
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
@@ -209,18 +214,39 @@ impl Residual {
     };
 
     fn eval<F: Real>(&self, xi: F, tau: F) -> F {
+        self.at_tau(tau).eval(xi)
+    }
+
+    /// The residual collapsed over τ: the coefficients of its series in ξ at one temperature.
+    fn at_tau<F: Real>(&self, tau: F) -> ResidualAtTau<F> {
         let nx = usize::from(self.nx).min(MAX_RESIDUAL);
         let nt = usize::from(self.nt).min(MAX_RESIDUAL);
-        if nx == 0 || nt == 0 {
-            return F::of(0.0);
-        }
-        // Collapse over τ for each i, then Clenshaw over ξ.
         let mut over_x = [F::of(0.0); MAX_RESIDUAL];
+        if nx == 0 || nt == 0 {
+            return ResidualAtTau { n: 0, over_x };
+        }
         for (i, slot) in over_x.iter_mut().enumerate().take(nx) {
             let row = self.coeffs.get(i * MAX_RESIDUAL..i * MAX_RESIDUAL + nt).unwrap_or(&[]);
             *slot = clenshaw(row, tau);
         }
-        clenshaw_f(over_x.get(..nx).unwrap_or(&[]), xi)
+        ResidualAtTau { n: nx, over_x }
+    }
+}
+
+/// The residual at one temperature: `R(ξ) = Σ_i c_i T_i(ξ)` with `c_i = Σ_j r_ij T_j(τ)` (Clenshaw over τ done).
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct ResidualAtTau<F> {
+    /// Terms in use; 0 makes the residual zero.
+    n: usize,
+    over_x: [F; MAX_RESIDUAL],
+}
+
+impl<F: Real> ResidualAtTau<F> {
+    fn eval(&self, xi: F) -> F {
+        if self.n == 0 {
+            return F::of(0.0);
+        }
+        clenshaw_f(self.over_x.get(..self.n).unwrap_or(&[]), xi)
     }
 }
 
@@ -418,8 +444,28 @@ impl Calibration {
     }
 
     /// Corrects one reading with a chosen f32 backend.
+    ///
+    /// This is [`Calibration::stage_with`] followed by [`Calibration::correct_staged`]: the errors come in
+    /// this order: the code ([`AdcScaling::check_code`]), then the temperature (non-finite, invalid
+    /// calibration, out of range, slope), then the log channel (range, sensitivity).
     pub fn correct_with<B: Backend>(&self, code: u32, temp_c: f32) -> Result<Reading, Error> {
-        let p = self.evaluate::<F32Math<B>>(code, temp_c)?;
+        self.correct_staged(&self.stage_with::<B>(temp_c), code)
+    }
+
+    /// The temperature-dependent part of an f32 correction at `temp_c`, computed once and reusable for any
+    /// number of log codes at that temperature ([`Calibration::correct_staged`]). A temperature that cannot
+    /// be corrected is kept in the stage as its error, reported for each code that passes its own check.
+    pub fn stage_with<B: Backend>(&self, temp_c: f32) -> F32Stage<B> {
+        F32Stage { inner: self.temperature_stage::<F32Math<B>>(temp_c), backend: core::marker::PhantomData }
+    }
+
+    /// The log-channel part of an f32 correction at a stage of this calibration: bit for bit the result
+    /// (value or error) of [`Calibration::correct_with`] at the stage's temperature. A stage made by another
+    /// calibration gives that calibration's temperature terms (no panic, but a meaningless reading).
+    pub fn correct_staged<B: Backend>(&self, stage: &F32Stage<B>, code: u32) -> Result<Reading, Error> {
+        self.adc.check_code(code)?;
+        let ts = stage.inner.as_ref().map_err(|e| *e)?;
+        let p = self.evaluate_staged::<F32Math<B>>(f32::of_u32(code), ts)?;
         Ok(Reading { x: p.x, temperature_extrapolated: p.extrapolated })
     }
 
@@ -470,25 +516,19 @@ impl Calibration {
             return Err(Error::CodeOutOfAdcRange { code: 0, max: self.adc.max_code()? });
         }
         self.adc.check_code(if c > f64::from(u32::MAX) { u32::MAX } else { c as u32 })?;
-        let p = self.evaluate_real::<F64Math>(code, temp_c)?;
-        Ok(ReadingF64 {
-            x: p.x,
-            temperature_extrapolated: p.extrapolated,
-            sensitivity: p.sens,
-            dx_dcode: p.dx_dcode,
-        })
-    }
-
-    fn evaluate<M: MathOps>(&self, code: u32, temp_c: f32) -> Result<Point<M::F>, Error> {
-        self.adc.check_code(code)?;
-        self.evaluate_real::<M>(M::F::of_u32(code), M::F::of_f32_input(temp_c)?)
+        self.evaluate_real::<F64Math>(code, temp_c).map(reading_f64)
     }
 
     /// The common body of the f32 and f64 corrections, after the code has been checked.
     fn evaluate_real<M: MathOps>(&self, code: M::F, temp_c: M::F) -> Result<Point<M::F>, Error> {
+        let ts = self.temperature_stage::<M>(temp_c)?;
+        self.evaluate_staged::<M>(code, &ts)
+    }
+
+    /// The temperature part of [`Calibration::evaluate_real`]: the temperature's checks and the stage.
+    fn temperature_stage<M: MathOps>(&self, temp_c: M::F) -> Result<TempStage<M::F>, Error> {
         type F<M> = <M as MathOps>::F;
         let of = F::<M>::of;
-        let one = of(1.0);
         if !temp_c.finite() {
             return Err(Error::NonFinite);
         }
@@ -500,10 +540,28 @@ impl Calibration {
             return Err(Error::TemperatureOutOfRange { celsius: temp_c.to_f32() });
         }
         let extrapolated = temp_c < tmin || temp_c > tmax;
+        Ok(TempStage { st: self.stage::<M>(temp_c)?, extrapolated })
+    }
 
-        let st = self.stage::<M>(temp_c)?;
+    /// The log-channel part of [`Calibration::evaluate_real`] at a temperature stage.
+    fn evaluate_staged<M: MathOps>(&self, code: M::F, ts: &TempStage<M::F>) -> Result<Point<M::F>, Error> {
+        let st = &ts.st;
         let w = (code - st.offset) / st.slope;
-        let (x, sens) = self.x_from_w::<M>(w, &st)?;
+        let (x, sens) = self.x_from_w::<M>(w, st)?;
+        self.range_checked::<M>(x, sens, ts)
+    }
+
+    /// The end of [`Calibration::evaluate_staged`]: the sensitivity and x range checks, and ∂x/∂code.
+    fn range_checked<M: MathOps>(
+        &self,
+        x: M::F,
+        sens: M::F,
+        ts: &TempStage<M::F>,
+    ) -> Result<Point<M::F>, Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let one = of(1.0);
+        let (st, extrapolated) = (&ts.st, ts.extrapolated);
         if sens < of(self.x_range.min_sensitivity) || x < of(self.x_range.min) {
             return Err(Error::BelowRange);
         }
@@ -533,12 +591,20 @@ impl Calibration {
         let beta = if m.bias.enabled { M::exp(ln_beta) } else { zero };
         let offset =
             of(self.adc.level_shift_code) + (m.offset.eval(tau) + of(m.bias.reference) * ptat * beta) / den;
-        Ok(Stage { offset, slope, h: m.bulk.eval(tau) / den / slope, beta, ln_beta, tau })
+        let residual = m.residual.at_tau(tau);
+        Ok(Stage { offset, slope, h: m.bulk.eval(tau) / den / slope, beta, ln_beta, tau, residual })
     }
 
     /// x and the sensitivity ∂w/∂x from w at a stage: Newton on `z + h(e^z − β) = w`, `x₀ = ln(e^z − β)`,
     /// then the residual. No range checks; [`Error::BelowRange`] where no x exists (`e^z ≤ β`).
     fn x_from_w<M: MathOps>(&self, w: M::F, st: &Stage<M::F>) -> Result<(M::F, M::F), Error> {
+        let z = self.newton::<M>(w, st)?;
+        self.x_from_ez::<M>(M::exp(z), st)
+    }
+
+    /// `z = ln(e^x + β)` from w: Newton on `F(z) = z + h(e^z − β) − w`, `F'(z) = 1 + h e^z`, from `z = w`,
+    /// at most [`NEWTON_STEPS`] steps, until a step is at most `2e-7·(1 + |z|)`.
+    fn newton<M: MathOps>(&self, w: M::F, st: &Stage<M::F>) -> Result<M::F, Error> {
         type F<M> = <M as MathOps>::F;
         let of = F::<M>::of;
         let (zero, one) = (of(0.0), of(1.0));
@@ -546,7 +612,6 @@ impl Calibration {
             return Err(Error::AboveRange);
         }
         let (h, beta) = (st.h, st.beta);
-        // Newton on F(z) = z + h(e^z − β) − w, F'(z) = 1 + h e^z, from z = w.
         let mut z = w;
         if h != zero {
             for _ in 0..NEWTON_STEPS {
@@ -563,17 +628,40 @@ impl Calibration {
                 }
             }
         }
-        let ez = M::exp(z);
+        Ok(z)
+    }
+
+    /// x and the sensitivity from `e^z` (the end of [`Calibration::x_from_w`]): `e^x = e^z − β`,
+    /// `x₀ = ln e^x`, the residual.
+    fn x_from_ez<M: MathOps>(&self, ez: M::F, st: &Stage<M::F>) -> Result<(M::F, M::F), Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let zero = of(0.0);
+        let beta = st.beta;
         let y = ez - beta; // e^x
         if !(y > zero) {
             return Err(Error::BelowRange);
         }
-        let x0 = M::ln(y);
+        self.x_from_parts::<M>(ez, y, M::ln(y), st)
+    }
+
+    /// The end of [`Calibration::x_from_ez`] from `e^z`, `e^x = e^z − β > 0` and `x₀ = ln e^x`: the
+    /// sensitivity and the residual.
+    fn x_from_parts<M: MathOps>(
+        &self,
+        ez: M::F,
+        y: M::F,
+        x0: M::F,
+        st: &Stage<M::F>,
+    ) -> Result<(M::F, M::F), Error> {
+        type F<M> = <M as MathOps>::F;
+        let of = F::<M>::of;
+        let h = st.h;
         // Sensitivity ∂w/∂x = e^x/(e^x + β) + h e^x.
         let sens = y / ez + h * y;
         let r = &self.model.residual;
         let xi = (x0 - of(r.x_center)) / of(r.x_half_span);
-        let x = x0 + r.eval(xi, st.tau);
+        let x = x0 + st.residual.eval(xi);
         if !x.finite() {
             return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
         }
@@ -652,11 +740,342 @@ impl Calibration {
     }
 }
 
+impl Calibration {
+    /// The temperature-dependent part of [`Calibration::correct_f64`] at `temp_c`, computed once and reusable
+    /// for any number of whole log codes at that temperature ([`Calibration::correct_staged_f64`]).
+    pub fn reference_stage(&self, temp_c: f64) -> ReferenceStage {
+        ReferenceStage { non_finite: !temp_c.is_finite(), inner: self.temperature_stage::<F64Math>(temp_c) }
+    }
+
+    /// The log-channel part of the f64 reference at a stage of this calibration: bit for bit the result
+    /// (value or error) of [`Calibration::correct_f64`]`(f64::from(code), temp_c)` at the stage's temperature.
+    pub fn correct_staged_f64(&self, stage: &ReferenceStage, code: u32) -> Result<ReadingF64, Error> {
+        if stage.non_finite {
+            return Err(Error::NonFinite);
+        }
+        self.adc.check_code(code)?;
+        let ts = stage.inner.as_ref().map_err(|e| *e)?;
+        self.evaluate_staged::<F64Math>(f64::from(code), ts).map(reading_f64)
+    }
+
+    /// A sweep of the f64 reference over the whole codes at one temperature, with the bend's Newton solve
+    /// started from the previous code's solution (see [`ReferenceSweep`]).
+    pub fn reference_sweep(&self, temp_c: f64) -> ReferenceSweep<'_> {
+        let stage = self.reference_stage(temp_c);
+        let inv_slope = stage.inner.as_ref().map_or(0.0, |ts| 1.0 / ts.st.slope);
+        ReferenceSweep { cal: self, stage, inv_slope, seed: None, near: Anchors::NONE, warm: 0 }
+    }
+}
+
+/// The f64 reference over many codes at one temperature, for exhaustive checks on the host.
+///
+/// [`ReferenceSweep::correct`] gives the status (value or error) of [`Calibration::correct_staged_f64`] at
+/// every code, and its x, sensitivity and ∂x/∂code to f64 precision, but solves the bend's
+/// `z + h(e^z − β) = w` by Newton from the previous code's solution (a second-order prediction, then steps
+/// until one is at most 1e-9, its error then below 1e-18): one exponential per code where the exact path,
+/// started at `z = w`, takes two to four. The two solutions differ only by the exact path's own remaining
+/// error (half its last step squared, its last step at most `2e-7·(1 + |z|)`) and rounding. Its `exp` and
+/// `ln` are libm's at an anchor, renewed every few codes, and short series from there (within 3 ULP).
+/// Codes may come in any order; in increasing order the warm start answers almost everywhere.
+///
+/// It vouches for the status only where the exact path provably converges to the same root within its
+/// steps (`h ≥ 0` and `h·(e^z + β) ≤ ½`; without a bend, `h = 0`, both take `z = w`) and the point lies
+/// farther than a thousand times that remaining error, propagated to e^x, the sensitivity and x, from
+/// every limit (`e^x = 0`, the sensitivity limit, both ends of the x range). It gives a value only where
+/// `e^z/e^x`, by which z's rounding grows in x, is at most 100 (the two paths' x then agree within
+/// 1e-12 Np). Everywhere else, and after any error that leaves no solution to start from, it runs the
+/// exact path itself.
+#[derive(Debug, Clone)]
+pub struct ReferenceSweep<'a> {
+    cal: &'a Calibration,
+    stage: ReferenceStage,
+    /// `1/slope`: the warm start's w is `(code − offset)·(1/slope)`, within 2 ULP of the exact path's.
+    inv_slope: f64,
+    seed: Option<Seed>,
+    near: Anchors,
+    warm: u64,
+}
+
+/// `exp` and `ln` near points where libm evaluated them: `e^z = e^a·e^(z−a)` and
+/// `ln y = ln b + ln(1 + (y − b)/b)` by short series while `|z − a|` and `|y − b|/b` stay at most
+/// [`ANCHOR_REACH`] (e^z within 3 ULP of libm's own value, ln y within `4e-16·(1 + |ln y|)` of it), a new
+/// anchor from libm beyond.
+#[derive(Debug, Clone, Copy)]
+struct Anchors {
+    /// a and e^a.
+    z: f64,
+    exp_z: f64,
+    /// b, ln b and 1/b.
+    y: f64,
+    ln_y: f64,
+    inv_y: f64,
+}
+
+/// How far from its anchor [`Anchors`] evaluates a series: the first omitted terms are then below 1e-19
+/// (`t⁶/720` for `exp`, `t⁷/7` for `ln`).
+const ANCHOR_REACH: f64 = 2e-3;
+
+impl Anchors {
+    const NONE: Anchors =
+        Anchors { z: f64::NAN, exp_z: f64::NAN, y: f64::NAN, ln_y: f64::NAN, inv_y: f64::NAN };
+
+    /// e^z.
+    #[inline(always)]
+    fn exp(&mut self, z: f64) -> f64 {
+        let t = z - self.z;
+        if !(libm::fabs(t) <= ANCHOR_REACH) {
+            self.z = z;
+            self.exp_z = libm::exp(z);
+            return self.exp_z;
+        }
+        // e^t − 1 to t⁵, split for a short dependency chain.
+        let t2 = t * t;
+        let em1 = t + t2 * ((0.5 + t * (1.0 / 6.0)) + t2 * (1.0 / 24.0 + t * (1.0 / 120.0)));
+        self.exp_z + self.exp_z * em1
+    }
+
+    /// ln y, for y > 0.
+    #[inline(always)]
+    fn ln(&mut self, y: f64) -> f64 {
+        let r = (y - self.y) * self.inv_y;
+        if !(libm::fabs(r) <= ANCHOR_REACH) {
+            self.y = y;
+            self.ln_y = libm::log(y);
+            self.inv_y = 1.0 / y;
+            return self.ln_y;
+        }
+        // ln(1 + r) to r⁶, split for a short dependency chain.
+        let r2 = r * r;
+        let a = r - r2 * 0.5;
+        let b = r * (1.0 / 3.0) - r2 * 0.25;
+        let c = r * 0.2 - r2 * (1.0 / 6.0);
+        self.ln_y + (a + r2 * (b + r2 * c))
+    }
+}
+
+/// A solution of the bend's equation to start the next one from.
+#[derive(Debug, Clone, Copy)]
+struct Seed {
+    w: f64,
+    z: f64,
+    ez: f64,
+    /// `1/(1 + h e^z)`, ∂z/∂w.
+    inv_d: f64,
+}
+
+/// Newton steps of the warm start before it gives way to the exact path.
+const WARM_STEPS: usize = 3;
+/// The warm start stops after a step at most this large: its remaining error is then below `h e^z/2` times
+/// the step squared.
+const WARM_STEP: f64 = 1e-9;
+/// How many times its own possible error a warm-started point must lie from a limit.
+const WARM_MARGIN: f64 = 1e3;
+/// The largest `e^z/e^x` (the factor by which an error in z grows in x) of a warm-started value.
+const WARM_CONDITION: f64 = 100.0;
+
+impl ReferenceSweep<'_> {
+    /// The reference at `code` and the sweep's temperature: the status of
+    /// [`Calibration::correct_staged_f64`], values to f64 precision.
+    pub fn correct(&mut self, code: u32) -> Result<ReadingF64, Error> {
+        let cal = self.cal;
+        if self.stage.non_finite {
+            return Err(Error::NonFinite);
+        }
+        cal.adc.check_code(code)?;
+        let ts = self.stage.inner.as_ref().map_err(|e| *e)?;
+        let st = &ts.st;
+        if let Some(seed) = self.seed.take() {
+            let w = (f64::from(code) - st.offset) * self.inv_slope;
+            if let Some(r) = warm(cal, ts, w, seed, &mut self.seed, &mut self.near) {
+                self.warm += 1;
+                return r;
+            }
+        }
+        // The exact path, step by step as `evaluate_staged`, keeping its solution as the next seed.
+        let w = (f64::from(code) - st.offset) / st.slope;
+        let z = cal.newton::<F64Math>(w, st)?;
+        let ez = libm::exp(z);
+        self.seed = Some(Seed { w, z, ez, inv_d: 1.0 / (1.0 + st.h * ez) });
+        let (x, sens) = cal.x_from_ez::<F64Math>(ez, st)?;
+        cal.range_checked::<F64Math>(x, sens, ts).map(reading_f64)
+    }
+
+    /// How many codes so far the warm start answered (the others took the exact path).
+    pub fn warm_points(&self) -> u64 {
+        self.warm
+    }
+}
+
+/// The warm start of [`ReferenceSweep::correct`] at `w`, or `None` where it cannot vouch for the exact
+/// path's status. Sets the next seed where it answers.
+fn warm(
+    cal: &Calibration,
+    ts: &TempStage<f64>,
+    w: f64,
+    seed: Seed,
+    next: &mut Option<Seed>,
+    near: &mut Anchors,
+) -> Option<Result<ReadingF64, Error>> {
+    let st = &ts.st;
+    let (h, beta) = (st.h, st.beta);
+    // Where w may lie on the other side of the exact path's limit, the exact path decides.
+    if !(h >= 0.0 && w < f64::from(MAX_EXP_ARG) - 1e-9) {
+        return None;
+    }
+    let (z, ez, inv_d) = if h == 0.0 {
+        // No bend: z = w, as the exact path takes it without a Newton step.
+        (w, near.exp(w), 1.0)
+    } else {
+        // z(w) to second order from the seed: z' = 1/(1 + h e^z), z'' = −h e^z/(1 + h e^z)³.
+        let g = (w - seed.w) * seed.inv_d;
+        let mut z = seed.z + g - 0.5 * h * seed.ez * g * g * seed.inv_d;
+        let (mut ez, mut inv_d) = (f64::NAN, 0.0);
+        for _ in 0..WARM_STEPS {
+            let e = near.exp(z);
+            inv_d = 1.0 / (1.0 + h * e);
+            let step = (z + h * (e - beta) - w) * inv_d;
+            z -= step;
+            if libm::fabs(step) <= WARM_STEP {
+                // e^(z − step): the first omitted term of the series is below 2e-28 relative.
+                ez = e * (1.0 - step + 0.5 * step * step);
+                break;
+            }
+        }
+        (z, ez, inv_d)
+    };
+    if !(ez.is_finite() && z.is_finite()) {
+        return None;
+    }
+    // From z = w the exact path's first error is at most h·(e^z + β); at most ½, each step at least halves
+    // and squares it, so it converges to this root within its steps.
+    let he = h * ez;
+    if !(he + h * beta <= 0.5) {
+        return None;
+    }
+    // The exact path's possible distance from the root, relative in e^z: at most h e^z/2 times its last
+    // step squared, plus rounding; and in e^z itself.
+    let az = libm::fabs(z);
+    let last = 2e-7 * (1.0 + az);
+    let rel = 0.5 * he * last * last + 2e-15 * (1.0 + az);
+    let ez_err = ez * rel + 1e-15 * (ez + beta);
+    let y = ez - beta; // e^x
+    if !(libm::fabs(y) > WARM_MARGIN * ez_err) {
+        return None;
+    }
+    *next = Some(Seed { w, z, ez, inv_d });
+    if y < 0.0 {
+        return Some(Err(Error::BelowRange));
+    }
+    let (x, sens) = cal.x_from_parts::<F64Math>(ez, y, near.ln(y), st).ok()?;
+    let xr = &cal.x_range;
+    // Errors in the sensitivity e^x/e^z + h e^x (β < e^z here) and, times e^x, in x = ln e^x + R.
+    let sens_err = (rel + 2e-15) * (1.0 + he) + 1e-15;
+    let x_err_y = ez_err + 1e-15 * (1.0 + libm::fabs(x)) * y;
+    let near = |v: f64, limit: f32, scale: f64, err: f64| {
+        !(libm::fabs(v - f64::from(limit)) * scale > WARM_MARGIN * err)
+    };
+    if near(sens, xr.min_sensitivity, 1.0, sens_err) {
+        return None;
+    }
+    // Below the sensitivity limit the status is BelowRange whatever x is.
+    if !(sens < f64::from(xr.min_sensitivity)) && (near(x, xr.min, y, x_err_y) || near(x, xr.max, y, x_err_y))
+    {
+        return None;
+    }
+    let r = cal.range_checked::<F64Math>(x, sens, ts);
+    // A value where x = ln(e^z − β) amplifies z's rounding more than a hundredfold is the exact path's.
+    if r.is_ok() && !(WARM_CONDITION * y >= ez) {
+        return None;
+    }
+    Some(r.map(reading_f64))
+}
+
+fn reading_f64(p: Point<f64>) -> ReadingF64 {
+    ReadingF64 { x: p.x, temperature_extrapolated: p.extrapolated, sensitivity: p.sens, dx_dcode: p.dx_dcode }
+}
+
 /// [`Error::TemperatureOutOfRange`] for a temperature given in m°C (for integer code that has no float types).
 pub fn temperature_out_of_range_millicelsius(millicelsius: i32) -> Error {
     Error::TemperatureOutOfRange { celsius: millicelsius as f32 / 1000.0 }
 }
 
+/// The temperature-dependent part of an f32 correction with backend `B`, made by
+/// [`Calibration::stage_with`] for [`Calibration::correct_staged`]: the temperature's checks and the stage of
+/// the inverse (offset, slope, bends, τ), or the temperature's error.
+pub struct F32Stage<B> {
+    inner: Result<TempStage<f32>, Error>,
+    backend: core::marker::PhantomData<fn() -> B>,
+}
+
+impl<B> F32Stage<B> {
+    /// The temperature's error, if it cannot be corrected (reported only for codes that pass their check).
+    pub fn error(&self) -> Option<Error> {
+        self.inner.err()
+    }
+
+    /// Whether the temperature lies outside the calibrated range, within the allowed extrapolation.
+    pub fn extrapolated(&self) -> bool {
+        matches!(&self.inner, Ok(ts) if ts.extrapolated)
+    }
+}
+
+impl<B> Clone for F32Stage<B> {
+    fn clone(&self) -> Self {
+        *self
+    }
+}
+
+impl<B> Copy for F32Stage<B> {}
+
+impl<B> core::fmt::Debug for F32Stage<B> {
+    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
+        f.debug_struct("F32Stage").field("inner", &self.inner).finish()
+    }
+}
+
+impl<B> PartialEq for F32Stage<B> {
+    fn eq(&self, other: &Self) -> bool {
+        self.inner == other.inner
+    }
+}
+
+#[cfg(feature = "defmt")]
+impl<B> defmt::Format for F32Stage<B> {
+    fn format(&self, f: defmt::Formatter<'_>) {
+        match &self.inner {
+            Ok(ts) => {
+                defmt::write!(f, "F32Stage {{ extrapolated: {}, tau: {} }}", ts.extrapolated, ts.st.tau)
+            }
+            Err(e) => defmt::write!(f, "F32Stage {{ error: {} }}", e),
+        }
+    }
+}
+
+/// The temperature-dependent part of the f64 reference, made by [`Calibration::reference_stage`] for
+/// [`Calibration::correct_staged_f64`] (a host helper, as [`Calibration::correct_f64`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReferenceStage {
+    /// The temperature is NaN or infinite: [`Error::NonFinite`] comes before the code's own check, as in
+    /// [`Calibration::correct_f64`].
+    non_finite: bool,
+    inner: Result<TempStage<f64>, Error>,
+}
+
+impl ReferenceStage {
+    /// The temperature's error, if it cannot be corrected.
+    pub fn error(&self) -> Option<Error> {
+        self.inner.err()
+    }
+}
+
+/// A temperature's checks done and its stage computed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct TempStage<F> {
+    st: Stage<F>,
+    extrapolated: bool,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq)]
 struct Stage<F> {
     offset: F,
     slope: F,
@@ -664,6 +1083,8 @@ struct Stage<F> {
     beta: F,
     ln_beta: F,
     tau: F,
+    /// The residual's series in ξ at τ.
+    residual: ResidualAtTau<F>,
 }
 
 struct Point<F> {
@@ -719,7 +1140,6 @@ trait Real:
 {
     fn of(v: f32) -> Self;
     fn of_u32(v: u32) -> Self;
-    fn of_f32_input(v: f32) -> Result<Self, Error>;
     fn finite(self) -> bool;
     fn abs_(self) -> Self;
     fn to_f32(self) -> f32;
@@ -733,9 +1153,6 @@ impl Real for f32 {
     }
     fn of_u32(v: u32) -> Self {
         v as f32
-    }
-    fn of_f32_input(v: f32) -> Result<Self, Error> {
-        Ok(v)
     }
     fn finite(self) -> bool {
         self.is_finite()
@@ -757,9 +1174,6 @@ impl Real for f64 {
     }
     fn of_u32(v: u32) -> Self {
         f64::from(v)
-    }
-    fn of_f32_input(v: f32) -> Result<Self, Error> {
-        Ok(f64::from(v))
     }
     fn finite(self) -> bool {
         self.is_finite()

@@ -26,13 +26,24 @@
 //! (calibrated range plus extrapolation) in steps of at most [`VerifyOptions::temp_step_k`], both ends
 //! included; the fixed path takes the m°C, the f32 path the same temperature as f32.
 //!
+//! # The evaluations, per row
+//!
+//! Each temperature row stages every path once and then runs the per-code part at every code:
+//! the fixed path [`FixedCalibration::stage_code`]/[`FixedCalibration::stage_millicelsius`] and
+//! [`FixedCalibration::correct_staged`] (exactly `correct`/`correct_raw`), the f32 path
+//! [`Calibration::stage_with`] and [`Calibration::correct_staged`] (bit for bit `correct_with`), and the
+//! reference a [`ReferenceSweep`]: the status of `correct_f64` at every code, its values to f64 precision
+//! (within 1e-12 Np), with the Newton solve of the bend warm-started from the previous code.
+//! [`VerifyOptions::exact_reference`] runs `correct_f64`'s own steps instead.
+//!
 //! Temperature rows run in parallel (rayon).
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
+use logtrim::calibration::{ReadingF64, ReferenceStage, ReferenceSweep};
 use logtrim::fixed::{FixedCalibration, X_FRAC};
-use logtrim::math::Libm;
+use logtrim::math::{Backend, Libm, Micromath};
 use logtrim::{Calibration, Error};
 use rayon::prelude::*;
 use serde::Serialize;
@@ -69,6 +80,10 @@ pub struct VerifyOptions {
     pub check_fixed: bool,
     /// Verify the f32 path.
     pub check_f32: bool,
+    /// Evaluate the reference at every point by the exact path of [`Calibration::correct_f64`] (staged once
+    /// per temperature) instead of the warm-started sweep ([`ReferenceSweep`]: the same statuses, values
+    /// within 1e-12 Np, fewer `exp` calls).
+    pub exact_reference: bool,
     /// Show a progress bar (the caller decides whether there is a terminal).
     pub progress: bool,
 }
@@ -84,6 +99,7 @@ impl Default for VerifyOptions {
             f32_backend: F32Backend::Libm,
             check_fixed: true,
             check_f32: true,
+            exact_reference: false,
             progress: false,
         }
     }
@@ -237,9 +253,10 @@ impl Status {
     fn same_kind(&self, other: &Status) -> bool {
         match (self, other) {
             (Status::Value(_), Status::Value(_)) => true,
+            // The same variant (each has its own name), and for a sensor fault the same fault.
             (Status::Err(a), Status::Err(b)) => match (a, b) {
                 (Error::Sensor(x), Error::Sensor(y)) => x == y,
-                _ => a.name() == b.name(),
+                _ => std::mem::discriminant(a) == std::mem::discriminant(b),
             },
             _ => false,
         }
@@ -378,6 +395,10 @@ pub fn run(
     } else {
         None
     };
+    let row = match opts.f32_backend {
+        F32Backend::Libm => row::<Libm>,
+        F32Backend::Micromath => row::<Micromath>,
+    };
     let rows: Vec<RowOut> = grid
         .par_iter()
         .map(|g| {
@@ -479,7 +500,23 @@ fn temperature_grid(
         .collect())
 }
 
-fn row(
+/// The reference of one row.
+enum Reference<'a> {
+    Exact(ReferenceStage),
+    Warm(ReferenceSweep<'a>),
+}
+
+impl Reference<'_> {
+    #[inline(always)]
+    fn correct(&mut self, cal: &Calibration, code: u32) -> Result<ReadingF64, Error> {
+        match self {
+            Reference::Exact(stage) => cal.correct_staged_f64(stage, code),
+            Reference::Warm(sweep) => sweep.correct(code),
+        }
+    }
+}
+
+fn row<B: Backend>(
     cal: &Calibration,
     fixed: &FixedCalibration<'_>,
     g: &GridTemp,
@@ -493,20 +530,30 @@ fn row(
         Some(tc) => fixed.stage_code(tc),
         None => fixed.stage_millicelsius(g.millicelsius),
     };
-    let t32 = g.celsius.map(|t| t as f32);
+    // The reference's and the f32 path's temperature stages, once per row; per code these are exactly
+    // `correct_f64(code, t)` and `correct_with::<B>(code, t as f32)`.
+    let mut reference = g.celsius.map(|t| {
+        if opts.exact_reference {
+            Reference::Exact(cal.reference_stage(t))
+        } else {
+            Reference::Warm(cal.reference_sweep(t))
+        }
+    });
+    let f32_stage = g.celsius.map(|t| cal.stage_with::<B>(t as f32));
     let n = codes.len();
-    let mut reference = Vec::with_capacity(n);
+    let mut statuses = Vec::with_capacity(n);
     // (index, path status) of each point where a path disagrees with the reference.
     let mut pending: [Vec<(usize, Status)>; 2] = [Vec::new(), Vec::new()];
     let mut out = RowOut::default();
     let temp_c = g.celsius.unwrap_or(f64::NAN);
+    let at = (temp_c, g.code);
     for (i, &code) in codes.iter().enumerate() {
-        let (r, d) = match g.celsius {
-            Ok(t) => match cal.correct_f64(f64::from(code), t) {
+        let (r, d) = match &mut reference {
+            Ok(reference) => match reference.correct(cal, code) {
                 Ok(v) => (Status::Value(v.x), v.dx_dcode),
                 Err(e) => (Status::Err(e), 0.0),
             },
-            Err(e) => (Status::Err(cal.adc.check_code(code).err().unwrap_or(e)), 0.0),
+            Err(e) => (Status::Err(cal.adc.check_code(code).err().unwrap_or(*e)), 0.0),
         };
         let fx = if !opts.check_fixed {
             Err(Error::NotCalibrated)
@@ -519,58 +566,26 @@ fn row(
         let f3 = if !opts.check_f32 {
             Err(Error::NotCalibrated)
         } else {
-            match t32 {
-                Ok(t) => match opts.f32_backend {
-                    F32Backend::Libm => cal.correct_with::<Libm>(code, t),
-                    F32Backend::Micromath => cal.correct_with::<logtrim::math::Micromath>(code, t),
-                }
-                .map(|v| f64::from(v.x)),
-                Err(e) => Err(cal.adc.check_code(code).err().unwrap_or(e)),
+            match &f32_stage {
+                Ok(st) => cal.correct_staged(st, code).map(|v| f64::from(v.x)),
+                Err(e) => Err(cal.adc.check_code(code).err().unwrap_or(*e)),
             }
         };
-        for (k, p) in [(opts.check_fixed, fx), (opts.check_f32, f3)]
-            .into_iter()
-            .enumerate()
-            .filter_map(|(k, (on, p))| on.then_some((k, p)))
-        {
-            let acc = if k == 0 { &mut out.fixed } else { &mut out.f32 };
-            match (&r, p) {
-                (Status::Value(xr), Ok(x)) => {
-                    acc.agree += 1;
-                    let e = (x - xr).abs();
-                    let lsb = if d != 0.0 { e / d.abs() } else { f64::INFINITY };
-                    acc.n += 1;
-                    acc.max_np = acc.max_np.max(e);
-                    acc.ss_np += e * e;
-                    acc.ss_lsb += lsb * lsb;
-                    if lsb > acc.max_lsb || acc.worst.is_none() {
-                        acc.max_lsb = acc.max_lsb.max(lsb);
-                        acc.worst =
-                            Some(Worst { code, temp_c, temp_code: g.code, x_ref: *xr, x, err_lsb: lsb });
-                    }
-                }
-                (_, p) => {
-                    let p = match p {
-                        Ok(x) => Status::Value(x),
-                        Err(e) => Status::Err(e),
-                    };
-                    if r.same_kind(&p) {
-                        acc.agree += 1;
-                    } else {
-                        pending[k].push((i, p));
-                    }
-                }
-            }
+        if opts.check_fixed {
+            tally(&mut out.fixed, &mut pending[0], i, code, &r, d, fx, at);
+        }
+        if opts.check_f32 {
+            tally(&mut out.f32, &mut pending[1], i, code, &r, d, f3, at);
         }
         out.reference_values += u64::from(matches!(r, Status::Value(_)));
-        reference.push(r);
+        statuses.push(r);
     }
     // Classify the disagreements now that the reference's whole row is known.
     let band = (opts.edge_codes as usize).div_ceil(opts.code_stride as usize).max(1);
     let at_edge = |i: usize| {
         let lo = i.saturating_sub(band);
         let hi = (i + band).min(n - 1);
-        (lo..=hi).any(|j| !reference[j].same_kind(&reference[i]))
+        (lo..=hi).any(|j| !statuses[j].same_kind(&statuses[i]))
     };
     for (k, list) in pending.iter().enumerate() {
         let (acc, examples) = if k == 0 {
@@ -579,7 +594,7 @@ fn row(
             (&mut out.f32, &mut out.f32_examples)
         };
         for (i, p) in list {
-            let r = &reference[*i];
+            let r = &statuses[*i];
             if at_edge(*i) || (g.temperature_edge && (r.is_temperature_error() || p.is_temperature_error())) {
                 acc.edge += 1;
             } else {
@@ -596,6 +611,47 @@ fn row(
         }
     }
     out
+}
+
+/// Adds one point of a path to its sums, or to its pending disagreements (index, the path's status).
+#[allow(clippy::too_many_arguments)]
+#[inline(always)]
+fn tally(
+    acc: &mut Acc,
+    pending: &mut Vec<(usize, Status)>,
+    i: usize,
+    code: u32,
+    r: &Status,
+    d: f64,
+    p: Result<f64, Error>,
+    (temp_c, temp_code): (f64, Option<u32>),
+) {
+    match (r, p) {
+        (Status::Value(xr), Ok(x)) => {
+            acc.agree += 1;
+            let e = (x - xr).abs();
+            let lsb = if d != 0.0 { e / d.abs() } else { f64::INFINITY };
+            acc.n += 1;
+            acc.max_np = acc.max_np.max(e);
+            acc.ss_np += e * e;
+            acc.ss_lsb += lsb * lsb;
+            if lsb > acc.max_lsb || acc.worst.is_none() {
+                acc.max_lsb = acc.max_lsb.max(lsb);
+                acc.worst = Some(Worst { code, temp_c, temp_code, x_ref: *xr, x, err_lsb: lsb });
+            }
+        }
+        (_, p) => {
+            let p = match p {
+                Ok(x) => Status::Value(x),
+                Err(e) => Status::Err(e),
+            };
+            if r.same_kind(&p) {
+                acc.agree += 1;
+            } else {
+                pending.push((i, p));
+            }
+        }
+    }
 }
 
 impl std::fmt::Display for VerifyReport {

@@ -1,4 +1,6 @@
 use super::*;
+use std::vec;
+use std::vec::Vec;
 
 fn hard_unit() -> Calibration {
     // An uncompensated-like unit with a strong low-end bend and a visible high-end bend.
@@ -126,4 +128,241 @@ fn residual_is_added_and_undone_by_forward() {
         let r = c.correct_f64(code, 40.0).unwrap();
         assert!((r.x - x).abs() < 1e-9, "{} vs {x}", r.x);
     }
+}
+
+/// Temperatures for the staged sweeps: a dense grid over and beyond the accepted range, the range's ends and
+/// their f32 neighbours, and non-finite values.
+fn sweep_temperatures(c: &Calibration) -> Vec<f32> {
+    let t = &c.temperature;
+    let (lo, hi) = (t.min_c - t.extrapolation_k, t.max_c + t.extrapolation_k);
+    let mut v: Vec<f32> = (0..=400).map(|i| lo - 7.0 + (hi - lo + 14.0) * i as f32 / 400.0).collect();
+    for e in [lo, hi, t.min_c, t.max_c] {
+        v.extend([e, f32::from_bits(e.to_bits() - 1), f32::from_bits(e.to_bits() + 1)]);
+    }
+    v.extend([f32::NAN, f32::INFINITY, f32::NEG_INFINITY]);
+    v
+}
+
+/// Codes for the staged sweeps: every 7th code, both rails with their margins, and codes beyond the converter.
+fn sweep_codes(c: &Calibration) -> Vec<u32> {
+    let max = c.adc.max_code().unwrap_or(65535);
+    let m = c.adc.rail_margin;
+    let mut v: Vec<u32> = (0..=max).step_by(7).collect();
+    v.extend((0..=m + 2).chain(max - m - 2..=max + 2));
+    v.extend([70000, u32::MAX]);
+    v
+}
+
+/// Calibrations for the staged sweeps: the hard unit, one without bends (no Newton), one without
+/// extrapolation, and invalid ones (the temperature stage's own errors, the converter's bits).
+fn sweep_units() -> Vec<Calibration> {
+    let mut v = vec![hard_unit()];
+    let mut plain = hard_unit();
+    plain.model.bulk = Series::ZERO;
+    plain.model.bias = BiasTerm::OFF;
+    v.push(plain);
+    let mut strict = hard_unit();
+    strict.temperature.extrapolation_k = 0.0;
+    v.push(strict);
+    let mut flat = hard_unit();
+    flat.model.slope = Series::ZERO;
+    v.push(flat);
+    let mut hollow = hard_unit();
+    hollow.x_range.max = hollow.x_range.min;
+    v.push(hollow);
+    let mut wide = hard_unit();
+    wide.adc.bits = 30;
+    v.push(wide);
+    v
+}
+
+fn same_f32(a: &Result<Reading, Error>, b: &Result<Reading, Error>) -> bool {
+    match (a, b) {
+        (Ok(a), Ok(b)) => {
+            a.x.to_bits() == b.x.to_bits() && a.temperature_extrapolated == b.temperature_extrapolated
+        }
+        (Err(a), Err(b)) => a == b,
+        _ => false,
+    }
+}
+
+fn same_f64(a: &Result<ReadingF64, Error>, b: &Result<ReadingF64, Error>) -> bool {
+    match (a, b) {
+        (Ok(a), Ok(b)) => {
+            a.x.to_bits() == b.x.to_bits()
+                && a.temperature_extrapolated == b.temperature_extrapolated
+                && a.sensitivity.to_bits() == b.sensitivity.to_bits()
+                && a.dx_dcode.to_bits() == b.dx_dcode.to_bits()
+        }
+        (Err(a), Err(b)) => a == b,
+        _ => false,
+    }
+}
+
+/// One f32 stage reused for every code gives, bit for bit, what a fresh evaluation of the same point gives:
+/// the code's check, then the temperature's checks and stage, then the log channel, all for that one point.
+fn staged_f32_matches<B: Backend>() {
+    for c in sweep_units() {
+        let codes = sweep_codes(&c);
+        let (mut values, mut errors) = (0u32, 0u32);
+        for t in sweep_temperatures(&c) {
+            let stage = c.stage_with::<B>(t);
+            for &code in &codes {
+                let staged = c.correct_staged(&stage, code);
+                let fresh = c
+                    .adc
+                    .check_code(code)
+                    .and_then(|()| c.evaluate_real::<F32Math<B>>(code as f32, t))
+                    .map(|p| Reading { x: p.x, temperature_extrapolated: p.extrapolated });
+                assert!(
+                    same_f32(&staged, &fresh),
+                    "code {code} at {t} °C: staged {staged:?}, fresh {fresh:?}"
+                );
+                let public = c.correct_with::<B>(code, t);
+                assert!(same_f32(&staged, &public), "code {code} at {t} °C: staged {staged:?}, {public:?}");
+                if staged.is_ok() {
+                    values += 1;
+                } else {
+                    errors += 1;
+                }
+            }
+        }
+        // The sweep reaches both values and errors wherever the calibration is valid.
+        assert!(errors > 0);
+        assert_eq!(values > 0, c.validate().is_ok(), "{values} values");
+    }
+}
+
+#[test]
+fn staged_f32_is_bit_identical_to_a_fresh_correction() {
+    staged_f32_matches::<Libm>();
+}
+
+#[cfg(feature = "micromath")]
+#[test]
+fn staged_f32_is_bit_identical_with_micromath() {
+    staged_f32_matches::<crate::math::Micromath>();
+}
+
+#[test]
+fn staged_f64_is_bit_identical_to_correct_f64() {
+    for c in sweep_units() {
+        let codes = sweep_codes(&c);
+        let mut kinds = std::collections::BTreeSet::new();
+        let temps = sweep_temperatures(&c).into_iter().map(f64::from).chain([25.123456789, -24.9999999]);
+        for t in temps {
+            let stage = c.reference_stage(t);
+            for &code in &codes {
+                let staged = c.correct_staged_f64(&stage, code);
+                let direct = c.correct_f64(f64::from(code), t);
+                assert!(same_f64(&staged, &direct), "code {code} at {t} °C: staged {staged:?}, {direct:?}");
+                kinds.insert(staged.map_or_else(|e| e.name(), |_| "ok"));
+            }
+        }
+        // Every kind of outcome the sweep is meant to reach is reached on the valid units.
+        if c.validate().is_ok() {
+            for k in ["ok", "saturated", "code_out_of_adc_range", "below_range", "above_range", "non_finite"]
+            {
+                assert!(kinds.contains(k), "{k} not reached: {kinds:?}");
+            }
+            assert!(kinds.contains("temperature_out_of_range"), "{kinds:?}");
+        }
+    }
+}
+
+/// The warm-started reference against the exact one at every code of a temperature (and at every 97th code,
+/// where the start is farther off): the same status everywhere, x within 1e-12 Np, sensitivity and ∂x/∂code
+/// within 1e-12 relative. Returns the share of codes the warm start answered and the largest x difference.
+fn sweep_against_exact(c: &Calibration, stride: usize) -> (f64, f64) {
+    let t = &c.temperature;
+    let (lo, hi) = (t.min_c - t.extrapolation_k, t.max_c + t.extrapolation_k);
+    let max = c.adc.max_code().unwrap_or(65535);
+    let (mut warm, mut points, mut worst) = (0u64, 0u64, 0f64);
+    for i in 0..=24 {
+        let temp = f64::from(lo - 1.0) + f64::from(hi - lo + 2.0) * f64::from(i) / 24.0;
+        let stage = c.reference_stage(temp);
+        let mut sweep = c.reference_sweep(temp);
+        for code in (0..=max + 1).step_by(stride) {
+            let exact = c.correct_staged_f64(&stage, code);
+            let got = sweep.correct(code);
+            points += 1;
+            match (&exact, &got) {
+                (Ok(a), Ok(b)) => {
+                    let dx = (a.x - b.x).abs();
+                    worst = worst.max(dx);
+                    let rel = |p: f64, q: f64| (p - q).abs() <= 1e-12 * p.abs();
+                    assert!(
+                        dx <= 1e-12
+                            && rel(a.sensitivity, b.sensitivity)
+                            && rel(a.dx_dcode, b.dx_dcode)
+                            && a.temperature_extrapolated == b.temperature_extrapolated,
+                        "code {code} at {temp} °C: exact {a:?}, warm {b:?}"
+                    );
+                }
+                (Err(a), Err(b)) => assert_eq!(a, b, "code {code} at {temp} °C"),
+                _ => panic!("code {code} at {temp} °C: exact {exact:?}, warm {got:?}"),
+            }
+        }
+        warm += sweep.warm_points();
+    }
+    (warm as f64 / points as f64, worst)
+}
+
+#[test]
+fn warm_started_reference_matches_the_exact_reference() {
+    let hard = hard_unit();
+    // A strong bulk term: h·e^z passes ½ inside the x range, where only the exact path may answer.
+    let mut bulky = hard_unit();
+    bulky.model.bulk = Series::from_slice(&[300.0, 20.0]).unwrap_or(Series::ZERO);
+    // No sensitivity limit: values right down to where e^x vanishes next to β.
+    let mut open = hard_unit();
+    open.x_range = XRange { min: -30.0, max: 4.0, min_sensitivity: 0.0 };
+    // A negative bulk term (h < 0): the warm start never answers.
+    let mut negative = hard_unit();
+    negative.model.bulk = Series::from_slice(&[-6.0]).unwrap_or(Series::ZERO);
+    // No bulk term (h = 0): both paths take z = w.
+    let mut plain = hard_unit();
+    plain.model.bulk = Series::ZERO;
+    for (name, c, least_warm) in [
+        ("hard", hard, 0.4),
+        ("bulky", bulky, 0.2),
+        ("open", open, 0.4),
+        ("negative", negative, 0.0),
+        ("plain", plain, 0.4),
+    ] {
+        for stride in [1, 97] {
+            let (share, worst) = sweep_against_exact(&c, stride);
+            std::eprintln!("{name}, every {stride}: warm {share:.3}, largest x difference {worst:.2e} Np");
+            assert!(share >= least_warm, "{name}: warm start answered only {share}");
+            if least_warm == 0.0 {
+                assert_eq!(share, 0.0, "{name}: no warm start where h < 0");
+            }
+        }
+    }
+}
+
+/// The warm start's `exp` and `ln` near an anchor against libm's own, on walks in steps like a sweep's
+/// (from one code to the next) and jumps (to new anchors): e^z within 3 ULP, ln y within 4e-16·(1 + |ln y|).
+#[test]
+fn anchored_exp_and_ln_follow_libm() {
+    let ulp = |v: f64| f64::from_bits(v.abs().to_bits() + 1) - v.abs();
+    let mut near = Anchors::NONE;
+    let (mut worst_exp, mut worst_ln, mut series) = (0f64, 0f64, 0u32);
+    let mut z = -25.0;
+    let mut k = 0u32;
+    while z < 25.0 {
+        // Steps of 1.1e-4 … 1.9e-3, and every 1000th a jump past the anchor's reach.
+        k += 1;
+        z += if k.is_multiple_of(1000) { 0.01 } else { 1.1e-4 + 1.8e-3 * f64::from(k % 7) / 6.0 };
+        let (got, want) = (near.exp(z), libm::exp(z));
+        worst_exp = worst_exp.max((got - want).abs() / ulp(want));
+        let y = libm::exp(z * 0.7);
+        let (got, want) = (near.ln(y), libm::log(y));
+        worst_ln = worst_ln.max((got - want).abs() / (4e-16 * (1.0 + want.abs())));
+        series += u32::from(near.z != z);
+    }
+    std::eprintln!("exp {worst_exp:.2} ULP, ln {worst_ln:.2} of its bound, {series} of {k} from the series");
+    assert!(worst_exp <= 3.0, "exp {worst_exp} ULP");
+    assert!(worst_ln <= 1.0, "ln {worst_ln} of the bound");
+    assert!(series > k / 2, "the walk must mostly use the series: {series} of {k}");
 }

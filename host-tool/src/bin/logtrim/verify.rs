@@ -57,6 +57,10 @@ pub struct VerifyArgs {
     /// tolerated (counted and reported).
     #[arg(long, default_value_t = 1)]
     pub edge_codes: u32,
+    /// Evaluate the f64 reference by its exact path at every point instead of the warm-started sweep
+    /// (the same statuses, values within 1e-12 Np; slower).
+    #[arg(long)]
+    pub exact_reference: bool,
     /// Print the report as JSON instead of text.
     #[arg(long)]
     pub json: bool,
@@ -79,6 +83,7 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         },
         check_fixed: args.path != PathArg::F32,
         check_f32: args.path != PathArg::Fixed,
+        exact_reference: args.exact_reference,
         progress: std::io::stderr().is_terminal() && std::io::stdout().is_terminal(),
     };
     let start = std::time::Instant::now();
