@@ -48,7 +48,7 @@ cargo bench -q -p logtrim-host --bench fixed 2>/dev/null | sed 's/^/  /'
 echo
 echo "=== exhaustive verify (every code x 0.05 K grid), release, $(nproc) cores ==="
 "target/release/examples/fixed_coeffs" "$OUT/coeffs" >/dev/null
-for unit in hard_uncompensated hard_compensated mild_compensated; do
+for unit in ideal hard_uncompensated hard_compensated mild_compensated; do
   for path in "${VERIFY_PATHS[@]}"; do
     start=$(date +%s.%N)
     status=0
@@ -56,7 +56,10 @@ for unit in hard_uncompensated hard_compensated mild_compensated; do
     end=$(date +%s.%N)
     secs=$(awk -v a="$start" -v b="$end" 'BEGIN { printf "%.2f", b - a }')
     points=$(grep -E '^swept' "$OUT/verify.txt" | sed 's/^swept //; s/;.*//')
-    printf '  %-19s --path %-5s exit %d  %6s s  (%s)\n' "$unit" "$path" "$status" "$secs" "$points"
+    n=$(echo "$points" | sed 's/.*= //; s/ points//')
+    scaled=$(awk -v s="$secs" -v n="$n" 'BEGIN { printf "%.2f", s * 65536 * 1401 / n }')
+    printf '  %-19s --path %-5s exit %d  %6s s  (%s; %s s scaled to 65,536 x 1,401)\n' \
+      "$unit" "$path" "$status" "$secs" "$points" "$scaled"
     grep -E 'error  max' "$OUT/verify.txt" | sed 's/^ */      /'
   done
 done
