@@ -225,6 +225,9 @@ pub struct VerifyReport {
     pub f32: PathReport,
     /// The f32 backend.
     pub f32_backend: F32Backend,
+    /// How the f64 reference was evaluated: `"sweep"` (warm-started, [`logtrim::calibration::ReferenceSweep`])
+    /// or `"exact"` (`correct_f64`'s own steps at every point, [`VerifyOptions::exact_reference`]).
+    pub reference: &'static str,
 }
 
 impl VerifyReport {
@@ -452,6 +455,7 @@ pub fn run(
         fixed: report(opts.check_fixed, &total.fixed, total.fixed_examples),
         f32: report(opts.check_f32, &total.f32, total.f32_examples),
         f32_backend: opts.f32_backend,
+        reference: if opts.exact_reference { "exact" } else { "sweep" },
     })
 }
 
@@ -664,7 +668,11 @@ impl std::fmt::Display for VerifyReport {
             self.codes * self.temperatures,
             self.reference_values
         )?;
-        writeln!(f, "bound {} LSB; edge band ±{} code(s)", self.bound_lsb, self.edge_codes)?;
+        writeln!(
+            f,
+            "bound {} LSB; edge band ±{} code(s); reference: f64 {}",
+            self.bound_lsb, self.edge_codes, self.reference
+        )?;
         let backend = match self.f32_backend {
             F32Backend::Libm => "f32 (libm)",
             F32Backend::Micromath => "f32 (micromath)",

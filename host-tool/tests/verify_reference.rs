@@ -73,6 +73,7 @@ fn verify_reports_the_same_with_the_exact_reference() {
         let exact =
             verify::run(&cal, &t.view(), None, &VerifyOptions { exact_reference: true, ..opts }).unwrap();
         assert_eq!(warm.reference_values, exact.reference_values, "{name}");
+        assert_eq!((warm.reference, exact.reference), ("sweep", "exact"), "{name}");
         for (w, e) in [(&warm.fixed, &exact.fixed), (&warm.f32, &exact.f32)] {
             assert_eq!(w.status, e.status, "{name}");
             assert_eq!(w.errors.compared, e.errors.compared, "{name}");
