@@ -49,6 +49,9 @@ fn aged_unit(d: &Path, offset_v: f64, gain: f64) -> PathBuf {
     ]);
     assert_eq!(code, 0, "{out}{err}");
     assert!(sim.join("standards.csv").exists() && sim.join("blank.csv").exists(), "{out}");
+    // The summary says what each field file is for.
+    assert!(out.lines().any(|l| l.contains("standards.csv") && l.contains("reference standards")), "{out}");
+    assert!(out.lines().any(|l| l.contains("blank.csv") && l.contains("a blank")), "{out}");
     let coeffs = d.join("coeffs.json");
     let (code, out, err) = logtrim(&["fit", s(&sim.join("cal.csv")), "-o", s(&coeffs), "-q"]);
     assert_eq!(code, 0, "{out}{err}");

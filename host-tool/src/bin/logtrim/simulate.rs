@@ -136,6 +136,10 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
             "frontend.json" => "the front end simulated".into(),
             "units.json" => "each unit's drawn front end".into(),
             "manifest.json" => "what generated these files".into(),
+            "standards.csv" => {
+                "the aged unit's readings of two reference standards, for `logtrim trim`".into()
+            }
+            "blank.csv" => "the aged unit's readings of a blank, for `logtrim blank`".into(),
             _ => String::new(),
         };
         let rows = w.rows.map(|r| format!("{r:>7} rows")).unwrap_or_default();
