@@ -9,6 +9,7 @@
 //! | [`layers`] | [`Layers`]: a channel's trim and blank, applied in that order to factory readings; `Layered`, a measurement cycle's corrector with them (feature `hal`) |
 //! | [`channels`] | [`Bank`] and [`FixedBank`]: several channels, one temperature conversion (and stage) per cycle |
 //! | [`record`] | the records' shared header and framing checks, and their errors |
+//! | [`slots`] | two-slot (A/B) storage of a record: [`slots::select`] and [`slots::next_write`] |
 //! | [`layout`] | the records' byte layout, described once |
 //! | [`qconv`] | exact f32 ↔ fixed-point conversions in integer arithmetic |
 //!
@@ -76,6 +77,7 @@ pub mod layers;
 pub mod layout;
 pub mod qconv;
 pub mod record;
+pub mod slots;
 pub mod trim;
 
 #[cfg(test)]

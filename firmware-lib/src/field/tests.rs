@@ -715,3 +715,129 @@ fn a_blank_record_in_a_larger_slot_parses_with_the_rest_left_alone() {
     assert_eq!(blank().write(&mut short), Err(WriteError::BufferTooSmall { needed: 44, available: 43 }));
     assert_eq!(short, [7u8; 43]);
 }
+
+mod slot_choice {
+    //! The A/B choice of field records: the newest usable record wins, a torn write or a record of another
+    //! calibration loses, and the write plan never overwrites the record in use (the usual two-slot
+    //! practice for power-fail-safe updates, common practice).
+    use super::*;
+    use crate::field::slots::{self, NoValidRecord, RecordRejected, SlotId};
+
+    const FP: u32 = 0x1234_5678;
+
+    fn trim_at(sequence: u32, written_at: u64, factory: u32) -> Vec<u8> {
+        Trim::cleared(RecordInfo { sequence, written_at, factory }, 25_000).to_bytes().to_vec()
+    }
+
+    fn blank_at(sequence: u32, factory: u32) -> Vec<u8> {
+        let b = blank();
+        Blank::new(BlankParts { info: RecordInfo { sequence, written_at: 5, factory }, ..b.parts() })
+            .unwrap()
+            .to_bytes()
+            .to_vec()
+    }
+
+    #[test]
+    fn the_newest_usable_record_wins() {
+        let (a, b) = (trim_at(3, 100, FP), trim_at(4, 90, FP));
+        let s = slots::select::<Trim>(&a, &b, Some(FP)).unwrap();
+        assert_eq!((s.slot, s.record.info().sequence), (SlotId::B, 4));
+        assert_eq!(s.other, RecordRejected::Older { sequence: 3, written_at: 100 });
+        let s = slots::select::<Trim>(&b, &a, Some(FP)).unwrap();
+        assert_eq!(s.slot, SlotId::A);
+        // Equal counters: the later time, then slot A; identical copies are reported as a duplicate.
+        let s = slots::select::<Trim>(&trim_at(4, 90, FP), &trim_at(4, 91, FP), Some(FP)).unwrap();
+        assert_eq!(s.slot, SlotId::B);
+        let s = slots::select::<Trim>(&b, &b, Some(FP)).unwrap();
+        assert_eq!((s.slot, s.other), (SlotId::A, RecordRejected::Tie { identical: true }));
+        // Erased memory after a record is ignored.
+        let mut padded = b.clone();
+        padded.extend_from_slice(&[0xff; 16]);
+        assert_eq!(slots::select::<Trim>(&a, &padded, Some(FP)).unwrap().slot, SlotId::B);
+        // Blanks choose the same way.
+        let s = slots::select::<Blank>(&blank_at(9, FP), &blank_at(8, 0), Some(FP)).unwrap();
+        assert_eq!((s.slot, s.record.info().sequence), (SlotId::A, 9));
+    }
+
+    #[test]
+    fn a_torn_or_foreign_slot_loses() {
+        let good = trim_at(3, 100, FP);
+        // A write cut short: the newer record is half there.
+        let mut torn = trim_at(4, 200, FP);
+        torn.truncate(30);
+        let s = slots::select::<Trim>(&good, &torn, Some(FP)).unwrap();
+        assert_eq!(s.slot, SlotId::A);
+        assert!(matches!(s.other, RecordRejected::Invalid(RecordError::Truncated { .. })), "{:?}", s.other);
+        // Every single-bit flip of the newer record hands the choice back to the older one.
+        let newer = trim_at(4, 200, FP);
+        for bit in 0..newer.len() * 8 {
+            let mut bad = newer.clone();
+            bad[bit / 8] ^= 1 << (bit % 8);
+            let s = slots::select::<Trim>(&good, &bad, Some(FP)).unwrap();
+            assert_eq!(s.slot, SlotId::A, "bit {bit}");
+        }
+        // A blank where a trim is looked for, and a trim made on another calibration.
+        let s = slots::select::<Trim>(&blank_at(9, FP), &good, Some(FP)).unwrap();
+        assert!(matches!(s.other, RecordRejected::Invalid(RecordError::OtherRecord { .. })));
+        let s = slots::select::<Trim>(&trim_at(9, 300, FP ^ 1), &good, Some(FP)).unwrap();
+        assert_eq!(
+            (s.slot, s.other),
+            (SlotId::B, RecordRejected::OtherCalibration { bound_to: FP ^ 1, sequence: 9 })
+        );
+        // Unbound records (fingerprint 0) belong to any calibration; no fingerprint given accepts all.
+        assert!(slots::select::<Trim>(&trim_at(1, 1, 0), &[], Some(FP)).is_ok());
+        assert_eq!(slots::select::<Trim>(&trim_at(9, 300, FP ^ 1), &good, None).unwrap().slot, SlotId::A);
+    }
+
+    #[test]
+    fn neither_slot_usable_names_both_reasons() {
+        let erased = [0xffu8; 64];
+        let e = slots::select::<Blank>(&erased, &blank_at(2, FP ^ 1), Some(FP)).unwrap_err();
+        assert_eq!(e.record, RecordType::Blank);
+        assert!(matches!(e.a, RecordRejected::Invalid(RecordError::BadMagic { .. })));
+        assert_eq!(e.b, RecordRejected::OtherCalibration { bound_to: FP ^ 1, sequence: 2 });
+        let text = std::format!("{e}");
+        assert!(text.contains("slot A") && text.contains("another factory calibration"), "{text}");
+        let _: &dyn core::error::Error = &e as &NoValidRecord;
+    }
+
+    #[test]
+    fn the_write_plan_never_overwrites_the_record_in_use() {
+        let (old, new) = (trim_at(3, 100, FP), trim_at(4, 90, FP));
+        let p = slots::next_write::<Trim>(&old, &new, Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::A, 5));
+        let p = slots::next_write::<Trim>(&new, &old, Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::B, 5));
+        // Nothing valid: slot A, sequence 1.
+        let p = slots::next_write::<Trim>(&[], &[0xff; 8], Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::A, 1));
+        // One torn slot: write over it, above the good one's counter.
+        let mut torn = new.clone();
+        torn[10] ^= 4;
+        let p = slots::next_write::<Trim>(&old, &torn, Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::B, 4));
+        // A record of another calibration counts for the sequence, and a usable one is kept.
+        let foreign = trim_at(40, 1, FP ^ 1);
+        let p = slots::next_write::<Trim>(&foreign, &old, Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::A, 41));
+        // Both foreign: the older one is overwritten.
+        let p = slots::next_write::<Trim>(&trim_at(40, 1, 7), &trim_at(41, 1, 7), Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::A, 42));
+        // The counter never wraps.
+        let last = trim_at(u32::MAX, 1, FP);
+        assert_eq!(slots::next_write::<Trim>(&last, &old, Some(FP)), Err(slots::SequenceExhausted));
+        // Writing where the plan says and selecting again gives the new record, and keeps the old one.
+        let (mut x, y) = (foreign.clone(), old.clone());
+        let p = slots::next_write::<Trim>(&x, &y, Some(FP)).unwrap();
+        assert_eq!(p.slot, SlotId::A);
+        x = trim_at(p.sequence, 2, FP);
+        let s = slots::select::<Trim>(&x, &y, Some(FP)).unwrap();
+        assert_eq!((s.slot, s.record.info().sequence), (SlotId::A, 41));
+        assert_eq!(s.other, RecordRejected::Older { sequence: 3, written_at: 100 });
+        // Neither usable, one of them newer: the older contents go.
+        let p = slots::next_write::<Trim>(&trim_at(50, 1, 7), &trim_at(49, 1, 7), Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::B, 51));
+        let p = slots::next_write::<Trim>(&trim_at(50, 1, 7), &[0u8; 3], Some(FP)).unwrap();
+        assert_eq!((p.slot, p.sequence), (SlotId::B, 51));
+    }
+}
