@@ -96,13 +96,38 @@ pub enum CalFileError {
     },
 }
 
-impl CalFile {
-    /// Wraps a calibration with the current time and this build's name.
-    pub fn new(calibration: Calibration, unit: Option<String>) -> CalFile {
-        let now = std::time::SystemTime::now()
+/// The environment variable of the reproducible-builds convention: a Unix time, in seconds, that takes the
+/// place of "now" in everything logtrim stamps (calibration files, and so images; field records), so that
+/// remaking the same outputs gives the same bytes.
+pub const SOURCE_DATE_EPOCH: &str = "SOURCE_DATE_EPOCH";
+
+/// "Now" for a stamp: [`SOURCE_DATE_EPOCH`] when it is set, else the system clock (0 if the clock is before
+/// 1970). A set but malformed value is an error that names it (the binary checks this before any command).
+pub fn stamp_time() -> Result<u64, String> {
+    match std::env::var(SOURCE_DATE_EPOCH) {
+        Ok(v) => v.trim().parse::<u64>().map_err(|_| {
+            format!("{SOURCE_DATE_EPOCH} is {v:?}: expected a whole number of seconds since 1970-01-01 UTC")
+        }),
+        Err(std::env::VarError::NotPresent) => Ok(std::time::SystemTime::now()
             .duration_since(std::time::UNIX_EPOCH)
             .map(|d| d.as_secs())
-            .unwrap_or(0);
+            .unwrap_or(0)),
+        Err(std::env::VarError::NotUnicode(_)) => {
+            Err(format!("{SOURCE_DATE_EPOCH} is not valid text: expected a whole number of seconds"))
+        }
+    }
+}
+
+impl CalFile {
+    /// Wraps a calibration with the stamp time ([`stamp_time`]; the system clock if `SOURCE_DATE_EPOCH` is
+    /// malformed, which callers that must refuse it check with [`stamp_time`] first) and this build's name.
+    pub fn new(calibration: Calibration, unit: Option<String>) -> CalFile {
+        let now = stamp_time().unwrap_or_else(|_| {
+            std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .map(|d| d.as_secs())
+                .unwrap_or(0)
+        });
         CalFile {
             format: FORMAT.to_string(),
             version: VERSION,

@@ -209,3 +209,31 @@ fn demo_runs_and_reports_against_the_noise_limit() {
     assert!(d.join("photometer-compensated/coeffs.json").exists());
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+/// SOURCE_DATE_EPOCH (the reproducible-builds convention, common practice) replaces "now": two fits of the
+/// same data stamped by it give the same calibration file, and a malformed value is refused up front.
+#[test]
+fn source_date_epoch_makes_fits_reproducible() {
+    let d = scratch("epoch");
+    simulate(&d, "1");
+    let fit = |out: &Path, epoch: &str| {
+        Command::new(env!("CARGO_BIN_EXE_logtrim"))
+            .args(["fit", s(&d.join("cal.csv")), "-o", s(out), "-q"])
+            .env("SOURCE_DATE_EPOCH", epoch)
+            .output()
+            .expect("the binary runs")
+    };
+    let (a, b) = (d.join("a.json"), d.join("b.json"));
+    for p in [&a, &b] {
+        let o = fit(p, "1700000000");
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let text = std::fs::read_to_string(&a).unwrap();
+    assert!(text.contains("\"created_unix_s\": 1700000000"), "{text}");
+    assert_eq!(text, std::fs::read_to_string(&b).unwrap());
+    let o = fit(&d.join("c.json"), "yesterday");
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(err.contains("SOURCE_DATE_EPOCH") && err.contains("\"yesterday\""), "{err}");
+    assert!(!d.join("c.json").exists(), "nothing is written when the stamp time is refused");
+}

@@ -87,6 +87,11 @@ impl Failure {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    // A malformed SOURCE_DATE_EPOCH is refused before anything is stamped with the wrong time.
+    if let Err(e) = logtrim_host::calfile::stamp_time() {
+        eprintln!("logtrim: {e}");
+        return ExitCode::from(2);
+    }
     let result: Result<(), Failure> = match cli.command {
         Command::Info => {
             println!("logtrim {}", env!("CARGO_PKG_VERSION"));

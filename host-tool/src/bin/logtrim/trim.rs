@@ -19,7 +19,7 @@ pub struct RecordArgs {
     /// firmware uses the higher).
     #[arg(long, value_name = "N", default_value_t = 1)]
     sequence: u32,
-    /// When the record was made, Unix seconds (UTC) [default: now].
+    /// When the record was made, Unix seconds (UTC) [default: now, or SOURCE_DATE_EPOCH when set].
     #[arg(long, value_name = "SECONDS")]
     written_at: Option<u64>,
 }
@@ -27,12 +27,8 @@ pub struct RecordArgs {
 impl RecordArgs {
     /// The record's header (its factory fingerprint is filled in by the library).
     pub fn info(&self) -> RecordInfo {
-        let now = || {
-            std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map(|d| d.as_secs())
-                .unwrap_or(0)
-        };
+        // `main` has checked SOURCE_DATE_EPOCH before any command ran.
+        let now = || logtrim_host::calfile::stamp_time().unwrap_or(0);
         RecordInfo { sequence: self.sequence, written_at: self.written_at.unwrap_or_else(now), factory: 0 }
     }
 }
