@@ -36,6 +36,8 @@
 
 #[cfg(test)]
 extern crate std;
+#[cfg(test)]
+mod test_units;
 
 pub mod calibration;
 pub mod divider;

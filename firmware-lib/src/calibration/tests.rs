@@ -4,18 +4,7 @@ use std::vec::Vec;
 
 fn hard_unit() -> Calibration {
     // An uncompensated-like unit with a strong low-end bend and a visible high-end bend.
-    let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
-    c.model.t_center_c = 32.5;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.12;
-    c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap_or(Series::ZERO);
-    c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap_or(Series::ZERO);
-    c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap_or(Series::ZERO);
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: -3.0 };
-    c
+    crate::test_units::bent(-3.0)
 }
 
 #[test]

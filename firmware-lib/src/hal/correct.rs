@@ -343,22 +343,10 @@ impl Corrector for FixedCalibration<'_> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::calibration::{BiasTerm, Series, TemperatureRange, XRange};
 
     /// A unit with every code-domain term in use, so that the scaling is exercised everywhere.
     fn bent_unit() -> Calibration {
-        let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
-        c.adc.rail_margin = 16;
-        c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-        c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
-        c.model.t_center_c = 32.5;
-        c.model.t_half_span_k = 52.5;
-        c.model.pole = -0.12;
-        c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap();
-        c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap();
-        c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap();
-        c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: -2.5 };
-        c
+        crate::test_units::bent(-2.5)
     }
 
     #[test]
