@@ -6,10 +6,12 @@
 //! `cargo test -p logtrim --features hal`.
 #![cfg(feature = "hal")]
 
+mod common;
+
 use embedded_hal::spi::{self, Operation, SpiDevice};
 use embedded_hal_mock::eh1::delay::{CheckedDelay, NoopDelay, Transaction as Delay};
 use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as Spi};
-use logtrim::calibration::{BiasTerm, Series, TemperatureRange, XRange};
+use logtrim::calibration::{TemperatureRange, XRange};
 use logtrim::error::SensorFault;
 use logtrim::filter::Ema;
 use logtrim::hal::adc::{self, AdcChannel, ErrorType};
@@ -443,18 +445,7 @@ fn too_many_samples_for_the_buffer_is_an_error() {
 
 /// A unit with a strong bias-current bend at the low end.
 fn bent_unit() -> Calibration {
-    let mut c = Calibration::nominal(16, 32_768.0, 2_400.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
-    c.model.t_center_c = 32.5;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.12;
-    c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap();
-    c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap();
-    c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: 0.0 };
-    c
+    common::bent(0.0)
 }
 
 #[test]

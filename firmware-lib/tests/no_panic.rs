@@ -10,6 +10,8 @@
 //! ranges. Value strategies are boxed so that the value trees live on the heap: unboxed, the nested
 //! calibration strategy overflows a test thread's 2 MiB stack in debug builds.
 
+mod common;
+
 use logtrim::calibration::{
     AdcScaling, BiasTerm, Model, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL, MAX_SERIES,
 };
@@ -181,17 +183,7 @@ fn any_calibration() -> impl Strategy<Value = Calibration> {
 
 /// A realistic unit: strong bias-current bend, bulk term, residual (invented values).
 fn realistic_calibration() -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
-    c.model.t_center_c = 32.5;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.12;
-    c.model.offset = Series { len: 3, coeffs: [120.0, 35.0, -4.0, 0.0, 0.0, 0.0] };
-    c.model.slope = Series { len: 3, coeffs: [1900.0, 40.0, 3.0, 0.0, 0.0, 0.0] };
-    c.model.bulk = Series { len: 2, coeffs: [6.0, 0.3, 0.0, 0.0, 0.0, 0.0] };
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference: -2.0 };
+    let mut c = common::bent(-2.0);
     c.model.residual = Residual { nx: 2, nt: 2, x_center: -1.0, x_half_span: 5.0, ..Residual::OFF };
     c.model.residual.coeffs[0] = 0.01;
     c.model.residual.coeffs[MAX_RESIDUAL] = 0.004;
