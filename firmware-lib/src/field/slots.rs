@@ -111,6 +111,11 @@ pub struct NoValidRecord {
     pub b: RecordRejected,
 }
 
+/// The order of two usable records: the sequence counter, then the time.
+fn order<R: FieldRecord>(r: &R) -> (u32, u64) {
+    (r.info().sequence, r.info().written_at)
+}
+
 /// One slot's outcome: a usable record, or why not; and its sequence counter if it parsed at all.
 fn check<R: FieldRecord>(bytes: &[u8], factory: Option<u32>) -> (Result<R, RecordRejected>, Option<u32>) {
     match R::parse_prefix(bytes) {
@@ -144,9 +149,9 @@ pub fn select<R: FieldRecord>(
     let ((ra, _), (rb, _)) = (check::<R>(a, factory), check::<R>(b, factory));
     match (ra, rb) {
         (Ok(x), Ok(y)) => {
-            let key = |r: &R| (r.info().sequence, r.info().written_at);
-            let (record, slot, loser) = if key(&y) > key(&x) { (y, SlotId::B, x) } else { (x, SlotId::A, y) };
-            let other = if key(&loser) == key(&record) {
+            let (record, slot, loser) =
+                if order(&y) > order(&x) { (y, SlotId::B, x) } else { (x, SlotId::A, y) };
+            let other = if order(&loser) == order(&record) {
                 let len = R::LEN;
                 RecordRejected::Tie { identical: a.get(..len).is_some() && a.get(..len) == b.get(..len) }
             } else {
@@ -177,8 +182,7 @@ pub fn next_write<R: FieldRecord>(
     };
     let slot = match (ra, rb) {
         (Ok(x), Ok(y)) => {
-            let key = |r: &R| (r.info().sequence, r.info().written_at);
-            if key(&y) > key(&x) {
+            if order(&y) > order(&x) {
                 SlotId::A
             } else {
                 SlotId::B

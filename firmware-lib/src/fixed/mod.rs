@@ -510,6 +510,13 @@ impl<'a> StageCache<'a> {
     }
 }
 
+/// One residual column collapsed over temperature: `(Σ_k w_k · r_k) >> (28 − 13)` for the stage's weights
+/// and the column's four i16 control points, below 2^30.6 (weights sum to 6·2^28).
+#[inline(always)]
+fn collapse(w: &[i64; 4], r: [i64; 4]) -> i64 {
+    dot4(w, r) >> (W_BITS - RESIDUAL_GUARD)
+}
+
 /// A corrected reading in fixed point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
@@ -667,13 +674,12 @@ impl<'a> FixedCalibration<'a> {
         let r1 = four_i16(block, stride).ok_or(BAD_TABLE)?;
         let r2 = four_i16(block, 2 * stride).ok_or(BAD_TABLE)?;
         let r3 = four_i16(block, 3 * stride).ok_or(BAD_TABLE)?;
-        let [w0, w1, w2, w3] = stage.w;
-        let sh = W_BITS - RESIDUAL_GUARD;
+        let w = &stage.w;
         Ok([
-            (w0 * r0[0] + w1 * r1[0] + w2 * r2[0] + w3 * r3[0]) >> sh,
-            (w0 * r0[1] + w1 * r1[1] + w2 * r2[1] + w3 * r3[1]) >> sh,
-            (w0 * r0[2] + w1 * r1[2] + w2 * r2[2] + w3 * r3[2]) >> sh,
-            (w0 * r0[3] + w1 * r1[3] + w2 * r2[3] + w3 * r3[3]) >> sh,
+            collapse(w, [r0[0], r1[0], r2[0], r3[0]]),
+            collapse(w, [r0[1], r1[1], r2[1], r3[1]]),
+            collapse(w, [r0[2], r1[2], r2[2], r3[2]]),
+            collapse(w, [r0[3], r1[3], r2[3], r3[3]]),
         ])
     }
 
@@ -705,12 +711,10 @@ impl<'a> FixedCalibration<'a> {
             (Some(a), Some(b), Some(c), Some(d)) => (a, b, c, d),
             _ => return Err(BAD_TABLE),
         };
-        let [w0, w1, w2, w3] = stage.w;
-        let sh = W_BITS - RESIDUAL_GUARD;
         let cols = r0.iter().zip(r1).zip(r2).zip(r3);
         for (dst, (((&a, &b), &c), &d)) in rs.row.iter_mut().zip(cols) {
-            let v = (w0 * i64::from(a) + w1 * i64::from(b) + w2 * i64::from(c) + w3 * i64::from(d)) >> sh;
-            // Below 2^30.6 (weights summing to 6·2^28, i16 values, shifted by 15): fits.
+            let v = collapse(&stage.w, [a, b, c, d].map(i64::from));
+            // Below 2^30.6: fits.
             *dst = v as i32;
         }
         rs.stage = *stage;
