@@ -1,7 +1,12 @@
-//! Hand-made calibrations shared by the crate's unit tests (invented values): one unit with every
-//! code-domain term in use, so that no test module keeps its own copy.
+//! Hand-made calibrations shared by the crate's unit tests (invented values), so that no test module
+//! keeps its own copy: an f32 unit with every code-domain term in use, and a linear fixed-point unit.
+
+use std::vec;
+use std::vec::Vec;
 
 use crate::calibration::{BiasTerm, Calibration, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL};
+use crate::error::SensorFault;
+use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
 
 /// A 16-bit unit calibrated over −20…85 °C with a strong low-end (bias-current) bend, a visible high-end
 /// (bulk-resistance) bend, a compensating pole and a bias term on the reference input of `reference` codes;
@@ -35,4 +40,83 @@ pub(crate) fn hard() -> Calibration {
     r.coeffs[2 * MAX_RESIDUAL + 1] = 7e-5;
     c.model.residual = r;
     c
+}
+
+/// The x range's ends of [`linear_fixed`]: 27306 codes from the centre, Q24 Np.
+pub(crate) const LINEAR_X_LIM: i32 = 27306 * 3072;
+
+/// A linear unit: x = (code − 32769)·6/32768 Np at every temperature (values whose control points divide
+/// by 6 exactly), −5…55 °C accepted, 0…50 °C calibrated, x in ±27306·6/32768 Np (about ±5 Np), a
+/// temperature channel with θ = 15 m°C per code from code 100 to 4000.
+pub(crate) struct LinearFixed {
+    pub(crate) header: FixedHeader,
+    pub(crate) offset: Vec<i32>,
+    pub(crate) inv_slope: Vec<i32>,
+    pub(crate) ln_bias: Vec<i32>,
+    pub(crate) u_min: Vec<i32>,
+    pub(crate) residual: Vec<i16>,
+    pub(crate) sensor: Vec<i32>,
+}
+
+/// The linear fixed-point unit (see [`LinearFixed`]).
+pub(crate) fn linear_fixed() -> LinearFixed {
+    let header = FixedHeader {
+        layout: LAYOUT_VERSION,
+        adc_max_code: 65535,
+        rail_margin: 16,
+        temp_min: 0,
+        temp_max: 50_000 * 1024,
+        temp_lo: -5_000 * 1024,
+        temp_hi: 55_000 * 1024,
+        t_knots: 4,
+        t_origin: -5_000 * 1024,
+        t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
+        offset_frac: 14,
+        inv_slope_frac: 42,
+        bias_bend: false,
+        sensitivity_limit: false,
+        xa_knots: 5,
+        xa_origin: -9 * (1 << 24),
+        xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
+        residual_frac: 16,
+        x_min: -LINEAR_X_LIM,
+        x_max: LINEAR_X_LIM,
+    };
+    LinearFixed {
+        header,
+        // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
+        offset: vec![10923 << 13; 6],
+        inv_slope: vec![1 << 27; 6],
+        ln_bias: vec![],
+        u_min: vec![],
+        residual: vec![0; 6 * 7],
+        // θ(code) = (code − 100)·15 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)),
+        // stored divided by 6.
+        sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
+    }
+}
+
+impl LinearFixed {
+    pub(crate) fn view(&self) -> FixedCalibration<'_> {
+        FixedCalibration {
+            header: self.header,
+            offset: &self.offset,
+            inv_slope: &self.inv_slope,
+            ln_bias: &self.ln_bias,
+            u_min: &self.u_min,
+            residual: &self.residual,
+            sensor: Some(SensorTable {
+                code_lo: 100,
+                code_hi: 4000,
+                step_log2: 8,
+                fault_below: SensorFault::OutOfModelRange,
+                far_below_code: 10,
+                fault_far_below: SensorFault::Short,
+                fault_above: SensorFault::OutOfModelRange,
+                far_above_code: 4090,
+                fault_far_above: SensorFault::Open,
+                knots: &self.sensor,
+            }),
+        }
+    }
 }

@@ -2,7 +2,6 @@
 //! foreign magic, bad values behind a good CRC), the trim computations against an independent f64
 //! solution, the limits, clearing, blank referencing, bindings and the channel banks.
 
-use std::vec;
 use std::vec::Vec;
 
 use proptest::prelude::*;
@@ -12,7 +11,7 @@ use super::qconv::q_from_f32;
 use super::*;
 use crate::calibration::{Reading, TemperatureRange};
 use crate::error::SensorFault;
-use crate::fixed::{FixedCalibration, FixedHeader, FixedReading, SensorTable, LAYOUT_VERSION};
+use crate::fixed::FixedReading;
 use crate::units::Unit;
 
 const Q24: f64 = 16_777_216.0;
@@ -394,73 +393,16 @@ fn limits_convert_exactly() {
 // ---------------------------------------------------------------------------------------------------------
 // Layers on real corrections
 
-/// A linear fixed-point unit: x = (code − 32769)/(32768/6) Np at every temperature, 0…50 °C (−5…55
-/// accepted), a temperature channel of 15 m°C per code from code 100 (the fixed module's own test unit;
-/// the tables store spline control points divided by 6, so these values are the exact ones).
-struct Owned {
-    header: FixedHeader,
-    offset: Vec<i32>,
-    inv_slope: Vec<i32>,
-    residual: Vec<i16>,
-    sensor: Vec<i32>,
-}
-
-fn linear(temp_max_c: i32) -> Owned {
-    let header = FixedHeader {
-        layout: LAYOUT_VERSION,
-        adc_max_code: 65535,
-        rail_margin: 16,
-        temp_min: 0,
-        temp_max: temp_max_c * 1000 * 1024,
-        temp_lo: -5_000 * 1024,
-        temp_hi: (temp_max_c + 5) * 1000 * 1024,
-        t_knots: 4,
-        t_origin: -5_000 * 1024,
-        t_inv_step: 13_743_895,
-        offset_frac: 14,
-        inv_slope_frac: 42,
-        bias_bend: false,
-        sensitivity_limit: false,
-        xa_knots: 5,
-        xa_origin: -9 * (1 << 24),
-        xa_inv_step: 3_728_270,
-        residual_frac: 16,
-        x_min: -7 * (1 << 24),
-        x_max: 7 * (1 << 24),
-    };
-    Owned {
-        header,
-        // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
-        offset: vec![10923 << 13; 6],
-        inv_slope: vec![1 << 27; 6],
-        residual: vec![0; 6 * 7],
-        sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
-    }
-}
-
-impl Owned {
-    fn view(&self) -> FixedCalibration<'_> {
-        FixedCalibration {
-            header: self.header,
-            offset: &self.offset,
-            inv_slope: &self.inv_slope,
-            ln_bias: &[],
-            u_min: &[],
-            residual: &self.residual,
-            sensor: Some(SensorTable {
-                code_lo: 100,
-                code_hi: 4000,
-                step_log2: 8,
-                fault_below: SensorFault::OutOfModelRange,
-                far_below_code: 10,
-                fault_far_below: SensorFault::Short,
-                fault_above: SensorFault::OutOfModelRange,
-                far_above_code: 4090,
-                fault_far_above: SensorFault::Open,
-                knots: &self.sensor,
-            }),
-        }
-    }
+/// The crate's linear fixed-point unit (x = (code − 32769)/(32768/6) Np at every temperature, a temperature
+/// channel of 15 m°C per code from code 100) calibrated over 0…`temp_max_c` °C (5 K more accepted), with an
+/// x range of ±7 Np.
+fn linear(temp_max_c: i32) -> crate::test_units::LinearFixed {
+    let mut o = crate::test_units::linear_fixed();
+    o.header.temp_max = temp_max_c * 1000 * 1024;
+    o.header.temp_hi = (temp_max_c + 5) * 1000 * 1024;
+    o.header.x_min = -7 * (1 << 24);
+    o.header.x_max = 7 * (1 << 24);
+    o
 }
 
 /// Codes per neper of `linear`.

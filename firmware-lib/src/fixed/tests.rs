@@ -3,89 +3,15 @@
 //! (Accuracy against the f64 model is the host's job: `host-tool/tests/fixed_tables.rs` and `logtrim verify`.)
 
 use std::vec;
-use std::vec::Vec;
 
 use super::*;
 use crate::calibration::temperature_out_of_range_millicelsius as t_err;
-
-/// A linear unit: x = (code − 32769)·6/32768 Np at every temperature (values whose control points divide
-/// by 6 exactly), −5…55 °C accepted, 0…50 °C calibrated, x in ±27306·6/32768 Np (about ±5 Np), a
-/// temperature channel with θ = 15 m°C per code from code 100 to 4000.
-struct Owned {
-    header: FixedHeader,
-    offset: Vec<i32>,
-    inv_slope: Vec<i32>,
-    ln_bias: Vec<i32>,
-    u_min: Vec<i32>,
-    residual: Vec<i16>,
-    sensor: Vec<i32>,
-}
 
 const Q24: i64 = 1 << 24;
 /// The x range's ends: 27306 codes from the centre.
 const X_LIM: i32 = 27306 * 3072;
 
-fn linear() -> Owned {
-    let header = FixedHeader {
-        layout: LAYOUT_VERSION,
-        adc_max_code: 65535,
-        rail_margin: 16,
-        temp_min: 0,
-        temp_max: 50_000 * 1024,
-        temp_lo: -5_000 * 1024,
-        temp_hi: 55_000 * 1024,
-        t_knots: 4,
-        t_origin: -5_000 * 1024,
-        t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
-        offset_frac: 14,
-        inv_slope_frac: 42,
-        bias_bend: false,
-        sensitivity_limit: false,
-        xa_knots: 5,
-        xa_origin: -9 * (1 << 24),
-        xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
-        residual_frac: 16,
-        x_min: -X_LIM,
-        x_max: X_LIM,
-    };
-    Owned {
-        header,
-        // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
-        offset: vec![10923 << 13; 6],
-        inv_slope: vec![1 << 27; 6],
-        ln_bias: vec![],
-        u_min: vec![],
-        residual: vec![0; 6 * 7],
-        // θ(code) = (code − 100)·15 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)),
-        // stored divided by 6.
-        sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
-    }
-}
-
-impl Owned {
-    fn view(&self) -> FixedCalibration<'_> {
-        FixedCalibration {
-            header: self.header,
-            offset: &self.offset,
-            inv_slope: &self.inv_slope,
-            ln_bias: &self.ln_bias,
-            u_min: &self.u_min,
-            residual: &self.residual,
-            sensor: Some(SensorTable {
-                code_lo: 100,
-                code_hi: 4000,
-                step_log2: 8,
-                fault_below: SensorFault::OutOfModelRange,
-                far_below_code: 10,
-                fault_far_below: SensorFault::Short,
-                fault_above: SensorFault::OutOfModelRange,
-                far_above_code: 4090,
-                fault_far_above: SensorFault::Open,
-                knots: &self.sensor,
-            }),
-        }
-    }
-}
+use crate::test_units::{linear_fixed as linear, LinearFixed as Owned};
 
 fn x_of(code: u32) -> i32 {
     ((i64::from(code) - 32769) * 3072) as i32

@@ -431,74 +431,22 @@ mod tests {
     // correction makes the interpolation of a mean exact, so every expected value is exact too.
 
     mod fixed_path {
-        use std::vec;
-        use std::vec::Vec;
-
         use super::*;
         use crate::error::SensorFault;
-        use crate::fixed::{FixedHeader, SensorTable, LAYOUT_VERSION};
         use crate::hal::temperature::{FixedSensorTable, TemperatureChannel};
 
-        struct Owned {
-            offset: Vec<i32>,
-            inv_slope: Vec<i32>,
-            residual: Vec<i16>,
-            sensor: Vec<i32>,
-        }
+        use crate::test_units::LinearFixed as Owned;
 
+        /// The crate's linear fixed-point unit with an x range of ±`X_LIM`.
         fn owned() -> Owned {
-            Owned {
-                // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
-                offset: vec![10923 << 13; 6],
-                inv_slope: vec![1 << 27; 6],
-                residual: vec![0; 6 * 7],
-                // θ(code) = (code − 100)·15 m°C, knots every 256 codes from code 100 (divided by 6).
-                sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
-            }
+            let mut o = crate::test_units::linear_fixed();
+            o.header.x_min = -X_LIM;
+            o.header.x_max = X_LIM;
+            o
         }
 
         fn view(o: &Owned) -> FixedCalibration<'_> {
-            FixedCalibration {
-                header: FixedHeader {
-                    layout: LAYOUT_VERSION,
-                    adc_max_code: 65535,
-                    rail_margin: 16,
-                    temp_min: 0,
-                    temp_max: 50_000 * 1024,
-                    temp_lo: -5_000 * 1024,
-                    temp_hi: 55_000 * 1024,
-                    t_knots: 4,
-                    t_origin: -5_000 * 1024,
-                    t_inv_step: 13_743_895,
-                    offset_frac: 14,
-                    inv_slope_frac: 42,
-                    bias_bend: false,
-                    sensitivity_limit: false,
-                    xa_knots: 5,
-                    xa_origin: -9 * (1 << 24),
-                    xa_inv_step: 3_728_270,
-                    residual_frac: 16,
-                    x_min: -X_LIM,
-                    x_max: X_LIM,
-                },
-                offset: &o.offset,
-                inv_slope: &o.inv_slope,
-                ln_bias: &[],
-                u_min: &[],
-                residual: &o.residual,
-                sensor: Some(SensorTable {
-                    code_lo: 100,
-                    code_hi: 4000,
-                    step_log2: 8,
-                    fault_below: SensorFault::OutOfModelRange,
-                    far_below_code: 10,
-                    fault_far_below: SensorFault::Short,
-                    fault_above: SensorFault::OutOfModelRange,
-                    far_above_code: 4090,
-                    fault_far_above: SensorFault::Open,
-                    knots: &o.sensor,
-                }),
-            }
+            o.view()
         }
 
         /// 5.25 Np in Q24: the ends of the linear unit's x range (codes 4097 and 61441).
