@@ -15,7 +15,7 @@ trap 'rm -rf "$OUT"' EXIT
 
 echo "=== building (bench profile: no overflow checks, as a firmware release build) ==="
 cargo build -q --profile bench -p logtrim-host --example fixed_loop --example fixed_coeffs
-cargo build -q --release -p logtrim-host --bin logtrim
+cargo build -q --release -p logtrim-cli --bin logtrim
 LOOP=target/release/examples/fixed_loop
 
 echo

@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Makes tests/data/lstsq_reference.json: an ill-conditioned least-squares case solved by numpy.linalg.lstsq.
+"""Makes tests/tests/data/lstsq_reference.json: an ill-conditioned least-squares case solved by numpy.linalg.lstsq.
 
 The Rust test `tests/fit_vs_numpy.rs` solves the same matrix with logtrim-host's solver and compares.
 Run from the repository root:  python3 scripts/lstsq_reference.py   (needs numpy)
@@ -42,7 +42,7 @@ out = {
     # Exactly rank-deficient: the last column is x + 1e-6 t^3, a combination of two others.
     "rank_deficient": case(lambda t, x: x + 1e-6 * t ** 3),
 }
-with open("tests/data/lstsq_reference.json", "w") as f:
+with open("tests/tests/data/lstsq_reference.json", "w") as f:
     json.dump(out, f, indent=1)
 for k in ("ill_conditioned", "rank_deficient"):
     c = out[k]

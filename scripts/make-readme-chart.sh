@@ -11,7 +11,7 @@ seed="${2:-7}"
 work="$(mktemp -d)"
 trap 'rm -rf "$work"' EXIT
 
-cargo build -q --release -p logtrim-host --bin logtrim
+cargo build -q --release -p logtrim-cli --bin logtrim
 bin="${CARGO_TARGET_DIR:-target}/release/logtrim"
 "$bin" simulate --preset "$preset" --seed "$seed" --out-dir "$work" >/dev/null
 "$bin" fit "$work/cal.csv" -o "$work/COEFFS.json" -q >/dev/null

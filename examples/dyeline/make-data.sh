@@ -15,7 +15,7 @@ serial="QM-DL2-0117"
 work="$(mktemp -d)"
 trap 'rm -rf "$work"' EXIT
 
-cargo build -q --manifest-path "$root/Cargo.toml" -p logtrim-host --bin logtrim
+cargo build -q --manifest-path "$root/Cargo.toml" -p logtrim-cli --bin logtrim
 logtrim="${CARGO_TARGET_DIR:-$root/target}/debug/logtrim"
 
 cd "$here"

@@ -1,7 +1,7 @@
 //! The example crate's integer path equals the host's, bit for bit.
 //!
 //! The host side is what `logtrim apply COEFFS.json READINGS.csv --path fixed` runs
-//! (`host-tool/src/bin/logtrim/apply.rs`): the readings read by `logtrim_host::data::read_readings` with the
+//! (`host-tool/cli/src/apply.rs`): the readings read by `logtrim_host::data::read_readings` with the
 //! calibration's ADC resolution, the tables from `CalFile::fixed_tables(&TableOptions::default())`, and
 //! `logtrim_host::apply::correct_rows_fixed` over them. These tests call those same library functions on the
 //! same readings (running the CLI binary itself would need a path to it that a test of this package cannot

@@ -11,7 +11,7 @@
 //! a bubble through the cell, an afternoon in the sun beyond the calibrated temperature range, a lamp that
 //! fails, a thermistor plug that works loose, and a unit that boots without a calibration image.
 //!
-//! Run with `cargo run --example measurement_cycle`.
+//! Run with `cargo run -p logtrim --features hal --example measurement_cycle`.
 
 use embedded_hal_mock::eh1::delay::{CheckedDelay, Transaction as Delay};
 use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as Spi};

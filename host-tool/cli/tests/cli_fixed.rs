@@ -1,6 +1,7 @@
 //! The `verify` and `emit` verbs end to end: exit codes (0 ok, 1 check failed, 2 bad input), output files
 //! written atomically and only on success.
 
+#[path = "../../tests/common/mod.rs"]
 mod common;
 
 use std::path::PathBuf;

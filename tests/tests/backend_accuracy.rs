@@ -17,7 +17,7 @@ use rand_xorshift::XorShiftRng;
 const POINTS: usize = 100_000;
 
 /// The module docs whose table this test keeps honest.
-const MATH_DOCS: &str = include_str!("../firmware-lib/src/math.rs");
+const MATH_DOCS: &str = include_str!("../../firmware-lib/src/math.rs");
 
 #[derive(Debug, Default)]
 struct Stats {

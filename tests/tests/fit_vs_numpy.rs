@@ -1,5 +1,5 @@
 //! The fit's least-squares solver against an independent general-purpose one: numpy's `lstsq` (LAPACK
-//! SVD), whose results on two deliberately hard designs are committed in `tests/data/lstsq_reference.json`
+//! SVD), whose results on two deliberately hard designs are committed in `tests/tests/data/lstsq_reference.json`
 //! together with the script that made them (`scripts/lstsq_reference.py`).
 
 use logtrim_checks::within;
