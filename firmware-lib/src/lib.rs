@@ -50,6 +50,7 @@ pub mod hal;
 pub mod image;
 pub mod math;
 pub mod physics;
+pub mod record;
 pub mod rtd;
 pub mod sensor;
 pub mod thermistor;

@@ -9,12 +9,12 @@
 //! returns the factory reading itself, bit for bit.
 
 use super::blank::{q24_of, Blank};
-use super::record::RecordType;
 use super::trim::{Trim, TrimLimits};
 use super::FieldError;
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::FixedReading;
+use crate::record::RecordType;
 
 /// A channel's trim and blank, checked once when installed ([`Layers::new`]) and applied to every reading.
 #[derive(Debug, Clone, Copy, PartialEq)]
