@@ -49,6 +49,7 @@ pub mod fixed;
 pub mod hal;
 pub mod image;
 pub mod math;
+pub mod path;
 pub mod physics;
 pub mod record;
 pub mod rtd;

@@ -101,6 +101,27 @@ impl Layers {
     }
 }
 
+/// A factory reading of either correction path, as the layers take it: [`Reading`] through
+/// [`Layers::apply`], [`FixedReading`] through [`Layers::apply_fixed`].
+pub trait ThroughLayers: Sized {
+    /// The reading through `layers`.
+    fn through(&self, layers: &Layers) -> Result<Self, Error>;
+}
+
+impl ThroughLayers for Reading {
+    /// [`Layers::apply`], which cannot fail.
+    fn through(&self, layers: &Layers) -> Result<Reading, Error> {
+        Ok(layers.apply(self))
+    }
+}
+
+impl ThroughLayers for FixedReading {
+    /// [`Layers::apply_fixed`].
+    fn through(&self, layers: &Layers) -> Result<FixedReading, Error> {
+        layers.apply_fixed(self)
+    }
+}
+
 /// A record bound to another factory calibration than the one in use is refused.
 pub(super) fn check_binding(record: RecordType, bound: u32, factory: Option<u32>) -> Result<(), FieldError> {
     match factory {

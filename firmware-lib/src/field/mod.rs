@@ -7,7 +7,7 @@
 //! | [`blank`] | [`Blank`]: the reading of a blank and readings relative to it, `x − x_blank` |
 //! | [`trim`] | [`Trim`]: one- and two-point trims `x' = g·x + o`, their computation from standards, [`TrimLimits`] |
 //! | [`layers`] | [`Layers`]: a channel's trim and blank, applied in that order to factory readings; `Layered`, a measurement cycle's corrector with them (feature `hal`) |
-//! | [`channels`] | [`Bank`] and [`FixedBank`]: several channels, one temperature conversion (and stage) per cycle |
+//! | [`channels`] | [`Bank`] of [`LogChannel`]s, either correction path: several channels, one temperature conversion and stage per cycle |
 //! | [`header`] | the records' shared header on the common framing ([`crate::record`]), and their errors |
 //! | [`slots`] | two-slot (A/B) storage of a record: [`slots::select`] and [`slots::next_write`], the rule of [`crate::record::slots`] |
 //! | [`layout`] | the records' byte layout, described once |
@@ -87,11 +87,11 @@ mod tests;
 use core::fmt;
 
 pub use blank::{Blank, BlankParts};
-pub use channels::{Bank, BankError, Channel, Cycle, FixedBank, FixedChannel, FixedCycle};
+pub use channels::{Bank, BankError, Cycle, LogChannel};
 pub use header::{RecordError, RecordInfo, RecordValueError};
 #[cfg(feature = "hal")]
 pub use layers::Layered;
-pub use layers::Layers;
+pub use layers::{Layers, ThroughLayers};
 pub use trim::{FixedStandard, Standard, Trim, TrimKind, TrimLimits, TrimParts};
 
 use crate::calibration::Calibration;
@@ -250,12 +250,12 @@ const _: () = {
     is_format::<RecordError>();
     is_format::<RecordValueError>();
     is_format::<FieldError>();
-    is_format::<Bank<2>>();
-    is_format::<Channel>();
-    is_format::<Cycle>();
-    is_format::<FixedBank<'static, 2>>();
-    is_format::<FixedChannel<'static>>();
-    is_format::<FixedCycle<2>>();
+    is_format::<Bank<Calibration, 2>>();
+    is_format::<LogChannel<Calibration>>();
+    is_format::<Cycle<Calibration, 2>>();
+    is_format::<Bank<crate::fixed::FixedCalibration<'static>, 2>>();
+    is_format::<LogChannel<crate::fixed::FixedCalibration<'static>>>();
+    is_format::<Cycle<crate::fixed::FixedCalibration<'static>, 2>>();
     is_format::<BankError>();
     #[cfg(feature = "hal")]
     is_format::<Layered<Calibration>>();

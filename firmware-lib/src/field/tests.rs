@@ -599,9 +599,9 @@ fn an_f32_bank_corrects_every_channel_at_one_temperature() {
     steep.model.slope.coeffs[0] = 3000.0;
     let trimmed = Layers::new(Some(two_point()), None, &TrimLimits::DEFAULT, None).unwrap();
     let chans = [
-        Channel { calibration: f32_twin(), layers: Layers::FACTORY },
-        Channel { calibration: steep, layers: trimmed },
-        Channel { calibration: narrow, layers: Layers::FACTORY },
+        LogChannel { calibration: f32_twin(), layers: Layers::FACTORY },
+        LogChannel { calibration: steep, layers: trimmed },
+        LogChannel { calibration: narrow, layers: Layers::FACTORY },
     ];
     let bank = Bank::new(chans).unwrap();
     let cycle = bank.cycle_from_celsius(30.0).unwrap();
@@ -618,7 +618,7 @@ fn an_f32_bank_corrects_every_channel_at_one_temperature() {
     assert_eq!(bank.cycle_from_celsius(f32::NAN), Err(crate::Error::NonFinite));
     let mut bad = f32_twin();
     bad.adc.bits = 0;
-    let e = Bank::new([chans[0], Channel { calibration: bad, layers: Layers::FACTORY }]).unwrap_err();
+    let e = Bank::new([chans[0], LogChannel { calibration: bad, layers: Layers::FACTORY }]).unwrap_err();
     assert_eq!(e.channel, 1);
 }
 
@@ -628,11 +628,11 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
     let narrow = linear(20);
     let trimmed = Layers::new(Some(two_point()), Some(blank()), &TrimLimits::DEFAULT, None).unwrap();
     let chans = [
-        FixedChannel { calibration: wide.view(), layers: Layers::FACTORY },
-        FixedChannel { calibration: wide.view(), layers: trimmed },
-        FixedChannel { calibration: narrow.view(), layers: Layers::FACTORY },
+        LogChannel { calibration: wide.view(), layers: Layers::FACTORY },
+        LogChannel { calibration: wide.view(), layers: trimmed },
+        LogChannel { calibration: narrow.view(), layers: Layers::FACTORY },
     ];
-    let bank = FixedBank::new(chans, 0).unwrap();
+    let bank = Bank::new(chans).and_then(|b| b.with_sensor_channel(0)).unwrap();
     // Code 2100 is 30 °C on the temperature channel: outside the narrow channel's 0…25 °C.
     let cycle = bank.cycle_from_code(2100).unwrap();
     assert_eq!(cycle.millicelsius(), 30_000);
@@ -649,7 +649,56 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
     assert_eq!(bank.cycle_from_millicelsius(30_000).unwrap(), cycle);
     assert_eq!(bank.cycle_from_code(4095), Err(crate::Error::Sensor(SensorFault::Open)));
     assert_eq!(bank.correct_factory(&cycle, 1, codes[1]), chans[1].calibration.correct(codes[1], 30_000));
-    assert!(FixedBank::new(chans, 3).is_err());
+    assert!(Bank::new(chans).unwrap().with_sensor_channel(3).is_err());
+}
+
+#[test]
+fn banks_give_each_path_s_one_call_corrections_bit_for_bit() {
+    // Codes at and near both rails and beyond the converter, temperatures inside, in the extrapolation and
+    // beyond it: the bank's staged corrections against each path's one-call correction.
+    let cal = f32_twin();
+    let owned = linear(50);
+    let fixed = owned.view();
+    let f32_bank = Bank::new([LogChannel { calibration: cal, layers: Layers::FACTORY }]).unwrap();
+    let fixed_bank = Bank::new([LogChannel { calibration: fixed, layers: Layers::FACTORY }]).unwrap();
+    let codes = [0u32, 1, 16, 17, 100, 4097, 20_000, 32_769, 45_000, 61_441, 65_518, 65_519, 65_535, 70_000];
+    for t_mc in [-6_000i32, -5_000, -1, 0, 12_345, 25_000, 50_000, 52_500, 55_000, 55_001, 80_000] {
+        let t = t_mc as f32 / 1000.0;
+        let (fc, xc) =
+            (f32_bank.cycle_from_celsius(t).unwrap(), fixed_bank.cycle_from_millicelsius(t_mc).unwrap());
+        for code in codes {
+            let want = cal.correct(code, t).map(|r| (r.x.to_bits(), r.temperature_extrapolated));
+            let got =
+                f32_bank.correct_factory(&fc, 0, code).map(|r| (r.x.to_bits(), r.temperature_extrapolated));
+            assert_eq!(got, want, "f32 path, code {code} at {t_mc} m°C");
+            // The fixed path reports a refused temperature before the code's own check.
+            let stage = fixed.stage_millicelsius(t_mc);
+            let want = match (fixed.check_code(code), stage) {
+                (Err(e), Ok(_)) => Err(e),
+                (_, Err(e)) => Err(e),
+                (Ok(()), Ok(_)) => fixed.correct(code, t_mc),
+            };
+            assert_eq!(
+                fixed_bank.correct_factory(&xc, 0, code),
+                want,
+                "fixed path, code {code} at {t_mc} m°C"
+            );
+        }
+    }
+    // Both kinds of refusal are reached.
+    assert!(matches!(
+        f32_bank.correct_factory(&f32_bank.cycle_from_celsius(80.0).unwrap(), 0, 0),
+        Err(crate::Error::Saturated { .. })
+    ));
+    let out = fixed_bank.cycle_from_millicelsius(80_000).unwrap();
+    assert!(matches!(
+        fixed_bank.correct_factory(&out, 0, 0),
+        Err(crate::Error::TemperatureOutOfRange { .. })
+    ));
+    assert_eq!(
+        f32_bank.correct_factory(&f32_bank.cycle_from_celsius(25.0).unwrap(), 1, 30_000),
+        Err(crate::Error::NotCalibrated)
+    );
 }
 
 #[cfg(feature = "hal")]
