@@ -2,7 +2,7 @@
 //!
 //! Both records share a 24-byte header (magic, version, length, write counter, time, the fingerprint of
 //! the factory calibration they were made on) and end in a CRC-32. Every field is a
-//! [`Field`](crate::record::layout::Field) constant here; the parser and the writer go through these
+//! [`Field`] constant here; the parser and the writer go through these
 //! constants, and the table in the [`field`](super) docs is rendered from them by [`write_markdown_table`]
 //! (tests hold the constants, the rendered table and the offsets the docs state to each other).
 //!

@@ -1,8 +1,8 @@
 //! The byte layout of a calibration image, described once.
 //!
 //! Every field of every part (the header, each section's payload, the trailer) is a
-//! [`Field`](crate::record::layout::Field) constant here: its offset within the part, its size (derived from
-//! its [`Kind`](crate::record::layout::Kind)) and its meaning. The parser and the writer read and write
+//! [`Field`] constant here: its offset within the part, its size (derived from
+//! its [`Kind`]) and its meaning. The parser and the writer read and write
 //! through these constants, and [`PARTS`] lists them in the order they appear in an image: the table in the
 //! [`image`](super) docs is rendered from it by [`write_markdown_table`], and tests hold the constants, the
 //! rendered table and the offsets the docs state to each other.

@@ -35,8 +35,8 @@
 //! * The **trailer** is the CRC-32/ISO-HDLC of every byte before it ([`crate::record::crc32`]).
 //!
 //! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
-//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is about 2.2 KiB, 2.7 KiB
-//! with a 128-segment temperature-sensor table.
+//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is 2 024 bytes, 2 168 with
+//! the bias bend and the sensitivity limit, and 524 bytes more with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
 //! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at byte 80 and the
@@ -164,7 +164,7 @@ impl<'a> Image<'a> {
     /// The unit's fixed-point calibration: the fixed section's tables copied into `storage` and checked
     /// with [`FixedCalibration::validate`] ([`FixedStorage::load`]). [`ImageError::MissingSection`] if the
     /// image has no fixed section, [`ImageError::FixedCapacity`] if the tables do not fit the storage,
-    /// [`ImageError::Value`] with [`ValueError::Fixed`] if they do not validate.
+    /// [`ImageError::Value`] with [`ImageValueError::Fixed`] if they do not validate.
     pub fn fixed_into<'s, const T: usize, const R: usize, const S: usize>(
         &self,
         storage: &'s mut FixedStorage<T, R, S>,

@@ -4,7 +4,7 @@
 //!
 //! | module | owns |
 //! |---|---|
-//! | [`layout`] | the byte-layout vocabulary ([`Field`](layout::Field), [`Kind`](layout::Kind)) and the CRC trailer |
+//! | [`layout`] | the byte-layout vocabulary ([`Field`], [`Kind`]) and the CRC trailer |
 //! | `frame` | the framing checks, the checked reader of fields and the writer into a caller's buffer (crate-internal) |
 //! | [`error`](mod@error) | [`RecordType`] (which record a magic names), [`FormatError`] (the framing and byte-rule errors), [`BufferTooSmall`] |
 //! | [`slots`] | the A/B slot rule (the newest usable record) and the write policy ([`slots::next_write`]) |
@@ -52,6 +52,8 @@ pub(crate) mod frame;
 pub mod layout;
 pub mod slots;
 
+#[cfg(test)]
+mod docs_tests;
 #[cfg(test)]
 mod tests;
 
