@@ -785,24 +785,15 @@ mod fixed_section {
     use std::vec;
 
     use super::*;
-    use crate::error::SensorFault;
-    use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+    use crate::fixed::{FixedCalibration, FixedHeader};
     use layout::fixed as lf;
 
-    /// Owned fixed-point tables, built by hand: a linear unit (x = (code − 32768)/4096 Np, the structure
-    /// of `fixed::tests::linear`) made uneven on purpose, so that every table's content matters: drifting
+    use crate::test_units::LinearFixed as Owned;
+
+    /// Owned fixed-point tables on the crate's linear unit's grids and sensor span: a unit of about
+    /// x = (code − 32768)/4096 Np made uneven on purpose, so that every table's content matters: drifting
     /// offset and slope, a bias floor and a sensitivity limit, a non-zero residual, a sensor table. The
     /// converter is that of `hard_unit()` (16 bits, rail margin 16), as the format requires.
-    pub(super) struct Owned {
-        pub header: FixedHeader,
-        pub offset: Vec<i32>,
-        pub inv_slope: Vec<i32>,
-        pub ln_bias: Vec<i32>,
-        pub u_min: Vec<i32>,
-        pub residual: Vec<i16>,
-        pub sensor: Option<Vec<i32>>,
-    }
-
     pub(super) fn owned(seed: u32, sensor: bool, bias: bool) -> Owned {
         // A small deterministic generator (an LCG with the usual Numerical Recipes constants, common
         // practice): the content only has to be uneven and reproducible.
@@ -811,27 +802,13 @@ mod fixed_section {
             state = state.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
             (state >> 8) as i32 % span
         };
+        // The linear unit's header, with the bias tables as asked and an x range of ±7 Np.
         let header = FixedHeader {
-            layout: LAYOUT_VERSION,
-            adc_max_code: 65535,
-            rail_margin: 16,
-            temp_min: 0,
-            temp_max: 50_000 * 1024,
-            temp_lo: -5_000 * 1024,
-            temp_hi: 55_000 * 1024,
-            t_knots: 4,
-            t_origin: -5_000 * 1024,
-            t_inv_step: 13_743_895,
-            offset_frac: 14,
-            inv_slope_frac: 42,
             bias_bend: bias,
             sensitivity_limit: bias,
-            xa_knots: 5,
-            xa_origin: -9 * (1 << 24),
-            xa_inv_step: 3_728_270,
-            residual_frac: 16,
             x_min: -7 * (1 << 24),
             x_max: 7 * (1 << 24),
+            ..crate::test_units::LINEAR_HEADER
         };
         let q24 = 1 << 24;
         Owned {
@@ -846,32 +823,12 @@ mod fixed_section {
             },
             u_min: if bias { (0..6).map(|i| -10 * q24 + i * q24 / 2 + next(1000)).collect() } else { vec![] },
             residual: (0..42).map(|_| next(400) as i16 - 200).collect(),
-            sensor: sensor.then(|| (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()),
-        }
-    }
-
-    impl Owned {
-        pub(super) fn view(&self) -> FixedCalibration<'_> {
-            FixedCalibration {
-                header: self.header,
-                offset: &self.offset,
-                inv_slope: &self.inv_slope,
-                ln_bias: &self.ln_bias,
-                u_min: &self.u_min,
-                residual: &self.residual,
-                sensor: self.sensor.as_ref().map(|knots| SensorTable {
-                    code_lo: 100,
-                    code_hi: 4000,
-                    step_log2: 8,
-                    fault_below: SensorFault::OutOfModelRange,
-                    far_below_code: 10,
-                    fault_far_below: SensorFault::Short,
-                    fault_above: SensorFault::OutOfModelRange,
-                    far_above_code: 4090,
-                    fault_far_above: SensorFault::Open,
-                    knots,
-                }),
-            }
+            sensor: if sensor {
+                (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()
+            } else {
+                vec![]
+            },
+            has_sensor: sensor,
         }
     }
 
@@ -939,7 +896,7 @@ mod fixed_section {
             assert!(sec.ln_bias().eq(o.ln_bias.iter().copied()));
             assert!(sec.u_min().eq(o.u_min.iter().copied()));
             assert!(sec.residual().eq(o.residual.iter().copied()));
-            assert!(sec.sensor_knots().eq(o.sensor.iter().flatten().copied()));
+            assert!(sec.sensor_knots().eq(o.sensor.iter().copied()));
             assert_eq!(sec.len_of(&lf::RESIDUAL), 42);
             assert_eq!(sec.len_of(&lf::LN_BIAS), if bias { 6 } else { 0 });
             // Writing the loaded tables again gives the same bytes.
