@@ -286,10 +286,7 @@ impl SensorFloat for f64 {
 mod tests {
     use super::*;
     use crate::divider::Placement;
-
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
+    use logtrim_checks::within;
 
     fn ntc_channel() -> TemperatureSensor {
         TemperatureSensor {
@@ -324,9 +321,9 @@ mod tests {
                 let want = s.element.celsius_f64(s.divider.resistance_f64(code).unwrap());
                 match (s.celsius_f64(code), want) {
                     (Ok(got), Ok(w)) => {
-                        assert!(close(got, w, 1e-12, 0.0));
+                        assert!(within(got, w, 1e-12, 0.0));
                         let got32 = f64::from(s.celsius(code).unwrap());
-                        assert!(close(got32, got, 2e-3, 0.0), "f32 {got32} vs f64 {got} at {t} °C");
+                        assert!(within(got32, got, 2e-3, 0.0), "f32 {got32} vs f64 {got} at {t} °C");
                     }
                     // Rounding the code at an end of the range may step just outside it.
                     (Err(Error::Sensor(SensorFault::OutOfModelRange)), _) => {
@@ -342,8 +339,8 @@ mod tests {
     fn ntc_at_25c_with_an_equal_series_resistor_reads_half_scale() {
         // A 10 kΩ NTC at 25 °C against 10 kΩ: half the supply (common practice for NTC dividers).
         let s = ntc_channel();
-        assert!(close(s.code_f64(25.0).unwrap(), 2048.0, 1e-6, 0.0));
-        assert!(close(f64::from(s.celsius(2048).unwrap()), 25.0, 1e-3, 0.0));
+        assert!(within(s.code_f64(25.0).unwrap(), 2048.0, 1e-6, 0.0));
+        assert!(within(f64::from(s.celsius(2048).unwrap()), 25.0, 1e-3, 0.0));
     }
 
     #[test]

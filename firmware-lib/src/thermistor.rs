@@ -386,12 +386,8 @@ fn sh_resistance<F: SensorFloat>(m: &SteinhartHart, celsius: F) -> Result<F, Err
 #[cfg(test)]
 mod tests {
     use super::*;
+    use logtrim_checks::within;
     use std::vec::Vec;
-
-    /// `|got − want| ≤ abs + rel·|want|`.
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
 
     /// A generic 10 kΩ, β = 3950 K NTC at 25 °C (typical catalogue-style values, common practice).
     const NTC10K: Beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 };
@@ -415,14 +411,14 @@ mod tests {
         for i in 0..=33 {
             let t = -40.0 + 5.0 * f64::from(i);
             let r = beta_curve_ohm(t);
-            assert!(close(NTC10K.resistance_f64(t).unwrap(), r, 0.0, 1e-6), "R({t})");
-            assert!(close(NTC10K.celsius_f64(r).unwrap(), t, 1e-5, 0.0), "T({r})");
+            assert!(within(NTC10K.resistance_f64(t).unwrap(), r, 0.0, 1e-6), "R({t})");
+            assert!(within(NTC10K.celsius_f64(r).unwrap(), t, 1e-5, 0.0), "T({r})");
             // f32 firmware path: within 2 mK and 10 ppm.
-            assert!(close(f64::from(NTC10K.celsius(r as f32).unwrap()), t, 2e-3, 0.0), "f32 T({r})");
-            assert!(close(f64::from(NTC10K.resistance(t as f32).unwrap()), r, 0.0, 1e-5), "f32 R({t})");
+            assert!(within(f64::from(NTC10K.celsius(r as f32).unwrap()), t, 2e-3, 0.0), "f32 T({r})");
+            assert!(within(f64::from(NTC10K.resistance(t as f32).unwrap()), r, 0.0, 1e-5), "f32 R({t})");
         }
         // R₀ at T₀ by definition.
-        assert!(close(f64::from(NTC10K.resistance(25.0).unwrap()), 10_000.0, 0.0, 1e-6));
+        assert!(within(f64::from(NTC10K.resistance(25.0).unwrap()), 10_000.0, 0.0, 1e-6));
     }
 
     #[test]
@@ -431,7 +427,7 @@ mod tests {
         let h = 1e-3;
         let r = |t| NTC10K.resistance_f64(t).unwrap();
         let alpha = (r(25.0 + h) - r(25.0 - h)) / (2.0 * h) / r(25.0);
-        assert!(close(alpha * 100.0, -4.44, 0.005, 0.0), "{alpha}");
+        assert!(within(alpha * 100.0, -4.44, 0.005, 0.0), "{alpha}");
     }
 
     #[test]
@@ -439,22 +435,22 @@ mod tests {
         let p1 = CurvePoint::new(25.0, beta_curve_ohm(25.0));
         let p2 = CurvePoint::new(85.0, beta_curve_ohm(85.0));
         let b = Beta::from_points(p1, p2).unwrap();
-        assert!(close(f64::from(b.beta_k), 3950.0, 0.0, 1e-6), "{b:?}");
-        assert!(close(f64::from(b.r0_ohm), 10_000.0, 0.0, 1e-6));
+        assert!(within(f64::from(b.beta_k), 3950.0, 0.0, 1e-6), "{b:?}");
+        assert!(within(f64::from(b.r0_ohm), 10_000.0, 0.0, 1e-6));
         // Order does not change the curve.
         let b2 = Beta::from_points(p2, p1).unwrap();
-        assert!(close(b2.celsius_f64(beta_curve_ohm(50.0)).unwrap(), 50.0, 1e-4, 0.0));
+        assert!(within(b2.celsius_f64(beta_curve_ohm(50.0)).unwrap(), 50.0, 1e-4, 0.0));
     }
 
     #[test]
     fn beta_is_steinhart_hart_with_zero_c() {
         // 1/T = 1/T₀ + (ln R − ln R₀)/β is SH with A = 1/T₀ − ln R₀/β, B = 1/β, C = 0 (common practice).
         let sh = NTC10K.to_steinhart_hart();
-        assert!(close(f64::from(sh.b), 1.0 / 3950.0, 0.0, 1e-7));
-        assert!(close(f64::from(sh.a), 1.0 / 298.15 - 10_000f64.ln() / 3950.0, 0.0, 1e-6));
+        assert!(within(f64::from(sh.b), 1.0 / 3950.0, 0.0, 1e-7));
+        assert!(within(f64::from(sh.a), 1.0 / 298.15 - 10_000f64.ln() / 3950.0, 0.0, 1e-6));
         for r in [300.0, 3_000.0, 10_000.0, 100_000.0, 300_000.0] {
             let want = NTC10K.celsius_f64(r).unwrap();
-            assert!(close(sh.celsius_f64(r).unwrap(), want, 1e-4, 0.0));
+            assert!(within(sh.celsius_f64(r).unwrap(), want, 1e-4, 0.0));
         }
     }
 
@@ -480,7 +476,7 @@ mod tests {
         let sh = SteinhartHart::from_points(pts[2], pts[0], pts[1]).unwrap();
         for (got, want) in [sh.a, sh.b, sh.c].into_iter().zip(QUOTED_SH) {
             // f32 storage: ~6e-8 relative.
-            assert!(close(f64::from(got), want, 0.0, 2e-7), "{got} vs {want}");
+            assert!(within(f64::from(got), want, 0.0, 2e-7), "{got} vs {want}");
         }
         let mut worst: f64 = 0.0;
         for i in 0..=200 {
@@ -488,7 +484,7 @@ mod tests {
             let want = sh_definition_celsius(QUOTED_SH, r);
             worst = worst.max((sh.celsius_f64(r).unwrap() - want).abs());
             let got32 = f64::from(sh.celsius(r as f32).unwrap());
-            assert!(close(got32, want, 3e-3, 0.0), "f32 at {r} Ω: {got32} vs {want}");
+            assert!(within(got32, want, 3e-3, 0.0), "f32 at {r} Ω: {got32} vs {want}");
         }
         assert!(worst < 1e-4, "worst {worst} K");
     }
@@ -519,11 +515,11 @@ mod tests {
                 let t = -50.0 + 5.0 * f64::from(i);
                 let want = bisect_ohm(&sh, t);
                 let got = sh.resistance_f64(t).unwrap();
-                assert!(close(got, want, 0.0, 1e-10), "{sh:?} at {t}: {got} vs {want}");
+                assert!(within(got, want, 0.0, 1e-10), "{sh:?} at {t}: {got} vs {want}");
                 let got32 = f64::from(sh.resistance(t as f32).unwrap());
-                assert!(close(got32, want, 0.0, 1e-5), "{sh:?} f32 at {t}: {got32} vs {want}");
+                assert!(within(got32, want, 0.0, 1e-5), "{sh:?} f32 at {t}: {got32} vs {want}");
                 // And back.
-                assert!(close(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
+                assert!(within(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
             }
         }
     }
@@ -545,11 +541,11 @@ mod tests {
             // Only where the curve puts the temperature between 1 Ω and 1 GΩ (the bisection bracket).
             proptest::prop_assume!(want > 1.001 && want < 0.999e9);
             let got = sh.resistance_f64(t).unwrap();
-            proptest::prop_assert!(close(got, want, 0.0, 1e-9), "{:?} {} {} {}", sh, t, got, want);
-            proptest::prop_assert!(close(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
+            proptest::prop_assert!(within(got, want, 0.0, 1e-9), "{:?} {} {} {}", sh, t, got, want);
+            proptest::prop_assert!(within(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
             let got32 = sh.resistance(t as f32).unwrap();
-            proptest::prop_assert!(close(f64::from(got32), want, 0.0, 2e-5), "{:?} {} {} {}", sh, t, got32, want);
-            proptest::prop_assert!(close(f64::from(sh.celsius(got32).unwrap()), t, 5e-3, 0.0));
+            proptest::prop_assert!(within(f64::from(got32), want, 0.0, 2e-5), "{:?} {} {} {}", sh, t, got32, want);
+            proptest::prop_assert!(within(f64::from(sh.celsius(got32).unwrap()), t, 5e-3, 0.0));
         }
     }
 
