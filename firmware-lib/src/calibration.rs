@@ -537,7 +537,7 @@ impl Calibration {
         let ext = of(tr.extrapolation_k);
         let (tmin, tmax) = (of(tr.min_c), of(tr.max_c));
         if temp_c < tmin - ext || temp_c > tmax + ext {
-            return Err(Error::TemperatureOutOfRange { celsius: temp_c.to_f32() });
+            return Err(Error::TemperatureOutOfRange { millicelsius: temp_c.millicelsius() });
         }
         let extrapolated = temp_c < tmin || temp_c > tmax;
         Ok(TempStage { st: self.stage::<M>(temp_c)?, extrapolated })
@@ -763,11 +763,6 @@ fn reading_f64(p: Point<f64>) -> ReadingF64 {
     ReadingF64 { x: p.x, temperature_extrapolated: p.extrapolated, sensitivity: p.sens, dx_dcode: p.dx_dcode }
 }
 
-/// [`Error::TemperatureOutOfRange`] for a temperature given in m°C (for integer code that has no float types).
-pub fn temperature_out_of_range_millicelsius(millicelsius: i32) -> Error {
-    Error::TemperatureOutOfRange { celsius: millicelsius as f32 / 1000.0 }
-}
-
 /// The temperature-dependent part of an f32 correction with backend `B`, made by
 /// [`Calibration::stage_with`] for [`Calibration::correct_staged`]: the temperature's checks and the stage of
 /// the inverse (offset, slope, bends, τ), or the temperature's error.
@@ -911,7 +906,8 @@ trait Real:
     fn of_u32(v: u32) -> Self;
     fn finite(self) -> bool;
     fn abs_(self) -> Self;
-    fn to_f32(self) -> f32;
+    /// The temperature in whole m°C, rounded, saturating at the i32 ends.
+    fn millicelsius(self) -> i32;
     /// 273.15 at the type's own precision.
     fn zero_celsius_k() -> Self;
 }
@@ -929,8 +925,8 @@ impl Real for f32 {
     fn abs_(self) -> Self {
         libm::fabsf(self)
     }
-    fn to_f32(self) -> f32 {
-        self
+    fn millicelsius(self) -> i32 {
+        crate::qformat::millicelsius_saturating(self)
     }
     fn zero_celsius_k() -> Self {
         crate::physics::ZERO_CELSIUS_K as f32
@@ -950,8 +946,9 @@ impl Real for f64 {
     fn abs_(self) -> Self {
         libm::fabs(self)
     }
-    fn to_f32(self) -> f32 {
-        self as f32
+    fn millicelsius(self) -> i32 {
+        // `as` saturates at the i32 ends.
+        libm::round(self * 1000.0) as i32
     }
     fn zero_celsius_k() -> Self {
         crate::physics::ZERO_CELSIUS_K

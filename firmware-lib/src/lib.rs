@@ -5,14 +5,15 @@
 //! and without an FPU.
 //!
 //! The crate is `no_std`, allocates nothing and does not panic on any input: every fallible step returns an
-//! [`Error`]. The modules, each owning one concept:
+//! [`Error`] (or the error enum of its own module). The modules, each owning one concept:
 //!
 //! | module | owns |
 //! |---|---|
 //! | [`physics`] | SI constants and the thermal voltage kT/q |
 //! | [`math`] | the f32 math backends (libm by default, micromath opt-in) |
+//! | [`qformat`] | the fixed-point (Q) formats: rounding shifts and rescales, exact f32 ↔ Q conversions, θ and m°C ↔ °C |
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
-//! | [`error`] | the one error enum of the crate |
+//! | [`error`] | [`Error`], the error of a correction, with the sensor fault and calibration defect it carries |
 //! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
 //! | [`filter`] | smoothing of readings for displays: a first-order filter in x with its time constant in samples |
 //! | `hal` | (feature `hal`) a measurement cycle on embedded-hal 1.0: converter trait, oversampling, status |
@@ -50,6 +51,7 @@ pub mod hal;
 pub mod image;
 pub mod math;
 pub mod physics;
+pub mod qformat;
 pub mod rtd;
 pub mod sensor;
 pub mod thermistor;

@@ -93,17 +93,15 @@ pub mod universal;
 #[cfg(test)]
 mod tests;
 
-use crate::calibration::temperature_out_of_range_millicelsius;
 use crate::error::{CalibrationDefect, Error, SensorFault};
+use crate::qformat::{millicelsius_of_theta, rescale, round_shr, round_shr_small};
 use crate::units::Unit;
-use interp::{
-    dot4, four_i16, rescale, round_shr, round_shr_small, segment, spline1, weights, POS_FRAC, W_BITS,
-};
+use interp::{dot4, four_i16, segment, spline1, weights, POS_FRAC, W_BITS};
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
 pub const LAYOUT_VERSION: u8 = 1;
-/// Fraction bits of θ relative to m°C (θ = m°C · 2^10).
-pub const THETA_FRAC: u32 = 10;
+/// Fraction bits of θ relative to m°C (θ = m°C · 2^10), from the crate's Q formats.
+pub use crate::qformat::THETA_FRAC;
 /// Fraction bits of every quantity in nepers (u, x̃, x, λ, u_min, the bend table).
 pub const X_FRAC: u32 = 24;
 /// Fraction bits of a knot position (segment = position >> 20).
@@ -637,9 +635,8 @@ impl<'a> FixedCalibration<'a> {
     pub fn stage_theta(&self, theta: i64) -> Result<TemperatureStage, Error> {
         let h = &self.header;
         if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
-            // The temperature in m°C for the error (clamped to i32 only for θ far beyond any sensor).
-            let mc = round_shr(theta, THETA_FRAC).clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
-            return Err(temperature_out_of_range_millicelsius(mc));
+            // The temperature in m°C for the error (saturated at the i32 ends only for θ far beyond any sensor).
+            return Err(Error::TemperatureOutOfRange { millicelsius: millicelsius_of_theta(theta) });
         }
         let extrapolated = theta < i64::from(h.temp_min) || theta > i64::from(h.temp_max);
         let pos = (theta - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT;
