@@ -19,7 +19,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
-use crate::sensor::SensorFloat;
+use crate::math::Real;
 
 /// Where the sensor sits in the divider.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -115,7 +115,7 @@ impl Divider {
         Ok(())
     }
 
-    fn resistance_generic<F: SensorFloat>(&self, code: u32) -> Result<F, Error> {
+    fn resistance_generic<F: Real>(&self, code: u32) -> Result<F, Error> {
         self.validate_cheap()?;
         let max = self.max_code()?;
         if code > max {

@@ -15,7 +15,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
-use crate::sensor::SensorFloat;
+use crate::math::Real;
 
 /// Callendar–Van Dusen A, 1/°C (IEC 60751).
 pub const CVD_A: f64 = 3.9083e-3;
@@ -80,7 +80,7 @@ impl Rtd {
 }
 
 /// R/R₀ at t °C.
-fn ratio<F: SensorFloat>(t: F) -> F {
+fn ratio<F: Real>(t: F) -> F {
     let (a, b, c) = (F::lit(CVD_A), F::lit(CVD_B), F::lit(CVD_C));
     let one = F::lit(1.0);
     let quadratic = t * (a + b * t);
@@ -92,12 +92,12 @@ fn ratio<F: SensorFloat>(t: F) -> F {
 }
 
 /// d(R/R₀)/dt below 0 °C.
-fn ratio_slope_below_zero<F: SensorFloat>(t: F) -> F {
+fn ratio_slope_below_zero<F: Real>(t: F) -> F {
     let (a, b, c) = (F::lit(CVD_A), F::lit(CVD_B), F::lit(CVD_C));
     a + F::lit(2.0) * b * t + c * t * t * (F::lit(4.0) * t - F::lit(300.0))
 }
 
-fn resistance<F: SensorFloat>(rtd: &Rtd, t: F) -> Result<F, Error> {
+fn resistance<F: Real>(rtd: &Rtd, t: F) -> Result<F, Error> {
     if !t.finite() {
         return Err(Error::NonFinite);
     }
@@ -112,7 +112,7 @@ fn resistance<F: SensorFloat>(rtd: &Rtd, t: F) -> Result<F, Error> {
     Ok(ohm)
 }
 
-fn celsius<F: SensorFloat>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
+fn celsius<F: Real>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
     if !ohm.finite() {
         return Err(Error::NonFinite);
     }

@@ -36,8 +36,8 @@
 use core::fmt;
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
+use crate::math::Real;
 use crate::physics::ZERO_CELSIUS_K;
-use crate::sensor::SensorFloat;
 
 /// One point of a resistance–temperature curve, used to derive coefficients.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -283,7 +283,7 @@ fn check_point(p: CurvePoint) -> Result<(f64, f64), FitError> {
 
 /// °C from 1/T, or OutOfModelRange where 1/T gives no temperature above absolute zero (at the type's
 /// precision: a temperature that rounds to −273.15 °C is refused too).
-fn celsius_from_inverse<F: SensorFloat>(inv_t: F) -> Result<F, Error> {
+fn celsius_from_inverse<F: Real>(inv_t: F) -> Result<F, Error> {
     let t_k = F::lit(1.0) / inv_t;
     let t_c = t_k - F::lit(ZERO_CELSIUS_K);
     if !(inv_t > F::lit(0.0)) || !t_k.finite() || !(t_c > F::lit(-ZERO_CELSIUS_K)) {
@@ -293,7 +293,7 @@ fn celsius_from_inverse<F: SensorFloat>(inv_t: F) -> Result<F, Error> {
 }
 
 /// 1/T in 1/K from °C, checked.
-fn inverse_from_celsius<F: SensorFloat>(celsius: F) -> Result<F, Error> {
+fn inverse_from_celsius<F: Real>(celsius: F) -> Result<F, Error> {
     if !celsius.finite() {
         return Err(Error::NonFinite);
     }
@@ -305,7 +305,7 @@ fn inverse_from_celsius<F: SensorFloat>(celsius: F) -> Result<F, Error> {
 }
 
 /// ln R of a resistance input, checked.
-fn ln_ohm<F: SensorFloat>(ohm: F) -> Result<F, Error> {
+fn ln_ohm<F: Real>(ohm: F) -> Result<F, Error> {
     if !ohm.finite() {
         return Err(Error::NonFinite);
     }
@@ -316,7 +316,7 @@ fn ln_ohm<F: SensorFloat>(ohm: F) -> Result<F, Error> {
 }
 
 /// A resistance result: finite and positive, or OutOfModelRange (overflow or underflow).
-fn ohm_result<F: SensorFloat>(ohm: F) -> Result<F, Error> {
+fn ohm_result<F: Real>(ohm: F) -> Result<F, Error> {
     if ohm.finite() && ohm > F::lit(0.0) {
         Ok(ohm)
     } else {
@@ -324,21 +324,21 @@ fn ohm_result<F: SensorFloat>(ohm: F) -> Result<F, Error> {
     }
 }
 
-fn beta_celsius<F: SensorFloat>(m: &Beta, ohm: F) -> Result<F, Error> {
+fn beta_celsius<F: Real>(m: &Beta, ohm: F) -> Result<F, Error> {
     let l = ln_ohm(ohm)?;
     let t0 = F::of(m.t0_c) + F::lit(ZERO_CELSIUS_K);
     let inv = F::lit(1.0) / t0 + (l - F::of(m.r0_ohm).ln_()) / F::of(m.beta_k);
     celsius_from_inverse(inv)
 }
 
-fn beta_resistance<F: SensorFloat>(m: &Beta, celsius: F) -> Result<F, Error> {
+fn beta_resistance<F: Real>(m: &Beta, celsius: F) -> Result<F, Error> {
     let inv = inverse_from_celsius(celsius)?;
     let t0 = F::of(m.t0_c) + F::lit(ZERO_CELSIUS_K);
     let e = F::of(m.beta_k) * (inv - F::lit(1.0) / t0);
     ohm_result(F::of(m.r0_ohm) * e.exp_())
 }
 
-fn sh_celsius<F: SensorFloat>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
+fn sh_celsius<F: Real>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
     let l = ln_ohm(ohm)?;
     let (a, b, c) = (F::of(m.a), F::of(m.b), F::of(m.c));
     let l2 = l * l;
@@ -349,7 +349,7 @@ fn sh_celsius<F: SensorFloat>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
     celsius_from_inverse(a + l * (b + c * l2))
 }
 
-fn sh_resistance<F: SensorFloat>(m: &SteinhartHart, celsius: F) -> Result<F, Error> {
+fn sh_resistance<F: Real>(m: &SteinhartHart, celsius: F) -> Result<F, Error> {
     let y_t = inverse_from_celsius(celsius)?;
     let (a, b, c) = (F::of(m.a), F::of(m.b), F::of(m.c));
     let zero = F::lit(0.0);

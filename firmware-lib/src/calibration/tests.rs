@@ -1,4 +1,6 @@
+use super::sweep::Anchors;
 use super::*;
+use crate::math::{Backend, F32Math, Libm};
 use std::vec;
 use std::vec::Vec;
 
