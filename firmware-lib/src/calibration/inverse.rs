@@ -14,7 +14,7 @@ use crate::math::{clenshaw, Arithmetic, Real};
 use crate::physics::ZERO_CELSIUS_K;
 
 /// A temperature's stage in one arithmetic: its checks passed, whether it lies in the extrapolation band,
-/// and the terms of the inverse there. What an [`F32Stage`](super::F32Stage) (f32) or an `ReferenceStage` (the
+/// and the terms of the inverse there. What an [`F32Stage`](super::F32Stage) (f32) or an `F64Stage` (the
 /// f64 reference) holds when the temperature can be corrected.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) struct Stage<F> {

@@ -48,7 +48,7 @@
 //! | `mod.rs` | the model's types ([`Calibration`], [`Model`], [`Series`], …), [`Calibration::nominal`] and validation |
 //! | `inverse.rs` | the inverse of the model, one generic body for f32 and f64: a temperature's stage (checks, offset, slope, bends), then the log channel (Newton, bends, residual, range checks) |
 //! | `firmware.rs` | the f32 correction the firmware runs: [`Calibration::correct`], [`Calibration::stage_with`] → [`F32Stage`] → [`Calibration::correct_staged`], means of codes |
-//! | `reference.rs` | (feature `reference`) the host's f64 reference of the same code: `correct_f64`, the forward model `forward_code_f64`, the f64 stage `ReferenceStage`, the stage's terms for table generation |
+//! | `reference.rs` | (feature `reference`) the host's f64 reference of the same code: `correct_f64`, the forward model `forward_code_f64`, the f64 stage `F64Stage`, the stage's terms for table generation |
 //! | `sweep.rs` | (feature `reference`) `ReferenceSweep`: the f64 reference over a temperature's codes, warm-started |
 //!
 //! The same inverse is evaluated in f32 (with a chosen [`Backend`]) and in f64 (`Calibration::correct_f64`,
@@ -56,7 +56,7 @@
 //!
 //! A correction is a temperature stage (the temperature's checks, offset, slope and bends), computed once
 //! per temperature by [`Calibration::stage_with`] (an [`F32Stage`]) or `Calibration::reference_stage` (an
-//! `ReferenceStage`), and a per-code part, [`Calibration::correct_staged`] or `Calibration::correct_staged_f64`.
+//! `F64Stage`), and a per-code part, [`Calibration::correct_staged`] or `Calibration::correct_staged_f64`.
 //! [`Calibration::correct_with`] is exactly the two f32 steps in one call.
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
@@ -79,7 +79,7 @@ mod tests;
 
 pub use firmware::F32Stage;
 #[cfg(feature = "reference")]
-pub use reference::{ReadingF64, ReferenceStage, StageF64, XFromW};
+pub use reference::{F64Stage, F64StageTerms, ReadingF64, XFromW};
 #[cfg(feature = "reference")]
 pub use sweep::ReferenceSweep;
 

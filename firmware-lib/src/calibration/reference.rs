@@ -1,6 +1,6 @@
 //! The host's f64 reference of the correction (feature `reference`, not compiled into firmware builds):
 //! the same inverse as the firmware's f32 path, evaluated in f64 with libm's `log`/`exp`
-//! ([`Calibration::correct_f64`], and in two steps through an [`ReferenceStage`]); the forward model the host
+//! ([`Calibration::correct_f64`], and in two steps through an [`F64Stage`]); the forward model the host
 //! fits ([`Calibration::forward_code_f64`]); and the stage's terms and the bends without range checks, for
 //! the host's table generation ([`Calibration::stage_f64`], [`Calibration::x_from_w_f64`]).
 
@@ -33,14 +33,14 @@ pub struct ReadingF64 {
 /// [`ReferenceSweep`]: super::ReferenceSweep
 /// [`F32Stage`]: super::F32Stage
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct ReferenceStage {
+pub struct F64Stage {
     /// The temperature is NaN or infinite: [`Error::NonFinite`] comes before the code's own check, as in
     /// [`Calibration::correct_f64`].
     pub(super) non_finite: bool,
     pub(super) inner: Result<Stage<f64>, Error>,
 }
 
-impl ReferenceStage {
+impl F64Stage {
     /// The temperature's error, if it cannot be corrected.
     pub fn error(&self) -> Option<Error> {
         self.inner.err()
@@ -96,13 +96,13 @@ impl Calibration {
 
     /// The temperature-dependent part of [`Calibration::correct_f64`] at `temp_c`, computed once and reusable
     /// for any number of whole log codes at that temperature ([`Calibration::correct_staged_f64`]).
-    pub fn reference_stage(&self, temp_c: f64) -> ReferenceStage {
-        ReferenceStage { non_finite: !temp_c.is_finite(), inner: self.temperature_stage::<F64Math>(temp_c) }
+    pub fn reference_stage(&self, temp_c: f64) -> F64Stage {
+        F64Stage { non_finite: !temp_c.is_finite(), inner: self.temperature_stage::<F64Math>(temp_c) }
     }
 
     /// The log-channel part of the f64 reference at a stage of this calibration: bit for bit the result
     /// (value or error) of [`Calibration::correct_f64`]`(f64::from(code), temp_c)` at the stage's temperature.
-    pub fn correct_staged_f64(&self, stage: &ReferenceStage, code: u32) -> Result<ReadingF64, Error> {
+    pub fn correct_staged_f64(&self, stage: &F64Stage, code: u32) -> Result<ReadingF64, Error> {
         if stage.non_finite {
             return Err(Error::NonFinite);
         }
@@ -116,7 +116,7 @@ impl Calibration {
 /// temperature (a host helper for table generation): `w = (code − offset_codes)/slope`, then the bends
 /// with `h` and `β`.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct StageF64 {
+pub struct F64StageTerms {
     /// The code at which w = 0: the level shift plus the offset `P_c(τ)/(1 + qτ)`, codes.
     pub offset_codes: f64,
     /// The slope `S = (T_K/T_ref)·P_s(τ)/(1 + qτ)`, codes per neper.
@@ -143,10 +143,10 @@ pub struct XFromW {
 impl Calibration {
     /// The temperature-dependent stage at `temp_c` in f64, exactly as [`Calibration::correct_f64`] computes
     /// it. No range check on the temperature; an error only where the slope is not positive and finite.
-    pub fn stage_f64(&self, temp_c: f64) -> Result<StageF64, Error> {
+    pub fn stage_f64(&self, temp_c: f64) -> Result<F64StageTerms, Error> {
         let t = self.terms::<F64Math>(temp_c)?;
         let (m, tau) = (&self.model, self.model.tau(temp_c));
-        Ok(StageF64 {
+        Ok(F64StageTerms {
             offset_codes: t.offset,
             slope: t.slope,
             bulk_over_slope: t.h,

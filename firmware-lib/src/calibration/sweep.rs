@@ -7,7 +7,7 @@
 
 use super::inverse::Stage;
 use super::reference::reading_f64;
-use super::{Calibration, ReadingF64, ReferenceStage, MAX_EXP_ARG};
+use super::{Calibration, F64Stage, ReadingF64, MAX_EXP_ARG};
 use crate::error::Error;
 use crate::math::F64Math;
 
@@ -42,7 +42,7 @@ impl Calibration {
 #[derive(Debug, Clone)]
 pub struct ReferenceSweep<'a> {
     cal: &'a Calibration,
-    stage: ReferenceStage,
+    stage: F64Stage,
     /// `1/slope`: the warm start's w is `(code − offset)·(1/slope)`, within 2 ULP of the exact path's.
     inv_slope: f64,
     seed: Option<Seed>,

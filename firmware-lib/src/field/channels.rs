@@ -16,7 +16,7 @@
 use super::layers::Layers;
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
-use crate::fixed::{FixedCalibration, FixedReading, TemperatureStage, THETA_FRAC};
+use crate::fixed::{FixedCalibration, FixedReading, FixedStage, THETA_FRAC};
 use crate::qformat::millicelsius_of_theta;
 use crate::sensor::TemperatureSensor;
 
@@ -140,7 +140,7 @@ pub struct FixedChannel<'a> {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedCycle<const N: usize> {
     theta: i32,
-    stages: [Result<TemperatureStage, Error>; N],
+    stages: [Result<FixedStage, Error>; N],
 }
 
 impl<const N: usize> FixedCycle<N> {
@@ -156,7 +156,7 @@ impl<const N: usize> FixedCycle<N> {
     }
 
     /// A channel's stage, or why its calibration refused the temperature.
-    pub fn stage(&self, channel: usize) -> Result<&TemperatureStage, Error> {
+    pub fn stage(&self, channel: usize) -> Result<&FixedStage, Error> {
         match self.stages.get(channel) {
             Some(Ok(s)) => Ok(s),
             Some(Err(e)) => Err(*e),
