@@ -13,11 +13,11 @@
 //! must agree within 2^-10 Np (≈ 0.004 dB), which any two readings of one blank do by far.
 
 use super::layout::{self, blank as bl, header};
-use super::qconv::{f32_from_q, q_from_f32};
 use super::record::{self, Extent, RecordError, RecordInfo, RecordType, Spec, ValueError, WriteError};
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
+use crate::qformat::{f32_from_q, q_from_f32};
 
 /// How far the f32 and Q24 forms of one x may differ, Q24 units (2^-10 Np).
 pub(super) const AGREEMENT_Q24: i64 = 1 << 14;

@@ -14,9 +14,10 @@
 //! for its own readings; the other channels carry on. Storage is arrays sized by a const generic: no heap.
 
 use super::layers::Layers;
-use crate::calibration::{temperature_out_of_range_millicelsius, Calibration, Reading};
+use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
-use crate::fixed::{FixedCalibration, FixedReading, TemperatureStage, THETA_FRAC};
+use crate::fixed::{FixedCalibration, FixedReading, FixedStage, THETA_FRAC};
+use crate::qformat::millicelsius_of_theta;
 use crate::sensor::TemperatureSensor;
 
 /// A channel's calibration failed its check when the bank was built.
@@ -139,7 +140,7 @@ pub struct FixedChannel<'a> {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedCycle<const N: usize> {
     theta: i32,
-    stages: [Result<TemperatureStage, Error>; N],
+    stages: [Result<FixedStage, Error>; N],
 }
 
 impl<const N: usize> FixedCycle<N> {
@@ -155,20 +156,13 @@ impl<const N: usize> FixedCycle<N> {
     }
 
     /// A channel's stage, or why its calibration refused the temperature.
-    pub fn stage(&self, channel: usize) -> Result<&TemperatureStage, Error> {
+    pub fn stage(&self, channel: usize) -> Result<&FixedStage, Error> {
         match self.stages.get(channel) {
             Some(Ok(s)) => Ok(s),
             Some(Err(e)) => Err(*e),
             None => Err(Error::NotCalibrated),
         }
     }
-}
-
-#[deny(clippy::float_arithmetic)]
-fn millicelsius_of_theta(theta: i64) -> i32 {
-    let mc = (theta + (1 << (THETA_FRAC - 1))) >> THETA_FRAC;
-    // |θ| < 2^31, so m°C is well inside i32.
-    i32::try_from(mc).unwrap_or(if mc > 0 { i32::MAX } else { i32::MIN })
 }
 
 /// Several fixed-path channels sharing one temperature.
@@ -213,7 +207,7 @@ impl<'a, const N: usize> FixedBank<'a, N> {
         let stages = core::array::from_fn(|i| match self.channels.get(i) {
             Some(c) => c.calibration.stage_theta(i64::from(theta)).map_err(|e| match e {
                 Error::TemperatureOutOfRange { .. } => {
-                    temperature_out_of_range_millicelsius(millicelsius_of_theta(i64::from(theta)))
+                    Error::TemperatureOutOfRange { millicelsius: millicelsius_of_theta(i64::from(theta)) }
                 }
                 e => e,
             }),
@@ -226,7 +220,7 @@ impl<'a, const N: usize> FixedBank<'a, N> {
     /// the i32 range (beyond ±2097 °C); a channel's own range is checked in its stage.
     pub fn cycle_from_millicelsius(&self, temp_mc: i32) -> Result<FixedCycle<N>, Error> {
         let theta = i32::try_from(i64::from(temp_mc) << THETA_FRAC)
-            .map_err(|_| temperature_out_of_range_millicelsius(temp_mc))?;
+            .map_err(|_| Error::TemperatureOutOfRange { millicelsius: temp_mc })?;
         Ok(self.cycle_from_theta(theta))
     }
 

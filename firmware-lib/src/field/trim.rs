@@ -46,12 +46,12 @@
 //! are bit-identical to the factory calibration's.
 
 use super::layout::{self, trim as tl};
-use super::qconv::{f32_from_q, q_from_f32};
 use super::record::{self, Extent, RecordError, RecordInfo, RecordType, Spec, ValueError, WriteError};
 use super::FieldError;
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
+use crate::qformat::{f32_from_q, q_from_f32, round_shr};
 
 /// Fraction bits of the fixed-path gain.
 pub const GAIN_FRAC: u32 = 30;
@@ -521,15 +521,6 @@ impl Trim {
         limits.check(&trim)?;
         Ok(trim)
     }
-}
-
-/// `round(x / 2^n)`, halves up, saturating.
-#[deny(clippy::float_arithmetic)]
-fn round_shr(x: i64, n: u32) -> i64 {
-    if n == 0 {
-        return x;
-    }
-    x.saturating_add(1 << (n - 1)) >> n
 }
 
 /// `round(n / d)`, halves away from zero, for d ≠ 0 (`None` for d = 0).
