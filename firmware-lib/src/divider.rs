@@ -19,7 +19,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
-use crate::sensor::SensorFloat;
+use crate::math::Real;
 
 /// Where the sensor sits in the divider.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -115,7 +115,7 @@ impl Divider {
         Ok(())
     }
 
-    fn resistance_generic<F: SensorFloat>(&self, code: u32) -> Result<F, Error> {
+    fn resistance_generic<F: Real>(&self, code: u32) -> Result<F, Error> {
         self.validate_cheap()?;
         let max = self.max_code()?;
         if code > max {
@@ -159,10 +159,7 @@ impl Divider {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
+    use logtrim_checks::within;
 
     fn low() -> Divider {
         Divider { open_margin: 8, short_margin: 4, ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12) }
@@ -189,7 +186,7 @@ mod tests {
                     Placement::HighSide => 10_000.0 / (10_000.0 + r),
                 };
                 let code = d.code_f64(r).unwrap();
-                assert!(close(code, 4096.0 * share, 1e-9, 0.0));
+                assert!(within(code, 4096.0 * share, 1e-9, 0.0));
                 // Round trip on the exact (fractional) code is only defined for integer codes: use the
                 // nearest code and compare with the equation at that code.
                 let c = code.round() as u32;
@@ -197,8 +194,8 @@ mod tests {
                     Placement::LowSide => 10_000.0 * f64::from(c) / f64::from(4096 - c),
                     Placement::HighSide => 10_000.0 * f64::from(4096 - c) / f64::from(c),
                 };
-                assert!(close(d.resistance_f64(c).unwrap(), want, 0.0, 1e-12));
-                assert!(close(f64::from(d.resistance(c).unwrap()), want, 0.0, 1e-6));
+                assert!(within(d.resistance_f64(c).unwrap(), want, 0.0, 1e-12));
+                assert!(within(f64::from(d.resistance(c).unwrap()), want, 0.0, 1e-6));
             }
         }
     }

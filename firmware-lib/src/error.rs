@@ -1,4 +1,8 @@
-//! The crate's one error enum, [`Error`], and the sensor fault it carries.
+//! [`Error`]: every way a reading can fail to become a value (the error of the corrections, the sensors and
+//! the measurement cycle's correctors), with the [`SensorFault`] and [`CalibrationDefect`] it carries.
+//!
+//! The modules with their own operations have their own error enums next to them (images, field records,
+//! the cycle's configuration, thermistor fits, …); [`Error`] is the one a correction returns.
 
 use core::fmt;
 
@@ -62,8 +66,10 @@ pub enum Error {
     AboveRange,
     /// The temperature lies outside the calibrated range (plus any allowed extrapolation).
     TemperatureOutOfRange {
-        /// The temperature given, in °C.
-        celsius: f32,
+        /// The temperature given, in m°C: rounded to the nearest m°C, and saturated at the i32 ends
+        /// (±2 147 483.647 °C) for a temperature beyond them. Whole m°C, so that the integer path reports
+        /// it without any float arithmetic.
+        millicelsius: i32,
     },
     /// The temperature sensor is faulty.
     Sensor(SensorFault),
@@ -125,14 +131,34 @@ impl fmt::Display for Error {
             Error::Saturated { code } => write!(f, "ADC code {code} at or near a rail (saturated)"),
             Error::BelowRange => f.write_str("reading below the calibrated range"),
             Error::AboveRange => f.write_str("reading above the calibrated range"),
-            Error::TemperatureOutOfRange { celsius } => {
-                write!(f, "temperature {celsius} °C outside the calibrated range")
+            Error::TemperatureOutOfRange { millicelsius } => {
+                write!(f, "temperature {} °C outside the calibrated range", Celsius(*millicelsius))
             }
             Error::Sensor(s) => write!(f, "temperature sensor fault: {s}"),
             Error::NonFinite => f.write_str("input is NaN or infinite"),
             Error::InvalidCalibration(d) => write!(f, "invalid calibration: {d}"),
             Error::NotCalibrated => f.write_str("no valid calibration loaded"),
         }
+    }
+}
+
+/// m°C written in °C: the shortest decimal, as an f32 of the same value prints (`90.5`, `-0.001`, `25`).
+struct Celsius(i32);
+
+impl fmt::Display for Celsius {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let sign = if self.0 < 0 { "-" } else { "" };
+        let a = self.0.unsigned_abs();
+        let (whole, mut frac) = (a / 1000, a % 1000);
+        if frac == 0 {
+            return write!(f, "{sign}{whole}");
+        }
+        let mut digits = 3usize;
+        while frac % 10 == 0 {
+            frac /= 10;
+            digits -= 1;
+        }
+        write!(f, "{sign}{whole}.{frac:0digits$}")
     }
 }
 
@@ -143,5 +169,27 @@ impl core::error::Error for Error {}
 impl From<SensorFault> for Error {
     fn from(s: SensorFault) -> Self {
         Error::Sensor(s)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::string::ToString;
+
+    #[test]
+    fn a_temperature_prints_in_celsius_as_its_f32_would() {
+        for mc in [90_500, 25_000, 0, 1, -1, -500, -40_250, 123_456, -2_000_010, i32::MAX, i32::MIN] {
+            let text = Error::TemperatureOutOfRange { millicelsius: mc }.to_string();
+            // std prints a float as the shortest decimal that reads back as the same float (a
+            // general-purpose reference). Below 16 384 °C an f32 resolves 0.001 °C, so that decimal is the
+            // m°C value's; beyond, compare with the f64 of the same value.
+            let want = if mc.unsigned_abs() < 16_384_000 {
+                std::format!("temperature {} °C outside the calibrated range", mc as f32 / 1000.0)
+            } else {
+                std::format!("temperature {} °C outside the calibrated range", f64::from(mc) / 1000.0)
+            };
+            assert_eq!(text, want, "{mc}");
+        }
     }
 }

@@ -5,15 +5,16 @@
 //! and without an FPU.
 //!
 //! The crate is `no_std`, allocates nothing and does not panic on any input: every fallible step returns an
-//! [`Error`]. The modules, each owning one concept:
+//! [`Error`] (or the error enum of its own module). The modules, each owning one concept:
 //!
 //! | module | owns |
 //! |---|---|
 //! | [`physics`] | SI constants and the thermal voltage kT/q |
-//! | [`math`] | the f32 math backends (libm by default, micromath opt-in) |
+//! | [`math`] | the float core: the f32 `ln`/`exp` backends (libm by default, micromath opt-in), the one generic arithmetic of the f32/f64 bodies, Chebyshev series |
+//! | [`qformat`] | the fixed-point (Q) formats: rounding shifts and rescales, exact f32 ↔ Q conversions, θ and m°C ↔ °C |
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
-//! | [`error`] | the one error enum of the crate |
-//! | [`calibration`] | the calibration of one unit and the f32 correction (ADC code, temperature) → x |
+//! | [`error`] | [`Error`], the error of a correction, with the sensor fault and calibration defect it carries |
+//! | [`calibration`] | the calibration of one unit, its f32 correction (ADC code, temperature) → x, and (feature `reference`) the host's f64 reference |
 //! | [`filter`] | smoothing of readings for displays: a first-order filter in x with its time constant in samples |
 //! | `hal` | (feature `hal`) a measurement cycle on embedded-hal 1.0: converter trait, oversampling, status |
 //! | [`thermistor`] | NTC thermistors: Beta model and Steinhart–Hart, resistance ↔ temperature, fits from points |
@@ -27,7 +28,8 @@
 //! | [`field`] | field layers over the factory calibration: blank and trim records on the same framing, trims against standards, banks of channels |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
-//! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
+//! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0),
+//! `reference` (the host's f64 reference of the calibration: not for firmware builds).
 #![no_std]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -53,6 +55,7 @@ pub mod image;
 pub mod math;
 pub mod path;
 pub mod physics;
+pub mod qformat;
 pub mod record;
 pub mod rtd;
 pub mod sensor;

@@ -11,7 +11,7 @@ use core::fmt::Debug;
 
 use crate::calibration::{Calibration, F32Stage, Reading};
 use crate::error::Error;
-use crate::fixed::{FixedCalibration, FixedReading, TemperatureStage};
+use crate::fixed::{FixedCalibration, FixedReading, FixedStage};
 use crate::math::Libm;
 
 /// A correction path: its reading, its temperature, its stage, and the two steps.
@@ -60,21 +60,17 @@ impl CorrectionPath for Calibration {
 impl CorrectionPath for FixedCalibration<'_> {
     type Reading = FixedReading;
     type Temperature = i32;
-    type Stage = Result<TemperatureStage, Error>;
+    type Stage = Result<FixedStage, Error>;
 
     fn validate(&self) -> Result<(), Error> {
         FixedCalibration::validate(self)
     }
 
-    fn stage(&self, theta: i32) -> Result<TemperatureStage, Error> {
+    fn stage(&self, theta: i32) -> Result<FixedStage, Error> {
         self.stage_theta(i64::from(theta))
     }
 
-    fn correct_staged(
-        &self,
-        stage: &Result<TemperatureStage, Error>,
-        code: u32,
-    ) -> Result<FixedReading, Error> {
+    fn correct_staged(&self, stage: &Result<FixedStage, Error>, code: u32) -> Result<FixedReading, Error> {
         FixedCalibration::correct_staged(self, stage.as_ref().map_err(|e| *e)?, code)
     }
 }

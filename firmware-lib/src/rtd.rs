@@ -15,7 +15,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
-use crate::sensor::SensorFloat;
+use crate::math::Real;
 
 /// Callendar–Van Dusen A, 1/°C (IEC 60751).
 pub const CVD_A: f64 = 3.9083e-3;
@@ -80,7 +80,7 @@ impl Rtd {
 }
 
 /// R/R₀ at t °C.
-fn ratio<F: SensorFloat>(t: F) -> F {
+fn ratio<F: Real>(t: F) -> F {
     let (a, b, c) = (F::lit(CVD_A), F::lit(CVD_B), F::lit(CVD_C));
     let one = F::lit(1.0);
     let quadratic = t * (a + b * t);
@@ -92,12 +92,12 @@ fn ratio<F: SensorFloat>(t: F) -> F {
 }
 
 /// d(R/R₀)/dt below 0 °C.
-fn ratio_slope_below_zero<F: SensorFloat>(t: F) -> F {
+fn ratio_slope_below_zero<F: Real>(t: F) -> F {
     let (a, b, c) = (F::lit(CVD_A), F::lit(CVD_B), F::lit(CVD_C));
     a + F::lit(2.0) * b * t + c * t * t * (F::lit(4.0) * t - F::lit(300.0))
 }
 
-fn resistance<F: SensorFloat>(rtd: &Rtd, t: F) -> Result<F, Error> {
+fn resistance<F: Real>(rtd: &Rtd, t: F) -> Result<F, Error> {
     if !t.finite() {
         return Err(Error::NonFinite);
     }
@@ -112,7 +112,7 @@ fn resistance<F: SensorFloat>(rtd: &Rtd, t: F) -> Result<F, Error> {
     Ok(ohm)
 }
 
-fn celsius<F: SensorFloat>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
+fn celsius<F: Real>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
     if !ohm.finite() {
         return Err(Error::NonFinite);
     }
@@ -148,10 +148,7 @@ fn celsius<F: SensorFloat>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
+    use logtrim_checks::within;
 
     /// IEC 60751:2008 Pt100 table (values as given in the project's numerics guide, there marked
     /// "from memory"): (°C, Ω).
@@ -170,9 +167,9 @@ mod tests {
     fn pt100_matches_the_iec_60751_table_f64() {
         for (t, r) in IEC_60751_PT100 {
             let got = Rtd::PT100.resistance_f64(t).unwrap();
-            assert!(close(got, r, 1e-3, 0.0), "R({t}) = {got}, table {r}");
+            assert!(within(got, r, 1e-3, 0.0), "R({t}) = {got}, table {r}");
             let back = Rtd::PT100.celsius_f64(r).unwrap();
-            assert!(close(back, t, 0.01, 0.0), "t({r}) = {back}, table {t}");
+            assert!(within(back, t, 0.01, 0.0), "t({r}) = {back}, table {t}");
         }
     }
 
@@ -180,9 +177,9 @@ mod tests {
     fn pt100_matches_the_iec_60751_table_f32() {
         for (t, r) in IEC_60751_PT100 {
             let got = f64::from(Rtd::PT100.resistance(t as f32).unwrap());
-            assert!(close(got, r, 1e-3, 0.0), "R({t}) = {got}, table {r}");
+            assert!(within(got, r, 1e-3, 0.0), "R({t}) = {got}, table {r}");
             let back = f64::from(Rtd::PT100.celsius(r as f32).unwrap());
-            assert!(close(back, t, 0.01, 0.0), "t({r}) = {back}, table {t}");
+            assert!(within(back, t, 0.01, 0.0), "t({r}) = {back}, table {t}");
         }
     }
 
@@ -190,8 +187,8 @@ mod tests {
     fn pt1000_is_ten_pt100s() {
         // Same curve, R₀ = 1000 Ω (IEC 60751): the table scaled by ten, to the same relative tolerance.
         for (t, r) in IEC_60751_PT100 {
-            assert!(close(f64::from(Rtd::PT1000.resistance(t as f32).unwrap()), 10.0 * r, 1e-2, 0.0));
-            assert!(close(f64::from(Rtd::PT1000.celsius((10.0 * r) as f32).unwrap()), t, 0.01, 0.0));
+            assert!(within(f64::from(Rtd::PT1000.resistance(t as f32).unwrap()), 10.0 * r, 1e-2, 0.0));
+            assert!(within(f64::from(Rtd::PT1000.celsius((10.0 * r) as f32).unwrap()), t, 0.01, 0.0));
         }
     }
 
@@ -200,8 +197,8 @@ mod tests {
         // The mean tempco (R₁₀₀ − R₀)/(100·R₀) of the IEC 60751 curve is 0.00385 /°C (common practice).
         let r0 = Rtd::PT100.resistance_f64(0.0).unwrap();
         let r100 = Rtd::PT100.resistance_f64(100.0).unwrap();
-        assert!(close(r0, 100.0, 1e-12, 0.0));
-        assert!(close((r100 - r0) / (100.0 * r0), 0.003_85, 1e-6, 0.0));
+        assert!(within(r0, 100.0, 1e-12, 0.0));
+        assert!(within((r100 - r0) / (100.0 * r0), 0.003_85, 1e-6, 0.0));
     }
 
     #[test]
@@ -237,9 +234,9 @@ mod tests {
             let rtd = Rtd { r0_ohm: r0 };
             let r = rtd.resistance_f64(t).unwrap();
             let back = rtd.celsius_f64(r).unwrap();
-            proptest::prop_assert!(close(back, t, 1e-9, 0.0), "{} {}", t, back);
+            proptest::prop_assert!(within(back, t, 1e-9, 0.0), "{} {}", t, back);
             let back32 = f64::from(rtd.celsius(rtd.resistance(t as f32).unwrap()).unwrap());
-            proptest::prop_assert!(close(back32, t, 2e-3, 0.0), "{} {}", t, back32);
+            proptest::prop_assert!(within(back32, t, 2e-3, 0.0), "{} {}", t, back32);
         }
     }
 

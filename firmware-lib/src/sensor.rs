@@ -18,10 +18,9 @@
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
 
-use core::ops::{Add, Div, Mul, Neg, Sub};
-
 use crate::divider::Divider;
 use crate::error::{CalibrationDefect, Error, SensorFault};
+use crate::math::Real;
 use crate::physics::ZERO_CELSIUS_K;
 use crate::rtd::{self, Rtd};
 use crate::thermistor::{Beta, SteinhartHart};
@@ -162,7 +161,7 @@ impl TemperatureSensor {
 }
 
 /// A temperature within the channel's range, or OutOfModelRange.
-fn in_range<F: SensorFloat>(t: F, lo: F, hi: F) -> Result<F, Error> {
+fn in_range<F: Real>(t: F, lo: F, hi: F) -> Result<F, Error> {
     if t >= lo && t <= hi {
         Ok(t)
     } else {
@@ -170,126 +169,11 @@ fn in_range<F: SensorFloat>(t: F, lo: F, hi: F) -> Result<F, Error> {
     }
 }
 
-/// The arithmetic the sensor models need, so that one body serves the firmware's f32 and the host's f64.
-///
-/// Every function goes through libm (`logf`/`log`, …), never through inherent float methods, so that host
-/// tests run the firmware's math.
-pub(crate) trait SensorFloat:
-    Copy
-    + PartialOrd
-    + Add<Output = Self>
-    + Sub<Output = Self>
-    + Mul<Output = Self>
-    + Div<Output = Self>
-    + Neg<Output = Self>
-{
-    /// Machine epsilon of the type.
-    const EPSILON: Self;
-    /// A stored f32 value.
-    fn of(v: f32) -> Self;
-    /// A constant, rounded to the type's precision.
-    fn lit(v: f64) -> Self;
-    /// An integer (an ADC code: exact in f32 up to 2^24).
-    fn of_u32(v: u32) -> Self;
-    fn finite(self) -> bool;
-    fn abs_(self) -> Self;
-    fn sqrt_(self) -> Self;
-    fn ln_(self) -> Self;
-    fn exp_(self) -> Self;
-    fn sin_(self) -> Self;
-    fn asin_(self) -> Self;
-    fn sinh_(self) -> Self;
-    fn asinh_(self) -> Self;
-}
-
-impl SensorFloat for f32 {
-    const EPSILON: f32 = f32::EPSILON;
-    fn of(v: f32) -> f32 {
-        v
-    }
-    fn lit(v: f64) -> f32 {
-        v as f32
-    }
-    fn of_u32(v: u32) -> f32 {
-        v as f32
-    }
-    fn finite(self) -> bool {
-        self.is_finite()
-    }
-    fn abs_(self) -> f32 {
-        libm::fabsf(self)
-    }
-    fn sqrt_(self) -> f32 {
-        libm::sqrtf(self)
-    }
-    fn ln_(self) -> f32 {
-        libm::logf(self)
-    }
-    fn exp_(self) -> f32 {
-        libm::expf(self)
-    }
-    fn sin_(self) -> f32 {
-        libm::sinf(self)
-    }
-    fn asin_(self) -> f32 {
-        libm::asinf(self)
-    }
-    fn sinh_(self) -> f32 {
-        libm::sinhf(self)
-    }
-    fn asinh_(self) -> f32 {
-        libm::asinhf(self)
-    }
-}
-
-impl SensorFloat for f64 {
-    const EPSILON: f64 = f64::EPSILON;
-    fn of(v: f32) -> f64 {
-        f64::from(v)
-    }
-    fn lit(v: f64) -> f64 {
-        v
-    }
-    fn of_u32(v: u32) -> f64 {
-        f64::from(v)
-    }
-    fn finite(self) -> bool {
-        self.is_finite()
-    }
-    fn abs_(self) -> f64 {
-        libm::fabs(self)
-    }
-    fn sqrt_(self) -> f64 {
-        libm::sqrt(self)
-    }
-    fn ln_(self) -> f64 {
-        libm::log(self)
-    }
-    fn exp_(self) -> f64 {
-        libm::exp(self)
-    }
-    fn sin_(self) -> f64 {
-        libm::sin(self)
-    }
-    fn asin_(self) -> f64 {
-        libm::asin(self)
-    }
-    fn sinh_(self) -> f64 {
-        libm::sinh(self)
-    }
-    fn asinh_(self) -> f64 {
-        libm::asinh(self)
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::divider::Placement;
-
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
+    use logtrim_checks::within;
 
     fn ntc_channel() -> TemperatureSensor {
         TemperatureSensor {
@@ -324,9 +208,9 @@ mod tests {
                 let want = s.element.celsius_f64(s.divider.resistance_f64(code).unwrap());
                 match (s.celsius_f64(code), want) {
                     (Ok(got), Ok(w)) => {
-                        assert!(close(got, w, 1e-12, 0.0));
+                        assert!(within(got, w, 1e-12, 0.0));
                         let got32 = f64::from(s.celsius(code).unwrap());
-                        assert!(close(got32, got, 2e-3, 0.0), "f32 {got32} vs f64 {got} at {t} °C");
+                        assert!(within(got32, got, 2e-3, 0.0), "f32 {got32} vs f64 {got} at {t} °C");
                     }
                     // Rounding the code at an end of the range may step just outside it.
                     (Err(Error::Sensor(SensorFault::OutOfModelRange)), _) => {
@@ -342,8 +226,8 @@ mod tests {
     fn ntc_at_25c_with_an_equal_series_resistor_reads_half_scale() {
         // A 10 kΩ NTC at 25 °C against 10 kΩ: half the supply (common practice for NTC dividers).
         let s = ntc_channel();
-        assert!(close(s.code_f64(25.0).unwrap(), 2048.0, 1e-6, 0.0));
-        assert!(close(f64::from(s.celsius(2048).unwrap()), 25.0, 1e-3, 0.0));
+        assert!(within(s.code_f64(25.0).unwrap(), 2048.0, 1e-6, 0.0));
+        assert!(within(f64::from(s.celsius(2048).unwrap()), 25.0, 1e-3, 0.0));
     }
 
     #[test]

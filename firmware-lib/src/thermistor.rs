@@ -36,8 +36,8 @@
 use core::fmt;
 
 use crate::error::{CalibrationDefect, Error, SensorFault};
+use crate::math::Real;
 use crate::physics::ZERO_CELSIUS_K;
-use crate::sensor::SensorFloat;
 
 /// One point of a resistance–temperature curve, used to derive coefficients.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -283,7 +283,7 @@ fn check_point(p: CurvePoint) -> Result<(f64, f64), FitError> {
 
 /// °C from 1/T, or OutOfModelRange where 1/T gives no temperature above absolute zero (at the type's
 /// precision: a temperature that rounds to −273.15 °C is refused too).
-fn celsius_from_inverse<F: SensorFloat>(inv_t: F) -> Result<F, Error> {
+fn celsius_from_inverse<F: Real>(inv_t: F) -> Result<F, Error> {
     let t_k = F::lit(1.0) / inv_t;
     let t_c = t_k - F::lit(ZERO_CELSIUS_K);
     if !(inv_t > F::lit(0.0)) || !t_k.finite() || !(t_c > F::lit(-ZERO_CELSIUS_K)) {
@@ -293,7 +293,7 @@ fn celsius_from_inverse<F: SensorFloat>(inv_t: F) -> Result<F, Error> {
 }
 
 /// 1/T in 1/K from °C, checked.
-fn inverse_from_celsius<F: SensorFloat>(celsius: F) -> Result<F, Error> {
+fn inverse_from_celsius<F: Real>(celsius: F) -> Result<F, Error> {
     if !celsius.finite() {
         return Err(Error::NonFinite);
     }
@@ -305,7 +305,7 @@ fn inverse_from_celsius<F: SensorFloat>(celsius: F) -> Result<F, Error> {
 }
 
 /// ln R of a resistance input, checked.
-fn ln_ohm<F: SensorFloat>(ohm: F) -> Result<F, Error> {
+fn ln_ohm<F: Real>(ohm: F) -> Result<F, Error> {
     if !ohm.finite() {
         return Err(Error::NonFinite);
     }
@@ -316,7 +316,7 @@ fn ln_ohm<F: SensorFloat>(ohm: F) -> Result<F, Error> {
 }
 
 /// A resistance result: finite and positive, or OutOfModelRange (overflow or underflow).
-fn ohm_result<F: SensorFloat>(ohm: F) -> Result<F, Error> {
+fn ohm_result<F: Real>(ohm: F) -> Result<F, Error> {
     if ohm.finite() && ohm > F::lit(0.0) {
         Ok(ohm)
     } else {
@@ -324,21 +324,21 @@ fn ohm_result<F: SensorFloat>(ohm: F) -> Result<F, Error> {
     }
 }
 
-fn beta_celsius<F: SensorFloat>(m: &Beta, ohm: F) -> Result<F, Error> {
+fn beta_celsius<F: Real>(m: &Beta, ohm: F) -> Result<F, Error> {
     let l = ln_ohm(ohm)?;
     let t0 = F::of(m.t0_c) + F::lit(ZERO_CELSIUS_K);
     let inv = F::lit(1.0) / t0 + (l - F::of(m.r0_ohm).ln_()) / F::of(m.beta_k);
     celsius_from_inverse(inv)
 }
 
-fn beta_resistance<F: SensorFloat>(m: &Beta, celsius: F) -> Result<F, Error> {
+fn beta_resistance<F: Real>(m: &Beta, celsius: F) -> Result<F, Error> {
     let inv = inverse_from_celsius(celsius)?;
     let t0 = F::of(m.t0_c) + F::lit(ZERO_CELSIUS_K);
     let e = F::of(m.beta_k) * (inv - F::lit(1.0) / t0);
     ohm_result(F::of(m.r0_ohm) * e.exp_())
 }
 
-fn sh_celsius<F: SensorFloat>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
+fn sh_celsius<F: Real>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
     let l = ln_ohm(ohm)?;
     let (a, b, c) = (F::of(m.a), F::of(m.b), F::of(m.c));
     let l2 = l * l;
@@ -349,7 +349,7 @@ fn sh_celsius<F: SensorFloat>(m: &SteinhartHart, ohm: F) -> Result<F, Error> {
     celsius_from_inverse(a + l * (b + c * l2))
 }
 
-fn sh_resistance<F: SensorFloat>(m: &SteinhartHart, celsius: F) -> Result<F, Error> {
+fn sh_resistance<F: Real>(m: &SteinhartHart, celsius: F) -> Result<F, Error> {
     let y_t = inverse_from_celsius(celsius)?;
     let (a, b, c) = (F::of(m.a), F::of(m.b), F::of(m.c));
     let zero = F::lit(0.0);
@@ -386,12 +386,8 @@ fn sh_resistance<F: SensorFloat>(m: &SteinhartHart, celsius: F) -> Result<F, Err
 #[cfg(test)]
 mod tests {
     use super::*;
+    use logtrim_checks::within;
     use std::vec::Vec;
-
-    /// `|got − want| ≤ abs + rel·|want|`.
-    fn close(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-        (got - want).abs() <= abs + rel * want.abs()
-    }
 
     /// A generic 10 kΩ, β = 3950 K NTC at 25 °C (typical catalogue-style values, common practice).
     const NTC10K: Beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 };
@@ -415,14 +411,14 @@ mod tests {
         for i in 0..=33 {
             let t = -40.0 + 5.0 * f64::from(i);
             let r = beta_curve_ohm(t);
-            assert!(close(NTC10K.resistance_f64(t).unwrap(), r, 0.0, 1e-6), "R({t})");
-            assert!(close(NTC10K.celsius_f64(r).unwrap(), t, 1e-5, 0.0), "T({r})");
+            assert!(within(NTC10K.resistance_f64(t).unwrap(), r, 0.0, 1e-6), "R({t})");
+            assert!(within(NTC10K.celsius_f64(r).unwrap(), t, 1e-5, 0.0), "T({r})");
             // f32 firmware path: within 2 mK and 10 ppm.
-            assert!(close(f64::from(NTC10K.celsius(r as f32).unwrap()), t, 2e-3, 0.0), "f32 T({r})");
-            assert!(close(f64::from(NTC10K.resistance(t as f32).unwrap()), r, 0.0, 1e-5), "f32 R({t})");
+            assert!(within(f64::from(NTC10K.celsius(r as f32).unwrap()), t, 2e-3, 0.0), "f32 T({r})");
+            assert!(within(f64::from(NTC10K.resistance(t as f32).unwrap()), r, 0.0, 1e-5), "f32 R({t})");
         }
         // R₀ at T₀ by definition.
-        assert!(close(f64::from(NTC10K.resistance(25.0).unwrap()), 10_000.0, 0.0, 1e-6));
+        assert!(within(f64::from(NTC10K.resistance(25.0).unwrap()), 10_000.0, 0.0, 1e-6));
     }
 
     #[test]
@@ -431,7 +427,7 @@ mod tests {
         let h = 1e-3;
         let r = |t| NTC10K.resistance_f64(t).unwrap();
         let alpha = (r(25.0 + h) - r(25.0 - h)) / (2.0 * h) / r(25.0);
-        assert!(close(alpha * 100.0, -4.44, 0.005, 0.0), "{alpha}");
+        assert!(within(alpha * 100.0, -4.44, 0.005, 0.0), "{alpha}");
     }
 
     #[test]
@@ -439,22 +435,22 @@ mod tests {
         let p1 = CurvePoint::new(25.0, beta_curve_ohm(25.0));
         let p2 = CurvePoint::new(85.0, beta_curve_ohm(85.0));
         let b = Beta::from_points(p1, p2).unwrap();
-        assert!(close(f64::from(b.beta_k), 3950.0, 0.0, 1e-6), "{b:?}");
-        assert!(close(f64::from(b.r0_ohm), 10_000.0, 0.0, 1e-6));
+        assert!(within(f64::from(b.beta_k), 3950.0, 0.0, 1e-6), "{b:?}");
+        assert!(within(f64::from(b.r0_ohm), 10_000.0, 0.0, 1e-6));
         // Order does not change the curve.
         let b2 = Beta::from_points(p2, p1).unwrap();
-        assert!(close(b2.celsius_f64(beta_curve_ohm(50.0)).unwrap(), 50.0, 1e-4, 0.0));
+        assert!(within(b2.celsius_f64(beta_curve_ohm(50.0)).unwrap(), 50.0, 1e-4, 0.0));
     }
 
     #[test]
     fn beta_is_steinhart_hart_with_zero_c() {
         // 1/T = 1/T₀ + (ln R − ln R₀)/β is SH with A = 1/T₀ − ln R₀/β, B = 1/β, C = 0 (common practice).
         let sh = NTC10K.to_steinhart_hart();
-        assert!(close(f64::from(sh.b), 1.0 / 3950.0, 0.0, 1e-7));
-        assert!(close(f64::from(sh.a), 1.0 / 298.15 - 10_000f64.ln() / 3950.0, 0.0, 1e-6));
+        assert!(within(f64::from(sh.b), 1.0 / 3950.0, 0.0, 1e-7));
+        assert!(within(f64::from(sh.a), 1.0 / 298.15 - 10_000f64.ln() / 3950.0, 0.0, 1e-6));
         for r in [300.0, 3_000.0, 10_000.0, 100_000.0, 300_000.0] {
             let want = NTC10K.celsius_f64(r).unwrap();
-            assert!(close(sh.celsius_f64(r).unwrap(), want, 1e-4, 0.0));
+            assert!(within(sh.celsius_f64(r).unwrap(), want, 1e-4, 0.0));
         }
     }
 
@@ -480,7 +476,7 @@ mod tests {
         let sh = SteinhartHart::from_points(pts[2], pts[0], pts[1]).unwrap();
         for (got, want) in [sh.a, sh.b, sh.c].into_iter().zip(QUOTED_SH) {
             // f32 storage: ~6e-8 relative.
-            assert!(close(f64::from(got), want, 0.0, 2e-7), "{got} vs {want}");
+            assert!(within(f64::from(got), want, 0.0, 2e-7), "{got} vs {want}");
         }
         let mut worst: f64 = 0.0;
         for i in 0..=200 {
@@ -488,7 +484,7 @@ mod tests {
             let want = sh_definition_celsius(QUOTED_SH, r);
             worst = worst.max((sh.celsius_f64(r).unwrap() - want).abs());
             let got32 = f64::from(sh.celsius(r as f32).unwrap());
-            assert!(close(got32, want, 3e-3, 0.0), "f32 at {r} Ω: {got32} vs {want}");
+            assert!(within(got32, want, 3e-3, 0.0), "f32 at {r} Ω: {got32} vs {want}");
         }
         assert!(worst < 1e-4, "worst {worst} K");
     }
@@ -519,11 +515,11 @@ mod tests {
                 let t = -50.0 + 5.0 * f64::from(i);
                 let want = bisect_ohm(&sh, t);
                 let got = sh.resistance_f64(t).unwrap();
-                assert!(close(got, want, 0.0, 1e-10), "{sh:?} at {t}: {got} vs {want}");
+                assert!(within(got, want, 0.0, 1e-10), "{sh:?} at {t}: {got} vs {want}");
                 let got32 = f64::from(sh.resistance(t as f32).unwrap());
-                assert!(close(got32, want, 0.0, 1e-5), "{sh:?} f32 at {t}: {got32} vs {want}");
+                assert!(within(got32, want, 0.0, 1e-5), "{sh:?} f32 at {t}: {got32} vs {want}");
                 // And back.
-                assert!(close(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
+                assert!(within(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
             }
         }
     }
@@ -545,11 +541,11 @@ mod tests {
             // Only where the curve puts the temperature between 1 Ω and 1 GΩ (the bisection bracket).
             proptest::prop_assume!(want > 1.001 && want < 0.999e9);
             let got = sh.resistance_f64(t).unwrap();
-            proptest::prop_assert!(close(got, want, 0.0, 1e-9), "{:?} {} {} {}", sh, t, got, want);
-            proptest::prop_assert!(close(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
+            proptest::prop_assert!(within(got, want, 0.0, 1e-9), "{:?} {} {} {}", sh, t, got, want);
+            proptest::prop_assert!(within(sh.celsius_f64(got).unwrap(), t, 1e-9, 0.0));
             let got32 = sh.resistance(t as f32).unwrap();
-            proptest::prop_assert!(close(f64::from(got32), want, 0.0, 2e-5), "{:?} {} {} {}", sh, t, got32, want);
-            proptest::prop_assert!(close(f64::from(sh.celsius(got32).unwrap()), t, 5e-3, 0.0));
+            proptest::prop_assert!(within(f64::from(got32), want, 0.0, 2e-5), "{:?} {} {} {}", sh, t, got32, want);
+            proptest::prop_assert!(within(f64::from(sh.celsius(got32).unwrap()), t, 5e-3, 0.0));
         }
     }
 

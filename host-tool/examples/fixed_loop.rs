@@ -9,7 +9,7 @@
 //! * `fixed-staged`: the log channel alone (`correct_staged` and dB), with the temperature stages computed
 //!   beforehand (64 temperatures): what a firmware pays per log sample when it reads the temperature less
 //!   often than the log channel;
-//! * `fixed-row`: the same through a `RowStage` (the residual collapsed over temperature per stage).
+//! * `fixed-row`: the same through a `FixedRowStage` (the residual collapsed over temperature per stage).
 //! * `fixed-cached`: raw codes to power dB through a `StageCache`, on a stream whose temperature channel
 //!   gives a new code (drawn anew over the calibrated range) every `HOLD` samples, as a firmware that reads
 //!   its temperature channel once per `HOLD` log samples; the stage is rebuilt at every new code.
@@ -97,11 +97,7 @@ fn run_fixed_mc(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
 }
 
 #[inline(never)]
-fn run_fixed_staged(
-    f: &FixedCalibration<'_>,
-    inp: &[Input],
-    stages: &[logtrim::fixed::TemperatureStage],
-) -> i64 {
+fn run_fixed_staged(f: &FixedCalibration<'_>, inp: &[Input], stages: &[logtrim::fixed::FixedStage]) -> i64 {
     let mut acc = 0i64;
     for (k, i) in inp.iter().enumerate() {
         if let Ok(r) = f.correct_staged(&stages[k % stages.len()], black_box(i.code)) {
@@ -112,7 +108,7 @@ fn run_fixed_staged(
 }
 
 #[inline(never)]
-fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed::RowStage]) -> i64 {
+fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed::FixedRowStage]) -> i64 {
     let mut acc = 0i64;
     for (k, i) in inp.iter().enumerate() {
         if let Ok(r) = f.correct_row(&rows[k % rows.len()], black_box(i.code)) {

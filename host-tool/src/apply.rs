@@ -96,7 +96,8 @@ pub fn factory_readings_fixed(
                 let t = r.temp_c?;
                 let mc = (t * 1000.0).round();
                 if !(mc >= f64::from(i32::MIN) && mc <= f64::from(i32::MAX)) {
-                    return Err(Error::TemperatureOutOfRange { celsius: t as f32 });
+                    // `as` saturates: the error reports the nearest i32 m°C.
+                    return Err(Error::TemperatureOutOfRange { millicelsius: mc as i32 });
                 }
                 fixed.correct(r.code, mc as i32)
             }

@@ -23,7 +23,7 @@
 
 use std::ops::RangeInclusive;
 
-use logtrim::calibration::StageF64;
+use logtrim::calibration::F64StageTerms;
 use logtrim::error::SensorFault;
 use logtrim::fixed::{
     FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION, THETA_FRAC, T_POS_SHIFT, XA_POS_SHIFT, X_FRAC,
@@ -309,7 +309,7 @@ fn theta(c: f64, what: &'static str, ceil: bool) -> Result<i32, TableError> {
 }
 
 /// `ln(e^u − β)`, the bias-bend-free apparent x, or `None` at and below the bias floor.
-fn xa_of_u(u: f64, st: &StageF64, bend: bool) -> Option<f64> {
+fn xa_of_u(u: f64, st: &F64StageTerms, bend: bool) -> Option<f64> {
     if !bend {
         return Some(u);
     }
@@ -323,7 +323,7 @@ fn xa_of_u(u: f64, st: &StageF64, bend: bool) -> Option<f64> {
 }
 
 /// `u = ln(e^x̃ + β)`, the inverse of [`xa_of_u`].
-fn u_of_xa(xa: f64, st: &StageF64, bend: bool) -> f64 {
+fn u_of_xa(xa: f64, st: &F64StageTerms, bend: bool) -> f64 {
     match (bend, st.ln_beta) {
         (true, Some(ln_b)) => {
             // ln(e^x̃ + β) = max + ln(1 + e^(min − max))
@@ -429,7 +429,7 @@ pub fn build(
     };
     let t_pos = sample_positions(nt - 1);
     let temps: Vec<f64> = t_pos.iter().map(|&p| t_knot_celsius(&header, p)).collect();
-    let stages: Vec<StageF64> =
+    let stages: Vec<F64StageTerms> =
         temps.iter().map(|&t| cal.stage_f64(t)).collect::<Result<_, _>>().map_err(TableError::Calibration)?;
 
     // Per-temperature tables.
@@ -462,7 +462,7 @@ pub fn build(
     // Usable u per sample temperature: codes inside the rails, x inside the calibrated range.
     let code_lo = f64::from(cal.adc.rail_margin);
     let code_hi = f64::from(max_code.saturating_sub(cal.adc.rail_margin));
-    let u_of_code = |code: f64, st: &StageF64| (code - st.offset_codes) / st.slope;
+    let u_of_code = |code: f64, st: &F64StageTerms| (code - st.offset_codes) / st.slope;
     let (xr_min, xr_max) = (f64::from(cal.x_range.min), f64::from(cal.x_range.max));
     // Sensitivity limit u_min(T).
     let mut limits: Vec<Option<f64>> = Vec::with_capacity(temps.len());

@@ -41,7 +41,7 @@
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
-use logtrim::calibration::{ReadingF64, ReferenceStage, ReferenceSweep};
+use logtrim::calibration::{F64Stage, ReadingF64, ReferenceSweep};
 use logtrim::fixed::{FixedCalibration, X_FRAC};
 use logtrim::math::{Backend, Libm, Micromath};
 use logtrim::{Calibration, Error};
@@ -506,7 +506,7 @@ fn temperature_grid(
 
 /// The reference of one row.
 enum Reference<'a> {
-    Exact(ReferenceStage),
+    Exact(F64Stage),
     Warm(ReferenceSweep<'a>),
 }
 

@@ -5,7 +5,7 @@
 //! exactly the input the backend sees. For each function and range: evenly spaced points plus seeded
 //! random ones, over the ranges the correction uses — `ln` over 1e-6…1e6 split at 1, `exp` over −20…20.
 //!
-//! The bounds asserted here are the figures in the table of `firmware-lib/src/math.rs`; the test also
+//! The bounds asserted here are the figures in the table of `firmware-lib/src/math/backend.rs`; the test also
 //! checks that the table states them, so neither can drift from the other or from the code. For
 //! micromath the check is two-sided (the measured error must be at least half the stated bound), so an
 //! improvement in the crate shows up as a failing test and a doc update, not as stale pessimism.
@@ -17,7 +17,7 @@ use rand_xorshift::XorShiftRng;
 const POINTS: usize = 100_000;
 
 /// The module docs whose table this test keeps honest.
-const MATH_DOCS: &str = include_str!("../../firmware-lib/src/math.rs");
+const MATH_DOCS: &str = include_str!("../../firmware-lib/src/math/backend.rs");
 
 #[derive(Debug, Default)]
 struct Stats {
@@ -86,7 +86,10 @@ fn report(name: &str, s: &Stats) {
 
 /// Asserts the docs' table states `text` (so that the bound asserted below is the one documented).
 fn documented(text: &str) {
-    assert!(MATH_DOCS.contains(text), "firmware-lib/src/math.rs docs no longer state `{text}`: keep in step");
+    assert!(
+        MATH_DOCS.contains(text),
+        "firmware-lib/src/math/backend.rs docs no longer state `{text}`: keep in step"
+    );
 }
 
 #[test]

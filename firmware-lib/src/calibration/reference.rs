@@ -1,237 +1,175 @@
-//! The f64 reference swept over a temperature's codes ([`ReferenceSweep`]): what `logtrim verify` compares
-//! both firmware paths with, at a fraction of [`Calibration::correct_f64`]'s cost per code.
+//! The host's f64 reference of the correction (feature `reference`, not compiled into firmware builds):
+//! the same inverse as the firmware's f32 path, evaluated in f64 with libm's `log`/`exp`
+//! ([`Calibration::correct_f64`], and in two steps through an [`F64Stage`]); the forward model the host
+//! fits ([`Calibration::forward_code_f64`]); and the stage's terms and the bends without range checks, for
+//! the host's table generation ([`Calibration::stage_f64`], [`Calibration::x_from_w_f64`]).
 
-use super::*;
+// Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
+#![allow(clippy::neg_cmp_op_on_partial_ord, clippy::nonminimal_bool)]
+
+use super::inverse::{Point, Stage};
+use super::{Calibration, Residual};
+use crate::error::Error;
+use crate::math::F64Math;
+
+/// A reading evaluated in f64 by the host's reference path.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReadingF64 {
+    /// x = ln(I_sig/I_ref).
+    pub x: f64,
+    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
+    pub temperature_extrapolated: bool,
+    /// The local sensitivity ∂w/∂x (1 for an ideal front end).
+    pub sensitivity: f64,
+    /// ∂x/∂code at this point, neper per code (for LSB-equivalent error figures).
+    pub dx_dcode: f64,
+}
+
+/// The f64 temperature stage: the temperature-dependent part of the f64 reference, made by
+/// [`Calibration::reference_stage`] for [`Calibration::correct_staged_f64`] and the [`ReferenceSweep`]
+/// (a host helper, as [`Calibration::correct_f64`]). It holds the temperature's checks and the terms of the
+/// inverse there, as an [`F32Stage`] does in f32, or the temperature's error.
+///
+/// [`ReferenceSweep`]: super::ReferenceSweep
+/// [`F32Stage`]: super::F32Stage
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct F64Stage {
+    /// The temperature is NaN or infinite: [`Error::NonFinite`] comes before the code's own check, as in
+    /// [`Calibration::correct_f64`].
+    pub(super) non_finite: bool,
+    pub(super) inner: Result<Stage<f64>, Error>,
+}
+
+impl F64Stage {
+    /// The temperature's error, if it cannot be corrected.
+    pub fn error(&self) -> Option<Error> {
+        self.inner.err()
+    }
+}
+
+impl Residual {
+    /// R(ξ, τ), for the forward model.
+    fn eval(&self, xi: f64, tau: f64) -> f64 {
+        self.at_tau(tau).eval(xi)
+    }
+}
 
 impl Calibration {
-    /// A sweep of the f64 reference over the whole codes at one temperature, with the bend's Newton solve
-    /// started from the previous code's solution (see [`ReferenceSweep`]).
-    pub fn reference_sweep(&self, temp_c: f64) -> ReferenceSweep<'_> {
-        let stage = self.reference_stage(temp_c);
-        let inv_slope = stage.inner.as_ref().map_or(0.0, |ts| 1.0 / ts.st.slope);
-        ReferenceSweep { cal: self, stage, inv_slope, seed: None, near: Anchors::NONE, warm: 0 }
-    }
-}
-
-/// The f64 reference over many codes at one temperature, for exhaustive checks on the host.
-///
-/// [`ReferenceSweep::correct`] gives the status (value or error) of [`Calibration::correct_staged_f64`] at
-/// every code, and its x, sensitivity and ∂x/∂code to f64 precision, but solves the bend's
-/// `z + h(e^z − β) = w` by Newton from the previous code's solution (a second-order prediction, then steps
-/// until one is at most 1e-9, its error then below 1e-18): one exponential per code where the exact path,
-/// started at `z = w`, takes two to four. The two solutions differ only by the exact path's own remaining
-/// error (half its last step squared, its last step at most `2e-7·(1 + |z|)`) and rounding. Its `exp` and
-/// `ln` are libm's at an anchor, renewed every few codes, and short series from there (within 3 ULP).
-/// Codes may come in any order; in increasing order the warm start answers almost everywhere.
-///
-/// It vouches for the status only where the exact path provably converges to the same root within its
-/// steps (`h ≥ 0` and `h·(e^z + β) ≤ ½`; without a bend, `h = 0`, both take `z = w`) and the point lies
-/// farther than a thousand times that remaining error, propagated to e^x, the sensitivity and x, from
-/// every limit (`e^x = 0`, the sensitivity limit, both ends of the x range). It gives a value only where
-/// `e^z/e^x`, by which z's rounding grows in x, is at most 100 (the two paths' x then agree within
-/// 1e-12 Np). Everywhere else, and after any error that leaves no solution to start from, it runs the
-/// exact path itself.
-#[derive(Debug, Clone)]
-pub struct ReferenceSweep<'a> {
-    cal: &'a Calibration,
-    stage: ReferenceStage,
-    /// `1/slope`: the warm start's w is `(code − offset)·(1/slope)`, within 2 ULP of the exact path's.
-    inv_slope: f64,
-    seed: Option<Seed>,
-    near: Anchors,
-    warm: u64,
-}
-
-/// `exp` and `ln` near points where libm evaluated them: `e^z = e^a·e^(z−a)` and
-/// `ln y = ln b + ln(1 + (y − b)/b)` by short series while `|z − a|` and `|y − b|/b` stay at most
-/// [`ANCHOR_REACH`] (e^z within 3 ULP of libm's own value, ln y within `4e-16·(1 + |ln y|)` of it), a new
-/// anchor from libm beyond.
-#[derive(Debug, Clone, Copy)]
-pub(super) struct Anchors {
-    /// a and e^a.
-    pub(super) z: f64,
-    pub(super) exp_z: f64,
-    /// b, ln b and 1/b.
-    pub(super) y: f64,
-    pub(super) ln_y: f64,
-    pub(super) inv_y: f64,
-}
-
-/// How far from its anchor [`Anchors`] evaluates a series: the first omitted terms are then below 1e-19
-/// (`t⁶/720` for `exp`, `t⁷/7` for `ln`).
-const ANCHOR_REACH: f64 = 2e-3;
-
-impl Anchors {
-    pub(super) const NONE: Anchors =
-        Anchors { z: f64::NAN, exp_z: f64::NAN, y: f64::NAN, ln_y: f64::NAN, inv_y: f64::NAN };
-
-    /// e^z.
-    #[inline(always)]
-    pub(super) fn exp(&mut self, z: f64) -> f64 {
-        let t = z - self.z;
-        if !(libm::fabs(t) <= ANCHOR_REACH) {
-            self.z = z;
-            self.exp_z = libm::exp(z);
-            return self.exp_z;
+    /// The forward model in f64: the (fractional, noise-free) code that the model predicts at x and a
+    /// temperature in °C. This is the definition the host fits and [`Calibration::correct`] inverts.
+    pub fn forward_code_f64(&self, x: f64, temp_c: f64) -> f64 {
+        let m = &self.model;
+        let tau = m.tau(temp_c);
+        let den = 1.0 + f64::from(m.pole) * tau;
+        let t_k = temp_c + crate::physics::ZERO_CELSIUS_K;
+        let beta = if m.bias.enabled { libm::exp(m.bias.ln_beta(tau)) } else { 0.0 };
+        // The residual acts in the inverse direction (x = x0 + R): undo it by a fixed-point iteration on x0.
+        let r = &m.residual;
+        let mut x0 = x;
+        for _ in 0..8 {
+            let xi = (x0 - f64::from(r.x_center)) / f64::from(r.x_half_span);
+            x0 = x - r.eval(xi, tau);
         }
-        // e^t − 1 to t⁵, split for a short dependency chain.
-        let t2 = t * t;
-        let em1 = t + t2 * ((0.5 + t * (1.0 / 6.0)) + t2 * (1.0 / 24.0 + t * (1.0 / 120.0)));
-        self.exp_z + self.exp_z * em1
+        let ex0 = libm::exp(x0);
+        let ptat = t_k / f64::from(m.t_ref_k);
+        f64::from(self.adc.level_shift_code)
+            + (m.offset.eval(tau)
+                + f64::from(m.bias.reference) * ptat * beta
+                + t_k / f64::from(m.t_ref_k) * m.slope.eval(tau) * libm::log(ex0 + beta)
+                + m.bulk.eval(tau) * ex0)
+                / den
     }
 
-    /// ln y, for y > 0.
-    #[inline(always)]
-    pub(super) fn ln(&mut self, y: f64) -> f64 {
-        let r = (y - self.y) * self.inv_y;
-        if !(libm::fabs(r) <= ANCHOR_REACH) {
-            self.y = y;
-            self.ln_y = libm::log(y);
-            self.inv_y = 1.0 / y;
-            return self.ln_y;
-        }
-        // ln(1 + r) to r⁶, split for a short dependency chain.
-        let r2 = r * r;
-        let a = r - r2 * 0.5;
-        let b = r * (1.0 / 3.0) - r2 * 0.25;
-        let c = r * 0.2 - r2 * (1.0 / 6.0);
-        self.ln_y + (a + r2 * (b + r2 * c))
-    }
-}
-
-/// A solution of the bend's equation to start the next one from.
-#[derive(Debug, Clone, Copy)]
-struct Seed {
-    w: f64,
-    z: f64,
-    ez: f64,
-    /// `1/(1 + h e^z)`, ∂z/∂w.
-    inv_d: f64,
-}
-
-/// Newton steps of the warm start before it gives way to the exact path.
-const WARM_STEPS: usize = 3;
-/// The warm start stops after a step at most this large: its remaining error is then below `h e^z/2` times
-/// the step squared.
-const WARM_STEP: f64 = 1e-9;
-/// How many times its own possible error a warm-started point must lie from a limit.
-const WARM_MARGIN: f64 = 1e3;
-/// The largest `e^z/e^x` (the factor by which an error in z grows in x) of a warm-started value.
-const WARM_CONDITION: f64 = 100.0;
-
-impl ReferenceSweep<'_> {
-    /// The reference at `code` and the sweep's temperature: the status of
-    /// [`Calibration::correct_staged_f64`], values to f64 precision.
-    pub fn correct(&mut self, code: u32) -> Result<ReadingF64, Error> {
-        let cal = self.cal;
-        if self.stage.non_finite {
+    /// The host's f64 reference of the same correction: the same code path as [`Calibration::correct`],
+    /// evaluated in f64 with libm's f64 `log`/`exp`. `code` may be fractional (a noise-free model value).
+    pub fn correct_f64(&self, code: f64, temp_c: f64) -> Result<ReadingF64, Error> {
+        if !(code.is_finite() && temp_c.is_finite()) {
             return Err(Error::NonFinite);
         }
-        cal.adc.check_code(code)?;
-        let ts = self.stage.inner.as_ref().map_err(|e| *e)?;
-        let st = &ts.st;
-        if let Some(seed) = self.seed.take() {
-            let w = (f64::from(code) - st.offset) * self.inv_slope;
-            if let Some(r) = warm(cal, ts, w, seed, &mut self.seed, &mut self.near) {
-                self.warm += 1;
-                return r;
-            }
+        let c = libm::round(code);
+        if c < 0.0 {
+            return Err(Error::CodeOutOfAdcRange { code: 0, max: self.adc.max_code()? });
         }
-        // The exact path, step by step as `evaluate_staged`, keeping its solution as the next seed.
-        let w = (f64::from(code) - st.offset) / st.slope;
-        let z = cal.newton::<F64Math>(w, st)?;
-        let ez = libm::exp(z);
-        self.seed = Some(Seed { w, z, ez, inv_d: 1.0 / (1.0 + st.h * ez) });
-        let (x, sens) = cal.x_from_ez::<F64Math>(ez, st)?;
-        cal.range_checked::<F64Math>(x, sens, ts).map(reading_f64)
+        self.adc.check_code(if c > f64::from(u32::MAX) { u32::MAX } else { c as u32 })?;
+        self.evaluate_real::<F64Math>(code, temp_c).map(reading_f64)
     }
 
-    /// How many codes so far the warm start answered (the others took the exact path).
-    pub fn warm_points(&self) -> u64 {
-        self.warm
+    /// The temperature-dependent part of [`Calibration::correct_f64`] at `temp_c`, computed once and reusable
+    /// for any number of whole log codes at that temperature ([`Calibration::correct_staged_f64`]).
+    pub fn reference_stage(&self, temp_c: f64) -> F64Stage {
+        F64Stage { non_finite: !temp_c.is_finite(), inner: self.temperature_stage::<F64Math>(temp_c) }
+    }
+
+    /// The log-channel part of the f64 reference at a stage of this calibration: bit for bit the result
+    /// (value or error) of [`Calibration::correct_f64`]`(f64::from(code), temp_c)` at the stage's temperature.
+    pub fn correct_staged_f64(&self, stage: &F64Stage, code: u32) -> Result<ReadingF64, Error> {
+        if stage.non_finite {
+            return Err(Error::NonFinite);
+        }
+        self.adc.check_code(code)?;
+        let st = stage.inner.as_ref().map_err(|e| *e)?;
+        self.evaluate_staged::<F64Math>(f64::from(code), st).map(reading_f64)
     }
 }
 
-/// The warm start of [`ReferenceSweep::correct`] at `w`, or `None` where it cannot vouch for the exact
-/// path's status. Sets the next seed where it answers.
-fn warm(
-    cal: &Calibration,
-    ts: &TempStage<f64>,
-    w: f64,
-    seed: Seed,
-    next: &mut Option<Seed>,
-    near: &mut Anchors,
-) -> Option<Result<ReadingF64, Error>> {
-    let st = &ts.st;
-    let (h, beta) = (st.h, st.beta);
-    // Where w may lie on the other side of the exact path's limit, the exact path decides.
-    if !(h >= 0.0 && w < f64::from(MAX_EXP_ARG) - 1e-9) {
-        return None;
+/// The terms of the f64 stage at one temperature as plain numbers, without any range check on the
+/// temperature (a host helper for table generation): `w = (code − offset_codes)/slope`, then the bends
+/// with `h` and `β`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct F64StageTerms {
+    /// The code at which w = 0: the level shift plus the offset `P_c(τ)/(1 + qτ)`, codes.
+    pub offset_codes: f64,
+    /// The slope `S = (T_K/T_ref)·P_s(τ)/(1 + qτ)`, codes per neper.
+    pub slope: f64,
+    /// `h = P_h(τ)/(1 + qτ)/S`, the bulk term over the slope.
+    pub bulk_over_slope: f64,
+    /// `β(τ)`, zero when the bias term is off.
+    pub beta: f64,
+    /// `ln β(τ) = b₀ + b₁τ`, or `None` when the bias term is off.
+    pub ln_beta: Option<f64>,
+    /// The normalised temperature τ.
+    pub tau: f64,
+}
+
+/// x evaluated from w (no range checks) by [`Calibration::x_from_w_f64`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct XFromW {
+    /// x = ln(I_sig/I_ref), residual included.
+    pub x: f64,
+    /// The local sensitivity ∂w/∂x (1 for an ideal front end).
+    pub sensitivity: f64,
+}
+
+impl Calibration {
+    /// The temperature-dependent stage at `temp_c` in f64, exactly as [`Calibration::correct_f64`] computes
+    /// it. No range check on the temperature; an error only where the slope is not positive and finite.
+    pub fn stage_f64(&self, temp_c: f64) -> Result<F64StageTerms, Error> {
+        let t = self.terms::<F64Math>(temp_c)?;
+        let (m, tau) = (&self.model, self.model.tau(temp_c));
+        Ok(F64StageTerms {
+            offset_codes: t.offset,
+            slope: t.slope,
+            bulk_over_slope: t.h,
+            beta: t.beta,
+            ln_beta: m.bias.enabled.then(|| m.bias.ln_beta(tau)),
+            tau,
+        })
     }
-    let (z, ez, inv_d) = if h == 0.0 {
-        // No bend: z = w, as the exact path takes it without a Newton step.
-        (w, near.exp(w), 1.0)
-    } else {
-        // z(w) to second order from the seed: z' = 1/(1 + h e^z), z'' = −h e^z/(1 + h e^z)³.
-        let g = (w - seed.w) * seed.inv_d;
-        let mut z = seed.z + g - 0.5 * h * seed.ez * g * g * seed.inv_d;
-        let (mut ez, mut inv_d) = (f64::NAN, 0.0);
-        for _ in 0..WARM_STEPS {
-            let e = near.exp(z);
-            inv_d = 1.0 / (1.0 + h * e);
-            let step = (z + h * (e - beta) - w) * inv_d;
-            z -= step;
-            if libm::fabs(step) <= WARM_STEP {
-                // e^(z − step): the first omitted term of the series is below 2e-28 relative.
-                ez = e * (1.0 - step + 0.5 * step * step);
-                break;
-            }
+
+    /// x from w = (code − offset)/slope at `temp_c`, in f64, by the same steps as [`Calibration::correct_f64`]
+    /// but without any range check (a host helper for table generation, defined also outside the ADC's
+    /// codes). [`Error::BelowRange`] where the bias current swamps the signal (`e^z ≤ β`: no x exists).
+    pub fn x_from_w_f64(&self, w: f64, temp_c: f64) -> Result<XFromW, Error> {
+        if !(w.is_finite() && temp_c.is_finite()) {
+            return Err(Error::NonFinite);
         }
-        (z, ez, inv_d)
-    };
-    if !(ez.is_finite() && z.is_finite()) {
-        return None;
+        let t = self.terms::<F64Math>(temp_c)?;
+        let (x, sensitivity) = self.x_from_w::<F64Math>(w, &t)?;
+        Ok(XFromW { x, sensitivity })
     }
-    // From z = w the exact path's first error is at most h·(e^z + β); at most ½, each step at least halves
-    // and squares it, so it converges to this root within its steps.
-    let he = h * ez;
-    if !(he + h * beta <= 0.5) {
-        return None;
-    }
-    // The exact path's possible distance from the root, relative in e^z: at most h e^z/2 times its last
-    // step squared, plus rounding; and in e^z itself.
-    let az = libm::fabs(z);
-    let last = 2e-7 * (1.0 + az);
-    let rel = 0.5 * he * last * last + 2e-15 * (1.0 + az);
-    let ez_err = ez * rel + 1e-15 * (ez + beta);
-    let y = ez - beta; // e^x
-    if !(libm::fabs(y) > WARM_MARGIN * ez_err) {
-        return None;
-    }
-    *next = Some(Seed { w, z, ez, inv_d });
-    if y < 0.0 {
-        return Some(Err(Error::BelowRange));
-    }
-    let (x, sens) = cal.x_from_parts::<F64Math>(ez, y, near.ln(y), st).ok()?;
-    let xr = &cal.x_range;
-    // Errors in the sensitivity e^x/e^z + h e^x (β < e^z here) and, times e^x, in x = ln e^x + R.
-    let sens_err = (rel + 2e-15) * (1.0 + he) + 1e-15;
-    let x_err_y = ez_err + 1e-15 * (1.0 + libm::fabs(x)) * y;
-    let near = |v: f64, limit: f32, scale: f64, err: f64| {
-        !(libm::fabs(v - f64::from(limit)) * scale > WARM_MARGIN * err)
-    };
-    if near(sens, xr.min_sensitivity, 1.0, sens_err) {
-        return None;
-    }
-    // Below the sensitivity limit the status is BelowRange whatever x is.
-    if !(sens < f64::from(xr.min_sensitivity)) && (near(x, xr.min, y, x_err_y) || near(x, xr.max, y, x_err_y))
-    {
-        return None;
-    }
-    let r = cal.range_checked::<F64Math>(x, sens, ts);
-    // A value where x = ln(e^z − β) amplifies z's rounding more than a hundredfold is the exact path's.
-    if r.is_ok() && !(WARM_CONDITION * y >= ez) {
-        return None;
-    }
-    Some(r.map(reading_f64))
+}
+
+/// The reference's reading of a corrected point.
+pub(super) fn reading_f64(p: Point<f64>) -> ReadingF64 {
+    ReadingF64 { x: p.x, temperature_extrapolated: p.extrapolated, sensitivity: p.sens, dx_dcode: p.dx_dcode }
 }

@@ -1,4 +1,6 @@
+use super::sweep::Anchors;
 use super::*;
+use crate::math::{Backend, F32Math, Libm};
 use std::vec;
 use std::vec::Vec;
 
@@ -75,10 +77,10 @@ fn temperature_extrapolation_is_bounded_and_flagged() {
     let r = c.correct(code, 88.0).unwrap();
     assert!(r.temperature_extrapolated);
     assert!(!c.correct(code, 50.0).unwrap().temperature_extrapolated);
-    assert_eq!(c.correct(code, 90.5), Err(Error::TemperatureOutOfRange { celsius: 90.5 }));
+    assert_eq!(c.correct(code, 90.5), Err(Error::TemperatureOutOfRange { millicelsius: 90_500 }));
     let mut strict = c;
     strict.temperature.extrapolation_k = 0.0;
-    assert_eq!(strict.correct(code, 85.5), Err(Error::TemperatureOutOfRange { celsius: 85.5 }));
+    assert_eq!(strict.correct(code, 85.5), Err(Error::TemperatureOutOfRange { millicelsius: 85_500 }));
 }
 
 #[test]

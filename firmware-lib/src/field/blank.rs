@@ -14,10 +14,10 @@
 
 use super::header::{self, Codec, RecordError, RecordInfo, RecordValueError};
 use super::layout::{self, blank as bl};
-use super::qconv::{f32_from_q, q_from_f32};
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
+use crate::qformat::{f32_from_q, q_from_f32};
 use crate::record::frame::{Extent, Framing, Reader, Writer};
 use crate::record::{BufferTooSmall, RecordType};
 

@@ -22,6 +22,7 @@ use crate::calibration::Calibration;
 use crate::error::Error;
 use crate::fixed::{FixedCalibration, THETA_FRAC};
 use crate::path::CorrectionPath;
+use crate::qformat::millicelsius_of_theta;
 use crate::sensor::TemperatureSensor;
 
 /// A channel's calibration failed its check when the bank was built.
@@ -102,13 +103,6 @@ impl<const N: usize> Cycle<FixedCalibration<'_>, N> {
     pub fn millicelsius(&self) -> i32 {
         millicelsius_of_theta(i64::from(self.temperature))
     }
-}
-
-#[deny(clippy::float_arithmetic)]
-fn millicelsius_of_theta(theta: i64) -> i32 {
-    let mc = (theta + (1 << (THETA_FRAC - 1))) >> THETA_FRAC;
-    // |θ| < 2^31, so m°C is well inside i32.
-    i32::try_from(mc).unwrap_or(if mc > 0 { i32::MAX } else { i32::MIN })
 }
 
 /// Several channels of one correction path sharing one temperature.
@@ -217,7 +211,7 @@ impl<'a, const N: usize> Bank<FixedCalibration<'a>, N> {
     /// the i32 range (beyond ±2097 °C); a channel's own range is checked in its stage.
     pub fn cycle_from_millicelsius(&self, temp_mc: i32) -> Result<Cycle<FixedCalibration<'a>, N>, Error> {
         let theta = i32::try_from(i64::from(temp_mc) << THETA_FRAC)
-            .map_err(|_| crate::calibration::temperature_out_of_range_millicelsius(temp_mc))?;
+            .map_err(|_| Error::TemperatureOutOfRange { millicelsius: temp_mc })?;
         Ok(self.cycle_from_theta(theta))
     }
 

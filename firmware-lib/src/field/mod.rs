@@ -11,7 +11,8 @@
 //! | [`header`] | the records' shared header on the common framing ([`crate::record`]), and their errors |
 //! | [`slots`] | two-slot (A/B) storage of a record: [`slots::select`] and [`slots::next_write`], the rule of [`crate::record::slots`] |
 //! | [`layout`] | the records' byte layout, described once |
-//! | [`qconv`] | exact f32 ↔ fixed-point conversions in integer arithmetic |
+//!
+//! Their fixed-point conversions (f32 ↔ Q, °C → m°C) are the crate's, in [`crate::qformat`].
 //!
 //! # The layers
 //!
@@ -77,7 +78,6 @@ pub mod channels;
 pub mod header;
 pub mod layers;
 pub mod layout;
-pub mod qconv;
 pub mod slots;
 pub mod trim;
 
@@ -97,8 +97,8 @@ pub use trim::{FixedStandard, Standard, Trim, TrimKind, TrimLimits, TrimParts};
 use crate::calibration::Calibration;
 use crate::error::Error;
 use crate::image::{layout as image_layout, Image, ImageInfo};
+use crate::qformat::f32_from_q;
 use crate::record::{RecordType, CRC32};
-use qconv::f32_from_q;
 
 /// Why a trim could not be computed or installed, or a layer not applied.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -218,19 +218,6 @@ pub fn fingerprint_of_image(image: &Image<'_>) -> u32 {
     d.update(image.section(image_layout::ranges::KIND).unwrap_or(&[]));
     d.update(image.section(image_layout::model_f32::KIND).unwrap_or(&[]));
     d.finalize()
-}
-
-/// A temperature in °C as the records' m°C, rounded ([`Error::NonFinite`] for NaN or infinity,
-/// [`Error::TemperatureOutOfRange`] beyond the i32 range).
-pub fn millicelsius(temp_c: f32) -> Result<i32, Error> {
-    if !temp_c.is_finite() {
-        return Err(Error::NonFinite);
-    }
-    let mc = libm::roundf(temp_c * 1000.0);
-    if !(-2.147e9..=2.147e9).contains(&mc) {
-        return Err(Error::TemperatureOutOfRange { celsius: temp_c });
-    }
-    Ok(mc as i32)
 }
 
 // Every public type of the module can be logged with defmt (a build with the feature fails otherwise).

@@ -7,11 +7,11 @@ use std::vec::Vec;
 use proptest::prelude::*;
 
 use super::layout::{self, blank as bl, header, trim as tl};
-use super::qconv::q_from_f32;
 use super::*;
 use crate::calibration::{Reading, TemperatureRange};
 use crate::error::SensorFault;
 use crate::fixed::FixedReading;
+use crate::qformat::q_from_f32;
 use crate::record::{BufferTooSmall, FormatError, RecordType};
 use crate::units::Unit;
 
@@ -631,7 +631,7 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
         let want = c.calibration.correct_raw(codes[i], 2100).and_then(|r| c.layers.apply_fixed(&r));
         assert_eq!(got[i], want, "channel {i}");
     }
-    assert_eq!(got[2], Err(crate::calibration::temperature_out_of_range_millicelsius(30_000)));
+    assert_eq!(got[2], Err(crate::Error::TemperatureOutOfRange { millicelsius: 30_000 }));
     assert!(got[0].is_ok() && got[1].is_ok());
     // m°C and θ give the same cycle; a sensor fault stops the cycle.
     assert_eq!(bank.cycle_from_millicelsius(30_000).unwrap(), cycle);
@@ -703,15 +703,6 @@ fn a_layered_corrector_gives_the_cycle_trimmed_blank_relative_values() {
         let want = Corrector::correct(&cal, m, 25.0).map(|r| layers.apply(&r));
         assert_eq!(Corrector::correct(&c, m, 25.0), want);
     }
-}
-
-#[test]
-fn millicelsius_rounds_and_refuses_non_finite() {
-    assert_eq!(millicelsius(25.0), Ok(25_000));
-    assert_eq!(millicelsius(-0.0004), Ok(0));
-    assert_eq!(millicelsius(-12.3456), Ok(-12_346));
-    assert_eq!(millicelsius(f32::NAN), Err(crate::Error::NonFinite));
-    assert!(matches!(millicelsius(3.0e6), Err(crate::Error::TemperatureOutOfRange { .. })));
 }
 
 #[test]

@@ -47,11 +47,11 @@
 
 use super::header::{self, Codec, RecordError, RecordInfo, RecordValueError};
 use super::layout::{self, trim as tl};
-use super::qconv::{f32_from_q, q_from_f32};
 use super::FieldError;
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
+use crate::qformat::{f32_from_q, q_from_f32, round_shr};
 use crate::record::frame::{Extent, Framing, Reader, Writer};
 use crate::record::{BufferTooSmall, RecordType};
 
@@ -528,15 +528,6 @@ impl Codec for Trim {
     fn header(&self) -> RecordInfo {
         self.parts.info
     }
-}
-
-/// `round(x / 2^n)`, halves up, saturating.
-#[deny(clippy::float_arithmetic)]
-fn round_shr(x: i64, n: u32) -> i64 {
-    if n == 0 {
-        return x;
-    }
-    x.saturating_add(1 << (n - 1)) >> n
 }
 
 /// `round(n / d)`, halves away from zero, for d ≠ 0 (`None` for d = 0).

@@ -1,5 +1,5 @@
-//! Uniform cubic B-spline evaluation in integer arithmetic: the basis weights, the 4-tap sums and the
-//! shift helpers every stage of the fixed path shares.
+//! Uniform cubic B-spline evaluation in integer arithmetic: the basis weights and the 4-tap sums every
+//! stage of the fixed path shares (the rounding shifts are the crate's, in [`crate::qformat`]).
 //!
 //! A uniform cubic B-spline with control points `c_k` has, on segment `s` at fraction `t ∈ [0, 1]`, the value
 //! `Σ_{k=0..3} B_k(t)·c_{s+k}` with `B_0 = (1−t)³/6`, `B_1 = (3t³ − 6t² + 4)/6`, `B_2 = (−3t³ + 3t² + 3t + 1)/6`,
@@ -14,6 +14,8 @@
 //! Bounds (why nothing overflows for any stored value): `t ≤ 2^20`, so `t·t ≤ 2^40` and `t²·t ≤ 2^48`
 //! before their shifts; the weights are positive and sum to 6·2^28 < 2^30.6, so a weighted sum of stored
 //! i32 values is below 2^61.6 in magnitude and of i16 values below 2^45.6.
+
+use crate::qformat::round_shr_small;
 
 /// Fraction bits of the basis weights.
 pub(crate) const W_BITS: u32 = 28;
@@ -41,38 +43,6 @@ pub(crate) fn weights_in(t: i64) -> [i64; 4] {
     // 3t³ − 6t² + 4 is in [1, 4] on [0, 1].
     let w1 = 3 * t3 - 6 * t2 + (4 << W_BITS);
     [s3, w1, (6 << W_BITS) - s3 - w1 - t3, t3]
-}
-
-/// `x / 2^n` rounded to nearest (ties up) for `|x| < 2^62` and `1 ≤ n ≤ 62` (the spline sums).
-#[inline(always)]
-pub(crate) fn round_shr_small(x: i64, n: u32) -> i64 {
-    (x + (1 << (n - 1))) >> n
-}
-
-/// `x / 2^n` rounded to nearest (ties up), `n` clamped to 0..=62. Saturates instead of overflowing.
-#[inline(always)]
-pub(crate) fn round_shr(x: i64, n: u32) -> i64 {
-    let n = n.min(62);
-    if n == 0 {
-        return x;
-    }
-    x.saturating_add(1 << (n - 1)) >> n
-}
-
-/// `x · 2^n` for `n` clamped to 0..=62, saturating.
-#[inline(always)]
-pub(crate) fn sat_shl(x: i64, n: u32) -> i64 {
-    x.saturating_mul(1i64 << n.min(62))
-}
-
-/// Moves a value from `from` to `to` fraction bits (rounding when bits are dropped, saturating when added).
-#[inline(always)]
-pub(crate) fn rescale(x: i64, from: u32, to: u32) -> i64 {
-    if from >= to {
-        round_shr(x, from - to)
-    } else {
-        sat_shl(x, to - from)
-    }
 }
 
 /// Σ wₖ·cₖ of four weights and four stored values (below 2^61.6 in magnitude: see the module docs).
@@ -134,20 +104,6 @@ mod tests {
         // Out-of-range fractions clamp instead of overflowing.
         assert_eq!(weights(i64::MIN), weights(0));
         assert_eq!(weights(i64::MAX), weights(ONE));
-    }
-
-    #[test]
-    fn shifts_round_and_saturate() {
-        assert_eq!(round_shr(5, 1), 3);
-        assert_eq!(round_shr(-5, 1), -2);
-        assert_eq!(round_shr(-6, 2), -1);
-        assert_eq!(round_shr(i64::MAX, 3), i64::MAX >> 3);
-        assert_eq!(round_shr(7, 200), 0);
-        assert_eq!(sat_shl(-3, 2), -12);
-        assert_eq!(sat_shl(i64::MAX / 2, 3), i64::MAX);
-        assert_eq!(sat_shl(i64::MIN / 2, 300), i64::MIN);
-        assert_eq!(rescale(3 << 10, 10, 2), 3 << 2);
-        assert_eq!(rescale(3, 2, 10), 3 << 8);
     }
 
     #[test]

@@ -25,8 +25,8 @@
 //! 6. [`FixedReading::value`] turns x into any [`Unit`] (`e^x` for the linear units from [`transcend`]).
 //!
 //! Steps 2–3 depend on the temperature only: [`FixedCalibration::correct`] does everything per call;
-//! a firmware that reads the temperature less often than the log channel computes a [`TemperatureStage`]
-//! (or a [`RowStage`], which also collapses the residual over temperature) per temperature reading and
+//! a firmware that reads the temperature less often than the log channel computes a [`FixedStage`]
+//! (or a [`FixedRowStage`], which also collapses the residual over temperature) per temperature reading and
 //! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample; a
 //! [`StageCache`] does that bookkeeping itself, rebuilding its row stage only when the temperature code (or
 //! m°C value) changes. All of them give bit-identical results, errors included. (A row stage also turns the
@@ -59,7 +59,7 @@
 //! | [`universal::BEND`] G control points | i32 | Q24 Np / 6 |
 //! | [`universal::EXP2`] 2^(j/32) | i32 | Q30 |
 //! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 36 |
-//! | residual columns collapsed over T | i64 (i32 in a [`RowStage`]) | Np · 2^(`residual_frac` + 13) / 6 |
+//! | residual columns collapsed over T | i64 (i32 in a [`FixedRowStage`]) | Np · 2^(`residual_frac` + 13) / 6 |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
 //!
@@ -93,17 +93,15 @@ pub mod universal;
 #[cfg(test)]
 mod tests;
 
-use crate::calibration::temperature_out_of_range_millicelsius;
 use crate::error::{CalibrationDefect, Error, SensorFault};
+use crate::qformat::{millicelsius_of_theta, rescale, round_shr, round_shr_small};
 use crate::units::Unit;
-use interp::{
-    dot4, four_i16, rescale, round_shr, round_shr_small, segment, spline1, weights, POS_FRAC, W_BITS,
-};
+use interp::{dot4, four_i16, segment, spline1, weights, POS_FRAC, W_BITS};
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
 pub const LAYOUT_VERSION: u8 = 1;
-/// Fraction bits of θ relative to m°C (θ = m°C · 2^10).
-pub const THETA_FRAC: u32 = 10;
+/// Fraction bits of θ relative to m°C (θ = m°C · 2^10), from the crate's Q formats.
+pub use crate::qformat::THETA_FRAC;
 /// Fraction bits of every quantity in nepers (u, x̃, x, λ, u_min, the bend table).
 pub const X_FRAC: u32 = 24;
 /// Fraction bits of a knot position (segment = position >> 20).
@@ -214,12 +212,14 @@ pub struct FixedCalibration<'a> {
     pub sensor: Option<SensorTable<'a>>,
 }
 
-/// The temperature-dependent part of a correction, computed once per temperature
-/// ([`FixedCalibration::stage_millicelsius`], [`FixedCalibration::stage_code`]) and reusable for any number
-/// of log codes at that temperature ([`FixedCalibration::correct_staged`]).
+/// The fixed-point temperature stage: the temperature-dependent part of a correction, computed once per
+/// temperature ([`FixedCalibration::stage_millicelsius`], [`FixedCalibration::stage_code`]) and reusable for
+/// any number of log codes at that temperature ([`FixedCalibration::correct_staged`]). It holds the
+/// temperature's segment and spline weights on the grid and the offset, inverse slope, bias floor and
+/// sensitivity limit there.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct TemperatureStage {
+pub struct FixedStage {
     extrapolated: bool,
     seg: usize,
     w: [i64; 4],
@@ -229,22 +229,22 @@ pub struct TemperatureStage {
     u_min: i64,
 }
 
-impl TemperatureStage {
+impl FixedStage {
     /// The temperature lies outside the calibrated range, within the allowed extrapolation.
     pub fn extrapolated(&self) -> bool {
         self.extrapolated
     }
 }
 
-/// Capacity of a [`RowStage`]: residual grids of up to `ROW_CAPACITY − 2` x̃ knots.
+/// Capacity of a [`FixedRowStage`]: residual grids of up to `ROW_CAPACITY − 2` x̃ knots.
 pub const ROW_CAPACITY: usize = 66;
 
-/// A [`TemperatureStage`] with the residual collapsed over temperature for every x̃ column
+/// A [`FixedStage`] with the residual collapsed over temperature for every x̃ column
 /// ([`FixedCalibration::row_stage`]), for [`FixedCalibration::correct_row`]. 280 bytes, no heap.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct RowStage {
-    stage: TemperatureStage,
+pub struct FixedRowStage {
+    stage: FixedStage,
     fast: Option<RowFast>,
     row: [i32; ROW_CAPACITY],
     len: usize,
@@ -272,7 +272,7 @@ struct RowFast {
 }
 
 impl RowFast {
-    fn new(h: &FixedHeader, stage: &TemperatureStage) -> Option<RowFast> {
+    fn new(h: &FixedHeader, stage: &FixedStage) -> Option<RowFast> {
         let knots = usize::from(h.xa_knots);
         if knots < 2 {
             return None;
@@ -371,7 +371,7 @@ impl ResidualScale {
 
 impl LinearStep {
     /// The step at a stage, or `None` where only the general (saturating) form is exact.
-    fn new(h: &FixedHeader, stage: &TemperatureStage) -> Option<LinearStep> {
+    fn new(h: &FixedHeader, stage: &FixedStage) -> Option<LinearStep> {
         let qo = u32::from(h.offset_frac).min(30);
         let qs = u32::from(h.inv_slope_frac).min(62);
         // Only right shifts (from ≥ 24 fraction bits) have a plain form; n is clamped as in `round_shr`.
@@ -396,14 +396,14 @@ impl LinearStep {
     }
 }
 
-impl RowStage {
+impl FixedRowStage {
     /// The temperature lies outside the calibrated range, within the allowed extrapolation.
     pub fn extrapolated(&self) -> bool {
         self.stage.extrapolated
     }
 }
 
-/// A fixed calibration with the [`RowStage`] of the last temperature it was given: the per-sample path of a
+/// A fixed calibration with the [`FixedRowStage`] of the last temperature it was given: the per-sample path of a
 /// firmware whose temperature moves slowly next to its log channel. A new temperature code (or m°C value)
 /// builds the stage (about the work of ten samples); the same one reuses it, so a sample costs the log
 /// channel's work alone. Results are bit-identical to [`FixedCalibration::correct_raw`] and
@@ -417,7 +417,7 @@ pub struct StageCache<'a> {
     cal: FixedCalibration<'a>,
     /// The kept stage's temperature: a temperature code, or `1 << 32 | m°C as u32`; [`NO_KEY`] when empty.
     key: u64,
-    row: RowStage,
+    row: FixedRowStage,
     /// Lowest and highest code outside the rail margins: the one range check of a sample.
     code_lo: u32,
     code_hi: u32,
@@ -427,8 +427,8 @@ pub struct StageCache<'a> {
 const NO_KEY: u64 = u64::MAX;
 
 /// A row stage that is never read (the cache starts with [`NO_KEY`]).
-const EMPTY_ROW: RowStage = RowStage {
-    stage: TemperatureStage {
+const EMPTY_ROW: FixedRowStage = FixedRowStage {
+    stage: FixedStage {
         extrapolated: false,
         seg: 0,
         w: [0; 4],
@@ -621,25 +621,24 @@ impl<'a> FixedCalibration<'a> {
 
     /// The temperature stage at a temperature in m°C.
     #[inline(always)]
-    pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<TemperatureStage, Error> {
+    pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<FixedStage, Error> {
         self.stage_theta(i64::from(temp_mc) << THETA_FRAC)
     }
 
     /// The temperature stage at the temperature channel's code.
     #[inline(always)]
-    pub fn stage_code(&self, temp_code: u32) -> Result<TemperatureStage, Error> {
+    pub fn stage_code(&self, temp_code: u32) -> Result<FixedStage, Error> {
         let theta = self.theta_from_code(temp_code)?;
         self.stage_theta(i64::from(theta))
     }
 
     /// The temperature stage at θ (Q10 m°C).
     #[inline(always)]
-    pub fn stage_theta(&self, theta: i64) -> Result<TemperatureStage, Error> {
+    pub fn stage_theta(&self, theta: i64) -> Result<FixedStage, Error> {
         let h = &self.header;
         if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
-            // The temperature in m°C for the error (clamped to i32 only for θ far beyond any sensor).
-            let mc = round_shr(theta, THETA_FRAC).clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
-            return Err(temperature_out_of_range_millicelsius(mc));
+            // The temperature in m°C for the error (saturated at the i32 ends only for θ far beyond any sensor).
+            return Err(Error::TemperatureOutOfRange { millicelsius: millicelsius_of_theta(theta) });
         }
         let extrapolated = theta < i64::from(h.temp_min) || theta > i64::from(h.temp_max);
         let pos = (theta - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT;
@@ -650,12 +649,12 @@ impl<'a> FixedCalibration<'a> {
         let ln_bias = if h.bias_bend { spline1(self.ln_bias, seg, &w).ok_or(BAD_TABLE)? } else { 0 };
         let u_min =
             if h.sensitivity_limit { spline1(self.u_min, seg, &w).ok_or(BAD_TABLE)? } else { i64::MIN };
-        Ok(TemperatureStage { extrapolated, seg, w, offset, inv_slope, ln_bias, u_min })
+        Ok(FixedStage { extrapolated, seg, w, offset, inv_slope, ln_bias, u_min })
     }
 
     /// The log-channel part of a correction at a temperature stage. The code is checked again (cheap).
     #[inline(always)]
-    pub fn correct_staged(&self, stage: &TemperatureStage, code: u32) -> Result<FixedReading, Error> {
+    pub fn correct_staged(&self, stage: &FixedStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         let x = self.x_q24(stage, code, None)?;
         Ok(FixedReading { x, temperature_extrapolated: stage.extrapolated })
@@ -664,7 +663,7 @@ impl<'a> FixedCalibration<'a> {
     /// Residual columns `col..col + 4` collapsed over the stage's temperature:
     /// `(Σ_k w_k · r[seg + k][col + i]) >> (28 − 13)`, each below 2^30.6 (weights sum to 6·2^28, i16 values).
     #[inline(always)]
-    fn columns(&self, stage: &TemperatureStage, col: usize) -> Result<[i64; 4], Error> {
+    fn columns(&self, stage: &FixedStage, col: usize) -> Result<[i64; 4], Error> {
         let stride = usize::from(self.header.xa_knots) + 2;
         // The four rows' windows start at `first + k·stride`; one slice holds all of them.
         let first = stage.seg.checked_mul(stride).and_then(|j| j.checked_add(col)).ok_or(BAD_TABLE)?;
@@ -688,14 +687,14 @@ impl<'a> FixedCalibration<'a> {
     /// the temperature less often than the log channel builds one per temperature reading). Results are
     /// bit-identical to [`FixedCalibration::correct_staged`]. [`Error::InvalidCalibration`] when the grid has
     /// more than [`ROW_CAPACITY`] − 2 knots.
-    pub fn row_stage(&self, stage: &TemperatureStage) -> Result<RowStage, Error> {
+    pub fn row_stage(&self, stage: &FixedStage) -> Result<FixedRowStage, Error> {
         let mut rs = EMPTY_ROW;
         self.fill_row_stage(stage, &mut rs)?;
         Ok(rs)
     }
 
     /// [`FixedCalibration::row_stage`] into a caller's row stage (no copy of its 66 columns).
-    fn fill_row_stage(&self, stage: &TemperatureStage, rs: &mut RowStage) -> Result<(), Error> {
+    fn fill_row_stage(&self, stage: &FixedStage, rs: &mut FixedRowStage) -> Result<(), Error> {
         let n = usize::from(self.header.xa_knots) + 2;
         if n > ROW_CAPACITY {
             return Err(BAD_TABLE);
@@ -723,17 +722,17 @@ impl<'a> FixedCalibration<'a> {
         Ok(())
     }
 
-    /// The log-channel part of a correction at a [`RowStage`]: bit-identical to
+    /// The log-channel part of a correction at a [`FixedRowStage`]: bit-identical to
     /// [`FixedCalibration::correct_staged`] at the same stage, with a quarter of the residual's work.
     #[inline(always)]
-    pub fn correct_row(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
+    pub fn correct_row(&self, rs: &FixedRowStage, code: u32) -> Result<FixedReading, Error> {
         self.check_code(code)?;
         self.correct_row_checked(rs, code)
     }
 
     /// [`FixedCalibration::correct_row`] for a code already checked.
     #[inline(always)]
-    fn correct_row_checked(&self, rs: &RowStage, code: u32) -> Result<FixedReading, Error> {
+    fn correct_row_checked(&self, rs: &FixedRowStage, code: u32) -> Result<FixedReading, Error> {
         let x = match &rs.fast {
             Some(f) => f.x(&rs.row, code)?,
             None => {
@@ -751,7 +750,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// u = (code − O(T))/S(T) in Q24 for a checked code, clamped to ±2^31 (any table content).
     #[inline(always)]
-    fn u_q24(&self, stage: &TemperatureStage, code: u32) -> i64 {
+    fn u_q24(&self, stage: &FixedStage, code: u32) -> i64 {
         let h = &self.header;
         let qo = u32::from(h.offset_frac).min(30);
         let qs = u32::from(h.inv_slope_frac).min(62);
@@ -762,7 +761,7 @@ impl<'a> FixedCalibration<'a> {
 
     /// x in Q24 at a temperature stage for a checked code.
     #[inline(always)]
-    fn x_q24(&self, stage: &TemperatureStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
+    fn x_q24(&self, stage: &FixedStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
         self.x_from_u(stage, self.u_q24(stage, code), row, ResidualScale::of(&self.header))
     }
 
@@ -770,7 +769,7 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     fn x_from_u(
         &self,
-        stage: &TemperatureStage,
+        stage: &FixedStage,
         u: i64,
         row: Option<&[i32]>,
         scale: ResidualScale,

@@ -5,13 +5,17 @@
 use std::vec;
 
 use super::*;
-use crate::calibration::temperature_out_of_range_millicelsius as t_err;
 
 const Q24: i64 = 1 << 24;
 /// The x range's ends: 27306 codes from the centre.
 const X_LIM: i32 = 27306 * 3072;
 
 use crate::test_units::{linear_fixed as linear, LinearFixed as Owned};
+
+/// The error of a temperature outside the calibrated range, given in m°C.
+fn t_err(millicelsius: i32) -> Error {
+    Error::TemperatureOutOfRange { millicelsius }
+}
 
 fn x_of(code: u32) -> i32 {
     ((i64::from(code) - 32769) * 3072) as i32

