@@ -21,9 +21,11 @@
 //! | [`rtd`] | platinum RTDs (Pt100, Pt1000, any R₀) by Callendar–Van Dusen with the IEC 60751 coefficients |
 //! | [`divider`] | ADC code → sensor resistance for a ratiometric divider, with open/short detection |
 //! | [`sensor`] | the temperature channel of a unit: element behind a divider, code → °C |
-//! | [`image`] | per-unit calibration images: binary layout, checked parsing, writing, A/B slots |
+//! | [`record`] | what every stored record shares: the layout vocabulary, the framing (magic, version, length, CRC-32), checked reading and writing, the A/B slot rule |
+//! | [`image`] | per-unit calibration images on that framing: their layout, sections and value checks, loading the fixed tables, A/B slots |
 //! | [`fixed`] | the integer fixed-point correction from host-generated tables, for cores without an FPU |
-//! | [`field`] | field layers over the factory calibration: blank referencing, trims against standards, several channels |
+//! | [`path`] | the f32 and fixed correction paths behind one trait, for code that serves both |
+//! | [`field`] | field layers over the factory calibration: blank and trim records on the same framing, trims against standards, banks of channels |
 //!
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0),
@@ -51,8 +53,10 @@ pub mod fixed;
 pub mod hal;
 pub mod image;
 pub mod math;
+pub mod path;
 pub mod physics;
 pub mod qformat;
+pub mod record;
 pub mod rtd;
 pub mod sensor;
 pub mod thermistor;

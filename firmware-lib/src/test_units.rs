@@ -47,7 +47,7 @@ pub(crate) const LINEAR_X_LIM: i32 = 27306 * 3072;
 
 /// A linear unit: x = (code − 32769)·6/32768 Np at every temperature (values whose control points divide
 /// by 6 exactly), −5…55 °C accepted, 0…50 °C calibrated, x in ±27306·6/32768 Np (about ±5 Np), a
-/// temperature channel with θ = 15 m°C per code from code 100 to 4000.
+/// temperature channel with θ = 15 m°C per code from code 100 to 4000. Owned tables, for tests to change.
 pub(crate) struct LinearFixed {
     pub(crate) header: FixedHeader,
     pub(crate) offset: Vec<i32>,
@@ -55,33 +55,58 @@ pub(crate) struct LinearFixed {
     pub(crate) ln_bias: Vec<i32>,
     pub(crate) u_min: Vec<i32>,
     pub(crate) residual: Vec<i16>,
+    /// The sensor table's control points ([`sensor_table`]).
     pub(crate) sensor: Vec<i32>,
+    /// Whether the view has the sensor table.
+    pub(crate) has_sensor: bool,
+}
+
+/// The header of [`linear_fixed`]: 16-bit converter with a rail margin of 16, 0…50 °C calibrated and
+/// −5…55 °C accepted, 4 temperature knots 20 K apart from −5 °C, 5 x̃ knots 4.5 Np apart from −9 Np, no bias
+/// bend, no sensitivity limit, x in ±[`LINEAR_X_LIM`].
+pub(crate) const LINEAR_HEADER: FixedHeader = FixedHeader {
+    layout: LAYOUT_VERSION,
+    adc_max_code: 65535,
+    rail_margin: 16,
+    temp_min: 0,
+    temp_max: 50_000 * 1024,
+    temp_lo: -5_000 * 1024,
+    temp_hi: 55_000 * 1024,
+    t_knots: 4,
+    t_origin: -5_000 * 1024,
+    t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
+    offset_frac: 14,
+    inv_slope_frac: 42,
+    bias_bend: false,
+    sensitivity_limit: false,
+    xa_knots: 5,
+    xa_origin: -9 * (1 << 24),
+    xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
+    residual_frac: 16,
+    x_min: -LINEAR_X_LIM,
+    x_max: LINEAR_X_LIM,
+};
+
+/// A temperature-sensor table over codes 100…4000 in 256-code steps (`knots`: 19 control points), the model's
+/// range beyond them, a short below code 10 and an open circuit above 4090.
+pub(crate) fn sensor_table(knots: &[i32]) -> SensorTable<'_> {
+    SensorTable {
+        code_lo: 100,
+        code_hi: 4000,
+        step_log2: 8,
+        fault_below: SensorFault::OutOfModelRange,
+        far_below_code: 10,
+        fault_far_below: SensorFault::Short,
+        fault_above: SensorFault::OutOfModelRange,
+        far_above_code: 4090,
+        fault_far_above: SensorFault::Open,
+        knots,
+    }
 }
 
 /// The linear fixed-point unit (see [`LinearFixed`]).
 pub(crate) fn linear_fixed() -> LinearFixed {
-    let header = FixedHeader {
-        layout: LAYOUT_VERSION,
-        adc_max_code: 65535,
-        rail_margin: 16,
-        temp_min: 0,
-        temp_max: 50_000 * 1024,
-        temp_lo: -5_000 * 1024,
-        temp_hi: 55_000 * 1024,
-        t_knots: 4,
-        t_origin: -5_000 * 1024,
-        t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
-        offset_frac: 14,
-        inv_slope_frac: 42,
-        bias_bend: false,
-        sensitivity_limit: false,
-        xa_knots: 5,
-        xa_origin: -9 * (1 << 24),
-        xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
-        residual_frac: 16,
-        x_min: -LINEAR_X_LIM,
-        x_max: LINEAR_X_LIM,
-    };
+    let header = LINEAR_HEADER;
     LinearFixed {
         header,
         // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
@@ -93,6 +118,7 @@ pub(crate) fn linear_fixed() -> LinearFixed {
         // θ(code) = (code − 100)·15 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)),
         // stored divided by 6.
         sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
+        has_sensor: true,
     }
 }
 
@@ -105,18 +131,7 @@ impl LinearFixed {
             ln_bias: &self.ln_bias,
             u_min: &self.u_min,
             residual: &self.residual,
-            sensor: Some(SensorTable {
-                code_lo: 100,
-                code_hi: 4000,
-                step_log2: 8,
-                fault_below: SensorFault::OutOfModelRange,
-                far_below_code: 10,
-                fault_far_below: SensorFault::Short,
-                fault_above: SensorFault::OutOfModelRange,
-                far_above_code: 4090,
-                fault_far_above: SensorFault::Open,
-                knots: &self.sensor,
-            }),
+            sensor: self.has_sensor.then(|| sensor_table(&self.sensor)),
         }
     }
 }

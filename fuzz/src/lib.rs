@@ -6,7 +6,7 @@
 use std::cell::RefCell;
 
 use logtrim::fixed::FixedCalibration;
-use logtrim::image::{self, layout, slots, FixedStorage, Image, ImageError, ImageInfo, Section, ValueError};
+use logtrim::image::{self, layout, slots, FixedStorage, Image, ImageError, ImageInfo, ImageValueError, Section};
 
 /// Storage large enough for any fixed section a 65 532-byte payload can hold (about 400 KB, allocated
 /// once per thread), so that a load can only fail on the tables' values, never on capacity.
@@ -60,7 +60,7 @@ fn accepted(img: &Image<'_>) {
                 assert!(kind == layout::fixed::KIND && img.fixed().is_none());
                 re_encode(img, None);
             }
-            Err(e) => assert!(matches!(e, ImageError::Value(ValueError::Fixed(_))), "load refused with {e:?}"),
+            Err(e) => assert!(matches!(e, ImageError::Value(ImageValueError::Fixed(_))), "load refused with {e:?}"),
         }
     });
     // Correcting with any accepted calibration never panics, at and beyond every edge.
@@ -136,7 +136,7 @@ pub fn check_image_with_valid_crc(data: &[u8]) {
     let total = v.len() as u32;
     v[8..12].copy_from_slice(&total.to_le_bytes());
     let n = v.len() - 4;
-    let crc = image::crc32(&v[..n]);
+    let crc = logtrim::record::crc32(&v[..n]);
     v[n..].copy_from_slice(&crc.to_le_bytes());
     check_image(&v);
 }

@@ -52,7 +52,7 @@ pub enum BlankError {
         /// The file.
         path: String,
         /// firmware-lib's verdict.
-        error: field::ValueError,
+        error: field::RecordValueError,
     },
     /// The calibration cannot be fingerprinted (it cannot be stored as an image).
     #[error("the calibration cannot be stored as an image to fingerprint it: {0:?}")]
@@ -93,7 +93,8 @@ pub fn compute(
     let blank = Blank::new(BlankParts {
         info,
         x: x_mean as f32,
-        x_q24: i32::try_from(q_mean).map_err(|_| value(field::ValueError::OutOfRange { field: "x_q24" }))?,
+        x_q24: i32::try_from(q_mean)
+            .map_err(|_| value(field::RecordValueError::OutOfRange { field: "x_q24" }))?,
         temp_mc: (temp_c * 1000.0).round() as i32,
         samples: u32::try_from(n).unwrap_or(u32::MAX),
     })

@@ -120,7 +120,7 @@ pub enum TrimError {
         /// The file.
         path: String,
         /// firmware-lib's verdict.
-        error: field::ValueError,
+        error: field::RecordValueError,
     },
     /// The calibration cannot be fingerprinted (it cannot be stored as an image).
     #[error("the calibration cannot be stored as an image to fingerprint it: {0:?}")]

@@ -7,6 +7,7 @@ use dyeline::boot::{self, Mismatch};
 use dyeline::dye::{self, DyeError};
 use dyeline::temperature;
 use logtrim::image::{self, ImageError, ImageInfo};
+use logtrim::record::FormatError;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::data::{read_readings_file, ReadOptions};
 use logtrim_host::image_file;
@@ -146,9 +147,9 @@ fn the_committed_image_inspects_clean_and_is_the_calibration_files() {
 fn a_bad_eeprom_is_refused_at_boot() {
     let mut flipped = EEPROM.to_vec();
     flipped[120] ^= 0x10;
-    assert!(matches!(boot::load(&flipped), Err(ImageError::CrcMismatch { .. })));
-    assert!(matches!(boot::load(&[0xff; 268]), Err(ImageError::BadMagic { .. })));
-    assert!(matches!(boot::load(&EEPROM[..200]), Err(ImageError::Truncated { .. })));
+    assert!(matches!(boot::load(&flipped), Err(ImageError::Format(FormatError::CrcMismatch { .. }))));
+    assert!(matches!(boot::load(&[0xff; 268]), Err(ImageError::Format(FormatError::BadMagic { .. }))));
+    assert!(matches!(boot::load(&EEPROM[..200]), Err(ImageError::Format(FormatError::Truncated { .. }))));
 }
 
 #[test]

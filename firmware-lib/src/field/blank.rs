@@ -12,24 +12,19 @@
 //! that value converted ([`Blank::from_reading`], [`Blank::from_fixed`], integer conversions only). The two
 //! must agree within 2^-10 Np (≈ 0.004 dB), which any two readings of one blank do by far.
 
-use super::layout::{self, blank as bl, header};
-use super::record::{self, Extent, RecordError, RecordInfo, RecordType, Spec, ValueError, WriteError};
+use super::header::{self, Codec, RecordError, RecordInfo, RecordValueError};
+use super::layout::{self, blank as bl};
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
 use crate::qformat::{f32_from_q, q_from_f32};
+use crate::record::frame::{Extent, Framing, Reader, Writer};
+use crate::record::{BufferTooSmall, RecordType};
 
 /// How far the f32 and Q24 forms of one x may differ, Q24 units (2^-10 Np).
 pub(super) const AGREEMENT_Q24: i64 = 1 << 14;
 /// The largest |x| a record holds, Np (the fixed path's calibrated x range is bounded to ±100 Np).
 pub(super) const MAX_ABS_X_NP: i64 = 100;
-
-const SPEC: Spec = Spec {
-    ty: RecordType::Blank,
-    magic: bl::MAGIC_VALUE,
-    version: bl::VERSION_VALUE,
-    len: layout::BLANK_LEN,
-};
 
 /// Every field of a blank record, unchecked: what [`Blank::new`] checks.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -63,17 +58,17 @@ pub(super) fn check_x(
     q: i32,
     f32_field: &'static str,
     q_field: &'static str,
-) -> Result<(), ValueError> {
-    let from_f32 = q_from_f32(x, X_FRAC).ok_or(ValueError::NonFinite { field: f32_field })?;
+) -> Result<(), RecordValueError> {
+    let from_f32 = q_from_f32(x, X_FRAC).ok_or(RecordValueError::NonFinite { field: f32_field })?;
     let bound = MAX_ABS_X_NP << X_FRAC;
     if from_f32.abs() > bound {
-        return Err(ValueError::OutOfRange { field: f32_field });
+        return Err(RecordValueError::OutOfRange { field: f32_field });
     }
     if i64::from(q).abs() > bound {
-        return Err(ValueError::OutOfRange { field: q_field });
+        return Err(RecordValueError::OutOfRange { field: q_field });
     }
     if (from_f32 - i64::from(q)).abs() > AGREEMENT_Q24 {
-        return Err(ValueError::Inconsistent { field: q_field });
+        return Err(RecordValueError::Inconsistent { field: q_field });
     }
     Ok(())
 }
@@ -82,10 +77,10 @@ impl Blank {
     /// The one checked constructor: x finite and within ±100 Np in both forms, the two forms within 2^-10
     /// Np of each other, at least one sample. Integer arithmetic only.
     #[deny(clippy::float_arithmetic)]
-    pub fn new(parts: BlankParts) -> Result<Blank, ValueError> {
+    pub fn new(parts: BlankParts) -> Result<Blank, RecordValueError> {
         check_x(parts.x, parts.x_q24, bl::X_F32.name, bl::X_Q24.name)?;
         if parts.samples == 0 {
-            return Err(ValueError::NoSamples);
+            return Err(RecordValueError::NoSamples);
         }
         Ok(Blank { parts })
     }
@@ -97,44 +92,25 @@ impl Blank {
         reading: &Reading,
         temp_mc: i32,
         samples: u32,
-    ) -> Result<Blank, ValueError> {
-        let q = q_from_f32(reading.x, X_FRAC).ok_or(ValueError::NonFinite { field: bl::X_F32.name })?;
-        let x_q24 = i32::try_from(q).map_err(|_| ValueError::OutOfRange { field: bl::X_Q24.name })?;
+    ) -> Result<Blank, RecordValueError> {
+        let q = q_from_f32(reading.x, X_FRAC).ok_or(RecordValueError::NonFinite { field: bl::X_F32.name })?;
+        let x_q24 = i32::try_from(q).map_err(|_| RecordValueError::OutOfRange { field: bl::X_Q24.name })?;
         Blank::new(BlankParts { info, x: reading.x, x_q24, temp_mc, samples })
     }
 
-    /// Parses exactly one blank record (see [the order of the checks](super::record#order-of-the-checks)).
+    /// Parses exactly one blank record (see [the order of the checks](super::header#order-of-the-checks)).
     pub fn parse(bytes: &[u8]) -> Result<Blank, RecordError> {
-        Blank::parse_extent(bytes, Extent::Exact).map(|(b, _)| b)
+        header::parse(bytes, Extent::Exact).map(|(b, _)| b)
     }
 
     /// Parses a blank record at the start of `bytes` and returns the bytes after it, unchecked.
     pub fn parse_prefix(bytes: &[u8]) -> Result<(Blank, &[u8]), RecordError> {
-        Blank::parse_extent(bytes, Extent::Prefix)
-    }
-
-    fn parse_extent(bytes: &[u8], extent: Extent) -> Result<(Blank, &[u8]), RecordError> {
-        let framed = record::frame(bytes, &SPEC, extent)?;
-        let r = record::Reader { bytes: framed.bytes };
-        let parts = BlankParts {
-            info: framed.info,
-            x: r.f32(&bl::X_F32)?,
-            x_q24: r.i32(&bl::X_Q24)?,
-            temp_mc: r.i32(&bl::TEMP_MC)?,
-            samples: r.u32(&bl::SAMPLES)?,
-        };
-        Ok((Blank::new(parts)?, framed.rest))
+        header::parse(bytes, Extent::Prefix)
     }
 
     /// Writes the record at the start of `buf` ([`layout::BLANK_LEN`] bytes) and returns its length.
-    pub fn write(&self, buf: &mut [u8]) -> Result<usize, WriteError> {
-        let p = &self.parts;
-        record::write_record(buf, &SPEC, &p.info, |w| {
-            w.put(&bl::X_F32, &p.x.to_le_bytes());
-            w.put(&bl::X_Q24, &p.x_q24.to_le_bytes());
-            w.put(&bl::TEMP_MC, &p.temp_mc.to_le_bytes());
-            w.put(&bl::SAMPLES, &p.samples.to_le_bytes());
-        })
+    pub fn write(&self, buf: &mut [u8]) -> Result<usize, BufferTooSmall> {
+        header::write(self, buf)
     }
 
     /// The record as bytes.
@@ -186,7 +162,7 @@ impl Blank {
         reading: &FixedReading,
         temp_mc: i32,
         samples: u32,
-    ) -> Result<Blank, ValueError> {
+    ) -> Result<Blank, RecordValueError> {
         let x = f32_from_q(i64::from(reading.x), X_FRAC);
         Blank::new(BlankParts { info, x, x_q24: reading.x, temp_mc, samples })
     }
@@ -215,4 +191,31 @@ pub(super) fn q24_of(v: i64) -> Result<i32, Error> {
     i32::try_from(v).map_err(|_| if v > 0 { Error::AboveRange } else { Error::BelowRange })
 }
 
-const _: () = assert!(bl::X_F32.offset == header::END);
+impl Codec for Blank {
+    const FRAMING: Framing = header::framing(RecordType::Blank, bl::VERSION_VALUE, layout::BLANK_LEN);
+
+    fn decode(r: &Reader<'_, RecordError>, info: RecordInfo) -> Result<Blank, RecordError> {
+        let parts = BlankParts {
+            info,
+            x: r.f32(&bl::X_F32)?,
+            x_q24: r.i32(&bl::X_Q24)?,
+            temp_mc: r.i32(&bl::TEMP_MC)?,
+            samples: r.u32(&bl::SAMPLES)?,
+        };
+        Ok(Blank::new(parts)?)
+    }
+
+    fn encode(&self, w: &mut Writer<'_>) -> Result<(), BufferTooSmall> {
+        let p = &self.parts;
+        w.f32(&bl::X_F32, p.x)?;
+        w.i32(&bl::X_Q24, p.x_q24)?;
+        w.i32(&bl::TEMP_MC, p.temp_mc)?;
+        w.u32(&bl::SAMPLES, p.samples)
+    }
+
+    fn header(&self) -> RecordInfo {
+        self.parts.info
+    }
+}
+
+const _: () = assert!(bl::X_F32.offset == layout::header::END);

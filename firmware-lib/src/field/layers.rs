@@ -9,12 +9,12 @@
 //! returns the factory reading itself, bit for bit.
 
 use super::blank::{q24_of, Blank};
-use super::record::RecordType;
 use super::trim::{Trim, TrimLimits};
 use super::FieldError;
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::FixedReading;
+use crate::record::RecordType;
 
 /// A channel's trim and blank, checked once when installed ([`Layers::new`]) and applied to every reading.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -98,6 +98,27 @@ impl Layers {
                 Ok(FixedReading { x: q24_of(t.scale_fixed(b.difference_q24(factory)))?, ..*factory })
             }
         }
+    }
+}
+
+/// A factory reading of either correction path, as the layers take it: [`Reading`] through
+/// [`Layers::apply`], [`FixedReading`] through [`Layers::apply_fixed`].
+pub trait ThroughLayers: Sized {
+    /// The reading through `layers`.
+    fn through(&self, layers: &Layers) -> Result<Self, Error>;
+}
+
+impl ThroughLayers for Reading {
+    /// [`Layers::apply`], which cannot fail.
+    fn through(&self, layers: &Layers) -> Result<Reading, Error> {
+        Ok(layers.apply(self))
+    }
+}
+
+impl ThroughLayers for FixedReading {
+    /// [`Layers::apply_fixed`].
+    fn through(&self, layers: &Layers) -> Result<FixedReading, Error> {
+        layers.apply_fixed(self)
     }
 }
 

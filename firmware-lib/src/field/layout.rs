@@ -1,27 +1,27 @@
 //! The byte layout of the two field records, the blank and the trim, described once.
 //!
 //! Both records share a 24-byte header (magic, version, length, write counter, time, the fingerprint of
-//! the factory calibration they were made on) and end in a CRC-32. Every field is a [`Field`] constant
-//! here; the parser and the writer go through these constants, and the table in the [`field`](super)
-//! docs is rendered from them by [`write_markdown_table`] (a test keeps the two identical).
+//! the factory calibration they were made on) and end in a CRC-32. Every field is a
+//! [`Field`] constant here; the parser and the writer go through these
+//! constants, and the table in the [`field`](super) docs is rendered from them by [`write_markdown_table`]
+//! (tests hold the constants, the rendered table and the offsets the docs state to each other).
 //!
 //! All multi-byte values are little-endian; `f32` values are IEEE 754 binary32 bit patterns, `i32` two's
 //! complement.
 
 use core::fmt;
 
-// The field records are described with the image layout's own vocabulary of fields and kinds.
-pub use crate::image::layout::{Field, Kind};
+use crate::record::layout::{Field, Kind};
 
 /// The header every field record starts with.
 pub mod header {
     use super::{Field, Kind};
+    use crate::record::{magic_field, version_field};
 
     /// Magic.
-    pub const MAGIC: Field =
-        Field::first("magic", Kind::Bytes(4), "`LTBK` (blank) or `LTTM` (trim): which record this is");
+    pub const MAGIC: Field = magic_field("`LTBK` (blank) or `LTTM` (trim): which record this is");
     /// Format version.
-    pub const VERSION: Field = MAGIC.then("version", Kind::U16, "format version, 1");
+    pub const VERSION: Field = version_field("format version, 1");
     /// Total length.
     pub const LEN: Field =
         VERSION.then("len", Kind::U16, "bytes in the whole record, header to CRC inclusive");
@@ -51,13 +51,13 @@ pub mod blank {
     use super::{header, Field, Kind};
 
     /// The magic of a blank record.
-    pub const MAGIC_VALUE: [u8; 4] = *b"LTBK";
+    pub const MAGIC_VALUE: [u8; 4] = crate::record::RecordType::Blank.magic();
     /// The version this build writes and reads.
     pub const VERSION_VALUE: u16 = 1;
 
-    const START: Field = Field { name: "", offset: header::END, kind: Kind::Bytes(0), doc: "" };
     /// Blank x for the f32 path.
-    pub const X_F32: Field = START.then(
+    pub const X_F32: Field = Field::at(
+        header::END,
         "x_f32",
         Kind::F32,
         "x at the blank as the f32 path reads it (factory, before any trim), Np",
@@ -80,14 +80,13 @@ pub mod trim {
     use super::{header, Field, Kind};
 
     /// The magic of a trim record.
-    pub const MAGIC_VALUE: [u8; 4] = *b"LTTM";
+    pub const MAGIC_VALUE: [u8; 4] = crate::record::RecordType::Trim.magic();
     /// The version this build writes and reads.
     pub const VERSION_VALUE: u16 = 1;
 
-    const START: Field = Field { name: "", offset: header::END, kind: Kind::Bytes(0), doc: "" };
     /// What kind of trim.
     pub const KIND: Field =
-        START.then("kind", Kind::U8, "0 cleared (factory state), 1 one-point, 2 two-point");
+        Field::at(header::END, "kind", Kind::U8, "0 cleared (factory state), 1 one-point, 2 two-point");
     /// Padding.
     pub const RESERVED: Field = KIND.then("reserved", Kind::Reserved(3), "zero");
     /// Offset, f32 path.
@@ -119,16 +118,13 @@ pub mod trim {
 
 /// The CRC that ends every field record.
 pub mod trailer {
-    use super::{Field, Kind};
+    use super::Field;
 
-    /// The CRC, placed at the offset the record's length gives (so its `offset` here is 0).
-    pub const CRC: Field = Field::first(
-        "crc32",
-        Kind::U32,
-        "CRC-32/ISO-HDLC (IEEE 802.3) of every byte before it, from offset 0",
-    );
+    /// The CRC ([`crate::record::layout::CRC`]), placed at the offset the record's length gives (so its
+    /// `offset` here is 0).
+    pub const CRC: Field = crate::record::layout::CRC;
     /// Length of the trailer.
-    pub const LEN: usize = CRC.end();
+    pub const LEN: usize = crate::record::layout::TRAILER_LEN;
 }
 
 /// Total length of a blank record, version 1.
@@ -145,25 +141,15 @@ const _: () = assert!(trim::OFFSET_F32.offset.is_multiple_of(4));
 /// Renders the two layouts as the Markdown table shown in the [`field`](super) docs.
 pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
     w.write_str("| record | offset | size | field | type | meaning |\n|---|---:|---:|---|---|---|\n")?;
-    let row = |w: &mut dyn fmt::Write, part: &str, f: &Field, offset: usize| {
-        writeln!(
-            w,
-            "| {part} | {offset} | {} | `{}` | `{}` | {} |",
-            f.size(),
-            f.name,
-            f.kind.display(),
-            f.doc
-        )
-    };
     for f in header::FIELDS {
-        row(w, "both", f, f.offset)?;
+        f.write_row(w, &"both", f.offset)?;
     }
     for f in blank::FIELDS {
-        row(w, "blank", f, f.offset)?;
+        f.write_row(w, &"blank", f.offset)?;
     }
-    row(w, "blank", &trailer::CRC, blank::END)?;
+    trailer::CRC.write_row(w, &"blank", blank::END)?;
     for f in trim::FIELDS {
-        row(w, "trim", f, f.offset)?;
+        f.write_row(w, &"trim", f.offset)?;
     }
-    row(w, "trim", &trailer::CRC, trim::END)
+    trailer::CRC.write_row(w, &"trim", trim::END)
 }

@@ -7,9 +7,9 @@
 //! | [`blank`] | [`Blank`]: the reading of a blank and readings relative to it, `x − x_blank` |
 //! | [`trim`] | [`Trim`]: one- and two-point trims `x' = g·x + o`, their computation from standards, [`TrimLimits`] |
 //! | [`layers`] | [`Layers`]: a channel's trim and blank, applied in that order to factory readings; `Layered`, a measurement cycle's corrector with them (feature `hal`) |
-//! | [`channels`] | [`Bank`] and [`FixedBank`]: several channels, one temperature conversion (and stage) per cycle |
-//! | [`record`] | the records' shared header and framing checks, and their errors |
-//! | [`slots`] | two-slot (A/B) storage of a record: [`slots::select`] and [`slots::next_write`] |
+//! | [`channels`] | [`Bank`] of [`LogChannel`]s, either correction path: several channels, one temperature conversion and stage per cycle |
+//! | [`header`] | the records' shared header on the common framing ([`crate::record`]), and their errors |
+//! | [`slots`] | two-slot (A/B) storage of a record: [`slots::select`] and [`slots::next_write`], the rule of [`crate::record::slots`] |
 //! | [`layout`] | the records' byte layout, described once |
 //!
 //! Their fixed-point conversions (f32 ↔ Q, °C → m°C) are the crate's, in [`crate::qformat`].
@@ -37,14 +37,15 @@
 //! # Records (version 1)
 //!
 //! A blank record is [`layout::BLANK_LEN`] = 44 bytes, a trim record [`layout::TRIM_LEN`] = 60 bytes:
-//! a 24-byte header shared by both, the payload, a CRC-32/ISO-HDLC of everything before it (the `crc`
-//! crate, as for the factory image). Little-endian; f32 values stored bit-exact.
+//! a 24-byte header shared by both, the payload, a CRC-32/ISO-HDLC of everything before it (the framing
+//! of every record, [`crate::record`], as for the factory image). Little-endian; f32 values stored
+//! bit-exact.
 //!
 #![doc = include_str!("LAYOUT.md")]
 //!
 //! Every quantity is stored twice, as an f32 for the f32 path and in fixed point for the integer path,
 //! so that each path evaluates exactly its own numbers; the two must agree within 2^-10 of their unit
-//! (a check at parse time, in integer arithmetic). The checks and their order are in [`record`].
+//! (a check at parse time, in integer arithmetic). The checks and their order are in [`header`].
 //!
 //! # Example
 //!
@@ -74,9 +75,9 @@
 
 pub mod blank;
 pub mod channels;
+pub mod header;
 pub mod layers;
 pub mod layout;
-pub mod record;
 pub mod slots;
 pub mod trim;
 
@@ -86,17 +87,18 @@ mod tests;
 use core::fmt;
 
 pub use blank::{Blank, BlankParts};
-pub use channels::{Bank, BankError, Channel, Cycle, FixedBank, FixedChannel, FixedCycle};
+pub use channels::{Bank, BankError, Cycle, LogChannel};
+pub use header::{RecordError, RecordInfo, RecordValueError};
 #[cfg(feature = "hal")]
 pub use layers::Layered;
-pub use layers::Layers;
-pub use record::{RecordError, RecordInfo, RecordType, ValueError, WriteError};
+pub use layers::{Layers, ThroughLayers};
 pub use trim::{FixedStandard, Standard, Trim, TrimKind, TrimLimits, TrimParts};
 
 use crate::calibration::Calibration;
 use crate::error::Error;
 use crate::image::{layout as image_layout, Image, ImageInfo};
 use crate::qformat::f32_from_q;
+use crate::record::{RecordType, CRC32};
 
 /// Why a trim could not be computed or installed, or a layer not applied.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -140,11 +142,11 @@ pub enum FieldError {
         in_use: u32,
     },
     /// A value a record cannot carry.
-    Value(ValueError),
+    Value(RecordValueError),
 }
 
-impl From<ValueError> for FieldError {
-    fn from(e: ValueError) -> Self {
+impl From<RecordValueError> for FieldError {
+    fn from(e: RecordValueError) -> Self {
         FieldError::Value(e)
     }
 }
@@ -203,7 +205,7 @@ pub fn fingerprint(calibration: &Calibration) -> Result<u32, crate::image::Write
     // `image::write` puts the ranges section first, then the model (as its docs say).
     let r0 = header::LEN + section::HEADER_LEN;
     let m0 = r0 + ranges::LEN + section::HEADER_LEN;
-    let mut d = crate::image::CRC32.digest();
+    let mut d = CRC32.digest();
     d.update(buf.get(r0..r0 + ranges::LEN).unwrap_or(&[]));
     d.update(buf.get(m0..m0 + model_f32::LEN).unwrap_or(&[]));
     Ok(d.finalize())
@@ -212,7 +214,7 @@ pub fn fingerprint(calibration: &Calibration) -> Result<u32, crate::image::Write
 /// The fingerprint of the calibration in a checked image (equal to [`fingerprint`] of
 /// [`Image::calibration`]).
 pub fn fingerprint_of_image(image: &Image<'_>) -> u32 {
-    let mut d = crate::image::CRC32.digest();
+    let mut d = CRC32.digest();
     d.update(image.section(image_layout::ranges::KIND).unwrap_or(&[]));
     d.update(image.section(image_layout::model_f32::KIND).unwrap_or(&[]));
     d.finalize()
@@ -232,20 +234,16 @@ const _: () = {
     is_format::<FixedStandard>();
     is_format::<Layers>();
     is_format::<RecordInfo>();
-    is_format::<RecordType>();
     is_format::<RecordError>();
-    is_format::<ValueError>();
-    is_format::<WriteError>();
+    is_format::<RecordValueError>();
     is_format::<FieldError>();
-    is_format::<Bank<2>>();
-    is_format::<Channel>();
-    is_format::<Cycle>();
-    is_format::<FixedBank<'static, 2>>();
-    is_format::<FixedChannel<'static>>();
-    is_format::<FixedCycle<2>>();
+    is_format::<Bank<Calibration, 2>>();
+    is_format::<LogChannel<Calibration>>();
+    is_format::<Cycle<Calibration, 2>>();
+    is_format::<Bank<crate::fixed::FixedCalibration<'static>, 2>>();
+    is_format::<LogChannel<crate::fixed::FixedCalibration<'static>>>();
+    is_format::<Cycle<crate::fixed::FixedCalibration<'static>, 2>>();
     is_format::<BankError>();
-    is_format::<layout::Field>();
-    is_format::<layout::Kind>();
     #[cfg(feature = "hal")]
     is_format::<Layered<Calibration>>();
 };

@@ -12,6 +12,7 @@ use crate::calibration::{Reading, TemperatureRange};
 use crate::error::SensorFault;
 use crate::fixed::FixedReading;
 use crate::qformat::q_from_f32;
+use crate::record::{BufferTooSmall, FormatError, RecordType};
 use crate::units::Unit;
 
 const Q24: f64 = 16_777_216.0;
@@ -34,7 +35,7 @@ fn two_point() -> Trim {
 /// Rewrites the CRC of a record after its bytes were edited, so that the value checks are reached.
 fn recrc(bytes: &mut [u8]) {
     let n = bytes.len() - 4;
-    let crc = crate::image::crc32(&bytes[..n]);
+    let crc = crate::record::crc32(&bytes[..n]);
     bytes[n..].copy_from_slice(&crc.to_le_bytes());
 }
 
@@ -48,18 +49,6 @@ fn record_sizes() {
     assert_eq!(layout::TRIM_LEN, 60);
     assert_eq!(blank().to_bytes().len(), 44);
     assert_eq!(two_point().to_bytes().len(), 60);
-}
-
-#[test]
-fn layout_table_in_the_docs_is_rendered_from_the_constants() {
-    let mut table = std::string::String::new();
-    layout::write_markdown_table(&mut table).unwrap();
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/src/field/LAYOUT.md");
-    if std::env::var_os("LOGTRIM_BLESS").is_some() {
-        std::fs::write(path, &table).unwrap();
-    }
-    let doc = std::fs::read_to_string(path).unwrap();
-    assert_eq!(doc, table, "field/LAYOUT.md is stale: run the tests with LOGTRIM_BLESS=1 to regenerate it");
 }
 
 #[test]
@@ -91,10 +80,10 @@ fn written_bytes_sit_where_the_layout_says() {
 
 fn flip_verdict(pos: usize) -> fn(&RecordError) -> bool {
     match pos {
-        0..=3 => |e| matches!(e, RecordError::BadMagic { .. }),
-        4..=5 => |e| matches!(e, RecordError::UnsupportedVersion { .. }),
-        6..=7 => |e| matches!(e, RecordError::BadLength { .. }),
-        _ => |e| matches!(e, RecordError::CrcMismatch { .. }),
+        0..=3 => |e| matches!(e, RecordError::Format(FormatError::BadMagic { .. })),
+        4..=5 => |e| matches!(e, RecordError::Format(FormatError::UnsupportedVersion { .. })),
+        6..=7 => |e| matches!(e, RecordError::Format(FormatError::BadLength { .. })),
+        _ => |e| matches!(e, RecordError::Format(FormatError::CrcMismatch { .. })),
     }
 }
 
@@ -126,28 +115,47 @@ fn truncated_and_overlong_records_are_refused() {
     for n in 0..good.len() {
         let e = Trim::parse(&good[..n]).unwrap_err();
         let needed = if n < 8 { 24 } else { 60 };
-        assert_eq!(e, RecordError::Truncated { needed, available: n as u32 }, "{n} bytes");
+        assert_eq!(
+            e,
+            RecordError::Format(FormatError::Truncated { needed, available: n as u32 }),
+            "{n} bytes"
+        );
     }
     let mut long = good.to_vec();
     long.push(0xff);
-    assert_eq!(Trim::parse(&long), Err(RecordError::LengthMismatch { declared: 60, actual: 61 }));
+    assert_eq!(
+        Trim::parse(&long),
+        Err(RecordError::Format(FormatError::LengthMismatch { declared: 60, actual: 61 }))
+    );
     let (t, rest) = Trim::parse_prefix(&long).unwrap();
     assert_eq!((t, rest), (two_point(), &[0xffu8][..]));
     let b = blank().to_bytes();
-    assert_eq!(Blank::parse(&b[..43]), Err(RecordError::Truncated { needed: 44, available: 43 }));
+    assert_eq!(
+        Blank::parse(&b[..43]),
+        Err(RecordError::Format(FormatError::Truncated { needed: 44, available: 43 }))
+    );
 }
 
 #[test]
 fn foreign_magic_and_versions_are_refused() {
-    assert_eq!(Trim::parse(&[0xff; 60]), Err(RecordError::BadMagic { found: [0xff; 4] }));
-    assert_eq!(Blank::parse(&[0; 44]), Err(RecordError::BadMagic { found: [0; 4] }));
+    assert_eq!(
+        Trim::parse(&[0xff; 60]),
+        Err(RecordError::Format(FormatError::BadMagic { found: [0xff; 4] }))
+    );
+    assert_eq!(Blank::parse(&[0; 44]), Err(RecordError::Format(FormatError::BadMagic { found: [0; 4] })));
     assert_eq!(
         Trim::parse(&blank().to_bytes()),
-        Err(RecordError::OtherRecord { expected: RecordType::Trim, found: RecordType::Blank })
+        Err(RecordError::Format(FormatError::OtherRecord {
+            expected: RecordType::Trim,
+            found: RecordType::Blank
+        }))
     );
     assert_eq!(
         Blank::parse(&two_point().to_bytes()),
-        Err(RecordError::OtherRecord { expected: RecordType::Blank, found: RecordType::Trim })
+        Err(RecordError::Format(FormatError::OtherRecord {
+            expected: RecordType::Blank,
+            found: RecordType::Trim
+        }))
     );
     let cal = crate::Calibration::nominal(16, 32768.0, 2000.0, 25.0);
     let mut img = [0u8; crate::image::layout::F32_IMAGE_LEN];
@@ -155,18 +163,27 @@ fn foreign_magic_and_versions_are_refused() {
     crate::image::write(&mut img, &info, &cal).unwrap();
     assert_eq!(
         Blank::parse(&img),
-        Err(RecordError::OtherRecord { expected: RecordType::Blank, found: RecordType::CalibrationImage })
+        Err(RecordError::Format(FormatError::OtherRecord {
+            expected: RecordType::Blank,
+            found: RecordType::CalibrationImage
+        }))
     );
     // A version 2 record with a good CRC is refused for its version, and a length that is not the
     // version's for its length.
     let mut v2 = blank().to_bytes();
     v2[4] = 2;
     recrc(&mut v2);
-    assert_eq!(Blank::parse(&v2), Err(RecordError::UnsupportedVersion { found: 2 }));
+    assert_eq!(
+        Blank::parse(&v2),
+        Err(RecordError::Format(FormatError::UnsupportedVersion { found: 2, supported: 1 }))
+    );
     let mut len = blank().to_bytes();
     len[6] = 48;
     recrc(&mut len);
-    assert_eq!(Blank::parse(&len), Err(RecordError::BadLength { declared: 48, expected: 44 }));
+    assert_eq!(
+        Blank::parse(&len),
+        Err(RecordError::Format(FormatError::BadLength { declared: 48, min: 44, max: 44 }))
+    );
 }
 
 #[test]
@@ -180,42 +197,45 @@ fn bad_values_behind_a_good_crc_are_refused() {
     let nan = f32::NAN.to_le_bytes();
     assert_eq!(
         Blank::parse(&edit(b.clone(), bl::X_F32.offset, &nan)),
-        Err(RecordError::Value(ValueError::NonFinite { field: "x_f32" }))
+        Err(RecordError::Value(RecordValueError::NonFinite { field: "x_f32" }))
     );
     assert_eq!(
         Blank::parse(&edit(b.clone(), bl::X_Q24.offset, &0i32.to_le_bytes())),
-        Err(RecordError::Value(ValueError::Inconsistent { field: "x_q24" }))
+        Err(RecordError::Value(RecordValueError::Inconsistent { field: "x_q24" }))
     );
     assert_eq!(
         Blank::parse(&edit(b.clone(), bl::X_F32.offset, &(-200.0f32).to_le_bytes())),
-        Err(RecordError::Value(ValueError::OutOfRange { field: "x_f32" }))
+        Err(RecordError::Value(RecordValueError::OutOfRange { field: "x_f32" }))
     );
     assert_eq!(
         Blank::parse(&edit(b.clone(), bl::SAMPLES.offset, &0u32.to_le_bytes())),
-        Err(RecordError::Value(ValueError::NoSamples))
+        Err(RecordError::Value(RecordValueError::NoSamples))
     );
     let t = two_point().to_bytes().to_vec();
-    assert_eq!(Trim::parse(&edit(t.clone(), tl::KIND.offset, &[3])), Err(RecordError::BadKind { found: 3 }));
+    assert_eq!(
+        Trim::parse(&edit(t.clone(), tl::KIND.offset, &[3])),
+        Err(RecordError::Format(FormatError::BadEnum { field: "kind", found: 3 }))
+    );
     assert_eq!(
         Trim::parse(&edit(t.clone(), tl::RESERVED.offset + 1, &[9])),
-        Err(RecordError::ReservedNotZero { offset: 26 })
+        Err(RecordError::Format(FormatError::ReservedNotZero { offset: 26 }))
     );
     assert_eq!(
         Trim::parse(&edit(t.clone(), tl::GAIN_Q30.offset, &(-5i32).to_le_bytes())),
-        Err(RecordError::Value(ValueError::OutOfRange { field: "gain_q30" }))
+        Err(RecordError::Value(RecordValueError::OutOfRange { field: "gain_q30" }))
     );
     assert_eq!(
         Trim::parse(&edit(t.clone(), tl::GAIN_F32.offset, &1.5f32.to_le_bytes())),
-        Err(RecordError::Value(ValueError::Inconsistent { field: "gain_q30" }))
+        Err(RecordError::Value(RecordValueError::Inconsistent { field: "gain_q30" }))
     );
     // A two-point record relabelled as cleared is not the identity.
     assert_eq!(
         Trim::parse(&edit(t.clone(), tl::KIND.offset, &[0])),
-        Err(RecordError::Value(ValueError::ClearedNotIdentity { field: "offset_f32" }))
+        Err(RecordError::Value(RecordValueError::ClearedNotIdentity { field: "offset_f32" }))
     );
     assert_eq!(
         Trim::parse(&edit(t, tl::KIND.offset, &[1])),
-        Err(RecordError::Value(ValueError::OnePointStandards))
+        Err(RecordError::Value(RecordValueError::OnePointStandards))
     );
 }
 
@@ -567,9 +587,9 @@ fn an_f32_bank_corrects_every_channel_at_one_temperature() {
     steep.model.slope.coeffs[0] = 3000.0;
     let trimmed = Layers::new(Some(two_point()), None, &TrimLimits::DEFAULT, None).unwrap();
     let chans = [
-        Channel { calibration: f32_twin(), layers: Layers::FACTORY },
-        Channel { calibration: steep, layers: trimmed },
-        Channel { calibration: narrow, layers: Layers::FACTORY },
+        LogChannel { calibration: f32_twin(), layers: Layers::FACTORY },
+        LogChannel { calibration: steep, layers: trimmed },
+        LogChannel { calibration: narrow, layers: Layers::FACTORY },
     ];
     let bank = Bank::new(chans).unwrap();
     let cycle = bank.cycle_from_celsius(30.0).unwrap();
@@ -586,7 +606,7 @@ fn an_f32_bank_corrects_every_channel_at_one_temperature() {
     assert_eq!(bank.cycle_from_celsius(f32::NAN), Err(crate::Error::NonFinite));
     let mut bad = f32_twin();
     bad.adc.bits = 0;
-    let e = Bank::new([chans[0], Channel { calibration: bad, layers: Layers::FACTORY }]).unwrap_err();
+    let e = Bank::new([chans[0], LogChannel { calibration: bad, layers: Layers::FACTORY }]).unwrap_err();
     assert_eq!(e.channel, 1);
 }
 
@@ -596,11 +616,11 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
     let narrow = linear(20);
     let trimmed = Layers::new(Some(two_point()), Some(blank()), &TrimLimits::DEFAULT, None).unwrap();
     let chans = [
-        FixedChannel { calibration: wide.view(), layers: Layers::FACTORY },
-        FixedChannel { calibration: wide.view(), layers: trimmed },
-        FixedChannel { calibration: narrow.view(), layers: Layers::FACTORY },
+        LogChannel { calibration: wide.view(), layers: Layers::FACTORY },
+        LogChannel { calibration: wide.view(), layers: trimmed },
+        LogChannel { calibration: narrow.view(), layers: Layers::FACTORY },
     ];
-    let bank = FixedBank::new(chans, 0).unwrap();
+    let bank = Bank::new(chans).and_then(|b| b.with_sensor_channel(0)).unwrap();
     // Code 2100 is 30 °C on the temperature channel: outside the narrow channel's 0…25 °C.
     let cycle = bank.cycle_from_code(2100).unwrap();
     assert_eq!(cycle.millicelsius(), 30_000);
@@ -617,7 +637,56 @@ fn a_fixed_bank_converts_the_temperature_once_and_stages_each_channel() {
     assert_eq!(bank.cycle_from_millicelsius(30_000).unwrap(), cycle);
     assert_eq!(bank.cycle_from_code(4095), Err(crate::Error::Sensor(SensorFault::Open)));
     assert_eq!(bank.correct_factory(&cycle, 1, codes[1]), chans[1].calibration.correct(codes[1], 30_000));
-    assert!(FixedBank::new(chans, 3).is_err());
+    assert!(Bank::new(chans).unwrap().with_sensor_channel(3).is_err());
+}
+
+#[test]
+fn banks_give_each_path_s_one_call_corrections_bit_for_bit() {
+    // Codes at and near both rails and beyond the converter, temperatures inside, in the extrapolation and
+    // beyond it: the bank's staged corrections against each path's one-call correction.
+    let cal = f32_twin();
+    let owned = linear(50);
+    let fixed = owned.view();
+    let f32_bank = Bank::new([LogChannel { calibration: cal, layers: Layers::FACTORY }]).unwrap();
+    let fixed_bank = Bank::new([LogChannel { calibration: fixed, layers: Layers::FACTORY }]).unwrap();
+    let codes = [0u32, 1, 16, 17, 100, 4097, 20_000, 32_769, 45_000, 61_441, 65_518, 65_519, 65_535, 70_000];
+    for t_mc in [-6_000i32, -5_000, -1, 0, 12_345, 25_000, 50_000, 52_500, 55_000, 55_001, 80_000] {
+        let t = t_mc as f32 / 1000.0;
+        let (fc, xc) =
+            (f32_bank.cycle_from_celsius(t).unwrap(), fixed_bank.cycle_from_millicelsius(t_mc).unwrap());
+        for code in codes {
+            let want = cal.correct(code, t).map(|r| (r.x.to_bits(), r.temperature_extrapolated));
+            let got =
+                f32_bank.correct_factory(&fc, 0, code).map(|r| (r.x.to_bits(), r.temperature_extrapolated));
+            assert_eq!(got, want, "f32 path, code {code} at {t_mc} m°C");
+            // The fixed path reports a refused temperature before the code's own check.
+            let stage = fixed.stage_millicelsius(t_mc);
+            let want = match (fixed.check_code(code), stage) {
+                (Err(e), Ok(_)) => Err(e),
+                (_, Err(e)) => Err(e),
+                (Ok(()), Ok(_)) => fixed.correct(code, t_mc),
+            };
+            assert_eq!(
+                fixed_bank.correct_factory(&xc, 0, code),
+                want,
+                "fixed path, code {code} at {t_mc} m°C"
+            );
+        }
+    }
+    // Both kinds of refusal are reached.
+    assert!(matches!(
+        f32_bank.correct_factory(&f32_bank.cycle_from_celsius(80.0).unwrap(), 0, 0),
+        Err(crate::Error::Saturated { .. })
+    ));
+    let out = fixed_bank.cycle_from_millicelsius(80_000).unwrap();
+    assert!(matches!(
+        fixed_bank.correct_factory(&out, 0, 0),
+        Err(crate::Error::TemperatureOutOfRange { .. })
+    ));
+    assert_eq!(
+        f32_bank.correct_factory(&f32_bank.cycle_from_celsius(25.0).unwrap(), 1, 30_000),
+        Err(crate::Error::NotCalibrated)
+    );
 }
 
 #[cfg(feature = "hal")]
@@ -642,10 +711,13 @@ fn a_blank_record_in_a_larger_slot_parses_with_the_rest_left_alone() {
     page[..44].copy_from_slice(&blank().to_bytes());
     let (b, rest) = Blank::parse_prefix(&page).unwrap();
     assert_eq!((b, rest.len()), (blank(), 20));
-    assert_eq!(Blank::parse(&page), Err(RecordError::LengthMismatch { declared: 44, actual: 64 }));
+    assert_eq!(
+        Blank::parse(&page),
+        Err(RecordError::Format(FormatError::LengthMismatch { declared: 44, actual: 64 }))
+    );
     // Writing into a short buffer fails and leaves it untouched.
     let mut short = [7u8; 43];
-    assert_eq!(blank().write(&mut short), Err(WriteError::BufferTooSmall { needed: 44, available: 43 }));
+    assert_eq!(blank().write(&mut short), Err(BufferTooSmall { needed: 44, available: 43 }));
     assert_eq!(short, [7u8; 43]);
 }
 
@@ -654,7 +726,8 @@ mod slot_choice {
     //! calibration loses, and the write plan never overwrites the record in use (the usual two-slot
     //! practice for power-fail-safe updates, common practice).
     use super::*;
-    use crate::field::slots::{self, NoValidRecord, RecordRejected, SlotId};
+    use crate::field::slots;
+    use crate::record::slots::{NoValidRecord, Rejected, SequenceExhausted, SlotId};
 
     const FP: u32 = 0x1234_5678;
 
@@ -675,14 +748,14 @@ mod slot_choice {
         let (a, b) = (trim_at(3, 100, FP), trim_at(4, 90, FP));
         let s = slots::select::<Trim>(&a, &b, Some(FP)).unwrap();
         assert_eq!((s.slot, s.record.info().sequence), (SlotId::B, 4));
-        assert_eq!(s.other, RecordRejected::Older { sequence: 3, written_at: 100 });
+        assert_eq!(s.other, Rejected::Older { sequence: 3, time: 100 });
         let s = slots::select::<Trim>(&b, &a, Some(FP)).unwrap();
         assert_eq!(s.slot, SlotId::A);
         // Equal counters: the later time, then slot A; identical copies are reported as a duplicate.
         let s = slots::select::<Trim>(&trim_at(4, 90, FP), &trim_at(4, 91, FP), Some(FP)).unwrap();
         assert_eq!(s.slot, SlotId::B);
         let s = slots::select::<Trim>(&b, &b, Some(FP)).unwrap();
-        assert_eq!((s.slot, s.other), (SlotId::A, RecordRejected::Tie { identical: true }));
+        assert_eq!((s.slot, s.other), (SlotId::A, Rejected::Tie { identical: true }));
         // Erased memory after a record is ignored.
         let mut padded = b.clone();
         padded.extend_from_slice(&[0xff; 16]);
@@ -700,7 +773,11 @@ mod slot_choice {
         torn.truncate(30);
         let s = slots::select::<Trim>(&good, &torn, Some(FP)).unwrap();
         assert_eq!(s.slot, SlotId::A);
-        assert!(matches!(s.other, RecordRejected::Invalid(RecordError::Truncated { .. })), "{:?}", s.other);
+        assert!(
+            matches!(s.other, Rejected::Invalid(RecordError::Format(FormatError::Truncated { .. }))),
+            "{:?}",
+            s.other
+        );
         // Every single-bit flip of the newer record hands the choice back to the older one.
         let newer = trim_at(4, 200, FP);
         for bit in 0..newer.len() * 8 {
@@ -711,11 +788,11 @@ mod slot_choice {
         }
         // A blank where a trim is looked for, and a trim made on another calibration.
         let s = slots::select::<Trim>(&blank_at(9, FP), &good, Some(FP)).unwrap();
-        assert!(matches!(s.other, RecordRejected::Invalid(RecordError::OtherRecord { .. })));
+        assert!(matches!(s.other, Rejected::Invalid(RecordError::Format(FormatError::OtherRecord { .. }))));
         let s = slots::select::<Trim>(&trim_at(9, 300, FP ^ 1), &good, Some(FP)).unwrap();
         assert_eq!(
             (s.slot, s.other),
-            (SlotId::B, RecordRejected::OtherCalibration { bound_to: FP ^ 1, sequence: 9 })
+            (SlotId::B, Rejected::OtherCalibration { bound_to: FP ^ 1, sequence: 9 })
         );
         // Unbound records (fingerprint 0) belong to any calibration; no fingerprint given accepts all.
         assert!(slots::select::<Trim>(&trim_at(1, 1, 0), &[], Some(FP)).is_ok());
@@ -727,11 +804,11 @@ mod slot_choice {
         let erased = [0xffu8; 64];
         let e = slots::select::<Blank>(&erased, &blank_at(2, FP ^ 1), Some(FP)).unwrap_err();
         assert_eq!(e.record, RecordType::Blank);
-        assert!(matches!(e.a, RecordRejected::Invalid(RecordError::BadMagic { .. })));
-        assert_eq!(e.b, RecordRejected::OtherCalibration { bound_to: FP ^ 1, sequence: 2 });
+        assert!(matches!(e.a, Rejected::Invalid(RecordError::Format(FormatError::BadMagic { .. }))));
+        assert_eq!(e.b, Rejected::OtherCalibration { bound_to: FP ^ 1, sequence: 2 });
         let text = std::format!("{e}");
         assert!(text.contains("slot A") && text.contains("another factory calibration"), "{text}");
-        let _: &dyn core::error::Error = &e as &NoValidRecord;
+        let _: &dyn core::error::Error = &e as &NoValidRecord<RecordError>;
     }
 
     #[test]
@@ -758,7 +835,7 @@ mod slot_choice {
         assert_eq!((p.slot, p.sequence), (SlotId::A, 42));
         // The counter never wraps.
         let last = trim_at(u32::MAX, 1, FP);
-        assert_eq!(slots::next_write::<Trim>(&last, &old, Some(FP)), Err(slots::SequenceExhausted));
+        assert_eq!(slots::next_write::<Trim>(&last, &old, Some(FP)), Err(SequenceExhausted));
         // Writing where the plan says and selecting again gives the new record, and keeps the old one.
         let (mut x, y) = (foreign.clone(), old.clone());
         let p = slots::next_write::<Trim>(&x, &y, Some(FP)).unwrap();
@@ -766,7 +843,7 @@ mod slot_choice {
         x = trim_at(p.sequence, 2, FP);
         let s = slots::select::<Trim>(&x, &y, Some(FP)).unwrap();
         assert_eq!((s.slot, s.record.info().sequence), (SlotId::A, 41));
-        assert_eq!(s.other, RecordRejected::Older { sequence: 3, written_at: 100 });
+        assert_eq!(s.other, Rejected::Older { sequence: 3, time: 100 });
         // Neither usable, one of them newer: the older contents go.
         let p = slots::next_write::<Trim>(&trim_at(50, 1, 7), &trim_at(49, 1, 7), Some(FP)).unwrap();
         assert_eq!((p.slot, p.sequence), (SlotId::B, 51));

@@ -45,13 +45,15 @@
 //! cleared trim is not evaluated at all ([`Trim::apply`] returns the factory reading as it is), so results
 //! are bit-identical to the factory calibration's.
 
+use super::header::{self, Codec, RecordError, RecordInfo, RecordValueError};
 use super::layout::{self, trim as tl};
-use super::record::{self, Extent, RecordError, RecordInfo, RecordType, Spec, ValueError, WriteError};
 use super::FieldError;
 use crate::calibration::Reading;
 use crate::error::Error;
 use crate::fixed::{FixedReading, X_FRAC};
 use crate::qformat::{f32_from_q, q_from_f32, round_shr};
+use crate::record::frame::{Extent, Framing, Reader, Writer};
+use crate::record::{BufferTooSmall, RecordType};
 
 /// Fraction bits of the fixed-path gain.
 pub const GAIN_FRAC: u32 = 30;
@@ -59,9 +61,6 @@ pub const GAIN_FRAC: u32 = 30;
 pub const GAIN_ONE_Q30: i32 = 1 << GAIN_FRAC;
 /// How far the f32 and Q30 forms of one gain may differ, Q30 units (2^-10).
 const GAIN_AGREEMENT_Q30: i64 = 1 << 20;
-
-const SPEC: Spec =
-    Spec { ty: RecordType::Trim, magic: tl::MAGIC_VALUE, version: tl::VERSION_VALUE, len: layout::TRIM_LEN };
 
 /// What kind of trim a record holds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -265,23 +264,23 @@ impl Trim {
     /// one-point trim naming one standard. (The [`TrimLimits`] are the instrument's policy and are checked
     /// apart, by [`TrimLimits::check`].)
     #[deny(clippy::float_arithmetic)]
-    pub fn new(parts: TrimParts) -> Result<Trim, ValueError> {
+    pub fn new(parts: TrimParts) -> Result<Trim, RecordValueError> {
         super::blank::check_x(parts.offset, parts.offset_q24, tl::OFFSET_F32.name, tl::OFFSET_Q24.name)?;
-        let g =
-            q_from_f32(parts.gain, GAIN_FRAC).ok_or(ValueError::NonFinite { field: tl::GAIN_F32.name })?;
+        let g = q_from_f32(parts.gain, GAIN_FRAC)
+            .ok_or(RecordValueError::NonFinite { field: tl::GAIN_F32.name })?;
         if !(1..1i64 << 31).contains(&g) {
-            return Err(ValueError::OutOfRange { field: tl::GAIN_F32.name });
+            return Err(RecordValueError::OutOfRange { field: tl::GAIN_F32.name });
         }
         if parts.gain_q30 <= 0 {
-            return Err(ValueError::OutOfRange { field: tl::GAIN_Q30.name });
+            return Err(RecordValueError::OutOfRange { field: tl::GAIN_Q30.name });
         }
         if (g - i64::from(parts.gain_q30)).abs() > GAIN_AGREEMENT_Q30 {
-            return Err(ValueError::Inconsistent { field: tl::GAIN_Q30.name });
+            return Err(RecordValueError::Inconsistent { field: tl::GAIN_Q30.name });
         }
         let names = [tl::STANDARD_1.name, tl::STANDARD_2.name];
         for (s, field) in parts.standards.iter().zip(names) {
             if !s.is_finite() {
-                return Err(ValueError::NonFinite { field });
+                return Err(RecordValueError::NonFinite { field });
             }
         }
         let [s1, s2] = parts.standards;
@@ -296,12 +295,12 @@ impl Trim {
                     (s2.to_bits() == 0, tl::STANDARD_2.name),
                 ];
                 if let Some((_, field)) = checks.iter().find(|(ok, _)| !ok) {
-                    return Err(ValueError::ClearedNotIdentity { field });
+                    return Err(RecordValueError::ClearedNotIdentity { field });
                 }
             }
             TrimKind::OnePoint => {
                 if s1.to_bits() != s2.to_bits() {
-                    return Err(ValueError::OnePointStandards);
+                    return Err(RecordValueError::OnePointStandards);
                 }
             }
             TrimKind::TwoPoint => {}
@@ -325,48 +324,19 @@ impl Trim {
         }
     }
 
-    /// Parses exactly one trim record (see [the order of the checks](super::record#order-of-the-checks)).
+    /// Parses exactly one trim record (see [the order of the checks](super::header#order-of-the-checks)).
     pub fn parse(bytes: &[u8]) -> Result<Trim, RecordError> {
-        Trim::parse_extent(bytes, Extent::Exact).map(|(t, _)| t)
+        header::parse(bytes, Extent::Exact).map(|(t, _)| t)
     }
 
     /// Parses a trim record at the start of `bytes` and returns the bytes after it, unchecked.
     pub fn parse_prefix(bytes: &[u8]) -> Result<(Trim, &[u8]), RecordError> {
-        Trim::parse_extent(bytes, Extent::Prefix)
-    }
-
-    fn parse_extent(bytes: &[u8], extent: Extent) -> Result<(Trim, &[u8]), RecordError> {
-        let framed = record::frame(bytes, &SPEC, extent)?;
-        let r = record::Reader { bytes: framed.bytes };
-        let code = r.u8(&tl::KIND)?;
-        let kind = TrimKind::from_code(code).ok_or(RecordError::BadKind { found: code })?;
-        r.reserved(&tl::RESERVED)?;
-        let parts = TrimParts {
-            info: framed.info,
-            kind,
-            offset: r.f32(&tl::OFFSET_F32)?,
-            gain: r.f32(&tl::GAIN_F32)?,
-            offset_q24: r.i32(&tl::OFFSET_Q24)?,
-            gain_q30: r.i32(&tl::GAIN_Q30)?,
-            standards: [r.f32(&tl::STANDARD_1)?, r.f32(&tl::STANDARD_2)?],
-            temp_mc: r.i32(&tl::TEMP_MC)?,
-        };
-        Ok((Trim::new(parts)?, framed.rest))
+        header::parse(bytes, Extent::Prefix)
     }
 
     /// Writes the record at the start of `buf` ([`layout::TRIM_LEN`] bytes) and returns its length.
-    pub fn write(&self, buf: &mut [u8]) -> Result<usize, WriteError> {
-        let p = &self.parts;
-        record::write_record(buf, &SPEC, &p.info, |w| {
-            w.put(&tl::KIND, &[p.kind.code()]);
-            w.put(&tl::OFFSET_F32, &p.offset.to_le_bytes());
-            w.put(&tl::GAIN_F32, &p.gain.to_le_bytes());
-            w.put(&tl::OFFSET_Q24, &p.offset_q24.to_le_bytes());
-            w.put(&tl::GAIN_Q30, &p.gain_q30.to_le_bytes());
-            w.put(&tl::STANDARD_1, &p.standards[0].to_le_bytes());
-            w.put(&tl::STANDARD_2, &p.standards[1].to_le_bytes());
-            w.put(&tl::TEMP_MC, &p.temp_mc.to_le_bytes());
-        })
+    pub fn write(&self, buf: &mut [u8]) -> Result<usize, BufferTooSmall> {
+        header::write(self, buf)
     }
 
     /// The record as bytes.
@@ -520,6 +490,43 @@ impl Trim {
             Trim::new(TrimParts { info, kind, offset, gain, offset_q24, gain_q30, standards, temp_mc })?;
         limits.check(&trim)?;
         Ok(trim)
+    }
+}
+
+impl Codec for Trim {
+    const FRAMING: Framing = header::framing(RecordType::Trim, tl::VERSION_VALUE, layout::TRIM_LEN);
+
+    fn decode(r: &Reader<'_, RecordError>, info: RecordInfo) -> Result<Trim, RecordError> {
+        let kind = r.choice(&tl::KIND, TrimKind::from_code)?;
+        r.reserved(&tl::RESERVED)?;
+        let parts = TrimParts {
+            info,
+            kind,
+            offset: r.f32(&tl::OFFSET_F32)?,
+            gain: r.f32(&tl::GAIN_F32)?,
+            offset_q24: r.i32(&tl::OFFSET_Q24)?,
+            gain_q30: r.i32(&tl::GAIN_Q30)?,
+            standards: [r.f32(&tl::STANDARD_1)?, r.f32(&tl::STANDARD_2)?],
+            temp_mc: r.i32(&tl::TEMP_MC)?,
+        };
+        Ok(Trim::new(parts)?)
+    }
+
+    fn encode(&self, w: &mut Writer<'_>) -> Result<(), BufferTooSmall> {
+        let p = &self.parts;
+        w.u8(&tl::KIND, p.kind.code())?;
+        w.f32(&tl::OFFSET_F32, p.offset)?;
+        w.f32(&tl::GAIN_F32, p.gain)?;
+        w.i32(&tl::OFFSET_Q24, p.offset_q24)?;
+        w.i32(&tl::GAIN_Q30, p.gain_q30)?;
+        let [s1, s2] = p.standards;
+        w.f32(&tl::STANDARD_1, s1)?;
+        w.f32(&tl::STANDARD_2, s2)?;
+        w.i32(&tl::TEMP_MC, p.temp_mc)
+    }
+
+    fn header(&self) -> RecordInfo {
+        self.parts.info
     }
 }
 

@@ -1,16 +1,17 @@
-//! Why an image was refused ([`ImageError`]), why a calibration cannot be stored ([`ValueError`]) and why an
-//! image could not be written ([`WriteError`]).
+//! Why an image was refused ([`ImageError`]), why a calibration cannot be stored ([`ImageValueError`]) and
+//! why an image could not be written ([`WriteError`]).
 
 use core::fmt;
 
 use crate::error::Error;
+use crate::record::{BufferTooSmall, FormatError};
 
 /// A value that the image format cannot carry or that no reader may use. Checked identically when an image
 /// is written and when it is parsed, so whatever the writer accepts the parser accepts too.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
-pub enum ValueError {
+pub enum ImageValueError {
     /// A stored f32 is NaN or infinite (every stored coefficient is checked, used or not).
     NonFinite {
         /// The layout field (see [`layout`](super::layout)).
@@ -56,44 +57,9 @@ pub enum ValueError {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum ImageError {
-    /// Fewer bytes than the header, or than the total length the header declares.
-    Truncated {
-        /// Bytes needed.
-        needed: u32,
-        /// Bytes available.
-        available: u32,
-    },
-    /// The first four bytes are not the magic: not an image of this format (erased or foreign memory).
-    BadMagic {
-        /// The bytes found.
-        found: [u8; 4],
-    },
-    /// A format version this build does not read.
-    UnsupportedVersion {
-        /// The version found.
-        found: u16,
-    },
-    /// The declared total length is impossible: shorter than a header and CRC, not a multiple of 4, or
-    /// longer than [`MAX_LEN`](super::layout::MAX_LEN).
-    BadLength {
-        /// The length declared.
-        declared: u32,
-    },
-    /// The bytes hold more than the declared image ([`Image::parse`](super::Image::parse) wants exactly one
-    /// image; [`Image::parse_prefix`](super::Image::parse_prefix) allows trailing bytes).
-    LengthMismatch {
-        /// The length declared.
-        declared: u32,
-        /// The length of the bytes given.
-        actual: u32,
-    },
-    /// The stored CRC is not the CRC of the image: it was corrupted or not written completely.
-    CrcMismatch {
-        /// The CRC stored in the trailer.
-        stored: u32,
-        /// The CRC computed over the image.
-        computed: u32,
-    },
+    /// The framing every record shares (magic, version, length, CRC), or a byte rule of a field (a reserved
+    /// byte not zero, a flag neither 0 nor 1, an unknown fault code): see [`FormatError`].
+    Format(FormatError),
     /// A section header or payload runs past the end of the body.
     SectionOverrun {
         /// Offset of the section header in the image.
@@ -139,27 +105,8 @@ pub enum ImageError {
     },
     /// The serial is not printable ASCII followed by NUL padding.
     BadSerial,
-    /// A reserved byte is not zero.
-    ReservedNotZero {
-        /// Offset of the byte in the image.
-        offset: u32,
-    },
-    /// A flag byte holds something other than 0 or 1.
-    BadFlag {
-        /// The layout field.
-        field: &'static str,
-        /// The value found.
-        found: u8,
-    },
-    /// A byte that encodes one of a few choices (a sensor fault) holds none of them.
-    BadEnum {
-        /// The layout field.
-        field: &'static str,
-        /// The value found.
-        found: u8,
-    },
-    /// A value is out of range (see [`ValueError`]).
-    Value(ValueError),
+    /// A value is out of range (see [`ImageValueError`]).
+    Value(ImageValueError),
     /// The fixed section's tables do not fit the caller's
     /// [`FixedStorage`](super::FixedStorage) (the image itself may be fine).
     FixedCapacity {
@@ -179,12 +126,7 @@ pub enum ImageError {
 #[non_exhaustive]
 pub enum WriteError {
     /// The buffer is shorter than the image.
-    BufferTooSmall {
-        /// Bytes the image needs.
-        needed: u32,
-        /// Bytes the buffer has.
-        available: u32,
-    },
+    BufferTooSmall(BufferTooSmall),
     /// The serial is longer than 16 bytes or holds something other than printable ASCII (0x20–0x7E).
     BadSerial,
     /// An extra section cannot be stored: its type is one the writer produces itself, or its payload is not
@@ -206,37 +148,49 @@ pub enum WriteError {
         /// The payload length it would have (saturated at `u32::MAX`).
         len: u32,
     },
-    /// The calibration cannot be stored (see [`ValueError`]).
-    Value(ValueError),
+    /// The calibration cannot be stored (see [`ImageValueError`]).
+    Value(ImageValueError),
 }
 
-impl From<ValueError> for ImageError {
-    fn from(e: ValueError) -> Self {
+impl From<ImageValueError> for ImageError {
+    fn from(e: ImageValueError) -> Self {
         ImageError::Value(e)
     }
 }
 
-impl From<ValueError> for WriteError {
-    fn from(e: ValueError) -> Self {
+impl From<FormatError> for ImageError {
+    fn from(e: FormatError) -> Self {
+        ImageError::Format(e)
+    }
+}
+
+impl From<ImageValueError> for WriteError {
+    fn from(e: ImageValueError) -> Self {
         WriteError::Value(e)
     }
 }
 
-impl fmt::Display for ValueError {
+impl From<BufferTooSmall> for WriteError {
+    fn from(e: BufferTooSmall) -> Self {
+        WriteError::BufferTooSmall(e)
+    }
+}
+
+impl fmt::Display for ImageValueError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            ValueError::NonFinite { field, index } => write!(f, "{field}[{index}] is NaN or infinite"),
-            ValueError::TableSize { field, found, capacity } => {
+            ImageValueError::NonFinite { field, index } => write!(f, "{field}[{index}] is NaN or infinite"),
+            ImageValueError::TableSize { field, found, capacity } => {
                 write!(f, "{field} is {found}, more than the capacity {capacity}")
             }
-            ValueError::Calibration(e) => write!(f, "calibration does not validate: {e}"),
-            ValueError::FixedTableSize { table, found, expected } => {
+            ImageValueError::Calibration(e) => write!(f, "calibration does not validate: {e}"),
+            ImageValueError::FixedTableSize { table, found, expected } => {
                 write!(f, "fixed table {table} has {found} entries, its dimensions call for {expected}")
             }
-            ValueError::FixedMismatch { field } => {
+            ImageValueError::FixedMismatch { field } => {
                 write!(f, "fixed section's {field} disagrees with the ranges section")
             }
-            ValueError::Fixed(e) => write!(f, "fixed-point tables do not validate: {e}"),
+            ImageValueError::Fixed(e) => write!(f, "fixed-point tables do not validate: {e}"),
         }
     }
 }
@@ -244,22 +198,7 @@ impl fmt::Display for ValueError {
 impl fmt::Display for ImageError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            ImageError::Truncated { needed, available } => {
-                write!(f, "image truncated: {available} bytes, {needed} needed")
-            }
-            ImageError::BadMagic { found: [a, b, c, d] } => {
-                write!(f, "not a calibration image: starts with {a:02x} {b:02x} {c:02x} {d:02x}")
-            }
-            ImageError::UnsupportedVersion { found } => {
-                write!(f, "image format version {found} is not supported (this build reads 1)")
-            }
-            ImageError::BadLength { declared } => write!(f, "declared image length {declared} is impossible"),
-            ImageError::LengthMismatch { declared, actual } => {
-                write!(f, "image declares {declared} bytes but {actual} were given")
-            }
-            ImageError::CrcMismatch { stored, computed } => {
-                write!(f, "CRC mismatch: stored {stored:#010x}, computed {computed:#010x}")
-            }
+            ImageError::Format(e) => e.describe(f, "image", "calibration image"),
             ImageError::SectionOverrun { offset } => {
                 write!(f, "section at offset {offset} runs past the end of the body")
             }
@@ -276,11 +215,6 @@ impl fmt::Display for ImageError {
             }
             ImageError::MissingSection { kind } => write!(f, "required section {kind:#06x} is missing"),
             ImageError::BadSerial => f.write_str("serial is not printable ASCII with NUL padding"),
-            ImageError::ReservedNotZero { offset } => {
-                write!(f, "reserved byte at offset {offset} is not zero")
-            }
-            ImageError::BadFlag { field, found } => write!(f, "{field} is {found}, not 0 or 1"),
-            ImageError::BadEnum { field, found } => write!(f, "{field} is {found}, not a known value"),
             ImageError::Value(e) => write!(f, "{e}"),
             ImageError::FixedCapacity { table, needed, capacity } => write!(
                 f,
@@ -293,9 +227,7 @@ impl fmt::Display for ImageError {
 impl fmt::Display for WriteError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            WriteError::BufferTooSmall { needed, available } => {
-                write!(f, "buffer of {available} bytes too small: the image needs {needed}")
-            }
+            WriteError::BufferTooSmall(e) => write!(f, "{e}"),
             WriteError::BadSerial => f.write_str("serial must be at most 16 printable ASCII characters"),
             WriteError::BadSection { kind } => write!(f, "extra section {kind:#06x} cannot be stored"),
             WriteError::TooLong { len } => write!(f, "image of {len} bytes exceeds the format's maximum"),
@@ -307,6 +239,6 @@ impl fmt::Display for WriteError {
     }
 }
 
-impl core::error::Error for ValueError {}
+impl core::error::Error for ImageValueError {}
 impl core::error::Error for ImageError {}
 impl core::error::Error for WriteError {}

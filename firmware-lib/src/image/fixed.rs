@@ -6,12 +6,14 @@
 
 use core::fmt;
 
-use super::layout::{fixed as lf, section, Field, Table};
-use super::parse::{len_u32, Part};
-use super::{ImageError, ValueError};
+use super::layout::{fixed as lf, section, Table};
+use super::parse::Part;
+use super::{ImageError, ImageValueError};
 use crate::calibration::Calibration;
 use crate::error::SensorFault;
 use crate::fixed::{FixedCalibration, FixedHeader, SensorTable};
+use crate::record::frame::len_u32;
+use crate::record::layout::Field;
 
 /// Number of tables (the order of [`lf::TABLES`]).
 const N_TABLES: usize = lf::TABLES.len();
@@ -49,12 +51,13 @@ pub(super) fn fault_code(f: SensorFault) -> u8 {
     }
 }
 
-fn fault_of(field: &Field, code: u8) -> Result<SensorFault, ImageError> {
+/// The sensor fault a stored code names.
+fn fault_of(code: u8) -> Option<SensorFault> {
     match code {
-        0 => Ok(SensorFault::Open),
-        1 => Ok(SensorFault::Short),
-        2 => Ok(SensorFault::OutOfModelRange),
-        found => Err(ImageError::BadEnum { field: field.name, found }),
+        0 => Some(SensorFault::Open),
+        1 => Some(SensorFault::Short),
+        2 => Some(SensorFault::OutOfModelRange),
+        _ => None,
     }
 }
 
@@ -83,23 +86,27 @@ fn expected_sizes(h: &FixedHeader, sensor: Option<&SensorTable<'_>>) -> Sizes {
 }
 
 /// Each table's size against its dimensions; the first that differs is the error.
-fn check_sizes(h: &FixedHeader, sensor: Option<&SensorTable<'_>>, found: &Sizes) -> Result<(), ValueError> {
+fn check_sizes(
+    h: &FixedHeader,
+    sensor: Option<&SensorTable<'_>>,
+    found: &Sizes,
+) -> Result<(), ImageValueError> {
     let expected = expected_sizes(h, sensor);
     for ((t, &found), &expected) in lf::TABLES.iter().zip(found).zip(&expected) {
         if found != expected {
-            return Err(ValueError::FixedTableSize { table: t.name, found, expected });
+            return Err(ImageValueError::FixedTableSize { table: t.name, found, expected });
         }
     }
     Ok(())
 }
 
 /// The fixed section describes the converter of the *ranges* section.
-fn check_agreement(h: &FixedHeader, c: &Calibration) -> Result<(), ValueError> {
+fn check_agreement(h: &FixedHeader, c: &Calibration) -> Result<(), ImageValueError> {
     if c.adc.max_code().ok() != Some(h.adc_max_code) {
-        return Err(ValueError::FixedMismatch { field: lf::ADC_MAX_CODE.name });
+        return Err(ImageValueError::FixedMismatch { field: lf::ADC_MAX_CODE.name });
     }
     if c.adc.rail_margin != h.rail_margin {
-        return Err(ValueError::FixedMismatch { field: lf::RAIL_MARGIN.name });
+        return Err(ImageValueError::FixedMismatch { field: lf::RAIL_MARGIN.name });
     }
     Ok(())
 }
@@ -120,7 +127,7 @@ fn len_u16(n: u64) -> u16 {
 
 /// Decodes and checks the structure of a fixed section (step 1 in the docs of [`FixedSection`]).
 pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<FixedSection<'a>, ImageError> {
-    if p.bytes.len() < lf::HEAD_LEN {
+    if p.bytes().len() < lf::HEAD_LEN {
         return Err(p.short());
     }
     p.reserved(&lf::RESERVED)?;
@@ -155,12 +162,12 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
             code_lo: p.u32(&lf::SENSOR_CODE_LO)?,
             code_hi: p.u32(&lf::SENSOR_CODE_HI)?,
             step_log2: p.u8(&lf::SENSOR_STEP_LOG2)?,
-            fault_below: fault_of(&lf::FAULT_BELOW, p.u8(&lf::FAULT_BELOW)?)?,
+            fault_below: p.choice(&lf::FAULT_BELOW, fault_of)?,
             far_below_code: p.u32(&lf::SENSOR_FAR_BELOW)?,
-            fault_far_below: fault_of(&lf::FAULT_FAR_BELOW, p.u8(&lf::FAULT_FAR_BELOW)?)?,
-            fault_above: fault_of(&lf::FAULT_ABOVE, p.u8(&lf::FAULT_ABOVE)?)?,
+            fault_far_below: p.choice(&lf::FAULT_FAR_BELOW, fault_of)?,
+            fault_above: p.choice(&lf::FAULT_ABOVE, fault_of)?,
             far_above_code: p.u32(&lf::SENSOR_FAR_ABOVE)?,
-            fault_far_above: fault_of(&lf::FAULT_FAR_ABOVE, p.u8(&lf::FAULT_FAR_ABOVE)?)?,
+            fault_far_above: p.choice(&lf::FAULT_FAR_ABOVE, fault_of)?,
             knots: &[],
         })
     } else {
@@ -177,20 +184,18 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
     check_sizes(&header, sensor.as_ref(), &sizes)?;
     check_agreement(&header, calibration)?;
     let want = payload_len(&sizes);
-    if p.bytes.len() as u64 != want {
+    let len = p.bytes().len();
+    if len as u64 != want {
         return Err(ImageError::SectionLength {
             kind: p.kind,
-            found: len_u16(p.bytes.len() as u64),
+            found: len_u16(len as u64),
             expected: len_u16(want),
         });
     }
     // The padding after the last table is zero.
     let data_end = lf::HEAD_LEN + usize::try_from(data_len(&sizes)).unwrap_or(usize::MAX);
-    let pad = p.bytes.get(data_end..).unwrap_or(&[]);
-    if let Some(i) = pad.iter().position(|&b| b != 0) {
-        return Err(ImageError::ReservedNotZero { offset: len_u32(p.base + data_end + i) });
-    }
-    let tables = p.bytes.get(lf::HEAD_LEN..data_end).ok_or(p.short())?;
+    p.zeros(data_end..len)?;
+    let tables = p.range(lf::HEAD_LEN..data_end)?;
     Ok(FixedSection { header, sensor, sizes, tables })
 }
 
@@ -219,7 +224,7 @@ pub(super) fn check_for_write(
         return Err(too_long);
     }
     check_agreement(&f.header, calibration)?;
-    f.validate().map_err(ValueError::Fixed)?;
+    f.validate().map_err(ImageValueError::Fixed)?;
     Ok((usize::try_from(len).unwrap_or(usize::MAX), sizes))
 }
 
@@ -273,13 +278,13 @@ impl ExactSizeIterator for I16Values<'_> {}
 /// 1. [`Image::parse`](super::Image::parse) checks the section's **structure**, like every other section:
 ///    the flags (0 or 1), the reserved and padding bytes (zero), the sensor's fault codes, the size of
 ///    every table against the dimensions in the section's own header
-///    ([`ValueError::FixedTableSize`]: `offset` must have `t_knots + 2` entries, `ln_bias` none without the
+///    ([`ImageValueError::FixedTableSize`]: `offset` must have `t_knots + 2` entries, `ln_bias` none without the
 ///    bias bend, …), the payload's length against those sizes ([`ImageError::SectionLength`]), and the
 ///    converter's largest code and rail margin against the *ranges* section
-///    ([`ValueError::FixedMismatch`]). After this the tables can be located and copied without any check.
+///    ([`ImageValueError::FixedMismatch`]). After this the tables can be located and copied without any check.
 /// 2. [`FixedStorage::load`] (or [`Image::fixed_into`](super::Image::fixed_into)) copies the tables
 ///    ([`ImageError::FixedCapacity`] if they do not fit) and runs [`FixedCalibration::validate`] on the
-///    result ([`ValueError::Fixed`]). Only then does [`FixedStorage::calibration`] lend it.
+///    result ([`ImageValueError::Fixed`]). Only then does [`FixedStorage::calibration`] lend it.
 ///
 /// A reader that corrects in f32 only needs step 1 (the section is optional to it). A reader that uses
 /// the fixed path runs both, and [`slots::select_fixed`](super::slots::select_fixed) treats an image whose
@@ -444,7 +449,7 @@ impl<const T: usize, const R: usize, const S: usize> FixedStorage<T, R, S> {
     }
 
     /// Copies a section's tables in and checks them with [`FixedCalibration::validate`]
-    /// ([`ValueError::Fixed`]); a table larger than its array is [`ImageError::FixedCapacity`]. Whatever was
+    /// ([`ImageValueError::Fixed`]); a table larger than its array is [`ImageError::FixedCapacity`]. Whatever was
     /// loaded before is gone, even when this fails.
     pub fn load(&mut self, section: &FixedSection<'_>) -> Result<(), ImageError> {
         self.loaded = None;
@@ -455,7 +460,7 @@ impl<const T: usize, const R: usize, const S: usize> FixedStorage<T, R, S> {
         copy_in(&mut self.sensor_knots, section.sensor_knots(), &lf::SENSOR_KNOTS)?;
         copy_in(&mut self.residual, section.residual(), &lf::RESIDUAL)?;
         let loaded = Loaded { header: section.header, sensor: section.sensor, sizes: section.sizes };
-        self.view(&loaded).validate().map_err(|e| ImageError::Value(ValueError::Fixed(e)))?;
+        self.view(&loaded).validate().map_err(ImageValueError::Fixed)?;
         self.loaded = Some(loaded);
         Ok(())
     }

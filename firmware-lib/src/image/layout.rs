@@ -1,122 +1,17 @@
 //! The byte layout of a calibration image, described once.
 //!
-//! Every field of every part (the header, each section's payload, the trailer) is a [`Field`] constant here:
-//! its offset within the part, its size (derived from its [`Kind`]) and its meaning. The parser and the writer
-//! read and write through these constants, the table in the [`image`](super) docs is rendered from them by
-//! [`write_markdown_table`] (a test keeps the two identical), and [`PARTS`] lets a host tool emit C offsets
-//! from the same source.
+//! Every field of every part (the header, each section's payload, the trailer) is a
+//! [`Field`] constant here: its offset within the part, its size (derived from
+//! its [`Kind`]) and its meaning. The parser and the writer read and write
+//! through these constants, and [`PARTS`] lists them in the order they appear in an image: the table in the
+//! [`image`](super) docs is rendered from it by [`write_markdown_table`], and tests hold the constants, the
+//! rendered table and the offsets the docs state to each other.
 //!
 //! All multi-byte values are little-endian; `f32` values are IEEE 754 binary32 bit patterns.
 
 use core::fmt;
 
-/// How a field's bytes are interpreted.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub enum Kind {
-    /// Fixed bytes (the magic).
-    Bytes(u8),
-    /// An unsigned byte.
-    U8,
-    /// A little-endian u16.
-    U16,
-    /// A little-endian u32.
-    U32,
-    /// A little-endian u64.
-    U64,
-    /// A little-endian two's-complement i32.
-    I32,
-    /// A little-endian IEEE 754 binary32.
-    F32,
-    /// This many consecutive little-endian binary32 values.
-    F32Array(u8),
-    /// Printable ASCII (0x20–0x7E), padded with NUL bytes to this size.
-    Ascii(u8),
-    /// Reserved bytes: written as zero, and an image with any other value is refused.
-    Reserved(u8),
-}
-
-impl Kind {
-    /// The size of a field of this kind, in bytes.
-    pub const fn size(self) -> usize {
-        match self {
-            Kind::U8 => 1,
-            Kind::U16 => 2,
-            Kind::U32 | Kind::I32 | Kind::F32 => 4,
-            Kind::U64 => 8,
-            Kind::F32Array(n) => 4 * n as usize,
-            Kind::Bytes(n) | Kind::Ascii(n) | Kind::Reserved(n) => n as usize,
-        }
-    }
-
-    /// The type with its count where it has one (`bytes[4]`, `f32[6]`), as the field records' table
-    /// writes it.
-    pub fn display(self) -> impl fmt::Display {
-        struct D(Kind);
-        impl fmt::Display for D {
-            fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-                match self.0 {
-                    Kind::Bytes(n) => write!(f, "bytes[{n}]"),
-                    Kind::F32Array(n) => write!(f, "f32[{n}]"),
-                    Kind::Ascii(n) => write!(f, "ASCII[{n}]"),
-                    k => f.write_str(k.type_name()),
-                }
-            }
-        }
-        D(self)
-    }
-
-    /// The type as written in the layout table.
-    pub const fn type_name(self) -> &'static str {
-        match self {
-            Kind::Bytes(_) => "bytes",
-            Kind::U8 => "u8",
-            Kind::U16 => "u16",
-            Kind::U32 => "u32",
-            Kind::U64 => "u64",
-            Kind::I32 => "i32",
-            Kind::F32 => "f32",
-            Kind::F32Array(_) => "f32[]",
-            Kind::Ascii(_) => "ASCII",
-            Kind::Reserved(_) => "zero",
-        }
-    }
-}
-
-/// One field of a part of the image: where it lies within that part and what it means.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct Field {
-    /// A short snake_case name (used in error messages and generated offsets).
-    pub name: &'static str,
-    /// Offset from the start of the part, in bytes.
-    pub offset: usize,
-    /// How the bytes are read; the size follows from it.
-    pub kind: Kind,
-    /// What the field holds.
-    pub doc: &'static str,
-}
-
-impl Field {
-    pub(crate) const fn first(name: &'static str, kind: Kind, doc: &'static str) -> Field {
-        Field { name, offset: 0, kind, doc }
-    }
-
-    /// The field that follows this one directly.
-    pub(crate) const fn then(self, name: &'static str, kind: Kind, doc: &'static str) -> Field {
-        Field { name, offset: self.end(), kind, doc }
-    }
-
-    /// Size in bytes.
-    pub const fn size(&self) -> usize {
-        self.kind.size()
-    }
-
-    /// Offset one past the last byte of the field.
-    pub const fn end(&self) -> usize {
-        self.offset + self.kind.size()
-    }
-}
+use crate::record::layout::{Field, Kind};
 
 /// The element type of a variable-length table.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -164,16 +59,17 @@ pub struct Table {
 /// The fixed header at offset 0 of every image.
 pub mod header {
     use super::{Field, Kind};
+    use crate::record::{magic_field, version_field, RecordType};
 
     /// The four bytes every image starts with.
-    pub const MAGIC_VALUE: [u8; 4] = *b"LTCI";
+    pub const MAGIC_VALUE: [u8; 4] = RecordType::CalibrationImage.magic();
     /// The format version this build writes and reads.
     pub const VERSION_VALUE: u16 = 1;
 
     /// Magic.
-    pub const MAGIC: Field = Field::first("magic", Kind::Bytes(4), "`LTCI` (0x4C 0x54 0x43 0x49)");
+    pub const MAGIC: Field = magic_field("`LTCI` (0x4C 0x54 0x43 0x49)");
     /// Format version.
-    pub const VERSION: Field = MAGIC.then("version", Kind::U16, "format version, 1");
+    pub const VERSION: Field = version_field("format version, 1");
     /// Number of sections in the body.
     pub const SECTION_COUNT: Field =
         VERSION.then("section_count", Kind::U16, "number of sections that follow");
@@ -208,7 +104,7 @@ pub mod section {
     /// Length of a section header.
     pub const HEADER_LEN: usize = LEN.end();
     /// Payload lengths are multiples of this, so every section and the CRC start 4-byte aligned.
-    pub const ALIGN: usize = 4;
+    pub const ALIGN: usize = crate::record::layout::ALIGN;
     /// Bit 15 of a section type: a reader that does not know the type may skip the section. A section type
     /// without it is critical: a reader that does not know it refuses the image.
     pub const OPTIONAL_BIT: u16 = 0x8000;
@@ -559,16 +455,12 @@ pub mod fixed {
 
 /// The CRC at the end of every image.
 pub mod trailer {
-    use super::{Field, Kind};
+    use super::Field;
 
-    /// The CRC.
-    pub const CRC: Field = Field::first(
-        "crc32",
-        Kind::U32,
-        "CRC-32/ISO-HDLC (IEEE 802.3) of every byte before it, from offset 0",
-    );
+    /// The CRC ([`crate::record::layout::CRC`]).
+    pub const CRC: Field = crate::record::layout::CRC;
     /// Length of the trailer.
-    pub const LEN: usize = CRC.end();
+    pub const LEN: usize = crate::record::layout::TRAILER_LEN;
     /// The fields in order.
     pub const FIELDS: &[Field] = &[CRC];
 }
@@ -589,7 +481,7 @@ const _: () = assert!(model_f32::LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(MAX_LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(fixed::HEAD_LEN.is_multiple_of(section::ALIGN));
 
-/// One part of the layout, for tables and generated offsets.
+/// One part of the layout, for the table in the docs and the tests that check the layout.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Part {
@@ -623,16 +515,7 @@ pub fn write_markdown_table(w: &mut dyn fmt::Write) -> fmt::Result {
             None => PartName::Plain(part.name),
         };
         for f in part.fields {
-            let name = name();
-            writeln!(
-                w,
-                "| {name} | {} | {} | `{}` | `{}` | {} |",
-                f.offset,
-                f.size(),
-                f.name,
-                TypeOf(f),
-                f.doc
-            )?;
+            f.write_row(w, &name(), f.offset)?;
         }
         for t in part.tables {
             writeln!(
@@ -661,19 +544,6 @@ impl fmt::Display for PartName {
         match self {
             PartName::Plain(n) => f.write_str(n),
             PartName::Section(n, k) => write!(f, "{n} (`{k:#06x}`)"),
-        }
-    }
-}
-
-struct TypeOf<'a>(&'a Field);
-
-impl fmt::Display for TypeOf<'_> {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match self.0.kind {
-            Kind::F32Array(n) => write!(f, "f32[{n}]"),
-            Kind::Ascii(n) => write!(f, "ASCII[{n}]"),
-            Kind::Bytes(n) => write!(f, "bytes[{n}]"),
-            k => f.write_str(k.type_name()),
         }
     }
 }

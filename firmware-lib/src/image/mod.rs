@@ -4,6 +4,9 @@
 //! A corrupted or foreign image is never used: [`Image::parse`] checks every byte once, up front, and
 //! either returns an [`Image`] whose accessors cannot fail or a specific [`ImageError`]. Writing needs no
 //! allocation either ([`write`](fn@write) fills a caller's buffer). The A/B slot helpers are in [`slots`].
+//! An image is a record like the field records: its framing (magic, version, length, CRC), the checked
+//! reading and writing of its fields and the A/B slot rule are [`crate::record`]'s; its layout, its
+//! sections and its value checks are this module's.
 //!
 //! # Format (version 1)
 //!
@@ -29,17 +32,16 @@
 //!   covered by the CRC). A type with bit 15 clear is **critical**: a reader that does not know it refuses
 //!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8004`–`0x80ff` are reserved
 //!   for this project.
-//! * The **trailer** is the CRC-32 of every byte before it: the IEEE 802.3 reflected CRC-32 (polynomial
-//!   0x04C11DB7, reflected in and out, init and xor-out 0xFFFFFFFF), catalogue name CRC-32/ISO-HDLC, computed
-//!   with the `crc` crate ([`crc32`]).
+//! * The **trailer** is the CRC-32/ISO-HDLC of every byte before it ([`crate::record::crc32`]).
 //!
 //! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
-//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is about 2.2 KiB, 2.7 KiB
-//! with a 128-segment temperature-sensor table.
+//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is 2 024 bytes, 2 168 with
+//! the bias bend and the sensitivity limit, and 524 bytes more with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
-//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at 80 and the CRC at 260;
-//! [`write_with_fixed`] puts the *fixed* section's header at 264 and its payload at 268):
+//! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at byte 80 and the
+//! CRC at byte 264; [`write_with_fixed`] puts the *fixed* section's header at byte 264 and its payload at
+//! byte 268):
 //!
 #![doc = include_str!("LAYOUT.md")]
 //!
@@ -47,29 +49,24 @@
 //!
 //! [`Image::parse`] runs its checks in this order, and stops at the first that fails:
 //!
-//! 1. **Magic** (4 bytes): erased flash (all `0xff`), blank EEPROM (all `0x00`) and foreign data are
-//!    rejected at once, at the cost of one comparison, before any length is believed.
-//! 2. **Header present, version known**: the rest of the header is only interpreted under a version this
-//!    build knows.
-//! 3. **Declared length** sane (at least header + CRC, a multiple of 4, at most [`layout::MAX_LEN`]),
-//!    present in full ([`ImageError::Truncated`] otherwise) and, for [`Image::parse`], equal to the number
-//!    of bytes given ([`ImageError::LengthMismatch`]). This bounds the work of the next step, so a
-//!    corrupted length cannot make the reader hash megabytes of memory.
-//! 4. **CRC** over the declared length. It comes *before* the structural checks: once it matches, the
-//!    section walk and the value checks only ever see bytes exactly as the writer wrote them (barring a
-//!    2⁻³² coincidence), so a corrupted image is reported as what it is, a CRC mismatch, and not as whatever
-//!    structural defect the corruption happens to look like. The parser is panic-free on any input either
-//!    way (it is fuzzed without the CRC as well), so this order is about fast, honest rejection, not about
-//!    memory safety.
-//! 5. **Structure**: sections lie within the body, are 4-byte multiples, known sections of a fixed layout
+//! 1. **The framing** every record shares ([`ImageError::Format`], see
+//!    [the order of the framing checks](crate::record#order-of-the-framing-checks)): the magic (erased
+//!    flash, blank EEPROM and foreign data are rejected at once, before any length is believed), the
+//!    version, the declared total length (at least header + CRC, a multiple of 4, at most
+//!    [`layout::MAX_LEN`], present in full, and for [`Image::parse`] equal to the number of bytes given),
+//!    then the CRC over that length. The CRC comes *before* the structural checks: once it matches, the
+//!    section walk and the value checks only ever see bytes exactly as the writer wrote them, so a corrupted
+//!    image is reported as a CRC mismatch. The parser is panic-free on any input either way (it is fuzzed
+//!    without the CRC as well), so this order is about fast, honest rejection, not about memory safety.
+//! 2. **Structure**: sections lie within the body, are 4-byte multiples, known sections of a fixed layout
 //!    have their layout's length, none is duplicated, the count matches the header, both required sections
 //!    are present.
-//! 6. **Values**: the serial, reserved bytes (zero), flags (0 or 1), term counts within their tables'
+//! 3. **Values**: the serial, reserved bytes (zero), flags (0 or 1), term counts within their tables'
 //!    capacities, every stored f32 finite, and [`Calibration::validate`]. Then, if there is a fixed section,
 //!    its structure: flags, reserved and padding bytes, sensor fault codes, every table's size against the
-//!    section's own dimensions ([`ValueError::FixedTableSize`]), the payload length against those sizes,
-//!    and the converter against *ranges* ([`ValueError::FixedMismatch`]). The CRC cannot catch a writer
-//!    that stored a bad value with a correct CRC; these checks do.
+//!    section's own dimensions ([`ImageValueError::FixedTableSize`]), the payload length against those
+//!    sizes, and the converter against *ranges* ([`ImageValueError::FixedMismatch`]). The CRC cannot catch a
+//!    writer that stored a bad value with a correct CRC; these checks do.
 //!
 //! The fixed section's table values are checked by [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate)
 //! when they are copied out ([`Image::fixed_into`], [`FixedStorage::load`]), before they can be used.
@@ -92,7 +89,10 @@
 //! assert_eq!(img.serial(), "PH-2207-0042");
 //!
 //! buf[100] ^= 0x04; // one flipped bit
-//! assert!(matches!(Image::parse(&buf), Err(image::ImageError::CrcMismatch { .. })));
+//! assert!(matches!(
+//!     Image::parse(&buf),
+//!     Err(image::ImageError::Format(logtrim::record::FormatError::CrcMismatch { .. }))
+//! ));
 //! # Ok::<(), Box<dyn core::error::Error>>(())
 //! ```
 
@@ -103,7 +103,7 @@ mod parse;
 pub mod slots;
 mod write;
 
-pub use error::{ImageError, ValueError, WriteError};
+pub use error::{ImageError, ImageValueError, WriteError};
 pub use fixed::{DefaultFixedStorage, FixedSection, FixedStorage, I16Values, I32Values};
 pub use write::{
     encoded_len, encoded_len_with_fixed, write, write_with_fixed, write_with_sections, ImageInfo,
@@ -111,14 +111,7 @@ pub use write::{
 
 use crate::calibration::Calibration;
 use crate::fixed::FixedCalibration;
-
-/// The image CRC: CRC-32/ISO-HDLC (IEEE 802.3, reflected, polynomial 0x04C11DB7) from the `crc` crate.
-pub const CRC32: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
-
-/// The CRC-32/ISO-HDLC of `bytes`.
-pub fn crc32(bytes: &[u8]) -> u32 {
-    CRC32.checksum(bytes)
-}
+use crate::record::frame::{array, Extent};
 
 /// A section of an image: its type and payload.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -146,15 +139,16 @@ pub struct Image<'a> {
 
 impl<'a> Image<'a> {
     /// Checks `bytes` as exactly one image (see [the order of the checks](self#order-of-the-checks)).
-    /// Trailing bytes beyond the declared length are an error ([`ImageError::LengthMismatch`]).
+    /// Trailing bytes beyond the declared length are an error
+    /// ([`FormatError::LengthMismatch`](crate::record::FormatError::LengthMismatch)).
     pub fn parse(bytes: &'a [u8]) -> Result<Image<'a>, ImageError> {
-        parse::parse(bytes, parse::Extent::Exact).map(|(image, _)| image)
+        parse::parse(bytes, Extent::Exact).map(|(image, _)| image)
     }
 
     /// Checks an image at the start of `bytes` (a slot, a flash page) and returns it with the bytes after
     /// it, which are not part of the image and are not checked (erased flash, say).
     pub fn parse_prefix(bytes: &'a [u8]) -> Result<(Image<'a>, &'a [u8]), ImageError> {
-        parse::parse(bytes, parse::Extent::Prefix)
+        parse::parse(bytes, Extent::Prefix)
     }
 
     /// The unit's calibration.
@@ -170,7 +164,7 @@ impl<'a> Image<'a> {
     /// The unit's fixed-point calibration: the fixed section's tables copied into `storage` and checked
     /// with [`FixedCalibration::validate`] ([`FixedStorage::load`]). [`ImageError::MissingSection`] if the
     /// image has no fixed section, [`ImageError::FixedCapacity`] if the tables do not fit the storage,
-    /// [`ImageError::Value`] with [`ValueError::Fixed`] if they do not validate.
+    /// [`ImageError::Value`] with [`ImageValueError::Fixed`] if they do not validate.
     pub fn fixed_into<'s, const T: usize, const R: usize, const S: usize>(
         &self,
         storage: &'s mut FixedStorage<T, R, S>,
@@ -244,8 +238,8 @@ impl<'a> Iterator for Sections<'a> {
 
     fn next(&mut self) -> Option<Section<'a>> {
         let (head, rest) = self.rest.split_at_checked(layout::section::HEADER_LEN)?;
-        let kind = u16::from_le_bytes(parse::array(head, &layout::section::KIND)?);
-        let len = u16::from_le_bytes(parse::array(head, &layout::section::LEN)?);
+        let kind = u16::from_le_bytes(array(head, &layout::section::KIND)?);
+        let len = u16::from_le_bytes(array(head, &layout::section::LEN)?);
         let (payload, rest) = rest.split_at_checked(usize::from(len))?;
         self.rest = rest;
         Some(Section { kind, payload })
@@ -263,21 +257,13 @@ const _: () = {
     is_format::<I16Values<'static>>();
     is_format::<layout::Elem>();
     is_format::<layout::Table>();
+    is_format::<layout::Part>();
     is_format::<Section<'static>>();
     is_format::<Sections<'static>>();
     is_format::<ImageInfo<'static>>();
     is_format::<ImageError>();
-    is_format::<ValueError>();
+    is_format::<ImageValueError>();
     is_format::<WriteError>();
-    is_format::<layout::Field>();
-    is_format::<layout::Kind>();
-    is_format::<layout::Part>();
-    is_format::<slots::SlotId>();
-    is_format::<slots::Rejected>();
-    is_format::<slots::Selection<'static>>();
-    is_format::<slots::NoValidImage>();
-    is_format::<slots::WritePlan>();
-    is_format::<slots::SequenceExhausted>();
     is_format::<slots::ActiveCalibration>();
 };
 

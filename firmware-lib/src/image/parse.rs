@@ -1,100 +1,94 @@
 //! The one checked constructor behind [`Image::parse`]: bytes in, a fully validated [`Image`] or a specific
-//! [`ImageError`] out. The order of the checks is documented in the [module docs](super#order-of-the-checks).
+//! [`ImageError`] out. The order of the checks is documented in the [module docs](super#order-of-the-checks);
+//! the framing is [`crate::record`]'s.
 
-use super::layout::{self, fixed as lf, header, model_f32, ranges, section, trailer, Field};
-use super::{crc32, fixed, Image, ImageError, ValueError};
+use core::ops::Deref;
+
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section};
+use super::{fixed, Image, ImageError, ImageValueError};
 use crate::calibration::{
     AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL,
     MAX_SERIES,
 };
+use crate::record::frame::{array, len_u32, Extent, Framing, Reader};
+use crate::record::layout::Field;
+use crate::record::RecordType;
 
-/// A length as u32 for error reports (lengths here never exceed u32; larger ones saturate).
-pub(super) fn len_u32(n: usize) -> u32 {
-    u32::try_from(n).unwrap_or(u32::MAX)
-}
-
-/// The bytes of `f` within `part` as an array, or `None` if the part is too short or `N` is not the
-/// field's size.
-pub(super) fn array<const N: usize>(part: &[u8], f: &Field) -> Option<[u8; N]> {
-    part.get(f.offset..f.end())?.try_into().ok()
-}
-
-/// Whether the bytes must be exactly one image or may continue after it.
-#[derive(Clone, Copy, PartialEq, Eq)]
-pub(super) enum Extent {
-    /// [`Image::parse`]: trailing bytes are a [`ImageError::LengthMismatch`].
-    Exact,
-    /// [`Image::parse_prefix`]: the image starts the bytes; what follows is not looked at.
-    Prefix,
-}
+/// How an image is framed: `LTCI`, version 1, its total length a u32 at offset 8, from a header and a CRC
+/// up to [`layout::MAX_LEN`].
+pub(super) const FRAMING: Framing = Framing {
+    record: RecordType::CalibrationImage,
+    version: header::VERSION_VALUE,
+    header_len: header::LEN,
+    len: header::TOTAL_LEN,
+    min_len: layout::MIN_LEN,
+    max_len: layout::MAX_LEN,
+};
 
 pub(super) fn parse(bytes: &[u8], extent: Extent) -> Result<(Image<'_>, &[u8]), ImageError> {
-    let available = len_u32(bytes.len());
-    let short = |needed: usize| ImageError::Truncated { needed: len_u32(needed), available };
-
-    // 1. Magic.
-    let magic: [u8; 4] = array(bytes, &header::MAGIC).ok_or(short(header::LEN))?;
-    if magic != header::MAGIC_VALUE {
-        return Err(ImageError::BadMagic { found: magic });
-    }
-    // 2. Header, version.
-    let head = bytes.get(..header::LEN).ok_or(short(header::LEN))?;
-    let field_u16 = |f| array(head, f).map(u16::from_le_bytes).ok_or(short(header::LEN));
-    let field_u32 = |f| array(head, f).map(u32::from_le_bytes).ok_or(short(header::LEN));
-    let version = field_u16(&header::VERSION)?;
-    if version != header::VERSION_VALUE {
-        return Err(ImageError::UnsupportedVersion { found: version });
-    }
-    // 3. Declared length.
-    let declared = field_u32(&header::TOTAL_LEN)?;
-    let total = usize::try_from(declared).unwrap_or(usize::MAX);
-    if !(layout::MIN_LEN..=layout::MAX_LEN).contains(&total) || !total.is_multiple_of(section::ALIGN) {
-        return Err(ImageError::BadLength { declared });
-    }
-    let (image, rest) = bytes.split_at_checked(total).ok_or(short(total))?;
-    if extent == Extent::Exact && !rest.is_empty() {
-        return Err(ImageError::LengthMismatch { declared, actual: available });
-    }
-    // 4. CRC.
-    let (covered, tail) = image.split_at_checked(total - trailer::LEN).ok_or(short(total))?;
-    let stored = array(tail, &trailer::CRC).map(u32::from_le_bytes).ok_or(short(total))?;
-    let computed = crc32(covered);
-    if stored != computed {
-        return Err(ImageError::CrcMismatch { stored, computed });
-    }
-    // 5. Structure.
-    let body = covered.get(header::LEN..).ok_or(short(total))?;
+    // 1. The framing: magic, version, declared length, CRC.
+    let framed = FRAMING.check(bytes, extent)?;
+    let image = framed.bytes;
+    let total = image.len();
+    // The framing has shown the header and the CRC to be there: a short read here is a second guard.
+    let head = Reader::new(
+        image,
+        0,
+        ImageError::Format(crate::record::FormatError::Truncated {
+            needed: len_u32(total),
+            available: len_u32(total),
+        }),
+    );
+    // 2. Structure.
+    let body = head.range(header::LEN..total.saturating_sub(layout::trailer::LEN))?;
     let found = walk(body)?;
-    let declared_count = field_u16(&header::SECTION_COUNT)?;
+    let declared_count = head.u16(&header::SECTION_COUNT)?;
     if u32::from(declared_count) != found.count {
         return Err(ImageError::SectionCount { declared: declared_count, found: found.count });
     }
     let ranges_part = found.ranges.ok_or(ImageError::MissingSection { kind: ranges::KIND })?;
     let model_part = found.model.ok_or(ImageError::MissingSection { kind: model_f32::KIND })?;
-    // 6. Values.
-    let serial =
-        decode_serial(head.get(header::SERIAL.offset..header::SERIAL.end()).ok_or(short(header::LEN))?)?;
+    // 3. Values.
+    let serial = decode_serial(head.raw(&header::SERIAL)?)?;
     let calibration = decode(&ranges_part, &model_part)?;
     check_values(&calibration)?;
     let fixed = found.fixed.as_ref().map(|p| fixed::decode(p, &calibration)).transpose()?;
-
-    let sequence = field_u32(&header::SEQUENCE)?;
-    let calibrated_at =
-        array(head, &header::CALIBRATED_AT).map(u64::from_le_bytes).ok_or(short(header::LEN))?;
-    Ok((
-        Image { bytes: image, version, sequence, calibrated_at, serial, crc: stored, calibration, fixed },
-        rest,
-    ))
+    let image = Image {
+        bytes: image,
+        version: FRAMING.version,
+        sequence: head.u32(&header::SEQUENCE)?,
+        calibrated_at: head.u64(&header::CALIBRATED_AT)?,
+        serial,
+        crc: framed.crc,
+        calibration,
+        fixed,
+    };
+    Ok((image, framed.rest))
 }
 
-/// A known section's payload and where it lies in the image.
+/// A known section's payload and where it lies in the image, read through the checked reader (a field
+/// beyond the payload is the section's [`ImageError::SectionLength`]).
 pub(super) struct Part<'a> {
     pub(super) kind: u16,
-    /// The payload length of the layout (for a section of variable length, its smallest).
-    expected: usize,
-    /// Offset of the payload in the image.
-    pub(super) base: usize,
-    pub(super) bytes: &'a [u8],
+    read: Reader<'a, ImageError>,
+}
+
+impl<'a> Part<'a> {
+    /// A section of type `kind` whose layout has `expected` bytes (for a section of variable length, its
+    /// fewest), with its payload at offset `base` of the image.
+    fn new(kind: u16, expected: usize, base: usize, payload: &'a [u8]) -> Self {
+        let short =
+            ImageError::SectionLength { kind, found: len_u16(payload.len()), expected: len_u16(expected) };
+        Part { kind, read: Reader::new(payload, base, short) }
+    }
+}
+
+impl<'a> Deref for Part<'a> {
+    type Target = Reader<'a, ImageError>;
+
+    fn deref(&self) -> &Reader<'a, ImageError> {
+        &self.read
+    }
 }
 
 struct Found<'a> {
@@ -135,7 +129,7 @@ fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
             if exact && usize::from(len) != expected {
                 return Err(ImageError::SectionLength { kind, found: len, expected: len_u16(expected) });
             }
-            *slot = Some(Part { kind, expected, base, bytes: payload });
+            *slot = Some(Part::new(kind, expected, base, payload));
         }
         found.count = found.count.saturating_add(1);
         offset = base + usize::from(len);
@@ -159,73 +153,6 @@ fn decode_serial(raw: &[u8]) -> Result<&str, ImageError> {
         return Err(ImageError::BadSerial);
     }
     core::str::from_utf8(text).map_err(|_| ImageError::BadSerial)
-}
-
-impl Part<'_> {
-    /// A payload too short for its layout (the walk has already refused those of a fixed length: for them
-    /// this is a second guard).
-    pub(super) fn short(&self) -> ImageError {
-        ImageError::SectionLength {
-            kind: self.kind,
-            found: len_u16(self.bytes.len()),
-            expected: len_u16(self.expected),
-        }
-    }
-
-    /// The field's bytes.
-    fn get<const N: usize>(&self, f: &Field) -> Result<[u8; N], ImageError> {
-        array(self.bytes, f).ok_or(self.short())
-    }
-
-    pub(super) fn u8(&self, f: &Field) -> Result<u8, ImageError> {
-        self.get::<1>(f).map(|[b]| b)
-    }
-
-    pub(super) fn u16(&self, f: &Field) -> Result<u16, ImageError> {
-        self.get(f).map(u16::from_le_bytes)
-    }
-
-    pub(super) fn u32(&self, f: &Field) -> Result<u32, ImageError> {
-        self.get(f).map(u32::from_le_bytes)
-    }
-
-    pub(super) fn i32(&self, f: &Field) -> Result<i32, ImageError> {
-        self.get(f).map(i32::from_le_bytes)
-    }
-
-    fn f32(&self, f: &Field) -> Result<f32, ImageError> {
-        self.get(f).map(f32::from_le_bytes)
-    }
-
-    fn f32s<const N: usize>(&self, f: &Field) -> Result<[f32; N], ImageError> {
-        let raw = self.bytes.get(f.offset..f.end()).ok_or(self.short())?;
-        let (words, rest) = raw.as_chunks::<4>();
-        if words.len() != N || !rest.is_empty() {
-            return Err(self.short());
-        }
-        let mut out = [0.0f32; N];
-        for (v, w) in out.iter_mut().zip(words) {
-            *v = f32::from_le_bytes(*w);
-        }
-        Ok(out)
-    }
-
-    /// The field's bytes are all zero ([`ImageError::ReservedNotZero`] at the first that is not).
-    pub(super) fn reserved(&self, f: &Field) -> Result<(), ImageError> {
-        let raw = self.bytes.get(f.offset..f.end()).ok_or(self.short())?;
-        match raw.iter().position(|&b| b != 0) {
-            Some(i) => Err(ImageError::ReservedNotZero { offset: len_u32(self.base + f.offset + i) }),
-            None => Ok(()),
-        }
-    }
-
-    pub(super) fn flag(&self, f: &Field) -> Result<bool, ImageError> {
-        match self.u8(f)? {
-            0 => Ok(false),
-            1 => Ok(true),
-            found => Err(ImageError::BadFlag { field: f.name, found }),
-        }
-    }
 }
 
 /// Decodes the two required sections into a calibration (structure of the payloads: reserved bytes, flags).
@@ -278,7 +205,7 @@ fn decode(r: &Part<'_>, m: &Part<'_>) -> Result<Calibration, ImageError> {
 
 /// The value checks shared by the parser and the writer: term counts within capacity, every stored f32
 /// finite (used or not), then [`Calibration::validate`].
-pub(super) fn check_values(c: &Calibration) -> Result<(), ValueError> {
+pub(super) fn check_values(c: &Calibration) -> Result<(), ImageValueError> {
     use model_f32 as mf;
     let m = &c.model;
     let r = &m.residual;
@@ -292,7 +219,7 @@ pub(super) fn check_values(c: &Calibration) -> Result<(), ValueError> {
     for (f, found, capacity) in counts {
         if usize::from(found) > capacity {
             let capacity = u8::try_from(capacity).unwrap_or(u8::MAX);
-            return Err(ValueError::TableSize { field: f.name, found, capacity });
+            return Err(ImageValueError::TableSize { field: f.name, found, capacity });
         }
     }
     let scalars = [
@@ -315,7 +242,7 @@ pub(super) fn check_values(c: &Calibration) -> Result<(), ValueError> {
     ];
     for (f, v) in scalars {
         if !v.is_finite() {
-            return Err(ValueError::NonFinite { field: f.name, index: 0 });
+            return Err(ImageValueError::NonFinite { field: f.name, index: 0 });
         }
     }
     let arrays: [(&Field, &[f32]); 4] = [
@@ -326,8 +253,11 @@ pub(super) fn check_values(c: &Calibration) -> Result<(), ValueError> {
     ];
     for (f, vs) in arrays {
         if let Some(i) = vs.iter().position(|v| !v.is_finite()) {
-            return Err(ValueError::NonFinite { field: f.name, index: u8::try_from(i).unwrap_or(u8::MAX) });
+            return Err(ImageValueError::NonFinite {
+                field: f.name,
+                index: u8::try_from(i).unwrap_or(u8::MAX),
+            });
         }
     }
-    c.validate().map_err(ValueError::Calibration)
+    c.validate().map_err(ImageValueError::Calibration)
 }

@@ -4,10 +4,12 @@ use std::vec::Vec;
 use proptest::prelude::*;
 
 use super::layout::{self, header, model_f32, ranges, section, trailer};
-use super::slots::{self, ActiveCalibration, Rejected, SlotId};
+use super::slots::{self, ActiveCalibration};
 use super::*;
 use crate::calibration::{BiasTerm, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL, MAX_SERIES};
 use crate::error::{CalibrationDefect, Error};
+use crate::record::slots::{Rejected, SequenceExhausted, SlotId, WritePlan};
+use crate::record::{BufferTooSmall, FormatError};
 
 /// A unit with every model term in use (a strong low-end bend, a high-end bend, a residual).
 fn hard_unit() -> Calibration {
@@ -120,14 +122,6 @@ fn bits(c: &Calibration) -> Vec<u64> {
 // The CRC and the layout
 
 #[test]
-fn crc_is_crc32_iso_hdlc_check_value() {
-    // CRC catalogue check value of CRC-32/ISO-HDLC over ASCII "123456789" (also in NUMERICS.md).
-    assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
-    // And not CRC-32C (Castagnoli), whose check value is 0xE3069283 (same catalogue).
-    assert_ne!(crc32(b"123456789"), 0xE306_9283);
-}
-
-#[test]
 fn stored_crc_agrees_with_an_independent_implementation() {
     // crc32fast is an independent implementation of the IEEE CRC-32 (a general-purpose reference library).
     let img = typical();
@@ -164,20 +158,8 @@ fn layout_parts_are_contiguous_and_sized() {
     // Every table's count field is a u16 field of its own part.
     for t in layout::fixed::TABLES {
         assert!(layout::fixed::FIELDS.contains(&t.count), "{}", t.name);
-        assert_eq!(t.count.kind, layout::Kind::U16, "{}", t.name);
+        assert_eq!(t.count.kind, crate::record::layout::Kind::U16, "{}", t.name);
     }
-}
-
-#[test]
-fn layout_table_in_the_docs_is_rendered_from_the_constants() {
-    let mut table = String::new();
-    layout::write_markdown_table(&mut table).unwrap();
-    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/src/image/LAYOUT.md");
-    if std::env::var_os("LOGTRIM_BLESS").is_some() {
-        std::fs::write(path, &table).unwrap();
-    }
-    let doc = std::fs::read_to_string(path).unwrap();
-    assert_eq!(doc, table, "LAYOUT.md is stale: run the tests with LOGTRIM_BLESS=1 to regenerate it");
 }
 
 #[test]
@@ -403,13 +385,15 @@ proptest! {
 /// Which check a single flipped bit at `byte` must trip, by the documented order of the checks.
 fn expected_for_flip(byte: usize, got: &ImageError) -> bool {
     match byte {
-        0..=3 => matches!(got, ImageError::BadMagic { .. }),
-        4..=5 => matches!(got, ImageError::UnsupportedVersion { .. }),
+        0..=3 => matches!(got, ImageError::Format(FormatError::BadMagic { .. })),
+        4..=5 => matches!(got, ImageError::Format(FormatError::UnsupportedVersion { .. })),
         8..=11 => matches!(
             got,
-            ImageError::BadLength { .. } | ImageError::Truncated { .. } | ImageError::LengthMismatch { .. }
+            ImageError::Format(FormatError::BadLength { .. })
+                | ImageError::Format(FormatError::Truncated { .. })
+                | ImageError::Format(FormatError::LengthMismatch { .. })
         ),
-        _ => matches!(got, ImageError::CrcMismatch { .. }),
+        _ => matches!(got, ImageError::Format(FormatError::CrcMismatch { .. })),
     }
 }
 
@@ -456,18 +440,32 @@ fn every_single_bit_flip_of_a_larger_image_is_rejected() {
 fn every_truncation_is_rejected() {
     let img = typical();
     for n in 0..img.len() {
-        let want = if n < header::LEN { header::LEN } else { img.len() };
+        // Until the declared length can be read, the header is what is missing; then the declared length.
+        let want = if n < header::TOTAL_LEN.end() { header::LEN } else { img.len() };
         let e = Image::parse(&img[..n]).unwrap_err();
-        assert_eq!(e, ImageError::Truncated { needed: want as u32, available: n as u32 }, "length {n}");
+        assert_eq!(
+            e,
+            ImageError::Format(FormatError::Truncated { needed: want as u32, available: n as u32 }),
+            "length {n}"
+        );
         assert_eq!(Image::parse_prefix(&img[..n]).unwrap_err(), e);
     }
 }
 
 #[test]
 fn erased_blank_and_foreign_memory_are_not_images() {
-    assert_eq!(Image::parse(&[0xff; 268]).unwrap_err(), ImageError::BadMagic { found: [0xff; 4] });
-    assert_eq!(Image::parse(&[0; 268]).unwrap_err(), ImageError::BadMagic { found: [0; 4] });
-    assert!(matches!(Image::parse(b"{\"format\": \"json\"}"), Err(ImageError::BadMagic { .. })));
+    assert_eq!(
+        Image::parse(&[0xff; 268]).unwrap_err(),
+        ImageError::Format(FormatError::BadMagic { found: [0xff; 4] })
+    );
+    assert_eq!(
+        Image::parse(&[0; 268]).unwrap_err(),
+        ImageError::Format(FormatError::BadMagic { found: [0; 4] })
+    );
+    assert!(matches!(
+        Image::parse(b"{\"format\": \"json\"}"),
+        Err(ImageError::Format(FormatError::BadMagic { .. }))
+    ));
 }
 
 // ---------------------------------------------------------------------------------------------------------
@@ -478,21 +476,33 @@ fn header_errors() {
     let img = typical();
     let mut v = img.clone();
     v[4] = 2;
-    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::UnsupportedVersion { found: 2 });
+    assert_eq!(
+        Image::parse(&v).unwrap_err(),
+        ImageError::Format(FormatError::UnsupportedVersion { found: 2, supported: 1 })
+    );
     for bad in [0u32, 43, 262, 65540, u32::MAX] {
         let mut v = img.clone();
         v[8..12].copy_from_slice(&bad.to_le_bytes());
-        assert_eq!(Image::parse(&v).unwrap_err(), ImageError::BadLength { declared: bad });
+        assert_eq!(
+            Image::parse(&v).unwrap_err(),
+            ImageError::Format(FormatError::BadLength { declared: bad, min: 44, max: 65536 })
+        );
     }
     let mut v = img.clone();
     v.push(0);
-    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::LengthMismatch { declared: 268, actual: 269 });
+    assert_eq!(
+        Image::parse(&v).unwrap_err(),
+        ImageError::Format(FormatError::LengthMismatch { declared: 268, actual: 269 })
+    );
     assert!(Image::parse_prefix(&v).is_ok());
     let mut v = img.clone();
     v[100] ^= 0x10;
     let computed = crc32fast::hash(&v[..264]);
     let stored = u32::from_le_bytes(v[264..].try_into().unwrap());
-    assert_eq!(Image::parse(&v).unwrap_err(), ImageError::CrcMismatch { stored, computed });
+    assert_eq!(
+        Image::parse(&v).unwrap_err(),
+        ImageError::Format(FormatError::CrcMismatch { stored, computed })
+    );
 }
 
 #[test]
@@ -556,53 +566,69 @@ fn value_errors() {
     assert_eq!(edit(24 + 3, &[0x07]), ImageError::BadSerial); // a control character
     assert_eq!(edit(24 + 2, &[0x80]), ImageError::BadSerial); // not ASCII
     assert_eq!(edit(24 + 14, b"X"), ImageError::BadSerial); // text after the NUL padding
-    assert_eq!(edit(r0 + 2, &[1]), ImageError::ReservedNotZero { offset: (r0 + 2) as u32 });
-    assert_eq!(edit(m0 + 27, &[9]), ImageError::ReservedNotZero { offset: (m0 + 27) as u32 });
-    assert_eq!(edit(m0 + 23, &[2]), ImageError::BadFlag { field: "bias_enabled", found: 2 });
+    assert_eq!(
+        edit(r0 + 2, &[1]),
+        ImageError::Format(FormatError::ReservedNotZero { offset: (r0 + 2) as u32 })
+    );
+    assert_eq!(
+        edit(m0 + 27, &[9]),
+        ImageError::Format(FormatError::ReservedNotZero { offset: (m0 + 27) as u32 })
+    );
+    assert_eq!(
+        edit(m0 + 23, &[2]),
+        ImageError::Format(FormatError::BadFlag { field: "bias_enabled", found: 2 })
+    );
     assert_eq!(
         edit(m0 + 21, &[7]),
-        ImageError::Value(ValueError::TableSize { field: "slope_len", found: 7, capacity: 6 })
+        ImageError::Value(ImageValueError::TableSize { field: "slope_len", found: 7, capacity: 6 })
     );
     assert_eq!(
         edit(m0 + 25, &[5]),
-        ImageError::Value(ValueError::TableSize { field: "residual_nt", found: 5, capacity: 4 })
+        ImageError::Value(ImageValueError::TableSize { field: "residual_nt", found: 5, capacity: 4 })
     );
     // NaN in an unused coefficient (slope has 3 terms; index 5 is unused) is still refused.
     assert_eq!(
         edit(m0 + 52 + 20, &f32::NAN.to_le_bytes()),
-        ImageError::Value(ValueError::NonFinite { field: "slope_coeffs", index: 5 })
+        ImageError::Value(ImageValueError::NonFinite { field: "slope_coeffs", index: 5 })
     );
     assert_eq!(
         edit(r0 + 12, &f32::INFINITY.to_le_bytes()),
-        ImageError::Value(ValueError::NonFinite { field: "t_max_c", index: 0 })
+        ImageError::Value(ImageValueError::NonFinite { field: "t_max_c", index: 0 })
     );
     for bits in [0u8, 25] {
         assert_eq!(
             edit(r0, &[bits]),
-            ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(CalibrationDefect::AdcBits)))
+            ImageError::Value(ImageValueError::Calibration(Error::InvalidCalibration(
+                CalibrationDefect::AdcBits
+            )))
         );
     }
     // A reversed temperature range.
     assert_eq!(
         edit(r0 + 8, &100.0f32.to_le_bytes()),
-        ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(
+        ImageError::Value(ImageValueError::Calibration(Error::InvalidCalibration(
             CalibrationDefect::TemperatureRange
         )))
     );
     // A negative slope.
     assert_eq!(
         edit(m0 + 52, &(-1900.0f32).to_le_bytes()),
-        ImageError::Value(ValueError::Calibration(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)))
+        ImageError::Value(ImageValueError::Calibration(Error::InvalidCalibration(
+            CalibrationDefect::ZeroSlope
+        )))
     );
 }
 
 #[test]
 fn errors_display_specifically() {
-    let e = ImageError::Truncated { needed: 268, available: 100 };
+    let e = ImageError::Format(FormatError::Truncated { needed: 268, available: 100 });
     assert_eq!(std::format!("{e}"), "image truncated: 100 bytes, 268 needed");
-    let e = ImageError::BadMagic { found: *b"\x7fELF" };
-    assert_eq!(std::format!("{e}"), "not a calibration image: starts with 7f 45 4c 46");
-    let e = ImageError::Value(ValueError::NonFinite { field: "pole", index: 0 });
+    let e = ImageError::Format(FormatError::BadMagic { found: *b"\x7fELF" });
+    assert_eq!(
+        std::format!("{e}"),
+        "not a calibration image: starts with 7f 45 4c 46 (erased or foreign data)"
+    );
+    let e = ImageError::Value(ImageValueError::NonFinite { field: "pole", index: 0 });
     assert_eq!(std::format!("{e}"), "pole[0] is NaN or infinite");
 }
 
@@ -614,7 +640,7 @@ fn write_errors_leave_the_buffer_untouched() {
     let cal = hard_unit();
     let mut buf = [0xa5u8; 300];
     let e = write(&mut buf[..100], &INFO, &cal).unwrap_err();
-    assert_eq!(e, WriteError::BufferTooSmall { needed: 268, available: 100 });
+    assert_eq!(e, WriteError::BufferTooSmall(BufferTooSmall { needed: 268, available: 100 }));
     for s in ["0123456789ABCDEFG", "tab\there", "Prüfling-7"] {
         let info = ImageInfo { serial: s, ..INFO };
         assert_eq!(write(&mut buf, &info, &cal).unwrap_err(), WriteError::BadSerial, "{s:?}");
@@ -623,14 +649,17 @@ fn write_errors_leave_the_buffer_untouched() {
     nan.model.bulk.coeffs[4] = f32::NAN;
     assert_eq!(
         write(&mut buf, &INFO, &nan).unwrap_err(),
-        WriteError::Value(ValueError::NonFinite { field: "bulk_coeffs", index: 4 })
+        WriteError::Value(ImageValueError::NonFinite { field: "bulk_coeffs", index: 4 })
     );
     let mut long = cal;
     long.model.offset.len = 9;
-    assert!(matches!(write(&mut buf, &INFO, &long), Err(WriteError::Value(ValueError::TableSize { .. }))));
+    assert!(matches!(
+        write(&mut buf, &INFO, &long),
+        Err(WriteError::Value(ImageValueError::TableSize { .. }))
+    ));
     let mut bad = cal;
     bad.x_range.max = bad.x_range.min;
-    assert!(matches!(write(&mut buf, &INFO, &bad), Err(WriteError::Value(ValueError::Calibration(_)))));
+    assert!(matches!(write(&mut buf, &INFO, &bad), Err(WriteError::Value(ImageValueError::Calibration(_)))));
     for (kind, payload) in [(0x0042u16, &[0u8; 4][..]), (ranges::KIND, &[0; 32][..]), (0x8042, &[0; 3][..])] {
         let extra = [Section { kind, payload }];
         assert_eq!(
@@ -664,8 +693,8 @@ fn the_newest_valid_slot_wins() {
     let new = unit_image(5, 1_700_000_000, 1950.0); // an older clock: the counter decides
     let s = slots::select(&old, &new).unwrap();
     assert_eq!(s.slot, SlotId::B);
-    assert_eq!(s.image.calibration().model.slope.coeffs[0], 1950.0);
-    assert_eq!(s.other, Rejected::Older { sequence: 4, calibrated_at: 1_800_000_000 });
+    assert_eq!(s.record.calibration().model.slope.coeffs[0], 1950.0);
+    assert_eq!(s.other, Rejected::Older { sequence: 4, time: 1_800_000_000 });
     let s = slots::select(&new, &old).unwrap();
     assert_eq!(s.slot, SlotId::A);
 
@@ -687,9 +716,12 @@ fn an_invalid_slot_is_reported_with_its_error() {
     bad[150] ^= 1;
     let s = slots::select(&good, &bad).unwrap();
     assert_eq!(s.slot, SlotId::A);
-    assert!(matches!(s.other, Rejected::Invalid(ImageError::CrcMismatch { .. })));
+    assert!(matches!(s.other, Rejected::Invalid(ImageError::Format(FormatError::CrcMismatch { .. }))));
     let s = slots::select(&[0xff; 324], &good).unwrap();
-    assert_eq!((s.slot, s.other), (SlotId::B, Rejected::Invalid(ImageError::BadMagic { found: [0xff; 4] })));
+    assert_eq!(
+        (s.slot, s.other),
+        (SlotId::B, Rejected::Invalid(ImageError::Format(FormatError::BadMagic { found: [0xff; 4] })))
+    );
 }
 
 #[test]
@@ -698,8 +730,8 @@ fn neither_slot_valid_means_not_calibrated() {
     bad[150] ^= 1;
     let sel = slots::select(&[0xff; 324], &bad);
     let e = sel.unwrap_err();
-    assert_eq!(e.a, ImageError::BadMagic { found: [0xff; 4] });
-    assert!(matches!(e.b, ImageError::CrcMismatch { .. }));
+    assert_eq!(e.a, Rejected::Invalid(ImageError::Format(FormatError::BadMagic { found: [0xff; 4] })));
+    assert!(matches!(e.b, Rejected::Invalid(ImageError::Format(FormatError::CrcMismatch { .. }))));
     let active = ActiveCalibration::from_selection(&sel);
     assert!(!active.is_calibrated());
     assert_eq!(active.correct(32768, 25.0), Err(Error::NotCalibrated));
@@ -718,13 +750,13 @@ fn a_write_cut_short_at_any_byte_keeps_the_old_image() {
     let a = unit_image(6, 1_700_000_000, 1900.0);
     let b_old = unit_image(5, 1_690_000_000, 1880.0);
     let plan = slots::next_write(&a, &b_old).unwrap();
-    assert_eq!(plan, slots::WritePlan { slot: SlotId::B, sequence: 7 });
+    assert_eq!(plan, WritePlan { slot: SlotId::B, sequence: 7 });
     let new = unit_image(plan.sequence, 1_710_000_000, 1920.0);
     let mut b = b_old.clone();
     for k in 0..=new.len() {
         b[..k].copy_from_slice(&new[..k]);
         let s = slots::select(&a, &b).unwrap();
-        let slope = s.image.calibration().model.slope.coeffs[0];
+        let slope = s.record.calibration().model.slope.coeffs[0];
         if k < 268 {
             assert_eq!((s.slot, slope), (SlotId::A, 1900.0), "k = {k}");
         } else {
@@ -737,13 +769,13 @@ fn a_write_cut_short_at_any_byte_keeps_the_old_image() {
 #[test]
 fn next_write_plans() {
     let erased = [0xffu8; 324];
-    assert_eq!(slots::next_write(&erased, &erased), Ok(slots::WritePlan { slot: SlotId::A, sequence: 1 }));
+    assert_eq!(slots::next_write(&erased, &erased), Ok(WritePlan { slot: SlotId::A, sequence: 1 }));
     let a = unit_image(1, 1_700_000_000, 1900.0);
-    assert_eq!(slots::next_write(&a, &erased), Ok(slots::WritePlan { slot: SlotId::B, sequence: 2 }));
+    assert_eq!(slots::next_write(&a, &erased), Ok(WritePlan { slot: SlotId::B, sequence: 2 }));
     let b = unit_image(2, 1_700_000_000, 1900.0);
-    assert_eq!(slots::next_write(&a, &b), Ok(slots::WritePlan { slot: SlotId::A, sequence: 3 }));
+    assert_eq!(slots::next_write(&a, &b), Ok(WritePlan { slot: SlotId::A, sequence: 3 }));
     let last = unit_image(u32::MAX, 1_700_000_000, 1900.0);
-    assert_eq!(slots::next_write(&last, &erased), Err(slots::SequenceExhausted));
+    assert_eq!(slots::next_write(&last, &erased), Err(SequenceExhausted));
 }
 
 // ---------------------------------------------------------------------------------------------------------
@@ -753,24 +785,15 @@ mod fixed_section {
     use std::vec;
 
     use super::*;
-    use crate::error::SensorFault;
-    use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+    use crate::fixed::{FixedCalibration, FixedHeader};
     use layout::fixed as lf;
 
-    /// Owned fixed-point tables, built by hand: a linear unit (x = (code − 32768)/4096 Np, the structure
-    /// of `fixed::tests::linear`) made uneven on purpose, so that every table's content matters: drifting
+    use crate::test_units::LinearFixed as Owned;
+
+    /// Owned fixed-point tables on the crate's linear unit's grids and sensor span: a unit of about
+    /// x = (code − 32768)/4096 Np made uneven on purpose, so that every table's content matters: drifting
     /// offset and slope, a bias floor and a sensitivity limit, a non-zero residual, a sensor table. The
     /// converter is that of `hard_unit()` (16 bits, rail margin 16), as the format requires.
-    pub(super) struct Owned {
-        pub header: FixedHeader,
-        pub offset: Vec<i32>,
-        pub inv_slope: Vec<i32>,
-        pub ln_bias: Vec<i32>,
-        pub u_min: Vec<i32>,
-        pub residual: Vec<i16>,
-        pub sensor: Option<Vec<i32>>,
-    }
-
     pub(super) fn owned(seed: u32, sensor: bool, bias: bool) -> Owned {
         // A small deterministic generator (an LCG with the usual Numerical Recipes constants, common
         // practice): the content only has to be uneven and reproducible.
@@ -779,27 +802,13 @@ mod fixed_section {
             state = state.wrapping_mul(1_664_525).wrapping_add(1_013_904_223);
             (state >> 8) as i32 % span
         };
+        // The linear unit's header, with the bias tables as asked and an x range of ±7 Np.
         let header = FixedHeader {
-            layout: LAYOUT_VERSION,
-            adc_max_code: 65535,
-            rail_margin: 16,
-            temp_min: 0,
-            temp_max: 50_000 * 1024,
-            temp_lo: -5_000 * 1024,
-            temp_hi: 55_000 * 1024,
-            t_knots: 4,
-            t_origin: -5_000 * 1024,
-            t_inv_step: 13_743_895,
-            offset_frac: 14,
-            inv_slope_frac: 42,
             bias_bend: bias,
             sensitivity_limit: bias,
-            xa_knots: 5,
-            xa_origin: -9 * (1 << 24),
-            xa_inv_step: 3_728_270,
-            residual_frac: 16,
             x_min: -7 * (1 << 24),
             x_max: 7 * (1 << 24),
+            ..crate::test_units::LINEAR_HEADER
         };
         let q24 = 1 << 24;
         Owned {
@@ -814,32 +823,12 @@ mod fixed_section {
             },
             u_min: if bias { (0..6).map(|i| -10 * q24 + i * q24 / 2 + next(1000)).collect() } else { vec![] },
             residual: (0..42).map(|_| next(400) as i16 - 200).collect(),
-            sensor: sensor.then(|| (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()),
-        }
-    }
-
-    impl Owned {
-        pub(super) fn view(&self) -> FixedCalibration<'_> {
-            FixedCalibration {
-                header: self.header,
-                offset: &self.offset,
-                inv_slope: &self.inv_slope,
-                ln_bias: &self.ln_bias,
-                u_min: &self.u_min,
-                residual: &self.residual,
-                sensor: self.sensor.as_ref().map(|knots| SensorTable {
-                    code_lo: 100,
-                    code_hi: 4000,
-                    step_log2: 8,
-                    fault_below: SensorFault::OutOfModelRange,
-                    far_below_code: 10,
-                    fault_far_below: SensorFault::Short,
-                    fault_above: SensorFault::OutOfModelRange,
-                    far_above_code: 4090,
-                    fault_far_above: SensorFault::Open,
-                    knots,
-                }),
-            }
+            sensor: if sensor {
+                (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()
+            } else {
+                vec![]
+            },
+            has_sensor: sensor,
         }
     }
 
@@ -907,7 +896,7 @@ mod fixed_section {
             assert!(sec.ln_bias().eq(o.ln_bias.iter().copied()));
             assert!(sec.u_min().eq(o.u_min.iter().copied()));
             assert!(sec.residual().eq(o.residual.iter().copied()));
-            assert!(sec.sensor_knots().eq(o.sensor.iter().flatten().copied()));
+            assert!(sec.sensor_knots().eq(o.sensor.iter().copied()));
             assert_eq!(sec.len_of(&lf::RESIDUAL), 42);
             assert_eq!(sec.len_of(&lf::LN_BIAS), if bias { 6 } else { 0 });
             // Writing the loaded tables again gives the same bytes.
@@ -952,9 +941,14 @@ mod fixed_section {
     fn every_truncation_of_an_image_with_the_section_is_rejected() {
         let img = image_with(&owned(5, true, true).view());
         for n in 0..img.len() {
-            let want = if n < header::LEN { header::LEN } else { img.len() };
+            // Until the declared length can be read, the header is what is missing; then the declared length.
+            let want = if n < header::TOTAL_LEN.end() { header::LEN } else { img.len() };
             let e = Image::parse(&img[..n]).unwrap_err();
-            assert_eq!(e, ImageError::Truncated { needed: want as u32, available: n as u32 }, "length {n}");
+            assert_eq!(
+                e,
+                ImageError::Format(FormatError::Truncated { needed: want as u32, available: n as u32 }),
+                "length {n}"
+            );
         }
         // A section cut short inside an image whose lengths were rewritten to match (a writer that lost the
         // end of the tables): refused by the section's own sizes.
@@ -980,9 +974,9 @@ mod fixed_section {
     #[test]
     fn inconsistent_table_sizes_have_their_own_error() {
         let img = image_with(&owned(5, true, true).view());
-        let at = |f: &layout::Field| P0 + f.offset;
+        let at = |f: &crate::record::layout::Field| P0 + f.offset;
         let size_err = |table, found, expected| {
-            Err(ImageError::Value(ValueError::FixedTableSize { table, found, expected }))
+            Err(ImageError::Value(ImageValueError::FixedTableSize { table, found, expected }))
         };
         // A count that disagrees with the dimensions.
         assert_eq!(
@@ -1056,37 +1050,37 @@ mod fixed_section {
     #[test]
     fn section_value_errors() {
         let img = image_with(&owned(5, true, true).view());
-        let at = |f: &layout::Field| P0 + f.offset;
+        let at = |f: &crate::record::layout::Field| P0 + f.offset;
         let parse = |v: Vec<u8>| Image::parse(&v).map(|_| ());
         assert_eq!(
             parse(edit(&img, at(&lf::SENSITIVITY_LIMIT), &[2])),
-            Err(ImageError::BadFlag { field: "sensitivity_limit", found: 2 })
+            Err(ImageError::Format(FormatError::BadFlag { field: "sensitivity_limit", found: 2 }))
         );
         assert_eq!(
             parse(edit(&img, at(&lf::FAULT_FAR_ABOVE), &[3])),
-            Err(ImageError::BadEnum { field: "fault_far_above", found: 3 })
+            Err(ImageError::Format(FormatError::BadEnum { field: "fault_far_above", found: 3 }))
         );
         assert_eq!(
             parse(edit(&img, at(&lf::RESERVED2) + 1, &[1])),
-            Err(ImageError::ReservedNotZero { offset: (at(&lf::RESERVED2) + 1) as u32 })
+            Err(ImageError::Format(FormatError::ReservedNotZero { offset: (at(&lf::RESERVED2) + 1) as u32 }))
         );
         assert_eq!(
             parse(edit(&img, at(&lf::ADC_MAX_CODE), &4095u32.to_le_bytes())),
-            Err(ImageError::Value(ValueError::FixedMismatch { field: "adc_max_code" }))
+            Err(ImageError::Value(ImageValueError::FixedMismatch { field: "adc_max_code" }))
         );
         assert_eq!(
             parse(edit(&img, at(&lf::RAIL_MARGIN), &8u32.to_le_bytes())),
-            Err(ImageError::Value(ValueError::FixedMismatch { field: "rail_margin" }))
+            Err(ImageError::Value(ImageValueError::FixedMismatch { field: "rail_margin" }))
         );
         // Without a sensor table its fields are stored as zero.
         let no_sensor = image_with(&owned(5, false, true).view());
         assert_eq!(
             parse(edit(&no_sensor, at(&lf::SENSOR_CODE_HI), &[1])),
-            Err(ImageError::ReservedNotZero { offset: at(&lf::SENSOR_CODE_HI) as u32 })
+            Err(ImageError::Format(FormatError::ReservedNotZero { offset: at(&lf::SENSOR_CODE_HI) as u32 }))
         );
         assert_eq!(
             parse(edit(&no_sensor, at(&lf::FAULT_BELOW), &[1])),
-            Err(ImageError::ReservedNotZero { offset: at(&lf::FAULT_BELOW) as u32 })
+            Err(ImageError::Format(FormatError::ReservedNotZero { offset: at(&lf::FAULT_BELOW) as u32 }))
         );
     }
 
@@ -1104,7 +1098,7 @@ mod fixed_section {
         assert_eq!(&img[pad..pad + 2], &[0, 0]);
         assert_eq!(
             Image::parse(&edit(&img, pad + 1, &[0x40])).unwrap_err(),
-            ImageError::ReservedNotZero { offset: (pad + 1) as u32 }
+            ImageError::Format(FormatError::ReservedNotZero { offset: (pad + 1) as u32 })
         );
     }
 
@@ -1119,7 +1113,7 @@ mod fixed_section {
         let mut storage = Small::new();
         assert_eq!(
             parsed.fixed_into(&mut storage),
-            Err(ImageError::Value(ValueError::Fixed(Error::InvalidCalibration(
+            Err(ImageError::Value(ImageValueError::Fixed(Error::InvalidCalibration(
                 CalibrationDefect::ZeroSlope
             ))))
         );
@@ -1128,7 +1122,7 @@ mod fixed_section {
         let bad = edit(&img, P0 + lf::LAYOUT.offset, &[9]);
         assert!(matches!(
             Image::parse(&bad).unwrap().fixed_into(&mut storage),
-            Err(ImageError::Value(ValueError::Fixed(_)))
+            Err(ImageError::Value(ImageValueError::Fixed(_)))
         ));
         // A failed load forgets what was loaded before.
         assert!(Image::parse(&img).unwrap().fixed_into(&mut storage).is_ok());
@@ -1166,25 +1160,27 @@ mod fixed_section {
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
         assert_eq!(
             e,
-            WriteError::Value(ValueError::FixedTableSize { table: "offset", found: 7, expected: 6 })
+            WriteError::Value(ImageValueError::FixedTableSize { table: "offset", found: 7, expected: 6 })
         );
         let mut o = owned(5, true, true);
         o.header.bias_bend = false;
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
         assert_eq!(
             e,
-            WriteError::Value(ValueError::FixedTableSize { table: "ln_bias", found: 6, expected: 0 })
+            WriteError::Value(ImageValueError::FixedTableSize { table: "ln_bias", found: 6, expected: 0 })
         );
         let mut o = owned(5, true, true);
         o.header.rail_margin = 4;
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
-        assert_eq!(e, WriteError::Value(ValueError::FixedMismatch { field: "rail_margin" }));
+        assert_eq!(e, WriteError::Value(ImageValueError::FixedMismatch { field: "rail_margin" }));
         let mut o = owned(5, true, true);
         o.inv_slope[2] = -1;
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
         assert_eq!(
             e,
-            WriteError::Value(ValueError::Fixed(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)))
+            WriteError::Value(ImageValueError::Fixed(Error::InvalidCalibration(
+                CalibrationDefect::ZeroSlope
+            )))
         );
         // The fixed section only goes in through its own argument.
         let o = owned(5, true, true);
@@ -1196,7 +1192,10 @@ mod fixed_section {
         // Too small a buffer.
         let need = encoded_len_with_fixed(&cal, Some(&o.view()), &[]).unwrap();
         let e = write_with_fixed(&mut buf[..need - 1], &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
-        assert_eq!(e, WriteError::BufferTooSmall { needed: need as u32, available: need as u32 - 1 });
+        assert_eq!(
+            e,
+            WriteError::BufferTooSmall(BufferTooSmall { needed: need as u32, available: need as u32 - 1 })
+        );
         assert!(buf.iter().all(|&b| b == 0xa5), "a failed write changed the buffer");
         // More tables than a section holds: 128 × 2 temperature knots and 300 x̃ knots.
         let mut big = owned(5, false, false);
@@ -1244,7 +1243,7 @@ mod fixed_section {
         let (a, b) = (slot_with(3, &old), slot_with(4, &new));
         let mut storage = Small::new();
         let (s, c) = slots::select_fixed(&a, &b, &mut storage).unwrap();
-        assert_eq!((s.slot, s.image.sequence()), (SlotId::B, 4));
+        assert_eq!((s.slot, s.record.sequence()), (SlotId::B, 4));
         assert_eq!(c, new.view());
         let (s, c) = slots::select_fixed(&b, &a, &mut storage).unwrap();
         assert_eq!(s.slot, SlotId::A);
@@ -1259,7 +1258,7 @@ mod fixed_section {
         let (s, c) = slots::select_fixed(&a, &bad, &mut storage).unwrap();
         assert_eq!(s.slot, SlotId::A);
         assert_eq!(c, old.view());
-        assert!(matches!(s.other, Rejected::Invalid(ImageError::Value(ValueError::Fixed(_)))));
+        assert!(matches!(s.other, Rejected::Invalid(ImageError::Value(ImageValueError::Fixed(_)))));
 
         // An image without a fixed section does not count; with none left, the unit is not calibrated.
         let f32_only = unit_image(9, 1_700_000_000, 1900.0);
@@ -1267,12 +1266,12 @@ mod fixed_section {
         assert_eq!(s.slot, SlotId::B);
         assert_eq!(s.other, Rejected::Invalid(ImageError::MissingSection { kind: lf::KIND }));
         let e = slots::select_fixed(&f32_only, &[0xff; 400], &mut storage).unwrap_err();
-        assert_eq!(e.a, ImageError::MissingSection { kind: lf::KIND });
+        assert_eq!(e.a, Rejected::Invalid(ImageError::MissingSection { kind: lf::KIND }));
         // The f32 choice is unchanged: the newest valid image, fixed section or not.
         assert_eq!(slots::select(&f32_only, &a).unwrap().slot, SlotId::A);
         // Tables too large for the storage count as invalid too.
         let e = slots::select_fixed(&a, &b, &mut FixedStorage::<6, 42, 4>::new()).unwrap_err();
-        assert!(matches!(e.a, ImageError::FixedCapacity { table: "sensor_knots", .. }));
+        assert!(matches!(e.a, Rejected::Invalid(ImageError::FixedCapacity { table: "sensor_knots", .. })));
     }
 
     proptest! {

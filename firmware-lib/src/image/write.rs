@@ -3,11 +3,12 @@
 //! the parser refuses and never leaves a half-written buffer behind an error.
 
 use super::fixed::{check_for_write, fault_code};
-use super::layout::{self, fixed as lf, header, model_f32, ranges, section, trailer, Field};
-use super::parse::{check_values, len_u32};
-use super::{crc32, Section, WriteError};
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section};
+use super::parse::{check_values, FRAMING};
+use super::{Section, WriteError};
 use crate::calibration::Calibration;
 use crate::fixed::FixedCalibration;
+use crate::record::frame::{self, len_u32, Writer};
 
 /// What the header says about the unit, besides its calibration.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -94,16 +95,8 @@ pub fn write_with_fixed(
     let len = encoded_len_with_fixed(calibration, fixed, extra)?;
     let sections = 2 + usize::from(fixed.is_some()) + extra.len();
     let count = u16::try_from(sections).map_err(|_| WriteError::TooLong { len: len_u32(len) })?;
-    let available = len_u32(buf.len());
-    let too_small = WriteError::BufferTooSmall { needed: len_u32(len), available };
-    let out = buf.get_mut(..len).ok_or(too_small)?;
     let head = Head { serial, count, len, info };
-    let written = fill(out, &head, calibration, fixed, extra);
-    if written.is_err() {
-        // Only reachable if the writer and the layout disagreed; leave no partial image behind.
-        out.fill(0);
-    }
-    written.map(|()| len)
+    frame::write(buf, len, |w| fill(w, &head, calibration, fixed, extra))
 }
 
 struct Head<'i> {
@@ -113,35 +106,35 @@ struct Head<'i> {
     info: &'i ImageInfo<'i>,
 }
 
-/// Writes the whole image into `out`, whose length was computed from the same layout.
+/// Writes the whole image but its CRC (which [`frame::write`] adds) into a buffer of the length computed
+/// from the same layout.
 fn fill(
-    out: &mut [u8],
+    w: &mut Writer<'_>,
     h: &Head<'_>,
     calibration: &Calibration,
     fixed: Option<&FixedCalibration<'_>>,
     extra: &[Section<'_>],
 ) -> Result<(), WriteError> {
-    let mut w = Writer { out, base: 0 };
-    w.put(&header::MAGIC, &header::MAGIC_VALUE)?;
-    w.put(&header::VERSION, &header::VERSION_VALUE.to_le_bytes())?;
-    w.put(&header::SECTION_COUNT, &h.count.to_le_bytes())?;
-    w.put(&header::TOTAL_LEN, &len_u32(h.len).to_le_bytes())?;
-    w.put(&header::SEQUENCE, &h.info.sequence.to_le_bytes())?;
-    w.put(&header::CALIBRATED_AT, &h.info.calibrated_at.to_le_bytes())?;
+    FRAMING.put_head(w, h.len)?;
+    w.u16(&header::SECTION_COUNT, h.count)?;
+    w.u32(&header::SEQUENCE, h.info.sequence)?;
+    w.u64(&header::CALIBRATED_AT, h.info.calibrated_at)?;
     w.put(&header::SERIAL, &h.serial)?;
     let mut at = header::LEN;
-    at = w.section(at, ranges::KIND, ranges::LEN, |p| put_ranges(p, calibration))?;
-    at = w.section(at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
+    at = put_section(w, at, ranges::KIND, ranges::LEN, |p| put_ranges(p, calibration))?;
+    at = put_section(w, at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
     if let Some(f) = fixed {
         let (len, _) = check_for_write(f, calibration)?;
-        at = w.section(at, lf::KIND, len, |p| put_fixed(p, f))?;
+        at = put_section(w, at, lf::KIND, len, |p| put_fixed(p, f))?;
     }
     for s in extra {
-        at = w.section(at, s.kind, s.payload.len(), |p| p.put_at(0, s.payload))?;
+        at = put_section(w, at, s.kind, s.payload.len(), |p| Ok(p.put_at(0, s.payload)?))?;
     }
-    let crc = crc32(w.out.get(..at).ok_or(w.too_small(at))?);
-    w.base = at;
-    w.put(&trailer::CRC, &crc.to_le_bytes())
+    // The CRC follows the last section.
+    if at + layout::trailer::LEN != h.len {
+        return Err(WriteError::TooLong { len: len_u32(at + layout::trailer::LEN) });
+    }
+    Ok(())
 }
 
 /// The serial as its 16 stored bytes, NUL-padded.
@@ -156,86 +149,34 @@ fn encode_serial(serial: &str) -> Result<[u8; 16], WriteError> {
     Ok(out)
 }
 
-/// Writes fields at `base + field.offset` within `out`.
-struct Writer<'b> {
-    out: &'b mut [u8],
-    base: usize,
-}
-
-impl Writer<'_> {
-    fn too_small(&self, needed: usize) -> WriteError {
-        WriteError::BufferTooSmall { needed: len_u32(needed), available: len_u32(self.out.len()) }
-    }
-
-    /// Writes `bytes` at `offset` from the current base.
-    fn put_at(&mut self, offset: usize, bytes: &[u8]) -> Result<(), WriteError> {
-        let at = self.base + offset;
-        let end = at + bytes.len();
-        let err = self.too_small(end);
-        let dst = self.out.get_mut(at..end).ok_or(err)?;
-        for (d, s) in dst.iter_mut().zip(bytes) {
-            *d = *s;
-        }
-        Ok(())
-    }
-
-    /// Writes a field's bytes (the value's size is the field's size: the round-trip tests hold the two
-    /// together).
-    fn put(&mut self, f: &Field, bytes: &[u8]) -> Result<(), WriteError> {
-        self.put_at(f.offset, bytes)
-    }
-
-    fn f32(&mut self, f: &Field, v: f32) -> Result<(), WriteError> {
-        self.put(f, &v.to_le_bytes())
-    }
-
-    fn u16(&mut self, f: &Field, v: u16) -> Result<(), WriteError> {
-        self.put(f, &v.to_le_bytes())
-    }
-
-    fn u32(&mut self, f: &Field, v: u32) -> Result<(), WriteError> {
-        self.put(f, &v.to_le_bytes())
-    }
-
-    fn i32(&mut self, f: &Field, v: i32) -> Result<(), WriteError> {
-        self.put(f, &v.to_le_bytes())
-    }
-
-    fn f32s(&mut self, f: &Field, vs: &[f32]) -> Result<(), WriteError> {
-        for (i, v) in vs.iter().enumerate() {
-            self.put_at(f.offset + 4 * i, &v.to_le_bytes())?;
-        }
-        Ok(())
-    }
-
-    /// Writes a section header at `at`, then its payload through `body`; returns the offset after it.
-    fn section(
-        &mut self,
-        at: usize,
-        kind: u16,
-        len: usize,
-        body: impl FnOnce(&mut Writer<'_>) -> Result<(), WriteError>,
-    ) -> Result<usize, WriteError> {
-        let len16 = u16::try_from(len).map_err(|_| WriteError::BadSection { kind })?;
-        self.base = at;
-        self.put(&section::KIND, &kind.to_le_bytes())?;
-        self.put(&section::LEN, &len16.to_le_bytes())?;
-        self.base = at + section::HEADER_LEN;
-        body(self)?;
-        Ok(self.base + len)
-    }
+/// Writes a section header at `at`, then its payload through `body` (with the writer's base at the
+/// payload); returns the offset after it.
+fn put_section(
+    w: &mut Writer<'_>,
+    at: usize,
+    kind: u16,
+    len: usize,
+    body: impl FnOnce(&mut Writer<'_>) -> Result<(), WriteError>,
+) -> Result<usize, WriteError> {
+    let len16 = u16::try_from(len).map_err(|_| WriteError::BadSection { kind })?;
+    w.set_base(at);
+    w.u16(&section::KIND, kind)?;
+    w.u16(&section::LEN, len16)?;
+    w.set_base(at + section::HEADER_LEN);
+    body(w)?;
+    Ok(w.base() + len)
 }
 
 fn put_ranges(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
-    w.put(&ranges::ADC_BITS, &[c.adc.bits])?;
+    w.u8(&ranges::ADC_BITS, c.adc.bits)?;
     w.put(&ranges::RESERVED, &[0; 3])?;
-    w.put(&ranges::RAIL_MARGIN, &c.adc.rail_margin.to_le_bytes())?;
+    w.u32(&ranges::RAIL_MARGIN, c.adc.rail_margin)?;
     w.f32(&ranges::T_MIN, c.temperature.min_c)?;
     w.f32(&ranges::T_MAX, c.temperature.max_c)?;
     w.f32(&ranges::T_EXTRAPOLATION, c.temperature.extrapolation_k)?;
     w.f32(&ranges::X_MIN, c.x_range.min)?;
     w.f32(&ranges::X_MAX, c.x_range.max)?;
-    w.f32(&ranges::X_MIN_SENSITIVITY, c.x_range.min_sensitivity)
+    Ok(w.f32(&ranges::X_MIN_SENSITIVITY, c.x_range.min_sensitivity)?)
 }
 
 fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
@@ -246,12 +187,12 @@ fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
     w.f32(&mf::T_HALF_SPAN, m.t_half_span_k)?;
     w.f32(&mf::T_REF, m.t_ref_k)?;
     w.f32(&mf::POLE, m.pole)?;
-    w.put(&mf::OFFSET_LEN, &[m.offset.len])?;
-    w.put(&mf::SLOPE_LEN, &[m.slope.len])?;
-    w.put(&mf::BULK_LEN, &[m.bulk.len])?;
-    w.put(&mf::BIAS_ENABLED, &[u8::from(m.bias.enabled)])?;
-    w.put(&mf::RESIDUAL_NX, &[m.residual.nx])?;
-    w.put(&mf::RESIDUAL_NT, &[m.residual.nt])?;
+    w.u8(&mf::OFFSET_LEN, m.offset.len)?;
+    w.u8(&mf::SLOPE_LEN, m.slope.len)?;
+    w.u8(&mf::BULK_LEN, m.bulk.len)?;
+    w.u8(&mf::BIAS_ENABLED, u8::from(m.bias.enabled))?;
+    w.u8(&mf::RESIDUAL_NX, m.residual.nx)?;
+    w.u8(&mf::RESIDUAL_NT, m.residual.nt)?;
     w.put(&mf::RESERVED, &[0; 2])?;
     w.f32s(&mf::OFFSET, &m.offset.coeffs)?;
     w.f32s(&mf::SLOPE, &m.slope.coeffs)?;
@@ -261,7 +202,7 @@ fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
     w.f32(&mf::BIAS_REFERENCE, m.bias.reference)?;
     w.f32(&mf::RESIDUAL_X_CENTER, m.residual.x_center)?;
     w.f32(&mf::RESIDUAL_X_HALF_SPAN, m.residual.x_half_span)?;
-    w.f32s(&mf::RESIDUAL, &m.residual.coeffs)
+    Ok(w.f32s(&mf::RESIDUAL, &m.residual.coeffs)?)
 }
 
 /// Writes the fixed section's payload (sizes already checked by [`check_for_write`]): the fields, then the
@@ -271,14 +212,14 @@ fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteEr
     let h = &f.header;
     let count =
         |n: usize| u16::try_from(n).map_err(|_| WriteError::SectionTooLong { kind: lf::KIND, len: u32::MAX });
-    w.put(&lf::LAYOUT, &[h.layout])?;
-    w.put(&lf::BIAS_BEND, &[u8::from(h.bias_bend)])?;
-    w.put(&lf::SENSITIVITY_LIMIT, &[u8::from(h.sensitivity_limit)])?;
-    w.put(&lf::HAS_SENSOR, &[u8::from(f.sensor.is_some())])?;
-    w.put(&lf::OFFSET_FRAC, &[h.offset_frac])?;
-    w.put(&lf::INV_SLOPE_FRAC, &[h.inv_slope_frac])?;
-    w.put(&lf::RESIDUAL_FRAC, &[h.residual_frac])?;
-    w.put(&lf::RESERVED, &[0])?;
+    w.u8(&lf::LAYOUT, h.layout)?;
+    w.u8(&lf::BIAS_BEND, u8::from(h.bias_bend))?;
+    w.u8(&lf::SENSITIVITY_LIMIT, u8::from(h.sensitivity_limit))?;
+    w.u8(&lf::HAS_SENSOR, u8::from(f.sensor.is_some()))?;
+    w.u8(&lf::OFFSET_FRAC, h.offset_frac)?;
+    w.u8(&lf::INV_SLOPE_FRAC, h.inv_slope_frac)?;
+    w.u8(&lf::RESIDUAL_FRAC, h.residual_frac)?;
+    w.u8(&lf::RESERVED, 0)?;
     w.u16(&lf::T_KNOTS, h.t_knots)?;
     w.u16(&lf::XA_KNOTS, h.xa_knots)?;
     w.u32(&lf::ADC_MAX_CODE, h.adc_max_code)?;
@@ -306,11 +247,11 @@ fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteEr
             w.u32(&lf::SENSOR_CODE_HI, s.code_hi)?;
             w.u32(&lf::SENSOR_FAR_BELOW, s.far_below_code)?;
             w.u32(&lf::SENSOR_FAR_ABOVE, s.far_above_code)?;
-            w.put(&lf::SENSOR_STEP_LOG2, &[s.step_log2])?;
-            w.put(&lf::FAULT_BELOW, &[fault_code(s.fault_below)])?;
-            w.put(&lf::FAULT_FAR_BELOW, &[fault_code(s.fault_far_below)])?;
-            w.put(&lf::FAULT_ABOVE, &[fault_code(s.fault_above)])?;
-            w.put(&lf::FAULT_FAR_ABOVE, &[fault_code(s.fault_far_above)])?;
+            w.u8(&lf::SENSOR_STEP_LOG2, s.step_log2)?;
+            w.u8(&lf::FAULT_BELOW, fault_code(s.fault_below))?;
+            w.u8(&lf::FAULT_FAR_BELOW, fault_code(s.fault_far_below))?;
+            w.u8(&lf::FAULT_ABOVE, fault_code(s.fault_above))?;
+            w.u8(&lf::FAULT_FAR_ABOVE, fault_code(s.fault_far_above))?;
         }
         None => {
             for fld in [lf::SENSOR_CODE_LO, lf::SENSOR_CODE_HI, lf::SENSOR_FAR_BELOW, lf::SENSOR_FAR_ABOVE] {

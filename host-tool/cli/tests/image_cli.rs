@@ -140,7 +140,7 @@ fn tables_a_firmware_would_refuse_exit_1_after_the_description() {
     let inv_slope = 268 + layout::fixed::HEAD_LEN + 4 * 18;
     b[inv_slope..inv_slope + 4].copy_from_slice(&0i32.to_le_bytes());
     let n = b.len() - 4;
-    let crc = logtrim::image::crc32(&b[..n]);
+    let crc = logtrim::record::crc32(&b[..n]);
     b[n..].copy_from_slice(&crc.to_le_bytes());
     std::fs::write(dir.path().join("zero.bin"), &b).unwrap();
     let o = logtrim(&["inspect", "zero.bin"], dir.path());
