@@ -2,29 +2,11 @@
 //! simulated unit that has aged since its calibration: files, exit codes, messages, and the corrected
 //! values against the simulator's truth (`truth.csv`).
 
+mod common;
+
+use common::{logtrim, s, scratch};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
-use std::process::Command;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-fieldcli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
 
 /// An aged photometer (+3 mV at the output, +0.8 % gain since calibration): simulated and fitted.
 fn aged_unit(d: &Path, offset_v: f64, gain: f64) -> PathBuf {

@@ -1,28 +1,14 @@
 //! `logtrim plot` and `logtrim budget` end to end: files written, exit codes, errors on bad input.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
 
+use std::path::{Path, PathBuf};
+
+use common::{logtrim, scratch};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::fit::{self, FitData, FitOptions};
 use logtrim_host::frontend::{preset, MeasuredTemperature};
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
 
 /// A simulated unit's files and its calibration, fitted with a fixed model (quick).
 fn unit_files(dir: &Path) -> PathBuf {

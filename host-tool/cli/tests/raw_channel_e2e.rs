@@ -5,22 +5,15 @@
 //! and hold the corrected x against the truth: rms within 1.5× the oracle's, on the readings both give a
 //! value for.
 
+mod common;
+
 use std::collections::HashMap;
 use std::path::Path;
-use std::process::Command;
 
+use common::logtrim;
 use logtrim_host::frontend::FrontEnd;
 
 const RMS_BOUND: f64 = 1.5;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
 
 /// A CSV file as a header and rows of fields (the files here have no quoted fields).
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {

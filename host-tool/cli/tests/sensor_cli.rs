@@ -1,32 +1,12 @@
 //! `logtrim sensor` end to end: coefficients from data-sheet points, tables, settings files, and the exit
 //! codes and messages of bad input (nothing written when refused).
 
-use std::path::PathBuf;
-use std::process::Command;
+mod common;
 
+use common::{logtrim, scratch};
 use logtrim::sensor::{SensorElement, TemperatureSensor};
 use logtrim::Placement;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-sensor-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
+use logtrim_checks::within;
 
 /// The value after `name = ` on a line of the output.
 fn printed(out: &str, name: &str) -> f64 {

@@ -1,12 +1,9 @@
+use logtrim_checks::within;
+
 use super::*;
 use logtrim::sensor::TemperatureSensor;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
 
 /// A front end with every non-ideality off: only n, G and kT/q remain.
 fn ideal(ideality: f64, gain: f64, tempco: f64) -> FrontEnd {

@@ -1,9 +1,6 @@
-use super::*;
+use logtrim_checks::within;
 
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
+use super::*;
 
 fn p(celsius: f64, ohm: f64) -> CurvePoint {
     CurvePoint::new(celsius, ohm)
