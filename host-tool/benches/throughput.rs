@@ -10,8 +10,9 @@
 
 use std::time::Instant;
 
-use logtrim_host::apply::{correct_rows, write_results, Arithmetic};
+use logtrim_host::apply::write_results;
 use logtrim_host::batch::{fit_units, UnitJob};
+use logtrim_host::correct::{correct_rows, Arithmetic};
 use logtrim_host::data::{read_calibration, read_readings, ReadOptions};
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{fit, FitData, FitOptions};

@@ -7,7 +7,7 @@
 //!
 //! | module | owns |
 //! |---|---|
-//! | [`apply`] | running the firmware correction over a readings file and writing the results |
+//! | [`apply`] | writing corrected readings as CSV (the input's columns, every unit, extrapolation, error) |
 //! | [`blank`] | blank records from readings of a blank (`logtrim blank`) |
 //! | [`batch`] | production-line batches: many units fitted in parallel, one calibration and image each |
 //! | [`budget`] | the error budget of a design before any unit is built (contributions, RSS, worst case) |
@@ -17,14 +17,17 @@
 //! | [`frontend`] | the f64 reference model of one front end (physics, noise, the oracle) and the presets |
 //! | [`simulate`] | seeded chamber and validation runs of simulated units, and their files |
 //! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
+//! | [`correct`] | correcting readings row by row with the firmware's f32 and fixed paths and field layers |
 //! | [`data`] | reading calibration and readings CSV files into typed rows, with precise errors |
+//! | [`file_error`] | the one error of a file that cannot be read, written or parsed as JSON |
 //! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
+//! | [`records`] | trim and blank record files: read, checked, installed over a calibration as field layers |
 //! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
 //! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
 //! | [`emit`] | Rust, C and JSON renderings of a unit's fixed-point tables |
 //! | [`tables`] | the fixed-point tables of a calibration (and of a raw temperature channel), universal tables |
-//! | [`trim`] | field trims from readings of reference standards (`logtrim trim`), trim and blank record files |
+//! | [`trim`] | field trims from readings of reference standards (`logtrim trim`) |
 //! | [`verify`] | exhaustive verification of the fixed-point and f32 paths against the f64 reference |
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -34,14 +37,17 @@ pub mod batch;
 pub mod blank;
 pub mod budget;
 pub mod calfile;
+pub mod correct;
 pub mod data;
 pub mod demo;
 pub mod emit;
+pub mod file_error;
 pub mod fit;
 pub mod frontend;
 pub mod image_file;
 pub mod output;
 pub mod plot;
+pub mod records;
 pub mod report;
 pub mod sensor_tool;
 pub mod simulate;

@@ -4,10 +4,12 @@
 use std::path::{Path, PathBuf};
 
 use clap::Args;
-use logtrim::field::{RecordInfo, Trim, TrimLimits};
-use logtrim::Unit;
+use logtrim::field::{Layers, RecordInfo, Trim, TrimLimits};
+use logtrim::{Calibration, Unit};
 use logtrim_host::calfile::CalFile;
-use logtrim_host::data::{read_readings_file, ReadOptions, Readings};
+use logtrim_host::correct::{read_unit_readings, x_of_q24};
+use logtrim_host::data::Readings;
+use logtrim_host::records::{layers_from_files, LayerError};
 use logtrim_host::tables::{FixedTables, TableOptions};
 
 use crate::Failure;
@@ -88,26 +90,35 @@ pub struct TrimArgs {
     limits: LimitArgs,
 }
 
-/// Reads a readings file of a unit, converting a `temp_code` column with the calibration file's sensor
-/// as the firmware does (in f32), and builds the unit's default fixed-point tables.
+/// Reads a readings file of a unit as its firmware reads it, and builds the unit's default fixed-point
+/// tables.
 pub fn unit_readings(file: &CalFile, coeffs: &Path, path: &Path) -> Result<(Readings, FixedTables), Failure> {
-    let sensor = file.temperature_sensor;
-    let conv = move |code: u32| -> Result<f64, logtrim::Error> {
-        match &sensor {
-            Some(s) => s.celsius(code).map(f64::from),
-            None => Err(logtrim::Error::NotCalibrated),
-        }
-    };
-    let opts = ReadOptions {
-        adc_bits: file.calibration.adc.bits,
-        skip_bad_rows: false,
-        temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
-    };
-    let readings = read_readings_file(path, &opts).map_err(Failure::input)?;
+    let readings = read_unit_readings(file, path, false).map_err(Failure::input)?;
     let tables = file
         .fixed_tables(&TableOptions::default())
         .map_err(|e| Failure::input(format!("{}: {e}", coeffs.display())))?;
     Ok((readings, tables))
+}
+
+/// The trim and blank record files installed over the calibration; a record the firmware refuses names the
+/// options, and a trim past its limits is a failed check.
+pub fn layers(
+    cal: &Calibration,
+    trim: Option<&Path>,
+    blank: Option<&Path>,
+    limits: &TrimLimits,
+) -> Result<Layers, Failure> {
+    layers_from_files(cal, trim, blank, limits).map_err(|e| {
+        let message = match &e {
+            LayerError::Refused(refusal) => format!("--trim/--blank: {refusal}"),
+            other => other.to_string(),
+        };
+        if e.is_check() {
+            Failure::check(message)
+        } else {
+            Failure::input(message)
+        }
+    })
 }
 
 /// `name` as a unit, or a usage error listing the names.
@@ -218,6 +229,6 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
         t.gain_q30,
         f64::from(t.gain_q30) / f64::from(1u32 << 30),
         t.offset_q24,
-        logtrim_host::trim::q24(t.offset_q24)
+        x_of_q24(t.offset_q24)
     );
 }
