@@ -185,26 +185,9 @@ impl Default for ArithmeticSpec {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum BudgetError {
-    /// The file could not be read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of a budget.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line (1-based).
-        line: usize,
-        /// Column (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of a budget.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// A figure is outside what the budget can use.
     #[error("{field} = {value}: expected {expected}")]
     Invalid {
@@ -299,28 +282,17 @@ pub struct Budget {
 impl BudgetSpec {
     /// Parses a spec from JSON text (checked by [`BudgetSpec::compute`]); `path` only names the source in errors.
     pub fn from_json(text: &str, path: &str) -> Result<BudgetSpec, BudgetError> {
-        let spec: BudgetSpec = serde_json::from_str(text).map_err(|e| BudgetError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        })?;
-        Ok(spec)
+        Ok(crate::file_error::parse_json(text, path)?)
     }
 
     /// Reads a spec from a JSON file.
     pub fn load(path: &std::path::Path) -> Result<BudgetSpec, BudgetError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| BudgetError::Io { path: p.clone(), source })?;
-        BudgetSpec::from_json(&text, &p)
+        BudgetSpec::from_json(&crate::file_error::read_text(path)?, &path.display().to_string())
     }
 
     /// The spec as pretty JSON with a trailing newline.
     pub fn to_json(&self) -> String {
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 
     /// Checks every figure.
@@ -660,9 +632,7 @@ impl Budget {
 
     /// The budget as pretty JSON with a trailing newline.
     pub fn to_json(&self) -> String {
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 }
 

@@ -21,6 +21,8 @@ use std::path::Path;
 use logtrim::Calibration;
 use serde::{Deserialize, Serialize};
 
+use crate::file_error::{parse_json, read_text, FileError};
+
 /// The `format` string of a calibration file.
 pub const FORMAT: &str = "logtrim-calibration";
 /// The current version of the format.
@@ -56,26 +58,9 @@ pub struct CalFile {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum CalFileError {
-    /// The file could not be read or written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of this format.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line of the defect (1-based).
-        line: usize,
-        /// Column of the defect (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of this format.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// The file is of another format or an unknown version.
     #[error("{path}: format {format:?} version {version} is not a logtrim calibration this build reads (expected {FORMAT:?} version {VERSION})")]
     Version {
@@ -147,13 +132,7 @@ impl CalFile {
             format: String,
             version: u32,
         }
-        let json_err = |e: serde_json::Error| CalFileError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        };
-        let head: Head = serde_json::from_str(text).map_err(json_err)?;
+        let head: Head = parse_json(text, path)?;
         if head.format != FORMAT || head.version != VERSION {
             return Err(CalFileError::Version {
                 path: path.to_string(),
@@ -161,7 +140,7 @@ impl CalFile {
                 version: head.version,
             });
         }
-        let file: CalFile = serde_json::from_str(text).map_err(json_err)?;
+        let file: CalFile = parse_json(text, path)?;
         file.calibration
             .validate()
             .map_err(|error| CalFileError::Invalid { path: path.to_string(), error })?;
@@ -173,10 +152,7 @@ impl CalFile {
 
     /// Reads and validates a calibration file.
     pub fn load(path: &Path) -> Result<CalFile, CalFileError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| CalFileError::Io { path: p.clone(), source })?;
-        CalFile::from_json(&text, &p)
+        CalFile::from_json(&read_text(path)?, &path.display().to_string())
     }
 
     /// The file as pretty JSON.
@@ -202,8 +178,7 @@ impl CalFile {
     ) -> Result<(), CalFileError> {
         let mut text = self.to_json();
         text.push('\n');
-        write(path, text.as_bytes())
-            .map_err(|source| CalFileError::Io { path: path.display().to_string(), source })
+        write(path, text.as_bytes()).map_err(|source| FileError::io(path, source).into())
     }
 }
 
@@ -241,7 +216,7 @@ mod tests {
         let other = text.replace("\"version\": 1", "\"version\": 99");
         assert!(matches!(CalFile::from_json(&other, "mem"), Err(CalFileError::Version { version: 99, .. })));
         let typo = text.replace("\"unit\"", "\"unti\"");
-        assert!(matches!(CalFile::from_json(&typo, "mem"), Err(CalFileError::Json { .. })));
+        assert!(matches!(CalFile::from_json(&typo, "mem"), Err(CalFileError::File(FileError::Json { .. }))));
         let bad = text.replace("\"bits\": 16", "\"bits\": 0");
         assert!(matches!(CalFile::from_json(&bad, "mem"), Err(CalFileError::Invalid { .. })));
     }

@@ -25,6 +25,8 @@ use std::path::Path;
 
 use csv::ByteRecord;
 
+use crate::file_error::FileError;
+
 /// The ADC resolution assumed when the caller gives none.
 pub const DEFAULT_ADC_BITS: u8 = 16;
 
@@ -246,13 +248,8 @@ impl std::error::Error for ValueError {}
 #[non_exhaustive]
 pub enum DataError {
     /// The file could not be opened or read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// The file is not well-formed CSV (e.g. an unterminated quote).
     #[error("{path}: line {line}: not well-formed CSV: {message}")]
     Csv {
@@ -356,7 +353,7 @@ const READINGS_EXPECTED: &str = "code, temp_c or temp_code; optional ratio, unit
 /// Reads calibration data (`code`, `temp_c`/`temp_code`, `ratio`, optional `unit`, `weight`) from a file.
 pub fn read_calibration_file(path: &Path, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
     let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| DataError::Io { path: p.clone(), source })?;
+    let data = std::fs::read(path).map_err(|source| FileError::io(path, source))?;
     calibration_from_bytes(data, &p, opts)
 }
 
@@ -388,7 +385,7 @@ fn calibration_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> 
 /// Reads readings (`code`, `temp_c`/`temp_code`, optional `ratio`, `unit`) from a file, keeping every field.
 pub fn read_readings_file(path: &Path, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
     let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| DataError::Io { path: p.clone(), source })?;
+    let data = std::fs::read(path).map_err(|source| FileError::io(path, source))?;
     readings_from_bytes(data, &p, opts)
 }
 
@@ -426,7 +423,7 @@ fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Res
 
 fn slurp<R: io::Read>(mut reader: R, path: &str) -> Result<Vec<u8>, DataError> {
     let mut data = Vec::new();
-    reader.read_to_end(&mut data).map_err(|source| DataError::Io { path: path.to_string(), source })?;
+    reader.read_to_end(&mut data).map_err(|source| FileError::Io { path: path.to_string(), source })?;
     Ok(data)
 }
 

@@ -37,13 +37,8 @@ pub enum ReportError {
     #[error(transparent)]
     Plot(#[from] PlotError),
     /// A file could not be written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file or directory.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
 }
 
 /// Everything a fit report is made from.
@@ -108,14 +103,13 @@ impl FitReport<'_> {
             .map(|(file, title, _)| ChartLink { title: title.clone(), file: file.clone() })
             .collect();
         let page = self.render_markdown(&links);
-        std::fs::create_dir_all(dir)
-            .map_err(|source| ReportError::Io { path: dir.display().to_string(), source })?;
+        std::fs::create_dir_all(dir).map_err(|source| crate::file_error::FileError::io(dir, source))?;
         let mut files = vec![(dir.join(format!("{prefix}-fit-report.md")), page.into_bytes())];
         files.extend(charts.into_iter().map(|(f, _, svg)| (dir.join(f), svg.into_bytes())));
         let mut written = Vec::new();
         for (path, bytes) in files {
             crate::output::write_atomic(&path, &bytes)
-                .map_err(|source| ReportError::Io { path: path.display().to_string(), source })?;
+                .map_err(|source| crate::file_error::FileError::io(&path, source))?;
             written.push(path);
         }
         Ok(written)

@@ -22,6 +22,7 @@ use logtrim::sensor::{SensorElement, TemperatureSensor};
 use logtrim::thermistor::{Beta, FitError, SteinhartHart};
 use logtrim::{Divider, Placement, Rtd};
 
+use crate::file_error::{parse_json, read_text, to_json_line, FileError};
 use crate::output::AtomicFile;
 
 pub use logtrim::thermistor::CurvePoint;
@@ -152,6 +153,9 @@ pub enum SensorToolError {
         /// What to change.
         hint: &'static str,
     },
+    /// The file could not be read, or is not well-formed JSON of a temperature sensor.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// firmware-lib's `validate()` refused the description.
     #[error("{what}: {error}; expected a description that firmware-lib's validate() accepts")]
     Rejected {
@@ -159,26 +163,6 @@ pub enum SensorToolError {
         what: String,
         /// firmware-lib's verdict.
         error: logtrim::Error,
-    },
-    /// A file could not be read or written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// A settings file is not valid JSON of a temperature sensor.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line of the defect (1-based).
-        line: usize,
-        /// Column of the defect (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
     },
 }
 
@@ -650,36 +634,25 @@ fn fault_name(e: &logtrim::Error) -> String {
 
 /// The settings file's text: the sensor as pretty JSON, with a trailing newline.
 pub fn settings_json(sensor: &TemperatureSensor) -> String {
-    // Plain data with string keys and finite numbers (validated): serialising cannot fail.
-    let mut s = serde_json::to_string_pretty(sensor).unwrap_or_default();
-    s.push('\n');
-    s
+    to_json_line(sensor)
 }
 
 /// Writes a settings file atomically.
 pub fn write_settings(path: &Path, sensor: &TemperatureSensor) -> Result<(), SensorToolError> {
     crate::output::write_atomic(path, settings_json(sensor).as_bytes())
-        .map_err(|source| SensorToolError::Io { path: path.display().to_string(), source })
+        .map_err(|source| FileError::io(path, source).into())
 }
 
 /// Parses a settings file's text and validates it; `path` only names the source in errors.
 pub fn settings_from_json(text: &str, path: &str) -> Result<TemperatureSensor, SensorToolError> {
-    let s: TemperatureSensor = serde_json::from_str(text).map_err(|e| SensorToolError::Json {
-        path: path.to_string(),
-        line: e.line(),
-        column: e.column(),
-        message: e.to_string(),
-    })?;
+    let s: TemperatureSensor = parse_json(text, path)?;
     s.validate().map_err(|error| SensorToolError::Rejected { what: path.to_string(), error })?;
     Ok(s)
 }
 
 /// Reads and validates a settings file.
 pub fn load_settings(path: &Path) -> Result<TemperatureSensor, SensorToolError> {
-    let p = path.display().to_string();
-    let text =
-        std::fs::read_to_string(path).map_err(|source| SensorToolError::Io { path: p.clone(), source })?;
-    settings_from_json(&text, &p)
+    settings_from_json(&read_text(path)?, &path.display().to_string())
 }
 
 /// One line of text describing an element.
@@ -961,7 +934,7 @@ pub fn write_table_file(
     format: TableFormat,
     header: &[String],
 ) -> Result<(), SensorToolError> {
-    let io = |source| SensorToolError::Io { path: path.display().to_string(), source };
+    let io = |source| SensorToolError::from(FileError::io(path, source));
     let mut f = AtomicFile::create(path).map_err(io)?;
     write_table(rows, format, header, &mut f).map_err(io)?;
     f.flush().map_err(io)?;

@@ -246,13 +246,8 @@ pub enum SimError {
     #[error(transparent)]
     FrontEnd(#[from] FrontEndError),
     /// An output file could not be written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
 }
 
 /// The set-points of a chamber run: `n` evenly spaced temperatures over the operating range, ends included.
@@ -660,13 +655,12 @@ impl Simulation {
         names.push("manifest.json");
         let manifest = self.manifest_json(&names).into_bytes();
         files.push(("manifest.json", manifest, None));
-        std::fs::create_dir_all(dir)
-            .map_err(|source| SimError::Io { path: dir.display().to_string(), source })?;
+        std::fs::create_dir_all(dir).map_err(|source| crate::file_error::FileError::io(dir, source))?;
         let mut written = Vec::new();
         for (name, bytes, rows) in files {
             let path = dir.join(name);
             crate::output::write_atomic(&path, &bytes)
-                .map_err(|source| SimError::Io { path: path.display().to_string(), source })?;
+                .map_err(|source| crate::file_error::FileError::io(&path, source))?;
             written.push(WrittenFile { path, rows });
         }
         Ok(written)

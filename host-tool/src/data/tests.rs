@@ -235,7 +235,11 @@ fn error_unusable_adc_bits() {
 fn error_missing_file() {
     let e =
         read_calibration_file(Path::new("/nonexistent/dir/cal.csv"), &ReadOptions::default()).unwrap_err();
-    assert!(matches!(e, DataError::Io { .. }) && e.to_string().contains("/nonexistent/dir/cal.csv"), "{e}");
+    assert!(
+        matches!(e, DataError::File(crate::file_error::FileError::Io { .. }))
+            && e.to_string().contains("/nonexistent/dir/cal.csv"),
+        "{e}"
+    );
 }
 
 #[test]

@@ -316,26 +316,9 @@ pub struct UnitSpread {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum FrontEndError {
-    /// The file could not be read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of this description.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line of the defect (1-based).
-        line: usize,
-        /// Column of the defect (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of a front-end description.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// A parameter is outside what the model can describe.
     #[error("{name}: {field} = {value:?} is not allowed; expected {expected}")]
     Invalid {
@@ -361,30 +344,19 @@ pub enum FrontEndError {
 impl FrontEnd {
     /// Parses a description from JSON text and validates it; `path` only names the source in errors.
     pub fn from_json(text: &str, path: &str) -> Result<FrontEnd, FrontEndError> {
-        let fe: FrontEnd = serde_json::from_str(text).map_err(|e| FrontEndError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        })?;
+        let fe: FrontEnd = crate::file_error::parse_json(text, path)?;
         fe.validate()?;
         Ok(fe)
     }
 
     /// Reads and validates a description from a JSON file.
     pub fn load(path: &Path) -> Result<FrontEnd, FrontEndError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| FrontEndError::Io { path: p.clone(), source })?;
-        FrontEnd::from_json(&text, &p)
+        FrontEnd::from_json(&crate::file_error::read_text(path)?, &path.display().to_string())
     }
 
     /// The description as pretty JSON (with a trailing newline).
     pub fn to_json(&self) -> String {
-        // Plain data with string keys and finite numbers: serialising cannot fail.
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 
     /// Checks every parameter against what the model can describe, over the operating range widened by

@@ -200,7 +200,7 @@ fn settings_round_trip_through_serde_and_validate() {
     let e = settings_from_json(&broken, "sensor.json").unwrap_err();
     assert!(matches!(e, SensorToolError::Rejected { .. }) && e.to_string().contains("sensor.json"), "{e}");
     let e = settings_from_json("{\"element\": 3}", "sensor.json").unwrap_err();
-    assert!(matches!(e, SensorToolError::Json { line: 1, .. }), "{e}");
+    assert!(matches!(e, SensorToolError::File(FileError::Json { line: 1, .. })), "{e}");
     // The summary: the range's ends and the coarsest step.
     let sum = summarise(&s).unwrap();
     assert!(sum.at_min.1 > sum.at_max.1, "the code rises as a low-side NTC cools");
