@@ -76,7 +76,7 @@ fn main() {
     let dir = base.join(format!("logtrim-bench-batch-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("dir");
     let t = Instant::now();
-    let (spec, results) = fit_units(&jobs, &opt, None, &dir, None);
+    let (spec, results) = fit_units(&jobs, &opt, None, &dir, 1_700_000_000, &logtrim_host::progress::quiet);
     let secs = t.elapsed().as_secs_f64();
     let failed = results.iter().filter(|r| r.outcome.is_err()).count();
     println!(

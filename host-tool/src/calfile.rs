@@ -21,7 +21,11 @@ use std::path::Path;
 use logtrim::Calibration;
 use serde::{Deserialize, Serialize};
 
+use logtrim::sensor::TemperatureSensor;
+
 use crate::file_error::{parse_json, read_text, FileError};
+use crate::fit::FitOutcome;
+use crate::tables::{FixedTables, TableError, TableOptions, TemperatureChannel};
 
 /// The `format` string of a calibration file.
 pub const FORMAT: &str = "logtrim-calibration";
@@ -48,7 +52,7 @@ pub struct CalFile {
     /// How the temperature channel's raw code becomes °C, if the unit reads a thermistor or RTD through
     /// a divider (`null` for a digital sensor that reads in °C).
     #[serde(default)]
-    pub temperature_sensor: Option<logtrim::sensor::TemperatureSensor>,
+    pub temperature_sensor: Option<TemperatureSensor>,
     /// A summary of the fit that produced the calibration.
     #[serde(default)]
     pub fit: Option<serde_json::Value>,
@@ -81,48 +85,44 @@ pub enum CalFileError {
     },
 }
 
-/// The environment variable of the reproducible-builds convention: a Unix time, in seconds, that takes the
-/// place of "now" in everything logtrim stamps (calibration files, and so images; field records), so that
-/// remaking the same outputs gives the same bytes.
-pub const SOURCE_DATE_EPOCH: &str = "SOURCE_DATE_EPOCH";
-
-/// "Now" for a stamp: [`SOURCE_DATE_EPOCH`] when it is set, else the system clock (0 if the clock is before
-/// 1970). A set but malformed value is an error that names it (the binary checks this before any command).
-pub fn stamp_time() -> Result<u64, String> {
-    match std::env::var(SOURCE_DATE_EPOCH) {
-        Ok(v) => v.trim().parse::<u64>().map_err(|_| {
-            format!("{SOURCE_DATE_EPOCH} is {v:?}: expected a whole number of seconds since 1970-01-01 UTC")
-        }),
-        Err(std::env::VarError::NotPresent) => Ok(std::time::SystemTime::now()
-            .duration_since(std::time::UNIX_EPOCH)
-            .map(|d| d.as_secs())
-            .unwrap_or(0)),
-        Err(std::env::VarError::NotUnicode(_)) => {
-            Err(format!("{SOURCE_DATE_EPOCH} is not valid text: expected a whole number of seconds"))
-        }
-    }
+/// Seconds since the Unix epoch by the system clock (0 if the clock is before 1970).
+pub fn now_unix_s() -> u64 {
+    std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs()).unwrap_or(0)
 }
 
 impl CalFile {
-    /// Wraps a calibration with the stamp time ([`stamp_time`]; the system clock if `SOURCE_DATE_EPOCH` is
-    /// malformed, which callers that must refuse it check with [`stamp_time`] first) and this build's name.
+    /// Wraps a calibration with this build's name, made now by the system clock ([`now_unix_s`]). A caller
+    /// that stamps reproducibly (the `logtrim` command honours `SOURCE_DATE_EPOCH`) sets
+    /// [`CalFile::created_unix_s`] or uses [`CalFile::of_fit`].
     pub fn new(calibration: Calibration, unit: Option<String>) -> CalFile {
-        let now = stamp_time().unwrap_or_else(|_| {
-            std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map(|d| d.as_secs())
-                .unwrap_or(0)
-        });
+        CalFile::made_at(calibration, unit, now_unix_s())
+    }
+
+    fn made_at(calibration: Calibration, unit: Option<String>, created_unix_s: u64) -> CalFile {
         CalFile {
             format: FORMAT.to_string(),
             version: VERSION,
             unit,
-            created_unix_s: now,
+            created_unix_s,
             generator: format!("logtrim {}", env!("CARGO_PKG_VERSION")),
             calibration,
             temperature_sensor: None,
             fit: None,
         }
+    }
+
+    /// The calibration file of a fit: its calibration and summary, the unit's serial (if any), and the
+    /// temperature channel's description for data read through one.
+    pub fn of_fit(
+        outcome: &FitOutcome,
+        unit: Option<String>,
+        sensor: Option<TemperatureSensor>,
+        created_unix_s: u64,
+    ) -> CalFile {
+        let mut file = CalFile::made_at(outcome.calibration, unit, created_unix_s);
+        file.temperature_sensor = sensor;
+        file.fit = serde_json::to_value(outcome).ok();
+        file
     }
 
     /// Parses a calibration file from JSON text; `path` only names it in errors.
@@ -186,17 +186,24 @@ impl CalFile {
     /// The fixed-point tables of this unit: the calibration's, with a temperature-sensor table when the
     /// file describes a raw temperature channel (every code of the channel's converter, converted by
     /// firmware-lib's sensor code in f64).
-    pub fn fixed_tables(
+    pub fn fixed_tables(&self, opts: &TableOptions) -> Result<FixedTables, TableError> {
+        self.with_sensor_channel(|channel| crate::tables::build(&self.calibration, channel, opts))
+            .map_err(TableError::Calibration)?
+    }
+
+    /// Calls `f` with the file's raw temperature channel: every code of the channel's converter with its
+    /// temperature by firmware-lib's sensor code in f64, or `None` for a unit that reads °C. An error if the
+    /// channel's converter has no valid code range.
+    pub fn with_sensor_channel<R>(
         &self,
-        opts: &crate::tables::TableOptions,
-    ) -> Result<crate::tables::FixedTables, crate::tables::TableError> {
+        f: impl FnOnce(Option<&TemperatureChannel<'_>>) -> R,
+    ) -> Result<R, logtrim::Error> {
         match &self.temperature_sensor {
-            None => crate::tables::build(&self.calibration, None, opts),
+            None => Ok(f(None)),
             Some(sensor) => {
-                let max = sensor.divider.max_code().map_err(crate::tables::TableError::Calibration)?;
+                let max = sensor.divider.max_code()?;
                 let celsius = |code: u32| sensor.celsius_f64(code);
-                let channel = crate::tables::TemperatureChannel { codes: 0..=max, celsius: &celsius };
-                crate::tables::build(&self.calibration, Some(&channel), opts)
+                Ok(f(Some(&TemperatureChannel { codes: 0..=max, celsius: &celsius })))
             }
         }
     }

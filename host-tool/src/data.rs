@@ -117,7 +117,7 @@ pub struct CalData {
     /// The distinct unit serials, in order of first appearance (empty without a `unit` column).
     pub units: Vec<String>,
     /// Rows skipped for bad values (only when [`ReadOptions::skip_bad_rows`] was set).
-    pub skipped: Vec<ValueError>,
+    pub skipped: Vec<RowError>,
 }
 
 /// One row of readings to be corrected.
@@ -151,7 +151,7 @@ pub struct Readings {
     /// The distinct unit serials, in order of first appearance (empty without a `unit` column).
     pub units: Vec<String>,
     /// Rows skipped for bad values (only when [`ReadOptions::skip_bad_rows`] was set).
-    pub skipped: Vec<ValueError>,
+    pub skipped: Vec<RowError>,
 }
 
 /// What was wrong with one value (or one row).
@@ -204,9 +204,10 @@ impl fmt::Display for Problem {
     }
 }
 
-/// A bad value: where it is, what it is, what is wrong and what was expected.
+/// A bad row: the value at fault (where it is, what it is, what is wrong and what was expected), or the whole
+/// row when its shape is wrong.
 #[derive(Debug, Clone, PartialEq)]
-pub struct ValueError {
+pub struct RowError {
     /// The file.
     pub path: String,
     /// The line the row starts on (1-based).
@@ -223,7 +224,7 @@ pub struct ValueError {
     pub expected: String,
 }
 
-impl fmt::Display for ValueError {
+impl fmt::Display for RowError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         if self.column == 0 {
             write!(
@@ -241,7 +242,7 @@ impl fmt::Display for ValueError {
     }
 }
 
-impl std::error::Error for ValueError {}
+impl std::error::Error for RowError {}
 
 /// Errors reading a CSV file.
 #[derive(Debug, thiserror::Error)]
@@ -284,7 +285,7 @@ pub enum DataError {
         /// Rows skipped.
         count: usize,
         /// The first bad row.
-        first: Box<ValueError>,
+        first: Box<RowError>,
     },
     /// A needed column is missing from the header.
     #[error("{path}: header: no {column:?} column; expected {expected}; the header has: {found}")]
@@ -338,11 +339,11 @@ pub enum DataError {
     },
     /// A bad value.
     #[error(transparent)]
-    Value(Box<ValueError>),
+    Value(Box<RowError>),
 }
 
-impl From<ValueError> for DataError {
-    fn from(e: ValueError) -> Self {
+impl From<RowError> for DataError {
+    fn from(e: RowError) -> Self {
         DataError::Value(Box::new(e))
     }
 }
@@ -427,7 +428,7 @@ fn slurp<R: io::Read>(mut reader: R, path: &str) -> Result<Vec<u8>, DataError> {
     Ok(data)
 }
 
-fn finish(path: &str, good: usize, skipped: &mut Vec<ValueError>) -> Result<(), DataError> {
+fn finish(path: &str, good: usize, skipped: &mut Vec<RowError>) -> Result<(), DataError> {
     if good > 0 {
         return Ok(());
     }
@@ -563,8 +564,8 @@ impl<'o> Source<'o> {
         }
     }
 
-    fn err(&self, rec: &ByteRecord, column: usize, problem: Problem, expected: String) -> Box<ValueError> {
-        Box::new(ValueError {
+    fn err(&self, rec: &ByteRecord, column: usize, problem: Problem, expected: String) -> Box<RowError> {
+        Box::new(RowError {
             path: self.path.clone(),
             line: self.line,
             column: column + 1,
@@ -575,11 +576,11 @@ impl<'o> Source<'o> {
         })
     }
 
-    fn check_count(&self, rec: &ByteRecord) -> Result<(), Box<ValueError>> {
+    fn check_count(&self, rec: &ByteRecord) -> Result<(), Box<RowError>> {
         if rec.len() == self.columns.count {
             return Ok(());
         }
-        Err(Box::new(ValueError {
+        Err(Box::new(RowError {
             path: self.path.clone(),
             line: self.line,
             column: 0,
@@ -590,7 +591,7 @@ impl<'o> Source<'o> {
         }))
     }
 
-    fn code(&self, rec: &ByteRecord) -> Result<u32, Box<ValueError>> {
+    fn code(&self, rec: &ByteRecord) -> Result<u32, Box<RowError>> {
         let c = self.columns.code;
         parse_code(field(rec, c), self.max_code).map_err(|p| {
             let bits = self.max_code.count_ones();
@@ -599,7 +600,7 @@ impl<'o> Source<'o> {
     }
 
     /// The temperature: a parse error is the row's fault; a converter's refusal is returned inside.
-    fn temperature(&self, rec: &ByteRecord) -> Result<Result<f64, logtrim::Error>, Box<ValueError>> {
+    fn temperature(&self, rec: &ByteRecord) -> Result<Result<f64, logtrim::Error>, Box<RowError>> {
         let c = self.columns.temperature;
         let raw = field(rec, c);
         match self.columns.temperature_kind {
@@ -625,11 +626,11 @@ impl<'o> Source<'o> {
         }
     }
 
-    fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<ValueError>> {
+    fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<RowError>> {
         positive(field(rec, c)).map_err(|p| self.err(rec, c, p, "a positive finite ratio I_sig/I_ref".into()))
     }
 
-    fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<ValueError>> {
+    fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<RowError>> {
         let Some(c) = self.columns.unit else {
             return Ok(None);
         };
@@ -648,7 +649,7 @@ impl<'o> Source<'o> {
         Ok(Some(i))
     }
 
-    fn cal_row(&mut self, rec: &ByteRecord, line: u64) -> Result<CalRow, Box<ValueError>> {
+    fn cal_row(&mut self, rec: &ByteRecord, line: u64) -> Result<CalRow, Box<RowError>> {
         self.check_count(rec)?;
         let code = self.code(rec)?;
         let temp_c = match self.temperature(rec)? {
@@ -677,7 +678,7 @@ impl<'o> Source<'o> {
         Ok(CalRow { line, code, temp_c, ratio, unit, weight })
     }
 
-    fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<ValueError>> {
+    fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {
         self.check_count(rec)?;
         let code = self.code(rec)?;
         let temp_c = self.temperature(rec)?;

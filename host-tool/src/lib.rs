@@ -9,7 +9,7 @@
 //! |---|---|
 //! | [`apply`] | writing corrected readings as CSV (the input's columns, every unit, extrapolation, error) |
 //! | [`blank`] | blank records from readings of a blank (`logtrim blank`) |
-//! | [`batch`] | production-line batches: many units fitted in parallel, one calibration and image each |
+//! | [`batch`] | chamber data into one job per unit; fitting one unit, or a production-line batch in parallel |
 //! | [`budget`] | the error budget of a design before any unit is built (contributions, RSS, worst case) |
 //! | [`calfile`] | the versioned JSON calibration file (`COEFFS.json`) |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit report |
@@ -23,6 +23,7 @@
 //! | [`image_file`] | calibration images in files: built from a calibration file, raw binary or Intel HEX |
 //! | [`records`] | trim and blank record files: read, checked, installed over a calibration as field layers |
 //! | [`report`] | the fit report in Markdown, with its charts, to file with the unit's record |
+//! | [`progress`] | progress of a long job (batch, verification), reported to the caller's receiver |
 //! | [`plot`] | SVG charts from plain data (line panels, heat maps) and the charts of a calibrated unit |
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients from points, R–T tables, settings files |
 //! | [`emit`] | Rust, C and JSON renderings of a unit's fixed-point tables |
@@ -47,6 +48,7 @@ pub mod frontend;
 pub mod image_file;
 pub mod output;
 pub mod plot;
+pub mod progress;
 pub mod records;
 pub mod report;
 pub mod sensor_tool;

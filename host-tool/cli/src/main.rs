@@ -16,8 +16,10 @@ mod fit;
 mod image;
 mod inspect;
 mod plot;
+mod progress;
 mod sensor;
 mod simulate;
+mod stamp;
 mod trim;
 mod verify;
 
@@ -88,7 +90,7 @@ impl Failure {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     // A malformed SOURCE_DATE_EPOCH is refused before anything is stamped with the wrong time.
-    if let Err(e) = logtrim_host::calfile::stamp_time() {
+    if let Err(e) = stamp::checked() {
         eprintln!("logtrim: {e}");
         return ExitCode::from(2);
     }

@@ -29,9 +29,11 @@ pub struct RecordArgs {
 impl RecordArgs {
     /// The record's header (its factory fingerprint is filled in by the library).
     pub fn info(&self) -> RecordInfo {
-        // `main` has checked SOURCE_DATE_EPOCH before any command ran.
-        let now = || logtrim_host::calfile::stamp_time().unwrap_or(0);
-        RecordInfo { sequence: self.sequence, written_at: self.written_at.unwrap_or_else(now), factory: 0 }
+        RecordInfo {
+            sequence: self.sequence,
+            written_at: self.written_at.unwrap_or_else(crate::stamp::now),
+            factory: 0,
+        }
     }
 }
 

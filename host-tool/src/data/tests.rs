@@ -9,7 +9,7 @@ fn readings(text: &str) -> Result<Readings, DataError> {
 }
 
 /// The value error inside, or a panic naming what came instead.
-fn value_err(r: Result<CalData, DataError>) -> ValueError {
+fn value_err(r: Result<CalData, DataError>) -> RowError {
     match r {
         Err(DataError::Value(e)) => *e,
         other => panic!("expected a value error, got {other:?}"),
