@@ -228,9 +228,9 @@ impl Size {
     pub fn of_np(np: f64) -> Size {
         Size {
             np,
-            db_10log10: 10.0 / LN10 * np,
-            db_20log10: 20.0 / LN10 * np,
-            pct_of_ratio: 100.0 * np.abs().exp_m1(),
+            db_10log10: crate::error_scale::db_power(np),
+            db_20log10: crate::error_scale::db_amplitude(np),
+            pct_of_ratio: crate::error_scale::pct_of_ratio(np.abs()),
         }
     }
 }

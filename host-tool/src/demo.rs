@@ -252,8 +252,8 @@ pub fn run(fe: &FrontEnd, plan: &Plan, fit_options: &FitOptions) -> Result<DemoO
 
 /// The side-by-side table of a demo outcome.
 pub fn render(out: &DemoOutcome) -> String {
+    use crate::error_scale::{db_power, pct_of_ratio};
     use std::fmt::Write;
-    let db = 10.0 / std::f64::consts::LN_10;
     let mut s = String::new();
     let _ = writeln!(
         s,
@@ -269,9 +269,9 @@ pub fn render(out: &DemoOutcome) -> String {
             m.refused,
             m.rms_np,
             m.max_np,
-            m.rms_np * db,
-            m.max_np * db,
-            (m.max_np.exp() - 1.0) * 100.0
+            db_power(m.rms_np),
+            db_power(m.max_np),
+            pct_of_ratio(m.max_np)
         );
     }
     for (path, v) in [("f32", &out.versus_oracle), ("fixed", &out.versus_oracle_fixed)] {

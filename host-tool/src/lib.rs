@@ -42,11 +42,13 @@ pub mod correct;
 pub mod data;
 pub mod demo;
 pub mod emit;
+pub mod error_scale;
 pub mod file_error;
 pub mod fit;
 pub mod frontend;
 pub mod image_file;
 pub mod output;
+#[cfg(feature = "plot")]
 pub mod plot;
 pub mod progress;
 pub mod records;

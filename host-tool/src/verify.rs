@@ -49,10 +49,8 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use crate::calfile::CalFile;
+use crate::error_scale::db_power;
 use crate::progress::{Counter, OnProgress};
-
-/// 1 Np in power dB.
-const DB_PER_NP: f64 = 10.0 * std::f64::consts::LOG10_E;
 
 /// The f32 backend the f32 path is verified with.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -447,8 +445,8 @@ pub fn run_with_progress(
                 compared: a.n,
                 max_np: a.max_np,
                 rms_np,
-                max_db: a.max_np * DB_PER_NP,
-                rms_db: rms_np * DB_PER_NP,
+                max_db: db_power(a.max_np),
+                rms_db: db_power(rms_np),
                 max_lsb: a.max_lsb,
                 rms_lsb: (a.ss_lsb / n).sqrt(),
                 worst: a.worst,

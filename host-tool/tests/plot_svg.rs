@@ -5,9 +5,10 @@
 
 use logtrim::calibration::{BiasTerm, Series as CalSeries};
 use logtrim::Calibration;
+use logtrim_host::error_scale::ErrorScale;
 use logtrim_host::fit::{self, FitData, FitOptions};
 use logtrim_host::frontend::preset;
-use logtrim_host::plot::figures::{self, ErrorUnit};
+use logtrim_host::plot::figures;
 use logtrim_host::plot::validation::ValidationPoint;
 use logtrim_host::plot::{
     render_heat_map, render_lines, scale_colour, series_colour, Axis, ColourScale, Grid, HeatMap, LineFigure,
@@ -322,7 +323,7 @@ fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
 #[test]
 fn charts_of_a_fitted_unit() {
     let (cal, data, val) = fitted_photometer();
-    let fig = figures::error_vs_x(&cal, &data, 2.0, ErrorUnit::MilliNp, "simulated photometer");
+    let fig = figures::error_vs_x(&cal, &data, 2.0, ErrorScale::MilliNp, "simulated photometer");
     assert_eq!(fig.panels.len(), 2);
     let after = &fig.panels[1];
     assert_eq!(after.series.len(), 4, "one series per set-point");
@@ -346,7 +347,7 @@ fn charts_of_a_fitted_unit() {
         assert_eq!(count_coloured(&doc, "polyline", "stroke", &hex(series_colour(k))), 3);
     }
 
-    let fig = figures::error_vs_temperature(&cal, &val, 10, ErrorUnit::DbPower, "validation");
+    let fig = figures::error_vs_temperature(&cal, &val, 10, ErrorScale::DbPower, "validation");
     let after = &fig.panels[1];
     let labels: Vec<&str> = after.series.iter().map(|s| s.label.as_str()).collect();
     assert_eq!(labels, ["rms error", "max |error|", "oracle rms (irreducible)"]);
