@@ -25,9 +25,9 @@
 //! (the noise gain of a non-inverting stage) as the input stage's. The code is monotone increasing in x: both
 //! `ln(I_1)` and `r·I_1` increase with `I_sig`.
 //!
-//! The temperature measurement ([`TemperatureMeasurement`]: a digital sensor, or a raw channel) turns the unit's true temperature into what the
-//! firmware reads; during a chamber run the unit's temperature jitters around the set-point
-//! ([`OperatingRange::setpoint_jitter_k_rms`]).
+//! The temperature measurement ([`TemperatureMeasurement`]: a digital sensor, or a raw channel) turns the
+//! unit's true temperature into what the firmware reads; during a chamber run the unit's temperature
+//! jitters around the set-point ([`OperatingRange::setpoint_jitter_k_rms`]).
 //!
 //! # The oracle
 //!
