@@ -1,6 +1,11 @@
 //! The error budget of a design before any unit is built: each contribution to the error in x = ln ratio,
 //! their root-sum-square and their worst case, from a few figures of the design ([`BudgetSpec`]).
 //!
+//! A design is described once, as a front-end description ([`crate::frontend::FrontEnd`], the file that
+//! `simulate` reads): [`BudgetSpec::from_design`] takes the budget's figures from it. Before a design is
+//! described part by part, its figures can be given directly (a figures file of [`BudgetSpec`], whose every
+//! field has a default, or the `budget` verb's options).
+//!
 //! # The law
 //!
 //! The budget uses the ideal log-ratio law, not a fitted unit: the output is `V(x, T) = V₀ + S(T)·x` with
@@ -41,6 +46,8 @@
 //!   pair. Use the data-sheet accuracy for a worst case.
 //! * Quantisation is reduced by oversampling only when the converter's noise dithers it: at ½ LSB rms or
 //!   more (common practice, from memory).
+
+mod design;
 
 use serde::{Deserialize, Serialize};
 
@@ -94,7 +101,10 @@ pub struct ReferenceSpec {
     pub tolerance: f64,
     /// Drift not removed by calibration, ppm/K.
     pub drift_ppm_per_k: f64,
-    /// Whether the level shift V₀ is derived from the same reference (then only the log part scales).
+    /// Whether the level shift V₀ is derived from the converter's own reference (a divider of it), so that a
+    /// reference error scales it together with the codes and only the log part `S·x` is misread; `false`
+    /// (the default) for a level shift from an independent voltage, which the reference error misreads
+    /// in full (see the reference drift's row in the module docs).
     pub ratiometric_level_shift: bool,
 }
 
@@ -188,6 +198,12 @@ pub enum BudgetError {
     /// The file could not be read, or is not well-formed JSON of a budget.
     #[error(transparent)]
     File(#[from] crate::file_error::FileError),
+    /// The design description does not validate.
+    #[error(transparent)]
+    Design(#[from] crate::frontend::FrontEndError),
+    /// The design's raw temperature channel gives no code somewhere over its operating range.
+    #[error("the design's temperature channel: {0}; expected a channel that reads over the operating range")]
+    DesignSensor(logtrim::Error),
     /// A figure is outside what the budget can use.
     #[error("{field} = {value}: expected {expected}")]
     Invalid {

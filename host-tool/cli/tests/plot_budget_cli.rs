@@ -183,3 +183,41 @@ fn budget_json_adds_up_and_bad_files_are_located() {
     );
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+#[test]
+fn budget_takes_the_design_that_simulate_reads() {
+    let d = scratch("budget-design");
+    let fe = d.join("fe.json");
+    let (code, _, stderr) =
+        logtrim(&["simulate", "--preset", "photometer-compensated", "--write-preset", fe.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    let (code, from_file, stderr) = logtrim(&["budget", "--design", fe.to_str().unwrap(), "--json"]);
+    assert_eq!(code, 0, "{stderr}");
+    let (code, from_preset, _) = logtrim(&["budget", "--preset", "photometer-compensated", "--json"]);
+    assert_eq!(code, 0);
+    assert_eq!(from_file, from_preset, "the file written from a preset is that preset's design");
+    // The figures are the design's: its converter, its operating range, its slope at 25 °C.
+    let v: serde_json::Value = serde_json::from_str(&from_file).unwrap();
+    let design: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&fe).unwrap()).unwrap();
+    assert_eq!(v["spec"]["adc"]["bits"], design["adc"]["bits"]);
+    assert_eq!(v["spec"]["adc"]["vref_v"], design["adc"]["vref_v"]);
+    assert_eq!(v["spec"]["front_end"]["ratio_min"], design["operating"]["ratio_min"]);
+    assert_eq!(v["spec"]["temperature"]["max_c"], design["operating"]["temp_max_c"]);
+    let slope = v["spec"]["front_end"]["slope_v_per_decade"].as_f64().unwrap();
+    // n·(kT/q)·G·ln 10 at 25 °C: 59.16 mV/decade × n × G (kT/q at 298.15 K, common practice).
+    let (n, g) =
+        (design["pair"]["ideality"].as_f64().unwrap(), design["output_stage"]["gain_25c"].as_f64().unwrap());
+    assert!((slope - 0.05916 * n * g).abs() < 1e-4 * slope, "{slope}");
+    // Options still override, and the level shift can be declared ratiometric.
+    let (code, table, _) =
+        logtrim(&["budget", "--design", fe.to_str().unwrap(), "--bits", "12", "--ratiometric-level-shift"]);
+    assert_eq!(code, 0);
+    assert!(table.contains("12-bit ADC") && table.contains("the level shift is ratiometric"), "{table}");
+    // A figures file and a design are two descriptions of one design: one at a time.
+    let (code, _, stderr) = logtrim(&["budget", fe.to_str().unwrap(), "--design", fe.to_str().unwrap()]);
+    assert_eq!(code, 2, "{stderr}");
+    let (code, _, stderr) = logtrim(&["budget", "--preset", "no-such-front-end"]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("no such preset"), "{stderr}");
+    std::fs::remove_dir_all(&d).unwrap();
+}

@@ -178,3 +178,83 @@ fn bad_figures_are_named() {
     assert_eq!(s.adc.bits, 12);
     assert_eq!(s.adc.vref_v, AdcSpec::default().vref_v, "missing figures take their defaults");
 }
+
+#[test]
+fn a_design_description_gives_the_budget_its_figures() {
+    // The ideal front end's figures are those of its law, as `spec_of` writes them out by hand.
+    let fe = ideal_frontend(2.0);
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = spec_of(&fe);
+    assert_eq!((s.adc.bits, s.adc.vref_v), (want.adc.bits, want.adc.vref_v));
+    assert_eq!(
+        s.front_end,
+        FrontEndSpec {
+            ratio_min: fe.operating.ratio_min,
+            ratio_max: fe.operating.ratio_max,
+            ..want.front_end
+        }
+    );
+    assert_eq!((s.temperature.min_c, s.temperature.max_c), (want.temperature.min_c, want.temperature.max_c));
+    assert_eq!((s.adc.noise_lsb_rms, s.reference.tolerance), (fe.adc.noise_codes_rms, 0.0));
+    assert!(!s.reference.ratiometric_level_shift);
+    // So its law is the reference model's, as for `spec_of`.
+    for (x, t) in POINTS {
+        assert!(within(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-15, 1e-12), "x={x} t={t}");
+    }
+}
+
+#[test]
+fn a_compensated_designs_slope_drift_is_the_models_at_25_c() {
+    let fe = preset("photometer-compensated").expect("preset");
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    // d ln S/dT at 25 °C by a central difference of the reference model's ideal slope n·(kT/q)·G(T).
+    let h = 1e-3;
+    let slope = |t: f64| fe.ideal_slope_v_per_neper(t);
+    let want = (slope(25.0 + h) - slope(25.0 - h)) / (2.0 * h) / slope(25.0) * 1e6;
+    let got = s.front_end.slope_drift_ppm_per_k.expect("a compensated design has its own drift");
+    assert!(within(got, want, 1e-6, 1e-8), "{got} vs {want} ppm/K");
+    // A compensating resistor near +3400 ppm/K leaves a few hundred ppm/K (common practice).
+    assert!(got > 0.0 && got < 1000.0, "{got}");
+    // The slope and the level shift at 25 °C are the model's; the converter's gain error ε is a reference off
+    // by 1/(1 + ε) − 1.
+    assert!(within(s.front_end.slope_v_per_decade, LN10 * slope(25.0), 0.0, 1e-15));
+    assert!(within(s.front_end.zero_v, fe.output_voltage(0.0, 25.0), 0.0, 1e-15));
+    assert!(within(s.reference.tolerance, (1.0 / (1.0 + fe.adc.gain_error) - 1.0).abs(), 0.0, 1e-12));
+    assert!(s.compute().is_ok());
+}
+
+#[test]
+fn a_designs_temperature_noise_comes_from_its_sensor() {
+    use crate::frontend::TemperatureMeasurement;
+    // A digital sensor: its noise and its resolution's quantisation (r/√12, common practice) add in quadrature.
+    let fe = preset("photometer-compensated").expect("preset");
+    let TemperatureMeasurement::Digital { noise_k_rms, resolution_k, .. } = fe.temperature_sensor else {
+        panic!("a digital sensor")
+    };
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = (noise_k_rms.powi(2) + resolution_k.powi(2) / 12.0).sqrt();
+    assert!(within(s.temperature.sensor_noise_k_rms, want, 0.0, 1e-12));
+    // A raw channel: noise and quantisation in codes at its coarsest resolution over the operating range,
+    // found here from the firmware's own f64 conversion of neighbouring codes.
+    let fe = preset("photometer-ntc").expect("preset");
+    let TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor else {
+        panic!("a raw channel")
+    };
+    let code = |t: f64| sensor.code_f64(t).unwrap().round() as u32;
+    let (a, b) = (code(fe.operating.temp_min_c), code(fe.operating.temp_max_c));
+    let coarsest = (a.min(b)..a.max(b))
+        .map(|c| (sensor.celsius_f64(c + 1).unwrap() - sensor.celsius_f64(c).unwrap()).abs())
+        .fold(0.0, f64::max);
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = (noise_codes_rms.powi(2) + 1.0 / 12.0).sqrt() * coarsest;
+    assert!(
+        within(s.temperature.sensor_noise_k_rms, want, 0.0, 0.02),
+        "{} vs {want}",
+        s.temperature.sensor_noise_k_rms
+    );
+    // A design that does not validate is refused, named.
+    let mut bad = fe.clone();
+    bad.adc.vref_v = -1.0;
+    let e = BudgetSpec::from_design(&bad).unwrap_err().to_string();
+    assert!(e.contains("adc.vref_v"), "{e}");
+}
