@@ -39,6 +39,24 @@
 //! temperature by safeguarded Newton iteration in a bracket. What it cannot undo is the noise: the log
 //! channel's, the digital sensor's noise and resolution, a raw channel's ADC noise and quantisation. Its
 //! error against the truth is the irreducible error that any calibration is measured against.
+//!
+//! # The description of a design
+//!
+//! [`FrontEnd`] is the one description of a design, as JSON (`FrontEnd::load`, `FrontEnd::to_json`; every
+//! field is documented on its type, and unknown fields are refused). `simulate` runs it, `demo` runs its
+//! presets, and `budget` takes its figures from it ([`crate::budget::BudgetSpec::from_design`]).
+//!
+//! | key | type | what it describes |
+//! |---|---|---|
+//! | `name`, `description` | [`FrontEnd`] | a short name and free text |
+//! | `pair` | [`PairModel`] | the matched transistor pair: ideality, I_ref, mismatch, bulk resistance |
+//! | `amplifiers` | [`AmplifierModel`] | the op-amps' offsets, their drifts and the input bias currents |
+//! | `output_stage` | [`OutputStage`] | gain, the compensating resistor's tempco, level shift |
+//! | `adc` | [`AdcModel`] | the log channel's converter: bits, reference, gain error, offset, noise |
+//! | `temperature_sensor` | [`TemperatureMeasurement`] | a digital sensor, or a raw channel (`kind`: `digital`, `raw`) |
+//! | `operating` | [`OperatingRange`] | temperature and ratio ranges, the chamber's set-point jitter |
+//! | `spread` (optional) | [`UnitSpread`] | unit-to-unit spread, for simulated production batches |
+//! | `aging` (optional) | [`Aging`] | drift since calibration, for the field runs (standards, blank) |
 
 mod presets;
 #[cfg(test)]
