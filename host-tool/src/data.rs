@@ -353,9 +353,7 @@ const READINGS_EXPECTED: &str = "code, temp_c or temp_code; optional ratio, unit
 
 /// Reads calibration data (`code`, `temp_c`/`temp_code`, `ratio`, optional `unit`, `weight`) from a file.
 pub fn read_calibration_file(path: &Path, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| FileError::io(path, source))?;
-    calibration_from_bytes(data, &p, opts)
+    calibration_from_bytes(read_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads calibration data from any reader; `path` names the source in errors.
@@ -368,26 +366,13 @@ pub fn read_calibration<R: io::Read>(
 }
 
 fn calibration_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    let mut src = Source::open(data, path, opts, CAL_EXPECTED, true)?;
-    let mut rows = Vec::new();
-    let mut skipped = Vec::new();
-    let mut rec = ByteRecord::new();
-    while let Some(line) = src.next(&mut rec)? {
-        match src.cal_row(&rec, line) {
-            Ok(row) => rows.push(row),
-            Err(e) if opts.skip_bad_rows => skipped.push(*e),
-            Err(e) => return Err(DataError::Value(e)),
-        }
-    }
-    finish(path, rows.len(), &mut skipped)?;
+    let (src, rows, skipped) = read_rows(data, path, opts, CAL_EXPECTED, true, Source::cal_row)?;
     Ok(CalData { path: path.to_string(), columns: src.columns, rows, units: src.units.names, skipped })
 }
 
 /// Reads readings (`code`, `temp_c`/`temp_code`, optional `ratio`, `unit`) from a file, keeping every field.
 pub fn read_readings_file(path: &Path, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| FileError::io(path, source))?;
-    readings_from_bytes(data, &p, opts)
+    readings_from_bytes(read_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads readings from any reader; `path` names the source in errors.
@@ -400,18 +385,7 @@ pub fn read_readings<R: io::Read>(
 }
 
 fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    let mut src = Source::open(data, path, opts, READINGS_EXPECTED, false)?;
-    let mut rows = Vec::new();
-    let mut skipped = Vec::new();
-    let mut rec = ByteRecord::new();
-    while let Some(line) = src.next(&mut rec)? {
-        match src.reading_row(&rec, line) {
-            Ok(row) => rows.push(row),
-            Err(e) if opts.skip_bad_rows => skipped.push(*e),
-            Err(e) => return Err(DataError::Value(e)),
-        }
-    }
-    finish(path, rows.len(), &mut skipped)?;
+    let (src, rows, skipped) = read_rows(data, path, opts, READINGS_EXPECTED, false, Source::reading_row)?;
     Ok(Readings {
         path: path.to_string(),
         headers: src.headers,
@@ -420,6 +394,35 @@ fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Res
         units: src.units.names,
         skipped,
     })
+}
+
+/// Every row of a file as `row` reads it: a bad row is an error, or skipped and kept when the options say
+/// so; a file without a good row is an error.
+fn read_rows<'o, T>(
+    data: Vec<u8>,
+    path: &str,
+    opts: &ReadOptions<'o>,
+    expected: &'static str,
+    need_ratio: bool,
+    mut row: impl FnMut(&mut Source<'o>, &ByteRecord, u64) -> Result<T, Box<RowError>>,
+) -> Result<(Source<'o>, Vec<T>, Vec<RowError>), DataError> {
+    let mut src = Source::open(data, path, opts, expected, need_ratio)?;
+    let mut rows = Vec::new();
+    let mut skipped = Vec::new();
+    let mut rec = ByteRecord::new();
+    while let Some(line) = src.next(&mut rec)? {
+        match row(&mut src, &rec, line) {
+            Ok(row) => rows.push(row),
+            Err(e) if opts.skip_bad_rows => skipped.push(*e),
+            Err(e) => return Err(DataError::Value(e)),
+        }
+    }
+    finish(path, rows.len(), &mut skipped)?;
+    Ok((src, rows, skipped))
+}
+
+fn read_file(path: &Path) -> Result<Vec<u8>, DataError> {
+    Ok(std::fs::read(path).map_err(|source| FileError::io(path, source))?)
 }
 
 fn slurp<R: io::Read>(mut reader: R, path: &str) -> Result<Vec<u8>, DataError> {

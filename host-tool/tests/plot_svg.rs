@@ -3,8 +3,11 @@
 //!
 //! Set `LOGTRIM_KEEP_SVG=DIR` to keep the rendered files for a look.
 
-use logtrim::calibration::{BiasTerm, Series as CalSeries};
+mod common;
+
+use common::units;
 use logtrim::Calibration;
+use logtrim_host::demo::fit_data;
 use logtrim_host::error_scale::ErrorScale;
 use logtrim_host::fit::{self, FitData, FitOptions};
 use logtrim_host::frontend::preset;
@@ -137,27 +140,9 @@ fn no_data_is_an_error_not_an_empty_chart() {
     assert!(matches!(render_heat_map(&map), Err(PlotError::NoData { .. })));
 }
 
-/// A calibration with every term of the model switched on (the shape of a hard, uncompensated unit).
-fn rich_calibration() -> Calibration {
-    let mut c = Calibration::nominal(16, 30000.0, 3600.0, 32.5);
-    c.temperature.min_c = -20.0;
-    c.temperature.max_c = 85.0;
-    c.x_range.min = -7.0;
-    c.x_range.max = 4.7;
-    c.x_range.min_sensitivity = 0.1;
-    c.adc.rail_margin = 8;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.1;
-    c.model.offset = CalSeries::from_slice(&[150.0, 40.0, -6.0]).unwrap();
-    c.model.slope = CalSeries::from_slice(&[3500.0, 25.0]).unwrap();
-    c.model.bulk = CalSeries::from_slice(&[12.0]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
-    c
-}
-
 #[test]
 fn heat_map_of_the_f32_error_over_code_and_temperature() {
-    let cal = rich_calibration();
+    let cal = units::bent();
     let (nx, ny) = (40, 12);
     let map = figures::f32_error_map(&cal, nx, ny, "coarse grid").unwrap();
     // The grid holds what it says: recompute a few cells directly from firmware-lib.
@@ -203,7 +188,7 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
 
 #[test]
 fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
-    let cal = rich_calibration();
+    let cal = units::bent();
     let tables = build(&cal, None, &TableOptions::default()).unwrap();
     let fixed = tables.view();
     let (nx, ny, per_cell) = (40, 12, 9);
@@ -282,24 +267,8 @@ fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
         units: 1,
     };
     let sim = simulate::simulate(&fe, &plan).unwrap();
-    let mut data = FitData::default();
-    for r in &sim.chamber {
-        let logtrim_host::frontend::MeasuredTemperature::Celsius(t) = r.temperature else {
-            panic!("the preset reads °C")
-        };
-        data.code.push(r.code);
-        data.temp_c.push(t);
-        data.ratio.push(r.ratio);
-    }
-    let spec = fit::model::Spec {
-        offset_terms: 3,
-        slope_terms: 2,
-        bulk_terms: 1,
-        pole: true,
-        bias: true,
-        residual_x: 0,
-        residual_t: 0,
-    };
+    let data = fit_data(&sim.chamber, 0).unwrap();
+    let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();
     let out = fit::fit(&data, &FitOptions { spec: Some(spec), ..FitOptions::default() }).unwrap();
     let val = sim
         .validation

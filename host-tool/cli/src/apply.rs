@@ -9,6 +9,7 @@ use logtrim_host::correct::{
     correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, Arithmetic,
 };
 use logtrim_host::output::AtomicFile;
+use logtrim_host::records::layers_from_files;
 
 use crate::Failure;
 
@@ -56,7 +57,8 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
     let limits = args.limits.limits()?;
-    let layers = crate::trim::layers(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)?;
+    let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
+        .map_err(crate::trim::layer_failure)?;
     let readings = read_unit_readings(&file, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
     for e in &readings.skipped {
         eprintln!("skipped: {e}");

@@ -4,12 +4,12 @@
 use std::path::{Path, PathBuf};
 
 use clap::Args;
-use logtrim::field::{Layers, RecordInfo, Trim, TrimLimits};
-use logtrim::{Calibration, Unit};
+use logtrim::field::{RecordInfo, Trim, TrimLimits};
+use logtrim::Unit;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::correct::{read_unit_readings, x_of_q24};
 use logtrim_host::data::Readings;
-use logtrim_host::records::{layers_from_files, LayerError};
+use logtrim_host::records::LayerError;
 use logtrim_host::tables::{FixedTables, TableOptions};
 
 use crate::Failure;
@@ -102,25 +102,18 @@ pub fn unit_readings(file: &CalFile, coeffs: &Path, path: &Path) -> Result<(Read
     Ok((readings, tables))
 }
 
-/// The trim and blank record files installed over the calibration; a record the firmware refuses names the
-/// options, and a trim past its limits is a failed check.
-pub fn layers(
-    cal: &Calibration,
-    trim: Option<&Path>,
-    blank: Option<&Path>,
-    limits: &TrimLimits,
-) -> Result<Layers, Failure> {
-    layers_from_files(cal, trim, blank, limits).map_err(|e| {
-        let message = match &e {
-            LayerError::Refused(refusal) => format!("--trim/--blank: {refusal}"),
-            other => other.to_string(),
-        };
-        if e.is_check() {
-            Failure::check(message)
-        } else {
-            Failure::input(message)
-        }
-    })
+/// A refusal to install the trim and blank record files: a record the firmware refuses names the options,
+/// and a trim past its limits is a failed check.
+pub fn layer_failure(e: LayerError) -> Failure {
+    let message = match &e {
+        LayerError::Refused(refusal) => format!("--trim/--blank: {refusal}"),
+        other => other.to_string(),
+    };
+    if e.is_check() {
+        Failure::check(message)
+    } else {
+        Failure::input(message)
+    }
 }
 
 /// `name` as a unit, or a usage error listing the names.

@@ -6,8 +6,9 @@ use std::path::{Path, PathBuf};
 
 use common::{logtrim, scratch};
 use logtrim_host::calfile::CalFile;
-use logtrim_host::fit::{self, FitData, FitOptions};
-use logtrim_host::frontend::{preset, MeasuredTemperature};
+use logtrim_host::demo::fit_data;
+use logtrim_host::fit::{self, FitOptions};
+use logtrim_host::frontend::preset;
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
 
 /// A simulated unit's files and its calibration, fitted with a fixed model (quick).
@@ -21,47 +22,35 @@ fn unit_files(dir: &Path) -> PathBuf {
     };
     let sim = simulate::simulate(&fe, &plan).unwrap();
     sim.write_to(dir).unwrap();
-    let mut d = FitData::default();
-    for r in &sim.chamber {
-        let MeasuredTemperature::Celsius(t) = r.temperature else { panic!("the preset reads °C") };
-        d.code.push(r.code);
-        d.temp_c.push(t);
-        d.ratio.push(r.ratio);
-    }
-    let spec = fit::model::Spec {
-        offset_terms: 3,
-        slope_terms: 2,
-        bulk_terms: 1,
-        pole: true,
-        bias: true,
-        residual_x: 0,
-        residual_t: 0,
-    };
+    let d = fit_data(&sim.chamber, 0).unwrap();
+    let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();
     let out = fit::fit(&d, &FitOptions { spec: Some(spec), ..FitOptions::default() }).unwrap();
     let coeffs = dir.join("COEFFS.json");
     CalFile::new(out.calibration, Some("PH-0042".into())).save(&coeffs).unwrap();
     coeffs
 }
 
-#[test]
-fn plot_writes_three_well_formed_charts() {
-    let d = scratch("plot");
+/// A scratch folder with a unit's files and calibration, and the folder for its charts.
+fn plot_scratch(name: &str) -> (PathBuf, PathBuf, PathBuf) {
+    let d = scratch(name);
     let coeffs = unit_files(&d);
     let out = d.join("charts");
+    (d, coeffs, out)
+}
+
+#[test]
+fn plot_writes_three_well_formed_charts() {
+    let (d, coeffs, out) = plot_scratch("plot");
     let s = |p: &Path| p.to_str().unwrap().to_string();
-    let (code, stdout, stderr) = logtrim(&[
-        "plot",
-        &s(&coeffs),
-        &s(&d.join("cal.csv")),
-        "--validation",
-        &s(&d.join("readings.csv")),
-        "--truth",
-        &s(&d.join("truth.csv")),
-        "-o",
-        &s(&out),
-        "--map-cells",
-        "32x10",
-    ]);
+    // plot with a validation run whose truth file is `truth`, into `out`, with `extra` options.
+    let plot = |truth: &str, out: &Path, extra: &[&str]| {
+        let (cal, readings, truth) = (s(&d.join("cal.csv")), s(&d.join("readings.csv")), s(&d.join(truth)));
+        let (coeffs, out) = (s(&coeffs), s(out));
+        let mut args = vec!["plot", &coeffs, &cal, "--validation", &readings, "--truth", &truth, "-o", &out];
+        args.extend_from_slice(extra);
+        logtrim(&args)
+    };
+    let (code, stdout, stderr) = plot("truth.csv", &out, &["--map-cells", "32x10"]);
     assert_eq!(code, 0, "{stdout}{stderr}");
     for name in ["PH-0042-error-vs-x.svg", "PH-0042-error-vs-temperature.svg", "PH-0042-f32-error-map.svg"] {
         let svg = std::fs::read_to_string(out.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
@@ -75,17 +64,7 @@ fn plot_writes_three_well_formed_charts() {
     let short: String = truth.lines().take(10).map(|l| format!("{l}\n")).collect();
     std::fs::write(d.join("short.csv"), short).unwrap();
     let out2 = d.join("charts2");
-    let (code, _, stderr) = logtrim(&[
-        "plot",
-        &s(&coeffs),
-        &s(&d.join("cal.csv")),
-        "--validation",
-        &s(&d.join("readings.csv")),
-        "--truth",
-        &s(&d.join("short.csv")),
-        "-o",
-        &s(&out2),
-    ]);
+    let (code, _, stderr) = plot("short.csv", &out2, &[]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("reading id 10 has no row in") && stderr.contains("short.csv"), "{stderr}");
     assert!(!out2.exists(), "no half-written output");
@@ -99,9 +78,7 @@ fn plot_writes_three_well_formed_charts() {
 
 #[test]
 fn plot_draws_the_fixed_point_error_map_on_request() {
-    let d = scratch("plot-fixed");
-    let coeffs = unit_files(&d);
-    let out = d.join("charts");
+    let (d, coeffs, out) = plot_scratch("plot-fixed");
     let s = |p: &Path| p.to_str().unwrap().to_string();
     let base = ["plot".to_string(), s(&coeffs), s(&d.join("cal.csv")), "-o".into(), s(&out)];
     let args = |extra: &[&str]| -> Vec<String> {

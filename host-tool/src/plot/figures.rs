@@ -91,13 +91,7 @@ pub fn error_vs_x(
                 style: Style::LineAndMarkers,
             });
         }
-        let title = refused_title(which, refused);
-        panels.push(Panel {
-            title,
-            x_label: "x = ln(I_sig/I_ref) [Np]".into(),
-            y_label: format!("error in x [{}]", unit.label()),
-            series,
-        });
+        panels.push(error_panel(which, refused, "x = ln(I_sig/I_ref) [Np]", unit, series));
     }
     LineFigure {
         title: "Error in x against x, per chamber set-point".into(),
@@ -107,13 +101,20 @@ pub fn error_vs_x(
     }
 }
 
-/// A panel's caption with the count of refused readings, if any.
-fn refused_title(which: &str, refused: usize) -> String {
-    match refused {
+/// A panel of errors in x against `x_label`, captioned `which` with the count of refused readings, if any.
+fn error_panel(
+    which: &str,
+    refused: usize,
+    x_label: &str,
+    unit: ErrorScale,
+    series: Vec<super::Series>,
+) -> Panel {
+    let title = match refused {
         0 => which.to_string(),
         1 => format!("{which}: 1 reading refused"),
         n => format!("{which}: {n} readings refused"),
-    }
+    };
+    Panel { title, x_label: x_label.into(), y_label: format!("error in x [{}]", unit.label()), series }
 }
 
 /// A u64 whose order is the order of the f64 (for finite values).
@@ -189,13 +190,7 @@ pub fn error_vs_temperature(
                 style: Style::Dashed,
             });
         }
-        let title = refused_title(which, refused);
-        panels.push(Panel {
-            title,
-            x_label: "unit's true temperature [°C]".into(),
-            y_label: format!("error in x [{}]", unit.label()),
-            series,
-        });
+        panels.push(error_panel(which, refused, "unit's true temperature [°C]", unit, series));
     }
     LineFigure {
         title: "Error against temperature over the validation run".into(),

@@ -113,17 +113,7 @@ fn rtd_table_matches_iec_60751_at_its_points() {
 
 #[test]
 fn table_codes_follow_the_divider_equation_and_read_back() {
-    let element = ElementSpec::Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }.element().unwrap();
-    let divider = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: 10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 8,
-        short_margin: 8,
-    }
-    .divider()
-    .unwrap();
+    let (element, divider) = ntc_parts();
     let rows = table(
         TableSource::Divided(&element, &divider),
         &TableSpec { from_c: -40.0, to_c: 125.0, step_k: 5.0 },
@@ -156,9 +146,16 @@ fn table_codes_follow_the_divider_equation_and_read_back() {
     assert!(within(rows.iter().find(|r| r.celsius == 25.0).unwrap().code.unwrap().exact, 2048.0, 1e-9, 0.0));
 }
 
-fn ntc_settings() -> TemperatureSensor {
+/// A 10 kΩ NTC with β = 3900 K from a 12-bit ADC's input to ground, 10 kΩ to its reference, 8 codes of
+/// fault band at either rail (invented figures, those of the `photometer-ntc` preset).
+fn ntc_parts() -> (SensorElement, Divider) {
     let element = ElementSpec::Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }.element().unwrap();
-    let divider = DividerSpec {
+    (element, ntc_divider().divider().unwrap())
+}
+
+/// The divider of [`ntc_parts`].
+fn ntc_divider() -> DividerSpec {
+    DividerSpec {
         placement: Placement::LowSide,
         series_ohm: 10_000.0,
         bits: 12,
@@ -166,8 +163,10 @@ fn ntc_settings() -> TemperatureSensor {
         open_margin: 8,
         short_margin: 8,
     }
-    .divider()
-    .unwrap();
+}
+
+fn ntc_settings() -> TemperatureSensor {
+    let (element, divider) = ntc_parts();
     build_sensor(element, divider, -40.0, 125.0).unwrap()
 }
 
@@ -230,14 +229,7 @@ fn negative_resistances_are_named() {
     assert!(matches!(e, SensorToolError::Value { input: Input::Point, .. }), "{e}");
     let m = e.to_string();
     assert!(m.contains("25:-10000") && m.contains("not positive") && m.contains("> 0 Ω"), "{m}");
-    let spec = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: -10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 0,
-        short_margin: 0,
-    };
+    let spec = DividerSpec { series_ohm: -10_000.0, open_margin: 0, short_margin: 0, ..ntc_divider() };
     let e = spec.divider().unwrap_err();
     assert!(matches!(e, SensorToolError::Value { input: Input::Series, .. }), "{e}");
     assert!(e.to_string().contains("-10000"), "{e}");
@@ -308,14 +300,7 @@ fn bad_ranges_and_fault_bands_are_named() {
     assert_eq!(end, Input::Min);
     assert!(code >= 4032 && fault.contains("open"), "{e}");
     // Fault bands that leave nothing.
-    let spec = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: 10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 3000,
-        short_margin: 1095,
-    };
+    let spec = DividerSpec { open_margin: 3000, short_margin: 1095, ..ntc_divider() };
     let e = spec.divider().unwrap_err();
     assert!(matches!(e, SensorToolError::Value { input: Input::FaultMargins, .. }), "{e}");
 }

@@ -96,7 +96,7 @@ fn validation_run_covers_the_whole_range() {
     let rows = validation_run(&fe, 2000, 0, 1, 9);
     let o = fe.operating;
     let (x0, x1) = (o.ratio_min.ln(), o.ratio_max.ln());
-    let min_max = |f: &dyn Fn(&ValidationRow) -> f64| {
+    let min_max = |f: &dyn Fn(&SimReading) -> f64| {
         rows.iter().map(f).fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)))
     };
     let (xa, xb) = min_max(&|r| r.x_true);

@@ -15,6 +15,19 @@ pub fn logtrim(args: &[&str]) -> (i32, String, String) {
     (code(&out), stdout(&out), stderr(&out))
 }
 
+/// Runs `logtrim` with the words of `line` (split at white space) followed by `more` (paths, which may hold
+/// spaces).
+pub fn logtrim_words(line: &str, more: &[&str]) -> (i32, String, String) {
+    let mut args: Vec<&str> = line.split_whitespace().collect();
+    args.extend_from_slice(more);
+    logtrim(&args)
+}
+
+/// The divider, ADC, fault bands and valid range of the `photometer-ntc` preset's temperature channel (a
+/// 10 kΩ NTC from the 12-bit ADC's input to ground, 10 kΩ to its reference), as `sensor settings` options.
+pub const NTC_CHANNEL: &str =
+    "--series 10k --placement low --bits 12 --open-margin 8 --short-margin 8 --min -40 --max 125";
+
 /// The exit code of a run (-1 if it was killed).
 pub fn code(o: &Output) -> i32 {
     o.status.code().unwrap_or(-1)
