@@ -125,23 +125,26 @@ mod tests {
     use crate::data::{read_readings, ReadOptions};
     use logtrim::Calibration;
 
-    #[test]
-    fn rows_pass_through_and_refusals_are_named() {
+    /// The readings, their results, and the text written (or the error).
+    type Written = (Readings, Vec<Result<RowValue, Error>>, Result<(ApplySummary, String), ApplyError>);
+
+    /// The rows of `csv` corrected by a nominal 16-bit unit (3000 codes per neper, ratio 1 at code 32768)
+    /// in the f32 path, and written.
+    fn written(csv: &str) -> Written {
         let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
-        let csv = "id,temp_c,code,note\n1,25,35768,a\n2,25,65535,b\n3,nan,33000,c\n";
-        let r = read_readings(
-            csv.as_bytes(),
-            "mem.csv",
-            &ReadOptions { skip_bad_rows: true, ..Default::default() },
-        );
-        let readings = match r {
-            Ok(r) => r,
-            Err(e) => panic!("{e}"),
-        };
+        let opts = ReadOptions { skip_bad_rows: true, ..Default::default() };
+        let readings = read_readings(csv.as_bytes(), "mem.csv", &opts).unwrap_or_else(|e| panic!("{e}"));
         let res = correct_rows(&cal, &readings, Arithmetic::F32);
         let mut out = Vec::new();
-        let s = write_results(&readings, &res, &mut out).unwrap();
-        let text = String::from_utf8(out).unwrap();
+        let summary = write_results(&readings, &res, &mut out);
+        let text = summary.map(|s| (s, String::from_utf8(out).unwrap()));
+        (readings, res, text)
+    }
+
+    #[test]
+    fn rows_pass_through_and_refusals_are_named() {
+        let (_, _, out) = written("id,temp_c,code,note\n1,25,35768,a\n2,25,65535,b\n3,nan,33000,c\n");
+        let (s, text) = out.unwrap();
         let lines: Vec<&str> = text.lines().collect();
         assert_eq!(lines[0], format!("id,temp_c,code,note,{}", added_columns().join(",")));
         // Row 1: x = 3000/3000 = 1 Np at T_ref; 10·log10(e) = 4.3429448 dB (ISO 80000-3 via 1 Np).
@@ -159,13 +162,8 @@ mod tests {
     fn every_unit_has_its_column() {
         // Each unit of Unit::ALL has the column of its name, holding that unit's value of the row: a unit
         // added to the firmware's list without its column (or in another order) fails here.
-        let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
-        let csv = "temp_c,code\n25,35768\n40,30000\n";
-        let readings = read_readings(csv.as_bytes(), "mem.csv", &ReadOptions::default()).unwrap();
-        let res = correct_rows(&cal, &readings, Arithmetic::F32);
-        let mut out = Vec::new();
-        write_results(&readings, &res, &mut out).unwrap();
-        let text = String::from_utf8(out).unwrap();
+        let (_, res, out) = written("temp_c,code\n25,35768\n40,30000\n");
+        let (_, text) = out.unwrap();
         let mut lines = text.lines();
         let header: Vec<&str> = lines.next().unwrap().split(',').collect();
         assert_eq!(header.len(), 2 + Unit::ALL.len() + 2);
@@ -184,11 +182,9 @@ mod tests {
 
     #[test]
     fn a_clashing_column_is_refused() {
-        let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
-        let csv = "temp_c,code,absorbance\n25,35768,0.1\n";
-        let readings = read_readings(csv.as_bytes(), "mem.csv", &ReadOptions::default()).unwrap();
-        let res = correct_rows(&cal, &readings, Arithmetic::F32);
-        let err = write_results(&readings, &res, Vec::new()).unwrap_err();
+        let (readings, _, out) = written("temp_c,code,absorbance\n25,35768,0.1\n");
+        let err = out.unwrap_err();
+        assert_eq!(readings.rows.len(), 1);
         assert!(err.to_string().contains("absorbance"), "{err}");
     }
 }

@@ -260,12 +260,8 @@ fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
 /// A small simulated chamber run of a preset, fitted with a fixed model (no search: quick).
 fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
     let fe = preset("photometer-compensated").unwrap();
-    let plan = Plan {
-        seed: 3,
-        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 15, repeats: 2 },
-        validation_count: 600,
-        units: 1,
-    };
+    let chamber = ChamberPlan { setpoints: 4, ratios_per_setpoint: 15, repeats: 2 };
+    let plan = Plan { seed: 3, chamber, validation_count: 600, ..Plan::default() };
     let sim = simulate::simulate(&fe, &plan).unwrap();
     let data = fit_data(&sim.chamber, 0).unwrap();
     let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();

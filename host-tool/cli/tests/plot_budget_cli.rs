@@ -14,12 +14,8 @@ use logtrim_host::simulate::{self, ChamberPlan, Plan};
 /// A simulated unit's files and its calibration, fitted with a fixed model (quick).
 fn unit_files(dir: &Path) -> PathBuf {
     let fe = preset("photometer-compensated").unwrap();
-    let plan = Plan {
-        seed: 11,
-        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 },
-        validation_count: 400,
-        units: 1,
-    };
+    let chamber = ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 };
+    let plan = Plan { seed: 11, chamber, validation_count: 400, ..Plan::default() };
     let sim = simulate::simulate(&fe, &plan).unwrap();
     sim.write_to(dir).unwrap();
     let d = fit_data(&sim.chamber, 0).unwrap();
