@@ -33,36 +33,30 @@ fn text(with_ratio: bool) -> String {
     s
 }
 
+/// The best of three timed reads of `text` by `read` (which returns the rows read), printed as `what`.
+fn time(what: &str, text: &str, read: impl Fn(&[u8]) -> usize) {
+    let mut best = f64::INFINITY;
+    for _ in 0..3 {
+        let t0 = Instant::now();
+        let rows = read(text.as_bytes());
+        let dt = t0.elapsed().as_secs_f64();
+        assert_eq!(rows, ROWS);
+        best = best.min(dt);
+    }
+    println!(
+        "{what}: {ROWS} rows ({:.1} MB) in {:.3} s best of 3 = {:.2} M rows/s",
+        text.len() as f64 / 1e6,
+        best,
+        ROWS as f64 / best / 1e6
+    );
+}
+
 fn main() {
     let opts = ReadOptions::default();
-    let cal = text(true);
-    let mut best = f64::INFINITY;
-    for _ in 0..3 {
-        let t0 = Instant::now();
-        let d = read_calibration(cal.as_bytes(), "bench.csv", &opts).expect("bench data parses");
-        let dt = t0.elapsed().as_secs_f64();
-        assert_eq!(d.rows.len(), ROWS);
-        best = best.min(dt);
-    }
-    println!(
-        "calibration reader: {ROWS} rows ({:.1} MB) in {:.3} s best of 3 = {:.2} M rows/s",
-        cal.len() as f64 / 1e6,
-        best,
-        ROWS as f64 / best / 1e6
-    );
-    let rd = text(false);
-    let mut best = f64::INFINITY;
-    for _ in 0..3 {
-        let t0 = Instant::now();
-        let d = read_readings(rd.as_bytes(), "bench.csv", &opts).expect("bench data parses");
-        let dt = t0.elapsed().as_secs_f64();
-        assert_eq!(d.rows.len(), ROWS);
-        best = best.min(dt);
-    }
-    println!(
-        "readings reader (keeps every field): {ROWS} rows ({:.1} MB) in {:.3} s best of 3 = {:.2} M rows/s",
-        rd.len() as f64 / 1e6,
-        best,
-        ROWS as f64 / best / 1e6
-    );
+    time("calibration reader", &text(true), |b| {
+        read_calibration(b, "bench.csv", &opts).expect("bench data parses").rows.len()
+    });
+    time("readings reader (keeps every field)", &text(false), |b| {
+        read_readings(b, "bench.csv", &opts).expect("bench data parses").rows.len()
+    });
 }

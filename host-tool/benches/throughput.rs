@@ -10,26 +10,34 @@
 
 use std::time::Instant;
 
-use logtrim_host::apply::{correct_rows, write_results, Arithmetic};
+use logtrim_host::apply::write_results;
 use logtrim_host::batch::{fit_units, UnitJob};
+use logtrim_host::correct::{correct_rows, Arithmetic};
 use logtrim_host::data::{read_calibration, read_readings, ReadOptions};
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{fit, FitData, FitOptions};
-use logtrim_host::frontend::preset;
-use logtrim_host::simulate::{simulate, ChamberPlan, Plan};
+use logtrim_host::frontend::{preset, FrontEnd};
+use logtrim_host::simulate::{simulate, ChamberPlan, Plan, Simulation};
+
+/// A simulation of `units` units of `fe`: chamber runs of (set-points, ratios, repeats) and `validation`
+/// readings each.
+fn run(
+    fe: &FrontEnd,
+    seed: u64,
+    (setpoints, ratios, repeats): (usize, usize, usize),
+    validation: usize,
+    units: usize,
+) -> Simulation {
+    let chamber = ChamberPlan { setpoints, ratios_per_setpoint: ratios, repeats };
+    simulate(fe, &Plan { seed, chamber, validation_count: validation, units }).expect("simulate")
+}
 
 fn main() {
     let fe = preset("gas-uncompensated").expect("preset");
     let opt = FitOptions::default();
 
     // fit: 1M rows.
-    let plan = Plan {
-        seed: 5,
-        chamber: ChamberPlan { setpoints: 8, ratios_per_setpoint: 250, repeats: 500 },
-        validation_count: 1_000_000,
-        units: 1,
-    };
-    let sim = simulate(&fe, &plan).expect("simulate");
+    let sim = run(&fe, 5, (8, 250, 500), 1_000_000, 1);
     let cal_csv = sim.cal_csv();
     let readings_csv = sim.readings_csv();
     println!("fit: {} rows, {:.1} MB of CSV", sim.chamber.len(), cal_csv.len() as f64 / 1e6);
@@ -56,14 +64,8 @@ fn main() {
     );
 
     // batch: 1000 units × 400 rows.
-    let plan = Plan {
-        seed: 6,
-        chamber: ChamberPlan { setpoints: 5, ratios_per_setpoint: 40, repeats: 2 },
-        validation_count: 1,
-        units: 1000,
-    };
-    let sim = simulate(&fe, &plan).expect("simulate");
-    let jobs: Vec<UnitJob> = (0..plan.units)
+    let sim = run(&fe, 6, (5, 40, 2), 1, 1000);
+    let jobs: Vec<UnitJob> = (0..sim.units.len())
         .map(|u| UnitJob {
             serial: sim.units[u].serial.clone(),
             data: fit_data(&sim.chamber, u).expect("data"),
@@ -75,7 +77,7 @@ fn main() {
     let dir = base.join(format!("logtrim-bench-batch-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("dir");
     let t = Instant::now();
-    let (spec, results) = fit_units(&jobs, &opt, None, &dir, None);
+    let (spec, results) = fit_units(&jobs, &opt, None, &dir, 1_700_000_000, &logtrim_host::progress::quiet);
     let secs = t.elapsed().as_secs_f64();
     let failed = results.iter().filter(|r| r.outcome.is_err()).count();
     println!(

@@ -1,133 +1,22 @@
-//! Running firmware-lib's correction over a readings file and writing the results as CSV.
+//! Writing corrected readings as CSV: the `logtrim apply` output.
 //!
-//! The output keeps every input column in order and adds, per row: one column per output unit
-//! (`ln_ratio`, `decades`, `db_power`, `db_amplitude`, `absorbance`, `transmittance_pct`, `linear_ratio`),
-//! `temperature_extrapolated` (`1` where the temperature lay outside the calibrated range within the
-//! allowed extrapolation, else `0`) and `error`. A row the firmware refuses has empty values and the error
-//! variant's name (`below_range`, `saturated`, …) in `error`; the run goes on.
+//! The output keeps every input column in order and adds, per row: one column per output unit of
+//! [`Unit::ALL`] (`ln_ratio`, `decades`, `db_power`, `db_amplitude`, `absorbance`, `transmittance_pct`,
+//! `linear_ratio`), `temperature_extrapolated` (`1` where the temperature lay outside the calibrated range
+//! within the allowed extrapolation, else `0`) and `error`. A row the firmware refuses has empty values and
+//! the error variant's name (`below_range`, `saturated`, …) in `error`; the run goes on.
 //!
-//! With field layers ([`correct_rows_layered`], [`correct_rows_fixed_layered`], from record files by
-//! [`layers_from_files`]) the values are those of the factory reading after the trim, and relative to
-//! the blank when there is one (`absorbance` is then the absorbance against the blank).
+//! The rows are corrected by [`crate::correct`] (f32 or fixed path, with field layers from
+//! [`crate::records`]); with a blank the values are relative to it (`absorbance` is then the absorbance
+//! against the blank).
 
 use std::collections::BTreeMap;
 use std::io::{self, Write};
 
-use logtrim::field::Layers;
-use logtrim::math::{Backend, Libm};
-use logtrim::{Calibration, Error, Reading, Unit};
-use rayon::prelude::*;
+use logtrim::{Error, Unit};
 
+use crate::correct::RowValue;
 use crate::data::Readings;
-
-/// Which arithmetic corrects the readings.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum Arithmetic {
-    /// firmware-lib's f32 path with the libm backend (the default on parts with an FPU).
-    #[default]
-    F32,
-    /// firmware-lib's f32 path with the micromath backend (fast, coarse).
-    F32Micromath,
-}
-
-/// A corrected row: the value in every unit of [`Unit::ALL`] (as the path computed it, widened to f64 for
-/// writing) and whether the temperature was extrapolated.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct RowValue {
-    /// x = ln(I_sig/I_ref).
-    pub x: f64,
-    /// The value in each unit of [`Unit::ALL`], in that order.
-    pub units: [f64; 7],
-    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
-    pub temperature_extrapolated: bool,
-    /// Digits to write: the f32 path's values are f32 (shortest f32 text); the fixed path's are exact
-    /// binary fractions (shortest f64 text).
-    pub f32_digits: bool,
-}
-
-impl RowValue {
-    fn of_f32(r: &Reading) -> RowValue {
-        let mut units = [0.0; 7];
-        for (v, u) in units.iter_mut().zip(Unit::ALL) {
-            *v = f64::from(r.value(u));
-        }
-        RowValue {
-            x: f64::from(r.x),
-            units,
-            temperature_extrapolated: r.temperature_extrapolated,
-            f32_digits: true,
-        }
-    }
-
-    fn of_fixed(r: &logtrim::fixed::FixedReading) -> Result<RowValue, Error> {
-        let mut units = [0.0; 7];
-        for (v, u) in units.iter_mut().zip(Unit::ALL) {
-            let q = r.value(u)?;
-            *v = q as f64 / (1u64 << logtrim::fixed::value_frac_bits(u)) as f64;
-        }
-        let x = f64::from(r.x) / f64::from(1u32 << logtrim::fixed::X_FRAC);
-        Ok(RowValue { x, units, temperature_extrapolated: r.temperature_extrapolated, f32_digits: false })
-    }
-}
-
-/// The factory fixed-path reading of every row of `readings` (in parallel), as on the MCU.
-///
-/// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
-/// temperature-sensor table, as on the MCU.
-pub fn factory_readings_fixed(
-    fixed: &logtrim::fixed::FixedCalibration<'_>,
-    readings: &Readings,
-) -> Vec<Result<logtrim::fixed::FixedReading, Error>> {
-    let raw = readings.columns.temperature_kind == crate::data::TemperatureColumn::Code;
-    let col = readings.columns.temperature;
-    readings
-        .rows
-        .par_iter()
-        .map(|r| {
-            if raw {
-                let code = r
-                    .record
-                    .get(col)
-                    .and_then(|b| std::str::from_utf8(b).ok())
-                    .and_then(|t| t.trim().parse::<u32>().ok())
-                    .ok_or(Error::NonFinite)?;
-                fixed.correct_raw(r.code, code)
-            } else {
-                let t = r.temp_c?;
-                let mc = (t * 1000.0).round();
-                if !(mc >= f64::from(i32::MIN) && mc <= f64::from(i32::MAX)) {
-                    // `as` saturates: the error reports the nearest i32 m°C.
-                    return Err(Error::TemperatureOutOfRange { millicelsius: mc as i32 });
-                }
-                fixed.correct(r.code, mc as i32)
-            }
-        })
-        .collect()
-}
-
-/// Corrects every row of `readings` (in parallel) with the firmware's integer fixed-point path.
-///
-/// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
-/// temperature-sensor table, as on the MCU.
-pub fn correct_rows_fixed(
-    fixed: &logtrim::fixed::FixedCalibration<'_>,
-    readings: &Readings,
-) -> Vec<Result<RowValue, Error>> {
-    correct_rows_fixed_layered(fixed, readings, &Layers::FACTORY)
-}
-
-/// [`correct_rows_fixed`] with field layers (a trim, a blank) on top of the factory correction, in the
-/// fixed path's integer arithmetic.
-pub fn correct_rows_fixed_layered(
-    fixed: &logtrim::fixed::FixedCalibration<'_>,
-    readings: &Readings,
-    layers: &Layers,
-) -> Vec<Result<RowValue, Error>> {
-    factory_readings_fixed(fixed, readings)
-        .into_iter()
-        .map(|r| r.and_then(|r| layers.apply_fixed(&r)).and_then(|r| RowValue::of_fixed(&r)))
-        .collect()
-}
 
 /// Columns `apply` adds after the input's.
 pub fn added_columns() -> Vec<&'static str> {
@@ -167,97 +56,7 @@ pub enum ApplyError {
     Io(#[from] io::Error),
 }
 
-fn correct_one<B: Backend>(
-    cal: &Calibration,
-    code: u32,
-    temp: &Result<f64, Error>,
-) -> Result<Reading, Error> {
-    let t = (*temp)?;
-    cal.correct_with::<B>(code, t as f32)
-}
-
-/// The factory f32-path reading of every row of `readings` (in parallel), with the chosen backend.
-pub fn factory_readings(
-    cal: &Calibration,
-    readings: &Readings,
-    arith: Arithmetic,
-) -> Vec<Result<Reading, Error>> {
-    readings
-        .rows
-        .par_iter()
-        .map(|r| match arith {
-            Arithmetic::F32 => correct_one::<Libm>(cal, r.code, &r.temp_c),
-            Arithmetic::F32Micromath => correct_one::<logtrim::math::Micromath>(cal, r.code, &r.temp_c),
-        })
-        .collect()
-}
-
-/// Corrects every row of `readings` (in parallel) with the chosen arithmetic.
-pub fn correct_rows(
-    cal: &Calibration,
-    readings: &Readings,
-    arith: Arithmetic,
-) -> Vec<Result<RowValue, Error>> {
-    correct_rows_layered(cal, readings, arith, &Layers::FACTORY)
-}
-
-/// [`correct_rows`] with field layers (a trim, a blank) on top of the factory correction.
-pub fn correct_rows_layered(
-    cal: &Calibration,
-    readings: &Readings,
-    arith: Arithmetic,
-    layers: &Layers,
-) -> Vec<Result<RowValue, Error>> {
-    factory_readings(cal, readings, arith)
-        .into_iter()
-        .map(|r| r.map(|r| RowValue::of_f32(&layers.apply(&r))))
-        .collect()
-}
-
-/// A trim and a blank read from their record files and installed over a calibration as the firmware
-/// would ([`Layers::new`]): each record checked, bound to this calibration, the trim within `limits`.
-pub fn layers_from_files(
-    cal: &Calibration,
-    trim: Option<&std::path::Path>,
-    blank: Option<&std::path::Path>,
-    limits: &logtrim::field::TrimLimits,
-) -> Result<Layers, LayerError> {
-    let trim = trim.map(crate::trim::read_trim_file).transpose()?;
-    let blank = blank.map(crate::trim::read_blank_file).transpose()?;
-    let fp = logtrim::field::fingerprint(cal).map_err(|e| LayerError::Fingerprint(format!("{e:?}")))?;
-    Layers::new(trim, blank, limits, Some(fp)).map_err(LayerError::Refused)
-}
-
-/// Why the field layers of an apply run could not be installed.
-#[derive(Debug, thiserror::Error)]
-#[non_exhaustive]
-pub enum LayerError {
-    /// A record file could not be read or is not a valid record.
-    #[error(transparent)]
-    File(#[from] crate::trim::RecordFileError),
-    /// firmware-lib refuses to install a record (made on another calibration, a trim past the limits).
-    #[error("--trim/--blank: {0}")]
-    Refused(logtrim::field::FieldError),
-    /// The calibration cannot be fingerprinted.
-    #[error("the calibration cannot be stored as an image to fingerprint it: {0}")]
-    Fingerprint(String),
-}
-
-impl LayerError {
-    /// True for a refusal that is a failed check (exit 1): a trim past the limits. A bad or foreign file
-    /// is bad input (exit 2).
-    pub fn is_check(&self) -> bool {
-        matches!(
-            self,
-            LayerError::Refused(
-                logtrim::field::FieldError::OffsetPastLimit { .. }
-                    | logtrim::field::FieldError::GainPastLimit { .. }
-            )
-        )
-    }
-}
-
-/// Writes the input rows with the results of [`correct_rows`] as CSV.
+/// Writes the input rows with their corrected values ([`crate::correct::correct_rows`] and its kin) as CSV.
 pub fn write_results<W: Write>(
     readings: &Readings,
     results: &[Result<RowValue, Error>],
@@ -322,25 +121,30 @@ fn csv_io(e: csv::Error) -> io::Error {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::correct::{correct_rows, Arithmetic};
     use crate::data::{read_readings, ReadOptions};
+    use logtrim::Calibration;
+
+    /// The readings, their results, and the text written (or the error).
+    type Written = (Readings, Vec<Result<RowValue, Error>>, Result<(ApplySummary, String), ApplyError>);
+
+    /// The rows of `csv` corrected by a nominal 16-bit unit (3000 codes per neper, ratio 1 at code 32768)
+    /// in the f32 path, and written.
+    fn written(csv: &str) -> Written {
+        let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+        let opts = ReadOptions { skip_bad_rows: true, ..Default::default() };
+        let readings = read_readings(csv.as_bytes(), "mem.csv", &opts).unwrap_or_else(|e| panic!("{e}"));
+        let res = correct_rows(&cal, &readings, Arithmetic::F32);
+        let mut out = Vec::new();
+        let summary = write_results(&readings, &res, &mut out);
+        let text = summary.map(|s| (s, String::from_utf8(out).unwrap()));
+        (readings, res, text)
+    }
 
     #[test]
     fn rows_pass_through_and_refusals_are_named() {
-        let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
-        let csv = "id,temp_c,code,note\n1,25,35768,a\n2,25,65535,b\n3,nan,33000,c\n";
-        let r = read_readings(
-            csv.as_bytes(),
-            "mem.csv",
-            &ReadOptions { skip_bad_rows: true, ..Default::default() },
-        );
-        let readings = match r {
-            Ok(r) => r,
-            Err(e) => panic!("{e}"),
-        };
-        let res = correct_rows(&cal, &readings, Arithmetic::F32);
-        let mut out = Vec::new();
-        let s = write_results(&readings, &res, &mut out).unwrap();
-        let text = String::from_utf8(out).unwrap();
+        let (_, _, out) = written("id,temp_c,code,note\n1,25,35768,a\n2,25,65535,b\n3,nan,33000,c\n");
+        let (s, text) = out.unwrap();
         let lines: Vec<&str> = text.lines().collect();
         assert_eq!(lines[0], format!("id,temp_c,code,note,{}", added_columns().join(",")));
         // Row 1: x = 3000/3000 = 1 Np at T_ref; 10·log10(e) = 4.3429448 dB (ISO 80000-3 via 1 Np).
@@ -355,12 +159,32 @@ mod tests {
     }
 
     #[test]
+    fn every_unit_has_its_column() {
+        // Each unit of Unit::ALL has the column of its name, holding that unit's value of the row: a unit
+        // added to the firmware's list without its column (or in another order) fails here.
+        let (_, res, out) = written("temp_c,code\n25,35768\n40,30000\n");
+        let (_, text) = out.unwrap();
+        let mut lines = text.lines();
+        let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+        assert_eq!(header.len(), 2 + Unit::ALL.len() + 2);
+        for (line, r) in lines.zip(&res) {
+            let cells: Vec<&str> = line.split(',').collect();
+            assert_eq!(cells.len(), header.len(), "{line}");
+            let r = r.as_ref().unwrap();
+            for u in Unit::ALL {
+                let i =
+                    header.iter().position(|h| *h == u.name()).unwrap_or_else(|| panic!("no {}", u.name()));
+                let written: f32 = cells[i].parse().unwrap();
+                assert_eq!(f64::from(written), r.value(u), "{u:?} in {line}");
+            }
+        }
+    }
+
+    #[test]
     fn a_clashing_column_is_refused() {
-        let cal = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
-        let csv = "temp_c,code,absorbance\n25,35768,0.1\n";
-        let readings = read_readings(csv.as_bytes(), "mem.csv", &ReadOptions::default()).unwrap();
-        let res = correct_rows(&cal, &readings, Arithmetic::F32);
-        let err = write_results(&readings, &res, Vec::new()).unwrap_err();
+        let (readings, _, out) = written("temp_c,code,absorbance\n25,35768,0.1\n");
+        let err = out.unwrap_err();
+        assert_eq!(readings.rows.len(), 1);
         assert!(err.to_string().contains("absorbance"), "{err}");
     }
 }

@@ -10,7 +10,7 @@ use logtrim::field::{self, Blank, BlankParts, RecordInfo};
 use logtrim::fixed::FixedCalibration;
 use logtrim::Calibration;
 
-use crate::apply::{factory_readings, factory_readings_fixed, Arithmetic};
+use crate::correct::{factory_readings, factory_readings_fixed, mean_q24, Arithmetic};
 use crate::data::Readings;
 
 /// A computed blank: the record and what it was computed from.
@@ -79,22 +79,18 @@ pub fn compute(
     for ((row, a), b) in readings.rows.iter().zip(a).zip(b) {
         let refused = |error| BlankError::Refused { path: path.clone(), line: row.line, error };
         xs.push(f64::from(a.map_err(refused)?.x));
-        qs.push(i64::from(b.map_err(refused)?.x));
+        qs.push(b.map_err(refused)?);
         ts.push(row.temp_c.map_err(refused)?);
     }
     let nf = n as f64;
     let x_mean = xs.iter().sum::<f64>() / nf;
     let spread_np = (xs.iter().map(|x| (x - x_mean) * (x - x_mean)).sum::<f64>() / nf).sqrt();
-    let s: i64 = qs.iter().sum();
-    let ni = n as i64;
-    let q_mean = (s + if s >= 0 { ni / 2 } else { -(ni / 2) }) / ni;
     let temp_c = ts.iter().sum::<f64>() / nf;
     let value = |error| BlankError::Value { path: path.clone(), error };
     let blank = Blank::new(BlankParts {
         info,
         x: x_mean as f32,
-        x_q24: i32::try_from(q_mean)
-            .map_err(|_| value(field::RecordValueError::OutOfRange { field: "x_q24" }))?,
+        x_q24: mean_q24(&qs),
         temp_mc: (temp_c * 1000.0).round() as i32,
         samples: u32::try_from(n).unwrap_or(u32::MAX),
     })

@@ -1,6 +1,11 @@
 //! The error budget of a design before any unit is built: each contribution to the error in x = ln ratio,
 //! their root-sum-square and their worst case, from a few figures of the design ([`BudgetSpec`]).
 //!
+//! A design is described once, as a front-end description ([`crate::frontend::FrontEnd`], the file that
+//! `simulate` reads): [`BudgetSpec::from_design`] takes the budget's figures from it. Before a design is
+//! described part by part, its figures can be given directly (a figures file of [`BudgetSpec`], whose every
+//! field has a default, or the `budget` verb's options).
+//!
 //! # The law
 //!
 //! The budget uses the ideal log-ratio law, not a fitted unit: the output is `V(x, T) = V₀ + S(T)·x` with
@@ -41,6 +46,8 @@
 //!   pair. Use the data-sheet accuracy for a worst case.
 //! * Quantisation is reduced by oversampling only when the converter's noise dithers it: at ½ LSB rms or
 //!   more (common practice, from memory).
+
+mod design;
 
 use serde::{Deserialize, Serialize};
 
@@ -94,7 +101,10 @@ pub struct ReferenceSpec {
     pub tolerance: f64,
     /// Drift not removed by calibration, ppm/K.
     pub drift_ppm_per_k: f64,
-    /// Whether the level shift V₀ is derived from the same reference (then only the log part scales).
+    /// Whether the level shift V₀ is derived from the converter's own reference (a divider of it), so that a
+    /// reference error scales it together with the codes and only the log part `S·x` is misread; `false`
+    /// (the default) for a level shift from an independent voltage, which the reference error misreads
+    /// in full (see the reference drift's row in the module docs).
     pub ratiometric_level_shift: bool,
 }
 
@@ -185,26 +195,15 @@ impl Default for ArithmeticSpec {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum BudgetError {
-    /// The file could not be read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of a budget.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line (1-based).
-        line: usize,
-        /// Column (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of a budget.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
+    /// The design description does not validate.
+    #[error(transparent)]
+    Design(#[from] crate::frontend::FrontEndError),
+    /// The design's raw temperature channel gives no code somewhere over its operating range.
+    #[error("the design's temperature channel: {0}; expected a channel that reads over the operating range")]
+    DesignSensor(logtrim::Error),
     /// A figure is outside what the budget can use.
     #[error("{field} = {value}: expected {expected}")]
     Invalid {
@@ -245,9 +244,9 @@ impl Size {
     pub fn of_np(np: f64) -> Size {
         Size {
             np,
-            db_10log10: 10.0 / LN10 * np,
-            db_20log10: 20.0 / LN10 * np,
-            pct_of_ratio: 100.0 * np.abs().exp_m1(),
+            db_10log10: crate::error_scale::db_power(np),
+            db_20log10: crate::error_scale::db_amplitude(np),
+            pct_of_ratio: crate::error_scale::pct_of_ratio(np.abs()),
         }
     }
 }
@@ -299,28 +298,17 @@ pub struct Budget {
 impl BudgetSpec {
     /// Parses a spec from JSON text (checked by [`BudgetSpec::compute`]); `path` only names the source in errors.
     pub fn from_json(text: &str, path: &str) -> Result<BudgetSpec, BudgetError> {
-        let spec: BudgetSpec = serde_json::from_str(text).map_err(|e| BudgetError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        })?;
-        Ok(spec)
+        Ok(crate::file_error::parse_json(text, path)?)
     }
 
     /// Reads a spec from a JSON file.
     pub fn load(path: &std::path::Path) -> Result<BudgetSpec, BudgetError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| BudgetError::Io { path: p.clone(), source })?;
-        BudgetSpec::from_json(&text, &p)
+        BudgetSpec::from_json(&crate::file_error::read_text(path)?, &path.display().to_string())
     }
 
     /// The spec as pretty JSON with a trailing newline.
     pub fn to_json(&self) -> String {
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 
     /// Checks every figure.
@@ -660,9 +648,7 @@ impl Budget {
 
     /// The budget as pretty JSON with a trailing newline.
     pub fn to_json(&self) -> String {
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 }
 

@@ -21,6 +21,12 @@ use std::path::Path;
 use logtrim::Calibration;
 use serde::{Deserialize, Serialize};
 
+use logtrim::sensor::TemperatureSensor;
+
+use crate::file_error::{parse_json, read_text, FileError};
+use crate::fit::FitOutcome;
+use crate::tables::{FixedTables, TableError, TableOptions, TemperatureChannel};
+
 /// The `format` string of a calibration file.
 pub const FORMAT: &str = "logtrim-calibration";
 /// The current version of the format.
@@ -46,7 +52,7 @@ pub struct CalFile {
     /// How the temperature channel's raw code becomes °C, if the unit reads a thermistor or RTD through
     /// a divider (`null` for a digital sensor that reads in °C).
     #[serde(default)]
-    pub temperature_sensor: Option<logtrim::sensor::TemperatureSensor>,
+    pub temperature_sensor: Option<TemperatureSensor>,
     /// A summary of the fit that produced the calibration.
     #[serde(default)]
     pub fit: Option<serde_json::Value>,
@@ -56,26 +62,9 @@ pub struct CalFile {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum CalFileError {
-    /// The file could not be read or written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of this format.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line of the defect (1-based).
-        line: usize,
-        /// Column of the defect (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of this format.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// The file is of another format or an unknown version.
     #[error("{path}: format {format:?} version {version} is not a logtrim calibration this build reads (expected {FORMAT:?} version {VERSION})")]
     Version {
@@ -96,48 +85,44 @@ pub enum CalFileError {
     },
 }
 
-/// The environment variable of the reproducible-builds convention: a Unix time, in seconds, that takes the
-/// place of "now" in everything logtrim stamps (calibration files, and so images; field records), so that
-/// remaking the same outputs gives the same bytes.
-pub const SOURCE_DATE_EPOCH: &str = "SOURCE_DATE_EPOCH";
-
-/// "Now" for a stamp: [`SOURCE_DATE_EPOCH`] when it is set, else the system clock (0 if the clock is before
-/// 1970). A set but malformed value is an error that names it (the binary checks this before any command).
-pub fn stamp_time() -> Result<u64, String> {
-    match std::env::var(SOURCE_DATE_EPOCH) {
-        Ok(v) => v.trim().parse::<u64>().map_err(|_| {
-            format!("{SOURCE_DATE_EPOCH} is {v:?}: expected a whole number of seconds since 1970-01-01 UTC")
-        }),
-        Err(std::env::VarError::NotPresent) => Ok(std::time::SystemTime::now()
-            .duration_since(std::time::UNIX_EPOCH)
-            .map(|d| d.as_secs())
-            .unwrap_or(0)),
-        Err(std::env::VarError::NotUnicode(_)) => {
-            Err(format!("{SOURCE_DATE_EPOCH} is not valid text: expected a whole number of seconds"))
-        }
-    }
+/// Seconds since the Unix epoch by the system clock (0 if the clock is before 1970).
+pub fn now_unix_s() -> u64 {
+    std::time::SystemTime::now().duration_since(std::time::UNIX_EPOCH).map(|d| d.as_secs()).unwrap_or(0)
 }
 
 impl CalFile {
-    /// Wraps a calibration with the stamp time ([`stamp_time`]; the system clock if `SOURCE_DATE_EPOCH` is
-    /// malformed, which callers that must refuse it check with [`stamp_time`] first) and this build's name.
+    /// Wraps a calibration with this build's name, made now by the system clock ([`now_unix_s`]). A caller
+    /// that stamps reproducibly (the `logtrim` command honours `SOURCE_DATE_EPOCH`) sets
+    /// [`CalFile::created_unix_s`] or uses [`CalFile::of_fit`].
     pub fn new(calibration: Calibration, unit: Option<String>) -> CalFile {
-        let now = stamp_time().unwrap_or_else(|_| {
-            std::time::SystemTime::now()
-                .duration_since(std::time::UNIX_EPOCH)
-                .map(|d| d.as_secs())
-                .unwrap_or(0)
-        });
+        CalFile::made_at(calibration, unit, now_unix_s())
+    }
+
+    fn made_at(calibration: Calibration, unit: Option<String>, created_unix_s: u64) -> CalFile {
         CalFile {
             format: FORMAT.to_string(),
             version: VERSION,
             unit,
-            created_unix_s: now,
+            created_unix_s,
             generator: format!("logtrim {}", env!("CARGO_PKG_VERSION")),
             calibration,
             temperature_sensor: None,
             fit: None,
         }
+    }
+
+    /// The calibration file of a fit: its calibration and summary, the unit's serial (if any), and the
+    /// temperature channel's description for data read through one.
+    pub fn of_fit(
+        outcome: &FitOutcome,
+        unit: Option<String>,
+        sensor: Option<TemperatureSensor>,
+        created_unix_s: u64,
+    ) -> CalFile {
+        let mut file = CalFile::made_at(outcome.calibration, unit, created_unix_s);
+        file.temperature_sensor = sensor;
+        file.fit = serde_json::to_value(outcome).ok();
+        file
     }
 
     /// Parses a calibration file from JSON text; `path` only names it in errors.
@@ -147,13 +132,7 @@ impl CalFile {
             format: String,
             version: u32,
         }
-        let json_err = |e: serde_json::Error| CalFileError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        };
-        let head: Head = serde_json::from_str(text).map_err(json_err)?;
+        let head: Head = parse_json(text, path)?;
         if head.format != FORMAT || head.version != VERSION {
             return Err(CalFileError::Version {
                 path: path.to_string(),
@@ -161,7 +140,7 @@ impl CalFile {
                 version: head.version,
             });
         }
-        let file: CalFile = serde_json::from_str(text).map_err(json_err)?;
+        let file: CalFile = parse_json(text, path)?;
         file.calibration
             .validate()
             .map_err(|error| CalFileError::Invalid { path: path.to_string(), error })?;
@@ -173,10 +152,7 @@ impl CalFile {
 
     /// Reads and validates a calibration file.
     pub fn load(path: &Path) -> Result<CalFile, CalFileError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| CalFileError::Io { path: p.clone(), source })?;
-        CalFile::from_json(&text, &p)
+        CalFile::from_json(&read_text(path)?, &path.display().to_string())
     }
 
     /// The file as pretty JSON.
@@ -202,8 +178,7 @@ impl CalFile {
     ) -> Result<(), CalFileError> {
         let mut text = self.to_json();
         text.push('\n');
-        write(path, text.as_bytes())
-            .map_err(|source| CalFileError::Io { path: path.display().to_string(), source })
+        write(path, text.as_bytes()).map_err(|source| FileError::io(path, source).into())
     }
 }
 
@@ -211,17 +186,24 @@ impl CalFile {
     /// The fixed-point tables of this unit: the calibration's, with a temperature-sensor table when the
     /// file describes a raw temperature channel (every code of the channel's converter, converted by
     /// firmware-lib's sensor code in f64).
-    pub fn fixed_tables(
+    pub fn fixed_tables(&self, opts: &TableOptions) -> Result<FixedTables, TableError> {
+        self.with_sensor_channel(|channel| crate::tables::build(&self.calibration, channel, opts))
+            .map_err(TableError::Calibration)?
+    }
+
+    /// Calls `f` with the file's raw temperature channel: every code of the channel's converter with its
+    /// temperature by firmware-lib's sensor code in f64, or `None` for a unit that reads °C. An error if the
+    /// channel's converter has no valid code range.
+    pub fn with_sensor_channel<R>(
         &self,
-        opts: &crate::tables::TableOptions,
-    ) -> Result<crate::tables::FixedTables, crate::tables::TableError> {
+        f: impl FnOnce(Option<&TemperatureChannel<'_>>) -> R,
+    ) -> Result<R, logtrim::Error> {
         match &self.temperature_sensor {
-            None => crate::tables::build(&self.calibration, None, opts),
+            None => Ok(f(None)),
             Some(sensor) => {
-                let max = sensor.divider.max_code().map_err(crate::tables::TableError::Calibration)?;
+                let max = sensor.divider.max_code()?;
                 let celsius = |code: u32| sensor.celsius_f64(code);
-                let channel = crate::tables::TemperatureChannel { codes: 0..=max, celsius: &celsius };
-                crate::tables::build(&self.calibration, Some(&channel), opts)
+                Ok(f(Some(&TemperatureChannel { codes: 0..=max, celsius: &celsius })))
             }
         }
     }
@@ -241,7 +223,7 @@ mod tests {
         let other = text.replace("\"version\": 1", "\"version\": 99");
         assert!(matches!(CalFile::from_json(&other, "mem"), Err(CalFileError::Version { version: 99, .. })));
         let typo = text.replace("\"unit\"", "\"unti\"");
-        assert!(matches!(CalFile::from_json(&typo, "mem"), Err(CalFileError::Json { .. })));
+        assert!(matches!(CalFile::from_json(&typo, "mem"), Err(CalFileError::File(FileError::Json { .. }))));
         let bad = text.replace("\"bits\": 16", "\"bits\": 0");
         assert!(matches!(CalFile::from_json(&bad, "mem"), Err(CalFileError::Invalid { .. })));
     }

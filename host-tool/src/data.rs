@@ -25,6 +25,8 @@ use std::path::Path;
 
 use csv::ByteRecord;
 
+use crate::file_error::FileError;
+
 /// The ADC resolution assumed when the caller gives none.
 pub const DEFAULT_ADC_BITS: u8 = 16;
 
@@ -115,7 +117,7 @@ pub struct CalData {
     /// The distinct unit serials, in order of first appearance (empty without a `unit` column).
     pub units: Vec<String>,
     /// Rows skipped for bad values (only when [`ReadOptions::skip_bad_rows`] was set).
-    pub skipped: Vec<ValueError>,
+    pub skipped: Vec<RowError>,
 }
 
 /// One row of readings to be corrected.
@@ -149,7 +151,7 @@ pub struct Readings {
     /// The distinct unit serials, in order of first appearance (empty without a `unit` column).
     pub units: Vec<String>,
     /// Rows skipped for bad values (only when [`ReadOptions::skip_bad_rows`] was set).
-    pub skipped: Vec<ValueError>,
+    pub skipped: Vec<RowError>,
 }
 
 /// What was wrong with one value (or one row).
@@ -202,9 +204,10 @@ impl fmt::Display for Problem {
     }
 }
 
-/// A bad value: where it is, what it is, what is wrong and what was expected.
+/// A bad row: the value at fault (where it is, what it is, what is wrong and what was expected), or the whole
+/// row when its shape is wrong.
 #[derive(Debug, Clone, PartialEq)]
-pub struct ValueError {
+pub struct RowError {
     /// The file.
     pub path: String,
     /// The line the row starts on (1-based).
@@ -221,7 +224,7 @@ pub struct ValueError {
     pub expected: String,
 }
 
-impl fmt::Display for ValueError {
+impl fmt::Display for RowError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         if self.column == 0 {
             write!(
@@ -239,20 +242,15 @@ impl fmt::Display for ValueError {
     }
 }
 
-impl std::error::Error for ValueError {}
+impl std::error::Error for RowError {}
 
 /// Errors reading a CSV file.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum DataError {
     /// The file could not be opened or read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// The file is not well-formed CSV (e.g. an unterminated quote).
     #[error("{path}: line {line}: not well-formed CSV: {message}")]
     Csv {
@@ -287,7 +285,7 @@ pub enum DataError {
         /// Rows skipped.
         count: usize,
         /// The first bad row.
-        first: Box<ValueError>,
+        first: Box<RowError>,
     },
     /// A needed column is missing from the header.
     #[error("{path}: header: no {column:?} column; expected {expected}; the header has: {found}")]
@@ -341,11 +339,11 @@ pub enum DataError {
     },
     /// A bad value.
     #[error(transparent)]
-    Value(Box<ValueError>),
+    Value(Box<RowError>),
 }
 
-impl From<ValueError> for DataError {
-    fn from(e: ValueError) -> Self {
+impl From<RowError> for DataError {
+    fn from(e: RowError) -> Self {
         DataError::Value(Box::new(e))
     }
 }
@@ -355,9 +353,7 @@ const READINGS_EXPECTED: &str = "code, temp_c or temp_code; optional ratio, unit
 
 /// Reads calibration data (`code`, `temp_c`/`temp_code`, `ratio`, optional `unit`, `weight`) from a file.
 pub fn read_calibration_file(path: &Path, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| DataError::Io { path: p.clone(), source })?;
-    calibration_from_bytes(data, &p, opts)
+    calibration_from_bytes(read_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads calibration data from any reader; `path` names the source in errors.
@@ -370,26 +366,13 @@ pub fn read_calibration<R: io::Read>(
 }
 
 fn calibration_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    let mut src = Source::open(data, path, opts, CAL_EXPECTED, true)?;
-    let mut rows = Vec::new();
-    let mut skipped = Vec::new();
-    let mut rec = ByteRecord::new();
-    while let Some(line) = src.next(&mut rec)? {
-        match src.cal_row(&rec, line) {
-            Ok(row) => rows.push(row),
-            Err(e) if opts.skip_bad_rows => skipped.push(*e),
-            Err(e) => return Err(DataError::Value(e)),
-        }
-    }
-    finish(path, rows.len(), &mut skipped)?;
+    let (src, rows, skipped) = read_rows(data, path, opts, CAL_EXPECTED, true, Source::cal_row)?;
     Ok(CalData { path: path.to_string(), columns: src.columns, rows, units: src.units.names, skipped })
 }
 
 /// Reads readings (`code`, `temp_c`/`temp_code`, optional `ratio`, `unit`) from a file, keeping every field.
 pub fn read_readings_file(path: &Path, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    let p = path.display().to_string();
-    let data = std::fs::read(path).map_err(|source| DataError::Io { path: p.clone(), source })?;
-    readings_from_bytes(data, &p, opts)
+    readings_from_bytes(read_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads readings from any reader; `path` names the source in errors.
@@ -402,18 +385,7 @@ pub fn read_readings<R: io::Read>(
 }
 
 fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    let mut src = Source::open(data, path, opts, READINGS_EXPECTED, false)?;
-    let mut rows = Vec::new();
-    let mut skipped = Vec::new();
-    let mut rec = ByteRecord::new();
-    while let Some(line) = src.next(&mut rec)? {
-        match src.reading_row(&rec, line) {
-            Ok(row) => rows.push(row),
-            Err(e) if opts.skip_bad_rows => skipped.push(*e),
-            Err(e) => return Err(DataError::Value(e)),
-        }
-    }
-    finish(path, rows.len(), &mut skipped)?;
+    let (src, rows, skipped) = read_rows(data, path, opts, READINGS_EXPECTED, false, Source::reading_row)?;
     Ok(Readings {
         path: path.to_string(),
         headers: src.headers,
@@ -424,13 +396,42 @@ fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Res
     })
 }
 
+/// Every row of a file as `row` reads it: a bad row is an error, or skipped and kept when the options say
+/// so; a file without a good row is an error.
+fn read_rows<'o, T>(
+    data: Vec<u8>,
+    path: &str,
+    opts: &ReadOptions<'o>,
+    expected: &'static str,
+    need_ratio: bool,
+    mut row: impl FnMut(&mut Source<'o>, &ByteRecord, u64) -> Result<T, Box<RowError>>,
+) -> Result<(Source<'o>, Vec<T>, Vec<RowError>), DataError> {
+    let mut src = Source::open(data, path, opts, expected, need_ratio)?;
+    let mut rows = Vec::new();
+    let mut skipped = Vec::new();
+    let mut rec = ByteRecord::new();
+    while let Some(line) = src.next(&mut rec)? {
+        match row(&mut src, &rec, line) {
+            Ok(row) => rows.push(row),
+            Err(e) if opts.skip_bad_rows => skipped.push(*e),
+            Err(e) => return Err(DataError::Value(e)),
+        }
+    }
+    finish(path, rows.len(), &mut skipped)?;
+    Ok((src, rows, skipped))
+}
+
+fn read_file(path: &Path) -> Result<Vec<u8>, DataError> {
+    Ok(std::fs::read(path).map_err(|source| FileError::io(path, source))?)
+}
+
 fn slurp<R: io::Read>(mut reader: R, path: &str) -> Result<Vec<u8>, DataError> {
     let mut data = Vec::new();
-    reader.read_to_end(&mut data).map_err(|source| DataError::Io { path: path.to_string(), source })?;
+    reader.read_to_end(&mut data).map_err(|source| FileError::Io { path: path.to_string(), source })?;
     Ok(data)
 }
 
-fn finish(path: &str, good: usize, skipped: &mut Vec<ValueError>) -> Result<(), DataError> {
+fn finish(path: &str, good: usize, skipped: &mut Vec<RowError>) -> Result<(), DataError> {
     if good > 0 {
         return Ok(());
     }
@@ -566,8 +567,8 @@ impl<'o> Source<'o> {
         }
     }
 
-    fn err(&self, rec: &ByteRecord, column: usize, problem: Problem, expected: String) -> Box<ValueError> {
-        Box::new(ValueError {
+    fn err(&self, rec: &ByteRecord, column: usize, problem: Problem, expected: String) -> Box<RowError> {
+        Box::new(RowError {
             path: self.path.clone(),
             line: self.line,
             column: column + 1,
@@ -578,11 +579,11 @@ impl<'o> Source<'o> {
         })
     }
 
-    fn check_count(&self, rec: &ByteRecord) -> Result<(), Box<ValueError>> {
+    fn check_count(&self, rec: &ByteRecord) -> Result<(), Box<RowError>> {
         if rec.len() == self.columns.count {
             return Ok(());
         }
-        Err(Box::new(ValueError {
+        Err(Box::new(RowError {
             path: self.path.clone(),
             line: self.line,
             column: 0,
@@ -593,7 +594,7 @@ impl<'o> Source<'o> {
         }))
     }
 
-    fn code(&self, rec: &ByteRecord) -> Result<u32, Box<ValueError>> {
+    fn code(&self, rec: &ByteRecord) -> Result<u32, Box<RowError>> {
         let c = self.columns.code;
         parse_code(field(rec, c), self.max_code).map_err(|p| {
             let bits = self.max_code.count_ones();
@@ -602,7 +603,7 @@ impl<'o> Source<'o> {
     }
 
     /// The temperature: a parse error is the row's fault; a converter's refusal is returned inside.
-    fn temperature(&self, rec: &ByteRecord) -> Result<Result<f64, logtrim::Error>, Box<ValueError>> {
+    fn temperature(&self, rec: &ByteRecord) -> Result<Result<f64, logtrim::Error>, Box<RowError>> {
         let c = self.columns.temperature;
         let raw = field(rec, c);
         match self.columns.temperature_kind {
@@ -628,11 +629,11 @@ impl<'o> Source<'o> {
         }
     }
 
-    fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<ValueError>> {
+    fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<RowError>> {
         positive(field(rec, c)).map_err(|p| self.err(rec, c, p, "a positive finite ratio I_sig/I_ref".into()))
     }
 
-    fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<ValueError>> {
+    fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<RowError>> {
         let Some(c) = self.columns.unit else {
             return Ok(None);
         };
@@ -651,7 +652,7 @@ impl<'o> Source<'o> {
         Ok(Some(i))
     }
 
-    fn cal_row(&mut self, rec: &ByteRecord, line: u64) -> Result<CalRow, Box<ValueError>> {
+    fn cal_row(&mut self, rec: &ByteRecord, line: u64) -> Result<CalRow, Box<RowError>> {
         self.check_count(rec)?;
         let code = self.code(rec)?;
         let temp_c = match self.temperature(rec)? {
@@ -680,7 +681,7 @@ impl<'o> Source<'o> {
         Ok(CalRow { line, code, temp_c, ratio, unit, weight })
     }
 
-    fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<ValueError>> {
+    fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {
         self.check_count(rec)?;
         let code = self.code(rec)?;
         let temp_c = self.temperature(rec)?;

@@ -21,7 +21,7 @@ use serde::Serialize;
 
 use crate::fit::{fit, FitData, FitError, FitOptions, FitOutcome};
 use crate::frontend::{FrontEnd, MeasuredTemperature};
-use crate::simulate::{simulate, ChamberRow, Plan, SimError, Simulation, ValidationRow};
+use crate::simulate::{simulate, ChamberRow, Plan, SimError, SimReading, Simulation};
 
 /// The error figures of one method over a validation run.
 #[derive(Debug, Clone, Serialize)]
@@ -163,7 +163,7 @@ fn stats(name: &'static str, errors: &[Option<f64>]) -> MethodStats {
 }
 
 /// Errors of logtrim's f32 correction on a validation run (None where it refuses a reading).
-pub fn logtrim_errors(cal: &Calibration, rows: &[ValidationRow]) -> Vec<Option<f64>> {
+pub fn logtrim_errors(cal: &Calibration, rows: &[SimReading]) -> Vec<Option<f64>> {
     rows.iter()
         .map(|r| {
             let t = celsius(r.temperature).ok()?;
@@ -174,10 +174,7 @@ pub fn logtrim_errors(cal: &Calibration, rows: &[ValidationRow]) -> Vec<Option<f
 
 /// Errors of the integer fixed-point path on a validation run, temperatures passed in m°C (None where it
 /// refuses a reading).
-pub fn fixed_errors(
-    fixed: &logtrim::fixed::FixedCalibration<'_>,
-    rows: &[ValidationRow],
-) -> Vec<Option<f64>> {
+pub fn fixed_errors(fixed: &logtrim::fixed::FixedCalibration<'_>, rows: &[SimReading]) -> Vec<Option<f64>> {
     let scale = f64::from(1u32 << logtrim::fixed::X_FRAC);
     rows.iter()
         .map(|r| {
@@ -189,7 +186,7 @@ pub fn fixed_errors(
 }
 
 /// logtrim's errors against the oracle's, on the readings both give a value for.
-pub fn versus_oracle(ours: &[Option<f64>], rows: &[ValidationRow]) -> VersusOracle {
+pub fn versus_oracle(ours: &[Option<f64>], rows: &[SimReading]) -> VersusOracle {
     let pairs: Vec<(f64, f64)> = ours
         .iter()
         .zip(rows)
@@ -215,11 +212,11 @@ pub fn run(fe: &FrontEnd, plan: &Plan, fit_options: &FitOptions) -> Result<DemoO
         simulation.chamber.iter().map(|r| ChamberRow { temperature: read(r.temperature), ..*r }).collect();
     let data = fit_data(&chamber, 0)?;
     let fit = fit(&data, fit_options)?;
-    let val: Vec<ValidationRow> = simulation
+    let val: Vec<SimReading> = simulation
         .validation
         .iter()
         .filter(|r| r.unit == 0)
-        .map(|r| ValidationRow { temperature: read(r.temperature), ..*r })
+        .map(|r| SimReading { temperature: read(r.temperature), ..*r })
         .collect();
     let design = &simulation.nominal;
     let nominal: Vec<Option<f64>> = val
@@ -252,8 +249,8 @@ pub fn run(fe: &FrontEnd, plan: &Plan, fit_options: &FitOptions) -> Result<DemoO
 
 /// The side-by-side table of a demo outcome.
 pub fn render(out: &DemoOutcome) -> String {
+    use crate::error_scale::{db_power, pct_of_ratio};
     use std::fmt::Write;
-    let db = 10.0 / std::f64::consts::LN_10;
     let mut s = String::new();
     let _ = writeln!(
         s,
@@ -269,9 +266,9 @@ pub fn render(out: &DemoOutcome) -> String {
             m.refused,
             m.rms_np,
             m.max_np,
-            m.rms_np * db,
-            m.max_np * db,
-            (m.max_np.exp() - 1.0) * 100.0
+            db_power(m.rms_np),
+            db_power(m.max_np),
+            pct_of_ratio(m.max_np)
         );
     }
     for (path, v) in [("f32", &out.versus_oracle), ("fixed", &out.versus_oracle_fixed)] {

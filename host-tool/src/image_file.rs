@@ -52,13 +52,8 @@ impl ImageFormat {
 #[non_exhaustive]
 pub enum ImageFileError {
     /// The file could not be read or written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// The serial cannot be stored.
     #[error("serial {serial:?} cannot be stored: at most 16 printable ASCII characters (0x20-0x7E)")]
     Serial {
@@ -332,8 +327,7 @@ pub fn decode_file(content: &[u8]) -> Result<ImageBytes, ImageFileError> {
 
 /// Reads an image file (binary or Intel HEX).
 pub fn read_file(path: &Path) -> Result<ImageBytes, ImageFileError> {
-    let content = std::fs::read(path)
-        .map_err(|source| ImageFileError::Io { path: path.display().to_string(), source })?;
+    let content = std::fs::read(path).map_err(|source| crate::file_error::FileError::io(path, source))?;
     decode_file(&content)
 }
 
@@ -353,7 +347,7 @@ pub fn encode_file(
 /// Writes an encoded image file atomically.
 pub fn write_file(path: &Path, content: &[u8]) -> Result<(), ImageFileError> {
     crate::output::write_atomic(path, content)
-        .map_err(|source| ImageFileError::Io { path: path.display().to_string(), source })
+        .map_err(|source| crate::file_error::FileError::io(path, source).into())
 }
 
 /// A date and time in UTC from Unix seconds, `YYYY-MM-DD hh:mm:ss` (proleptic Gregorian calendar).

@@ -1,6 +1,6 @@
 //! The fit report: a Markdown page a test engineer files with the unit's record, and the charts it links.
 //!
-//! [`FitReport::write_to`] writes, into one directory, `<unit>-fit-report.md` and the charts it links
+//! [`FitReport::render_markdown`] renders the page; with the feature `plot`, `FitReport::write_to` writes, into one directory, `<unit>-fit-report.md` and the charts it links
 //! (`<unit>-error-vs-x.svg`: the error in x at each chamber set-point before and after correction;
 //! `<unit>-f32-error-map.svg`: the f32 correction against the f64 reference over code and temperature).
 //! Without a serial the prefix is `unit`. Every file is built in memory first and written atomically.
@@ -11,14 +11,14 @@
 //! such as photocurrents); the page says so and gives the factor for amplitude-like ratios.
 
 use std::fmt::Write as _;
+#[cfg(feature = "plot")]
 use std::path::{Path, PathBuf};
 
 use crate::calfile::CalFile;
+use crate::error_scale::db_power;
 use crate::fit::{FitData, FitOptions, FitOutcome};
+#[cfg(feature = "plot")]
 use crate::plot::{self, figures, PlotError};
-
-/// dB (10·log10) per neper.
-const DB_PER_NP: f64 = 10.0 * std::f64::consts::LOG10_E;
 
 /// A chart linked from the report.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -34,16 +34,12 @@ pub struct ChartLink {
 #[non_exhaustive]
 pub enum ReportError {
     /// A chart could not be drawn.
+    #[cfg(feature = "plot")]
     #[error(transparent)]
     Plot(#[from] PlotError),
     /// A file could not be written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file or directory.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
 }
 
 /// Everything a fit report is made from.
@@ -81,7 +77,8 @@ pub fn utc(unix_s: u64) -> String {
 
 impl FitReport<'_> {
     /// Renders the charts and the Markdown page, then writes them into `dir` (created if missing).
-    /// Returns the files written, the page first.
+    /// Returns the files written, the page first. (Feature `plot`.)
+    #[cfg(feature = "plot")]
     pub fn write_to(&self, dir: &Path) -> Result<Vec<PathBuf>, ReportError> {
         let prefix = file_prefix(self.calfile.unit.as_deref());
         let cal = &self.calfile.calibration;
@@ -95,7 +92,7 @@ impl FitReport<'_> {
             cal,
             self.data,
             self.options.setpoint_gap_k,
-            figures::ErrorUnit::MilliNp,
+            crate::error_scale::ErrorScale::MilliNp,
             &sub,
         );
         let map = figures::f32_error_map(cal, 96, 40, &sub)?;
@@ -108,14 +105,13 @@ impl FitReport<'_> {
             .map(|(file, title, _)| ChartLink { title: title.clone(), file: file.clone() })
             .collect();
         let page = self.render_markdown(&links);
-        std::fs::create_dir_all(dir)
-            .map_err(|source| ReportError::Io { path: dir.display().to_string(), source })?;
+        std::fs::create_dir_all(dir).map_err(|source| crate::file_error::FileError::io(dir, source))?;
         let mut files = vec![(dir.join(format!("{prefix}-fit-report.md")), page.into_bytes())];
         files.extend(charts.into_iter().map(|(f, _, svg)| (dir.join(f), svg.into_bytes())));
         let mut written = Vec::new();
         for (path, bytes) in files {
             crate::output::write_atomic(&path, &bytes)
-                .map_err(|source| ReportError::Io { path: path.display().to_string(), source })?;
+                .map_err(|source| crate::file_error::FileError::io(&path, source))?;
             written.push(path);
         }
         Ok(written)
@@ -197,8 +193,8 @@ impl FitReport<'_> {
                 p.refused,
                 sci(p.rms_np),
                 sci(p.max_np),
-                sci(p.rms_np * DB_PER_NP),
-                sci(p.max_np * DB_PER_NP)
+                sci(db_power(p.rms_np)),
+                sci(db_power(p.max_np))
             );
         }
         let _ = writeln!(s);
@@ -222,7 +218,7 @@ impl FitReport<'_> {
                     r.spec.describe(),
                     sci(r.rms),
                     sci(r.max),
-                    sci(r.rms * DB_PER_NP),
+                    sci(db_power(r.rms)),
                     r.folds
                 );
             }
@@ -239,7 +235,7 @@ impl FitReport<'_> {
                     "Scatter of repeated readings (same set-point, same ratio): {} Np = {} dB. The worst \
                      set-point's rms is {:.2} × this floor; a calibration cannot do better than the floor.\n",
                     sci(f),
-                    sci(f * DB_PER_NP),
+                    sci(db_power(f)),
                     if f > 0.0 { worst / f } else { f64::NAN }
                 );
             }
@@ -259,7 +255,7 @@ impl FitReport<'_> {
         let _ = writeln!(s, "| temperature [°C] | {:.2} | {:.2} |", t.min_c, t.max_c);
         let _ = writeln!(s, "| x = ln ratio [Np] | {:.4} | {:.4} |", xmin, xmax);
         let _ = writeln!(s, "| ratio I_sig/I_ref | {:.4e} | {:.4e} |", xmin.exp(), xmax.exp());
-        let _ = writeln!(s, "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n", xmin * DB_PER_NP, xmax * DB_PER_NP);
+        let _ = writeln!(s, "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n", db_power(xmin), db_power(xmax));
         if t.extrapolation_k > 0.0 {
             let _ = write!(
                 s,

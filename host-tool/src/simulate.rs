@@ -132,14 +132,16 @@ pub struct ChamberRow {
     pub temperature: MeasuredTemperature,
 }
 
-/// One reading of a validation run, with the truth behind it.
+/// One noisy reading of a simulated unit, with the truth behind it: a reading of a validation run, or of
+/// a field run (reference standards, a blank).
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub struct ValidationRow {
-    /// Reading id, 1-based, unique across units.
+pub struct SimReading {
+    /// Reading id, 1-based: unique across the units of a validation run; in a field run, the reading's
+    /// number within its unit's run.
     pub id: u64,
     /// Index of the unit in [`Simulation::units`].
     pub unit: usize,
-    /// The true ratio I_sig/I_ref.
+    /// The true ratio I_sig/I_ref (a standard's or the blank's known ratio in a field run).
     pub ratio: f64,
     /// x = ln ratio.
     pub x_true: f64,
@@ -150,27 +152,6 @@ pub struct ValidationRow {
     /// The temperature as the firmware reads it.
     pub temperature: MeasuredTemperature,
     /// The oracle's x for this reading ([`FrontEnd::oracle`]); `None` where it is undefined.
-    pub x_oracle: Option<f64>,
-}
-
-/// One reading of a field run (reference standards, a blank), with the truth behind it.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct FieldRow {
-    /// Index of the unit in [`Simulation::units`].
-    pub unit: usize,
-    /// Which standard (0-based; 0 for a blank).
-    pub standard: usize,
-    /// The standard's (known) ratio I_sig/I_ref.
-    pub ratio: f64,
-    /// x = ln ratio.
-    pub x_true: f64,
-    /// The unit's true temperature, °C.
-    pub t_true_c: f64,
-    /// The noisy ADC code.
-    pub code: u32,
-    /// The temperature as the firmware reads it.
-    pub temperature: MeasuredTemperature,
-    /// The oracle's x for this reading; `None` where it is undefined.
     pub x_oracle: Option<f64>,
 }
 
@@ -189,7 +170,7 @@ pub struct OracleStats {
 
 impl OracleStats {
     /// The figures of a set of readings.
-    pub fn of(rows: &[ValidationRow]) -> OracleStats {
+    pub fn of(rows: &[SimReading]) -> OracleStats {
         let (mut n, mut ss, mut max) = (0usize, 0.0f64, 0.0f64);
         for r in rows {
             if let Some(x) = r.x_oracle {
@@ -221,11 +202,11 @@ pub struct Simulation {
     /// Every unit's chamber run, unit by unit.
     pub chamber: Vec<ChamberRow>,
     /// Every unit's validation run, unit by unit.
-    pub validation: Vec<ValidationRow>,
+    pub validation: Vec<SimReading>,
     /// Every aged unit's standards run (empty for a unit without ageing).
-    pub standards: Vec<FieldRow>,
+    pub standards: Vec<SimReading>,
     /// Every aged unit's blank run (empty for a unit without ageing).
-    pub blank: Vec<FieldRow>,
+    pub blank: Vec<SimReading>,
 }
 
 /// Errors of a simulation.
@@ -246,13 +227,8 @@ pub enum SimError {
     #[error(transparent)]
     FrontEnd(#[from] FrontEndError),
     /// An output file could not be written.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
 }
 
 /// The set-points of a chamber run: `n` evenly spaced temperatures over the operating range, ends included.
@@ -308,13 +284,7 @@ pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) ->
 }
 
 /// One unit's validation run of `count` readings, ids from `first_id` on, drawn from its own stream.
-pub fn validation_run(
-    fe: &FrontEnd,
-    count: usize,
-    unit: usize,
-    first_id: u64,
-    seed: u64,
-) -> Vec<ValidationRow> {
+pub fn validation_run(fe: &FrontEnd, count: usize, unit: usize, first_id: u64, seed: u64) -> Vec<SimReading> {
     let mut rng = rng_for(seed, Purpose::Validation, unit);
     let o = &fe.operating;
     let (x0, x1) = (libm::log(o.ratio_min), libm::log(o.ratio_max));
@@ -323,7 +293,7 @@ pub fn validation_run(
             let x_true = rng.random_range(x0..=x1);
             let t_true_c = rng.random_range(o.temp_min_c..=o.temp_max_c);
             let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
-            ValidationRow {
+            SimReading {
                 id: first_id + i as u64,
                 unit,
                 ratio: libm::exp(x_true),
@@ -369,17 +339,18 @@ fn field_run(
     readings: usize,
     unit: usize,
     rng: &mut ChaCha8Rng,
-) -> Vec<FieldRow> {
+) -> Vec<SimReading> {
     let jitter = fe.operating.setpoint_jitter_k_rms;
     let mut rows = Vec::with_capacity(ratios.len() * readings);
-    for (standard, &ratio) in ratios.iter().enumerate() {
+    for &ratio in ratios {
         let x_true = libm::log(ratio);
         for _ in 0..readings {
             let n: f64 = StandardNormal.sample(rng);
             let t_true_c = temp_c + jitter * n;
             let Sample { code, temperature } = fe.sample(x_true, t_true_c, rng);
             let x_oracle = fe.oracle(code, temperature);
-            rows.push(FieldRow { unit, standard, ratio, x_true, t_true_c, code, temperature, x_oracle });
+            let id = rows.len() as u64 + 1;
+            rows.push(SimReading { id, unit, ratio, x_true, t_true_c, code, temperature, x_oracle });
         }
     }
     rows
@@ -394,7 +365,7 @@ pub fn standards_run(
     readings: usize,
     unit: usize,
     seed: u64,
-) -> Vec<FieldRow> {
+) -> Vec<SimReading> {
     field_run(fe, ratios, temp_c, readings, unit, &mut rng_for(seed, Purpose::Standards, unit))
 }
 
@@ -406,7 +377,7 @@ pub fn blank_run(
     readings: usize,
     unit: usize,
     seed: u64,
-) -> Vec<FieldRow> {
+) -> Vec<SimReading> {
     field_run(fe, &[ratio], temp_c, readings, unit, &mut rng_for(seed, Purpose::Blank, unit))
 }
 
@@ -502,50 +473,32 @@ impl Simulation {
 
     /// `cal.csv`: `[unit,]code,temp_c,ratio` (`temp_code` instead of `temp_c` for a raw temperature channel).
     pub fn cal_csv(&self) -> Vec<u8> {
-        let mut w = csv::Writer::from_writer(Vec::new());
-        let mut head = Vec::new();
-        if self.batch() {
-            head.push("unit");
-        }
-        head.extend(["code", self.temp_column(), "ratio"]);
-        let mut out = CsvOut(&mut w);
-        out.row(head.iter().map(|s| s.to_string()));
-        for r in &self.chamber {
-            let mut f = Vec::with_capacity(4);
-            if self.batch() {
-                f.push(self.units[r.unit].serial.clone());
-            }
-            f.extend([r.code.to_string(), temperature_field(r.temperature), r.ratio.to_string()]);
-            out.row(f);
-        }
-        into_bytes(w)
+        self.csv(
+            false,
+            &["code", self.temp_column(), "ratio"],
+            &self.chamber,
+            |r| (0, r.unit),
+            |r| vec![r.code.to_string(), temperature_field(r.temperature), r.ratio.to_string()],
+        )
     }
 
     /// A field run as CSV: `[unit,]code,temp_c[,ratio]`.
-    fn field_csv(&self, rows: &[FieldRow], with_ratio: bool) -> Vec<u8> {
-        let mut w = csv::Writer::from_writer(Vec::new());
-        let mut head = Vec::new();
-        if self.batch() {
-            head.push("unit");
-        }
-        head.extend(["code", self.temp_column()]);
-        if with_ratio {
-            head.push("ratio");
-        }
-        let mut out = CsvOut(&mut w);
-        out.row(head.iter().map(|s| s.to_string()));
-        for r in rows {
-            let mut f = Vec::with_capacity(4);
-            if self.batch() {
-                f.push(self.units[r.unit].serial.clone());
-            }
-            f.extend([r.code.to_string(), temperature_field(r.temperature)]);
-            if with_ratio {
-                f.push(r.ratio.to_string());
-            }
-            out.row(f);
-        }
-        into_bytes(w)
+    fn field_csv(&self, rows: &[SimReading], with_ratio: bool) -> Vec<u8> {
+        let columns: &[&str] =
+            if with_ratio { &["code", self.temp_column(), "ratio"] } else { &["code", self.temp_column()] };
+        self.csv(
+            false,
+            columns,
+            rows,
+            |r| (r.id, r.unit),
+            |r| {
+                let mut f = vec![r.code.to_string(), temperature_field(r.temperature)];
+                if with_ratio {
+                    f.push(r.ratio.to_string());
+                }
+                f
+            },
+        )
     }
 
     /// `standards.csv`: `[unit,]code,temp_c,ratio` of the standards runs.
@@ -560,46 +513,65 @@ impl Simulation {
 
     /// `readings.csv`: `id,[unit,]code,temp_c` (`temp_code` for a raw temperature channel).
     pub fn readings_csv(&self) -> Vec<u8> {
-        let mut w = csv::Writer::from_writer(Vec::new());
-        let mut head = vec!["id"];
-        if self.batch() {
-            head.push("unit");
-        }
-        head.extend(["code", self.temp_column()]);
-        let mut out = CsvOut(&mut w);
-        out.row(head.iter().map(|s| s.to_string()));
-        for r in &self.validation {
-            let mut f = vec![r.id.to_string()];
-            if self.batch() {
-                f.push(self.units[r.unit].serial.clone());
-            }
-            f.extend([r.code.to_string(), temperature_field(r.temperature)]);
-            out.row(f);
-        }
-        into_bytes(w)
+        self.csv(
+            true,
+            &["code", self.temp_column()],
+            &self.validation,
+            |r| (r.id, r.unit),
+            |r| vec![r.code.to_string(), temperature_field(r.temperature)],
+        )
     }
 
     /// `truth.csv`: `id,[unit,]ratio,x_true,t_true_c,x_oracle`.
     pub fn truth_csv(&self) -> Vec<u8> {
+        let columns = ["ratio", "x_true", "t_true_c", "x_oracle"];
+        self.csv(
+            true,
+            &columns,
+            &self.validation,
+            |r| (r.id, r.unit),
+            |r| {
+                vec![
+                    r.ratio.to_string(),
+                    r.x_true.to_string(),
+                    r.t_true_c.to_string(),
+                    r.x_oracle.map(|x| x.to_string()).unwrap_or_default(),
+                ]
+            },
+        )
+    }
+
+    /// A CSV file of `rows`: the header `[id,][unit,]` and `columns`, then per row its id (with `with_id`),
+    /// its unit's serial (in a batch) and its `fields`; `key` gives a row's id and unit.
+    fn csv<R>(
+        &self,
+        with_id: bool,
+        columns: &[&str],
+        rows: &[R],
+        key: impl Fn(&R) -> (u64, usize),
+        fields: impl Fn(&R) -> Vec<String>,
+    ) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
-        let mut head = vec!["id"];
+        let mut head = Vec::new();
+        if with_id {
+            head.push("id");
+        }
         if self.batch() {
             head.push("unit");
         }
-        head.extend(["ratio", "x_true", "t_true_c", "x_oracle"]);
+        head.extend_from_slice(columns);
         let mut out = CsvOut(&mut w);
         out.row(head.iter().map(|s| s.to_string()));
-        for r in &self.validation {
-            let mut f = vec![r.id.to_string()];
-            if self.batch() {
-                f.push(self.units[r.unit].serial.clone());
+        for r in rows {
+            let (id, unit) = key(r);
+            let mut f = Vec::with_capacity(head.len());
+            if with_id {
+                f.push(id.to_string());
             }
-            f.extend([
-                r.ratio.to_string(),
-                r.x_true.to_string(),
-                r.t_true_c.to_string(),
-                r.x_oracle.map(|x| x.to_string()).unwrap_or_default(),
-            ]);
+            if self.batch() {
+                f.push(self.units[unit].serial.clone());
+            }
+            f.extend(fields(r));
             out.row(f);
         }
         into_bytes(w)
@@ -660,13 +632,12 @@ impl Simulation {
         names.push("manifest.json");
         let manifest = self.manifest_json(&names).into_bytes();
         files.push(("manifest.json", manifest, None));
-        std::fs::create_dir_all(dir)
-            .map_err(|source| SimError::Io { path: dir.display().to_string(), source })?;
+        std::fs::create_dir_all(dir).map_err(|source| crate::file_error::FileError::io(dir, source))?;
         let mut written = Vec::new();
         for (name, bytes, rows) in files {
             let path = dir.join(name);
             crate::output::write_atomic(&path, &bytes)
-                .map_err(|source| SimError::Io { path: path.display().to_string(), source })?;
+                .map_err(|source| crate::file_error::FileError::io(&path, source))?;
             written.push(WrittenFile { path, rows });
         }
         Ok(written)

@@ -1,5 +1,5 @@
-//! Field trims from readings of reference standards: the host side of `logtrim trim`, and the trim
-//! record files that `logtrim apply --trim` reads.
+//! Field trims from readings of reference standards: the host side of `logtrim trim`. (The record files
+//! are read back by [`crate::records`].)
 //!
 //! The computation is firmware-lib's ([`logtrim::field::Trim`]): the host reads each standard through
 //! the factory calibration in both of the firmware's paths (the f32 path, and the integer path from the
@@ -12,13 +12,11 @@
 //! standard's known ratio. Rows with the same ratio are readings of the same standard; one distinct ratio
 //! gives a one-point trim (offset), two a two-point trim (offset and gain).
 
-use std::path::Path;
-
 use logtrim::field::{self, FixedStandard, RecordInfo, Standard, Trim, TrimLimits, TrimParts};
 use logtrim::fixed::{FixedCalibration, FixedReading, X_FRAC};
 use logtrim::{Calibration, Reading};
 
-use crate::apply::{factory_readings, factory_readings_fixed, Arithmetic};
+use crate::correct::{factory_readings, factory_readings_fixed, mean_q24, x_of_q24, Arithmetic};
 use crate::data::Readings;
 
 /// One standard as the two paths read it, before and after the trim.
@@ -147,20 +145,6 @@ fn mean(v: impl Iterator<Item = f64>) -> f64 {
     s / n.max(1) as f64
 }
 
-/// The mean of Q24 values, rounded to nearest (integer arithmetic, as the MCU would).
-fn mean_q24(v: &[FixedReading]) -> i32 {
-    let n = v.len().max(1) as i64;
-    let s: i64 = v.iter().map(|r| i64::from(r.x)).sum();
-    let q = (s + if s >= 0 { n / 2 } else { -(n / 2) }) / n;
-    // A mean of i32 values is an i32.
-    q as i32
-}
-
-/// The x of a Q24 value as f64.
-pub fn q24(x: i32) -> f64 {
-    f64::from(x) / f64::from(1u32 << X_FRAC)
-}
-
 fn groups(
     cal: &Calibration,
     fixed: &FixedCalibration<'_>,
@@ -249,15 +233,18 @@ pub fn compute(
         .map(|g| {
             let known_x = libm::log(g.ratio);
             let trimmed: Vec<f64> = g.f32.iter().map(|r| f64::from(trim.apply(r).x)).collect();
-            let trimmed_fixed: Vec<f64> =
-                g.fixed.iter().map(|r| trim.apply_fixed(r).map(|v| q24(v.x)).unwrap_or(f64::NAN)).collect();
+            let trimmed_fixed: Vec<f64> = g
+                .fixed
+                .iter()
+                .map(|r| trim.apply_fixed(r).map(|v| x_of_q24(v.x)).unwrap_or(f64::NAN))
+                .collect();
             StandardReport {
                 ratio: g.ratio,
                 known_x,
                 readings: g.f32.len(),
                 temp_c: mean(g.temps.iter().copied()),
                 factory_f32: mean(g.f32.iter().map(|r| f64::from(r.x))),
-                factory_fixed: mean(g.fixed.iter().map(|r| q24(r.x))),
+                factory_fixed: mean(g.fixed.iter().map(|r| x_of_q24(r.x))),
                 trimmed_f32: mean(trimmed.iter().copied()),
                 trimmed_fixed: mean(trimmed_fixed.iter().copied()),
                 trimmed_rms_f32: mean(trimmed.iter().map(|x| (x - known_x) * (x - known_x))).sqrt(),
@@ -265,43 +252,4 @@ pub fn compute(
         })
         .collect();
     Ok(TrimOutcome { trim, bytes: trim.to_bytes().to_vec(), standards })
-}
-
-/// Why a record file could not be used.
-#[derive(Debug, thiserror::Error)]
-#[non_exhaustive]
-pub enum RecordFileError {
-    /// The file could not be read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The bytes are not a valid record.
-    #[error("{path}: {error}")]
-    Record {
-        /// The file.
-        path: String,
-        /// firmware-lib's verdict.
-        error: field::RecordError,
-    },
-}
-
-fn read_bytes(path: &Path) -> Result<Vec<u8>, RecordFileError> {
-    std::fs::read(path).map_err(|source| RecordFileError::Io { path: path.display().to_string(), source })
-}
-
-/// Reads and checks a trim record file (the raw record, as `logtrim trim` writes it).
-pub fn read_trim_file(path: &Path) -> Result<Trim, RecordFileError> {
-    let bytes = read_bytes(path)?;
-    Trim::parse(&bytes).map_err(|error| RecordFileError::Record { path: path.display().to_string(), error })
-}
-
-/// Reads and checks a blank record file (the raw record, as `logtrim blank` writes it).
-pub fn read_blank_file(path: &Path) -> Result<field::Blank, RecordFileError> {
-    let bytes = read_bytes(path)?;
-    field::Blank::parse(&bytes)
-        .map_err(|error| RecordFileError::Record { path: path.display().to_string(), error })
 }

@@ -48,8 +48,9 @@ use logtrim::{Calibration, Error};
 use rayon::prelude::*;
 use serde::Serialize;
 
-/// 1 Np in power dB.
-const DB_PER_NP: f64 = 10.0 * std::f64::consts::LOG10_E;
+use crate::calfile::CalFile;
+use crate::error_scale::db_power;
+use crate::progress::{Counter, OnProgress};
 
 /// The f32 backend the f32 path is verified with.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -84,8 +85,6 @@ pub struct VerifyOptions {
     /// per temperature) instead of the warm-started sweep ([`ReferenceSweep`]: the same statuses, values
     /// within 1e-12 Np, fewer `exp` calls).
     pub exact_reference: bool,
-    /// Show a progress bar (the caller decides whether there is a terminal).
-    pub progress: bool,
 }
 
 impl Default for VerifyOptions {
@@ -100,7 +99,6 @@ impl Default for VerifyOptions {
             check_fixed: true,
             check_f32: true,
             exact_reference: false,
-            progress: false,
         }
     }
 }
@@ -359,6 +357,30 @@ pub fn run(
     channel: Option<&TemperatureChannel<'_>>,
     opts: &VerifyOptions,
 ) -> Result<VerifyReport, VerifyError> {
+    run_with_progress(cal, fixed, channel, opts, &crate::progress::quiet)
+}
+
+/// Verifies a calibration file's unit: its calibration, its fixed-point `tables`, and with a raw temperature
+/// channel every code of that channel through the file's sensor description (f64) as the reference
+/// temperature. `progress` counts temperature rows.
+pub fn run_file(
+    file: &CalFile,
+    tables: &FixedCalibration<'_>,
+    opts: &VerifyOptions,
+    progress: OnProgress<'_>,
+) -> Result<VerifyReport, VerifyError> {
+    file.with_sensor_channel(|channel| run_with_progress(&file.calibration, tables, channel, opts, progress))
+        .map_err(|e| VerifyError::Sensor(format!("the temperature sensor description: {e}")))?
+}
+
+/// [`run`], reporting each temperature row swept to `progress`.
+pub fn run_with_progress(
+    cal: &Calibration,
+    fixed: &FixedCalibration<'_>,
+    channel: Option<&TemperatureChannel<'_>>,
+    opts: &VerifyOptions,
+    progress: OnProgress<'_>,
+) -> Result<VerifyReport, VerifyError> {
     let opt = |name, m: &str| VerifyError::Option { name, message: m.to_string() };
     if !(opts.bound_lsb >= 0.0) {
         return Err(opt("bound_lsb", "must be ≥ 0"));
@@ -388,16 +410,7 @@ pub fn run(
     let max_code = cal.adc.max_code().map_err(VerifyError::Calibration)?;
     let codes: Vec<u32> = (0..=max_code).step_by(opts.code_stride as usize).collect();
 
-    let bar = if opts.progress {
-        let b = indicatif::ProgressBar::new(grid.len() as u64);
-        b.set_style(
-            indicatif::ProgressStyle::with_template("verify {bar:40} {pos}/{len} temperatures, {eta} left")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        Some(b)
-    } else {
-        None
-    };
+    let counter = Counter::start(grid.len(), progress);
     let row = match opts.f32_backend {
         F32Backend::Libm => row::<Libm>,
         F32Backend::Micromath => row::<Micromath>,
@@ -406,15 +419,10 @@ pub fn run(
         .par_iter()
         .map(|g| {
             let r = row(cal, fixed, g, &codes, opts);
-            if let Some(b) = &bar {
-                b.inc(1);
-            }
+            counter.step();
             r
         })
         .collect();
-    if let Some(b) = bar {
-        b.finish_and_clear();
-    }
 
     let mut total = RowOut::default();
     for r in rows {
@@ -437,8 +445,8 @@ pub fn run(
                 compared: a.n,
                 max_np: a.max_np,
                 rms_np,
-                max_db: a.max_np * DB_PER_NP,
-                rms_db: rms_np * DB_PER_NP,
+                max_db: db_power(a.max_np),
+                rms_db: db_power(rms_np),
                 max_lsb: a.max_lsb,
                 rms_lsb: (a.ss_lsb / n).sqrt(),
                 worst: a.worst,

@@ -18,8 +18,9 @@
 //! * the f32 and fixed paths agree within ¼ LSB-equivalent after the layers.
 
 use logtrim::field::{FieldError, Layers, RecordInfo, TrimLimits};
-use logtrim::fixed::{FixedCalibration, X_FRAC};
+use logtrim::fixed::FixedCalibration;
 use logtrim::{Calibration, Unit};
+use logtrim_host::correct::x_of_q24;
 use logtrim_host::data::{read_readings, ReadOptions, Readings};
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{fit, FitOptions};
@@ -45,10 +46,6 @@ fn celsius(t: MeasuredTemperature) -> f64 {
 
 fn rms(v: &[f64]) -> f64 {
     (v.iter().map(|e| e * e).sum::<f64>() / v.len() as f64).sqrt()
-}
-
-fn q24(x: i32) -> f64 {
-    f64::from(x) / f64::from(1u32 << X_FRAC)
 }
 
 fn info() -> RecordInfo {
@@ -85,7 +82,7 @@ fn both(
 ) -> Option<(f64, f64)> {
     let a = l.apply(&cal.correct(code, t as f32).ok()?);
     let b = l.apply_fixed(&fixed.correct(code, (t * 1000.0).round() as i32).ok()?).ok()?;
-    Some((f64::from(a.x), q24(b.x)))
+    Some((f64::from(a.x), x_of_q24(b.x)))
 }
 
 fn check_two_point(name: &str, seed: u64) {
@@ -206,9 +203,13 @@ fn blanks_read_zero_against_themselves_and_absorbance_against_the_blank() {
     let one = csv(one.as_bytes(), "blank1.csv");
     let b1 = logtrim_host::blank::compute(&u.cal, &fixed, &one, info).unwrap();
     let l1 = Layers::new(None, Some(b1.blank), &TrimLimits::DEFAULT, None).unwrap();
-    let f32_rows =
-        logtrim_host::apply::correct_rows_layered(&u.cal, &one, logtrim_host::apply::Arithmetic::F32, &l1);
-    let fixed_rows = logtrim_host::apply::correct_rows_fixed_layered(&fixed, &one, &l1);
+    let f32_rows = logtrim_host::correct::correct_rows_layered(
+        &u.cal,
+        &one,
+        logtrim_host::correct::Arithmetic::F32,
+        &l1,
+    );
+    let fixed_rows = logtrim_host::correct::correct_rows_fixed_layered(&fixed, &one, &l1);
     for r in f32_rows.iter().chain(&fixed_rows) {
         let r = r.as_ref().unwrap();
         assert_eq!(r.x, 0.0);

@@ -1,7 +1,9 @@
 //! The fit report: a snapshot of its Markdown for a fixed fit outcome (a change in the page is a visible
 //! diff), its structure, and the files it writes (the page links charts that exist and parse as SVG).
 
-use logtrim::calibration::{BiasTerm, Series};
+mod common;
+
+use common::units;
 use logtrim::Calibration;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::fit::model::{Norm, Params, Spec};
@@ -19,24 +21,6 @@ fn spec(offset: usize, slope: usize, bulk: usize, bias: bool) -> Spec {
         residual_x: 0,
         residual_t: 0,
     }
-}
-
-/// A calibration with bends at both ends (the shape of a fitted unit), over −20…85 °C.
-fn calibration() -> Calibration {
-    let mut c = Calibration::nominal(16, 30000.0, 3600.0, 32.5);
-    c.temperature.min_c = -20.0;
-    c.temperature.max_c = 85.0;
-    c.x_range.min = -6.9;
-    c.x_range.max = 4.6;
-    c.x_range.min_sensitivity = 0.1;
-    c.adc.rail_margin = 8;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.1;
-    c.model.offset = Series::from_slice(&[150.0, 40.0, -6.0]).unwrap();
-    c.model.slope = Series::from_slice(&[3500.0, 25.0]).unwrap();
-    c.model.bulk = Series::from_slice(&[12.0]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
-    c
 }
 
 /// A fixed outcome: the figures are invented, so the snapshot depends on the page, not on the fitter.
@@ -101,7 +85,7 @@ fn calfile(cal: Calibration) -> CalFile {
 
 #[test]
 fn report_snapshot() {
-    let cal = calibration();
+    let cal = units::bent();
     let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
     let opts = FitOptions::default();
     let r = FitReport { calfile: &f, outcome: &out, data: &d, options: &opts, source: "chamber/GD-0417.csv" };
@@ -111,7 +95,7 @@ fn report_snapshot() {
 
 #[test]
 fn report_structure() {
-    let cal = calibration();
+    let cal = units::bent();
     let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
     let opts = FitOptions::default();
     let md = FitReport { calfile: &f, outcome: &out, data: &d, options: &opts, source: "cal.csv" }
@@ -154,7 +138,7 @@ fn report_structure() {
 
 #[test]
 fn written_report_links_charts_that_exist() {
-    let cal = calibration();
+    let cal = units::bent();
     let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
     let opts = FitOptions::default();
     let dir = std::env::temp_dir().join(format!("logtrim-report-{}", std::process::id()));

@@ -8,7 +8,6 @@
 
 use logtrim::fixed::FixedCalibration;
 use logtrim::image::{DefaultFixedStorage, Image};
-use logtrim::{Beta, Divider, Placement, SensorElement, TemperatureSensor};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{fit, FitOptions};
@@ -28,21 +27,6 @@ fn fitted(name: &str) -> CalFile {
     let mut f = CalFile::new(out.calibration, Some(format!("{}-0001", &name[..3].to_uppercase())));
     f.created_unix_s = 1_767_225_600;
     f
-}
-
-/// A 10 kΩ NTC (β = 3950 K at 25 °C, typical catalogue values, common practice) at the low side of a
-/// ratiometric divider with 10 kΩ on a 12-bit converter, modelled −40…125 °C.
-fn ntc_channel() -> TemperatureSensor {
-    TemperatureSensor {
-        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
-        divider: Divider {
-            open_margin: 8,
-            short_margin: 8,
-            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
-        },
-        min_c: -40.0,
-        max_c: 125.0,
-    }
 }
 
 /// Every log code at the ends and the middle of the accepted temperature range, in m°C.
@@ -96,7 +80,8 @@ fn both_presets_round_trip_through_an_image_within_4_kib() {
 fn a_raw_temperature_channel_adds_its_table_and_stays_within_4_kib() {
     let mut file = fitted("photometer-compensated");
     let without = check(&file, "photometer-compensated, m°C");
-    file.temperature_sensor = Some(ntc_channel());
+    // The raw NTC channel of the photometer-ntc preset (a 10 kΩ NTC on a 12-bit divider, −40…125 °C).
+    file.temperature_sensor = preset("photometer-ntc").unwrap().firmware_sensor();
     let with = check(&file, "photometer-compensated, 12-bit NTC channel");
     let tables = file.fixed_tables(&TableOptions::default()).unwrap();
     let knots = tables.sensor.as_ref().unwrap().knots.len();

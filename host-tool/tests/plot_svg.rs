@@ -3,11 +3,15 @@
 //!
 //! Set `LOGTRIM_KEEP_SVG=DIR` to keep the rendered files for a look.
 
-use logtrim::calibration::{BiasTerm, Series as CalSeries};
+mod common;
+
+use common::units;
 use logtrim::Calibration;
+use logtrim_host::demo::fit_data;
+use logtrim_host::error_scale::ErrorScale;
 use logtrim_host::fit::{self, FitData, FitOptions};
 use logtrim_host::frontend::preset;
-use logtrim_host::plot::figures::{self, ErrorUnit};
+use logtrim_host::plot::figures;
 use logtrim_host::plot::validation::ValidationPoint;
 use logtrim_host::plot::{
     render_heat_map, render_lines, scale_colour, series_colour, Axis, ColourScale, Grid, HeatMap, LineFigure,
@@ -136,27 +140,9 @@ fn no_data_is_an_error_not_an_empty_chart() {
     assert!(matches!(render_heat_map(&map), Err(PlotError::NoData { .. })));
 }
 
-/// A calibration with every term of the model switched on (the shape of a hard, uncompensated unit).
-fn rich_calibration() -> Calibration {
-    let mut c = Calibration::nominal(16, 30000.0, 3600.0, 32.5);
-    c.temperature.min_c = -20.0;
-    c.temperature.max_c = 85.0;
-    c.x_range.min = -7.0;
-    c.x_range.max = 4.7;
-    c.x_range.min_sensitivity = 0.1;
-    c.adc.rail_margin = 8;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.1;
-    c.model.offset = CalSeries::from_slice(&[150.0, 40.0, -6.0]).unwrap();
-    c.model.slope = CalSeries::from_slice(&[3500.0, 25.0]).unwrap();
-    c.model.bulk = CalSeries::from_slice(&[12.0]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
-    c
-}
-
 #[test]
 fn heat_map_of_the_f32_error_over_code_and_temperature() {
-    let cal = rich_calibration();
+    let cal = units::bent();
     let (nx, ny) = (40, 12);
     let map = figures::f32_error_map(&cal, nx, ny, "coarse grid").unwrap();
     // The grid holds what it says: recompute a few cells directly from firmware-lib.
@@ -202,7 +188,7 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
 
 #[test]
 fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
-    let cal = rich_calibration();
+    let cal = units::bent();
     let tables = build(&cal, None, &TableOptions::default()).unwrap();
     let fixed = tables.view();
     let (nx, ny, per_cell) = (40, 12, 9);
@@ -274,31 +260,11 @@ fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
 /// A small simulated chamber run of a preset, fitted with a fixed model (no search: quick).
 fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
     let fe = preset("photometer-compensated").unwrap();
-    let plan = Plan {
-        seed: 3,
-        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 15, repeats: 2 },
-        validation_count: 600,
-        units: 1,
-    };
+    let chamber = ChamberPlan { setpoints: 4, ratios_per_setpoint: 15, repeats: 2 };
+    let plan = Plan { seed: 3, chamber, validation_count: 600, ..Plan::default() };
     let sim = simulate::simulate(&fe, &plan).unwrap();
-    let mut data = FitData::default();
-    for r in &sim.chamber {
-        let logtrim_host::frontend::MeasuredTemperature::Celsius(t) = r.temperature else {
-            panic!("the preset reads °C")
-        };
-        data.code.push(r.code);
-        data.temp_c.push(t);
-        data.ratio.push(r.ratio);
-    }
-    let spec = fit::model::Spec {
-        offset_terms: 3,
-        slope_terms: 2,
-        bulk_terms: 1,
-        pole: true,
-        bias: true,
-        residual_x: 0,
-        residual_t: 0,
-    };
+    let data = fit_data(&sim.chamber, 0).unwrap();
+    let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();
     let out = fit::fit(&data, &FitOptions { spec: Some(spec), ..FitOptions::default() }).unwrap();
     let val = sim
         .validation
@@ -322,7 +288,7 @@ fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
 #[test]
 fn charts_of_a_fitted_unit() {
     let (cal, data, val) = fitted_photometer();
-    let fig = figures::error_vs_x(&cal, &data, 2.0, ErrorUnit::MilliNp, "simulated photometer");
+    let fig = figures::error_vs_x(&cal, &data, 2.0, ErrorScale::MilliNp, "simulated photometer");
     assert_eq!(fig.panels.len(), 2);
     let after = &fig.panels[1];
     assert_eq!(after.series.len(), 4, "one series per set-point");
@@ -346,7 +312,7 @@ fn charts_of_a_fitted_unit() {
         assert_eq!(count_coloured(&doc, "polyline", "stroke", &hex(series_colour(k))), 3);
     }
 
-    let fig = figures::error_vs_temperature(&cal, &val, 10, ErrorUnit::DbPower, "validation");
+    let fig = figures::error_vs_temperature(&cal, &val, 10, ErrorScale::DbPower, "validation");
     let after = &fig.panels[1];
     let labels: Vec<&str> = after.series.iter().map(|s| s.label.as_str()).collect();
     assert_eq!(labels, ["rms error", "max |error|", "oracle rms (irreducible)"]);

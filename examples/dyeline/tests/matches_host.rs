@@ -3,7 +3,7 @@
 //! The host side is what `logtrim apply COEFFS.json READINGS.csv --path fixed` runs
 //! (`host-tool/cli/src/apply.rs`): the readings read by `logtrim_host::data::read_readings` with the
 //! calibration's ADC resolution, the tables from `CalFile::fixed_tables(&TableOptions::default())`, and
-//! `logtrim_host::apply::correct_rows_fixed` over them. These tests call those same library functions on the
+//! `logtrim_host::correct::correct_rows_fixed` over them. These tests call those same library functions on the
 //! same readings (running the CLI binary itself would need a path to it that a test of this package cannot
 //! find robustly), and compare with what the crate computes from the tables its `build.rs` generated and it
 //! compiled in: x, every unit of `Unit::ALL`, the extrapolation flag, and the error of every refused row.
@@ -12,8 +12,8 @@ use std::path::PathBuf;
 
 use logtrim::fixed::{value_frac_bits, FixedReading, X_FRAC};
 use logtrim::{Error, Unit};
-use logtrim_host::apply::{correct_rows_fixed, RowValue};
 use logtrim_host::calfile::CalFile;
+use logtrim_host::correct::{correct_rows_fixed, RowValue};
 use logtrim_host::data::{read_readings, ReadOptions, Readings};
 use logtrim_host::emit::{self, Format, Provenance};
 use logtrim_host::tables::{FixedTables, TableOptions};
@@ -30,8 +30,8 @@ fn host_tables(file: &CalFile) -> FixedTables {
     file.fixed_tables(&TableOptions::default()).unwrap()
 }
 
-/// x, the seven units (each as its integer: value · 2^frac) and the extrapolation flag.
-type Exact = Result<(i64, [i64; 7], bool), Error>;
+/// x, every unit (each as its integer: value · 2^frac) and the extrapolation flag.
+type Exact = Result<(i64, [i64; Unit::ALL.len()], bool), Error>;
 
 /// A host value times 2^frac, which must be an integer (the fixed path's values are exact binary fractions).
 fn scaled(v: f64, frac: u32) -> i64 {
@@ -42,7 +42,7 @@ fn scaled(v: f64, frac: u32) -> i64 {
 
 fn of_host(r: &Result<RowValue, Error>) -> Exact {
     let r = (*r)?;
-    let mut units = [0i64; 7];
+    let mut units = [0i64; Unit::ALL.len()];
     for ((q, v), u) in units.iter_mut().zip(r.units).zip(Unit::ALL) {
         *q = scaled(v, value_frac_bits(u));
     }
@@ -51,7 +51,7 @@ fn of_host(r: &Result<RowValue, Error>) -> Exact {
 
 fn of_crate(r: Result<FixedReading, Error>) -> Exact {
     let r = r?;
-    let mut units = [0i64; 7];
+    let mut units = [0i64; Unit::ALL.len()];
     for (q, u) in units.iter_mut().zip(Unit::ALL) {
         *q = r.value(u)?;
     }

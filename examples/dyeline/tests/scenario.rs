@@ -8,6 +8,7 @@ use dyeline::dye::{self, DyeError};
 use dyeline::temperature;
 use logtrim::image::{self, ImageError, ImageInfo};
 use logtrim::record::FormatError;
+use logtrim_checks::within;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::data::{read_readings_file, ReadOptions};
 use logtrim_host::image_file;
@@ -22,11 +23,6 @@ fn coeffs() -> CalFile {
 
 /// The committed image, as the firmware receives it from EEPROM.
 const EEPROM: &[u8] = include_bytes!("../calibration/QM-DL2-0117.bin");
-
-/// `|got − want| ≤ tol`, a check that cannot pass silently for negative values.
-fn close(got: f64, want: f64, tol: f64) -> bool {
-    (got - want).abs() <= tol
-}
 
 /// Q24 of a decimal absorbance, rounded.
 fn q24(au: f64) -> i64 {
@@ -49,14 +45,11 @@ const HAND: [(f64, f64, f64); 5] = [
 #[test]
 fn beer_lambert_f32_matches_hand_computed_values() {
     // Common practice: A = ε·l·c. K itself first.
-    assert!(close(f64::from(dye::MG_PER_L_PER_AU), 71.209302, 1e-5), "{}", dye::MG_PER_L_PER_AU);
+    assert!(within(f64::from(dye::MG_PER_L_PER_AU), 71.209302, 1e-5, 0.0), "{}", dye::MG_PER_L_PER_AU);
     for (a, blank, want) in HAND {
         let c = dye::concentration_mg_per_l(a as f32, blank as f32).unwrap();
         // f32 inputs carry ~6e-8 relative error each: 2e-5 mg/L covers them at these sizes.
-        assert!(
-            close(f64::from(c), want, 2e-5 + 1e-6 * want.abs()),
-            "A {a}, blank {blank}: {c} mg/L, want {want}"
-        );
+        assert!(within(f64::from(c), want, 2e-5, 1e-6), "A {a}, blank {blank}: {c} mg/L, want {want}");
     }
     assert_eq!(dye::concentration_mg_per_l(f32::NAN, 0.0), Err(DyeError::NonFinite));
     assert_eq!(dye::concentration_mg_per_l(f32::MAX, -f32::MAX), Err(DyeError::NonFinite));
@@ -73,7 +66,7 @@ fn beer_lambert_fixed_matches_hand_computed_values() {
         let c = dye::concentration_q16(q24(a), q24(blank)).unwrap();
         let got = f64::from(c) * lsb;
         // Half an output LSB of rounding, K's rounding (< 2^-17 per AU) and the inputs' Q24 rounding.
-        assert!(close(got, want, lsb + 1e-6), "A {a}, blank {blank}: {got} mg/L, want {want}");
+        assert!(within(got, want, lsb + 1e-6, 0.0), "A {a}, blank {blank}: {got} mg/L, want {want}");
     }
 }
 
@@ -85,7 +78,7 @@ fn beer_lambert_fixed_is_symmetric_and_refuses_what_does_not_fit() {
     // 400 AU is 28 483.72 mg/L: fits Q16 in an i32 (±32 768 mg/L). 500 AU (35 604.7 mg/L) does not. The
     // tolerance is K's Q16 rounding (< 2^-17 mg/L per AU) at 400 AU and one output LSB.
     let c = dye::concentration_q16(400 << 24, 0).unwrap();
-    assert!(close(f64::from(c) / 65536.0, 400.0 * 71.2093023, 400.0 / 131072.0 + 1.0 / 65536.0));
+    assert!(within(f64::from(c) / 65536.0, 400.0 * 71.2093023, 400.0 / 131072.0 + 1.0 / 65536.0, 0.0));
     assert_eq!(dye::concentration_q16(500 << 24, 0), Err(DyeError::OutOfRange));
     assert_eq!(dye::concentration_q16(-(500 << 24), 0), Err(DyeError::OutOfRange));
     assert_eq!(dye::concentration_q16(i64::MAX, -1), Err(DyeError::OutOfRange));
@@ -194,10 +187,14 @@ fn the_f32_path_from_the_image_and_the_fixed_path_agree_on_the_validation_run() 
             (Ok(f), Ok(q)) => {
                 both += 1;
                 let a_fixed = q.absorbance_q24 as f64 / f64::from(1u32 << 24);
-                assert!(close(f64::from(f.absorbance), a_fixed, a_bound), "line {}", row.line);
+                assert!(within(f64::from(f.absorbance), a_fixed, a_bound, 0.0), "line {}", row.line);
                 let c_fixed = f64::from(q.concentration_q16) / 65536.0;
                 let c_tol = a_bound * 71.21 + 1e-4;
-                assert!(close(f64::from(f.concentration_mg_per_l), c_fixed, c_tol), "line {}", row.line);
+                assert!(
+                    within(f64::from(f.concentration_mg_per_l), c_fixed, c_tol, 0.0),
+                    "line {}",
+                    row.line
+                );
                 assert_eq!(f.reading.temperature_extrapolated, q.reading.temperature_extrapolated);
             }
             (Err(_), Err(_)) => {}

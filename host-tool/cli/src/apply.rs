@@ -3,12 +3,13 @@
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use logtrim_host::apply::{
-    correct_rows_fixed_layered, correct_rows_layered, layers_from_files, write_results, Arithmetic,
-};
+use logtrim_host::apply::write_results;
 use logtrim_host::calfile::CalFile;
-use logtrim_host::data::{read_readings_file, ReadOptions};
+use logtrim_host::correct::{
+    correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, Arithmetic,
+};
 use logtrim_host::output::AtomicFile;
+use logtrim_host::records::layers_from_files;
 
 use crate::Failure;
 
@@ -55,23 +56,10 @@ pub struct ApplyArgs {
 pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
-    let sensor = file.temperature_sensor;
-    // The firmware converts the temperature channel in f32: so does apply.
-    let conv = move |code: u32| -> Result<f64, logtrim::Error> {
-        match &sensor {
-            Some(s) => s.celsius(code).map(f64::from),
-            None => Err(logtrim::Error::NotCalibrated),
-        }
-    };
-    let opts = ReadOptions {
-        adc_bits: cal.adc.bits,
-        skip_bad_rows: args.skip_bad_rows,
-        temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
-    };
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
-        .map_err(|e| if e.is_check() { Failure::check(&e) } else { Failure::input(&e) })?;
-    let readings = read_readings_file(&args.readings, &opts).map_err(Failure::input)?;
+        .map_err(crate::trim::layer_failure)?;
+    let readings = read_unit_readings(&file, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
     for e in &readings.skipped {
         eprintln!("skipped: {e}");
     }

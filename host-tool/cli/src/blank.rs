@@ -40,7 +40,7 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
     println!(
         "  x = {:+.6} Np (f32 path), {:+.6} Np (fixed path): ratio {:.6}, {:+.4} dB (power), {:+.5} AU",
         x,
-        logtrim_host::trim::q24(b.x_q24),
+        logtrim_host::correct::x_of_q24(b.x_q24),
         Unit::Ratio.from_x(x),
         Unit::DbPower.from_x(x),
         Unit::Absorbance.from_x(x)

@@ -1,14 +1,16 @@
-//! `logtrim budget`: the error budget of a design, from a JSON file of its figures and/or options.
+//! `logtrim budget`: the error budget of a design, from its front-end description (the file `simulate`
+//! reads) or a JSON file of its figures, and/or options.
 
 use std::path::PathBuf;
 
 use clap::Args;
 use logtrim_host::budget::BudgetSpec;
+use logtrim_host::frontend::{preset, FrontEnd, PRESETS};
 
 use crate::Failure;
 
-/// Options of `logtrim budget`. Options override the file's figures; figures given by neither take their
-/// defaults (see --write-spec for a file holding every figure).
+/// Options of `logtrim budget`. Options override the figures of the design or the file; figures given by
+/// none take their defaults (see --write-spec for a file holding every figure).
 ///
 /// The budget uses the ideal log-ratio law (slope ∝ absolute temperature unless --slope-drift-ppm is
 /// given). The reference's tolerance is taken as removed by calibration and its drift as not; the
@@ -17,8 +19,16 @@ use crate::Failure;
 pub struct BudgetArgs {
     /// The design's figures as JSON (every field optional): adc, reference, front_end, temperature,
     /// arithmetic.
-    #[arg(value_name = "DESIGN.json")]
+    #[arg(value_name = "FIGURES.json", conflicts_with_all = ["design", "preset"])]
     spec: Option<PathBuf>,
+    /// The design's front-end description (the JSON file `logtrim simulate --frontend` reads and
+    /// --write-preset writes): its converter, slope law, level shift, ranges and temperature sensor's noise
+    /// give the budget's figures.
+    #[arg(long, value_name = "FRONTEND.json", conflicts_with = "preset")]
+    design: Option<PathBuf>,
+    /// A built-in front end's description as the design (see `logtrim simulate --list-presets`).
+    #[arg(long, value_name = "NAME")]
+    preset: Option<String>,
     /// ADC resolution, bits.
     #[arg(long, value_name = "N")]
     bits: Option<u8>,
@@ -37,6 +47,10 @@ pub struct BudgetArgs {
     /// Reference drift that calibration does not remove, ppm/K.
     #[arg(long, value_name = "PPM_PER_K")]
     ref_drift_ppm: Option<f64>,
+    /// The level shift is derived from the converter's reference (a divider of it): a reference error then
+    /// misreads only the log part.
+    #[arg(long)]
+    ratiometric_level_shift: bool,
     /// The front end's slope, V per decade of ratio, at --slope-at.
     #[arg(long, value_name = "V")]
     slope: Option<f64>,
@@ -81,9 +95,21 @@ pub struct BudgetArgs {
 
 /// Runs the verb.
 pub fn run(args: BudgetArgs) -> Result<(), Failure> {
-    let mut s = match &args.spec {
-        Some(p) => BudgetSpec::load(p).map_err(Failure::input)?,
-        None => BudgetSpec::default(),
+    let design = match (&args.design, &args.preset) {
+        (Some(p), _) => Some(FrontEnd::load(p).map_err(Failure::input)?),
+        (None, Some(name)) => Some(preset(name).ok_or_else(|| {
+            let names: Vec<&str> = PRESETS.iter().map(|p| p.name).collect();
+            Failure::input(format!(
+                "--preset {name:?}: no such preset; expected one of: {}",
+                names.join(", ")
+            ))
+        })?),
+        (None, None) => None,
+    };
+    let mut s = match (&args.spec, &design) {
+        (Some(p), _) => BudgetSpec::load(p).map_err(Failure::input)?,
+        (None, Some(fe)) => BudgetSpec::from_design(fe).map_err(Failure::input)?,
+        (None, None) => BudgetSpec::default(),
     };
     let set = |slot: &mut f64, v: Option<f64>| {
         if let Some(v) = v {
@@ -100,6 +126,9 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
     }
     set(&mut s.reference.tolerance, args.ref_tolerance);
     set(&mut s.reference.drift_ppm_per_k, args.ref_drift_ppm);
+    if args.ratiometric_level_shift {
+        s.reference.ratiometric_level_shift = true;
+    }
     set(&mut s.front_end.slope_v_per_decade, args.slope);
     set(&mut s.front_end.slope_at_c, args.slope_at);
     if args.slope_drift_ppm.is_some() {
@@ -113,8 +142,13 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
     set(&mut s.temperature.sensor_accuracy_k, args.sensor_accuracy);
     set(&mut s.temperature.sensor_noise_k_rms, args.sensor_noise);
     set(&mut s.arithmetic.error_lsb, args.arithmetic_lsb);
-    let budget = s.compute().map_err(|e| match &args.spec {
-        Some(p) => Failure::input(format!("{} (with the options given): {e}", p.display())),
+    let source = match (&args.spec, &args.design, &args.preset) {
+        (Some(p), _, _) | (None, Some(p), _) => Some(p.display().to_string()),
+        (None, None, Some(name)) => Some(format!("preset {name}")),
+        (None, None, None) => None,
+    };
+    let budget = s.compute().map_err(|e| match &source {
+        Some(src) => Failure::input(format!("{src} (with the options given): {e}")),
         None => Failure::input(e),
     })?;
     if let Some(path) = &args.write_spec {

@@ -53,10 +53,9 @@ pub fn run(args: DemoArgs) -> Result<(), Failure> {
         let dir = args.out_dir.join(name);
         std::fs::create_dir_all(&dir).map_err(|e| Failure::input(format!("{}: {e}", dir.display())))?;
         out.simulation.write_to(&dir).map_err(Failure::input)?;
-        let mut file = CalFile::new(out.fit.calibration, Some(out.simulation.units[0].serial.clone()));
-        file.fit = serde_json::to_value(&out.fit).ok();
         // A raw temperature channel's description goes with the calibration, so that apply reads temp_code.
-        file.temperature_sensor = fe.firmware_sensor();
+        let serial = out.simulation.units[0].serial.clone();
+        let file = CalFile::of_fit(&out.fit, Some(serial), fe.firmware_sensor(), crate::stamp::now());
         let coeffs = dir.join("coeffs.json");
         file.save(&coeffs).map_err(Failure::input)?;
         println!("== {name}: {}", fe.description);

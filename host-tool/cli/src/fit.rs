@@ -2,16 +2,15 @@
 //! and one image each).
 
 use std::io::IsTerminal;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 use clap::Args;
-use indicatif::{ProgressBar, ProgressStyle};
 use logtrim::sensor::TemperatureSensor;
-use logtrim_host::batch::{fit_units, UnitJob};
-use logtrim_host::calfile::CalFile;
-use logtrim_host::data::{read_calibration_file, CalData, ReadOptions};
+use logtrim_host::batch::{fit_one, fit_units, read_chamber_data, ChamberRead, UnitJob};
+use logtrim_host::data::RowError;
 use logtrim_host::fit::model::Spec;
-use logtrim_host::fit::{fit, render_report, FitData, FitOptions};
+use logtrim_host::fit::{render_report, FitOptions};
+use logtrim_host::sensor_tool::load_settings;
 
 use crate::Failure;
 
@@ -71,39 +70,17 @@ pub struct FitArgs {
     quiet: bool,
 }
 
-fn load_sensor(path: &Option<PathBuf>) -> Result<Option<TemperatureSensor>, Failure> {
-    let Some(p) = path else { return Ok(None) };
-    let text = std::fs::read_to_string(p).map_err(|e| Failure::input(format!("{}: {e}", p.display())))?;
-    let s: TemperatureSensor = serde_json::from_str(&text).map_err(|e| {
-        Failure::input(format!("{}: line {}, column {}: {e}", p.display(), e.line(), e.column()))
-    })?;
-    s.validate().map_err(|e| Failure::input(format!("{}: {e}", p.display())))?;
-    Ok(Some(s))
-}
-
-fn read(path: &Path, args: &FitArgs, sensor: Option<&TemperatureSensor>) -> Result<CalData, Failure> {
-    let conv = move |code: u32| -> Result<f64, logtrim::Error> {
-        match sensor {
-            Some(s) => s.celsius_f64(code),
-            None => Err(logtrim::Error::NotCalibrated),
-        }
-    };
-    let opts = ReadOptions {
-        adc_bits: args.bits,
-        skip_bad_rows: args.skip_bad_rows,
-        temp_converter: sensor.map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
-    };
-    let data = read_calibration_file(path, &opts).map_err(Failure::input)?;
-    if !data.skipped.is_empty() {
-        eprintln!("{}: skipped {} bad row(s):", data.path, data.skipped.len());
-        for e in data.skipped.iter().take(20) {
+/// Prints the rows a file skipped (at most 20 of them per file).
+fn report_skipped(skipped: &[(String, Vec<RowError>)]) {
+    for (path, rows) in skipped {
+        eprintln!("{path}: skipped {} bad row(s):", rows.len());
+        for e in rows.iter().take(20) {
             eprintln!("  {e}");
         }
-        if data.skipped.len() > 20 {
-            eprintln!("  … and {} more", data.skipped.len() - 20);
+        if rows.len() > 20 {
+            eprintln!("  … and {} more", rows.len() - 20);
         }
     }
-    Ok(data)
 }
 
 fn options(args: &FitArgs) -> Result<FitOptions, Failure> {
@@ -126,51 +103,36 @@ fn options(args: &FitArgs) -> Result<FitOptions, Failure> {
 
 /// Runs the verb.
 pub fn run(args: FitArgs) -> Result<(), Failure> {
-    let sensor = load_sensor(&args.sensor)?;
+    let sensor = match &args.sensor {
+        Some(p) => Some(load_settings(p).map_err(Failure::input)?),
+        None => None,
+    };
     let opt = options(&args)?;
-    let mut jobs: Vec<UnitJob> = Vec::new();
-    let batch_dir = args.input.is_dir();
-    if batch_dir {
-        let mut files: Vec<PathBuf> = std::fs::read_dir(&args.input)
-            .map_err(|e| Failure::input(format!("{}: {e}", args.input.display())))?
-            .filter_map(|e| e.ok().map(|e| e.path()))
-            .filter(|p| p.extension().is_some_and(|x| x.eq_ignore_ascii_case("csv")))
-            .collect();
-        files.sort();
-        if files.is_empty() {
-            return Err(Failure::input(format!("{}: no .csv files in this folder", args.input.display())));
-        }
-        for f in files {
-            let data = read(&f, &args, sensor.as_ref())?;
-            let stem = f.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
-            jobs.extend(unit_jobs(&data, &stem, args.unit.as_deref()));
-        }
-    } else {
-        let data = read(&args.input, &args, sensor.as_ref())?;
-        let stem = args.input.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
-        jobs = unit_jobs(&data, &stem, args.unit.as_deref());
-        if let Some(u) = &args.unit {
-            if jobs.is_empty() {
-                return Err(Failure::input(format!("{}: no rows of unit {u:?}", data.path)));
-            }
-        }
-    }
-    if jobs.len() == 1 && !batch_dir {
-        return fit_one(&jobs[0], &opt, sensor, &args);
+    let how = ChamberRead {
+        adc_bits: args.bits,
+        skip_bad_rows: args.skip_bad_rows,
+        sensor: sensor.as_ref(),
+        unit: args.unit.as_deref(),
+    };
+    let data = read_chamber_data(&args.input, &how).map_err(Failure::input)?;
+    report_skipped(&data.skipped);
+    let jobs = data.jobs;
+    if let ([job], false) = (jobs.as_slice(), data.folder) {
+        return fit_single(job, &opt, sensor.as_ref(), &args);
     }
     std::fs::create_dir_all(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    let bar = std::io::stderr().is_terminal().then(|| {
-        let b = ProgressBar::new(jobs.len() as u64);
-        if let Ok(style) = ProgressStyle::with_template("fitting {pos}/{len} units [{bar:30}] {eta}") {
-            b.set_style(style);
-        }
-        b
-    });
-    let (spec, results) = fit_units(&jobs, &opt, sensor.as_ref(), &args.output, bar.as_ref());
-    if let Some(b) = bar {
-        b.finish_and_clear();
-    }
+    let bar =
+        crate::progress::bar("fitting {pos}/{len} units [{bar:30}] {eta}", std::io::stderr().is_terminal());
+    let (spec, results) = fit_units(
+        &jobs,
+        &opt,
+        sensor.as_ref(),
+        &args.output,
+        crate::stamp::now(),
+        &crate::progress::on(&bar),
+    );
+    crate::progress::finish(bar);
     let failed: Vec<_> = results.iter().filter(|r| r.outcome.is_err()).collect();
     match spec {
         Some(s) if args.model.is_none() => println!(
@@ -208,28 +170,14 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     }
 }
 
-fn unit_jobs(data: &CalData, stem: &str, only: Option<&str>) -> Vec<UnitJob> {
-    if data.units.is_empty() {
-        if only.is_some_and(|u| u != stem) {
-            return vec![];
-        }
-        return vec![UnitJob { serial: stem.to_string(), data: FitData::from_rows(&data.rows, None) }];
-    }
-    data.units
-        .iter()
-        .enumerate()
-        .filter(|(_, s)| only.is_none_or(|u| u == s.as_str()))
-        .map(|(i, s)| UnitJob { serial: s.clone(), data: FitData::from_rows(&data.rows, Some(i as u32)) })
-        .collect()
-}
-
-fn fit_one(
+fn fit_single(
     job: &UnitJob,
     opt: &FitOptions,
-    sensor: Option<TemperatureSensor>,
+    sensor: Option<&TemperatureSensor>,
     args: &FitArgs,
 ) -> Result<(), Failure> {
-    let out = fit(&job.data, opt).map_err(|e| Failure::check(format!("{}: {e}", args.input.display())))?;
+    let (out, file) = fit_one(job, opt, sensor, crate::stamp::now())
+        .map_err(|e| Failure::check(format!("{}: {e}", args.input.display())))?;
     if !args.quiet {
         print!("{}", render_report(&out));
         let c = &out.calibration;
@@ -243,10 +191,6 @@ fn fit_one(
             f64::from(c.x_range.max).exp()
         );
     }
-    let unit = (!job.serial.is_empty()).then(|| job.serial.clone());
-    let mut file = CalFile::new(out.calibration, unit);
-    file.temperature_sensor = sensor;
-    file.fit = serde_json::to_value(&out).ok();
     file.save(&args.output).map_err(Failure::input)?;
     println!("wrote {} ({} rows, model {})", args.output.display(), job.data.code.len(), out.chosen.to_arg());
     if let Some(dir) = &args.report {

@@ -21,7 +21,7 @@ pub struct Args {
 pub fn run(args: Args) -> Result<(), Failure> {
     let name = args.image.display().to_string();
     let file = image_file::read_file(&args.image).map_err(|e| match e {
-        ImageFileError::Io { .. } => Failure::input(e),
+        ImageFileError::File(_) => Failure::input(e),
         // A HEX file whose records are broken is a bad image file.
         other => Failure::check(format!("{name}: bad Intel HEX: {other}")),
     })?;

@@ -16,14 +16,29 @@ mod fit;
 mod image;
 mod inspect;
 mod plot;
+mod progress;
 mod sensor;
 mod simulate;
+mod stamp;
 mod trim;
 mod verify;
 
-/// Calibrate, verify and emit firmware tables for log-ratio front ends.
+/// Calibrate log-ratio front ends on the production line, and check the firmware that reads them.
+///
+/// logtrim turns a unit's chamber run (log-channel ADC codes, temperatures, applied ratios) into its
+/// calibration, and the calibration into what the unit's firmware needs: a calibration image, or
+/// fixed-point tables as Rust, C or JSON. It verifies the firmware's f32 and integer paths against an f64
+/// reference over every code, corrects readings exactly as the firmware would, and makes the field's trim
+/// and blank records.
+///
+/// A unit's way: `fit` (CAL.csv → COEFFS.json), then `image` or `emit`, `verify`, `apply`; in the field,
+/// `trim` and `blank`. Before any unit is built, `simulate` and `budget` work on the design; `demo` runs
+/// the whole job on simulated units.
+///
+/// Exit codes: 0 success; 1 a check failed (verification over its bound, a bad image, a refused fit, a
+/// trim past its limits); 2 bad usage or bad input.
 #[derive(Parser)]
-#[command(name = "logtrim", version, about, long_about = None)]
+#[command(name = "logtrim", version)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -88,7 +103,7 @@ impl Failure {
 fn main() -> ExitCode {
     let cli = Cli::parse();
     // A malformed SOURCE_DATE_EPOCH is refused before anything is stamped with the wrong time.
-    if let Err(e) = logtrim_host::calfile::stamp_time() {
+    if let Err(e) = stamp::checked() {
         eprintln!("logtrim: {e}");
         return ExitCode::from(2);
     }

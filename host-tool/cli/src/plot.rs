@@ -7,8 +7,9 @@ use std::path::{Path, PathBuf};
 use clap::Args;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::data::{self, ReadOptions};
+use logtrim_host::error_scale::ErrorScale;
 use logtrim_host::fit::FitData;
-use logtrim_host::plot::figures::{self, ErrorUnit};
+use logtrim_host::plot::figures;
 use logtrim_host::plot::validation::read_validation;
 use logtrim_host::plot::{render_heat_map, render_lines};
 use logtrim_host::report::{file_prefix, utc};
@@ -45,7 +46,7 @@ pub struct PlotArgs {
     /// Unit of the error axes: np, mnp (millinepers), db10 (10·log10, power ratios), db20 (20·log10,
     /// amplitude ratios) or pct (% of ratio).
     #[arg(long, value_name = "UNIT", default_value = "mnp", value_parser = parse_unit)]
-    error_unit: ErrorUnit,
+    error_unit: ErrorScale,
     /// Temperature bins of the error-against-temperature chart.
     #[arg(long, value_name = "N", default_value_t = 12, value_parser = clap::value_parser!(u32).range(1..=200))]
     bins: u32,
@@ -67,9 +68,9 @@ pub struct PlotArgs {
     tables: TableArgs,
 }
 
-fn parse_unit(s: &str) -> Result<ErrorUnit, String> {
-    ErrorUnit::from_name(s).ok_or_else(|| {
-        let names: Vec<&str> = ErrorUnit::ALL.iter().map(|u| u.name()).collect();
+fn parse_unit(s: &str) -> Result<ErrorScale, String> {
+    ErrorScale::from_name(s).ok_or_else(|| {
+        let names: Vec<&str> = ErrorScale::ALL.iter().map(|u| u.name()).collect();
         format!("{s:?} is not an error unit; expected one of: {}", names.join(", "))
     })
 }

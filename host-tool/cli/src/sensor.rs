@@ -10,7 +10,8 @@ use logtrim::thermistor::CurvePoint;
 use logtrim::Placement;
 use logtrim_host::sensor_tool::{
     self as tool, build_sensor, describe_divider, describe_element, parse_coefficients, parse_ohm,
-    parse_point, parse_rtd, Channel, DividerSpec, ElementSpec, TableFormat, TableSpec,
+    parse_point, parse_rtd, DividerSpec, ElementSpec, Input, SensorToolError, TableFormat, TableSource,
+    TableSpec,
 };
 
 use crate::Failure;
@@ -101,7 +102,7 @@ impl ElementArgs {
     }
 
     fn element(&self) -> Result<SensorElement, Failure> {
-        self.spec()?.element().map_err(Failure::input)
+        self.spec()?.element().map_err(refused)
     }
 }
 
@@ -211,6 +212,34 @@ struct SettingsArgs {
     output: PathBuf,
 }
 
+/// The option that gives each value the library names.
+fn option(input: Input) -> &'static str {
+    match input {
+        Input::Point => "--point",
+        Input::Beta => "--beta",
+        Input::R0 => "--r0",
+        Input::T0 => "--t0",
+        Input::SteinhartHart => "--sh",
+        Input::Rtd => "--rtd",
+        Input::Series => "--series",
+        Input::Bits => "--bits",
+        Input::FullScale => "--full-scale",
+        Input::FaultMargins => "--open-margin/--short-margin",
+        Input::Min => "--min",
+        Input::Max => "--max",
+        Input::Range => "--min/--max",
+        Input::From => "--from",
+        Input::To => "--to",
+        Input::TableRange => "--from/--to",
+        Input::Step => "--step",
+    }
+}
+
+/// The library's refusal as bad input, its values named by their options.
+fn refused(e: SensorToolError) -> Failure {
+    Failure::input(e.message(&option))
+}
+
 /// Runs the verb.
 pub fn run(args: SensorArgs) -> Result<(), Failure> {
     match args.command {
@@ -223,7 +252,7 @@ pub fn run(args: SensorArgs) -> Result<(), Failure> {
 
 fn fit_points(args: &FitArgs, steinhart_hart: bool) -> Result<(), Failure> {
     let element = if steinhart_hart {
-        let sh = tool::steinhart_hart_from_points("--point", &args.points).map_err(Failure::input)?;
+        let sh = tool::steinhart_hart_from_points(&args.points).map_err(refused)?;
         println!(
             "Steinhart–Hart through {} points: 1/T = A + B·ln R + C·(ln R)³ (T in K, R in Ω)",
             args.points.len()
@@ -232,7 +261,7 @@ fn fit_points(args: &FitArgs, steinhart_hart: bool) -> Result<(), Failure> {
         println!("  as an option: --sh {:e},{:e},{:e}", sh.a, sh.b, sh.c);
         SensorElement::NtcSteinhartHart(sh)
     } else {
-        let b = tool::beta_from_points("--point", &args.points).map_err(Failure::input)?;
+        let b = tool::beta_from_points(&args.points).map_err(refused)?;
         println!("Beta model through {} points: R = R0·exp(β·(1/T − 1/T0))", args.points.len());
         println!("  β = {} K, R0 = {} Ω at T0 = {} °C", b.beta_k, b.r0_ohm, b.t0_c);
         println!("  as options: --beta {} --r0 {} --t0 {}", b.beta_k, b.r0_ohm, b.t0_c);
@@ -251,13 +280,13 @@ fn fit_points(args: &FitArgs, steinhart_hart: bool) -> Result<(), Failure> {
 
 fn table(args: &TableArgs) -> Result<(), Failure> {
     let from_file = match &args.sensor {
-        Some(path) => Some(tool::load_settings(path).map_err(Failure::input)?),
+        Some(path) => Some(tool::load_settings(path).map_err(refused)?),
         None => None,
     };
     let element;
     let divider;
     let mut header = Vec::new();
-    let channel = match &from_file {
+    let source = match &from_file {
         Some(s) => {
             header.push(format!(
                 "settings: {}",
@@ -266,7 +295,7 @@ fn table(args: &TableArgs) -> Result<(), Failure> {
             header.push(describe_element(&s.element));
             header.push(describe_divider(&s.divider));
             header.push(format!("valid {} … {} °C", s.min_c, s.max_c));
-            Channel::Sensor(s)
+            TableSource::Sensor(s)
         }
         None => {
             if !args.element.given() {
@@ -278,12 +307,12 @@ fn table(args: &TableArgs) -> Result<(), Failure> {
             header.push(describe_element(&element));
             match args.divider.spec() {
                 Some(spec) => {
-                    divider = spec.divider().map_err(Failure::input)?;
+                    divider = spec.divider().map_err(refused)?;
                     header.push(describe_divider(&divider));
                     header.push("no valid range declared: the firmware column converts every code".into());
-                    Channel::Divided(&element, &divider)
+                    TableSource::Divided(&element, &divider)
                 }
-                None => Channel::Element(&element),
+                None => TableSource::Element(&element),
             }
         }
     };
@@ -297,15 +326,14 @@ fn table(args: &TableArgs) -> Result<(), Failure> {
             return Err(Failure::input("--to: missing; give the table's last temperature in °C"))
         }
     };
-    let rows =
-        tool::table(channel, &TableSpec { from_c, to_c, step_k: args.step }).map_err(Failure::input)?;
+    let rows = tool::table(source, &TableSpec { from_c, to_c, step_k: args.step }).map_err(refused)?;
     let format = match args.format {
         FormatArg::Text => TableFormat::Text,
         FormatArg::Csv => TableFormat::Csv,
     };
     match &args.output {
         Some(path) => {
-            tool::write_table_file(path, &rows, format, &header).map_err(Failure::input)?;
+            tool::write_table_file(path, &rows, format, &header).map_err(refused)?;
             println!("wrote {} ({} rows, {from_c} … {to_c} °C)", path.display(), rows.len());
         }
         None => tool::write_table(&rows, format, &header, std::io::stdout().lock())
@@ -321,11 +349,10 @@ fn settings(args: &SettingsArgs) -> Result<(), Failure> {
             "--series: missing; the settings need the divider: --series OHM --placement low|high --bits N",
         )
     })?;
-    let divider = spec.divider().map_err(Failure::input)?;
-    let sensor: TemperatureSensor =
-        build_sensor(element, divider, args.min, args.max).map_err(Failure::input)?;
-    let sum = tool::summarise(&sensor).map_err(Failure::input)?;
-    tool::write_settings(&args.output, &sensor).map_err(Failure::input)?;
+    let divider = spec.divider().map_err(refused)?;
+    let sensor: TemperatureSensor = build_sensor(element, divider, args.min, args.max).map_err(refused)?;
+    let sum = tool::summarise(&sensor).map_err(refused)?;
+    tool::write_settings(&args.output, &sensor).map_err(refused)?;
     println!("wrote {}", args.output.display());
     println!("  element: {}", describe_element(&sensor.element));
     println!("  divider: {}", describe_divider(&sensor.divider));

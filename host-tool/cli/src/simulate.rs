@@ -4,6 +4,7 @@ use std::f64::consts::LN_10;
 use std::path::PathBuf;
 
 use clap::Args;
+use logtrim_host::error_scale::{db_amplitude, db_power};
 use logtrim_host::frontend::{FrontEnd, PRESETS};
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
 
@@ -153,8 +154,8 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
     for (label, np) in [("rms", s.rms_np), ("max", s.max_np)] {
         println!(
             "  {label} {np:.3e} Np = {:.3e} dB (10·log10, power ratios) = {:.3e} dB (20·log10, amplitude ratios)",
-            np * 10.0 / LN_10,
-            np * 20.0 / LN_10
+            db_power(np),
+            db_amplitude(np)
         );
     }
 }

@@ -7,7 +7,9 @@ use clap::Args;
 use logtrim::field::{RecordInfo, Trim, TrimLimits};
 use logtrim::Unit;
 use logtrim_host::calfile::CalFile;
-use logtrim_host::data::{read_readings_file, ReadOptions, Readings};
+use logtrim_host::correct::{read_unit_readings, x_of_q24};
+use logtrim_host::data::Readings;
+use logtrim_host::records::LayerError;
 use logtrim_host::tables::{FixedTables, TableOptions};
 
 use crate::Failure;
@@ -27,9 +29,11 @@ pub struct RecordArgs {
 impl RecordArgs {
     /// The record's header (its factory fingerprint is filled in by the library).
     pub fn info(&self) -> RecordInfo {
-        // `main` has checked SOURCE_DATE_EPOCH before any command ran.
-        let now = || logtrim_host::calfile::stamp_time().unwrap_or(0);
-        RecordInfo { sequence: self.sequence, written_at: self.written_at.unwrap_or_else(now), factory: 0 }
+        RecordInfo {
+            sequence: self.sequence,
+            written_at: self.written_at.unwrap_or_else(crate::stamp::now),
+            factory: 0,
+        }
     }
 }
 
@@ -88,26 +92,28 @@ pub struct TrimArgs {
     limits: LimitArgs,
 }
 
-/// Reads a readings file of a unit, converting a `temp_code` column with the calibration file's sensor
-/// as the firmware does (in f32), and builds the unit's default fixed-point tables.
+/// Reads a readings file of a unit as its firmware reads it, and builds the unit's default fixed-point
+/// tables.
 pub fn unit_readings(file: &CalFile, coeffs: &Path, path: &Path) -> Result<(Readings, FixedTables), Failure> {
-    let sensor = file.temperature_sensor;
-    let conv = move |code: u32| -> Result<f64, logtrim::Error> {
-        match &sensor {
-            Some(s) => s.celsius(code).map(f64::from),
-            None => Err(logtrim::Error::NotCalibrated),
-        }
-    };
-    let opts = ReadOptions {
-        adc_bits: file.calibration.adc.bits,
-        skip_bad_rows: false,
-        temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, logtrim::Error>),
-    };
-    let readings = read_readings_file(path, &opts).map_err(Failure::input)?;
+    let readings = read_unit_readings(file, path, false).map_err(Failure::input)?;
     let tables = file
         .fixed_tables(&TableOptions::default())
         .map_err(|e| Failure::input(format!("{}: {e}", coeffs.display())))?;
     Ok((readings, tables))
+}
+
+/// A refusal to install the trim and blank record files: a record the firmware refuses names the options,
+/// and a trim past its limits is a failed check.
+pub fn layer_failure(e: LayerError) -> Failure {
+    let message = match &e {
+        LayerError::Refused(refusal) => format!("--trim/--blank: {refusal}"),
+        other => other.to_string(),
+    };
+    if e.is_check() {
+        Failure::check(message)
+    } else {
+        Failure::input(message)
+    }
 }
 
 /// `name` as a unit, or a usage error listing the names.
@@ -218,6 +224,6 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
         t.gain_q30,
         f64::from(t.gain_q30) / f64::from(1u32 << 30),
         t.offset_q24,
-        logtrim_host::trim::q24(t.offset_q24)
+        x_of_q24(t.offset_q24)
     );
 }

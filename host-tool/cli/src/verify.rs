@@ -84,21 +84,15 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         check_fixed: args.path != PathArg::F32,
         check_f32: args.path != PathArg::Fixed,
         exact_reference: args.exact_reference,
-        progress: std::io::stderr().is_terminal() && std::io::stdout().is_terminal(),
     };
     let start = std::time::Instant::now();
+    let terminal = std::io::stderr().is_terminal() && std::io::stdout().is_terminal();
+    let bar = crate::progress::bar("verify {bar:40} {pos}/{len} temperatures, {eta} left", terminal);
     // With a raw temperature channel, every temperature code is swept through the sensor's own
     // conversion (f64) as the reference.
-    let report = match &file.temperature_sensor {
-        None => verify::run(&file.calibration, &tables.view(), None, &opts),
-        Some(sensor) => {
-            let max = sensor.divider.max_code().map_err(Failure::input)?;
-            let celsius = |code: u32| sensor.celsius_f64(code);
-            let channel = logtrim_host::tables::TemperatureChannel { codes: 0..=max, celsius: &celsius };
-            verify::run(&file.calibration, &tables.view(), Some(&channel), &opts)
-        }
-    }
-    .map_err(Failure::input)?;
+    let report = verify::run_file(&file, &tables.view(), &opts, &crate::progress::on(&bar));
+    crate::progress::finish(bar);
+    let report = report.map_err(Failure::input)?;
     let secs = start.elapsed().as_secs_f64();
     if args.json {
         let text = serde_json::to_string_pretty(&report).map_err(Failure::input)?;

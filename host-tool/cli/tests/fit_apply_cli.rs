@@ -1,27 +1,10 @@
 //! `logtrim fit`, `apply` and `demo` end to end through the binary: files, exit codes and error messages.
 
-use std::path::{Path, PathBuf};
+mod common;
+
+use common::{logtrim, s, scratch};
+use std::path::Path;
 use std::process::Command;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-fitcli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-fn s(p: &Path) -> &str {
-    p.to_str().unwrap()
-}
 
 fn simulate(dir: &Path, units: &str) {
     let (code, out, err) = logtrim(&[

@@ -2,31 +2,17 @@
 //! (0 ok, 1 a bad image, 2 bad input) with their specific messages; the fixed-point tables in the image by
 //! default, identical to the ones the library builds for the file, and left out with `--no-fixed`.
 
-use std::path::Path;
-use std::process::{Command, Output};
+mod common;
 
+use std::path::Path;
+
+use common::{code, logtrim_in, stderr, stdout};
 use logtrim::calibration::{BiasTerm, Series, TemperatureRange, XRange};
 use logtrim::image::layout;
 use logtrim::{Calibration, Image};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::image_file::load_fixed;
 use logtrim_host::tables::TableOptions;
-
-fn logtrim(args: &[&str], dir: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).current_dir(dir).output().unwrap()
-}
-
-fn code(o: &Output) -> i32 {
-    o.status.code().unwrap()
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
-
-fn stdout(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stdout).into_owned()
-}
 
 /// A gas detector's reference-channel unit, invented for the test.
 fn coeffs(dir: &Path, unit: Option<&str>) -> Calibration {
@@ -50,7 +36,7 @@ fn binary_image_round_trip() {
     let dir = tempfile::tempdir().unwrap();
     let cal = coeffs(dir.path(), Some("GD-REF-00731"));
     let o =
-        logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin", "--sequence", "12", "--no-fixed"], dir.path());
+        logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.bin", "--sequence", "12", "--no-fixed"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     assert!(stdout(&o).contains("268 byte image (binary; f32 model only)"), "{}", stdout(&o));
     let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
@@ -60,7 +46,7 @@ fn binary_image_round_trip() {
     assert_eq!(img.calibration(), cal);
     assert_eq!((img.serial(), img.sequence(), img.calibrated_at()), ("GD-REF-00731", 12, 1_767_225_600));
 
-    let o = logtrim(&["inspect", "UNIT.bin"], dir.path());
+    let o = logtrim_in(&["inspect", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     let out = stdout(&o);
     assert!(out.contains("UNIT.bin: binary, 268 bytes"), "{out}");
@@ -70,7 +56,7 @@ fn binary_image_round_trip() {
     assert!(out.contains("slope      2 terms: [2000, 25]"), "{out}");
     assert!(out.contains("fixed-point tables: none"), "{out}");
 
-    let o = logtrim(&["inspect", "--json", "UNIT.bin"], dir.path());
+    let o = logtrim_in(&["inspect", "--json", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0);
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["serial"], "GD-REF-00731");
@@ -82,7 +68,7 @@ fn binary_image_round_trip() {
 fn images_carry_the_fixed_point_tables_by_default() {
     let dir = tempfile::tempdir().unwrap();
     coeffs(dir.path(), Some("GD-REF-00731"));
-    let o = logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path());
+    let o = logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     assert!(stdout(&o).contains("fixed-point tables 16×40 knots"), "{}", stdout(&o));
     let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
@@ -97,7 +83,7 @@ fn images_carry_the_fixed_point_tables_by_default() {
     assert_eq!(bytes.len(), 268 + 4 + layout::fixed::HEAD_LEN + tables.next_multiple_of(4));
     assert!(bytes.len() <= 4096, "{} bytes", bytes.len());
 
-    let o = logtrim(&["inspect", "UNIT.bin"], dir.path());
+    let o = logtrim_in(&["inspect", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     let out = stdout(&o);
     assert!(out.contains(&format!("UNIT.bin: binary, {} bytes", bytes.len())), "{out}");
@@ -112,14 +98,14 @@ fn images_carry_the_fixed_point_tables_by_default() {
         "{out}"
     );
     assert!(out.contains("sensor     none"), "{out}");
-    let o = logtrim(&["inspect", "--json", "UNIT.bin"], dir.path());
+    let o = logtrim_in(&["inspect", "--json", "UNIT.bin"], dir.path());
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
     assert_eq!(v["fixed"]["valid"], true);
     assert_eq!(v["fixed"]["entries"]["residual"], 756);
     assert_eq!(v["fixed"]["header"]["t_knots"], 16);
 
     // Other table sizes.
-    let o = logtrim(
+    let o = logtrim_in(
         &["image", "COEFFS.json", "-o", "SMALL.bin", "--t-knots", "8", "--xa-knots", "24"],
         dir.path(),
     );
@@ -135,7 +121,7 @@ fn tables_a_firmware_would_refuse_exit_1_after_the_description() {
     // image's structure is fine, so it is described, but a fixed-point firmware refuses its tables.
     let dir = tempfile::tempdir().unwrap();
     coeffs(dir.path(), Some("GD-REF-00731"));
-    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
+    assert_eq!(code(&logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
     let mut b = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
     let inv_slope = 268 + layout::fixed::HEAD_LEN + 4 * 18;
     b[inv_slope..inv_slope + 4].copy_from_slice(&0i32.to_le_bytes());
@@ -143,7 +129,7 @@ fn tables_a_firmware_would_refuse_exit_1_after_the_description() {
     let crc = logtrim::record::crc32(&b[..n]);
     b[n..].copy_from_slice(&crc.to_le_bytes());
     std::fs::write(dir.path().join("zero.bin"), &b).unwrap();
-    let o = logtrim(&["inspect", "zero.bin"], dir.path());
+    let o = logtrim_in(&["inspect", "zero.bin"], dir.path());
     assert_eq!(code(&o), 1, "{}", stderr(&o));
     assert!(stdout(&o).contains("fixed-point tables: REFUSED"), "{}", stdout(&o));
     assert!(
@@ -159,7 +145,7 @@ fn intel_hex_image_at_a_base_address() {
     let cal = coeffs(dir.path(), Some("GD-REF-00731"));
     let args =
         ["image", "COEFFS.json", "-o", "UNIT.hex", "--base-address", "0x0801_FF80", "--record-len", "32"];
-    let o = logtrim(&args, dir.path());
+    let o = logtrim_in(&args, dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     let text = std::fs::read_to_string(dir.path().join("UNIT.hex")).unwrap();
     let lines: Vec<&str> = text.lines().collect();
@@ -170,13 +156,13 @@ fn intel_hex_image_at_a_base_address() {
     assert_eq!(back.base, 0x0801_FF80);
     assert_eq!(Image::parse(&back.bytes).unwrap().calibration(), cal);
 
-    let o = logtrim(&["inspect", "UNIT.hex"], dir.path());
+    let o = logtrim_in(&["inspect", "UNIT.hex"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     let len = back.bytes.len();
     assert!(stdout(&o).contains(&format!("Intel HEX, {len} bytes at 0x0801ff80")), "{}", stdout(&o));
 
     // --format overrides the extension.
-    let o = logtrim(&["image", "COEFFS.json", "-o", "unit.img", "--format", "hex"], dir.path());
+    let o = logtrim_in(&["image", "COEFFS.json", "-o", "unit.img", "--format", "hex"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     assert!(std::fs::read_to_string(dir.path().join("unit.img")).unwrap().starts_with(':'));
 }
@@ -185,8 +171,8 @@ fn intel_hex_image_at_a_base_address() {
 fn bad_images_exit_1_with_the_specific_error() {
     let dir = tempfile::tempdir().unwrap();
     coeffs(dir.path(), Some("GD-REF-00731"));
-    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
-    assert_eq!(code(&logtrim(&["image", "COEFFS.json", "-o", "UNIT.hex"], dir.path())), 0);
+    assert_eq!(code(&logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
+    assert_eq!(code(&logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.hex"], dir.path())), 0);
     let good = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
     let n = good.len();
     let (needed, declares) = (
@@ -227,7 +213,7 @@ fn bad_images_exit_1_with_the_specific_error() {
     ];
     for (name, bytes, want) in cases {
         std::fs::write(dir.path().join(name), bytes).unwrap();
-        let o = logtrim(&["inspect", name], dir.path());
+        let o = logtrim_in(&["inspect", name], dir.path());
         assert_eq!(code(&o), 1, "{name}: {}", stderr(&o));
         assert!(stderr(&o).contains(want), "{name}: {}", stderr(&o));
         assert!(stdout(&o).is_empty(), "{name}: a bad image must not be printed as if valid");
@@ -240,7 +226,7 @@ fn bad_images_exit_1_with_the_specific_error() {
     let flipped = if &third[9..11] == "00" { "01" } else { "00" };
     third.replace_range(9..11, flipped);
     std::fs::write(dir.path().join("bad.hex"), lines.join("\n") + "\n").unwrap();
-    let o = logtrim(&["inspect", "bad.hex"], dir.path());
+    let o = logtrim_in(&["inspect", "bad.hex"], dir.path());
     assert_eq!(code(&o), 1);
     assert!(stderr(&o).contains("line 3: record checksum"), "{}", stderr(&o));
 }
@@ -264,14 +250,14 @@ fn bad_input_exits_2_and_writes_nothing() {
         (&["inspect", "MISSING.bin"], "MISSING.bin"),
     ];
     for (args, want) in cases {
-        let o = logtrim(args, dir.path());
+        let o = logtrim_in(args, dir.path());
         assert_eq!(code(&o), 2, "{args:?}: {}", stderr(&o));
         assert!(stderr(&o).contains(want), "{args:?}: {}", stderr(&o));
     }
     // A calibration file that does not validate.
     let text = std::fs::read_to_string(dir.path().join("COEFFS.json")).unwrap();
     std::fs::write(dir.path().join("BAD.json"), text.replace("\"bits\": 16", "\"bits\": 30")).unwrap();
-    let o = logtrim(&["image", "BAD.json", "-o", "a.bin"], dir.path());
+    let o = logtrim_in(&["image", "BAD.json", "-o", "a.bin"], dir.path());
     assert_eq!(code(&o), 2, "{}", stderr(&o));
     // Nothing was written, not even a temporary file.
     let names: Vec<String> = std::fs::read_dir(dir.path())
@@ -282,7 +268,7 @@ fn bad_input_exits_2_and_writes_nothing() {
     names.sort();
     assert_eq!(names, ["BAD.json", "COEFFS.json"]);
     // Without any serial the image is still built, with a warning.
-    let o = logtrim(&["image", "COEFFS.json", "-o", "a.bin"], dir.path());
+    let o = logtrim_in(&["image", "COEFFS.json", "-o", "a.bin"], dir.path());
     assert_eq!(code(&o), 0);
     assert!(stderr(&o).contains("warning: no serial"), "{}", stderr(&o));
 }

@@ -1,81 +1,52 @@
 //! `logtrim plot` and `logtrim budget` end to end: files written, exit codes, errors on bad input.
 
+mod common;
+
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
+use common::{logtrim, scratch};
 use logtrim_host::calfile::CalFile;
-use logtrim_host::fit::{self, FitData, FitOptions};
-use logtrim_host::frontend::{preset, MeasuredTemperature};
+use logtrim_host::demo::fit_data;
+use logtrim_host::fit::{self, FitOptions};
+use logtrim_host::frontend::preset;
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
 
 /// A simulated unit's files and its calibration, fitted with a fixed model (quick).
 fn unit_files(dir: &Path) -> PathBuf {
     let fe = preset("photometer-compensated").unwrap();
-    let plan = Plan {
-        seed: 11,
-        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 },
-        validation_count: 400,
-        units: 1,
-    };
+    let chamber = ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 };
+    let plan = Plan { seed: 11, chamber, validation_count: 400, ..Plan::default() };
     let sim = simulate::simulate(&fe, &plan).unwrap();
     sim.write_to(dir).unwrap();
-    let mut d = FitData::default();
-    for r in &sim.chamber {
-        let MeasuredTemperature::Celsius(t) = r.temperature else { panic!("the preset reads °C") };
-        d.code.push(r.code);
-        d.temp_c.push(t);
-        d.ratio.push(r.ratio);
-    }
-    let spec = fit::model::Spec {
-        offset_terms: 3,
-        slope_terms: 2,
-        bulk_terms: 1,
-        pole: true,
-        bias: true,
-        residual_x: 0,
-        residual_t: 0,
-    };
+    let d = fit_data(&sim.chamber, 0).unwrap();
+    let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();
     let out = fit::fit(&d, &FitOptions { spec: Some(spec), ..FitOptions::default() }).unwrap();
     let coeffs = dir.join("COEFFS.json");
     CalFile::new(out.calibration, Some("PH-0042".into())).save(&coeffs).unwrap();
     coeffs
 }
 
-#[test]
-fn plot_writes_three_well_formed_charts() {
-    let d = scratch("plot");
+/// A scratch folder with a unit's files and calibration, and the folder for its charts.
+fn plot_scratch(name: &str) -> (PathBuf, PathBuf, PathBuf) {
+    let d = scratch(name);
     let coeffs = unit_files(&d);
     let out = d.join("charts");
+    (d, coeffs, out)
+}
+
+#[test]
+fn plot_writes_three_well_formed_charts() {
+    let (d, coeffs, out) = plot_scratch("plot");
     let s = |p: &Path| p.to_str().unwrap().to_string();
-    let (code, stdout, stderr) = logtrim(&[
-        "plot",
-        &s(&coeffs),
-        &s(&d.join("cal.csv")),
-        "--validation",
-        &s(&d.join("readings.csv")),
-        "--truth",
-        &s(&d.join("truth.csv")),
-        "-o",
-        &s(&out),
-        "--map-cells",
-        "32x10",
-    ]);
+    // plot with a validation run whose truth file is `truth`, into `out`, with `extra` options.
+    let plot = |truth: &str, out: &Path, extra: &[&str]| {
+        let (cal, readings, truth) = (s(&d.join("cal.csv")), s(&d.join("readings.csv")), s(&d.join(truth)));
+        let (coeffs, out) = (s(&coeffs), s(out));
+        let mut args = vec!["plot", &coeffs, &cal, "--validation", &readings, "--truth", &truth, "-o", &out];
+        args.extend_from_slice(extra);
+        logtrim(&args)
+    };
+    let (code, stdout, stderr) = plot("truth.csv", &out, &["--map-cells", "32x10"]);
     assert_eq!(code, 0, "{stdout}{stderr}");
     for name in ["PH-0042-error-vs-x.svg", "PH-0042-error-vs-temperature.svg", "PH-0042-f32-error-map.svg"] {
         let svg = std::fs::read_to_string(out.join(name)).unwrap_or_else(|e| panic!("{name}: {e}"));
@@ -89,17 +60,7 @@ fn plot_writes_three_well_formed_charts() {
     let short: String = truth.lines().take(10).map(|l| format!("{l}\n")).collect();
     std::fs::write(d.join("short.csv"), short).unwrap();
     let out2 = d.join("charts2");
-    let (code, _, stderr) = logtrim(&[
-        "plot",
-        &s(&coeffs),
-        &s(&d.join("cal.csv")),
-        "--validation",
-        &s(&d.join("readings.csv")),
-        "--truth",
-        &s(&d.join("short.csv")),
-        "-o",
-        &s(&out2),
-    ]);
+    let (code, _, stderr) = plot("short.csv", &out2, &[]);
     assert_eq!(code, 2, "{stderr}");
     assert!(stderr.contains("reading id 10 has no row in") && stderr.contains("short.csv"), "{stderr}");
     assert!(!out2.exists(), "no half-written output");
@@ -113,9 +74,7 @@ fn plot_writes_three_well_formed_charts() {
 
 #[test]
 fn plot_draws_the_fixed_point_error_map_on_request() {
-    let d = scratch("plot-fixed");
-    let coeffs = unit_files(&d);
-    let out = d.join("charts");
+    let (d, coeffs, out) = plot_scratch("plot-fixed");
     let s = |p: &Path| p.to_str().unwrap().to_string();
     let base = ["plot".to_string(), s(&coeffs), s(&d.join("cal.csv")), "-o".into(), s(&out)];
     let args = |extra: &[&str]| -> Vec<String> {
@@ -195,5 +154,43 @@ fn budget_json_adds_up_and_bad_files_are_located() {
         stderr.contains("temperature.max_c = 20: expected a temperature above temperature.min_c"),
         "{stderr}"
     );
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
+fn budget_takes_the_design_that_simulate_reads() {
+    let d = scratch("budget-design");
+    let fe = d.join("fe.json");
+    let (code, _, stderr) =
+        logtrim(&["simulate", "--preset", "photometer-compensated", "--write-preset", fe.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stderr}");
+    let (code, from_file, stderr) = logtrim(&["budget", "--design", fe.to_str().unwrap(), "--json"]);
+    assert_eq!(code, 0, "{stderr}");
+    let (code, from_preset, _) = logtrim(&["budget", "--preset", "photometer-compensated", "--json"]);
+    assert_eq!(code, 0);
+    assert_eq!(from_file, from_preset, "the file written from a preset is that preset's design");
+    // The figures are the design's: its converter, its operating range, its slope at 25 °C.
+    let v: serde_json::Value = serde_json::from_str(&from_file).unwrap();
+    let design: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&fe).unwrap()).unwrap();
+    assert_eq!(v["spec"]["adc"]["bits"], design["adc"]["bits"]);
+    assert_eq!(v["spec"]["adc"]["vref_v"], design["adc"]["vref_v"]);
+    assert_eq!(v["spec"]["front_end"]["ratio_min"], design["operating"]["ratio_min"]);
+    assert_eq!(v["spec"]["temperature"]["max_c"], design["operating"]["temp_max_c"]);
+    let slope = v["spec"]["front_end"]["slope_v_per_decade"].as_f64().unwrap();
+    // n·(kT/q)·G·ln 10 at 25 °C: 59.16 mV/decade × n × G (kT/q at 298.15 K, common practice).
+    let (n, g) =
+        (design["pair"]["ideality"].as_f64().unwrap(), design["output_stage"]["gain_25c"].as_f64().unwrap());
+    assert!((slope - 0.05916 * n * g).abs() < 1e-4 * slope, "{slope}");
+    // Options still override, and the level shift can be declared ratiometric.
+    let (code, table, _) =
+        logtrim(&["budget", "--design", fe.to_str().unwrap(), "--bits", "12", "--ratiometric-level-shift"]);
+    assert_eq!(code, 0);
+    assert!(table.contains("12-bit ADC") && table.contains("the level shift is ratiometric"), "{table}");
+    // A figures file and a design are two descriptions of one design: one at a time.
+    let (code, _, stderr) = logtrim(&["budget", fe.to_str().unwrap(), "--design", fe.to_str().unwrap()]);
+    assert_eq!(code, 2, "{stderr}");
+    let (code, _, stderr) = logtrim(&["budget", "--preset", "no-such-front-end"]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("no such preset"), "{stderr}");
     std::fs::remove_dir_all(&d).unwrap();
 }

@@ -5,22 +5,15 @@
 //! and hold the corrected x against the truth: rms within 1.5× the oracle's, on the readings both give a
 //! value for.
 
+mod common;
+
 use std::collections::HashMap;
 use std::path::Path;
-use std::process::Command;
 
+use common::{logtrim, logtrim_words, NTC_CHANNEL};
 use logtrim_host::frontend::FrontEnd;
 
 const RMS_BOUND: f64 = 1.5;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
 
 /// A CSV file as a header and rows of fields (the files here have no quoted fields).
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
@@ -39,50 +32,16 @@ fn run(seed: u64) {
     let d = dir.path();
     let p = |name: &str| d.join(name).to_str().unwrap().to_string();
     let sim = p("sim");
-    let seed_s = seed.to_string();
-    let (code, out, err) = logtrim(&[
-        "simulate",
-        "--preset",
-        "photometer-ntc",
-        "--seed",
-        &seed_s,
-        "--validation",
-        "3000",
-        "--out-dir",
-        &sim,
-    ]);
+    let line = format!("simulate --preset photometer-ntc --seed {seed} --validation 3000 --out-dir");
+    let (code, out, err) = logtrim_words(&line, &[&sim]);
     assert_eq!(code, 0, "{out}{err}");
     let cal = d.join("sim/cal.csv");
     assert!(std::fs::read_to_string(&cal).unwrap().starts_with("code,temp_code,ratio\n"));
 
     // The settings from the channel's data-sheet values (the preset's invented ones).
     let sensor = p("sensor.json");
-    let (code, out, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--beta",
-        "3900",
-        "--r0",
-        "10k",
-        "--t0",
-        "25",
-        "--series",
-        "10k",
-        "--placement",
-        "low",
-        "--bits",
-        "12",
-        "--open-margin",
-        "8",
-        "--short-margin",
-        "8",
-        "--min",
-        "-40",
-        "--max",
-        "125",
-        "-o",
-        &sensor,
-    ]);
+    let line = format!("sensor settings --beta 3900 --r0 10k --t0 25 {NTC_CHANNEL} -o");
+    let (code, out, err) = logtrim_words(&line, &[&sensor]);
     assert_eq!(code, 0, "{out}{err}");
     // They are the description the simulated unit's firmware is given.
     let fe = FrontEnd::load(&d.join("sim/frontend.json")).unwrap();

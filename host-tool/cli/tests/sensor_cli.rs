@@ -1,32 +1,12 @@
 //! `logtrim sensor` end to end: coefficients from data-sheet points, tables, settings files, and the exit
 //! codes and messages of bad input (nothing written when refused).
 
-use std::path::PathBuf;
-use std::process::Command;
+mod common;
 
+use common::{logtrim, logtrim_words, scratch, NTC_CHANNEL};
 use logtrim::sensor::{SensorElement, TemperatureSensor};
 use logtrim::Placement;
-
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-sensor-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
-
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
+use logtrim_checks::within;
 
 /// The value after `name = ` on a line of the output.
 fn printed(out: &str, name: &str) -> f64 {
@@ -75,22 +55,8 @@ fn steinhart_hart_and_beta_from_data_sheet_points() {
 fn rtd_table_to_a_csv_file_at_the_iec_60751_points() {
     let d = scratch("table");
     let f = d.join("pt100.csv");
-    let (code, out, err) = logtrim(&[
-        "sensor",
-        "table",
-        "--rtd",
-        "pt100",
-        "--from",
-        "-200",
-        "--to",
-        "850",
-        "--step",
-        "50",
-        "--format",
-        "csv",
-        "-o",
-        f.to_str().unwrap(),
-    ]);
+    let line = "sensor table --rtd pt100 --from -200 --to 850 --step 50 --format csv -o";
+    let (code, out, err) = logtrim_words(line, &[f.to_str().unwrap()]);
     assert_eq!(code, 0, "{err}");
     assert!(out.contains("22 rows"), "{out}");
     let text = std::fs::read_to_string(&f).unwrap();
@@ -122,30 +88,8 @@ fn rtd_table_to_a_csv_file_at_the_iec_60751_points() {
 fn settings_file_round_trips_and_drives_a_table() {
     let d = scratch("settings");
     let f = d.join("sensor.json");
-    let (code, out, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--point",
-        "25:10k",
-        "--point",
-        "85:1.07k",
-        "--series",
-        "10k",
-        "--placement",
-        "low",
-        "--bits",
-        "12",
-        "--open-margin",
-        "8",
-        "--short-margin",
-        "8",
-        "--min",
-        "-40",
-        "--max",
-        "125",
-        "-o",
-        f.to_str().unwrap(),
-    ]);
+    let line = format!("sensor settings --point 25:10k --point 85:1.07k {NTC_CHANNEL} -o");
+    let (code, out, err) = logtrim_words(&line, &[f.to_str().unwrap()]);
     assert_eq!(code, 0, "{err}");
     assert!(out.contains("K per code"), "{out}");
     let s: TemperatureSensor = serde_json::from_str(&std::fs::read_to_string(&f).unwrap()).unwrap();
@@ -214,71 +158,19 @@ fn bad_input_exits_2_naming_the_option_and_writes_nothing() {
         }
         assert!(!f.exists(), "{args:?} wrote a file");
     }
-    let (code, _, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--beta",
-        "3900",
-        "--r0",
-        "10k",
-        "--series",
-        "-10k",
-        "--placement",
-        "low",
-        "--bits",
-        "12",
-        "--min",
-        "-40",
-        "--max",
-        "125",
-        "-o",
-        out,
-    ]);
+    let settings = "sensor settings --placement low --bits 12";
+    let line = format!("{settings} --beta 3900 --r0 10k --series -10k --min -40 --max 125 -o");
+    let (code, _, err) = logtrim_words(&line, &[out]);
     assert_eq!(code, 2);
     assert!(err.contains("--series -10000") && err.contains("not positive"), "{err}");
-    let (code, _, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--rtd",
-        "pt1000",
-        "--series",
-        "1k",
-        "--placement",
-        "high",
-        "--bits",
-        "12",
-        "--min",
-        "-250",
-        "--max",
-        "100",
-        "-o",
-        out,
-    ]);
+    let line = "sensor settings --rtd pt1000 --series 1k --placement high --bits 12 --min -250 --max 100 -o";
+    let (code, _, err) = logtrim_words(line, &[out]);
     assert_eq!(code, 2);
     assert!(err.contains("--min -250") && err.contains("−200 °C"), "{err}");
     // An end of the range inside a fault band.
-    let (code, _, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--beta",
-        "3900",
-        "--r0",
-        "10k",
-        "--series",
-        "10k",
-        "--placement",
-        "low",
-        "--bits",
-        "12",
-        "--open-margin",
-        "64",
-        "--min",
-        "-80",
-        "--max",
-        "125",
-        "-o",
-        out,
-    ]);
+    let line =
+        format!("{settings} --beta 3900 --r0 10k --series 10k --open-margin 64 --min -80 --max 125 -o");
+    let (code, _, err) = logtrim_words(&line, &[out]);
     assert_eq!(code, 2);
     assert!(err.contains("--min -80") && err.contains("open sensor"), "{err}");
     // Malformed values are refused by the option parser, with the option named.

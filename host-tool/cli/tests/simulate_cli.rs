@@ -1,23 +1,9 @@
 //! `logtrim simulate` end to end: files, exit codes, and the `--write-preset` round trip.
 
-use std::path::{Path, PathBuf};
-use std::process::Command;
+mod common;
 
-fn logtrim(args: &[&str]) -> (i32, String, String) {
-    let out = Command::new(env!("CARGO_BIN_EXE_logtrim")).args(args).output().expect("the binary runs");
-    (
-        out.status.code().unwrap_or(-1),
-        String::from_utf8_lossy(&out.stdout).into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    )
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("logtrim-cli-{name}-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
-}
+use common::{logtrim, scratch};
+use std::path::Path;
 
 const SMALL: &[&str] = &["--setpoints", "5", "--ratios", "9", "--repeats", "1", "--validation", "200"];
 

@@ -1,4 +1,6 @@
 use super::*;
+use logtrim_checks::within;
+
 use crate::frontend::{preset, FrontEnd};
 
 /// An ideal front end in the reference model: ideality 1, no offsets, no bias current, no bulk resistance,
@@ -36,10 +38,6 @@ fn spec_of(fe: &FrontEnd) -> BudgetSpec {
     s
 }
 
-fn close(got: f64, want: f64, rel: f64) -> bool {
-    (got - want).abs() <= 1e-15 + rel * want.abs()
-}
-
 const POINTS: [(f64, f64); 5] = [(-6.9, -20.0), (-2.0, 0.0), (0.5, 25.0), (3.0, 60.0), (4.6, 85.0)];
 
 #[test]
@@ -47,7 +45,7 @@ fn the_law_is_the_reference_models_ideal_front_end() {
     let fe = ideal_frontend(2.0);
     let s = spec_of(&fe);
     for (x, t) in POINTS {
-        assert!(close(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-12), "x={x} t={t}");
+        assert!(within(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-15, 1e-12), "x={x} t={t}");
     }
 }
 
@@ -58,7 +56,7 @@ fn dx_dcode_matches_finite_differences_of_the_reference_model() {
     for (x, t) in POINTS {
         let c = fe.code_exact(x, t);
         let fd = (fe.invert_code(c + 1.0, t).unwrap() - fe.invert_code(c - 1.0, t).unwrap()) / 2.0;
-        assert!(close(s.dx_dcode(t), fd, 1e-8), "x={x} t={t}: {} vs {fd}", s.dx_dcode(t));
+        assert!(within(s.dx_dcode(t), fd, 1e-15, 1e-8), "x={x} t={t}: {} vs {fd}", s.dx_dcode(t));
     }
 }
 
@@ -70,9 +68,9 @@ fn dx_dt_matches_finite_differences_of_the_reference_model() {
     for (x, t) in POINTS {
         let c = fe.code_exact(x, t);
         let fd = (fe.invert_code(c, t + h).unwrap() - fe.invert_code(c, t - h).unwrap()) / (2.0 * h);
-        assert!(close(s.dx_dt(x, t), fd, 1e-6), "x={x} t={t}: {} vs {fd}", s.dx_dt(x, t));
+        assert!(within(s.dx_dt(x, t), fd, 1e-15, 1e-6), "x={x} t={t}: {} vs {fd}", s.dx_dt(x, t));
         // Common practice: an uncompensated slope drifts +1/T, so ∂x/∂T = −x/T_K.
-        assert!(close(fd, -x / (t + 273.15), 1e-6));
+        assert!(within(fd, -x / (t + 273.15), 1e-15, 1e-6));
     }
 }
 
@@ -94,7 +92,10 @@ fn reference_error_matches_the_reference_model_with_a_gain_error() {
             let read = fe.invert_code(off.code_exact(x, t), t).unwrap();
             let want = read - x;
             let got = s.reference_error(x, t, delta);
-            assert!(close(got, want, 1e-7), "ratiometric {ratiometric}, x={x} t={t}: {got} vs {want}");
+            assert!(
+                within(got, want, 1e-15, 1e-7),
+                "ratiometric {ratiometric}, x={x} t={t}: {got} vs {want}"
+            );
         }
     }
 }
@@ -138,17 +139,17 @@ fn rss_and_worst_case_match_hand_computed_values() {
     let want = [7.216_878_364_870_324e-5, 2.5e-5, 5e-5, 4e-3, 4e-4, 2.998_500_749_625_187_7e-3];
     assert_eq!(np.len(), want.len());
     for (k, (g, w)) in np.iter().zip(want).enumerate() {
-        assert!(close(*g, w, 1e-9), "contribution {k} ({}): {g} vs {w}", b.contributions[k].name);
+        assert!(within(*g, w, 1e-15, 1e-9), "contribution {k} ({}): {g} vs {w}", b.contributions[k].name);
     }
     // √(Σ squares) and the linear sum, computed by hand from the figures above.
-    assert!(close(b.rss.np, 5.015_908_699_212_551e-3, 1e-9), "{}", b.rss.np);
-    assert!(close(b.worst_case.np, 7.545_669_533_273_891e-3, 1e-9), "{}", b.worst_case.np);
+    assert!(within(b.rss.np, 5.015_908_699_212_551e-3, 1e-15, 1e-9), "{}", b.rss.np);
+    assert!(within(b.worst_case.np, 7.545_669_533_273_891e-3, 1e-15, 1e-9), "{}", b.worst_case.np);
     // Units: 1 Np = 20/ln 10 dB for amplitude ratios, half that for power (ISO 80000-3).
-    assert!(close(b.rss.db_20log10, b.rss.np * 8.685_889_638, 1e-9));
-    assert!(close(b.rss.db_10log10, b.rss.np * 4.342_944_819, 1e-9));
-    assert!(close(b.rss.pct_of_ratio, 100.0 * (b.rss.np.exp() - 1.0), 1e-12));
+    assert!(within(b.rss.db_20log10, b.rss.np * 8.685_889_638, 1e-15, 1e-9));
+    assert!(within(b.rss.db_10log10, b.rss.np * 4.342_944_819, 1e-15, 1e-9));
+    assert!(within(b.rss.pct_of_ratio, 100.0 * (b.rss.np.exp() - 1.0), 1e-15, 1e-12));
     // The tolerance is removed by calibration, listed at its uncorrected size: 6 × 1e-3/(1 + 1e-3).
-    assert!(close(b.removed_by_calibration[0].size.np, 5.994_005_994_005_995e-3, 1e-9));
+    assert!(within(b.removed_by_calibration[0].size.np, 5.994_005_994_005_995e-3, 1e-15, 1e-9));
 }
 
 #[test]
@@ -157,8 +158,8 @@ fn oversampling_averages_quantisation_only_when_noise_dithers() {
     s.adc.noise_lsb_rms = 0.6;
     let b = s.compute().unwrap();
     // Quantisation LSB/√12 over √9 (dithered), ADC noise 0.6/√9 LSB.
-    assert!(close(b.contributions[0].lsb.unwrap(), 1.0 / 12f64.sqrt() / 3.0, 1e-12));
-    assert!(close(b.contributions[1].lsb.unwrap(), 0.2, 1e-12));
+    assert!(within(b.contributions[0].lsb.unwrap(), 1.0 / 12f64.sqrt() / 3.0, 1e-15, 1e-12));
+    assert!(within(b.contributions[1].lsb.unwrap(), 0.2, 1e-15, 1e-12));
 }
 
 #[test]
@@ -176,4 +177,84 @@ fn bad_figures_are_named() {
     let s = BudgetSpec::from_json("{\"adc\": {\"bits\": 12}}", "d.json").unwrap();
     assert_eq!(s.adc.bits, 12);
     assert_eq!(s.adc.vref_v, AdcSpec::default().vref_v, "missing figures take their defaults");
+}
+
+#[test]
+fn a_design_description_gives_the_budget_its_figures() {
+    // The ideal front end's figures are those of its law, as `spec_of` writes them out by hand.
+    let fe = ideal_frontend(2.0);
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = spec_of(&fe);
+    assert_eq!((s.adc.bits, s.adc.vref_v), (want.adc.bits, want.adc.vref_v));
+    assert_eq!(
+        s.front_end,
+        FrontEndSpec {
+            ratio_min: fe.operating.ratio_min,
+            ratio_max: fe.operating.ratio_max,
+            ..want.front_end
+        }
+    );
+    assert_eq!((s.temperature.min_c, s.temperature.max_c), (want.temperature.min_c, want.temperature.max_c));
+    assert_eq!((s.adc.noise_lsb_rms, s.reference.tolerance), (fe.adc.noise_codes_rms, 0.0));
+    assert!(!s.reference.ratiometric_level_shift);
+    // So its law is the reference model's, as for `spec_of`.
+    for (x, t) in POINTS {
+        assert!(within(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-15, 1e-12), "x={x} t={t}");
+    }
+}
+
+#[test]
+fn a_compensated_designs_slope_drift_is_the_models_at_25_c() {
+    let fe = preset("photometer-compensated").expect("preset");
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    // d ln S/dT at 25 °C by a central difference of the reference model's ideal slope n·(kT/q)·G(T).
+    let h = 1e-3;
+    let slope = |t: f64| fe.ideal_slope_v_per_neper(t);
+    let want = (slope(25.0 + h) - slope(25.0 - h)) / (2.0 * h) / slope(25.0) * 1e6;
+    let got = s.front_end.slope_drift_ppm_per_k.expect("a compensated design has its own drift");
+    assert!(within(got, want, 1e-6, 1e-8), "{got} vs {want} ppm/K");
+    // A compensating resistor near +3400 ppm/K leaves a few hundred ppm/K (common practice).
+    assert!(got > 0.0 && got < 1000.0, "{got}");
+    // The slope and the level shift at 25 °C are the model's; the converter's gain error ε is a reference off
+    // by 1/(1 + ε) − 1.
+    assert!(within(s.front_end.slope_v_per_decade, LN10 * slope(25.0), 0.0, 1e-15));
+    assert!(within(s.front_end.zero_v, fe.output_voltage(0.0, 25.0), 0.0, 1e-15));
+    assert!(within(s.reference.tolerance, (1.0 / (1.0 + fe.adc.gain_error) - 1.0).abs(), 0.0, 1e-12));
+    assert!(s.compute().is_ok());
+}
+
+#[test]
+fn a_designs_temperature_noise_comes_from_its_sensor() {
+    use crate::frontend::TemperatureMeasurement;
+    // A digital sensor: its noise and its resolution's quantisation (r/√12, common practice) add in quadrature.
+    let fe = preset("photometer-compensated").expect("preset");
+    let TemperatureMeasurement::Digital { noise_k_rms, resolution_k, .. } = fe.temperature_sensor else {
+        panic!("a digital sensor")
+    };
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = (noise_k_rms.powi(2) + resolution_k.powi(2) / 12.0).sqrt();
+    assert!(within(s.temperature.sensor_noise_k_rms, want, 0.0, 1e-12));
+    // A raw channel: noise and quantisation in codes at its coarsest resolution over the operating range,
+    // found here from the firmware's own f64 conversion of neighbouring codes.
+    let fe = preset("photometer-ntc").expect("preset");
+    let TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor else {
+        panic!("a raw channel")
+    };
+    let code = |t: f64| sensor.code_f64(t).unwrap().round() as u32;
+    let (a, b) = (code(fe.operating.temp_min_c), code(fe.operating.temp_max_c));
+    let coarsest = (a.min(b)..a.max(b))
+        .map(|c| (sensor.celsius_f64(c + 1).unwrap() - sensor.celsius_f64(c).unwrap()).abs())
+        .fold(0.0, f64::max);
+    let s = BudgetSpec::from_design(&fe).unwrap();
+    let want = (noise_codes_rms.powi(2) + 1.0 / 12.0).sqrt() * coarsest;
+    assert!(
+        within(s.temperature.sensor_noise_k_rms, want, 0.0, 0.02),
+        "{} vs {want}",
+        s.temperature.sensor_noise_k_rms
+    );
+    // A design that does not validate is refused, named.
+    let mut bad = fe.clone();
+    bad.adc.vref_v = -1.0;
+    let e = BudgetSpec::from_design(&bad).unwrap_err().to_string();
+    assert!(e.contains("adc.vref_v"), "{e}");
 }

@@ -9,7 +9,7 @@ fn readings(text: &str) -> Result<Readings, DataError> {
 }
 
 /// The value error inside, or a panic naming what came instead.
-fn value_err(r: Result<CalData, DataError>) -> ValueError {
+fn value_err(r: Result<CalData, DataError>) -> RowError {
     match r {
         Err(DataError::Value(e)) => *e,
         other => panic!("expected a value error, got {other:?}"),
@@ -235,7 +235,11 @@ fn error_unusable_adc_bits() {
 fn error_missing_file() {
     let e =
         read_calibration_file(Path::new("/nonexistent/dir/cal.csv"), &ReadOptions::default()).unwrap_err();
-    assert!(matches!(e, DataError::Io { .. }) && e.to_string().contains("/nonexistent/dir/cal.csv"), "{e}");
+    assert!(
+        matches!(e, DataError::File(crate::file_error::FileError::Io { .. }))
+            && e.to_string().contains("/nonexistent/dir/cal.csv"),
+        "{e}"
+    );
 }
 
 #[test]

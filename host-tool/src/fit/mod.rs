@@ -504,7 +504,7 @@ fn noise_floor(data: &FitData, groups: &[Vec<usize>], cal: &Calibration) -> Opti
 /// Renders the fit report for the terminal.
 pub fn render_report(out: &FitOutcome) -> String {
     use std::fmt::Write;
-    let db = 10.0 / std::f64::consts::LN_10;
+    let db = crate::error_scale::db_power;
     let mut s = String::new();
     let _ = writeln!(s, "model: {}", out.chosen.describe());
     let _ = writeln!(s, "set-point      rows  refused   rms [Np]    max [Np]    rms [dB]    max [dB]");
@@ -517,12 +517,12 @@ pub fn render_report(out: &FitOutcome) -> String {
             p.refused,
             p.rms_np,
             p.max_np,
-            p.rms_np * db,
-            p.max_np * db
+            db(p.rms_np),
+            db(p.max_np)
         );
     }
     if let Some(f) = out.noise_floor_np {
-        let _ = writeln!(s, "noise floor (scatter of repeats): {:.3e} Np = {:.3e} dB", f, f * db);
+        let _ = writeln!(s, "noise floor (scatter of repeats): {:.3e} Np = {:.3e} dB", f, db(f));
     }
     if !out.cv.is_empty() {
         let _ = writeln!(s, "cross-validation (leave one interior set-point out), error in x:");

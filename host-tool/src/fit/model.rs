@@ -51,34 +51,32 @@ impl Spec {
     }
     /// A short text such as `offset 3, slope 2, bulk 1, pole, bias`.
     pub fn describe(&self) -> String {
-        let mut s =
-            format!("offset {}, slope {}, bulk {}", self.offset_terms, self.slope_terms, self.bulk_terms);
-        if self.pole {
-            s.push_str(", pole");
-        }
-        if self.bias {
-            s.push_str(", bias");
-        }
-        if self.has_residual() {
-            s.push_str(&format!(", residual {}x{}", self.residual_x, self.residual_t));
-        }
-        s
+        self.terms(" ").join(", ")
     }
 
-    /// The size in the form [`Spec::parse`] reads (for `--model`).
+    /// The size in the form [`Spec::parse`] reads (for `--model`), such as
+    /// `offset=3,slope=2,bulk=1,pole,bias`.
     pub fn to_arg(&self) -> String {
-        let mut s =
-            format!("offset={},slope={},bulk={}", self.offset_terms, self.slope_terms, self.bulk_terms);
+        self.terms("=").join(",")
+    }
+
+    /// Each term of the size, a count written after `is`.
+    fn terms(&self, is: &str) -> Vec<String> {
+        let mut t = vec![
+            format!("offset{is}{}", self.offset_terms),
+            format!("slope{is}{}", self.slope_terms),
+            format!("bulk{is}{}", self.bulk_terms),
+        ];
         if self.pole {
-            s.push_str(",pole");
+            t.push("pole".into());
         }
         if self.bias {
-            s.push_str(",bias");
+            t.push("bias".into());
         }
         if self.has_residual() {
-            s.push_str(&format!(",residual={}x{}", self.residual_x, self.residual_t));
+            t.push(format!("residual{is}{}x{}", self.residual_x, self.residual_t));
         }
-        s
+        t
     }
 
     /// Parses a size such as `offset=3,slope=2,bulk=1,pole,bias,residual=3x2` (terms not named are off;
@@ -500,16 +498,20 @@ mod tests {
         p
     }
 
-    #[test]
-    fn prediction_matches_the_firmware_forward_model() {
-        let norm = Norm {
+    fn norm() -> Norm {
+        Norm {
             level: 30000.0,
             t_center_c: 32.5,
             t_half_span_k: 52.5,
             t_ref_k: 305.65,
             x_center: -1.0,
             x_half_span: 5.5,
-        };
+        }
+    }
+
+    #[test]
+    fn prediction_matches_the_firmware_forward_model() {
+        let norm = norm();
         let p = params();
         let cal = to_calibration(&p, &norm, &Envelope::open(16));
         for (x, t) in [(-6.0, -20.0), (0.0, 25.0), (4.0, 85.0), (-3.0, 60.0)] {
@@ -541,14 +543,7 @@ mod tests {
 
     #[test]
     fn gradient_matches_finite_differences() {
-        let norm = Norm {
-            level: 30000.0,
-            t_center_c: 32.5,
-            t_half_span_k: 52.5,
-            t_ref_k: 305.65,
-            x_center: -1.0,
-            x_half_span: 5.5,
-        };
+        let norm = norm();
         let p = params();
         let row = Prep::new(&norm, 31000.0, 70.0, -5.0, 2.0);
         let mut g = Vec::new();

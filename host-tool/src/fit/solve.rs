@@ -210,14 +210,8 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
 pub fn refine(start: &Params, rows: &[Prep]) -> (Params, f64) {
     let s0 = sse(start, rows);
     let problem = Problem { rows, params: start.clone() };
-    let (done, report) = LevenbergMarquardt::new().with_patience(60).minimize(problem);
+    let (done, _report) = LevenbergMarquardt::new().with_patience(60).minimize(problem);
     let s1 = sse(&done.params, rows);
-    if std::env::var_os("LOGTRIM_DEBUG_FIT").is_some() {
-        eprintln!(
-            "LM {:?} evals {} sse {s0:.4e} -> {s1:.4e}",
-            report.termination, report.number_of_evaluations
-        );
-    }
     if s1.is_finite() && s1 <= s0 {
         (done.params, s1)
     } else {

@@ -25,9 +25,9 @@
 //! (the noise gain of a non-inverting stage) as the input stage's. The code is monotone increasing in x: both
 //! `ln(I_1)` and `r·I_1` increase with `I_sig`.
 //!
-//! The temperature channel ([`TemperatureChannel`]) turns the unit's true temperature into what the
-//! firmware reads; during a chamber run the unit's temperature jitters around the set-point
-//! ([`OperatingRange::setpoint_jitter_k_rms`]).
+//! The temperature measurement ([`TemperatureMeasurement`]: a digital sensor, or a raw channel) turns the
+//! unit's true temperature into what the firmware reads; during a chamber run the unit's temperature
+//! jitters around the set-point ([`OperatingRange::setpoint_jitter_k_rms`]).
 //!
 //! # The oracle
 //!
@@ -39,6 +39,24 @@
 //! temperature by safeguarded Newton iteration in a bracket. What it cannot undo is the noise: the log
 //! channel's, the digital sensor's noise and resolution, a raw channel's ADC noise and quantisation. Its
 //! error against the truth is the irreducible error that any calibration is measured against.
+//!
+//! # The description of a design
+//!
+//! [`FrontEnd`] is the one description of a design, as JSON (`FrontEnd::load`, `FrontEnd::to_json`; every
+//! field is documented on its type, and unknown fields are refused). `simulate` runs it, `demo` runs its
+//! presets, and `budget` takes its figures from it ([`crate::budget::BudgetSpec::from_design`]).
+//!
+//! | key | type | what it describes |
+//! |---|---|---|
+//! | `name`, `description` | [`FrontEnd`] | a short name and free text |
+//! | `pair` | [`PairModel`] | the matched transistor pair: ideality, I_ref, mismatch, bulk resistance |
+//! | `amplifiers` | [`AmplifierModel`] | the op-amps' offsets, their drifts and the input bias currents |
+//! | `output_stage` | [`OutputStage`] | gain, the compensating resistor's tempco, level shift |
+//! | `adc` | [`AdcModel`] | the log channel's converter: bits, reference, gain error, offset, noise |
+//! | `temperature_sensor` | [`TemperatureMeasurement`] | a digital sensor, or a raw channel (`kind`: `digital`, `raw`) |
+//! | `operating` | [`OperatingRange`] | temperature and ratio ranges, the chamber's set-point jitter |
+//! | `spread` (optional) | [`UnitSpread`] | unit-to-unit spread, for simulated production batches |
+//! | `aging` (optional) | [`Aging`] | drift since calibration, for the field runs (standards, blank) |
 
 mod presets;
 #[cfg(test)]
@@ -81,7 +99,7 @@ pub struct FrontEnd {
     /// The log channel's ADC.
     pub adc: AdcModel,
     /// How the unit's temperature is measured.
-    pub temperature_sensor: TemperatureChannel,
+    pub temperature_sensor: TemperatureMeasurement,
     /// The ranges the unit is specified and calibrated over.
     pub operating: OperatingRange,
     /// Unit-to-unit spread of the parameters, for simulated production batches (none if absent).
@@ -189,7 +207,7 @@ pub struct AdcModel {
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
 #[non_exhaustive]
-pub enum TemperatureChannel {
+pub enum TemperatureMeasurement {
     /// A digital sensor that reports °C: `T_m = 25 + (T − 25)(1 + slope_error) + offset + noise`, rounded to
     /// the resolution.
     Digital {
@@ -316,26 +334,9 @@ pub struct UnitSpread {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum FrontEndError {
-    /// The file could not be read.
-    #[error("{path}: {source}")]
-    Io {
-        /// The file.
-        path: String,
-        /// The I/O error.
-        source: std::io::Error,
-    },
-    /// The file is not valid JSON of this description.
-    #[error("{path}: line {line}, column {column}: {message}")]
-    Json {
-        /// The file.
-        path: String,
-        /// Line of the defect (1-based).
-        line: usize,
-        /// Column of the defect (1-based).
-        column: usize,
-        /// What was wrong.
-        message: String,
-    },
+    /// The file could not be read, or is not well-formed JSON of a front-end description.
+    #[error(transparent)]
+    File(#[from] crate::file_error::FileError),
     /// A parameter is outside what the model can describe.
     #[error("{name}: {field} = {value:?} is not allowed; expected {expected}")]
     Invalid {
@@ -361,30 +362,19 @@ pub enum FrontEndError {
 impl FrontEnd {
     /// Parses a description from JSON text and validates it; `path` only names the source in errors.
     pub fn from_json(text: &str, path: &str) -> Result<FrontEnd, FrontEndError> {
-        let fe: FrontEnd = serde_json::from_str(text).map_err(|e| FrontEndError::Json {
-            path: path.to_string(),
-            line: e.line(),
-            column: e.column(),
-            message: e.to_string(),
-        })?;
+        let fe: FrontEnd = crate::file_error::parse_json(text, path)?;
         fe.validate()?;
         Ok(fe)
     }
 
     /// Reads and validates a description from a JSON file.
     pub fn load(path: &Path) -> Result<FrontEnd, FrontEndError> {
-        let p = path.display().to_string();
-        let text =
-            std::fs::read_to_string(path).map_err(|source| FrontEndError::Io { path: p.clone(), source })?;
-        FrontEnd::from_json(&text, &p)
+        FrontEnd::from_json(&crate::file_error::read_text(path)?, &path.display().to_string())
     }
 
     /// The description as pretty JSON (with a trailing newline).
     pub fn to_json(&self) -> String {
-        // Plain data with string keys and finite numbers: serialising cannot fail.
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_default();
-        s.push('\n');
-        s
+        crate::file_error::to_json_line(self)
     }
 
     /// Checks every parameter against what the model can describe, over the operating range widened by
@@ -460,7 +450,7 @@ impl FrontEnd {
             return bad("adc.noise_codes_rms", d.noise_codes_rms, "a noise ≥ 0 codes rms");
         }
         match self.temperature_sensor {
-            TemperatureChannel::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
+            TemperatureMeasurement::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
                 if !(finite(offset_k) && offset_k.abs() < 50.0) {
                     return bad("temperature_sensor.offset_k", offset_k, "a finite offset below 50 K");
                 }
@@ -474,7 +464,13 @@ impl FrontEnd {
                     return bad("temperature_sensor.resolution_k", resolution_k, "a resolution ≥ 0 K");
                 }
             }
-            TemperatureChannel::Raw { sensor, element_error, series_error, offset_k, noise_codes_rms } => {
+            TemperatureMeasurement::Raw {
+                sensor,
+                element_error,
+                series_error,
+                offset_k,
+                noise_codes_rms,
+            } => {
                 sensor
                     .validate()
                     .map_err(|error| FrontEndError::Sensor { name: self.name.clone(), error })?;
@@ -516,7 +512,7 @@ impl FrontEnd {
         if !(finite(o.setpoint_jitter_k_rms) && o.setpoint_jitter_k_rms >= 0.0) {
             return bad("operating.setpoint_jitter_k_rms", o.setpoint_jitter_k_rms, "a jitter ≥ 0 K rms");
         }
-        if let TemperatureChannel::Raw { sensor, .. } = self.temperature_sensor {
+        if let TemperatureMeasurement::Raw { sensor, .. } = self.temperature_sensor {
             // The firmware must be able to read the unit over its whole operating range …
             if f64::from(sensor.min_c) > o.temp_min_c {
                 return bad(
@@ -725,13 +721,13 @@ impl FrontEnd {
     /// A noisy temperature reading of a unit whose true temperature is `t_c`.
     pub fn measure_temperature<R: Rng + ?Sized>(&self, t_c: f64, rng: &mut R) -> MeasuredTemperature {
         match self.temperature_sensor {
-            TemperatureChannel::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
+            TemperatureMeasurement::Digital { offset_k, slope_error, noise_k_rms, resolution_k } => {
                 let n: f64 = StandardNormal.sample(rng);
                 let t = 25.0 + (t_c - 25.0) * (1.0 + slope_error) + offset_k + noise_k_rms * n;
                 let t = if resolution_k > 0.0 { libm::round(t / resolution_k) * resolution_k } else { t };
                 MeasuredTemperature::Celsius(t)
             }
-            TemperatureChannel::Raw { sensor, noise_codes_rms, .. } => {
+            TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } => {
                 let n: f64 = StandardNormal.sample(rng);
                 let max = sensor.divider.max_code().unwrap_or(0);
                 // A validated front end gives a code over its operating range ± 50 K; beyond the element's
@@ -756,7 +752,7 @@ impl FrontEnd {
     /// A raw channel's divider as the unit is built: the series resistor with its error, and no fault
     /// margins (those are the firmware's policy, not physics). `None` for a digital channel.
     fn raw_divider(&self) -> Option<Divider> {
-        let TemperatureChannel::Raw { sensor, series_error, .. } = self.temperature_sensor else {
+        let TemperatureMeasurement::Raw { sensor, series_error, .. } = self.temperature_sensor else {
             return None;
         };
         let d = sensor.divider;
@@ -768,7 +764,8 @@ impl FrontEnd {
     /// the unit's actual parts. `None` for a digital channel, or where the element's model gives no
     /// resistance.
     pub fn raw_code_exact(&self, t_c: f64) -> Option<f64> {
-        let TemperatureChannel::Raw { sensor, element_error, offset_k, .. } = self.temperature_sensor else {
+        let TemperatureMeasurement::Raw { sensor, element_error, offset_k, .. } = self.temperature_sensor
+        else {
             return None;
         };
         let ohm = sensor.element.resistance_f64(t_c + offset_k).ok()? * (1.0 + element_error);
@@ -779,8 +776,8 @@ impl FrontEnd {
     /// [`TemperatureSensor`]; `None` for a digital sensor, whose readings are already in °C.
     pub fn firmware_sensor(&self) -> Option<TemperatureSensor> {
         match self.temperature_sensor {
-            TemperatureChannel::Raw { sensor, .. } => Some(sensor),
-            TemperatureChannel::Digital { .. } => None,
+            TemperatureMeasurement::Raw { sensor, .. } => Some(sensor),
+            TemperatureMeasurement::Digital { .. } => None,
         }
     }
 
@@ -789,8 +786,8 @@ impl FrontEnd {
     /// with [`logtrim::Error::NotCalibrated`] (no description converts them).
     pub fn firmware_celsius(&self, reading: MeasuredTemperature) -> Result<f64, logtrim::Error> {
         match (self.temperature_sensor, reading) {
-            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Celsius(t)) => Ok(t),
-            (TemperatureChannel::Raw { sensor, .. }, MeasuredTemperature::Code(c)) => {
+            (TemperatureMeasurement::Digital { .. }, MeasuredTemperature::Celsius(t)) => Ok(t),
+            (TemperatureMeasurement::Raw { sensor, .. }, MeasuredTemperature::Code(c)) => {
                 sensor.celsius(c).map(f64::from)
             }
             _ => Err(logtrim::Error::NotCalibrated),
@@ -809,11 +806,12 @@ impl FrontEnd {
     ///   rail (0 or `2^bits − 1`, where the true value lies anywhere beyond) gives `None`.
     pub fn temperature_estimate_c(&self, reading: MeasuredTemperature) -> Option<f64> {
         match (self.temperature_sensor, reading) {
-            (TemperatureChannel::Digital { offset_k, slope_error, .. }, MeasuredTemperature::Celsius(t)) => {
-                Some(25.0 + (t - 25.0 - offset_k) / (1.0 + slope_error))
-            }
             (
-                TemperatureChannel::Raw { sensor, element_error, offset_k, .. },
+                TemperatureMeasurement::Digital { offset_k, slope_error, .. },
+                MeasuredTemperature::Celsius(t),
+            ) => Some(25.0 + (t - 25.0 - offset_k) / (1.0 + slope_error)),
+            (
+                TemperatureMeasurement::Raw { sensor, element_error, offset_k, .. },
                 MeasuredTemperature::Code(c),
             ) => {
                 if c == 0 || c >= sensor.divider.max_code().ok()? {
@@ -822,8 +820,8 @@ impl FrontEnd {
                 let ohm = self.raw_divider()?.resistance_f64(c).ok()? / (1.0 + element_error);
                 Some(sensor.element.celsius_f64(ohm).ok()? - offset_k)
             }
-            (TemperatureChannel::Digital { .. }, MeasuredTemperature::Code(_))
-            | (TemperatureChannel::Raw { .. }, MeasuredTemperature::Celsius(_)) => None,
+            (TemperatureMeasurement::Digital { .. }, MeasuredTemperature::Code(_))
+            | (TemperatureMeasurement::Raw { .. }, MeasuredTemperature::Celsius(_)) => None,
         }
     }
 
@@ -924,8 +922,8 @@ impl FrontEnd {
         u.adc.offset_codes += s.adc_offset_codes * n();
         let so = n();
         match &mut u.temperature_sensor {
-            TemperatureChannel::Digital { offset_k, .. } => *offset_k += s.sensor_offset_k * so,
-            TemperatureChannel::Raw { offset_k, element_error, .. } => {
+            TemperatureMeasurement::Digital { offset_k, .. } => *offset_k += s.sensor_offset_k * so,
+            TemperatureMeasurement::Raw { offset_k, element_error, .. } => {
                 *offset_k += s.sensor_offset_k * so;
                 // Drawn after every other parameter, so that digital units draw exactly as before.
                 *element_error += s.sensor_element_rel * n();

@@ -5,7 +5,7 @@ use logtrim::thermistor::Beta;
 use logtrim::{Divider, Placement};
 
 use super::{
-    AdcModel, AmplifierModel, FrontEnd, OperatingRange, OutputStage, PairModel, TemperatureChannel,
+    AdcModel, AmplifierModel, FrontEnd, OperatingRange, OutputStage, PairModel, TemperatureMeasurement,
     UnitSpread,
 };
 
@@ -96,7 +96,7 @@ fn photometer_compensated() -> FrontEnd {
         },
         output_stage: OutputStage { gain_25c: 8.45, r1_tempco_per_k: 3500e-6, level_shift_v: 1.72 },
         adc: AdcModel { bits: 16, vref_v: 3.3, gain_error: 0.0015, offset_codes: 3.0, noise_codes_rms: 0.7 },
-        temperature_sensor: TemperatureChannel::Digital {
+        temperature_sensor: TemperatureMeasurement::Digital {
             offset_k: 0.15,
             slope_error: 0.002,
             noise_k_rms: 0.03,
@@ -147,7 +147,7 @@ fn gas_uncompensated() -> FrontEnd {
             offset_codes: -4.0,
             noise_codes_rms: 0.7,
         },
-        temperature_sensor: TemperatureChannel::Digital {
+        temperature_sensor: TemperatureMeasurement::Digital {
             offset_k: -0.2,
             slope_error: 0.0,
             noise_k_rms: 0.05,
@@ -193,7 +193,7 @@ fn photometer_ntc() -> FrontEnd {
                       compensated front end with its temperature read raw from a 10 kΩ NTC (β 3900 K) behind a \
                       10 kΩ divider on a 12-bit ADC."
             .into(),
-        temperature_sensor: TemperatureChannel::Raw {
+        temperature_sensor: TemperatureMeasurement::Raw {
             sensor: photometer_ntc_channel(),
             element_error: 0.006,
             series_error: -0.0004,

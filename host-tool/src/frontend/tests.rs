@@ -1,12 +1,9 @@
+use logtrim_checks::within;
+
 use super::*;
 use logtrim::sensor::TemperatureSensor;
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
-
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
 
 /// A front end with every non-ideality off: only n, G and kT/q remain.
 fn ideal(ideality: f64, gain: f64, tempco: f64) -> FrontEnd {
@@ -183,7 +180,7 @@ fn noise_has_the_stated_rms() {
     // 0.7 codes of noise plus rounding (1/12 code²): √(0.49 + 0.0833) = 0.757 codes rms.
     let rms = (ss / f64::from(n)).sqrt();
     assert!(within(rms, (0.49f64 + 1.0 / 12.0).sqrt(), 0.0, 0.06), "{rms}");
-    let TemperatureChannel::Digital { offset_k, noise_k_rms, .. } = fe.temperature_sensor else {
+    let TemperatureMeasurement::Digital { offset_k, noise_k_rms, .. } = fe.temperature_sensor else {
         panic!("gas-uncompensated reads a digital sensor")
     };
     let (mut s, mut ss) = (0.0, 0.0);
@@ -252,10 +249,10 @@ fn oracle_error_on_noise_free_codes_is_within_half_an_lsb() {
             // channel's code is rounded as well: that costs up to half a temperature code, carried into x
             // through ∂x/∂T = −(∂code/∂T)/(∂code/∂x) of the log channel.
             let (m, t_rounding_k) = match fe.temperature_sensor {
-                TemperatureChannel::Digital { offset_k, slope_error, .. } => {
+                TemperatureMeasurement::Digital { offset_k, slope_error, .. } => {
                     (MeasuredTemperature::Celsius(25.0 + (t - 25.0) * (1.0 + slope_error) + offset_k), 0.0)
                 }
-                TemperatureChannel::Raw { .. } => {
+                TemperatureMeasurement::Raw { .. } => {
                     let c = fe.raw_code_exact(t).unwrap();
                     let h = 1e-3;
                     let per_k =
@@ -338,7 +335,7 @@ fn drawn_units_differ_reproducibly_and_stay_valid() {
 }
 
 fn raw_parts(fe: &FrontEnd) -> (TemperatureSensor, f64, f64, f64, f64) {
-    let TemperatureChannel::Raw { sensor, element_error, series_error, offset_k, noise_codes_rms } =
+    let TemperatureMeasurement::Raw { sensor, element_error, series_error, offset_k, noise_codes_rms } =
         fe.temperature_sensor
     else {
         panic!("{} reads a digital sensor", fe.name)
@@ -425,14 +422,14 @@ fn raw_oracle_undoes_the_tolerances_that_the_nominal_reading_keeps() {
 #[test]
 fn raw_channel_descriptions_are_checked() {
     let fe = preset("photometer-ntc").unwrap();
-    let with = |f: &dyn Fn(&mut TemperatureChannel)| {
+    let with = |f: &dyn Fn(&mut TemperatureMeasurement)| {
         let mut b = fe.clone();
         f(&mut b.temperature_sensor);
         b.validate()
     };
     // A valid range that does not cover the operating range (0…70 °C) names the field.
     let e = with(&|c| {
-        if let TemperatureChannel::Raw { sensor, .. } = c {
+        if let TemperatureMeasurement::Raw { sensor, .. } = c {
             sensor.max_c = 60.0
         }
     })
@@ -440,7 +437,7 @@ fn raw_channel_descriptions_are_checked() {
     assert!(matches!(e, FrontEndError::Invalid { field: "temperature_sensor.sensor.max_c", .. }), "{e}");
     // A description firmware-lib refuses carries its verdict.
     let e = with(&|c| {
-        if let TemperatureChannel::Raw { sensor, .. } = c {
+        if let TemperatureMeasurement::Raw { sensor, .. } = c {
             sensor.divider.series_ohm = -1.0
         }
     })
@@ -448,7 +445,7 @@ fn raw_channel_descriptions_are_checked() {
     assert!(matches!(e, FrontEndError::Sensor { .. }), "{e}");
     assert!(e.to_string().contains("temperature_sensor.sensor"), "{e}");
     let e = with(&|c| {
-        if let TemperatureChannel::Raw { element_error, .. } = c {
+        if let TemperatureMeasurement::Raw { element_error, .. } = c {
             *element_error = f64::NAN
         }
     })
@@ -456,7 +453,7 @@ fn raw_channel_descriptions_are_checked() {
     assert!(matches!(e, FrontEndError::Invalid { field: "temperature_sensor.element_error", .. }), "{e}");
     // An RTD whose curve stops at −200 °C cannot follow a unit simulated down to −160 − 50 °C.
     let e = with(&|c| {
-        if let TemperatureChannel::Raw { sensor, .. } = c {
+        if let TemperatureMeasurement::Raw { sensor, .. } = c {
             sensor.element = logtrim::SensorElement::Rtd(logtrim::Rtd::PT1000);
             sensor.divider.series_ohm = 1000.0;
         }
@@ -464,10 +461,10 @@ fn raw_channel_descriptions_are_checked() {
     assert_eq!(e.ok(), Some(()));
     let mut cold = fe.clone();
     cold.temperature_sensor = {
-        let TemperatureChannel::Raw { mut sensor, .. } = fe.temperature_sensor else { panic!() };
+        let TemperatureMeasurement::Raw { mut sensor, .. } = fe.temperature_sensor else { panic!() };
         sensor.element = logtrim::SensorElement::Rtd(logtrim::Rtd::PT1000);
         sensor.min_c = -200.0;
-        TemperatureChannel::Raw {
+        TemperatureMeasurement::Raw {
             sensor,
             element_error: 0.0,
             series_error: 0.0,

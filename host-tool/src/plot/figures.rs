@@ -30,72 +30,8 @@ use logtrim::Calibration;
 
 use super::validation::ValidationPoint;
 use super::{Axis, ColourScale, Grid, HeatMap, LineFigure, Panel, PlotError, Style};
+use crate::error_scale::ErrorScale;
 use crate::fit::FitData;
-
-/// The unit in which an error in x is shown.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub enum ErrorUnit {
-    /// Nepers.
-    Np,
-    /// Millinepers.
-    #[default]
-    MilliNp,
-    /// Decibels for power-like ratios, 10·log10.
-    DbPower,
-    /// Decibels for amplitude-like ratios, 20·log10.
-    DbAmplitude,
-    /// Per cent of the ratio: `100·(e^error − 1)`.
-    PercentOfRatio,
-}
-
-impl ErrorUnit {
-    /// Every unit, in the order of [`ErrorUnit::name`]'s documentation.
-    pub const ALL: [ErrorUnit; 5] = [
-        ErrorUnit::Np,
-        ErrorUnit::MilliNp,
-        ErrorUnit::DbPower,
-        ErrorUnit::DbAmplitude,
-        ErrorUnit::PercentOfRatio,
-    ];
-
-    /// The short name used on the command line: `np`, `mnp`, `db10`, `db20`, `pct`.
-    pub fn name(self) -> &'static str {
-        match self {
-            ErrorUnit::Np => "np",
-            ErrorUnit::MilliNp => "mnp",
-            ErrorUnit::DbPower => "db10",
-            ErrorUnit::DbAmplitude => "db20",
-            ErrorUnit::PercentOfRatio => "pct",
-        }
-    }
-
-    /// Parses a name given by [`ErrorUnit::name`].
-    pub fn from_name(s: &str) -> Option<ErrorUnit> {
-        ErrorUnit::ALL.into_iter().find(|u| u.name().eq_ignore_ascii_case(s))
-    }
-
-    /// The unit as written on an axis.
-    pub fn label(self) -> &'static str {
-        match self {
-            ErrorUnit::Np => "Np",
-            ErrorUnit::MilliNp => "mNp",
-            ErrorUnit::DbPower => "dB, 10·log10",
-            ErrorUnit::DbAmplitude => "dB, 20·log10",
-            ErrorUnit::PercentOfRatio => "% of ratio",
-        }
-    }
-
-    /// An error in x (nepers) in this unit.
-    pub fn of_np(self, e: f64) -> f64 {
-        match self {
-            ErrorUnit::Np => e,
-            ErrorUnit::MilliNp => 1e3 * e,
-            ErrorUnit::DbPower => 10.0 * std::f64::consts::LOG10_E * e,
-            ErrorUnit::DbAmplitude => 20.0 * std::f64::consts::LOG10_E * e,
-            ErrorUnit::PercentOfRatio => 100.0 * e.exp_m1(),
-        }
-    }
-}
 
 /// The nominal equation of a unit (see the module docs): PTAT slope and zero code from the calibration at
 /// its reference temperature, nothing else.
@@ -124,7 +60,7 @@ pub fn error_vs_x(
     cal: &Calibration,
     data: &FitData,
     gap_k: f64,
-    unit: ErrorUnit,
+    unit: ErrorScale,
     subtitle: &str,
 ) -> LineFigure {
     let nominal = nominal_of(cal);
@@ -155,13 +91,7 @@ pub fn error_vs_x(
                 style: Style::LineAndMarkers,
             });
         }
-        let title = refused_title(which, refused);
-        panels.push(Panel {
-            title,
-            x_label: "x = ln(I_sig/I_ref) [Np]".into(),
-            y_label: format!("error in x [{}]", unit.label()),
-            series,
-        });
+        panels.push(error_panel(which, refused, "x = ln(I_sig/I_ref) [Np]", unit, series));
     }
     LineFigure {
         title: "Error in x against x, per chamber set-point".into(),
@@ -171,13 +101,20 @@ pub fn error_vs_x(
     }
 }
 
-/// A panel's caption with the count of refused readings, if any.
-fn refused_title(which: &str, refused: usize) -> String {
-    match refused {
+/// A panel of errors in x against `x_label`, captioned `which` with the count of refused readings, if any.
+fn error_panel(
+    which: &str,
+    refused: usize,
+    x_label: &str,
+    unit: ErrorScale,
+    series: Vec<super::Series>,
+) -> Panel {
+    let title = match refused {
         0 => which.to_string(),
         1 => format!("{which}: 1 reading refused"),
         n => format!("{which}: {n} readings refused"),
-    }
+    };
+    Panel { title, x_label: x_label.into(), y_label: format!("error in x [{}]", unit.label()), series }
 }
 
 /// A u64 whose order is the order of the f64 (for finite values).
@@ -198,7 +135,7 @@ pub fn error_vs_temperature(
     cal: &Calibration,
     points: &[ValidationPoint],
     bins: usize,
-    unit: ErrorUnit,
+    unit: ErrorScale,
     subtitle: &str,
 ) -> LineFigure {
     let bins = bins.max(1);
@@ -253,13 +190,7 @@ pub fn error_vs_temperature(
                 style: Style::Dashed,
             });
         }
-        let title = refused_title(which, refused);
-        panels.push(Panel {
-            title,
-            x_label: "unit's true temperature [°C]".into(),
-            y_label: format!("error in x [{}]", unit.label()),
-            series,
-        });
+        panels.push(error_panel(which, refused, "unit's true temperature [°C]", unit, series));
     }
     LineFigure {
         title: "Error against temperature over the validation run".into(),
@@ -401,18 +332,6 @@ pub fn fixed_error_map(
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn error_units() {
-        // ISO 80000-3: 1 Np = 20/ln 10 dB = 8.685889638 dB for amplitude ratios; half that for power.
-        assert!((ErrorUnit::DbAmplitude.of_np(1.0) - 8.685_889_638).abs() < 1e-9);
-        assert!((ErrorUnit::DbPower.of_np(1.0) - 4.342_944_819).abs() < 1e-9);
-        // A ratio error of e^0.01 − 1 = 1.005017 % (exp from std, an independent reference library).
-        assert!((ErrorUnit::PercentOfRatio.of_np(0.01) - 100.0 * (0.01f64.exp() - 1.0)).abs() < 1e-12);
-        for u in ErrorUnit::ALL {
-            assert_eq!(ErrorUnit::from_name(u.name()), Some(u));
-        }
-    }
 
     #[test]
     fn order_key_orders_like_f64() {

@@ -27,9 +27,9 @@ pub struct ValidationPoint {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum ValidationError {
-    /// The readings file could not be read.
+    /// The readings file could not be read, or a file lacks a column (as the CSV reader reports it).
     #[error(transparent)]
-    Readings(#[from] DataError),
+    Data(#[from] DataError),
     /// The truth file could not be opened or is not well-formed CSV.
     #[error("{path}: {message}")]
     Csv {
@@ -37,18 +37,6 @@ pub enum ValidationError {
         path: String,
         /// What went wrong.
         message: String,
-    },
-    /// A needed column is missing.
-    #[error("{path}: header: no {column:?} column; expected {expected}; the header has: {found}")]
-    MissingColumn {
-        /// The file.
-        path: String,
-        /// The missing column.
-        column: &'static str,
-        /// What it holds.
-        expected: &'static str,
-        /// The columns present.
-        found: String,
     },
     /// A bad value.
     #[error("{path}: line {line}, column {column}: value {value:?}; expected {expected}")]
@@ -115,12 +103,13 @@ pub fn read_validation(
     let opts = ReadOptions { adc_bits, ..ReadOptions::default() };
     let rd = data::read_readings_file(readings, &opts)?;
     let Some(id_col) = column(&rd.headers, "id") else {
-        return Err(ValidationError::MissingColumn {
+        return Err(DataError::MissingColumn {
             path: rpath,
             column: "id",
             expected: "the reading's id, to match it to the truth file",
             found: rd.headers.join(","),
-        });
+        }
+        .into());
     };
     let unit_index = match (rd.units.is_empty(), serial) {
         (true, _) => None,
@@ -192,11 +181,13 @@ fn read_truth(path: &Path, serial: Option<&str>) -> Result<HashMap<String, Truth
     let csv_err = |e: csv::Error| ValidationError::Csv { path: p.clone(), message: e.to_string() };
     let mut rdr = csv::ReaderBuilder::new().flexible(false).from_path(path).map_err(csv_err)?;
     let headers: Vec<String> = rdr.headers().map_err(csv_err)?.iter().map(|h| h.trim().to_string()).collect();
-    let missing = |column, expected| ValidationError::MissingColumn {
-        path: p.clone(),
-        column,
-        expected,
-        found: headers.join(","),
+    let missing = |column, expected| {
+        ValidationError::Data(DataError::MissingColumn {
+            path: p.clone(),
+            column,
+            expected,
+            found: headers.join(","),
+        })
     };
     let id = column(&headers, "id").ok_or_else(|| missing("id", "the reading's id"))?;
     // The true x: from `x_true`, else from `ratio`.

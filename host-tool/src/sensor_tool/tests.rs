@@ -1,9 +1,8 @@
-use super::*;
+use logtrim_checks::within;
 
-/// `|got − want| ≤ abs + rel·|want|`.
-fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
-    (got - want).abs() <= abs + rel * want.abs()
-}
+use super::*;
+use logtrim::sensor::{SensorElement, TemperatureSensor};
+use logtrim::{Divider, Placement};
 
 fn p(celsius: f64, ohm: f64) -> CurvePoint {
     CurvePoint::new(celsius, ohm)
@@ -26,7 +25,7 @@ fn steinhart_hart_through_three_points_reproduces_the_published_curve() {
         // Three points of the curve, at resistances spanning roughly 0…60 °C.
         let rs = [3.0 * r_room, r_room, 0.25 * r_room];
         let pts: Vec<CurvePoint> = rs.iter().map(|&r| p(sh_celsius(a, b, c, r), r)).collect();
-        let sh = steinhart_hart_from_points("--point", &pts).unwrap();
+        let sh = steinhart_hart_from_points(&pts).unwrap();
         // The coefficients come back, to the f32 they are stored in (C, the small one, a little less
         // closely: it is what the three points pin down least).
         assert!(within(f64::from(sh.a), a, 0.0, 1e-6), "A {} vs {a}", sh.a);
@@ -49,7 +48,7 @@ fn beta_from_two_points_is_the_secant_beta() {
     // sheet's R25 and R85 of a β = 3900 K part, by the Beta model R = R25·exp(β(1/T − 1/T25)).
     let r85 = 10_000.0 * (3900.0 * (1.0 / 358.15 - 1.0 / 298.15f64)).exp();
     let pts = [p(25.0, 10_000.0), p(85.0, r85)];
-    let b = beta_from_points("--point", &pts).unwrap();
+    let b = beta_from_points(&pts).unwrap();
     assert_eq!((b.r0_ohm, b.t0_c), (10_000.0, 25.0));
     assert!(within(f64::from(b.beta_k), 3900.0, 0.0, 1e-6), "{}", b.beta_k);
     assert!(within(secant_beta_k(pts[0], pts[1]), 3900.0, 0.0, 1e-12));
@@ -57,7 +56,7 @@ fn beta_from_two_points_is_the_secant_beta() {
     let want = 10_000.0 * (3900.0 * (1.0 / 323.15 - 1.0 / 298.15f64)).exp();
     assert!(within(b.resistance_f64(50.0).unwrap(), want, 0.0, 1e-6));
     // Given in the other order, the reference moves to 85 °C but the curve is the same.
-    let back = beta_from_points("--point", &[pts[1], pts[0]]).unwrap();
+    let back = beta_from_points(&[pts[1], pts[0]]).unwrap();
     assert_eq!(back.t0_c, 85.0);
     assert!(within(back.resistance_f64(25.0).unwrap(), 10_000.0, 0.0, 1e-5));
     // Through ElementSpec: two points make a Beta model, three Steinhart–Hart.
@@ -83,7 +82,7 @@ fn rtd_table_matches_iec_60751_at_its_points() {
     let spec = TableSpec { from_c: -200.0, to_c: 850.0, step_k: 25.0 };
     for (r0, scale) in [(100.0, 1.0), (1000.0, 10.0)] {
         let element = ElementSpec::Rtd { r0_ohm: r0 }.element().unwrap();
-        let rows = table(Channel::Element(&element), &spec).unwrap();
+        let rows = table(TableSource::Element(&element), &spec).unwrap();
         assert_eq!(rows.len(), 43);
         assert_eq!((rows[0].celsius, rows[42].celsius), (-200.0, 850.0));
         for (t, r) in IEC_60751_PT100 {
@@ -100,7 +99,7 @@ fn rtd_table_matches_iec_60751_at_its_points() {
     // The text and CSV layouts carry the same values.
     let element = ElementSpec::Rtd { r0_ohm: 100.0 }.element().unwrap();
     let rows =
-        table(Channel::Element(&element), &TableSpec { from_c: 0.0, to_c: 100.0, step_k: 25.0 }).unwrap();
+        table(TableSource::Element(&element), &TableSpec { from_c: 0.0, to_c: 100.0, step_k: 25.0 }).unwrap();
     let mut csv = Vec::new();
     write_table(&rows, TableFormat::Csv, &[], &mut csv).unwrap();
     let csv = String::from_utf8(csv).unwrap();
@@ -114,20 +113,12 @@ fn rtd_table_matches_iec_60751_at_its_points() {
 
 #[test]
 fn table_codes_follow_the_divider_equation_and_read_back() {
-    let element = ElementSpec::Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }.element().unwrap();
-    let divider = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: 10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 8,
-        short_margin: 8,
-    }
-    .divider()
+    let (element, divider) = ntc_parts();
+    let rows = table(
+        TableSource::Divided(&element, &divider),
+        &TableSpec { from_c: -40.0, to_c: 125.0, step_k: 5.0 },
+    )
     .unwrap();
-    let rows =
-        table(Channel::Divided(&element, &divider), &TableSpec { from_c: -40.0, to_c: 125.0, step_k: 5.0 })
-            .unwrap();
     assert_eq!(rows.len(), 34);
     for r in &rows {
         let c = r.code.unwrap();
@@ -145,7 +136,7 @@ fn table_codes_follow_the_divider_equation_and_read_back() {
     // end lies beyond the converter, and the table says so instead of converting the clipped code.
     let over = Divider { full_scale_code: 5000, ..divider };
     let rows_over =
-        table(Channel::Divided(&element, &over), &TableSpec { from_c: -40.0, to_c: 0.0, step_k: 40.0 })
+        table(TableSource::Divided(&element, &over), &TableSpec { from_c: -40.0, to_c: 0.0, step_k: 40.0 })
             .unwrap();
     let cold = rows_over[0].code.unwrap();
     assert!(cold.exact > 4095.5 && cold.code == 4095, "{cold:?}");
@@ -155,9 +146,16 @@ fn table_codes_follow_the_divider_equation_and_read_back() {
     assert!(within(rows.iter().find(|r| r.celsius == 25.0).unwrap().code.unwrap().exact, 2048.0, 1e-9, 0.0));
 }
 
-fn ntc_settings() -> TemperatureSensor {
+/// A 10 kΩ NTC with β = 3900 K from a 12-bit ADC's input to ground, 10 kΩ to its reference, 8 codes of
+/// fault band at either rail (invented figures, those of the `photometer-ntc` preset).
+fn ntc_parts() -> (SensorElement, Divider) {
     let element = ElementSpec::Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }.element().unwrap();
-    let divider = DividerSpec {
+    (element, ntc_divider().divider().unwrap())
+}
+
+/// The divider of [`ntc_parts`].
+fn ntc_divider() -> DividerSpec {
+    DividerSpec {
         placement: Placement::LowSide,
         series_ohm: 10_000.0,
         bits: 12,
@@ -165,8 +163,10 @@ fn ntc_settings() -> TemperatureSensor {
         open_margin: 8,
         short_margin: 8,
     }
-    .divider()
-    .unwrap();
+}
+
+fn ntc_settings() -> TemperatureSensor {
+    let (element, divider) = ntc_parts();
     build_sensor(element, divider, -40.0, 125.0).unwrap()
 }
 
@@ -203,7 +203,7 @@ fn settings_round_trip_through_serde_and_validate() {
     let e = settings_from_json(&broken, "sensor.json").unwrap_err();
     assert!(matches!(e, SensorToolError::Rejected { .. }) && e.to_string().contains("sensor.json"), "{e}");
     let e = settings_from_json("{\"element\": 3}", "sensor.json").unwrap_err();
-    assert!(matches!(e, SensorToolError::Json { line: 1, .. }), "{e}");
+    assert!(matches!(e, SensorToolError::File(FileError::Json { line: 1, .. })), "{e}");
     // The summary: the range's ends and the coarsest step.
     let sum = summarise(&s).unwrap();
     assert!(sum.at_min.1 > sum.at_max.1, "the code rises as a low-side NTC cools");
@@ -213,38 +213,30 @@ fn settings_round_trip_through_serde_and_validate() {
 
 #[test]
 fn equal_temperatures_are_named() {
-    let e = steinhart_hart_from_points("--point", &[p(25.0, 10_000.0), p(25.0, 9_000.0), p(50.0, 3_600.0)])
-        .unwrap_err();
+    let e = steinhart_hart_from_points(&[p(25.0, 10_000.0), p(25.0, 9_000.0), p(50.0, 3_600.0)]).unwrap_err();
     assert!(matches!(e, SensorToolError::SameTemperature { celsius: 25.0, .. }), "{e}");
     let m = e.to_string();
-    assert!(m.contains("--point 25:10000 and --point 25:9000") && m.contains("distinct temperatures"), "{m}");
-    let e = beta_from_points("--point", &[p(85.0, 1_000.0), p(85.0, 1_000.0)]).unwrap_err();
+    assert!(m.contains("point 25:10000 and point 25:9000") && m.contains("distinct temperatures"), "{m}");
+    let e = beta_from_points(&[p(85.0, 1_000.0), p(85.0, 1_000.0)]).unwrap_err();
     assert!(matches!(e, SensorToolError::SameTemperature { .. }), "{e}");
-    let e = beta_from_points("--point", &[p(25.0, 1_000.0), p(85.0, 1_000.0)]).unwrap_err();
+    let e = beta_from_points(&[p(25.0, 1_000.0), p(85.0, 1_000.0)]).unwrap_err();
     assert!(matches!(e, SensorToolError::SameResistance { .. }), "{e}");
 }
 
 #[test]
 fn negative_resistances_are_named() {
-    let e = beta_from_points("--point", &[p(25.0, -10_000.0), p(85.0, 1_000.0)]).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--point", .. }), "{e}");
+    let e = beta_from_points(&[p(25.0, -10_000.0), p(85.0, 1_000.0)]).unwrap_err();
+    assert!(matches!(e, SensorToolError::Value { input: Input::Point, .. }), "{e}");
     let m = e.to_string();
     assert!(m.contains("25:-10000") && m.contains("not positive") && m.contains("> 0 Ω"), "{m}");
-    let spec = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: -10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 0,
-        short_margin: 0,
-    };
+    let spec = DividerSpec { series_ohm: -10_000.0, open_margin: 0, short_margin: 0, ..ntc_divider() };
     let e = spec.divider().unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--series", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::Value { input: Input::Series, .. }), "{e}");
     assert!(e.to_string().contains("-10000"), "{e}");
     let e = ElementSpec::Beta { r0_ohm: -1.0, t0_c: 25.0, beta_k: 3900.0 }.element().unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--r0", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::Value { input: Input::R0, .. }), "{e}");
     let e = ElementSpec::Rtd { r0_ohm: 0.0 }.element().unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--rtd", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::Value { input: Input::Rtd, .. }), "{e}");
 }
 
 #[test]
@@ -252,7 +244,7 @@ fn non_monotone_curves_are_named() {
     // Resistance falls at every step, but by ×3 over the first 25 K and ×1.1 over the next: no
     // Steinhart–Hart curve through the three is monotone.
     let pts = [p(0.0, 30_000.0), p(25.0, 10_000.0), p(50.0, 9_000.0)];
-    let e = steinhart_hart_from_points("--point", &pts).unwrap_err();
+    let e = steinhart_hart_from_points(&pts).unwrap_err();
     let SensorToolError::NotMonotone { from_c, to_c, ref betas, .. } = e else { panic!("{e}") };
     assert_eq!((from_c, to_c), (0.0, 50.0));
     // The secant β of each pair, by its definition.
@@ -263,22 +255,22 @@ fn non_monotone_curves_are_named() {
     );
     assert_eq!(betas, &want);
     // Rising resistance is not an NTC.
-    let e = steinhart_hart_from_points("--point", &[p(0.0, 30_000.0), p(25.0, 10_000.0), p(50.0, 12_000.0)])
-        .unwrap_err();
+    let e =
+        steinhart_hart_from_points(&[p(0.0, 30_000.0), p(25.0, 10_000.0), p(50.0, 12_000.0)]).unwrap_err();
     assert!(matches!(e, SensorToolError::NotNtc { .. }), "{e}");
-    assert!(e.to_string().contains("--point 25:10000 and --point 50:12000"), "{e}");
+    assert!(e.to_string().contains("point 25:10000 and point 50:12000"), "{e}");
     // A curve that is fine near its centre but turns back inside the range asked for.
     let turning = ElementSpec::SteinhartHart { a: 1.2e-3, b: 2.5e-4, c: -4.0e-7 }.element().unwrap();
     let d = Divider::ratiometric(Placement::LowSide, 10_000.0, 12);
     let e = build_sensor(turning, d, -40.0, 125.0).unwrap_err();
-    assert!(matches!(e, SensorToolError::CurveOverRange { options: "--min/--max", .. }), "{e}");
-    let e = table(Channel::Element(&turning), &TableSpec { from_c: -40.0, to_c: 125.0, step_k: 5.0 })
+    assert!(matches!(e, SensorToolError::CurveOverRange { range: Input::Range, .. }), "{e}");
+    let e = table(TableSource::Element(&turning), &TableSpec { from_c: -40.0, to_c: 125.0, step_k: 5.0 })
         .unwrap_err();
-    assert!(matches!(e, SensorToolError::CurveOverRange { options: "--from/--to", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::CurveOverRange { range: Input::TableRange, .. }), "{e}");
     // Point counts.
     let e = ElementSpec::Points(vec![p(25.0, 10_000.0)]).element().unwrap_err();
     assert!(matches!(e, SensorToolError::PointCount { count: 1, .. }), "{e}");
-    let e = steinhart_hart_from_points("--point", &pts[..2]).unwrap_err();
+    let e = steinhart_hart_from_points(&pts[..2]).unwrap_err();
     assert!(matches!(e, SensorToolError::PointCount { count: 2, .. }), "{e}");
 }
 
@@ -287,33 +279,30 @@ fn bad_ranges_and_fault_bands_are_named() {
     let s = ntc_settings();
     // An RTD table beyond the IEC 60751 curve.
     let rtd = ElementSpec::Rtd { r0_ohm: 100.0 }.element().unwrap();
-    let e = table(Channel::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 900.0, step_k: 10.0 }).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--to", .. }), "{e}");
-    let e = table(Channel::Element(&rtd), &TableSpec { from_c: 10.0, to_c: 0.0, step_k: 1.0 }).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--to", .. }), "{e}");
-    let e = table(Channel::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 10.0, step_k: 0.0 }).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--step", .. }), "{e}");
-    let e = table(Channel::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 800.0, step_k: 1e-3 }).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--step", .. }), "{e}");
+    let e =
+        table(TableSource::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 900.0, step_k: 10.0 }).unwrap_err();
+    assert!(matches!(e, SensorToolError::Value { input: Input::To, .. }), "{e}");
+    let e =
+        table(TableSource::Element(&rtd), &TableSpec { from_c: 10.0, to_c: 0.0, step_k: 1.0 }).unwrap_err();
+    assert!(matches!(e, SensorToolError::Value { input: Input::To, .. }), "{e}");
+    let e =
+        table(TableSource::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 10.0, step_k: 0.0 }).unwrap_err();
+    assert!(matches!(e, SensorToolError::Value { input: Input::Step, .. }), "{e}");
+    let e =
+        table(TableSource::Element(&rtd), &TableSpec { from_c: 0.0, to_c: 800.0, step_k: 1e-3 }).unwrap_err();
+    assert!(matches!(e, SensorToolError::Value { input: Input::Step, .. }), "{e}");
     let e = build_sensor(s.element, s.divider, 50.0, 50.0).unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--max", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::Value { input: Input::Max, .. }), "{e}");
     // −80 °C reads code ≈ 4063 on the low-side NTC: inside an open band of 64 codes (≥ 4032).
     let wide = Divider { open_margin: 64, ..s.divider };
     let e = build_sensor(s.element, wide, -80.0, 125.0).unwrap_err();
-    let SensorToolError::FaultAtRangeEnd { option, code, ref fault, .. } = e else { panic!("{e}") };
-    assert_eq!(option, "--min");
+    let SensorToolError::FaultAtRangeEnd { end, code, ref fault, .. } = e else { panic!("{e}") };
+    assert_eq!(end, Input::Min);
     assert!(code >= 4032 && fault.contains("open"), "{e}");
     // Fault bands that leave nothing.
-    let spec = DividerSpec {
-        placement: Placement::LowSide,
-        series_ohm: 10_000.0,
-        bits: 12,
-        full_scale_code: None,
-        open_margin: 3000,
-        short_margin: 1095,
-    };
+    let spec = DividerSpec { open_margin: 3000, short_margin: 1095, ..ntc_divider() };
     let e = spec.divider().unwrap_err();
-    assert!(matches!(e, SensorToolError::Value { option: "--open-margin/--short-margin", .. }), "{e}");
+    assert!(matches!(e, SensorToolError::Value { input: Input::FaultMargins, .. }), "{e}");
 }
 
 #[test]

@@ -1,6 +1,6 @@
 use super::*;
 use crate::data::{read_calibration, read_readings, ReadOptions};
-use crate::frontend::{preset, TemperatureChannel, PRESETS};
+use crate::frontend::{preset, TemperatureMeasurement, PRESETS};
 
 fn small_plan(seed: u64) -> Plan {
     Plan {
@@ -70,13 +70,13 @@ fn chamber_run_spans_the_range_at_its_set_points() {
             assert!(sps.contains(&r.setpoint_c));
             assert!(ratios.contains(&r.ratio) && r.x_true == r.ratio.ln());
             match fe.temperature_sensor {
-                TemperatureChannel::Digital { offset_k, noise_k_rms, resolution_k, slope_error } => {
+                TemperatureMeasurement::Digital { offset_k, noise_k_rms, resolution_k, slope_error } => {
                     let spread = (fe.operating.setpoint_jitter_k_rms.powi(2) + noise_k_rms.powi(2)).sqrt();
                     let want = 25.0 + (r.setpoint_c - 25.0) * (1.0 + slope_error) + offset_k;
                     assert!((temp(r.temperature) - want).abs() < 6.0 * spread + resolution_k, "{r:?}");
                 }
                 // A raw channel reads the unit's true temperature, within its ADC noise and rounding.
-                TemperatureChannel::Raw { noise_codes_rms, .. } => {
+                TemperatureMeasurement::Raw { noise_codes_rms, .. } => {
                     let MeasuredTemperature::Code(c) = r.temperature else { panic!("{r:?}") };
                     let exact = fe.raw_code_exact(r.t_true_c).unwrap();
                     assert!((f64::from(c) - exact).abs() < 6.0 * noise_codes_rms + 0.5, "{r:?}");
@@ -96,7 +96,7 @@ fn validation_run_covers_the_whole_range() {
     let rows = validation_run(&fe, 2000, 0, 1, 9);
     let o = fe.operating;
     let (x0, x1) = (o.ratio_min.ln(), o.ratio_max.ln());
-    let min_max = |f: &dyn Fn(&ValidationRow) -> f64| {
+    let min_max = |f: &dyn Fn(&SimReading) -> f64| {
         rows.iter().map(f).fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| (a.min(v), b.max(v)))
     };
     let (xa, xb) = min_max(&|r| r.x_true);
@@ -122,10 +122,10 @@ fn oracle_error_matches_the_propagated_noise_floor() {
         // The sensor's noise seen in true-temperature units: a digital sensor's after its slope error is
         // undone; a raw channel's ADC noise plus rounding through its codes per kelvin at that temperature.
         let var_t = |t: f64| match fe.temperature_sensor {
-            TemperatureChannel::Digital { noise_k_rms, resolution_k, slope_error, .. } => {
+            TemperatureMeasurement::Digital { noise_k_rms, resolution_k, slope_error, .. } => {
                 (noise_k_rms.powi(2) + resolution_k.powi(2) / 12.0) / (1.0 + slope_error).powi(2)
             }
-            TemperatureChannel::Raw { noise_codes_rms, .. } => {
+            TemperatureMeasurement::Raw { noise_codes_rms, .. } => {
                 let h = 1e-3;
                 let per_k =
                     (fe.raw_code_exact(t + h).unwrap() - fe.raw_code_exact(t - h).unwrap()) / (2.0 * h);

@@ -79,3 +79,22 @@ pub fn all() -> Vec<(&'static str, Calibration)> {
         ("ideal", ideal()),
     ]
 }
+
+/// A calibration with bends at both ends (the shape of a fitted unit), over −20…85 °C: every term of the
+/// model but the residual.
+pub fn bent() -> Calibration {
+    let mut c = Calibration::nominal(16, 30000.0, 3600.0, 32.5);
+    c.temperature.min_c = -20.0;
+    c.temperature.max_c = 85.0;
+    c.x_range.min = -6.9;
+    c.x_range.max = 4.6;
+    c.x_range.min_sensitivity = 0.1;
+    c.adc.rail_margin = 8;
+    c.model.t_half_span_k = 52.5;
+    c.model.pole = -0.1;
+    c.model.offset = series(&[150.0, 40.0, -6.0]);
+    c.model.slope = series(&[3500.0, 25.0]);
+    c.model.bulk = series(&[12.0]);
+    c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
+    c
+}
