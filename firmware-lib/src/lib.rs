@@ -27,6 +27,7 @@
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0).
 #![no_std]
+#![cfg_attr(docsrs, feature(doc_cfg))]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 #![cfg_attr(
@@ -46,6 +47,7 @@ pub mod field;
 pub mod filter;
 pub mod fixed;
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub mod hal;
 pub mod image;
 pub mod math;

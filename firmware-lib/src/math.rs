@@ -43,6 +43,7 @@ impl Backend for Libm {
 
 /// The opt-in fast backend: micromath's approximations (coarse, see the module docs).
 #[cfg(feature = "micromath")]
+#[cfg_attr(docsrs, doc(cfg(feature = "micromath")))]
 #[derive(Debug, Clone, Copy, Default)]
 pub struct Micromath;
 

@@ -88,6 +88,7 @@ use core::fmt;
 pub use blank::{Blank, BlankParts};
 pub use channels::{Bank, BankError, Channel, Cycle, FixedBank, FixedChannel, FixedCycle};
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub use layers::Layered;
 pub use layers::Layers;
 pub use record::{RecordError, RecordInfo, RecordType, ValueError, WriteError};
