@@ -17,6 +17,8 @@
 #   default profiles: release release-o3; release-checked adds overflow checks inside logtrim.
 set -euo pipefail
 cd "$(dirname "$0")/.."
+# The crate is its own workspace and builds into its own target/ (the paths below rely on it).
+unset CARGO_TARGET_DIR
 manifest=targets/panic-check/Cargo.toml
 targets=()
 profiles=()

@@ -16,14 +16,16 @@ cd "$(dirname "$0")/.."
 seed=${1:-17}
 vectors=$PWD/target/qemu-vectors.bin
 
-cargo run --quiet -p logtrim-vectors --features generate --bin make-vectors -- "$vectors" \
-    examples/dyeline/calibration/COEFFS.json "$seed"
+# Built with the workspace's features (what `cargo test --workspace --all-features` already compiled), so
+# that CI does not compile the host library a second time with another feature set.
+cargo build --quiet --workspace --all-features --bin make-vectors
+"${CARGO_TARGET_DIR:-target}/debug/make-vectors" "$vectors" examples/dyeline/calibration/COEFFS.json "$seed"
 
 status=0
 for pair in thumbv6m-none-eabi:lm3s6965evb thumbv7em-none-eabihf:mps2-an386; do
     target=${pair%%:*}
     machine=${pair##*:}
-    LOGTRIM_VECTORS=$vectors cargo build --quiet --manifest-path targets/qemu/Cargo.toml --release --target "$target"
+    LOGTRIM_VECTORS=$vectors env -u CARGO_TARGET_DIR cargo build --quiet --manifest-path targets/qemu/Cargo.toml --release --target "$target"
     elf=targets/qemu/target/$target/release/logtrim-qemu
     echo "--- $target on qemu $machine ($(size "$elf" | awk 'NR == 2 { print $1 }') bytes of flash)"
     if ! timeout 600 qemu-system-arm -M "$machine" -nographic -monitor none -serial none \

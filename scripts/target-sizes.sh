@@ -16,6 +16,8 @@
 # Usage: scripts/target-sizes.sh [--symbols]
 set -euo pipefail
 cd "$(dirname "$0")/.."
+# The crate is its own workspace and builds into its own target/ (the paths below rely on it).
+unset CARGO_TARGET_DIR
 manifest=targets/panic-check/Cargo.toml
 symbols=false
 [ "${1:-}" = "--symbols" ] && symbols=true
