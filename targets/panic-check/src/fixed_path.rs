@@ -37,6 +37,7 @@ pub fn run() {
         keep(cal.check_code(code));
         for unit in Unit::ALL {
             keep(cal.correct(code, temp_mc).and_then(|r| r.value(o(unit))));
+            keep(logtrim::fixed::value_frac_bits(o(unit)));
         }
         keep(cal.correct_raw(code, temp_code));
         keep(cal.theta_from_code(temp_code));

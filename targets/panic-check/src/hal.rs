@@ -7,6 +7,7 @@ use embedded_hal::delay::DelayNs;
 use embedded_hal::spi::{ErrorKind, ErrorType, Operation, SpiDevice};
 use logtrim::field::{Layered, Layers};
 use logtrim::hal::correct::{correct_mean_fixed, theta_of_celsius};
+use logtrim::hal::sar16::SpiReadError;
 use logtrim::hal::temperature::from_fn;
 use logtrim::hal::{
     Coding, Corrector, Cycle, CycleConfig, DigitalCelsius, FixedSensorTable, MeanCode, Oversampling,
@@ -91,6 +92,7 @@ fn corrector_calls<C: Corrector>(c: &C) {
 pub fn run() {
     let cal = crate::f32_path::calibration();
     keep(theta_of_celsius(o(25.0)));
+    keep(SpiReadError(o(ErrorKind::Other)).spi_kind());
     let digital = DigitalCelsius::new(o(13), o(true), o(0.0625)).and_then(|d| d.with_offset(o(0.0)));
     let digital = digital.map(|d| d.with_open_code(o(0x1fff)));
 

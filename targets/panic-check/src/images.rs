@@ -60,6 +60,12 @@ pub fn run() {
         keep(image::write_with_fixed(o(&mut buf[..]), &info, &cal, Some(&fixed), &extra));
     });
 
+    // The layout's descriptions (what the C header and the docs are generated from).
+    for f in layout::header::FIELDS.iter().chain(layout::trailer::FIELDS) {
+        let f = o(*f);
+        keep((f.size(), f.end(), f.kind.size(), f.kind.type_name()));
+    }
+
     let (a, b) = (bytes(), bytes());
     let selection = slots::select(a, b);
     let active = slots::ActiveCalibration::from_selection(&selection);
