@@ -50,6 +50,7 @@ locate() { # target profile
     fi
 }
 
+mkdir -p target
 echo "canary: a deliberate panic path must fail the link"
 if cargo build --quiet --manifest-path "$manifest" --target thumbv7em-none-eabihf --release --features canary \
     --bin all 2>target/panic-canary.log; then
