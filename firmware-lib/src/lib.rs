@@ -31,6 +31,7 @@
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0),
 //! `reference` (the host's f64 reference of the calibration: not for firmware builds).
 #![no_std]
+#![cfg_attr(docsrs, feature(doc_cfg))]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 #![cfg_attr(
@@ -50,6 +51,7 @@ pub mod field;
 pub mod filter;
 pub mod fixed;
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub mod hal;
 pub mod image;
 pub mod math;
