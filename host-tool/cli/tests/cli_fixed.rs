@@ -88,7 +88,7 @@ fn emit_writes_each_format_or_nothing() {
 
 #[test]
 fn emit_crate_path_names_a_renamed_dependency() {
-    let d = dir("emit-crate-path");
+    let d = scratch("emit-crate-path");
     let c = coeffs(&d);
     let out = d.join("unit.rs");
     let o = out.to_str().unwrap();
