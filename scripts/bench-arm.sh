@@ -69,7 +69,7 @@ declare -A CPU=(
   [m4]="-mcpu=cortex-m4 -mthumb -mfloat-abi=hard -mfpu=fpv4-sp-d16"
 )
 declare -A TRIPLE=([m0]=thumbv6m-none-eabi [m4]=thumbv7em-none-eabihf)
-ENTRY=(-Wl,-u,bench_reset -Wl,-u,bench_empty -Wl,-u,bench_direct -Wl,-u,bench_cached -Wl,-u,bench_block -Wl,-u,bench_naive)
+ENTRY=(-Wl,-u,bench_reset -Wl,-u,bench_empty -Wl,-u,bench_direct -Wl,-u,bench_cached -Wl,-u,bench_stage_at -Wl,-u,bench_block -Wl,-u,bench_naive)
 LINK=(-nostartfiles -T "$ROOT/bench/arm/link.ld" -Wl,--gc-sections --specs=nosys.specs)
 
 echo "=== builds (gcc $(arm-none-eabi-gcc -dumpversion), rustc) and emulation, $N samples per stream ==="

@@ -60,6 +60,12 @@ def main():
             print(f"{label:<26}" + "".join(
                 cell((unit, lang, c, o), st, p, lambda r: f"{fmt(r['insns_mean'])} (max {fmt(r['insns_max'])})", 24)
                 for c, o in CORES))
+        for c, o in CORES:
+            for lang in ("c", "rust"):
+                r = res.get((unit, lang, c, o), {}).get("streams", {}).get("held", {}).get("block")
+                if r and "stage_insns" in r:
+                    print(f"  ({CORE_NAME[c]} -{o} {'C' if lang == 'c' else 'Rust'}: building the block's stage "
+                          f"{fmt(r['stage_insns'])} instructions, once per block)")
         print("\nCortex-M0 cycles per sample, estimated: fast (single-cycle) / small (32-cycle) multiplier")
         print(f"{'stream / path':<26}" + "".join(f"{'Cortex-M0 -' + o:>24}" for c, o in CORES if c == "m0"))
         for st, p, lang in rows:

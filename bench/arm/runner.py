@@ -324,7 +324,22 @@ def main():
             run.call("bench_reset")
             run.paint_stack()
             counts, cycles, muls, calls = [], [], [], Counter()
-            for i in range(n):
+            extra = {}
+            if p == "block":
+                # One temperature for the whole stream (a DMA buffer): the stage once, then the block.
+                if len(set(stream["temp"])) != 1:
+                    continue
+                ins, cyc, mul, c = run.call("bench_stage_at", 0)
+                extra = {"stage_insns": ins - base[0], "stage_cycles": cyc, "stage_helper_calls": dict(c)}
+                path_exec[p] |= run.executed
+                ins, cyc, mul, c = run.call("bench_block", n)
+                per = (ins - sum(base) / n) / n
+                counts = [per] * n
+                cycles = [cyc / n] * n
+                muls = [mul / n] * n
+                calls.update({k: v / n * n for k, v in c.items()})
+                path_exec[p] |= run.executed
+            for i in range(n if p != "block" else 0):
                 ins, cyc, mul, c = run.call(f"bench_{p}", i)
                 counts.append(ins - base[i])
                 cycles.append(cyc)
@@ -334,8 +349,8 @@ def main():
             stack = run.stack_used()
             outs = run.read_outputs_exact(n)
             mismatches = None
-            if p in ("direct", "cached"):
-                want = stream[p]
+            if p in ("direct", "cached", "block"):
+                want = stream["direct" if p == "block" else p]
                 mismatches = sum(1 for o, w in zip(outs, want) if list(o) != list(w))
                 first = next((i for i, (o, w) in enumerate(zip(outs, want)) if list(o) != list(w)), None)
             else:
@@ -352,6 +367,7 @@ def main():
                 "mismatches": mismatches,
                 "first_mismatch": first,
                 "ok": sum(1 for o in outs if o[0] == 0),
+                **extra,
             }
         result["streams"][stream["name"]] = sres
     # The code each path runs: every function it entered, its bench_* wrapper included (the evaluator is

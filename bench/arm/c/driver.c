@@ -83,6 +83,28 @@ BENCH_API void bench_cached(uint32_t i) {
     put(i, st, &r);
 }
 
+/* The block API: the stage at one temperature, then a block of codes at it. */
+lt_stage bench_stage;
+lt_reading bench_block_out[BENCH_MAX];
+lt_status bench_block_status[BENCH_MAX];
+
+/* Builds the stage at sample i's temperature: what a block pays once. */
+BENCH_API void bench_stage_at(uint32_t i) {
+#if NAIVE_RAW
+    (void)lt_stage_code(&LT_UNIT, bench_temp[i], &bench_stage);
+#else
+    (void)lt_stage_millicelsius(&LT_UNIT, (int32_t)bench_temp[i], &bench_stage);
+#endif
+}
+
+/* The first n codes as one block at that stage, then each result stored as the other paths store theirs. */
+BENCH_API void bench_block(uint32_t n) {
+    uint32_t i;
+    if (n > BENCH_MAX) n = BENCH_MAX;
+    lt_correct_block(&LT_UNIT, &bench_stage, bench_code, n, bench_block_out, bench_block_status);
+    for (i = 0; i < n; i++) put(i, bench_block_status[i], &bench_block_out[i]);
+}
+
 #if BENCH_NAIVE
 static uint32_t float_bits(float f) {
     union {

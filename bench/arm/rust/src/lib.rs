@@ -135,6 +135,42 @@ pub extern "C" fn bench_cached(i: u32) {
     put(i as usize, r);
 }
 
+/// The stage a block of codes is corrected at (the block API).
+#[no_mangle]
+pub static mut bench_stage: Option<logtrim::fixed::TemperatureStage> = None;
+
+#[no_mangle]
+pub static mut bench_block_buf: [Result<FixedReading, Error>; MAX] = [Err(Error::NotCalibrated); MAX];
+
+/// Builds the stage at sample `i`'s temperature: what a block pays once.
+#[no_mangle]
+#[inline(never)]
+pub extern "C" fn bench_stage_at(i: u32) {
+    let (_, t) = input(i as usize);
+    let f = &unit::LOGTRIM_FIXED;
+    let s = if RAW { f.stage_code(t) } else { f.stage_millicelsius(t as i32) };
+    // SAFETY: as above.
+    unsafe { bench_stage = s.ok() }
+}
+
+/// The first `n` codes as one block at the kept stage (`correct_block`), then each result stored as the
+/// other paths store theirs.
+#[no_mangle]
+#[inline(never)]
+pub extern "C" fn bench_block(n: u32) {
+    let f = &unit::LOGTRIM_FIXED;
+    // SAFETY: as above.
+    unsafe {
+        let n = (n as usize).min(MAX);
+        if let (Some(s), Some(codes), Some(out)) = (&bench_stage, bench_code.get(..n), bench_block_buf.get_mut(..n)) {
+            f.correct_block(s, codes, out);
+        }
+        for i in 0..n {
+            put(i, bench_block_buf.get(i).copied().unwrap_or(Err(Error::NotCalibrated)));
+        }
+    }
+}
+
 #[panic_handler]
 fn panic(_: &core::panic::PanicInfo) -> ! {
     loop {}
