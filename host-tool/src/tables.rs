@@ -749,10 +749,8 @@ pub fn universal_bend() -> Result<Vec<i32>, TableError> {
     Ok(out)
 }
 
-/// The universal table of `2^(j/64)`, j = 0..64, Q30.
-pub fn universal_exp2() -> Vec<i32> {
-    use logtrim::fixed::transcend::{EXP2_FRAC, EXP2_LEN};
-    (0..EXP2_LEN)
-        .map(|j| (2f64.powf(j as f64 / EXP2_LEN as f64) * 2f64.powi(EXP2_FRAC as i32)).round() as i32)
-        .collect()
+/// The universal table of `e^(j/64)`, j = 0..=44, Q30.
+pub fn universal_exp64() -> Vec<i32> {
+    use logtrim::fixed::transcend::{EXP64_FRAC, EXP64_LEN};
+    (0..EXP64_LEN).map(|j| ((j as f64 / 64.0).exp() * 2f64.powi(EXP64_FRAC as i32)).round() as i32).collect()
 }

@@ -16,7 +16,7 @@ fn universal_tables_are_current() {
     let have = std::fs::read_to_string(path).unwrap();
     assert!(have == want, "{path} is stale: regenerate it with LOGTRIM_BLESS=1 (see this file's docs)");
     assert_eq!(logtrim::fixed::universal::BEND.to_vec(), logtrim_host::tables::universal_bend().unwrap());
-    assert_eq!(logtrim::fixed::universal::EXP2.to_vec(), logtrim_host::tables::universal_exp2());
+    assert_eq!(logtrim::fixed::universal::EXP64.to_vec(), logtrim_host::tables::universal_exp64());
 }
 
 /// Error budget of G(v) = ln(1 − e^(−v)), checked on every Q24 input whose low bits are zero at a spacing

@@ -73,7 +73,7 @@
 //! | `d = code·2^offset_frac − O` | i32 | codes · 2^`offset_frac` |
 //! | u = high word of `d·A`, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i32 | Q24 Np |
 //! | [`universal::BEND`] G control points | i32 | Q24 Np |
-//! | [`universal::EXP2`] 2^(j/64) | i32 | Q30 |
+//! | [`universal::EXP64`] e^(j/64) | i32 | Q30 |
 //! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 6 |
 //! | residual columns at a window end, at θ | i32 | Np · 2^(`residual_frac` + 12) |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
@@ -118,7 +118,7 @@ pub use stage::{StageCache, TemperatureStage, ROW_CAPACITY, STAGE_MEMO};
 use crate::calibration::temperature_out_of_range_millicelsius;
 use crate::error::{CalibrationDefect, Error, SensorFault};
 use crate::units::Unit;
-use arith::{mul_hi_u, mul_wide, mulh16};
+use arith::{mul_hi_u, mulh16};
 use interp::{
     basis16, four, sensor_value, sensor_weights, spline16, window_collapse, window_value, window_weights,
     WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
@@ -753,8 +753,27 @@ pub struct FixedReading {
 
 /// 1/ln 10 in Q32.
 pub const INV_LN10_Q32: i32 = 1_865_280_597;
-/// 10/ln 10 in Q28 (20/ln 10 is twice it).
-pub const DB10_Q28: i32 = 1_165_800_373;
+/// 10/ln 10 − 4 in Q32 (power dB are `4x + x·this`; amplitude dB twice power dB).
+pub const DB10_FRAC_Q32: i32 = 1_472_936_782;
+
+/// `x·c / 2^32` rounded to nearest (ties up), from the exact product's two words.
+#[inline(always)]
+fn mul_round32(x: i32, c: i32) -> i32 {
+    let (hi, lo) = arith::mul_parts(x, c);
+    hi + (lo >> 31) as i32
+}
+
+/// Decades (Q24) of x (Q24): `x / ln 10`.
+#[inline(always)]
+fn decades(x: i32) -> i64 {
+    i64::from(mul_round32(x, INV_LN10_Q32))
+}
+
+/// Power dB (Q24) of x (Q24): `x·10/ln 10 = 4x + x·0.3429…`.
+#[inline(always)]
+fn db_power(x: i32) -> i64 {
+    (i64::from(x) << 2) + i64::from(mul_round32(x, DB10_FRAC_Q32))
+}
 
 /// Fraction bits of [`FixedReading::value`] for a unit: 32 for [`Unit::Ratio`], 24 for the others.
 pub const fn value_frac_bits(unit: Unit) -> u32 {
@@ -772,10 +791,10 @@ impl FixedReading {
         let x = self.x;
         Ok(match unit {
             Unit::Nepers => i64::from(x),
-            Unit::Decades => (mul_wide(x, INV_LN10_Q32) + (1 << 31)) >> 32,
-            Unit::DbPower => (mul_wide(x, DB10_Q28) + (1 << 27)) >> 28,
-            Unit::DbAmplitude => (2 * mul_wide(x, DB10_Q28) + (1 << 27)) >> 28,
-            Unit::Absorbance => -((mul_wide(x, INV_LN10_Q32) + (1 << 31)) >> 32),
+            Unit::Decades => decades(x),
+            Unit::DbPower => db_power(x),
+            Unit::DbAmplitude => 2 * db_power(x),
+            Unit::Absorbance => -decades(x),
             Unit::TransmittancePercent => {
                 let e = transcend::exp_q32(x)?;
                 // e·100 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.

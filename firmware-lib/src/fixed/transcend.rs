@@ -8,20 +8,20 @@
 //!   points. Below `2^BEND_FIRST_EXP` the bias current swamps the signal (sensitivity below ~0.001): the
 //!   reading is below range. At and above `2^(BEND_FIRST_EXP + BEND_OCTAVES)` = 32, `|G| < e^(−32)` and `G`
 //!   is 0.
-//! * `e^x = 2^k · 2^(j/64) · e^ρ`: `x·log2(e) = k + f` in Q28, the top six bits of `f` index [`EXP2`], the
-//!   rest `ρ < ln2/64` goes through `1 + ρ + ρ²/2 + ρ³/6` in Q30 (truncation below 6e-10 relative). Three
-//!   exact wide products ([`mul_wide`]: x·log2(e), r·ln 2 and the table's) and 32-bit ones for the powers of
-//!   ρ; the result `m·2^(k+2)` is assembled from 32-bit halves, so no 64-bit shift by a variable count is
-//!   needed either.
+//! * `e^x = 2^k · e^(j/64) · e^ρ`: `k = floor(x / ln 2)` from a 16-bit reciprocal, corrected by one step so
+//!   that `r = x − k·ln 2` (exact in Q31) lies in `[0, ln 2)`; the top bits of `r` index [`EXP64`] and the
+//!   rest, `ρ < 1/64`, goes through `1 + ρ + ρ²/2 + ρ³/6` in Q30 from 16-bit products. One exact high-word
+//!   product ([`mul_hi_u`]) scales the table's entry; the result `m·2^(k+2)` is assembled from 32-bit halves,
+//!   so no 64-bit multiply or shift by a variable count is needed.
 //!
 //! Measured errors are in the module's tests (exhaustive where the input is 16-bit or less) and in the
 //! host's table tests.
 //!
-//! [`EXP2`]: super::universal::EXP2
+//! [`EXP64`]: super::universal::EXP64
 
-use super::arith::{mul_wide, top_bit};
+use super::arith::{mul_hi_u, mulh16, top_bit};
 use super::interp::{basis16, four, spline16};
-use super::universal::{BEND, EXP2};
+use super::universal::{BEND, EXP64};
 use crate::error::{CalibrationDefect, Error};
 
 /// The lowest octave exponent of the bend table: `v < 2^BEND_FIRST_EXP` is below range.
@@ -36,21 +36,21 @@ pub const BEND_SEGMENTS: usize = 1 << BEND_SEGMENTS_LOG2;
 pub const BEND_STRIDE: usize = BEND_SEGMENTS + 3;
 /// Length of the bend table.
 pub const BEND_LEN: usize = BEND_OCTAVES * BEND_STRIDE;
-/// log2 of the number of entries of the `2^(j/64)` table.
-pub const EXP2_LOG2: u32 = 6;
-/// Entries of the `2^(j/64)` table.
-pub const EXP2_LEN: usize = 1 << EXP2_LOG2;
+/// log2 of the steps per neper of the `e^(j/64)` table.
+pub const EXP64_LOG2: u32 = 6;
+/// Entries of the `e^(j/64)` table: j = 0..=44 covers [0, ln 2).
+pub const EXP64_LEN: usize = 45;
 /// Fraction bits of the bend table's values and of its argument (nepers).
 pub const BEND_FRAC: u32 = 24;
-/// Fraction bits of the `2^(j/64)` table.
-pub const EXP2_FRAC: u32 = 30;
+/// Fraction bits of the `e^(j/64)` table.
+pub const EXP64_FRAC: u32 = 30;
 /// Fraction bits of [`exp_q32`]'s result.
 pub const EXP_RESULT_FRAC: u32 = 32;
 
-/// log2(e) in Q30.
-pub const LOG2E_Q30: i32 = 1_549_082_005;
-/// ln 2 in Q30.
-pub const LN2_Q30: i32 = 744_261_118;
+/// 1/(2 ln 2) in Q16: the reciprocal that finds k in `e^x = 2^k·e^r`.
+pub const HALF_INV_LN2_Q16: u32 = 47_274;
+/// ln 2 in Q31.
+pub const LN2_Q31: i32 = 1_488_522_236;
 
 /// The bit of `v` (Q24) at the table's floor, `2^(24 + BEND_FIRST_EXP)`.
 const FLOOR_BIT: u32 = (24 + BEND_FIRST_EXP) as u32;
@@ -80,31 +80,41 @@ pub fn bend_q24(v: i32) -> Result<i32, Error> {
 /// Results below 2^−33 round to 0.
 #[inline(always)]
 pub fn exp_q32(x: i32) -> Result<i64, Error> {
-    // y = x·log2(e) in Q28, rounded (an i64: |y| < 2^36).
-    let y = (mul_wide(x, LOG2E_Q30) + (1 << 25)) >> 26;
-    let k = y >> 28; // floor
+    // k = floor(x / ln 2) from a 16-bit reciprocal (within one of the truth for any x), then r = x − k·ln 2
+    // exactly in Q31 and one step to bring it into [0, ln 2).
+    let mut k = mulh16(x, HALF_INV_LN2_Q16) >> 23;
+    let (lh, ll) = (LN2_Q31 >> 16, LN2_Q31 & 0xffff);
+    let mut r = (i64::from(x) << 7) - ((i64::from(k * lh) << 16) + i64::from(k * ll));
+    if r < 0 {
+        k -= 1;
+        r += i64::from(LN2_Q31);
+    } else if r >= i64::from(LN2_Q31) {
+        k += 1;
+        r -= i64::from(LN2_Q31);
+    }
     if k > 30 {
         return Err(Error::AboveRange);
     }
     if k < -36 {
         return Ok(0);
     }
-    let f = (y & 0xfff_ffff) as i32; // Q28, [0, 1)
-    let j = (f >> (28 - EXP2_LOG2)) as usize;
-    let r = f & ((1 << (28 - EXP2_LOG2)) - 1); // Q28, below 1/64
-                                               // ρ = r·ln2 in Q30, below 2^23.5; e^ρ ≈ 1 + ρ + ρ²/2 + ρ³/6 in Q30, the square from ρ in Q22 (below
-                                               // 2^15.5, its square below 2^31) and the cube from ρ²/2 in Q22 and ρ in Q16 (their product below 2^20):
-                                               // 32-bit products, within a few units of Q30.
-    let rho = (mul_wide(r, LN2_Q30) >> 28) as i32;
-    let rq = rho >> 8;
-    let rho2h = (rq * rq) >> 15; // ρ²/2, below 2^16
-    let rho3 = (((2 * rho2h) >> 8) * (rho >> 14)) >> 8; // ρ³, below 2^11
-    let p = (1 << 30) + rho + rho2h + ((rho3 * 10923) >> 16);
-    let base = *EXP2.get(j).ok_or(Error::AboveRange)?;
-    // m = 2^(j/64)·e^ρ in Q30: in [2^30, 2^31).
-    let m = ((mul_wide(base, p) + (1 << 29)) >> 30) as u32;
+    // r in [0, ln 2), Q31: below 2^31.
+    let r = r as u32;
+    let j = (r >> (31 - EXP64_LOG2)) as usize;
+    // e^ρ for ρ = r − j/64 below 1/64: 1 + ρ + ρ²/2 + ρ³/6 in Q30, the square from ρ in Q22 (below 2^16, its
+    // square below 2^32) and the cube from ρ²/2 in Q22 and ρ in Q16.
+    let rho = r & ((1 << (31 - EXP64_LOG2)) - 1);
+    let rho30 = rho >> 1;
+    let rq = rho >> 9;
+    let rho2h = (rq * rq) >> 15;
+    let rho3 = (((2 * rho2h) >> 8) * (rho30 >> 14)) >> 8;
+    let q = rho30 + rho2h + ((rho3 * 10923) >> 16); // e^ρ − 1, below 2^24.1
+                                                    // Table entries are e^(j/64) in Q30: in [2^30, 2^31).
+    let base = *EXP64.get(j).ok_or(Error::AboveRange)? as u32;
+    // m = e^(j/64)·e^ρ = base + base·q in Q30, in [2^30, 2^31): base·q from the high word of (q·2^6)·base.
+    let m = base + (mul_hi_u((q << 6) as i32, base) >> 4) as u32;
     // e^x = m·2^(k − 30) = m·2^(k + 2) in Q32, m below 2^31 and k + 2 in −34..=32.
-    let sh = (k + 2) as i32;
+    let sh = k + 2;
     Ok(if sh >= 32 {
         i64::from(m) << 32
     } else if sh > 0 {
@@ -117,6 +127,6 @@ pub fn exp_q32(x: i32) -> Result<i64, Error> {
         let n = (-sh) as u32;
         i64::from((m >> n) + ((m >> (n - 1)) & 1))
     } else {
-        i64::from(u32::from(sh == -32 && m >= 1 << 31))
+        0
     })
 }

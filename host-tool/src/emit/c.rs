@@ -117,16 +117,20 @@ fn shared_definitions() -> String {
         ("LT_BEND_SEGMENTS", format!("{}u", t::BEND_SEGMENTS), "transcend::BEND_SEGMENTS"),
         ("LT_BEND_STRIDE", format!("{}u", t::BEND_STRIDE), "transcend::BEND_STRIDE"),
         ("LT_BEND_LEN", format!("{}u", t::BEND_LEN), "transcend::BEND_LEN"),
-        ("LT_EXP2_LOG2", format!("{}", t::EXP2_LOG2), "transcend::EXP2_LOG2"),
-        ("LT_EXP2_LEN", format!("{}u", t::EXP2_LEN), "transcend::EXP2_LEN"),
-        ("LT_LOG2E_Q30", format!("{}", t::LOG2E_Q30), "transcend::LOG2E_Q30"),
-        ("LT_LN2_Q30", format!("{}", t::LN2_Q30), "transcend::LN2_Q30"),
+        ("LT_EXP64_LOG2", format!("{}u", t::EXP64_LOG2), "transcend::EXP64_LOG2"),
+        ("LT_EXP64_LEN", format!("{}u", t::EXP64_LEN), "transcend::EXP64_LEN"),
+        ("LT_HALF_INV_LN2_Q16", format!("{}u", t::HALF_INV_LN2_Q16), "transcend::HALF_INV_LN2_Q16"),
+        ("LT_LN2_Q31", format!("{}", t::LN2_Q31), "transcend::LN2_Q31"),
         ("LT_INV_LN10_Q32", format!("{}", f::INV_LN10_Q32), "fixed::INV_LN10_Q32"),
     ];
     for (name, value, from) in defs {
         let _ = writeln!(out, "#define {name} {value} /* {from} */");
     }
-    let _ = writeln!(out, "#define LT_DB10_Q28 {} /* fixed::DB10_Q28 */", logtrim::fixed::DB10_Q28);
+    let _ = writeln!(
+        out,
+        "#define LT_DB10_FRAC_Q32 {} /* fixed::DB10_FRAC_Q32 */",
+        logtrim::fixed::DB10_FRAC_Q32
+    );
     out.push_str("#define LT_NO_WINDOW 0xffffffffu /* a stage cache without a window */\n\n");
     out.push_str("/* The outcome of a correction (the Rust path's Result: LT_OK or the error's kind). */\ntypedef enum lt_status {\n");
     for (i, (name, doc)) in STATUSES.iter().enumerate() {
@@ -187,7 +191,7 @@ pub fn render(t: &FixedTables, prov: &Provenance) -> String {
         &logtrim::fixed::universal::BEND,
         logtrim::fixed::transcend::BEND_STRIDE,
     );
-    array(&mut out, "lt_exp2", "int32_t", &logtrim::fixed::universal::EXP2, 8);
+    array(&mut out, "lt_exp64", "int32_t", &logtrim::fixed::universal::EXP64, 9);
     out.push('\n');
     out.push_str(FUNCTIONS);
     out.push_str("\n/* ---- this unit's tables ---- */\n");

@@ -135,26 +135,31 @@ static inline lt_status lt_bend_q24(int32_t v, int32_t *out) {
 
 /* e^x, x Q24, result Q32. */
 static inline lt_status lt_exp_q32(int32_t x, int64_t *out) {
-    int64_t y = lt_asr64(lt_mul_wide(x, LT_LOG2E_Q30) + ((int64_t)1 << 25), 26), k = lt_asr64(y, 28);
-    int32_t f, r, rho, rho2h, rho3, p, sh;
-    uint32_t j, m;
+    int32_t k = lt_asr32(lt_mulh16(x, LT_HALF_INV_LN2_Q16), 23), sh;
+    int32_t lh = LT_LN2_Q31 >> 16, ll = LT_LN2_Q31 & 0xffff;
+    int64_t r = (int64_t)x * 128 - ((int64_t)(k * lh) * 65536 + (int64_t)(k * ll));
+    uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
+    if (r < 0) { k -= 1; r += LT_LN2_Q31; }
+    else if (r >= LT_LN2_Q31) { k += 1; r -= LT_LN2_Q31; }
     if (k > 30) return LT_ABOVE_RANGE;
     if (k < -36) { *out = 0; return LT_OK; }
-    f = (int32_t)((uint64_t)y & 0xfffffffu);
-    j = (uint32_t)f >> (28 - LT_EXP2_LOG2);
-    r = f & ((1 << (28 - LT_EXP2_LOG2)) - 1);
-    rho = (int32_t)(lt_mul_wide(r, LT_LN2_Q30) >> 28);
-    rho2h = ((rho >> 8) * (rho >> 8)) >> 15;
-    rho3 = (((2 * rho2h) >> 8) * (rho >> 14)) >> 8;
-    p = (1 << 30) + rho + rho2h + ((rho3 * 10923) >> 16);
-    if (j >= LT_EXP2_LEN) return LT_ABOVE_RANGE;
-    m = (uint32_t)((lt_mul_wide(lt_exp2[j], p) + ((int64_t)1 << 29)) >> 30);
-    sh = (int32_t)k + 2;
+    ru = (uint32_t)r;
+    j = ru >> (31u - LT_EXP64_LOG2);
+    rho = ru & ((1u << (31u - LT_EXP64_LOG2)) - 1u);
+    rho30 = rho >> 1;
+    rq = rho >> 9;
+    rho2h = (rq * rq) >> 15;
+    rho3 = (((2u * rho2h) >> 8) * (rho30 >> 14)) >> 8;
+    q = rho30 + rho2h + ((rho3 * 10923u) >> 16);
+    if (j >= LT_EXP64_LEN) return LT_ABOVE_RANGE;
+    base = (uint32_t)lt_exp64[j];
+    m = base + ((uint32_t)lt_mul_hi_u((int32_t)(q << 6), base) >> 4);
+    sh = k + 2;
     if (sh >= 32) *out = (int64_t)m * ((int64_t)1 << 32);
     else if (sh > 0) *out = (int64_t)(m >> (32 - sh)) * ((int64_t)1 << 32) + (int64_t)((m & (0xffffffffu >> sh)) << sh);
     else if (sh == 0) *out = (int64_t)m;
     else if (sh > -32) *out = (int64_t)((m >> (uint32_t)-sh) + ((m >> (uint32_t)(-sh - 1)) & 1u));
-    else *out = (int64_t)(sh == -32 && m >= 0x80000000u);
+    else *out = 0;
     return LT_OK;
 }
 
@@ -543,16 +548,24 @@ static inline lt_status lt_stage_cache_correct(lt_stage_cache *k, uint32_t code,
     return lt_stage_cache_theta(k, code, theta, out);
 }
 
+/* x*c / 2^32 rounded to nearest (ties up), from the exact product's two words. */
+static inline int32_t lt_mul_round32(int32_t x, int32_t c) {
+    int32_t h;
+    uint32_t l;
+    lt_mul_parts(x, c, &h, &l);
+    return h + (int32_t)(l >> 31);
+}
+
 /* The reading in a unit: Q32 for LT_RATIO, Q24 for the others. */
 static inline lt_status lt_value(const lt_reading *r, lt_unit_kind unit, int64_t *out) {
     int64_t e;
     lt_status st;
     switch (unit) {
     case LT_NEPERS: *out = r->x; return LT_OK;
-    case LT_DECADES: *out = lt_asr64(lt_mul_wide(r->x, LT_INV_LN10_Q32) + ((int64_t)1 << 31), 32); return LT_OK;
-    case LT_DB_POWER: *out = lt_asr64(lt_mul_wide(r->x, LT_DB10_Q28) + ((int64_t)1 << 27), 28); return LT_OK;
-    case LT_DB_AMPLITUDE: *out = lt_asr64(2 * lt_mul_wide(r->x, LT_DB10_Q28) + ((int64_t)1 << 27), 28); return LT_OK;
-    case LT_ABSORBANCE: *out = -lt_asr64(lt_mul_wide(r->x, LT_INV_LN10_Q32) + ((int64_t)1 << 31), 32); return LT_OK;
+    case LT_DECADES: *out = lt_mul_round32(r->x, LT_INV_LN10_Q32); return LT_OK;
+    case LT_DB_POWER: *out = (int64_t)r->x * 4 + lt_mul_round32(r->x, LT_DB10_FRAC_Q32); return LT_OK;
+    case LT_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + lt_mul_round32(r->x, LT_DB10_FRAC_Q32)); return LT_OK;
+    case LT_ABSORBANCE: *out = -(int64_t)lt_mul_round32(r->x, LT_INV_LN10_Q32); return LT_OK;
     case LT_TRANSMITTANCE_PERCENT:
         if ((st = lt_exp_q32(r->x, &e)) != LT_OK) return st;
         if (e > INT64_MAX / 100) return LT_ABOVE_RANGE;
