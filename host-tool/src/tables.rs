@@ -581,8 +581,9 @@ pub fn build(
         }
     }
     let x_fit = fit_operator(nx - 1, &x_pos)?;
-    // Stored divided by 6 for the temperature axis (the x̃ axis's per-sample spline takes full scale).
-    let c = (&t_fit * f * x_fit.transpose()) / 6.0; // (nt + 2) × (nx + 2)
+    // Stored divided by 6 for the temperature axis and times 4/3 for the x̃ axis (its per-sample spline sums
+    // three quarters of the value): times 2/9.
+    let c = (&t_fit * f * x_fit.transpose()) * (2.0 / 9.0); // (nt + 2) × (nx + 2)
     let cv: Vec<f64> = c.iter().copied().collect();
     let frac = choose_frac("residual", &cv, 0.0, 32767.0, u32::from(RESIDUAL_FRAC_RANGE.1))?;
     if frac < u32::from(RESIDUAL_FRAC_RANGE.0) {

@@ -6,11 +6,13 @@
 //! `B_3 = t³/6` (de Boor, "A Practical Guide to Splines"). The weights are positive and sum to one, so a
 //! value never leaves the range of its control points, and the spline is C² across segments.
 //!
-//! * **Per-sample splines** (the bias bend over `v`, the residual over x̃): [`basis16`] gives the basis in
-//!   Q16 (each weight below 2^16, the four summing to exactly 2^16) from a Q16 fraction, and [`spline16`]
-//!   sums `floor(c_k·B_k / 2^16)` with [`mulh16`]: eight 16 × 16-bit products. Control points are stored at
-//!   full scale. The weights' rounding (a few units of 2^−16) times the change of the control points over a
-//!   segment is the method's error; for the tables it is used on that is far below 0.01 LSB.
+//! * **Per-sample splines**: the residual over x̃ uses [`basis6`], six times the basis in Q13 (below 2^16,
+//!   the four summing to exactly `6·2^13`, no division), and [`spline6`] sums `floor(c_k·w_k / 2^16)` with
+//!   [`mulh16`]: eight 16 × 16-bit products and three quarters of the value, so that table stores its
+//!   control points times 4/3. The bias bend over `v`, whose control points change faster, uses the finer
+//!   [`basis16`] (the basis in Q16, `1/6` as `10923/2^16`) and [`spline16`] on full-scale control points.
+//!   The weights' rounding times the change of the control points over a segment is the methods' error;
+//!   for the tables they are used on it is far below 0.01 LSB.
 //! * **Temperature windows** ([`window_weights`], [`window_value`], [`window_collapse`]): the temperature
 //!   grid's knot step is a power of two and is cut into [`WINDOWS_LOG2`]` = 4`, i.e. 16, windows; the splines
 //!   over temperature are evaluated only at window ends, `t = m/16`, where six times the basis times 16³ is
@@ -33,14 +35,13 @@ pub const WINDOW_DEN_LOG2: u32 = 3 * WINDOWS_LOG2;
 
 /// The cubic B-spline basis at a Q16 fraction `t ∈ [0, 2^16)`, in Q16: each weight in `[0, 43691]`, the four
 /// summing to exactly 2^16 (tested at every `t`). `t²` and `t³` are truncated to Q16; `1/6` is
-/// `10923/2^16`; `(1 − t)³ = 1 − 3t + 3t² − t³` from the same truncated powers.
+/// `10923/2^16`; `(1 − t)³ = 1 − 3t + 3t² − t³` from the same truncated powers, saturating at 0. Finer than
+/// [`basis6`] by two multiplications: the bias bend, whose control points change fastest, uses it.
 #[inline(always)]
 pub fn basis16(t: u32) -> [u32; 4] {
     let t = t & 0xffff;
     let t2 = (t * t) >> 16;
     let t3 = (t2 * t) >> 16;
-    // (1 − t)³ = 1 − 3t + 3t² − t³, at least 0 (the truncated powers can make it −1 near t = 1: it
-    // saturates there).
     let s3 = (65536 + 3 * t2).saturating_sub(3 * t + t3);
     let b0 = (s3 * 10923) >> 16;
     let b1 = (t3 >> 1) + 43691 - t2;
@@ -48,11 +49,36 @@ pub fn basis16(t: u32) -> [u32; 4] {
     [b0, b1, 65536 - b0 - b1 - b3, b3]
 }
 
-/// `Σ floor(c_k·w_k / 2^16)`: a per-sample spline value from four full-scale control points and
-/// [`basis16`] weights. Below `4·max|c_k|` in magnitude (in practice within one unit per tap of the
-/// weighted mean).
+/// `Σ floor(c_k·B_k / 2^16)` with the [`basis16`] weights at `t`: the spline's value for full-scale control
+/// points, within four units; below `max|c_k|` in magnitude.
 #[inline(always)]
-pub fn spline16(c: [i32; 4], w: [u32; 4]) -> i32 {
+pub fn spline16(c: [i32; 4], t: u32) -> i32 {
+    let w = basis16(t);
+    mulh16(c[0], w[0]) + mulh16(c[1], w[1]) + mulh16(c[2], w[2]) + mulh16(c[3], w[3])
+}
+
+/// Six times the cubic B-spline basis at a Q16 fraction `t ∈ [0, 2^16)`, in Q13: each weight non-negative
+/// and below 2^16, the four summing to exactly `6·2^13 = 49152` (tested at every `t`). Six times the basis
+/// is an integer polynomial in `t` (`(1 − t)³`, `3t³ − 6t² + 4`, …, `t³`), so no division: `t²` and `t³`
+/// are rounded to Q16, three weights rounded to Q13 and the fourth takes the remainder, and
+/// `(1 − t)³ = 1 − 3t + 3t² − t³` saturates at 0 where the rounded powers would make it negative.
+#[inline(always)]
+pub fn basis6(t: u32) -> [u32; 4] {
+    let t = t & 0xffff;
+    let t2 = (t * t + 32768) >> 16;
+    let t3 = (t2 * t + 32768) >> 16;
+    let s3 = (65536 + 3 * t2).saturating_sub(3 * t + t3);
+    // Rounded to Q13 (the fourth weight takes the remainder).
+    let (w0, w1, w3) = ((s3 + 4) >> 3, (3 * t3 + 4 * 65536 + 4 - 6 * t2) >> 3, (t3 + 4) >> 3);
+    [w0, w1, 49152 - w0 - w1 - w3, w3]
+}
+
+/// `Σ floor(c_k·w_k / 2^16)` with the [`basis6`] weights at `t`: three quarters of the spline's value for
+/// control points `c_k`, so the per-sample tables store their control points times 4/3. Within four units
+/// of `c_k`'s scale of the weighted mean; below `max|c_k|` in magnitude.
+#[inline(always)]
+pub fn spline6(c: [i32; 4], t: u32) -> i32 {
+    let w = basis6(t);
     mulh16(c[0], w[0]) + mulh16(c[1], w[1]) + mulh16(c[2], w[2]) + mulh16(c[3], w[3])
 }
 
@@ -124,8 +150,6 @@ mod tests {
 
     #[test]
     fn basis16_is_a_partition_of_unity_at_every_fraction() {
-        // The uniform cubic B-spline basis (de Boor, "A Practical Guide to Splines"): 1/6, 4/6, 1/6, 0 at
-        // t = 0; 1/48, 23/48, 23/48, 1/48 at t = 1/2.
         let mut worst = 0f64;
         for t in 0..65536u32 {
             let w = basis16(t);
@@ -144,8 +168,34 @@ mod tests {
             }
         }
         assert_eq!(basis16(0), [10923, 43691, 10922, 0]);
-        // Each weight within 4·2^−16 of the basis everywhere (the error budget of the per-sample splines).
         assert!(worst < 4.0 / 65536.0, "{worst}");
+    }
+
+    #[test]
+    fn basis6_is_six_times_a_partition_of_unity_at_every_fraction() {
+        // The uniform cubic B-spline basis (de Boor, "A Practical Guide to Splines"): 1/6, 4/6, 1/6, 0 at
+        // t = 0; 1/48, 23/48, 23/48, 1/48 at t = 1/2 (here six times, in Q13).
+        let mut worst = 0f64;
+        for t in 0..65536u32 {
+            let w = basis6(t);
+            assert_eq!(w.iter().sum::<u32>(), 49152, "t={t}");
+            assert!(w.iter().all(|&x| x <= 32772), "t={t}: {w:?}");
+            let x = f64::from(t) / 65536.0;
+            let s = 1.0 - x;
+            let exact = [
+                s * s * s,
+                3.0 * x * x * x - 6.0 * x * x + 4.0,
+                -3.0 * x * x * x + 3.0 * x * x + 3.0 * x + 1.0,
+                x * x * x,
+            ];
+            for k in 0..4 {
+                worst = worst.max((f64::from(w[k]) / 8192.0 - exact[k]).abs());
+            }
+        }
+        assert_eq!(basis6(0), [8192, 32768, 8192, 0]);
+        assert_eq!(basis6(32768), [1024, 23552, 23552, 1024]);
+        // Each weight within 2 units of Q13 of six times the basis (the per-sample splines' error budget).
+        assert!(worst < 2.0 / 8192.0, "{worst}");
     }
 
     #[test]

@@ -55,7 +55,8 @@
 //!
 //! `Qn` means the integer is the value times 2^n. θ is the internal temperature. The splines over
 //! temperature and the sensor's store their control points divided by 6 (their weights are six times the
-//! basis); the per-sample splines (the bend, the residual over x̃) store them at full scale.
+//! basis); the residual's over x̃ times 4/3 (its weights are six times the basis in Q13 and its sums three
+//! quarters of the value); the bend's at full scale.
 //!
 //! | quantity | type | format |
 //! |---|---|---|
@@ -64,7 +65,7 @@
 //! | θ, internal temperature; [`FixedHeader`] temperatures | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
 //! | [`SensorTable::knots`] | i32 | θ / 6 |
 //! | window fraction, knot fractions | u32 | Q16 (`0..2^16`) |
-//! | per-sample spline weights ([`interp::basis16`]) | u32 | the basis in Q16, summing to 2^16 |
+//! | per-sample spline weights ([`interp::basis6`], the bend's [`interp::basis16`]) | u32 | six times the basis in Q13; the basis in Q16 |
 //! | window weights ([`interp::window_weights`]) | i32 | six times the basis · 16³, exact |
 //! | sensor weights ([`interp::sensor_weights`]) | i32 | six times the basis, Q24 |
 //! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
@@ -74,7 +75,7 @@
 //! | u = high word of `d·A`, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i32 | Q24 Np |
 //! | [`universal::BEND`] G control points | i32 | Q24 Np |
 //! | [`universal::EXP64`] e^(j/64) | i32 | Q30 |
-//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 6 |
+//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` · 2/9 (1/6 for the temperature axis, 4/3 for x̃) |
 //! | residual columns at a window end, at θ | i32 | Np · 2^(`residual_frac` + 12) |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
@@ -120,8 +121,8 @@ use crate::error::{CalibrationDefect, Error, SensorFault};
 use crate::units::Unit;
 use arith::{mul_hi_u, mulh16};
 use interp::{
-    basis16, four, sensor_value, sensor_weights, spline16, window_collapse, window_value, window_weights,
-    WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
+    four, sensor_value, sensor_weights, spline6, window_collapse, window_value, window_weights, WINDOWS,
+    WINDOWS_LOG2, WINDOW_DEN_LOG2,
 };
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
@@ -323,6 +324,189 @@ fn parabola(q0: i64, q1: i64, c: i64, lo: i64, hi: i64) -> Result<(i32, i32), Er
     }
 }
 
+/// The header's values the per-sample part of a correction uses, gathered once with their shift counts
+/// clamped (the per-sample code then needs no clamp): held by a [`TemperatureStage`] and a [`StageCache`],
+/// made per call on the direct path.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub(crate) struct Plan {
+    /// Codes strictly between the rail margins and below [`CODE_LIMIT`]` >> offset_frac`: the one range
+    /// check of a sample (the others go through [`FixedCalibration::check_code`]).
+    code_lo: u32,
+    code_hi: u32,
+    qo: u32,
+    bias_bend: bool,
+    xa_origin: i32,
+    xs: u32,
+    /// `xa_knots − 1`: segments at or past it are above range.
+    xa_last: u32,
+    /// The residual's move to Q24: `(r + round) >> rshift`.
+    rshift: u32,
+    rround: i32,
+    x_min: i32,
+    x_max: i32,
+}
+
+/// `v` clamped to `[lo, hi]` (`lo ≤ hi`) in a `const fn`.
+const fn clamp_u8(v: u8, (lo, hi): (u8, u8)) -> u32 {
+    (if v < lo {
+        lo
+    } else if v > hi {
+        hi
+    } else {
+        v
+    }) as u32
+}
+
+impl Plan {
+    pub(crate) const fn of(h: &FixedHeader) -> Plan {
+        let qo = if h.offset_frac > 30 { 30 } else { h.offset_frac as u32 };
+        let code_lo = h.rail_margin.saturating_add(1);
+        let rail_hi = match h.adc_max_code.checked_sub(h.rail_margin) {
+            Some(v) => v.saturating_sub(1),
+            None => 0,
+        };
+        let limit = (CODE_LIMIT >> qo) - 1;
+        let rshift = clamp_u8(h.residual_frac, RESIDUAL_FRAC_RANGE) + COLUMN_GUARD - X_FRAC;
+        Plan {
+            code_lo,
+            code_hi: if rail_hi < limit { rail_hi } else { limit },
+            qo,
+            bias_bend: h.bias_bend,
+            xa_origin: h.xa_origin,
+            xs: clamp_u8(h.xa_step_log2, XA_STEP_LOG2_RANGE),
+            xa_last: (h.xa_knots as u32).saturating_sub(1),
+            rshift,
+            rround: if rshift == 0 { 0 } else { 1 << (rshift - 1) },
+            x_min: h.x_min,
+            x_max: h.x_max,
+        }
+    }
+
+    /// The direct path's code checks in one comparison for codes between the rails: the others get
+    /// [`FixedCalibration::check_code`]'s exact error, or [`Error::InvalidCalibration`] past the code limit
+    /// (tables `validate` refuses).
+    #[inline(always)]
+    pub(crate) fn check_code(&self, cal: &FixedCalibration<'_>, code: u32) -> Result<(), Error> {
+        if !(self.code_lo <= code && code <= self.code_hi) {
+            cal.check_code(code)?;
+            if code >= CODE_LIMIT >> self.qo {
+                return Err(BAD_TABLE);
+            }
+        }
+        Ok(())
+    }
+}
+
+impl Plan {
+    /// x in Q24 for a checked code at a temperature's scalars (steps 3–5 of the chain); `columns(seg)` gives
+    /// the residual's four columns `seg..seg + 4` at that temperature.
+    #[inline(always)]
+    pub(crate) fn x_of(
+        &self,
+        s: &Scalars,
+        code: u32,
+        columns: impl FnOnce(usize) -> Result<[i32; 4], Error>,
+    ) -> Result<i32, Error> {
+        // code·2^qo < 2^30 (checked) and −2^29 < O < 2^30: |d| < 1.5·2^30; u is the high word of d·A with
+        // 0 < A < 2^32: |u| < 1.5·2^30.
+        let d = ((code << self.qo) as i32) - s.offset;
+        let u = mul_hi_u(d, s.inv_slope);
+        if u < s.u_min {
+            return Err(Error::BelowRange);
+        }
+        // |λ| < 2^29: v fits; |G| < 2^28.
+        let xa = if self.bias_bend { u + transcend::bend_q24(u - s.ln_bias)? } else { u };
+        // The position on the x̃ grid: the difference of two i32s, formed in i64; once it is known to be
+        // non-negative it is below 2^32 and shifts as a u32.
+        let p = i64::from(xa) - i64::from(self.xa_origin);
+        if p < 0 {
+            return Err(Error::BelowRange);
+        }
+        let p = p as u32;
+        let seg = p >> self.xs;
+        // The last knot itself is past the grid (the host keeps a margin beyond every usable x̃).
+        if seg >= self.xa_last {
+            return Err(Error::AboveRange);
+        }
+        let c = columns(seg as usize)?;
+        // Columns are below 2^29.6 in magnitude, so the per-sample spline fits an i32; shifted by at least
+        // 2 bits it is below 2^27.6 and x fits.
+        let r = (spline6(c, (p & ((1 << self.xs) - 1)) >> (self.xs - 16)) + self.rround) >> self.rshift;
+        let x = xa + r;
+        if x < self.x_min {
+            return Err(Error::BelowRange);
+        }
+        if x > self.x_max {
+            return Err(Error::AboveRange);
+        }
+        Ok(x)
+    }
+}
+
+/// The temperature side of a header, gathered once: the accepted range in θ and in m°C (rounded inwards),
+/// the calibrated range, and the grid's origin and window shift (clamped).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub(crate) struct Grid {
+    temp_lo: i32,
+    temp_hi: i32,
+    temp_min: i32,
+    temp_max: i32,
+    mc_lo: i32,
+    mc_hi: i32,
+    t_origin: i32,
+    /// log2 of a window's width in θ.
+    wb: u32,
+}
+
+impl Grid {
+    pub(crate) const fn of(h: &FixedHeader) -> Grid {
+        Grid {
+            temp_lo: h.temp_lo,
+            temp_hi: h.temp_hi,
+            temp_min: h.temp_min,
+            temp_max: h.temp_max,
+            // m°C·2^10 ≥ temp_lo ⟺ m°C ≥ ceil(temp_lo / 2^10); within i32 for any i32 θ.
+            mc_lo: ((h.temp_lo as i64 + (1 << THETA_FRAC) - 1) >> THETA_FRAC) as i32,
+            mc_hi: h.temp_hi >> THETA_FRAC,
+            t_origin: h.t_origin,
+            wb: clamp_u8(h.t_step_log2, T_STEP_LOG2_RANGE) - WINDOWS_LOG2,
+        }
+    }
+
+    /// θ of a temperature in m°C, the accepted range checked in m°C first (so that θ = m°C·2^10 fits).
+    #[inline(always)]
+    pub(crate) fn theta_from_millicelsius(&self, temp_mc: i32) -> Result<i32, Error> {
+        if temp_mc < self.mc_lo || temp_mc > self.mc_hi {
+            return Err(temperature_out_of_range_millicelsius(temp_mc));
+        }
+        // Within [temp_lo, temp_hi], both i32.
+        Ok(temp_mc << THETA_FRAC)
+    }
+
+    /// θ checked against the accepted range, and its window on the grid.
+    #[inline(always)]
+    pub(crate) fn window_of(&self, theta: i32) -> Result<WindowPos, Error> {
+        if theta < self.temp_lo || theta > self.temp_hi {
+            let mc = (i64::from(theta) + (1 << (THETA_FRAC - 1))) >> THETA_FRAC;
+            return Err(temperature_out_of_range_millicelsius(mc as i32));
+        }
+        let p = i64::from(theta) - i64::from(self.t_origin);
+        if !(0..1 << 31).contains(&p) {
+            return Err(BAD_TABLE);
+        }
+        let (p, wb) = (p as u32, self.wb);
+        Ok(WindowPos { index: p >> wb, f16: (p & ((1 << wb) - 1)) >> (wb - 16) })
+    }
+
+    /// θ is outside the calibrated range (within the accepted one).
+    #[inline(always)]
+    pub(crate) fn extrapolated(&self, theta: i32) -> bool {
+        theta < self.temp_min || theta > self.temp_max
+    }
+}
+
 /// Where a temperature lies on the grid: its window (index along the grid, 16 per knot step) and the Q16
 /// fraction inside it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -363,57 +547,38 @@ impl<'a> FixedCalibration<'a> {
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
     #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
+        let plan = Plan::of(&self.header);
+        plan.check_code(self, code)?;
         let theta = self.theta_from_millicelsius(temp_mc)?;
-        self.correct_theta(code, theta)
+        self.correct_theta(&plan, code, theta)
     }
 
     /// Corrects one reading from raw codes: `code` from the log channel, `temp_code` from the temperature
     /// channel (through [`FixedCalibration::sensor`]).
     #[inline(always)]
     pub fn correct_raw(&self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
+        let plan = Plan::of(&self.header);
+        plan.check_code(self, code)?;
         let theta = self.theta_from_code(temp_code)?;
-        self.correct_theta(code, theta)
+        self.correct_theta(&plan, code, theta)
     }
 
     /// θ of a temperature in m°C, with the accepted range checked in m°C first (so that θ = m°C·2^10 fits).
     #[inline(always)]
     pub(crate) fn theta_from_millicelsius(&self, temp_mc: i32) -> Result<i32, Error> {
-        let h = &self.header;
-        // The accepted range in m°C, rounded inwards: m°C·2^10 ≥ temp_lo ⟺ m°C ≥ ceil(temp_lo / 2^10).
-        let lo = (i64::from(h.temp_lo) + (1 << THETA_FRAC) - 1) >> THETA_FRAC;
-        let hi = i64::from(h.temp_hi) >> THETA_FRAC;
-        if i64::from(temp_mc) < lo || i64::from(temp_mc) > hi {
-            return Err(temperature_out_of_range_millicelsius(temp_mc));
-        }
-        // Within [temp_lo, temp_hi], both i32.
-        Ok(temp_mc << THETA_FRAC)
+        Grid::of(&self.header).theta_from_millicelsius(temp_mc)
     }
 
     /// θ checked against the accepted range, and its window on the grid.
     #[inline(always)]
     pub(crate) fn window_of(&self, theta: i32) -> Result<WindowPos, Error> {
-        let h = &self.header;
-        if theta < h.temp_lo || theta > h.temp_hi {
-            let mc = (i64::from(theta) + (1 << (THETA_FRAC - 1))) >> THETA_FRAC;
-            return Err(temperature_out_of_range_millicelsius(mc as i32));
-        }
-        let p = i64::from(theta) - i64::from(h.t_origin);
-        if !(0..1 << 31).contains(&p) {
-            return Err(BAD_TABLE);
-        }
-        let p = p as u32;
-        let wb =
-            u32::from(h.t_step_log2).max(u32::from(T_STEP_LOG2_RANGE.0)).min(u32::from(T_STEP_LOG2_RANGE.1))
-                - WINDOWS_LOG2;
-        Ok(WindowPos { index: p >> wb, f16: (p & ((1 << wb) - 1)) >> (wb - 16) })
+        Grid::of(&self.header).window_of(theta)
     }
 
     /// θ is outside the calibrated range (within the accepted one).
     #[inline(always)]
     pub(crate) fn extrapolated(&self, theta: i32) -> bool {
-        theta < self.header.temp_min || theta > self.header.temp_max
+        Grid::of(&self.header).extrapolated(theta)
     }
 
     /// The segment of the temperature grid and the window weights at window end `end` (16 per knot step; the
@@ -502,10 +667,10 @@ impl<'a> FixedCalibration<'a> {
     /// ends, all interpolated at θ's fraction; exactly what a [`TemperatureStage`] or a [`StageCache`] at
     /// θ computes for this code.
     #[inline(always)]
-    pub(crate) fn correct_theta(&self, code: u32, theta: i32) -> Result<FixedReading, Error> {
+    pub(crate) fn correct_theta(&self, plan: &Plan, code: u32, theta: i32) -> Result<FixedReading, Error> {
         let pos = self.window_of(theta)?;
         let s = self.window(pos.index)?.at(pos.f16);
-        let x = self.x_of(&s, code, |seg| {
+        let x = plan.x_of(&s, code, |seg| {
             let mut c = [0; 4];
             for (k, v) in c.iter_mut().enumerate() {
                 let a = self.end_column(pos.index, seg + k)?;
@@ -568,8 +733,8 @@ impl<'a> FixedCalibration<'a> {
     /// The log-channel part of a correction at a temperature stage. The code is checked again (cheap).
     #[inline(always)]
     pub fn correct_staged(&self, stage: &TemperatureStage, code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        let x = self.x_of(&stage.scalars, code, |seg| stage.columns(seg))?;
+        stage.plan.check_code(self, code)?;
+        let x = stage.plan.x_of(&stage.scalars, code, |seg| stage.columns(seg))?;
         Ok(FixedReading { x, temperature_extrapolated: stage.extrapolated })
     }
 
@@ -588,65 +753,6 @@ impl<'a> FixedCalibration<'a> {
             n += 1;
         }
         n
-    }
-
-    /// x in Q24 for a checked code at a temperature's scalars (steps 3–5 of the chain); `columns(seg)` gives
-    /// the residual's four columns `seg..seg + 4` at that temperature.
-    #[inline(always)]
-    pub(crate) fn x_of(
-        &self,
-        s: &Scalars,
-        code: u32,
-        columns: impl FnOnce(usize) -> Result<[i32; 4], Error>,
-    ) -> Result<i32, Error> {
-        let h = &self.header;
-        let qo = u32::from(h.offset_frac).min(30);
-        if code >= CODE_LIMIT >> qo {
-            return Err(BAD_TABLE);
-        }
-        // code·2^qo < 2^30 and −2^29 < O < 2^30: |d| < 1.5·2^30; u is the high word of d·A with
-        // 0 < A < 2^32: |u| < 1.5·2^30.
-        let d = ((code << qo) as i32) - s.offset;
-        let u = mul_hi_u(d, s.inv_slope);
-        if u < s.u_min {
-            return Err(Error::BelowRange);
-        }
-        // |λ| < 2^29: v fits; |G| < 2^28.
-        let xa = if h.bias_bend { u + transcend::bend_q24(u - s.ln_bias)? } else { u };
-        // The position on the x̃ grid: the difference of two i32s, formed in i64; once it is known to be
-        // non-negative it is below 2^32 and shifts as a u32.
-        let p = i64::from(xa) - i64::from(h.xa_origin);
-        if p < 0 {
-            return Err(Error::BelowRange);
-        }
-        let p = p as u32;
-        let xs = u32::from(h.xa_step_log2)
-            .max(u32::from(XA_STEP_LOG2_RANGE.0))
-            .min(u32::from(XA_STEP_LOG2_RANGE.1));
-        let seg = p >> xs;
-        // The last knot itself is past the grid (the host keeps a margin beyond every usable x̃).
-        if seg + 1 >= u32::from(h.xa_knots) {
-            return Err(Error::AboveRange);
-        }
-        let t16 = (p & ((1 << xs) - 1)) >> (xs - 16);
-        let c = columns(seg as usize)?;
-        // Columns are below 2^29.6 in magnitude, so the per-sample spline fits an i32; shifted by at least
-        // 2 bits it is below 2^27.6 and x fits.
-        let r = spline16(c, basis16(t16));
-        let n = u32::from(h.residual_frac)
-            .max(u32::from(RESIDUAL_FRAC_RANGE.0))
-            .min(u32::from(RESIDUAL_FRAC_RANGE.1))
-            + COLUMN_GUARD
-            - X_FRAC;
-        let r = if n == 0 { r } else { (r + (1 << (n - 1))) >> n };
-        let x = xa + r;
-        if x < h.x_min {
-            return Err(Error::BelowRange);
-        }
-        if x > h.x_max {
-            return Err(Error::AboveRange);
-        }
-        Ok(x)
     }
 
     /// Checks that the tables are consistent and the scales sane: what a loader calls once before trusting

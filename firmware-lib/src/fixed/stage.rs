@@ -9,7 +9,7 @@
 
 use super::arith::mulh16;
 use super::interp::four;
-use super::{FixedCalibration, FixedReading, Scalars, Window, BAD_TABLE};
+use super::{FixedCalibration, FixedReading, Grid, Plan, Scalars, Window, BAD_TABLE};
 use crate::error::Error;
 
 /// Capacity of a stage's residual row: x̃ grids of up to `ROW_CAPACITY − 2` knots
@@ -23,6 +23,7 @@ pub const ROW_CAPACITY: usize = 66;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TemperatureStage {
     pub(crate) extrapolated: bool,
+    pub(crate) plan: Plan,
     pub(crate) scalars: Scalars,
     row: [i32; ROW_CAPACITY],
     len: usize,
@@ -50,6 +51,7 @@ impl TemperatureStage {
         }
         Ok(TemperatureStage {
             extrapolated: cal.extrapolated(theta),
+            plan: Plan::of(&cal.header),
             scalars: window.at(pos.f16),
             row,
             len: n,
@@ -92,9 +94,9 @@ pub struct StageCache<'a> {
     len: usize,
     /// `(temperature code + 1, θ)` of recent codes; 0 marks an empty entry.
     memo: [(u32, i32); MEMO],
-    /// Lowest and highest code outside the rail margins: the one range check of a sample.
-    code_lo: u32,
-    code_hi: u32,
+    /// The header's per-sample and temperature values, gathered once.
+    plan: Plan,
+    grid: Grid,
 }
 
 /// [`StageCache::window`] when no window is kept (no grid has that many windows).
@@ -103,13 +105,9 @@ const NO_WINDOW: u32 = u32::MAX;
 impl<'a> StageCache<'a> {
     /// An empty cache over a calibration (validate the calibration first, as for direct use).
     pub const fn new(cal: FixedCalibration<'a>) -> StageCache<'a> {
-        let h = &cal.header;
-        let code_lo = h.rail_margin.saturating_add(1);
-        let code_hi = match h.adc_max_code.checked_sub(h.rail_margin) {
-            Some(v) => v.saturating_sub(1),
-            None => 0,
-        };
         StageCache {
+            plan: Plan::of(&cal.header),
+            grid: Grid::of(&cal.header),
             cal,
             window: NO_WINDOW,
             values: Window::ZERO,
@@ -117,8 +115,6 @@ impl<'a> StageCache<'a> {
             drow: [0; ROW_CAPACITY],
             len: 0,
             memo: [(0, 0); MEMO],
-            code_lo,
-            code_hi,
         }
     }
 
@@ -136,7 +132,7 @@ impl<'a> StageCache<'a> {
     /// [`FixedCalibration::correct_raw`] through the cache.
     #[inline(always)]
     pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
+        self.plan.check_code(&self.cal, code)?;
         let theta = self.theta_of_code(temp_code)?;
         self.correct_theta(code, theta)
     }
@@ -144,19 +140,9 @@ impl<'a> StageCache<'a> {
     /// [`FixedCalibration::correct`] through the cache.
     #[inline(always)]
     pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        let theta = self.cal.theta_from_millicelsius(temp_mc)?;
+        self.plan.check_code(&self.cal, code)?;
+        let theta = self.grid.theta_from_millicelsius(temp_mc)?;
         self.correct_theta(code, theta)
-    }
-
-    /// The direct path's code check: codes between the rail margins pass it; the others get its exact
-    /// error.
-    #[inline(always)]
-    fn check_code(&self, code: u32) -> Result<(), Error> {
-        if !(self.code_lo <= code && code <= self.code_hi) {
-            self.cal.check_code(code)?;
-        }
-        Ok(())
     }
 
     /// θ of a temperature code, remembered for the next time.
@@ -177,17 +163,17 @@ impl<'a> StageCache<'a> {
 
     #[inline(always)]
     fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
-        let pos = self.cal.window_of(theta)?;
+        let pos = self.grid.window_of(theta)?;
         if pos.index != self.window && !self.load(pos.index)? {
             // A row wider than the cache: the direct path, uncached (tables `validate` refuses).
-            return self.cal.correct_theta(code, theta);
+            return self.cal.correct_theta(&self.plan, code, theta);
         }
         let s = self.values.at(pos.f16);
         let (row0, drow) = match (self.row0.get(..self.len), self.drow.get(..self.len)) {
             (Some(a), Some(b)) => (a, b),
             _ => return Err(BAD_TABLE),
         };
-        let x = self.cal.x_of(&s, code, |seg| {
+        let x = self.plan.x_of(&s, code, |seg| {
             let (a, d) = (four(row0, seg).ok_or(BAD_TABLE)?, four(drow, seg).ok_or(BAD_TABLE)?);
             Ok([
                 a[0] + mulh16(d[0], pos.f16),
@@ -196,7 +182,7 @@ impl<'a> StageCache<'a> {
                 a[3] + mulh16(d[3], pos.f16),
             ])
         })?;
-        Ok(FixedReading { x, temperature_extrapolated: self.cal.extrapolated(theta) })
+        Ok(FixedReading { x, temperature_extrapolated: self.grid.extrapolated(theta) })
     }
 
     /// Loads window `index` (out of line: the rare path). `Ok(false)` when the row does not fit the cache.

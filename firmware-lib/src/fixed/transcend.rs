@@ -20,7 +20,7 @@
 //! [`EXP64`]: super::universal::EXP64
 
 use super::arith::{mul_hi_u, mulh16, top_bit};
-use super::interp::{basis16, four, spline16};
+use super::interp::{four, spline16};
 use super::universal::{BEND, EXP64};
 use crate::error::{CalibrationDefect, Error};
 
@@ -73,7 +73,7 @@ pub fn bend_q24(v: i32) -> Result<i32, Error> {
     let start = (e - FLOOR_BIT) as usize * BEND_STRIDE + seg;
     let c = four(&BEND, start).ok_or(Error::InvalidCalibration(CalibrationDefect::Coefficient))?;
     // A convex combination of the table's values (all within ±2^28), within four units.
-    Ok(spline16(c, basis16(pos as u32 & 0xffff)))
+    Ok(spline16(c, pos as u32 & 0xffff))
 }
 
 /// `e^x` for `x` in Q24 nepers, as Q32 in an i64; [`Error::AboveRange`] where it does not fit (x ≥ 21.49 Np).

@@ -555,7 +555,7 @@ pub mod fixed {
         name: "residual",
         elem: Elem::I16,
         count: RESIDUAL_LEN,
-        doc: "r(x̃, T), Np · 2^residual_frac / 6, row-major by temperature; then zero padding to a multiple of 4",
+        doc: "r(x̃, T), Np · 2^residual_frac · 2/9, row-major by temperature; then zero padding to a multiple of 4",
     };
 
     /// The tables in the order they follow the fields: every i32 table first, so each starts 4-byte aligned.

@@ -60,21 +60,36 @@ static inline uint32_t lt_top_bit(int32_t v) {
     return n;
 }
 
-/* The cubic B-spline basis at a Q16 fraction, in Q16, summing to 2^16. */
-static inline void lt_basis16(uint32_t t, uint32_t w[4]) {
-    uint32_t t2, t3, s3;
+/* The cubic B-spline basis at a Q16 fraction, in Q16, summing to 2^16 (the bias bend's, finer). */
+static inline int32_t lt_spline16(const int32_t c[4], uint32_t t) {
+    uint32_t t2, t3, s3, w0, w1, w3;
     t &= 0xffffu;
     t2 = (t * t) >> 16;
     t3 = (t2 * t) >> 16;
     s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
-    w[0] = (s3 * 10923u) >> 16;
-    w[1] = (t3 >> 1) + 43691u - t2;
-    w[3] = (t3 * 10923u) >> 16;
-    w[2] = 65536u - w[0] - w[1] - w[3];
+    w0 = (s3 * 10923u) >> 16;
+    w1 = (t3 >> 1) + 43691u - t2;
+    w3 = (t3 * 10923u) >> 16;
+    return lt_mulh16(c[0], w0) + lt_mulh16(c[1], w1) + lt_mulh16(c[2], 65536u - w0 - w1 - w3) + lt_mulh16(c[3], w3);
 }
 
-/* A per-sample spline value from four full-scale control points. */
-static inline int32_t lt_spline16(const int32_t c[4], const uint32_t w[4]) {
+/* Six times the cubic B-spline basis at a Q16 fraction, in Q13, summing to 6 * 2^13 (no division). */
+static inline void lt_basis6(uint32_t t, uint32_t w[4]) {
+    uint32_t t2, t3, s3;
+    t &= 0xffffu;
+    t2 = (t * t + 32768u) >> 16;
+    t3 = (t2 * t + 32768u) >> 16;
+    s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
+    w[0] = (s3 + 4u) >> 3;
+    w[1] = (3u * t3 + 4u * 65536u + 4u - 6u * t2) >> 3;
+    w[3] = (t3 + 4u) >> 3;
+    w[2] = 49152u - w[0] - w[1] - w[3];
+}
+
+/* Three quarters of a per-sample spline's value at t from four control points stored times 4/3. */
+static inline int32_t lt_spline6(const int32_t c[4], uint32_t t) {
+    uint32_t w[4];
+    lt_basis6(t, w);
     return lt_mulh16(c[0], w[0]) + lt_mulh16(c[1], w[1]) + lt_mulh16(c[2], w[2]) + lt_mulh16(c[3], w[3]);
 }
 
@@ -119,7 +134,7 @@ static inline lt_status lt_bounded(int64_t v, int32_t limit, int32_t *out) {
 
 /* G(v) = ln(1 - e^-v), v and result Q24. */
 static inline lt_status lt_bend_q24(int32_t v, int32_t *out) {
-    uint32_t e, start, w[4];
+    uint32_t e, start;
     int32_t m, pos;
     if (v < (1 << LT_BEND_FLOOR_BIT)) return LT_BELOW_RANGE;
     if (v >= (1 << (LT_BEND_FLOOR_BIT + LT_BEND_OCTAVES))) { *out = 0; return LT_OK; }
@@ -128,8 +143,7 @@ static inline lt_status lt_bend_q24(int32_t v, int32_t *out) {
     pos = e >= 19u ? (m >> (e - 19u)) : (m << (19u - e));
     start = (e - LT_BEND_FLOOR_BIT) * LT_BEND_STRIDE + (((uint32_t)pos >> 16) & (LT_BEND_SEGMENTS - 1u));
     if (start + 4u > LT_BEND_LEN) return LT_BAD_TABLE;
-    lt_basis16((uint32_t)pos & 0xffffu, w);
-    *out = lt_spline16(lt_bend + start, w);
+    *out = lt_spline16(lt_bend + start, (uint32_t)pos & 0xffffu);
     return LT_OK;
 }
 
@@ -354,13 +368,12 @@ static inline lt_status lt_xa(const lt_fixed *c, const lt_scalars *s, uint32_t c
 
 /* Step 5: the residual from its four columns at the temperature, then x and its range. */
 static inline lt_status lt_x_finish(const lt_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
-    uint32_t w[4], fr, n;
+    uint32_t fr, n;
     int32_t r;
     fr = c->residual_frac < LT_RESIDUAL_FRAC_MIN ? LT_RESIDUAL_FRAC_MIN
                                                   : (c->residual_frac > LT_RESIDUAL_FRAC_MAX ? LT_RESIDUAL_FRAC_MAX : c->residual_frac);
     n = fr + LT_COLUMN_GUARD - LT_X_FRAC;
-    lt_basis16(t16, w);
-    r = lt_spline16(cols, w);
+    r = lt_spline6(cols, t16);
     if (n > 0u) r = lt_asr32(r + (1 << (n - 1u)), n);
     r += xa;
     if (r < c->x_min) return LT_BELOW_RANGE;
