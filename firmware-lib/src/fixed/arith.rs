@@ -1,7 +1,8 @@
 //! The integer arithmetic of the fixed path, written for cores without a long multiply (Cortex-M0: a
-//! 32 × 32 → 32-bit `MULS` only): every product is built from 16 × 16-bit products, so that no 64-bit
-//! multiply, divide or count-leading-zeros helper of the compiler's runtime library is ever called, and
-//! every result is exact (a floor, never an approximation) so that C and Rust agree bit for bit.
+//! 32 × 32 → 32-bit `MULS` only): there every wide product is built from 16 × 16-bit products, so that no
+//! 64-bit multiply, divide or count-leading-zeros helper of the compiler's runtime library is ever called;
+//! cores with a long multiply use it. Every result is exact (a floor, never an approximation), so C and
+//! Rust, and both forms, agree bit for bit.
 //!
 //! * [`mul_parts`]: `a·b` exactly as its high and low 32-bit words, from four 16 × 16-bit products of the
 //!   magnitudes; [`mul_wide`] assembles them into an i64 (a register pair, no arithmetic) and [`mul_hi`]
@@ -24,11 +25,28 @@ fn mul_magnitudes(a: u32, b: u32) -> (u32, u32) {
     (ah * bh + (m1 >> 16) + (m2 >> 16), ((m2 & 0xffff) << 16) | (p0 & 0xffff))
 }
 
-/// `a·b` exactly as its two's complement (high word, low word): the magnitudes' product, negated when the
-/// signs differ (`−(h·2^32 + l)` is `(−h, 0)` for `l = 0`, else `(!h, !l + 1)`). The high word is
-/// `floor(a·b / 2^32)`, within ±2^30.
+/// `a·b` exactly as its two's complement (high word, low word), `floor(a·b / 2^32)` and the low 32 bits.
+///
+/// On ARMv6-M (Cortex-M0/M0+/M1, which have no long multiply and, alone among Arm targets, no 32-bit atomic
+/// compare-and-swap, the property the build can test) it is [`mul_parts_split`]; on every other target the
+/// compiler's own 32 × 32 → 64-bit product (one `SMULL` on a Cortex-M3/M4/M7), the same exact value.
 #[inline(always)]
 pub fn mul_parts(a: i32, b: i32) -> (i32, u32) {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_parts_split(a, b)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        let p = i64::from(a) * i64::from(b);
+        ((p >> 32) as i32, p as u32)
+    }
+}
+
+/// [`mul_parts`] from 16 × 16-bit products: the magnitudes' product, negated when the signs differ
+/// (`−(h·2^32 + l)` is `(−h, 0)` for `l = 0`, else `(!h, !l + 1)`). The high word is within ±2^30.
+#[inline(always)]
+pub fn mul_parts_split(a: i32, b: i32) -> (i32, u32) {
     let (hi, lo) = mul_magnitudes(a.unsigned_abs(), b.unsigned_abs());
     // The magnitude is at most 2^62: its high word is at most 2^30 and converts exactly.
     let hi = hi as i32;
@@ -54,9 +72,23 @@ pub fn mul_hi(a: i32, b: i32) -> i32 {
     mul_parts(a, b).0
 }
 
-/// `floor(a·b / 2^32)` for an unsigned `b` (below 2^32): the magnitude's high word is below 2^31.
+/// `floor(a·b / 2^32)` for an unsigned `b` (below 2^32), below 2^31 in magnitude: [`mul_hi_u_split`] on
+/// ARMv6-M, the compiler's 64-bit product elsewhere (see [`mul_parts`]).
 #[inline(always)]
 pub fn mul_hi_u(a: i32, b: u32) -> i32 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_hi_u_split(a, b)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        ((i64::from(a) * i64::from(b)) >> 32) as i32
+    }
+}
+
+/// [`mul_hi_u`] from 16 × 16-bit products of the magnitudes.
+#[inline(always)]
+pub fn mul_hi_u_split(a: i32, b: u32) -> i32 {
     let (hi, lo) = mul_magnitudes(a.unsigned_abs(), b);
     // |a| ≤ 2^31 and b < 2^32: the high word is below 2^31.
     let hi = hi as i32;
@@ -134,16 +166,21 @@ mod tests {
             let (a, b) = (rng.i32(), rng.i32());
             let p = i64::from(a) * i64::from(b);
             assert_eq!(mul_wide(a, b), p, "{a} · {b}");
+            assert_eq!(mul_parts_split(a, b), ((p >> 32) as i32, p as u32), "{a} · {b}");
             assert_eq!(i64::from(mul_hi(a, b)), p >> 32, "{a} · {b}");
             let ub = rng.next() as u32;
             assert_eq!(i64::from(mul_hi_u(a, ub)), (i64::from(a) * i64::from(ub)) >> 32, "{a} · {ub}");
+            assert_eq!(i64::from(mul_hi_u_split(a, ub)), (i64::from(a) * i64::from(ub)) >> 32, "{a} · {ub}");
             let w = (rng.next() % 65536) as u32;
             assert_eq!(i64::from(mulh16(a, w)), (i64::from(a) * i64::from(w)) >> 16, "{a} · {w}");
         }
         for a in [i32::MIN, i32::MAX] {
             for b in [i32::MIN, i32::MAX] {
-                assert_eq!(mul_wide(a, b), i64::from(a) * i64::from(b));
+                let p = i64::from(a) * i64::from(b);
+                assert_eq!(mul_wide(a, b), p);
+                assert_eq!(mul_parts_split(a, b), ((p >> 32) as i32, p as u32));
             }
+            assert_eq!(i64::from(mul_hi_u_split(a, u32::MAX)), (i64::from(a) * i64::from(u32::MAX)) >> 32);
             assert_eq!(i64::from(mul_hi_u(a, u32::MAX)), (i64::from(a) * i64::from(u32::MAX)) >> 32);
             assert_eq!(i64::from(mulh16(a, 65535)), (i64::from(a) * 65535) >> 16);
         }

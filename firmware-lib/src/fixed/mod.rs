@@ -652,10 +652,15 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     pub(crate) fn end_column(&self, end: u32, col: usize) -> Result<i32, Error> {
         let (seg, w) = self.end_weights(end);
-        let stride = usize::from(self.header.xa_knots) + 2;
-        let at = |k: usize| -> Option<i16> {
-            let i = seg.checked_add(k)?.checked_mul(stride)?.checked_add(col)?;
-            self.residual.get(i).copied()
+        // Row and stride below 2^16 (any wider grid is refused): the index is a 32-bit product, with no
+        // overflow check (which would call a 64-bit multiply helper on a Cortex-M0).
+        let stride = u32::from(self.header.xa_knots) + 2;
+        let at = |k: u32| -> Option<i16> {
+            let row = seg as u32 + k;
+            if stride > 0xffff || row > 0xffff || col as u32 >= stride {
+                return None;
+            }
+            self.residual.get((row * stride + col as u32) as usize).copied()
         };
         match (at(0), at(1), at(2), at(3)) {
             (Some(a), Some(b), Some(c), Some(d)) => Ok(window_collapse([a, b, c, d], w)),

@@ -174,9 +174,15 @@ static const int32_t lt_exp64[45] = {
 static inline int32_t lt_asr32(int32_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
 static inline int64_t lt_asr64(int64_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
 
-/* a*b exactly as (high word, low word): the magnitudes' product from four 16x16-bit products, negated when the
- * signs differ (a core without a long multiply calls no library helper). */
+/* a*b exactly as (high word, low word). On ARMv6-M (no long multiply): the magnitudes' product from four 16x16-bit
+ * products, negated when the signs differ, so that no library helper is called. */
 static inline void lt_mul_parts(int32_t a, int32_t b, int32_t *hi, uint32_t *lo) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    /* A core with a long multiply: the compiler's exact 64-bit product (one SMULL on a Cortex-M3/M4/M7). */
+    int64_t p = (int64_t)a * b;
+    *hi = (int32_t)lt_asr64(p, 32);
+    *lo = (uint32_t)((uint64_t)p & 0xffffffffu);
+#else
     uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a, ub = b < 0 ? 0u - (uint32_t)b : (uint32_t)b;
     uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = ub & 0xffffu, bh = ub >> 16;
     uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
@@ -184,6 +190,7 @@ static inline void lt_mul_parts(int32_t a, int32_t b, int32_t *hi, uint32_t *lo)
     if ((a < 0) == (b < 0)) { *hi = (int32_t)h; *lo = l; }
     else if (l == 0u) { *hi = -(int32_t)h; *lo = 0u; }
     else { *hi = ~(int32_t)h; *lo = ~l + 1u; }
+#endif
 }
 
 /* a*b exactly. */
@@ -204,12 +211,16 @@ static inline int32_t lt_mul_hi(int32_t a, int32_t b) {
 
 /* floor(a*b / 2^32) for an unsigned b. */
 static inline int32_t lt_mul_hi_u(int32_t a, uint32_t b) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)lt_asr64((int64_t)a * (int64_t)b, 32);
+#else
     uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a;
     uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = b & 0xffffu, bh = b >> 16;
     uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
     uint32_t h = ah * bh + (m1 >> 16) + (m2 >> 16), l = ((m2 & 0xffffu) << 16) | (p0 & 0xffffu);
     if (a >= 0) return (int32_t)h;
     return l == 0u ? -(int32_t)h : ~(int32_t)h;
+#endif
 }
 
 /* floor(a*w / 2^16) for w < 2^16: two products. */
@@ -434,13 +445,15 @@ static inline lt_status lt_end_scalars(const lt_fixed *c, uint32_t end, lt_scala
 
 /* Residual column `col` collapsed over temperature at window end `end`. */
 static inline lt_status lt_end_column(const lt_fixed *c, uint32_t end, uint32_t col, int32_t *out) {
-    uint32_t seg, k;
-    uint64_t stride = (uint64_t)c->xa_knots + 2u, i;
+    uint32_t seg, k, stride = (uint32_t)c->xa_knots + 2u, row, i;
     int32_t w[4], v = 0;
     lt_end_weights(c, end, &seg, w);
     for (k = 0; k < 4u; k++) {
-        i = ((uint64_t)seg + k) * stride + col;
-        if (i >= (uint64_t)c->residual_len) return LT_BAD_TABLE;
+        row = seg + k;
+        /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
+        if (stride > 0xffffu || row > 0xffffu || col >= stride) return LT_BAD_TABLE;
+        i = row * stride + col;
+        if (i >= c->residual_len) return LT_BAD_TABLE;
         v += w[k] * (int32_t)c->residual[i];
     }
     *out = v;
