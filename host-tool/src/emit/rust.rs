@@ -113,14 +113,14 @@ fn header_literal(k: &str, h: &FixedHeader) -> String {
         temp_hi: {},
         t_knots: {},
         t_origin: {},
-        t_inv_step: {},
+        t_step_log2: {},
         offset_frac: {},
         inv_slope_frac: {},
         bias_bend: {},
         sensitivity_limit: {},
         xa_knots: {},
         xa_origin: {},
-        xa_inv_step: {},
+        xa_step_log2: {},
         residual_frac: {},
         x_min: {},
         x_max: {},
@@ -134,14 +134,14 @@ fn header_literal(k: &str, h: &FixedHeader) -> String {
         h.temp_hi,
         h.t_knots,
         h.t_origin,
-        h.t_inv_step,
+        h.t_step_log2,
         h.offset_frac,
         h.inv_slope_frac,
         h.bias_bend,
         h.sensitivity_limit,
         h.xa_knots,
         h.xa_origin,
-        h.xa_inv_step,
+        h.xa_step_log2,
         h.residual_frac,
         h.x_min,
         h.x_max
@@ -218,25 +218,25 @@ pub const LOGTRIM_FIXED: {k}::fixed::FixedCalibration<'static> = {k}::fixed::Fix
     out
 }
 
-/// The firmware crate's `fixed/universal.rs`: the bias-bend and `2^(j/32)` tables.
+/// The firmware crate's `fixed/universal.rs`: the bias-bend and `e^(j/64)` tables.
 pub fn universal_source() -> Result<String, TableError> {
     use logtrim::fixed::transcend::BEND_STRIDE;
     let bend = crate::tables::universal_bend()?;
-    let exp2 = crate::tables::universal_exp2();
+    let exp64 = crate::tables::universal_exp64();
     let mut out = format!("// {}\n", banner());
     out.push_str(
         "//! The universal tables of the fixed path, the same for every unit (generated on the host by
-//! `logtrim_host::tables::universal_bend` and `universal_exp2`; a host test regenerates this file and
+//! `logtrim_host::tables::universal_bend` and `universal_exp64`; a host test regenerates this file and
 //! compares).
 //!
-//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24 divided by 6, one row per octave of v (see
+//! * [`BEND`]: control points of `G(v) = ln(1 − e^(−v))`, Q24 (full scale), one row per octave of v (see
 //!   [`super::transcend`]), fitted by least squares to the exact function.
-//! * [`EXP2`]: `2^(j/32)` for j = 0..32, Q30.
+//! * [`EXP64`]: `e^(j/64)` for j = 0..=44, Q30.
 
-use super::transcend::{BEND_LEN, EXP2_LEN};
+use super::transcend::{BEND_LEN, EXP64_LEN};
 
 /// Bytes of flash the universal tables take.
-pub const BYTES: usize = 4 * (BEND_LEN + EXP2_LEN);
+pub const BYTES: usize = 4 * (BEND_LEN + EXP64_LEN);
 
 /// `G(v)` control points, one row of `BEND_STRIDE` per octave.
 #[rustfmt::skip]
@@ -244,8 +244,8 @@ pub static BEND: [i32; BEND_LEN] = [
 ",
     );
     out.push_str(&number_lines(&bend, BEND_STRIDE, "    "));
-    out.push_str("];\n\n/// `2^(j/32)`, Q30.\n#[rustfmt::skip]\npub static EXP2: [i32; EXP2_LEN] = [\n");
-    out.push_str(&number_lines(&exp2, 8, "    "));
+    out.push_str("];\n\n/// `e^(j/64)`, Q30.\n#[rustfmt::skip]\npub static EXP64: [i32; EXP64_LEN] = [\n");
+    out.push_str(&number_lines(&exp64, 9, "    "));
     out.push_str("];\n");
     Ok(out)
 }

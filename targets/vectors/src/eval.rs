@@ -6,8 +6,8 @@ use logtrim::calibration::Calibration;
 use logtrim::field::{Blank, BlankParts, FixedStandard, RecordInfo, Standard, Trim, TrimLimits};
 use logtrim::fixed::{FixedCalibration, FixedReading};
 use logtrim::image::{DefaultFixedStorage, ImageError};
-use logtrim::record::crc32;
 use logtrim::math::{Libm, Micromath};
+use logtrim::record::crc32;
 use logtrim::{Beta, Divider, Image, Placement, Reading, Rtd, SensorElement, TemperatureSensor, Unit};
 
 use crate::digest;
@@ -30,7 +30,7 @@ pub enum Kind {
     /// `FixedCalibration::correct_raw` (the sensor table): unit, code, temperature code.
     FixedRaw = 6,
     /// `FixedCalibration::row_stage` + `correct_row`: unit, code, m°C.
-    FixedRow = 7,
+    FixedBlock = 7,
     /// `TemperatureSensor::celsius`: sensor, code.
     SensorCode = 8,
     /// The sensor's element: resistance at a temperature (f32), and back: sensor, °C.
@@ -62,7 +62,7 @@ impl Kind {
         Kind::F32Staged,
         Kind::FixedCorrect,
         Kind::FixedRaw,
-        Kind::FixedRow,
+        Kind::FixedBlock,
         Kind::SensorCode,
         Kind::SensorElement,
         Kind::ImageParse,
@@ -186,12 +186,15 @@ pub fn eval(kind: Kind, input: &[u32; 5], units: &[TestUnit<'_>], images: &[&[u8
         }
         Kind::FixedCorrect => fixed_outcome(unit()?.fixed.correct(b, c as i32)),
         Kind::FixedRaw => fixed_outcome(unit()?.fixed.correct_raw(b, c)),
-        Kind::FixedRow => {
+        Kind::FixedBlock => {
             let cal = &unit()?.fixed;
-            let r = cal
-                .stage_millicelsius(c as i32)
-                .and_then(|s| cal.row_stage(&s))
-                .and_then(|rs| cal.correct_row(&rs, b));
+            // One temperature stage, the code through the block API (a block of one).
+            let r = cal.stage_millicelsius(c as i32).and_then(|s| {
+                let mut out = [Err(logtrim::Error::NonFinite)];
+                cal.correct_block(&s, &[b], &mut out);
+                let [r] = out;
+                r
+            });
             fixed_outcome(r)
         }
         Kind::SensorCode => {

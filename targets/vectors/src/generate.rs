@@ -124,7 +124,7 @@ fn inputs(
             let c = log_code(rng, cal, temp) as f32 + rng.random_range(0.0f32..1.0);
             [unit, c.to_bits(), temp, 0, 0]
         }
-        Kind::FixedCorrect | Kind::FixedRow => [unit, log_code(rng, cal, temp), mc, 0, 0],
+        Kind::FixedCorrect | Kind::FixedBlock => [unit, log_code(rng, cal, temp), mc, 0, 0],
         Kind::FixedRaw => {
             // A temperature code of the NTC channel near the calibrated range, or any code.
             let sensor = eval::sensors()[0];
