@@ -6,8 +6,8 @@ use logtrim::calibration::Calibration;
 use logtrim::field::{Blank, BlankParts, FixedStandard, RecordInfo, Standard, Trim, TrimLimits};
 use logtrim::fixed::{FixedCalibration, FixedReading};
 use logtrim::image::{DefaultFixedStorage, ImageError};
-use logtrim::record::crc32;
 use logtrim::math::{Libm, Micromath};
+use logtrim::record::crc32;
 use logtrim::{Beta, Divider, Image, Placement, Reading, Rtd, SensorElement, TemperatureSensor, Unit};
 
 use crate::digest;
