@@ -1,8 +1,14 @@
-//! The f32 correction: `Calibration` and everything it offers, both backends, and its f64 reference.
+//! The f32 correction: `Calibration` and everything it offers a firmware, with both backends, and the
+//! staged form behind `path::CorrectionPath`.
+//!
+//! The host's f64 reference (`correct_f64`, `stage_f64`, `x_from_w_f64`, `reference_stage`,
+//! `correct_staged_f64`, `reference_sweep`, `forward_code_f64`) is behind the crate's `reference` feature,
+//! which a firmware does not enable: it is not a firmware entry point and is not built here.
 
 use crate::{keep, o};
-use logtrim::calibration::{temperature_out_of_range_millicelsius, Series};
+use logtrim::calibration::Series;
 use logtrim::math::{Libm, Micromath};
+use logtrim::path::CorrectionPath;
 use logtrim::{Calibration, Unit};
 
 /// A calibration the optimiser knows nothing about.
@@ -23,7 +29,6 @@ pub fn run() {
     let cal = calibration();
     let (code, temp) = (o(0u32), o(0.0f32));
     keep(cal.validate());
-    keep(cal.forward_code_f64(o(0.0), o(0.0)));
     keep(cal.adc.max_code());
     keep(cal.adc.check_code(code));
     keep(cal.model.offset.terms().len());
@@ -37,17 +42,9 @@ pub fn run() {
     keep(cal.correct_staged(&stage, code));
     let stage = cal.stage_with::<Micromath>(temp);
     keep(cal.correct_staged(&stage, code));
-    keep(temperature_out_of_range_millicelsius(o(0)));
 
-    // The f64 reference of the same model (host verification, but public and no_std).
-    keep(cal.correct_f64(o(0.0), o(0.0)));
-    keep(cal.stage_f64(o(0.0)));
-    keep(cal.x_from_w_f64(o(0.0), o(0.0)));
-    let rs = cal.reference_stage(o(0.0));
-    keep(rs.error());
-    keep(cal.correct_staged_f64(&rs, code));
-    let mut sweep = cal.reference_sweep(o(0.0));
-    keep(sweep.correct(code));
-    keep(sweep.correct(o(1)));
-    keep(sweep.warm_points());
+    // The same through the path trait (what a bank of channels calls).
+    keep(CorrectionPath::validate(&cal));
+    let stage = CorrectionPath::stage(&cal, temp);
+    keep(CorrectionPath::correct_staged(&cal, &stage, code));
 }

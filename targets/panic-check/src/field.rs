@@ -3,10 +3,10 @@
 
 use crate::{bytes, keep, o};
 use logtrim::field::{
-    self, qconv, slots, Bank, Blank, BlankParts, Channel, FixedBank, FixedChannel, FixedStandard, Layers,
-    RecordInfo, Standard, Trim, TrimKind, TrimLimits, TrimParts,
+    self, slots, Bank, Blank, BlankParts, FixedStandard, Layers, LogChannel, RecordInfo, Standard,
+    ThroughLayers, Trim, TrimKind, TrimLimits, TrimParts,
 };
-use logtrim::fixed::FixedReading;
+use logtrim::fixed::{FixedCalibration, FixedReading};
 use logtrim::{Calibration, Reading};
 
 fn info() -> RecordInfo {
@@ -43,6 +43,8 @@ fn layers(l: &Layers) {
     keep((l.trim(), l.blank(), l.without_blank()));
     keep(l.apply(&reading()));
     keep(l.apply_fixed(&fixed_reading()));
+    keep(reading().through(l));
+    keep(fixed_reading().through(l));
 }
 
 /// Every public entry point of the field module.
@@ -51,12 +53,9 @@ pub fn run() {
     let cal = crate::f32_path::calibration();
     let temp_mc = o(25_000);
     keep(field::fingerprint(&cal));
-    keep(field::millicelsius(o(25.0)));
     if let Ok(img) = logtrim::Image::parse(bytes()) {
         keep(field::fingerprint_of_image(&img));
     }
-    keep(qconv::q_from_f32(o(0.0), o(24)));
-    keep(qconv::f32_from_q(o(0), o(24)));
     let kind = o(TrimKind::TwoPoint);
     keep((kind.code(), TrimKind::from_code(o(0)), kind.name()));
 
@@ -133,34 +132,38 @@ pub fn run() {
 }
 
 fn bank(cal: Calibration, layers: Layers) {
-    let ch = |c: Calibration| o(Channel { calibration: c, layers });
+    let ch = |c: Calibration| o(LogChannel { calibration: c, layers });
     let mut bank = match Bank::new([ch(cal), ch(cal), ch(cal)]) {
         Ok(b) => b,
         Err(e) => return keep(e),
     };
     keep(bank.channels());
     keep(bank.set_layers(o(1), layers));
-    let cycles = [bank.cycle_from_celsius(o(25.0)), bank.cycle_from_code(&crate::sensors::sensor(), o(0))];
+    let at = Ok(bank.cycle_at(o(25.0)));
+    let cycles =
+        [at, bank.cycle_from_celsius(o(25.0)), bank.cycle_from_code(&crate::sensors::sensor(), o(0))];
     for cycle in cycles.into_iter().flatten() {
-        keep(cycle.celsius());
+        keep((cycle.celsius(), cycle.temperature(), cycle.stage(o(1))));
         keep(bank.correct_factory(&cycle, o(0), o(0)));
         keep(bank.correct_one(&cycle, o(2), o(0)));
         keep(bank.correct(&cycle, &o([0; 3])));
     }
 }
 
-fn fixed_bank(cal: logtrim::fixed::FixedCalibration<'_>, layers: Layers) {
-    let ch = o(FixedChannel { calibration: cal, layers });
-    let mut bank = match FixedBank::new([ch, ch], o(0)) {
+fn fixed_bank(cal: FixedCalibration<'_>, layers: Layers) {
+    let ch = o(LogChannel { calibration: cal, layers });
+    let bank = Bank::new([ch, ch]).and_then(|b| b.with_sensor_channel(o(0)));
+    let mut bank = match bank {
         Ok(b) => b,
         Err(e) => return keep(e),
     };
     keep(bank.channels());
     keep(bank.set_layers(o(1), layers));
     let from_theta = Ok(bank.cycle_from_theta(o(0)));
-    let cycles = [from_theta, bank.cycle_from_millicelsius(o(0)), bank.cycle_from_code(o(0))];
+    let at = Ok(bank.cycle_at(o(0)));
+    let cycles = [from_theta, at, bank.cycle_from_millicelsius(o(0)), bank.cycle_from_code(o(0))];
     for cycle in cycles.into_iter().flatten() {
-        keep((cycle.theta(), cycle.millicelsius(), cycle.stage(o(1))));
+        keep((cycle.theta(), cycle.millicelsius(), cycle.temperature(), cycle.stage(o(1))));
         keep(bank.correct_factory(&cycle, o(0), o(0)));
         keep(bank.correct_one(&cycle, o(1), o(0)));
         keep(bank.correct(&cycle, &o([0; 2])));

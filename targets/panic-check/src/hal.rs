@@ -6,7 +6,8 @@ use crate::{bytes, keep, o};
 use embedded_hal::delay::DelayNs;
 use embedded_hal::spi::{ErrorKind, ErrorType, Operation, SpiDevice};
 use logtrim::field::{Layered, Layers};
-use logtrim::hal::correct::{correct_mean_fixed, theta_of_celsius};
+use logtrim::hal::adc::{AdcChannel, Error as _};
+use logtrim::hal::correct::correct_mean_fixed;
 use logtrim::hal::sar16::SpiReadError;
 use logtrim::hal::temperature::from_fn;
 use logtrim::hal::{
@@ -54,7 +55,7 @@ fn config() -> CycleConfig {
     o(CycleConfig { settle_us: o(10), log, temperature: Oversampling::median(o(3)), unit: o(Unit::DbPower) })
 }
 
-fn cycle<T: TemperatureChannel, C: Corrector>(sensor: T, corrector: C) {
+fn cycle<T: TemperatureChannel, C: Corrector + Copy>(sensor: T, corrector: C) {
     let checked = match config().check::<N>() {
         Ok(c) => c,
         Err(e) => return keep(e),
@@ -71,6 +72,9 @@ fn cycle<T: TemperatureChannel, C: Corrector>(sensor: T, corrector: C) {
     let status = m.status();
     keep((status.is_clean(), status.allows_value()));
     cycle.set_config(checked);
+    let corrector = cycle.corrector().copied();
+    cycle.set_corrector(o(None));
+    cycle.set_corrector(o(corrector));
     let (log, temp, _, corrector) = cycle.release();
     keep((log.release(), temp.release(), corrector.is_some()));
 }
@@ -91,8 +95,11 @@ fn corrector_calls<C: Corrector>(c: &C) {
 #[inline(never)]
 pub fn run() {
     let cal = crate::f32_path::calibration();
-    keep(theta_of_celsius(o(25.0)));
-    keep(SpiReadError(o(ErrorKind::Other)).spi_kind());
+    let spi_error = SpiReadError(o(ErrorKind::Other));
+    keep((spi_error.spi_kind(), spi_error.kind(), spi_error.kind().kind()));
+    keep(o(CycleConfig::single(o(Unit::Nepers))).check::<1>());
+    let mut adc = SpiSar16::new(FakeSpi);
+    keep(adc.read());
     let digital = DigitalCelsius::new(o(13), o(true), o(0.0625)).and_then(|d| d.with_offset(o(0.0)));
     let digital = digital.map(|d| d.with_open_code(o(0x1fff)));
 
@@ -115,4 +122,33 @@ pub fn run() {
         keep(table.celsius(o(0)));
         cycle(table, fixed);
     });
+}
+
+/// `Display` of the `hal` module's errors, as a firmware that logs them over `core::fmt` would
+/// print them.
+#[inline(never)]
+pub fn messages() {
+    use crate::misc::show;
+    use logtrim::hal::{Channel, DigitalCelsius};
+    if let Err(e) = config().check::<N>() {
+        show(e);
+    }
+    if let Err(e) = DigitalCelsius::new(o(13), o(true), o(0.0625)) {
+        show(e);
+    }
+    show(o(Channel::Log));
+    show(SpiReadError(o(ErrorKind::Other)).kind());
+    let cal = crate::f32_path::calibration();
+    if let Ok(checked) = config().check::<N>() {
+        let mut cycle = Cycle::new(
+            SpiSar16::new(FakeSpi),
+            SpiSar16::new(FakeSpi),
+            crate::sensors::sensor(),
+            Some(cal),
+            checked,
+        );
+        if let Some(e) = cycle.measure(&mut FakeDelay).error() {
+            show(e);
+        }
+    }
 }

@@ -3,6 +3,7 @@
 
 use crate::{bytes, keep, o};
 use logtrim::image::{self, layout, slots, DefaultFixedStorage, ImageInfo, Section};
+use logtrim::record::{self, RecordType};
 use logtrim::Image;
 
 fn inspect(img: &Image<'_>) {
@@ -33,7 +34,8 @@ fn inspect(img: &Image<'_>) {
 /// Every public entry point of the image module.
 #[inline(never)]
 pub fn run() {
-    keep(image::crc32(bytes()));
+    keep(record::crc32(bytes()));
+    keep(RecordType::of_magic(o([0; 4])).map(RecordType::magic));
     match Image::parse(bytes()) {
         Ok(img) => inspect(&img),
         Err(e) => keep(e),
@@ -65,6 +67,10 @@ pub fn run() {
         let f = o(*f);
         keep((f.size(), f.end(), f.kind.size(), f.kind.type_name()));
     }
+    for t in layout::fixed::TABLES {
+        let t = o(*t);
+        keep((t.elem.size(), t.elem.type_name()));
+    }
 
     let (a, b) = (bytes(), bytes());
     let selection = slots::select(a, b);
@@ -78,4 +84,10 @@ pub fn run() {
     let mut storage = DefaultFixedStorage::new();
     keep(slots::select_fixed(a, b, &mut storage).map(|(s, fixed)| (s, fixed.correct(o(0), o(0)))));
     keep(slots::next_write(a, b));
+
+    // The shared A/B rule of every record, on images.
+    let shared = record::slots::select::<Image<'_>>(a, b, o(None));
+    keep(shared.map(|s| (s.slot.other(), s.record.sequence())));
+    keep(record::slots::select_with::<Image<'_>, _>(a, b, o(Some(0)), Image::parse_prefix));
+    keep(record::slots::next_write::<Image<'_>>(a, b, o(None)));
 }

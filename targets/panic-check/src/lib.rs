@@ -11,9 +11,17 @@
 //! `locate` feature (a handler that loops) and prints the source location of each call into the panic
 //! machinery, inlined frames included.
 //!
-//! Not covered: `Display`/`Debug` formatting of the crate's types (core's formatting has its own panic
-//! paths), the `serde` and `defmt` derives (exercised by serialisers and loggers, not by the firmware's
-//! arithmetic).
+//! The `Display` messages of the error types are covered too ([`messages`], [`hal::messages`]), as a
+//! firmware that logs over `core::fmt` prints them, and so are the layout tables rendered for the docs.
+//!
+//! Not covered:
+//! * the host's f64 reference of the calibration (`correct_f64`, `reference_sweep`, …, the crate's
+//!   `reference` feature): host-only, not a firmware entry point, and a firmware build does not enable it;
+//! * `Debug` formatting, and the messages of the two errors that print an f32 (`filter::InvalidTimeConstant`
+//!   and the limits in `field::FieldError`): core's own formatting of `str` in `Debug` and of floats
+//!   (`core::num::flt2dec`) keeps panic paths that no caller can remove;
+//! * the `serde` and `defmt` derives (exercised by serialisers and loggers, not by the firmware's
+//!   arithmetic).
 #![no_std]
 #![deny(unsafe_code)]
 
@@ -22,6 +30,7 @@ pub mod field;
 pub mod fixed_path;
 pub mod hal;
 pub mod images;
+pub mod messages;
 pub mod misc;
 pub mod sensors;
 

@@ -12,5 +12,8 @@ entry!({
     field::run();
     hal::run();
     misc::run();
+    misc::layout_tables();
+    //messages::run();
+    hal::messages();
     canary();
 });
