@@ -2,7 +2,7 @@
 //! cache, readings in every unit, and the transcendental kernels.
 
 use crate::{bytes, keep, o};
-use logtrim::fixed::{transcend, FixedCalibration, StageCache};
+use logtrim::fixed::{arith, interp, transcend, FixedCalibration, StageCache};
 use logtrim::image::DefaultFixedStorage;
 use logtrim::{Image, Unit};
 
@@ -46,10 +46,10 @@ pub fn run() {
         if let Ok(stage) = cal.stage_millicelsius(temp_mc) {
             keep(stage.extrapolated());
             keep(cal.correct_staged(&stage, code));
-            if let Ok(row) = cal.row_stage(&stage) {
-                keep(row.extrapolated());
-                keep(cal.correct_row(&row, code));
-            }
+            let codes = [code, o(1u32), o(2u32)];
+            let mut out = [Err(logtrim::Error::NonFinite); 3];
+            keep(cal.correct_block(&stage, &codes, &mut out));
+            keep(out);
         }
         let mut cache = StageCache::new(cal);
         keep(cache.correct(code, temp_mc));
@@ -60,4 +60,25 @@ pub fn run() {
     });
     keep(transcend::bend_q24(o(0)));
     keep(transcend::exp_q32(o(0)));
+    // The public integer kernels, each with inputs the optimiser knows nothing about.
+    let (a, b, u) = (o(0i32), o(0i32), o(0u32));
+    keep(arith::mul_parts(a, b));
+    keep(arith::mul_parts_split(a, b));
+    keep(arith::mul_wide(a, b));
+    keep(arith::mul_hi(a, b));
+    keep(arith::mul_hi_u(a, u));
+    keep(arith::mul_hi_u_split(a, u));
+    keep(arith::mulh16(a, u));
+    keep(arith::top_bit(a));
+    let c = [a, b, o(0i32), o(0i32)];
+    keep(interp::spline16(c, u));
+    keep(interp::spline6(c, u));
+    keep(interp::basis16(u));
+    keep(interp::basis6(u));
+    let w = interp::window_weights(u);
+    keep(interp::window_value(c, w));
+    keep(interp::window_collapse([o(0i16); 4], w));
+    let sw = interp::sensor_weights(u);
+    keep(interp::sensor_value(c, sw));
+    keep(interp::four(&c[..], o(0usize)));
 }
