@@ -97,17 +97,11 @@ pub fn mean_q24(v: &[FixedReading]) -> i32 {
 /// a `temp_code` column converted to °C by the calibration file's temperature sensor in f32 (as the MCU
 /// converts it). Bad rows are skipped and listed in [`Readings::skipped`] when `skip_bad_rows` is set.
 pub fn read_unit_readings(file: &CalFile, path: &Path, skip_bad_rows: bool) -> Result<Readings, DataError> {
-    let sensor = file.temperature_sensor;
-    let conv = move |code: u32| -> Result<f64, Error> {
-        match &sensor {
-            Some(s) => s.celsius(code).map(f64::from),
-            None => Err(Error::NotCalibrated),
-        }
-    };
+    let conv = |code: u32| file.firmware_celsius(code);
     let opts = ReadOptions {
         adc_bits: file.calibration.adc.bits,
         skip_bad_rows,
-        temp_converter: sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, Error>),
+        temp_converter: file.temperature_sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, Error>),
     };
     read_readings_file(path, &opts)
 }
