@@ -407,6 +407,11 @@ pub fn describe(img: &Image<'_>) -> String {
     let _ = writeln!(s, "serial       {serial}");
     let _ = writeln!(s, "calibrated   {} UTC ({} s)", utc_string(img.calibrated_at()), img.calibrated_at());
     let _ = writeln!(s, "sequence     {}", img.sequence());
+    let _ = writeln!(
+        s,
+        "calib. ID    {:#010x} (trim and blank records made on this calibration carry it)",
+        logtrim::field::fingerprint_of_image(img)
+    );
     let _ = writeln!(s, "sections");
     for sec in img.sections() {
         let _ =
@@ -573,6 +578,7 @@ pub fn describe_json(img: &Image<'_>) -> serde_json::Value {
         "calibrated_unix_s": img.calibrated_at(),
         "calibrated_utc": utc_string(img.calibrated_at()),
         "sequence": img.sequence(),
+        "calibration_id": format!("{:#010x}", logtrim::field::fingerprint_of_image(img)),
         "sections": img.sections().map(|s| serde_json::json!({
             "kind": format!("{:#06x}", s.kind),
             "len": s.payload.len(),
