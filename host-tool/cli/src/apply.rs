@@ -63,6 +63,9 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     for e in &readings.skipped {
         eprintln!("skipped: {e}");
     }
+    if matches!(args.path, PathArg::F32Micromath) {
+        eprintln!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
+    }
     let results = match args.path {
         PathArg::F32 => correct_rows_layered(&cal, &readings, Arithmetic::F32, &layers),
         PathArg::F32Micromath => correct_rows_layered(&cal, &readings, Arithmetic::F32Micromath, &layers),

@@ -85,6 +85,9 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         check_f32: args.path != PathArg::Fixed,
         exact_reference: args.exact_reference,
     };
+    if matches!(args.backend, BackendArg::Micromath) {
+        eprintln!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
+    }
     let start = std::time::Instant::now();
     let terminal = std::io::stderr().is_terminal() && std::io::stdout().is_terminal();
     let bar = crate::progress::bar("verify {bar:40} {pos}/{len} temperatures, {eta} left", terminal);
