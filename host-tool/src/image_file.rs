@@ -420,8 +420,10 @@ pub fn describe(img: &Image<'_>) -> String {
     let _ = writeln!(s, "calibration");
     let _ = writeln!(
         s,
-        "  adc        {} bits, rail margin {} codes, level shift {} codes",
-        c.adc.bits, c.adc.rail_margin, c.adc.level_shift_code
+        "  adc        {} bits, rail margin {}, level shift {} codes",
+        c.adc.bits,
+        codes(c.adc.rail_margin),
+        c.adc.level_shift_code
     );
     let _ = writeln!(
         s,
@@ -455,6 +457,15 @@ pub fn describe(img: &Image<'_>) -> String {
     }
     describe_fixed(&mut s, img);
     s
+}
+
+/// A count of codes in words: "1 code", "8 codes".
+fn codes(n: u32) -> String {
+    if n == 1 {
+        "1 code".to_string()
+    } else {
+        format!("{n} codes")
+    }
 }
 
 /// θ (Q10 m°C) in °C.

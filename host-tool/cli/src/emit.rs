@@ -96,8 +96,8 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
     };
     logtrim_host::output::write_atomic(&args.output, text.as_bytes())
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    eprintln!(
-        "logtrim: wrote {} ({} bytes of tables, {} of universal tables)",
+    println!(
+        "wrote {} ({} bytes of tables, {} of universal tables)",
         args.output.display(),
         tables.bytes(),
         logtrim::fixed::universal::BYTES
