@@ -42,7 +42,11 @@ impl FileError {
 
     /// A JSON error in the text named `path`.
     pub fn json(path: &str, e: &serde_json::Error) -> FileError {
-        FileError::Json { path: path.to_string(), line: e.line(), column: e.column(), message: e.to_string() }
+        // serde_json's message ends with " at line L column C"; the position is said once, in front.
+        let full = e.to_string();
+        let tail = format!(" at line {} column {}", e.line(), e.column());
+        let message = full.strip_suffix(&tail).unwrap_or(&full).to_string();
+        FileError::Json { path: path.to_string(), line: e.line(), column: e.column(), message }
     }
 }
 
@@ -84,5 +88,20 @@ mod tests {
             "{e}"
         );
         assert_eq!(to_json_line(&[1, 2]), "[\n  1,\n  2\n]\n");
+    }
+
+    #[test]
+    fn a_json_error_names_its_position_once() {
+        #[derive(Debug, serde::Deserialize)]
+        #[serde(deny_unknown_fields)]
+        #[allow(dead_code)]
+        struct Two {
+            a: u32,
+            b: u32,
+        }
+        let e = parse_json::<Two>("{\n  \"a\": 1,\n  \"c\": 2\n}", "f.json").unwrap_err().to_string();
+        assert!(e.starts_with("f.json: line 3, column 5: unknown field `c`"), "{e}");
+        assert_eq!(e.matches("line").count(), 1, "{e}");
+        assert_eq!(e.matches('3').count(), 1, "{e}");
     }
 }
