@@ -1,5 +1,6 @@
 //! An error in x = ln(I_sig/I_ref) in the units people read it in: nepers, millinepers, dB of a power ratio
-//! (10·log10) or of an amplitude ratio (20·log10), and per cent of the ratio. The host's one place for
+//! (10·log10) or of an amplitude ratio (20·log10), per cent of the ratio, and milli-absorbance units (an
+//! absorbance product's unit: A = −log10(I/I0), so an error of e Np in x is −e/ln 10 AU). The host's one place for
 //! these conversions: every report, chart and budget shows its errors through it.
 //!
 //! An error `e` in x is a ratio `e^e` between the reading and the truth, so its dB are firmware-lib's own
@@ -37,19 +38,23 @@ pub enum ErrorScale {
     DbAmplitude,
     /// Per cent of the ratio: `100·(e^error − 1)`.
     PercentOfRatio,
+    /// Milli-absorbance units, mAU: 1000 × firmware-lib's [`Unit::Absorbance`] of the error (−1000·e/ln 10;
+    /// a reading whose x is high by e reads an absorbance low by that much).
+    MilliAbsorbance,
 }
 
 impl ErrorScale {
     /// Every scale, in the order of [`ErrorScale::name`]'s documentation.
-    pub const ALL: [ErrorScale; 5] = [
+    pub const ALL: [ErrorScale; 6] = [
         ErrorScale::Np,
         ErrorScale::MilliNp,
         ErrorScale::DbPower,
         ErrorScale::DbAmplitude,
         ErrorScale::PercentOfRatio,
+        ErrorScale::MilliAbsorbance,
     ];
 
-    /// The short name: `np`, `mnp`, `db10`, `db20`, `pct`.
+    /// The short name: `np`, `mnp`, `db10`, `db20`, `pct`, `mau`.
     pub fn name(self) -> &'static str {
         match self {
             ErrorScale::Np => "np",
@@ -57,6 +62,7 @@ impl ErrorScale {
             ErrorScale::DbPower => "db10",
             ErrorScale::DbAmplitude => "db20",
             ErrorScale::PercentOfRatio => "pct",
+            ErrorScale::MilliAbsorbance => "mau",
         }
     }
 
@@ -73,6 +79,7 @@ impl ErrorScale {
             ErrorScale::DbPower => "dB, 10·log10",
             ErrorScale::DbAmplitude => "dB, 20·log10",
             ErrorScale::PercentOfRatio => "% of ratio",
+            ErrorScale::MilliAbsorbance => "mAU",
         }
     }
 
@@ -84,6 +91,7 @@ impl ErrorScale {
             ErrorScale::DbPower => db_power(e),
             ErrorScale::DbAmplitude => db_amplitude(e),
             ErrorScale::PercentOfRatio => pct_of_ratio(e),
+            ErrorScale::MilliAbsorbance => 1e3 * Unit::Absorbance.from_x_f64(e),
         }
     }
 }
@@ -102,6 +110,10 @@ mod tests {
         // A ratio error of e^0.01 − 1 = 1.005017 % (exp from std, an independent reference library).
         assert!((ErrorScale::PercentOfRatio.of_np(0.01) - 100.0 * (0.01f64.exp() - 1.0)).abs() < 1e-12);
         assert_eq!(ErrorScale::MilliNp.of_np(0.25), 250.0);
+        // A transmittance of 10 % is 1 AU (the definition A = −log10 T): an error of ln 0.1 Np in x is
+        // +1000 mAU; one of 1 mNp is −1/ln 10 = −0.434294 mAU.
+        assert!((ErrorScale::MilliAbsorbance.of_np(0.1f64.ln()) - 1000.0).abs() < 1e-9);
+        assert!((ErrorScale::MilliAbsorbance.of_np(1e-3) + 0.434_294_481_9).abs() < 1e-9);
         for u in ErrorScale::ALL {
             assert_eq!(ErrorScale::from_name(u.name()), Some(u));
             assert_eq!(ErrorScale::from_name(&u.name().to_uppercase()), Some(u));

@@ -44,7 +44,7 @@ pub struct PlotArgs {
     #[arg(long, value_name = "SERIAL")]
     serial: Option<String>,
     /// Unit of the error axes: np, mnp (millinepers), db10 (10·log10, power ratios), db20 (20·log10,
-    /// amplitude ratios) or pct (% of ratio).
+    /// amplitude ratios), pct (% of ratio) or mau (milli-absorbance units).
     #[arg(long, value_name = "UNIT", default_value = "mnp", value_parser = parse_unit)]
     error_unit: ErrorScale,
     /// Temperature bins of the error-against-temperature chart.

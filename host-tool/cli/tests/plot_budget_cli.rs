@@ -54,6 +54,12 @@ fn plot_writes_three_well_formed_charts() {
         assert!(stdout.contains(name), "{stdout}");
     }
     assert_eq!(std::fs::read_dir(&out).unwrap().count(), 3, "nothing else, no temporary files");
+    // An absorbance product reads its errors in mAU.
+    let out_mau = d.join("charts-mau");
+    let (code, stdout, stderr) = plot("truth.csv", &out_mau, &["--map-cells", "8x4", "--error-unit", "mau"]);
+    assert_eq!(code, 0, "{stdout}{stderr}");
+    let svg = std::fs::read_to_string(out_mau.join("PH-0042-error-vs-x.svg")).unwrap();
+    assert!(svg.contains("mAU"), "the axis names the unit");
 
     // A truth file that lacks a reading: exit 2, the file and the id named, and no chart written.
     let truth = std::fs::read_to_string(d.join("truth.csv")).unwrap();
