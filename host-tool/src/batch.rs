@@ -110,7 +110,12 @@ pub fn read_chamber_data(input: &Path, how: &ChamberRead<'_>) -> Result<ChamberD
             out.skipped.push((data.path.clone(), data.skipped.clone()));
         }
         let stem = path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_default();
-        out.jobs.extend(unit_jobs(&data, &stem, how.unit));
+        out.jobs.extend(unit_jobs(&data, &stem, how.unit).into_iter().map(|mut j| {
+            if let Some(s) = sensor {
+                j.data = j.data.with_sensor(s);
+            }
+            j
+        }));
         Ok(data)
     };
     if out.folder {
@@ -141,13 +146,17 @@ fn unit_jobs(data: &CalData, stem: &str, only: Option<&str>) -> Vec<UnitJob> {
         if only.is_some_and(|u| u != stem) {
             return vec![];
         }
-        return vec![UnitJob { serial: stem.to_string(), data: FitData::from_rows(&data.rows, None) }];
+        let rows = FitData { source: data.path.clone(), ..FitData::from_rows(&data.rows, None) };
+        return vec![UnitJob { serial: stem.to_string(), data: rows }];
     }
     data.units
         .iter()
         .enumerate()
         .filter(|(_, s)| only.is_none_or(|u| u == s.as_str()))
-        .map(|(i, s)| UnitJob { serial: s.clone(), data: FitData::from_rows(&data.rows, Some(i as u32)) })
+        .map(|(i, s)| UnitJob {
+            serial: s.clone(),
+            data: FitData { source: data.path.clone(), ..FitData::from_rows(&data.rows, Some(i as u32)) },
+        })
         .collect()
 }
 

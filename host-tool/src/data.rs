@@ -103,6 +103,8 @@ pub struct CalRow {
     pub unit: Option<u32>,
     /// The row's weight (1 without a `weight` column).
     pub weight: f64,
+    /// The temperature channel's raw code, for a file with a `temp_code` column.
+    pub temp_code: Option<u32>,
 }
 
 /// A calibration file's contents.
@@ -678,7 +680,11 @@ impl<'o> Source<'o> {
             None => 1.0,
         };
         let unit = self.unit(rec)?;
-        Ok(CalRow { line, code, temp_c, ratio, unit, weight })
+        let temp_code = match self.columns.temperature_kind {
+            TemperatureColumn::Code => parse_code(field(rec, self.columns.temperature), u32::MAX).ok(),
+            TemperatureColumn::Celsius => None,
+        };
+        Ok(CalRow { line, code, temp_c, ratio, unit, weight, temp_code })
     }
 
     fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {
