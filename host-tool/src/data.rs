@@ -156,6 +156,28 @@ pub struct Readings {
     pub skipped: Vec<RowError>,
 }
 
+impl Readings {
+    /// The rows of one unit (index into [`Readings::units`]), in file order, as a readings file of their own.
+    pub fn of_unit(&self, unit: u32) -> Readings {
+        Readings {
+            rows: self.rows.iter().filter(|r| r.unit == Some(unit)).cloned().collect(),
+            ..self.clone_empty()
+        }
+    }
+
+    /// The same file without rows.
+    fn clone_empty(&self) -> Readings {
+        Readings {
+            path: self.path.clone(),
+            headers: self.headers.clone(),
+            columns: self.columns.clone(),
+            rows: Vec::new(),
+            units: self.units.clone(),
+            skipped: Vec::new(),
+        }
+    }
+}
+
 /// What was wrong with one value (or one row).
 #[derive(Debug, Clone, PartialEq)]
 #[non_exhaustive]

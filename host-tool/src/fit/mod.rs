@@ -269,12 +269,16 @@ pub struct SetPointStats {
     pub max_np: f64,
     /// The rms noise in x of the rows fitted (the unit's noise model through the local slope), nepers.
     pub noise_np: f64,
+    /// The rms of the rows' errors each in units of its own noise: about 1 for a fit that leaves only
+    /// noise, whatever the spread of the noise across the set-point (a plain ratio of rms figures would be
+    /// ruled by the few noisiest rows at a bend).
+    pub residual_ratio: f64,
 }
 
 impl SetPointStats {
-    /// The rms error over the rms noise of the rows fitted: about 1 for a fit that leaves only noise.
+    /// [`SetPointStats::residual_ratio`].
     pub fn residual_ratio(&self) -> f64 {
-        self.rms_np / self.noise_np
+        self.residual_ratio
     }
 }
 
@@ -372,6 +376,9 @@ pub struct FitOutcome {
     /// The noise floor in x: the rms over the rows fitted of the unit's noise through the local slope,
     /// nepers.
     pub noise_floor_np: Option<f64>,
+    /// The rms noise in x of the rows cross-validation holds out (the interior set-points' rows fitted),
+    /// nepers: the figure its error compares with.
+    pub cv_noise_np: Option<f64>,
     /// Notes for the user (e.g. no cross-validation possible).
     pub notes: Vec<String>,
     /// Rows set aside and rows refused.
@@ -626,6 +633,15 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     for &(i, _) in &glitch_z {
         reason[i] = Some(Reason::Glitch);
     }
+    if opt.spec.is_some() && fitted_on != searched_on {
+        // The fixed size's own cross-validation, again on the rows kept.
+        let groups = groups_of(&layout, &preps, &fitted_on);
+        let per_group = (opt.search_rows / nsp.max(1)).max(opt.min_rows_per_setpoint);
+        let thinned: Vec<Vec<Prep>> = groups.iter().map(|g| thin(g, per_group)).collect();
+        found.cv = cross_validate(&thinned, found.spec, &found.params)
+            .map(|(rms, max, folds)| vec![CvRecord { spec: found.spec, rms, max, folds, chosen: true }])
+            .unwrap_or_default();
+    }
     let Searched { spec: chosen, params, mut cv, notes } = found;
     for r in cv.iter_mut() {
         r.chosen = r.spec == chosen;
@@ -702,7 +718,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         .setpoints
         .iter()
         .map(|g| {
-            let (mut sum, mut max, mut ok, mut noise_ss) = (0.0, 0.0f64, 0usize, 0.0);
+            let (mut sum, mut max, mut ok, mut noise_ss, mut z_ss) = (0.0, 0.0f64, 0usize, 0.0, 0.0);
             for &i in g.iter().filter(|&&i| reason[i].is_none()) {
                 if firmware[i].is_err() {
                     continue;
@@ -712,6 +728,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
                     sum += e * e;
                     max = max.max(e.abs());
                     noise_ss += sigma_x(i).powi(2);
+                    z_ss += (e / sigma_x(i)).powi(2);
                     ok += 1;
                 }
             }
@@ -723,12 +740,27 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
                 rms_np: if ok > 0 { (sum / ok as f64).sqrt() } else { f64::NAN },
                 max_np: max,
                 noise_np: if ok > 0 { (noise_ss / ok as f64).sqrt() } else { f64::NAN },
+                residual_ratio: if ok > 0 { (z_ss / ok as f64).sqrt() } else { f64::NAN },
             }
         })
         .collect();
     let noise_floor_np = noise.map(|_| {
         let ss: f64 = kept.iter().map(|&i| sigma_x(i).powi(2)).sum();
         (ss / kept.len().max(1) as f64).sqrt()
+    });
+    // The noise of the rows cross-validation holds out (the interior set-points): what its error compares with.
+    let held: Vec<usize> = match nsp {
+        0..=2 => vec![],
+        3 => vec![1],
+        _ => (1..nsp - 1).collect(),
+    };
+    let held_rows: Vec<usize> = held
+        .iter()
+        .flat_map(|&k| layout.setpoints[k].iter().copied())
+        .filter(|&i| reason[i].is_none())
+        .collect();
+    let cv_noise_np = (noise.is_some() && !held_rows.is_empty()).then(|| {
+        (held_rows.iter().map(|&i| sigma_x(i).powi(2)).sum::<f64>() / held_rows.len() as f64).sqrt()
     });
     let glitch_sigmas = |i: usize| glitch_z.iter().find(|(j, _)| *j == i).map(|(_, z)| *z);
     let set_aside = (0..n)
@@ -763,7 +795,18 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         glitch_threshold_sigmas: screen_threshold(judged),
         refused,
     };
-    Ok(FitOutcome { calibration, params, norm, chosen, setpoints, cv, noise_floor_np, notes, screening })
+    Ok(FitOutcome {
+        calibration,
+        params,
+        norm,
+        chosen,
+        setpoints,
+        cv,
+        noise_floor_np,
+        cv_noise_np,
+        notes,
+        screening,
+    })
 }
 
 fn screen_threshold(rows: usize) -> f64 {
@@ -850,6 +893,10 @@ fn search(groups: &[Vec<Prep>], opt: &FitOptions, nsp_all: usize) -> Result<Sear
         Some(spec) => {
             check_spec(spec, nsp.min(nsp_all), n)?;
             let (p, _) = fit_spec(&search, spec, None).ok_or_else(|| failed("initial fit"))?;
+            // A fixed size is still cross-validated, for the unit's own figures (its verdict).
+            if let Some((rms, max, folds)) = cross_validate(&search_groups, spec, &p) {
+                cv.push(CvRecord { spec, rms, max, folds, chosen: true });
+            }
             (spec, p)
         }
         None if nsp < 3 => {
@@ -947,22 +994,38 @@ pub fn render_report(out: &FitOutcome) -> String {
     let db = crate::error_scale::db_power;
     let mut s = String::new();
     let _ = writeln!(s, "model: {}", out.chosen.describe());
-    let _ = writeln!(s, "set-point      rows  refused   rms [Np]    max [Np]    rms [dB]    max [dB]");
+    let _ = writeln!(
+        s,
+        "set-point      rows  aside  refused   rms [Np]    max [Np]    rms [dB]    max [dB]  rms/noise"
+    );
     for p in &out.setpoints {
         let _ = writeln!(
             s,
-            "{:>8.2} °C {:>7} {:>8} {:>10.3e} {:>11.3e} {:>11.3e} {:>11.3e}",
+            "{:>8.2} °C {:>7} {:>6} {:>8} {:>10.3e} {:>11.3e} {:>11.3e} {:>11.3e} {:>10.2}",
             p.temp_c,
             p.rows,
+            p.set_aside,
             p.refused,
             p.rms_np,
             p.max_np,
             db(p.rms_np),
-            db(p.max_np)
+            db(p.max_np),
+            p.residual_ratio()
         );
     }
-    if let Some(f) = out.noise_floor_np {
-        let _ = writeln!(s, "noise floor (scatter of repeats): {:.3e} Np = {:.3e} dB", f, db(f));
+    if let (Some(f), Some(n)) = (out.noise_floor_np, out.screening.noise) {
+        let _ = writeln!(
+            s,
+            "noise floor (scatter of {}): {:.3e} Np = {:.3e} dB; converter {:.2} LSB rms, temperature reading {:.3} K rms",
+            match n.basis {
+                noise::NoiseBasis::Repeats => "repeats",
+                noise::NoiseBasis::Residuals => "residuals: too few repeats",
+            },
+            f,
+            db(f),
+            n.codes_rms,
+            n.temperature_k_rms
+        );
     }
     if !out.cv.is_empty() {
         let _ = writeln!(s, "cross-validation (leave one interior set-point out), error in x:");
@@ -983,6 +1046,84 @@ pub fn render_report(out: &FitOutcome) -> String {
     }
     let _ =
         writeln!(s, "dB figures are 10·log10 (power-like ratios); for amplitude-like ratios double them.");
+    s
+}
+
+/// Most rows listed on the terminal per list (the calibration file's summary lists every one).
+pub const LISTED_ROWS: usize = 40;
+
+/// Renders the rows set aside, the unsettled set-points and the rows the firmware refuses, each row by its
+/// file and line, for the terminal (empty lists are left out). `data` names the rows' file.
+pub fn render_screening(out: &FitOutcome, data: &FitData) -> String {
+    use std::fmt::Write;
+    let sc = &out.screening;
+    let mut s = String::new();
+    let more = |s: &mut String, n: usize| {
+        if n > LISTED_ROWS {
+            let _ = writeln!(
+                s,
+                "  … and {} more (all of them in the calibration file's fit summary)",
+                n - LISTED_ROWS
+            );
+        }
+    };
+    if !sc.set_aside.is_empty() {
+        let by: Vec<String> =
+            [Reason::LowRail, Reason::HighRail, Reason::OffSetpoint, Reason::Unsettled, Reason::Glitch]
+                .iter()
+                .filter_map(|r| {
+                    let n = sc.count(*r);
+                    (n > 0).then(|| format!("{n} {}", r.name()))
+                })
+                .collect();
+        let _ = writeln!(
+            s,
+            "rows set aside: {} of {} ({}); glitches are judged at |residual| > {:.1} σ of the row's noise",
+            sc.set_aside.len(),
+            sc.rows,
+            by.join(", "),
+            sc.glitch_threshold_sigmas
+        );
+        for r in sc.set_aside.iter().take(LISTED_ROWS) {
+            let resid = match (r.residual_codes, r.residual_sigmas, r.residual_np) {
+                (Some(c), Some(z), Some(x)) => format!("residual {c:+.1} codes = {z:+.1} σ = {x:+.3e} Np"),
+                _ => String::new(),
+            };
+            let _ = writeln!(
+                s,
+                "  {}: code {}, {:.3} °C, ratio {:.6e}: {}  {resid}",
+                data.place(r.row),
+                r.code,
+                r.temp_c,
+                r.ratio,
+                r.reason.describe()
+            );
+        }
+        more(&mut s, sc.set_aside.len());
+    }
+    for u in &sc.unsettled {
+        let _ = writeln!(
+            s,
+            "unsettled set-point near {:.2} °C: reading {} of each ratio ({} rows) drifts against the later ones by up to {:.1} codes ({:.3e} Np), rms {:.1} codes (χ² {:.1} > {:.1}, {} dof): set aside",
+            u.temp_c, u.sweep, u.count, u.max_drift_codes, u.max_drift_np, u.rms_drift_codes, u.chi2, u.threshold, u.dof
+        );
+    }
+    if !sc.refused.is_empty() {
+        let _ =
+            writeln!(s, "rows the firmware (f32 path) refuses with this calibration: {}", sc.refused.len());
+        for r in sc.refused.iter().take(LISTED_ROWS) {
+            let _ = writeln!(
+                s,
+                "  {}: code {}, {:.4} °C, ratio {:.6e}: {}",
+                data.place(r.row),
+                r.code,
+                r.temp_c,
+                r.ratio,
+                r.status
+            );
+        }
+        more(&mut s, sc.refused.len());
+    }
     s
 }
 
