@@ -151,12 +151,12 @@ fn nonneg_line(pts: &[(f64, f64, f64)]) -> (f64, f64) {
     let sum = |f: &dyn Fn(&(f64, f64, f64)) -> f64| pts.iter().map(|p| p.2 * f(p)).sum::<f64>();
     let s = sum(&|_| 1.0);
     let fit_const = || (sum(&|p| p.1) / s, 0.0);
-    if pts.len() < 2 || !(s > 0.0) {
+    if pts.len() < 2 || s.is_nan() || s <= 0.0 {
         return if s > 0.0 { fit_const() } else { (0.0, 0.0) };
     }
     let (sx, sy, sxx, sxy) = (sum(&|p| p.0), sum(&|p| p.1), sum(&|p| p.0 * p.0), sum(&|p| p.0 * p.1));
     let det = s * sxx - sx * sx;
-    if !(det > 1e-12 * s * sxx) {
+    if det.is_nan() || det <= 1e-12 * s * sxx {
         return fit_const();
     }
     let b = (s * sxy - sx * sy) / det;

@@ -265,8 +265,7 @@ pub fn unsettled(layout: &Layout, fit: &RowFit, judged: &[bool], temp_c: &[f64])
     let mut found = Vec::new();
     for (s, groups) in layout.repeats.iter().enumerate() {
         let mut k = 0usize;
-        loop {
-            let Some(sweep) = test_sweep(groups, fit, judged, k, nsp) else { break };
+        while let Some(sweep) = test_sweep(groups, fit, judged, k, nsp) {
             let (chi2, threshold, dof, pattern) = sweep;
             if chi2 <= threshold {
                 break;
@@ -401,7 +400,7 @@ pub fn glitches(layout: &Layout, fit: &RowFit, judged: &[bool]) -> Vec<(usize, f
         }
         let (r, sd) = (fit.residual[i], fit.sigma[i]);
         let z = r / sd;
-        if !(z.abs() > thr) {
+        if z.is_nan() || z.abs() <= thr {
             continue;
         }
         let groups = &layout.repeats[s];
@@ -419,7 +418,8 @@ pub fn glitches(layout: &Layout, fit: &RowFit, judged: &[bool]) -> Vec<(usize, f
             let var_ref =
                 reference.iter().map(|&j| fit.sigma[j].powi(2)).sum::<f64>() / reference.len() as f64;
             let sd_d = (sd * sd + median_variance(reference.len()) * var_ref).sqrt();
-            if !((r - m).abs() / sd_d > thr) {
+            let d = (r - m).abs() / sd_d;
+            if d.is_nan() || d <= thr {
                 continue;
             }
         }
