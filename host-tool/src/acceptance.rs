@@ -461,6 +461,26 @@ mod tests {
     }
 
     #[test]
+    fn the_schema_names_every_key_with_its_default() {
+        // schemas/acceptance.schema.json describes exactly the keys this type reads, with the same defaults.
+        let schema: serde_json::Value =
+            serde_json::from_str(include_str!("../../schemas/acceptance.schema.json")).unwrap();
+        let props = schema["properties"].as_object().unwrap();
+        let ours = serde_json::to_value(AcceptanceLimits::default()).unwrap();
+        let ours = ours.as_object().unwrap();
+        let mut a: Vec<&String> = props.keys().collect();
+        let mut b: Vec<&String> = ours.keys().collect();
+        a.sort();
+        b.sort();
+        assert_eq!(a, b);
+        for (k, v) in ours {
+            if let Some(d) = props[k].get("default") {
+                assert_eq!(d, v, "default of {k}");
+            }
+        }
+    }
+
+    #[test]
     fn a_nominal_unit_has_ideal_sensitivity() {
         // No bends: ∂code/∂x is the ideal slope everywhere (the definition of relative sensitivity).
         let cal = logtrim::Calibration::nominal(16, 32768.0, 3000.0, 25.0);
