@@ -42,6 +42,7 @@ impl Backend for Libm {
 
 /// The opt-in fast backend: micromath's approximations (coarse: see the table at [`Backend`]).
 #[cfg(feature = "micromath")]
+#[cfg_attr(docsrs, doc(cfg(feature = "micromath")))]
 #[derive(Debug, Clone, Copy, Default)]
 pub struct Micromath;
 
