@@ -40,7 +40,16 @@ impl AtomicFile {
         self.finish(false)
     }
 
+    /// Any failure (flush, sync, rename) removes the temporary file.
     fn finish(mut self, durable: bool) -> io::Result<()> {
+        let done = self.settle(durable);
+        if done.is_err() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+        done
+    }
+
+    fn settle(&mut self, durable: bool) -> io::Result<()> {
         if let Some(f) = self.file.take() {
             let f = f.into_inner().map_err(|e| e.into_error())?;
             if durable {
