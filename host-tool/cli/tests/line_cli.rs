@@ -226,3 +226,119 @@ fn apply_corrects_each_unit_with_its_own_calibration() {
     }
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+/// A 12-bit front end's chamber run (the `gas-uncompensated` preset with a 12-bit log channel); returns
+/// (front-end file, cal.csv).
+fn twelve_bit_run(d: &Path) -> (PathBuf, PathBuf) {
+    let fe = d.join("fe12.json");
+    let (code, _, e) = logtrim(&["simulate", "--preset", "gas-uncompensated", "--write-preset", s(&fe)]);
+    assert_eq!(code, 0, "{e}");
+    let mut v = json(&fe);
+    v["adc"]["bits"] = serde_json::json!(12);
+    std::fs::write(&fe, serde_json::to_string_pretty(&v).unwrap()).unwrap();
+    let out = d.join("run12");
+    let (code, o, e) = logtrim_words(
+        "simulate --setpoints 5 --ratios 21 --repeats 3 --validation 100 --seed 8",
+        &["--frontend", s(&fe), "--out-dir", s(&out)],
+    );
+    assert_eq!(code, 0, "{o}{e}");
+    (fe, out.join("cal.csv"))
+}
+
+#[test]
+fn adc_bits_come_from_the_design_and_narrow_data_get_a_warning() {
+    let d = scratch("line-bits");
+    let (fe, cal) = twelve_bit_run(&d);
+    // Without bits: fitted as 16-bit, with a warning that says what to pass.
+    let c16 = d.join("c16.json");
+    let (code, o, e) = logtrim(&["fit", s(&cal), "-o", s(&c16)]);
+    assert_eq!(code, 0, "{o}{e}");
+    assert!(e.contains("less than a quarter") && e.contains("--bits 12"), "{e}");
+    // With the design: its 12 bits, no warning, and the calibration says 12.
+    let c12 = d.join("c12.json");
+    let (code, o, e) = logtrim(&["fit", s(&cal), "--design", s(&fe), "-o", s(&c12)]);
+    assert_eq!(code, 0, "{o}{e}");
+    assert!(!e.contains("less than a quarter"), "{e}");
+    assert_eq!(json(&c12)["calibration"]["adc"]["bits"], 12);
+    // --bits against the design: refused, naming both.
+    let (code, _, e) = logtrim(&["fit", s(&cal), "--design", s(&fe), "--bits", "14", "-o", s(&c12)]);
+    assert_eq!(code, 2, "{e}");
+    assert!(e.contains("--bits 14") && e.contains("12-bit"), "{e}");
+    // A code the 12-bit converter cannot give (4200 > 4095) is an error naming its line.
+    let text = std::fs::read_to_string(&cal).unwrap();
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    let h: Vec<&str> = lines[0].split(',').collect();
+    let code_col = h.iter().position(|c| *c == "code").unwrap();
+    let mut f: Vec<String> = lines[9].split(',').map(String::from).collect();
+    f[code_col] = "4200".into();
+    lines[9] = f.join(",");
+    let bad = d.join("bad.csv");
+    std::fs::write(&bad, lines.join("\n") + "\n").unwrap();
+    let out = d.join("bad.json");
+    let (code, _, e) = logtrim(&["fit", s(&bad), "--bits", "12", "-o", s(&out)]);
+    assert_eq!(code, 2, "{e}");
+    assert!(e.contains("line 10") && e.contains("4200") && e.contains("4095"), "{e}");
+    assert!(!out.exists());
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
+fn an_all_saturated_unit_is_called_saturated() {
+    // Every code at the top rail (a front end stuck at full scale): not "did not converge".
+    let d = scratch("line-saturated");
+    let cal = unit(&d, "S1", "9", "");
+    let text = std::fs::read_to_string(&cal).unwrap();
+    let mut lines: Vec<String> = text.lines().map(String::from).collect();
+    let h: Vec<String> = lines[0].split(',').map(String::from).collect();
+    let code_col = h.iter().position(|c| c == "code").unwrap();
+    for l in lines.iter_mut().skip(1) {
+        let mut f: Vec<String> = l.split(',').map(String::from).collect();
+        f[code_col] = "65535".into();
+        *l = f.join(",");
+    }
+    std::fs::write(&cal, lines.join("\n") + "\n").unwrap();
+    let out = d.join("s1.json");
+    let (code, o, e) = logtrim(&["fit", s(&cal), "-o", s(&out)]);
+    assert_ne!(code, 0, "{o}{e}");
+    assert!(e.contains("saturated") && e.contains("rail"), "{e}");
+    assert!(!e.contains("converge"), "{e}");
+    assert!(!out.exists());
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
+fn a_batch_takes_the_image_options_and_writes_a_report_per_unit() {
+    let d = scratch("line-hex");
+    let folder = d.join("line");
+    std::fs::create_dir_all(&folder).unwrap();
+    for (serial, seed) in [("H1", "11"), ("H2", "12")] {
+        std::fs::copy(unit(&d, serial, seed, ""), folder.join(format!("{serial}.csv"))).unwrap();
+    }
+    let (out, reports) = (d.join("units"), d.join("reports"));
+    let (code, o, e) = logtrim_words(
+        "fit --format hex --base-address 0x08010000 --no-fixed",
+        &[s(&folder), "-o", s(&out), "--report", s(&reports)],
+    );
+    assert_eq!(code, 0, "{o}{e}");
+    assert_eq!(
+        names(&out),
+        ["H1.hex", "H1.json", "H2.hex", "H2.json", "summary.csv", "summary.json"].map(String::from)
+    );
+    for serial in ["H1", "H2"] {
+        // Intel HEX: an extended linear address record for 0x0801, then data at 0x0000 (Intel HEX spec).
+        let hex = std::fs::read_to_string(out.join(format!("{serial}.hex"))).unwrap();
+        assert!(hex.starts_with(":020000040801F1"), "{}", &hex[..40.min(hex.len())]);
+        assert!(hex.trim_end().ends_with(":00000001FF"));
+        // The image without fixed tables inspects as such, under its serial.
+        let (code, o, e) = logtrim(&["inspect", s(&out.join(format!("{serial}.hex")))]);
+        assert_eq!(code, 0, "{o}{e}");
+        assert!(o.contains(serial), "{o}");
+        assert!(reports.join(format!("{serial}-fit-report.md")).exists(), "{:?}", names(&reports));
+    }
+    let sj = json(&out.join("summary.json"));
+    for u in sj["units"].as_array().unwrap() {
+        assert_eq!(u["verdict"], "PASS");
+        assert!(u["image_crc"].as_str().unwrap().starts_with("0x"), "{u}");
+    }
+    std::fs::remove_dir_all(&d).unwrap();
+}
