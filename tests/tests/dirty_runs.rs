@@ -195,21 +195,24 @@ fn clean_runs_set_nothing_aside() {
 
 /// Clean seeded units drawn with production spread, fitted with the model size a batch would use: the
 /// statistical screens (glitches, unsettled set-points) are each allowed 0.005 expected false rejections per
-/// unit on Gaussian noise; returns (units, rows, rows set aside as glitch or unsettled) over `units` units.
+/// unit on Gaussian noise; returns (rows, rows set aside as glitch or unsettled, units with any set aside)
+/// over `units` units.
 fn false_alarms(name: &str, seed: u64, units: usize) -> (usize, usize, usize) {
     let fe = preset(name).unwrap();
     let plan = Plan { seed, chamber: ChamberPlan::default(), validation_count: 1, units };
     let sim = simulate(&fe, &plan).unwrap();
     let first = fit(&fit_data(&sim.chamber, 0).unwrap(), &FitOptions::default()).unwrap();
     let opt = FitOptions { spec: Some(first.chosen), ..FitOptions::default() };
-    let (mut rows, mut aside) = (0, 0);
+    let (mut rows, mut aside, mut events) = (0, 0, 0);
     for unit in 0..units {
         let out = fit(&fit_data(&sim.chamber, unit).unwrap(), &opt).unwrap();
         rows += out.screening.rows;
-        aside += out.screening.count(Reason::Glitch) + out.screening.count(Reason::Unsettled);
+        let n = out.screening.count(Reason::Glitch) + out.screening.count(Reason::Unsettled);
+        aside += n;
+        events += usize::from(n > 0);
     }
-    eprintln!("{name} seed {seed}: {aside} rows set aside on {units} clean units ({rows} rows)");
-    (units, rows, aside)
+    eprintln!("{name} seed {seed}: {aside} rows set aside in {events} of {units} clean units ({rows} rows)");
+    (rows, aside, events)
 }
 
 #[test]
@@ -218,8 +221,7 @@ fn clean_units_are_rarely_screened() {
     // too eager would set aside about 8. (An unsettled false alarm sets a whole sweep aside, 41 rows.)
     let mut events = 0;
     for (name, seed) in [("gas-uncompensated", 51), ("photometer-compensated", 52)] {
-        let (_, _, aside) = false_alarms(name, seed, 20);
-        events += usize::from(aside > 0);
+        events += false_alarms(name, seed, 20).2;
     }
     assert!(events <= 1, "{events} of 40 clean units had rows set aside");
 }
@@ -229,13 +231,14 @@ fn clean_units_are_rarely_screened() {
 #[test]
 #[ignore]
 fn false_alarm_rate_over_many_clean_units() {
-    let (mut units, mut rows, mut aside) = (0, 0, 0);
+    let (mut rows, mut aside, mut events) = (0, 0, 0);
     for (name, seed) in [("gas-uncompensated", 61), ("photometer-compensated", 62)] {
-        let (u, r, a) = false_alarms(name, seed, 200);
-        units += u;
+        let (r, a, e) = false_alarms(name, seed, 200);
         rows += r;
         aside += a;
+        events += e;
     }
-    eprintln!("{aside} rows set aside on {units} clean units ({rows} rows)");
-    assert!((aside as f64) < 0.05 * units as f64 * 41.0, "{aside} rows on {units} units");
+    eprintln!("{aside} rows set aside in {events} of 400 clean units ({rows} rows)");
+    // At the budget (0.01 per unit) about 4 units of 400; 11 or more has a Poisson probability of 0.3 %.
+    assert!(events <= 10, "{events} of 400 clean units had rows set aside");
 }
