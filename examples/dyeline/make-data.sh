@@ -12,8 +12,6 @@ set -euo pipefail
 here="$(cd "$(dirname "$0")" && pwd)"
 root="$(cd "$here/../.." && pwd)"
 serial="QM-DL2-0117"
-work="$(mktemp -d)"
-trap 'rm -rf "$work"' EXIT
 
 cargo build -q --manifest-path "$root/Cargo.toml" -p logtrim-cli --bin logtrim
 logtrim="${CARGO_TARGET_DIR:-$root/target}/debug/logtrim"
@@ -22,11 +20,10 @@ cd "$here"
 # 1. The chamber run: 5 set-points from 5 to 55 °C × 21 ratios from 1e-3 to 2 × 3 repeats = 315 rows,
 #    and 400 validation readings at random (ratio, temperature), with their truth kept apart.
 "$logtrim" simulate --frontend frontend.json --seed 117 --setpoints 5 --ratios 21 --repeats 3 \
-    --validation 400 --out-dir data
-# 2. The fit. The fit names the unit after the chamber file, so it reads the run under the unit's serial.
-cp data/cal.csv "$work/$serial.csv"
+    --validation 400 --serial "$serial" --out-dir data
+# 2. The fit. The chamber file's unit column carries the unit's serial, which the fit records.
 mkdir -p calibration
-"$logtrim" fit "$work/$serial.csv" --extrapolate 5 -o calibration/COEFFS.json
+"$logtrim" fit data/cal.csv --extrapolate 5 -o calibration/COEFFS.json
 # 3. The unit's EEPROM image, and a check of it.
 "$logtrim" image calibration/COEFFS.json -o "calibration/$serial.bin"
 "$logtrim" inspect "calibration/$serial.bin"

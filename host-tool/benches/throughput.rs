@@ -10,8 +10,9 @@
 
 use std::time::Instant;
 
+use logtrim_host::acceptance::AcceptanceLimits;
 use logtrim_host::apply::write_results;
-use logtrim_host::batch::{fit_units, UnitJob};
+use logtrim_host::batch::{fit_units, BatchOptions, ImageOptions, UnitJob};
 use logtrim_host::correct::{correct_rows, Arithmetic};
 use logtrim_host::data::{read_calibration, read_readings, ReadOptions};
 use logtrim_host::demo::fit_data;
@@ -69,6 +70,7 @@ fn main() {
         .map(|u| UnitJob {
             serial: sim.units[u].serial.clone(),
             data: fit_data(&sim.chamber, u).expect("data"),
+            unreadable: None,
         })
         .collect();
     let base = std::env::var_os("LOGTRIM_BENCH_DIR")
@@ -77,11 +79,19 @@ fn main() {
     let dir = base.join(format!("logtrim-bench-batch-{}", std::process::id()));
     std::fs::create_dir_all(&dir).expect("dir");
     let t = Instant::now();
-    let (spec, results) = fit_units(&jobs, &opt, None, &dir, 1_700_000_000, &logtrim_host::progress::quiet);
+    let opts = BatchOptions {
+        fit: opt.clone(),
+        sensor: None,
+        limits: AcceptanceLimits::default(),
+        image: ImageOptions::default(),
+        created_unix_s: 1_700_000_000,
+    };
+    let done = fit_units(&jobs, &opts, &dir, &logtrim_host::progress::quiet).expect("batch");
+    let (spec, results) = (done.spec, done.units);
     let secs = t.elapsed().as_secs_f64();
-    let failed = results.iter().filter(|r| r.outcome.is_err()).count();
+    let failed = results.iter().filter(|r| r.record.verdict != "PASS").count();
     println!(
-        "batch: {} units × {} rows in {secs:.2} s (goal < 10 s), {failed} failed, model {}",
+        "batch: {} units × {} rows in {secs:.2} s (goal < 10 s), {failed} not passed, model {}",
         jobs.len(),
         jobs[0].data.code.len(),
         spec.map(|s| s.to_arg()).unwrap_or_default()

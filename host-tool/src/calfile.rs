@@ -9,7 +9,9 @@
 //!   "generator": "logtrim 0.1.0",
 //!   "calibration": { ... },         // firmware-lib's `Calibration`, field by field
 //!   "temperature_sensor": null,     // optional: how the temperature channel's code becomes °C
-//!   "fit": { ... }                  // optional: the fit's summary (model chosen, residuals, CV figures)
+//!   "fit": { ... },                 // optional: the fit's summary (model chosen, residuals, CV figures,
+//!                                   //   rows set aside and refused, each with its line)
+//!   "acceptance": { ... }           // optional: the unit's verdict, "PASS" or "FAIL", with its checks
 //! }
 //! ```
 //!
@@ -56,6 +58,11 @@ pub struct CalFile {
     /// A summary of the fit that produced the calibration.
     #[serde(default)]
     pub fit: Option<serde_json::Value>,
+    /// The unit's verdict against its product's acceptance limits (`verdict`: `PASS` or `FAIL`, `reasons`,
+    /// every `check`), when it was judged. A unit that failed keeps its calibration file, marked so here,
+    /// and gets no image.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub acceptance: Option<serde_json::Value>,
 }
 
 /// Errors reading or writing a calibration file.
@@ -108,6 +115,7 @@ impl CalFile {
             calibration,
             temperature_sensor: None,
             fit: None,
+            acceptance: None,
         }
     }
 
@@ -183,6 +191,20 @@ impl CalFile {
 }
 
 impl CalFile {
+    /// Records a verdict in the file (see [`CalFile::acceptance`]).
+    pub fn set_verdict(&mut self, verdict: &crate::acceptance::Verdict) {
+        self.acceptance = Some(serde_json::json!({
+            "verdict": verdict.word(),
+            "reasons": verdict.reasons(),
+            "checks": verdict.checks,
+        }));
+    }
+
+    /// Whether the file records a failed acceptance verdict.
+    pub fn failed_acceptance(&self) -> bool {
+        self.acceptance.as_ref().and_then(|a| a.get("verdict")).and_then(|v| v.as_str()) == Some("FAIL")
+    }
+
     /// The fixed-point tables of this unit: the calibration's, with a temperature-sensor table when the
     /// file describes a raw temperature channel (every code of the channel's converter, converted by
     /// firmware-lib's sensor code in f64).

@@ -103,6 +103,8 @@ pub struct CalRow {
     pub unit: Option<u32>,
     /// The row's weight (1 without a `weight` column).
     pub weight: f64,
+    /// The temperature channel's raw code, for a file with a `temp_code` column.
+    pub temp_code: Option<u32>,
 }
 
 /// A calibration file's contents.
@@ -152,6 +154,28 @@ pub struct Readings {
     pub units: Vec<String>,
     /// Rows skipped for bad values (only when [`ReadOptions::skip_bad_rows`] was set).
     pub skipped: Vec<RowError>,
+}
+
+impl Readings {
+    /// The rows of one unit (index into [`Readings::units`]), in file order, as a readings file of their own.
+    pub fn of_unit(&self, unit: u32) -> Readings {
+        Readings {
+            rows: self.rows.iter().filter(|r| r.unit == Some(unit)).cloned().collect(),
+            ..self.clone_empty()
+        }
+    }
+
+    /// The same file without rows.
+    fn clone_empty(&self) -> Readings {
+        Readings {
+            path: self.path.clone(),
+            headers: self.headers.clone(),
+            columns: self.columns.clone(),
+            rows: Vec::new(),
+            units: self.units.clone(),
+            skipped: Vec::new(),
+        }
+    }
 }
 
 /// What was wrong with one value (or one row).
@@ -678,7 +702,11 @@ impl<'o> Source<'o> {
             None => 1.0,
         };
         let unit = self.unit(rec)?;
-        Ok(CalRow { line, code, temp_c, ratio, unit, weight })
+        let temp_code = match self.columns.temperature_kind {
+            TemperatureColumn::Code => parse_code(field(rec, self.columns.temperature), u32::MAX).ok(),
+            TemperatureColumn::Celsius => None,
+        };
+        Ok(CalRow { line, code, temp_c, ratio, unit, weight, temp_code })
     }
 
     fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {

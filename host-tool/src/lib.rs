@@ -22,7 +22,8 @@
 //! | [`demo`] | the end-to-end demonstration: simulate, fit, correct a held-out run, compare methods |
 //! | **calibration** | |
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit's summary |
-//! | [`batch`] | chamber data into one job per unit; fitting one unit, or a production-line batch in parallel |
+//! | [`batch`] | chamber data into one job per unit; fitting one unit, or a production-line batch in parallel, with its summary |
+//! | [`acceptance`] | a product's acceptance limits and every unit's verdict (PASS/FAIL with reasons) |
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients, R–T tables, settings files |
 //! | **the firmware's paths, run on the host** | |
 //! | [`correct`] | correcting readings row by row with the firmware's f32 and fixed paths and field layers |
@@ -48,6 +49,7 @@
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
+pub mod acceptance;
 pub mod apply;
 pub mod batch;
 pub mod blank;

@@ -40,7 +40,16 @@ impl AtomicFile {
         self.finish(false)
     }
 
+    /// Any failure (flush, sync, rename) removes the temporary file.
     fn finish(mut self, durable: bool) -> io::Result<()> {
+        let done = self.settle(durable);
+        if done.is_err() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+        done
+    }
+
+    fn settle(&mut self, durable: bool) -> io::Result<()> {
         if let Some(f) = self.file.take() {
             let f = f.into_inner().map_err(|e| e.into_error())?;
             if durable {
@@ -96,6 +105,31 @@ pub fn sync_all_deferred(dir: &Path) -> io::Result<()> {
     d.sync_all()
 }
 
+/// Writes a group of files that appear together or not at all: every file is written to its temporary
+/// file first, then each is renamed into place; if any step fails, the temporary files are removed and the
+/// targets already renamed are removed again, and the first error is returned. The flush to disk is left
+/// to [`sync_all_deferred`]. The targets must be distinct paths.
+pub fn write_group_deferred(files: &[(PathBuf, Vec<u8>)]) -> io::Result<()> {
+    let mut pending = Vec::with_capacity(files.len());
+    for (target, bytes) in files {
+        let mut f = AtomicFile::create(target)?;
+        f.write_all(bytes)?;
+        f.flush()?;
+        pending.push(f);
+    }
+    let mut done: Vec<&Path> = Vec::with_capacity(files.len());
+    for (f, (target, _)) in pending.into_iter().zip(files) {
+        if let Err(e) = f.commit_deferred() {
+            for t in done {
+                let _ = std::fs::remove_file(t);
+            }
+            return Err(e);
+        }
+        done.push(target);
+    }
+    Ok(())
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -116,6 +150,28 @@ mod tests {
         write_atomic_deferred(&target, b"again").unwrap();
         sync_all_deferred(&dir).unwrap();
         assert_eq!(std::fs::read(&target).unwrap(), b"again");
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
+
+    #[test]
+    fn a_group_appears_whole_or_not_at_all() {
+        let dir = std::env::temp_dir().join(format!("logtrim-group-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let (a, b) = (dir.join("u.json"), dir.join("u.bin"));
+        write_group_deferred(&[(a.clone(), b"{}".to_vec()), (b.clone(), vec![1, 2])]).unwrap();
+        assert_eq!(std::fs::read(&b).unwrap(), [1, 2]);
+        // The second target is a folder: nothing of the group stays, no temporary file either.
+        std::fs::remove_file(&a).unwrap();
+        std::fs::remove_file(&b).unwrap();
+        std::fs::create_dir(&b).unwrap();
+        std::fs::write(b.join("x"), b"x").unwrap();
+        assert!(write_group_deferred(&[(a.clone(), b"{}".to_vec()), (b.clone(), vec![1])]).is_err());
+        assert!(!a.exists());
+        let names: Vec<String> = std::fs::read_dir(&dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        assert_eq!(names, ["u.bin"], "only the folder in the way remains");
         std::fs::remove_dir_all(&dir).unwrap();
     }
 }

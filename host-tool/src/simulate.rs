@@ -15,13 +15,14 @@
 //!
 //! | file | columns / contents |
 //! |---|---|
-//! | `cal.csv` | `code,temp_c,ratio` (`unit,` first for a batch; `temp_code` for a raw temperature channel) |
+//! | `cal.csv` | `unit,code,temp_c,ratio` (`temp_code` for a raw temperature channel) |
 //! | `readings.csv` | `id,code,temp_c` (`id,unit,code,temp_c` for a batch; `temp_code` for a raw channel) |
 //! | `truth.csv` | `id,ratio,x_true,t_true_c,x_oracle` (`id,unit,…` for a batch; `x_oracle` empty where undefined) |
 //! | `frontend.json` | the front end simulated (the nominal one, with its spread, for a batch) |
 //! | `units.json` | a batch only: every unit's drawn front end, by serial |
 //! | `standards.csv` | an aged unit only: `[unit,]code,temp_c,ratio`, readings of two reference standards |
 //! | `blank.csv` | an aged unit only: `[unit,]code,temp_c`, readings of a blank |
+//! | `faults.csv` | a run with chamber faults only: `line,unit,kind,size`, the dirty readings by their line in `cal.csv` |
 //! | `manifest.json` | what generated the files: version, seed, sizes, oracle figures |
 //!
 //! # Aged units
@@ -53,6 +54,7 @@ enum Purpose {
     Validation = 3,
     Standards = 4,
     Blank = 5,
+    Faults = 6,
 }
 
 /// Reference standards read by an aged unit's standards run.
@@ -130,6 +132,23 @@ pub struct ChamberRow {
     pub code: u32,
     /// The temperature as the firmware reads it.
     pub temperature: MeasuredTemperature,
+    /// What went wrong with this reading, if the front end's [`crate::frontend::ChamberFaults`] made it dirty.
+    pub fault: Option<ChamberFault>,
+}
+
+/// A reading made dirty by a front end's [`crate::frontend::ChamberFaults`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ChamberFault {
+    /// The code was moved by this many codes (after clamping to the converter's range).
+    Glitch {
+        /// The change of the code.
+        codes: i64,
+    },
+    /// The pair was this many kelvin away from the unit's temperature (an unsettled set-point).
+    Unsettled {
+        /// The pair's temperature minus the unit's, K.
+        lag_k: f64,
+    },
 }
 
 /// One noisy reading of a simulated unit, with the truth behind it: a reading of a validation run, or of
@@ -261,22 +280,59 @@ fn spaced(a: f64, b: f64, n: usize) -> Vec<f64> {
 }
 
 /// One unit's chamber run, drawn from its own random stream. The unit is measured as it was calibrated:
-/// any [`FrontEnd::aging`] is ignored.
+/// any [`FrontEnd::aging`] is ignored. Its [`FrontEnd::chamber_faults`] are drawn from a stream of their
+/// own, so the run is the clean run of the same seed with some readings changed.
 pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) -> Vec<ChamberRow> {
     let calibrated = fe.as_calibrated();
     let fe = &calibrated;
     let mut rng = rng_for(seed, Purpose::Chamber, unit);
+    let mut frng = rng_for(seed, Purpose::Faults, unit);
+    let faults = fe.chamber_faults;
     let ratios = sweep_ratios(fe, plan.ratios_per_setpoint);
     let jitter = fe.operating.setpoint_jitter_k_rms;
+    let sps = setpoints(fe, plan.setpoints);
     let mut rows = Vec::with_capacity(plan.setpoints * plan.repeats * ratios.len());
-    for sp in setpoints(fe, plan.setpoints) {
-        for _ in 0..plan.repeats {
-            for &ratio in &ratios {
+    for (k, &sp) in sps.iter().enumerate() {
+        // An unsettled set-point: the pair lags on the side the chamber came from.
+        let from = if k == 0 { 25.0 } else { sps[k - 1] };
+        let lag = match faults {
+            Some(f) if f.unsettled_lag_k != 0.0 && frng.random::<f64>() < f.unsettled_share => {
+                (from - sp).signum() * f.unsettled_lag_k
+            }
+            _ => 0.0,
+        };
+        for rep in 0..plan.repeats {
+            for (j, &ratio) in ratios.iter().enumerate() {
                 let n: f64 = StandardNormal.sample(&mut rng);
                 let t_true_c = sp + jitter * n;
                 let x_true = libm::log(ratio);
-                let Sample { code, temperature } = fe.sample(x_true, t_true_c, &mut rng);
-                rows.push(ChamberRow { unit, setpoint_c: sp, t_true_c, ratio, x_true, code, temperature });
+                let settle = faults.map_or(1.0, |f| f.unsettled_readings);
+                let pair_off =
+                    if rep == 0 && lag != 0.0 { lag * libm::exp(-(j as f64) / settle) } else { 0.0 };
+                // The code, then the temperature reading: the draws of `FrontEnd::sample`.
+                let mut code = fe.sample_code(x_true, t_true_c + pair_off, &mut rng);
+                let temperature = fe.measure_temperature(t_true_c, &mut rng);
+                let mut fault = (pair_off != 0.0).then_some(ChamberFault::Unsettled { lag_k: pair_off });
+                if let Some(f) = faults.filter(|f| f.glitch_rate > 0.0) {
+                    if frng.random::<f64>() < f.glitch_rate {
+                        let (a, b) = (libm::log(f.glitch_codes_min), libm::log(f.glitch_codes_max));
+                        let size = libm::exp(if b > a { frng.random_range(a..=b) } else { a });
+                        let sign = if frng.random::<bool>() { 1.0 } else { -1.0 };
+                        let moved = fe.quantise(f64::from(code) + sign * size);
+                        fault = Some(ChamberFault::Glitch { codes: i64::from(moved) - i64::from(code) });
+                        code = moved;
+                    }
+                }
+                rows.push(ChamberRow {
+                    unit,
+                    setpoint_c: sp,
+                    t_true_c,
+                    ratio,
+                    x_true,
+                    code,
+                    temperature,
+                    fault,
+                });
             }
         }
     }
@@ -471,10 +527,12 @@ impl Simulation {
         self.chamber.first().map_or("temp_c", |r| r.temperature.column())
     }
 
-    /// `cal.csv`: `[unit,]code,temp_c,ratio` (`temp_code` instead of `temp_c` for a raw temperature channel).
+    /// `cal.csv`: `unit,code,temp_c,ratio` (`temp_code` instead of `temp_c` for a raw temperature channel).
+    /// The unit column is there for one unit too, so that `fit` names the calibration for its serial.
     pub fn cal_csv(&self) -> Vec<u8> {
-        self.csv(
+        self.csv_with(
             false,
+            true,
             &["code", self.temp_column(), "ratio"],
             &self.chamber,
             |r| (0, r.unit),
@@ -551,12 +609,25 @@ impl Simulation {
         key: impl Fn(&R) -> (u64, usize),
         fields: impl Fn(&R) -> Vec<String>,
     ) -> Vec<u8> {
+        self.csv_with(with_id, self.batch(), columns, rows, key, fields)
+    }
+
+    /// [`Simulation::csv`], with the unit column when `with_unit`.
+    fn csv_with<R>(
+        &self,
+        with_id: bool,
+        with_unit: bool,
+        columns: &[&str],
+        rows: &[R],
+        key: impl Fn(&R) -> (u64, usize),
+        fields: impl Fn(&R) -> Vec<String>,
+    ) -> Vec<u8> {
         let mut w = csv::Writer::from_writer(Vec::new());
         let mut head = Vec::new();
         if with_id {
             head.push("id");
         }
-        if self.batch() {
+        if with_unit {
             head.push("unit");
         }
         head.extend_from_slice(columns);
@@ -568,13 +639,33 @@ impl Simulation {
             if with_id {
                 f.push(id.to_string());
             }
-            if self.batch() {
+            if with_unit {
                 f.push(self.units[unit].serial.clone());
             }
             f.extend(fields(r));
             out.row(f);
         }
         into_bytes(w)
+    }
+
+    /// `faults.csv`: the chamber readings a front end's faults made dirty, by their line in `cal.csv`:
+    /// `line,unit,kind,size` with kind `glitch` (size: the change of the code) or `unsettled` (size: the
+    /// pair's lag, K). `None` when no reading is dirty.
+    pub fn faults_csv(&self) -> Option<Vec<u8>> {
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let mut out = CsvOut(&mut w);
+        out.row(["line", "unit", "kind", "size"].map(String::from));
+        let mut any = false;
+        for (i, r) in self.chamber.iter().enumerate() {
+            let Some(f) = r.fault else { continue };
+            any = true;
+            let (kind, size) = match f {
+                ChamberFault::Glitch { codes } => ("glitch", codes.to_string()),
+                ChamberFault::Unsettled { lag_k } => ("unsettled", lag_k.to_string()),
+            };
+            out.row([(i + 2).to_string(), self.units[r.unit].serial.clone(), kind.to_string(), size]);
+        }
+        any.then(|| into_bytes(w))
     }
 
     /// `manifest.json`: what generated the files, with the plan and the oracle's figures.
@@ -623,6 +714,10 @@ impl Simulation {
         ];
         if self.batch() {
             files.push(("units.json", self.units_json().into_bytes(), None));
+        }
+        if let Some(f) = self.faults_csv() {
+            let n = self.chamber.iter().filter(|r| r.fault.is_some()).count();
+            files.push(("faults.csv", f, Some(n)));
         }
         if !self.standards.is_empty() {
             files.push(("standards.csv", self.standards_csv(), Some(self.standards.len())));

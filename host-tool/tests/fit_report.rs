@@ -30,6 +30,9 @@ fn outcome(cal: Calibration) -> FitOutcome {
         temp_c: t,
         rows,
         refused,
+        set_aside: 0,
+        noise_np: 2.0e-4,
+        residual_ratio: 1.0,
         rms_np: rms,
         max_np: max,
     };
@@ -59,7 +62,9 @@ fn outcome(cal: Calibration) -> FitOutcome {
             CvRecord { spec: spec(3, 2, 1, true), rms: 2.6e-4, max: 9.9e-4, folds: 4, chosen: true },
         ],
         noise_floor_np: Some(1.95e-4),
+        cv_noise_np: Some(1.9e-4),
         notes: vec!["an invented note for the snapshot".into()],
+        screening: Default::default(),
     }
 }
 

@@ -28,7 +28,8 @@ pub enum PathArg {
 /// Options of `logtrim apply`.
 #[derive(Args, Debug)]
 pub struct ApplyArgs {
-    /// The unit's calibration file.
+    /// The unit's calibration file; or, for readings of several units (a unit column), a folder of
+    /// calibration files named SERIAL.json (as `fit` writes a batch), each row corrected with its own unit's.
     coeffs: PathBuf,
     /// Readings: a CSV with code and temp_c (or temp_code, converted by the calibration file's sensor);
     /// every other column is copied to the output.
@@ -50,31 +51,165 @@ pub struct ApplyArgs {
     blank: Option<PathBuf>,
     #[command(flatten)]
     limits: crate::trim::LimitArgs,
+    /// Only the rows of this unit (readings with a unit column), corrected with the calibration given.
+    #[arg(long, value_name = "SERIAL")]
+    unit: Option<String>,
 }
 
-/// Runs the verb.
-pub fn run(args: ApplyArgs) -> Result<(), Failure> {
-    let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
+/// The calibration file of `serial` in the folder `dir` (SERIAL.json as a batch writes it), checked to be
+/// that unit's.
+fn unit_calibration(dir: &std::path::Path, serial: &str) -> Result<CalFile, Failure> {
+    let path = dir.join(format!("{}.json", logtrim_host::batch::file_stem(serial)));
+    if !path.exists() {
+        return Err(Failure::input(format!(
+            "{}: no calibration of unit {serial:?} (expected {})",
+            dir.display(),
+            path.display()
+        )));
+    }
+    let file = CalFile::load(&path).map_err(Failure::input)?;
+    if file.unit.as_deref() != Some(serial) {
+        return Err(Failure::input(format!(
+            "{}: the calibration of unit {:?}, not {serial:?}",
+            path.display(),
+            file.unit.as_deref().unwrap_or("")
+        )));
+    }
+    Ok(file)
+}
+
+/// Corrects `readings` with one calibration file and its layers, on the chosen path.
+fn correct_with(
+    args: &ApplyArgs,
+    file: &CalFile,
+    readings: &logtrim_host::data::Readings,
+    source: &std::path::Path,
+) -> Result<(Vec<Result<logtrim_host::correct::RowValue, logtrim::Error>>, logtrim::field::Layers), Failure> {
     let cal = file.calibration;
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
         .map_err(crate::trim::layer_failure)?;
-    let readings = read_unit_readings(&file, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
-    for e in &readings.skipped {
-        eprintln!("skipped: {e}");
-    }
     if matches!(args.path, PathArg::F32Micromath) {
         eprintln!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
     }
     let results = match args.path {
-        PathArg::F32 => correct_rows_layered(&cal, &readings, Arithmetic::F32, &layers),
-        PathArg::F32Micromath => correct_rows_layered(&cal, &readings, Arithmetic::F32Micromath, &layers),
+        PathArg::F32 => correct_rows_layered(&cal, readings, Arithmetic::F32, &layers),
+        PathArg::F32Micromath => correct_rows_layered(&cal, readings, Arithmetic::F32Micromath, &layers),
         PathArg::Fixed => {
             let tables = file
                 .fixed_tables(&logtrim_host::tables::TableOptions::default())
-                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
-            correct_rows_fixed_layered(&tables.view(), &readings, &layers)
+                .map_err(|e| Failure::input(format!("{}: {e}", source.display())))?;
+            correct_rows_fixed_layered(&tables.view(), readings, &layers)
         }
+    };
+    Ok((results, layers))
+}
+
+/// Runs the verb.
+pub fn run(args: ApplyArgs) -> Result<(), Failure> {
+    let folder = args.coeffs.is_dir();
+    // The readings are read as the firmware reads them: the calibration's bits and temperature sensor (of
+    // the first calibration of a folder; every unit's must agree).
+    let first = if folder {
+        let head = logtrim_host::data::read_readings_file(
+            &args.readings,
+            &logtrim_host::data::ReadOptions { adc_bits: 24, skip_bad_rows: true, temp_converter: None },
+        );
+        let serial = match &head {
+            Ok(r) => r.units.first().cloned(),
+            Err(_) => None,
+        };
+        match serial {
+            Some(s) => unit_calibration(&args.coeffs, &s)?,
+            None => {
+                return Err(Failure::input(format!(
+                "{} is a folder of calibrations: the readings {} need a unit column naming each row's unit",
+                args.coeffs.display(),
+                args.readings.display()
+            )))
+            }
+        }
+    } else {
+        CalFile::load(&args.coeffs).map_err(Failure::input)?
+    };
+    let readings = read_unit_readings(&first, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
+    for e in &readings.skipped {
+        eprintln!("skipped: {e}");
+    }
+    let (readings, results, layers) = if readings.units.is_empty() {
+        if folder {
+            return Err(Failure::input(format!(
+                "{} is a folder of calibrations: the readings {} need a unit column naming each row's unit",
+                args.coeffs.display(),
+                args.readings.display()
+            )));
+        }
+        let (r, l) = correct_with(&args, &first, &readings, &args.coeffs)?;
+        (readings, r, l)
+    } else if let Some(u) = &args.unit {
+        let Some(i) = readings.units.iter().position(|s| s == u) else {
+            return Err(Failure::input(format!(
+                "--unit {u:?}: no rows of that unit in {} (its units: {})",
+                args.readings.display(),
+                readings.units.join(", ")
+            )));
+        };
+        let file = if folder { unit_calibration(&args.coeffs, u)? } else { first.clone() };
+        let sub = readings.of_unit(i as u32);
+        let left_out = readings.rows.len() - sub.rows.len();
+        if left_out > 0 {
+            println!("--unit {u}: {left_out} rows of other units left out");
+        }
+        let (r, l) = correct_with(&args, &file, &sub, &args.coeffs)?;
+        (sub, r, l)
+    } else if !folder {
+        let own = first.unit.clone().unwrap_or_default();
+        let others: Vec<&String> = readings.units.iter().filter(|s| **s != own).collect();
+        if !others.is_empty() {
+            return Err(Failure::input(format!(
+                "{}: rows of {} unit(s) ({}{}) but {} is the calibration of {}: give a folder of calibrations (each row is corrected with its own unit's), or --unit SERIAL to correct one unit's rows with this calibration",
+                args.readings.display(),
+                others.len(),
+                others.iter().take(5).map(|s| s.as_str()).collect::<Vec<_>>().join(", "),
+                if others.len() > 5 { ", …" } else { "" },
+                args.coeffs.display(),
+                if own.is_empty() { "an unnamed unit".to_string() } else { format!("unit {own:?}") }
+            )));
+        }
+        let (r, l) = correct_with(&args, &first, &readings, &args.coeffs)?;
+        (readings, r, l)
+    } else {
+        // Each unit's rows with its own calibration, back in file order.
+        let mut results = vec![Err(logtrim::Error::NotCalibrated); readings.rows.len()];
+        let mut layers = logtrim::field::Layers::FACTORY;
+        let mut where_: Vec<Vec<usize>> = vec![Vec::new(); readings.units.len()];
+        for (k, r) in readings.rows.iter().enumerate() {
+            if let Some(u) = r.unit {
+                where_[u as usize].push(k);
+            }
+        }
+        for (i, serial) in readings.units.iter().enumerate() {
+            let file = unit_calibration(&args.coeffs, serial)?;
+            if file.calibration.adc.bits != first.calibration.adc.bits
+                || file.temperature_sensor != first.temperature_sensor
+            {
+                return Err(Failure::input(format!(
+                    "unit {serial:?}: its calibration's ADC bits or temperature sensor differ from unit {:?}'s: correct the units' readings separately",
+                    first.unit.as_deref().unwrap_or("")
+                )));
+            }
+            let (r, l) = correct_with(&args, &file, &readings.of_unit(i as u32), &args.coeffs)?;
+            layers = l;
+            for (k, v) in where_[i].iter().zip(r) {
+                results[*k] = v;
+            }
+        }
+        println!(
+            "{} units, each corrected with its own calibration from {}",
+            readings.units.len(),
+            args.coeffs.display()
+        );
+        (readings, results, layers)
     };
     let out = AtomicFile::create(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;

@@ -69,6 +69,12 @@ pub fn run(args: Args) -> Result<(), Failure> {
         return Err(Failure::input("--record-len applies to Intel HEX output only (--format hex)"));
     }
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
+    if file.failed_acceptance() {
+        return Err(Failure::rejected(format!(
+            "{}: the unit failed its acceptance limits (marked FAIL in the file): no image is made from it",
+            args.coeffs.display()
+        )));
+    }
     let options = args.tables.options();
     let tables = (!args.no_fixed).then_some(&options);
     let bytes = image_file::build_image_with(&file, args.serial.as_deref(), args.sequence, tables)

@@ -1,7 +1,8 @@
 //! The `logtrim` command-line tool: a thin layer over the `logtrim-host` library.
 //!
 //! Exit codes: 0 success; 1 a check failed (verification over its bound, a bad image, a fit that was
-//! refused); 2 bad usage or bad input (unreadable file, malformed data).
+//! refused, a unit of a batch that could not be calibrated); 2 bad usage or bad input (unreadable file,
+//! malformed data); 3 fitted, but failed acceptance (`fit`: the unit, or a unit of the batch, is FAIL).
 
 use std::process::ExitCode;
 
@@ -36,7 +37,8 @@ mod verify;
 /// the whole job on simulated units.
 ///
 /// Exit codes: 0 success; 1 a check failed (verification over its bound, a bad image, a refused fit, a
-/// trim past its limits); 2 bad usage or bad input.
+/// trim past its limits, a unit of a batch that could not be calibrated); 2 bad usage or bad input; 3 a unit
+/// was fitted but failed its acceptance limits (`fit`).
 #[derive(Parser)]
 #[command(name = "logtrim", version)]
 struct Cli {
@@ -51,7 +53,8 @@ enum Command {
     /// Run the whole job on simulated units: chamber run, fit, and corrected held-out readings, with the
     /// error of the nominal equation, a room-temperature two-point calibration and logtrim side by side.
     Demo(demo::DemoArgs),
-    /// Fit a calibration (COEFFS.json) from chamber data; a batch of units gets one file and image each.
+    /// Fit a calibration (COEFFS.json) from chamber data and judge it against acceptance limits (PASS/FAIL,
+    /// exit 3 on FAIL); a batch gets a file per unit, an image per unit that passed, and a summary.
     Fit(fit::FitArgs),
     /// Correct a readings CSV with a calibration, as the firmware would, and write the results.
     Apply(apply::ApplyArgs),
@@ -85,7 +88,7 @@ enum Command {
 pub struct Failure {
     /// What went wrong, for the terminal.
     pub message: String,
-    /// 1 for a failed check, 2 for bad usage or input.
+    /// 1 for a failed check, 2 for bad usage or input, 3 for a unit that failed acceptance.
     pub code: u8,
 }
 
@@ -97,6 +100,10 @@ impl Failure {
     /// A check that failed (exit 1).
     pub fn check(message: impl std::fmt::Display) -> Failure {
         Failure { message: message.to_string(), code: 1 }
+    }
+    /// A unit fitted but failing its acceptance limits (exit 3).
+    pub fn rejected(message: impl std::fmt::Display) -> Failure {
+        Failure { message: message.to_string(), code: 3 }
     }
 }
 

@@ -49,6 +49,63 @@ pub struct SimulateArgs {
     /// List the built-in front ends and stop.
     #[arg(long)]
     list_presets: bool,
+    /// The serial of a single simulated unit (in cal.csv's unit column) [default: U0001].
+    #[arg(long, value_name = "SERIAL")]
+    serial: Option<String>,
+    /// Dirty chamber run: the probability that a reading is glitched (front-end key
+    /// chamber_faults.glitch_rate).
+    #[arg(long, value_name = "P")]
+    glitch_rate: Option<f64>,
+    /// Dirty chamber run: the glitches' sizes, drawn log-uniformly, as MIN:MAX codes
+    /// (chamber_faults.glitch_codes_min, glitch_codes_max) [default: 300:3000].
+    #[arg(long, value_name = "MIN:MAX")]
+    glitch_codes: Option<String>,
+    /// Dirty chamber run: the pair's temperature lag at the start of each set-point's first sweep, K
+    /// (chamber_faults.unsettled_lag_k).
+    #[arg(long, value_name = "K", allow_hyphen_values = true)]
+    unsettled_lag: Option<f64>,
+    /// Dirty chamber run: readings over which the lag decays by a factor e
+    /// (chamber_faults.unsettled_readings) [default: 10].
+    #[arg(long, value_name = "N")]
+    unsettled_readings: Option<f64>,
+    /// Dirty chamber run: the share of set-points that start unsettled (chamber_faults.unsettled_share)
+    /// [default: 1].
+    #[arg(long, value_name = "SHARE")]
+    unsettled_share: Option<f64>,
+}
+
+/// The front end with the dirty-run options applied over its `chamber_faults`.
+fn with_faults(mut fe: FrontEnd, args: &SimulateArgs) -> Result<FrontEnd, Failure> {
+    let any = args.glitch_rate.is_some()
+        || args.glitch_codes.is_some()
+        || args.unsettled_lag.is_some()
+        || args.unsettled_readings.is_some()
+        || args.unsettled_share.is_some();
+    if !any {
+        return Ok(fe);
+    }
+    let mut f = fe.chamber_faults.unwrap_or_default();
+    if let Some(v) = args.glitch_rate {
+        f.glitch_rate = v;
+    }
+    if let Some(t) = &args.glitch_codes {
+        let bad = || Failure::input(format!("--glitch-codes {t:?}: expected MIN:MAX, two sizes in codes"));
+        let (a, b) = t.split_once(':').ok_or_else(bad)?;
+        f.glitch_codes_min = a.trim().parse().map_err(|_| bad())?;
+        f.glitch_codes_max = b.trim().parse().map_err(|_| bad())?;
+    }
+    if let Some(v) = args.unsettled_lag {
+        f.unsettled_lag_k = v;
+    }
+    if let Some(v) = args.unsettled_readings {
+        f.unsettled_readings = v;
+    }
+    if let Some(v) = args.unsettled_share {
+        f.unsettled_share = v;
+    }
+    fe.chamber_faults = Some(f);
+    fe.validate().map_err(Failure::input)?;
+    Ok(fe)
 }
 
 /// Runs the verb.
@@ -59,7 +116,7 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
         }
         return Ok(());
     }
-    let fe = chosen_frontend(&args)?;
+    let fe = with_faults(chosen_frontend(&args)?, &args)?;
     if let Some(path) = &args.write_preset {
         logtrim_host::output::write_atomic(path, fe.to_json().as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
@@ -81,7 +138,18 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
         validation_count: args.validation,
         units: args.units,
     };
-    let sim = simulate::simulate(&fe, &plan).map_err(Failure::input)?;
+    let mut sim = simulate::simulate(&fe, &plan).map_err(Failure::input)?;
+    if let Some(s) = &args.serial {
+        if args.units != 1 {
+            return Err(Failure::input("--serial names a single unit; a batch's units are U0001, U0002, …"));
+        }
+        if s.trim().is_empty() {
+            return Err(Failure::input("--serial: expected a non-empty serial"));
+        }
+        if let Some(u) = sim.units.first_mut() {
+            u.serial = s.clone();
+        }
+    }
     let written = sim.write_to(dir).map_err(Failure::input)?;
     summary(&sim, &written);
     Ok(())
@@ -136,6 +204,7 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
             "truth.csv" => "their truth: ratio, x_true, t_true_c and the oracle's x".into(),
             "frontend.json" => "the front end simulated".into(),
             "units.json" => "each unit's drawn front end".into(),
+            "faults.csv" => "the chamber readings the faults made dirty, by their line in cal.csv".into(),
             "manifest.json" => "what generated these files".into(),
             "standards.csv" => {
                 "the aged unit's readings of two reference standards, for `logtrim trim`".into()

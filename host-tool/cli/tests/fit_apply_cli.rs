@@ -180,9 +180,10 @@ fn a_batch_fits_every_unit_and_a_failed_unit_stops_no_other() {
     let out = d.join("units");
     let (code, stdout, err) = logtrim(&["fit", s(&d.join("cal.csv")), "-o", s(&out)]);
     assert_eq!(code, 1, "{stdout}{err}");
-    assert!(stdout.contains("4 units: 3 calibrated, 1 failed"), "{stdout}");
-    assert!(stdout.contains("BAD-1") && stdout.contains("FAILED"), "{stdout}");
-    let files = files_in(&out);
+    assert!(stdout.contains("4 units: 3 passed, 0 failed acceptance"), "{stdout}");
+    assert!(stdout.contains("1 could not be calibrated"), "{stdout}");
+    assert!(stdout.contains("BAD-1") && stdout.contains("ERROR"), "{stdout}");
+    let files: Vec<String> = files_in(&out).into_iter().filter(|f| !f.starts_with("summary.")).collect();
     assert_eq!(files.len(), 6, "{files:?}");
     assert!(files.iter().all(|f| !f.contains("BAD") && !f.starts_with('.')), "{files:?}");
     // Each image inspects clean.

@@ -16,7 +16,9 @@ fn unit_files(dir: &Path) -> PathBuf {
     let fe = preset("photometer-compensated").unwrap();
     let chamber = ChamberPlan { setpoints: 4, ratios_per_setpoint: 13, repeats: 2 };
     let plan = Plan { seed: 11, chamber, validation_count: 400, ..Plan::default() };
-    let sim = simulate::simulate(&fe, &plan).unwrap();
+    let mut sim = simulate::simulate(&fe, &plan).unwrap();
+    // cal.csv's unit column names the unit whose calibration this is (plot picks its rows by serial).
+    sim.units[0].serial = "PH-0042".into();
     sim.write_to(dir).unwrap();
     let d = fit_data(&sim.chamber, 0).unwrap();
     let spec = fit::model::Spec::parse("offset=3,slope=2,bulk=1,pole,bias").unwrap();

@@ -36,7 +36,7 @@ fn run(seed: u64) {
     let (code, out, err) = logtrim_words(&line, &[&sim]);
     assert_eq!(code, 0, "{out}{err}");
     let cal = d.join("sim/cal.csv");
-    assert!(std::fs::read_to_string(&cal).unwrap().starts_with("code,temp_code,ratio\n"));
+    assert!(std::fs::read_to_string(&cal).unwrap().starts_with("unit,code,temp_code,ratio\n"));
 
     // The settings from the channel's data-sheet values (the preset's invented ones).
     let sensor = p("sensor.json");

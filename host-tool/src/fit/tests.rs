@@ -76,6 +76,7 @@ fn refuses_data_that_cannot_determine_the_model() {
         temp_c: data.temp_c[..100].to_vec(),
         ratio: data.ratio[..100].to_vec(),
         weight: vec![],
+        ..FitData::default()
     };
     assert!(matches!(fit(&one_t, &FitOptions::default()), Err(FitError::OneTemperature { .. })));
     assert!(matches!(fit(&FitData::default(), &FitOptions::default()), Err(FitError::Empty)));

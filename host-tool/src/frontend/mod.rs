@@ -57,6 +57,7 @@
 //! | `operating` | [`OperatingRange`] | temperature and ratio ranges, the chamber's set-point jitter |
 //! | `spread` (optional) | [`UnitSpread`] | unit-to-unit spread, for simulated production batches |
 //! | `aging` (optional) | [`Aging`] | drift since calibration, for the field runs (standards, blank) |
+//! | `chamber_faults` (optional) | [`ChamberFaults`] | glitches and unsettled set-points in the chamber run |
 
 mod presets;
 #[cfg(test)]
@@ -109,6 +110,74 @@ pub struct FrontEnd {
     /// standards and blank runs, never for the chamber run (see [`Aging`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub aging: Option<Aging>,
+    /// What goes wrong in this unit's chamber run (none if absent): glitches and unsettled set-points, for
+    /// testing the fit on dirty runs (see [`ChamberFaults`]). Never applied to the validation run.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub chamber_faults: Option<ChamberFaults>,
+}
+
+/// What goes wrong in a chamber run, for testing how a fit copes with dirty data. The faults are drawn from
+/// a random stream of their own, so a run with faults is the clean run of the same seed with some readings
+/// changed. They are applied to the chamber run only: the validation run stays the clean truth.
+///
+/// * **Glitches**: each reading independently, with probability `glitch_rate`, has its code moved by a size
+///   drawn log-uniformly from `glitch_codes_min` to `glitch_codes_max`, up or down with equal chance (a
+///   switching spike, a ratio set wrong for one reading), and clamped to the converter's range.
+/// * **Unsettled set-points**: with probability `unsettled_share`, a set-point's first sweep starts before
+///   the transistor pair has reached the chamber's temperature: the pair lags `unsettled_lag_k` behind (on the
+///   side the chamber came from: the previous set-point, or 25 °C before the first), decaying as
+///   `exp(−j/unsettled_readings)` over the sweep's j-th reading, while the temperature sensor reads the unit
+///   as settled.
+///
+/// Clipping needs no fault of its own: a front end whose output passes the converter's full scale (raise
+/// `output_stage.level_shift_v` until the top ratios do when hot) clips at the rail, as the converter does.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ChamberFaults {
+    /// Probability that a chamber reading is glitched (0 ..= 1).
+    #[serde(default)]
+    pub glitch_rate: f64,
+    /// Smallest glitch, codes (> 0).
+    #[serde(default = "default_glitch_min")]
+    pub glitch_codes_min: f64,
+    /// Largest glitch, codes (≥ the smallest).
+    #[serde(default = "default_glitch_max")]
+    pub glitch_codes_max: f64,
+    /// The pair's temperature lag at the start of an unsettled set-point's first sweep, K (0 = settled).
+    #[serde(default)]
+    pub unsettled_lag_k: f64,
+    /// Readings over which the lag decays by a factor e (> 0).
+    #[serde(default = "default_unsettled_readings")]
+    pub unsettled_readings: f64,
+    /// Share of set-points that start unsettled (0 ..= 1).
+    #[serde(default = "default_unsettled_share")]
+    pub unsettled_share: f64,
+}
+
+fn default_glitch_min() -> f64 {
+    300.0
+}
+fn default_glitch_max() -> f64 {
+    3000.0
+}
+fn default_unsettled_readings() -> f64 {
+    10.0
+}
+fn default_unsettled_share() -> f64 {
+    1.0
+}
+
+impl Default for ChamberFaults {
+    fn default() -> Self {
+        ChamberFaults {
+            glitch_rate: 0.0,
+            glitch_codes_min: default_glitch_min(),
+            glitch_codes_max: default_glitch_max(),
+            unsettled_lag_k: 0.0,
+            unsettled_readings: default_unsettled_readings(),
+            unsettled_share: default_unsettled_share(),
+        }
+    }
 }
 
 /// Drift of a unit since it was calibrated, as seen at the output stage: its gain has changed by a factor
@@ -560,6 +629,38 @@ impl FrontEnd {
             }
             if !(finite(a.gain_factor) && (0.5..=2.0).contains(&a.gain_factor)) {
                 return bad("aging.gain_factor", a.gain_factor, "a gain factor in 0.5..=2");
+            }
+        }
+        if let Some(f) = &self.chamber_faults {
+            if !(finite(f.glitch_rate) && (0.0..=1.0).contains(&f.glitch_rate)) {
+                return bad("chamber_faults.glitch_rate", f.glitch_rate, "a probability in 0..=1");
+            }
+            if !(finite(f.glitch_codes_min) && f.glitch_codes_min > 0.0) {
+                return bad(
+                    "chamber_faults.glitch_codes_min",
+                    f.glitch_codes_min,
+                    "a positive size in codes",
+                );
+            }
+            if !(finite(f.glitch_codes_max) && f.glitch_codes_max >= f.glitch_codes_min) {
+                return bad(
+                    "chamber_faults.glitch_codes_max",
+                    f.glitch_codes_max,
+                    "a finite size at least glitch_codes_min",
+                );
+            }
+            if !(finite(f.unsettled_lag_k) && f.unsettled_lag_k.abs() <= 20.0) {
+                return bad("chamber_faults.unsettled_lag_k", f.unsettled_lag_k, "a lag within ±20 K");
+            }
+            if !(finite(f.unsettled_readings) && f.unsettled_readings > 0.0) {
+                return bad(
+                    "chamber_faults.unsettled_readings",
+                    f.unsettled_readings,
+                    "a positive number of readings",
+                );
+            }
+            if !(finite(f.unsettled_share) && (0.0..=1.0).contains(&f.unsettled_share)) {
+                return bad("chamber_faults.unsettled_share", f.unsettled_share, "a share in 0..=1");
             }
         }
         if let Some(s) = &self.spread {

@@ -111,6 +111,7 @@ fn photometer_compensated() -> FrontEnd {
         },
         spread: Some(line_spread(true)),
         aging: None,
+        chamber_faults: None,
     }
 }
 
@@ -162,6 +163,7 @@ fn gas_uncompensated() -> FrontEnd {
         },
         spread: Some(line_spread(false)),
         aging: None,
+        chamber_faults: None,
     }
 }
 

@@ -166,7 +166,7 @@ fn files_have_the_stated_columns_and_read_back() {
     assert_eq!(names, ["cal.csv", "readings.csv", "truth.csv", "frontend.json", "manifest.json"]);
     let first_line =
         |name: &str| std::fs::read_to_string(dir.join(name)).unwrap().lines().next().unwrap().to_string();
-    assert_eq!(first_line("cal.csv"), "code,temp_c,ratio");
+    assert_eq!(first_line("cal.csv"), "unit,code,temp_c,ratio");
     assert_eq!(first_line("readings.csv"), "id,code,temp_c");
     assert_eq!(first_line("truth.csv"), "id,ratio,x_true,t_true_c,x_oracle");
     // Read back through the project's own reader: every value survives the text round trip.
@@ -221,7 +221,7 @@ fn a_raw_temperature_channel_is_written_as_temp_code() {
         r.temperature = MeasuredTemperature::Code(1000 + r.code % 7);
     }
     let text = String::from_utf8(sim.cal_csv()).unwrap();
-    assert!(text.starts_with("code,temp_code,ratio\n"), "{}", &text[..40]);
+    assert!(text.starts_with("unit,code,temp_code,ratio\n"), "{}", &text[..40]);
     let conv = |c: u32| -> Result<f64, logtrim::Error> { Ok(f64::from(c) / 40.0) };
     let opts = ReadOptions { temp_converter: Some(&conv), ..ReadOptions::default() };
     let back = read_calibration(text.as_bytes(), "cal.csv", &opts).unwrap();
