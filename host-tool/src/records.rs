@@ -103,7 +103,11 @@ pub fn describe_field_record(record: &FieldRecord) -> String {
         format!("{} UTC ({} s)", utc_string(info.written_at), info.written_at)
     };
     let _ = writeln!(s, "written      {written}");
-    let _ = writeln!(s, "calibration  {} (the calibration ID `logtrim inspect` shows for an image)", binding(&info));
+    let _ = writeln!(
+        s,
+        "calibration  {} (the calibration ID `logtrim inspect` shows for an image)",
+        binding(&info)
+    );
     match record {
         FieldRecord::Trim(t) => {
             let p = t.parts();

@@ -59,8 +59,9 @@ fn run(seed: u64) {
     // plot takes the raw channel from the calibration file, for the chamber data and the validation run.
     let charts = p("charts");
     let args = ["plot", &coeffs, cal.to_str().unwrap(), "--validation", &p("sim/readings.csv")];
-    let (code, out, err) =
-        logtrim(&[&args[..], &["--truth", &p("sim/truth.csv"), "--map-cells", "16x8", "-o", &charts]].concat());
+    let (code, out, err) = logtrim(
+        &[&args[..], &["--truth", &p("sim/truth.csv"), "--map-cells", "16x8", "-o", &charts]].concat(),
+    );
     assert_eq!(code, 0, "{out}{err}");
     let svgs = std::fs::read_dir(&charts).unwrap().filter_map(|e| e.ok()).count();
     assert_eq!(svgs, 3, "{out}");
