@@ -6,16 +6,16 @@
 //! Without a serial the prefix is `unit`. Every file is built in memory first and written atomically.
 //!
 //! The page holds the unit, the date of the calibration, the data it came from, the model chosen and how,
-//! the per-set-point residuals (rows, refused, rms and max in Np and dB), the cross-validation table, the
-//! noise floor, the calibrated ranges and links to the charts. dB figures are 10·log10 (power-like ratios,
-//! such as photocurrents); the page says so and gives the factor for amplitude-like ratios.
+//! the per-set-point residuals (rows, refused, rms and max in Np and in the unit the user reads, by default
+//! dB of power-like ratios), the cross-validation table, the noise floor, the calibrated ranges and links to
+//! the charts (whose error axes are in the same unit).
 
 use std::fmt::Write as _;
 #[cfg(feature = "plot")]
 use std::path::{Path, PathBuf};
 
 use crate::calfile::CalFile;
-use crate::error_scale::db_power;
+use crate::error_scale::{db_power, ErrorScale};
 use crate::fit::{FitData, FitOptions, FitOutcome};
 #[cfg(feature = "plot")]
 use crate::plot::{self, figures, PlotError};
@@ -55,6 +55,9 @@ pub struct FitReport<'a> {
     pub options: &'a FitOptions,
     /// The calibration data's file, as the user named it.
     pub source: &'a str,
+    /// The unit the page and the charts give errors in, beside nepers (an absorbance product reads mAU, a
+    /// gas detector % of ratio); magnitudes are shown as positive figures.
+    pub unit: ErrorScale,
 }
 
 /// A serial made safe for a file name: letters, digits, `-`, `_` and `.` kept, anything else `_`.
@@ -88,13 +91,7 @@ impl FitReport<'_> {
             utc(self.calfile.created_unix_s),
             self.outcome.chosen.describe()
         );
-        let vs_x = figures::error_vs_x(
-            cal,
-            self.data,
-            self.options.setpoint_gap_k,
-            crate::error_scale::ErrorScale::MilliNp,
-            &sub,
-        );
+        let vs_x = figures::error_vs_x(cal, self.data, self.options.setpoint_gap_k, self.unit, &sub);
         let map = figures::f32_error_map(cal, 96, 40, &sub)?;
         let charts = [
             (format!("{prefix}-error-vs-x.svg"), vs_x.title.clone(), plot::render_lines(&vs_x)?),
@@ -175,14 +172,17 @@ impl FitReport<'_> {
         }
         let _ = writeln!(s);
 
+        let u = self.unit.label();
+        // A magnitude in nepers as a positive figure in the page's unit.
+        let inu = |np: f64| sci(self.unit.of_np(np).abs());
         let _ = writeln!(s, "## Residuals per set-point\n");
         let _ = writeln!(
             s,
-            "Error in x = ln(I_sig/I_ref) of the firmware's correction against the applied ratio. dB are \
-             10·log10 (power-like ratios); for amplitude-like ratios double them.\n"
+            "Error in x = ln(I_sig/I_ref) of the firmware's correction against the applied ratio, in nepers \
+             and in {u}.\n",
         );
         let _ =
-            writeln!(s, "| set-point [°C] | rows | refused | rms [Np] | max [Np] | rms [dB] | max [dB] |");
+            writeln!(s, "| set-point [°C] | rows | refused | rms [Np] | max [Np] | rms [{u}] | max [{u}] |");
         let _ = writeln!(s, "|---:|---:|---:|---:|---:|---:|---:|");
         for p in &out.setpoints {
             let _ = writeln!(
@@ -193,8 +193,8 @@ impl FitReport<'_> {
                 p.refused,
                 sci(p.rms_np),
                 sci(p.max_np),
-                sci(db_power(p.rms_np)),
-                sci(db_power(p.max_np))
+                inu(p.rms_np),
+                inu(p.max_np)
             );
         }
         let _ = writeln!(s);
@@ -208,7 +208,7 @@ impl FitReport<'_> {
                 "Each fold leaves one interior set-point out, fits the rest and measures the error in x on the \
                  set-point left out: how the unit behaves between set-points.\n"
             );
-            let _ = writeln!(s, "| chosen | model | rms [Np] | max [Np] | rms [dB] | folds |");
+            let _ = writeln!(s, "| chosen | model | rms [Np] | max [Np] | rms [{u}] | folds |");
             let _ = writeln!(s, "|:---:|---|---:|---:|---:|---:|");
             for r in &out.cv {
                 let _ = writeln!(
@@ -218,7 +218,7 @@ impl FitReport<'_> {
                     r.spec.describe(),
                     sci(r.rms),
                     sci(r.max),
-                    sci(db_power(r.rms)),
+                    inu(r.rms),
                     r.folds
                 );
             }
@@ -232,10 +232,10 @@ impl FitReport<'_> {
                     out.setpoints.iter().map(|p| p.rms_np).filter(|v| v.is_finite()).fold(0.0, f64::max);
                 let _ = writeln!(
                     s,
-                    "Scatter of repeated readings (same set-point, same ratio): {} Np = {} dB. The worst \
+                    "Scatter of repeated readings (same set-point, same ratio): {} Np = {} {u}. The worst \
                      set-point's rms is {:.2} × this floor; a calibration cannot do better than the floor.\n",
                     sci(f),
-                    sci(db_power(f)),
+                    inu(f),
                     if f > 0.0 { worst / f } else { f64::NAN }
                 );
             }

@@ -6,6 +6,7 @@ mod common;
 use common::units;
 use logtrim::Calibration;
 use logtrim_host::calfile::CalFile;
+use logtrim_host::error_scale::ErrorScale;
 use logtrim_host::fit::model::{Norm, Params, Spec};
 use logtrim_host::fit::select::CvRecord;
 use logtrim_host::fit::{FitData, FitOptions, FitOutcome, SetPointStats};
@@ -93,7 +94,14 @@ fn report_snapshot() {
     let cal = units::bent();
     let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
     let opts = FitOptions::default();
-    let r = FitReport { calfile: &f, outcome: &out, data: &d, options: &opts, source: "chamber/GD-0417.csv" };
+    let r = FitReport {
+        calfile: &f,
+        outcome: &out,
+        data: &d,
+        options: &opts,
+        source: "chamber/GD-0417.csv",
+        unit: ErrorScale::DbPower,
+    };
     let links = [ChartLink { title: "Error in x against x".into(), file: "GD-0417-error-vs-x.svg".into() }];
     insta::assert_snapshot!("fit_report", r.render_markdown(&links));
 }
@@ -103,8 +111,15 @@ fn report_structure() {
     let cal = units::bent();
     let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
     let opts = FitOptions::default();
-    let md = FitReport { calfile: &f, outcome: &out, data: &d, options: &opts, source: "cal.csv" }
-        .render_markdown(&[]);
+    let r = FitReport {
+        calfile: &f,
+        outcome: &out,
+        data: &d,
+        options: &opts,
+        source: "cal.csv",
+        unit: ErrorScale::DbPower,
+    };
+    let md = r.render_markdown(&[]);
     let headings: Vec<&str> = md.lines().filter(|l| l.starts_with('#')).collect();
     assert_eq!(
         headings,
@@ -139,6 +154,11 @@ fn report_structure() {
     // The dB column is 10·log10 of the neper figure: 2.110e-4 Np × 4.3429 = 9.164e-4 dB (ISO 80000-3).
     assert!(md.contains("| -20.02 | 123 | 0 | 2.110e-4 | 6.020e-4 | 9.164e-4 | 2.614e-3 |"), "{md}");
     assert!(md.contains("2023-11-14T22:13:20Z"));
+    // An absorbance product's page: the same figures in mAU, 1000·log10(e) mAU per Np (A = −log10 T):
+    // 2.110e-4 Np is 9.164e-2 mAU.
+    let md = FitReport { unit: ErrorScale::MilliAbsorbance, ..r }.render_markdown(&[]);
+    assert!(md.contains("| rms [Np] | max [Np] | rms [mAU] | max [mAU] |"), "{md}");
+    assert!(md.contains("| -20.02 | 123 | 0 | 2.110e-4 | 6.020e-4 | 9.164e-2 | 2.614e-1 |"), "{md}");
 }
 
 #[test]
@@ -148,7 +168,14 @@ fn written_report_links_charts_that_exist() {
     let opts = FitOptions::default();
     let dir = std::env::temp_dir().join(format!("logtrim-report-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
-    let r = FitReport { calfile: &f, outcome: &out, data: &d, options: &opts, source: "cal.csv" };
+    let r = FitReport {
+        calfile: &f,
+        outcome: &out,
+        data: &d,
+        options: &opts,
+        source: "cal.csv",
+        unit: ErrorScale::DbPower,
+    };
     let files = r.write_to(&dir).unwrap();
     assert_eq!(files.len(), 3);
     assert!(files[0].ends_with("GD-0417-fit-report.md"));

@@ -83,6 +83,10 @@ pub struct FitArgs {
     /// Also write a fit report in Markdown, with its charts, into this folder (one per unit in a batch).
     #[arg(long, value_name = "DIR")]
     report: Option<PathBuf>,
+    /// The unit the report and its charts give errors in, beside nepers: np, mnp, db10 (10·log10, power
+    /// ratios), db20 (20·log10, amplitude ratios), pct (% of ratio) or mau (milli-absorbance units).
+    #[arg(long, value_name = "UNIT", default_value = "db10", value_parser = crate::plot::parse_unit)]
+    error_unit: logtrim_host::error_scale::ErrorScale,
     #[command(flatten)]
     limits: LimitArgs,
     #[command(flatten)]
@@ -312,7 +316,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     if let Some(dir) = &args.report {
         for (u, job) in done.units.iter().zip(&jobs) {
             if let Some(f) = &u.fitted {
-                write_report(dir, &f.1, &f.0, &job.data, &opt, &job.data.source)?;
+                write_report(dir, &f.1, &f.0, &job.data, &opt, &job.data.source, args.error_unit)?;
             }
         }
     }
@@ -383,9 +387,11 @@ fn write_report(
     data: &logtrim_host::fit::FitData,
     opt: &FitOptions,
     source: &str,
+    unit: logtrim_host::error_scale::ErrorScale,
 ) -> Result<(), Failure> {
     std::fs::create_dir_all(dir).map_err(|e| Failure::input(format!("{}: {e}", dir.display())))?;
-    let report = logtrim_host::report::FitReport { calfile: file, outcome: out, data, options: opt, source };
+    let report =
+        logtrim_host::report::FitReport { calfile: file, outcome: out, data, options: opt, source, unit };
     let written = report.write_to(dir).map_err(Failure::input)?;
     if let Some(page) = written.first() {
         println!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
@@ -437,7 +443,7 @@ fn fit_single(
         if verdict.passed { String::new() } else { " marked FAIL: no image should be made from it".into() }
     );
     if let Some(dir) = &args.report {
-        write_report(dir, &file, &out, &job.data, opt, &args.input.display().to_string())?;
+        write_report(dir, &file, &out, &job.data, opt, &args.input.display().to_string(), args.error_unit)?;
     }
     if verdict.passed {
         Ok(())

@@ -68,7 +68,8 @@ pub struct PlotArgs {
     tables: TableArgs,
 }
 
-fn parse_unit(s: &str) -> Result<ErrorScale, String> {
+/// Parses an error unit's name (`--error-unit` of plot and fit).
+pub(crate) fn parse_unit(s: &str) -> Result<ErrorScale, String> {
     ErrorScale::from_name(s).ok_or_else(|| {
         let names: Vec<&str> = ErrorScale::ALL.iter().map(|u| u.name()).collect();
         format!("{s:?} is not an error unit; expected one of: {}", names.join(", "))

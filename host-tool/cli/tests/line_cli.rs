@@ -316,7 +316,7 @@ fn a_batch_takes_the_image_options_and_writes_a_report_per_unit() {
     }
     let (out, reports) = (d.join("units"), d.join("reports"));
     let (code, o, e) = logtrim_words(
-        "fit --format hex --base-address 0x08010000 --no-fixed",
+        "fit --format hex --base-address 0x08010000 --no-fixed --error-unit mau",
         &[s(&folder), "-o", s(&out), "--report", s(&reports)],
     );
     assert_eq!(code, 0, "{o}{e}");
@@ -333,7 +333,8 @@ fn a_batch_takes_the_image_options_and_writes_a_report_per_unit() {
         let (code, o, e) = logtrim(&["inspect", s(&out.join(format!("{serial}.hex")))]);
         assert_eq!(code, 0, "{o}{e}");
         assert!(o.contains(serial), "{o}");
-        assert!(reports.join(format!("{serial}-fit-report.md")).exists(), "{:?}", names(&reports));
+        let page = std::fs::read_to_string(reports.join(format!("{serial}-fit-report.md"))).unwrap();
+        assert!(page.contains("| rms [Np] | max [Np] | rms [mAU] | max [mAU] |"), "the report in mAU");
     }
     let sj = json(&out.join("summary.json"));
     for u in sj["units"].as_array().unwrap() {
