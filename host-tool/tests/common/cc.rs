@@ -22,7 +22,10 @@ impl CBuild {
             eprintln!("SKIPPED: no C compiler ({cc}) found; the generated C was not compiled");
             return None;
         }
-        let dir = std::env::temp_dir().join(format!("logtrim-c-{label}-{}", std::process::id()));
+        // One folder per build: the tests of one binary run in parallel, each with its own.
+        static NEXT: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+        let k = NEXT.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        let dir = std::env::temp_dir().join(format!("logtrim-c-{label}-{}-{k}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
         std::fs::write(dir.join("ltrm.h"), c::library_header()).unwrap();
         std::fs::write(dir.join("ltrm.c"), c::library_source()).unwrap();
