@@ -596,3 +596,84 @@ fn a_firmware_without_unit_data_corrects_like_the_rust_fixed_path() {
     }
     s.run(&exe, "firmware");
 }
+
+#[test]
+fn status_texts_version_macros_and_a_cplusplus_caller() {
+    let Some(build) = CBuild::new("text") else { return };
+    build.write(
+        "text.c",
+        br#"#include <stdio.h>
+#include "ltrm.h"
+int main(void) {
+    int s;
+    printf("%s %d.%d.%d %u %u %u %s\n", LTRM_VERSION_STRING, LTRM_VERSION_MAJOR, LTRM_VERSION_MINOR,
+           LTRM_VERSION_PATCH, LTRM_IMAGE_VERSION, LTRM_TRIM_VERSION, LTRM_LAYOUT_VERSION, LTRM_MAGIC_IMAGE);
+    for (s = 0; s <= (int)LTRM_NO_VALID_RECORD + 1; s++) printf("%s\n", ltrm_status_text((ltrm_status)s));
+    return 0;
+}
+"#,
+    );
+    let exe = build.compile(&["text.c"]);
+    let out = CBuild::run(&exe, &[], String::new());
+    let mut lines = out.lines();
+    let v = env!("CARGO_PKG_VERSION");
+    let want = format!(
+        "{v} {v} {} {} {} LTCI",
+        logtrim::image::layout::header::VERSION_VALUE,
+        logtrim::field::layout::trim::VERSION_VALUE,
+        logtrim::fixed::LAYOUT_VERSION
+    );
+    assert_eq!(lines.next(), Some(want.as_str()));
+    let texts: Vec<&str> = lines.collect();
+    let statuses = logtrim_host::emit::c::STATUSES;
+    assert_eq!(texts.len(), statuses.len() + 1);
+    for ((name, doc), text) in statuses.iter().zip(&texts) {
+        assert_eq!(doc, text, "{name}");
+    }
+    // Every status has its own text, and a number outside the enum is named as such.
+    let mut unique = texts.clone();
+    unique.sort();
+    unique.dedup();
+    assert_eq!(unique.len(), texts.len());
+    assert_eq!(texts.last(), Some(&"unknown status"));
+
+    // The header from C++: its declarations have C linkage (the extern "C" guard), so a C++ caller links
+    // against the library compiled as C.
+    let cxx = std::env::var("CXX").unwrap_or_else(|_| "c++".into());
+    if std::process::Command::new(&cxx).arg("--version").output().is_err() {
+        eprintln!("SKIPPED: no C++ compiler ({cxx}); the extern \"C\" guard was not exercised");
+        return;
+    }
+    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
+    let obj = build.dir.join("ltrm.o");
+    let st = std::process::Command::new(&cc)
+        .args(["-std=c99", "-Wall", "-Wextra", "-Werror", "-pedantic", "-c", "-o"])
+        .arg(&obj)
+        .arg(build.dir.join("ltrm.c"))
+        .status()
+        .unwrap();
+    assert!(st.success());
+    build.write(
+        "caller.cpp",
+        br#"#include <cstdio>
+#include "ltrm.h"
+int main() {
+    ltrm_reading r = { 16777216, 0 };
+    int64_t v = 0;
+    ltrm_status s = ltrm_value(&r, LTRM_NEPERS, &v);
+    std::printf("%s %lld\n", ltrm_status_text(s), (long long)v);
+    return 0;
+}
+"#,
+    );
+    let exe = build.dir.join("caller");
+    let out = std::process::Command::new(&cxx)
+        .args(["-std=c++11", "-Wall", "-Wextra", "-Werror", "-pedantic", "-o"])
+        .arg(&exe)
+        .arg(build.dir.join("caller.cpp"))
+        .arg(&obj)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "c++ failed:\n{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(CBuild::run(&exe, &[], String::new()), "ok 16777216\n");
+}
