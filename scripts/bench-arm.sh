@@ -97,6 +97,14 @@ for unit in ntc digital; do
         "$OUT/rust-$opt/${TRIPLE[$core]}/release/liblogtrim_arm_bench.a" -o "$relf"
       python3 "$ROOT/bench/arm/runner.py" "$celf" "$data/bench.json" --core "$core" --label "C $core -$opt" \
         --paths direct,cached,block --json "$OUT/results/$unit.c.$core.$opt.json" >/dev/null
+      # The same with the library and the unit's data in the driver's translation unit (a build per serial).
+      oelf="$OUT/elf/$unit.c1.$core.$opt.elf"
+      # shellcheck disable=SC2086
+      arm-none-eabi-gcc ${CPU[$core]} -"$opt" -std=c99 -Wall -Wextra -Werror -ffunction-sections -fdata-sections \
+        -DBENCH_NAIVE=0 -I "$data" -I "$ROOT/bench/arm/c" "$ROOT/bench/arm/c/one_unit.c" \
+        "${LINK[@]}" "${ENTRY[@]}" -lm -o "$oelf"
+      python3 "$ROOT/bench/arm/runner.py" "$oelf" "$data/bench.json" --core "$core" --label "C one TU $core -$opt" \
+        --paths direct,cached,block --json "$OUT/results/$unit.c1.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$nelf" "$data/bench.json" --core "$core" --label "naive $core -$opt" \
         --paths naive --json "$OUT/results/$unit.naive.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$relf" "$data/bench.json" --core "$core" --label "Rust $core -$opt" \

@@ -151,6 +151,8 @@ static const int32_t ltrm_exp64[45] = {
 };
 
 /* ---- evaluator: the same integer operations as logtrim::fixed, in the same order ---- */
+/* The entry points are `inline` external definitions (ltrm.h declares them without `inline`): one copy
+ * each for callers in other translation units, and inlined into each other and into callers in this one. */
 
 /* floor(x / 2^n): arithmetic right shifts without implementation-defined behaviour. */
 static inline int32_t ltrm_asr32(int32_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
@@ -569,7 +571,7 @@ static inline ltrm_status ltrm_correct_theta(const ltrm_fixed *c, uint32_t code,
 }
 
 /* Corrects one reading: log code and temperature in m°C. */
-ltrm_status ltrm_correct(const ltrm_fixed *c, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+inline ltrm_status ltrm_correct(const ltrm_fixed *c, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
     int32_t theta = 0;
     ltrm_status st = ltrm_check_code(c, code);
     if (st != LTRM_OK) return st;
@@ -578,7 +580,7 @@ ltrm_status ltrm_correct(const ltrm_fixed *c, uint32_t code, int32_t temp_mc, lt
 }
 
 /* Corrects one reading from raw codes: log code and temperature channel code. */
-ltrm_status ltrm_correct_raw(const ltrm_fixed *c, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
+inline ltrm_status ltrm_correct_raw(const ltrm_fixed *c, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
     int32_t theta = 0;
     ltrm_status st = ltrm_check_code(c, code);
     if (st != LTRM_OK) return st;
@@ -607,14 +609,14 @@ static inline ltrm_status ltrm_stage_theta(const ltrm_fixed *c, int32_t theta, l
     return LTRM_OK;
 }
 
-ltrm_status ltrm_stage_millicelsius(const ltrm_fixed *c, int32_t temp_mc, ltrm_stage *s) {
+inline ltrm_status ltrm_stage_millicelsius(const ltrm_fixed *c, int32_t temp_mc, ltrm_stage *s) {
     int32_t theta = 0;
     ltrm_status st = ltrm_theta_from_millicelsius(c, temp_mc, &theta);
     if (st != LTRM_OK) return st;
     return ltrm_stage_theta(c, theta, s);
 }
 
-ltrm_status ltrm_stage_code(const ltrm_fixed *c, uint32_t temp_code, ltrm_stage *s) {
+inline ltrm_status ltrm_stage_code(const ltrm_fixed *c, uint32_t temp_code, ltrm_stage *s) {
     int32_t theta = 0;
     ltrm_status st = ltrm_theta_from_code(c, temp_code, &theta);
     if (st != LTRM_OK) return st;
@@ -622,7 +624,7 @@ ltrm_status ltrm_stage_code(const ltrm_fixed *c, uint32_t temp_code, ltrm_stage 
 }
 
 /* The log-channel part of a correction at a stage. */
-ltrm_status ltrm_correct_staged(const ltrm_fixed *c, const ltrm_stage *s, uint32_t code, ltrm_reading *out) {
+inline ltrm_status ltrm_correct_staged(const ltrm_fixed *c, const ltrm_stage *s, uint32_t code, ltrm_reading *out) {
     uint32_t seg, t16;
     int32_t xa;
     ltrm_status st = ltrm_check_code(c, code);
@@ -635,13 +637,13 @@ ltrm_status ltrm_correct_staged(const ltrm_fixed *c, const ltrm_stage *s, uint32
 }
 
 /* Many log codes at one stage (a DMA buffer): status[i] and out[i] are ltrm_correct_staged of codes[i]. */
-void ltrm_correct_block(const ltrm_fixed *c, const ltrm_stage *s, const uint32_t *codes, uint32_t n,
+inline void ltrm_correct_block(const ltrm_fixed *c, const ltrm_stage *s, const uint32_t *codes, uint32_t n,
                                     ltrm_reading *out, ltrm_status *status) {
     uint32_t i;
     for (i = 0; i < n; i++) status[i] = ltrm_correct_staged(c, s, codes[i], &out[i]);
 }
 
-void ltrm_stage_cache_init(ltrm_stage_cache *k, const ltrm_fixed *c) {
+inline void ltrm_stage_cache_init(ltrm_stage_cache *k, const ltrm_fixed *c) {
     uint32_t i;
     k->cal = c;
     k->window = LTRM_NO_WINDOW;
@@ -702,7 +704,7 @@ static inline ltrm_status ltrm_stage_cache_check_code(const ltrm_stage_cache *k,
 }
 
 /* ltrm_correct_raw through a stage cache. */
-ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code,
+inline ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code,
                                                    ltrm_reading *out) {
     uint32_t slot = temp_code % LTRM_STAGE_MEMO;
     int32_t theta = 0;
@@ -718,7 +720,7 @@ ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uin
 }
 
 /* ltrm_correct through a stage cache. */
-ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+inline ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
     int32_t theta = 0;
     ltrm_status st = ltrm_stage_cache_check_code(k, code);
     if (st != LTRM_OK) return st;
@@ -735,7 +737,7 @@ static inline int32_t ltrm_mul_round32(int32_t x, int32_t c) {
 }
 
 /* The reading in a unit: Q32 for LTRM_RATIO, Q24 for the others. */
-ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_t *out) {
+inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_t *out) {
     int64_t e;
     ltrm_status st;
     switch (unit) {
