@@ -12,9 +12,9 @@ out=$(mktemp -d)
 trap 'rm -rf "$out"' EXIT
 
 cargo build -q --release -p logtrim-cli --bin logtrim
-./target/release/logtrim c-library -o "$out" 2>/dev/null
+./target/release/logtrim c-library -o "$out"
 ./target/release/logtrim emit examples/dyeline/calibration/COEFFS.json --format c --c-name dyeline_unit \
-  -o "$out/unit.c" 2>/dev/null
+  -o "$out/unit.c"
 
 declare -A CPU=(
   [cortex-m0]="-mcpu=cortex-m0 -mthumb -mfloat-abi=soft"
