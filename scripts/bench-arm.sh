@@ -1,9 +1,9 @@
 #!/usr/bin/env bash
-# Figures of the fixed-point path on the cores that need it, printed (no pass/fail): the emitted C header
-# and the Rust fixed path, built for Cortex-M0 (thumbv6m, soft float) and Cortex-M4F (thumbv7em, hard
-# float) at -O2 and -Os, run one sample at a time in the unicorn CPU emulator on realistic streams of two
-# units, next to a naive float correction on the same inputs. Sources in bench/arm/ (C driver, Rust driver
-# crate, emulator runner, report).
+# Figures of the fixed-point path on the cores that need it, printed (no pass/fail): the C library with the
+# unit's C data (separate translation units, as a firmware builds them) and the Rust fixed path, built for
+# Cortex-M0 (thumbv6m, soft float) and Cortex-M4F (thumbv7em, hard float) at -O2 and -Os, run one sample
+# at a time in the unicorn CPU emulator on realistic streams of two units, next to a naive float correction
+# on the same inputs. Sources in bench/arm/ (C driver, Rust driver crate, emulator runner, report).
 #
 # Prints instructions per sample, an M0 cycle estimate, library-helper calls per sample, the helpers each
 # build links, flash, per-sample code, static RAM, the stage cache's size, the stack high-water mark, and
@@ -82,7 +82,8 @@ for unit in ntc digital; do
       nelf="$OUT/elf/$unit.naive.$core.$opt.elf"
       for naive in 0 1; do
         arm-none-eabi-gcc ${CPU[$core]} -"$opt" -std=c99 -Wall -Wextra -Werror -ffunction-sections -fdata-sections \
-          -DBENCH_NAIVE=$naive -I "$data" "$ROOT/bench/arm/c/driver.c" "${LINK[@]}" "${ENTRY[@]}" -lm \
+          -DBENCH_NAIVE=$naive -I "$data" "$ROOT/bench/arm/c/driver.c" "$data/ltrm.c" "$data/unit.c" \
+          "${LINK[@]}" "${ENTRY[@]}" -lm \
           -o "$([ $naive = 1 ] && echo "$nelf" || echo "$celf")"
       done
       rlevel=${opt#O}
@@ -96,6 +97,14 @@ for unit in ntc digital; do
         "$OUT/rust-$opt/${TRIPLE[$core]}/release/liblogtrim_arm_bench.a" -o "$relf"
       python3 "$ROOT/bench/arm/runner.py" "$celf" "$data/bench.json" --core "$core" --label "C $core -$opt" \
         --paths direct,cached,block --json "$OUT/results/$unit.c.$core.$opt.json" >/dev/null
+      # The same with the library and the unit's data in the driver's translation unit (a build per serial).
+      oelf="$OUT/elf/$unit.c1.$core.$opt.elf"
+      # shellcheck disable=SC2086
+      arm-none-eabi-gcc ${CPU[$core]} -"$opt" -std=c99 -Wall -Wextra -Werror -ffunction-sections -fdata-sections \
+        -DBENCH_NAIVE=0 -I "$data" -I "$ROOT/bench/arm/c" "$ROOT/bench/arm/c/one_unit.c" \
+        "${LINK[@]}" "${ENTRY[@]}" -lm -o "$oelf"
+      python3 "$ROOT/bench/arm/runner.py" "$oelf" "$data/bench.json" --core "$core" --label "C one TU $core -$opt" \
+        --paths direct,cached,block --json "$OUT/results/$unit.c1.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$nelf" "$data/bench.json" --core "$core" --label "naive $core -$opt" \
         --paths naive --json "$OUT/results/$unit.naive.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$relf" "$data/bench.json" --core "$core" --label "Rust $core -$opt" \

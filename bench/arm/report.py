@@ -9,6 +9,12 @@ build links, flash, the per-sample code, static RAM, the stage cache's size and 
 mark, and whether every result matched the host bit for bit.
 """
 import glob
+
+# The builds: the C library compiled on its own with the unit's data in another translation unit (what a
+# firmware loading images at run time gets), the C library with the unit's data in one translation unit
+# (a build per serial), Rust, and the naive float correction.
+LANGS = ("c", "c1", "rust", "naive")
+NAME = {"c": "C", "c1": "C one TU", "rust": "Rust", "naive": "naive"}
 import json
 import os
 import sys
@@ -40,12 +46,12 @@ def main():
         meta = json.load(open(os.path.join(d, f"../data/{unit}/meta.json")))
         print(f"\n=== unit {unit}: {meta['desc']}; tables {meta['table_bytes']} + {meta['universal_bytes']} shared "
               f"= {meta['table_bytes'] + meta['universal_bytes']} bytes ===")
-        builds = [(lang, core, opt) for core, opt in CORES for lang in ("c", "rust", "naive") if (unit, lang, core, opt) in res]
+        builds = [(lang, core, opt) for core, opt in CORES for lang in LANGS if (unit, lang, core, opt) in res]
         streams = ["new", "held", "wander"]
         rows = []
         for st in streams:
             for p in ("direct", "cached", "block", "naive"):
-                for lang in ("c", "rust", "naive"):
+                for lang in LANGS:
                     if any(res.get((unit, lang, c, o), {}).get("streams", {}).get(st, {}).get(p) for c, o in CORES):
                         rows.append((st, p, lang))
 
@@ -56,26 +62,26 @@ def main():
         print("\ninstructions per sample (mean, and max over the stream), the call itself subtracted")
         print(f"{'stream / path':<26}" + "".join(f"{CORE_NAME[c] + ' -' + o:>24}" for c, o in CORES))
         for st, p, lang in rows:
-            label = f"{st} / {p}" + ("" if lang == "naive" else f" ({'C' if lang == 'c' else 'Rust'})")
+            label = f"{st} / {p}" + ("" if lang == "naive" else f" ({NAME[lang]})")
             print(f"{label:<26}" + "".join(
                 cell((unit, lang, c, o), st, p, lambda r: f"{fmt(r['insns_mean'])} (max {fmt(r['insns_max'])})", 24)
                 for c, o in CORES))
         for c, o in CORES:
-            for lang in ("c", "rust"):
+            for lang in ("c", "c1", "rust"):
                 r = res.get((unit, lang, c, o), {}).get("streams", {}).get("held", {}).get("block")
                 if r and "stage_insns" in r:
-                    print(f"  ({CORE_NAME[c]} -{o} {'C' if lang == 'c' else 'Rust'}: building the block's stage "
+                    print(f"  ({CORE_NAME[c]} -{o} {NAME[lang]}: building the block's stage "
                           f"{fmt(r['stage_insns'])} instructions, once per block)")
         print("\nCortex-M0 cycles per sample, estimated: fast (single-cycle) / small (32-cycle) multiplier")
         print(f"{'stream / path':<26}" + "".join(f"{'Cortex-M0 -' + o:>24}" for c, o in CORES if c == "m0"))
         for st, p, lang in rows:
-            label = f"{st} / {p}" + ("" if lang == "naive" else f" ({'C' if lang == 'c' else 'Rust'})")
+            label = f"{st} / {p}" + ("" if lang == "naive" else f" ({NAME[lang]})")
             print(f"{label:<26}" + "".join(
                 cell((unit, lang, c, o), st, p,
                      lambda r: f"{fmt(r['cycles_mean'])} / {fmt(r['cycles_mean'] + 31 * r['muls_mean'])}", 24)
                 for c, o in CORES if c == "m0"))
         print("\nlibrary-helper calls per sample (Cortex-M0 -O2)")
-        for l in ("c", "rust", "naive"):
+        for l in LANGS:
             r = res.get((unit, l, "m0", "O2"))
             if not r:
                 continue

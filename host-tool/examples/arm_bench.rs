@@ -1,7 +1,8 @@
 //! The host half of the Cortex-M measurement (`scripts/bench-arm.sh`, sources in `bench/arm/`): from a
 //! unit's calibration file it writes what the ARM builds and the emulator runner need, into one folder:
 //!
-//! * `unit.h` and `unit.rs`: the unit's tables as `logtrim emit --format c|rust` writes them;
+//! * `unit.c` and `unit.rs`: the unit's tables as `logtrim emit --format c|rust` writes them (the C under
+//!   the name `unit_cal`), and the C library `ltrm.h`, `ltrm.c` as `logtrim c-library` writes it;
 //! * `naive.h`: the coefficients of the naive float correction the figures are compared with
 //!   (Steinhart–Hart through three points of the unit's NTC, offset and slope quadratics in T through
 //!   three temperatures of the calibration);
@@ -118,7 +119,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     std::fs::create_dir_all(&out)?;
     let tables = file.fixed_tables(&TableOptions::default())?;
     let prov = Provenance { unit: file.unit.clone(), source: Some(args[1].clone()) };
-    std::fs::write(out.join("unit.h"), emit::render(&tables, Format::C, &prov))?;
+    let identity = logtrim::field::fingerprint(&file.calibration)?;
+    let name = emit::c::CName::new("unit_cal")?;
+    std::fs::write(out.join("unit.c"), emit::c::render_unit(&tables, &prov, &name, identity))?;
+    std::fs::write(out.join("ltrm.h"), emit::c::library_header())?;
+    std::fs::write(out.join("ltrm.c"), emit::c::library_source())?;
     std::fs::write(out.join("unit.rs"), emit::render(&tables, Format::Rust, &prov))?;
     let cal = &file.calibration;
     let sensor = file.temperature_sensor;

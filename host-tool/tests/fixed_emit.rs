@@ -1,18 +1,22 @@
 //! The emitted Rust, C and JSON of a unit's tables: snapshot-tested against checked-in files (regenerate
 //! with `LOGTRIM_BLESS=1 cargo test -p logtrim-host --test fixed_emit`), the Rust really compiled (this test
-//! `include!`s the checked-in file) and equal to the in-memory tables bit for bit, the C compiled with
-//! `cc -std=c99 -Wall -Wextra -Werror` and run on sampled inputs with results identical to the Rust path.
+//! `include!`s the checked-in file) and equal to the in-memory tables bit for bit, the C library and two
+//! units' C data compiled into one program with `cc -std=c99 -Wall -Wextra -Werror -pedantic` and run on
+//! sampled inputs with results identical to the Rust path: for each compiled-in unit, and for the first
+//! unit's image loaded at run time into RAM by a program that holds no unit data.
 
 mod common;
 
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Stdio};
 
+use common::cc::CBuild;
 use common::{ntc, units};
 use logtrim::fixed::{FixedCalibration, FixedReading, StageCache};
+use logtrim::image::{self, ImageInfo};
 use logtrim::{Error, Unit};
-use logtrim_host::emit::{self, c::status_code, Format, Provenance};
+use logtrim_host::emit::c::{status_code, CName};
+use logtrim_host::emit::{self, Format, Provenance};
 use logtrim_host::tables::{self, FixedTables, TableOptions, TemperatureChannel};
 
 /// The checked-in Rust emission of the hard unit (with its NTC channel), compiled into this test.
@@ -23,6 +27,11 @@ mod generated {
 fn tables() -> FixedTables {
     let channel = TemperatureChannel { codes: ntc::CODES, celsius: &ntc::celsius };
     tables::build(&units::hard_uncompensated(), Some(&channel), &TableOptions::default()).unwrap()
+}
+
+/// A second unit for the same program: another calibration, no sensor table.
+fn second_tables() -> FixedTables {
+    tables::build(&units::mild_compensated(), None, &TableOptions::default()).unwrap()
 }
 
 fn prov() -> Provenance {
@@ -163,48 +172,75 @@ fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, c
 
 const DRIVER: &str = r#"
 #include <stdio.h>
-#include "unit.h"
-static void print_reading(lt_status st, const lt_reading *r) {
+#include <string.h>
+#include "ltrm.h"
+
+/* Two units' data linked into one program, and RAM for a third loaded from its image. */
+extern const ltrm_fixed hard;
+extern const ltrm_fixed second;
+LTRM_RAM_DEFINE(image_ram, LTRM_RAM_T_DEFAULT, LTRM_RAM_R_DEFAULT, LTRM_RAM_S_DEFAULT);
+
+static void print_reading(ltrm_status st, const ltrm_reading *r) {
     printf("%d", (int)st);
-    if (st == LT_OK) {
+    if (st == LTRM_OK) {
         int u;
         printf(" %ld %d", (long)r->x, r->temperature_extrapolated ? 1 : 0);
-        for (u = 0; u <= (int)LT_RATIO; u++) {
+        for (u = 0; u <= (int)LTRM_RATIO; u++) {
             int64_t v = 0;
-            lt_status vs = lt_value(r, (lt_unit_kind)u, &v);
+            ltrm_status vs = ltrm_value(r, (ltrm_unit_kind)u, &v);
             printf(" %d:%lld", (int)vs, (long long)v);
         }
     }
 }
-int main(void) {
+
+int main(int argc, char **argv) {
     char kind;
     unsigned long code;
     long long t;
-    static lt_stage_cache cache;
-    lt_stage_cache_init(&cache, &LT_UNIT);
+    static ltrm_stage_cache cache;
+    static ltrm_fixed loaded;
+    static uint8_t image[LTRM_L_MAX];
+    const ltrm_fixed *unit = &hard;
+    if (argc > 1 && strcmp(argv[1], "second") == 0) unit = &second;
+    if (argc > 2 && strcmp(argv[1], "image") == 0) {
+        FILE *f = fopen(argv[2], "rb");
+        size_t n;
+        ltrm_image_info info;
+        ltrm_status st;
+        if (!f) return 2;
+        n = fread(image, 1, sizeof image, f);
+        fclose(f);
+        st = ltrm_image_load(image, (uint32_t)n, 0, &image_ram, &loaded, &info);
+        if (st != LTRM_OK) {
+            fprintf(stderr, "image: %s\n", ltrm_status_text(st));
+            return 3;
+        }
+        unit = &loaded;
+    }
+    ltrm_stage_cache_init(&cache, unit);
     while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
-        lt_reading r;
-        lt_status st;
+        ltrm_reading r;
+        ltrm_status st;
         if (kind == 'c') {
-            st = lt_stage_cache_correct_raw(&cache, (uint32_t)code, (uint32_t)t, &r);
+            st = ltrm_stage_cache_correct_raw(&cache, (uint32_t)code, (uint32_t)t, &r);
         } else if (kind == 'k') {
-            st = lt_stage_cache_correct(&cache, (uint32_t)code, (int32_t)t, &r);
+            st = ltrm_stage_cache_correct(&cache, (uint32_t)code, (int32_t)t, &r);
         } else if (kind == 'w') {
-            static lt_stage s;
-            st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
-            if (st == LT_OK) st = lt_correct_staged(&LT_UNIT, &s, (uint32_t)code, &r);
+            static ltrm_stage s;
+            st = ltrm_stage_millicelsius(unit, (int32_t)t, &s);
+            if (st == LTRM_OK) st = ltrm_correct_staged(unit, &s, (uint32_t)code, &r);
         } else if (kind == 'b') {
-            static lt_stage s;
+            static ltrm_stage s;
             uint32_t codes[8], i;
-            lt_reading out[8];
-            lt_status sts[8];
-            st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
-            if (st != LT_OK) {
+            ltrm_reading out[8];
+            ltrm_status sts[8];
+            st = ltrm_stage_millicelsius(unit, (int32_t)t, &s);
+            if (st != LTRM_OK) {
                 printf("%d\n", (int)st);
                 continue;
             }
             for (i = 0; i < 8; i++) codes[i] = (uint32_t)code + i < (uint32_t)code ? 0xffffffffu : (uint32_t)code + i;
-            lt_correct_block(&LT_UNIT, &s, codes, 8, out, sts);
+            ltrm_correct_block(unit, &s, codes, 8, out, sts);
             for (i = 0; i < 8; i++) {
                 if (i) printf(" | ");
                 print_reading(sts[i], &out[i]);
@@ -212,9 +248,9 @@ int main(void) {
             printf("\n");
             continue;
         } else if (kind == 'm') {
-            st = lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r);
+            st = ltrm_correct(unit, (uint32_t)code, (int32_t)t, &r);
         } else {
-            st = lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
+            st = ltrm_correct_raw(unit, (uint32_t)code, (uint32_t)t, &r);
         }
         print_reading(st, &r);
         printf("\n");
@@ -223,54 +259,56 @@ int main(void) {
 }
 "#;
 
-#[test]
-fn emitted_c_compiles_and_agrees_bit_for_bit() {
-    let t = tables();
-    let header = emit::render(&t, Format::C, &prov());
-    snapshot("hard_uncompensated.h", &header);
-    assert!(header.starts_with("/* generated by logtrim "));
-    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
-    if Command::new(&cc).arg("--version").output().is_err() {
-        eprintln!("SKIPPED: no C compiler ({cc}) found; the emitted C was not compiled");
-        return;
-    }
-    let dir = std::env::temp_dir().join(format!("logtrim-c-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    std::fs::copy(generated_dir().join("hard_uncompensated.h"), dir.join("unit.h")).unwrap();
-    std::fs::write(dir.join("driver.c"), DRIVER).unwrap();
-    let exe = dir.join("driver");
-    let out = Command::new(&cc)
-        .args(["-std=c99", "-Wall", "-Wextra", "-Werror", "-pedantic", "-O1", "-o"])
-        .arg(&exe)
-        .arg(dir.join("driver.c"))
-        .output()
-        .unwrap();
-    assert!(out.status.success(), "cc failed:\n{}", String::from_utf8_lossy(&out.stderr));
+/// The driver's output on `inputs` for one unit (argv), compared line by line with the Rust path's.
+fn agree(exe: &Path, args: &[&str], view: FixedCalibration<'_>, label: &str) {
     let inputs = inputs();
     let mut stdin = String::new();
     for (k, code, t) in &inputs {
         let _ = writeln!(stdin, "{k} {code} {t}");
     }
-    let mut child = Command::new(&exe).stdin(Stdio::piped()).stdout(Stdio::piped()).spawn().unwrap();
-    // Feed stdin from another thread: the driver's output would otherwise fill its pipe and stall both.
-    let mut w = child.stdin.take().unwrap();
-    let feeder = std::thread::spawn(move || {
-        use std::io::Write;
-        w.write_all(stdin.as_bytes())
-    });
-    let out = child.wait_with_output().unwrap();
-    feeder.join().unwrap().unwrap();
-    let text = String::from_utf8(out.stdout).unwrap();
+    let text = CBuild::run(exe, args, stdin);
     let lines: Vec<&str> = text.lines().collect();
-    assert_eq!(lines.len(), inputs.len());
-    let view = t.view();
+    assert_eq!(lines.len(), inputs.len(), "{label}");
     let mut cache = StageCache::new(view);
     let mut ok = 0;
     for ((k, code, t), line) in inputs.iter().zip(&lines) {
         let want = rust_line(&view, &mut cache, *k, *code, *t);
-        assert_eq!(*line, want, "input {k} {code} {t}");
+        assert_eq!(*line, want, "{label}: input {k} {code} {t}");
         ok += usize::from(line.starts_with("0 "));
     }
-    assert!(ok > 4000, "only {ok} inputs gave a value: the comparison would prove little");
-    let _ = std::fs::remove_dir_all(&dir);
+    assert!(ok > 4000, "{label}: only {ok} inputs gave a value: the comparison would prove little");
+}
+
+#[test]
+fn emitted_c_compiles_and_agrees_bit_for_bit() {
+    let t = tables();
+    let second = second_tables();
+    let hard_c = emit::c::render_unit(&t, &prov(), &CName::new("hard").unwrap(), 0x1234_5678);
+    snapshot("hard_uncompensated.c", &hard_c);
+    snapshot("ltrm.h", &emit::c::library_header());
+    snapshot("ltrm.c", &emit::c::library_source());
+    assert!(hard_c.starts_with("/* generated by logtrim "));
+    let Some(build) = CBuild::new("emit") else { return };
+    build.write("hard.c", hard_c.as_bytes());
+    let second_c = emit::c::render_unit(&second, &prov(), &CName::new("second").unwrap(), 0);
+    build.write("second.c", second_c.as_bytes());
+    build.write("driver.c", DRIVER.replace("LTRM_L_MAX", "65536").as_bytes());
+    let exe = build.compile(&["driver.c", "hard.c", "second.c"]);
+    agree(&exe, &["hard"], t.view(), "compiled-in unit");
+    agree(&exe, &["second"], second.view(), "second compiled-in unit");
+    // The first unit's image, loaded at run time by the same program.
+    let info = ImageInfo { serial: "DEMO-HARD-01", calibrated_at: 1_767_225_600, sequence: 3 };
+    let mut buf = vec![0u8; 8192];
+    let n =
+        image::write_with_fixed(&mut buf, &info, &units::hard_uncompensated(), Some(&t.view()), &[]).unwrap();
+    let path = build.write("unit.img", &buf[..n]);
+    agree(&exe, &["image", path.to_str().unwrap()], t.view(), "unit loaded from its image");
+}
+
+#[test]
+fn c_names_are_checked() {
+    assert!(CName::new("channel_2").is_ok());
+    for bad in ["", "2ch", "_x", "ch-1", "int", "ltrm_unit", "LTRM_X", &"a".repeat(64)] {
+        assert!(CName::new(bad).is_err(), "{bad:?} accepted");
+    }
 }

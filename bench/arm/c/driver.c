@@ -2,14 +2,18 @@
  * emulator runner counts the instructions of each sample on its own. The runner writes the inputs into
  * bench_code/bench_temp, calls one of the bench_* functions per sample and reads bench_out back.
  *
- * unit.h is the unit's emitted header (logtrim emit --format c), naive.h the coefficients of the naive
- * float correction, both written by the host example arm_bench. The naive path is built on its own
- * (-DBENCH_NAIVE=1), so that the fixed path's image links only the helpers the fixed path needs. */
+ * The C library (ltrm.h, ltrm.c) and the unit's data (unit.c, `logtrim emit --format c --c-name unit_cal`)
+ * are compiled as their own translation units, as a firmware would; naive.h holds the coefficients of the
+ * naive float correction. All are written by the host example arm_bench. The naive path is built on its
+ * own (-DBENCH_NAIVE=1), so that the fixed path's image links only the helpers the fixed path needs. */
 #include <math.h>
 #include <stdint.h>
 
+#include "ltrm.h"
 #include "naive.h"
-#include "unit.h"
+
+extern const ltrm_fixed unit_cal;
+#define LT_UNIT unit_cal
 
 #ifndef BENCH_NAIVE
 #define BENCH_NAIVE 0
@@ -34,9 +38,9 @@ uint32_t bench_temp[BENCH_MAX];
 bench_out bench_out_buf[BENCH_MAX];
 
 /* The stage cache a firmware would keep (its size is reported as state). */
-lt_stage_cache bench_cache;
+ltrm_stage_cache bench_cache;
 
-static void put(uint32_t i, lt_status st, const lt_reading *r) {
+static void put(uint32_t i, ltrm_status st, const ltrm_reading *r) {
     bench_out *o = &bench_out_buf[i];
     int64_t v = 0;
     o->status = (int32_t)st;
@@ -45,55 +49,55 @@ static void put(uint32_t i, lt_status st, const lt_reading *r) {
     o->ratio_status = 0;
     o->db = 0;
     o->ratio = 0;
-    if (st != LT_OK) return;
+    if (st != LTRM_OK) return;
     o->x = r->x;
-    o->db_status = (int32_t)lt_value(r, LT_DB_POWER, &v);
-    o->db = o->db_status == LT_OK ? v : 0;
+    o->db_status = (int32_t)ltrm_value(r, LTRM_DB_POWER, &v);
+    o->db = o->db_status == LTRM_OK ? v : 0;
     v = 0;
-    o->ratio_status = (int32_t)lt_value(r, LT_RATIO, &v);
-    o->ratio = o->ratio_status == LT_OK ? v : 0;
+    o->ratio_status = (int32_t)ltrm_value(r, LTRM_RATIO, &v);
+    o->ratio = o->ratio_status == LTRM_OK ? v : 0;
 }
 
-BENCH_API void bench_reset(void) { lt_stage_cache_init(&bench_cache, &LT_UNIT); }
+BENCH_API void bench_reset(void) { ltrm_stage_cache_init(&bench_cache, &LT_UNIT); }
 
 /* The call alone: what the runner subtracts from every path. */
 BENCH_API void bench_empty(uint32_t i) { bench_out_buf[i].status = (int32_t)(bench_code[i] ^ bench_temp[i]); }
 
 /* One call per sample, the temperature converted at every sample. */
 BENCH_API void bench_direct(uint32_t i) {
-    lt_reading r;
-    lt_status st;
+    ltrm_reading r;
+    ltrm_status st;
 #if NAIVE_RAW
-    st = lt_correct_raw(&LT_UNIT, bench_code[i], bench_temp[i], &r);
+    st = ltrm_correct_raw(&LT_UNIT, bench_code[i], bench_temp[i], &r);
 #else
-    st = lt_correct(&LT_UNIT, bench_code[i], (int32_t)bench_temp[i], &r);
+    st = ltrm_correct(&LT_UNIT, bench_code[i], (int32_t)bench_temp[i], &r);
 #endif
     put(i, st, &r);
 }
 
 /* Through the stage cache kept across samples. */
 BENCH_API void bench_cached(uint32_t i) {
-    lt_reading r;
-    lt_status st;
+    ltrm_reading r;
+    ltrm_status st;
 #if NAIVE_RAW
-    st = lt_stage_cache_correct_raw(&bench_cache, bench_code[i], bench_temp[i], &r);
+    st = ltrm_stage_cache_correct_raw(&bench_cache, bench_code[i], bench_temp[i], &r);
 #else
-    st = lt_stage_cache_correct(&bench_cache, bench_code[i], (int32_t)bench_temp[i], &r);
+    st = ltrm_stage_cache_correct(&bench_cache, bench_code[i], (int32_t)bench_temp[i], &r);
 #endif
     put(i, st, &r);
 }
 
 /* The block API: the stage at one temperature, then a block of codes at it. */
-lt_stage bench_stage;
-lt_reading bench_block_out[BENCH_MAX];
-lt_status bench_block_status[BENCH_MAX];
+ltrm_stage bench_stage;
+ltrm_reading bench_block_out[BENCH_MAX];
+ltrm_status bench_block_status[BENCH_MAX];
 
 /* Builds the stage at sample i's temperature: what a block pays once. */
 BENCH_API void bench_stage_at(uint32_t i) {
 #if NAIVE_RAW
-    (void)lt_stage_code(&LT_UNIT, bench_temp[i], &bench_stage);
+    (void)ltrm_stage_code(&LT_UNIT, bench_temp[i], &bench_stage);
 #else
-    (void)lt_stage_millicelsius(&LT_UNIT, (int32_t)bench_temp[i], &bench_stage);
+    (void)ltrm_stage_millicelsius(&LT_UNIT, (int32_t)bench_temp[i], &bench_stage);
 #endif
 }
 
@@ -101,7 +105,7 @@ BENCH_API void bench_stage_at(uint32_t i) {
 BENCH_API void bench_block(uint32_t n) {
     uint32_t i;
     if (n > BENCH_MAX) n = BENCH_MAX;
-    lt_correct_block(&LT_UNIT, &bench_stage, bench_code, n, bench_block_out, bench_block_status);
+    ltrm_correct_block(&LT_UNIT, &bench_stage, bench_code, n, bench_block_out, bench_block_status);
     for (i = 0; i < n; i++) put(i, bench_block_status[i], &bench_block_out[i]);
 }
 

@@ -1,4 +1,5 @@
-//! `logtrim emit COEFFS.json --format rust|c|json -o FILE`: the unit's fixed-point tables for firmware.
+//! `logtrim emit COEFFS.json --format rust|c|json -o FILE`: the unit's fixed-point tables for firmware;
+//! `logtrim c-library -o DIR`: the C library the C unit data is for.
 
 use std::path::PathBuf;
 
@@ -41,7 +42,7 @@ impl TableArgs {
 pub enum FormatArg {
     /// Rust source of `const` items, for `include!` from a build script's OUT_DIR.
     Rust,
-    /// A C99 header with the tables and an integer-only evaluator.
+    /// C99 unit data (a `.c` file) for the C library that `logtrim c-library` writes.
     C,
     /// JSON of the tables.
     Json,
@@ -62,6 +63,10 @@ pub struct EmitArgs {
     /// renames the dependency or re-exports it (e.g. `lt`, `crate::deps::logtrim`) [default: logtrim].
     #[arg(long, value_name = "PATH")]
     pub crate_path: Option<CratePath>,
+    /// With `--format c`: the C name of the unit's `const ltrm_fixed` (its tables are named after it), so
+    /// that several units or channels link into one program [default: unit_cal].
+    #[arg(long, value_name = "NAME")]
+    pub c_name: Option<String>,
     #[command(flatten)]
     pub tables: TableArgs,
 }
@@ -83,16 +88,30 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
     if args.crate_path.is_some() && !matches!(args.format, FormatArg::Rust) {
         return Err(Failure::input("--crate-path applies to --format rust only"));
     }
+    if args.c_name.is_some() && !matches!(args.format, FormatArg::C) {
+        return Err(Failure::input("--c-name applies to --format c only"));
+    }
+    let c_name = match &args.c_name {
+        Some(n) => emit::c::CName::new(n).map_err(Failure::input)?,
+        None => emit::c::CName::default(),
+    };
     let (file, tables) = load_tables(&args.coeffs, &args.tables)?;
     let format = match args.format {
         FormatArg::Rust => Format::Rust,
         FormatArg::C => Format::C,
         FormatArg::Json => Format::Json,
     };
-    let prov = Provenance { unit: file.unit.clone(), source: Some(args.coeffs.display().to_string()) };
-    let text = match &args.crate_path {
-        Some(path) => emit::rust::render_with_crate(&tables, &prov, path),
-        None => emit::render(&tables, format, &prov),
+    // The calibration file by its name alone: the output's bytes do not depend on the folder.
+    let source = args.coeffs.file_name().map(|n| n.to_string_lossy().into_owned());
+    let prov = Provenance { unit: file.unit.clone(), source };
+    let text = match (&args.crate_path, format) {
+        (Some(path), _) => emit::rust::render_with_crate(&tables, &prov, path),
+        (None, Format::C) => {
+            let identity = logtrim::field::fingerprint(&file.calibration)
+                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
+            emit::c::render_unit(&tables, &prov, &c_name, identity)
+        }
+        (None, _) => emit::render(&tables, format, &prov),
     };
     logtrim_host::output::write_atomic(&args.output, text.as_bytes())
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
@@ -102,5 +121,25 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
         tables.bytes(),
         logtrim::fixed::universal::BYTES
     );
+    Ok(())
+}
+
+/// Arguments of `logtrim c-library`.
+#[derive(Args, Debug)]
+pub struct CLibraryArgs {
+    /// The folder to write `ltrm.h` and `ltrm.c` into (it must exist).
+    #[arg(short = 'o', long = "output")]
+    pub output: PathBuf,
+}
+
+/// Runs `logtrim c-library`: both files, each written atomically.
+pub fn run_c_library(args: &CLibraryArgs) -> Result<(), Failure> {
+    let files = [("ltrm.h", emit::c::library_header()), ("ltrm.c", emit::c::library_source())];
+    for (name, text) in &files {
+        let path = args.output.join(name);
+        logtrim_host::output::write_atomic(&path, text.as_bytes())
+            .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
+    }
+    eprintln!("logtrim: wrote ltrm.h and ltrm.c into {}", args.output.display());
     Ok(())
 }

@@ -77,6 +77,9 @@ enum Command {
     Verify(verify::VerifyArgs),
     /// Emit the unit's fixed-point tables as Rust, C or JSON.
     Emit(emit::EmitArgs),
+    /// Write the C library (ltrm.h, ltrm.c) into a folder: the fixed-point correction, run-time images and
+    /// field records for C firmware, the same for every unit.
+    CLibrary(emit::CLibraryArgs),
     /// Compute a field trim record (offset, or offset and gain) from readings of one or two reference
     /// standards, on top of the factory calibration; exit 1 if the trim is past its limits.
     Trim(trim::TrimArgs),
@@ -140,6 +143,7 @@ fn main() -> ExitCode {
         Command::Sensor(args) => sensor::run(args),
         Command::Verify(args) => verify::run(&args),
         Command::Emit(args) => emit::run(&args),
+        Command::CLibrary(args) => emit::run_c_library(&args),
         Command::Trim(args) => trim::run(args),
         Command::Blank(args) => blank::run(args),
     };

@@ -118,3 +118,60 @@ fn emit_crate_path_names_a_renamed_dependency() {
     assert!(!h.exists());
     let _ = std::fs::remove_dir_all(&d);
 }
+
+#[test]
+fn emitted_bytes_do_not_depend_on_the_folder() {
+    // The same calibration file in two folders, given by absolute paths: every format's bytes are equal
+    // (the file is named by its name alone, and nothing carries a time).
+    let (d1, d2) = (scratch("emit-folder-one"), scratch("emit-folder-two/deeper"));
+    let (c1, c2) = (coeffs(&d1), coeffs(&d2));
+    for fmt in ["rust", "c", "json"] {
+        let (o1, o2) = (d1.join(format!("out.{fmt}")), d2.join(format!("out.{fmt}")));
+        for (c, o) in [(&c1, &o1), (&c2, &o2)] {
+            let (code, _, err) = logtrim(&["emit", c, "--format", fmt, "-o", o.to_str().unwrap()]);
+            assert_eq!(code, 0, "{err}");
+        }
+        let (b1, b2) = (std::fs::read(&o1).unwrap(), std::fs::read(&o2).unwrap());
+        assert_eq!(b1, b2, "--format {fmt} differs between folders");
+        let text = String::from_utf8(b1).unwrap();
+        assert!(text.contains("hard.json") && !text.contains("emit-folder"), "{text}");
+    }
+    let (l1, l2) = (d1.join("lib"), d2.join("lib"));
+    for l in [&l1, &l2] {
+        std::fs::create_dir_all(l).unwrap();
+        let (code, _, err) = logtrim(&["c-library", "-o", l.to_str().unwrap()]);
+        assert_eq!(code, 0, "{err}");
+    }
+    for f in ["ltrm.h", "ltrm.c"] {
+        assert_eq!(std::fs::read(l1.join(f)).unwrap(), std::fs::read(l2.join(f)).unwrap(), "{f}");
+    }
+    let _ = std::fs::remove_dir_all(&d1);
+    let _ = std::fs::remove_dir_all(d2.parent().unwrap());
+}
+
+#[test]
+fn c_names_and_the_c_library_folder_are_checked() {
+    let d = scratch("emit-c-name");
+    let c = coeffs(&d);
+    let out = d.join("ch1.c");
+    let (code, _, err) =
+        logtrim(&["emit", &c, "--format", "c", "--c-name", "ch1", "-o", out.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(text.contains("const ltrm_fixed ch1 = {") && text.contains("#include \"ltrm.h\""), "{text}");
+    // A bad name, or a name with another format: exit 2, nothing written.
+    let bad = d.join("bad.c");
+    let (code, _, err) =
+        logtrim(&["emit", &c, "--format", "c", "--c-name", "2ch", "-o", bad.to_str().unwrap()]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("\"2ch\"") && err.contains("starts with a letter"), "{err}");
+    let (code, _, err) =
+        logtrim(&["emit", &c, "--format", "rust", "--c-name", "ch1", "-o", bad.to_str().unwrap()]);
+    assert_eq!(code, 2, "{err}");
+    assert!(!bad.exists());
+    // The library into a folder that does not exist: exit 2.
+    let (code, _, err) = logtrim(&["c-library", "-o", d.join("no/such/dir").to_str().unwrap()]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("ltrm.h"), "{err}");
+    let _ = std::fs::remove_dir_all(&d);
+}

@@ -1,7 +1,7 @@
 /* ---- types ---- */
 
 /* A unit's tables: the fields of logtrim::fixed::FixedHeader, then each table with its length. */
-typedef struct lt_fixed {
+typedef struct ltrm_fixed {
     uint8_t layout;
     uint32_t adc_max_code;
     uint32_t rail_margin;
@@ -26,50 +26,136 @@ typedef struct lt_fixed {
     int has_sensor;
     uint32_t sensor_code_lo, sensor_code_hi;
     uint8_t sensor_step_log2;
-    lt_status fault_below; uint32_t far_below_code; lt_status fault_far_below;
-    lt_status fault_above; uint32_t far_above_code; lt_status fault_far_above;
+    ltrm_status fault_below; uint32_t far_below_code; ltrm_status fault_far_below;
+    ltrm_status fault_above; uint32_t far_above_code; ltrm_status fault_far_above;
     const int32_t *sensor_knots; uint32_t sensor_len;
-} lt_fixed;
+    uint32_t identity; /* the fingerprint field records bind to; 0 when unknown */
+} ltrm_fixed;
 
 /* A corrected reading: x in Q24 nepers and the extrapolation flag. */
-typedef struct lt_reading {
+typedef struct ltrm_reading {
     int32_t x;
     int temperature_extrapolated;
-} lt_reading;
+} ltrm_reading;
 
 /* The four per-temperature values at one temperature (offset, inverse slope, bias floor, sensitivity limit). */
-typedef struct lt_scalars {
+typedef struct ltrm_scalars {
     int32_t offset;
     uint32_t inv_slope;
     int32_t ln_bias, u_min;
-} lt_scalars;
+} ltrm_scalars;
 
 /* The per-temperature values over one window of the temperature grid (logtrim::fixed::Window): the values at
  * its start, the slopes (minus the curvature for the offset and the inverse slope) and the curvatures. */
-typedef struct lt_window {
-    lt_scalars start;
+typedef struct ltrm_window {
+    ltrm_scalars start;
     int32_t slope[4]; /* d - c for the offset and the inverse slope, d for the others */
     int32_t curv[2];  /* c for the offset and the inverse slope */
-} lt_window;
+} ltrm_window;
 
 /* Everything a correction needs at one temperature (logtrim::fixed::FixedStage): the scalars and the
  * residual collapsed over temperature for every x~ column. */
-typedef struct lt_stage {
+typedef struct ltrm_stage {
     int extrapolated;
-    lt_scalars s;
-    int32_t row[LT_ROW_CAPACITY];
+    ltrm_scalars s;
+    int32_t row[LTRM_ROW_CAPACITY];
     uint32_t len;
-} lt_stage;
+} ltrm_stage;
 
 /* The window of the last temperature and the last temperature codes' theta (logtrim::fixed::StageCache):
- * start it with lt_stage_cache_init; one cache belongs to one calibration. */
-typedef struct lt_stage_cache {
-    const lt_fixed *cal;
-    uint32_t window; /* LT_NO_WINDOW when empty */
-    lt_window values;
-    int32_t row0[LT_ROW_CAPACITY], drow[LT_ROW_CAPACITY];
+ * start it with ltrm_stage_cache_init; one cache belongs to one calibration. */
+typedef struct ltrm_stage_cache {
+    const ltrm_fixed *cal;
+    uint32_t window; /* LTRM_NO_WINDOW when empty */
+    ltrm_window values;
+    int32_t row0[LTRM_ROW_CAPACITY], drow[LTRM_ROW_CAPACITY];
     uint32_t len;
-    uint32_t memo_key[LT_STAGE_MEMO]; /* temperature code + 1; 0 marks an empty entry */
-    int32_t memo_theta[LT_STAGE_MEMO];
+    uint32_t memo_key[LTRM_STAGE_MEMO]; /* temperature code + 1; 0 marks an empty entry */
+    int32_t memo_theta[LTRM_STAGE_MEMO];
     uint32_t code_lo, code_hi;
-} lt_stage_cache;
+} ltrm_stage_cache;
+
+/* ---- run-time images and field records ---- */
+
+/* Caller-owned RAM that a unit's tables are copied into when its image is loaded (the C side of
+ * logtrim::image::FixedStorage): four per-temperature tables of t_capacity entries each (t_tables holds
+ * 4 * t_capacity words), the temperature sensor's table of s_capacity entries, the residual of r_capacity
+ * entries. LTRM_RAM_DEFINE declares one sized for the host tool's default tables. */
+typedef struct ltrm_ram {
+    int32_t *t_tables; uint32_t t_capacity;
+    int32_t *sensor; uint32_t s_capacity;
+    int16_t *residual; uint32_t r_capacity;
+} ltrm_ram;
+
+/* What an image says about itself besides its tables. identity is the fingerprint trim and blank records
+ * bind to (logtrim::field::fingerprint_of_image); serial is NUL-terminated printable ASCII. */
+typedef struct ltrm_image_info {
+    uint16_t version;
+    uint32_t sequence;
+    uint64_t calibrated_at; /* Unix seconds, UTC */
+    char serial[17];
+    uint32_t crc;
+    uint32_t identity;
+    uint32_t len; /* bytes of the image, header to CRC */
+} ltrm_image_info;
+
+/* The two slots of an A/B pair. */
+typedef enum ltrm_slot { LTRM_SLOT_NONE = -1, LTRM_SLOT_A = 0, LTRM_SLOT_B = 1 } ltrm_slot;
+
+/* Why the slot that was not chosen lost (logtrim::record::slots::Rejected). */
+typedef enum ltrm_rejected {
+    LTRM_REJECTED_INVALID = 0,           /* its record failed a check: the slot's status says which */
+    LTRM_REJECTED_OTHER_CALIBRATION = 1, /* a valid field record made on another factory calibration */
+    LTRM_REJECTED_OLDER = 2,             /* a usable record with a lower sequence counter (or time) */
+    LTRM_REJECTED_TIE_IDENTICAL = 3,     /* the same sequence and time, the same bytes: a duplicate */
+    LTRM_REJECTED_TIE_DIFFERENT = 4      /* the same sequence and time, different bytes: a writer fault */
+} ltrm_rejected;
+
+/* The outcome of an A/B choice: the slot used (LTRM_SLOT_NONE when neither is usable), each slot's own
+ * status (LTRM_OK for a record that passed its checks, LTRM_OTHER_CALIBRATION for one bound to another
+ * calibration), and why the other slot lost. */
+typedef struct ltrm_selection {
+    ltrm_slot slot;
+    ltrm_status status_a, status_b;
+    ltrm_rejected other;
+} ltrm_selection;
+
+/* A checked trim record (logtrim::field::Trim): x' = g*x + o on the fixed path. The f32 fields are kept
+ * as their bit patterns (this library does no float arithmetic on them). */
+typedef struct ltrm_trim {
+    uint32_t sequence;
+    uint64_t written_at;
+    uint32_t factory; /* the identity of the calibration it was made on; 0 = bound to none */
+    uint8_t kind;     /* LTRM_TRIM_CLEARED, LTRM_TRIM_ONE_POINT, LTRM_TRIM_TWO_POINT */
+    int32_t offset_q24;
+    int32_t gain_q30;
+    int32_t temp_mc;
+    uint32_t offset_f32_bits, gain_f32_bits, standard_bits[2];
+} ltrm_trim;
+
+/* A checked blank record (logtrim::field::Blank): readings are reported as x - x_blank. */
+typedef struct ltrm_blank {
+    uint32_t sequence;
+    uint64_t written_at;
+    uint32_t factory;
+    int32_t x_q24;
+    uint32_t x_f32_bits;
+    int32_t temp_mc;
+    uint32_t samples;
+} ltrm_blank;
+
+/* The instrument's limits on a trim (logtrim::field::TrimLimits); LTRM_TRIM_LIMITS_DEFAULT initialises
+ * one with the library's defaults. */
+typedef struct ltrm_trim_limits {
+    int32_t max_offset_q24;
+    int32_t max_gain_error_q30;
+    int32_t min_separation_q24;
+} ltrm_trim_limits;
+
+/* A channel's field layers over the factory reading (logtrim::field::Layers): a trim, then a blank. */
+typedef struct ltrm_layers {
+    int has_trim;
+    ltrm_trim trim;
+    int has_blank;
+    ltrm_blank blank;
+} ltrm_layers;

@@ -1,5 +1,6 @@
 //! Fixtures shared by the fixed-path tests, benches and examples.
 #![allow(dead_code)]
 
+pub mod cc;
 pub mod ntc;
 pub mod units;

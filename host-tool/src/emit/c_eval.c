@@ -1,0 +1,605 @@
+/* ---- evaluator: the same integer operations as logtrim::fixed, in the same order ---- */
+/* The entry points are `inline` external definitions (ltrm.h declares them without `inline`): one copy
+ * each for callers in other translation units, and inlined into each other and into callers in this one. */
+
+/* floor(x / 2^n): arithmetic right shifts without implementation-defined behaviour. */
+static inline int32_t ltrm_asr32(int32_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
+static inline int64_t ltrm_asr64(int64_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
+
+/* a*b exactly as (high word, low word). On ARMv6-M (no long multiply): the magnitudes' product from four 16x16-bit
+ * products, negated when the signs differ, so that no library helper is called. */
+static inline void ltrm_mul_parts(int32_t a, int32_t b, int32_t *hi, uint32_t *lo) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    /* A core with a long multiply: the compiler's exact 64-bit product (one SMULL on a Cortex-M3/M4/M7). */
+    int64_t p = (int64_t)a * b;
+    *hi = (int32_t)ltrm_asr64(p, 32);
+    *lo = (uint32_t)((uint64_t)p & 0xffffffffu);
+#else
+    uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a, ub = b < 0 ? 0u - (uint32_t)b : (uint32_t)b;
+    uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = ub & 0xffffu, bh = ub >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    uint32_t h = ah * bh + (m1 >> 16) + (m2 >> 16), l = ((m2 & 0xffffu) << 16) | (p0 & 0xffffu);
+    if ((a < 0) == (b < 0)) { *hi = (int32_t)h; *lo = l; }
+    else if (l == 0u) { *hi = -(int32_t)h; *lo = 0u; }
+    else { *hi = ~(int32_t)h; *lo = ~l + 1u; }
+#endif
+}
+
+/* a*b exactly. */
+static inline int64_t ltrm_mul_wide(int32_t a, int32_t b) {
+    int32_t h;
+    uint32_t l;
+    ltrm_mul_parts(a, b, &h, &l);
+    return (int64_t)h * 4294967296LL + (int64_t)l;
+}
+
+/* floor(a*b / 2^32). */
+static inline int32_t ltrm_mul_hi(int32_t a, int32_t b) {
+    int32_t h;
+    uint32_t l;
+    ltrm_mul_parts(a, b, &h, &l);
+    return h;
+}
+
+/* floor(a*b / 2^32) for an unsigned b. */
+static inline int32_t ltrm_mul_hi_u(int32_t a, uint32_t b) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)ltrm_asr64((int64_t)a * (int64_t)b, 32);
+#else
+    uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a;
+    uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = b & 0xffffu, bh = b >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    uint32_t h = ah * bh + (m1 >> 16) + (m2 >> 16), l = ((m2 & 0xffffu) << 16) | (p0 & 0xffffu);
+    if (a >= 0) return (int32_t)h;
+    return l == 0u ? -(int32_t)h : ~(int32_t)h;
+#endif
+}
+
+/* floor(a*w / 2^16) for w < 2^16: two products. */
+static inline int32_t ltrm_mulh16(int32_t a, uint32_t w) {
+    int32_t ah = ltrm_asr32(a, 16);
+    uint32_t al = (uint32_t)a & 0xffffu;
+    return ah * (int32_t)w + (int32_t)((al * w) >> 16);
+}
+
+/* The highest set bit of v > 0, by a binary search (a Cortex-M0 has no CLZ). */
+static inline uint32_t ltrm_top_bit(int32_t v) {
+    uint32_t u = v > 0 ? (uint32_t)v : 0u, n = 0;
+    if (u >= (1u << 16)) { u >>= 16; n += 16; }
+    if (u >= (1u << 8)) { u >>= 8; n += 8; }
+    if (u >= (1u << 4)) { u >>= 4; n += 4; }
+    if (u >= (1u << 2)) { u >>= 2; n += 2; }
+    if (u >= (1u << 1)) { n += 1; }
+    return n;
+}
+
+/* The cubic B-spline basis at a Q16 fraction, in Q16, summing to 2^16 (the bias bend's, finer). */
+static inline int32_t ltrm_spline16(const int32_t c[4], uint32_t t) {
+    uint32_t t2, t3, s3, w0, w1, w3;
+    t &= 0xffffu;
+    t2 = (t * t) >> 16;
+    t3 = (t2 * t) >> 16;
+    s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
+    w0 = (s3 * 10923u) >> 16;
+    w1 = (t3 >> 1) + 43691u - t2;
+    w3 = (t3 * 10923u) >> 16;
+    return ltrm_mulh16(c[0], w0) + ltrm_mulh16(c[1], w1) + ltrm_mulh16(c[2], 65536u - w0 - w1 - w3) + ltrm_mulh16(c[3], w3);
+}
+
+/* Six times the cubic B-spline basis at a Q16 fraction, in Q13, summing to 6 * 2^13 (no division). */
+static inline void ltrm_basis6(uint32_t t, uint32_t w[4]) {
+    uint32_t t2, t3, s3;
+    t &= 0xffffu;
+    t2 = (t * t + 32768u) >> 16;
+    t3 = (t2 * t + 32768u) >> 16;
+    s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
+    w[0] = (s3 + 4u) >> 3;
+    w[1] = (3u * t3 + 4u * 65536u + 4u - 6u * t2) >> 3;
+    w[3] = (t3 + 4u) >> 3;
+    w[2] = 49152u - w[0] - w[1] - w[3];
+}
+
+/* Three quarters of a per-sample spline's value at t from four control points stored times 4/3. */
+static inline int32_t ltrm_spline6(const int32_t c[4], uint32_t t) {
+    uint32_t w[4];
+    ltrm_basis6(t, w);
+    return ltrm_mulh16(c[0], w[0]) + ltrm_mulh16(c[1], w[1]) + ltrm_mulh16(c[2], w[2]) + ltrm_mulh16(c[3], w[3]);
+}
+
+/* Six times the basis at t = m/16 times 16^3: exact. */
+static inline void ltrm_window_weights(uint32_t m, int32_t w[4]) {
+    int32_t mm = (int32_t)(m < LTRM_WINDOWS ? m : LTRM_WINDOWS), s = (int32_t)LTRM_WINDOWS - mm;
+    int32_t m3 = mm * mm * mm;
+    w[0] = s * s * s;
+    w[1] = 3 * m3 - 6 * 16 * mm * mm + 4 * 4096;
+    w[3] = m3;
+    w[2] = 24576 - w[0] - w[1] - w[3];
+}
+
+/* floor(sum w_k c_k / 4096) of control points stored divided by 6, exact. */
+static inline int64_t ltrm_window_value(const int32_t *c, const int32_t w[4]) {
+    int32_t hi = w[0] * ltrm_asr32(c[0], 16) + w[1] * ltrm_asr32(c[1], 16) + w[2] * ltrm_asr32(c[2], 16) +
+                 w[3] * ltrm_asr32(c[3], 16);
+    uint32_t lo = (uint32_t)w[0] * ((uint32_t)c[0] & 0xffffu) + (uint32_t)w[1] * ((uint32_t)c[1] & 0xffffu) +
+                  (uint32_t)w[2] * ((uint32_t)c[2] & 0xffffu) + (uint32_t)w[3] * ((uint32_t)c[3] & 0xffffu);
+    return (int64_t)hi * (1 << (16 - LTRM_COLUMN_GUARD)) + (int64_t)(lo >> LTRM_COLUMN_GUARD);
+}
+
+/* Six times the basis at a Q16 fraction, in Q24 (the sensor's weights). */
+static inline void ltrm_sensor_weights(uint32_t t16, int32_t w[4]) {
+    uint32_t t = t16 & 0xffffu;
+    int32_t t2 = (int32_t)((t * t) >> 8), t3 = ltrm_mulh16(t2, t), t1 = (int32_t)(t << 8), one = 1 << 24;
+    int32_t s3 = one - 3 * t1 + 3 * t2 - t3;
+    if (s3 < 0) s3 = 0;
+    int32_t w1 = 3 * t3 - 6 * t2 + 4 * one;
+    w[0] = s3;
+    w[1] = w1;
+    w[2] = 6 * one - s3 - w1 - t3;
+    w[3] = t3;
+}
+
+/* A value of the tables at a window end (or the sensor's), checked against its limit. */
+static inline ltrm_status ltrm_bounded(int64_t v, int32_t limit, int32_t *out) {
+    if (!(v > -(int64_t)limit && v < (int64_t)limit)) return LTRM_BAD_TABLE;
+    *out = (int32_t)v;
+    return LTRM_OK;
+}
+
+/* G(v) = ln(1 - e^-v), v and result Q24. */
+static inline ltrm_status ltrm_bend_q24(int32_t v, int32_t *out) {
+    uint32_t e, start;
+    int32_t m, pos;
+    if (v < (1 << LTRM_BEND_FLOOR_BIT)) return LTRM_BELOW_RANGE;
+    if (v >= (1 << (LTRM_BEND_FLOOR_BIT + LTRM_BEND_OCTAVES))) { *out = 0; return LTRM_OK; }
+    e = ltrm_top_bit(v);
+    m = v - (1 << e);
+    pos = e >= 19u ? (m >> (e - 19u)) : (m << (19u - e));
+    start = (e - LTRM_BEND_FLOOR_BIT) * LTRM_BEND_STRIDE + (((uint32_t)pos >> 16) & (LTRM_BEND_SEGMENTS - 1u));
+    if (start + 4u > LTRM_BEND_LEN) return LTRM_BAD_TABLE;
+    *out = ltrm_spline16(ltrm_bend + start, (uint32_t)pos & 0xffffu);
+    return LTRM_OK;
+}
+
+/* e^x, x Q24, result Q32. */
+static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
+    int32_t k = ltrm_asr32(ltrm_mulh16(x, LTRM_HALF_INV_LN2_Q16), 23), sh;
+    int32_t lh = LTRM_LN2_Q31 >> 16, ll = LTRM_LN2_Q31 & 0xffff;
+    int64_t r = (int64_t)x * 128 - ((int64_t)(k * lh) * 65536 + (int64_t)(k * ll));
+    uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
+    if (r < 0) { k -= 1; r += LTRM_LN2_Q31; }
+    else if (r >= LTRM_LN2_Q31) { k += 1; r -= LTRM_LN2_Q31; }
+    if (k > 30) return LTRM_ABOVE_RANGE;
+    if (k < -36) { *out = 0; return LTRM_OK; }
+    ru = (uint32_t)r;
+    j = ru >> (31u - LTRM_EXP64_LOG2);
+    rho = ru & ((1u << (31u - LTRM_EXP64_LOG2)) - 1u);
+    rho30 = rho >> 1;
+    rq = rho >> 9;
+    rho2h = (rq * rq) >> 15;
+    rho3 = (((2u * rho2h) >> 8) * (rho30 >> 14)) >> 8;
+    q = rho30 + rho2h + ((rho3 * 10923u) >> 16);
+    if (j >= LTRM_EXP64_LEN) return LTRM_ABOVE_RANGE;
+    base = (uint32_t)ltrm_exp64[j];
+    m = base + ((uint32_t)ltrm_mul_hi_u((int32_t)(q << 6), base) >> 4);
+    sh = k + 2;
+    if (sh >= 32) *out = (int64_t)m * ((int64_t)1 << 32);
+    else if (sh > 0) *out = (int64_t)(m >> (32 - sh)) * ((int64_t)1 << 32) + (int64_t)((m & (0xffffffffu >> sh)) << sh);
+    else if (sh == 0) *out = (int64_t)m;
+    else if (sh > -32) *out = (int64_t)((m >> (uint32_t)-sh) + ((m >> (uint32_t)(-sh - 1)) & 1u));
+    else *out = 0;
+    return LTRM_OK;
+}
+
+static inline ltrm_status ltrm_check_code(const ltrm_fixed *c, uint32_t code) {
+    uint32_t top = c->adc_max_code > c->rail_margin ? c->adc_max_code - c->rail_margin : 0u;
+    if (code > c->adc_max_code) return LTRM_CODE_OUT_OF_ADC_RANGE;
+    if (code <= c->rail_margin || code >= top) return LTRM_SATURATED;
+    return LTRM_OK;
+}
+
+/* theta (m°C * 1024) from the temperature channel's code. */
+static inline ltrm_status ltrm_theta_from_code(const ltrm_fixed *c, uint32_t code, int32_t *theta) {
+    uint32_t k, pos, seg;
+    int32_t w[4];
+    int64_t v;
+    if (!c->has_sensor) return LTRM_NOT_CALIBRATED;
+    if (code < c->sensor_code_lo) return code < c->far_below_code ? c->fault_far_below : c->fault_below;
+    if (code > c->sensor_code_hi) return code > c->far_above_code ? c->fault_far_above : c->fault_above;
+    k = c->sensor_step_log2 > 16u ? 16u : c->sensor_step_log2;
+    pos = code - c->sensor_code_lo;
+    seg = pos >> k;
+    if ((uint64_t)seg + 4u > (uint64_t)c->sensor_len) return LTRM_BAD_TABLE;
+    ltrm_sensor_weights((pos & ((1u << k) - 1u)) << (16u - k), w);
+    v = ltrm_mul_wide(w[0], c->sensor_knots[seg]) + ltrm_mul_wide(w[1], c->sensor_knots[seg + 1u]) +
+        ltrm_mul_wide(w[2], c->sensor_knots[seg + 2u]) + ltrm_mul_wide(w[3], c->sensor_knots[seg + 3u]);
+    return ltrm_bounded(ltrm_asr64(v, 24), LTRM_THETA_LIMIT, theta);
+}
+
+/* theta of a temperature in m°C, the accepted range checked first. */
+static inline ltrm_status ltrm_theta_from_millicelsius(const ltrm_fixed *c, int32_t temp_mc, int32_t *theta) {
+    int64_t lo = ltrm_asr64((int64_t)c->temp_lo + (1 << LTRM_THETA_FRAC) - 1, LTRM_THETA_FRAC);
+    int64_t hi = ltrm_asr64((int64_t)c->temp_hi, LTRM_THETA_FRAC);
+    if ((int64_t)temp_mc < lo || (int64_t)temp_mc > hi) return LTRM_TEMPERATURE_OUT_OF_RANGE;
+    *theta = temp_mc * (1 << LTRM_THETA_FRAC);
+    return LTRM_OK;
+}
+
+/* theta checked against the accepted range, and its window (16 per knot step) and Q16 fraction. */
+static inline ltrm_status ltrm_window_of(const ltrm_fixed *c, int32_t theta, uint32_t *index, uint32_t *f16) {
+    int64_t p;
+    uint32_t wb = c->t_step_log2 < LTRM_T_STEP_MIN ? LTRM_T_STEP_MIN : (c->t_step_log2 > LTRM_T_STEP_MAX ? LTRM_T_STEP_MAX : c->t_step_log2);
+    if (theta < c->temp_lo || theta > c->temp_hi) return LTRM_TEMPERATURE_OUT_OF_RANGE;
+    p = (int64_t)theta - c->t_origin;
+    if (p < 0 || p >= ((int64_t)1 << 31)) return LTRM_BAD_TABLE;
+    wb -= LTRM_WINDOWS_LOG2;
+    *index = (uint32_t)p >> wb;
+    *f16 = ((uint32_t)p & ((1u << wb) - 1u)) >> (wb - 16u);
+    return LTRM_OK;
+}
+
+static inline int ltrm_extrapolated(const ltrm_fixed *c, int32_t theta) { return theta < c->temp_min || theta > c->temp_max; }
+
+static inline void ltrm_end_weights(const ltrm_fixed *c, uint32_t end, uint32_t *seg, int32_t w[4]) {
+    uint32_t last = c->t_knots >= 2u ? c->t_knots - 2u : 0u;
+    *seg = (end >> LTRM_WINDOWS_LOG2) < last ? (end >> LTRM_WINDOWS_LOG2) : last;
+    ltrm_window_weights(end - (*seg << LTRM_WINDOWS_LOG2), w);
+}
+
+static inline ltrm_status ltrm_end_value(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int32_t limit,
+                                     int32_t *out) {
+    if ((uint64_t)seg + 4u > (uint64_t)len) return LTRM_BAD_TABLE;
+    return ltrm_bounded(ltrm_window_value(t + seg, w), limit, out);
+}
+
+/* The four per-temperature values at window end `end`, exact and checked. */
+static inline ltrm_status ltrm_end_scalars(const ltrm_fixed *c, uint32_t end, ltrm_scalars *s) {
+    uint32_t seg;
+    int32_t w[4];
+    int64_t v;
+    ltrm_status st;
+    ltrm_end_weights(c, end, &seg, w);
+    if ((uint64_t)seg + 4u > (uint64_t)c->inv_slope_len) return LTRM_BAD_TABLE;
+    v = ltrm_window_value(c->inv_slope + seg, w);
+    if (!(v > 0 && v < LTRM_INV_SLOPE_LIMIT)) return LTRM_BAD_TABLE;
+    s->inv_slope = (uint32_t)v;
+    if ((uint64_t)seg + 4u > (uint64_t)c->offset_len) return LTRM_BAD_TABLE;
+    v = ltrm_window_value(c->offset + seg, w);
+    if (!(v > LTRM_OFFSET_MIN && v < LTRM_OFFSET_MAX)) return LTRM_BAD_TABLE;
+    s->offset = (int32_t)v;
+    s->ln_bias = 0;
+    if (c->bias_bend && (st = ltrm_end_value(c->ln_bias, c->ln_bias_len, seg, w, LTRM_BIAS_LIMIT, &s->ln_bias)) != LTRM_OK)
+        return st;
+    s->u_min = INT32_MIN;
+    if (c->sensitivity_limit && (st = ltrm_end_value(c->u_min, c->u_min_len, seg, w, LTRM_BIAS_LIMIT, &s->u_min)) != LTRM_OK)
+        return st;
+    return LTRM_OK;
+}
+
+/* Residual column `col` collapsed over temperature at window end `end`. */
+static inline ltrm_status ltrm_end_column(const ltrm_fixed *c, uint32_t end, uint32_t col, int32_t *out) {
+    uint32_t seg, k, stride = (uint32_t)c->xa_knots + 2u, row, i;
+    int32_t w[4], v = 0;
+    ltrm_end_weights(c, end, &seg, w);
+    for (k = 0; k < 4u; k++) {
+        row = seg + k;
+        /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
+        if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
+        i = row * stride + col;
+        if (i >= c->residual_len) return LTRM_BAD_TABLE;
+        v += w[k] * (int32_t)c->residual[i];
+    }
+    *out = v;
+    return LTRM_OK;
+}
+
+/* The values at a Q16 fraction of a window: a parabola for the offset and the inverse slope, a line for the others. */
+static inline void ltrm_window_at(const ltrm_window *w, uint32_t f16, ltrm_scalars *out) {
+    out->offset = w->start.offset + ltrm_mulh16(w->slope[0] + ltrm_mulh16(w->curv[0], f16), f16);
+    out->inv_slope = (uint32_t)((int64_t)w->start.inv_slope + ltrm_mulh16(w->slope[1] + ltrm_mulh16(w->curv[1], f16), f16));
+    out->ln_bias = w->start.ln_bias + ltrm_mulh16(w->slope[2], f16);
+    out->u_min = w->start.u_min + ltrm_mulh16(w->slope[3], f16);
+}
+
+static inline int64_t ltrm_abs64(int64_t v) { return v < 0 ? -v : v; }
+
+/* The parabola of one value over a window: (d - c, c), checked to stay within (lo, hi). */
+static inline ltrm_status ltrm_parabola(int64_t q0, int64_t q1, int64_t c, int64_t lo, int64_t hi, int32_t *dc, int32_t *cc) {
+    int64_t d = q1 - q0, e = d - c, reach = ltrm_abs64(c) + 4;
+    if (!((q0 < q1 ? q0 : q1) - reach > lo && (q0 > q1 ? q0 : q1) + reach < hi && ltrm_abs64(d) < ((int64_t)1 << 31) &&
+          ltrm_abs64(e) < ((int64_t)1 << 31)))
+        return LTRM_BAD_TABLE;
+    *dc = (int32_t)e;
+    *cc = (int32_t)c;
+    return LTRM_OK;
+}
+
+/* The chord's deviation term c = 3 * sum W_k c_k / 8192 of a spline over a window (W: 32 times the
+ * second-derivative basis at the window's middle). */
+static inline ltrm_status ltrm_curvature(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int64_t *out) {
+    int32_t hi, lo;
+    if ((uint64_t)seg + 4u > (uint64_t)len) return LTRM_BAD_TABLE;
+    t += seg;
+    hi = w[0] * ltrm_asr32(t[0], 16) + w[1] * ltrm_asr32(t[1], 16) + w[2] * ltrm_asr32(t[2], 16) + w[3] * ltrm_asr32(t[3], 16);
+    lo = w[0] * (int32_t)((uint32_t)t[0] & 0xffffu) + w[1] * (int32_t)((uint32_t)t[1] & 0xffffu) +
+         w[2] * (int32_t)((uint32_t)t[2] & 0xffffu) + w[3] * (int32_t)((uint32_t)t[3] & 0xffffu);
+    *out = (int64_t)hi * 65536 + lo;
+    *out = ltrm_asr64(*out + *out + *out, 13);
+    return LTRM_OK;
+}
+
+/* Window `index`: both ends and the curvatures. */
+static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, ltrm_window *w) {
+    ltrm_scalars a, b;
+    uint32_t seg, m;
+    int32_t ew[4], cw[4];
+    int64_t cv;
+    ltrm_status st;
+    if ((st = ltrm_end_scalars(c, index, &a)) != LTRM_OK) return st;
+    if ((st = ltrm_end_scalars(c, index + 1u, &b)) != LTRM_OK) return st;
+    ltrm_end_weights(c, index, &seg, ew);
+    m = index - (seg << LTRM_WINDOWS_LOG2);
+    if (m > LTRM_WINDOWS - 1u) m = LTRM_WINDOWS - 1u;
+    cw[0] = 31 - 2 * (int32_t)m;
+    cw[1] = 6 * (int32_t)m - 61;
+    cw[2] = 29 - 6 * (int32_t)m;
+    cw[3] = 2 * (int32_t)m + 1;
+    if ((st = ltrm_curvature(c->offset, c->offset_len, seg, cw, &cv)) != LTRM_OK) return st;
+    if ((st = ltrm_parabola(a.offset, b.offset, cv, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &w->slope[0], &w->curv[0])) != LTRM_OK)
+        return st;
+    if ((st = ltrm_curvature(c->inv_slope, c->inv_slope_len, seg, cw, &cv)) != LTRM_OK) return st;
+    if ((st = ltrm_parabola(a.inv_slope, b.inv_slope, cv, 0, LTRM_INV_SLOPE_LIMIT, &w->slope[1], &w->curv[1])) != LTRM_OK)
+        return st;
+    w->slope[2] = b.ln_bias - a.ln_bias;
+    w->slope[3] = b.u_min - a.u_min;
+    w->start = a;
+    return LTRM_OK;
+}
+
+/* Steps 3-4 of the chain for a checked code: x~ and its place on the residual's grid. */
+static inline ltrm_status ltrm_xa(const ltrm_fixed *c, const ltrm_scalars *s, uint32_t code, int32_t *xa, uint32_t *seg,
+                              uint32_t *t16) {
+    uint32_t qo = c->offset_frac > 30u ? 30u : c->offset_frac, xs, pu;
+    int32_t d, u, g;
+    int64_t p;
+    ltrm_status st;
+    if (code >= (LTRM_CODE_LIMIT >> qo)) return LTRM_BAD_TABLE;
+    d = (int32_t)(code << qo) - s->offset;
+    u = ltrm_mul_hi_u(d, s->inv_slope);
+    if (u < s->u_min) return LTRM_BELOW_RANGE;
+    *xa = u;
+    if (c->bias_bend) {
+        if ((st = ltrm_bend_q24(u - s->ln_bias, &g)) != LTRM_OK) return st;
+        *xa = u + g;
+    }
+    p = (int64_t)*xa - c->xa_origin;
+    if (p < 0) return LTRM_BELOW_RANGE;
+    pu = (uint32_t)p;
+    xs = c->xa_step_log2 < LTRM_XA_STEP_MIN ? LTRM_XA_STEP_MIN : (c->xa_step_log2 > LTRM_XA_STEP_MAX ? LTRM_XA_STEP_MAX : c->xa_step_log2);
+    *seg = pu >> xs;
+    if (*seg + 1u >= c->xa_knots) return LTRM_ABOVE_RANGE;
+    *t16 = (pu & ((1u << xs) - 1u)) >> (xs - 16u);
+    return LTRM_OK;
+}
+
+/* Step 5: the residual from its four columns at the temperature, then x and its range. */
+static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+    uint32_t fr, n;
+    int32_t r;
+    fr = c->residual_frac < LTRM_RESIDUAL_FRAC_MIN ? LTRM_RESIDUAL_FRAC_MIN
+                                                  : (c->residual_frac > LTRM_RESIDUAL_FRAC_MAX ? LTRM_RESIDUAL_FRAC_MAX : c->residual_frac);
+    n = fr + LTRM_COLUMN_GUARD - LTRM_X_FRAC;
+    r = ltrm_spline6(cols, t16);
+    if (n > 0u) r = ltrm_asr32(r + (1 << (n - 1u)), n);
+    r += xa;
+    if (r < c->x_min) return LTRM_BELOW_RANGE;
+    if (r > c->x_max) return LTRM_ABOVE_RANGE;
+    *x = r;
+    return LTRM_OK;
+}
+
+/* The direct path from theta: both window ends, the four columns the code needs, interpolated. */
+static inline ltrm_status ltrm_correct_theta(const ltrm_fixed *c, uint32_t code, int32_t theta, ltrm_reading *out) {
+    uint32_t index, f16, seg, t16, k;
+    ltrm_window w;
+    ltrm_scalars s;
+    int32_t xa, cols[4], lo, hi;
+    ltrm_status st;
+    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    ltrm_window_at(&w, f16, &s);
+    if ((st = ltrm_xa(c, &s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
+    for (k = 0; k < 4u; k++) {
+        if ((st = ltrm_end_column(c, index, seg + k, &lo)) != LTRM_OK) return st;
+        if ((st = ltrm_end_column(c, index + 1u, seg + k, &hi)) != LTRM_OK) return st;
+        cols[k] = lo + ltrm_mulh16(hi - lo, f16);
+    }
+    if ((st = ltrm_x_finish(c, xa, t16, cols, &out->x)) != LTRM_OK) return st;
+    out->temperature_extrapolated = ltrm_extrapolated(c, theta);
+    return LTRM_OK;
+}
+
+/* Corrects one reading: log code and temperature in m°C. */
+inline ltrm_status ltrm_correct(const ltrm_fixed *c, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_check_code(c, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_theta_from_millicelsius(c, temp_mc, &theta)) != LTRM_OK) return st;
+    return ltrm_correct_theta(c, code, theta, out);
+}
+
+/* Corrects one reading from raw codes: log code and temperature channel code. */
+inline ltrm_status ltrm_correct_raw(const ltrm_fixed *c, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_check_code(c, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_theta_from_code(c, temp_code, &theta)) != LTRM_OK) return st;
+    return ltrm_correct_theta(c, code, theta, out);
+}
+
+/* The stage at theta: both window ends, every column interpolated. */
+static inline ltrm_status ltrm_stage_theta(const ltrm_fixed *c, int32_t theta, ltrm_stage *s) {
+    uint32_t index, f16, n = (uint32_t)c->xa_knots + 2u, i;
+    ltrm_window w;
+    int32_t lo, hi;
+    ltrm_status st;
+    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    if (n > LTRM_ROW_CAPACITY) return LTRM_BAD_TABLE;
+    for (i = 0; i < LTRM_ROW_CAPACITY; i++) s->row[i] = 0;
+    for (i = 0; i < n; i++) {
+        if ((st = ltrm_end_column(c, index, i, &lo)) != LTRM_OK) return st;
+        if ((st = ltrm_end_column(c, index + 1u, i, &hi)) != LTRM_OK) return st;
+        s->row[i] = lo + ltrm_mulh16(hi - lo, f16);
+    }
+    ltrm_window_at(&w, f16, &s->s);
+    s->extrapolated = ltrm_extrapolated(c, theta);
+    s->len = n;
+    return LTRM_OK;
+}
+
+inline ltrm_status ltrm_stage_millicelsius(const ltrm_fixed *c, int32_t temp_mc, ltrm_stage *s) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_theta_from_millicelsius(c, temp_mc, &theta);
+    if (st != LTRM_OK) return st;
+    return ltrm_stage_theta(c, theta, s);
+}
+
+inline ltrm_status ltrm_stage_code(const ltrm_fixed *c, uint32_t temp_code, ltrm_stage *s) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_theta_from_code(c, temp_code, &theta);
+    if (st != LTRM_OK) return st;
+    return ltrm_stage_theta(c, theta, s);
+}
+
+/* The log-channel part of a correction at a stage. */
+inline ltrm_status ltrm_correct_staged(const ltrm_fixed *c, const ltrm_stage *s, uint32_t code, ltrm_reading *out) {
+    uint32_t seg, t16;
+    int32_t xa;
+    ltrm_status st = ltrm_check_code(c, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_xa(c, &s->s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
+    if ((uint64_t)seg + 4u > (uint64_t)s->len) return LTRM_BAD_TABLE;
+    if ((st = ltrm_x_finish(c, xa, t16, s->row + seg, &out->x)) != LTRM_OK) return st;
+    out->temperature_extrapolated = s->extrapolated;
+    return LTRM_OK;
+}
+
+/* Many log codes at one stage (a DMA buffer): status[i] and out[i] are ltrm_correct_staged of codes[i]. */
+inline void ltrm_correct_block(const ltrm_fixed *c, const ltrm_stage *s, const uint32_t *codes, uint32_t n,
+                                    ltrm_reading *out, ltrm_status *status) {
+    uint32_t i;
+    for (i = 0; i < n; i++) status[i] = ltrm_correct_staged(c, s, codes[i], &out[i]);
+}
+
+inline void ltrm_stage_cache_init(ltrm_stage_cache *k, const ltrm_fixed *c) {
+    uint32_t i;
+    k->cal = c;
+    k->window = LTRM_NO_WINDOW;
+    k->len = 0u;
+    for (i = 0; i < LTRM_STAGE_MEMO; i++) { k->memo_key[i] = 0u; k->memo_theta[i] = 0; }
+    k->code_lo = c->rail_margin + 1u < c->rail_margin ? UINT32_MAX : c->rail_margin + 1u;
+    k->code_hi = c->adc_max_code >= c->rail_margin ? (c->adc_max_code - c->rail_margin > 0u ? c->adc_max_code - c->rail_margin - 1u : 0u) : 0u;
+}
+
+/* Loads window `index` into the cache: 1 when kept, 0 when its row does not fit. */
+static inline ltrm_status ltrm_stage_cache_load(ltrm_stage_cache *k, uint32_t index, int *kept) {
+    const ltrm_fixed *c = k->cal;
+    uint32_t n = (uint32_t)c->xa_knots + 2u, i;
+    ltrm_window w;
+    int32_t lo, hi;
+    ltrm_status st;
+    k->window = LTRM_NO_WINDOW;
+    *kept = 0;
+    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    if (n > LTRM_ROW_CAPACITY) return LTRM_OK;
+    k->len = 0u;
+    for (i = 0; i < n; i++) {
+        if (ltrm_end_column(c, index, i, &lo) != LTRM_OK || ltrm_end_column(c, index + 1u, i, &hi) != LTRM_OK) break;
+        k->row0[i] = lo;
+        k->drow[i] = hi - lo;
+        k->len = i + 1u;
+    }
+    k->values = w;
+    k->window = index;
+    *kept = 1;
+    return LTRM_OK;
+}
+
+static inline ltrm_status ltrm_stage_cache_theta(ltrm_stage_cache *k, uint32_t code, int32_t theta, ltrm_reading *out) {
+    const ltrm_fixed *c = k->cal;
+    uint32_t index, f16, seg, t16, i;
+    ltrm_scalars s;
+    int32_t xa, cols[4];
+    int kept = 1;
+    ltrm_status st;
+    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+    if (index != k->window) {
+        if ((st = ltrm_stage_cache_load(k, index, &kept)) != LTRM_OK) return st;
+        if (!kept) return ltrm_correct_theta(c, code, theta, out);
+    }
+    ltrm_window_at(&k->values, f16, &s);
+    if ((st = ltrm_xa(c, &s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
+    if ((uint64_t)seg + 4u > (uint64_t)k->len) return LTRM_BAD_TABLE;
+    for (i = 0; i < 4u; i++) cols[i] = k->row0[seg + i] + ltrm_mulh16(k->drow[seg + i], f16);
+    if ((st = ltrm_x_finish(c, xa, t16, cols, &out->x)) != LTRM_OK) return st;
+    out->temperature_extrapolated = ltrm_extrapolated(c, theta);
+    return LTRM_OK;
+}
+
+static inline ltrm_status ltrm_stage_cache_check_code(const ltrm_stage_cache *k, uint32_t code) {
+    if (k->code_lo <= code && code <= k->code_hi) return LTRM_OK;
+    return ltrm_check_code(k->cal, code);
+}
+
+/* ltrm_correct_raw through a stage cache. */
+inline ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code,
+                                                   ltrm_reading *out) {
+    uint32_t slot = temp_code % LTRM_STAGE_MEMO;
+    int32_t theta = 0;
+    ltrm_status st = ltrm_stage_cache_check_code(k, code);
+    if (st != LTRM_OK) return st;
+    if (temp_code != UINT32_MAX && k->memo_key[slot] == temp_code + 1u) {
+        theta = k->memo_theta[slot];
+    } else {
+        if ((st = ltrm_theta_from_code(k->cal, temp_code, &theta)) != LTRM_OK) return st;
+        if (temp_code != UINT32_MAX) { k->memo_key[slot] = temp_code + 1u; k->memo_theta[slot] = theta; }
+    }
+    return ltrm_stage_cache_theta(k, code, theta, out);
+}
+
+/* ltrm_correct through a stage cache. */
+inline ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_stage_cache_check_code(k, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_theta_from_millicelsius(k->cal, temp_mc, &theta)) != LTRM_OK) return st;
+    return ltrm_stage_cache_theta(k, code, theta, out);
+}
+
+/* x*c / 2^32 rounded to nearest (ties up), from the exact product's two words. */
+static inline int32_t ltrm_mul_round32(int32_t x, int32_t c) {
+    int32_t h;
+    uint32_t l;
+    ltrm_mul_parts(x, c, &h, &l);
+    return h + (int32_t)(l >> 31);
+}
+
+/* The reading in a unit: Q32 for LTRM_RATIO, Q24 for the others. */
+inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_t *out) {
+    int64_t e;
+    ltrm_status st;
+    switch (unit) {
+    case LTRM_NEPERS: *out = r->x; return LTRM_OK;
+    case LTRM_DECADES: *out = ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
+    case LTRM_DB_POWER: *out = (int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32); return LTRM_OK;
+    case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
+    case LTRM_ABSORBANCE: *out = -(int64_t)ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
+    case LTRM_TRANSMITTANCE_PERCENT:
+        if ((st = ltrm_exp_q32(r->x, &e)) != LTRM_OK) return st;
+        if (e > INT64_MAX / 100) return LTRM_ABOVE_RANGE;
+        *out = (e * 64 + e * 32 + e * 4 + 128) >> 8;
+        return LTRM_OK;
+    case LTRM_RATIO: return ltrm_exp_q32(r->x, out);
+    }
+    return LTRM_BAD_TABLE;
+}
