@@ -54,6 +54,11 @@ pub struct ApplyArgs {
 
 /// Runs the verb.
 pub fn run(args: ApplyArgs) -> Result<(), Failure> {
+    crate::check_outputs(
+        &[Some(&args.coeffs), Some(&args.readings), args.trim.as_deref(), args.blank.as_deref()],
+        &[Some(&args.output)],
+        &[],
+    )?;
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
     let limits = args.limits.limits()?;
@@ -61,7 +66,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         .map_err(crate::trim::layer_failure)?;
     let readings = read_unit_readings(&file, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
     for e in &readings.skipped {
-        eprintln!("skipped: {e}");
+        note!("skipped: {e}");
     }
     let results = match args.path {
         PathArg::F32 => correct_rows_layered(&cal, &readings, Arithmetic::F32, &layers),
@@ -80,7 +85,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     if let Some(t) = layers.trim() {
         let p = t.parts();
-        println!(
+        say!(
             "trim: {} (record {}), x' = g·x + o with g = {:.6}, o = {:+.6} Np",
             p.kind.name(),
             p.info.sequence,
@@ -89,7 +94,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         );
     }
     if let Some(b) = layers.blank() {
-        println!(
+        say!(
             "blank: x = {:+.6} Np at {:.2} °C (record {}, {} readings): values are relative to it",
             b.x(),
             f64::from(b.temp_mc()) / 1000.0,
@@ -98,7 +103,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         );
     }
     let by: Vec<String> = summary.by_error.iter().map(|(k, v)| format!("{v} {k}")).collect();
-    println!(
+    say!(
         "{} rows: {} corrected, {} rejected{}{}; wrote {}",
         summary.rows,
         summary.rows - summary.rejected,

@@ -95,6 +95,7 @@ pub struct BudgetArgs {
 
 /// Runs the verb.
 pub fn run(args: BudgetArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[args.spec.as_deref(), args.design.as_deref()], &[args.write_spec.as_deref()], &[])?;
     let design = match (&args.design, &args.preset) {
         (Some(p), _) => Some(FrontEnd::load(p).map_err(Failure::input)?),
         (None, Some(name)) => Some(preset(name).ok_or_else(|| {
@@ -161,12 +162,12 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
         }
         logtrim_host::output::write_atomic(path, written.to_json().as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
-        eprintln!("wrote {}", path.display());
+        note!("wrote {}", path.display());
     }
     if args.json {
-        print!("{}", budget.to_json());
+        say_raw!("{}", budget.to_json());
     } else {
-        print!("{}", budget.render_table());
+        say_raw!("{}", budget.render_table());
     }
     Ok(())
 }

@@ -75,6 +75,7 @@ pub fn load_tables(
 
 /// Runs `logtrim emit`.
 pub fn run(args: &EmitArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[Some(&args.coeffs)], &[Some(&args.output)], &[])?;
     let (file, tables) = load_tables(&args.coeffs, &args.tables)?;
     let format = match args.format {
         FormatArg::Rust => Format::Rust,
@@ -85,7 +86,7 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
     let text = emit::render(&tables, format, &prov);
     logtrim_host::output::write_atomic(&args.output, text.as_bytes())
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    eprintln!(
+    note!(
         "logtrim: wrote {} ({} bytes of tables, {} of universal tables)",
         args.output.display(),
         tables.bytes(),

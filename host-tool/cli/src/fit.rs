@@ -73,12 +73,12 @@ pub struct FitArgs {
 /// Prints the rows a file skipped (at most 20 of them per file).
 fn report_skipped(skipped: &[(String, Vec<RowError>)]) {
     for (path, rows) in skipped {
-        eprintln!("{path}: skipped {} bad row(s):", rows.len());
+        note!("{path}: skipped {} bad row(s):", rows.len());
         for e in rows.iter().take(20) {
-            eprintln!("  {e}");
+            note!("  {e}");
         }
         if rows.len() > 20 {
-            eprintln!("  … and {} more", rows.len() - 20);
+            note!("  … and {} more", rows.len() - 20);
         }
     }
 }
@@ -108,6 +108,13 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         None => None,
     };
     let opt = options(&args)?;
+    // Every output is checked before anything is written: the calibration file (or the batch's folder)
+    // and the report's folder.
+    let inputs = [Some(args.input.as_path()), args.sensor.as_deref()];
+    crate::check_outputs(&inputs, &[], &[args.report.as_deref()])?;
+    if args.input.is_dir() {
+        crate::check_outputs(&inputs, &[], &[Some(&args.output)])?;
+    }
     let how = ChamberRead {
         adc_bits: args.bits,
         skip_bad_rows: args.skip_bad_rows,
@@ -118,8 +125,10 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     report_skipped(&data.skipped);
     let jobs = data.jobs;
     if let ([job], false) = (jobs.as_slice(), data.folder) {
+        crate::check_outputs(&inputs, &[Some(&args.output)], &[])?;
         return fit_single(job, &opt, sensor.as_ref(), &args);
     }
+    crate::check_outputs(&inputs, &[], &[Some(&args.output)])?;
     std::fs::create_dir_all(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     let bar =
@@ -135,7 +144,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     crate::progress::finish(bar);
     let failed: Vec<_> = results.iter().filter(|r| r.outcome.is_err()).collect();
     match spec {
-        Some(s) if args.model.is_none() => println!(
+        Some(s) if args.model.is_none() => say!(
             "model for the batch (cross-validated on up to {} pilot units): {}",
             logtrim_host::batch::PILOT_UNITS,
             s.to_arg()
@@ -144,7 +153,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     }
     for r in &results {
         match &r.outcome {
-            Ok((json, _)) if !args.quiet || r.note.is_some() => println!(
+            Ok((json, _)) if !args.quiet || r.note.is_some() => say!(
                 "{:<16} ok      worst set-point rms {:.3e} Np, noise floor {}  {}{}",
                 r.serial,
                 r.worst_rms_np.unwrap_or(f64::NAN),
@@ -153,10 +162,10 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
                 r.note.as_ref().map(|n| format!("\n{:<16} note    {n}", "")).unwrap_or_default()
             ),
             Ok(_) => {}
-            Err(why) => println!("{:<16} FAILED  {why}", r.serial),
+            Err(why) => say!("{:<16} FAILED  {why}", r.serial),
         }
     }
-    println!(
+    say!(
         "{} units: {} calibrated, {} failed; files in {}",
         results.len(),
         results.len() - failed.len(),
@@ -179,9 +188,9 @@ fn fit_single(
     let (out, file) = fit_one(job, opt, sensor, crate::stamp::now())
         .map_err(|e| Failure::check(format!("{}: {e}", args.input.display())))?;
     if !args.quiet {
-        print!("{}", render_report(&out));
+        say_raw!("{}", render_report(&out));
         let c = &out.calibration;
-        println!(
+        say!(
             "calibrated range: {:.2} … {:.2} °C, x {:.3} … {:.3} Np (ratio {:.4e} … {:.4e})",
             c.temperature.min_c,
             c.temperature.max_c,
@@ -192,7 +201,7 @@ fn fit_single(
         );
     }
     file.save(&args.output).map_err(Failure::input)?;
-    println!("wrote {} ({} rows, model {})", args.output.display(), job.data.code.len(), out.chosen.to_arg());
+    say!("wrote {} ({} rows, model {})", args.output.display(), job.data.code.len(), out.chosen.to_arg());
     if let Some(dir) = &args.report {
         std::fs::create_dir_all(dir).map_err(|e| Failure::input(format!("{}: {e}", dir.display())))?;
         let source = args.input.display().to_string();
@@ -205,7 +214,7 @@ fn fit_single(
         };
         let written = report.write_to(dir).map_err(Failure::input)?;
         if let Some(page) = written.first() {
-            println!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
+            say!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
         }
     }
     Ok(())

@@ -53,6 +53,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
+    crate::check_outputs(&[Some(&args.coeffs)], &[Some(&args.output)], &[])?;
     let format = match args.format {
         Some(Format::Bin) => ImageFormat::Bin,
         Some(Format::Hex) => ImageFormat::Hex,
@@ -79,7 +80,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         logtrim::Image::parse(&bytes).map_err(|e| Failure::check(format!("built image refused: {e}")))?;
     image_file::load_fixed(&img).map_err(|e| Failure::check(format!("built image's tables refused: {e}")))?;
     if img.serial().is_empty() {
-        eprintln!(
+        note!(
             "logtrim: warning: no serial (neither --serial nor \"unit\" in the file): the image carries none"
         );
     }
@@ -97,7 +98,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
             format!("fixed-point tables {}×{} knots{sensor}", h.t_knots, h.xa_knots)
         }
     };
-    println!(
+    say!(
         "{}: {} byte image ({place}; {fixed}), serial {:?}, sequence {}, CRC-32 {:#010x}",
         args.output.display(),
         img.len(),

@@ -35,10 +35,10 @@ pub fn run(args: Args) -> Result<(), Failure> {
         let mut v = image_file::describe_json(&img);
         v["file"] = serde_json::json!(name);
         v["base_address"] = serde_json::json!(file.base);
-        println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+        say!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
     } else {
-        println!("{name}: {place}");
-        print!("{}", image_file::describe(&img));
+        say!("{name}: {place}");
+        say_raw!("{}", image_file::describe(&img));
     }
     image_file::load_fixed(&img)
         .map_err(|e| Failure::check(format!("{name}: bad fixed-point tables: {e}")))?;

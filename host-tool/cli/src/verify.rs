@@ -96,11 +96,11 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
     let secs = start.elapsed().as_secs_f64();
     if args.json {
         let text = serde_json::to_string_pretty(&report).map_err(Failure::input)?;
-        println!("{text}");
+        say!("{text}");
     } else {
-        println!("{}: {} bytes of fixed-point tables", args.coeffs.display(), tables.bytes());
-        print!("{report}");
-        println!("verified in {secs:.2} s on {} threads", rayon::current_num_threads());
+        say!("{}: {} bytes of fixed-point tables", args.coeffs.display(), tables.bytes());
+        say_raw!("{report}");
+        say!("verified in {secs:.2} s on {} threads", rayon::current_num_threads());
     }
     if report.passed() {
         Ok(())
