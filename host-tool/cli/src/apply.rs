@@ -3,11 +3,10 @@
 use std::path::PathBuf;
 
 use clap::{Args, ValueEnum};
-use logtrim_host::apply::write_results;
+use logtrim_host::apply::ResultsWriter;
 use logtrim_host::calfile::CalFile;
-use logtrim_host::correct::{
-    correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, Arithmetic,
-};
+use logtrim_host::correct::{correct_rows_fixed_layered, correct_rows_layered, sensor_converter, Arithmetic};
+use logtrim_host::data::{open_readings_file, ReadOptions, Readings, TempConverter};
 use logtrim_host::output::AtomicFile;
 use logtrim_host::records::layers_from_files;
 
@@ -24,6 +23,9 @@ pub enum PathArg {
     /// with its default sizes.
     Fixed,
 }
+
+/// Rows corrected (in parallel) and written per chunk.
+const CHUNK_ROWS: usize = 1 << 16;
 
 /// Options of `logtrim apply`.
 #[derive(Args, Debug)]
@@ -64,25 +66,60 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
         .map_err(crate::trim::layer_failure)?;
-    let readings = read_unit_readings(&file, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
-    for e in &readings.skipped {
-        note!("skipped: {e}");
-    }
-    let results = match args.path {
-        PathArg::F32 => correct_rows_layered(&cal, &readings, Arithmetic::F32, &layers),
-        PathArg::F32Micromath => correct_rows_layered(&cal, &readings, Arithmetic::F32Micromath, &layers),
-        PathArg::Fixed => {
-            let tables = file
-                .fixed_tables(&logtrim_host::tables::TableOptions::default())
-                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?;
-            correct_rows_fixed_layered(&tables.view(), &readings, &layers)
-        }
+    let tables = match args.path {
+        PathArg::Fixed => Some(
+            file.fixed_tables(&logtrim_host::tables::TableOptions::default())
+                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?,
+        ),
+        _ => None,
     };
+    // The readings stream through in chunks: memory stays flat in the row count, and the output's
+    // temporary file is removed on any failure or signal.
+    let conv = sensor_converter(&file);
+    let opts = ReadOptions {
+        adc_bits: cal.adc.bits,
+        skip_bad_rows: args.skip_bad_rows,
+        temp_converter: conv.as_ref().map(|c| c as TempConverter<'_>),
+    };
+    let mut stream = open_readings_file(&args.readings, &opts).map_err(Failure::input)?;
+    let name = args.readings.display().to_string();
     let out = AtomicFile::create(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    let mut out = out;
-    let summary = write_results(&readings, &results, &mut out).map_err(Failure::input)?;
+    let mut writer = ResultsWriter::new(stream.headers(), &name, out).map_err(Failure::input)?;
+    loop {
+        let mut rows = Vec::with_capacity(CHUNK_ROWS);
+        while rows.len() < CHUNK_ROWS {
+            match stream.next_row().map_err(Failure::input)? {
+                Some(r) => rows.push(r),
+                None => break,
+            }
+        }
+        if rows.is_empty() {
+            break;
+        }
+        let chunk = Readings {
+            path: name.clone(),
+            headers: stream.headers().to_vec(),
+            columns: stream.columns().clone(),
+            rows,
+            units: stream.units().to_vec(),
+            skipped: Vec::new(),
+        };
+        let results = match &tables {
+            None if args.path == PathArg::F32Micromath => {
+                correct_rows_layered(&cal, &chunk, Arithmetic::F32Micromath, &layers)
+            }
+            None => correct_rows_layered(&cal, &chunk, Arithmetic::F32, &layers),
+            Some(t) => correct_rows_fixed_layered(&t.view(), &chunk, &layers),
+        };
+        writer.write(&chunk, &results).map_err(Failure::input)?;
+    }
+    let skipped = stream.finish().map_err(Failure::input)?;
+    let (summary, out) = writer.finish().map_err(Failure::input)?;
     out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    for e in &skipped {
+        note!("skipped: {e}");
+    }
     if let Some(t) = layers.trim() {
         let p = t.parts();
         say!(
