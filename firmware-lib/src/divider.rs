@@ -24,7 +24,7 @@ use crate::math::Real;
 /// Where the sensor sits in the divider.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Placement {
     /// Sensor between the midpoint and ground, series resistor to the supply: the code rises with R.
@@ -36,6 +36,7 @@ pub enum Placement {
 /// A ratiometric divider read by an ADC.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Divider {
     /// Where the sensor sits.

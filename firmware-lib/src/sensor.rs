@@ -28,7 +28,7 @@ use crate::thermistor::{Beta, SteinhartHart};
 /// The sensing element of a temperature channel.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum SensorElement {
     /// An NTC thermistor by the Beta model.
@@ -80,6 +80,7 @@ impl SensorElement {
 /// The temperature channel of a unit: an element behind a divider, valid over a declared range.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TemperatureSensor {
     /// The sensing element.

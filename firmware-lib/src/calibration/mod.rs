@@ -95,6 +95,7 @@ const MAX_EXP_ARG: f32 = 80.0;
 /// How ADC codes map to the front end's output.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct AdcScaling {
     /// Resolution of the converter in bits (1..=24); codes run from 0 to 2^bits − 1.
@@ -131,6 +132,7 @@ impl AdcScaling {
 /// The temperature range a unit was calibrated over.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TemperatureRange {
     /// Lowest calibrated temperature, °C.
@@ -144,6 +146,7 @@ pub struct TemperatureRange {
 /// The x range a unit was calibrated over.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct XRange {
     /// Lowest calibrated x = ln(I_sig/I_ref).
@@ -157,6 +160,7 @@ pub struct XRange {
 /// A Chebyshev series `Σ c_k T_k(τ)` of at most [`MAX_SERIES`] terms.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Series {
     /// Number of terms in use (0..=MAX_SERIES); a series of 0 terms is zero.
@@ -197,6 +201,7 @@ impl Series {
 /// The bias-current term β(τ) = exp(b₀ + b₁τ).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BiasTerm {
     /// Whether the term is part of the model (β = 0 when off).
@@ -222,6 +227,7 @@ impl BiasTerm {
 /// The generic residual `R(ξ, τ) = Σ r_ij T_i(ξ) T_j(τ)` added to x last.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Residual {
     /// Terms in ξ (0..=MAX_RESIDUAL); 0 switches the residual off.
@@ -250,6 +256,7 @@ impl Residual {
 /// The fitted model of one unit (see the module docs for the equations).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Model {
     /// T_c: centre of the temperature normalisation, °C.
@@ -282,6 +289,7 @@ impl Model {
 /// Everything the firmware needs to correct readings of one unit.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Calibration {
     /// ADC scaling of the log channel.
@@ -297,6 +305,7 @@ pub struct Calibration {
 /// A corrected reading.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Reading {
     /// x = ln(I_sig/I_ref).

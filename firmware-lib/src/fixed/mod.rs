@@ -120,6 +120,7 @@ const X_CLAMP: i64 = 1 << 31;
 /// The scalars of a fixed-point calibration: dimensions, scales, ranges (formats in the module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedHeader {
     /// [`LAYOUT_VERSION`].
@@ -520,6 +521,7 @@ fn collapse(w: &[i64; 4], r: [i64; 4]) -> i64 {
 /// A corrected reading in fixed point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedReading {
     /// x = ln(I_sig/I_ref), Q24.
