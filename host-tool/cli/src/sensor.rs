@@ -338,7 +338,7 @@ fn table(args: &TableArgs) -> Result<(), Failure> {
             say!("wrote {} ({} rows, {from_c} … {to_c} °C)", path.display(), rows.len());
         }
         None => tool::write_table(&rows, format, &header, std::io::stdout().lock())
-            .map_err(|e| Failure::input(format!("writing the table: {e}")))?,
+            .map_err(|e| crate::out::stdout_failure(&e))?,
     }
     Ok(())
 }

@@ -1,0 +1,331 @@
+//! The command under hostile input, signals and full disks: one regression test per finding, each named for
+//! it (`itemNN_…`). Every run that could hang has a timeout guard: a run that does not end in time is
+//! killed and fails its test.
+
+mod common;
+
+use std::io::Write as _;
+use std::os::unix::fs::{symlink, FileTypeExt};
+use std::path::{Path, PathBuf};
+use std::process::{Child, Command, Output, Stdio};
+use std::time::{Duration, Instant};
+
+use common::{s, scratch};
+use logtrim::Calibration;
+use logtrim_host::calfile::CalFile;
+
+/// How long any run here may take before it counts as a hang.
+const TIMEOUT: Duration = Duration::from_secs(60);
+
+/// Waits for `child` at most `limit`; kills it and fails the test if it is still running.
+fn wait_or_kill(mut child: Child, limit: Duration, what: &str) -> Output {
+    let start = Instant::now();
+    loop {
+        if child.try_wait().expect("the child can be waited on").is_some() {
+            return child.wait_with_output().expect("the output can be read");
+        }
+        if start.elapsed() > limit {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("{what}: still running after {limit:?} (a hang)");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    }
+}
+
+fn spawn(args: &[&str], stdout: Stdio) -> Child {
+    Command::new(env!("CARGO_BIN_EXE_logtrim"))
+        .args(args)
+        .stdin(Stdio::null())
+        .stdout(stdout)
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("the binary runs")
+}
+
+/// Runs `logtrim ARGS` with the timeout guard: exit code, stdout, stderr.
+fn run(args: &[&str]) -> (i32, String, String) {
+    let out = wait_or_kill(spawn(args, Stdio::piped()), TIMEOUT, &args.join(" "));
+    let text = |b: &[u8]| String::from_utf8_lossy(b).into_owned();
+    (out.status.code().unwrap_or(-1), text(&out.stdout), text(&out.stderr))
+}
+
+/// A nominal 16-bit unit (3000 codes per neper, ratio 1 at code 32768) as a calibration file.
+fn coeffs(dir: &Path) -> PathBuf {
+    let p = dir.join("C.json");
+    let mut f = CalFile::new(Calibration::nominal(16, 32768.0, 3000.0, 25.0), Some("SN-HOSTILE".into()));
+    f.created_unix_s = 1_764_614_400;
+    f.save(&p).unwrap();
+    p
+}
+
+/// Readings at 25 °C around ratio 1.
+fn readings(dir: &Path, rows: usize) -> PathBuf {
+    let p = dir.join("readings.csv");
+    let mut text = String::from("id,code,temp_c\n");
+    for i in 0..rows {
+        text.push_str(&format!("{i},{},25\n", 30000 + (i % 5000)));
+    }
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+fn no_panic(code: i32, err: &str, what: &str) {
+    assert!(code != 101 && !err.contains("panicked"), "{what}: exit {code}: {err}");
+}
+
+fn temporary_files(dir: &Path) -> Vec<String> {
+    std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.contains(".tmp-"))
+        .collect()
+}
+
+#[test]
+fn item02_fit_on_a_ratio_of_1e308_ends_with_the_line_at_fault() {
+    let d = scratch("h02");
+    for bad in ["1e308", "1e305", "1.7e308", "1e-310"] {
+        let cal = d.join("cal.csv");
+        let mut text = String::from("code,temp_c,ratio\n");
+        for t in [0, 25, 50] {
+            for k in 0..10 {
+                text.push_str(&format!("{},{t},{}\n", 20000 + 3000 * k, (f64::from(k) - 5.0).exp()));
+            }
+        }
+        text.push_str(&format!("40000,25,{bad}\n"));
+        std::fs::write(&cal, text).unwrap();
+        let (code, out, err) = run(&["fit", s(&cal), "-o", s(&d.join("o.json"))]);
+        assert_eq!(code, 2, "{bad}: {out}{err}");
+        assert!(err.contains("line 32") && err.contains("plausible span"), "{bad}: {err}");
+        assert!(!d.join("o.json").exists());
+    }
+}
+
+#[test]
+fn item04_a_device_as_output_is_written_in_place_and_never_replaced() {
+    let d = scratch("h04");
+    let c = coeffs(&d);
+    let (code, out, err) = run(&["image", s(&c), "-o", "/dev/full"]);
+    assert_eq!(code, 2, "{out}{err}");
+    assert!(err.contains("/dev/full") && err.contains("No space left"), "{err}");
+    assert!(!out.contains("wrote"), "{out}");
+    for verb in [vec!["image", s(&c), "-o"], vec!["emit", s(&c), "--format", "c", "-o"]] {
+        for dev in ["/dev/null", "/dev/full"] {
+            let mut args = verb.clone();
+            args.push(dev);
+            let (code, out, err) = run(&args);
+            assert_eq!(code, if dev == "/dev/full" { 2 } else { 0 }, "{args:?}: {out}{err}");
+            let m = std::fs::symlink_metadata(dev).unwrap();
+            assert!(m.file_type().is_char_device(), "{dev} was replaced by {args:?}");
+        }
+    }
+}
+
+/// Every verb, with arguments that make it print, in the folder `d`.
+fn every_verb(d: &Path) -> Vec<Vec<String>> {
+    let c = coeffs(d);
+    let r = readings(d, 50);
+    let img = d.join("u.bin");
+    let (code, _, err) = run(&["image", s(&c), "-o", s(&img)]);
+    assert_eq!(code, 0, "{err}");
+    let blank = d.join("blank.csv");
+    std::fs::write(&blank, "code,temp_c\n32800,25\n32801,25\n").unwrap();
+    let (again, out, t, b) = (d.join("again.bin"), d.join("out.csv"), d.join("t.bin"), d.join("b.bin"));
+    let sets: [&[&str]; 12] = [
+        &["info"],
+        &["simulate", "--list-presets"],
+        &["budget"],
+        &["sensor", "steinhart-hart", "--point", "0:32650", "--point", "25:10000", "--point", "85:1070"],
+        &["sensor", "table", "--rtd", "pt100", "--from", "-50", "--to", "400", "--step", "1"],
+        &["inspect", s(&img)],
+        &["image", s(&c), "-o", s(&again)],
+        &["apply", s(&c), s(&r), "-o", s(&out)],
+        &["trim", s(&c), "--clear", "-o", s(&t)],
+        &["blank", s(&c), s(&blank), "-o", s(&b)],
+        &["verify", s(&c), "--code-stride", "4096", "--temp-stride", "400"],
+        &["inspect", s(&img), "--json"],
+    ];
+    sets.iter().map(|a| a.iter().map(|w| w.to_string()).collect()).collect()
+}
+
+#[test]
+fn item05_a_full_device_on_standard_output_is_a_clean_error_in_every_verb() {
+    let d = scratch("h05full");
+    for args in every_verb(&d) {
+        let args: Vec<&str> = args.iter().map(String::as_str).collect();
+        let full = std::fs::OpenOptions::new().write(true).open("/dev/full").unwrap();
+        let out = wait_or_kill(spawn(&args, Stdio::from(full)), TIMEOUT, &args.join(" "));
+        let (code, err) = (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
+        no_panic(code, &err, &args.join(" "));
+        assert_eq!(code, 2, "{args:?}: {err}");
+        assert!(err.contains("writing to standard output"), "{args:?}: {err}");
+    }
+}
+
+#[test]
+fn item05_a_closed_pipe_ends_quietly_in_every_verb() {
+    let d = scratch("h05pipe");
+    for args in every_verb(&d) {
+        let args: Vec<&str> = args.iter().map(String::as_str).collect();
+        let mut child = spawn(&args, Stdio::piped());
+        // The reader goes away at once, as `head` does after its lines.
+        drop(child.stdout.take());
+        let out = wait_or_kill(child, TIMEOUT, &args.join(" "));
+        let (code, err) = (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
+        no_panic(code, &err, &args.join(" "));
+        assert_eq!(code, 141, "{args:?}: {err}");
+        assert!(err.is_empty(), "{args:?}: a closed pipe is not an error to report: {err}");
+    }
+    // The files of verbs that write one are whole.
+    let text = std::fs::read_to_string(d.join("out.csv")).unwrap();
+    assert_eq!(text.lines().count(), 51, "{text}");
+}
+
+#[test]
+fn item06_a_failed_output_leaves_no_temporary_file() {
+    let d = scratch("h06");
+    let c = coeffs(&d);
+    let taken = d.join("taken");
+    std::fs::create_dir(&taken).unwrap();
+    std::fs::write(taken.join("keep"), b"x").unwrap();
+    for args in [
+        vec!["image", s(&c), "-o", s(&taken)],
+        vec!["emit", s(&c), "--format", "json", "-o", s(&taken)],
+        vec!["trim", s(&c), "--clear", "-o", s(&taken)],
+    ] {
+        let (code, out, err) = run(&args);
+        assert_eq!(code, 2, "{args:?}: {out}{err}");
+        assert!(err.contains("is a folder"), "{args:?}: {err}");
+        assert!(temporary_files(&d).is_empty(), "{args:?}: {:?}", temporary_files(&d));
+    }
+}
+
+/// Starts `apply` on a large file, waits until its temporary output exists, sends `signal`, and checks the
+/// exit code and that nothing is left behind.
+fn interrupt_apply(signal: &str, want: i32) {
+    let d = scratch(&format!("h06{signal}"));
+    let c = coeffs(&d);
+    let r = readings(&d, 1_500_000);
+    let out = d.join("out.csv");
+    let child = spawn(&["apply", s(&c), s(&r), "-o", s(&out)], Stdio::piped());
+    let start = Instant::now();
+    while temporary_files(&d).is_empty() {
+        assert!(start.elapsed() < TIMEOUT, "no temporary file appeared");
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    let status = Command::new("kill").args([&format!("-{signal}"), &child.id().to_string()]).status().unwrap();
+    assert!(status.success());
+    let o = wait_or_kill(child, TIMEOUT, "interrupted apply");
+    assert_eq!(o.status.code(), Some(want), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(temporary_files(&d).is_empty(), "{:?}", temporary_files(&d));
+    assert!(!out.exists());
+}
+
+#[test]
+fn item06_sigterm_during_apply_removes_the_temporary_file() {
+    interrupt_apply("TERM", 143);
+}
+
+#[test]
+fn item06_sigint_during_apply_removes_the_temporary_file() {
+    interrupt_apply("INT", 130);
+}
+
+#[test]
+fn item07_a_typo_inside_calibration_is_refused_by_every_verb() {
+    let d = scratch("h07");
+    let c = coeffs(&d);
+    let typo = d.join("typo.json");
+    let text = std::fs::read_to_string(&c).unwrap().replace("\"extrapolation_k\"", "\"extrapolate_k\"");
+    std::fs::write(&typo, text).unwrap();
+    let r = readings(&d, 3);
+    for args in [
+        vec!["apply", s(&typo), s(&r), "-o", s(&d.join("o.csv"))],
+        vec!["image", s(&typo), "-o", s(&d.join("o.bin"))],
+        vec!["emit", s(&typo), "--format", "c", "-o", s(&d.join("o.h"))],
+        vec!["verify", s(&typo)],
+        vec!["trim", s(&typo), "--clear", "-o", s(&d.join("t.bin"))],
+        vec!["blank", s(&typo), s(&r), "-o", s(&d.join("b.bin"))],
+    ] {
+        let (code, out, err) = run(&args);
+        assert_eq!(code, 2, "{args:?}: {out}{err}");
+        assert!(err.contains("typo.json") && err.contains("unknown field `extrapolate_k`"), "{args:?}: {err}");
+    }
+}
+
+#[test]
+fn item09_an_output_that_is_an_input_is_refused_before_anything_is_written() {
+    let d = scratch("h09");
+    let c = coeffs(&d);
+    let before = std::fs::read(&c).unwrap();
+    let hard = d.join("hard.json");
+    std::fs::hard_link(&c, &hard).unwrap();
+    let soft = d.join("soft.json");
+    symlink(&c, &soft).unwrap();
+    let r = readings(&d, 3);
+    for out in [&c, &hard, &soft] {
+        for args in [
+            vec!["image", s(&c), "-o", s(out)],
+            vec!["emit", s(&c), "--format", "rust", "-o", s(out)],
+            vec!["trim", s(&c), "--clear", "-o", s(out)],
+            vec!["blank", s(&c), s(&r), "-o", s(out)],
+            vec!["apply", s(&c), s(&r), "-o", s(out)],
+        ] {
+            let (code, stdout, err) = run(&args);
+            assert_eq!(code, 2, "{args:?}: {stdout}{err}");
+            assert!(err.contains("never overwritten"), "{args:?}: {err}");
+            assert_eq!(std::fs::read(&c).unwrap(), before, "{args:?} changed the calibration");
+        }
+    }
+    let (code, _, err) = run(&["apply", s(&c), s(&r), "-o", s(&r)]);
+    assert_eq!(code, 2, "{err}");
+    assert!(std::fs::read_to_string(&r).unwrap().starts_with("id,code,temp_c\n"));
+}
+
+#[test]
+fn also_noted_a_symlink_output_is_followed_and_stays_a_link() {
+    let d = scratch("hlink");
+    let c = coeffs(&d);
+    let link = d.join("unit.bin");
+    symlink("real.bin", &link).unwrap();
+    let (code, out, err) = run(&["image", s(&c), "-o", s(&link)]);
+    assert_eq!(code, 0, "{out}{err}");
+    assert!(std::fs::symlink_metadata(&link).unwrap().file_type().is_symlink());
+    assert!(std::fs::metadata(d.join("real.bin")).unwrap().len() > 100);
+}
+
+#[test]
+fn also_noted_an_endless_input_is_refused_with_memory_bounded() {
+    let d = scratch("hzero");
+    let c = coeffs(&d);
+    let (code, out, err) = run(&["apply", s(&c), "/dev/zero", "-o", s(&d.join("o.csv"))]);
+    assert_eq!(code, 2, "{out}{err}");
+    assert!(err.contains("/dev/zero") && !err.contains('\0'), "{err:?}");
+    let (code, out, err) = run(&["fit", "/dev/zero", "-o", s(&d.join("o.json"))]);
+    assert_eq!(code, 2, "{out}{err}");
+    // An endless text line: refused after 1 MiB.
+    let mut child = Command::new(env!("CARGO_BIN_EXE_logtrim"))
+        .args(["apply", s(&c), "/dev/stdin", "-o", s(&d.join("o.csv"))])
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut stdin = child.stdin.take().unwrap();
+    let feeder = std::thread::spawn(move || {
+        let _ = stdin.write_all(b"code,temp_c\n");
+        let chunk = [b'9'; 65536];
+        for _ in 0..1024 {
+            if stdin.write_all(&chunk).is_err() {
+                break;
+            }
+        }
+    });
+    let o = wait_or_kill(child, TIMEOUT, "apply of an endless line");
+    feeder.join().unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{err}");
+    assert!(err.contains("without the end of a row"), "{err}");
+    assert!(temporary_files(&d).is_empty());
+}
