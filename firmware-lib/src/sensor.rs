@@ -236,7 +236,8 @@ mod tests {
         let s = ntc_channel();
         assert_eq!(s.celsius(4095), Err(Error::Sensor(SensorFault::Open)));
         assert_eq!(s.celsius(3), Err(Error::Sensor(SensorFault::Short)));
-        assert_eq!(s.celsius(5000), Err(Error::CodeOutOfAdcRange { code: 5000, max: 4095 }));
+        // A code beyond the channel's 12-bit converter continues its top code's band (open, low side).
+        assert_eq!(s.celsius(5000), Err(Error::Sensor(SensorFault::Open)));
         // Code 4000 is 10 kΩ·4000/96 ≈ 417 kΩ: about −40.5 °C, below the declared −40 °C.
         assert_eq!(s.celsius(4000), Err(Error::Sensor(SensorFault::OutOfModelRange)));
         assert_eq!(s.celsius_f64(4000), Err(Error::Sensor(SensorFault::OutOfModelRange)));

@@ -66,6 +66,11 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
         .map_err(crate::trim::layer_failure)?;
+    for kind in logtrim_host::records::unbound_records(&layers) {
+        note!(
+            "logtrim: warning: the {kind} record is bound to no calibration (factory fingerprint 0): it is applied to this one unchecked; records made by `logtrim {kind}` are bound to theirs"
+        );
+    }
     let tables = match args.path {
         PathArg::Fixed => Some(
             file.fixed_tables(&logtrim_host::tables::TableOptions::default())

@@ -2,6 +2,7 @@
 
 use std::path::PathBuf;
 
+use clap::builder::TypedValueParser as _;
 use clap::{Args, ValueEnum};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::emit::{self, Format, Provenance};
@@ -13,13 +14,16 @@ use crate::Failure;
 #[derive(Args, Debug, Clone)]
 pub struct TableArgs {
     /// Knots of the temperature grid.
-    #[arg(long, default_value_t = TableOptions::default().t_knots)]
+    #[arg(long, default_value_t = TableOptions::default().t_knots,
+          value_parser = clap::value_parser!(u16).range(4..=1000).map(usize::from))]
     pub t_knots: usize,
     /// Knots of the residual's x̃ grid.
-    #[arg(long, default_value_t = TableOptions::default().xa_knots)]
+    #[arg(long, default_value_t = TableOptions::default().xa_knots,
+          value_parser = clap::value_parser!(u16).range(4..=4000).map(usize::from))]
     pub xa_knots: usize,
     /// Largest number of segments of a temperature-sensor table.
-    #[arg(long, default_value_t = TableOptions::default().sensor_segments)]
+    #[arg(long, default_value_t = TableOptions::default().sensor_segments,
+          value_parser = clap::value_parser!(u32).range(1..=65536).map(|n| n as usize))]
     pub sensor_segments: usize,
 }
 

@@ -12,7 +12,9 @@ use logtrim_host::fit::model::Spec;
 use logtrim_host::fit::{render_report, FitOptions};
 use logtrim_host::sensor_tool::load_settings;
 
+use crate::values::{real, Span};
 use crate::Failure;
+use logtrim::calibration::MAX_SERIES;
 
 /// Options of `logtrim fit`.
 #[derive(Args, Debug)]
@@ -36,24 +38,28 @@ pub struct FitArgs {
     skip_bad_rows: bool,
     /// Fix the model size instead of choosing it by cross-validation, e.g.
     /// offset=3,slope=2,bulk=1,pole,bias,residual=3x2.
-    #[arg(long, value_name = "TERMS")]
-    model: Option<String>,
+    #[arg(long, value_name = "TERMS", value_parser = parse_model)]
+    model: Option<Spec>,
     /// Most Chebyshev terms of any series over temperature the search may use.
-    #[arg(long, default_value_t = FitOptions::default().max_series, value_name = "N")]
-    max_terms: usize,
+    #[arg(long, default_value_t = FitOptions::default().max_series as u8, value_name = "N",
+          value_parser = clap::value_parser!(u8).range(1..=MAX_SERIES as i64))]
+    max_terms: u8,
     /// A gap in measured temperature larger than this (K) separates two chamber set-points.
-    #[arg(long, default_value_t = FitOptions::default().setpoint_gap_k, value_name = "K")]
+    #[arg(long, default_value_t = FitOptions::default().setpoint_gap_k, value_name = "K",
+          allow_negative_numbers = true, value_parser = real(Span::above(0.0, 1000.0)))]
     setpoint_gap: f64,
     /// Refuse readings where the front end's sensitivity has fallen below this fraction of ideal
     /// (where bias current swamps the signal).
-    #[arg(long, default_value_t = FitOptions::default().min_sensitivity, value_name = "FRACTION")]
+    #[arg(long, default_value_t = FitOptions::default().min_sensitivity, value_name = "FRACTION",
+          allow_negative_numbers = true, value_parser = real(Span::below(0.0, 1.0)))]
     min_sensitivity: f64,
     /// Widen the calibrated x range by this much at each end, nepers (default: four times the rms error
     /// of the readings at that end, at most 0.05, so noise alone does not push an end reading out).
-    #[arg(long, value_name = "NEPERS")]
+    #[arg(long, value_name = "NEPERS", allow_negative_numbers = true, value_parser = real(Span::closed(0.0, 1.0)))]
     x_margin: Option<f64>,
     /// Allow (and flag) readings up to this far outside the calibrated temperature range, K.
-    #[arg(long, default_value_t = 0.0, value_name = "K")]
+    #[arg(long, default_value_t = 0.0, value_name = "K", allow_negative_numbers = true,
+          value_parser = real(Span::closed(0.0, 100.0)))]
     extrapolate: f64,
     /// Codes within this many of an ADC rail are refused as saturated (default 2^(bits−13), at least 1).
     #[arg(long, value_name = "CODES")]
@@ -83,16 +89,27 @@ fn report_skipped(skipped: &[(String, Vec<RowError>)]) {
     }
 }
 
+fn parse_model(text: &str) -> Result<Spec, String> {
+    Spec::parse(text)
+}
+
 fn options(args: &FitArgs) -> Result<FitOptions, Failure> {
-    let spec = match &args.model {
-        Some(m) => Some(Spec::parse(m).map_err(|e| Failure::input(format!("--model: {e}")))?),
-        None => None,
-    };
+    // The rail margin's range depends on --bits: codes within it of either rail are refused, so at least
+    // one code must lie between the two bands.
+    if let Some(m) = args.rail_margin {
+        let most = ((1u32 << args.bits) - 1).saturating_sub(1) / 2;
+        if m > most {
+            return Err(Failure::input(format!(
+                "--rail-margin {m}: expected 0..={most} codes for a {}-bit converter (--bits): a larger margin leaves no usable code",
+                args.bits
+            )));
+        }
+    }
     Ok(FitOptions {
         bits: args.bits,
         setpoint_gap_k: args.setpoint_gap,
-        spec,
-        max_series: args.max_terms,
+        spec: args.model,
+        max_series: usize::from(args.max_terms),
         rail_margin: args.rail_margin,
         min_sensitivity: args.min_sensitivity,
         x_margin: args.x_margin,

@@ -5,6 +5,7 @@
 
 use std::path::PathBuf;
 
+use clap::builder::TypedValueParser as _;
 use clap::ValueEnum;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::image_file::{self, ImageFormat};
@@ -39,7 +40,8 @@ pub struct Args {
     #[arg(long, value_name = "A")]
     pub base_address: Option<String>,
     /// Bytes per Intel HEX data record: 16 or 32.
-    #[arg(long, value_name = "N", default_value_t = 16)]
+    #[arg(long, value_name = "N", default_value_t = 16,
+          value_parser = clap::builder::PossibleValuesParser::new(["16", "32"]).map(|s| s.parse::<usize>().unwrap_or(16)))]
     pub record_len: usize,
     /// Sequence counter of the image; of two valid A/B slots the firmware uses the higher one.
     #[arg(long, value_name = "N", default_value_t = 1)]

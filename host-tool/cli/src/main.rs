@@ -27,6 +27,7 @@ mod sensor;
 mod simulate;
 mod stamp;
 mod trim;
+mod values;
 mod verify;
 
 /// Calibrate log-ratio front ends on the production line, and check the firmware that reads them.

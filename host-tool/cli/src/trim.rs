@@ -12,6 +12,7 @@ use logtrim_host::data::Readings;
 use logtrim_host::records::LayerError;
 use logtrim_host::tables::{FixedTables, TableOptions};
 
+use crate::values::{real, real32, Span, CELSIUS};
 use crate::Failure;
 
 /// The header of a record that a verb writes.
@@ -41,13 +42,13 @@ impl RecordArgs {
 #[derive(Args, Debug)]
 pub struct LimitArgs {
     /// Largest trim offset |o|, in nepers (0.05 Np = 0.217 dB of a power ratio = 0.0217 AU).
-    #[arg(long, value_name = "NP", default_value_t = 0.05)]
+    #[arg(long, value_name = "NP", default_value_t = 0.05, value_parser = real32(Span::above(0.0, 100.0)))]
     max_trim_offset: f32,
     /// Largest trim gain error |g − 1| (0.02 = 2 %).
-    #[arg(long, value_name = "FRACTION", default_value_t = 0.02)]
+    #[arg(long, value_name = "FRACTION", default_value_t = 0.02, value_parser = real32(Span::above(0.0, 0.99)))]
     max_trim_gain_error: f32,
     /// Smallest separation of two standards as read, in nepers.
-    #[arg(long, value_name = "NP", default_value_t = 0.5)]
+    #[arg(long, value_name = "NP", default_value_t = 0.5, value_parser = real32(Span::above(0.0, 100.0)))]
     min_standard_separation: f32,
 }
 
@@ -81,7 +82,8 @@ pub struct TrimArgs {
     #[arg(long, conflicts_with = "standards")]
     clear: bool,
     /// Temperature recorded with a cleared trim, °C.
-    #[arg(long, value_name = "C", default_value_t = 25.0, requires = "clear")]
+    #[arg(long, value_name = "C", default_value_t = 25.0, requires = "clear", allow_negative_numbers = true,
+          value_parser = real(CELSIUS))]
     clear_temp: f64,
     /// The unit the errors are also shown in (ln_ratio, decades, db_power, db_amplitude, absorbance, …).
     #[arg(long, value_name = "UNIT", default_value = "db_power")]
