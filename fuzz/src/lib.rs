@@ -357,3 +357,96 @@ pub fn check_cli_values(data: &[u8]) {
         assert_eq!(logtrim_host::fit::model::Spec::parse(&spec.to_arg()), Ok(spec));
     }
 }
+
+/// The driver of the C differential: reads `m CODE MILLICELSIUS` or `r CODE TEMP_CODE` lines and prints the
+/// status and x of the emitted evaluator.
+const C_DRIVER: &str = r#"
+#include <stdio.h>
+#include "unit.h"
+int main(void) {
+    char kind;
+    unsigned long code;
+    long long t;
+    while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
+        lt_reading r;
+        lt_status st = kind == 'm' ? lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r)
+                                   : lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
+        if (st == LT_OK) printf("%d %ld\n", (int)st, (long)r.x); else printf("%d\n", (int)st);
+    }
+    return 0;
+}
+"#;
+
+thread_local! {
+    /// The last emitted header and its compiled driver (recompiled only when the tables change).
+    static C_BUILD: RefCell<Option<(String, std::path::PathBuf)>> = const { RefCell::new(None) };
+}
+
+/// A calibration file (up to the first NUL byte) and readings (the bytes after it): the C evaluator that
+/// `logtrim emit --format c` writes, compiled with the system's C compiler, gives the same status and the
+/// same x as the Rust fixed path on every reading.
+pub fn check_c_differential(data: &[u8]) {
+    use logtrim_host::calfile::CalFile;
+    use logtrim_host::emit::{self, Format, Provenance};
+    use logtrim_host::tables::TableOptions;
+    use std::io::Write as _;
+    let cut = data.iter().position(|&b| b == 0).unwrap_or(data.len());
+    let (json, rest) = data.split_at(cut);
+    let Ok(text) = std::str::from_utf8(json) else { return };
+    let Ok(file) = CalFile::from_json(text, "fuzz.json") else { return };
+    let Ok(tables) = file.fixed_tables(&TableOptions::default()) else { return };
+    let view = tables.view();
+    let header = emit::render(&tables, Format::C, &Provenance::default());
+    let exe = C_BUILD.with(|b| {
+        let mut b = b.borrow_mut();
+        if let Some((h, exe)) = b.as_ref() {
+            if *h == header {
+                return exe.clone();
+            }
+        }
+        let dir = std::env::temp_dir().join(format!("logtrim-fuzz-c-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).expect("a scratch folder");
+        std::fs::write(dir.join("unit.h"), &header).expect("the header is written");
+        std::fs::write(dir.join("driver.c"), C_DRIVER).expect("the driver is written");
+        let exe = dir.join("driver");
+        let out = std::process::Command::new(std::env::var("CC").unwrap_or_else(|_| "cc".into()))
+            .args(["-std=c99", "-O1", "-Wall", "-Werror", "-o"])
+            .arg(&exe)
+            .arg(dir.join("driver.c"))
+            .output()
+            .expect("a C compiler runs");
+        assert!(out.status.success(), "the emitted C does not compile:\n{}", String::from_utf8_lossy(&out.stderr));
+        *b = Some((header, exe.clone()));
+        exe
+    });
+    // Readings: 8 bytes each, code and temperature (m°C, or a raw code with a sensor table).
+    let raw = view.sensor.is_some();
+    let mut input = String::new();
+    let mut want = Vec::new();
+    for chunk in rest.chunks_exact(8).take(256) {
+        let code = u32::from_le_bytes([chunk[0], chunk[1], chunk[2], chunk[3]]);
+        let t = i32::from_le_bytes([chunk[4], chunk[5], chunk[6], chunk[7]]);
+        let r = if raw { view.correct_raw(code, t as u32) } else { view.correct(code, t) };
+        let t_text = if raw { (t as u32).to_string() } else { t.to_string() };
+        input.push_str(&format!("{} {code} {t_text}\n", if raw { 'r' } else { 'm' }));
+        want.push(match r {
+            Ok(r) => format!("0 {}", r.x),
+            Err(_) => emit::c::status_code(&r).to_string(),
+        });
+    }
+    if want.is_empty() {
+        return;
+    }
+    let mut child = std::process::Command::new(&exe)
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .expect("the driver runs");
+    child.stdin.take().expect("stdin").write_all(input.as_bytes()).expect("readings are written");
+    let out = child.wait_with_output().expect("the driver ends");
+    let got: Vec<&str> = std::str::from_utf8(&out.stdout).expect("text").lines().collect();
+    assert_eq!(got.len(), want.len(), "the driver answered {} of {} readings", got.len(), want.len());
+    for ((g, w), line) in got.iter().zip(&want).zip(input.lines()) {
+        assert_eq!(g, w, "C and Rust differ at {line}");
+    }
+}
