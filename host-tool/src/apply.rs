@@ -100,7 +100,11 @@ impl<W: Write> ResultsWriter<W> {
     }
 
     /// Writes rows (a chunk of the input, or all of it) with their results, in order.
-    pub fn write(&mut self, readings: &Readings, results: &[Result<RowValue, Error>]) -> Result<(), ApplyError> {
+    pub fn write(
+        &mut self,
+        readings: &Readings,
+        results: &[Result<RowValue, Error>],
+    ) -> Result<(), ApplyError> {
         let summary = &mut self.summary;
         summary.rows += readings.rows.len();
         let rec = &mut self.rec;

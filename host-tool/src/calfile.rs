@@ -233,7 +233,11 @@ mod tests {
         // A typo such as `extrapolate_k` inside `calibration` once passed every verb silently.
         let mut f = CalFile::new(Calibration::nominal(16, 32768.0, 2000.0, 25.0), Some("SN-1".into()));
         f.temperature_sensor = Some(logtrim::TemperatureSensor {
-            element: logtrim::SensorElement::NtcBeta(logtrim::Beta { r0_ohm: 1e4, t0_c: 25.0, beta_k: 3950.0 }),
+            element: logtrim::SensorElement::NtcBeta(logtrim::Beta {
+                r0_ohm: 1e4,
+                t0_c: 25.0,
+                beta_k: 3950.0,
+            }),
             divider: logtrim::Divider::ratiometric(logtrim::Placement::LowSide, 1e4, 12),
             min_c: -40.0,
             max_c: 125.0,

@@ -511,6 +511,9 @@ pub fn open_readings_file<'o>(
     ReadingsStream::open(open_file(path)?, &path.display().to_string(), opts)
 }
 
+/// What [`read_rows`] gives back: the source (for its header), the good rows and the skipped ones.
+type RowsRead<'o, R, T> = (Source<'o, R>, Vec<T>, Vec<RowError>);
+
 /// Every row of a file as `row` reads it: a bad row is an error, or skipped and kept when the options say
 /// so; a file without a good row is an error.
 fn read_rows<'o, R: io::Read, T>(
@@ -520,7 +523,7 @@ fn read_rows<'o, R: io::Read, T>(
     expected: &'static str,
     need_ratio: bool,
     mut row: impl FnMut(&mut Source<'o, R>, &ByteRecord, u64) -> Result<T, Box<RowError>>,
-) -> Result<(Source<'o, R>, Vec<T>, Vec<RowError>), DataError> {
+) -> Result<RowsRead<'o, R, T>, DataError> {
     let mut src = Source::open(reader, path, opts, expected, need_ratio)?;
     let mut rows = Vec::new();
     let mut skipped = Vec::new();
@@ -836,8 +839,9 @@ impl<'o, R: io::Read> Source<'o, R> {
 
     fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<RowError>> {
         let (lo, hi) = RATIO_SPAN;
-        plausible_positive(field(rec, c))
-            .map_err(|p| self.err(rec, c, p, format!("a positive finite ratio I_sig/I_ref within {lo:e} … {hi:e}")))
+        plausible_positive(field(rec, c)).map_err(|p| {
+            self.err(rec, c, p, format!("a positive finite ratio I_sig/I_ref within {lo:e} … {hi:e}"))
+        })
     }
 
     fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<RowError>> {
@@ -913,7 +917,10 @@ fn csv_error(path: &str, e: &csv::Error, lines: &mut LineCounter, window: &RefCe
             let line = lines.line + 1 + newlines as u64;
             return DataError::Csv { path: path.to_string(), line, message: LineTooLong.to_string() };
         }
-        return DataError::File(FileError::Io { path: path.to_string(), source: io::Error::new(io.kind(), io.to_string()) });
+        return DataError::File(FileError::Io {
+            path: path.to_string(),
+            source: io::Error::new(io.kind(), io.to_string()),
+        });
     }
     DataError::Csv { path: path.to_string(), line, message: printable(&e.to_string()) }
 }

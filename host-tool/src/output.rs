@@ -124,10 +124,7 @@ enum Dest {
     /// A regular file (existing or not) at this path, symbolic links resolved: written atomically.
     Regular(PathBuf),
     /// A character device or FIFO: written in place.
-    InPlace {
-        path: PathBuf,
-        fifo: bool,
-    },
+    InPlace { path: PathBuf, fifo: bool },
 }
 
 fn unusable(reason: impl Into<String>) -> io::Error {

@@ -360,7 +360,10 @@ const MAX_EXAMPLES: usize = 10;
 /// file's unit (every code of its raw temperature channel, if it has one).
 pub fn plan(file: &CalFile, opts: &VerifyOptions) -> Result<(u64, u64), VerifyError> {
     file.calibration.validate().map_err(VerifyError::Calibration)?;
-    if opts.code_stride == 0 || opts.temp_stride == 0 || !(opts.temp_step_k > 0.0 && opts.temp_step_k.is_finite()) {
+    if opts.code_stride == 0
+        || opts.temp_stride == 0
+        || !(opts.temp_step_k > 0.0 && opts.temp_step_k.is_finite())
+    {
         return Err(VerifyError::Option { name: "stride", message: "must be ≥ 1".into() });
     }
     let max_code = file.calibration.adc.max_code().map_err(VerifyError::Calibration)?;

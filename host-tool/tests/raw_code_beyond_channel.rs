@@ -14,7 +14,11 @@ fn unit(placement: Placement, open: u32, short: u32) -> CalFile {
     let mut f = CalFile::new(cal, Some("RAW-1".into()));
     f.temperature_sensor = Some(TemperatureSensor {
         element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
-        divider: Divider { open_margin: open, short_margin: short, ..Divider::ratiometric(placement, 10_000.0, 12) },
+        divider: Divider {
+            open_margin: open,
+            short_margin: short,
+            ..Divider::ratiometric(placement, 10_000.0, 12)
+        },
         min_c: -40.0,
         max_c: 125.0,
     });

@@ -397,7 +397,8 @@ impl Calibration {
         {
             return bad(D::Normalisation);
         }
-        let series_ok = |s: &Series| usize::from(s.len) <= MAX_SERIES && s.coeffs.iter().all(|c| c.is_finite());
+        let series_ok =
+            |s: &Series| usize::from(s.len) <= MAX_SERIES && s.coeffs.iter().all(|c| c.is_finite());
         let r = &m.residual;
         let residual_ok = usize::from(r.nx) <= MAX_RESIDUAL
             && usize::from(r.nt) <= MAX_RESIDUAL
@@ -420,7 +421,8 @@ impl Calibration {
         }
         if m.bias.enabled {
             // β(τ) = exp(b₀ + b₁τ) stays within f32 over the range.
-            let top = f64::from(m.bias.ln_beta0) + libm::fabs(f64::from(m.bias.ln_beta1)) * libm::fmax(libm::fabs(taus.0), libm::fabs(taus.1));
+            let top = f64::from(m.bias.ln_beta0)
+                + libm::fabs(f64::from(m.bias.ln_beta1)) * libm::fmax(libm::fabs(taus.0), libm::fabs(taus.1));
             if !(top < 60.0) {
                 return bad(D::Coefficient);
             }

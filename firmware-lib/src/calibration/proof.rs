@@ -92,14 +92,20 @@ impl Poly {
 
     /// `Σ_{j≥2} |a_j| j(j−1) r^(j−2)`: a bound of |P''| on [−r, r].
     fn curvature(&self, r: f64) -> f64 {
-        self.a.iter().enumerate().skip(2).rev().fold(0.0, |acc, (j, &c)| acc * r + libm::fabs(c) * (j * (j - 1)) as f64)
+        self.a
+            .iter()
+            .enumerate()
+            .skip(2)
+            .rev()
+            .fold(0.0, |acc, (j, &c)| acc * r + libm::fabs(c) * (j * (j - 1)) as f64)
     }
 
     /// Bounds of P on [u, v]: (lower, upper).
     fn bounds(&self, u: f64, v: f64) -> (f64, f64) {
         let (m, h) = (0.5 * (u + v), 0.5 * (v - u));
         let r = libm::fmax(libm::fabs(u), libm::fabs(v));
-        let spread = libm::fabs(self.derivative(m)) * h + 0.5 * self.curvature(r) * h * h + 1e-12 * self.magnitude(r);
+        let spread =
+            libm::fabs(self.derivative(m)) * h + 0.5 * self.curvature(r) * h * h + 1e-12 * self.magnitude(r);
         let p = self.eval(m);
         (p - spread, p + spread)
     }

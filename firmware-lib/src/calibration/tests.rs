@@ -388,7 +388,9 @@ fn a_slope_positive_at_three_points_but_negative_between_them_is_refused() {
     // A dip to zero only inside the extrapolation band is found too.
     c.temperature.extrapolation_k = 30.0;
     c.model.slope = Series::from_slice(&[3000.0, 0.0, 0.0, 0.0, 0.0, 100.0]).unwrap();
-    assert!(c.validate().is_ok() || c.validate() == Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)));
+    assert!(
+        c.validate().is_ok() || c.validate() == Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope))
+    );
     if c.validate().is_ok() {
         never_invalid(&c);
     }
@@ -440,13 +442,19 @@ fn each_defect_is_named_for_what_it_is() {
     use CalibrationDefect as D;
     assert_eq!(defect(&|c| c.adc.level_shift_code = f32::INFINITY), D::LevelShift);
     assert_eq!(defect(&|c| c.adc.level_shift_code = 1e30), D::LevelShift);
-    assert_eq!(defect(&|c| c.x_range = XRange { min: -200.0, max: 200.0, min_sensitivity: 0.1 }), D::XRangeLimit);
+    assert_eq!(
+        defect(&|c| c.x_range = XRange { min: -200.0, max: 200.0, min_sensitivity: 0.1 }),
+        D::XRangeLimit
+    );
     assert_eq!(defect(&|c| c.model.pole = -0.98), D::Pole);
     // An unused coefficient that is not finite is refused by the one validation (as the image refuses it).
     assert_eq!(defect(&|c| c.model.offset.coeffs[5] = f32::INFINITY), D::Coefficient);
     assert_eq!(defect(&|c| c.model.residual.coeffs[15] = f32::NAN), D::Coefficient);
     // A term beyond what f32 evaluates over the range.
-    assert_eq!(defect(&|c| c.model.offset = Series::from_slice(&[0.0, 0.0, 0.0, 0.0, 0.0, 3e38]).unwrap()), D::Coefficient);
+    assert_eq!(
+        defect(&|c| c.model.offset = Series::from_slice(&[0.0, 0.0, 0.0, 0.0, 0.0, 3e38]).unwrap()),
+        D::Coefficient
+    );
     assert_eq!(defect(&|c| c.temperature.max_c = 5000.0), D::TemperatureRange);
     for d in [D::LevelShift, D::XRangeLimit, D::Pole, D::NotMonotone] {
         assert!(!std::format!("{d}").is_empty());

@@ -35,7 +35,10 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
     let serial = file.unit.clone().unwrap_or_else(|| "(no serial)".into());
     say!(
         "unit {serial}, calibration {:#010x}: blank of {} readings at {:.2} °C, spread {:.5} Np rms",
-        b.info.factory, b.samples, out.temp_c, out.spread_np
+        b.info.factory,
+        b.samples,
+        out.temp_c,
+        out.spread_np
     );
     let x = b.x;
     say!(

@@ -96,7 +96,11 @@ pub struct BudgetArgs {
 
 /// Runs the verb.
 pub fn run(args: BudgetArgs) -> Result<(), Failure> {
-    crate::check_outputs(&[args.spec.as_deref(), args.design.as_deref()], &[args.write_spec.as_deref()], &[])?;
+    crate::check_outputs(
+        &[args.spec.as_deref(), args.design.as_deref()],
+        &[args.write_spec.as_deref()],
+        &[],
+    )?;
     let design = match (&args.design, &args.preset) {
         (Some(p), _) => Some(FrontEnd::load(p).map_err(Failure::input)?),
         (None, Some(name)) => Some(preset(name).ok_or_else(|| {

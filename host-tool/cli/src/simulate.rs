@@ -59,7 +59,11 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
         }
         return Ok(());
     }
-    crate::check_outputs(&[args.frontend.as_deref()], &[args.write_preset.as_deref()], &[args.out_dir.as_deref()])?;
+    crate::check_outputs(
+        &[args.frontend.as_deref()],
+        &[args.write_preset.as_deref()],
+        &[args.out_dir.as_deref()],
+    )?;
     let fe = chosen_frontend(&args)?;
     if let Some(path) = &args.write_preset {
         logtrim_host::output::write_atomic(path, fe.to_json().as_bytes())

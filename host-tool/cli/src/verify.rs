@@ -111,7 +111,10 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
     }
     let (codes, temps) = verify::plan(&file, &opts).map_err(Failure::input)?;
     // The estimate up front: one temperature row timed on one thread, times the rows over the threads.
-    let probe = VerifyOptions { temp_stride: usize::try_from(temps).unwrap_or(usize::MAX).max(1).saturating_mul(opts.temp_stride), ..opts };
+    let probe = VerifyOptions {
+        temp_stride: usize::try_from(temps).unwrap_or(usize::MAX).max(1).saturating_mul(opts.temp_stride),
+        ..opts
+    };
     let t0 = std::time::Instant::now();
     let _ = verify::run_file(&file, &tables.view(), &probe, &logtrim_host::progress::quiet);
     let per_row = t0.elapsed().as_secs_f64();

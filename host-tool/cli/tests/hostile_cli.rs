@@ -156,7 +156,8 @@ fn item05_a_full_device_on_standard_output_is_a_clean_error_in_every_verb() {
         let args: Vec<&str> = args.iter().map(String::as_str).collect();
         let full = std::fs::OpenOptions::new().write(true).open("/dev/full").unwrap();
         let out = wait_or_kill(spawn(&args, Stdio::from(full)), TIMEOUT, &args.join(" "));
-        let (code, err) = (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
+        let (code, err) =
+            (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
         no_panic(code, &err, &args.join(" "));
         assert_eq!(code, 2, "{args:?}: {err}");
         assert!(err.contains("writing to standard output"), "{args:?}: {err}");
@@ -172,10 +173,14 @@ fn item05_a_closed_pipe_ends_quietly_in_every_verb() {
         // The reader goes away at once, as `head` does after its lines.
         drop(child.stdout.take());
         let out = wait_or_kill(child, TIMEOUT, &args.join(" "));
-        let (code, err) = (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
+        let (code, err) =
+            (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());
         no_panic(code, &err, &args.join(" "));
         assert_eq!(code, 141, "{args:?}: {err}");
-        assert!(!err.contains("logtrim:") && !err.contains("Broken pipe"), "{args:?}: a closed pipe is not an error to report: {err}");
+        assert!(
+            !err.contains("logtrim:") && !err.contains("Broken pipe"),
+            "{args:?}: a closed pipe is not an error to report: {err}"
+        );
     }
     // The files of verbs that write one are whole.
     let text = std::fs::read_to_string(d.join("out.csv")).unwrap();
@@ -214,7 +219,8 @@ fn interrupt_apply(signal: &str, want: i32) {
         assert!(start.elapsed() < TIMEOUT, "no temporary file appeared");
         std::thread::sleep(Duration::from_millis(2));
     }
-    let status = Command::new("kill").args([&format!("-{signal}"), &child.id().to_string()]).status().unwrap();
+    let status =
+        Command::new("kill").args([&format!("-{signal}"), &child.id().to_string()]).status().unwrap();
     assert!(status.success());
     let o = wait_or_kill(child, TIMEOUT, "interrupted apply");
     assert_eq!(o.status.code(), Some(want), "{}", String::from_utf8_lossy(&o.stderr));
@@ -250,7 +256,10 @@ fn item07_a_typo_inside_calibration_is_refused_by_every_verb() {
     ] {
         let (code, out, err) = run(&args);
         assert_eq!(code, 2, "{args:?}: {out}{err}");
-        assert!(err.contains("typo.json") && err.contains("unknown field `extrapolate_k`"), "{args:?}: {err}");
+        assert!(
+            err.contains("typo.json") && err.contains("unknown field `extrapolate_k`"),
+            "{args:?}: {err}"
+        );
     }
 }
 
@@ -396,20 +405,32 @@ fn item08_a_slope_negative_between_three_good_points_is_refused_by_every_verb() 
     });
     for (verb, code, err) in verdicts(&d, &c) {
         assert_eq!(code, 2, "{verb}: {err}");
-        assert!(err.contains("slope zero, negative or not finite somewhere in the temperature range"), "{verb}: {err}");
+        assert!(
+            err.contains("slope zero, negative or not finite somewhere in the temperature range"),
+            "{verb}: {err}"
+        );
     }
 }
 
 #[test]
 fn item13_one_validation_and_a_specific_message_in_every_verb() {
     let d = scratch("h13");
-    let cases: Vec<(&str, Box<dyn Fn(&mut serde_json::Value)>, &str)> = vec![
+    type Edit = Box<dyn Fn(&mut serde_json::Value)>;
+    let cases: Vec<(&str, Edit, &str)> = vec![
         ("level.json", Box::new(|c| c["adc"]["level_shift_code"] = 1e39.into()), "level shift not finite"),
-        ("xrange.json", Box::new(|c| {
-            c["x_range"]["min"] = (-200.0).into();
-            c["x_range"]["max"] = 200.0.into();
-        }), "x range beyond ±100 Np"),
-        ("unused.json", Box::new(|c| c["model"]["offset"]["coeffs"][5] = 1e308.into()), "coefficient not finite"),
+        (
+            "xrange.json",
+            Box::new(|c| {
+                c["x_range"]["min"] = (-200.0).into();
+                c["x_range"]["max"] = 200.0.into();
+            }),
+            "x range beyond ±100 Np",
+        ),
+        (
+            "unused.json",
+            Box::new(|c| c["model"]["offset"]["coeffs"][5] = 1e308.into()),
+            "coefficient not finite",
+        ),
         ("pole.json", Box::new(|c| c["model"]["pole"] = (-0.99).into()), "gain pole"),
     ];
     for (name, edit, want) in cases {
@@ -417,7 +438,10 @@ fn item13_one_validation_and_a_specific_message_in_every_verb() {
         for (verb, code, err) in verdicts(&d, &c) {
             assert_eq!(code, 2, "{name} {verb}: {err}");
             assert!(err.contains(want) && err.contains(name), "{name} {verb}: {err}");
-            assert!(!err.contains("NonFinite {") && !err.contains("Value("), "{name} {verb}: debug text: {err}");
+            assert!(
+                !err.contains("NonFinite {") && !err.contains("Value("),
+                "{name} {verb}: debug text: {err}"
+            );
         }
     }
 }
@@ -427,8 +451,10 @@ fn item13_a_binary_or_utf16_readings_file_is_named_and_never_echoed() {
     let d = scratch("h13bin");
     let c = coeffs(&d);
     let utf16 = d.join("u16.csv");
-    let bytes: Vec<u8> =
-        [0xFF, 0xFE].into_iter().chain("id,code,temp_c\n1,30000,25\n".encode_utf16().flat_map(|u| u.to_le_bytes())).collect();
+    let bytes: Vec<u8> = [0xFF, 0xFE]
+        .into_iter()
+        .chain("id,code,temp_c\n1,30000,25\n".encode_utf16().flat_map(|u| u.to_le_bytes()))
+        .collect();
     std::fs::write(&utf16, bytes).unwrap();
     let bin = d.join("bin.csv");
     std::fs::write(&bin, [0u8, 1, 2, 27, b'[', b'2', b'J', 7, 0, 0xff]).unwrap();
@@ -467,15 +493,30 @@ fn item10_option_values_are_checked_where_they_are_parsed() {
         (fit(&["--max-terms", "0"]), "--max-terms"),
         (fit(&["--model", "offset=2,slope=1,offset=3"]), "--model"),
         (fit(&["--model", ",,,"]), "--model"),
-        (["trim", s(&c), "--clear", "--clear-temp=nan", "-o", "/dev/null"].map(String::from).to_vec(), "--clear-temp"),
-        (["trim", s(&c), "--clear", "--clear-temp=inf", "-o", "/dev/null"].map(String::from).to_vec(), "--clear-temp"),
-        (["trim", s(&c), "--clear", "--clear-temp=1e30", "-o", "/dev/null"].map(String::from).to_vec(), "--clear-temp"),
-        (["trim", s(&c), "--clear", "--clear-temp=-300", "-o", "/dev/null"].map(String::from).to_vec(), "--clear-temp"),
+        (
+            ["trim", s(&c), "--clear", "--clear-temp=nan", "-o", "/dev/null"].map(String::from).to_vec(),
+            "--clear-temp",
+        ),
+        (
+            ["trim", s(&c), "--clear", "--clear-temp=inf", "-o", "/dev/null"].map(String::from).to_vec(),
+            "--clear-temp",
+        ),
+        (
+            ["trim", s(&c), "--clear", "--clear-temp=1e30", "-o", "/dev/null"].map(String::from).to_vec(),
+            "--clear-temp",
+        ),
+        (
+            ["trim", s(&c), "--clear", "--clear-temp=-300", "-o", "/dev/null"].map(String::from).to_vec(),
+            "--clear-temp",
+        ),
         (["budget", "--vref", "1e-308"].map(String::from).to_vec(), "--vref"),
         (["budget", "--slope", "1e-30"].map(String::from).to_vec(), "--slope"),
         (["budget", "--noise-lsb", "1e30"].map(String::from).to_vec(), "--noise-lsb"),
         (["verify", s(&c), "--temp-step", "0"].map(String::from).to_vec(), "--temp-step"),
-        (["emit", s(&c), "--format", "c", "-o", "/dev/null", "--t-knots", "2"].map(String::from).to_vec(), "--t-knots"),
+        (
+            ["emit", s(&c), "--format", "c", "-o", "/dev/null", "--t-knots", "2"].map(String::from).to_vec(),
+            "--t-knots",
+        ),
     ];
     for (args, option) in cases {
         let a: Vec<&str> = args.iter().map(String::as_str).collect();

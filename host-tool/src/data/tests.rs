@@ -1,5 +1,4 @@
 use super::*;
-use std::io::Read as _;
 
 fn cal(text: &str) -> Result<CalData, DataError> {
     read_calibration(text.as_bytes(), "cal.csv", &ReadOptions::default())
@@ -298,7 +297,10 @@ fn values_that_cannot_be_physical_are_refused_where_they_are_read() {
 
 #[test]
 fn utf16_and_binary_files_are_refused_by_name_and_never_echoed() {
-    let utf16: Vec<u8> = [0xFF, 0xFE].into_iter().chain("code,temp_c\n1,2\n".encode_utf16().flat_map(|u| u.to_le_bytes())).collect();
+    let utf16: Vec<u8> = [0xFF, 0xFE]
+        .into_iter()
+        .chain("code,temp_c\n1,2\n".encode_utf16().flat_map(|u| u.to_le_bytes()))
+        .collect();
     let e = read_readings(&utf16[..], "u.csv", &ReadOptions::default()).unwrap_err().to_string();
     assert!(e.contains("UTF-16") && !e.contains('\0'), "{e}");
     let no_bom: Vec<u8> = "code,temp_c\n1,2\n".encode_utf16().flat_map(|u| u.to_le_bytes()).collect();
