@@ -22,7 +22,7 @@ echo
 echo "=== instructions per sample (callgrind, $N samples, only inside the sample loop) ==="
 if command -v valgrind >/dev/null; then
   declare -A IR
-  for p in fixed-raw fixed-mc fixed-staged fixed-row fixed-cached fixed-cached-miss naive-raw naive-mc naive-raw-held; do
+  for p in fixed-raw fixed-mc fixed-staged fixed-block fixed-cached fixed-cached-miss naive-raw naive-mc naive-raw-held; do
     valgrind --tool=callgrind --callgrind-out-file="$OUT/cg.$p" --toggle-collect='*run_*' \
       "$LOOP" "$p" "$N" >/dev/null 2>"$OUT/vg.$p"
     total=$(grep -E '^summary:' "$OUT/cg.$p" | awk '{print $2}')
@@ -32,7 +32,7 @@ if command -v valgrind >/dev/null; then
   awk -v a="${IR[naive-raw]}" -v b="${IR[fixed-raw]}" 'BEGIN { printf "  naive-raw / fixed-raw = %.2fx\n", a / b }'
   awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-mc]}" 'BEGIN { printf "  naive-mc / fixed-mc  = %.2fx\n", a / b }'
   awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-staged]}" 'BEGIN { printf "  naive-mc / fixed-staged = %.2fx\n", a / b }'
-  awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-row]}" 'BEGIN { printf "  naive-mc / fixed-row = %.2fx\n", a / b }'
+  awk -v a="${IR[naive-mc]}" -v b="${IR[fixed-block]}" 'BEGIN { printf "  naive-mc / fixed-block = %.2fx\n", a / b }'
   awk -v a="${IR[naive-raw-held]}" -v b="${IR[fixed-cached]}" \
     'BEGIN { printf "  naive-raw-held / fixed-cached = %.2fx   (same stream: a new temperature code every 64 samples)\n", a / b }'
   echo "  (fixed-cached-miss: a new temperature code at every sample, what one stage rebuild costs)"

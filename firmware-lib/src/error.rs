@@ -177,12 +177,17 @@ impl fmt::Display for Celsius {
         if frac == 0 {
             return write!(f, "{sign}{whole}");
         }
-        let mut digits = 3usize;
-        while frac % 10 == 0 {
+        // Trailing zeros dropped; the width is a literal in each arm (a width taken at run time is a
+        // panic path of core's formatting, `Argument::from_usize`).
+        if frac % 100 == 0 {
+            frac /= 100;
+            write!(f, "{sign}{whole}.{frac}")
+        } else if frac % 10 == 0 {
             frac /= 10;
-            digits -= 1;
+            write!(f, "{sign}{whole}.{frac:02}")
+        } else {
+            write!(f, "{sign}{whole}.{frac:03}")
         }
-        write!(f, "{sign}{whole}.{frac:0digits$}")
     }
 }
 

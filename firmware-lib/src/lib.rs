@@ -11,7 +11,7 @@
 //! |---|---|
 //! | [`physics`] | SI constants and the thermal voltage kT/q |
 //! | [`math`] | the float core: the f32 `ln`/`exp` backends (libm by default, micromath opt-in), the one generic arithmetic of the f32/f64 bodies, Chebyshev series |
-//! | [`qformat`] | the fixed-point (Q) formats: rounding shifts and rescales, exact f32 ↔ Q conversions, θ and m°C ↔ °C |
+//! | [`qformat`] | the fixed-point (Q) formats: rounding shifts, exact f32 ↔ Q conversions, θ and m°C ↔ °C |
 //! | [`units`] | output units computed from x = ln(I_sig/I_ref): nepers, dB, absorbance, … |
 //! | [`error`] | [`Error`], the error of a correction, with the sensor fault and calibration defect it carries |
 //! | [`calibration`] | the calibration of one unit, its f32 correction (ADC code, temperature) → x, and (feature `reference`) the host's f64 reference |
@@ -31,6 +31,7 @@
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0),
 //! `reference` (the host's f64 reference of the calibration: not for firmware builds).
 #![no_std]
+#![cfg_attr(docsrs, feature(doc_cfg))]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 #![cfg_attr(
@@ -50,6 +51,7 @@ pub mod field;
 pub mod filter;
 pub mod fixed;
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub mod hal;
 pub mod image;
 pub mod math;

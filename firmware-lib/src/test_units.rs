@@ -72,16 +72,18 @@ pub(crate) const LINEAR_HEADER: FixedHeader = FixedHeader {
     temp_max: 50_000 * 1024,
     temp_lo: -5_000 * 1024,
     temp_hi: 55_000 * 1024,
-    t_knots: 4,
+    // Knots every 2^24 θ (16.38 K) from −5 °C: the fifth is past 55 °C.
+    t_knots: 5,
     t_origin: -5_000 * 1024,
-    t_inv_step: 13_743_895, // floor(2^48 / 20 K in θ)
+    t_step_log2: 24,
     offset_frac: 14,
     inv_slope_frac: 42,
     bias_bend: false,
     sensitivity_limit: false,
-    xa_knots: 5,
+    // Knots every 4 Np from −9 Np: the sixth (11 Np) is past every x̃.
+    xa_knots: 6,
     xa_origin: -9 * (1 << 24),
-    xa_inv_step: 3_728_270, // floor(2^24 / 4.5 Np)
+    xa_step_log2: 26,
     residual_frac: 16,
     x_min: -LINEAR_X_LIM,
     x_max: LINEAR_X_LIM,
@@ -110,13 +112,13 @@ pub(crate) fn linear_fixed() -> LinearFixed {
     LinearFixed {
         header,
         // Stored divided by 6: O = 32769 codes · 2^14, 1/S = 6/32768 Np/code · 2^42.
-        offset: vec![10923 << 13; 6],
-        inv_slope: vec![1 << 27; 6],
+        offset: vec![10923 << 13; 7],
+        inv_slope: vec![1 << 27; 7],
         ln_bias: vec![],
         u_min: vec![],
-        residual: vec![0; 6 * 7],
+        residual: vec![0; 7 * 8],
         // θ(code) = (code − 100)·15 m°C; control point i sits at knot i − 1 (code 100 + 256(i − 1)),
-        // stored divided by 6.
+        // stored divided by 6: (3900 >> 8) + 4 = 19 of them.
         sensor: (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect(),
         has_sensor: true,
     }

@@ -9,7 +9,7 @@
 //! * `fixed-staged`: the log channel alone (`correct_staged` and dB), with the temperature stages computed
 //!   beforehand (64 temperatures): what a firmware pays per log sample when it reads the temperature less
 //!   often than the log channel;
-//! * `fixed-row`: the same through a `FixedRowStage` (the residual collapsed over temperature per stage).
+//! * `fixed-block`: the log channel in blocks of 256 codes at one stage each (`correct_block`, and dB).
 //! * `fixed-cached`: raw codes to power dB through a `StageCache`, on a stream whose temperature channel
 //!   gives a new code (drawn anew over the calibrated range) every `HOLD` samples, as a firmware that reads
 //!   its temperature channel once per `HOLD` log samples; the stage is rebuilt at every new code.
@@ -30,6 +30,8 @@ use logtrim_host::tables::{self, TableOptions, TemperatureChannel};
 
 /// Log samples per temperature reading in the `fixed-cached` stream.
 const HOLD: usize = 64;
+/// Codes per block (a DMA buffer) in the `fixed-block` stream.
+const BLOCK: usize = 256;
 
 /// One input: log code, temperature channel code, temperature in m°C and in °C.
 #[derive(Clone, Copy)]
@@ -108,10 +110,16 @@ fn run_fixed_staged(f: &FixedCalibration<'_>, inp: &[Input], stages: &[logtrim::
 }
 
 #[inline(never)]
-fn run_fixed_row(f: &FixedCalibration<'_>, inp: &[Input], rows: &[logtrim::fixed::FixedRowStage]) -> i64 {
+fn run_fixed_block(f: &FixedCalibration<'_>, inp: &[Input], stages: &[logtrim::fixed::FixedStage]) -> i64 {
     let mut acc = 0i64;
-    for (k, i) in inp.iter().enumerate() {
-        if let Ok(r) = f.correct_row(&rows[k % rows.len()], black_box(i.code)) {
+    let mut codes = [0u32; BLOCK];
+    let mut out = [Err(logtrim::Error::NotCalibrated); BLOCK];
+    for (k, chunk) in inp.chunks(BLOCK).enumerate() {
+        for (c, i) in codes.iter_mut().zip(chunk) {
+            *c = black_box(i.code);
+        }
+        let n = f.correct_block(&stages[k % stages.len()], &codes[..chunk.len()], &mut out);
+        for r in out[..n].iter().flatten() {
             acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
         }
     }
@@ -170,8 +178,7 @@ fn main() {
     // For the staged paths: 64 temperatures, sample k at temperature k mod 64 (log codes drawn there).
     let temps: Vec<Input> = inp.iter().take(64).copied().collect();
     let stages: Vec<_> = temps.iter().filter_map(|i| f.stage_millicelsius(i.mc).ok()).collect();
-    let rows: Vec<_> = stages.iter().filter_map(|s| f.row_stage(s).ok()).collect();
-    if path == "fixed-staged" || path == "fixed-row" {
+    if path == "fixed-staged" || path == "fixed-block" {
         for (k, i) in inp.iter_mut().enumerate() {
             let t = f64::from(temps[k % temps.len()].celsius);
             let x = f64::from(cal.x_range.min)
@@ -195,7 +202,7 @@ fn main() {
         "fixed-raw" => run_fixed_raw(&f, &inp) as f64,
         "fixed-mc" => run_fixed_mc(&f, &inp) as f64,
         "fixed-staged" => run_fixed_staged(&f, &inp, &stages) as f64,
-        "fixed-row" => run_fixed_row(&f, &inp, &rows) as f64,
+        "fixed-block" => run_fixed_block(&f, &inp, &stages) as f64,
         "fixed-cached" | "fixed-cached-miss" => run_fixed_cached(&mut cache, &inp) as f64,
         "naive-raw" | "naive-raw-held" => f64::from(run_naive_raw(&cal, &inp)),
         "naive-mc" => f64::from(run_naive_mc(&cal, &inp)),

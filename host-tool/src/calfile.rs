@@ -191,6 +191,24 @@ impl CalFile {
             .map_err(TableError::Calibration)?
     }
 
+    /// °C of a raw temperature-channel code as the fit reads chamber data: firmware-lib's sensor code in
+    /// f64. [`logtrim::Error::NotCalibrated`] when the file describes no raw channel (a unit that reads °C).
+    pub fn chamber_celsius(&self, code: u32) -> Result<f64, logtrim::Error> {
+        match &self.temperature_sensor {
+            Some(s) => s.celsius_f64(code),
+            None => Err(logtrim::Error::NotCalibrated),
+        }
+    }
+
+    /// °C of a raw temperature-channel code as the unit's firmware reads it: firmware-lib's sensor code in
+    /// f32 (what `apply` uses for readings). [`logtrim::Error::NotCalibrated`] without a raw channel.
+    pub fn firmware_celsius(&self, code: u32) -> Result<f64, logtrim::Error> {
+        match &self.temperature_sensor {
+            Some(s) => s.celsius(code).map(f64::from),
+            None => Err(logtrim::Error::NotCalibrated),
+        }
+    }
+
     /// Calls `f` with the file's raw temperature channel: every code of the channel's converter with its
     /// temperature by firmware-lib's sensor code in f64, or `None` for a unit that reads °C. An error if the
     /// channel's converter has no valid code range.

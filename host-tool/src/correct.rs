@@ -19,6 +19,12 @@ use rayon::prelude::*;
 use crate::calfile::CalFile;
 use crate::data::{read_readings_file, DataError, ReadOptions, Readings, TemperatureColumn};
 
+/// What a user of the micromath backend is told (by `apply --path f32-micromath` and `verify --backend
+/// micromath`): where it must not be used (see `logtrim::math::Backend`).
+pub const MICROMATH_WARNING: &str = "the micromath backend is coarse: its exp is 2.4e-3 relative (about \
+2.4e-3 Np, 0.01 dB), far outside a quarter-LSB budget, and readings near the ends of the calibrated range \
+can be refused; use it only where that error is acceptable, never where safety rests on the reading";
+
 /// Which arithmetic corrects the readings.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Arithmetic {

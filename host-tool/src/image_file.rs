@@ -407,6 +407,11 @@ pub fn describe(img: &Image<'_>) -> String {
     let _ = writeln!(s, "serial       {serial}");
     let _ = writeln!(s, "calibrated   {} UTC ({} s)", utc_string(img.calibrated_at()), img.calibrated_at());
     let _ = writeln!(s, "sequence     {}", img.sequence());
+    let _ = writeln!(
+        s,
+        "calib. ID    {:#010x} (trim and blank records made on this calibration carry it)",
+        logtrim::field::fingerprint_of_image(img)
+    );
     let _ = writeln!(s, "sections");
     for sec in img.sections() {
         let _ =
@@ -485,17 +490,16 @@ fn describe_fixed(s: &mut String, img: &Image<'_>) {
     let _ = writeln!(s, "  layout     version {}", h.layout);
     let _ = writeln!(
         s,
-        "  t grid     {} knots from {:.3} °C; calibrated {:.3} to {:.3} °C, accepted {:.3} to {:.3} °C",
+        "  t grid     {} knots from {:.3} °C, step {:.3} K; calibrated {:.3} to {:.3} °C, accepted {:.3} to {:.3} °C",
         h.t_knots,
         theta_c(h.t_origin),
+        2f64.powi(i32::from(h.t_step_log2)) / 1_024_000.0,
         theta_c(h.temp_min),
         theta_c(h.temp_max),
         theta_c(h.temp_lo),
         theta_c(h.temp_hi)
     );
-    let step = 2f64.powi((logtrim::fixed::XA_POS_SHIFT + logtrim::fixed::POSITION_FRAC) as i32)
-        / f64::from(h.xa_inv_step)
-        / f64::from(1u32 << logtrim::fixed::X_FRAC);
+    let step = 2f64.powi(i32::from(h.xa_step_log2) - logtrim::fixed::X_FRAC as i32);
     let _ = writeln!(
         s,
         "  x̃ grid     {} knots from {:.4} Np, step {:.4} Np; x range {:.4} to {:.4} Np",
@@ -574,6 +578,7 @@ pub fn describe_json(img: &Image<'_>) -> serde_json::Value {
         "calibrated_unix_s": img.calibrated_at(),
         "calibrated_utc": utc_string(img.calibrated_at()),
         "sequence": img.sequence(),
+        "calibration_id": format!("{:#010x}", logtrim::field::fingerprint_of_image(img)),
         "sections": img.sections().map(|s| serde_json::json!({
             "kind": format!("{:#06x}", s.kind),
             "len": s.payload.len(),

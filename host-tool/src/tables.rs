@@ -26,7 +26,9 @@ use std::ops::RangeInclusive;
 use logtrim::calibration::F64StageTerms;
 use logtrim::error::SensorFault;
 use logtrim::fixed::{
-    FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION, THETA_FRAC, T_POS_SHIFT, XA_POS_SHIFT, X_FRAC,
+    FixedCalibration, FixedHeader, SensorTable, CODE_LIMIT, INV_SLOPE_LIMIT, LAYOUT_VERSION, OFFSET_RANGE,
+    RESIDUAL_FRAC_RANGE, ROW_CAPACITY, SLOPE_FRAC_SUM, THETA_FRAC, T_STEP_LOG2_RANGE, XA_STEP_LOG2_RANGE,
+    X_FRAC,
 };
 use logtrim::Calibration;
 use nalgebra::DMatrix;
@@ -44,9 +46,11 @@ const XA_MARGIN: f64 = 0.05;
 /// Sizes and choices of the generated tables.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct TableOptions {
-    /// Knots of the temperature grid (shared by the per-temperature tables and the residual), ≥ 4.
+    /// Largest number of knots of the temperature grid (shared by the per-temperature tables and the
+    /// residual), ≥ 4: the knot step is the smallest power of two in θ that needs no more.
     pub t_knots: usize,
-    /// Knots of the residual's x̃ grid, ≥ 4.
+    /// Largest number of knots of the residual's x̃ grid, 4..=64: the knot step is the smallest power of two
+    /// in Q24 that needs no more.
     pub xa_knots: usize,
     /// Largest number of spline segments of the temperature-sensor table (the knot spacing is the smallest
     /// power of two in codes that needs no more).
@@ -58,7 +62,7 @@ pub struct TableOptions {
 
 impl Default for TableOptions {
     fn default() -> Self {
-        TableOptions { t_knots: 16, xa_knots: 40, sensor_segments: 128, bias_bend: true }
+        TableOptions { t_knots: 16, xa_knots: 64, sensor_segments: 128, bias_bend: true }
     }
 }
 
@@ -199,13 +203,20 @@ impl FixedTables {
 }
 
 fn t_knot_celsius(h: &FixedHeader, j: f64) -> f64 {
-    let step = 2f64.powi((T_POS_SHIFT + logtrim::fixed::POSITION_FRAC) as i32) / f64::from(h.t_inv_step);
-    (f64::from(h.t_origin) + j * step) / THETA_PER_C
+    (f64::from(h.t_origin) + j * 2f64.powi(i32::from(h.t_step_log2))) / THETA_PER_C
 }
 
 fn xa_knot(h: &FixedHeader, i: f64) -> f64 {
-    let step = 2f64.powi((XA_POS_SHIFT + logtrim::fixed::POSITION_FRAC) as i32) / f64::from(h.xa_inv_step);
-    (f64::from(h.xa_origin) + i * step) / X_SCALE
+    (f64::from(h.xa_origin) + i * 2f64.powi(i32::from(h.xa_step_log2))) / X_SCALE
+}
+
+/// The smallest power-of-two step (log2, within `range`) at which `span` needs at most `max_knots` knots
+/// (`floor(span / step) + 2`: the last knot strictly beyond the span), and that number of knots.
+fn power_step(span: f64, max_knots: usize, range: (u8, u8)) -> Option<(u8, usize)> {
+    (range.0..=range.1).find_map(|s| {
+        let knots = (span / 2f64.powi(i32::from(s))).floor() as usize + 2;
+        (knots <= max_knots).then_some((s, knots))
+    })
 }
 
 /// The four uniform cubic B-spline basis values at `t ∈ [0, 1]`.
@@ -297,6 +308,16 @@ fn to_i32(what: &'static str, values: &[f64], scale: f64) -> Result<Vec<i32>, Ta
         .collect()
 }
 
+/// Control points of the bias floor or the sensitivity limit, Q24 divided by 6, within the firmware's bound
+/// ([`logtrim::fixed::BIAS_LIMIT`] at full scale).
+fn bias_scale(what: &'static str, c: &[f64]) -> Result<Vec<i32>, TableError> {
+    let limit = f64::from(logtrim::fixed::BIAS_LIMIT);
+    if let Some(v) = c.iter().find(|v| !(v.abs() * X_SCALE < limit)) {
+        return Err(TableError::Range { what, detail: format!("{v} Np beyond ±{} Np", limit / X_SCALE) });
+    }
+    to_i32(what, c, X_SCALE / 6.0)
+}
+
 /// θ of a temperature in °C, rounded towards the inside of `[lo, hi]` by `dir` (−1 floor, +1 ceil).
 fn theta(c: f64, what: &'static str, ceil: bool) -> Result<i32, TableError> {
     let t = c * THETA_PER_C;
@@ -386,8 +407,8 @@ pub fn build(
     if !(4..=1000).contains(&opts.t_knots) {
         return Err(opt("t_knots", "must be 4..=1000"));
     }
-    if !(4..=4000).contains(&opts.xa_knots) {
-        return Err(opt("xa_knots", "must be 4..=4000"));
+    if !(4..=ROW_CAPACITY - 2).contains(&opts.xa_knots) {
+        return Err(opt("xa_knots", &format!("must be 4..={}", ROW_CAPACITY - 2)));
     }
     if !(1..=65536).contains(&opts.sensor_segments) {
         return Err(opt("sensor_segments", "must be 1..=65536"));
@@ -400,13 +421,10 @@ pub fn build(
     let temp_lo = theta(t_min - ext, "accepted temperature", true)?;
     let temp_hi = theta(t_max + ext, "accepted temperature", false)?;
 
-    // Temperature grid: knot 0 at temp_lo, the step rounded so that the last knot is at or past temp_hi.
-    let nt = opts.t_knots;
-    let t_step = f64::from(temp_hi - temp_lo) / (nt - 1) as f64;
-    let t_inv = (2f64.powi(48) / t_step).floor();
-    if !(t_inv >= 1.0 && t_inv <= f64::from(i32::MAX)) {
-        return Err(opt("t_knots", "the temperature step is too small for the grid's scale (step < 0.13 K)"));
-    }
+    // Temperature grid: knot 0 at temp_lo, the knot step the smallest power of two in θ that needs at most
+    // `t_knots` knots, the last knot strictly beyond temp_hi.
+    let (t_step_log2, nt) = power_step(f64::from(temp_hi - temp_lo), opts.t_knots, T_STEP_LOG2_RANGE)
+        .ok_or_else(|| opt("t_knots", "too few knots for the temperature range at the largest knot step"))?;
     let bias = cal.model.bias.enabled && opts.bias_bend;
     let min_s = f64::from(cal.x_range.min_sensitivity);
     let mut header = FixedHeader {
@@ -419,14 +437,14 @@ pub fn build(
         temp_hi,
         t_knots: nt as u16,
         t_origin: temp_lo,
-        t_inv_step: t_inv as i32,
+        t_step_log2,
         offset_frac: 0,
         inv_slope_frac: 0,
         bias_bend: bias,
         sensitivity_limit: false,
-        xa_knots: opts.xa_knots as u16,
+        xa_knots: 0,
         xa_origin: 0,
-        xa_inv_step: 1,
+        xa_step_log2: 0,
         residual_frac: 0,
         x_min: (f64::from(cal.x_range.min) * X_SCALE).ceil() as i32,
         x_max: (f64::from(cal.x_range.max) * X_SCALE).floor() as i32,
@@ -443,13 +461,36 @@ pub fn build(
     };
     let offset_c = fit_t(stages.iter().map(|s| s.offset_codes).collect());
     let inv_slope_c = fit_t(stages.iter().map(|s| 1.0 / s.slope).collect());
-    // Offset scale: the code and the offset, both shifted, must stay below 2^31 (module docs of `fixed`).
-    let offset_frac = choose_frac("offset", &offset_c, f64::from(max_code), f64::from(i32::MAX) - 2.0, 30)?;
-    let inv_slope_frac = choose_frac("inverse slope", &inv_slope_c, 0.0, f64::from(i32::MAX) - 2.0, 62)?;
     if inv_slope_c.iter().any(|&s| !(s > 0.0)) {
         return Err(TableError::Calibration(logtrim::Error::InvalidCalibration(
             logtrim::error::CalibrationDefect::ZeroSlope,
         )));
+    }
+    // Offset scale: every code shifted below 2^30 and the offset within (−2^29, 2^30); the inverse slope
+    // then has `56 − offset_frac` fraction bits and must stay below 2^32 (module docs of `fixed`).
+    let (o_lo, o_hi) = (f64::from(OFFSET_RANGE.0) + 64.0, f64::from(OFFSET_RANGE.1) - 64.0);
+    let code_limit = f64::from(CODE_LIMIT) - 64.0;
+    let offset_frac = (0..=30u32)
+        .rev()
+        .find(|&q| {
+            let k = 2f64.powi(q as i32);
+            f64::from(max_code) * k < code_limit && offset_c.iter().all(|&o| o * k > o_lo && o * k < o_hi)
+        })
+        .ok_or_else(|| TableError::Range {
+            what: "offset",
+            detail: format!("largest code {max_code}, offsets {:?}", offset_c.first()),
+        })?;
+    let inv_slope_frac = SLOPE_FRAC_SUM - offset_frac;
+    let peak = inv_slope_c.iter().fold(0f64, |m, &v| m.max(v)) * 2f64.powi(inv_slope_frac as i32);
+    if !(peak < INV_SLOPE_LIMIT as f64 - 64.0) {
+        return Err(TableError::Range {
+            what: "inverse slope",
+            detail: format!(
+                "1/S up to {:e} Np per code: the converter spans more nepers than the 32-bit path holds \
+                 (its codes times 2^{offset_frac} must stay below 2^30 and 1/S times 2^{inv_slope_frac} below 2^32)",
+                peak / 2f64.powi(inv_slope_frac as i32)
+            ),
+        });
     }
     header.offset_frac = offset_frac as u8;
     header.inv_slope_frac = inv_slope_frac as u8;
@@ -458,7 +499,7 @@ pub fn build(
     let inv_slope = to_i32("inverse slope", &inv_slope_c, 2f64.powi(inv_slope_frac as i32) / 6.0)?;
     let ln_bias = if bias {
         let c = fit_t(stages.iter().map(|s| s.ln_beta.unwrap_or(0.0)).collect());
-        to_i32("bias floor", &c, X_SCALE / 6.0)?
+        bias_scale("bias floor", &c)?
     } else {
         Vec::new()
     };
@@ -488,7 +529,7 @@ pub fn build(
         }
         let vals: Vec<f64> = limits.iter().map(|l| l.unwrap_or(0.0)).collect();
         header.sensitivity_limit = true;
-        to_i32("sensitivity limit", &fit_t(vals), X_SCALE / 6.0)?
+        bias_scale("sensitivity limit", &fit_t(vals))?
     } else {
         Vec::new()
     };
@@ -516,13 +557,12 @@ pub fn build(
         return Err(TableError::Model { what: "residual", detail: "no usable reading anywhere".into() });
     }
     let (lo, hi) = (lo - XA_MARGIN, hi + XA_MARGIN);
-    let nx = opts.xa_knots;
-    let xa_inv = (X_SCALE / ((hi - lo) / (nx - 1) as f64)).floor();
-    if !(xa_inv >= 1.0 && xa_inv <= f64::from(i32::MAX)) {
-        return Err(opt("xa_knots", "the x̃ step does not fit the grid's scale"));
-    }
     header.xa_origin = (lo * X_SCALE).floor() as i32;
-    header.xa_inv_step = xa_inv as i32;
+    let span = hi * X_SCALE - f64::from(header.xa_origin);
+    let (xa_step_log2, nx) = power_step(span, opts.xa_knots, XA_STEP_LOG2_RANGE)
+        .ok_or_else(|| opt("xa_knots", "too few knots for the x̃ range at the largest knot step"))?;
+    header.xa_step_log2 = xa_step_log2;
+    header.xa_knots = nx as u16;
 
     // Residual samples r(x̃, T) = x − x̃ on the tensor grid of sample positions.
     let x_pos = sample_positions(nx - 1);
@@ -545,10 +585,14 @@ pub fn build(
         }
     }
     let x_fit = fit_operator(nx - 1, &x_pos)?;
-    // Stored divided by 36: 6 per axis.
-    let c = (&t_fit * f * x_fit.transpose()) / 36.0; // (nt + 2) × (nx + 2)
+    // Stored divided by 6 for the temperature axis and times 4/3 for the x̃ axis (its per-sample spline sums
+    // three quarters of the value): times 2/9.
+    let c = (&t_fit * f * x_fit.transpose()) * (2.0 / 9.0); // (nt + 2) × (nx + 2)
     let cv: Vec<f64> = c.iter().copied().collect();
-    let frac = choose_frac("residual", &cv, 0.0, 32767.0, 30)?;
+    let frac = choose_frac("residual", &cv, 0.0, 32767.0, u32::from(RESIDUAL_FRAC_RANGE.1))?;
+    if frac < u32::from(RESIDUAL_FRAC_RANGE.0) {
+        return Err(TableError::Range { what: "residual", detail: format!("needs {frac} fraction bits") });
+    }
     header.residual_frac = frac as u8;
     let scale = 2f64.powi(frac as i32);
     let mut residual = Vec::with_capacity(cv.len());
@@ -649,13 +693,14 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
         None => (u32::MAX, fault_above),
     };
     let (code_lo, code_hi) = (vals[lo_idx].0, vals[hi_idx].0);
-    let span = u64::from(code_hi - code_lo).max(1);
-    let step_log2 =
-        (0..=16u8).find(|&s| span.div_ceil(1u64 << s) <= max_segments as u64).ok_or_else(|| {
-            TableError::Option { name: "sensor_segments", message: "too few for the span".into() }
-        })?;
+    // One segment per step, the span's top code included (it starts the last segment when the span is a
+    // multiple of the step): SensorTable::knots_needed.
+    let span = u64::from(code_hi - code_lo);
+    let step_log2 = (0..=16u8).find(|&s| (span >> s) < max_segments as u64).ok_or_else(|| {
+        TableError::Option { name: "sensor_segments", message: "too few for the span".into() }
+    })?;
     let step = 1u64 << step_log2;
-    let segments = span.div_ceil(step) as usize;
+    let segments = (span >> step_log2) as usize + 1;
     // Every code of the span if that is at most eight per segment, else eight evenly spread per segment.
     let stride = (step / SAMPLES_PER_SEGMENT as u64).max(1);
     let mut pos = Vec::new();
@@ -687,7 +732,7 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
 }
 
 /// The universal bias-bend table `G(v) = ln(1 − e^(−v))` (see [`logtrim::fixed::transcend`]): per octave,
-/// the spline control points fitted to the exact function, Q24, divided by 6.
+/// the spline control points fitted to the exact function, Q24 (full scale: a per-sample spline).
 pub fn universal_bend() -> Result<Vec<i32>, TableError> {
     use logtrim::fixed::transcend::{BEND_FIRST_EXP, BEND_OCTAVES, BEND_SEGMENTS};
     let pos = sample_positions(BEND_SEGMENTS);
@@ -704,15 +749,13 @@ pub fn universal_bend() -> Result<Vec<i32>, TableError> {
             .collect();
         let c = &pinv * DMatrix::from_column_slice(vals.len(), 1, &vals);
         let cv: Vec<f64> = c.iter().copied().collect();
-        out.extend(to_i32("bend table", &cv, X_SCALE / 6.0)?);
+        out.extend(to_i32("bend table", &cv, X_SCALE)?);
     }
     Ok(out)
 }
 
-/// The universal table of `2^(j/32)`, j = 0..32, Q30.
-pub fn universal_exp2() -> Vec<i32> {
-    use logtrim::fixed::transcend::{EXP2_FRAC, EXP2_LEN};
-    (0..EXP2_LEN)
-        .map(|j| (2f64.powf(j as f64 / EXP2_LEN as f64) * 2f64.powi(EXP2_FRAC as i32)).round() as i32)
-        .collect()
+/// The universal table of `e^(j/64)`, j = 0..=44, Q30.
+pub fn universal_exp64() -> Vec<i32> {
+    use logtrim::fixed::transcend::{EXP64_FRAC, EXP64_LEN};
+    (0..EXP64_LEN).map(|j| ((j as f64 / 64.0).exp() * 2f64.powi(EXP64_FRAC as i32)).round() as i32).collect()
 }

@@ -70,8 +70,9 @@ fn emitted_json_round_trips() {
     assert_eq!(back, t);
 }
 
-/// One input line for the C driver and the Rust path: `m CODE TEMP_MC`, `r CODE TEMP_CODE`, or
-/// `w CODE TEMP_MC` (through a row stage).
+/// One input line for the C driver and the Rust path: `m CODE TEMP_MC`, `r CODE TEMP_CODE`, `w CODE TEMP_MC`
+/// (through a temperature stage), `b CODE TEMP_MC` (the block of the eight codes from CODE at one stage),
+/// `c`/`k` (through one stage cache kept across lines, by temperature code or m°C).
 fn inputs() -> Vec<(char, u32, i64)> {
     let mut v = Vec::new();
     let codes: Vec<u32> = (0..=65535u32)
@@ -101,6 +102,16 @@ fn inputs() -> Vec<(char, u32, i64)> {
         for mc in [-25_000, -3_217, 40_000, 90_000, 90_001] {
             v.push(('w', code, mc));
         }
+        if code % 5 == 0 {
+            v.push(('b', code, 23_456));
+        }
+    }
+    // Through the cache, a temperature wandering inside one window and across window ends (0.26 K in m°C,
+    // temperature codes next to each other), with log codes over the whole converter.
+    for (i, &code) in codes.iter().enumerate() {
+        let i = i as i64;
+        v.push(('k', code, 24_900 + (i * 37) % 700));
+        v.push(('c', code, 1500 + i % 5));
     }
     // Through one stage cache kept across lines: temperatures repeated (hits), changed (misses), bad ones
     // (uncached errors), and m°C keys next to temperature codes of the same number.
@@ -115,18 +126,9 @@ fn inputs() -> Vec<(char, u32, i64)> {
     v
 }
 
-fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, code: u32, t: i64) -> String {
-    let r: Result<FixedReading, Error> = match kind {
-        'm' => c.correct(code, t as i32),
-        'c' => cache.correct_raw(code, t as u32),
-        'k' => cache.correct(code, t as i32),
-        'w' => c
-            .stage_millicelsius(t as i32)
-            .and_then(|s| c.row_stage(&s))
-            .and_then(|rs| c.correct_row(&rs, code)),
-        _ => c.correct_raw(code, t as u32),
-    };
-    let mut s = format!("{}", status_code(&r));
+/// A reading as the C driver prints it: the status, then x, the flag and every unit's status and value.
+fn reading_text(r: &Result<FixedReading, Error>) -> String {
+    let mut s = format!("{}", status_code(r));
     if let Ok(r) = r {
         let _ = write!(s, " {} {}", r.x, u8::from(r.temperature_extrapolated));
         for u in Unit::ALL {
@@ -137,9 +139,43 @@ fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, c
     s
 }
 
+fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, code: u32, t: i64) -> String {
+    let r: Result<FixedReading, Error> = match kind {
+        'm' => c.correct(code, t as i32),
+        'c' => cache.correct_raw(code, t as u32),
+        'k' => cache.correct(code, t as i32),
+        'w' => c.stage_millicelsius(t as i32).and_then(|s| c.correct_staged(&s, code)),
+        'b' => {
+            let codes: Vec<u32> = (0..8).map(|k| code.saturating_add(k)).collect();
+            let mut out = vec![Err(Error::NotCalibrated); 8];
+            return match c.stage_millicelsius(t as i32) {
+                Ok(s) => {
+                    assert_eq!(c.correct_block(&s, &codes, &mut out), 8);
+                    out.iter().map(reading_text).collect::<Vec<_>>().join(" | ")
+                }
+                Err(e) => reading_text(&Err(e)),
+            };
+        }
+        _ => c.correct_raw(code, t as u32),
+    };
+    reading_text(&r)
+}
+
 const DRIVER: &str = r#"
 #include <stdio.h>
 #include "unit.h"
+static void print_reading(lt_status st, const lt_reading *r) {
+    printf("%d", (int)st);
+    if (st == LT_OK) {
+        int u;
+        printf(" %ld %d", (long)r->x, r->temperature_extrapolated ? 1 : 0);
+        for (u = 0; u <= (int)LT_RATIO; u++) {
+            int64_t v = 0;
+            lt_status vs = lt_value(r, (lt_unit_kind)u, &v);
+            printf(" %d:%lld", (int)vs, (long long)v);
+        }
+    }
+}
 int main(void) {
     char kind;
     unsigned long code;
@@ -154,26 +190,33 @@ int main(void) {
         } else if (kind == 'k') {
             st = lt_stage_cache_correct(&cache, (uint32_t)code, (int32_t)t, &r);
         } else if (kind == 'w') {
-            lt_stage s;
-            lt_row_stage rs;
+            static lt_stage s;
             st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
-            if (st == LT_OK) st = lt_row_stage_from(&LT_UNIT, &s, &rs);
-            if (st == LT_OK) st = lt_correct_row(&LT_UNIT, &rs, (uint32_t)code, &r);
+            if (st == LT_OK) st = lt_correct_staged(&LT_UNIT, &s, (uint32_t)code, &r);
+        } else if (kind == 'b') {
+            static lt_stage s;
+            uint32_t codes[8], i;
+            lt_reading out[8];
+            lt_status sts[8];
+            st = lt_stage_millicelsius(&LT_UNIT, (int32_t)t, &s);
+            if (st != LT_OK) {
+                printf("%d\n", (int)st);
+                continue;
+            }
+            for (i = 0; i < 8; i++) codes[i] = (uint32_t)code + i < (uint32_t)code ? 0xffffffffu : (uint32_t)code + i;
+            lt_correct_block(&LT_UNIT, &s, codes, 8, out, sts);
+            for (i = 0; i < 8; i++) {
+                if (i) printf(" | ");
+                print_reading(sts[i], &out[i]);
+            }
+            printf("\n");
+            continue;
         } else if (kind == 'm') {
             st = lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r);
         } else {
             st = lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
         }
-        printf("%d", (int)st);
-        if (st == LT_OK) {
-            int u;
-            printf(" %ld %d", (long)r.x, r.temperature_extrapolated ? 1 : 0);
-            for (u = 0; u <= (int)LT_RATIO; u++) {
-                int64_t v = 0;
-                lt_status vs = lt_value(&r, (lt_unit_kind)u, &v);
-                printf(" %d:%lld", (int)vs, (long long)v);
-            }
-        }
+        print_reading(st, &r);
         printf("\n");
     }
     return 0;

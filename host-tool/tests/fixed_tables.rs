@@ -45,15 +45,23 @@ fn default_tables_fit_in_4_kib() {
     }
 }
 
-/// The reason the bias bend is removed before the residual table: over plain u, even 65 knots leave
-/// errors of thousands of LSB on a unit with a strong hot bend (module docs of `logtrim::fixed`).
+/// The reason the bias bend is removed before the residual table: over plain u, even 64 knots leave
+/// errors of thousands of LSB on a unit with a strong hot bend (module docs of `logtrim::fixed`); 64 knots
+/// is the most a stage row holds.
 #[test]
 fn a_plain_residual_table_cannot_hold_the_hot_bend() {
     let cal = units::hard_uncompensated();
-    let opts = TableOptions { xa_knots: 65, bias_bend: false, ..Default::default() };
-    let t = tables::build(&cal, None, &opts).unwrap();
-    let r = verify::run(&cal, &t.view(), None, &sampled()).unwrap();
-    assert!(r.fixed.errors.max_lsb > 100.0, "{r}");
+    let opts = TableOptions { xa_knots: 64, bias_bend: false, ..Default::default() };
+    // Either the surface does not even fit the residual's format (it spans tens of nepers), or it fits and
+    // misses by more than 100 LSB.
+    match tables::build(&cal, None, &opts) {
+        Err(tables::TableError::Range { what: "residual", .. }) => {}
+        Err(e) => panic!("{e}"),
+        Ok(t) => {
+            let r = verify::run(&cal, &t.view(), None, &sampled()).unwrap();
+            assert!(r.fixed.errors.max_lsb > 100.0, "{r}");
+        }
+    }
 }
 
 #[test]

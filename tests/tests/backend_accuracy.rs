@@ -136,3 +136,28 @@ fn micromath_within_its_documented_bounds() {
         assert!(got >= 0.5 * bound, "micromath {name}: measured {got:e}, far below the documented {bound:e}");
     }
 }
+
+/// The `Micromath` backend as the correction calls it: micromath's `ln` below 1 taken as −ln(1/x), its `exp`
+/// as it is.
+#[test]
+fn the_micromath_backend_within_its_documented_bounds() {
+    use logtrim::math::{Backend, Micromath};
+    const LN_BELOW_1_ABS: (f64, &str) = (7e-5, "backend `ln` below 1: 7e-5 absolute");
+    const EXP_REL: (f64, &str) = (2.5e-3, "backend `exp`: 2.5e-3 relative");
+    let below = measure(&log_spaced(1e-6, 1.0, 4), Micromath::ln, f64::ln);
+    let above = measure(&log_spaced(1.0, 1e6, 5), Micromath::ln, f64::ln);
+    let exps = measure(&lin_spaced(-20.0, 20.0, 6), Micromath::exp, f64::exp);
+    report("Micromath backend ln, 1e-6 <= x < 1", &below);
+    report("Micromath backend exp, -20 <= x <= 20", &exps);
+    for (_, text) in [LN_BELOW_1_ABS, EXP_REL] {
+        documented(text);
+    }
+    for (name, got, (bound, _)) in [
+        ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
+        ("ln at or above 1 (abs)", above.max_abs, LN_BELOW_1_ABS),
+        ("exp (rel)", exps.max_rel, EXP_REL),
+    ] {
+        assert!(got <= bound, "Micromath backend {name}: measured {got:e} above the documented {bound:e}");
+        assert!(got >= 0.5 * bound, "Micromath backend {name}: measured {got:e}, far below {bound:e}");
+    }
+}

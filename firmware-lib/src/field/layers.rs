@@ -136,6 +136,7 @@ pub(super) fn check_binding(record: RecordType, bound: u32, factory: Option<u32>
 /// the correction of the mean code exactly as before, then the layers apply, so
 /// [`Cycle`](crate::hal::Cycle) reports trimmed, blank-relative values.
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Layered<C> {

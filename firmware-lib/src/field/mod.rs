@@ -90,6 +90,7 @@ pub use blank::{Blank, BlankParts};
 pub use channels::{Bank, BankError, Cycle, LogChannel};
 pub use header::{RecordError, RecordInfo, RecordValueError};
 #[cfg(feature = "hal")]
+#[cfg_attr(docsrs, doc(cfg(feature = "hal")))]
 pub use layers::Layered;
 pub use layers::{Layers, ThroughLayers};
 pub use trim::{FixedStandard, Standard, Trim, TrimKind, TrimLimits, TrimParts};

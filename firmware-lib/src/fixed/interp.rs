@@ -1,86 +1,147 @@
-//! Uniform cubic B-spline evaluation in integer arithmetic: the basis weights and the 4-tap sums every
-//! stage of the fixed path shares (the rounding shifts are the crate's, in [`crate::qformat`]).
+//! Uniform cubic B-spline evaluation in 32-bit integer arithmetic: the basis weights of the three kinds of
+//! spline in the fixed path and their four-tap sums.
 //!
 //! A uniform cubic B-spline with control points `c_k` has, on segment `s` at fraction `t ∈ [0, 1]`, the value
 //! `Σ_{k=0..3} B_k(t)·c_{s+k}` with `B_0 = (1−t)³/6`, `B_1 = (3t³ − 6t² + 4)/6`, `B_2 = (−3t³ + 3t² + 3t + 1)/6`,
-//! `B_3 = t³/6`. The weights are positive and sum to one, so a table never rings past its control points,
-//! and the spline is C² across segments.
+//! `B_3 = t³/6` (de Boor, "A Practical Guide to Splines"). The weights are positive and sum to one, so a
+//! value never leaves the range of its control points, and the spline is C² across segments.
 //!
-//! In integers, `t` is Q20 and the weights are **six times** the basis, `6·B_k(t)` in Q28 (integer
-//! polynomials in t, no division), summing to exactly 6·2^28; every table stores its control points
-//! divided by 6 per axis (by 36 for the 2-D residual), folded into the table's scale by the host, so
-//! `Σ 6B_k · c_k/6` is the spline's value. `t² and t³` are truncated to Q28.
-//!
-//! Bounds (why nothing overflows for any stored value): `t ≤ 2^20`, so `t·t ≤ 2^40` and `t²·t ≤ 2^48`
-//! before their shifts; the weights are positive and sum to 6·2^28 < 2^30.6, so a weighted sum of stored
-//! i32 values is below 2^61.6 in magnitude and of i16 values below 2^45.6.
+//! * **Per-sample splines**: the residual over x̃ uses [`basis6`], six times the basis in Q13 (below 2^16,
+//!   the four summing to exactly `6·2^13`, no division), and [`spline6`] sums `floor(c_k·w_k / 2^16)` with
+//!   [`mulh16`]: eight 16 × 16-bit products and three quarters of the value, so that table stores its
+//!   control points times 4/3. The bias bend over `v`, whose control points change faster, uses the finer
+//!   [`basis16`] (the basis in Q16, `1/6` as `10923/2^16`) and [`spline16`] on full-scale control points.
+//!   The weights' rounding times the change of the control points over a segment is the methods' error;
+//!   for the tables they are used on it is far below 0.01 LSB.
+//! * **Temperature windows** ([`window_weights`], [`window_value`], [`window_collapse`]): the temperature
+//!   grid's knot step is a power of two and is cut into [`WINDOWS_LOG2`]` = 4`, i.e. 16, windows; the splines
+//!   over temperature are evaluated only at window ends, `t = m/16`, where six times the basis times 16³ is
+//!   an exact integer (at most 2^14). A value is then exact: `Σ w_k·c_k / 4096` split into the control
+//!   points' high and low halves, 8 products, no rounding but the final floor. The control points over
+//!   temperature are stored divided by 6.
+//! * **The sensor** ([`sensor_weights`], [`sensor_value`]): the code's fraction inside a segment has at most
+//!   16 bits; six times the basis in Q24 (from the exact t² and a truncated t³) and four exact
+//!   [`mul_wide`] products keep the temperature within a microkelvin of the spline over steep segments.
+//!   Its control points are stored divided by 6.
 
-use crate::qformat::round_shr_small;
+use super::arith::{mul_wide, mulh16};
 
-/// Fraction bits of the basis weights.
-pub(crate) const W_BITS: u32 = 28;
-/// Fraction bits of a knot position.
-pub(crate) const POS_FRAC: u32 = 20;
-/// One knot step in a position.
-pub(crate) const ONE: i64 = 1 << POS_FRAC;
+/// log2 of the number of windows per knot step of the temperature grid.
+pub const WINDOWS_LOG2: u32 = 4;
+/// Windows per knot step.
+pub const WINDOWS: u32 = 1 << WINDOWS_LOG2;
+/// The denominator of [`window_weights`]: `WINDOWS³` (times 6 in the weights' sum).
+pub const WINDOW_DEN_LOG2: u32 = 3 * WINDOWS_LOG2;
 
-/// Six times the four basis weights at `t` (Q20, clamped to `[0, 2^20]`), Q28, summing to exactly 6·2^28.
+/// The cubic B-spline basis at a Q16 fraction `t ∈ [0, 2^16)`, in Q16: each weight in `[0, 43691]`, the four
+/// summing to exactly 2^16 (tested at every `t`). `t²` and `t³` are truncated to Q16; `1/6` is
+/// `10923/2^16`; `(1 − t)³ = 1 − 3t + 3t² − t³` from the same truncated powers, saturating at 0. Finer than
+/// [`basis6`] by two multiplications: the bias bend, whose control points change fastest, uses it.
 #[inline(always)]
-pub(crate) fn weights(t: i64) -> [i64; 4] {
-    weights_in(t.clamp(0, ONE))
+pub fn basis16(t: u32) -> [u32; 4] {
+    let t = t & 0xffff;
+    let t2 = (t * t) >> 16;
+    let t3 = (t2 * t) >> 16;
+    let s3 = (65536 + 3 * t2).saturating_sub(3 * t + t3);
+    let b0 = (s3 * 10923) >> 16;
+    let b1 = (t3 >> 1) + 43691 - t2;
+    let b3 = (t3 * 10923) >> 16;
+    [b0, b1, 65536 - b0 - b1 - b3, b3]
 }
 
-/// [`weights`] for a fraction the caller has already bounded to `[0, 2^20]` (a masked or range-checked
-/// position), without the clamp. Outside that range the products could overflow: every call site says
-/// why its `t` is in range.
+/// `Σ floor(c_k·B_k / 2^16)` with the [`basis16`] weights at `t`: the spline's value for full-scale control
+/// points, within four units; below `max|c_k|` in magnitude.
 #[inline(always)]
-pub(crate) fn weights_in(t: i64) -> [i64; 4] {
-    let s = ONE - t;
-    let t2 = (t * t) >> 12; // Q28
-    let t3 = (t2 * t) >> 20; // Q28
-    let s2 = (s * s) >> 12;
-    let s3 = (s2 * s) >> 20;
-    // 3t³ − 6t² + 4 is in [1, 4] on [0, 1].
-    let w1 = 3 * t3 - 6 * t2 + (4 << W_BITS);
-    [s3, w1, (6 << W_BITS) - s3 - w1 - t3, t3]
+pub fn spline16(c: [i32; 4], t: u32) -> i32 {
+    let w = basis16(t);
+    mulh16(c[0], w[0]) + mulh16(c[1], w[1]) + mulh16(c[2], w[2]) + mulh16(c[3], w[3])
 }
 
-/// Σ wₖ·cₖ of four weights and four stored values (below 2^61.6 in magnitude: see the module docs).
+/// Six times the cubic B-spline basis at a Q16 fraction `t ∈ [0, 2^16)`, in Q13: each weight non-negative
+/// and below 2^16, the four summing to exactly `6·2^13 = 49152` (tested at every `t`). Six times the basis
+/// is an integer polynomial in `t` (`(1 − t)³`, `3t³ − 6t² + 4`, …, `t³`), so no division: `t²` and `t³`
+/// are rounded to Q16, three weights rounded to Q13 and the fourth takes the remainder, and
+/// `(1 − t)³ = 1 − 3t + 3t² − t³` saturates at 0 where the rounded powers would make it negative.
 #[inline(always)]
-pub(crate) fn dot4(w: &[i64; 4], c: [i64; 4]) -> i64 {
-    w[0] * c[0] + w[1] * c[1] + w[2] * c[2] + w[3] * c[3]
+pub fn basis6(t: u32) -> [u32; 4] {
+    let t = t & 0xffff;
+    let t2 = (t * t + 32768) >> 16;
+    let t3 = (t2 * t + 32768) >> 16;
+    let s3 = (65536 + 3 * t2).saturating_sub(3 * t + t3);
+    // Rounded to Q13 (the fourth weight takes the remainder).
+    let (w0, w1, w3) = ((s3 + 4) >> 3, (3 * t3 + 4 * 65536 + 4 - 6 * t2) >> 3, (t3 + 4) >> 3);
+    [w0, w1, 49152 - w0 - w1 - w3, w3]
 }
 
-/// Four consecutive entries of `table` from `start`, widened to i64, or `None` past the end.
+/// `Σ floor(c_k·w_k / 2^16)` with the [`basis6`] weights at `t`: three quarters of the spline's value for
+/// control points `c_k`, so the per-sample tables store their control points times 4/3. Within four units
+/// of `c_k`'s scale of the weighted mean; below `max|c_k|` in magnitude.
 #[inline(always)]
-pub(crate) fn four_i32(table: &[i32], start: usize) -> Option<[i64; 4]> {
+pub fn spline6(c: [i32; 4], t: u32) -> i32 {
+    let w = basis6(t);
+    mulh16(c[0], w[0]) + mulh16(c[1], w[1]) + mulh16(c[2], w[2]) + mulh16(c[3], w[3])
+}
+
+/// Six times the basis at `t = m/16` times 16³, for `m` in `0..=16`: exact integers, each at most 2^14,
+/// summing to `6·16³ = 24576`.
+#[inline(always)]
+pub fn window_weights(m: u32) -> [i32; 4] {
+    let m = m.min(WINDOWS) as i32;
+    let s = WINDOWS as i32 - m;
+    let (m2, m3) = (m * m, m * m * m);
+    let w0 = s * s * s;
+    let w1 = 3 * m3 - 6 * 16 * m2 + 4 * 4096;
+    [w0, w1, 24576 - w0 - w1 - m3, m3]
+}
+
+/// The exact value `floor(Σ w_k·c_k / 4096)` of a temperature spline at a window end, from control points
+/// stored divided by 6 and [`window_weights`]: the high halves `Σ w_k·(c_k >> 16)` (below 2^29.6) and the
+/// low halves `Σ w_k·(c_k & 0xffff)` (below 2^30.6) are each a 32-bit sum.
+#[inline(always)]
+pub fn window_value(c: [i32; 4], w: [i32; 4]) -> i64 {
+    let hi = w[0] * (c[0] >> 16) + w[1] * (c[1] >> 16) + w[2] * (c[2] >> 16) + w[3] * (c[3] >> 16);
+    let lo = (w[0] as u32) * (c[0] & 0xffff) as u32
+        + (w[1] as u32) * (c[1] & 0xffff) as u32
+        + (w[2] as u32) * (c[2] & 0xffff) as u32
+        + (w[3] as u32) * (c[3] & 0xffff) as u32;
+    (i64::from(hi) << (16 - WINDOW_DEN_LOG2)) + i64::from(lo >> WINDOW_DEN_LOG2)
+}
+
+/// `Σ w_k·c_k` of four i16 control points (stored divided by 6) with [`window_weights`]: the residual's
+/// column at a window end, exact, with `WINDOW_DEN_LOG2` = 12 more fraction bits (below 2^29.6).
+#[inline(always)]
+pub fn window_collapse(c: [i16; 4], w: [i32; 4]) -> i32 {
+    w[0] * i32::from(c[0]) + w[1] * i32::from(c[1]) + w[2] * i32::from(c[2]) + w[3] * i32::from(c[3])
+}
+
+/// Six times the basis at a Q16 fraction `t16`, in Q24: each weight at most 2^26, the four summing to
+/// exactly `6·2^24`. `t²` is exact in Q32 and then truncated to Q24, `t³` truncated to Q24.
+#[inline(always)]
+pub fn sensor_weights(t16: u32) -> [i32; 4] {
+    let t = t16 & 0xffff;
+    let t2 = ((t * t) >> 8) as i32; // Q24
+    let t3 = mulh16(t2, t); // Q24
+    let t1 = (t << 8) as i32; // Q24
+    let one = 1i32 << 24;
+    // (1 − t)³, at least 0 (the truncated powers can make it −1 near t = 1: it saturates there).
+    let s3 = (one - 3 * t1 + 3 * t2 - t3).max(0);
+    let w1 = 3 * t3 - 6 * t2 + 4 * one;
+    [s3, w1, 6 * one - s3 - w1 - t3, t3]
+}
+
+/// `floor(Σ w_k·c_k / 2^24)` of four control points (stored divided by 6) and [`sensor_weights`]: four exact
+/// products.
+#[inline(always)]
+pub fn sensor_value(c: [i32; 4], w: [i32; 4]) -> i64 {
+    (mul_wide(w[0], c[0]) + mul_wide(w[1], c[1]) + mul_wide(w[2], c[2]) + mul_wide(w[3], c[3])) >> 24
+}
+
+/// Four consecutive entries of `table` from `start`, or `None` past the end.
+#[inline(always)]
+pub fn four<T: Copy>(table: &[T], start: usize) -> Option<[T; 4]> {
     let s = table.get(start..start.checked_add(4)?)?;
-    let a: &[i32; 4] = s.try_into().ok()?;
-    Some([i64::from(a[0]), i64::from(a[1]), i64::from(a[2]), i64::from(a[3])])
-}
-
-/// Four consecutive entries of `table` from `start`, widened to i64, or `None` past the end.
-#[inline(always)]
-pub(crate) fn four_i16(table: &[i16], start: usize) -> Option<[i64; 4]> {
-    let s = table.get(start..start.checked_add(4)?)?;
-    let a: &[i16; 4] = s.try_into().ok()?;
-    Some([i64::from(a[0]), i64::from(a[1]), i64::from(a[2]), i64::from(a[3])])
-}
-
-/// One spline value: the weighted sum of four control points from `start` (stored divided by 6), back
-/// in the table's format.
-#[inline(always)]
-pub(crate) fn spline1(table: &[i32], start: usize, w: &[i64; 4]) -> Option<i64> {
-    Some(round_shr_small(dot4(w, four_i32(table, start)?), W_BITS))
-}
-
-/// Segment index and Q20 fraction of a Q20 knot position on a grid of `knots` knots (≥ 2): the segment is
-/// clamped to `0..=knots−2`, the fraction to `[0, 2^20]`.
-#[inline(always)]
-pub(crate) fn segment(pos: i64, knots: usize) -> (usize, i64) {
-    let last = (knots.max(2) as i64).min(1 << 40) - 2;
-    let seg = (pos >> POS_FRAC).clamp(0, last);
-    (seg as usize, (pos - (seg << POS_FRAC)).clamp(0, ONE))
+    let a: &[T; 4] = s.try_into().ok()?;
+    Some(*a)
 }
 
 #[cfg(test)]
@@ -88,30 +149,89 @@ mod tests {
     use super::*;
 
     #[test]
-    fn weights_sum_to_one_and_match_the_basis() {
-        // The uniform cubic B-spline basis (de Boor, "A Practical Guide to Splines"): at t = 0 the weights
-        // are 1/6, 4/6, 1/6, 0; at t = 1/2 they are 1/48, 23/48, 23/48, 1/48 (here times 6).
-        let one = 1i64 << W_BITS;
-        for t in (0..=ONE).step_by(97).chain([ONE]) {
-            let w = weights(t);
-            assert_eq!(w.iter().sum::<i64>(), 6 * one, "t={t}");
-            assert!(w.iter().all(|&x| x >= 0));
+    fn basis16_is_a_partition_of_unity_at_every_fraction() {
+        let mut worst = 0f64;
+        for t in 0..65536u32 {
+            let w = basis16(t);
+            assert_eq!(w.iter().sum::<u32>(), 65536, "t={t}");
+            assert!(w.iter().all(|&x| x <= 43691), "t={t}: {w:?}");
+            let x = f64::from(t) / 65536.0;
+            let s = 1.0 - x;
+            let exact = [
+                s * s * s / 6.0,
+                (3.0 * x * x * x - 6.0 * x * x + 4.0) / 6.0,
+                (-3.0 * x * x * x + 3.0 * x * x + 3.0 * x + 1.0) / 6.0,
+                x * x * x / 6.0,
+            ];
+            for k in 0..4 {
+                worst = worst.max((f64::from(w[k]) / 65536.0 - exact[k]).abs());
+            }
         }
-        let w = weights(0);
-        assert_eq!(w, [one, 4 * one, one, 0]);
-        let w = weights(ONE / 2);
-        assert_eq!(w, [one / 8, 23 * one / 8, 23 * one / 8, one / 8]);
-        // Out-of-range fractions clamp instead of overflowing.
-        assert_eq!(weights(i64::MIN), weights(0));
-        assert_eq!(weights(i64::MAX), weights(ONE));
+        assert_eq!(basis16(0), [10923, 43691, 10922, 0]);
+        assert!(worst < 4.0 / 65536.0, "{worst}");
     }
 
     #[test]
-    fn segments_clamp() {
-        assert_eq!(segment(-5, 10), (0, 0));
-        assert_eq!(segment(3 << POS_FRAC | 5, 10), (3, 5));
-        assert_eq!(segment(9 << POS_FRAC, 10), (8, ONE));
-        assert_eq!(segment(i64::MAX, 10), (8, ONE));
-        assert_eq!(segment(i64::MIN, 0), (0, 0));
+    fn basis6_is_six_times_a_partition_of_unity_at_every_fraction() {
+        // The uniform cubic B-spline basis (de Boor, "A Practical Guide to Splines"): 1/6, 4/6, 1/6, 0 at
+        // t = 0; 1/48, 23/48, 23/48, 1/48 at t = 1/2 (here six times, in Q13).
+        let mut worst = 0f64;
+        for t in 0..65536u32 {
+            let w = basis6(t);
+            assert_eq!(w.iter().sum::<u32>(), 49152, "t={t}");
+            assert!(w.iter().all(|&x| x <= 32772), "t={t}: {w:?}");
+            let x = f64::from(t) / 65536.0;
+            let s = 1.0 - x;
+            let exact = [
+                s * s * s,
+                3.0 * x * x * x - 6.0 * x * x + 4.0,
+                -3.0 * x * x * x + 3.0 * x * x + 3.0 * x + 1.0,
+                x * x * x,
+            ];
+            for k in 0..4 {
+                worst = worst.max((f64::from(w[k]) / 8192.0 - exact[k]).abs());
+            }
+        }
+        assert_eq!(basis6(0), [8192, 32768, 8192, 0]);
+        assert_eq!(basis6(32768), [1024, 23552, 23552, 1024]);
+        // Each weight within 2 units of Q13 of six times the basis (the per-sample splines' error budget).
+        assert!(worst < 2.0 / 8192.0, "{worst}");
+    }
+
+    #[test]
+    fn window_weights_are_the_exact_basis() {
+        for m in 0..=16u32 {
+            let w = window_weights(m);
+            assert_eq!(w.iter().sum::<i32>(), 24576);
+            let x = f64::from(m) / 16.0;
+            let s = 1.0 - x;
+            let exact = [s * s * s, 3.0 * x * x * x - 6.0 * x * x + 4.0, 0.0, x * x * x];
+            for k in [0, 1, 3] {
+                assert_eq!(f64::from(w[k]), exact[k] * 4096.0, "m={m} k={k}");
+            }
+            assert!(w.iter().all(|&v| (0..=16384).contains(&v)));
+        }
+        // A spline through the control points 6·(10, 20, 40, 80)/6 at m = 8: (10 + 23·20 + 23·40 + 80)/48.
+        let c = [10 << 20, 20 << 20, 40 << 20, 80 << 20];
+        let want = (10i64 + 23 * 20 + 23 * 40 + 80) * (1 << 20) * 6 / 48;
+        assert_eq!(window_value(c, window_weights(8)), want);
+        // Exact for extreme control points too (a floor, no overflow).
+        let c = [i32::MIN, i32::MAX, i32::MIN, i32::MAX];
+        for m in 0..=16 {
+            let w = window_weights(m);
+            let want: i64 = (0..4).map(|k| i64::from(w[k]) * i64::from(c[k])).sum::<i64>() >> 12;
+            assert_eq!(window_value(c, w), want);
+        }
+    }
+
+    #[test]
+    fn sensor_weights_sum_to_six() {
+        for t in (0..65536u32).step_by(7).chain([65535]) {
+            let w = sensor_weights(t);
+            assert_eq!(w.iter().map(|&v| i64::from(v)).sum::<i64>(), 6 << 24);
+            assert!(w.iter().all(|&v| (0..=4 << 24).contains(&v)), "t={t}: {w:?}");
+        }
+        assert_eq!(sensor_weights(0), [1 << 24, 4 << 24, 1 << 24, 0]);
+        assert_eq!(sensor_weights(32768), [1 << 21, 23 << 21, 23 << 21, 1 << 21]);
     }
 }

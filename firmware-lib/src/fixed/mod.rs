@@ -1,37 +1,50 @@
 //! The integer fixed-point correction: (log ADC code, temperature code or m°C) → x and every [`Unit`], in
-//! i32/i64 arithmetic only, for cores without an FPU. It evaluates the same calibration as
+//! 32-bit integer arithmetic, for cores without an FPU. It evaluates the same calibration as
 //! [`Calibration::correct`](crate::Calibration::correct), from tables the host generates
 //! (`logtrim_host::tables::build`) and proves against the f64 reference (`logtrim verify`).
+//!
+//! It is written for the smallest of those cores, a Cortex-M0 with its 32 × 32 → 32-bit multiply only: every
+//! product is built from 16 × 16-bit products ([`arith`]), every position on a grid is a shift (every knot
+//! step is a power of two), and nothing divides. No 64-bit multiply, divide, shift or count-leading-zeros
+//! helper of the compiler's runtime is called on any path (`scripts/bench-arm.sh` lists the helpers each
+//! ARM build links and counts the calls per sample).
 //!
 //! # The chain
 //!
 //! 1. The code is checked exactly as in the f32 path ([`Error::CodeOutOfAdcRange`], [`Error::Saturated`]).
 //! 2. The temperature θ comes from the caller in m°C, or from the temperature channel's code through
 //!    [`SensorTable`] (a cubic spline indexed by the code itself; codes outside the sensor's valid span are
-//!    [`Error::Sensor`], with up to two fault zones on each side, e.g. "out of the model's range" next to
-//!    the span and "short" or "open" at the rail). It must lie in the calibrated range plus the allowed extrapolation
-//!    ([`Error::TemperatureOutOfRange`] otherwise; beyond the calibrated range the reading is flagged).
-//! 3. Four tables over temperature, cubic B-splines on one uniform grid sharing one set of weights, give the
-//!    offset `O(T)` (codes, level shift included), the inverse slope `1/S(T)` (nepers per code), the bias
-//!    floor `λ(T) = ln β(T)` and the sensitivity limit `u_min(T)`. The apparent x is
-//!    `u = (code − O(T))/S(T)` (the `w` of the model).
-//! 4. Where the sensitivity ∂w/∂x is below the calibration's minimum (`u < u_min(T)`) the reading is
+//!    [`Error::Sensor`], with up to two fault zones on each side, e.g. "out of the model's range" next to the
+//!    span and "short" or "open" at the rail). It must lie in the calibrated range plus the allowed
+//!    extrapolation ([`Error::TemperatureOutOfRange`] otherwise; beyond the calibrated range the reading is
+//!    flagged).
+//! 3. Four tables over temperature, cubic B-splines on one uniform grid whose knot step is `2^t_step_log2`
+//!    θ, give the offset `O(T)` (codes, level shift included), the inverse slope `A(T) = 1/S(T)` (nepers per
+//!    code), the bias floor `λ(T) = ln β(T)` and the sensitivity limit `u_min(T)`. Each knot step is cut
+//!    into 16 **windows**; the splines are evaluated exactly at the two ends of θ's window and interpolated
+//!    linearly inside it (the window is a fraction of a kelvin, so the interpolation's error is a few
+//!    thousandths of an LSB; `verify` measures it with everything else). The apparent x is
+//!    `u = (code − O)·A` (the `w` of the model).
+//! 4. Where the sensitivity ∂w/∂x is below the calibration's minimum (`u < u_min`) the reading is
 //!    [`Error::BelowRange`]. With a bias term, the bias bend is removed analytically:
-//!    `x̃ = u + G(u − λ(T))` with the universal `G(v) = ln(1 − e^(−v))` (see [`transcend`]), so that
+//!    `x̃ = u + G(u − λ)` with the universal `G(v) = ln(1 − e^(−v))` (see [`transcend`]), so that
 //!    `x̃ = ln(e^u − β)` exactly when the front end has no bulk resistance and no residual.
-//! 5. What is left, `r(x̃, T) = x − x̃` (the bulk-resistance bend, the fitted residual, the interaction of
-//!    the two), is smooth: a bicubic B-spline over (x̃, T) stored as i16 with one scale. `x = x̃ + r`, and x
-//!    outside the calibrated x range is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
+//! 5. What is left, `r(x̃, T) = x − x̃` (the bulk-resistance bend, the fitted residual, the interaction of the
+//!    two), is smooth: a bicubic B-spline over (x̃, T) stored as i16 with one scale. Its columns over
+//!    temperature are evaluated at the window's ends and interpolated like the scalars; over x̃ (knot step
+//!    `2^xa_step_log2` in Q24) it is a per-sample spline. `x = x̃ + r`, and x outside the calibrated x range
+//!    is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
 //! 6. [`FixedReading::value`] turns x into any [`Unit`] (`e^x` for the linear units from [`transcend`]).
 //!
-//! Steps 2–3 depend on the temperature only: [`FixedCalibration::correct`] does everything per call;
-//! a firmware that reads the temperature less often than the log channel computes a [`FixedStage`]
-//! (or a [`FixedRowStage`], which also collapses the residual over temperature) per temperature reading and
-//! calls [`FixedCalibration::correct_staged`] / [`FixedCalibration::correct_row`] per log sample; a
-//! [`StageCache`] does that bookkeeping itself, rebuilding its row stage only when the temperature code (or
-//! m°C value) changes. All of them give bit-identical results, errors included. (A row stage also turns the
-//! header's scales into plain shifts and limits where it can prove, for every code of the converter, that
-//! the saturating forms never saturate: the per-sample work drops by about a third.)
+//! Steps 2–3 depend on the temperature only. [`FixedCalibration::correct`] and
+//! [`FixedCalibration::correct_raw`] do everything per call, evaluating only the four residual columns the
+//! code needs. A firmware that reads many log codes at one temperature (a DMA buffer) builds a
+//! [`FixedStage`] once ([`FixedCalibration::stage_millicelsius`], [`FixedCalibration::stage_code`]:
+//! the scalars and the whole residual row at θ) and calls [`FixedCalibration::correct_staged`] or
+//! [`FixedCalibration::correct_block`] per code. A [`StageCache`] keeps the window of the last temperature
+//! (and the last few temperature codes' θ): while the temperature stays in that window, held or wandering,
+//! a sample costs the interpolation and the log channel's work alone. All of them give bit-identical
+//! results, errors included, because they run the same integer operations on the same values.
 //!
 //! Why `x̃` and not `u` as the residual's coordinate: near the swamped low end `x − u` behaves like
 //! `ln(u − λ)` and moves with temperature; no uniform (u, T) grid of a few KiB interpolates it to ¼ LSB on a
@@ -40,9 +53,10 @@
 //!
 //! # Q formats
 //!
-//! `Qn` means the integer is the value times 2^n. θ is the internal temperature. Spline control points are
-//! stored divided by 6 per axis (see the weights in the spline core), which the host folds into each
-//! table's scale.
+//! `Qn` means the integer is the value times 2^n. θ is the internal temperature. The splines over
+//! temperature and the sensor's store their control points divided by 6 (their weights are six times the
+//! basis); the residual's over x̃ times 4/3 (its weights are six times the basis in Q13 and its sums three
+//! quarters of the value); the bend's at full scale.
 //!
 //! | quantity | type | format |
 //! |---|---|---|
@@ -50,27 +64,34 @@
 //! | temperature input | i32 | m°C |
 //! | θ, internal temperature; [`FixedHeader`] temperatures | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
 //! | [`SensorTable::knots`] | i32 | θ / 6 |
-//! | knot positions | i64 | Q20 knots; segment = position >> 20, fraction t = low 20 bits |
-//! | spline weights | i64 | six times the basis, Q28, four per axis, summing to exactly 6·2^28 |
+//! | window fraction, knot fractions | u32 | Q16 (`0..2^16`) |
+//! | per-sample spline weights ([`interp::basis6`], the bend's [`interp::basis16`]) | u32 | six times the basis in Q13; the basis in Q16 |
+//! | window weights ([`interp::window_weights`]) | i32 | six times the basis · 16³, exact |
+//! | sensor weights ([`interp::sensor_weights`]) | i32 | six times the basis, Q24 |
 //! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
-//! | [`FixedCalibration::inv_slope`] 1/S(T) | i32 | Np/code · 2^`inv_slope_frac` / 6 |
+//! | [`FixedCalibration::inv_slope`] A(T) = 1/S(T) | i32 (u32 at a window end) | Np/code · 2^`inv_slope_frac` / 6, `offset_frac + inv_slope_frac = 56` |
 //! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np / 6 |
-//! | u, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i64 inside, i32 out | Q24 Np |
-//! | [`universal::BEND`] G control points | i32 | Q24 Np / 6 |
-//! | [`universal::EXP2`] 2^(j/32) | i32 | Q30 |
-//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` / 36 |
-//! | residual columns collapsed over T | i64 (i32 in a [`FixedRowStage`]) | Np · 2^(`residual_frac` + 13) / 6 |
+//! | `d = code·2^offset_frac − O` | i32 | codes · 2^`offset_frac` |
+//! | u = high word of `d·A`, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i32 | Q24 Np |
+//! | [`universal::BEND`] G control points | i32 | Q24 Np |
+//! | [`universal::EXP64`] e^(j/64) | i32 | Q30 |
+//! | [`FixedCalibration::residual`] r control points | i16 | Np · 2^`residual_frac` · 2/9 (1/6 for the temperature axis, 4/3 for x̃) |
+//! | residual columns at a window end, at θ | i32 | Np · 2^(`residual_frac` + 12) |
 //! | output: nepers, decades, dB (power and amplitude), absorbance, transmittance % | i64 | Q24 of the unit |
 //! | output: ratio | i64 | Q32 |
 //!
 //! # Overflow
 //!
-//! Every product is of a weight and a stored i32/i16 value (four-term sums below 2^61.6), of
-//! two values already bounded to i32 range (`saturating_mul` where both come from data), or of a value
-//! bounded to ±2^31 and a constant below 2^32. Intermediate nepers are clamped to ±2^31 (±128 Np, far
-//! outside any table, so the clamp can only turn into a range error). Shift counts from data are clamped.
-//! So no input and no table content can wrap or panic; [`FixedCalibration::validate`] refuses tables that
-//! would give meaningless results, and `tables::build` on the host only produces tables it validates.
+//! Every product is a 16 × 16-bit product inside [`arith`] (bounds there). What the sums may reach is
+//! bounded where the values enter: a value evaluated from the tables at a window end (an exact i64) must lie
+//! within its range or the correction is [`Error::InvalidCalibration`]: O within `(−2^29, 2^30)`
+//! ([`OFFSET_RANGE`]), A within `(0, 2^32)` ([`INV_SLOPE_LIMIT`]; the window's parabolas are checked to stay
+//! inside these too), λ and u_min within ±2^29 ([`BIAS_LIMIT`]); a residual column is below 2^29.6 for any
+//! i16 content, and `residual_frac ≥ 14` puts the residual in Q24 below 2^27.6; a code must satisfy
+//! `code·2^offset_frac < 2^30` ([`CODE_LIMIT`]). From these: `|d| < 1.5·2^30`, `|u| < 1.5·2^30`,
+//! `|v| < 2^30.9`, `|x̃| < 2^30.6`, `|x| < 2^30.8`. Shift counts from a header are clamped, and every table access is checked. So no input and
+//! no table content can wrap or panic; [`FixedCalibration::validate`] refuses tables that would give
+//! meaningless results (or refusals), and `tables::build` on the host only produces tables it validates.
 //!
 //! # Storage: borrowed slices
 //!
@@ -78,46 +99,62 @@
 //! dimensions and scales in a [`FixedHeader`]. Emitted Rust (`include!` from a build script's `OUT_DIR`)
 //! writes `const` arrays and a `const FixedCalibration<'static>` that borrows them, so flash holds each
 //! table at its real size, with no spare capacity; a C header does the same with arrays and a struct of
-//! pointers; a per-unit EEPROM image is read once into a caller-owned buffer (or into `static mut`-free
-//! arrays of its own) from which a `FixedCalibration<'_>` borrows. Fixed-capacity owned arrays would cost
-//! the largest size in every product's flash and need serde helpers for arrays over 32; slices cost neither.
-//! With the `serde` feature the header derives both traits and the tables serialise (the host deserialises
-//! into its own owned form, `logtrim_host::tables::FixedTables`).
+//! pointers; a per-unit EEPROM image is read once into a caller-owned buffer from which a
+//! `FixedCalibration<'_>` borrows. With the `serde` feature the header derives both traits and the tables
+//! serialise (the host deserialises into its own owned form, `logtrim_host::tables::FixedTables`).
 
 #![deny(clippy::float_arithmetic)]
 
-mod interp;
+pub mod arith;
+pub mod interp;
+mod stage;
 pub mod transcend;
 pub mod universal;
 
 #[cfg(test)]
 mod tests;
 
+pub use stage::{FixedStage, StageCache, ROW_CAPACITY, STAGE_MEMO};
+
 use crate::error::{CalibrationDefect, Error, SensorFault};
-use crate::qformat::{millicelsius_of_theta, rescale, round_shr, round_shr_small};
+use crate::qformat::millicelsius_of_theta;
 use crate::units::Unit;
-use interp::{dot4, four_i16, segment, spline1, weights, POS_FRAC, W_BITS};
+use arith::{mul_hi_u, mulh16};
+use interp::{
+    four, sensor_value, sensor_weights, spline6, window_collapse, window_value, window_weights, WINDOWS,
+    WINDOWS_LOG2, WINDOW_DEN_LOG2,
+};
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
-pub const LAYOUT_VERSION: u8 = 1;
-/// Fraction bits of θ relative to m°C (θ = m°C · 2^10), from the crate's Q formats.
+pub const LAYOUT_VERSION: u8 = 2;
 pub use crate::qformat::THETA_FRAC;
 /// Fraction bits of every quantity in nepers (u, x̃, x, λ, u_min, the bend table).
 pub const X_FRAC: u32 = 24;
-/// Fraction bits of a knot position (segment = position >> 20).
-pub const POSITION_FRAC: u32 = POS_FRAC;
-/// Shift of the temperature grid's position: `pos_q20 = (θ − t_origin)·t_inv_step >> T_POS_SHIFT`, so
-/// `t_inv_step = 2^48 / (knot step in θ)`.
-pub const T_POS_SHIFT: u32 = 28;
-/// Shift of the x̃ grid's position: `pos_q20 = (x̃ − xa_origin)·xa_inv_step >> XA_POS_SHIFT`, so
-/// `xa_inv_step = 2^48 / (knot step in Q24 Np)` = `2^24 / (knot step in Np)`.
-pub const XA_POS_SHIFT: u32 = 28;
-/// Extra fraction bits kept in the residual's partial sums.
-pub const RESIDUAL_GUARD: u32 = 13;
-/// Intermediate nepers are clamped to ±2^31 in Q24 (±128 Np).
-const X_CLAMP: i64 = 1 << 31;
+/// `offset_frac + inv_slope_frac`: u (Q24) is the high word of `d·A`.
+pub const SLOPE_FRAC_SUM: u32 = X_FRAC + 32;
+/// Extra fraction bits of a residual column at a window end (the window weights' denominator, 16³).
+pub const COLUMN_GUARD: u32 = WINDOW_DEN_LOG2;
+/// The offset O evaluated at a window end (and anywhere in a window) must lie strictly within this range
+/// (codes · 2^`offset_frac`): with `code·2^offset_frac < 2^30`, `|d| < 1.5·2^30`.
+pub const OFFSET_RANGE: (i32, i32) = (-(1 << 29), 1 << 30);
+/// The inverse slope A at a window end (and anywhere in a window) must lie strictly within `(0, 2^32)`.
+pub const INV_SLOPE_LIMIT: i64 = 1 << 32;
+/// θ from the sensor table must lie within ±this.
+pub const THETA_LIMIT: i32 = 1 << 30;
+/// The bias floor λ and the sensitivity limit u_min at a window end must lie within ±this (Q24: 32 Np).
+pub const BIAS_LIMIT: i32 = 1 << 29;
+/// `code·2^offset_frac` must stay below this.
+pub const CODE_LIMIT: u32 = 1 << 30;
+/// Smallest and largest `t_step_log2` (knot steps from 1 K to 268 K).
+pub const T_STEP_LOG2_RANGE: (u8, u8) = (20, 28);
+/// Smallest and largest `xa_step_log2` (x̃ knot steps from 1/256 Np to 16 Np).
+pub const XA_STEP_LOG2_RANGE: (u8, u8) = (16, 28);
+/// Smallest and largest `residual_frac`.
+pub const RESIDUAL_FRAC_RANGE: (u8, u8) = (14, 30);
+/// Largest `|x_min|`, `|x_max|`: 100 Np in Q24.
+pub const X_LIMIT: i32 = 100 << X_FRAC;
 
-/// The scalars of a fixed-point calibration: dimensions, scales, ranges (formats in the module docs).
+/// The scalars of a fixed-point calibration: dimensions, scales and ranges (formats in the module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
 #[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
@@ -141,11 +178,11 @@ pub struct FixedHeader {
     pub t_knots: u16,
     /// θ of knot 0.
     pub t_origin: i32,
-    /// Knots per unit θ, scaled: `pos_q20 = (θ − t_origin)·t_inv_step >> 28` (= 2^48 / step).
-    pub t_inv_step: i32,
+    /// The temperature grid's knot step is `2^t_step_log2` θ (16 windows of `2^(t_step_log2 − 4)`).
+    pub t_step_log2: u8,
     /// Fraction bits of the offset table.
     pub offset_frac: u8,
-    /// Fraction bits of the inverse-slope table.
+    /// Fraction bits of the inverse-slope table (`56 − offset_frac`).
     pub inv_slope_frac: u8,
     /// The bias bend is removed with λ(T) and the bend table ([`FixedCalibration::ln_bias`] in use).
     pub bias_bend: bool,
@@ -155,8 +192,8 @@ pub struct FixedHeader {
     pub xa_knots: u16,
     /// x̃ of knot 0, Q24 Np.
     pub xa_origin: i32,
-    /// Knots per unit x̃, scaled: `pos_q20 = (x̃ − xa_origin)·xa_inv_step >> 28` (= 2^24 / step in Np).
-    pub xa_inv_step: i32,
+    /// The x̃ grid's knot step is `2^xa_step_log2` in Q24 (22: 0.25 Np).
+    pub xa_step_log2: u8,
     /// Fraction bits of the residual table (i16).
     pub residual_frac: u8,
     /// Lowest calibrated x, Q24 Np.
@@ -188,8 +225,17 @@ pub struct SensorTable<'a> {
     pub far_above_code: u32,
     /// The fault reported for codes above `far_above_code` (e.g. an open circuit at the rail).
     pub fault_far_above: SensorFault,
-    /// Control points, θ (Q10 m°C): `segments + 3` of them, the first at knot −1.
+    /// Control points, θ / 6 (Q10 m°C): `((code_hi − code_lo) >> step_log2) + 4` of them, the first at
+    /// knot −1.
     pub knots: &'a [i32],
+}
+
+impl SensorTable<'_> {
+    /// The number of control points the span needs: one segment per `2^step_log2` codes, the code at the
+    /// span's top included, plus three.
+    pub fn knots_needed(code_lo: u32, code_hi: u32, step_log2: u8) -> usize {
+        (code_hi.saturating_sub(code_lo) >> u32::from(step_log2).min(16)) as usize + 4
+    }
 }
 
 /// A calibration in integer form: the header and the tables (formats in the module docs).
@@ -201,7 +247,7 @@ pub struct FixedCalibration<'a> {
     pub header: FixedHeader,
     /// O(T), `t_knots + 2` control points.
     pub offset: &'a [i32],
-    /// 1/S(T), `t_knots + 2` control points.
+    /// A(T) = 1/S(T), `t_knots + 2` control points.
     pub inv_slope: &'a [i32],
     /// λ(T) = ln β(T), `t_knots + 2` control points, or empty without [`FixedHeader::bias_bend`].
     pub ln_bias: &'a [i32],
@@ -213,110 +259,180 @@ pub struct FixedCalibration<'a> {
     pub sensor: Option<SensorTable<'a>>,
 }
 
-/// The fixed-point temperature stage: the temperature-dependent part of a correction, computed once per
-/// temperature ([`FixedCalibration::stage_millicelsius`], [`FixedCalibration::stage_code`]) and reusable for
-/// any number of log codes at that temperature ([`FixedCalibration::correct_staged`]). It holds the
-/// temperature's segment and spline weights on the grid and the offset, inverse slope, bias floor and
-/// sensitivity limit there.
+/// The four per-temperature values at one temperature (formats in the module docs); `ln_bias` is 0
+/// without the bias bend and `u_min` is `i32::MIN` without the sensitivity limit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct FixedStage {
-    extrapolated: bool,
-    seg: usize,
-    w: [i64; 4],
-    offset: i64,
-    inv_slope: i64,
-    ln_bias: i64,
-    u_min: i64,
+pub(crate) struct Scalars {
+    pub(crate) offset: i32,
+    pub(crate) inv_slope: u32,
+    pub(crate) ln_bias: i32,
+    pub(crate) u_min: i32,
 }
 
-impl FixedStage {
-    /// The temperature lies outside the calibrated range, within the allowed extrapolation.
-    pub fn extrapolated(&self) -> bool {
-        self.extrapolated
-    }
+impl Scalars {
+    pub(crate) const ZERO: Scalars = Scalars { offset: 0, inv_slope: 0, ln_bias: 0, u_min: 0 };
 }
 
-/// Capacity of a [`FixedRowStage`]: residual grids of up to `ROW_CAPACITY − 2` x̃ knots.
-pub const ROW_CAPACITY: usize = 66;
-
-/// A [`FixedStage`] with the residual collapsed over temperature for every x̃ column
-/// ([`FixedCalibration::row_stage`]), for [`FixedCalibration::correct_row`]. 280 bytes, no heap.
+/// The per-temperature values over one window of the temperature grid, as the path interpolates them:
+/// the bias floor and the sensitivity limit linearly between the window's ends, the offset and the inverse
+/// slope along the parabola through both ends with the spline's curvature at the window's middle,
+/// `q(f) = q₀ + f·(d − (1 − f)·c)` with `d = q₁ − q₀` (so `q(0) = q₀`, `q(1) = q₁`). Each is the cubic
+/// spline to within its third-order term over a sixteenth of a knot step (parts per billion of the
+/// value); a straight line would leave a few hundredths of an LSB on a unit whose slope follows the
+/// absolute temperature.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct FixedRowStage {
-    stage: FixedStage,
-    fast: Option<RowFast>,
-    row: [i32; ROW_CAPACITY],
-    len: usize,
+pub(crate) struct Window {
+    /// The values at the window's start.
+    start: Scalars,
+    /// `d − c` for the offset and the inverse slope, `d` for the others.
+    slope: [i32; 4],
+    /// The curvature terms `c` of the offset and the inverse slope.
+    curv: [i32; 2],
 }
 
-/// Everything the log channel needs at one temperature, gathered from the header and the stage, for the
-/// plain-arithmetic form of steps 3–5 ([`RowFast::x`]). Built only where that form is exactly the general
-/// one ([`LinearStep::new`] proved the linear step; the grid has at least two knots).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct RowFast {
-    linear: LinearStep,
-    u_min: i64,
-    ln_bias: i64,
-    bias_bend: bool,
-    xa_origin: i64,
-    xa_inv_step: i64,
-    /// `(xa_knots − 1)·2^20`: the last position on the grid.
-    pos_max: i64,
-    /// `xa_knots − 2`: the last segment.
-    seg_max: usize,
-    scale: ResidualScale,
-    x_min: i64,
-    x_max: i64,
-}
+impl Window {
+    pub(crate) const ZERO: Window = Window { start: Scalars::ZERO, slope: [0; 4], curv: [0; 2] };
 
-impl RowFast {
-    fn new(h: &FixedHeader, stage: &FixedStage) -> Option<RowFast> {
-        let knots = usize::from(h.xa_knots);
-        if knots < 2 {
-            return None;
-        }
-        Some(RowFast {
-            linear: LinearStep::new(h, stage)?,
-            u_min: stage.u_min,
-            ln_bias: stage.ln_bias,
-            bias_bend: h.bias_bend,
-            xa_origin: i64::from(h.xa_origin),
-            xa_inv_step: i64::from(h.xa_inv_step),
-            pos_max: (knots as i64 - 1) << POS_FRAC,
-            seg_max: knots - 2,
-            scale: ResidualScale::of(h),
-            x_min: i64::from(h.x_min),
-            x_max: i64::from(h.x_max),
-        })
-    }
-
-    /// x in Q24 for a checked code: the same steps and results as [`FixedCalibration::x_from_u`] with the
-    /// collapsed row, with the header's scales already turned into shifts and limits.
+    /// The values at a Q16 fraction of the window.
     #[inline(always)]
-    fn x(&self, row: &[i32; ROW_CAPACITY], code: u32) -> Result<i32, Error> {
-        // Inside ±2^31 for every code (`LinearStep::new`), so the general form's clamp is a no-op.
-        let u = self.linear.u(code);
-        if u < self.u_min {
+    pub(crate) fn at(&self, f16: u32) -> Scalars {
+        let (s, d, c) = (&self.start, &self.slope, &self.curv);
+        Scalars {
+            offset: s.offset + mulh16(d[0] + mulh16(c[0], f16), f16),
+            // Checked when the window was made: the parabola stays within (0, 2^32).
+            inv_slope: (i64::from(s.inv_slope) + i64::from(mulh16(d[1] + mulh16(c[1], f16), f16))) as u32,
+            ln_bias: s.ln_bias + mulh16(d[2], f16),
+            u_min: s.u_min + mulh16(d[3], f16),
+        }
+    }
+}
+
+/// The quadratic form of one value over a window (see [`Window`]): `(d − c, c)`, checked so that `q(f)`
+/// stays strictly within `(lo, hi)` for every fraction (it lies within `|c|/4` and the floors' few units
+/// of the chord), and every intermediate (`d`, `d − c`, `c`) fits an i32.
+#[inline(always)]
+fn parabola(q0: i64, q1: i64, c: i64, lo: i64, hi: i64) -> Result<(i32, i32), Error> {
+    let d = q1 - q0;
+    let dc = d - c;
+    let reach = c.abs() + 4;
+    if q0.min(q1) - reach > lo && q0.max(q1) + reach < hi && d.abs() < 1 << 31 && dc.abs() < 1 << 31 {
+        Ok((dc as i32, c as i32))
+    } else {
+        Err(BAD_TABLE)
+    }
+}
+
+/// The header's values the per-sample part of a correction uses, gathered once with their shift counts
+/// clamped (the per-sample code then needs no clamp): held by a [`FixedStage`] and a [`StageCache`],
+/// made per call on the direct path.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub(crate) struct Plan {
+    /// Codes strictly between the rail margins and below [`CODE_LIMIT`]` >> offset_frac`: the one range
+    /// check of a sample (the others go through [`FixedCalibration::check_code`]).
+    code_lo: u32,
+    code_hi: u32,
+    qo: u32,
+    bias_bend: bool,
+    xa_origin: i32,
+    xs: u32,
+    /// `xa_knots − 1`: segments at or past it are above range.
+    xa_last: u32,
+    /// The residual's move to Q24: `(r + round) >> rshift`.
+    rshift: u32,
+    rround: i32,
+    x_min: i32,
+    x_max: i32,
+}
+
+/// `v` clamped to `[lo, hi]` (`lo ≤ hi`) in a `const fn`.
+const fn clamp_u8(v: u8, (lo, hi): (u8, u8)) -> u32 {
+    (if v < lo {
+        lo
+    } else if v > hi {
+        hi
+    } else {
+        v
+    }) as u32
+}
+
+impl Plan {
+    pub(crate) const fn of(h: &FixedHeader) -> Plan {
+        let qo = if h.offset_frac > 30 { 30 } else { h.offset_frac as u32 };
+        let code_lo = h.rail_margin.saturating_add(1);
+        let rail_hi = match h.adc_max_code.checked_sub(h.rail_margin) {
+            Some(v) => v.saturating_sub(1),
+            None => 0,
+        };
+        let limit = (CODE_LIMIT >> qo) - 1;
+        let rshift = clamp_u8(h.residual_frac, RESIDUAL_FRAC_RANGE) + COLUMN_GUARD - X_FRAC;
+        Plan {
+            code_lo,
+            code_hi: if rail_hi < limit { rail_hi } else { limit },
+            qo,
+            bias_bend: h.bias_bend,
+            xa_origin: h.xa_origin,
+            xs: clamp_u8(h.xa_step_log2, XA_STEP_LOG2_RANGE),
+            xa_last: (h.xa_knots as u32).saturating_sub(1),
+            rshift,
+            rround: if rshift == 0 { 0 } else { 1 << (rshift - 1) },
+            x_min: h.x_min,
+            x_max: h.x_max,
+        }
+    }
+
+    /// The direct path's code checks in one comparison for codes between the rails: the others get
+    /// [`FixedCalibration::check_code`]'s exact error, or [`Error::InvalidCalibration`] past the code limit
+    /// (tables `validate` refuses).
+    #[inline(always)]
+    pub(crate) fn check_code(&self, cal: &FixedCalibration<'_>, code: u32) -> Result<(), Error> {
+        if !(self.code_lo <= code && code <= self.code_hi) {
+            cal.check_code(code)?;
+            if code >= CODE_LIMIT >> self.qo {
+                return Err(BAD_TABLE);
+            }
+        }
+        Ok(())
+    }
+}
+
+impl Plan {
+    /// x in Q24 for a checked code at a temperature's scalars (steps 3–5 of the chain); `columns(seg)` gives
+    /// the residual's four columns `seg..seg + 4` at that temperature.
+    #[inline(always)]
+    pub(crate) fn x_of(
+        &self,
+        s: &Scalars,
+        code: u32,
+        columns: impl FnOnce(usize) -> Result<[i32; 4], Error>,
+    ) -> Result<i32, Error> {
+        // code·2^qo < 2^30 (checked) and −2^29 < O < 2^30: |d| < 1.5·2^30; u is the high word of d·A with
+        // 0 < A < 2^32: |u| < 1.5·2^30.
+        let d = ((code << self.qo) as i32) - s.offset;
+        let u = mul_hi_u(d, s.inv_slope);
+        if u < s.u_min {
             return Err(Error::BelowRange);
         }
-        let xa = if self.bias_bend { u + transcend::bend_q24(u - self.ln_bias)? } else { u };
-        let pos = (xa - self.xa_origin).saturating_mul(self.xa_inv_step) >> XA_POS_SHIFT;
-        if pos < 0 {
+        // |λ| < 2^29: v fits; |G| < 2^28.
+        let xa = if self.bias_bend { u + transcend::bend_q24(u - s.ln_bias)? } else { u };
+        // The position on the x̃ grid: the difference of two i32s, formed in i64; once it is known to be
+        // non-negative it is below 2^32 and shifts as a u32.
+        let p = i64::from(xa) - i64::from(self.xa_origin);
+        if p < 0 {
             return Err(Error::BelowRange);
         }
-        if pos > self.pos_max {
+        let p = p as u32;
+        let seg = p >> self.xs;
+        // The last knot itself is past the grid (the host keeps a margin beyond every usable x̃).
+        if seg >= self.xa_last {
             return Err(Error::AboveRange);
         }
-        // 0 ≤ pos ≤ (knots − 1)·2^20, so the segment needs only the upper clamp and t lies in [0, 2^20]:
-        // what `segment` gives.
-        let seg = ((pos >> POS_FRAC) as usize).min(self.seg_max);
-        let t = pos - ((seg as i64) << POS_FRAC);
-        // seg + 4 ≤ knots + 2, the row's length: never past the collapsed columns.
-        let cols = interp::four_i32(row, seg).ok_or(BAD_TABLE)?;
-        let r = self.scale.apply(round_shr_small(dot4(&interp::weights_in(t), cols), W_BITS));
+        let c = columns(seg as usize)?;
+        // Columns are below 2^29.6 in magnitude, so the per-sample spline fits an i32; shifted by at least
+        // 2 bits it is below 2^27.6 and x fits.
+        let r = (spline6(c, (p & ((1 << self.xs) - 1)) >> (self.xs - 16)) + self.rround) >> self.rshift;
         let x = xa + r;
         if x < self.x_min {
             return Err(Error::BelowRange);
@@ -324,249 +440,95 @@ impl RowFast {
         if x > self.x_max {
             return Err(Error::AboveRange);
         }
-        Ok(x as i32)
+        Ok(x)
     }
 }
 
-/// The linear step `u = ((code << qo) − O)·(1/S)` rescaled to Q24, in plain arithmetic: built only where the
-/// row stage has proved, at both ends of the converter's codes, that neither the product nor the rounding
-/// saturates and that u stays inside the ±2^31 clamp (u is linear in the code, so the ends bound every
-/// code). It then gives exactly the general form's result with a third of its instructions.
+/// The temperature side of a header, gathered once: the accepted range in θ and in m°C (rounded inwards),
+/// the calibrated range, and the grid's origin and window shift (clamped).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct LinearStep {
-    qo: u32,
-    offset: i64,
-    inv_slope: i64,
-    round: i64,
-    shr: u32,
+pub(crate) struct Grid {
+    temp_lo: i32,
+    temp_hi: i32,
+    temp_min: i32,
+    temp_max: i32,
+    mc_lo: i32,
+    mc_hi: i32,
+    t_origin: i32,
+    /// log2 of a window's width in θ.
+    wb: u32,
 }
 
-/// The residual's move from `residual_frac + 13` fraction bits to Q24: `((r << left) + round) >> right`,
-/// one of the shifts zero. For the residual's values (below 2^33.2, shifts below 20) this is exactly
-/// [`rescale`]: no rounding add or left shift can saturate.
+impl Grid {
+    pub(crate) const fn of(h: &FixedHeader) -> Grid {
+        Grid {
+            temp_lo: h.temp_lo,
+            temp_hi: h.temp_hi,
+            temp_min: h.temp_min,
+            temp_max: h.temp_max,
+            // m°C·2^10 ≥ temp_lo ⟺ m°C ≥ ceil(temp_lo / 2^10); within i32 for any i32 θ.
+            mc_lo: ((h.temp_lo as i64 + (1 << THETA_FRAC) - 1) >> THETA_FRAC) as i32,
+            mc_hi: h.temp_hi >> THETA_FRAC,
+            t_origin: h.t_origin,
+            wb: clamp_u8(h.t_step_log2, T_STEP_LOG2_RANGE) - WINDOWS_LOG2,
+        }
+    }
+
+    /// θ of a temperature in m°C, the accepted range checked in m°C first (so that θ = m°C·2^10 fits).
+    #[inline(always)]
+    pub(crate) fn theta_from_millicelsius(&self, temp_mc: i32) -> Result<i32, Error> {
+        if temp_mc < self.mc_lo || temp_mc > self.mc_hi {
+            return Err(Error::TemperatureOutOfRange { millicelsius: temp_mc });
+        }
+        // Within [temp_lo, temp_hi], both i32.
+        Ok(temp_mc << THETA_FRAC)
+    }
+
+    /// θ checked against the accepted range, and its window on the grid.
+    #[inline(always)]
+    pub(crate) fn window_of(&self, theta: i32) -> Result<WindowPos, Error> {
+        if theta < self.temp_lo || theta > self.temp_hi {
+            return Err(Error::TemperatureOutOfRange {
+                millicelsius: millicelsius_of_theta(i64::from(theta)),
+            });
+        }
+        let p = i64::from(theta) - i64::from(self.t_origin);
+        if !(0..1 << 31).contains(&p) {
+            return Err(BAD_TABLE);
+        }
+        let (p, wb) = (p as u32, self.wb);
+        Ok(WindowPos { index: p >> wb, f16: (p & ((1 << wb) - 1)) >> (wb - 16) })
+    }
+
+    /// θ is outside the calibrated range (within the accepted one).
+    #[inline(always)]
+    pub(crate) fn extrapolated(&self, theta: i32) -> bool {
+        theta < self.temp_min || theta > self.temp_max
+    }
+}
+
+/// Where a temperature lies on the grid: its window (index along the grid, 16 per knot step) and the Q16
+/// fraction inside it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-struct ResidualScale {
-    left: u32,
-    right: u32,
-    round: i64,
+pub(crate) struct WindowPos {
+    pub(crate) index: u32,
+    pub(crate) f16: u32,
 }
 
-impl ResidualScale {
-    #[inline(always)]
-    fn of(h: &FixedHeader) -> ResidualScale {
-        let from = u32::from(h.residual_frac).min(30) + RESIDUAL_GUARD; // 13..=43
-        match from.checked_sub(X_FRAC) {
-            Some(0) => ResidualScale { left: 0, right: 0, round: 0 },
-            Some(n) => ResidualScale { left: 0, right: n, round: 1 << (n - 1) },
-            None => ResidualScale { left: X_FRAC - from, right: 0, round: 0 },
-        }
-    }
+/// The error every inconsistent table content gives.
+pub(crate) const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficient);
 
-    #[inline(always)]
-    fn apply(self, r: i64) -> i64 {
-        ((r << self.left) + self.round) >> self.right
-    }
-}
-
-impl LinearStep {
-    /// The step at a stage, or `None` where only the general (saturating) form is exact.
-    fn new(h: &FixedHeader, stage: &FixedStage) -> Option<LinearStep> {
-        let qo = u32::from(h.offset_frac).min(30);
-        let qs = u32::from(h.inv_slope_frac).min(62);
-        // Only right shifts (from ≥ 24 fraction bits) have a plain form; n is clamped as in `round_shr`.
-        let shr = (qo + qs).checked_sub(X_FRAC)?.min(62);
-        let round = if shr == 0 { 0 } else { 1i64 << (shr - 1) };
-        let step = LinearStep { qo, offset: stage.offset, inv_slope: stage.inv_slope, round, shr };
-        let u_at = |code: u32| -> Option<i64> {
-            let diff = (i64::from(code) << qo) - stage.offset;
-            let u = diff.checked_mul(stage.inv_slope)?.checked_add(round)? >> shr;
-            (-X_CLAMP..=X_CLAMP).contains(&u).then_some(u)
-        };
-        u_at(0)?;
-        u_at(h.adc_max_code)?;
-        Some(step)
-    }
-
-    /// u in Q24 for a code within the converter's range (checked by the caller).
-    #[inline(always)]
-    fn u(&self, code: u32) -> i64 {
-        // Bounded at both ends of the codes by `new`, so nothing here overflows.
-        ((((i64::from(code)) << self.qo) - self.offset) * self.inv_slope + self.round) >> self.shr
-    }
-}
-
-impl FixedRowStage {
-    /// The temperature lies outside the calibrated range, within the allowed extrapolation.
-    pub fn extrapolated(&self) -> bool {
-        self.stage.extrapolated
-    }
-}
-
-/// A fixed calibration with the [`FixedRowStage`] of the last temperature it was given: the per-sample path of a
-/// firmware whose temperature moves slowly next to its log channel. A new temperature code (or m°C value)
-/// builds the stage (about the work of ten samples); the same one reuses it, so a sample costs the log
-/// channel's work alone. Results are bit-identical to [`FixedCalibration::correct_raw`] and
-/// [`FixedCalibration::correct`] for every input, errors included (only successful stages are kept).
-///
-/// The cache owns its calibration (a [`FixedCalibration`] is a few slices and a header), so a stage can
-/// never be reused with other tables. About 500 bytes of RAM, no heap.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct StageCache<'a> {
-    cal: FixedCalibration<'a>,
-    /// The kept stage's temperature: a temperature code, or `1 << 32 | m°C as u32`; [`NO_KEY`] when empty.
-    key: u64,
-    row: FixedRowStage,
-    /// Lowest and highest code outside the rail margins: the one range check of a sample.
-    code_lo: u32,
-    code_hi: u32,
-}
-
-/// [`StageCache::key`] when no stage is kept (above every key).
-const NO_KEY: u64 = u64::MAX;
-
-/// A row stage that is never read (the cache starts with [`NO_KEY`]).
-const EMPTY_ROW: FixedRowStage = FixedRowStage {
-    stage: FixedStage {
-        extrapolated: false,
-        seg: 0,
-        w: [0; 4],
-        offset: 0,
-        inv_slope: 0,
-        ln_bias: 0,
-        u_min: 0,
-    },
-    fast: None,
-    row: [0; ROW_CAPACITY],
-    len: 0,
-};
-
-impl<'a> StageCache<'a> {
-    /// An empty cache over a calibration (validate the calibration first, as for direct use).
-    pub const fn new(cal: FixedCalibration<'a>) -> StageCache<'a> {
-        let h = &cal.header;
-        let code_lo = h.rail_margin.saturating_add(1);
-        let code_hi = match h.adc_max_code.checked_sub(h.rail_margin) {
-            Some(v) => v.saturating_sub(1),
-            None => 0,
-        };
-        StageCache { cal, key: NO_KEY, row: EMPTY_ROW, code_lo, code_hi }
-    }
-
-    /// The calibration the cache corrects with.
-    pub fn calibration(&self) -> &FixedCalibration<'a> {
-        &self.cal
-    }
-
-    /// Forgets the kept stage (nothing else changes: the next call builds it again).
-    pub fn clear(&mut self) {
-        self.key = NO_KEY;
-    }
-
-    /// [`FixedCalibration::correct_raw`] through the cache.
-    #[inline(always)]
-    pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.correct_keyed(code, u64::from(temp_code))
-    }
-
-    /// [`FixedCalibration::correct`] through the cache.
-    #[inline(always)]
-    pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
-        self.correct_keyed(code, 1 << 32 | u64::from(temp_mc as u32))
-    }
-
-    #[inline(always)]
-    fn correct_keyed(&mut self, code: u32, key: u64) -> Result<FixedReading, Error> {
-        // The same order of checks as the direct path: the code, then the temperature. Codes between the
-        // rail margins pass `check_code`; the others get its exact error.
-        if !(self.code_lo <= code && code <= self.code_hi) {
-            self.cal.check_code(code)?;
-        }
-        if key != self.key {
-            return self.miss(code, key);
-        }
-        self.cal.correct_row_checked(&self.row, code)
-    }
-
-    /// A new temperature: builds and keeps its row stage (out of line: the rare path). Where no row stage
-    /// can be built (a residual grid wider than [`ROW_CAPACITY`], or tables `validate` refuses), the
-    /// reading goes through the plain stage, uncached, exactly as the direct path computes it.
-    #[inline(never)]
-    fn miss(&mut self, code: u32, key: u64) -> Result<FixedReading, Error> {
-        self.key = NO_KEY;
-        let stage = if key >> 32 == 0 {
-            self.cal.stage_code(key as u32)?
-        } else {
-            self.cal.stage_millicelsius(key as u32 as i32)?
-        };
-        match self.cal.fill_row_stage(&stage, &mut self.row) {
-            Ok(()) => {
-                self.key = key;
-                self.cal.correct_row_checked(&self.row, code)
-            }
-            Err(_) => self.cal.correct_staged(&stage, code),
-        }
-    }
-}
-
-/// One residual column collapsed over temperature: `(Σ_k w_k · r_k) >> (28 − 13)` for the stage's weights
-/// and the column's four i16 control points, below 2^30.6 (weights sum to 6·2^28).
+/// A value from the tables at a window end, checked against the bound the per-sample arithmetic relies on:
+/// strictly within ±`limit`.
 #[inline(always)]
-fn collapse(w: &[i64; 4], r: [i64; 4]) -> i64 {
-    dot4(w, r) >> (W_BITS - RESIDUAL_GUARD)
-}
-
-/// A corrected reading in fixed point.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
-#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
-#[cfg_attr(feature = "defmt", derive(defmt::Format))]
-pub struct FixedReading {
-    /// x = ln(I_sig/I_ref), Q24.
-    pub x: i32,
-    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
-    pub temperature_extrapolated: bool,
-}
-
-/// 1/ln 10 in Q32.
-const INV_LN10_Q32: i64 = 1_865_280_597;
-/// 10/ln 10 in Q28.
-const DB10_Q28: i64 = 1_165_800_373;
-/// 20/ln 10 in Q28.
-const DB20_Q28: i64 = 2_331_600_746;
-
-/// Fraction bits of [`FixedReading::value`] for a unit: 32 for [`Unit::Ratio`], 24 for the others.
-pub const fn value_frac_bits(unit: Unit) -> u32 {
-    match unit {
-        Unit::Ratio => transcend::EXP_RESULT_FRAC,
-        _ => X_FRAC,
+fn bounded(v: i64, limit: i32) -> Result<i32, Error> {
+    if v > -i64::from(limit) && v < i64::from(limit) {
+        Ok(v as i32)
+    } else {
+        Err(BAD_TABLE)
     }
 }
-
-impl FixedReading {
-    /// The reading in a unit, as an integer with [`value_frac_bits`] fraction bits. The linear units are
-    /// [`Error::AboveRange`] where they do not fit an i64 (x above about 21 Np).
-    #[inline(always)]
-    pub fn value(&self, unit: Unit) -> Result<i64, Error> {
-        let x = i64::from(self.x);
-        Ok(match unit {
-            Unit::Nepers => x,
-            Unit::Decades => round_shr(x * INV_LN10_Q32, 32),
-            Unit::DbPower => round_shr(x * DB10_Q28, 28),
-            Unit::DbAmplitude => round_shr(x * DB20_Q28, 28),
-            Unit::Absorbance => -round_shr(x * INV_LN10_Q32, 32),
-            Unit::TransmittancePercent => {
-                let e = transcend::exp_q32(x)?;
-                round_shr(e.checked_mul(100).ok_or(Error::AboveRange)?, 8)
-            }
-            Unit::Ratio => transcend::exp_q32(x)?,
-        })
-    }
-}
-
-const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficient);
 
 impl<'a> FixedCalibration<'a> {
     /// Checks a log channel code against the converter and the rail margin, as the f32 path does.
@@ -586,18 +548,144 @@ impl<'a> FixedCalibration<'a> {
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
     #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        let stage = self.stage_millicelsius(temp_mc)?;
-        self.correct_staged(&stage, code)
+        let plan = Plan::of(&self.header);
+        plan.check_code(self, code)?;
+        let theta = self.theta_from_millicelsius(temp_mc)?;
+        self.correct_theta(&plan, code, theta)
     }
 
     /// Corrects one reading from raw codes: `code` from the log channel, `temp_code` from the temperature
     /// channel (through [`FixedCalibration::sensor`]).
     #[inline(always)]
     pub fn correct_raw(&self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        let stage = self.stage_code(temp_code)?;
-        self.correct_staged(&stage, code)
+        let plan = Plan::of(&self.header);
+        plan.check_code(self, code)?;
+        let theta = self.theta_from_code(temp_code)?;
+        self.correct_theta(&plan, code, theta)
+    }
+
+    /// θ of a temperature in m°C, with the accepted range checked in m°C first (so that θ = m°C·2^10 fits).
+    #[inline(always)]
+    pub(crate) fn theta_from_millicelsius(&self, temp_mc: i32) -> Result<i32, Error> {
+        Grid::of(&self.header).theta_from_millicelsius(temp_mc)
+    }
+
+    /// θ checked against the accepted range, and its window on the grid.
+    #[inline(always)]
+    pub(crate) fn window_of(&self, theta: i32) -> Result<WindowPos, Error> {
+        Grid::of(&self.header).window_of(theta)
+    }
+
+    /// θ is outside the calibrated range (within the accepted one).
+    #[inline(always)]
+    pub(crate) fn extrapolated(&self, theta: i32) -> bool {
+        Grid::of(&self.header).extrapolated(theta)
+    }
+
+    /// The segment of the temperature grid and the window weights at window end `end` (16 per knot step; the
+    /// grid's last knot is the end of its last segment).
+    #[inline(always)]
+    fn end_weights(&self, end: u32) -> (usize, [i32; 4]) {
+        let last = u32::from(self.header.t_knots).saturating_sub(2);
+        let seg = (end >> WINDOWS_LOG2).min(last);
+        (seg as usize, window_weights(end - (seg << WINDOWS_LOG2)))
+    }
+
+    /// The four per-temperature values at window end `end`, exact, each checked against its limit.
+    #[inline(always)]
+    pub(crate) fn end_scalars(&self, end: u32) -> Result<Scalars, Error> {
+        let h = &self.header;
+        let (seg, w) = self.end_weights(end);
+        let value = |t: &[i32]| -> Result<i64, Error> { Ok(window_value(four(t, seg).ok_or(BAD_TABLE)?, w)) };
+        let at = |t: &[i32], limit: i32| -> Result<i32, Error> { bounded(value(t)?, limit) };
+        let inv_slope = value(self.inv_slope)?;
+        if !(inv_slope > 0 && inv_slope < INV_SLOPE_LIMIT) {
+            return Err(BAD_TABLE);
+        }
+        let offset = value(self.offset)?;
+        if !(offset > i64::from(OFFSET_RANGE.0) && offset < i64::from(OFFSET_RANGE.1)) {
+            return Err(BAD_TABLE);
+        }
+        Ok(Scalars {
+            offset: offset as i32,
+            inv_slope: inv_slope as u32,
+            ln_bias: if h.bias_bend { at(self.ln_bias, BIAS_LIMIT)? } else { 0 },
+            u_min: if h.sensitivity_limit { at(self.u_min, BIAS_LIMIT)? } else { i32::MIN },
+        })
+    }
+
+    /// The window `index`: both ends' values and the curvature of the offset and the inverse slope.
+    #[inline(always)]
+    pub(crate) fn window(&self, index: u32) -> Result<Window, Error> {
+        let start = self.end_scalars(index)?;
+        let end = self.end_scalars(index + 1)?;
+        // The spline's second derivative at the window's middle, t = (2m + 1)/32 in its segment: 32 times
+        // the second-derivative basis is (31 − 2m, 6m − 61, 29 − 6m, 2m + 1), and the chord's deviation
+        // term is c = h²·p''/2 with h = 1/16: c = 3·Σ W_k·c_k / 8192 for control points stored divided by 6.
+        let (seg, _) = self.end_weights(index);
+        let m = (index - ((seg as u32) << WINDOWS_LOG2)).min(WINDOWS - 1) as i32;
+        let w = [31 - 2 * m, 6 * m - 61, 29 - 6 * m, 2 * m + 1];
+        let curv = |t: &[i32]| -> Result<i64, Error> {
+            let c = four(t, seg).ok_or(BAD_TABLE)?;
+            let hi = w[0] * (c[0] >> 16) + w[1] * (c[1] >> 16) + w[2] * (c[2] >> 16) + w[3] * (c[3] >> 16);
+            let lo = w[0] * (c[0] & 0xffff)
+                + w[1] * (c[1] & 0xffff)
+                + w[2] * (c[2] & 0xffff)
+                + w[3] * (c[3] & 0xffff);
+            let v = (i64::from(hi) << 16) + i64::from(lo);
+            // Times 3 as a sum: a 64-bit product would call a runtime helper on a Cortex-M0.
+            Ok((v + v + v) >> 13)
+        };
+        let (o0, o1) = (i64::from(start.offset), i64::from(end.offset));
+        let (off_dc, curv_offset) =
+            parabola(o0, o1, curv(self.offset)?, i64::from(OFFSET_RANGE.0), i64::from(OFFSET_RANGE.1))?;
+        let (a0, a1) = (i64::from(start.inv_slope), i64::from(end.inv_slope));
+        let (inv_dc, curv_inv_slope) = parabola(a0, a1, curv(self.inv_slope)?, 0, INV_SLOPE_LIMIT)?;
+        Ok(Window {
+            start,
+            slope: [off_dc, inv_dc, end.ln_bias - start.ln_bias, end.u_min - start.u_min],
+            curv: [curv_offset, curv_inv_slope],
+        })
+    }
+
+    /// Residual column `col` collapsed over temperature at window end `end` (Q(`residual_frac` + 12), below
+    /// 2^29.6).
+    #[inline(always)]
+    pub(crate) fn end_column(&self, end: u32, col: usize) -> Result<i32, Error> {
+        let (seg, w) = self.end_weights(end);
+        // Row and stride below 2^16 (any wider grid is refused): the index is a 32-bit product, with no
+        // overflow check (which would call a 64-bit multiply helper on a Cortex-M0).
+        let stride = u32::from(self.header.xa_knots) + 2;
+        let at = |k: u32| -> Option<i16> {
+            let row = seg as u32 + k;
+            if stride > 0xffff || row > 0xffff || col as u32 >= stride {
+                return None;
+            }
+            self.residual.get((row * stride + col as u32) as usize).copied()
+        };
+        match (at(0), at(1), at(2), at(3)) {
+            (Some(a), Some(b), Some(c), Some(d)) => Ok(window_collapse([a, b, c, d], w)),
+            _ => Err(BAD_TABLE),
+        }
+    }
+
+    /// The direct path from θ: both window ends' scalars, the four residual columns the code needs at both
+    /// ends, all interpolated at θ's fraction; exactly what a [`FixedStage`] or a [`StageCache`] at
+    /// θ computes for this code.
+    #[inline(always)]
+    pub(crate) fn correct_theta(&self, plan: &Plan, code: u32, theta: i32) -> Result<FixedReading, Error> {
+        let pos = self.window_of(theta)?;
+        let s = self.window(pos.index)?.at(pos.f16);
+        let x = plan.x_of(&s, code, |seg| {
+            let mut c = [0; 4];
+            for (k, v) in c.iter_mut().enumerate() {
+                let a = self.end_column(pos.index, seg + k)?;
+                let b = self.end_column(pos.index + 1, seg + k)?;
+                *v = a + mulh16(b - a, pos.f16);
+            }
+            Ok(c)
+        })?;
+        Ok(FixedReading { x, temperature_extrapolated: self.extrapolated(theta) })
     }
 
     /// θ (Q10 m°C) from the temperature channel's code. [`Error::Sensor`] outside the sensor's valid span;
@@ -613,206 +701,62 @@ impl<'a> FixedCalibration<'a> {
             let f = if temp_code > s.far_above_code { s.fault_far_above } else { s.fault_above };
             return Err(Error::Sensor(f));
         }
-        let sh = u32::from(s.step_log2).min(16);
-        let pos = i64::from(temp_code - s.code_lo) << (POS_FRAC - sh); // < 2^52
-        let (seg, t) = segment(pos, s.knots.len().saturating_sub(2));
-        let theta = spline1(s.knots, seg, &weights(t)).ok_or(BAD_TABLE)?;
-        // A convex combination of i32 control points is in i32 range.
-        i32::try_from(theta).map_err(|_| BAD_TABLE)
+        let k = u32::from(s.step_log2).min(16);
+        let pos = temp_code - s.code_lo;
+        let seg = (pos >> k) as usize;
+        let t16 = (pos & ((1 << k) - 1)) << (16 - k);
+        let c = four(s.knots, seg).ok_or(BAD_TABLE)?;
+        bounded(sensor_value(c, sensor_weights(t16)), THETA_LIMIT)
     }
 
     /// The temperature stage at a temperature in m°C.
-    #[inline(always)]
     pub fn stage_millicelsius(&self, temp_mc: i32) -> Result<FixedStage, Error> {
-        self.stage_theta(i64::from(temp_mc) << THETA_FRAC)
+        let theta = self.theta_from_millicelsius(temp_mc)?;
+        FixedStage::build(self, theta)
     }
 
     /// The temperature stage at the temperature channel's code.
-    #[inline(always)]
     pub fn stage_code(&self, temp_code: u32) -> Result<FixedStage, Error> {
         let theta = self.theta_from_code(temp_code)?;
-        self.stage_theta(i64::from(theta))
+        FixedStage::build(self, theta)
     }
 
     /// The temperature stage at θ (Q10 m°C).
-    #[inline(always)]
     pub fn stage_theta(&self, theta: i64) -> Result<FixedStage, Error> {
-        let h = &self.header;
-        if theta < i64::from(h.temp_lo) || theta > i64::from(h.temp_hi) {
-            // The temperature in m°C for the error (saturated at the i32 ends only for θ far beyond any sensor).
-            return Err(Error::TemperatureOutOfRange { millicelsius: millicelsius_of_theta(theta) });
+        match i32::try_from(theta) {
+            Ok(t) => FixedStage::build(self, t),
+            Err(_) => Err(Error::TemperatureOutOfRange { millicelsius: millicelsius_of_theta(theta) }),
         }
-        let extrapolated = theta < i64::from(h.temp_min) || theta > i64::from(h.temp_max);
-        let pos = (theta - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT;
-        let (seg, t) = segment(pos, usize::from(h.t_knots));
-        let w = weights(t);
-        let offset = spline1(self.offset, seg, &w).ok_or(BAD_TABLE)?;
-        let inv_slope = spline1(self.inv_slope, seg, &w).ok_or(BAD_TABLE)?;
-        let ln_bias = if h.bias_bend { spline1(self.ln_bias, seg, &w).ok_or(BAD_TABLE)? } else { 0 };
-        let u_min =
-            if h.sensitivity_limit { spline1(self.u_min, seg, &w).ok_or(BAD_TABLE)? } else { i64::MIN };
-        Ok(FixedStage { extrapolated, seg, w, offset, inv_slope, ln_bias, u_min })
     }
 
     /// The log-channel part of a correction at a temperature stage. The code is checked again (cheap).
     #[inline(always)]
     pub fn correct_staged(&self, stage: &FixedStage, code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        let x = self.x_q24(stage, code, None)?;
+        stage.plan.check_code(self, code)?;
+        let x = stage.plan.x_of(&stage.scalars, code, |seg| stage.columns(seg))?;
         Ok(FixedReading { x, temperature_extrapolated: stage.extrapolated })
     }
 
-    /// Residual columns `col..col + 4` collapsed over the stage's temperature:
-    /// `(Σ_k w_k · r[seg + k][col + i]) >> (28 − 13)`, each below 2^30.6 (weights sum to 6·2^28, i16 values).
-    #[inline(always)]
-    fn columns(&self, stage: &FixedStage, col: usize) -> Result<[i64; 4], Error> {
-        let stride = usize::from(self.header.xa_knots) + 2;
-        // The four rows' windows start at `first + k·stride`; one slice holds all of them.
-        let first = stage.seg.checked_mul(stride).and_then(|j| j.checked_add(col)).ok_or(BAD_TABLE)?;
-        let end = stride.checked_mul(3).and_then(|j| j.checked_add(first)).and_then(|j| j.checked_add(4));
-        let block = self.residual.get(first..end.ok_or(BAD_TABLE)?).ok_or(BAD_TABLE)?;
-        let r0 = four_i16(block, 0).ok_or(BAD_TABLE)?;
-        let r1 = four_i16(block, stride).ok_or(BAD_TABLE)?;
-        let r2 = four_i16(block, 2 * stride).ok_or(BAD_TABLE)?;
-        let r3 = four_i16(block, 3 * stride).ok_or(BAD_TABLE)?;
-        let w = &stage.w;
-        Ok([
-            collapse(w, [r0[0], r1[0], r2[0], r3[0]]),
-            collapse(w, [r0[1], r1[1], r2[1], r3[1]]),
-            collapse(w, [r0[2], r1[2], r2[2], r3[2]]),
-            collapse(w, [r0[3], r1[3], r2[3], r3[3]]),
-        ])
-    }
-
-    /// The temperature stage with the residual collapsed over temperature for every x̃ column: the
-    /// per-sample work of [`FixedCalibration::correct_row`] is then one cubic in x̃ (a firmware that reads
-    /// the temperature less often than the log channel builds one per temperature reading). Results are
-    /// bit-identical to [`FixedCalibration::correct_staged`]. [`Error::InvalidCalibration`] when the grid has
-    /// more than [`ROW_CAPACITY`] − 2 knots.
-    pub fn row_stage(&self, stage: &FixedStage) -> Result<FixedRowStage, Error> {
-        let mut rs = EMPTY_ROW;
-        self.fill_row_stage(stage, &mut rs)?;
-        Ok(rs)
-    }
-
-    /// [`FixedCalibration::row_stage`] into a caller's row stage (no copy of its 66 columns).
-    fn fill_row_stage(&self, stage: &FixedStage, rs: &mut FixedRowStage) -> Result<(), Error> {
-        let n = usize::from(self.header.xa_knots) + 2;
-        if n > ROW_CAPACITY {
-            return Err(BAD_TABLE);
-        }
-        // The four rows of the stage's segment, each `n` control points long, collapsed column by column
-        // exactly as `columns` does it four at a time.
-        let first = stage.seg.checked_mul(n).ok_or(BAD_TABLE)?;
-        let row_k = |k: usize| {
-            let start = n.checked_mul(k).and_then(|j| j.checked_add(first))?;
-            self.residual.get(start..start.checked_add(n)?)
-        };
-        let (r0, r1, r2, r3) = match (row_k(0), row_k(1), row_k(2), row_k(3)) {
-            (Some(a), Some(b), Some(c), Some(d)) => (a, b, c, d),
-            _ => return Err(BAD_TABLE),
-        };
-        let cols = r0.iter().zip(r1).zip(r2).zip(r3);
-        for (dst, (((&a, &b), &c), &d)) in rs.row.iter_mut().zip(cols) {
-            let v = collapse(&stage.w, [a, b, c, d].map(i64::from));
-            // Below 2^30.6: fits.
-            *dst = v as i32;
-        }
-        rs.stage = *stage;
-        rs.fast = RowFast::new(&self.header, stage);
-        rs.len = n;
-        Ok(())
-    }
-
-    /// The log-channel part of a correction at a [`FixedRowStage`]: bit-identical to
-    /// [`FixedCalibration::correct_staged`] at the same stage, with a quarter of the residual's work.
-    #[inline(always)]
-    pub fn correct_row(&self, rs: &FixedRowStage, code: u32) -> Result<FixedReading, Error> {
-        self.check_code(code)?;
-        self.correct_row_checked(rs, code)
-    }
-
-    /// [`FixedCalibration::correct_row`] for a code already checked.
-    #[inline(always)]
-    fn correct_row_checked(&self, rs: &FixedRowStage, code: u32) -> Result<FixedReading, Error> {
-        let x = match &rs.fast {
-            Some(f) => f.x(&rs.row, code)?,
-            None => {
-                let row = rs.row.get(..rs.len).ok_or(BAD_TABLE)?;
-                self.x_from_u(
-                    &rs.stage,
-                    self.u_q24(&rs.stage, code),
-                    Some(row),
-                    ResidualScale::of(&self.header),
-                )?
-            }
-        };
-        Ok(FixedReading { x, temperature_extrapolated: rs.stage.extrapolated })
-    }
-
-    /// u = (code − O(T))/S(T) in Q24 for a checked code, clamped to ±2^31 (any table content).
-    #[inline(always)]
-    fn u_q24(&self, stage: &FixedStage, code: u32) -> i64 {
-        let h = &self.header;
-        let qo = u32::from(h.offset_frac).min(30);
-        let qs = u32::from(h.inv_slope_frac).min(62);
-        // code < 2^32, so code·2^30 < 2^62; the offset is below 2^33.6 (six times an i32).
-        let diff = (i64::from(code) << qo) - stage.offset;
-        rescale(diff.saturating_mul(stage.inv_slope), qo + qs, X_FRAC).clamp(-X_CLAMP, X_CLAMP)
-    }
-
-    /// x in Q24 at a temperature stage for a checked code.
-    #[inline(always)]
-    fn x_q24(&self, stage: &FixedStage, code: u32, row: Option<&[i32]>) -> Result<i32, Error> {
-        self.x_from_u(stage, self.u_q24(stage, code), row, ResidualScale::of(&self.header))
-    }
-
-    /// x in Q24 from u (steps 4 and 5 of the chain).
-    #[inline(always)]
-    fn x_from_u(
+    /// Many log codes at one temperature stage (a DMA buffer): `out[i]` is
+    /// [`FixedCalibration::correct_staged`] of `codes[i]`, bit for bit. Stops at the shorter of the two
+    /// slices and returns how many readings it wrote.
+    pub fn correct_block(
         &self,
         stage: &FixedStage,
-        u: i64,
-        row: Option<&[i32]>,
-        scale: ResidualScale,
-    ) -> Result<i32, Error> {
-        let h = &self.header;
-        if u < stage.u_min {
-            return Err(Error::BelowRange);
+        codes: &[u32],
+        out: &mut [Result<FixedReading, Error>],
+    ) -> usize {
+        let mut n = 0;
+        for (o, &code) in out.iter_mut().zip(codes) {
+            *o = self.correct_staged(stage, code);
+            n += 1;
         }
-        let xa = if h.bias_bend { u + transcend::bend_q24(u - stage.ln_bias)? } else { u };
-        // Position on the x̃ grid; |x̃ − origin| < 2^33, so saturation only happens far outside the grid.
-        let pos = (xa - i64::from(h.xa_origin)).saturating_mul(i64::from(h.xa_inv_step)) >> XA_POS_SHIFT;
-        let xa_knots = usize::from(h.xa_knots);
-        if pos < 0 {
-            return Err(Error::BelowRange);
-        }
-        if pos > (xa_knots as i64 - 1) * (1 << POS_FRAC) {
-            return Err(Error::AboveRange);
-        }
-        let (col, t) = segment(pos, xa_knots);
-        let wu = weights(t);
-        // The residual's four columns, already collapsed over temperature (each below 2^30.6).
-        let cols = match row {
-            Some(row) => interp::four_i32(row, col).ok_or(BAD_TABLE)?,
-            None => self.columns(stage, col)?,
-        };
-        // Below 2^61.2 before the shift, 2^33.2 after it.
-        let r = scale.apply(round_shr_small(dot4(&wu, cols), W_BITS));
-        let x = xa + r;
-        if x < i64::from(h.x_min) {
-            return Err(Error::BelowRange);
-        }
-        if x > i64::from(h.x_max) {
-            return Err(Error::AboveRange);
-        }
-        // x_min ≤ x ≤ x_max, both i32.
-        Ok(x as i32)
+        n
     }
 
     /// Checks that the tables are consistent and the scales sane: what a loader calls once before trusting
     /// a calibration (the correction itself never panics or wraps on any content, but gives meaningless
-    /// results for tables this refuses).
+    /// results, or refuses readings, for tables this refuses).
     pub fn validate(&self) -> Result<(), Error> {
         use CalibrationDefect as D;
         let bad = |d| Err(Error::InvalidCalibration(d));
@@ -826,29 +770,37 @@ impl<'a> FixedCalibration<'a> {
         if h.rail_margin.saturating_mul(2) >= h.adc_max_code {
             return bad(D::RailMargin);
         }
-        if !(h.temp_lo <= h.temp_min && h.temp_min < h.temp_max && h.temp_max <= h.temp_hi) {
+        let lim = THETA_LIMIT;
+        if !(h.temp_lo <= h.temp_min && h.temp_min < h.temp_max && h.temp_max <= h.temp_hi)
+            || h.temp_lo <= -lim
+            || h.temp_hi >= lim
+        {
             return bad(D::TemperatureRange);
         }
-        if !(h.x_min < h.x_max && i64::from(h.x_min) > -(100 << X_FRAC) && i64::from(h.x_max) < 100 << X_FRAC)
-        {
+        if !(h.x_min < h.x_max && h.x_min > -X_LIMIT && h.x_max < X_LIMIT) {
             return bad(D::XRange);
         }
-        // The temperature grid must cover the accepted range.
+        // The temperature grid must cover the accepted range, the last knot strictly beyond it.
         let nt = usize::from(h.t_knots);
-        let tpos = |theta: i32| {
-            (i64::from(theta) - i64::from(h.t_origin)).saturating_mul(i64::from(h.t_inv_step)) >> T_POS_SHIFT
-        };
-        if nt < 2 || h.t_inv_step <= 0 || tpos(h.temp_lo) < 0 || tpos(h.temp_hi) > (nt as i64 - 1) << POS_FRAC
+        let ts = h.t_step_log2;
+        let span = |theta: i32| i64::from(theta) - i64::from(h.t_origin);
+        if nt < 2
+            || !(T_STEP_LOG2_RANGE.0..=T_STEP_LOG2_RANGE.1).contains(&ts)
+            || span(h.temp_lo) < 0
+            || span(h.temp_hi) >= (nt as i64 - 1) << ts
         {
             return bad(D::Normalisation);
         }
         let nxa = usize::from(h.xa_knots);
-        let scales_ok = h.offset_frac <= 30
-            && (i64::from(h.adc_max_code) << h.offset_frac) < 1 << 31
-            && h.inv_slope_frac <= 62
-            && h.residual_frac <= 30
+        let scales_ok = u32::from(h.offset_frac) <= 30
+            && h.adc_max_code < CODE_LIMIT >> h.offset_frac
+            && u32::from(h.offset_frac) + u32::from(h.inv_slope_frac) == SLOPE_FRAC_SUM
+            && (RESIDUAL_FRAC_RANGE.0..=RESIDUAL_FRAC_RANGE.1).contains(&h.residual_frac)
             && nxa >= 2
-            && h.xa_inv_step > 0;
+            && nxa + 2 <= ROW_CAPACITY
+            && (XA_STEP_LOG2_RANGE.0..=XA_STEP_LOG2_RANGE.1).contains(&h.xa_step_log2)
+            && h.xa_origin > -lim
+            && h.xa_origin < lim;
         let lens_ok = self.offset.len() == nt + 2
             && self.inv_slope.len() == nt + 2
             && (!h.bias_bend || self.ln_bias.len() == nt + 2)
@@ -857,13 +809,27 @@ impl<'a> FixedCalibration<'a> {
         if !(scales_ok && lens_ok) {
             return bad(D::Coefficient);
         }
+        // Control points stored divided by 6 within the range divided by 6: every value at a window end (six
+        // times a convex combination of them) is then within the range the per-sample arithmetic relies on.
+        let within =
+            |t: &[i32], lo: i64, hi: i64| t.iter().all(|&c| i64::from(c) * 6 > lo && i64::from(c) * 6 < hi);
+        let in_range = |t: &[i32], limit: i32| within(t, -i64::from(limit), i64::from(limit));
         if self.inv_slope.iter().any(|&s| s <= 0) {
             return bad(D::ZeroSlope);
         }
+        if !(within(self.offset, i64::from(OFFSET_RANGE.0), i64::from(OFFSET_RANGE.1))
+            && within(self.inv_slope, 0, INV_SLOPE_LIMIT)
+            && (!h.bias_bend || in_range(self.ln_bias, BIAS_LIMIT))
+            && (!h.sensitivity_limit || in_range(self.u_min, BIAS_LIMIT)))
+        {
+            return bad(D::Coefficient);
+        }
         if let Some(s) = &self.sensor {
-            let span = u64::from(s.code_hi.saturating_sub(s.code_lo));
-            let segs = span.div_ceil(1u64 << s.step_log2.min(16)).max(1);
-            if s.code_lo > s.code_hi || s.step_log2 > 16 || (s.knots.len() as u64) < segs + 3 {
+            if s.code_lo > s.code_hi
+                || s.step_log2 > 16
+                || s.knots.len() < SensorTable::knots_needed(s.code_lo, s.code_hi, s.step_log2)
+                || !in_range(s.knots, THETA_LIMIT)
+            {
                 return bad(D::Coefficient);
             }
         }
@@ -876,5 +842,74 @@ impl<'a> FixedCalibration<'a> {
         let words = self.offset.len() + self.inv_slope.len() + self.ln_bias.len() + self.u_min.len();
         let sensor = self.sensor.as_ref().map_or(0, |s| 4 * s.knots.len() + 12);
         4 * words + 2 * self.residual.len() + sensor + core::mem::size_of::<FixedHeader>()
+    }
+}
+
+/// A corrected reading in fixed point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct FixedReading {
+    /// x = ln(I_sig/I_ref), Q24.
+    pub x: i32,
+    /// The temperature lay outside the calibrated range, within the allowed extrapolation.
+    pub temperature_extrapolated: bool,
+}
+
+/// 1/ln 10 in Q32.
+pub const INV_LN10_Q32: i32 = 1_865_280_597;
+/// 10/ln 10 − 4 in Q32 (power dB are `4x + x·this`; amplitude dB twice power dB).
+pub const DB10_FRAC_Q32: i32 = 1_472_936_782;
+
+/// `x·c / 2^32` rounded to nearest (ties up), from the exact product's two words.
+#[inline(always)]
+fn mul_round32(x: i32, c: i32) -> i32 {
+    let (hi, lo) = arith::mul_parts(x, c);
+    hi + (lo >> 31) as i32
+}
+
+/// Decades (Q24) of x (Q24): `x / ln 10`.
+#[inline(always)]
+fn decades(x: i32) -> i64 {
+    i64::from(mul_round32(x, INV_LN10_Q32))
+}
+
+/// Power dB (Q24) of x (Q24): `x·10/ln 10 = 4x + x·0.3429…`.
+#[inline(always)]
+fn db_power(x: i32) -> i64 {
+    (i64::from(x) << 2) + i64::from(mul_round32(x, DB10_FRAC_Q32))
+}
+
+/// Fraction bits of [`FixedReading::value`] for a unit: 32 for [`Unit::Ratio`], 24 for the others.
+pub const fn value_frac_bits(unit: Unit) -> u32 {
+    match unit {
+        Unit::Ratio => transcend::EXP_RESULT_FRAC,
+        _ => X_FRAC,
+    }
+}
+
+impl FixedReading {
+    /// The reading in a unit, as an integer with [`value_frac_bits`] fraction bits. The linear units are
+    /// [`Error::AboveRange`] where they do not fit an i64 (x above about 21 Np).
+    #[inline(always)]
+    pub fn value(&self, unit: Unit) -> Result<i64, Error> {
+        let x = self.x;
+        Ok(match unit {
+            Unit::Nepers => i64::from(x),
+            Unit::Decades => decades(x),
+            Unit::DbPower => db_power(x),
+            Unit::DbAmplitude => 2 * db_power(x),
+            Unit::Absorbance => -decades(x),
+            Unit::TransmittancePercent => {
+                let e = transcend::exp_q32(x)?;
+                // e·100 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.
+                if e > i64::MAX / 100 {
+                    return Err(Error::AboveRange);
+                }
+                ((e << 6) + (e << 5) + (e << 2) + (1 << 7)) >> 8
+            }
+            Unit::Ratio => transcend::exp_q32(x)?,
+        })
     }
 }

@@ -3,6 +3,7 @@
 //! (Accuracy against the f64 model is the host's job: `host-tool/tests/fixed_tables.rs` and `logtrim verify`.)
 
 use std::vec;
+use std::vec::Vec;
 
 use super::*;
 
@@ -10,7 +11,7 @@ const Q24: i64 = 1 << 24;
 /// The x range's ends: 27306 codes from the centre.
 const X_LIM: i32 = 27306 * 3072;
 
-use crate::test_units::{linear_fixed as linear, LinearFixed as Owned};
+use crate::test_units::{linear_fixed as linear, LinearFixed as Owned, LINEAR_X_LIM};
 
 /// The error of a temperature outside the calibrated range, given in m°C.
 fn t_err(millicelsius: i32) -> Error {
@@ -127,28 +128,70 @@ fn staged_correction_equals_the_direct_one() {
 }
 
 #[test]
-fn row_stage_is_bit_identical_to_the_stage() {
-    let mut o = linear();
-    // A residual with structure, so the collapse has something to get wrong.
-    for (i, r) in o.residual.iter_mut().enumerate() {
-        *r = ((i as i32 * 7919) % 2001 - 1000) as i16;
-    }
-    let c = o.view();
-    for t in [-5000, 12_345, 55_000] {
-        let s = c.stage_millicelsius(t).unwrap();
-        let rs = c.row_stage(&s).unwrap();
-        assert_eq!(rs.extrapolated(), s.extrapolated());
-        for code in (0..=65535u32).step_by(7).chain([u32::MAX]) {
-            assert_eq!(c.correct_row(&rs, code), c.correct_staged(&s, code), "code {code} at {t}");
+fn stage_and_block_are_bit_identical_to_the_direct_path() {
+    for o in [bent(), drifting()] {
+        let c = o.view();
+        for t in [-5000, -4999, 0, 12_345, 25_000, 33_001, 50_000, 55_000] {
+            let s = c.stage_millicelsius(t).unwrap();
+            let codes: Vec<u32> = (0..=65535u32).step_by(7).chain([u32::MAX]).collect();
+            let mut out = vec![Err(Error::NotCalibrated); codes.len() + 3];
+            assert_eq!(c.correct_block(&s, &codes, &mut out), codes.len());
+            for (&code, got) in codes.iter().zip(&out) {
+                let want = c.correct(code, t);
+                assert_eq!(c.correct_staged(&s, code), want, "code {code} at {t}");
+                assert_eq!(*got, want, "block: code {code} at {t}");
+            }
+            // The slots past the codes are left alone.
+            assert!(out[codes.len()..].iter().all(|r| *r == Err(Error::NotCalibrated)));
         }
     }
-    // Grids wider than the row's capacity are refused, not truncated.
+    // Grids wider than a stage's row are refused by validate, and a stage is never truncated.
     let mut wide = linear();
-    wide.header.xa_knots = ROW_CAPACITY as u16;
-    wide.residual = vec![0; 6 * (ROW_CAPACITY + 2)];
+    wide.header.xa_knots = ROW_CAPACITY as u16 - 1;
+    wide.residual = vec![0; 7 * (ROW_CAPACITY + 1)];
     let c = wide.view();
-    let s = c.stage_millicelsius(0).unwrap();
-    assert_eq!(c.row_stage(&s), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
+    assert_eq!(c.validate(), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
+    assert_eq!(c.stage_millicelsius(0), Err(Error::InvalidCalibration(CalibrationDefect::Coefficient)));
+    assert_eq!(StageCache::new(c).correct(30_000, 20_000), c.correct(30_000, 20_000));
+}
+
+#[test]
+fn temperature_windows_follow_the_spline() {
+    // An offset and an inverse slope that change with temperature, no bend and no residual: x = u =
+    // (code·2^14 − O(T))·A(T)/2^32 with O and A the cubic B-splines of their control points. The path
+    // evaluates them exactly at window ends and along a parabola in between; against the splines in f64
+    // (the uniform cubic B-spline basis, de Boor) it stays within a few units of Q24 everywhere.
+    let mut o = linear();
+    o.offset = (0..7).map(|i| (10923 << 13) + i * 370_000 - i * i * 25_000).collect();
+    o.inv_slope = (0..7).map(|i| (1 << 27) + i * 9_000_000 + i * i * 410_000).collect();
+    let c = o.view();
+    let spline = |cp: &[i32], theta: f64| -> f64 {
+        let p = (theta - f64::from(o.header.t_origin)) / f64::from(1u32 << o.header.t_step_log2);
+        let seg = (p.floor() as usize).min(usize::from(o.header.t_knots) - 2);
+        let t = p - seg as f64;
+        let s = 1.0 - t;
+        let b = [
+            s * s * s,
+            3.0 * t * t * t - 6.0 * t * t + 4.0,
+            -3.0 * t * t * t + 3.0 * t * t + 3.0 * t + 1.0,
+            t * t * t,
+        ];
+        (0..4).map(|k| b[k] * f64::from(cp[seg + k])).sum()
+    };
+    let mut worst = 0f64;
+    for mc in (-5000..=55_000).step_by(37) {
+        let theta = f64::from(mc) * 1024.0;
+        for code in [5000u32, 20_000, 40_000, 60_000] {
+            let want = (f64::from(code) * 16384.0 - spline(&o.offset, theta)) * spline(&o.inv_slope, theta)
+                / 2f64.powi(32);
+            if want.abs() > f64::from(LINEAR_X_LIM) {
+                continue;
+            }
+            let got = f64::from(c.correct(code, mc).unwrap().x);
+            worst = worst.max((got - want).abs());
+        }
+    }
+    assert!(worst < 4.0, "{worst} units of Q24 from the splines");
 }
 
 /// A linear unit with a bias bend, a sensitivity limit and a structured residual: every step of the chain
@@ -157,14 +200,22 @@ fn bent() -> Owned {
     let mut o = linear();
     o.header.bias_bend = true;
     o.header.sensitivity_limit = true;
-    o.ln_bias = (0..6).map(|i| -(3 << 22) + i * 40_000).collect();
-    o.u_min = vec![-10_485_760; 6];
+    o.ln_bias = (0..7).map(|i| -(3 << 22) + i * 40_000).collect();
+    o.u_min = vec![-10_485_760; 7];
     o.header.x_min = -16 << 24;
     o.header.xa_origin = -18 << 24;
-    o.header.xa_inv_step = 1_864_135;
+    o.header.xa_step_log2 = 27; // 8 Np: knots −18, −10, …, 22 Np
     for (i, r) in o.residual.iter_mut().enumerate() {
         *r = ((i as i32 * 7919) % 2001 - 1000) as i16;
     }
+    o
+}
+
+/// [`bent`] with an offset and an inverse slope that change with temperature: every window differs.
+fn drifting() -> Owned {
+    let mut o = bent();
+    o.offset = (0..7).map(|i| (10923 << 13) + i * 37_000 - i * i * 2_500).collect();
+    o.inv_slope = (0..7).map(|i| (1 << 27) + i * 900_000 + i * i * 41_000).collect();
     o
 }
 
@@ -206,33 +257,37 @@ fn stage_cache_is_bit_identical_to_the_direct_path() {
 }
 
 #[test]
-fn row_stage_fast_form_matches_at_the_scale_limits() {
-    // The plain-arithmetic row form is only used where it is exact; near the scales' limits it must step
-    // aside to the saturating form and still agree with the direct path.
+fn cache_stage_and_direct_path_agree_on_random_tables() {
+    // Scales and contents anywhere in their ranges (valid or not): the three forms run the same integer
+    // operations, so they agree on every value and every error.
     let mut rng = Rng(0x2545_f491_4f6c_dd1d);
     for _ in 0..300 {
-        let mut o = bent();
+        let mut o = drifting();
         o.header.offset_frac = (rng.next() % 34) as u8;
-        o.header.inv_slope_frac = (rng.next() % 66) as u8;
+        o.header.inv_slope_frac = 56u8.wrapping_sub(o.header.offset_frac);
         o.header.residual_frac = (rng.next() % 34) as u8;
         o.header.adc_max_code = [65535, 1 << 20, u32::MAX][(rng.next() % 3) as usize];
-        let off = rng.i32();
-        let slope = rng.i32().max(1);
-        o.offset = vec![off; 6];
-        o.inv_slope = vec![slope; 6];
+        o.header.t_step_log2 = 18 + (rng.next() % 12) as u8;
+        o.header.xa_step_log2 = 14 + (rng.next() % 16) as u8;
+        for t in [&mut o.offset, &mut o.inv_slope, &mut o.ln_bias] {
+            for v in t.iter_mut() {
+                *v = rng.i32();
+            }
+        }
         for r in o.residual.iter_mut() {
             *r = rng.next() as i16;
         }
         let c = o.view();
         let mut cache = StageCache::new(c);
-        for tc in [150, 2000, 3999] {
+        for tc in [150, 2000, 2001, 3999] {
+            let stage = c.stage_code(tc);
             for _ in 0..40 {
                 let code = (rng.next() % (u64::from(o.header.adc_max_code) + 2)) as u32;
-                assert_eq!(
-                    cache.correct_raw(code, tc),
-                    c.correct_raw(code, tc),
-                    "code {code}, temp code {tc}"
-                );
+                let want = c.correct_raw(code, tc);
+                assert_eq!(cache.correct_raw(code, tc), want, "code {code}, temp code {tc}");
+                if let Ok(s) = &stage {
+                    assert_eq!(c.correct_staged(s, code), want, "code {code}, temp code {tc}");
+                }
             }
         }
     }
@@ -244,20 +299,21 @@ fn sensitivity_limit_and_bias_floor() {
     o.header.bias_bend = true;
     o.header.sensitivity_limit = true;
     // λ = −4.5 Np; u_min = −3.75 Np (stored divided by 6).
-    o.ln_bias = vec![-(3 << 22); 6];
-    o.u_min = vec![-10_485_760; 6];
+    o.ln_bias = vec![-(3 << 22); 7];
+    o.u_min = vec![-10_485_760; 7];
     // A wider x̃ grid and x range, so the swamped low end (x̃ down to −12 Np) stays inside them.
     o.header.x_min = -16 << 24;
     o.header.xa_origin = -18 << 24;
-    o.header.xa_inv_step = 1_864_135; // floor(2^24 / 9 Np)
+    o.header.xa_step_log2 = 27; // 8 Np
     let c = o.view();
     assert_eq!(c.validate(), Ok(()));
     let u_min_code = 32769 - 20480; // u = −3.75 Np
     assert_eq!(c.correct(u_min_code - 1, 25_000), Err(Error::BelowRange));
     let at = c.correct(u_min_code, 25_000).unwrap();
     // x̃ = u + G(0.75 Np) = −3.75 + ln(1 − e^−0.75): e^−0.75 = 0.4723665527, ln 0.5276334473 = −0.6393535
-    // (values from memory of standard tables); −4.3893535 · 2^24 = −73_641_131.
-    assert!((i64::from(at.x) + 73_641_131).abs() < 32, "{}", at.x);
+    // (values from memory of standard tables); −4.3893535 · 2^24 = −73_641_131. The bend's per-sample
+    // spline is within 4e-6 Np of G there (host test `bend_meets_its_budget`): 67 units of Q24.
+    assert!((i64::from(at.x) + 73_641_131).abs() < 67, "{}", at.x);
     // Without the sensitivity limit, the bend table's floor (v < 2^−10 Np) refuses the swamped low end.
     o.header.sensitivity_limit = false;
     let c = o.view();
@@ -320,10 +376,23 @@ fn validate_names_the_defect() {
     check(&|o| o.header.temp_min = o.header.temp_max, D::TemperatureRange);
     check(&|o| o.header.temp_lo = o.header.temp_min + 1, D::TemperatureRange);
     check(&|o| o.header.x_max = o.header.x_min, D::XRange);
-    check(&|o| o.header.t_inv_step = 0, D::Normalisation);
+    check(&|o| o.header.t_step_log2 = 19, D::Normalisation);
+    check(&|o| o.header.t_step_log2 = 29, D::Normalisation);
+    check(&|o| o.header.t_step_log2 = 23, D::Normalisation); // the grid ends below 55 °C
     check(&|o| o.header.t_origin += 1024, D::Normalisation);
     check(&|o| o.header.offset_frac = 31, D::Coefficient);
-    check(&|o| o.header.offset_frac = 16, D::Coefficient); // 65535 · 2^16 does not fit below 2^31
+    check(
+        &|o| {
+            o.header.offset_frac = 15; // 65535 · 2^15 does not fit below 2^30
+            o.header.inv_slope_frac = 41;
+        },
+        D::Coefficient,
+    );
+    check(&|o| o.header.inv_slope_frac = 43, D::Coefficient); // the fractions must add up to 56
+    check(&|o| o.header.residual_frac = 13, D::Coefficient);
+    check(&|o| o.header.xa_step_log2 = 15, D::Coefficient);
+    check(&|o| o.offset[3] = (1 << 30) / 6 + 1, D::Coefficient); // O at most 2^30
+    check(&|o| o.offset[3] = -(1 << 29) / 6 - 1, D::Coefficient); // and at least −2^29
     check(&|o| o.residual.pop().map_or((), |_| ()), D::Coefficient);
     check(&|o| o.header.bias_bend = true, D::Coefficient); // λ table missing
     check(&|o| o.inv_slope[2] = 0, D::ZeroSlope);
@@ -366,14 +435,14 @@ fn garbage_tables_never_panic_or_wrap() {
         h.temp_hi = i32::MAX;
         h.t_knots = rng.next() as u16;
         h.t_origin = rng.i32();
-        h.t_inv_step = rng.i32();
+        h.t_step_log2 = rng.next() as u8;
         h.offset_frac = rng.next() as u8;
         h.inv_slope_frac = rng.next() as u8;
         h.bias_bend = rng.next().is_multiple_of(2);
         h.sensitivity_limit = rng.next().is_multiple_of(2);
         h.xa_knots = rng.next() as u16;
         h.xa_origin = rng.i32();
-        h.xa_inv_step = rng.i32();
+        h.xa_step_log2 = rng.next() as u8;
         h.residual_frac = rng.next() as u8;
         h.x_min = rng.i32();
         h.x_max = rng.i32();
@@ -399,6 +468,9 @@ fn garbage_tables_never_panic_or_wrap() {
             }
             let tc = rng.next() as u32;
             assert_eq!(StageCache::new(c).correct_raw(code, tc), c.correct_raw(code, tc));
+            if let Ok(s) = c.stage_code(tc) {
+                assert_eq!(c.correct_staged(&s, code), c.correct_raw(code, tc));
+            }
         }
     }
 }

@@ -32,7 +32,7 @@
 use crate::calibration::{Calibration, Reading};
 use crate::error::Error;
 use crate::fixed::{value_frac_bits, FixedCalibration, FixedReading, X_FRAC};
-use crate::qformat::{f32_from_q, millicelsius_saturating, round_shr_small, theta_of_celsius};
+use crate::qformat::{f32_from_q, millicelsius_saturating, round_shr, theta_of_celsius};
 use crate::units::Unit;
 
 /// Fractional bits of a mean code that the f32 correction resolves (1/256 code), where the converter's
@@ -258,7 +258,7 @@ pub fn correct_mean_fixed(
     let (a, b) = (a?, b?);
     // |x_hi − x_lo| < 2^32 and f < 2^8: no overflow; the result lies between two i32 values.
     let dx = (i64::from(b.x) - i64::from(a.x)) * f;
-    let x = i64::from(a.x) + round_shr_small(dx, k);
+    let x = i64::from(a.x) + round_shr(dx, k);
     Ok(FixedReading {
         x: i32::try_from(x).unwrap_or(a.x),
         temperature_extrapolated: a.temperature_extrapolated,

@@ -62,14 +62,12 @@ fn fault_of(code: u8) -> Option<SensorFault> {
 }
 
 /// The sizes the dimensions call for: the rule of [`FixedCalibration::validate`], made exact (a table that
-/// is not used is empty; a sensor table has exactly `segments + 3` control points).
+/// is not used is empty; a sensor table has exactly [`SensorTable::knots_needed`] control points).
 fn expected_sizes(h: &FixedHeader, sensor: Option<&SensorTable<'_>>) -> Sizes {
     let nt = u32::from(h.t_knots) + 2;
     let nx = u32::from(h.xa_knots) + 2;
     let sensor_knots = sensor.map_or(0, |s| {
-        let span = u64::from(s.code_hi.saturating_sub(s.code_lo));
-        let segments = span.div_ceil(1u64 << s.step_log2.min(16)).max(1);
-        u32::try_from(segments + 3).unwrap_or(u32::MAX)
+        u32::try_from(SensorTable::knots_needed(s.code_lo, s.code_hi, s.step_log2)).unwrap_or(u32::MAX)
     });
     let mut e = [0; N_TABLES];
     for (i, v) in e.iter_mut().enumerate() {
@@ -132,6 +130,7 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
     }
     p.reserved(&lf::RESERVED)?;
     p.reserved(&lf::RESERVED2)?;
+    p.reserved(&lf::RESERVED3)?;
     let bias_bend = p.flag(&lf::BIAS_BEND)?;
     let sensitivity_limit = p.flag(&lf::SENSITIVITY_LIMIT)?;
     let has_sensor = p.flag(&lf::HAS_SENSOR)?;
@@ -145,14 +144,14 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
         temp_hi: p.i32(&lf::TEMP_HI)?,
         t_knots: p.u16(&lf::T_KNOTS)?,
         t_origin: p.i32(&lf::T_ORIGIN)?,
-        t_inv_step: p.i32(&lf::T_INV_STEP)?,
+        t_step_log2: p.u8(&lf::T_STEP_LOG2)?,
         offset_frac: p.u8(&lf::OFFSET_FRAC)?,
         inv_slope_frac: p.u8(&lf::INV_SLOPE_FRAC)?,
         bias_bend,
         sensitivity_limit,
         xa_knots: p.u16(&lf::XA_KNOTS)?,
         xa_origin: p.i32(&lf::XA_ORIGIN)?,
-        xa_inv_step: p.i32(&lf::XA_INV_STEP)?,
+        xa_step_log2: p.u8(&lf::XA_STEP_LOG2)?,
         residual_frac: p.u8(&lf::RESIDUAL_FRAC)?,
         x_min: p.i32(&lf::X_MIN)?,
         x_max: p.i32(&lf::X_MAX)?,
@@ -374,17 +373,17 @@ fn data_len_before(sizes: &Sizes, i: usize) -> u64 {
 /// Where a unit's fixed-point tables live after they are read from an image: arrays of fixed capacity
 /// the caller owns (a `static`, or a local of `main`), no heap. `T` is the capacity of each of the four
 /// per-temperature tables (`t_knots + 2` entries), `R` of the residual (`(t_knots + 2)·(xa_knots + 2)`),
-/// `S` of the sensor table (`segments + 3`).
+/// `S` of the sensor table ([`SensorTable::knots_needed`]).
 ///
 /// [`FixedStorage::load`] copies a section's tables in and checks them; [`FixedStorage::calibration`]
 /// then lends them as a [`FixedCalibration`].
 ///
 /// ```
 /// use logtrim::image::DefaultFixedStorage;
-/// // The host's default tables (16 temperature knots, 40 x̃ knots, 128 sensor segments) fit this one.
+/// // The host's default tables (at most 16 temperature knots, 64 x̃ knots, 128 sensor segments) fit this one.
 /// let storage = DefaultFixedStorage::new();
 /// assert!(storage.calibration().is_none());
-/// assert!(core::mem::size_of::<DefaultFixedStorage>() < 2600); // bytes of RAM
+/// assert!(core::mem::size_of::<DefaultFixedStorage>() < 3500); // bytes of RAM
 /// ```
 #[derive(Clone)]
 pub struct FixedStorage<const T: usize, const R: usize, const S: usize> {
@@ -405,9 +404,9 @@ struct Loaded {
     sizes: Sizes,
 }
 
-/// A storage sized for the host's default tables (`logtrim_host::tables::TableOptions::default()`:
-/// 16 temperature knots, 40 x̃ knots, at most 128 sensor segments), about 2.4 KiB.
-pub type DefaultFixedStorage = FixedStorage<18, 756, 131>;
+/// A storage sized for the host's default tables (`logtrim_host::tables::TableOptions::default()`: at most
+/// 16 temperature knots, 64 x̃ knots and 128 sensor segments), about 3.3 KiB.
+pub type DefaultFixedStorage = FixedStorage<18, 1188, 131>;
 
 impl<const T: usize, const R: usize, const S: usize> Default for FixedStorage<T, R, S> {
     fn default() -> Self {

@@ -301,14 +301,18 @@ pub mod fixed {
     pub const TEMP_HI: Field = TEMP_LO.then("temp_hi", Kind::I32, "highest accepted temperature, θ");
     /// Temperature grid origin.
     pub const T_ORIGIN: Field = TEMP_HI.then("t_origin", Kind::I32, "θ of temperature knot 0");
-    /// Temperature grid scale.
-    pub const T_INV_STEP: Field = T_ORIGIN.then("t_inv_step", Kind::I32, "2^48 / temperature knot step in θ");
+    /// Temperature grid step.
+    pub const T_STEP_LOG2: Field =
+        T_ORIGIN.then("t_step_log2", Kind::U8, "temperature knot step 2^n θ, n in 20..=28 (16 windows each)");
+    /// x̃ grid step.
+    pub const XA_STEP_LOG2: Field =
+        T_STEP_LOG2.then("xa_step_log2", Kind::U8, "x̃ knot step 2^n in Q24 Np, n in 16..=28");
+    /// Padding.
+    pub const RESERVED3: Field = XA_STEP_LOG2.then("reserved3", Kind::Reserved(2), "zero");
     /// x̃ grid origin.
-    pub const XA_ORIGIN: Field = T_INV_STEP.then("xa_origin", Kind::I32, "x̃ of knot 0, Q24 Np");
-    /// x̃ grid scale.
-    pub const XA_INV_STEP: Field = XA_ORIGIN.then("xa_inv_step", Kind::I32, "2^24 / x̃ knot step in Np");
+    pub const XA_ORIGIN: Field = RESERVED3.then("xa_origin", Kind::I32, "x̃ of knot 0, Q24 Np");
     /// Lowest calibrated x.
-    pub const X_MIN: Field = XA_INV_STEP.then("x_min", Kind::I32, "lowest calibrated x, Q24 Np");
+    pub const X_MIN: Field = XA_ORIGIN.then("x_min", Kind::I32, "lowest calibrated x, Q24 Np");
     /// Highest calibrated x.
     pub const X_MAX: Field = X_MIN.then("x_max", Kind::I32, "highest calibrated x, Q24 Np");
     /// Offset table length.
@@ -335,7 +339,7 @@ pub mod fixed {
     pub const SENSOR_KNOTS_LEN: Field = RESIDUAL_LEN.then(
         "sensor_knots_len",
         Kind::U16,
-        "entries of `sensor_knots`: segments + 3 with a sensor table, else 0",
+        "entries of `sensor_knots`: ((code_hi − code_lo) >> step_log2) + 4 with a sensor table, else 0",
     );
     /// Sensor span, low end.
     pub const SENSOR_CODE_LO: Field = SENSOR_KNOTS_LEN.then(
@@ -395,9 +399,10 @@ pub mod fixed {
         TEMP_LO,
         TEMP_HI,
         T_ORIGIN,
-        T_INV_STEP,
+        T_STEP_LOG2,
+        XA_STEP_LOG2,
+        RESERVED3,
         XA_ORIGIN,
-        XA_INV_STEP,
         X_MIN,
         X_MAX,
         OFFSET_LEN,
@@ -420,33 +425,33 @@ pub mod fixed {
 
     /// O(T) control points.
     pub const OFFSET: Table =
-        Table { name: "offset", elem: Elem::I32, count: OFFSET_LEN, doc: "O(T), codes · 2^offset_frac" };
+        Table { name: "offset", elem: Elem::I32, count: OFFSET_LEN, doc: "O(T), codes · 2^offset_frac / 6" };
     /// 1/S(T) control points.
     pub const INV_SLOPE: Table = Table {
         name: "inv_slope",
         elem: Elem::I32,
         count: INV_SLOPE_LEN,
-        doc: "1/S(T), Np/code · 2^inv_slope_frac, all > 0",
+        doc: "1/S(T), Np/code · 2^inv_slope_frac / 6, all > 0",
     };
     /// λ(T) control points.
     pub const LN_BIAS: Table =
-        Table { name: "ln_bias", elem: Elem::I32, count: LN_BIAS_LEN, doc: "λ(T) = ln β(T), Q24 Np" };
+        Table { name: "ln_bias", elem: Elem::I32, count: LN_BIAS_LEN, doc: "λ(T) = ln β(T), Q24 Np / 6" };
     /// u_min(T) control points.
     pub const U_MIN: Table =
-        Table { name: "u_min", elem: Elem::I32, count: U_MIN_LEN, doc: "u_min(T), Q24 Np" };
+        Table { name: "u_min", elem: Elem::I32, count: U_MIN_LEN, doc: "u_min(T), Q24 Np / 6" };
     /// The sensor table's control points.
     pub const SENSOR_KNOTS: Table = Table {
         name: "sensor_knots",
         elem: Elem::I32,
         count: SENSOR_KNOTS_LEN,
-        doc: "θ over the sensor code, the first at knot −1",
+        doc: "θ / 6 over the sensor code, the first at knot −1",
     };
     /// r(x̃, T) control points.
     pub const RESIDUAL: Table = Table {
         name: "residual",
         elem: Elem::I16,
         count: RESIDUAL_LEN,
-        doc: "r(x̃, T), Np · 2^residual_frac, row-major by temperature; then zero padding to a multiple of 4",
+        doc: "r(x̃, T), Np · 2^residual_frac · 2/9, row-major by temperature; then zero padding to a multiple of 4",
     };
 
     /// The tables in the order they follow the fields: every i32 table first, so each starts 4-byte aligned.

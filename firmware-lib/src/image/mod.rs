@@ -35,7 +35,7 @@
 //! * The **trailer** is the CRC-32/ISO-HDLC of every byte before it ([`crate::record::crc32`]).
 //!
 //! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
-//! section of the host's default tables (16 temperature knots, 40 x̃ knots) it is 2 024 bytes, 2 168 with
+//! section of tables with 16 temperature knots and 40 x̃ knots it is 2 020 bytes, 2 164 with
 //! the bias bend and the sensitivity limit, and 524 bytes more with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written

@@ -153,7 +153,7 @@ fn layout_parts_are_contiguous_and_sized() {
     assert_eq!(header::LEN, 40);
     assert_eq!(ranges::LEN, 32);
     assert_eq!(model_f32::LEN, 184);
-    assert_eq!(layout::fixed::HEAD_LEN, 96);
+    assert_eq!(layout::fixed::HEAD_LEN, 92);
     assert_eq!(layout::F32_IMAGE_LEN, 268);
     // Every table's count field is a u16 field of its own part.
     for t in layout::fixed::TABLES {
@@ -816,15 +816,19 @@ mod fixed_section {
         Owned {
             header,
             // Stored divided by 6, as the fixed tables store their control points.
-            offset: (0..6).map(|i| ((32768 << 14) + 300_000 * i + next(50_000)) / 6).collect(),
-            inv_slope: (0..6).map(|i| ((1 << 30) - 2_000_000 * i + next(100_000)) / 6).collect(),
+            offset: (0..7).map(|i| ((32768 << 14) + 300_000 * i + next(50_000)) / 6).collect(),
+            inv_slope: (0..7).map(|i| ((1 << 30) - 2_000_000 * i + next(100_000)) / 6).collect(),
             ln_bias: if bias {
-                (0..6).map(|i| -11 * q24 + i * q24 / 2 + next(1000)).collect()
+                (0..7).map(|i| (-11 * q24 + i * q24 / 2 + next(1000)) / 6).collect()
             } else {
                 vec![]
             },
-            u_min: if bias { (0..6).map(|i| -10 * q24 + i * q24 / 2 + next(1000)).collect() } else { vec![] },
-            residual: (0..42).map(|_| next(400) as i16 - 200).collect(),
+            u_min: if bias {
+                (0..7).map(|i| (-10 * q24 + i * q24 / 2 + next(1000)) / 6).collect()
+            } else {
+                vec![]
+            },
+            residual: (0..56).map(|_| next(400) as i16 - 200).collect(),
             sensor: if sensor {
                 (0..19).map(|i| ((i - 1) * 256 * 10 * 1024 + next(500)) / 6).collect()
             } else {
@@ -835,7 +839,7 @@ mod fixed_section {
     }
 
     /// Storage of the size of these small tables.
-    type Small = FixedStorage<6, 42, 19>;
+    type Small = FixedStorage<7, 56, 19>;
 
     pub(super) fn image_with(fixed: &FixedCalibration<'_>) -> Vec<u8> {
         let cal = hard_unit();
@@ -899,8 +903,8 @@ mod fixed_section {
             assert!(sec.u_min().eq(o.u_min.iter().copied()));
             assert!(sec.residual().eq(o.residual.iter().copied()));
             assert!(sec.sensor_knots().eq(o.sensor.iter().copied()));
-            assert_eq!(sec.len_of(&lf::RESIDUAL), 42);
-            assert_eq!(sec.len_of(&lf::LN_BIAS), if bias { 6 } else { 0 });
+            assert_eq!(sec.len_of(&lf::RESIDUAL), 56);
+            assert_eq!(sec.len_of(&lf::LN_BIAS), if bias { 7 } else { 0 });
             // Writing the loaded tables again gives the same bytes.
             assert_eq!(image_with(&loaded), img);
         }
@@ -935,7 +939,7 @@ mod fixed_section {
     fn every_single_bit_flip_of_an_image_with_the_section_is_rejected() {
         let img = image_with(&owned(5, true, true).view());
         // 268 bytes of the f32 image (CRC included), the section header, its fields and its tables.
-        assert_eq!(img.len(), 268 + 4 + 96 + 4 * (4 * 6 + 19) + 2 * 42);
+        assert_eq!(img.len(), 268 + 4 + 92 + 4 * (4 * 7 + 19) + 2 * 56);
         assert_eq!(check_every_bit_flip(&img), img.len() * 8);
     }
 
@@ -982,16 +986,16 @@ mod fixed_section {
         };
         // A count that disagrees with the dimensions.
         assert_eq!(
-            Image::parse(&edit(&img, at(&lf::OFFSET_LEN), &7u16.to_le_bytes())),
-            size_err("offset", 7, 6)
+            Image::parse(&edit(&img, at(&lf::OFFSET_LEN), &8u16.to_le_bytes())),
+            size_err("offset", 8, 7)
         );
         assert_eq!(
             Image::parse(&edit(&img, at(&lf::U_MIN_LEN), &0u16.to_le_bytes())),
-            size_err("u_min", 0, 6)
+            size_err("u_min", 0, 7)
         );
         assert_eq!(
-            Image::parse(&edit(&img, at(&lf::RESIDUAL_LEN), &48u16.to_le_bytes())),
-            size_err("residual", 48, 42)
+            Image::parse(&edit(&img, at(&lf::RESIDUAL_LEN), &64u16.to_le_bytes())),
+            size_err("residual", 64, 56)
         );
         assert_eq!(
             Image::parse(&edit(&img, at(&lf::SENSOR_KNOTS_LEN), &20u16.to_le_bytes())),
@@ -999,15 +1003,15 @@ mod fixed_section {
         );
         // Dimensions that disagree with the counts: the first table that does not fit is named.
         assert_eq!(
-            Image::parse(&edit(&img, at(&lf::T_KNOTS), &5u16.to_le_bytes())),
-            size_err("offset", 6, 7)
+            Image::parse(&edit(&img, at(&lf::T_KNOTS), &6u16.to_le_bytes())),
+            size_err("offset", 7, 8)
         );
         assert_eq!(
-            Image::parse(&edit(&img, at(&lf::XA_KNOTS), &6u16.to_le_bytes())),
-            size_err("residual", 42, 48)
+            Image::parse(&edit(&img, at(&lf::XA_KNOTS), &7u16.to_le_bytes())),
+            size_err("residual", 56, 63)
         );
         // A bias-bend table without the bias bend.
-        assert_eq!(Image::parse(&edit(&img, at(&lf::BIAS_BEND), &[0])), size_err("ln_bias", 6, 0));
+        assert_eq!(Image::parse(&edit(&img, at(&lf::BIAS_BEND), &[0])), size_err("ln_bias", 7, 0));
         // A sensor table whose span calls for more knots (4200 codes in 256-code steps: 17 segments, not 16).
         assert_eq!(
             Image::parse(&edit(&img, at(&lf::SENSOR_CODE_HI), &4300u32.to_le_bytes())),
@@ -1039,7 +1043,7 @@ mod fixed_section {
         let v = assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (lf::KIND, &fixed[..40])]);
         assert_eq!(
             Image::parse(&v).unwrap_err(),
-            ImageError::SectionLength { kind: lf::KIND, found: 40, expected: 96 }
+            ImageError::SectionLength { kind: lf::KIND, found: 40, expected: 92 }
         );
         // In another order, and twice.
         let v = assemble(3, &[(lf::KIND, &fixed), (model_f32::KIND, &m), (ranges::KIND, &r)]);
@@ -1088,12 +1092,11 @@ mod fixed_section {
 
     #[test]
     fn padding_after_the_residual_is_zero() {
-        // 5 temperature knots: 7 × 7 = 49 residual entries, 98 bytes, 2 bytes of padding.
+        // 5 x̃ knots (every 8 Np from −9 Np): 7 × 7 = 49 residual entries, 98 bytes, 2 bytes of padding.
         let mut o = owned(5, false, false);
-        o.header.t_knots = 5; // the 20 K grid now reaches past the accepted range, which is allowed
-        o.offset.push(o.offset[5]);
-        o.inv_slope.push(o.inv_slope[5]);
-        o.residual.extend_from_slice(&[3; 7]);
+        o.header.xa_knots = 5;
+        o.header.xa_step_log2 = 27;
+        o.residual.truncate(49);
         assert_eq!(o.view().validate(), Ok(()));
         let img = image_with(&o.view());
         let pad = img.len() - 4 - 2;
@@ -1109,7 +1112,7 @@ mod fixed_section {
         // A zero inverse slope with a correct CRC (a faulty writer elsewhere): the structure is fine, the
         // tables fail `FixedCalibration::validate` when they are loaded, and nothing is lent.
         let img = image_with(&owned(5, true, true).view());
-        let inv0 = P0 + 96 + 4 * 6 + 4 * 3; // inv_slope[3]
+        let inv0 = P0 + 92 + 4 * 7 + 4 * 3; // inv_slope[3]
         let bad = edit(&img, inv0, &0i32.to_le_bytes());
         let parsed = Image::parse(&bad).unwrap();
         let mut storage = Small::new();
@@ -1139,10 +1142,10 @@ mod fixed_section {
         let img = image_with(&owned(5, true, true).view());
         let parsed = Image::parse(&img).unwrap();
         let capacity = |table, needed, capacity| Err(ImageError::FixedCapacity { table, needed, capacity });
-        assert_eq!(parsed.fixed_into(&mut FixedStorage::<5, 42, 19>::new()), capacity("offset", 6, 5));
-        assert_eq!(parsed.fixed_into(&mut FixedStorage::<6, 41, 19>::new()), capacity("residual", 42, 41));
+        assert_eq!(parsed.fixed_into(&mut FixedStorage::<6, 56, 19>::new()), capacity("offset", 7, 6));
+        assert_eq!(parsed.fixed_into(&mut FixedStorage::<7, 55, 19>::new()), capacity("residual", 56, 55));
         assert_eq!(
-            parsed.fixed_into(&mut FixedStorage::<6, 42, 18>::new()),
+            parsed.fixed_into(&mut FixedStorage::<7, 56, 18>::new()),
             capacity("sensor_knots", 19, 18)
         );
         assert!(parsed.fixed_into(&mut FixedStorage::<100, 1000, 100>::new()).is_ok());
@@ -1162,14 +1165,14 @@ mod fixed_section {
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
         assert_eq!(
             e,
-            WriteError::Value(ImageValueError::FixedTableSize { table: "offset", found: 7, expected: 6 })
+            WriteError::Value(ImageValueError::FixedTableSize { table: "offset", found: 8, expected: 7 })
         );
         let mut o = owned(5, true, true);
         o.header.bias_bend = false;
         let e = write_with_fixed(&mut buf, &INFO, &cal, Some(&o.view()), &[]).unwrap_err();
         assert_eq!(
             e,
-            WriteError::Value(ImageValueError::FixedTableSize { table: "ln_bias", found: 6, expected: 0 })
+            WriteError::Value(ImageValueError::FixedTableSize { table: "ln_bias", found: 7, expected: 0 })
         );
         let mut o = owned(5, true, true);
         o.header.rail_margin = 4;
@@ -1254,7 +1257,7 @@ mod fixed_section {
         // The newer image's tables do not validate (correct CRC): the older one is used.
         let mut bad = b.clone();
         let n = bad.len() - 40;
-        bad[P0 + 96 + 24..P0 + 96 + 28].copy_from_slice(&0i32.to_le_bytes());
+        bad[P0 + 92 + 28..P0 + 92 + 32].copy_from_slice(&0i32.to_le_bytes()); // inv_slope[0]
         fix_crc(&mut bad[..n]);
         assert!(Image::parse_prefix(&bad).is_ok(), "the structure is fine");
         let (s, c) = slots::select_fixed(&a, &bad, &mut storage).unwrap();
@@ -1272,7 +1275,7 @@ mod fixed_section {
         // The f32 choice is unchanged: the newest valid image, fixed section or not.
         assert_eq!(slots::select(&f32_only, &a).unwrap().slot, SlotId::A);
         // Tables too large for the storage count as invalid too.
-        let e = slots::select_fixed(&a, &b, &mut FixedStorage::<6, 42, 4>::new()).unwrap_err();
+        let e = slots::select_fixed(&a, &b, &mut FixedStorage::<7, 56, 4>::new()).unwrap_err();
         assert!(matches!(e.a, Rejected::Invalid(ImageError::FixedCapacity { table: "sensor_knots", .. })));
     }
 
@@ -1284,7 +1287,7 @@ mod fixed_section {
         /// what does not load is refused with an error, not a panic.
         #[test]
         fn corrupted_fixed_sections_are_refused_or_canonical(
-            edits in proptest::collection::vec((P0..P0 + 96 + 200, any::<u8>()), 1..5),
+            edits in proptest::collection::vec((P0..P0 + 92 + 200, any::<u8>()), 1..5),
             seed in 0u32..1000,
         ) {
             let o = owned(seed, true, true);

@@ -229,9 +229,10 @@ fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteEr
     w.i32(&lf::TEMP_LO, h.temp_lo)?;
     w.i32(&lf::TEMP_HI, h.temp_hi)?;
     w.i32(&lf::T_ORIGIN, h.t_origin)?;
-    w.i32(&lf::T_INV_STEP, h.t_inv_step)?;
+    w.put(&lf::T_STEP_LOG2, &[h.t_step_log2])?;
+    w.put(&lf::XA_STEP_LOG2, &[h.xa_step_log2])?;
+    w.put(&lf::RESERVED3, &[0; 2])?;
     w.i32(&lf::XA_ORIGIN, h.xa_origin)?;
-    w.i32(&lf::XA_INV_STEP, h.xa_inv_step)?;
     w.i32(&lf::X_MIN, h.x_min)?;
     w.i32(&lf::X_MAX, h.x_max)?;
     let knots: &[i32] = f.sensor.as_ref().map_or(&[], |s| s.knots);

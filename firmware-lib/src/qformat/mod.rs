@@ -2,7 +2,7 @@
 //!
 //! | file | owns |
 //! |---|---|
-//! | `shift.rs` | integer rounding shifts and rescales between Q formats (saturating, never wrapping) |
+//! | `shift.rs` | integer rounding shifts between Q formats (saturating, never wrapping) |
 //! | `float.rs` | exact f32 ↔ Q conversions in integer arithmetic: [`q_from_f32`], [`f32_from_q`] |
 //! | `temperature.rs` | the temperature formats: θ (m°C · 2^[`THETA_FRAC`]) and m°C, to and from °C |
 //!
@@ -18,7 +18,7 @@ mod shift;
 mod temperature;
 
 pub use float::{f32_from_q, q_from_f32, MAX_FRAC};
-pub(crate) use shift::{rescale, round_shr, round_shr_small};
+pub(crate) use shift::round_shr;
 pub use temperature::{
     celsius_of_theta, millicelsius, millicelsius_of_theta, millicelsius_saturating, theta_of_celsius,
     THETA_FRAC,

@@ -214,7 +214,7 @@ fn claims() -> Vec<Claim> {
     let ranges_payload = header::LEN + section::HEADER_LEN;
     let model_payload = ranges_payload + ranges::LEN + section::HEADER_LEN;
     let crc_at = model_payload + model_f32::LEN;
-    // An image with the fixed section of the host's default tables: 16 + 2 temperature control points,
+    // An image with a fixed section of 16 temperature and 40 x̃ knots: 16 + 2 temperature control points,
     // (16 + 2)·(40 + 2) residual entries, the bias-bend and sensitivity tables only where they are used,
     // a 128-segment sensor table of 131 control points.
     let (nt, nx, sensor) = (16 + 2, 40 + 2, 128 + 3);

@@ -71,6 +71,9 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
             "logtrim: warning: the {kind} record is bound to no calibration (factory fingerprint 0): it is applied to this one unchecked; records made by `logtrim {kind}` are bound to theirs"
         );
     }
+    if matches!(args.path, PathArg::F32Micromath) {
+        note!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
+    }
     let tables = match args.path {
         PathArg::Fixed => Some(
             file.fixed_tables(&logtrim_host::tables::TableOptions::default())

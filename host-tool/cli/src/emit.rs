@@ -5,6 +5,7 @@ use std::path::PathBuf;
 use clap::builder::TypedValueParser as _;
 use clap::{Args, ValueEnum};
 use logtrim_host::calfile::CalFile;
+use logtrim_host::emit::rust::CratePath;
 use logtrim_host::emit::{self, Format, Provenance};
 use logtrim_host::tables::{self, TableOptions};
 
@@ -61,6 +62,10 @@ pub struct EmitArgs {
     /// Output file (written atomically).
     #[arg(short = 'o', long = "output")]
     pub output: PathBuf,
+    /// With `--format rust`: the path the generated code names the firmware crate by, for a firmware that
+    /// renames the dependency or re-exports it (e.g. `lt`, `crate::deps::logtrim`) [default: logtrim].
+    #[arg(long, value_name = "PATH")]
+    pub crate_path: Option<CratePath>,
     #[command(flatten)]
     pub tables: TableArgs,
 }
@@ -79,6 +84,9 @@ pub fn load_tables(
 
 /// Runs `logtrim emit`.
 pub fn run(args: &EmitArgs) -> Result<(), Failure> {
+    if args.crate_path.is_some() && !matches!(args.format, FormatArg::Rust) {
+        return Err(Failure::input("--crate-path applies to --format rust only"));
+    }
     crate::check_outputs(&[Some(&args.coeffs)], &[Some(&args.output)], &[])?;
     let (file, tables) = load_tables(&args.coeffs, &args.tables)?;
     let format = match args.format {
@@ -87,7 +95,10 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
         FormatArg::Json => Format::Json,
     };
     let prov = Provenance { unit: file.unit.clone(), source: Some(args.coeffs.display().to_string()) };
-    let text = emit::render(&tables, format, &prov);
+    let text = match &args.crate_path {
+        Some(path) => emit::rust::render_with_crate(&tables, &prov, path),
+        None => emit::render(&tables, format, &prov),
+    };
     logtrim_host::output::write_atomic(&args.output, text.as_bytes())
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     note!(

@@ -1,6 +1,8 @@
 //! `logtrim inspect`: decode and check an image file (binary or Intel HEX) exactly as the firmware would,
 //! and print it, its fixed-point tables included. A bad image exits with 1 and its specific error; so does
 //! an image whose fixed-point tables a fixed-point firmware would refuse (after printing what it holds).
+//! A trim or blank record file (recognised by its magic) is checked by the firmware's parser and printed,
+//! with the calibration ID it is bound to (the image's `calib. ID`).
 
 use std::path::PathBuf;
 
@@ -11,7 +13,8 @@ use crate::Failure;
 /// Options of `logtrim inspect`.
 #[derive(Debug, clap::Args)]
 pub struct Args {
-    /// The image file: raw binary, or Intel HEX (recognised by its leading ':').
+    /// The image or field record file (trim or blank): raw binary, or Intel HEX (recognised by its leading
+    /// ':').
     pub image: PathBuf,
     /// Print JSON instead of text.
     #[arg(long)]
@@ -25,6 +28,19 @@ pub fn run(args: Args) -> Result<(), Failure> {
         // A HEX file whose records are broken is a bad image file.
         other => Failure::check(format!("{name}: bad Intel HEX: {other}")),
     })?;
+    if let Some(record) = logtrim_host::records::parse_field_record(&file.bytes, &name)
+        .map_err(|e| Failure::check(format!("bad record: {e}")))?
+    {
+        if args.json {
+            let mut v = logtrim_host::records::field_record_json(&record);
+            v["file"] = serde_json::json!(name);
+            say!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+        } else {
+            say!("{name}: {} bytes", file.bytes.len());
+            say_raw!("{}", logtrim_host::records::describe_field_record(&record));
+        }
+        return Ok(());
+    }
     let img =
         logtrim::Image::parse(&file.bytes).map_err(|e| Failure::check(format!("{name}: bad image: {e}")))?;
     let place = match (file.format, file.base) {

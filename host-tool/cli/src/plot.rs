@@ -98,7 +98,7 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
     let serial = args.serial.clone().or_else(|| file.unit.clone());
-    let data = chamber_rows(&args.cal, cal.adc.bits, serial.as_deref())?;
+    let data = chamber_rows(&args.cal, &file, serial.as_deref())?;
     let who = serial.as_deref().map_or_else(|| "unit".to_string(), |s| format!("unit {s}"));
     let coeffs_name = args.coeffs.file_name().map_or_else(String::new, |n| n.to_string_lossy().into_owned());
     let sub = format!("{who}, calibrated {} ({coeffs_name})", utc(file.created_unix_s));
@@ -109,7 +109,14 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
     let vs_x = figures::error_vs_x(&cal, &data, args.setpoint_gap, args.error_unit, &sub);
     out.push((format!("{prefix}-error-vs-x.svg"), render_lines(&vs_x).map_err(Failure::input)?));
     if let (Some(r), Some(t)) = (&args.validation, &args.truth) {
-        let points = read_validation(r, t, serial.as_deref(), cal.adc.bits).map_err(Failure::input)?;
+        // Validation readings are read as the unit's firmware reads them (a raw temperature code in f32).
+        let conv = |code: u32| file.firmware_celsius(code);
+        let opts = ReadOptions {
+            adc_bits: cal.adc.bits,
+            temp_converter: file.temperature_sensor.as_ref().map(|_| &conv as data::TempConverter<'_>),
+            ..ReadOptions::default()
+        };
+        let points = read_validation(r, t, serial.as_deref(), &opts).map_err(Failure::input)?;
         let fig = figures::error_vs_temperature(&cal, &points, args.bins as usize, args.error_unit, &sub);
         out.push((format!("{prefix}-error-vs-temperature.svg"), render_lines(&fig).map_err(Failure::input)?));
     }
@@ -137,10 +144,16 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
     Ok(())
 }
 
-/// The chamber rows of one unit as fit data (in a batch file, the rows of `serial`).
-fn chamber_rows(path: &Path, bits: u8, serial: Option<&str>) -> Result<FitData, Failure> {
-    let cal = data::read_calibration_file(path, &ReadOptions { adc_bits: bits, ..ReadOptions::default() })
-        .map_err(Failure::input)?;
+/// The chamber rows of one unit as fit data (in a batch file, the rows of `serial`), read as the fit reads
+/// them: a `temp_code` column converted by the calibration file's temperature sensor in f64.
+fn chamber_rows(path: &Path, file: &CalFile, serial: Option<&str>) -> Result<FitData, Failure> {
+    let conv = |code: u32| file.chamber_celsius(code);
+    let opts = ReadOptions {
+        adc_bits: file.calibration.adc.bits,
+        temp_converter: file.temperature_sensor.as_ref().map(|_| &conv as data::TempConverter<'_>),
+        ..ReadOptions::default()
+    };
+    let cal = data::read_calibration_file(path, &opts).map_err(Failure::input)?;
     let keep = match (cal.units.is_empty(), serial) {
         (true, _) => None,
         (false, None) => {

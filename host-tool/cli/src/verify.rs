@@ -131,6 +131,9 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         duration(estimate),
         if estimate > 60.0 && !args.sample { "; --sample for a quick sampled run" } else { "" }
     );
+    if matches!(args.backend, BackendArg::Micromath) {
+        note!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
+    }
     let start = std::time::Instant::now();
     let terminal = std::io::stderr().is_terminal() && std::io::stdout().is_terminal();
     let bar = crate::progress::bar("verify {bar:40} {pos}/{len} temperatures, {eta} left", terminal);

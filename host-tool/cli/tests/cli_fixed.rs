@@ -85,3 +85,34 @@ fn emit_writes_each_format_or_nothing() {
     assert!(leftovers.is_empty(), "temporary files left behind: {leftovers:?}");
     let _ = std::fs::remove_dir_all(&d);
 }
+
+#[test]
+fn emit_crate_path_names_a_renamed_dependency() {
+    let d = scratch("emit-crate-path");
+    let c = coeffs(&d);
+    let out = d.join("unit.rs");
+    let o = out.to_str().unwrap();
+    let (code, _, err) = logtrim(&["emit", &c, "--format", "rust", "--crate-path", "lt", "-o", o]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(text.contains(
+        "pub const LOGTRIM_FIXED: lt::fixed::FixedCalibration<'static> = lt::fixed::FixedCalibration {"
+    ));
+    assert!(text.contains("header: lt::fixed::FixedHeader {"));
+    assert!(!text.contains("logtrim::fixed::Fixed"), "a path still names `logtrim`");
+    // Not a Rust path: exit 2, the value named, nothing written.
+    let bad = d.join("bad.rs");
+    let (code, _, err) =
+        logtrim(&["emit", &c, "--format", "rust", "--crate-path", "lt::", "-o", bad.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(err.contains("\"lt::\"") && err.contains("empty segment"), "{err}");
+    assert!(!bad.exists());
+    // Only Rust has paths: exit 2 for another format, nothing written.
+    let h = d.join("unit.h");
+    let (code, _, err) =
+        logtrim(&["emit", &c, "--format", "c", "--crate-path", "lt", "-o", h.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--crate-path applies to --format rust only"), "{err}");
+    assert!(!h.exists());
+    let _ = std::fs::remove_dir_all(&d);
+}

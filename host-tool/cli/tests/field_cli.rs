@@ -78,6 +78,32 @@ fn trim_blank_and_apply_undo_the_ageing() {
     assert_eq!(code, 0, "{out}{err}");
     assert!(out.contains("16 readings") && out.contains("44 bytes"), "{out}");
 
+    // inspect reads both records back, each bound to the calibration ID that inspect shows for the image.
+    let image = d.join("unit.bin");
+    let (code, out, err) = logtrim(&["image", s(&coeffs), "-o", s(&image), "--no-fixed"]);
+    assert_eq!(code, 0, "{out}{err}");
+    let (code, img_text, err) = logtrim(&["inspect", s(&image)]);
+    assert_eq!(code, 0, "{img_text}{err}");
+    let id_line = img_text.lines().find(|l| l.starts_with("calib. ID")).expect("the image's calibration ID");
+    let id = id_line.split_whitespace().nth(2).unwrap().to_string();
+    let (code, out, err) = logtrim(&["inspect", s(&trim)]);
+    assert_eq!(code, 0, "{out}{err}");
+    assert!(out.contains("record       trim") && out.contains("kind         two-point"), "{out}");
+    assert!(out.contains(&format!("calibration  {id}")) && out.contains("2026-01-01"), "{out}");
+    let (code, out, err) = logtrim(&["inspect", "--json", s(&blank)]);
+    assert_eq!(code, 0, "{out}{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!((v["record"].as_str(), v["calibration_id"].as_str()), (Some("blank"), Some(id.as_str())));
+    assert_eq!(v["samples"], 16);
+    // One flipped bit in the record: refused by the firmware's parser, the file named, exit 1.
+    let mut bytes = std::fs::read(&trim).unwrap();
+    bytes[20] ^= 0x10;
+    let bad = d.join("bad-trim.bin");
+    std::fs::write(&bad, bytes).unwrap();
+    let (code, out, err) = logtrim(&["inspect", s(&bad)]);
+    assert_eq!(code, 1, "{out}{err}");
+    assert!(err.contains("bad-trim.bin") && err.contains("bad record"), "{err}");
+
     // Truth: the ratio of each reading; the blank is at ratio 1, so x against the blank is x_true.
     let truth = std::fs::read_to_string(sim.join("truth.csv")).unwrap();
     let x_true: HashMap<String, f64> = truth

@@ -53,6 +53,19 @@ fn fit_then_apply_corrects_the_held_out_run() {
     let (code, out, err) = logtrim(&["apply", s(&coeffs), s(&d.join("readings.csv")), "-o", s(&corrected)]);
     assert_eq!(code, 0, "{out}{err}");
     assert!(out.contains("500 rows"), "{out}");
+    assert!(!err.contains("warning"), "{err}");
+    // The micromath backend runs, and says where it must not be used.
+    let (code, out, err) = logtrim(&[
+        "apply",
+        s(&coeffs),
+        s(&d.join("readings.csv")),
+        "-o",
+        s(&d.join("mm.csv")),
+        "--path",
+        "f32-micromath",
+    ]);
+    assert_eq!(code, 0, "{out}{err}");
+    assert!(err.contains("warning: the micromath backend is coarse") && err.contains("safety"), "{err}");
     // Compare with the truth: the simulator's x_true, by id.
     let truth = std::fs::read_to_string(d.join("truth.csv")).unwrap();
     let mut x_true = std::collections::HashMap::new();

@@ -169,9 +169,11 @@ fn item05_a_closed_pipe_ends_quietly_in_every_verb() {
     let d = scratch("h05pipe");
     for args in every_verb(&d) {
         let args: Vec<&str> = args.iter().map(String::as_str).collect();
-        let mut child = spawn(&args, Stdio::piped());
-        // The reader goes away at once, as `head` does after its lines.
-        drop(child.stdout.take());
+        // The reader is gone before the command starts, as `head` is after its lines (closing it after
+        // the spawn would race with a command that prints little and quickly).
+        let (reader, writer) = std::io::pipe().unwrap();
+        drop(reader);
+        let child = spawn(&args, Stdio::from(writer));
         let out = wait_or_kill(child, TIMEOUT, &args.join(" "));
         let (code, err) =
             (out.status.code().unwrap_or(-1), String::from_utf8_lossy(&out.stderr).into_owned());

@@ -56,6 +56,16 @@ fn run(seed: u64) {
     let (code, out, err) = logtrim(&["apply", &coeffs, &p("sim/readings.csv"), "-o", &corrected]);
     assert_eq!(code, 0, "{out}{err}");
 
+    // plot takes the raw channel from the calibration file, for the chamber data and the validation run.
+    let charts = p("charts");
+    let args = ["plot", &coeffs, cal.to_str().unwrap(), "--validation", &p("sim/readings.csv")];
+    let (code, out, err) = logtrim(
+        &[&args[..], &["--truth", &p("sim/truth.csv"), "--map-cells", "16x8", "-o", &charts]].concat(),
+    );
+    assert_eq!(code, 0, "{out}{err}");
+    let svgs = std::fs::read_dir(&charts).unwrap().filter_map(|e| e.ok()).count();
+    assert_eq!(svgs, 3, "{out}");
+
     let (th, truth) = read_csv(&d.join("sim/truth.csv"));
     let (oh, rows) = read_csv(Path::new(&corrected));
     let (t_id, t_x, t_or) = (column(&th, "id"), column(&th, "x_true"), column(&th, "x_oracle"));

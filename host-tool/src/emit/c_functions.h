@@ -1,133 +1,190 @@
 /* ---- evaluator: the same integer operations as logtrim::fixed, in the same order ---- */
 
-#define LT_W_BITS 28
-#define LT_POS_FRAC 20
-#define LT_ONE ((int64_t)1 << LT_POS_FRAC)
-#define LT_X_FRAC 24
-#define LT_X_CLAMP ((int64_t)1 << 31)
-#define LT_BEND_STRIDE 11
-#define LT_BEND_LEN 165u
-#define LT_EXP2_LEN 32u
+/* floor(x / 2^n): arithmetic right shifts without implementation-defined behaviour. */
+static inline int32_t lt_asr32(int32_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
+static inline int64_t lt_asr64(int64_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
 
-/* floor(x / 2^n), n <= 62: an arithmetic right shift without implementation-defined behaviour. */
-static inline int64_t lt_asr(int64_t x, unsigned n) { return x < 0 ? ~(~x >> n) : x >> n; }
-
-static inline int64_t lt_clamp(int64_t x, int64_t lo, int64_t hi) { return x < lo ? lo : (x > hi ? hi : x); }
-
-static inline int64_t lt_sat_add(int64_t a, int64_t b) {
-    if (b > 0 && a > INT64_MAX - b) return INT64_MAX;
-    if (b < 0 && a < INT64_MIN - b) return INT64_MIN;
-    return a + b;
-}
-
-static inline int64_t lt_sat_mul(int64_t a, int64_t b) {
-    int neg;
-    uint64_t ua, ub, lim, p;
-    if (a == 0 || b == 0) return 0;
-    neg = (a < 0) != (b < 0);
-    ua = a < 0 ? (uint64_t)0 - (uint64_t)a : (uint64_t)a;
-    ub = b < 0 ? (uint64_t)0 - (uint64_t)b : (uint64_t)b;
-    lim = neg ? (uint64_t)INT64_MAX + 1u : (uint64_t)INT64_MAX;
-    if (ua > lim / ub) return neg ? INT64_MIN : INT64_MAX;
-    p = ua * ub;
-    if (!neg) return (int64_t)p;
-    if (p == (uint64_t)INT64_MAX + 1u) return INT64_MIN;
-    return -(int64_t)p;
-}
-
-static inline int64_t lt_round_shr(int64_t x, unsigned n) {
-    if (n > 62) n = 62;
-    if (n == 0) return x;
-    return lt_asr(lt_sat_add(x, (int64_t)1 << (n - 1)), n);
-}
-
-static inline int64_t lt_sat_shl(int64_t x, unsigned n) {
-    if (n > 62) n = 62;
-    return lt_sat_mul(x, (int64_t)1 << n);
-}
-
-static inline int64_t lt_rescale(int64_t x, unsigned from, unsigned to) {
-    return from >= to ? lt_round_shr(x, from - to) : lt_sat_shl(x, to - from);
-}
-
-/* Six times the cubic B-spline basis at t (Q20), Q28; the tables store control points divided by 6. */
-static inline void lt_weights(int64_t t, int64_t w[4]) {
-    int64_t s, t2, t3, s2, s3;
-    t = lt_clamp(t, 0, LT_ONE);
-    s = LT_ONE - t;
-    t2 = (t * t) >> 12;
-    t3 = (t2 * t) >> 20;
-    s2 = (s * s) >> 12;
-    s3 = (s2 * s) >> 20;
-    w[0] = s3;
-    w[1] = 3 * t3 - 6 * t2 + ((int64_t)4 << LT_W_BITS);
-    w[2] = ((int64_t)6 << LT_W_BITS) - s3 - w[1] - t3;
-    w[3] = t3;
-}
-
-/* Rounded x / 2^n for the bounded spline sums (|x| < 2^62, 1 <= n <= 62). */
-static inline int64_t lt_round_shr_small(int64_t x, unsigned n) { return lt_asr(x + ((int64_t)1 << (n - 1)), n); }
-
-static inline void lt_segment(int64_t pos, uint64_t knots, int64_t *seg, int64_t *t) {
-    int64_t k = knots < 2u ? 2 : (knots > ((uint64_t)1 << 40) ? ((int64_t)1 << 40) : (int64_t)knots);
-    int64_t s = lt_clamp(lt_asr(pos, LT_POS_FRAC), 0, k - 2);
-    *seg = s;
-    *t = lt_clamp(pos - s * LT_ONE, 0, LT_ONE);
-}
-
-static inline int64_t lt_dot4_32(const int64_t w[4], const int32_t *c) {
-    return w[0] * c[0] + w[1] * c[1] + w[2] * c[2] + w[3] * c[3];
-}
-
-/* One spline value from four control points at start, or LT_BAD_TABLE past the end. */
-static inline lt_status lt_spline1(const int32_t *table, uint32_t len, int64_t start, const int64_t w[4], int64_t *out) {
-    if (start < 0 || (uint64_t)start + 4u > (uint64_t)len) return LT_BAD_TABLE;
-    *out = lt_round_shr_small(lt_dot4_32(w, table + start), LT_W_BITS);
-    return LT_OK;
-}
-
-static inline unsigned lt_top_bit(int64_t v) { /* v > 0 */
-#if defined(__GNUC__)
-    return 63u - (unsigned)__builtin_clzll((unsigned long long)v);
+/* a*b exactly as (high word, low word). On ARMv6-M (no long multiply): the magnitudes' product from four 16x16-bit
+ * products, negated when the signs differ, so that no library helper is called. */
+static inline void lt_mul_parts(int32_t a, int32_t b, int32_t *hi, uint32_t *lo) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    /* A core with a long multiply: the compiler's exact 64-bit product (one SMULL on a Cortex-M3/M4/M7). */
+    int64_t p = (int64_t)a * b;
+    *hi = (int32_t)lt_asr64(p, 32);
+    *lo = (uint32_t)((uint64_t)p & 0xffffffffu);
 #else
-    unsigned b = 0;
-    while (v >> 1) { v >>= 1; b++; }
-    return b;
+    uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a, ub = b < 0 ? 0u - (uint32_t)b : (uint32_t)b;
+    uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = ub & 0xffffu, bh = ub >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    uint32_t h = ah * bh + (m1 >> 16) + (m2 >> 16), l = ((m2 & 0xffffu) << 16) | (p0 & 0xffffu);
+    if ((a < 0) == (b < 0)) { *hi = (int32_t)h; *lo = l; }
+    else if (l == 0u) { *hi = -(int32_t)h; *lo = 0u; }
+    else { *hi = ~(int32_t)h; *lo = ~l + 1u; }
 #endif
 }
 
+/* a*b exactly. */
+static inline int64_t lt_mul_wide(int32_t a, int32_t b) {
+    int32_t h;
+    uint32_t l;
+    lt_mul_parts(a, b, &h, &l);
+    return (int64_t)h * 4294967296LL + (int64_t)l;
+}
+
+/* floor(a*b / 2^32). */
+static inline int32_t lt_mul_hi(int32_t a, int32_t b) {
+    int32_t h;
+    uint32_t l;
+    lt_mul_parts(a, b, &h, &l);
+    return h;
+}
+
+/* floor(a*b / 2^32) for an unsigned b. */
+static inline int32_t lt_mul_hi_u(int32_t a, uint32_t b) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)lt_asr64((int64_t)a * (int64_t)b, 32);
+#else
+    uint32_t ua = a < 0 ? 0u - (uint32_t)a : (uint32_t)a;
+    uint32_t al = ua & 0xffffu, ah = ua >> 16, bl = b & 0xffffu, bh = b >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    uint32_t h = ah * bh + (m1 >> 16) + (m2 >> 16), l = ((m2 & 0xffffu) << 16) | (p0 & 0xffffu);
+    if (a >= 0) return (int32_t)h;
+    return l == 0u ? -(int32_t)h : ~(int32_t)h;
+#endif
+}
+
+/* floor(a*w / 2^16) for w < 2^16: two products. */
+static inline int32_t lt_mulh16(int32_t a, uint32_t w) {
+    int32_t ah = lt_asr32(a, 16);
+    uint32_t al = (uint32_t)a & 0xffffu;
+    return ah * (int32_t)w + (int32_t)((al * w) >> 16);
+}
+
+/* The highest set bit of v > 0, by a binary search (a Cortex-M0 has no CLZ). */
+static inline uint32_t lt_top_bit(int32_t v) {
+    uint32_t u = v > 0 ? (uint32_t)v : 0u, n = 0;
+    if (u >= (1u << 16)) { u >>= 16; n += 16; }
+    if (u >= (1u << 8)) { u >>= 8; n += 8; }
+    if (u >= (1u << 4)) { u >>= 4; n += 4; }
+    if (u >= (1u << 2)) { u >>= 2; n += 2; }
+    if (u >= (1u << 1)) { n += 1; }
+    return n;
+}
+
+/* The cubic B-spline basis at a Q16 fraction, in Q16, summing to 2^16 (the bias bend's, finer). */
+static inline int32_t lt_spline16(const int32_t c[4], uint32_t t) {
+    uint32_t t2, t3, s3, w0, w1, w3;
+    t &= 0xffffu;
+    t2 = (t * t) >> 16;
+    t3 = (t2 * t) >> 16;
+    s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
+    w0 = (s3 * 10923u) >> 16;
+    w1 = (t3 >> 1) + 43691u - t2;
+    w3 = (t3 * 10923u) >> 16;
+    return lt_mulh16(c[0], w0) + lt_mulh16(c[1], w1) + lt_mulh16(c[2], 65536u - w0 - w1 - w3) + lt_mulh16(c[3], w3);
+}
+
+/* Six times the cubic B-spline basis at a Q16 fraction, in Q13, summing to 6 * 2^13 (no division). */
+static inline void lt_basis6(uint32_t t, uint32_t w[4]) {
+    uint32_t t2, t3, s3;
+    t &= 0xffffu;
+    t2 = (t * t + 32768u) >> 16;
+    t3 = (t2 * t + 32768u) >> 16;
+    s3 = 65536u + 3u * t2 > 3u * t + t3 ? (65536u + 3u * t2) - (3u * t + t3) : 0u;
+    w[0] = (s3 + 4u) >> 3;
+    w[1] = (3u * t3 + 4u * 65536u + 4u - 6u * t2) >> 3;
+    w[3] = (t3 + 4u) >> 3;
+    w[2] = 49152u - w[0] - w[1] - w[3];
+}
+
+/* Three quarters of a per-sample spline's value at t from four control points stored times 4/3. */
+static inline int32_t lt_spline6(const int32_t c[4], uint32_t t) {
+    uint32_t w[4];
+    lt_basis6(t, w);
+    return lt_mulh16(c[0], w[0]) + lt_mulh16(c[1], w[1]) + lt_mulh16(c[2], w[2]) + lt_mulh16(c[3], w[3]);
+}
+
+/* Six times the basis at t = m/16 times 16^3: exact. */
+static inline void lt_window_weights(uint32_t m, int32_t w[4]) {
+    int32_t mm = (int32_t)(m < LT_WINDOWS ? m : LT_WINDOWS), s = (int32_t)LT_WINDOWS - mm;
+    int32_t m3 = mm * mm * mm;
+    w[0] = s * s * s;
+    w[1] = 3 * m3 - 6 * 16 * mm * mm + 4 * 4096;
+    w[3] = m3;
+    w[2] = 24576 - w[0] - w[1] - w[3];
+}
+
+/* floor(sum w_k c_k / 4096) of control points stored divided by 6, exact. */
+static inline int64_t lt_window_value(const int32_t *c, const int32_t w[4]) {
+    int32_t hi = w[0] * lt_asr32(c[0], 16) + w[1] * lt_asr32(c[1], 16) + w[2] * lt_asr32(c[2], 16) +
+                 w[3] * lt_asr32(c[3], 16);
+    uint32_t lo = (uint32_t)w[0] * ((uint32_t)c[0] & 0xffffu) + (uint32_t)w[1] * ((uint32_t)c[1] & 0xffffu) +
+                  (uint32_t)w[2] * ((uint32_t)c[2] & 0xffffu) + (uint32_t)w[3] * ((uint32_t)c[3] & 0xffffu);
+    return (int64_t)hi * (1 << (16 - LT_COLUMN_GUARD)) + (int64_t)(lo >> LT_COLUMN_GUARD);
+}
+
+/* Six times the basis at a Q16 fraction, in Q24 (the sensor's weights). */
+static inline void lt_sensor_weights(uint32_t t16, int32_t w[4]) {
+    uint32_t t = t16 & 0xffffu;
+    int32_t t2 = (int32_t)((t * t) >> 8), t3 = lt_mulh16(t2, t), t1 = (int32_t)(t << 8), one = 1 << 24;
+    int32_t s3 = one - 3 * t1 + 3 * t2 - t3;
+    if (s3 < 0) s3 = 0;
+    int32_t w1 = 3 * t3 - 6 * t2 + 4 * one;
+    w[0] = s3;
+    w[1] = w1;
+    w[2] = 6 * one - s3 - w1 - t3;
+    w[3] = t3;
+}
+
+/* A value of the tables at a window end (or the sensor's), checked against its limit. */
+static inline lt_status lt_bounded(int64_t v, int32_t limit, int32_t *out) {
+    if (!(v > -(int64_t)limit && v < (int64_t)limit)) return LT_BAD_TABLE;
+    *out = (int32_t)v;
+    return LT_OK;
+}
+
 /* G(v) = ln(1 - e^-v), v and result Q24. */
-static inline lt_status lt_bend_q24(int64_t v, int64_t *out) {
-    unsigned e24;
-    int64_t m, pos, seg, t, w[4];
-    if (v < ((int64_t)1 << 14)) return LT_BELOW_RANGE;
-    if (v >= ((int64_t)1 << 29)) { *out = 0; return LT_OK; }
-    e24 = lt_top_bit(v);
-    m = v - ((int64_t)1 << e24);
-    pos = (m << (LT_POS_FRAC + 3)) >> e24;
-    lt_segment(pos, 9u, &seg, &t);
-    lt_weights(t, w);
-    return lt_spline1(lt_bend, LT_BEND_LEN, (int64_t)(e24 - 14u) * LT_BEND_STRIDE + seg, w, out);
+static inline lt_status lt_bend_q24(int32_t v, int32_t *out) {
+    uint32_t e, start;
+    int32_t m, pos;
+    if (v < (1 << LT_BEND_FLOOR_BIT)) return LT_BELOW_RANGE;
+    if (v >= (1 << (LT_BEND_FLOOR_BIT + LT_BEND_OCTAVES))) { *out = 0; return LT_OK; }
+    e = lt_top_bit(v);
+    m = v - (1 << e);
+    pos = e >= 19u ? (m >> (e - 19u)) : (m << (19u - e));
+    start = (e - LT_BEND_FLOOR_BIT) * LT_BEND_STRIDE + (((uint32_t)pos >> 16) & (LT_BEND_SEGMENTS - 1u));
+    if (start + 4u > LT_BEND_LEN) return LT_BAD_TABLE;
+    *out = lt_spline16(lt_bend + start, (uint32_t)pos & 0xffffu);
+    return LT_OK;
 }
 
 /* e^x, x Q24, result Q32. */
-static inline lt_status lt_exp_q32(int64_t x, int64_t *out) {
-    int64_t y, k, f, j, r, rho, rho2, rho3, p, m, sh;
-    x = lt_clamp(x, -((int64_t)1 << 31), (int64_t)1 << 31);
-    y = lt_round_shr(x * (int64_t)1549082005, 24);
-    k = lt_asr(y, 30);
-    f = y - k * ((int64_t)1 << 30);
-    j = f >> 25;
-    r = f & (((int64_t)1 << 25) - 1);
-    rho = (r * (int64_t)744261118) >> 30;
-    rho2 = (rho * rho) >> 30;
-    rho3 = (rho2 * rho) >> 30;
-    p = ((int64_t)1 << 30) + rho + rho2 / 2 + rho3 / 6;
-    if (j < 0 || j >= (int64_t)LT_EXP2_LEN) return LT_ABOVE_RANGE;
-    m = lt_round_shr((int64_t)lt_exp2[j] * p, 30);
+static inline lt_status lt_exp_q32(int32_t x, int64_t *out) {
+    int32_t k = lt_asr32(lt_mulh16(x, LT_HALF_INV_LN2_Q16), 23), sh;
+    int32_t lh = LT_LN2_Q31 >> 16, ll = LT_LN2_Q31 & 0xffff;
+    int64_t r = (int64_t)x * 128 - ((int64_t)(k * lh) * 65536 + (int64_t)(k * ll));
+    uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
+    if (r < 0) { k -= 1; r += LT_LN2_Q31; }
+    else if (r >= LT_LN2_Q31) { k += 1; r -= LT_LN2_Q31; }
+    if (k > 30) return LT_ABOVE_RANGE;
+    if (k < -36) { *out = 0; return LT_OK; }
+    ru = (uint32_t)r;
+    j = ru >> (31u - LT_EXP64_LOG2);
+    rho = ru & ((1u << (31u - LT_EXP64_LOG2)) - 1u);
+    rho30 = rho >> 1;
+    rq = rho >> 9;
+    rho2h = (rq * rq) >> 15;
+    rho3 = (((2u * rho2h) >> 8) * (rho30 >> 14)) >> 8;
+    q = rho30 + rho2h + ((rho3 * 10923u) >> 16);
+    if (j >= LT_EXP64_LEN) return LT_ABOVE_RANGE;
+    base = (uint32_t)lt_exp64[j];
+    m = base + ((uint32_t)lt_mul_hi_u((int32_t)(q << 6), base) >> 4);
     sh = k + 2;
-    if (sh > 32) return LT_ABOVE_RANGE;
-    *out = sh >= 0 ? (m << sh) : lt_round_shr(m, (unsigned)(-sh < 63 ? -sh : 63));
+    if (sh >= 32) *out = (int64_t)m * ((int64_t)1 << 32);
+    else if (sh > 0) *out = (int64_t)(m >> (32 - sh)) * ((int64_t)1 << 32) + (int64_t)((m & (0xffffffffu >> sh)) << sh);
+    else if (sh == 0) *out = (int64_t)m;
+    else if (sh > -32) *out = (int64_t)((m >> (uint32_t)-sh) + ((m >> (uint32_t)(-sh - 1)) & 1u));
+    else *out = 0;
     return LT_OK;
 }
 
@@ -140,42 +197,269 @@ static inline lt_status lt_check_code(const lt_fixed *c, uint32_t code) {
 
 /* theta (m°C * 1024) from the temperature channel's code. */
 static inline lt_status lt_theta_from_code(const lt_fixed *c, uint32_t code, int32_t *theta) {
-    unsigned sh;
-    int64_t pos, seg, t, w[4], v;
-    lt_status st;
+    uint32_t k, pos, seg;
+    int32_t w[4];
+    int64_t v;
     if (!c->has_sensor) return LT_NOT_CALIBRATED;
     if (code < c->sensor_code_lo) return code < c->far_below_code ? c->fault_far_below : c->fault_below;
     if (code > c->sensor_code_hi) return code > c->far_above_code ? c->fault_far_above : c->fault_above;
-    sh = c->sensor_step_log2 > 16u ? 16u : c->sensor_step_log2;
-    pos = (int64_t)(code - c->sensor_code_lo) << (LT_POS_FRAC - sh);
-    lt_segment(pos, c->sensor_len >= 2u ? c->sensor_len - 2u : 0u, &seg, &t);
-    lt_weights(t, w);
-    st = lt_spline1(c->sensor_knots, c->sensor_len, seg, w, &v);
-    if (st != LT_OK) return st;
-    if (v < INT32_MIN || v > INT32_MAX) return LT_BAD_TABLE;
-    *theta = (int32_t)v;
+    k = c->sensor_step_log2 > 16u ? 16u : c->sensor_step_log2;
+    pos = code - c->sensor_code_lo;
+    seg = pos >> k;
+    if ((uint64_t)seg + 4u > (uint64_t)c->sensor_len) return LT_BAD_TABLE;
+    lt_sensor_weights((pos & ((1u << k) - 1u)) << (16u - k), w);
+    v = lt_mul_wide(w[0], c->sensor_knots[seg]) + lt_mul_wide(w[1], c->sensor_knots[seg + 1u]) +
+        lt_mul_wide(w[2], c->sensor_knots[seg + 2u]) + lt_mul_wide(w[3], c->sensor_knots[seg + 3u]);
+    return lt_bounded(lt_asr64(v, 24), LT_THETA_LIMIT, theta);
+}
+
+/* theta of a temperature in m°C, the accepted range checked first. */
+static inline lt_status lt_theta_from_millicelsius(const lt_fixed *c, int32_t temp_mc, int32_t *theta) {
+    int64_t lo = lt_asr64((int64_t)c->temp_lo + (1 << LT_THETA_FRAC) - 1, LT_THETA_FRAC);
+    int64_t hi = lt_asr64((int64_t)c->temp_hi, LT_THETA_FRAC);
+    if ((int64_t)temp_mc < lo || (int64_t)temp_mc > hi) return LT_TEMPERATURE_OUT_OF_RANGE;
+    *theta = temp_mc * (1 << LT_THETA_FRAC);
     return LT_OK;
 }
 
-static inline lt_status lt_stage_theta(const lt_fixed *c, int64_t theta, lt_stage *s) {
-    int64_t pos, t;
-    lt_status st;
+/* theta checked against the accepted range, and its window (16 per knot step) and Q16 fraction. */
+static inline lt_status lt_window_of(const lt_fixed *c, int32_t theta, uint32_t *index, uint32_t *f16) {
+    int64_t p;
+    uint32_t wb = c->t_step_log2 < LT_T_STEP_MIN ? LT_T_STEP_MIN : (c->t_step_log2 > LT_T_STEP_MAX ? LT_T_STEP_MAX : c->t_step_log2);
     if (theta < c->temp_lo || theta > c->temp_hi) return LT_TEMPERATURE_OUT_OF_RANGE;
-    s->extrapolated = theta < c->temp_min || theta > c->temp_max;
-    pos = lt_asr(lt_sat_mul(theta - c->t_origin, c->t_inv_step), 28);
-    lt_segment(pos, c->t_knots, &s->seg, &t);
-    lt_weights(t, s->w);
-    if ((st = lt_spline1(c->offset, c->offset_len, s->seg, s->w, &s->offset)) != LT_OK) return st;
-    if ((st = lt_spline1(c->inv_slope, c->inv_slope_len, s->seg, s->w, &s->inv_slope)) != LT_OK) return st;
+    p = (int64_t)theta - c->t_origin;
+    if (p < 0 || p >= ((int64_t)1 << 31)) return LT_BAD_TABLE;
+    wb -= LT_WINDOWS_LOG2;
+    *index = (uint32_t)p >> wb;
+    *f16 = ((uint32_t)p & ((1u << wb) - 1u)) >> (wb - 16u);
+    return LT_OK;
+}
+
+static inline int lt_extrapolated(const lt_fixed *c, int32_t theta) { return theta < c->temp_min || theta > c->temp_max; }
+
+static inline void lt_end_weights(const lt_fixed *c, uint32_t end, uint32_t *seg, int32_t w[4]) {
+    uint32_t last = c->t_knots >= 2u ? c->t_knots - 2u : 0u;
+    *seg = (end >> LT_WINDOWS_LOG2) < last ? (end >> LT_WINDOWS_LOG2) : last;
+    lt_window_weights(end - (*seg << LT_WINDOWS_LOG2), w);
+}
+
+static inline lt_status lt_end_value(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int32_t limit,
+                                     int32_t *out) {
+    if ((uint64_t)seg + 4u > (uint64_t)len) return LT_BAD_TABLE;
+    return lt_bounded(lt_window_value(t + seg, w), limit, out);
+}
+
+/* The four per-temperature values at window end `end`, exact and checked. */
+static inline lt_status lt_end_scalars(const lt_fixed *c, uint32_t end, lt_scalars *s) {
+    uint32_t seg;
+    int32_t w[4];
+    int64_t v;
+    lt_status st;
+    lt_end_weights(c, end, &seg, w);
+    if ((uint64_t)seg + 4u > (uint64_t)c->inv_slope_len) return LT_BAD_TABLE;
+    v = lt_window_value(c->inv_slope + seg, w);
+    if (!(v > 0 && v < LT_INV_SLOPE_LIMIT)) return LT_BAD_TABLE;
+    s->inv_slope = (uint32_t)v;
+    if ((uint64_t)seg + 4u > (uint64_t)c->offset_len) return LT_BAD_TABLE;
+    v = lt_window_value(c->offset + seg, w);
+    if (!(v > LT_OFFSET_MIN && v < LT_OFFSET_MAX)) return LT_BAD_TABLE;
+    s->offset = (int32_t)v;
     s->ln_bias = 0;
-    if (c->bias_bend && (st = lt_spline1(c->ln_bias, c->ln_bias_len, s->seg, s->w, &s->ln_bias)) != LT_OK) return st;
-    s->u_min = INT64_MIN;
-    if (c->sensitivity_limit && (st = lt_spline1(c->u_min, c->u_min_len, s->seg, s->w, &s->u_min)) != LT_OK) return st;
+    if (c->bias_bend && (st = lt_end_value(c->ln_bias, c->ln_bias_len, seg, w, LT_BIAS_LIMIT, &s->ln_bias)) != LT_OK)
+        return st;
+    s->u_min = INT32_MIN;
+    if (c->sensitivity_limit && (st = lt_end_value(c->u_min, c->u_min_len, seg, w, LT_BIAS_LIMIT, &s->u_min)) != LT_OK)
+        return st;
+    return LT_OK;
+}
+
+/* Residual column `col` collapsed over temperature at window end `end`. */
+static inline lt_status lt_end_column(const lt_fixed *c, uint32_t end, uint32_t col, int32_t *out) {
+    uint32_t seg, k, stride = (uint32_t)c->xa_knots + 2u, row, i;
+    int32_t w[4], v = 0;
+    lt_end_weights(c, end, &seg, w);
+    for (k = 0; k < 4u; k++) {
+        row = seg + k;
+        /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
+        if (stride > 0xffffu || row > 0xffffu || col >= stride) return LT_BAD_TABLE;
+        i = row * stride + col;
+        if (i >= c->residual_len) return LT_BAD_TABLE;
+        v += w[k] * (int32_t)c->residual[i];
+    }
+    *out = v;
+    return LT_OK;
+}
+
+/* The values at a Q16 fraction of a window: a parabola for the offset and the inverse slope, a line for the others. */
+static inline void lt_window_at(const lt_window *w, uint32_t f16, lt_scalars *out) {
+    out->offset = w->start.offset + lt_mulh16(w->slope[0] + lt_mulh16(w->curv[0], f16), f16);
+    out->inv_slope = (uint32_t)((int64_t)w->start.inv_slope + lt_mulh16(w->slope[1] + lt_mulh16(w->curv[1], f16), f16));
+    out->ln_bias = w->start.ln_bias + lt_mulh16(w->slope[2], f16);
+    out->u_min = w->start.u_min + lt_mulh16(w->slope[3], f16);
+}
+
+static inline int64_t lt_abs64(int64_t v) { return v < 0 ? -v : v; }
+
+/* The parabola of one value over a window: (d - c, c), checked to stay within (lo, hi). */
+static inline lt_status lt_parabola(int64_t q0, int64_t q1, int64_t c, int64_t lo, int64_t hi, int32_t *dc, int32_t *cc) {
+    int64_t d = q1 - q0, e = d - c, reach = lt_abs64(c) + 4;
+    if (!((q0 < q1 ? q0 : q1) - reach > lo && (q0 > q1 ? q0 : q1) + reach < hi && lt_abs64(d) < ((int64_t)1 << 31) &&
+          lt_abs64(e) < ((int64_t)1 << 31)))
+        return LT_BAD_TABLE;
+    *dc = (int32_t)e;
+    *cc = (int32_t)c;
+    return LT_OK;
+}
+
+/* The chord's deviation term c = 3 * sum W_k c_k / 8192 of a spline over a window (W: 32 times the
+ * second-derivative basis at the window's middle). */
+static inline lt_status lt_curvature(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int64_t *out) {
+    int32_t hi, lo;
+    if ((uint64_t)seg + 4u > (uint64_t)len) return LT_BAD_TABLE;
+    t += seg;
+    hi = w[0] * lt_asr32(t[0], 16) + w[1] * lt_asr32(t[1], 16) + w[2] * lt_asr32(t[2], 16) + w[3] * lt_asr32(t[3], 16);
+    lo = w[0] * (int32_t)((uint32_t)t[0] & 0xffffu) + w[1] * (int32_t)((uint32_t)t[1] & 0xffffu) +
+         w[2] * (int32_t)((uint32_t)t[2] & 0xffffu) + w[3] * (int32_t)((uint32_t)t[3] & 0xffffu);
+    *out = (int64_t)hi * 65536 + lo;
+    *out = lt_asr64(*out + *out + *out, 13);
+    return LT_OK;
+}
+
+/* Window `index`: both ends and the curvatures. */
+static inline lt_status lt_window_load(const lt_fixed *c, uint32_t index, lt_window *w) {
+    lt_scalars a, b;
+    uint32_t seg, m;
+    int32_t ew[4], cw[4];
+    int64_t cv;
+    lt_status st;
+    if ((st = lt_end_scalars(c, index, &a)) != LT_OK) return st;
+    if ((st = lt_end_scalars(c, index + 1u, &b)) != LT_OK) return st;
+    lt_end_weights(c, index, &seg, ew);
+    m = index - (seg << LT_WINDOWS_LOG2);
+    if (m > LT_WINDOWS - 1u) m = LT_WINDOWS - 1u;
+    cw[0] = 31 - 2 * (int32_t)m;
+    cw[1] = 6 * (int32_t)m - 61;
+    cw[2] = 29 - 6 * (int32_t)m;
+    cw[3] = 2 * (int32_t)m + 1;
+    if ((st = lt_curvature(c->offset, c->offset_len, seg, cw, &cv)) != LT_OK) return st;
+    if ((st = lt_parabola(a.offset, b.offset, cv, LT_OFFSET_MIN, LT_OFFSET_MAX, &w->slope[0], &w->curv[0])) != LT_OK)
+        return st;
+    if ((st = lt_curvature(c->inv_slope, c->inv_slope_len, seg, cw, &cv)) != LT_OK) return st;
+    if ((st = lt_parabola(a.inv_slope, b.inv_slope, cv, 0, LT_INV_SLOPE_LIMIT, &w->slope[1], &w->curv[1])) != LT_OK)
+        return st;
+    w->slope[2] = b.ln_bias - a.ln_bias;
+    w->slope[3] = b.u_min - a.u_min;
+    w->start = a;
+    return LT_OK;
+}
+
+/* Steps 3-4 of the chain for a checked code: x~ and its place on the residual's grid. */
+static inline lt_status lt_xa(const lt_fixed *c, const lt_scalars *s, uint32_t code, int32_t *xa, uint32_t *seg,
+                              uint32_t *t16) {
+    uint32_t qo = c->offset_frac > 30u ? 30u : c->offset_frac, xs, pu;
+    int32_t d, u, g;
+    int64_t p;
+    lt_status st;
+    if (code >= (LT_CODE_LIMIT >> qo)) return LT_BAD_TABLE;
+    d = (int32_t)(code << qo) - s->offset;
+    u = lt_mul_hi_u(d, s->inv_slope);
+    if (u < s->u_min) return LT_BELOW_RANGE;
+    *xa = u;
+    if (c->bias_bend) {
+        if ((st = lt_bend_q24(u - s->ln_bias, &g)) != LT_OK) return st;
+        *xa = u + g;
+    }
+    p = (int64_t)*xa - c->xa_origin;
+    if (p < 0) return LT_BELOW_RANGE;
+    pu = (uint32_t)p;
+    xs = c->xa_step_log2 < LT_XA_STEP_MIN ? LT_XA_STEP_MIN : (c->xa_step_log2 > LT_XA_STEP_MAX ? LT_XA_STEP_MAX : c->xa_step_log2);
+    *seg = pu >> xs;
+    if (*seg + 1u >= c->xa_knots) return LT_ABOVE_RANGE;
+    *t16 = (pu & ((1u << xs) - 1u)) >> (xs - 16u);
+    return LT_OK;
+}
+
+/* Step 5: the residual from its four columns at the temperature, then x and its range. */
+static inline lt_status lt_x_finish(const lt_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+    uint32_t fr, n;
+    int32_t r;
+    fr = c->residual_frac < LT_RESIDUAL_FRAC_MIN ? LT_RESIDUAL_FRAC_MIN
+                                                  : (c->residual_frac > LT_RESIDUAL_FRAC_MAX ? LT_RESIDUAL_FRAC_MAX : c->residual_frac);
+    n = fr + LT_COLUMN_GUARD - LT_X_FRAC;
+    r = lt_spline6(cols, t16);
+    if (n > 0u) r = lt_asr32(r + (1 << (n - 1u)), n);
+    r += xa;
+    if (r < c->x_min) return LT_BELOW_RANGE;
+    if (r > c->x_max) return LT_ABOVE_RANGE;
+    *x = r;
+    return LT_OK;
+}
+
+/* The direct path from theta: both window ends, the four columns the code needs, interpolated. */
+static inline lt_status lt_correct_theta(const lt_fixed *c, uint32_t code, int32_t theta, lt_reading *out) {
+    uint32_t index, f16, seg, t16, k;
+    lt_window w;
+    lt_scalars s;
+    int32_t xa, cols[4], lo, hi;
+    lt_status st;
+    if ((st = lt_window_of(c, theta, &index, &f16)) != LT_OK) return st;
+    if ((st = lt_window_load(c, index, &w)) != LT_OK) return st;
+    lt_window_at(&w, f16, &s);
+    if ((st = lt_xa(c, &s, code, &xa, &seg, &t16)) != LT_OK) return st;
+    for (k = 0; k < 4u; k++) {
+        if ((st = lt_end_column(c, index, seg + k, &lo)) != LT_OK) return st;
+        if ((st = lt_end_column(c, index + 1u, seg + k, &hi)) != LT_OK) return st;
+        cols[k] = lo + lt_mulh16(hi - lo, f16);
+    }
+    if ((st = lt_x_finish(c, xa, t16, cols, &out->x)) != LT_OK) return st;
+    out->temperature_extrapolated = lt_extrapolated(c, theta);
+    return LT_OK;
+}
+
+/* Corrects one reading: log code and temperature in m°C. */
+static inline lt_status lt_correct(const lt_fixed *c, uint32_t code, int32_t temp_mc, lt_reading *out) {
+    int32_t theta = 0;
+    lt_status st = lt_check_code(c, code);
+    if (st != LT_OK) return st;
+    if ((st = lt_theta_from_millicelsius(c, temp_mc, &theta)) != LT_OK) return st;
+    return lt_correct_theta(c, code, theta, out);
+}
+
+/* Corrects one reading from raw codes: log code and temperature channel code. */
+static inline lt_status lt_correct_raw(const lt_fixed *c, uint32_t code, uint32_t temp_code, lt_reading *out) {
+    int32_t theta = 0;
+    lt_status st = lt_check_code(c, code);
+    if (st != LT_OK) return st;
+    if ((st = lt_theta_from_code(c, temp_code, &theta)) != LT_OK) return st;
+    return lt_correct_theta(c, code, theta, out);
+}
+
+/* The stage at theta: both window ends, every column interpolated. */
+static inline lt_status lt_stage_theta(const lt_fixed *c, int32_t theta, lt_stage *s) {
+    uint32_t index, f16, n = (uint32_t)c->xa_knots + 2u, i;
+    lt_window w;
+    int32_t lo, hi;
+    lt_status st;
+    if ((st = lt_window_of(c, theta, &index, &f16)) != LT_OK) return st;
+    if ((st = lt_window_load(c, index, &w)) != LT_OK) return st;
+    if (n > LT_ROW_CAPACITY) return LT_BAD_TABLE;
+    for (i = 0; i < LT_ROW_CAPACITY; i++) s->row[i] = 0;
+    for (i = 0; i < n; i++) {
+        if ((st = lt_end_column(c, index, i, &lo)) != LT_OK) return st;
+        if ((st = lt_end_column(c, index + 1u, i, &hi)) != LT_OK) return st;
+        s->row[i] = lo + lt_mulh16(hi - lo, f16);
+    }
+    lt_window_at(&w, f16, &s->s);
+    s->extrapolated = lt_extrapolated(c, theta);
+    s->len = n;
     return LT_OK;
 }
 
 static inline lt_status lt_stage_millicelsius(const lt_fixed *c, int32_t temp_mc, lt_stage *s) {
-    return lt_stage_theta(c, (int64_t)temp_mc * 1024, s);
+    int32_t theta = 0;
+    lt_status st = lt_theta_from_millicelsius(c, temp_mc, &theta);
+    if (st != LT_OK) return st;
+    return lt_stage_theta(c, theta, s);
 }
 
 static inline lt_status lt_stage_code(const lt_fixed *c, uint32_t temp_code, lt_stage *s) {
@@ -185,183 +469,135 @@ static inline lt_status lt_stage_code(const lt_fixed *c, uint32_t temp_code, lt_
     return lt_stage_theta(c, theta, s);
 }
 
-/* Residual columns col..col+3 collapsed over the stage's temperature (each below 2^30.6). */
-static inline lt_status lt_columns(const lt_fixed *c, const lt_stage *s, int64_t col, int64_t out[4]) {
-    uint64_t stride = (uint64_t)c->xa_knots + 2u;
-    int64_t rows[4][4];
-    int k, i;
-    for (k = 0; k < 4; k++) {
-        uint64_t start = ((uint64_t)s->seg + (uint64_t)k) * stride + (uint64_t)col;
-        if (start + 4u > (uint64_t)c->residual_len) return LT_BAD_TABLE;
-        for (i = 0; i < 4; i++) rows[k][i] = c->residual[start + (uint64_t)i];
-    }
-    for (i = 0; i < 4; i++) {
-        out[i] = lt_asr(s->w[0] * rows[0][i] + s->w[1] * rows[1][i] + s->w[2] * rows[2][i] + s->w[3] * rows[3][i],
-                        LT_W_BITS - 13);
-    }
-    return LT_OK;
-}
-
-/* x in Q24 at a stage; row is the stage's collapsed residual (lt_row_stage) or NULL. */
-static inline lt_status lt_x_q24(const lt_fixed *c, const lt_stage *s, uint32_t code, const int32_t *row,
-                                 uint32_t row_len, int32_t *x_out) {
-    unsigned qo = c->offset_frac > 30u ? 30u : c->offset_frac;
-    unsigned qs = c->inv_slope_frac > 62u ? 62u : c->inv_slope_frac;
-    unsigned fr = c->residual_frac > 30u ? 30u : c->residual_frac;
-    int64_t diff, u, xa, g, pos, col, t, wu[4], cols[4], r, x;
-    int i;
-    lt_status st;
-    diff = ((int64_t)code << qo) - s->offset;
-    u = lt_clamp(lt_rescale(lt_sat_mul(diff, s->inv_slope), qo + qs, LT_X_FRAC), -LT_X_CLAMP, LT_X_CLAMP);
-    if (u < s->u_min) return LT_BELOW_RANGE;
-    xa = u;
-    if (c->bias_bend) {
-        if ((st = lt_bend_q24(u - s->ln_bias, &g)) != LT_OK) return st;
-        xa = u + g;
-    }
-    pos = lt_asr(lt_sat_mul(xa - c->xa_origin, c->xa_inv_step), 28);
-    if (pos < 0) return LT_BELOW_RANGE;
-    if (pos > ((int64_t)c->xa_knots - 1) * LT_ONE) return LT_ABOVE_RANGE;
-    lt_segment(pos, c->xa_knots, &col, &t);
-    lt_weights(t, wu);
-    if (row) {
-        if ((uint64_t)col + 4u > (uint64_t)row_len) return LT_BAD_TABLE;
-        for (i = 0; i < 4; i++) cols[i] = row[col + i];
-    } else if ((st = lt_columns(c, s, col, cols)) != LT_OK) {
-        return st;
-    }
-    r = lt_round_shr_small(wu[0] * cols[0] + wu[1] * cols[1] + wu[2] * cols[2] + wu[3] * cols[3], LT_W_BITS);
-    r = lt_rescale(r, fr + 13u, LT_X_FRAC);
-    x = xa + r;
-    if (x < c->x_min) return LT_BELOW_RANGE;
-    if (x > c->x_max) return LT_ABOVE_RANGE;
-    *x_out = (int32_t)x;
-    return LT_OK;
-}
-
 /* The log-channel part of a correction at a stage. */
 static inline lt_status lt_correct_staged(const lt_fixed *c, const lt_stage *s, uint32_t code, lt_reading *out) {
+    uint32_t seg, t16;
+    int32_t xa;
     lt_status st = lt_check_code(c, code);
     if (st != LT_OK) return st;
-    if ((st = lt_x_q24(c, s, code, 0, 0u, &out->x)) != LT_OK) return st;
+    if ((st = lt_xa(c, &s->s, code, &xa, &seg, &t16)) != LT_OK) return st;
+    if ((uint64_t)seg + 4u > (uint64_t)s->len) return LT_BAD_TABLE;
+    if ((st = lt_x_finish(c, xa, t16, s->row + seg, &out->x)) != LT_OK) return st;
     out->temperature_extrapolated = s->extrapolated;
     return LT_OK;
 }
 
-/* A stage with the residual collapsed over temperature for every x̃ column (see logtrim::fixed::RowStage). */
-#define LT_ROW_CAPACITY 66
-typedef struct lt_row_stage {
-    lt_stage stage;
-    int32_t row[LT_ROW_CAPACITY];
-    uint32_t len;
-} lt_row_stage;
-
-static inline lt_status lt_row_stage_from(const lt_fixed *c, const lt_stage *s, lt_row_stage *rs) {
-    uint32_t n = (uint32_t)c->xa_knots + 2u, col = 0, start;
-    int64_t v[4];
-    int i;
-    lt_status st;
-    if (n > LT_ROW_CAPACITY) return LT_BAD_TABLE;
-    for (i = 0; i < LT_ROW_CAPACITY; i++) rs->row[i] = 0;
-    while (col < n) {
-        start = col < (n >= 4u ? n - 4u : 0u) ? col : (n >= 4u ? n - 4u : 0u);
-        if ((st = lt_columns(c, s, start, v)) != LT_OK) return st;
-        for (i = 0; i < 4 && start + (uint32_t)i < LT_ROW_CAPACITY; i++) rs->row[start + (uint32_t)i] = (int32_t)v[i];
-        col = start + 4u;
-    }
-    rs->stage = *s;
-    rs->len = n;
-    return LT_OK;
+/* Many log codes at one stage (a DMA buffer): status[i] and out[i] are lt_correct_staged of codes[i]. */
+static inline void lt_correct_block(const lt_fixed *c, const lt_stage *s, const uint32_t *codes, uint32_t n,
+                                    lt_reading *out, lt_status *status) {
+    uint32_t i;
+    for (i = 0; i < n; i++) status[i] = lt_correct_staged(c, s, codes[i], &out[i]);
 }
-
-/* The log-channel part at a row stage: bit-identical to lt_correct_staged. */
-static inline lt_status lt_correct_row(const lt_fixed *c, const lt_row_stage *rs, uint32_t code, lt_reading *out) {
-    lt_status st = lt_check_code(c, code);
-    if (st != LT_OK) return st;
-    if ((st = lt_x_q24(c, &rs->stage, code, rs->row, rs->len, &out->x)) != LT_OK) return st;
-    out->temperature_extrapolated = rs->stage.extrapolated;
-    return LT_OK;
-}
-
-/* The row stage of the last temperature (see logtrim::fixed::StageCache): rebuilt only when the temperature
- * code (or m°C value) changes, bit-identical to lt_correct_raw / lt_correct, errors included. Start it with
- * lt_stage_cache_init; one cache belongs to one calibration. */
-typedef struct lt_stage_cache {
-    const lt_fixed *cal;
-    int valid;
-    uint64_t key; /* a temperature code, or 1 << 32 | (uint32_t)m°C */
-    lt_row_stage rs;
-} lt_stage_cache;
 
 static inline void lt_stage_cache_init(lt_stage_cache *k, const lt_fixed *c) {
+    uint32_t i;
     k->cal = c;
-    k->valid = 0;
-    k->key = 0u;
+    k->window = LT_NO_WINDOW;
+    k->len = 0u;
+    for (i = 0; i < LT_STAGE_MEMO; i++) { k->memo_key[i] = 0u; k->memo_theta[i] = 0; }
+    k->code_lo = c->rail_margin + 1u < c->rail_margin ? UINT32_MAX : c->rail_margin + 1u;
+    k->code_hi = c->adc_max_code >= c->rail_margin ? (c->adc_max_code - c->rail_margin > 0u ? c->adc_max_code - c->rail_margin - 1u : 0u) : 0u;
 }
 
-static inline lt_status lt_stage_cache_keyed(lt_stage_cache *k, uint32_t code, uint64_t key, lt_reading *out) {
+/* Loads window `index` into the cache: 1 when kept, 0 when its row does not fit. */
+static inline lt_status lt_stage_cache_load(lt_stage_cache *k, uint32_t index, int *kept) {
     const lt_fixed *c = k->cal;
-    lt_stage s;
-    lt_status st = lt_check_code(c, code);
-    if (st != LT_OK) return st;
-    if (!(k->valid && k->key == key)) {
-        k->valid = 0;
-        st = (key >> 32) == 0u ? lt_stage_code(c, (uint32_t)key, &s)
-                               : lt_stage_millicelsius(c, (int32_t)(uint32_t)(key & 0xffffffffu), &s);
-        if (st != LT_OK) return st;
-        /* Where no row stage can be built, the plain stage, uncached. */
-        if (lt_row_stage_from(c, &s, &k->rs) != LT_OK) return lt_correct_staged(c, &s, code, out);
-        k->valid = 1;
-        k->key = key;
+    uint32_t n = (uint32_t)c->xa_knots + 2u, i;
+    lt_window w;
+    int32_t lo, hi;
+    lt_status st;
+    k->window = LT_NO_WINDOW;
+    *kept = 0;
+    if ((st = lt_window_load(c, index, &w)) != LT_OK) return st;
+    if (n > LT_ROW_CAPACITY) return LT_OK;
+    k->len = 0u;
+    for (i = 0; i < n; i++) {
+        if (lt_end_column(c, index, i, &lo) != LT_OK || lt_end_column(c, index + 1u, i, &hi) != LT_OK) break;
+        k->row0[i] = lo;
+        k->drow[i] = hi - lo;
+        k->len = i + 1u;
     }
-    return lt_correct_row(c, &k->rs, code, out);
+    k->values = w;
+    k->window = index;
+    *kept = 1;
+    return LT_OK;
+}
+
+static inline lt_status lt_stage_cache_theta(lt_stage_cache *k, uint32_t code, int32_t theta, lt_reading *out) {
+    const lt_fixed *c = k->cal;
+    uint32_t index, f16, seg, t16, i;
+    lt_scalars s;
+    int32_t xa, cols[4];
+    int kept = 1;
+    lt_status st;
+    if ((st = lt_window_of(c, theta, &index, &f16)) != LT_OK) return st;
+    if (index != k->window) {
+        if ((st = lt_stage_cache_load(k, index, &kept)) != LT_OK) return st;
+        if (!kept) return lt_correct_theta(c, code, theta, out);
+    }
+    lt_window_at(&k->values, f16, &s);
+    if ((st = lt_xa(c, &s, code, &xa, &seg, &t16)) != LT_OK) return st;
+    if ((uint64_t)seg + 4u > (uint64_t)k->len) return LT_BAD_TABLE;
+    for (i = 0; i < 4u; i++) cols[i] = k->row0[seg + i] + lt_mulh16(k->drow[seg + i], f16);
+    if ((st = lt_x_finish(c, xa, t16, cols, &out->x)) != LT_OK) return st;
+    out->temperature_extrapolated = lt_extrapolated(c, theta);
+    return LT_OK;
+}
+
+static inline lt_status lt_stage_cache_check_code(const lt_stage_cache *k, uint32_t code) {
+    if (k->code_lo <= code && code <= k->code_hi) return LT_OK;
+    return lt_check_code(k->cal, code);
 }
 
 /* lt_correct_raw through a stage cache. */
 static inline lt_status lt_stage_cache_correct_raw(lt_stage_cache *k, uint32_t code, uint32_t temp_code,
                                                    lt_reading *out) {
-    return lt_stage_cache_keyed(k, code, (uint64_t)temp_code, out);
+    uint32_t slot = temp_code % LT_STAGE_MEMO;
+    int32_t theta = 0;
+    lt_status st = lt_stage_cache_check_code(k, code);
+    if (st != LT_OK) return st;
+    if (temp_code != UINT32_MAX && k->memo_key[slot] == temp_code + 1u) {
+        theta = k->memo_theta[slot];
+    } else {
+        if ((st = lt_theta_from_code(k->cal, temp_code, &theta)) != LT_OK) return st;
+        if (temp_code != UINT32_MAX) { k->memo_key[slot] = temp_code + 1u; k->memo_theta[slot] = theta; }
+    }
+    return lt_stage_cache_theta(k, code, theta, out);
 }
 
 /* lt_correct through a stage cache. */
 static inline lt_status lt_stage_cache_correct(lt_stage_cache *k, uint32_t code, int32_t temp_mc, lt_reading *out) {
-    return lt_stage_cache_keyed(k, code, ((uint64_t)1 << 32) | (uint64_t)(uint32_t)temp_mc, out);
+    int32_t theta = 0;
+    lt_status st = lt_stage_cache_check_code(k, code);
+    if (st != LT_OK) return st;
+    if ((st = lt_theta_from_millicelsius(k->cal, temp_mc, &theta)) != LT_OK) return st;
+    return lt_stage_cache_theta(k, code, theta, out);
 }
 
-/* Corrects one reading: log code and temperature in m°C. */
-static inline lt_status lt_correct(const lt_fixed *c, uint32_t code, int32_t temp_mc, lt_reading *out) {
-    lt_stage s;
-    lt_status st = lt_check_code(c, code);
-    if (st != LT_OK) return st;
-    if ((st = lt_stage_millicelsius(c, temp_mc, &s)) != LT_OK) return st;
-    return lt_correct_staged(c, &s, code, out);
-}
-
-/* Corrects one reading from raw codes: log code and temperature channel code. */
-static inline lt_status lt_correct_raw(const lt_fixed *c, uint32_t code, uint32_t temp_code, lt_reading *out) {
-    lt_stage s;
-    lt_status st = lt_check_code(c, code);
-    if (st != LT_OK) return st;
-    if ((st = lt_stage_code(c, temp_code, &s)) != LT_OK) return st;
-    return lt_correct_staged(c, &s, code, out);
+/* x*c / 2^32 rounded to nearest (ties up), from the exact product's two words. */
+static inline int32_t lt_mul_round32(int32_t x, int32_t c) {
+    int32_t h;
+    uint32_t l;
+    lt_mul_parts(x, c, &h, &l);
+    return h + (int32_t)(l >> 31);
 }
 
 /* The reading in a unit: Q32 for LT_RATIO, Q24 for the others. */
 static inline lt_status lt_value(const lt_reading *r, lt_unit_kind unit, int64_t *out) {
-    int64_t x = r->x, e;
+    int64_t e;
     lt_status st;
     switch (unit) {
-    case LT_NEPERS: *out = x; return LT_OK;
-    case LT_DECADES: *out = lt_round_shr(x * (int64_t)1865280597, 32); return LT_OK;
-    case LT_DB_POWER: *out = lt_round_shr(x * (int64_t)1165800373, 28); return LT_OK;
-    case LT_DB_AMPLITUDE: *out = lt_round_shr(x * (int64_t)2331600746, 28); return LT_OK;
-    case LT_ABSORBANCE: *out = -lt_round_shr(x * (int64_t)1865280597, 32); return LT_OK;
+    case LT_NEPERS: *out = r->x; return LT_OK;
+    case LT_DECADES: *out = lt_mul_round32(r->x, LT_INV_LN10_Q32); return LT_OK;
+    case LT_DB_POWER: *out = (int64_t)r->x * 4 + lt_mul_round32(r->x, LT_DB10_FRAC_Q32); return LT_OK;
+    case LT_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + lt_mul_round32(r->x, LT_DB10_FRAC_Q32)); return LT_OK;
+    case LT_ABSORBANCE: *out = -(int64_t)lt_mul_round32(r->x, LT_INV_LN10_Q32); return LT_OK;
     case LT_TRANSMITTANCE_PERCENT:
-        if ((st = lt_exp_q32(x, &e)) != LT_OK) return st;
+        if ((st = lt_exp_q32(r->x, &e)) != LT_OK) return st;
         if (e > INT64_MAX / 100) return LT_ABOVE_RANGE;
-        *out = lt_round_shr(e * 100, 8);
+        *out = (e * 64 + e * 32 + e * 4 + 128) >> 8;
         return LT_OK;
-    case LT_RATIO: return lt_exp_q32(x, out);
+    case LT_RATIO: return lt_exp_q32(r->x, out);
     }
     return LT_BAD_TABLE;
 }

@@ -1,31 +1,5 @@
 /* ---- types ---- */
 
-/* The outcome of a correction (the Rust path's Result: LT_OK or the error's kind). */
-typedef enum lt_status {
-    LT_OK = 0,
-    LT_CODE_OUT_OF_ADC_RANGE,     /* code above the converter's largest code */
-    LT_SATURATED,                 /* code within the rail margin */
-    LT_BELOW_RANGE,               /* below the calibrated x range, or the sensitivity is too low */
-    LT_ABOVE_RANGE,               /* above the calibrated x range */
-    LT_TEMPERATURE_OUT_OF_RANGE,  /* beyond the calibrated range plus the allowed extrapolation */
-    LT_SENSOR_OPEN,               /* temperature sensor open */
-    LT_SENSOR_SHORT,              /* temperature sensor short */
-    LT_SENSOR_OUT_OF_MODEL_RANGE, /* temperature sensor outside its model's range */
-    LT_BAD_TABLE,                 /* the tables are inconsistent */
-    LT_NOT_CALIBRATED             /* no sensor table for a raw temperature code */
-} lt_status;
-
-/* Output units, in the order of logtrim::Unit::ALL. */
-typedef enum lt_unit_kind {
-    LT_NEPERS = 0,             /* Q24 */
-    LT_DECADES,                /* Q24 */
-    LT_DB_POWER,               /* Q24 */
-    LT_DB_AMPLITUDE,           /* Q24 */
-    LT_ABSORBANCE,             /* Q24 */
-    LT_TRANSMITTANCE_PERCENT,  /* Q24 */
-    LT_RATIO                   /* Q32 */
-} lt_unit_kind;
-
 /* A unit's tables: the fields of logtrim::fixed::FixedHeader, then each table with its length. */
 typedef struct lt_fixed {
     uint8_t layout;
@@ -34,14 +8,14 @@ typedef struct lt_fixed {
     int32_t temp_min, temp_max, temp_lo, temp_hi; /* theta: m°C * 1024 */
     uint16_t t_knots;
     int32_t t_origin;
-    int32_t t_inv_step;
+    uint8_t t_step_log2;
     uint8_t offset_frac;
     uint8_t inv_slope_frac;
     int bias_bend;
     int sensitivity_limit;
     uint16_t xa_knots;
     int32_t xa_origin;
-    int32_t xa_inv_step;
+    uint8_t xa_step_log2;
     uint8_t residual_frac;
     int32_t x_min, x_max; /* Q24 nepers */
     const int32_t *offset; uint32_t offset_len;
@@ -63,10 +37,39 @@ typedef struct lt_reading {
     int temperature_extrapolated;
 } lt_reading;
 
-/* The temperature-dependent part of a correction (reusable for many log codes at one temperature). */
+/* The four per-temperature values at one temperature (offset, inverse slope, bias floor, sensitivity limit). */
+typedef struct lt_scalars {
+    int32_t offset;
+    uint32_t inv_slope;
+    int32_t ln_bias, u_min;
+} lt_scalars;
+
+/* The per-temperature values over one window of the temperature grid (logtrim::fixed::Window): the values at
+ * its start, the slopes (minus the curvature for the offset and the inverse slope) and the curvatures. */
+typedef struct lt_window {
+    lt_scalars start;
+    int32_t slope[4]; /* d - c for the offset and the inverse slope, d for the others */
+    int32_t curv[2];  /* c for the offset and the inverse slope */
+} lt_window;
+
+/* Everything a correction needs at one temperature (logtrim::fixed::FixedStage): the scalars and the
+ * residual collapsed over temperature for every x~ column. */
 typedef struct lt_stage {
     int extrapolated;
-    int64_t seg;
-    int64_t w[4];
-    int64_t offset, inv_slope, ln_bias, u_min;
+    lt_scalars s;
+    int32_t row[LT_ROW_CAPACITY];
+    uint32_t len;
 } lt_stage;
+
+/* The window of the last temperature and the last temperature codes' theta (logtrim::fixed::StageCache):
+ * start it with lt_stage_cache_init; one cache belongs to one calibration. */
+typedef struct lt_stage_cache {
+    const lt_fixed *cal;
+    uint32_t window; /* LT_NO_WINDOW when empty */
+    lt_window values;
+    int32_t row0[LT_ROW_CAPACITY], drow[LT_ROW_CAPACITY];
+    uint32_t len;
+    uint32_t memo_key[LT_STAGE_MEMO]; /* temperature code + 1; 0 marks an empty entry */
+    int32_t memo_theta[LT_STAGE_MEMO];
+    uint32_t code_lo, code_hi;
+} lt_stage_cache;

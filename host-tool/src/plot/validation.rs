@@ -91,17 +91,17 @@ fn column(headers: &[String], name: &str) -> Option<usize> {
 }
 
 /// Reads a validation run: `readings` joined by id (and unit) to `truth`. In a batch (a `unit` column),
-/// `serial` chooses the unit and is required.
+/// `serial` chooses the unit and is required. `opts` says how the unit reads its readings (its ADC bits, and
+/// for a raw temperature channel the converter of a `temp_code` column).
 pub fn read_validation(
     readings: &Path,
     truth: &Path,
     serial: Option<&str>,
-    adc_bits: u8,
+    opts: &ReadOptions<'_>,
 ) -> Result<Vec<ValidationPoint>, ValidationError> {
     let rpath = readings.display().to_string();
     let tpath = truth.display().to_string();
-    let opts = ReadOptions { adc_bits, ..ReadOptions::default() };
-    let rd = data::read_readings_file(readings, &opts)?;
+    let rd = data::read_readings_file(readings, opts)?;
     let Some(id_col) = column(&rd.headers, "id") else {
         return Err(DataError::MissingColumn {
             path: rpath,
@@ -271,29 +271,29 @@ mod tests {
             "id,unit,code,temp_c\n1,A,30000,25.0\n2,B,31000,26.0\n3,B,32000,27.0\n",
             "id,unit,ratio,x_true,t_true_c,x_oracle\n3,B,1,0.5,27.1,0.49\n2,B,1,-0.5,26.1,\n1,A,1,0.0,25.1,0.01\n",
         );
-        let p = read_validation(&r, &t, Some("B"), 16).unwrap();
+        let p = read_validation(&r, &t, Some("B"), &ReadOptions::default()).unwrap();
         assert_eq!(p.len(), 2);
         assert_eq!((p[0].code, p[0].x_true, p[0].t_true_c, p[0].x_oracle), (31000, -0.5, 26.1, None));
         assert_eq!((p[1].code, p[1].x_true, p[1].x_oracle), (32000, 0.5, Some(0.49)));
-        let e = read_validation(&r, &t, None, 16).unwrap_err().to_string();
+        let e = read_validation(&r, &t, None, &ReadOptions::default()).unwrap_err().to_string();
         assert!(e.contains("readings of 2 units"), "{e}");
-        let e = read_validation(&r, &t, Some("C"), 16).unwrap_err().to_string();
+        let e = read_validation(&r, &t, Some("C"), &ReadOptions::default()).unwrap_err().to_string();
         assert!(e.contains("no readings of unit \"C\"; the file has: A, B"), "{e}");
     }
 
     #[test]
     fn bad_truth_is_located() {
         let (r, t) = files("bad", "id,code,temp_c\n1,30000,25.0\n", "id,x_true,t_true_c\n1,zero,25.0\n");
-        let e = read_validation(&r, &t, None, 16).unwrap_err().to_string();
+        let e = read_validation(&r, &t, None, &ReadOptions::default()).unwrap_err().to_string();
         assert!(
             e.ends_with("truth.csv: line 2, column x_true: value \"zero\"; expected a finite x = ln ratio"),
             "{e}"
         );
         let (r, t) = files("nocol", "id,code,temp_c\n1,30000,25.0\n", "id,x_true\n1,0.5\n");
-        let e = read_validation(&r, &t, None, 16).unwrap_err().to_string();
+        let e = read_validation(&r, &t, None, &ReadOptions::default()).unwrap_err().to_string();
         assert!(e.contains("no \"t_true_c\" column"), "{e}");
         let (r, t) = files("noid", "code,temp_c\n30000,25.0\n", "id,x_true,t_true_c\n1,0.5,25\n");
-        let e = read_validation(&r, &t, None, 16).unwrap_err().to_string();
+        let e = read_validation(&r, &t, None, &ReadOptions::default()).unwrap_err().to_string();
         assert!(e.contains("no \"id\" column"), "{e}");
     }
 }
