@@ -551,3 +551,38 @@ fn item12_verify_says_up_front_how_long_and_says_when_it_is_sampled() {
     assert!(out.contains("SAMPLED: every 1 code(s) × every 200 temperature(s)"), "{out}");
     assert!(err.contains("% of the temperatures done"), "progress without a terminal: {err}");
 }
+
+#[test]
+fn item08_an_image_with_fixed_tables_spliced_from_another_unit_is_refused_by_inspect() {
+    let d = scratch("h08splice");
+    let a = coeffs(&d);
+    // A second unit: the same converter and ranges, its log stage a code higher.
+    let b = d.join("B.json");
+    let mut fb = CalFile::new(Calibration::nominal(16, 32769.0, 3000.0, 25.0), Some("SN-OTHER".into()));
+    fb.created_unix_s = 1_764_614_400;
+    fb.save(&b).unwrap();
+    let (img_a, img_b) = (d.join("a.bin"), d.join("b.bin"));
+    for (c, img) in [(&a, &img_a), (&b, &img_b)] {
+        let (code, _, err) = run(&["image", s(c), "-o", s(img)]);
+        assert_eq!(code, 0, "{err}");
+    }
+    let (bytes_a, bytes_b) = (std::fs::read(&img_a).unwrap(), std::fs::read(&img_b).unwrap());
+    assert_eq!(bytes_a.len(), bytes_b.len(), "the same table sizes");
+    // A's header and f32 sections (40 + 36 + 188 bytes), B's fixed section, a CRC recomputed over it all.
+    let cut = 264;
+    let end = bytes_a.len() - 4;
+    let mut spliced = bytes_a[..cut].to_vec();
+    spliced.extend_from_slice(&bytes_b[cut..end]);
+    let crc = logtrim::record::crc32(&spliced);
+    spliced.extend_from_slice(&crc.to_le_bytes());
+    let path = d.join("spliced.bin");
+    std::fs::write(&path, &spliced).unwrap();
+    let (code, out, err) = run(&["inspect", s(&path)]);
+    assert_eq!(code, 1, "{out}{err}");
+    assert!(err.contains("fixed section was built from calibration"), "{err}");
+    // Each image alone inspects fine.
+    for img in [&img_a, &img_b] {
+        let (code, out, err) = run(&["inspect", s(img)]);
+        assert_eq!(code, 0, "{out}{err}");
+    }
+}

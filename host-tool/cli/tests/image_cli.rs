@@ -215,13 +215,22 @@ fn bad_images_exit_1_with_the_specific_error() {
         ),
         ("erased.bin", vec![0xff; 268], "not a calibration image: starts with ff ff ff ff"),
         (
-            "v2.bin",
+            "v3.bin",
             {
                 let mut b = good.clone();
-                b[4] = 2;
+                b[4] = 3;
                 b
             },
-            "format version 2 is not supported",
+            "format version 3 is not supported",
+        ),
+        (
+            "v1.bin",
+            {
+                let mut b = good.clone();
+                b[4] = 1;
+                b
+            },
+            "format version 1 is not supported",
         ),
     ];
     for (name, bytes, want) in cases {
