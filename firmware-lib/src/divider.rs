@@ -24,7 +24,7 @@ use crate::math::Real;
 /// Where the sensor sits in the divider.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Placement {
     /// Sensor between the midpoint and ground, series resistor to the supply: the code rises with R.
@@ -36,6 +36,7 @@ pub enum Placement {
 /// A ratiometric divider read by an ADC.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Divider {
     /// Where the sensor sits.
@@ -115,13 +116,8 @@ impl Divider {
         Ok(())
     }
 
-    fn resistance_generic<F: Real>(&self, code: u32) -> Result<F, Error> {
-        self.validate_cheap()?;
-        let max = self.max_code()?;
-        if code > max {
-            return Err(Error::CodeOutOfAdcRange { code, max });
-        }
-        let fs = self.full_scale_code;
+    /// The fault of a code in a fault band (near either rail), if it lies in one.
+    fn band_fault(&self, code: u32) -> Option<SensorFault> {
         let (at_bottom, at_top) = match self.placement {
             Placement::LowSide => (SensorFault::Short, SensorFault::Open),
             Placement::HighSide => (SensorFault::Open, SensorFault::Short),
@@ -131,14 +127,30 @@ impl Divider {
             Placement::HighSide => (self.open_margin, self.short_margin),
         };
         if code <= bottom_margin {
-            return Err(Error::Sensor(at_bottom));
+            Some(at_bottom)
+        } else if code >= self.full_scale_code.saturating_sub(top_margin) {
+            Some(at_top)
+        } else {
+            None
         }
-        if code >= fs.saturating_sub(top_margin) {
-            return Err(Error::Sensor(at_top));
+    }
+
+    fn resistance_generic<F: Real>(&self, code: u32) -> Result<F, Error> {
+        self.validate_cheap()?;
+        let max = self.max_code()?;
+        if code > max {
+            // A code the channel's converter cannot produce is a fault of the temperature channel (never
+            // of the log channel): the fault of the converter's top code when that lies in a fault band,
+            // else OutOfModelRange. The fixed path's sensor table reports exactly this beyond its last
+            // code, so both paths (and the emitted C) give one status.
+            return Err(Error::Sensor(self.band_fault(max).unwrap_or(SensorFault::OutOfModelRange)));
+        }
+        if let Some(fault) = self.band_fault(code) {
+            return Err(Error::Sensor(fault));
         }
         // Here 0 < code < fs, so both parts of the divider are at least one code.
         let below = F::of_u32(code);
-        let above = F::of_u32(fs - code);
+        let above = F::of_u32(self.full_scale_code - code);
         let rs = F::of(self.series_ohm);
         let r = match self.placement {
             Placement::LowSide => rs * below / above,
@@ -229,7 +241,15 @@ mod tests {
     #[test]
     fn bad_descriptions_and_codes_are_errors() {
         let d = low();
-        assert_eq!(d.resistance(4096), Err(Error::CodeOutOfAdcRange { code: 4096, max: 4095 }));
+        // Codes beyond the 12-bit converter continue the open band of its top code (open margin 8), the same
+        // status the fixed path's sensor table gives; without a band there, outside the model.
+        for code in [4096, 65535, u32::MAX] {
+            assert_eq!(d.resistance(code), Err(Error::Sensor(SensorFault::Open)), "{code}");
+        }
+        let bare = Divider::ratiometric(Placement::LowSide, 10_000.0, 12);
+        assert_eq!(bare.resistance(4096), Err(Error::Sensor(SensorFault::OutOfModelRange)));
+        let high = Divider { placement: Placement::HighSide, ..d };
+        assert_eq!(high.resistance(4096), Err(Error::Sensor(SensorFault::Short)));
         let adc = Error::InvalidCalibration(CalibrationDefect::AdcBits);
         assert_eq!(Divider { bits: 0, ..d }.resistance(100), Err(adc));
         assert_eq!(Divider { bits: 25, ..d }.validate(), Err(adc));

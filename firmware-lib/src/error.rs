@@ -9,6 +9,7 @@ use core::fmt;
 /// Why a temperature sensor gave no temperature.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum SensorFault {
@@ -23,6 +24,7 @@ pub enum SensorFault {
 /// What was wrong with a calibration that cannot be evaluated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum CalibrationDefect {
@@ -40,11 +42,21 @@ pub enum CalibrationDefect {
     ZeroSlope,
     /// The temperature normalisation (centre, half span, reference) is unusable.
     Normalisation,
+    /// The level shift is not finite or beyond ±2^26 codes.
+    LevelShift,
+    /// The x range reaches beyond ±100 Np.
+    XRangeLimit,
+    /// The gain pole `1 + q·τ` comes within 0.05 of zero somewhere in the temperature range.
+    Pole,
+    /// The model is not monotone in x over the calibrated range (the bulk term or the residual overtakes
+    /// the slope).
+    NotMonotone,
 }
 
 /// Every way a reading can fail to become a value.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum Error {
@@ -113,11 +125,23 @@ impl fmt::Display for CalibrationDefect {
         f.write_str(match self {
             CalibrationDefect::AdcBits => "ADC bits must be 1..=24",
             CalibrationDefect::RailMargin => "rail margin leaves no usable code",
-            CalibrationDefect::TemperatureRange => "temperature range empty or not finite",
-            CalibrationDefect::XRange => "x range empty or not finite",
-            CalibrationDefect::Coefficient => "coefficient not finite or series too long",
-            CalibrationDefect::ZeroSlope => "slope zero, negative or not finite",
+            CalibrationDefect::TemperatureRange => {
+                "temperature range empty, reversed, not finite or outside -273.15…1000 °C"
+            }
+            CalibrationDefect::XRange => "x range empty, reversed or not finite",
+            CalibrationDefect::Coefficient => {
+                "coefficient not finite, beyond what f32 can evaluate over the range, or series too long"
+            }
+            CalibrationDefect::ZeroSlope => {
+                "slope zero, negative or not finite somewhere in the temperature range"
+            }
             CalibrationDefect::Normalisation => "temperature normalisation unusable",
+            CalibrationDefect::LevelShift => "level shift not finite or beyond ±2^26 codes",
+            CalibrationDefect::XRangeLimit => "x range beyond ±100 Np",
+            CalibrationDefect::Pole => "gain pole 1 + q·τ within 0.05 of zero in the temperature range",
+            CalibrationDefect::NotMonotone => {
+                "model not monotone in x over the calibrated range (the bulk term or the residual overtakes the slope)"
+            }
         })
     }
 }

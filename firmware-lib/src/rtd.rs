@@ -33,6 +33,7 @@ pub const NEWTON_STEPS: usize = 8;
 /// A platinum RTD with the IEC 60751 curve and a nominal resistance R₀ at 0 °C.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Rtd {
     /// R₀: resistance at 0 °C, Ω (> 0).

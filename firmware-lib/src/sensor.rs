@@ -28,7 +28,7 @@ use crate::thermistor::{Beta, SteinhartHart};
 /// The sensing element of a temperature channel.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum SensorElement {
     /// An NTC thermistor by the Beta model.
@@ -80,6 +80,7 @@ impl SensorElement {
 /// The temperature channel of a unit: an element behind a divider, valid over a declared range.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TemperatureSensor {
     /// The sensing element.
@@ -235,7 +236,8 @@ mod tests {
         let s = ntc_channel();
         assert_eq!(s.celsius(4095), Err(Error::Sensor(SensorFault::Open)));
         assert_eq!(s.celsius(3), Err(Error::Sensor(SensorFault::Short)));
-        assert_eq!(s.celsius(5000), Err(Error::CodeOutOfAdcRange { code: 5000, max: 4095 }));
+        // A code beyond the channel's 12-bit converter continues its top code's band (open, low side).
+        assert_eq!(s.celsius(5000), Err(Error::Sensor(SensorFault::Open)));
         // Code 4000 is 10 kΩ·4000/96 ≈ 417 kΩ: about −40.5 °C, below the declared −40 °C.
         assert_eq!(s.celsius(4000), Err(Error::Sensor(SensorFault::OutOfModelRange)));
         assert_eq!(s.celsius_f64(4000), Err(Error::Sensor(SensorFault::OutOfModelRange)));

@@ -42,6 +42,7 @@ use crate::physics::ZERO_CELSIUS_K;
 /// One point of a resistance–temperature curve, used to derive coefficients.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct CurvePoint {
     /// Temperature, °C.
@@ -60,6 +61,7 @@ impl CurvePoint {
 /// Why curve points do not give thermistor coefficients.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum FitError {
@@ -94,6 +96,7 @@ impl core::error::Error for FitError {}
 /// The Beta model of an NTC thermistor: `R = R₀·exp(β·(1/T − 1/T₀))`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Beta {
     /// R₀: resistance at the reference temperature, Ω (> 0).
@@ -177,6 +180,7 @@ impl Beta {
 /// The Steinhart–Hart equation `1/T = A + B·ln R + C·(ln R)³` (T in K, R in Ω).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct SteinhartHart {
     /// A, 1/K.

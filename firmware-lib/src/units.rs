@@ -21,7 +21,7 @@ const INV_LN10: f32 = core::f32::consts::LOG10_E;
 /// An output unit for a corrected reading.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Unit {
     /// x itself: ln(I_sig/I_ref).

@@ -196,3 +196,257 @@ pub fn check_csv(data: &[u8]) {
         }
     }
 }
+
+/// Trim and blank records from anyone, and their two-slot choice: parsing never panics; an accepted record
+/// re-encodes to the same bytes; installing it over a calibration and applying it on both paths never panics,
+/// and both paths give the same status; the slot choice picks a record exactly when one slot holds one.
+pub fn check_field_records(data: &[u8]) {
+    use logtrim::field::{self, Blank, Layers, Trim, TrimLimits};
+    use logtrim::fixed::FixedReading;
+    let trim = Trim::parse(data);
+    let blank = Blank::parse(data);
+    if let Ok(t) = &trim {
+        assert_eq!(&t.to_bytes()[..], data, "an accepted trim re-encodes to its bytes");
+    }
+    if let Ok(b) = &blank {
+        assert_eq!(&b.to_bytes()[..], data, "an accepted blank re-encodes to its bytes");
+    }
+    let (a, b) = data.split_at(data.len() / 2);
+    for factory in [None, Some(0), Some(0x1234_5678)] {
+        let any_trim = Trim::parse_prefix(a).is_ok() || Trim::parse_prefix(b).is_ok();
+        let sel = field::slots::select::<Trim>(a, b, factory);
+        if factory.is_none() {
+            assert_eq!(sel.is_ok(), any_trim);
+        }
+        let _ = field::slots::next_write::<Trim>(a, b, factory);
+        let _ = field::slots::select::<Blank>(a, b, factory);
+        let _ = field::slots::next_write::<Blank>(a, b, factory);
+    }
+    let limits = TrimLimits::new(0.05, 0.02, 0.5).expect("the default limits are valid");
+    let layers = Layers::new(trim.ok(), blank.ok(), &limits, None);
+    if let Ok(layers) = layers {
+        let cal = logtrim::Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+        for code in [1000, 20000, 32768, 50000, 65000] {
+            let Ok(r) = cal.correct(code, 25.0) else { continue };
+            let f32_path = layers.apply(&r);
+            let q = (f64::from(r.x) * f64::from(1u32 << logtrim::fixed::X_FRAC)).round() as i32;
+            let fixed = layers.apply_fixed(&FixedReading { x: q, temperature_extrapolated: false });
+            // The same status on both paths: a value, within the fixed path's own range (±128 Np).
+            if f32_path.x.abs() < 100.0 {
+                assert!(fixed.is_ok(), "f32 {f32_path:?} but fixed {fixed:?}");
+            }
+        }
+    }
+}
+
+/// The seed unit's calibration file, mutated: loading and validating never panics; what loads builds its
+/// tables, image and emitted sources without a panic; the image parses back to the same calibration; the
+/// fixed tables agree with the f32 model on a sample (status and value, as `logtrim verify` judges); a
+/// sensor table is monotone in the code.
+pub fn check_calfile(data: &[u8]) {
+    use logtrim_host::calfile::CalFile;
+    use logtrim_host::tables::TableOptions;
+    let Ok(text) = std::str::from_utf8(data) else { return };
+    let Ok(file) = CalFile::from_json(text, "fuzz.json") else { return };
+    assert_eq!(file.calibration.validate(), Ok(()));
+    let opts = TableOptions::default();
+    let Ok(tables) = file.fixed_tables(&opts) else { return };
+    for format in [logtrim_host::emit::Format::Rust, logtrim_host::emit::Format::C, logtrim_host::emit::Format::Json] {
+        let _ = logtrim_host::emit::render(&tables, format, &logtrim_host::emit::Provenance::default());
+    }
+    if let Ok(bytes) = logtrim_host::image_file::build_image_with(&file, Some("FUZZ"), 1, Some(&opts)) {
+        let img = Image::parse(&bytes).expect("a built image parses");
+        assert_eq!(img.calibration(), file.calibration);
+        let _ = logtrim_host::image_file::load_fixed(&img).expect("a built image's tables load");
+    }
+    let view = tables.view();
+    if let Some(s) = &view.sensor {
+        // θ along the valid span moves one way only.
+        let step = ((s.code_hi - s.code_lo) / 512).max(1);
+        let thetas: Vec<i32> =
+            (s.code_lo..=s.code_hi).step_by(step as usize).filter_map(|c| view.theta_from_code(c).ok()).collect();
+        let up = thetas.windows(2).all(|w| w[0] <= w[1]);
+        let down = thetas.windows(2).all(|w| w[0] >= w[1]);
+        assert!(up || down, "sensor table not monotone");
+    }
+    let v = logtrim_host::verify::VerifyOptions {
+        code_stride: ((1u32 << file.calibration.adc.bits) / 64).max(1),
+        temp_stride: 97,
+        ..logtrim_host::verify::VerifyOptions::default()
+    };
+    if let Ok(report) = logtrim_host::verify::run_file(&file, &view, &v, &logtrim_host::progress::quiet) {
+        assert_eq!(report.fixed.status.outside, 0, "fixed and f64 statuses disagree away from an edge: {report}");
+        assert_eq!(report.f32.status.outside, 0, "f32 and f64 statuses disagree away from an edge: {report}");
+    }
+}
+
+/// Chamber data from anyone, fitted with the smallest model: reading and fitting never panic or hang, and a
+/// fit that succeeds gives a calibration that validates.
+pub fn check_fit(data: &[u8]) {
+    use logtrim_host::data::{read_calibration, ReadOptions};
+    use logtrim_host::fit::{fit, FitData, FitOptions};
+    let Ok(cal) = read_calibration(data, "fuzz.csv", &ReadOptions::default()) else { return };
+    if cal.rows.len() > 4000 {
+        return;
+    }
+    let d = FitData::from_rows(&cal.rows, None);
+    let spec = logtrim_host::fit::model::Spec::parse("offset=2,slope=1").ok();
+    let opt = FitOptions { spec, min_rows_per_setpoint: 2, min_span_decades: 0.1, ..FitOptions::default() };
+    if let Ok(out) = fit(&d, &opt) {
+        assert_eq!(out.calibration.validate(), Ok(()), "a fit gave a calibration that does not validate");
+    }
+}
+
+/// Design files from anyone: a front end, a budget's figures and a temperature sensor's settings. Parsing
+/// never panics; a budget that computes has only finite figures (never `inf` or `null`); settings that
+/// load convert every code without a panic, monotone in the code.
+pub fn check_design_json(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else { return };
+    if let Ok(fe) = logtrim_host::frontend::FrontEnd::from_json(text, "fuzz.json") {
+        let _ = logtrim_host::budget::BudgetSpec::from_design(&fe).map(|s| s.compute());
+        for x in [-5.0, 0.0, 3.0] {
+            let _ = fe.code_exact(x, 25.0);
+        }
+    }
+    if let Ok(spec) = logtrim_host::budget::BudgetSpec::from_json(text, "fuzz.json") {
+        if let Ok(b) = spec.compute() {
+            let json = b.to_json();
+            assert!(!json.contains("null"), "a budget figure is not finite: {json}");
+            let table = b.render_table();
+            assert!(!table.contains("inf") && !table.contains("NaN"), "{table}");
+        }
+    }
+    if let Ok(s) = logtrim_host::sensor_tool::settings_from_json(text, "fuzz.json") {
+        let max = s.divider.max_code().unwrap_or(0).min(1 << 16);
+        let mut last: Option<f32> = None;
+        let mut dir = 0i8;
+        for code in (0..=max).step_by(((max / 256).max(1)) as usize) {
+            if let Ok(t) = s.celsius(code) {
+                if let Some(l) = last {
+                    let d = (t > l) as i8 - (t < l) as i8;
+                    assert!(dir == 0 || d == 0 || d == dir, "sensor reading not monotone in the code");
+                    if d != 0 {
+                        dir = d;
+                    }
+                }
+                last = Some(t);
+            }
+        }
+    }
+}
+
+/// The command line's value parsers from anyone: addresses, `10k`-style resistances, data-sheet points,
+/// `--sh` coefficients, RTD names and `--model` terms. They never panic, and what they accept reads back.
+pub fn check_cli_values(data: &[u8]) {
+    use logtrim_host::sensor_tool::{parse_coefficients, parse_ohm, parse_point, parse_rtd};
+    let Ok(text) = std::str::from_utf8(data) else { return };
+    if let Ok(a) = logtrim_host::image_file::parse_address(text) {
+        assert_eq!(logtrim_host::image_file::parse_address(&format!("{a:#x}")).ok(), Some(a));
+    }
+    if let Ok(r) = parse_ohm(text) {
+        assert!(r.is_finite() && r > 0.0, "{text:?} gave {r}");
+    }
+    if let Ok(p) = parse_point(text) {
+        assert!(p.celsius.is_finite() && p.ohm.is_finite(), "{text:?}");
+    }
+    if let Ok(c) = parse_coefficients(text) {
+        assert!(c.iter().all(|v| v.is_finite()), "{text:?}");
+    }
+    let _ = parse_rtd(text);
+    if let Ok(spec) = logtrim_host::fit::model::Spec::parse(text) {
+        assert_eq!(logtrim_host::fit::model::Spec::parse(&spec.to_arg()), Ok(spec));
+    }
+}
+
+/// The driver of the C differential: reads `m CODE MILLICELSIUS` or `r CODE TEMP_CODE` lines and prints the
+/// status and x of the emitted evaluator.
+const C_DRIVER: &str = r#"
+#include <stdio.h>
+#include "unit.h"
+int main(void) {
+    char kind;
+    unsigned long code;
+    long long t;
+    while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
+        lt_reading r;
+        lt_status st = kind == 'm' ? lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r)
+                                   : lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
+        if (st == LT_OK) printf("%d %ld\n", (int)st, (long)r.x); else printf("%d\n", (int)st);
+    }
+    return 0;
+}
+"#;
+
+thread_local! {
+    /// The last emitted header and its compiled driver (recompiled only when the tables change).
+    static C_BUILD: RefCell<Option<(String, std::path::PathBuf)>> = const { RefCell::new(None) };
+}
+
+/// A calibration file (up to the first NUL byte) and readings (the bytes after it): the C evaluator that
+/// `logtrim emit --format c` writes, compiled with the system's C compiler, gives the same status and the
+/// same x as the Rust fixed path on every reading.
+pub fn check_c_differential(data: &[u8]) {
+    use logtrim_host::calfile::CalFile;
+    use logtrim_host::emit::{self, Format, Provenance};
+    use logtrim_host::tables::TableOptions;
+    use std::io::Write as _;
+    let cut = data.iter().position(|&b| b == 0).unwrap_or(data.len());
+    let (json, rest) = data.split_at(cut);
+    let Ok(text) = std::str::from_utf8(json) else { return };
+    let Ok(file) = CalFile::from_json(text, "fuzz.json") else { return };
+    let Ok(tables) = file.fixed_tables(&TableOptions::default()) else { return };
+    let view = tables.view();
+    let header = emit::render(&tables, Format::C, &Provenance::default());
+    let exe = C_BUILD.with(|b| {
+        let mut b = b.borrow_mut();
+        if let Some((h, exe)) = b.as_ref() {
+            if *h == header {
+                return exe.clone();
+            }
+        }
+        let dir = std::env::temp_dir().join(format!("logtrim-fuzz-c-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).expect("a scratch folder");
+        std::fs::write(dir.join("unit.h"), &header).expect("the header is written");
+        std::fs::write(dir.join("driver.c"), C_DRIVER).expect("the driver is written");
+        let exe = dir.join("driver");
+        let out = std::process::Command::new(std::env::var("CC").unwrap_or_else(|_| "cc".into()))
+            .args(["-std=c99", "-O1", "-Wall", "-Werror", "-o"])
+            .arg(&exe)
+            .arg(dir.join("driver.c"))
+            .output()
+            .expect("a C compiler runs");
+        assert!(out.status.success(), "the emitted C does not compile:\n{}", String::from_utf8_lossy(&out.stderr));
+        *b = Some((header, exe.clone()));
+        exe
+    });
+    // Readings: 8 bytes each, code and temperature (m°C, or a raw code with a sensor table).
+    let raw = view.sensor.is_some();
+    let mut input = String::new();
+    let mut want = Vec::new();
+    for chunk in rest.chunks_exact(8).take(256) {
+        let code = u32::from_le_bytes([chunk[0], chunk[1], chunk[2], chunk[3]]);
+        let t = i32::from_le_bytes([chunk[4], chunk[5], chunk[6], chunk[7]]);
+        let r = if raw { view.correct_raw(code, t as u32) } else { view.correct(code, t) };
+        let t_text = if raw { (t as u32).to_string() } else { t.to_string() };
+        input.push_str(&format!("{} {code} {t_text}\n", if raw { 'r' } else { 'm' }));
+        want.push(match r {
+            Ok(r) => format!("0 {}", r.x),
+            Err(_) => emit::c::status_code(&r).to_string(),
+        });
+    }
+    if want.is_empty() {
+        return;
+    }
+    let mut child = std::process::Command::new(&exe)
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .expect("the driver runs");
+    child.stdin.take().expect("stdin").write_all(input.as_bytes()).expect("readings are written");
+    let out = child.wait_with_output().expect("the driver ends");
+    let got: Vec<&str> = std::str::from_utf8(&out.stdout).expect("text").lines().collect();
+    assert_eq!(got.len(), want.len(), "the driver answered {} of {} readings", got.len(), want.len());
+    for ((g, w), line) in got.iter().zip(&want).zip(input.lines()) {
+        assert_eq!(g, w, "C and Rust differ at {line}");
+    }
+}

@@ -62,56 +62,93 @@ pub fn write_results<W: Write>(
     results: &[Result<RowValue, Error>],
     out: W,
 ) -> Result<ApplySummary, ApplyError> {
-    let added = added_columns();
-    for h in &readings.headers {
-        if let Some(c) = added.iter().find(|a| a.eq_ignore_ascii_case(h.trim())) {
-            return Err(ApplyError::ColumnClash { path: readings.path.clone(), column: (*c).to_string() });
-        }
-    }
-    let mut w = csv::WriterBuilder::new().has_headers(false).from_writer(out);
-    let mut header: Vec<&str> = readings.headers.iter().map(|s| s.as_str()).collect();
-    header.extend(added.iter());
-    w.write_record(&header).map_err(csv_io)?;
-    let mut summary = ApplySummary { rows: readings.rows.len(), ..ApplySummary::default() };
-    let mut rec = csv::ByteRecord::new();
-    let mut buf = ryu::Buffer::new();
-    let mut text = |v: f64, f32_digits: bool| -> Vec<u8> {
-        if f32_digits {
-            buf.format(v as f32).as_bytes().to_vec()
-        } else {
-            buf.format(v).as_bytes().to_vec()
-        }
-    };
-    for (row, res) in readings.rows.iter().zip(results) {
-        rec.clear();
-        for f in row.record.iter() {
-            rec.push_field(f);
-        }
-        match res {
-            Ok(r) => {
-                for v in r.units {
-                    rec.push_field(&text(v, r.f32_digits));
-                }
-                rec.push_field(if r.temperature_extrapolated { b"1" } else { b"0" });
-                rec.push_field(b"");
-                if r.temperature_extrapolated {
-                    summary.extrapolated += 1;
-                }
+    let mut w = ResultsWriter::new(&readings.headers, &readings.path, out)?;
+    w.write(readings, results)?;
+    Ok(w.finish()?.0)
+}
+
+/// The output of an apply run written as it goes: the header first ([`ResultsWriter::new`]), then each
+/// chunk of rows with its results ([`ResultsWriter::write`]), so that a run of any length needs the memory
+/// of one chunk.
+pub struct ResultsWriter<W: Write> {
+    w: csv::Writer<W>,
+    summary: ApplySummary,
+    rec: csv::ByteRecord,
+    buf: ryu::Buffer,
+}
+
+impl<W: Write> ResultsWriter<W> {
+    /// Checks the input's header against the added columns and writes the output's header; `path` names
+    /// the input in errors.
+    pub fn new(headers: &[String], path: &str, out: W) -> Result<Self, ApplyError> {
+        let added = added_columns();
+        for h in headers {
+            if let Some(c) = added.iter().find(|a| a.eq_ignore_ascii_case(h.trim())) {
+                return Err(ApplyError::ColumnClash { path: path.to_string(), column: (*c).to_string() });
             }
-            Err(e) => {
-                for _ in Unit::ALL {
+        }
+        let mut w = csv::WriterBuilder::new().has_headers(false).from_writer(out);
+        let mut header: Vec<&str> = headers.iter().map(|s| s.as_str()).collect();
+        header.extend(added.iter());
+        w.write_record(&header).map_err(csv_io)?;
+        Ok(ResultsWriter {
+            w,
+            summary: ApplySummary::default(),
+            rec: csv::ByteRecord::new(),
+            buf: ryu::Buffer::new(),
+        })
+    }
+
+    /// Writes rows (a chunk of the input, or all of it) with their results, in order.
+    pub fn write(
+        &mut self,
+        readings: &Readings,
+        results: &[Result<RowValue, Error>],
+    ) -> Result<(), ApplyError> {
+        let summary = &mut self.summary;
+        summary.rows += readings.rows.len();
+        let rec = &mut self.rec;
+        let buf = &mut self.buf;
+        for (row, res) in readings.rows.iter().zip(results) {
+            rec.clear();
+            for f in row.record.iter() {
+                rec.push_field(f);
+            }
+            match res {
+                Ok(r) => {
+                    for v in r.units {
+                        if r.f32_digits {
+                            rec.push_field(buf.format(v as f32).as_bytes());
+                        } else {
+                            rec.push_field(buf.format(v).as_bytes());
+                        }
+                    }
+                    rec.push_field(if r.temperature_extrapolated { b"1" } else { b"0" });
                     rec.push_field(b"");
+                    if r.temperature_extrapolated {
+                        summary.extrapolated += 1;
+                    }
                 }
-                rec.push_field(b"");
-                rec.push_field(e.name().as_bytes());
-                summary.rejected += 1;
-                *summary.by_error.entry(e.name()).or_default() += 1;
+                Err(e) => {
+                    for _ in Unit::ALL {
+                        rec.push_field(b"");
+                    }
+                    rec.push_field(b"");
+                    rec.push_field(e.name().as_bytes());
+                    summary.rejected += 1;
+                    *summary.by_error.entry(e.name()).or_default() += 1;
+                }
             }
+            self.w.write_byte_record(rec).map_err(csv_io)?;
         }
-        w.write_byte_record(&rec).map_err(csv_io)?;
+        Ok(())
     }
-    w.flush()?;
-    Ok(summary)
+
+    /// Flushes the CSV writer and returns the counts and the output.
+    pub fn finish(self) -> Result<(ApplySummary, W), ApplyError> {
+        let out = self.w.into_inner().map_err(|e| ApplyError::Io(e.into_error()))?;
+        Ok((self.summary, out))
+    }
 }
 
 fn csv_io(e: csv::Error) -> io::Error {

@@ -267,4 +267,38 @@ mod tests {
         let bad = text.replace("\"bits\": 16", "\"bits\": 0");
         assert!(matches!(CalFile::from_json(&bad, "mem"), Err(CalFileError::Invalid { .. })));
     }
+
+    #[test]
+    fn unknown_fields_are_refused_at_every_level() {
+        // A typo such as `extrapolate_k` inside `calibration` once passed every verb silently.
+        let mut f = CalFile::new(Calibration::nominal(16, 32768.0, 2000.0, 25.0), Some("SN-1".into()));
+        f.temperature_sensor = Some(logtrim::TemperatureSensor {
+            element: logtrim::SensorElement::NtcBeta(logtrim::Beta {
+                r0_ohm: 1e4,
+                t0_c: 25.0,
+                beta_k: 3950.0,
+            }),
+            divider: logtrim::Divider::ratiometric(logtrim::Placement::LowSide, 1e4, 12),
+            min_c: -40.0,
+            max_c: 125.0,
+        });
+        let text = f.to_json();
+        assert!(CalFile::from_json(&text, "C.json").is_ok());
+        for (from, to) in [
+            ("\"extrapolation_k\"", "\"extrapolate_k\""),
+            ("\"min_sensitivity\"", "\"min_sensitivty\""),
+            ("\"rail_margin\"", "\"rail_margins\""),
+            ("\"ln_beta0\"", "\"ln_beta_0\""),
+            ("\"x_half_span\"", "\"x_halfspan\""),
+            ("\"t_center_c\"", "\"t_centre_c\""),
+            ("\"beta_k\"", "\"beta\""),
+            ("\"open_margin\"", "\"open_margn\""),
+        ] {
+            assert!(text.contains(from), "{from}");
+            let typo = text.replacen(from, to, 1);
+            let e = CalFile::from_json(&typo, "C.json").unwrap_err().to_string();
+            let field = to.trim_matches('"');
+            assert!(e.starts_with("C.json: line ") && e.contains(&format!("unknown field `{field}`")), "{e}");
+        }
+    }
 }

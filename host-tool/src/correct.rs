@@ -99,15 +99,21 @@ pub fn mean_q24(v: &[FixedReading]) -> i32 {
     q as i32
 }
 
+/// The converter of a unit's `temp_code` column: the calibration file's temperature sensor in f32, as the
+/// MCU converts it (`None` for a unit that reads °C).
+pub fn sensor_converter(file: &CalFile) -> Option<impl Fn(u32) -> Result<f64, Error> + Sync + '_> {
+    file.temperature_sensor.as_ref().map(|s| move |code: u32| s.celsius(code).map(f64::from))
+}
+
 /// Reads a readings file of a unit as its firmware reads it: codes of the calibration's ADC resolution, and
 /// a `temp_code` column converted to °C by the calibration file's temperature sensor in f32 (as the MCU
 /// converts it). Bad rows are skipped and listed in [`Readings::skipped`] when `skip_bad_rows` is set.
 pub fn read_unit_readings(file: &CalFile, path: &Path, skip_bad_rows: bool) -> Result<Readings, DataError> {
-    let conv = |code: u32| file.firmware_celsius(code);
+    let conv = sensor_converter(file);
     let opts = ReadOptions {
         adc_bits: file.calibration.adc.bits,
         skip_bad_rows,
-        temp_converter: file.temperature_sensor.as_ref().map(|_| &conv as &dyn Fn(u32) -> Result<f64, Error>),
+        temp_converter: conv.as_ref().map(|c| c as &dyn Fn(u32) -> Result<f64, Error>),
     };
     read_readings_file(path, &opts)
 }

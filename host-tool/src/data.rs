@@ -18,10 +18,12 @@
 //! temperature code the converter refuses (a sensor fault, say) is an error in calibration data; in readings
 //! it is kept as that row's outcome ([`ReadingRow::temp_c`]), since it is a fact about the measurement.
 
+use std::cell::RefCell;
 use std::collections::HashMap;
 use std::fmt;
-use std::io;
+use std::io::{self, Read};
 use std::path::Path;
+use std::rc::Rc;
 
 use csv::ByteRecord;
 
@@ -199,6 +201,13 @@ pub enum Problem {
     NotPositive,
     /// The field is not valid UTF-8.
     NotUtf8,
+    /// The number lies outside the span any physical reading can have.
+    Implausible {
+        /// The lowest plausible value.
+        min: f64,
+        /// The highest plausible value.
+        max: f64,
+    },
     /// The temperature converter refused the code.
     Conversion(logtrim::Error),
     /// The row has another number of fields than the header.
@@ -220,6 +229,9 @@ impl fmt::Display for Problem {
             Problem::NotFinite => f.write_str("is not finite"),
             Problem::NotPositive => f.write_str("is not positive"),
             Problem::NotUtf8 => f.write_str("is not valid UTF-8"),
+            Problem::Implausible { min, max } => {
+                write!(f, "is outside the plausible span {min:e} … {max:e} (no physical reading is)")
+            }
             Problem::Conversion(e) => write!(f, "could not be converted to °C ({e})"),
             Problem::FieldCount { expected, found } => {
                 write!(f, "has {found} fields where the header has {expected}")
@@ -260,7 +272,13 @@ impl fmt::Display for RowError {
             write!(
                 f,
                 "{}: line {}, column {} ({}): value {:?} {}; expected {}",
-                self.path, self.line, self.column, self.name, self.value, self.problem, self.expected
+                self.path,
+                self.line,
+                self.column,
+                printable(&self.name),
+                self.value,
+                self.problem,
+                self.expected
             )
         }
     }
@@ -355,6 +373,24 @@ pub enum DataError {
         /// Position of `temp_code` (1-based).
         column: usize,
     },
+    /// The file is not CSV text (UTF-16, binary).
+    #[error("{path}: the file is {what}")]
+    NotText {
+        /// The file.
+        path: String,
+        /// What it is instead.
+        what: &'static str,
+    },
+    /// The file holds more rows than can be kept in memory.
+    #[error("{path}: line {line}: more than {max} rows of calibration data; split the file (a folder of files, one unit each, is a batch)")]
+    TooManyRows {
+        /// The file.
+        path: String,
+        /// The line of the first row beyond the limit.
+        line: u64,
+        /// The most rows a file may hold.
+        max: usize,
+    },
     /// The ADC resolution asked for is not 1..=24 bits.
     #[error("ADC bits {bits}: expected 1..=24")]
     AdcBits {
@@ -375,9 +411,23 @@ impl From<RowError> for DataError {
 const CAL_EXPECTED: &str = "code, temp_c or temp_code, ratio; optional unit, weight";
 const READINGS_EXPECTED: &str = "code, temp_c or temp_code; optional ratio, unit";
 
+/// The plausible span of a ratio I_sig/I_ref (and of a row's weight): 60 decades either side of 1 hold
+/// every current ratio a log-ratio front end can see; a value beyond them is a unit mix-up or a corrupt
+/// file, and is refused where it is read instead of reaching a solver.
+pub const RATIO_SPAN: (f64, f64) = (1e-30, 1e30);
+/// The plausible span of a temperature, °C: from absolute zero to 1000 °C (no log-ratio front end works
+/// beyond it).
+pub const TEMPERATURE_SPAN_C: (f64, f64) = (-273.15, 1000.0);
+/// The longest stretch of a file without a complete row, bytes: a longer one is refused (a binary file, or
+/// an endless line from a device such as `/dev/zero`), so that memory stays bounded.
+pub const MAX_LINE_BYTES: usize = 1 << 20;
+/// The most rows of calibration data one file may hold (a batch of 20 000 units of 1 000 rows): the rows
+/// are kept in memory for the fit, so an endless input is refused instead of exhausting it.
+pub const MAX_CALIBRATION_ROWS: usize = 20_000_000;
+
 /// Reads calibration data (`code`, `temp_c`/`temp_code`, `ratio`, optional `unit`, `weight`) from a file.
 pub fn read_calibration_file(path: &Path, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    calibration_from_bytes(read_file(path)?, &path.display().to_string(), opts)
+    read_calibration(open_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads calibration data from any reader; `path` names the source in errors.
@@ -386,17 +436,13 @@ pub fn read_calibration<R: io::Read>(
     path: &str,
     opts: &ReadOptions<'_>,
 ) -> Result<CalData, DataError> {
-    calibration_from_bytes(slurp(reader, path)?, path, opts)
-}
-
-fn calibration_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<CalData, DataError> {
-    let (src, rows, skipped) = read_rows(data, path, opts, CAL_EXPECTED, true, Source::cal_row)?;
+    let (src, rows, skipped) = read_rows(reader, path, opts, CAL_EXPECTED, true, Source::cal_row)?;
     Ok(CalData { path: path.to_string(), columns: src.columns, rows, units: src.units.names, skipped })
 }
 
 /// Reads readings (`code`, `temp_c`/`temp_code`, optional `ratio`, `unit`) from a file, keeping every field.
 pub fn read_readings_file(path: &Path, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    readings_from_bytes(read_file(path)?, &path.display().to_string(), opts)
+    read_readings(open_file(path)?, &path.display().to_string(), opts)
 }
 
 /// Reads readings from any reader; `path` names the source in errors.
@@ -405,11 +451,7 @@ pub fn read_readings<R: io::Read>(
     path: &str,
     opts: &ReadOptions<'_>,
 ) -> Result<Readings, DataError> {
-    readings_from_bytes(slurp(reader, path)?, path, opts)
-}
-
-fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Result<Readings, DataError> {
-    let (src, rows, skipped) = read_rows(data, path, opts, READINGS_EXPECTED, false, Source::reading_row)?;
+    let (src, rows, skipped) = read_rows(reader, path, opts, READINGS_EXPECTED, false, Source::reading_row)?;
     Ok(Readings {
         path: path.to_string(),
         headers: src.headers,
@@ -420,21 +462,100 @@ fn readings_from_bytes(data: Vec<u8>, path: &str, opts: &ReadOptions<'_>) -> Res
     })
 }
 
+/// Readings read one row at a time, for a caller that handles each row and lets it go (memory flat in the
+/// row count): [`ReadingsStream::next_row`] until `None`, then [`ReadingsStream::finish`].
+pub struct ReadingsStream<'o, R: io::Read> {
+    src: Source<'o, R>,
+    skip_bad_rows: bool,
+    good: usize,
+    /// Rows skipped for bad values so far (only when skipping bad rows).
+    pub skipped: Vec<RowError>,
+    rec: ByteRecord,
+}
+
+impl<'o, R: io::Read> ReadingsStream<'o, R> {
+    /// Opens a readings source and checks its header; `path` names it in errors.
+    pub fn open(reader: R, path: &str, opts: &ReadOptions<'o>) -> Result<Self, DataError> {
+        let src = Source::open(reader, path, opts, READINGS_EXPECTED, false)?;
+        Ok(ReadingsStream {
+            src,
+            skip_bad_rows: opts.skip_bad_rows,
+            good: 0,
+            skipped: Vec::new(),
+            rec: ByteRecord::new(),
+        })
+    }
+
+    /// Every header field, in order, as read (trimmed).
+    pub fn headers(&self) -> &[String] {
+        &self.src.headers
+    }
+
+    /// Where the columns are.
+    pub fn columns(&self) -> &Columns {
+        &self.src.columns
+    }
+
+    /// The distinct unit serials met so far, in order of first appearance.
+    pub fn units(&self) -> &[String] {
+        &self.src.units.names
+    }
+
+    /// The next good row; a bad row is an error, or skipped and kept in [`ReadingsStream::skipped`] when
+    /// the options say so. `None` at the end of the file.
+    pub fn next_row(&mut self) -> Result<Option<ReadingRow>, DataError> {
+        let mut rec = std::mem::take(&mut self.rec);
+        let out = loop {
+            let Some(line) = self.src.next(&mut rec)? else { break Ok(None) };
+            match self.src.reading_row(&rec, line) {
+                Ok(row) => {
+                    self.good += 1;
+                    break Ok(Some(row));
+                }
+                Err(e) if self.skip_bad_rows => self.skipped.push(*e),
+                Err(e) => break Err(DataError::Value(e)),
+            }
+        };
+        self.rec = rec;
+        out
+    }
+
+    /// The end of the file: an error if no row was good.
+    pub fn finish(mut self) -> Result<Vec<RowError>, DataError> {
+        finish(&self.src.path, self.good, &mut self.skipped)?;
+        Ok(self.skipped)
+    }
+}
+
+/// Opens a readings file for [`ReadingsStream`].
+pub fn open_readings_file<'o>(
+    path: &Path,
+    opts: &ReadOptions<'o>,
+) -> Result<ReadingsStream<'o, std::fs::File>, DataError> {
+    ReadingsStream::open(open_file(path)?, &path.display().to_string(), opts)
+}
+
+/// What [`read_rows`] gives back: the source (for its header), the good rows and the skipped ones.
+type RowsRead<'o, R, T> = (Source<'o, R>, Vec<T>, Vec<RowError>);
+
 /// Every row of a file as `row` reads it: a bad row is an error, or skipped and kept when the options say
 /// so; a file without a good row is an error.
-fn read_rows<'o, T>(
-    data: Vec<u8>,
+fn read_rows<'o, R: io::Read, T>(
+    reader: R,
     path: &str,
     opts: &ReadOptions<'o>,
     expected: &'static str,
     need_ratio: bool,
-    mut row: impl FnMut(&mut Source<'o>, &ByteRecord, u64) -> Result<T, Box<RowError>>,
-) -> Result<(Source<'o>, Vec<T>, Vec<RowError>), DataError> {
-    let mut src = Source::open(data, path, opts, expected, need_ratio)?;
+    mut row: impl FnMut(&mut Source<'o, R>, &ByteRecord, u64) -> Result<T, Box<RowError>>,
+) -> Result<RowsRead<'o, R, T>, DataError> {
+    let mut src = Source::open(reader, path, opts, expected, need_ratio)?;
     let mut rows = Vec::new();
     let mut skipped = Vec::new();
     let mut rec = ByteRecord::new();
     while let Some(line) = src.next(&mut rec)? {
+        if rows.len() >= MAX_CALIBRATION_ROWS {
+            return Err(DataError::TooManyRows { path: path.to_string(), line, max: MAX_CALIBRATION_ROWS });
+        }
         match row(&mut src, &rec, line) {
             Ok(row) => rows.push(row),
             Err(e) if opts.skip_bad_rows => skipped.push(*e),
@@ -445,14 +566,13 @@ fn read_rows<'o, T>(
     Ok((src, rows, skipped))
 }
 
-fn read_file(path: &Path) -> Result<Vec<u8>, DataError> {
-    Ok(std::fs::read(path).map_err(|source| FileError::io(path, source))?)
-}
-
-fn slurp<R: io::Read>(mut reader: R, path: &str) -> Result<Vec<u8>, DataError> {
-    let mut data = Vec::new();
-    reader.read_to_end(&mut data).map_err(|source| FileError::Io { path: path.to_string(), source })?;
-    Ok(data)
+fn open_file(path: &Path) -> Result<std::fs::File, DataError> {
+    let file = std::fs::File::open(path).map_err(|source| FileError::io(path, source))?;
+    if file.metadata().is_ok_and(|m| m.is_dir()) {
+        let source = io::Error::new(io::ErrorKind::IsADirectory, "is a folder: expected a CSV file");
+        return Err(FileError::io(path, source).into());
+    }
+    Ok(file)
 }
 
 fn finish(path: &str, good: usize, skipped: &mut Vec<RowError>) -> Result<(), DataError> {
@@ -474,9 +594,57 @@ struct Units {
     index: HashMap<Vec<u8>, u32>,
 }
 
+/// The bytes read from a source that the line count still needs: from the start of the current record to
+/// where the CSV parser has read. Bounded by [`MAX_LINE_BYTES`] (plus the parser's read-ahead).
+#[derive(Default)]
+struct Window {
+    /// File offset of `bytes[0]`.
+    base: u64,
+    bytes: Vec<u8>,
+}
+
+/// A reader that keeps the [`Window`] of what it reads, and refuses a stretch without a row longer than
+/// [`MAX_LINE_BYTES`].
+struct Tap<R> {
+    inner: R,
+    window: Rc<RefCell<Window>>,
+}
+
+impl<R: io::Read> io::Read for Tap<R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        let mut w = self.window.borrow_mut();
+        w.bytes.extend_from_slice(buf.get(..n).unwrap_or(&[]));
+        if w.bytes.len() > MAX_LINE_BYTES + READ_AHEAD {
+            return Err(io::Error::new(io::ErrorKind::InvalidData, LineTooLong));
+        }
+        Ok(n)
+    }
+}
+
+/// The CSV parser's buffer.
+const READ_AHEAD: usize = 64 * 1024;
+
+/// The error of a stretch without a row longer than [`MAX_LINE_BYTES`].
+#[derive(Debug)]
+struct LineTooLong;
+
+impl fmt::Display for LineTooLong {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(
+            f,
+            "more than {} MiB without the end of a row (a binary file, or a device that never ends a line); expected CSV text",
+            MAX_LINE_BYTES >> 20
+        )
+    }
+}
+
+impl std::error::Error for LineTooLong {}
+
 /// An open CSV source with its header checked.
-struct Source<'o> {
-    csv: csv::Reader<io::Cursor<Vec<u8>>>,
+struct Source<'o, R: io::Read> {
+    csv: csv::Reader<Tap<io::Chain<io::Cursor<Vec<u8>>, R>>>,
+    window: Rc<RefCell<Window>>,
     lines: LineCounter,
     /// The line the current record starts on.
     line: u64,
@@ -488,9 +656,20 @@ struct Source<'o> {
     units: Units,
 }
 
-impl<'o> Source<'o> {
+/// Reads up to `n` bytes from the start of `reader` (fewer at its end).
+fn peek<R: io::Read>(reader: &mut R, n: usize, path: &str) -> Result<Vec<u8>, DataError> {
+    let mut head = Vec::with_capacity(n);
+    reader
+        .by_ref()
+        .take(n as u64)
+        .read_to_end(&mut head)
+        .map_err(|source| FileError::Io { path: path.to_string(), source })?;
+    Ok(head)
+}
+
+impl<'o, R: io::Read> Source<'o, R> {
     fn open(
-        mut data: Vec<u8>,
+        mut reader: R,
         path: &str,
         opts: &ReadOptions<'o>,
         expected: &'static str,
@@ -499,15 +678,34 @@ impl<'o> Source<'o> {
         if !(1..=24).contains(&opts.adc_bits) {
             return Err(DataError::AdcBits { bits: opts.adc_bits });
         }
-        if data.starts_with(b"\xEF\xBB\xBF") {
-            data.drain(..3);
+        // The start of the file tells text from what is not: a UTF-8 byte-order mark is dropped; UTF-16
+        // and binary files are refused by name rather than parsed into nonsense.
+        let mut head = peek(&mut reader, 4096, path)?;
+        if head.starts_with(b"\xEF\xBB\xBF") {
+            head.drain(..3);
+        } else if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
+            return Err(DataError::NotText {
+                path: path.to_string(),
+                what: "UTF-16 text (it starts with a UTF-16 byte-order mark); save it as UTF-8",
+            });
         }
-        let mut csv =
-            csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(io::Cursor::new(data));
+        if head.contains(&0) {
+            return Err(DataError::NotText {
+                path: path.to_string(),
+                what: "binary data (a NUL byte in its first 4 KiB), or text in an encoding such as UTF-16; expected CSV text in UTF-8",
+            });
+        }
+        let window = Rc::new(RefCell::new(Window::default()));
+        let tap = Tap { inner: io::Cursor::new(head).chain(reader), window: Rc::clone(&window) };
+        let mut csv = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .flexible(true)
+            .buffer_capacity(READ_AHEAD)
+            .from_reader(tap);
         let mut lines = LineCounter::default();
         let mut head = ByteRecord::new();
         if let Err(e) = csv.read_byte_record(&mut head) {
-            return Err(csv_error(path, &e, &mut lines, csv.get_ref().get_ref()));
+            return Err(csv_error(path, &e, &mut lines, &window));
         }
         let headers: Vec<String> =
             head.iter().map(|h| String::from_utf8_lossy(h).trim().to_string()).collect();
@@ -520,7 +718,7 @@ impl<'o> Source<'o> {
             if let (Some(a), Some((b, _))) = (first, hits.next()) {
                 return Err(DataError::DuplicateColumn {
                     path: path.to_string(),
-                    name: headers[b].clone(),
+                    name: printable(&headers[b]),
                     first: a + 1,
                     second: b + 1,
                 });
@@ -531,7 +729,7 @@ impl<'o> Source<'o> {
             path: path.to_string(),
             column,
             expected: what,
-            found: headers.join(","),
+            found: printable(&headers.join(",")),
         };
         let code = find("code")?.ok_or_else(|| missing("code", "the log channel's ADC code"))?;
         let (tc, tcode) = (find("temp_c")?, find("temp_code")?);
@@ -567,6 +765,7 @@ impl<'o> Source<'o> {
             Columns { code, temperature, temperature_kind, ratio, unit, weight, count: headers.len() };
         Ok(Source {
             csv,
+            window,
             lines,
             line: 0,
             path: path.to_string(),
@@ -583,11 +782,11 @@ impl<'o> Source<'o> {
         match self.csv.read_byte_record(rec) {
             Ok(true) => {
                 let start = rec.position().map_or(0, |p| p.byte());
-                self.line = self.lines.line_at(self.csv.get_ref().get_ref(), start);
+                self.line = self.lines.line_at(&mut self.window.borrow_mut(), start);
                 Ok(Some(self.line))
             }
             Ok(false) => Ok(None),
-            Err(e) => Err(csv_error(&self.path, &e, &mut self.lines, self.csv.get_ref().get_ref())),
+            Err(e) => Err(csv_error(&self.path, &e, &mut self.lines, &self.window)),
         }
     }
 
@@ -630,11 +829,21 @@ impl<'o> Source<'o> {
     fn temperature(&self, rec: &ByteRecord) -> Result<Result<f64, logtrim::Error>, Box<RowError>> {
         let c = self.columns.temperature;
         let raw = field(rec, c);
+        let (lo, hi) = TEMPERATURE_SPAN_C;
+        let plausible = |t: f64| {
+            if !t.is_finite() {
+                Err(Problem::NotFinite)
+            } else if !(lo..=hi).contains(&t) {
+                Err(Problem::Implausible { min: lo, max: hi })
+            } else {
+                Ok(t)
+            }
+        };
         match self.columns.temperature_kind {
             TemperatureColumn::Celsius => parse_f64(raw)
-                .and_then(|t| if t.is_finite() { Ok(t) } else { Err(Problem::NotFinite) })
+                .and_then(plausible)
                 .map(Ok)
-                .map_err(|p| self.err(rec, c, p, "a finite temperature in °C".into())),
+                .map_err(|p| self.err(rec, c, p, format!("a finite temperature in °C within {lo} … {hi}"))),
             TemperatureColumn::Code => {
                 let code = parse_code(raw, u32::MAX).map_err(|p| {
                     self.err(rec, c, p, "a non-negative integer code of the temperature channel".into())
@@ -643,10 +852,9 @@ impl<'o> Source<'o> {
                     return Ok(Err(logtrim::Error::NotCalibrated));
                 };
                 match conv(code) {
-                    Ok(t) if t.is_finite() => Ok(Ok(t)),
-                    Ok(_) => {
-                        Err(self.err(rec, c, Problem::NotFinite, "a code the sensor converts to °C".into()))
-                    }
+                    Ok(t) => plausible(t).map(Ok).map_err(|p| {
+                        self.err(rec, c, p, format!("a code the sensor converts to °C within {lo} … {hi}"))
+                    }),
                     Err(e) => Ok(Err(e)),
                 }
             }
@@ -654,7 +862,10 @@ impl<'o> Source<'o> {
     }
 
     fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<RowError>> {
-        positive(field(rec, c)).map_err(|p| self.err(rec, c, p, "a positive finite ratio I_sig/I_ref".into()))
+        let (lo, hi) = RATIO_SPAN;
+        plausible_positive(field(rec, c)).map_err(|p| {
+            self.err(rec, c, p, format!("a positive finite ratio I_sig/I_ref within {lo:e} … {hi:e}"))
+        })
     }
 
     fn unit(&mut self, rec: &ByteRecord) -> Result<Option<u32>, Box<RowError>> {
@@ -696,9 +907,10 @@ impl<'o> Source<'o> {
             None => f64::NAN, // not reached: the header check requires a ratio column
         };
         let weight = match self.columns.weight {
-            Some(c) => {
-                positive(field(rec, c)).map_err(|p| self.err(rec, c, p, "a positive finite weight".into()))?
-            }
+            Some(c) => plausible_positive(field(rec, c)).map_err(|p| {
+                let (lo, hi) = RATIO_SPAN;
+                self.err(rec, c, p, format!("a positive finite weight within {lo:e} … {hi:e}"))
+            })?,
             None => 1.0,
         };
         let unit = self.unit(rec)?;
@@ -722,30 +934,60 @@ impl<'o> Source<'o> {
     }
 }
 
-fn csv_error(path: &str, e: &csv::Error, lines: &mut LineCounter, data: &[u8]) -> DataError {
-    let line = e.position().map_or(0, |p| lines.line_at(data, p.byte()));
-    DataError::Csv { path: path.to_string(), line, message: e.to_string() }
+fn csv_error(path: &str, e: &csv::Error, lines: &mut LineCounter, window: &RefCell<Window>) -> DataError {
+    let line = e.position().map_or(0, |p| lines.line_at(&mut window.borrow_mut(), p.byte()));
+    if let csv::ErrorKind::Io(io) = e.kind() {
+        if io.get_ref().is_some_and(|inner| inner.is::<LineTooLong>()) {
+            // The long stretch starts after the last newline of the window.
+            let w = window.borrow();
+            let from = usize::try_from(lines.offset.saturating_sub(w.base)).unwrap_or(usize::MAX);
+            let newlines = w.bytes.get(from..).map_or(0, |b| b.iter().filter(|&&c| c == b'\n').count());
+            let line = lines.line + 1 + newlines as u64;
+            return DataError::Csv { path: path.to_string(), line, message: LineTooLong.to_string() };
+        }
+        return DataError::File(FileError::Io {
+            path: path.to_string(),
+            source: io::Error::new(io.kind(), io.to_string()),
+        });
+    }
+    DataError::Csv { path: path.to_string(), line, message: printable(&e.to_string()) }
+}
+
+/// Text with its control characters (NUL, escape, …) written as escapes, so that a file's bytes never
+/// reach the terminal raw.
+pub fn printable(s: &str) -> String {
+    if !s.chars().any(char::is_control) {
+        return s.to_string();
+    }
+    s.chars().map(|c| if c.is_control() { c.escape_default().to_string() } else { c.to_string() }).collect()
 }
 
 /// True line numbers from byte offsets. The CSV parser reports a record's position as where the previous
-/// read stopped, before any blank lines it skips; this counts newlines itself, moving forward only.
+/// read stopped, before any blank lines it skips; this counts newlines itself, moving forward only, in the
+/// [`Window`] of bytes read (which it trims as it goes).
 #[derive(Default)]
 struct LineCounter {
-    offset: usize,
+    offset: u64,
     line: u64,
 }
 
 impl LineCounter {
     /// The 1-based line of the first byte at or after `start` that is not a line terminator.
-    fn line_at(&mut self, data: &[u8], start: u64) -> u64 {
-        let mut at = usize::try_from(start).unwrap_or(usize::MAX).min(data.len());
-        while matches!(data.get(at), Some(b'\n' | b'\r')) {
+    fn line_at(&mut self, w: &mut Window, start: u64) -> u64 {
+        let rel = |at: u64| usize::try_from(at.saturating_sub(w.base)).unwrap_or(usize::MAX);
+        let mut at = start;
+        while matches!(w.bytes.get(rel(at)), Some(b'\n' | b'\r')) {
             at += 1;
         }
         if at >= self.offset {
-            let newlines = data.get(self.offset..at).map_or(0, |s| s.iter().filter(|&&b| b == b'\n').count());
+            let (from, to) = (rel(self.offset).min(w.bytes.len()), rel(at).min(w.bytes.len()));
+            let newlines = w.bytes.get(from..to).map_or(0, |s| s.iter().filter(|&&b| b == b'\n').count());
             self.line += newlines as u64;
             self.offset = at;
+            // Bytes before the current record are counted: let them go.
+            let drop = rel(at).min(w.bytes.len());
+            w.bytes.drain(..drop);
+            w.base += drop as u64;
         }
         self.line + 1
     }
@@ -785,12 +1027,15 @@ fn parse_f64(raw: &[u8]) -> Result<f64, Problem> {
     std::str::from_utf8(s).ok().and_then(|t| t.parse::<f64>().ok()).ok_or(Problem::NotNumber)
 }
 
-fn positive(raw: &[u8]) -> Result<f64, Problem> {
+fn plausible_positive(raw: &[u8]) -> Result<f64, Problem> {
     let v = parse_f64(raw)?;
+    let (lo, hi) = RATIO_SPAN;
     if !v.is_finite() {
         Err(Problem::NotFinite)
     } else if v <= 0.0 {
         Err(Problem::NotPositive)
+    } else if !(lo..=hi).contains(&v) {
+        Err(Problem::Implausible { min: lo, max: hi })
     } else {
         Ok(v)
     }

@@ -176,6 +176,19 @@ pub fn layers_from_files(
     Layers::new(trim, blank, limits, Some(fp)).map_err(LayerError::Refused)
 }
 
+/// The installed records that are bound to no calibration (factory fingerprint 0): the firmware applies
+/// such a record over any calibration, so a caller should warn. Names: `"trim"`, `"blank"`.
+pub fn unbound_records(layers: &Layers) -> Vec<&'static str> {
+    let mut v = Vec::new();
+    if layers.trim().is_some_and(|t| t.info().factory == 0) {
+        v.push("trim");
+    }
+    if layers.blank().is_some_and(|b| b.info().factory == 0) {
+        v.push("blank");
+    }
+    v
+}
+
 /// Why the field layers over a calibration could not be installed.
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]

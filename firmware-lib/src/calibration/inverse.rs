@@ -184,7 +184,15 @@ impl Calibration {
                 let f = z + h * (ez - beta) - w;
                 let d = one + h * ez;
                 if !(d > zero) {
-                    return Err(Error::InvalidCalibration(CalibrationDefect::Coefficient));
+                    // Past the turn of a negative bulk term. From z = w the iterates approach a root from
+                    // below (the function is concave), so they pass the turn only when no root lies before
+                    // it; `Calibration::validate` proves the turn beyond x_max: the reading is above range.
+                    // A NaN is a broken calibration.
+                    return Err(if d <= zero {
+                        Error::AboveRange
+                    } else {
+                        Error::InvalidCalibration(CalibrationDefect::Coefficient)
+                    });
                 }
                 let step = f / d;
                 z = z - step;

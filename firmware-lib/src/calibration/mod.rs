@@ -66,10 +66,12 @@ use crate::error::{CalibrationDefect, Error};
 #[cfg(doc)]
 use crate::math::Backend;
 use crate::math::{clenshaw, Real};
+use crate::physics::ZERO_CELSIUS_K;
 use crate::units::Unit;
 
 mod firmware;
 mod inverse;
+mod proof;
 #[cfg(feature = "reference")]
 mod reference;
 #[cfg(feature = "reference")]
@@ -89,12 +91,19 @@ pub const MAX_SERIES: usize = 6;
 pub const MAX_RESIDUAL: usize = 4;
 /// Upper bound on Newton steps for the bulk-resistance inversion.
 pub const NEWTON_STEPS: usize = 6;
+/// The largest level shift a calibration may state, codes (the converters reach 2^24 codes).
+pub const MAX_LEVEL_SHIFT: f32 = 67_108_864.0;
+/// The largest |x| a calibrated x range may reach, nepers (ratios of e^±100; the fixed path holds ±128).
+pub const MAX_ABS_X: f32 = 100.0;
+/// The highest temperature a calibration may cover, °C (no log-ratio front end works beyond it).
+pub const MAX_TEMPERATURE_C: f64 = 1000.0;
 /// Largest exponent passed to `exp` in the inversion: beyond it a reading is above any sane range.
 const MAX_EXP_ARG: f32 = 80.0;
 
 /// How ADC codes map to the front end's output.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct AdcScaling {
     /// Resolution of the converter in bits (1..=24); codes run from 0 to 2^bits − 1.
@@ -131,6 +140,7 @@ impl AdcScaling {
 /// The temperature range a unit was calibrated over.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TemperatureRange {
     /// Lowest calibrated temperature, °C.
@@ -144,6 +154,7 @@ pub struct TemperatureRange {
 /// The x range a unit was calibrated over.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct XRange {
     /// Lowest calibrated x = ln(I_sig/I_ref).
@@ -157,6 +168,7 @@ pub struct XRange {
 /// A Chebyshev series `Σ c_k T_k(τ)` of at most [`MAX_SERIES`] terms.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Series {
     /// Number of terms in use (0..=MAX_SERIES); a series of 0 terms is zero.
@@ -197,6 +209,7 @@ impl Series {
 /// The bias-current term β(τ) = exp(b₀ + b₁τ).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BiasTerm {
     /// Whether the term is part of the model (β = 0 when off).
@@ -222,6 +235,7 @@ impl BiasTerm {
 /// The generic residual `R(ξ, τ) = Σ r_ij T_i(ξ) T_j(τ)` added to x last.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Residual {
     /// Terms in ξ (0..=MAX_RESIDUAL); 0 switches the residual off.
@@ -250,6 +264,7 @@ impl Residual {
 /// The fitted model of one unit (see the module docs for the equations).
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Model {
     /// T_c: centre of the temperature normalisation, °C.
@@ -282,6 +297,7 @@ impl Model {
 /// Everything the firmware needs to correct readings of one unit.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Calibration {
     /// ADC scaling of the log channel.
@@ -297,6 +313,7 @@ pub struct Calibration {
 /// A corrected reading.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Reading {
     /// x = ln(I_sig/I_ref).
@@ -338,25 +355,38 @@ impl Calibration {
         }
     }
 
-    /// Checks that the calibration can be evaluated: bits, ranges, finite coefficients, a positive slope
-    /// over the temperature range (checked at both ends and the centre) and |q| < 1.
+    /// Checks that the calibration can be evaluated at every input it accepts, the one validation every
+    /// reader runs: bits and rail margin, a finite level shift within ±[`MAX_LEVEL_SHIFT`] codes, finite
+    /// ranges (temperatures within −273.15…1000 °C, x within ±[`MAX_ABS_X`] Np), every stored
+    /// coefficient finite (used or not) and every term within f32's range, and — proven over the whole
+    /// accepted temperature range, not at a few points (see the `proof` module) — a gain pole
+    /// `1 + q·τ > 0.05`, a positive slope, a model monotone in x up to the top of the x range, and a
+    /// residual that keeps the correction monotone.
     pub fn validate(&self) -> Result<(), Error> {
         use CalibrationDefect as D;
         let bad = |d| Err(Error::InvalidCalibration(d));
         let max = self.adc.max_code()?;
-        if self.adc.rail_margin.saturating_mul(2) >= max || !self.adc.level_shift_code.is_finite() {
+        if self.adc.rail_margin.saturating_mul(2) >= max {
             return bad(D::RailMargin);
+        }
+        let l = self.adc.level_shift_code;
+        if !(l.is_finite() && libm::fabsf(l) <= MAX_LEVEL_SHIFT) {
+            return bad(D::LevelShift);
         }
         let t = &self.temperature;
         if !(t.min_c.is_finite() && t.max_c.is_finite() && t.min_c < t.max_c)
             || !(t.extrapolation_k.is_finite() && t.extrapolation_k >= 0.0)
-            || t.min_c - t.extrapolation_k < -273.0
+            || f64::from(t.min_c) - f64::from(t.extrapolation_k) < -ZERO_CELSIUS_K
+            || f64::from(t.max_c) + f64::from(t.extrapolation_k) > MAX_TEMPERATURE_C
         {
             return bad(D::TemperatureRange);
         }
         let xr = &self.x_range;
         if !(xr.min.is_finite() && xr.max.is_finite() && xr.min < xr.max && xr.min_sensitivity.is_finite()) {
             return bad(D::XRange);
+        }
+        if !(libm::fabsf(xr.min) <= MAX_ABS_X && libm::fabsf(xr.max) <= MAX_ABS_X) {
+            return bad(D::XRangeLimit);
         }
         let m = &self.model;
         if !(m.t_center_c.is_finite()
@@ -368,7 +398,7 @@ impl Calibration {
             return bad(D::Normalisation);
         }
         let series_ok =
-            |s: &Series| usize::from(s.len) <= MAX_SERIES && s.terms().iter().all(|c| c.is_finite());
+            |s: &Series| usize::from(s.len) <= MAX_SERIES && s.coeffs.iter().all(|c| c.is_finite());
         let r = &m.residual;
         let residual_ok = usize::from(r.nx) <= MAX_RESIDUAL
             && usize::from(r.nt) <= MAX_RESIDUAL
@@ -385,15 +415,28 @@ impl Calibration {
         {
             return bad(D::Coefficient);
         }
-        let lo = t.min_c - t.extrapolation_k;
-        let hi = t.max_c + t.extrapolation_k;
-        for tc in [lo, 0.5 * (lo + hi), hi] {
-            let tau = m.tau(f64::from(tc));
-            let den = 1.0 + f64::from(m.pole) * tau;
-            let s = m.slope.eval(tau);
-            if !(den > 0.05 && s > 0.0 && s.is_finite()) {
-                return bad(D::ZeroSlope);
+        let taus = proof::tau_range(self);
+        if !(taus.0.is_finite() && taus.1.is_finite()) || !proof::magnitudes_ok(m, taus) {
+            return bad(D::Coefficient);
+        }
+        if m.bias.enabled {
+            // β(τ) = exp(b₀ + b₁τ) stays within f32 over the range.
+            let top = f64::from(m.bias.ln_beta0)
+                + libm::fabs(f64::from(m.bias.ln_beta1)) * libm::fmax(libm::fabs(taus.0), libm::fabs(taus.1));
+            if !(top < 60.0) {
+                return bad(D::Coefficient);
             }
+        }
+        for tau in [taus.0, taus.1] {
+            if !(1.0 + f64::from(m.pole) * tau > 0.05) {
+                return bad(D::Pole);
+            }
+        }
+        if !proof::slope_positive(m, taus) {
+            return bad(D::ZeroSlope);
+        }
+        if !proof::monotone_in_x(self, taus) || !proof::residual_ok(self, taus) {
+            return bad(D::NotMonotone);
         }
         Ok(())
     }

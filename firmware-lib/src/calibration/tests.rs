@@ -357,3 +357,112 @@ fn anchored_exp_and_ln_follow_libm() {
     assert!(worst_ln <= 1.0, "ln {worst_ln} of the bound");
     assert!(series > k / 2, "the walk must mostly use the series: {series} of {k}");
 }
+
+/// Every correction over a dense grid of accepted inputs: none reports an invalid calibration.
+fn never_invalid(c: &Calibration) {
+    let t = c.temperature;
+    let (lo, hi) = (t.min_c - t.extrapolation_k, t.max_c + t.extrapolation_k);
+    let max = c.adc.max_code().unwrap();
+    for i in 0..=200 {
+        let temp = lo + (hi - lo) * i as f32 / 200.0;
+        for k in 0..=256u32 {
+            let code = (u64::from(max) * u64::from(k) / 256) as u32;
+            let r = c.correct(code, temp);
+            assert!(!matches!(r, Err(Error::InvalidCalibration(_))), "{code} at {temp}: {r:?}");
+        }
+    }
+}
+
+#[test]
+fn a_slope_positive_at_three_points_but_negative_between_them_is_refused() {
+    // P_s = 1 + 3·T_4(τ): 4 at τ = −1, 0 and 1, but T_4(±0.5) = −0.5 gives −0.5 there (T_4 = 8τ⁴ − 8τ² + 1,
+    // the Chebyshev polynomial's definition, common practice). Validation once looked at three points only.
+    let mut c = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+    c.temperature = TemperatureRange { min_c: -25.0, max_c: 75.0, extrapolation_k: 0.0 };
+    c.model.slope = Series::from_slice(&[3000.0, 0.0, 0.0, 0.0, 9000.0]).unwrap();
+    assert_eq!(c.validate(), Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)));
+    // The same shape lifted clear of zero is proven positive everywhere, and never reports itself invalid.
+    c.model.slope = Series::from_slice(&[3000.0, 0.0, 0.0, 0.0, 1000.0]).unwrap();
+    assert_eq!(c.validate(), Ok(()));
+    never_invalid(&c);
+    // A dip to zero only inside the extrapolation band is found too.
+    c.temperature.extrapolation_k = 30.0;
+    c.model.slope = Series::from_slice(&[3000.0, 0.0, 0.0, 0.0, 0.0, 100.0]).unwrap();
+    assert!(
+        c.validate().is_ok() || c.validate() == Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope))
+    );
+    if c.validate().is_ok() {
+        never_invalid(&c);
+    }
+}
+
+#[test]
+fn a_bulk_term_that_overtakes_the_slope_is_refused_as_not_monotone() {
+    // A negative bulk term large enough that ∂code/∂x < 0 below the top of the x range somewhere in the
+    // temperature range: the inverse would not be unique there.
+    let mut c = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+    c.x_range = XRange { min: -8.0, max: 4.0, min_sensitivity: 0.1 };
+    // P_h·e^4 = −100·54.6 ≈ −5460 against a slope of ≈ 3000·T_K/T_ref: not monotone near x = 4.
+    c.model.bulk = Series::from_slice(&[-100.0]).unwrap();
+    assert_eq!(c.validate(), Err(Error::InvalidCalibration(CalibrationDefect::NotMonotone)));
+    // Negative only at the hot end (a bulk series that changes sign): still refused.
+    c.model.bulk = Series::from_slice(&[-30.0, -60.0]).unwrap();
+    assert_eq!(c.validate(), Err(Error::InvalidCalibration(CalibrationDefect::NotMonotone)));
+    // A small one stays monotone and is proven so.
+    c.model.bulk = Series::from_slice(&[-5.0, 2.0]).unwrap();
+    assert_eq!(c.validate(), Ok(()));
+    never_invalid(&c);
+}
+
+#[test]
+fn a_residual_that_folds_the_correction_is_refused() {
+    let mut c = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+    c.x_range = XRange { min: -5.0, max: 5.0, min_sensitivity: 0.0 };
+    c.model.residual.nx = 2;
+    c.model.residual.nt = 1;
+    c.model.residual.x_half_span = 5.0;
+    // R = −6·T_1(ξ) = −6·x₀/5: x = x₀ − 1.2·x₀ falls as x₀ rises.
+    c.model.residual.coeffs[MAX_RESIDUAL] = -6.0;
+    assert_eq!(c.validate(), Err(Error::InvalidCalibration(CalibrationDefect::NotMonotone)));
+    c.model.residual.coeffs[MAX_RESIDUAL] = -0.05;
+    assert_eq!(c.validate(), Ok(()));
+}
+
+#[test]
+fn each_defect_is_named_for_what_it_is() {
+    let ok = Calibration::nominal(16, 32768.0, 3000.0, 25.0);
+    let defect = |f: &dyn Fn(&mut Calibration)| {
+        let mut c = ok;
+        f(&mut c);
+        match c.validate() {
+            Err(Error::InvalidCalibration(d)) => d,
+            other => panic!("{other:?}"),
+        }
+    };
+    use CalibrationDefect as D;
+    assert_eq!(defect(&|c| c.adc.level_shift_code = f32::INFINITY), D::LevelShift);
+    assert_eq!(defect(&|c| c.adc.level_shift_code = 1e30), D::LevelShift);
+    assert_eq!(
+        defect(&|c| c.x_range = XRange { min: -200.0, max: 200.0, min_sensitivity: 0.1 }),
+        D::XRangeLimit
+    );
+    assert_eq!(defect(&|c| c.model.pole = -0.98), D::Pole);
+    // An unused coefficient that is not finite is refused by the one validation (as the image refuses it).
+    assert_eq!(defect(&|c| c.model.offset.coeffs[5] = f32::INFINITY), D::Coefficient);
+    assert_eq!(defect(&|c| c.model.residual.coeffs[15] = f32::NAN), D::Coefficient);
+    // A term beyond what f32 evaluates over the range.
+    assert_eq!(
+        defect(&|c| c.model.offset = Series::from_slice(&[0.0, 0.0, 0.0, 0.0, 0.0, 3e38]).unwrap()),
+        D::Coefficient
+    );
+    assert_eq!(defect(&|c| c.temperature.max_c = 5000.0), D::TemperatureRange);
+    for d in [D::LevelShift, D::XRangeLimit, D::Pole, D::NotMonotone] {
+        assert!(!std::format!("{d}").is_empty());
+    }
+}
+
+#[test]
+fn units_the_tests_use_are_proven_valid() {
+    assert_eq!(hard_unit().validate(), Ok(()));
+    assert_eq!(crate::test_units::bent(0.0).validate(), Ok(()));
+}

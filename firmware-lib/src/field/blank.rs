@@ -29,6 +29,7 @@ pub(super) const MAX_ABS_X_NP: i64 = 100;
 /// Every field of a blank record, unchecked: what [`Blank::new`] checks.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct BlankParts {
     /// Write counter, time and factory binding.

@@ -28,6 +28,7 @@ use crate::record::{BufferTooSmall, FormatError, RecordType};
 /// which factory calibration.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Default)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RecordInfo {
     /// The write counter: every new record (a clear included) takes the last one's plus one, so of two

@@ -215,9 +215,17 @@ pub fn fingerprint(calibration: &Calibration) -> Result<u32, crate::image::Write
 /// The fingerprint of the calibration in a checked image (equal to [`fingerprint`] of
 /// [`Image::calibration`]).
 pub fn fingerprint_of_image(image: &Image<'_>) -> u32 {
+    fingerprint_of_payloads(
+        image.section(image_layout::ranges::KIND).unwrap_or(&[]),
+        image.section(image_layout::model_f32::KIND).unwrap_or(&[]),
+    )
+}
+
+/// The fingerprint of a *ranges* payload and a *model_f32* payload.
+pub(crate) fn fingerprint_of_payloads(ranges: &[u8], model: &[u8]) -> u32 {
     let mut d = CRC32.digest();
-    d.update(image.section(image_layout::ranges::KIND).unwrap_or(&[]));
-    d.update(image.section(image_layout::model_f32::KIND).unwrap_or(&[]));
+    d.update(ranges);
+    d.update(model);
     d.finalize()
 }
 

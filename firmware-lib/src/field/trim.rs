@@ -65,7 +65,7 @@ const GAIN_AGREEMENT_Q30: i64 = 1 << 20;
 /// What kind of trim a record holds.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
-#[cfg_attr(feature = "serde", serde(rename_all = "snake_case"))]
+#[cfg_attr(feature = "serde", serde(rename_all = "snake_case", deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum TrimKind {
     /// The factory state: the trim was cleared (offset 0, gain 1, not evaluated).
@@ -109,6 +109,7 @@ impl TrimKind {
 /// A reference standard read in the f32 path: the factory reading and the known value, both x in Np.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Standard {
     /// x as the factory calibration reads the standard (before any trim).
@@ -120,6 +121,7 @@ pub struct Standard {
 /// A reference standard read in the fixed path, both x in Q24 Np.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedStandard {
     /// x as the factory fixed path reads the standard, Q24.
@@ -132,6 +134,7 @@ pub struct FixedStandard {
 /// must read. Stored in integer form, so both paths check the same numbers.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TrimLimits {
     /// Largest |o|, Q24 Np.
@@ -230,6 +233,7 @@ impl Default for TrimLimits {
 /// Every field of a trim record, unchecked: what [`Trim::new`] checks.
 #[derive(Debug, Clone, Copy, PartialEq)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct TrimParts {
     /// Write counter, time and factory binding.

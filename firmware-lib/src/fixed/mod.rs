@@ -157,6 +157,7 @@ pub const X_LIMIT: i32 = 100 << X_FRAC;
 /// The scalars of a fixed-point calibration: dimensions, scales and ranges (formats in the module docs).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedHeader {
     /// [`LAYOUT_VERSION`].
@@ -847,6 +848,7 @@ impl<'a> FixedCalibration<'a> {
 /// A corrected reading in fixed point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedReading {
     /// x = ln(I_sig/I_ref), Q24.

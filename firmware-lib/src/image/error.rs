@@ -46,6 +46,15 @@ pub enum ImageValueError {
         /// The field of the fixed section.
         field: &'static str,
     },
+    /// The fixed section was built from another calibration than the image's f32 sections (tables of
+    /// another unit spliced in, with the CRC recomputed): its `model_fingerprint` is not the fingerprint of
+    /// this image's *ranges* and *model_f32* payloads.
+    FixedOtherCalibration {
+        /// The fingerprint the fixed section carries.
+        stored: u32,
+        /// The fingerprint of this image's f32 sections.
+        found: u32,
+    },
     /// The fixed-point tables fail
     /// [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate).
     Fixed(Error),
@@ -190,6 +199,10 @@ impl fmt::Display for ImageValueError {
             ImageValueError::FixedMismatch { field } => {
                 write!(f, "fixed section's {field} disagrees with the ranges section")
             }
+            ImageValueError::FixedOtherCalibration { stored, found } => write!(
+                f,
+                "fixed section was built from calibration {stored:#010x}, not from this image's ({found:#010x})"
+            ),
             ImageValueError::Fixed(e) => write!(f, "fixed-point tables do not validate: {e}"),
         }
     }

@@ -124,7 +124,11 @@ fn len_u16(n: u64) -> u16 {
 }
 
 /// Decodes and checks the structure of a fixed section (step 1 in the docs of [`FixedSection`]).
-pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<FixedSection<'a>, ImageError> {
+pub(super) fn decode<'a>(
+    p: &Part<'a>,
+    calibration: &Calibration,
+    model_fingerprint: u32,
+) -> Result<FixedSection<'a>, ImageError> {
     if p.bytes().len() < lf::HEAD_LEN {
         return Err(p.short());
     }
@@ -182,6 +186,11 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
     }
     check_sizes(&header, sensor.as_ref(), &sizes)?;
     check_agreement(&header, calibration)?;
+    // The tables were built from this image's f32 model, not spliced in from another unit's.
+    let stored = p.u32(&lf::MODEL_FINGERPRINT)?;
+    if stored != model_fingerprint {
+        return Err(ImageValueError::FixedOtherCalibration { stored, found: model_fingerprint }.into());
+    }
     let want = payload_len(&sizes);
     let len = p.bytes().len();
     if len as u64 != want {
@@ -280,7 +289,9 @@ impl ExactSizeIterator for I16Values<'_> {}
 ///    ([`ImageValueError::FixedTableSize`]: `offset` must have `t_knots + 2` entries, `ln_bias` none without the
 ///    bias bend, …), the payload's length against those sizes ([`ImageError::SectionLength`]), and the
 ///    converter's largest code and rail margin against the *ranges* section
-///    ([`ImageValueError::FixedMismatch`]). After this the tables can be located and copied without any check.
+///    ([`ImageValueError::FixedMismatch`]), and the calibration the tables were built from (the section's
+///    `model_fingerprint`) against the image's own *ranges* and *model_f32* sections
+///    ([`ImageValueError::FixedOtherCalibration`]). After this the tables can be located and copied without any check.
 /// 2. [`FixedStorage::load`] (or [`Image::fixed_into`](super::Image::fixed_into)) copies the tables
 ///    ([`ImageError::FixedCapacity`] if they do not fit) and runs [`FixedCalibration::validate`] on the
 ///    result ([`ImageValueError::Fixed`]). Only then does [`FixedStorage::calibration`] lend it.

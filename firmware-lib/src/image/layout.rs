@@ -64,12 +64,12 @@ pub mod header {
     /// The four bytes every image starts with.
     pub const MAGIC_VALUE: [u8; 4] = RecordType::CalibrationImage.magic();
     /// The format version this build writes and reads.
-    pub const VERSION_VALUE: u16 = 1;
+    pub const VERSION_VALUE: u16 = 2;
 
     /// Magic.
     pub const MAGIC: Field = magic_field("`LTCI` (0x4C 0x54 0x43 0x49)");
     /// Format version.
-    pub const VERSION: Field = version_field("format version, 1");
+    pub const VERSION: Field = version_field("format version, 2");
     /// Number of sections in the body.
     pub const SECTION_COUNT: Field =
         VERSION.then("section_count", Kind::U16, "number of sections that follow");
@@ -376,9 +376,16 @@ pub mod fixed {
     pub const FAULT_FAR_ABOVE: Field = FAULT_ABOVE.then("fault_far_above", Kind::U8, "as `fault_below`");
     /// Padding.
     pub const RESERVED2: Field = FAULT_FAR_ABOVE.then("reserved2", Kind::Reserved(3), "zero");
+    /// The calibration the tables were built from: its fingerprint (CRC-32 of the *ranges* payload then the
+    /// *model_f32* payload, [`crate::field::fingerprint`]), checked against the image's own sections.
+    pub const MODEL_FINGERPRINT: Field = RESERVED2.then(
+        "model_fingerprint",
+        Kind::U32,
+        "CRC-32 of the ranges and model_f32 payloads the tables were built from",
+    );
 
     /// Length of the fixed part, before the tables.
-    pub const HEAD_LEN: usize = RESERVED2.end();
+    pub const HEAD_LEN: usize = MODEL_FINGERPRINT.end();
 
     /// The fields in order.
     pub const FIELDS: &[Field] = &[
@@ -421,6 +428,7 @@ pub mod fixed {
         FAULT_ABOVE,
         FAULT_FAR_ABOVE,
         RESERVED2,
+        MODEL_FINGERPRINT,
     ];
 
     /// O(T) control points.

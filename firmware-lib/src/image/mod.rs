@@ -35,7 +35,7 @@
 //! * The **trailer** is the CRC-32/ISO-HDLC of every byte before it ([`crate::record::crc32`]).
 //!
 //! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
-//! section of tables with 16 temperature knots and 40 x̃ knots it is 2 020 bytes, 2 164 with
+//! section of tables with 16 temperature knots and 40 x̃ knots it is 2 024 bytes, 2 168 with
 //! the bias bend and the sensitivity limit, and 524 bytes more with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
@@ -65,8 +65,10 @@
 //!    capacities, every stored f32 finite, and [`Calibration::validate`]. Then, if there is a fixed section,
 //!    its structure: flags, reserved and padding bytes, sensor fault codes, every table's size against the
 //!    section's own dimensions ([`ImageValueError::FixedTableSize`]), the payload length against those
-//!    sizes, and the converter against *ranges* ([`ImageValueError::FixedMismatch`]). The CRC cannot catch a
-//!    writer that stored a bad value with a correct CRC; these checks do.
+//!    sizes, the converter against *ranges* ([`ImageValueError::FixedMismatch`]), and the calibration the
+//!    tables were built from against the image's f32 sections ([`ImageValueError::FixedOtherCalibration`]:
+//!    tables of another unit spliced in). The CRC cannot catch a writer that stored a bad value with a
+//!    correct CRC; these checks do.
 //!
 //! The fixed section's table values are checked by [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate)
 //! when they are copied out ([`Image::fixed_into`], [`FixedStorage::load`]), before they can be used.

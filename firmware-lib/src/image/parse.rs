@@ -14,7 +14,7 @@ use crate::record::frame::{array, len_u32, Extent, Framing, Reader};
 use crate::record::layout::Field;
 use crate::record::RecordType;
 
-/// How an image is framed: `LTCI`, version 1, its total length a u32 at offset 8, from a header and a CRC
+/// How an image is framed: `LTCI`, version 2, its total length a u32 at offset 8, from a header and a CRC
 /// up to [`layout::MAX_LEN`].
 pub(super) const FRAMING: Framing = Framing {
     record: RecordType::CalibrationImage,
@@ -52,7 +52,9 @@ pub(super) fn parse(bytes: &[u8], extent: Extent) -> Result<(Image<'_>, &[u8]), 
     let serial = decode_serial(head.raw(&header::SERIAL)?)?;
     let calibration = decode(&ranges_part, &model_part)?;
     check_values(&calibration)?;
-    let fixed = found.fixed.as_ref().map(|p| fixed::decode(p, &calibration)).transpose()?;
+    let model_fingerprint = crate::field::fingerprint_of_payloads(ranges_part.bytes(), model_part.bytes());
+    let fixed =
+        found.fixed.as_ref().map(|p| fixed::decode(p, &calibration, model_fingerprint)).transpose()?;
     let image = Image {
         bytes: image,
         version: FRAMING.version,

@@ -42,7 +42,7 @@ fn fix_crc(img: &mut [u8]) {
 fn assemble(count: u16, sections: &[(u16, &[u8])]) -> Vec<u8> {
     let mut v = Vec::new();
     v.extend_from_slice(b"LTCI");
-    v.extend_from_slice(&1u16.to_le_bytes());
+    v.extend_from_slice(&2u16.to_le_bytes()); // format version 2
     v.extend_from_slice(&count.to_le_bytes());
     v.extend_from_slice(&[0; 4]); // total length, set below
     v.extend_from_slice(&9u32.to_le_bytes());
@@ -153,7 +153,7 @@ fn layout_parts_are_contiguous_and_sized() {
     assert_eq!(header::LEN, 40);
     assert_eq!(ranges::LEN, 32);
     assert_eq!(model_f32::LEN, 184);
-    assert_eq!(layout::fixed::HEAD_LEN, 92);
+    assert_eq!(layout::fixed::HEAD_LEN, 96);
     assert_eq!(layout::F32_IMAGE_LEN, 268);
     // Every table's count field is a u16 field of its own part.
     for t in layout::fixed::TABLES {
@@ -167,7 +167,7 @@ fn written_bytes_sit_where_the_layout_says() {
     // Read a few fields back by hand at their documented offsets, independently of the parser.
     let img = typical();
     assert_eq!(&img[0..4], b"LTCI");
-    assert_eq!(u16::from_le_bytes([img[4], img[5]]), 1);
+    assert_eq!(u16::from_le_bytes([img[4], img[5]]), 2);
     assert_eq!(u16::from_le_bytes([img[6], img[7]]), 2);
     assert_eq!(u32::from_le_bytes(img[8..12].try_into().unwrap()), 268);
     assert_eq!(u32::from_le_bytes(img[12..16].try_into().unwrap()), 3);
@@ -196,7 +196,7 @@ fn round_trip_with_accessors() {
     assert_eq!(parsed.serial(), "OPM-3-000417");
     assert_eq!(parsed.calibrated_at(), 1_764_614_400);
     assert_eq!(parsed.sequence(), 3);
-    assert_eq!(parsed.version(), 1);
+    assert_eq!(parsed.version(), 2);
     assert_eq!(parsed.len(), 268);
     assert_eq!(parsed.as_bytes(), &img[..]);
     let kinds: Vec<u16> = parsed.sections().map(|s| s.kind).collect();
@@ -255,7 +255,7 @@ prop_compose! {
     fn calibration()(
         bits in 8u8..=24,
         margin_frac in 0.0f64..0.2,
-        level in finite(),
+        level in -1e7f32..1e7,
         t_min in -60.0f32..40.0,
         t_span in 5.0f32..150.0,
         extra in 0.0f32..10.0,
@@ -264,22 +264,24 @@ prop_compose! {
         min_sens in finite(),
         pole in -0.5f32..0.5,
         t_ref in 150.0f32..500.0,
-        offset in series(finite(), finite()),
+        offset in series(-1e6f32..1e6, -1e6f32..1e6),
         slope_len in 1..=MAX_SERIES as u8,
         slope_c0 in 100.0f32..5000.0,
         slope_rest in proptest::array::uniform5(-0.04f32..0.04),
-        bulk in series(finite(), finite()),
-        bias in (any::<bool>(), -60.0f32..29.0, finite(), finite()),
+        bulk in series(0.0f32..1.0, 0.0f32..1.0),
+        bias in (any::<bool>(), -60.0f32..29.0, -20.0f32..20.0, -1e6f32..1e6),
         res_dims in (0..=MAX_RESIDUAL as u8, 0..=MAX_RESIDUAL as u8),
-        res_norm in (finite(), 1e-3f32..100.0),
-        res in proptest::array::uniform16(finite()),
+        res_norm in (-20.0f32..20.0, 1.0f32..100.0),
+        res in proptest::array::uniform16(-1e-5f32..1e-5),
     ) -> Calibration {
         let mut c = Calibration::nominal(bits, level, slope_c0, 25.0);
         let max = (1u64 << bits) - 1;
         c.adc.rail_margin = (max as f64 * margin_frac) as u32;
         c.temperature = TemperatureRange { min_c: t_min, max_c: t_min + t_span, extrapolation_k: extra };
         c.x_range = XRange { min: x_min, max: x_min + x_span, min_sensitivity: min_sens };
-        // Normalise τ over the range with its excursions so |τ| ≤ 1, where the slope series stays positive.
+        // Values within what `Calibration::validate` proves usable (a level shift within ±2^26 codes, terms f32
+        // evaluates, a model monotone in x). Normalise τ over the range with its excursions so |τ| ≤ 1, where
+        // the slope series stays positive.
         c.model.t_center_c = t_min + 0.5 * t_span;
         c.model.t_half_span_k = 0.5 * t_span + extra + 1.0;
         c.model.t_ref_k = t_ref;
@@ -474,12 +476,15 @@ fn erased_blank_and_foreign_memory_are_not_images() {
 #[test]
 fn header_errors() {
     let img = typical();
-    let mut v = img.clone();
-    v[4] = 2;
-    assert_eq!(
-        Image::parse(&v).unwrap_err(),
-        ImageError::Format(FormatError::UnsupportedVersion { found: 2, supported: 1 })
-    );
+    // Another version, older (version 1 had no binding of the fixed section) or newer, is refused by name.
+    for found in [1u16, 3] {
+        let mut v = img.clone();
+        v[4..6].copy_from_slice(&found.to_le_bytes());
+        assert_eq!(
+            Image::parse(&v).unwrap_err(),
+            ImageError::Format(FormatError::UnsupportedVersion { found, supported: 2 })
+        );
+    }
     for bad in [0u32, 43, 262, 65540, u32::MAX] {
         let mut v = img.clone();
         v[8..12].copy_from_slice(&bad.to_le_bytes());
@@ -858,6 +863,60 @@ mod fixed_section {
         v
     }
 
+    /// Issue 20, item 8: an image whose f32 model and fixed tables come from different units (sections
+    /// spliced, the CRC recomputed) is refused; the fixed section carries the fingerprint of the f32
+    /// calibration it was built from.
+    #[test]
+    fn item08_fixed_tables_spliced_from_another_unit_are_refused() {
+        let tables = owned(5, true, true);
+        let a = hard_unit();
+        let mut b = hard_unit();
+        b.model.offset.coeffs[0] += 1.0;
+        assert_eq!(b.validate(), Ok(()));
+        let write_of = |cal: &Calibration| {
+            let len = encoded_len_with_fixed(cal, Some(&tables.view()), &[]).unwrap();
+            let mut buf = vec![0u8; len];
+            write_with_fixed(&mut buf, &INFO, cal, Some(&tables.view()), &[]).unwrap();
+            buf
+        };
+        let (img_a, img_b) = (write_of(&a), write_of(&b));
+        assert_eq!(img_a.len(), img_b.len());
+        let at = |f: &crate::record::layout::Field| P0 + f.offset;
+        // Each image stores the fingerprint of its own f32 sections (the one field records are bound to).
+        let stored = |img: &[u8]| {
+            u32::from_le_bytes(
+                img[at(&lf::MODEL_FINGERPRINT)..at(&lf::MODEL_FINGERPRINT) + 4].try_into().unwrap(),
+            )
+        };
+        let (fa, fb) = (crate::field::fingerprint(&a).unwrap(), crate::field::fingerprint(&b).unwrap());
+        assert_ne!(fa, fb);
+        assert_eq!(stored(&img_a), fa);
+        assert_eq!(stored(&img_b), fb);
+        assert!(Image::parse(&img_a).is_ok() && Image::parse(&img_b).is_ok());
+        // A's f32 sections with B's fixed section (identical tables, another calibration), and the reverse.
+        let fixed_start = P0 - section::HEADER_LEN;
+        let end = img_a.len() - trailer::LEN;
+        for (f32_of, fixed_of, want_stored, want_found) in
+            [(&img_a, &img_b, fb, fa), (&img_b, &img_a, fa, fb)]
+        {
+            let mut spliced = f32_of[..fixed_start].to_vec();
+            spliced.extend_from_slice(&fixed_of[fixed_start..end]);
+            spliced.extend_from_slice(&[0; 4]);
+            fix_crc(&mut spliced);
+            assert_eq!(
+                Image::parse(&spliced).map(|_| ()),
+                Err(ImageError::Value(ImageValueError::FixedOtherCalibration {
+                    stored: want_stored,
+                    found: want_found
+                }))
+            );
+        }
+        // A fingerprint edited in place is refused the same way, and names both calibrations.
+        let e = Image::parse(&edit(&img_a, at(&lf::MODEL_FINGERPRINT), &[0; 4])).unwrap_err();
+        assert_eq!(e, ImageError::Value(ImageValueError::FixedOtherCalibration { stored: 0, found: fa }));
+        assert!(std::format!("{e}").contains(&std::format!("{fa:#010x}")), "{e}");
+    }
+
     /// Every correction the tables can be asked for, on a grid of log codes, temperatures and sensor codes.
     fn corrections(c: &FixedCalibration<'_>) -> Vec<Result<crate::fixed::FixedReading, Error>> {
         let mut out = Vec::new();
@@ -937,7 +996,7 @@ mod fixed_section {
     fn every_single_bit_flip_of_an_image_with_the_section_is_rejected() {
         let img = image_with(&owned(5, true, true).view());
         // 268 bytes of the f32 image (CRC included), the section header, its fields and its tables.
-        assert_eq!(img.len(), 268 + 4 + 92 + 4 * (4 * 7 + 19) + 2 * 56);
+        assert_eq!(img.len(), 268 + 4 + 96 + 4 * (4 * 7 + 19) + 2 * 56);
         assert_eq!(check_every_bit_flip(&img), img.len() * 8);
     }
 
@@ -1041,7 +1100,7 @@ mod fixed_section {
         let v = assemble(3, &[(ranges::KIND, &r), (model_f32::KIND, &m), (lf::KIND, &fixed[..40])]);
         assert_eq!(
             Image::parse(&v).unwrap_err(),
-            ImageError::SectionLength { kind: lf::KIND, found: 40, expected: 92 }
+            ImageError::SectionLength { kind: lf::KIND, found: 40, expected: 96 }
         );
         // In another order, and twice.
         let v = assemble(3, &[(lf::KIND, &fixed), (model_f32::KIND, &m), (ranges::KIND, &r)]);
@@ -1110,7 +1169,7 @@ mod fixed_section {
         // A zero inverse slope with a correct CRC (a faulty writer elsewhere): the structure is fine, the
         // tables fail `FixedCalibration::validate` when they are loaded, and nothing is lent.
         let img = image_with(&owned(5, true, true).view());
-        let inv0 = P0 + 92 + 4 * 7 + 4 * 3; // inv_slope[3]
+        let inv0 = P0 + 96 + 4 * 7 + 4 * 3; // inv_slope[3]
         let bad = edit(&img, inv0, &0i32.to_le_bytes());
         let parsed = Image::parse(&bad).unwrap();
         let mut storage = Small::new();
@@ -1255,7 +1314,7 @@ mod fixed_section {
         // The newer image's tables do not validate (correct CRC): the older one is used.
         let mut bad = b.clone();
         let n = bad.len() - 40;
-        bad[P0 + 92 + 28..P0 + 92 + 32].copy_from_slice(&0i32.to_le_bytes()); // inv_slope[0]
+        bad[P0 + 96 + 28..P0 + 96 + 32].copy_from_slice(&0i32.to_le_bytes()); // inv_slope[0]
         fix_crc(&mut bad[..n]);
         assert!(Image::parse_prefix(&bad).is_ok(), "the structure is fine");
         let (s, c) = slots::select_fixed(&a, &bad, &mut storage).unwrap();
@@ -1285,7 +1344,7 @@ mod fixed_section {
         /// what does not load is refused with an error, not a panic.
         #[test]
         fn corrupted_fixed_sections_are_refused_or_canonical(
-            edits in proptest::collection::vec((P0..P0 + 92 + 200, any::<u8>()), 1..5),
+            edits in proptest::collection::vec((P0..P0 + 96 + 200, any::<u8>()), 1..5),
             seed in 0u32..1000,
         ) {
             let o = owned(seed, true, true);

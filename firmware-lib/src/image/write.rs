@@ -125,7 +125,8 @@ fn fill(
     at = put_section(w, at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
     if let Some(f) = fixed {
         let (len, _) = check_for_write(f, calibration)?;
-        at = put_section(w, at, lf::KIND, len, |p| put_fixed(p, f))?;
+        let model = crate::field::fingerprint(calibration)?;
+        at = put_section(w, at, lf::KIND, len, |p| put_fixed(p, f, model))?;
     }
     for s in extra {
         at = put_section(w, at, s.kind, s.payload.len(), |p| Ok(p.put_at(0, s.payload)?))?;
@@ -208,7 +209,7 @@ fn put_model(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
 /// Writes the fixed section's payload (sizes already checked by [`check_for_write`]): the fields, then the
 /// tables back to back in the layout's order, then zero padding (the buffer is written in full, so the
 /// padding is written explicitly).
-fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteError> {
+fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>, model_fingerprint: u32) -> Result<(), WriteError> {
     let h = &f.header;
     let count =
         |n: usize| u16::try_from(n).map_err(|_| WriteError::SectionTooLong { kind: lf::KIND, len: u32::MAX });
@@ -270,6 +271,7 @@ fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>) -> Result<(), WriteEr
         }
     }
     w.put(&lf::RESERVED2, &[0; 3])?;
+    w.u32(&lf::MODEL_FINGERPRINT, model_fingerprint)?;
     let mut at = lf::HEAD_LEN;
     for table in [f.offset, f.inv_slope, f.ln_bias, f.u_min, knots] {
         for v in table {

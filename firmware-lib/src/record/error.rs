@@ -7,6 +7,7 @@ use core::fmt;
 /// The records logtrim stores, each named by the four bytes it starts with.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 #[cfg_attr(feature = "serde", derive(serde::Serialize, serde::Deserialize))]
+#[cfg_attr(feature = "serde", serde(deny_unknown_fields))]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum RecordType {
     /// A blank record (`LTBK`, [`crate::field::Blank`]).

@@ -1,13 +1,15 @@
 //! `logtrim apply`: run the firmware's correction over a readings file and write the results as CSV.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use clap::{Args, ValueEnum};
-use logtrim_host::apply::write_results;
+use logtrim::field::Layers;
+use logtrim_host::apply::{write_results, ApplySummary, ResultsWriter};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::correct::{
-    correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, Arithmetic,
+    correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, sensor_converter, Arithmetic,
 };
+use logtrim_host::data::{open_readings_file, ReadOptions, Readings, TempConverter};
 use logtrim_host::output::AtomicFile;
 use logtrim_host::records::layers_from_files;
 
@@ -24,6 +26,9 @@ pub enum PathArg {
     /// with its default sizes.
     Fixed,
 }
+
+/// Rows corrected (in parallel) and written per chunk.
+const CHUNK_ROWS: usize = 1 << 16;
 
 /// Options of `logtrim apply`.
 #[derive(Args, Debug)]
@@ -89,9 +94,7 @@ fn correct_with(
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
         .map_err(crate::trim::layer_failure)?;
-    if matches!(args.path, PathArg::F32Micromath) {
-        eprintln!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
-    }
+    warn_unbound(&layers);
     let results = match args.path {
         PathArg::F32 => correct_rows_layered(&cal, readings, Arithmetic::F32, &layers),
         PathArg::F32Micromath => correct_rows_layered(&cal, readings, Arithmetic::F32Micromath, &layers),
@@ -105,8 +108,44 @@ fn correct_with(
     Ok((results, layers))
 }
 
-/// Runs the verb.
+/// Runs the verb. A readings file of one unit streams through in chunks; readings with a unit column, or a
+/// folder of calibrations, are corrected unit by unit.
 pub fn run(args: ApplyArgs) -> Result<(), Failure> {
+    crate::check_outputs(
+        &[Some(&args.coeffs), Some(&args.readings), args.trim.as_deref(), args.blank.as_deref()],
+        &[Some(&args.output)],
+        &[],
+    )?;
+    if matches!(args.path, PathArg::F32Micromath) {
+        note!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
+    }
+    if args.coeffs.is_dir() || has_unit_column(&args.readings) {
+        run_by_unit(&args)
+    } else {
+        run_streaming(&args)
+    }
+}
+
+/// Whether the readings file's header names a `unit` column (a file that cannot be opened is left to the
+/// streaming path, which reports why).
+fn has_unit_column(readings: &Path) -> bool {
+    let any_temperature = |_: u32| Ok(0.0);
+    let opts = ReadOptions { adc_bits: 24, skip_bad_rows: true, temp_converter: Some(&any_temperature) };
+    open_readings_file(readings, &opts).is_ok_and(|s| s.columns().unit.is_some())
+}
+
+/// A warning for each field record bound to no calibration (factory fingerprint 0).
+fn warn_unbound(layers: &Layers) {
+    for kind in logtrim_host::records::unbound_records(layers) {
+        note!(
+            "logtrim: warning: the {kind} record is bound to no calibration (factory fingerprint 0): it is applied to this one unchecked; records made by `logtrim {kind}` are bound to theirs"
+        );
+    }
+}
+
+/// Readings with a unit column, or a folder of calibrations: each unit's rows corrected with its own
+/// calibration (or only `--unit`'s), in memory, written in file order.
+fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
     let folder = args.coeffs.is_dir();
     // The readings are read as the firmware reads them: the calibration's bits and temperature sensor (of
     // the first calibration of a folder; every unit's must agree).
@@ -134,7 +173,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
     };
     let readings = read_unit_readings(&first, &args.readings, args.skip_bad_rows).map_err(Failure::input)?;
     for e in &readings.skipped {
-        eprintln!("skipped: {e}");
+        note!("skipped: {e}");
     }
     let (readings, results, layers) = if readings.units.is_empty() {
         if folder {
@@ -144,7 +183,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
                 args.readings.display()
             )));
         }
-        let (r, l) = correct_with(&args, &first, &readings, &args.coeffs)?;
+        let (r, l) = correct_with(args, &first, &readings, &args.coeffs)?;
         (readings, r, l)
     } else if let Some(u) = &args.unit {
         let Some(i) = readings.units.iter().position(|s| s == u) else {
@@ -158,9 +197,9 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         let sub = readings.of_unit(i as u32);
         let left_out = readings.rows.len() - sub.rows.len();
         if left_out > 0 {
-            println!("--unit {u}: {left_out} rows of other units left out");
+            say!("--unit {u}: {left_out} rows of other units left out");
         }
-        let (r, l) = correct_with(&args, &file, &sub, &args.coeffs)?;
+        let (r, l) = correct_with(args, &file, &sub, &args.coeffs)?;
         (sub, r, l)
     } else if !folder {
         let own = first.unit.clone().unwrap_or_default();
@@ -176,7 +215,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
                 if own.is_empty() { "an unnamed unit".to_string() } else { format!("unit {own:?}") }
             )));
         }
-        let (r, l) = correct_with(&args, &first, &readings, &args.coeffs)?;
+        let (r, l) = correct_with(args, &first, &readings, &args.coeffs)?;
         (readings, r, l)
     } else {
         // Each unit's rows with its own calibration, back in file order.
@@ -198,27 +237,98 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
                     first.unit.as_deref().unwrap_or("")
                 )));
             }
-            let (r, l) = correct_with(&args, &file, &readings.of_unit(i as u32), &args.coeffs)?;
+            let (r, l) = correct_with(args, &file, &readings.of_unit(i as u32), &args.coeffs)?;
             layers = l;
             for (k, v) in where_[i].iter().zip(r) {
                 results[*k] = v;
             }
         }
-        println!(
+        say!(
             "{} units, each corrected with its own calibration from {}",
             readings.units.len(),
             args.coeffs.display()
         );
         (readings, results, layers)
     };
-    let out = AtomicFile::create(&args.output)
+    let mut out = AtomicFile::create(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    let mut out = out;
     let summary = write_results(&readings, &results, &mut out).map_err(Failure::input)?;
     out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    report(&layers, &summary, &args.output)?;
+    Ok(())
+}
+
+/// One unit's readings streamed through in chunks: memory stays flat in the row count.
+fn run_streaming(args: &ApplyArgs) -> Result<(), Failure> {
+    let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
+    let cal = file.calibration;
+    let limits = args.limits.limits()?;
+    let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
+        .map_err(crate::trim::layer_failure)?;
+    warn_unbound(&layers);
+    let tables = match args.path {
+        PathArg::Fixed => Some(
+            file.fixed_tables(&logtrim_host::tables::TableOptions::default())
+                .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?,
+        ),
+        _ => None,
+    };
+    // The readings stream through in chunks: memory stays flat in the row count, and the output's
+    // temporary file is removed on any failure or signal.
+    let conv = sensor_converter(&file);
+    let opts = ReadOptions {
+        adc_bits: cal.adc.bits,
+        skip_bad_rows: args.skip_bad_rows,
+        temp_converter: conv.as_ref().map(|c| c as TempConverter<'_>),
+    };
+    let mut stream = open_readings_file(&args.readings, &opts).map_err(Failure::input)?;
+    let name = args.readings.display().to_string();
+    let out = AtomicFile::create(&args.output)
+        .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    let mut writer = ResultsWriter::new(stream.headers(), &name, out).map_err(Failure::input)?;
+    loop {
+        let mut rows = Vec::with_capacity(CHUNK_ROWS);
+        while rows.len() < CHUNK_ROWS {
+            match stream.next_row().map_err(Failure::input)? {
+                Some(r) => rows.push(r),
+                None => break,
+            }
+        }
+        if rows.is_empty() {
+            break;
+        }
+        let chunk = Readings {
+            path: name.clone(),
+            headers: stream.headers().to_vec(),
+            columns: stream.columns().clone(),
+            rows,
+            units: stream.units().to_vec(),
+            skipped: Vec::new(),
+        };
+        let results = match &tables {
+            None if args.path == PathArg::F32Micromath => {
+                correct_rows_layered(&cal, &chunk, Arithmetic::F32Micromath, &layers)
+            }
+            None => correct_rows_layered(&cal, &chunk, Arithmetic::F32, &layers),
+            Some(t) => correct_rows_fixed_layered(&t.view(), &chunk, &layers),
+        };
+        writer.write(&chunk, &results).map_err(Failure::input)?;
+    }
+    let skipped = stream.finish().map_err(Failure::input)?;
+    let (summary, out) = writer.finish().map_err(Failure::input)?;
+    out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
+    for e in &skipped {
+        note!("skipped: {e}");
+    }
+    report(&layers, &summary, &args.output)?;
+    Ok(())
+}
+
+/// What `apply` says after writing: the field layers in force and the rows corrected and rejected.
+fn report(layers: &Layers, summary: &ApplySummary, output: &Path) -> Result<(), Failure> {
     if let Some(t) = layers.trim() {
         let p = t.parts();
-        println!(
+        say!(
             "trim: {} (record {}), x' = g·x + o with g = {:.6}, o = {:+.6} Np",
             p.kind.name(),
             p.info.sequence,
@@ -227,7 +337,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         );
     }
     if let Some(b) = layers.blank() {
-        println!(
+        say!(
             "blank: x = {:+.6} Np at {:.2} °C (record {}, {} readings): values are relative to it",
             b.x(),
             f64::from(b.temp_mc()) / 1000.0,
@@ -236,7 +346,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         );
     }
     let by: Vec<String> = summary.by_error.iter().map(|(k, v)| format!("{v} {k}")).collect();
-    println!(
+    say!(
         "{} rows: {} corrected, {} rejected{}{}; wrote {}",
         summary.rows,
         summary.rows - summary.rejected,
@@ -247,7 +357,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         } else {
             String::new()
         },
-        args.output.display()
+        output.display()
     );
     Ok(())
 }

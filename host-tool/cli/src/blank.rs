@@ -25,6 +25,7 @@ pub struct BlankArgs {
 
 /// Runs the verb.
 pub fn run(args: BlankArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[Some(&args.coeffs), Some(&args.readings)], &[Some(&args.output)], &[])?;
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
     let cal = file.calibration;
     let (readings, tables) = unit_readings(&file, &args.coeffs, &args.readings)?;
@@ -32,12 +33,15 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
         .map_err(Failure::input)?;
     let b = out.blank.parts();
     let serial = file.unit.clone().unwrap_or_else(|| "(no serial)".into());
-    println!(
+    say!(
         "unit {serial}, calibration {:#010x}: blank of {} readings at {:.2} °C, spread {:.5} Np rms",
-        b.info.factory, b.samples, out.temp_c, out.spread_np
+        b.info.factory,
+        b.samples,
+        out.temp_c,
+        out.spread_np
     );
     let x = b.x;
-    println!(
+    say!(
         "  x = {:+.6} Np (f32 path), {:+.6} Np (fixed path): ratio {:.6}, {:+.4} dB (power), {:+.5} AU",
         x,
         logtrim_host::correct::x_of_q24(b.x_q24),
@@ -47,7 +51,7 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
     );
     logtrim_host::output::write_atomic(&args.output, &out.bytes)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    println!(
+    say!(
         "wrote {}: blank record, {} bytes, sequence {}, CRC {:#010x}",
         args.output.display(),
         out.bytes.len(),

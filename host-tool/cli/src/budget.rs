@@ -7,6 +7,7 @@ use clap::Args;
 use logtrim_host::budget::BudgetSpec;
 use logtrim_host::frontend::{preset, FrontEnd, PRESETS};
 
+use crate::values::{real, Span, CELSIUS, RATIO};
 use crate::Failure;
 
 /// Options of `logtrim budget`. Options override the figures of the design or the file; figures given by
@@ -30,59 +31,59 @@ pub struct BudgetArgs {
     #[arg(long, value_name = "NAME")]
     preset: Option<String>,
     /// ADC resolution, bits.
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=24))]
     bits: Option<u8>,
     /// ADC reference voltage (full scale), V.
-    #[arg(long, value_name = "V")]
+    #[arg(long, value_name = "V", value_parser = real(Span::closed(1e-3, 1000.0)))]
     vref: Option<f64>,
     /// ADC noise of one conversion, LSB rms.
-    #[arg(long, value_name = "LSB")]
+    #[arg(long, value_name = "LSB", value_parser = real(Span::closed(0.0, 1e6)))]
     noise_lsb: Option<f64>,
     /// Conversions averaged per reading (oversampling N).
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1 << 24))]
     oversampling: Option<u32>,
     /// Reference initial tolerance, as a fraction (removed by calibration; shown for information).
-    #[arg(long, value_name = "FRACTION")]
+    #[arg(long, value_name = "FRACTION", value_parser = real(Span::below(0.0, 1.0)))]
     ref_tolerance: Option<f64>,
     /// Reference drift that calibration does not remove, ppm/K.
-    #[arg(long, value_name = "PPM_PER_K")]
+    #[arg(long, value_name = "PPM_PER_K", value_parser = real(Span::closed(0.0, 1e5)))]
     ref_drift_ppm: Option<f64>,
     /// The level shift is derived from the converter's reference (a divider of it): a reference error then
     /// misreads only the log part.
     #[arg(long)]
     ratiometric_level_shift: bool,
     /// The front end's slope, V per decade of ratio, at --slope-at.
-    #[arg(long, value_name = "V")]
+    #[arg(long, value_name = "V", value_parser = real(Span::closed(1e-6, 1000.0)))]
     slope: Option<f64>,
     /// The temperature at which --slope is given, °C.
-    #[arg(long, value_name = "C")]
+    #[arg(long, value_name = "C", allow_negative_numbers = true, value_parser = real(CELSIUS))]
     slope_at: Option<f64>,
     /// The slope's drift, ppm/K (a compensated front end's residual); default: PTAT, as kT/q.
-    #[arg(long, value_name = "PPM_PER_K", allow_negative_numbers = true)]
+    #[arg(long, value_name = "PPM_PER_K", allow_negative_numbers = true, value_parser = real(Span::closed(-1e5, 1e5)))]
     slope_drift_ppm: Option<f64>,
     /// The front end's output at ratio 1 (its level shift), V.
-    #[arg(long, value_name = "V", allow_negative_numbers = true)]
+    #[arg(long, value_name = "V", allow_negative_numbers = true, value_parser = real(Span::closed(-1000.0, 1000.0)))]
     zero: Option<f64>,
     /// Smallest ratio of the range.
-    #[arg(long, value_name = "RATIO")]
+    #[arg(long, value_name = "RATIO", value_parser = real(RATIO))]
     ratio_min: Option<f64>,
     /// Largest ratio of the range.
-    #[arg(long, value_name = "RATIO")]
+    #[arg(long, value_name = "RATIO", value_parser = real(RATIO))]
     ratio_max: Option<f64>,
     /// Lowest operating temperature, °C.
-    #[arg(long, value_name = "C", allow_negative_numbers = true)]
+    #[arg(long, value_name = "C", allow_negative_numbers = true, value_parser = real(CELSIUS))]
     t_min: Option<f64>,
     /// Highest operating temperature, °C.
-    #[arg(long, value_name = "C", allow_negative_numbers = true)]
+    #[arg(long, value_name = "C", allow_negative_numbers = true, value_parser = real(CELSIUS))]
     t_max: Option<f64>,
     /// Temperature sensor error that calibration does not absorb, K.
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", value_parser = real(Span::closed(0.0, 1000.0)))]
     sensor_accuracy: Option<f64>,
     /// Temperature sensor noise per reading, K rms.
-    #[arg(long, value_name = "K")]
+    #[arg(long, value_name = "K", value_parser = real(Span::closed(0.0, 1000.0)))]
     sensor_noise: Option<f64>,
     /// Error of the firmware's arithmetic and table interpolation, LSB (default 0.25).
-    #[arg(long, value_name = "LSB")]
+    #[arg(long, value_name = "LSB", value_parser = real(Span::closed(0.0, 1e6)))]
     arithmetic_lsb: Option<f64>,
     /// Print the budget as JSON instead of a table.
     #[arg(long)]
@@ -95,6 +96,11 @@ pub struct BudgetArgs {
 
 /// Runs the verb.
 pub fn run(args: BudgetArgs) -> Result<(), Failure> {
+    crate::check_outputs(
+        &[args.spec.as_deref(), args.design.as_deref()],
+        &[args.write_spec.as_deref()],
+        &[],
+    )?;
     let design = match (&args.design, &args.preset) {
         (Some(p), _) => Some(FrontEnd::load(p).map_err(Failure::input)?),
         (None, Some(name)) => Some(preset(name).ok_or_else(|| {
@@ -161,12 +167,12 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
         }
         logtrim_host::output::write_atomic(path, written.to_json().as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
-        eprintln!("wrote {}", path.display());
+        note!("wrote {}", path.display());
     }
     if args.json {
-        print!("{}", budget.to_json());
+        say_raw!("{}", budget.to_json());
     } else {
-        print!("{}", budget.render_table());
+        say_raw!("{}", budget.render_table());
     }
     Ok(())
 }

@@ -38,11 +38,12 @@ line goes into the temperature chamber; logtrim fits its calibration, and a held
 
 /// Runs the verb.
 pub fn run(args: DemoArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[], &[], &[Some(&args.out_dir)])?;
     let names: Vec<&str> = match &args.preset {
         Some(p) => vec![p.as_str()],
         None => PRESETS.iter().map(|p| p.name).collect(),
     };
-    println!("{STORY}\n");
+    say!("{STORY}\n");
     for name in names {
         let fe = preset(name).ok_or_else(|| {
             let known: Vec<&str> = PRESETS.iter().map(|p| p.name).collect();
@@ -58,19 +59,19 @@ pub fn run(args: DemoArgs) -> Result<(), Failure> {
         let file = CalFile::of_fit(&out.fit, Some(serial), fe.firmware_sensor(), crate::stamp::now());
         let coeffs = dir.join("coeffs.json");
         file.save(&coeffs).map_err(Failure::input)?;
-        println!("== {name}: {}", fe.description);
-        println!(
+        say!("== {name}: {}", fe.description);
+        say!(
             "chamber run: {} rows at {} set-points; validation run: {} readings",
             out.simulation.chamber.len(),
             plan.chamber.setpoints,
             out.simulation.validation.len()
         );
-        print!("{}", render_report(&out.fit));
-        println!();
-        print!("{}", render(&out));
-        println!("files: {} (cal.csv, readings.csv, truth.csv, frontend.json, coeffs.json)\n", dir.display());
+        say_raw!("{}", render_report(&out.fit));
+        say!();
+        say_raw!("{}", render(&out));
+        say!("files: {} (cal.csv, readings.csv, truth.csv, frontend.json, coeffs.json)\n", dir.display());
     }
-    println!(
+    say!(
         "next: logtrim apply {0}/<preset>/coeffs.json {0}/<preset>/readings.csv -o corrected.csv",
         args.out_dir.display()
     );

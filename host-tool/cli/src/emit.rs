@@ -3,6 +3,7 @@
 
 use std::path::PathBuf;
 
+use clap::builder::TypedValueParser as _;
 use clap::{Args, ValueEnum};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::emit::rust::CratePath;
@@ -15,13 +16,16 @@ use crate::Failure;
 #[derive(Args, Debug, Clone)]
 pub struct TableArgs {
     /// Knots of the temperature grid.
-    #[arg(long, default_value_t = TableOptions::default().t_knots)]
+    #[arg(long, default_value_t = TableOptions::default().t_knots,
+          value_parser = clap::value_parser!(u16).range(4..=1000).map(usize::from))]
     pub t_knots: usize,
     /// Knots of the residual's x̃ grid.
-    #[arg(long, default_value_t = TableOptions::default().xa_knots)]
+    #[arg(long, default_value_t = TableOptions::default().xa_knots,
+          value_parser = clap::value_parser!(u16).range(4..=4000).map(usize::from))]
     pub xa_knots: usize,
     /// Largest number of segments of a temperature-sensor table.
-    #[arg(long, default_value_t = TableOptions::default().sensor_segments)]
+    #[arg(long, default_value_t = TableOptions::default().sensor_segments,
+          value_parser = clap::value_parser!(u32).range(1..=65536).map(|n| n as usize))]
     pub sensor_segments: usize,
 }
 
@@ -88,6 +92,7 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
     if args.crate_path.is_some() && !matches!(args.format, FormatArg::Rust) {
         return Err(Failure::input("--crate-path applies to --format rust only"));
     }
+    crate::check_outputs(&[Some(&args.coeffs)], &[Some(&args.output)], &[])?;
     if args.c_name.is_some() && !matches!(args.format, FormatArg::C) {
         return Err(Failure::input("--c-name applies to --format c only"));
     }
@@ -115,7 +120,7 @@ pub fn run(args: &EmitArgs) -> Result<(), Failure> {
     };
     logtrim_host::output::write_atomic(&args.output, text.as_bytes())
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    println!(
+    say!(
         "wrote {} ({} bytes of tables, {} of universal tables)",
         args.output.display(),
         tables.bytes(),
@@ -134,12 +139,13 @@ pub struct CLibraryArgs {
 
 /// Runs `logtrim c-library`: both files, each written atomically.
 pub fn run_c_library(args: &CLibraryArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[], &[], &[Some(&args.output)])?;
     let files = [("ltrm.h", emit::c::library_header()), ("ltrm.c", emit::c::library_source())];
     for (name, text) in &files {
         let path = args.output.join(name);
         logtrim_host::output::write_atomic(&path, text.as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
     }
-    eprintln!("logtrim: wrote ltrm.h and ltrm.c into {}", args.output.display());
+    say!("wrote ltrm.h and ltrm.c into {}", args.output.display());
     Ok(())
 }

@@ -19,7 +19,9 @@ use logtrim_host::image_file::{self, ImageFormat};
 use logtrim_host::sensor_tool::load_settings;
 use logtrim_host::tables::TableOptions;
 
+use crate::values::{real, Span as ValueSpan};
 use crate::Failure;
+use logtrim::calibration::MAX_SERIES;
 
 /// Options of `logtrim fit`.
 #[derive(Args, Debug)]
@@ -50,24 +52,28 @@ pub struct FitArgs {
     skip_bad_rows: bool,
     /// Fix the model size instead of choosing it by cross-validation, e.g.
     /// offset=3,slope=2,bulk=1,pole,bias,residual=3x2.
-    #[arg(long, value_name = "TERMS")]
-    model: Option<String>,
+    #[arg(long, value_name = "TERMS", value_parser = parse_model)]
+    model: Option<Spec>,
     /// Most Chebyshev terms of any series over temperature the search may use.
-    #[arg(long, default_value_t = FitOptions::default().max_series, value_name = "N")]
-    max_terms: usize,
+    #[arg(long, default_value_t = FitOptions::default().max_series as u8, value_name = "N",
+          value_parser = clap::value_parser!(u8).range(1..=MAX_SERIES as i64))]
+    max_terms: u8,
     /// A gap in measured temperature larger than this (K) separates two chamber set-points.
-    #[arg(long, default_value_t = FitOptions::default().setpoint_gap_k, value_name = "K")]
+    #[arg(long, default_value_t = FitOptions::default().setpoint_gap_k, value_name = "K",
+          allow_negative_numbers = true, value_parser = real(ValueSpan::above(0.0, 1000.0)))]
     setpoint_gap: f64,
     /// Refuse readings where the front end's sensitivity has fallen below this fraction of ideal
     /// (where bias current swamps the signal).
-    #[arg(long, default_value_t = FitOptions::default().min_sensitivity, value_name = "FRACTION")]
+    #[arg(long, default_value_t = FitOptions::default().min_sensitivity, value_name = "FRACTION",
+          allow_negative_numbers = true, value_parser = real(ValueSpan::below(0.0, 1.0)))]
     min_sensitivity: f64,
     /// Widen the calibrated x range by this much at each end, nepers (default: four times the rms error
     /// of the readings at that end, at most 0.05, so noise alone does not push an end reading out).
-    #[arg(long, value_name = "NEPERS")]
+    #[arg(long, value_name = "NEPERS", allow_negative_numbers = true, value_parser = real(ValueSpan::closed(0.0, 1.0)))]
     x_margin: Option<f64>,
     /// Allow (and flag) readings up to this far outside the calibrated temperature range, K.
-    #[arg(long, default_value_t = 0.0, value_name = "K")]
+    #[arg(long, default_value_t = 0.0, value_name = "K", allow_negative_numbers = true,
+          value_parser = real(ValueSpan::closed(0.0, 100.0)))]
     extrapolate: f64,
     /// Codes within this many of an ADC rail are set aside and refused as saturated (default
     /// 2^(bits−13), at least 1).
@@ -210,26 +216,36 @@ impl BatchImageArgs {
 /// Prints the rows a file skipped (at most 20 of them per file).
 fn report_skipped(skipped: &[(String, Vec<RowError>)]) {
     for (path, rows) in skipped {
-        eprintln!("{path}: skipped {} bad row(s):", rows.len());
+        note!("{path}: skipped {} bad row(s):", rows.len());
         for e in rows.iter().take(20) {
-            eprintln!("  {e}");
+            note!("  {e}");
         }
         if rows.len() > 20 {
-            eprintln!("  … and {} more", rows.len() - 20);
+            note!("  … and {} more", rows.len() - 20);
         }
     }
 }
 
+fn parse_model(text: &str) -> Result<Spec, String> {
+    Spec::parse(text)
+}
+
 fn options(args: &FitArgs, bits: u8) -> Result<FitOptions, Failure> {
-    let spec = match &args.model {
-        Some(m) => Some(Spec::parse(m).map_err(|e| Failure::input(format!("--model: {e}")))?),
-        None => None,
-    };
+    // The rail margin's range depends on the bits: codes within it of either rail are refused, so at least
+    // one code must lie between the two bands.
+    if let Some(m) = args.rail_margin {
+        let most = ((1u32 << bits) - 1).saturating_sub(1) / 2;
+        if m > most {
+            return Err(Failure::input(format!(
+                "--rail-margin {m}: expected 0..={most} codes for a {bits}-bit converter (--bits or --design): a larger margin leaves no usable code"
+            )));
+        }
+    }
     Ok(FitOptions {
         bits,
         setpoint_gap_k: args.setpoint_gap,
-        spec,
-        max_series: args.max_terms,
+        spec: args.model,
+        max_series: usize::from(args.max_terms),
         rail_margin: args.rail_margin,
         min_sensitivity: args.min_sensitivity,
         x_margin: args.x_margin,
@@ -265,6 +281,13 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     let opt = options(&args, bits)?;
     let limits = args.limits.limits()?;
     let image = args.image.options()?;
+    // Every output is checked before anything is written: the calibration file (or the batch's folder)
+    // and the report's folder.
+    let inputs = [Some(args.input.as_path()), args.sensor.as_deref(), args.design.as_deref()];
+    crate::check_outputs(&inputs, &[], &[args.report.as_deref()])?;
+    if args.input.is_dir() {
+        crate::check_outputs(&inputs, &[], &[Some(&args.output)])?;
+    }
     let how = ChamberRead {
         adc_bits: bits,
         skip_bad_rows: args.skip_bad_rows,
@@ -275,7 +298,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     report_skipped(&data.skipped);
     if !bits_given {
         if let Some(w) = narrow_range_warning(&data.jobs, bits) {
-            eprintln!("logtrim: warning: {w}");
+            note!("logtrim: warning: {w}");
         }
     }
     let mut jobs = data.jobs;
@@ -283,6 +306,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         if let Some(s) = &args.serial {
             job.serial = s.clone();
         }
+        crate::check_outputs(&inputs, &[Some(&args.output)], &[])?;
         return fit_single(job, &opt, &limits, sensor.as_ref(), &args);
     }
     if args.serial.is_some() {
@@ -292,6 +316,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             jobs.len()
         )));
     }
+    crate::check_outputs(&inputs, &[], &[Some(&args.output)])?;
     std::fs::create_dir_all(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     let bar =
@@ -307,7 +332,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     crate::progress::finish(bar);
     let done = done.map_err(Failure::input)?;
     if let (Some(s), None) = (done.spec, &args.model) {
-        println!(
+        say!(
             "model for the batch (cross-validated on up to {} pilot units): {}",
             logtrim_host::batch::PILOT_UNITS,
             s.to_arg()
@@ -321,9 +346,15 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         }
     }
     let mut counts = [0usize; 3];
-    println!(
+    say!(
         "{:<16} {:<7} {:>6} {:>6} {:>9} {:>9} {:<10}  reasons",
-        "unit", "verdict", "rows", "aside", "resid/n", "cv/n", "image CRC"
+        "unit",
+        "verdict",
+        "rows",
+        "aside",
+        "resid/n",
+        "cv/n",
+        "image CRC"
     );
     for u in &done.units {
         let r = &u.record;
@@ -337,7 +368,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             continue;
         }
         let f = |v: Option<f64>| v.map(|v| format!("{v:.2}")).unwrap_or_else(|| "-".into());
-        println!(
+        say!(
             "{:<16} {:<7} {:>6} {:>6} {:>9} {:>9} {:<10}  {}",
             r.serial,
             r.verdict,
@@ -349,7 +380,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
             r.reasons
         );
     }
-    println!(
+    say!(
         "{} units: {} passed, {} failed acceptance (calibration kept, marked, no image), {} could not be calibrated; files in {}; summary {} and {}",
         done.units.len(),
         counts[0],
@@ -394,7 +425,7 @@ fn write_report(
         logtrim_host::report::FitReport { calfile: file, outcome: out, data, options: opt, source, unit };
     let written = report.write_to(dir).map_err(Failure::input)?;
     if let Some(page) = written.first() {
-        println!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
+        say!("wrote {} and {} chart(s)", page.display(), written.len().saturating_sub(1));
     }
     Ok(())
 }
@@ -411,10 +442,10 @@ fn fit_single(
     let verdict = judge(&out, &file, limits).map_err(Failure::input)?;
     file.set_verdict(&verdict);
     if !args.quiet {
-        print!("{}", render_report(&out));
-        print!("{}", render_screening(&out, &job.data));
+        say_raw!("{}", render_report(&out));
+        say_raw!("{}", render_screening(&out, &job.data));
         let c = &out.calibration;
-        println!(
+        say!(
             "calibrated range: {:.2} … {:.2} °C, x {:.3} … {:.3} Np (ratio {:.4e} … {:.4e})",
             c.temperature.min_c,
             c.temperature.max_c,
@@ -423,16 +454,16 @@ fn fit_single(
             f64::from(c.x_range.min).exp(),
             f64::from(c.x_range.max).exp()
         );
-        println!(
+        say!(
             "acceptance{}:",
             if limits.product.is_empty() { String::new() } else { format!(" ({})", limits.product) }
         );
         for c in &verdict.checks {
-            println!("  {} {}", if c.passed { "ok  " } else { "FAIL" }, c.text);
+            say!("  {} {}", if c.passed { "ok  " } else { "FAIL" }, c.text);
         }
     }
     file.save(&args.output).map_err(Failure::input)?;
-    println!(
+    say!(
         "{}: {} — wrote {} ({} rows, {} set aside, model {}){}",
         file.unit.as_deref().unwrap_or("unit"),
         verdict.word(),

@@ -5,6 +5,7 @@
 
 use std::path::PathBuf;
 
+use clap::builder::TypedValueParser as _;
 use clap::ValueEnum;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::image_file::{self, ImageFormat};
@@ -39,7 +40,8 @@ pub struct Args {
     #[arg(long, value_name = "A")]
     pub base_address: Option<String>,
     /// Bytes per Intel HEX data record: 16 or 32.
-    #[arg(long, value_name = "N", default_value_t = 16)]
+    #[arg(long, value_name = "N", default_value_t = 16,
+          value_parser = clap::builder::PossibleValuesParser::new(["16", "32"]).map(|s| s.parse::<usize>().unwrap_or(16)))]
     pub record_len: usize,
     /// Sequence counter of the image; of two valid A/B slots the firmware uses the higher one.
     #[arg(long, value_name = "N", default_value_t = 1)]
@@ -53,6 +55,7 @@ pub struct Args {
 }
 
 pub fn run(args: Args) -> Result<(), Failure> {
+    crate::check_outputs(&[Some(&args.coeffs)], &[Some(&args.output)], &[])?;
     let format = match args.format {
         Some(Format::Bin) => ImageFormat::Bin,
         Some(Format::Hex) => ImageFormat::Hex,
@@ -85,7 +88,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
         logtrim::Image::parse(&bytes).map_err(|e| Failure::check(format!("built image refused: {e}")))?;
     image_file::load_fixed(&img).map_err(|e| Failure::check(format!("built image's tables refused: {e}")))?;
     if img.serial().is_empty() {
-        eprintln!(
+        note!(
             "logtrim: warning: no serial (neither --serial nor \"unit\" in the file): the image carries none"
         );
     }
@@ -103,7 +106,7 @@ pub fn run(args: Args) -> Result<(), Failure> {
             format!("fixed-point tables {}×{} knots{sensor}", h.t_knots, h.xa_knots)
         }
     };
-    println!(
+    say!(
         "{}: {} byte image ({place}; {fixed}), serial {:?}, sequence {}, CRC-32 {:#010x}",
         args.output.display(),
         img.len(),

@@ -34,10 +34,10 @@ pub fn run(args: Args) -> Result<(), Failure> {
         if args.json {
             let mut v = logtrim_host::records::field_record_json(&record);
             v["file"] = serde_json::json!(name);
-            println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+            say!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
         } else {
-            println!("{name}: {} bytes", file.bytes.len());
-            print!("{}", logtrim_host::records::describe_field_record(&record));
+            say!("{name}: {} bytes", file.bytes.len());
+            say_raw!("{}", logtrim_host::records::describe_field_record(&record));
         }
         return Ok(());
     }
@@ -51,10 +51,10 @@ pub fn run(args: Args) -> Result<(), Failure> {
         let mut v = image_file::describe_json(&img);
         v["file"] = serde_json::json!(name);
         v["base_address"] = serde_json::json!(file.base);
-        println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+        say!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
     } else {
-        println!("{name}: {place}");
-        print!("{}", image_file::describe(&img));
+        say!("{name}: {place}");
+        say_raw!("{}", image_file::describe(&img));
     }
     image_file::load_fixed(&img)
         .map_err(|e| Failure::check(format!("{name}: bad fixed-point tables: {e}")))?;

@@ -2,11 +2,17 @@
 //!
 //! Exit codes: 0 success; 1 a check failed (verification over its bound, a bad image, a fit that was
 //! refused, a unit of a batch that could not be calibrated); 2 bad usage or bad input (unreadable file,
-//! malformed data); 3 fitted, but failed acceptance (`fit`: the unit, or a unit of the batch, is FAIL).
+//! malformed data, an output that cannot be written); 3 fitted, but failed acceptance (`fit`: the unit, or a
+//! unit of the batch, is FAIL); 130 and 143 interrupted by SIGINT or SIGTERM (every temporary file removed
+//! first); 141 standard output closed by its reader (see `out`).
 
+use std::path::Path;
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
+
+#[macro_use]
+mod out;
 
 mod apply;
 mod blank;
@@ -22,6 +28,7 @@ mod sensor;
 mod simulate;
 mod stamp;
 mod trim;
+mod values;
 mod verify;
 
 /// Calibrate log-ratio front ends on the production line, and check the firmware that reads them.
@@ -37,8 +44,10 @@ mod verify;
 /// the whole job on simulated units.
 ///
 /// Exit codes: 0 success; 1 a check failed (verification over its bound, a bad image, a refused fit, a
-/// trim past its limits, a unit of a batch that could not be calibrated); 2 bad usage or bad input; 3 a unit
-/// was fitted but failed its acceptance limits (`fit`).
+/// trim past its limits, a unit of a batch that could not be calibrated); 2 bad usage or bad input (an output
+/// that cannot be written included); 3 a unit was fitted but failed its acceptance limits (`fit`); 130 or 143
+/// interrupted by SIGINT or SIGTERM (no temporary file is left); 141 standard output closed by its reader
+/// (files already written are whole).
 #[derive(Parser)]
 #[command(name = "logtrim", version)]
 struct Cli {
@@ -96,6 +105,10 @@ pub struct Failure {
 }
 
 impl Failure {
+    /// A run that ends without a message (standard output closed by its reader).
+    pub fn quiet(code: u8) -> Failure {
+        Failure { message: String::new(), code }
+    }
     /// Bad input or usage (exit 2).
     pub fn input(message: impl std::fmt::Display) -> Failure {
         Failure { message: message.to_string(), code: 2 }
@@ -110,28 +123,86 @@ impl Failure {
     }
 }
 
+/// Checks a verb's outputs before anything is written: no output is one of the inputs (by identity), and
+/// each can be written where it is asked for (`logtrim_host::output::Plan`). `None`s are skipped.
+pub fn check_outputs(
+    inputs: &[Option<&Path>],
+    files: &[Option<&Path>],
+    dirs: &[Option<&Path>],
+) -> Result<(), Failure> {
+    let plan = logtrim_host::output::Plan::with_inputs(inputs.iter().flatten().copied());
+    for f in files.iter().flatten() {
+        plan.file(f).map_err(Failure::input)?;
+    }
+    for d in dirs.iter().flatten() {
+        plan.dir(d).map_err(Failure::input)?;
+    }
+    Ok(())
+}
+
+/// Removes every temporary file in flight and exits with 128 + the signal on SIGINT or SIGTERM.
+fn clean_up_on_signals() {
+    use signal_hook::consts::{SIGINT, SIGTERM};
+    match signal_hook::iterator::Signals::new([SIGINT, SIGTERM]) {
+        Ok(mut signals) => {
+            std::thread::spawn(move || {
+                if let Some(sig) = signals.forever().next() {
+                    logtrim_host::output::remove_in_flight_and_exit(128 + sig);
+                }
+            });
+        }
+        Err(e) => note!("logtrim: warning: cannot watch for SIGINT/SIGTERM ({e}): an interrupted run may leave temporary files"),
+    }
+}
+
+/// The command line, or the exit of `--help`, `--version` and usage errors (their text written without a
+/// panic; a closed pipe or a full device is reported as for any verb).
+fn parse() -> Result<Cli, ExitCode> {
+    Cli::try_parse().map_err(|e| {
+        let code = e.exit_code();
+        let written = if e.use_stderr() {
+            let _ = e.print();
+            Ok(())
+        } else {
+            out::print(format_args!("{}", e.render())).and_then(|()| out::flush())
+        };
+        match written {
+            Ok(()) => ExitCode::from(u8::try_from(code).unwrap_or(2)),
+            Err(f) => finish(f),
+        }
+    })
+}
+
+fn finish(f: Failure) -> ExitCode {
+    if !f.message.is_empty() {
+        note!("logtrim: {}", f.message);
+    }
+    ExitCode::from(f.code)
+}
+
+fn info() -> Result<(), Failure> {
+    say!("logtrim {}", env!("CARGO_PKG_VERSION"));
+    say!("calibration files: {} version {}", logtrim_host::calfile::FORMAT, logtrim_host::calfile::VERSION);
+    say!(
+        "calibration images: format version {}, {} bytes with the f32 model",
+        logtrim::image::layout::header::VERSION_VALUE,
+        logtrim::image::layout::F32_IMAGE_LEN
+    );
+    Ok(())
+}
+
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = match parse() {
+        Ok(cli) => cli,
+        Err(code) => return code,
+    };
+    clean_up_on_signals();
     // A malformed SOURCE_DATE_EPOCH is refused before anything is stamped with the wrong time.
     if let Err(e) = stamp::checked() {
-        eprintln!("logtrim: {e}");
-        return ExitCode::from(2);
+        return finish(Failure::input(e));
     }
     let result: Result<(), Failure> = match cli.command {
-        Command::Info => {
-            println!("logtrim {}", env!("CARGO_PKG_VERSION"));
-            println!(
-                "calibration files: {} version {}",
-                logtrim_host::calfile::FORMAT,
-                logtrim_host::calfile::VERSION
-            );
-            println!(
-                "calibration images: format version {}, {} bytes with the f32 model",
-                logtrim::image::layout::header::VERSION_VALUE,
-                logtrim::image::layout::F32_IMAGE_LEN
-            );
-            Ok(())
-        }
+        Command::Info => info(),
         Command::Simulate(args) => simulate::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Fit(args) => fit::run(args),
@@ -147,11 +218,8 @@ fn main() -> ExitCode {
         Command::Trim(args) => trim::run(args),
         Command::Blank(args) => blank::run(args),
     };
-    match result {
+    match result.and_then(|()| out::flush()) {
         Ok(()) => ExitCode::SUCCESS,
-        Err(f) => {
-            eprintln!("logtrim: {}", f.message);
-            ExitCode::from(f.code)
-        }
+        Err(f) => finish(f),
     }
 }

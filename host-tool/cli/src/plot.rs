@@ -85,6 +85,11 @@ fn parse_cells(s: &str) -> Result<(usize, usize), String> {
 
 /// Runs the verb.
 pub fn run(args: PlotArgs) -> Result<(), Failure> {
+    crate::check_outputs(
+        &[Some(&args.coeffs), Some(&args.cal), args.validation.as_deref(), args.truth.as_deref()],
+        &[],
+        &[Some(&args.out_dir)],
+    )?;
     if !(args.setpoint_gap.is_finite() && args.setpoint_gap > 0.0) {
         return Err(Failure::input(format!(
             "--setpoint-gap {}: expected a positive gap in K",
@@ -135,7 +140,7 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
         let path = args.out_dir.join(name);
         logtrim_host::output::write_atomic(&path, svg.as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
-        println!("wrote {}", path.display());
+        say!("wrote {}", path.display());
     }
     Ok(())
 }

@@ -253,32 +253,33 @@ pub fn run(args: SensorArgs) -> Result<(), Failure> {
 fn fit_points(args: &FitArgs, steinhart_hart: bool) -> Result<(), Failure> {
     let element = if steinhart_hart {
         let sh = tool::steinhart_hart_from_points(&args.points).map_err(refused)?;
-        println!(
+        say!(
             "Steinhart–Hart through {} points: 1/T = A + B·ln R + C·(ln R)³ (T in K, R in Ω)",
             args.points.len()
         );
-        println!("  A = {:e}\n  B = {:e}\n  C = {:e}", sh.a, sh.b, sh.c);
-        println!("  as an option: --sh {:e},{:e},{:e}", sh.a, sh.b, sh.c);
+        say!("  A = {:e}\n  B = {:e}\n  C = {:e}", sh.a, sh.b, sh.c);
+        say!("  as an option: --sh {:e},{:e},{:e}", sh.a, sh.b, sh.c);
         SensorElement::NtcSteinhartHart(sh)
     } else {
         let b = tool::beta_from_points(&args.points).map_err(refused)?;
-        println!("Beta model through {} points: R = R0·exp(β·(1/T − 1/T0))", args.points.len());
-        println!("  β = {} K, R0 = {} Ω at T0 = {} °C", b.beta_k, b.r0_ohm, b.t0_c);
-        println!("  as options: --beta {} --r0 {} --t0 {}", b.beta_k, b.r0_ohm, b.t0_c);
+        say!("Beta model through {} points: R = R0·exp(β·(1/T − 1/T0))", args.points.len());
+        say!("  β = {} K, R0 = {} Ω at T0 = {} °C", b.beta_k, b.r0_ohm, b.t0_c);
+        say!("  as options: --beta {} --r0 {} --t0 {}", b.beta_k, b.r0_ohm, b.t0_c);
         SensorElement::NtcBeta(b)
     };
-    println!("{:>10} {:>14} {:>14} {:>12}", "point", "R [Ω]", "curve T [°C]", "error [K]");
+    say!("{:>10} {:>14} {:>14} {:>12}", "point", "R [Ω]", "curve T [°C]", "error [K]");
     for (label, p) in args.points.iter().map(|p| ("given", p)).chain(args.checks.iter().map(|p| ("check", p)))
     {
         match element.celsius_f64(p.ohm) {
-            Ok(t) => println!("{label:>10} {:>14} {t:>14.4} {:>12.5}", p.ohm, t - p.celsius),
-            Err(e) => println!("{label:>10} {:>14} {:>14} ({e})", p.ohm, "-"),
+            Ok(t) => say!("{label:>10} {:>14} {t:>14.4} {:>12.5}", p.ohm, t - p.celsius),
+            Err(e) => say!("{label:>10} {:>14} {:>14} ({e})", p.ohm, "-"),
         }
     }
     Ok(())
 }
 
 fn table(args: &TableArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[args.sensor.as_deref()], &[args.output.as_deref()], &[])?;
     let from_file = match &args.sensor {
         Some(path) => Some(tool::load_settings(path).map_err(refused)?),
         None => None,
@@ -334,15 +335,16 @@ fn table(args: &TableArgs) -> Result<(), Failure> {
     match &args.output {
         Some(path) => {
             tool::write_table_file(path, &rows, format, &header).map_err(refused)?;
-            println!("wrote {} ({} rows, {from_c} … {to_c} °C)", path.display(), rows.len());
+            say!("wrote {} ({} rows, {from_c} … {to_c} °C)", path.display(), rows.len());
         }
         None => tool::write_table(&rows, format, &header, std::io::stdout().lock())
-            .map_err(|e| Failure::input(format!("writing the table: {e}")))?,
+            .map_err(|e| crate::out::stdout_failure(&e))?,
     }
     Ok(())
 }
 
 fn settings(args: &SettingsArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[], &[Some(&args.output)], &[])?;
     let element = args.element.element()?;
     let spec = args.divider.spec().ok_or_else(|| {
         Failure::input(
@@ -353,18 +355,18 @@ fn settings(args: &SettingsArgs) -> Result<(), Failure> {
     let sensor: TemperatureSensor = build_sensor(element, divider, args.min, args.max).map_err(refused)?;
     let sum = tool::summarise(&sensor).map_err(refused)?;
     tool::write_settings(&args.output, &sensor).map_err(refused)?;
-    println!("wrote {}", args.output.display());
-    println!("  element: {}", describe_element(&sensor.element));
-    println!("  divider: {}", describe_divider(&sensor.divider));
-    println!("  valid {} … {} °C:", sensor.min_c, sensor.max_c);
+    say!("wrote {}", args.output.display());
+    say!("  element: {}", describe_element(&sensor.element));
+    say!("  divider: {}", describe_divider(&sensor.divider));
+    say!("  valid {} … {} °C:", sensor.min_c, sensor.max_c);
     for (label, (t, code, k)) in [("at the low end", sum.at_min), ("at the high end", sum.at_max)] {
-        println!("    {label:<16} {t:>8} °C reads code {code:>8}, {:.4} K per code", k);
+        say!("    {label:<16} {t:>8} °C reads code {code:>8}, {:.4} K per code", k);
     }
-    println!(
+    say!(
         "    coarsest step {:.4} K per code at {} °C; firmware reading within {:.4} K of the truth at the rounded code",
         sum.coarsest.1, sum.coarsest.0, sum.worst_error_k
     );
-    println!(
+    say!(
         "next: logtrim fit CAL.csv --sensor {} -o COEFFS.json (CAL.csv with a temp_code column)",
         args.output.display()
     );

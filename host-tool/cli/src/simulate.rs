@@ -112,15 +112,20 @@ fn with_faults(mut fe: FrontEnd, args: &SimulateArgs) -> Result<FrontEnd, Failur
 pub fn run(args: SimulateArgs) -> Result<(), Failure> {
     if args.list_presets {
         for p in PRESETS {
-            println!("{:<24} {}", p.name, p.summary);
+            say!("{:<24} {}", p.name, p.summary);
         }
         return Ok(());
     }
+    crate::check_outputs(
+        &[args.frontend.as_deref()],
+        &[args.write_preset.as_deref()],
+        &[args.out_dir.as_deref()],
+    )?;
     let fe = with_faults(chosen_frontend(&args)?, &args)?;
     if let Some(path) = &args.write_preset {
         logtrim_host::output::write_atomic(path, fe.to_json().as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
-        println!("wrote {} (front end {:?})", path.display(), fe.name);
+        say!("wrote {} (front end {:?})", path.display(), fe.name);
     }
     let Some(dir) = &args.out_dir else {
         if args.write_preset.is_some() {
@@ -151,8 +156,7 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
         }
     }
     let written = sim.write_to(dir).map_err(Failure::input)?;
-    summary(&sim, &written);
-    Ok(())
+    summary(&sim, &written)
 }
 
 fn chosen_frontend(args: &SimulateArgs) -> Result<FrontEnd, Failure> {
@@ -169,17 +173,17 @@ fn chosen_frontend(args: &SimulateArgs) -> Result<FrontEnd, Failure> {
     }
 }
 
-fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
+fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) -> Result<(), Failure> {
     let fe = &sim.nominal;
     let o = &fe.operating;
     let p = &sim.plan;
     let units =
         if p.units == 1 { "1 unit".to_string() } else { format!("{} units drawn from its spread", p.units) };
-    println!("simulated {:?}, seed {}, {units}", fe.name, p.seed);
+    say!("simulated {:?}, seed {}, {units}", fe.name, p.seed);
     if !fe.description.is_empty() {
-        println!("  {}", fe.description);
+        say!("  {}", fe.description);
     }
-    println!(
+    say!(
         "  {}…{} °C, ratios {:e}…{:e}; slope at 25 °C {:.4} V/decade ({:.1} codes/Np)",
         o.temp_min_c,
         o.temp_max_c,
@@ -213,18 +217,19 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) {
             _ => String::new(),
         };
         let rows = w.rows.map(|r| format!("{r:>7} rows")).unwrap_or_default();
-        println!("wrote {:<width$} {rows:>12}  {what}", w.path.display().to_string());
+        say!("wrote {:<width$} {rows:>12}  {what}", w.path.display().to_string());
     }
     let s = sim.oracle_stats();
-    println!(
+    say!(
         "oracle on the validation run ({} readings; {} undefined: at a rail or below the bias-current floor):",
         s.count, s.undefined
     );
     for (label, np) in [("rms", s.rms_np), ("max", s.max_np)] {
-        println!(
+        say!(
             "  {label} {np:.3e} Np = {:.3e} dB (10·log10, power ratios) = {:.3e} dB (20·log10, amplitude ratios)",
             db_power(np),
             db_amplitude(np)
         );
     }
+    Ok(())
 }

@@ -12,6 +12,7 @@ use logtrim_host::data::Readings;
 use logtrim_host::records::LayerError;
 use logtrim_host::tables::{FixedTables, TableOptions};
 
+use crate::values::{real, real32, Span, CELSIUS};
 use crate::Failure;
 
 /// The header of a record that a verb writes.
@@ -41,13 +42,13 @@ impl RecordArgs {
 #[derive(Args, Debug)]
 pub struct LimitArgs {
     /// Largest trim offset |o|, in nepers (0.05 Np = 0.217 dB of a power ratio = 0.0217 AU).
-    #[arg(long, value_name = "NP", default_value_t = 0.05)]
+    #[arg(long, value_name = "NP", default_value_t = 0.05, value_parser = real32(Span::above(0.0, 100.0)))]
     max_trim_offset: f32,
     /// Largest trim gain error |g − 1| (0.02 = 2 %).
-    #[arg(long, value_name = "FRACTION", default_value_t = 0.02)]
+    #[arg(long, value_name = "FRACTION", default_value_t = 0.02, value_parser = real32(Span::above(0.0, 0.99)))]
     max_trim_gain_error: f32,
     /// Smallest separation of two standards as read, in nepers.
-    #[arg(long, value_name = "NP", default_value_t = 0.5)]
+    #[arg(long, value_name = "NP", default_value_t = 0.5, value_parser = real32(Span::above(0.0, 100.0)))]
     min_standard_separation: f32,
 }
 
@@ -81,7 +82,8 @@ pub struct TrimArgs {
     #[arg(long, conflicts_with = "standards")]
     clear: bool,
     /// Temperature recorded with a cleared trim, °C.
-    #[arg(long, value_name = "C", default_value_t = 25.0, requires = "clear")]
+    #[arg(long, value_name = "C", default_value_t = 25.0, requires = "clear", allow_negative_numbers = true,
+          value_parser = real(CELSIUS))]
     clear_temp: f64,
     /// The unit the errors are also shown in (ln_ratio, decades, db_power, db_amplitude, absorbance, …).
     #[arg(long, value_name = "UNIT", default_value = "db_power")]
@@ -132,6 +134,7 @@ pub fn stored_crc(bytes: &[u8]) -> u32 {
 
 /// Runs the verb.
 pub fn run(args: TrimArgs) -> Result<(), Failure> {
+    crate::check_outputs(&[Some(&args.coeffs), args.standards.as_deref()], &[Some(&args.output)], &[])?;
     let unit = unit_arg(&args.unit)?;
     let limits = args.limits.limits()?;
     let file = CalFile::load(&args.coeffs).map_err(Failure::input)?;
@@ -142,7 +145,7 @@ pub fn run(args: TrimArgs) -> Result<(), Failure> {
         None => {
             let info = RecordInfo { factory: fp, ..args.record.info() };
             let t = Trim::cleared(info, (args.clear_temp * 1000.0).round() as i32);
-            println!(
+            say!(
                 "unit {serial}, calibration {fp:#010x}: trim cleared, readings are the factory calibration's"
             );
             t
@@ -152,14 +155,14 @@ pub fn run(args: TrimArgs) -> Result<(), Failure> {
             let out =
                 logtrim_host::trim::compute(&cal, &tables.view(), &readings, args.record.info(), &limits)
                     .map_err(|e| if e.is_check() { Failure::check(&e) } else { Failure::input(&e) })?;
-            report(&out, &serial, fp, unit, &limits);
+            report(&out, &serial, fp, unit, &limits)?;
             out.trim
         }
     };
     let bytes = trim.to_bytes();
     logtrim_host::output::write_atomic(&args.output, &bytes)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    println!(
+    say!(
         "wrote {}: trim record, {} bytes, sequence {}, CRC {:#010x}",
         args.output.display(),
         bytes.len(),
@@ -169,10 +172,16 @@ pub fn run(args: TrimArgs) -> Result<(), Failure> {
     Ok(())
 }
 
-fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Unit, limits: &TrimLimits) {
+fn report(
+    out: &logtrim_host::trim::TrimOutcome,
+    serial: &str,
+    fp: u32,
+    unit: Unit,
+    limits: &TrimLimits,
+) -> Result<(), Failure> {
     let n: usize = out.standards.iter().map(|s| s.readings).sum();
     let t = out.trim.parts();
-    println!(
+    say!(
         "unit {serial}, calibration {fp:#010x}: {} standards, {n} readings at {:.2} °C",
         out.standards.len(),
         f64::from(t.temp_mc) / 1000.0
@@ -190,11 +199,12 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
         "rms after/Np".into(),
     ];
     let widths: Vec<usize> = heads.iter().map(|h| h.chars().count().max(9)).collect();
-    let line = |cells: &[String]| {
+    let line = |cells: &[String]| -> Result<(), Failure> {
         let row: Vec<String> = cells.iter().zip(&widths).map(|(c, w)| format!("{c:>w$}")).collect();
-        println!("  {}", row.join("  "));
+        say!("  {}", row.join("  "));
+        Ok(())
     };
-    line(&heads);
+    line(&heads)?;
     for (i, s) in out.standards.iter().enumerate() {
         let d = unit.derivative_f64(s.known_x);
         line(&[
@@ -207,10 +217,10 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
             format!("{:+.5}", s.error_after()),
             format!("{:+.5}", s.error_after_fixed()),
             format!("{:.5}", s.trimmed_rms_f32),
-        ]);
+        ])?;
     }
     let g = f64::from(t.gain);
-    println!(
+    say!(
         "trim: {}, x' = g·x + o with g = {:.6} ({:+.3} %), o = {:+.6} Np at ratio 1 (limits |o| ≤ {:.4} Np, |g − 1| ≤ {:.2} %)",
         t.kind.name(),
         g,
@@ -219,11 +229,12 @@ fn report(out: &logtrim_host::trim::TrimOutcome, serial: &str, fp: u32, unit: Un
         limits.max_offset_np(),
         f64::from(limits.max_gain_error()) * 100.0
     );
-    println!(
+    say!(
         "      fixed path: g = {}/2^30 = {:.6}, o = {}/2^24 = {:+.6} Np",
         t.gain_q30,
         f64::from(t.gain_q30) / f64::from(1u32 << 30),
         t.offset_q24,
         x_of_q24(t.offset_q24)
     );
+    Ok(())
 }

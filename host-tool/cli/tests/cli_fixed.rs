@@ -46,7 +46,7 @@ fn verify_passes_fails_and_refuses() {
     assert_eq!(code, 2, "{err}");
     let (code, _, err) = logtrim(&["verify", c.as_str(), "--t-knots", "2"]);
     assert_eq!(code, 2, "{err}");
-    assert!(err.contains("t_knots"), "{err}");
+    assert!(err.contains("--t-knots") && err.contains("4..=1000"), "{err}");
     let (code, _, err) = logtrim(&["verify", c.as_str(), "--temp-step", "0"]);
     assert_eq!(code, 2, "{err}");
     let _ = std::fs::remove_dir_all(&d);

@@ -215,13 +215,22 @@ fn bad_images_exit_1_with_the_specific_error() {
         ),
         ("erased.bin", vec![0xff; 268], "not a calibration image: starts with ff ff ff ff"),
         (
-            "v2.bin",
+            "v3.bin",
             {
                 let mut b = good.clone();
-                b[4] = 2;
+                b[4] = 3;
                 b
             },
-            "format version 2 is not supported",
+            "format version 3 is not supported",
+        ),
+        (
+            "v1.bin",
+            {
+                let mut b = good.clone();
+                b[4] = 1;
+                b
+            },
+            "format version 1 is not supported",
         ),
     ];
     for (name, bytes, want) in cases {
@@ -257,8 +266,8 @@ fn bad_input_exits_2_and_writes_nothing() {
         (&["image", "COEFFS.json", "-o", "a.bin", "--base-address", "0x100"], "Intel HEX output only"),
         (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "flash"], "is not an address"),
         (&["image", "COEFFS.json", "-o", "a.hex", "--base-address", "0xFFFFFF00"], "32-bit address space"),
-        (&["image", "COEFFS.json", "-o", "a.hex", "--record-len", "20"], "record length 20"),
-        (&["image", "COEFFS.json", "-o", "a.bin", "--t-knots", "2"], "t_knots: must be 4..=1000"),
+        (&["image", "COEFFS.json", "-o", "a.hex", "--record-len", "20"], "--record-len"),
+        (&["image", "COEFFS.json", "-o", "a.bin", "--t-knots", "2"], "--t-knots"),
         (&["image", "MISSING.json", "-o", "a.bin"], "MISSING.json"),
         (&["inspect", "MISSING.bin"], "MISSING.bin"),
     ];

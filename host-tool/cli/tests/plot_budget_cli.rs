@@ -124,7 +124,7 @@ fn plot_draws_the_fixed_point_error_map_on_request() {
     std::fs::remove_dir_all(&out).unwrap();
     let (code, _, stderr) = run(args(&["--fixed-map", "--xa-knots", "1"]));
     assert_eq!(code, 2, "{stderr}");
-    assert!(stderr.contains("xa_knots"), "{stderr}");
+    assert!(stderr.contains("--xa-knots"), "{stderr}");
     assert!(!out.exists(), "no chart written when one of them fails");
     let (code, _, stderr) = run(args(&["--fixed-map", "--map-codes", "0"]));
     assert_eq!(code, 2, "{stderr}");

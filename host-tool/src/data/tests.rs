@@ -268,3 +268,76 @@ fn line_numbers_count_blank_lines_crlf_and_quoted_newlines() {
     assert_eq!(d.rows[0].line, 3);
     assert_eq!(d.skipped[0].line, 7);
 }
+
+#[test]
+fn values_that_cannot_be_physical_are_refused_where_they_are_read() {
+    // Ratios of 1e308 and 1e-310 once reached the fit's solver; they are refused with their line and
+    // column, as are temperatures below absolute zero or above 1000 °C and absurd weights.
+    for (text, column, name) in [
+        ("code,temp_c,ratio\n100,25,1\n100,25,1e308\n", 3, "ratio"),
+        ("code,temp_c,ratio\n100,25,1\n100,25,1.7e308\n", 3, "ratio"),
+        ("code,temp_c,ratio\n100,25,1\n100,25,1e-310\n", 3, "ratio"),
+        ("code,temp_c,ratio\n100,25,1\n100,-300,1\n", 2, "temp_c"),
+        ("code,temp_c,ratio\n100,25,1\n100,1e6,1\n", 2, "temp_c"),
+        ("code,temp_c,ratio,weight\n100,25,1,1\n100,25,1,1e300\n", 4, "weight"),
+    ] {
+        let e = value_err(cal(text));
+        assert_eq!((e.line, e.column, e.name.as_str()), (3, column, name), "{e}");
+        assert!(matches!(e.problem, Problem::Implausible { .. }), "{e}");
+        assert!(e.to_string().contains("plausible span"), "{e}");
+    }
+    // The ends of the spans are accepted.
+    assert!(cal("code,temp_c,ratio\n100,-273.15,1e-30\n100,1000,1e30\n").is_ok());
+    // Readings too: a temperature the sensor converts to 2000 °C is no reading.
+    let conv = |_: u32| -> Result<f64, logtrim::Error> { Ok(2000.0) };
+    let opts = ReadOptions { temp_converter: Some(&conv), ..ReadOptions::default() };
+    let e = read_readings("code,temp_code\n100,5\n".as_bytes(), "r.csv", &opts).unwrap_err();
+    assert!(e.to_string().contains("plausible span"), "{e}");
+}
+
+#[test]
+fn utf16_and_binary_files_are_refused_by_name_and_never_echoed() {
+    let utf16: Vec<u8> = [0xFF, 0xFE]
+        .into_iter()
+        .chain("code,temp_c\n1,2\n".encode_utf16().flat_map(|u| u.to_le_bytes()))
+        .collect();
+    let e = read_readings(&utf16[..], "u.csv", &ReadOptions::default()).unwrap_err().to_string();
+    assert!(e.contains("UTF-16") && !e.contains('\0'), "{e}");
+    let no_bom: Vec<u8> = "code,temp_c\n1,2\n".encode_utf16().flat_map(|u| u.to_le_bytes()).collect();
+    let e = read_readings(&no_bom[..], "u.csv", &ReadOptions::default()).unwrap_err().to_string();
+    assert!(e.contains("binary") && !e.contains('\0'), "{e}");
+    // Control bytes in a header are escaped in the message.
+    let e = read_readings("co\x1bde,\x07temp\n1,2\n".as_bytes(), "c.csv", &ReadOptions::default())
+        .unwrap_err()
+        .to_string();
+    assert!(!e.chars().any(|c| c.is_control()), "{e:?}");
+    assert!(e.contains("\\u{1b}"), "{e}");
+}
+
+#[test]
+fn an_endless_line_is_refused_with_memory_bounded() {
+    // /dev/zero as input once grew to ~4 GB: a stretch of more than 1 MiB without a row is refused.
+    let zeros = std::io::repeat(b'7').take(64 << 20);
+    let e = read_readings(zeros, "endless", &ReadOptions::default()).unwrap_err().to_string();
+    assert!(e.contains("without the end of a row"), "{e}");
+    let head = "code,temp_c,ratio\n".as_bytes().chain(std::io::repeat(b'1').take(8 << 20));
+    let e = read_calibration(head, "endless", &ReadOptions::default()).unwrap_err().to_string();
+    assert!(e.contains("line 2") && e.contains("without the end of a row"), "{e}");
+}
+
+#[test]
+fn a_stream_of_readings_gives_the_rows_of_the_whole_file_read() {
+    let text = "id,code,temp_c\n\n1,100,25\n2,x,25\n\n\n3,300,26\n";
+    let opts = ReadOptions { skip_bad_rows: true, ..ReadOptions::default() };
+    let whole = read_readings(text.as_bytes(), "s.csv", &opts).unwrap();
+    let mut stream = ReadingsStream::open(text.as_bytes(), "s.csv", &opts).unwrap();
+    assert_eq!(stream.headers(), whole.headers.as_slice());
+    let mut rows = Vec::new();
+    while let Some(r) = stream.next_row().unwrap() {
+        rows.push((r.line, r.code, r.record));
+    }
+    let want: Vec<_> = whole.rows.iter().map(|r| (r.line, r.code, r.record.clone())).collect();
+    assert_eq!(rows, want);
+    assert_eq!(rows.iter().map(|r| r.0).collect::<Vec<_>>(), [3, 7]);
+    assert_eq!(stream.finish().unwrap(), whole.skipped);
+}

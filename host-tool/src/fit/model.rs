@@ -91,11 +91,22 @@ impl Spec {
             residual_x: 0,
             residual_t: 0,
         };
-        for part in text.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+        if text.trim().is_empty() {
+            return Err("no model terms: expected e.g. offset=3,slope=2,bulk=1,pole,bias,residual=3x2".into());
+        }
+        let mut seen: Vec<&str> = Vec::new();
+        for part in text.split(',').map(str::trim) {
+            if part.is_empty() {
+                return Err(format!("{text:?} has an empty term (two commas in a row, or one at an end)"));
+            }
             let (key, value) = match part.split_once('=') {
                 Some((k, v)) => (k.trim(), Some(v.trim())),
                 None => (part, None),
             };
+            if seen.contains(&key) {
+                return Err(format!("{key:?} is given twice; give each term once"));
+            }
+            seen.push(key);
             let count = |v: Option<&str>| -> Result<usize, String> {
                 v.ok_or_else(|| format!("{key:?} needs a number of terms, e.g. {key}=2"))?
                     .parse::<usize>()

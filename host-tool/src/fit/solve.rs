@@ -10,6 +10,8 @@ use super::model::{Params, Prep};
 
 /// Rows per block of the blocked (tall-skinny) QR.
 const BLOCK: usize = 8192;
+/// Most QR sweeps of the SVD of the small factor (it converges in a few dozen on any finite factor).
+const MAX_SVD_ITERATIONS: usize = 10_000;
 /// Below this many rows, residuals and Jacobians are computed on one thread (a small unit's fit runs in
 /// parallel with other units' instead).
 const PARALLEL_ROWS: usize = 4096;
@@ -88,7 +90,12 @@ where
     let rr = r.view((0, 0), (p.min(r.nrows()), p)).into_owned();
     let qtb = r.view((0, p), (p.min(r.nrows()), 1)).into_owned();
     let resid_tail = if r.nrows() > p { r[(p, p)] } else { 0.0 };
-    let svd = rr.clone().svd(true, true);
+    // A factor that is not finite (values beyond any physical reading) never reaches the SVD, and the SVD's
+    // iterations are bounded: a solve that does not converge is `None`, never a hang.
+    if !rr.iter().chain(qtb.iter()).all(|v| v.is_finite()) {
+        return None;
+    }
+    let svd = rr.clone().try_svd(true, true, f64::EPSILON, MAX_SVD_ITERATIONS)?;
     let smax = svd.singular_values.max();
     if !(smax.is_finite() && smax > 0.0) {
         return None;
@@ -222,6 +229,21 @@ pub fn refine(start: &Params, rows: &[Prep]) -> (Params, f64) {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn values_beyond_any_reading_end_the_solve_instead_of_hanging() {
+        // A row at 1e308 once made the SVD loop forever: the solve now ends, with no solution.
+        for big in [1e305, 1e308, f64::MAX, f64::INFINITY, f64::NAN] {
+            let s = linear_lstsq(10, 2, |i, b| {
+                b.clear();
+                let t = i as f64;
+                b.extend_from_slice(&[1.0, if i == 3 { big } else { t }, 2.0 + t]);
+            });
+            if let Some(s) = s {
+                assert!(s.coeffs.iter().all(|c| c.is_finite()), "{big}: {s:?}");
+            }
+        }
+    }
 
     #[test]
     fn exact_line_and_rank_deficiency() {
