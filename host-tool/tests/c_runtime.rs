@@ -184,12 +184,15 @@ fn selection_text<R, E: Copy>(
             format!("0 {} {a} {b} {}", slot_index(sel.slot), other_index(&sel.other))
         }
         Err(e) => {
-            format!("{} -1 {} {} -1", STATUS_NO_VALID, rejected_code(&e.a, code), rejected_code(&e.b, code))
+            format!("{} -1 {} {} -1", *STATUS_NO_VALID, rejected_code(&e.a, code), rejected_code(&e.b, code))
         }
     }
 }
 
-const STATUS_NO_VALID: usize = 44;
+/// `LTRM_NO_VALID_RECORD`'s number, found by name in the list the C enum is generated from.
+static STATUS_NO_VALID: std::sync::LazyLock<usize> = std::sync::LazyLock::new(|| {
+    logtrim_host::emit::c::STATUSES.iter().position(|(n, _)| *n == "LTRM_NO_VALID_RECORD").unwrap()
+});
 
 fn trim_text(t: &Trim) -> String {
     let p = t.parts();
@@ -571,8 +574,8 @@ fn a_firmware_without_unit_data_corrects_like_the_rust_fixed_path() {
         let (ta, tb, ba, bb) = (find(ta), find(tb), find(ba), find(bb));
         let trim = field::slots::select::<Trim>(&ta, &tb, Some(id));
         let blank = field::slots::select::<Blank>(&ba, &bb, Some(id));
-        let tc = if trim.is_ok() { 0 } else { STATUS_NO_VALID };
-        let bc = if blank.is_ok() { 0 } else { STATUS_NO_VALID };
+        let tc = if trim.is_ok() { 0 } else { *STATUS_NO_VALID };
+        let bc = if blank.is_ok() { 0 } else { *STATUS_NO_VALID };
         let t = trim.ok().map(|s| s.record);
         let k = blank.ok().map(|s| s.record);
         let (lc, layers) = match Layers::new(t, k, &TrimLimits::DEFAULT, Some(id)) {

@@ -38,7 +38,7 @@ use logtrim::Unit;
 
 /// Status codes of the C library, in the order of the generated `enum ltrm_status`, each with what it
 /// means (also the text of `ltrm_status_text`).
-pub const STATUSES: [(&str, &str); 45] = [
+pub const STATUSES: [(&str, &str); 46] = [
     ("LTRM_OK", "ok"),
     ("LTRM_CODE_OUT_OF_ADC_RANGE", "code above the converter's largest code"),
     ("LTRM_SATURATED", "code within the rail margin"),
@@ -77,6 +77,7 @@ pub const STATUSES: [(&str, &str); 45] = [
     ("LTRM_FIXED_TABLE_SIZE", "a fixed-point table's size disagrees with its dimensions"),
     ("LTRM_FIXED_MISMATCH", "the fixed-point section describes another converter than the ranges section"),
     ("LTRM_BAD_FIXED_TABLES", "the fixed-point tables fail their validation"),
+    ("LTRM_FIXED_OTHER_CALIBRATION", "the fixed-point tables were built from another unit's f32 model"),
     ("LTRM_FIXED_CAPACITY", "a fixed-point table does not fit the RAM given for it"),
     ("LTRM_INCONSISTENT", "a record's f32 and fixed-point forms of one value disagree"),
     ("LTRM_OUT_OF_RANGE", "a record value lies outside the range it may hold"),
@@ -152,6 +153,7 @@ pub fn image_code(e: &ImageError) -> usize {
         ImageError::Value(ImageValueError::Calibration(_)) => "LTRM_BAD_CALIBRATION",
         ImageError::Value(ImageValueError::FixedTableSize { .. }) => "LTRM_FIXED_TABLE_SIZE",
         ImageError::Value(ImageValueError::FixedMismatch { .. }) => "LTRM_FIXED_MISMATCH",
+        ImageError::Value(ImageValueError::FixedOtherCalibration { .. }) => "LTRM_FIXED_OTHER_CALIBRATION",
         ImageError::Value(_) => "LTRM_BAD_FIXED_TABLES",
         ImageError::FixedCapacity { .. } => "LTRM_FIXED_CAPACITY",
         _ => "LTRM_BAD_TABLE",

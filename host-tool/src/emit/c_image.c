@@ -237,7 +237,8 @@ static ltrm_status ltrm_fault(uint8_t code, ltrm_status *out) {
 /* The fixed section's structure (image::fixed::decode): reserved bytes, flags, sensor fault codes, every
  * table's size against the section's own dimensions, the converter against the ranges section, the
  * payload's length and its padding. */
-static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8_t *ranges, ltrm_fixed_section *s) {
+static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8_t *ranges, uint32_t identity,
+                                     ltrm_fixed_section *s) {
     static const uint8_t sensor_fields[9][2] = {
         { LTRM_L_FIXED_SENSOR_CODE_LO, 4u },      { LTRM_L_FIXED_SENSOR_CODE_HI, 4u },
         { LTRM_L_FIXED_SENSOR_FAR_BELOW_CODE, 4u }, { LTRM_L_FIXED_SENSOR_FAR_ABOVE_CODE, 4u },
@@ -311,6 +312,8 @@ static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8
     bits = ranges[LTRM_L_RANGES_ADC_BITS];
     if (bits == 0u || bits > 24u || h->adc_max_code != (1u << bits) - 1u) return LTRM_FIXED_MISMATCH;
     if (h->rail_margin != ltrm_le32(ranges + LTRM_L_RANGES_RAIL_MARGIN)) return LTRM_FIXED_MISMATCH;
+    /* The tables were built from this image's f32 model, not spliced in from another unit's. */
+    if (ltrm_le32(p + LTRM_L_FIXED_MODEL_FINGERPRINT) != identity) return LTRM_FIXED_OTHER_CALIBRATION;
     for (i = 0; i < 6u; i++) data += ltrm_table_elem[i] * s->sizes[i];
     want = (LTRM_L_FIXED_HEAD_LEN + data + (LTRM_L_ALIGN - 1u)) & ~(LTRM_L_ALIGN - 1u);
     if (len != want) return LTRM_SECTION_LENGTH;
@@ -380,11 +383,12 @@ static ltrm_status ltrm_image_parse(const uint8_t *b, uint32_t avail, int prefix
     /* Values. */
     if ((st = ltrm_image_header(b, &out->info)) != LTRM_OK) return st;
     if ((st = ltrm_check_f32_sections(ranges, model)) != LTRM_OK) return st;
+    out->info.identity = ltrm_crc32(ltrm_crc32(0u, ranges, LTRM_L_RANGES_LEN), model, LTRM_L_MODEL_LEN);
     out->has_fixed = fixed != 0;
-    if (fixed && (st = ltrm_decode_fixed(fixed, fixed_len, ranges, &out->fixed)) != LTRM_OK) return st;
+    if (fixed && (st = ltrm_decode_fixed(fixed, fixed_len, ranges, out->info.identity, &out->fixed)) != LTRM_OK)
+        return st;
     out->info.len = total;
     out->info.crc = ltrm_le32(b + total - LTRM_L_TRAILER_LEN);
-    out->info.identity = ltrm_crc32(ltrm_crc32(0u, ranges, LTRM_L_RANGES_LEN), model, LTRM_L_MODEL_LEN);
     return LTRM_OK;
 }
 

@@ -88,7 +88,7 @@ pub fn m_scale(d: &[f64]) -> Option<f64> {
 const SPREAD_POINTS: usize = 8;
 
 /// [`m_scale`] of values quantised to `step` (whole codes: 1): each value is spread evenly over one step
-/// (at [`SPREAD_POINTS`] points). Without it, more than half the differences of quiet repeats are exactly
+/// (at `SPREAD_POINTS` points). Without it, more than half the differences of quiet repeats are exactly
 /// zero and a 50 %-breakdown scale collapses to nothing; with it the estimate is close to the rms of the
 /// quantised values on Gaussian data, a little above it (the spread adds at most `step²/12` of variance),
 /// which errs towards keeping a row.

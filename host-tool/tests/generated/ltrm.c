@@ -87,6 +87,7 @@
 #define LTRM_L_FIXED_FAULT_FAR_ABOVE 88u
 #define LTRM_L_FIXED_RESERVED2 89u
 #define LTRM_L_FIXED_RESERVED2_SIZE 3u
+#define LTRM_L_FIXED_MODEL_FINGERPRINT 92u
 #define LTRM_L_REC_MAGIC 0u
 #define LTRM_L_REC_VERSION 4u
 #define LTRM_L_REC_LEN 6u
@@ -115,7 +116,7 @@
 #define LTRM_L_MODEL_KIND 2u
 #define LTRM_L_MODEL_LEN 184u
 #define LTRM_L_FIXED_KIND 32771u
-#define LTRM_L_FIXED_HEAD_LEN 92u
+#define LTRM_L_FIXED_HEAD_LEN 96u
 #define LTRM_L_IMAGE_MIN_LEN 44u
 #define LTRM_L_IMAGE_MAX_LEN 65536u
 #define LTRM_L_REC_HEADER_LEN 24u
@@ -995,7 +996,8 @@ static ltrm_status ltrm_fault(uint8_t code, ltrm_status *out) {
 /* The fixed section's structure (image::fixed::decode): reserved bytes, flags, sensor fault codes, every
  * table's size against the section's own dimensions, the converter against the ranges section, the
  * payload's length and its padding. */
-static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8_t *ranges, ltrm_fixed_section *s) {
+static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8_t *ranges, uint32_t identity,
+                                     ltrm_fixed_section *s) {
     static const uint8_t sensor_fields[9][2] = {
         { LTRM_L_FIXED_SENSOR_CODE_LO, 4u },      { LTRM_L_FIXED_SENSOR_CODE_HI, 4u },
         { LTRM_L_FIXED_SENSOR_FAR_BELOW_CODE, 4u }, { LTRM_L_FIXED_SENSOR_FAR_ABOVE_CODE, 4u },
@@ -1069,6 +1071,8 @@ static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8
     bits = ranges[LTRM_L_RANGES_ADC_BITS];
     if (bits == 0u || bits > 24u || h->adc_max_code != (1u << bits) - 1u) return LTRM_FIXED_MISMATCH;
     if (h->rail_margin != ltrm_le32(ranges + LTRM_L_RANGES_RAIL_MARGIN)) return LTRM_FIXED_MISMATCH;
+    /* The tables were built from this image's f32 model, not spliced in from another unit's. */
+    if (ltrm_le32(p + LTRM_L_FIXED_MODEL_FINGERPRINT) != identity) return LTRM_FIXED_OTHER_CALIBRATION;
     for (i = 0; i < 6u; i++) data += ltrm_table_elem[i] * s->sizes[i];
     want = (LTRM_L_FIXED_HEAD_LEN + data + (LTRM_L_ALIGN - 1u)) & ~(LTRM_L_ALIGN - 1u);
     if (len != want) return LTRM_SECTION_LENGTH;
@@ -1138,11 +1142,12 @@ static ltrm_status ltrm_image_parse(const uint8_t *b, uint32_t avail, int prefix
     /* Values. */
     if ((st = ltrm_image_header(b, &out->info)) != LTRM_OK) return st;
     if ((st = ltrm_check_f32_sections(ranges, model)) != LTRM_OK) return st;
+    out->info.identity = ltrm_crc32(ltrm_crc32(0u, ranges, LTRM_L_RANGES_LEN), model, LTRM_L_MODEL_LEN);
     out->has_fixed = fixed != 0;
-    if (fixed && (st = ltrm_decode_fixed(fixed, fixed_len, ranges, &out->fixed)) != LTRM_OK) return st;
+    if (fixed && (st = ltrm_decode_fixed(fixed, fixed_len, ranges, out->info.identity, &out->fixed)) != LTRM_OK)
+        return st;
     out->info.len = total;
     out->info.crc = ltrm_le32(b + total - LTRM_L_TRAILER_LEN);
-    out->info.identity = ltrm_crc32(ltrm_crc32(0u, ranges, LTRM_L_RANGES_LEN), model, LTRM_L_MODEL_LEN);
     return LTRM_OK;
 }
 
@@ -1541,6 +1546,7 @@ const char *ltrm_status_text(ltrm_status status) {
     case LTRM_FIXED_TABLE_SIZE: return "a fixed-point table's size disagrees with its dimensions";
     case LTRM_FIXED_MISMATCH: return "the fixed-point section describes another converter than the ranges section";
     case LTRM_BAD_FIXED_TABLES: return "the fixed-point tables fail their validation";
+    case LTRM_FIXED_OTHER_CALIBRATION: return "the fixed-point tables were built from another unit's f32 model";
     case LTRM_FIXED_CAPACITY: return "a fixed-point table does not fit the RAM given for it";
     case LTRM_INCONSISTENT: return "a record's f32 and fixed-point forms of one value disagree";
     case LTRM_OUT_OF_RANGE: return "a record value lies outside the range it may hold";

@@ -17,7 +17,7 @@ extern "C" {
 #define LTRM_VERSION_MAJOR 0
 #define LTRM_VERSION_MINOR 1
 #define LTRM_VERSION_PATCH 0
-#define LTRM_IMAGE_VERSION 1u /* calibration image format (image::layout::header::VERSION_VALUE) */
+#define LTRM_IMAGE_VERSION 2u /* calibration image format (image::layout::header::VERSION_VALUE) */
 #define LTRM_TRIM_VERSION 1u /* trim record format */
 #define LTRM_BLANK_VERSION 1u /* blank record format */
 #define LTRM_MAGIC_IMAGE "LTCI"
@@ -118,6 +118,7 @@ typedef enum ltrm_status {
     LTRM_FIXED_TABLE_SIZE, /* a fixed-point table's size disagrees with its dimensions */
     LTRM_FIXED_MISMATCH, /* the fixed-point section describes another converter than the ranges section */
     LTRM_BAD_FIXED_TABLES, /* the fixed-point tables fail their validation */
+    LTRM_FIXED_OTHER_CALIBRATION, /* the fixed-point tables were built from another unit's f32 model */
     LTRM_FIXED_CAPACITY, /* a fixed-point table does not fit the RAM given for it */
     LTRM_INCONSISTENT, /* a record's f32 and fixed-point forms of one value disagree */
     LTRM_OUT_OF_RANGE, /* a record value lies outside the range it may hold */
