@@ -233,7 +233,7 @@ impl SensorTable<'_> {
     /// The number of control points the span needs: one segment per `2^step_log2` codes, the code at the
     /// span's top included, plus three.
     pub fn knots_needed(code_lo: u32, code_hi: u32, step_log2: u8) -> usize {
-        (code_hi.saturating_sub(code_lo) >> u32::from(step_log2).min(16)) as usize + 4
+        ((code_hi.saturating_sub(code_lo) >> u32::from(step_log2).min(16)) as usize).saturating_add(4)
     }
 }
 
@@ -587,7 +587,7 @@ impl<'a> FixedCalibration<'a> {
     fn end_weights(&self, end: u32) -> (usize, [i32; 4]) {
         let last = u32::from(self.header.t_knots).saturating_sub(2);
         let seg = (end >> WINDOWS_LOG2).min(last);
-        (seg as usize, window_weights(end - (seg << WINDOWS_LOG2)))
+        (seg as usize, window_weights(end.saturating_sub(seg << WINDOWS_LOG2)))
     }
 
     /// The four per-temperature values at window end `end`, exact, each checked against its limit.
@@ -617,12 +617,12 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     pub(crate) fn window(&self, index: u32) -> Result<Window, Error> {
         let start = self.end_scalars(index)?;
-        let end = self.end_scalars(index + 1)?;
+        let end = self.end_scalars(index.saturating_add(1))?;
         // The spline's second derivative at the window's middle, t = (2m + 1)/32 in its segment: 32 times
         // the second-derivative basis is (31 − 2m, 6m − 61, 29 − 6m, 2m + 1), and the chord's deviation
         // term is c = h²·p''/2 with h = 1/16: c = 3·Σ W_k·c_k / 8192 for control points stored divided by 6.
         let (seg, _) = self.end_weights(index);
-        let m = (index - ((seg as u32) << WINDOWS_LOG2)).min(WINDOWS - 1) as i32;
+        let m = index.saturating_sub((seg as u32) << WINDOWS_LOG2).min(WINDOWS - 1) as i32;
         let w = [31 - 2 * m, 6 * m - 61, 29 - 6 * m, 2 * m + 1];
         let curv = |t: &[i32]| -> Result<i64, Error> {
             let c = four(t, seg).ok_or(BAD_TABLE)?;
@@ -678,8 +678,8 @@ impl<'a> FixedCalibration<'a> {
         let x = plan.x_of(&s, code, |seg| {
             let mut c = [0; 4];
             for (k, v) in c.iter_mut().enumerate() {
-                let a = self.end_column(pos.index, seg + k)?;
-                let b = self.end_column(pos.index + 1, seg + k)?;
+                let a = self.end_column(pos.index, seg.saturating_add(k))?;
+                let b = self.end_column(pos.index.saturating_add(1), seg.saturating_add(k))?;
                 *v = a + mulh16(b - a, pos.f16);
             }
             Ok(c)
@@ -838,9 +838,16 @@ impl<'a> FixedCalibration<'a> {
     /// Flash taken by the tables and the header, in bytes (the universal tables not included: see
     /// [`universal::BYTES`]).
     pub fn table_bytes(&self) -> usize {
-        let words = self.offset.len() + self.inv_slope.len() + self.ln_bias.len() + self.u_min.len();
-        let sensor = self.sensor.as_ref().map_or(0, |s| 4 * s.knots.len() + 12);
-        4 * words + 2 * self.residual.len() + sensor + core::mem::size_of::<FixedHeader>()
+        // Slice lengths: the sums saturate rather than wrap (no real table comes near usize::MAX bytes).
+        let words = [self.offset, self.inv_slope, self.ln_bias, self.u_min]
+            .iter()
+            .fold(0usize, |n, t| n.saturating_add(t.len()));
+        let sensor = self.sensor.as_ref().map_or(0, |s| s.knots.len().saturating_mul(4).saturating_add(12));
+        words
+            .saturating_mul(4)
+            .saturating_add(self.residual.len().saturating_mul(2))
+            .saturating_add(sensor)
+            .saturating_add(core::mem::size_of::<FixedHeader>())
     }
 }
 
@@ -901,8 +908,8 @@ impl FixedReading {
             Unit::Absorbance => -decades(x),
             Unit::TransmittancePercent => {
                 let e = transcend::exp_q32(x)?;
-                // e·100 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.
-                if e > i64::MAX / 100 {
+                // e·100 + 2^7 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.
+                if e > (i64::MAX - (1 << 7)) / 100 {
                     return Err(Error::AboveRange);
                 }
                 ((e << 6) + (e << 5) + (e << 2) + (1 << 7)) >> 8

@@ -109,14 +109,25 @@ fn check_agreement(h: &FixedHeader, c: &Calibration) -> Result<(), ImageValueErr
     Ok(())
 }
 
+/// Bytes of the first `n` tables (without padding). Sizes are u16 counts, so the sum stays far below
+/// 2^64; it saturates all the same, so that no input can make it wrap.
+fn tables_len(sizes: &Sizes, n: usize) -> u64 {
+    lf::TABLES
+        .iter()
+        .zip(sizes)
+        .take(n)
+        .fold(0u64, |sum, (t, &k)| sum.saturating_add((t.elem.size() as u64).saturating_mul(u64::from(k))))
+}
+
 /// Bytes of the tables (without padding).
 fn data_len(sizes: &Sizes) -> u64 {
-    lf::TABLES.iter().zip(sizes).map(|(t, &n)| t.elem.size() as u64 * u64::from(n)).sum()
+    tables_len(sizes, N_TABLES)
 }
 
 /// The payload length of a section with these table sizes: the fields, the tables, padding to 4 bytes.
 fn payload_len(sizes: &Sizes) -> u64 {
-    (lf::HEAD_LEN as u64 + data_len(sizes)).next_multiple_of(section::ALIGN as u64)
+    let len = (lf::HEAD_LEN as u64).saturating_add(data_len(sizes));
+    len.checked_next_multiple_of(section::ALIGN as u64).unwrap_or(u64::MAX)
 }
 
 fn len_u16(n: u64) -> u16 {
@@ -192,7 +203,7 @@ pub(super) fn decode<'a>(p: &Part<'a>, calibration: &Calibration) -> Result<Fixe
         });
     }
     // The padding after the last table is zero.
-    let data_end = lf::HEAD_LEN + usize::try_from(data_len(&sizes)).unwrap_or(usize::MAX);
+    let data_end = lf::HEAD_LEN.saturating_add(usize::try_from(data_len(&sizes)).unwrap_or(usize::MAX));
     p.zeros(data_end..len)?;
     let tables = p.range(lf::HEAD_LEN..data_end)?;
     Ok(FixedSection { header, sensor, sizes, tables })
@@ -319,12 +330,9 @@ impl<'a> FixedSection<'a> {
 
     /// The bytes of table `i` of [`lf::TABLES`].
     fn bytes_of(&self, i: usize) -> &'a [u8] {
-        let start: u64 = data_len_before(&self.sizes, i);
-        let len = match (lf::TABLES.get(i), self.sizes.get(i)) {
-            (Some(t), Some(&n)) => t.elem.size() as u64 * u64::from(n),
-            _ => 0,
-        };
-        let (Ok(start), Ok(end)) = (usize::try_from(start), usize::try_from(start + len)) else {
+        let start = tables_len(&self.sizes, i);
+        let end = tables_len(&self.sizes, i.saturating_add(1));
+        let (Ok(start), Ok(end)) = (usize::try_from(start), usize::try_from(end)) else {
             return &[];
         };
         self.tables.get(start..end).unwrap_or(&[])
@@ -363,11 +371,6 @@ impl<'a> FixedSection<'a> {
     pub fn residual(&self) -> I16Values<'a> {
         I16Values { words: self.bytes_of(RESIDUAL).as_chunks::<2>().0.iter() }
     }
-}
-
-/// Bytes of the tables before table `i`.
-fn data_len_before(sizes: &Sizes, i: usize) -> u64 {
-    lf::TABLES.iter().zip(sizes).take(i).map(|(t, &n)| t.elem.size() as u64 * u64::from(n)).sum()
 }
 
 /// Where a unit's fixed-point tables live after they are read from an image: arrays of fixed capacity
