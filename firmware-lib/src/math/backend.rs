@@ -16,6 +16,17 @@
 /// `ln` at or above 1: 7e-5 absolute, `exp`: 2.5e-3 relative. micromath's `ln` below 1 and its `exp` are
 /// outside a ¼-LSB budget for a 16-bit log channel.
 ///
+/// ```
+/// use logtrim::math::{Backend, Libm};
+///
+/// // ln 10 = 2.302585093 and e^1 = 2.718281828 (mathematical constants), within an f32 ULP or two.
+/// assert!((Libm::ln(10.0) - 2.302_585_1).abs() <= 2.0 * f32::EPSILON * 2.31);
+/// assert!((Libm::exp(1.0) - core::f32::consts::E).abs() <= 2.0 * f32::EPSILON * 2.72);
+/// // The coarse backend keeps the error bound stated above for ln at or above 1.
+/// #[cfg(feature = "micromath")]
+/// assert!((logtrim::math::Micromath::ln(10.0) - 2.302_585_1).abs() < 7e-5);
+/// ```
+///
 /// micromath is offered for parts where speed matters more than the last digits; `logtrim verify` reports
 /// its error honestly.
 pub trait Backend {
