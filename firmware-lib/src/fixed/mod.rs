@@ -545,6 +545,100 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
+    ///
+    /// The host tool generates the tables from a fitted calibration; this example makes the tables of an
+    /// ideal linear unit by hand, x = (code − 32769)·6/32768 Np at every temperature (control points are
+    /// stored divided by 6, so these divide exactly), with a temperature channel of 15 m°C per code.
+    ///
+    /// ```
+    /// use logtrim::error::{Error, SensorFault};
+    /// use logtrim::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+    /// use logtrim::Unit;
+    ///
+    /// let header = FixedHeader {
+    ///     layout: LAYOUT_VERSION,
+    ///     adc_max_code: 65535, // 16-bit converter
+    ///     rail_margin: 16,
+    ///     // Calibrated 0…50 °C, accepted −5…55 °C (θ = m°C · 2^10).
+    ///     temp_min: 0,
+    ///     temp_max: 50_000 << 10,
+    ///     temp_lo: -5_000 << 10,
+    ///     temp_hi: 55_000 << 10,
+    ///     // Five temperature knots 2^24 θ (16.4 K) apart from −5 °C.
+    ///     t_knots: 5,
+    ///     t_origin: -5_000 << 10,
+    ///     t_step_log2: 24,
+    ///     offset_frac: 14,
+    ///     inv_slope_frac: 42,
+    ///     bias_bend: false,
+    ///     sensitivity_limit: false,
+    ///     // Six x̃ knots 4 Np apart from −9 Np; x within ±27306·6/32768 Np.
+    ///     xa_knots: 6,
+    ///     xa_origin: -9 << 24,
+    ///     xa_step_log2: 26,
+    ///     residual_frac: 16,
+    ///     x_min: -27306 * 3072,
+    ///     x_max: 27306 * 3072,
+    /// };
+    /// // Offset 32769 codes (Q14), inverse slope 6/32768 Np per code (Q42), each divided by 6; no residual.
+    /// let (offset, inv_slope, residual) = ([10923 << 13; 7], [1 << 27; 7], [0i16; 7 * 8]);
+    /// // Temperature channel: θ = (code − 100)·15 m°C over codes 100…4000, one segment per 256 codes.
+    /// let knots: Vec<i32> = (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect();
+    /// let sensor = SensorTable {
+    ///     code_lo: 100,
+    ///     code_hi: 4000,
+    ///     step_log2: 8,
+    ///     fault_below: SensorFault::OutOfModelRange,
+    ///     far_below_code: 10,
+    ///     fault_far_below: SensorFault::Short,
+    ///     fault_above: SensorFault::OutOfModelRange,
+    ///     far_above_code: 4090,
+    ///     fault_far_above: SensorFault::Open,
+    ///     knots: &knots,
+    /// };
+    /// assert_eq!(SensorTable::knots_needed(100, 4000, 8), knots.len());
+    /// let cal = FixedCalibration {
+    ///     header,
+    ///     offset: &offset,
+    ///     inv_slope: &inv_slope,
+    ///     ln_bias: &[],
+    ///     u_min: &[],
+    ///     residual: &residual,
+    ///     sensor: Some(sensor),
+    /// };
+    /// cal.validate()?;
+    ///
+    /// // 5461 codes below the offset: x = −5461·6/32768 Np, exactly −5461·3072 in Q24.
+    /// let code = 32769 - 5461;
+    /// let r = cal.correct(code, 25_000)?;
+    /// assert_eq!(r.x, -5461 * 3072);
+    /// assert!(!r.temperature_extrapolated);
+    /// // Units as integers: decades are x/ln 10 (Q24), the ratio e^x (Q32); checked against f64.
+    /// let x = f64::from(r.x) / 16_777_216.0;
+    /// let decades = r.value(Unit::Decades)? as f64 / 16_777_216.0;
+    /// assert!((decades - x / std::f64::consts::LN_10).abs() < 1e-7);
+    /// let ratio = r.value(Unit::Ratio)? as f64 / 4_294_967_296.0;
+    /// assert!((ratio - x.exp()).abs() < 1e-6);
+    ///
+    /// // The same reading from the raw temperature code: code 1100 is (1100 − 100)·15 m°C = 15 °C.
+    /// assert_eq!(cal.theta_from_code(1100), Ok(15_000 << 10));
+    /// assert_eq!(cal.correct_raw(code, 1100), cal.correct(code, 15_000));
+    /// // A block of codes at one temperature stage: bit for bit the one-call results.
+    /// let stage = cal.stage_millicelsius(52_000)?; // beyond the calibrated 50 °C, within the accepted 55 °C
+    /// assert!(stage.extrapolated());
+    /// let codes = [1000, 20000, 40000, 60000];
+    /// let mut out = [Err(Error::NotCalibrated); 4];
+    /// assert_eq!(cal.correct_block(&stage, &codes, &mut out), 4);
+    /// for (o, &c) in out.iter().zip(&codes) {
+    ///     assert_eq!(*o, cal.correct(c, 52_000));
+    /// }
+    ///
+    /// // Refused inputs: a code at the rail, a temperature beyond the accepted range, an open sensor.
+    /// assert_eq!(cal.correct(65535, 25_000), Err(Error::Saturated { code: 65535 }));
+    /// assert!(matches!(cal.correct(code, 60_000), Err(Error::TemperatureOutOfRange { .. })));
+    /// assert_eq!(cal.correct_raw(code, 4095), Err(Error::Sensor(SensorFault::Open)));
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         let plan = Plan::of(&self.header);

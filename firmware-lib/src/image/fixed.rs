@@ -301,6 +301,63 @@ impl ExactSizeIterator for I16Values<'_> {}
 /// tables fail step 2 as invalid, so the other slot is used. The writer applies the same rules (sizes,
 /// agreement with *ranges*, `validate`) before writing a byte, so it never writes a section a reader
 /// refuses.
+///
+/// ```
+/// use logtrim::error::SensorFault;
+/// use logtrim::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+/// use logtrim::image::{self, DefaultFixedStorage, Image, ImageError, ImageInfo};
+/// use logtrim::Calibration;
+///
+/// // The ideal linear unit of `FixedCalibration::correct`'s example: x = (code − 32769)·6/32768 Np.
+/// # let header = FixedHeader {
+/// #     layout: LAYOUT_VERSION, adc_max_code: 65535, rail_margin: 16,
+/// #     temp_min: 0, temp_max: 50_000 << 10, temp_lo: -5_000 << 10, temp_hi: 55_000 << 10,
+/// #     t_knots: 5, t_origin: -5_000 << 10, t_step_log2: 24, offset_frac: 14, inv_slope_frac: 42,
+/// #     bias_bend: false, sensitivity_limit: false, xa_knots: 6, xa_origin: -9 << 24, xa_step_log2: 26,
+/// #     residual_frac: 16, x_min: -27306 * 3072, x_max: 27306 * 3072,
+/// # };
+/// # let (offset, inv_slope, residual) = ([10923 << 13; 7], [1 << 27; 7], [0i16; 7 * 8]);
+/// # let knots: Vec<i32> = (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect();
+/// # let sensor = SensorTable {
+/// #     code_lo: 100, code_hi: 4000, step_log2: 8,
+/// #     fault_below: SensorFault::OutOfModelRange, far_below_code: 10, fault_far_below: SensorFault::Short,
+/// #     fault_above: SensorFault::OutOfModelRange, far_above_code: 4090, fault_far_above: SensorFault::Open,
+/// #     knots: &knots,
+/// # };
+/// let fixed = FixedCalibration {
+///     header,
+///     offset: &offset,
+///     inv_slope: &inv_slope,
+///     ln_bias: &[],
+///     u_min: &[],
+///     residual: &residual,
+///     sensor: Some(sensor),
+/// };
+/// // The f32 calibration the image carries beside it must describe the same converter: 16 bits, margin 16.
+/// let mut f32_cal = Calibration::nominal(16, 32769.0, 32768.0 / 6.0, 25.0);
+/// f32_cal.adc.rail_margin = 16;
+///
+/// let info = ImageInfo { serial: "DL-0003", calibrated_at: 1_700_000_000, sequence: 1 };
+/// let mut eeprom = [0u8; 1024];
+/// let len = image::write_with_fixed(&mut eeprom, &info, &f32_cal, Some(&fixed), &[])?;
+/// assert_eq!(len, image::encoded_len_with_fixed(&f32_cal, Some(&fixed), &[])?);
+///
+/// // Step 1 (parse) checks the section's structure; step 2 copies the tables into RAM and validates them.
+/// let image = Image::parse(&eeprom[..len])?;
+/// let section = image.fixed().expect("written with a fixed section");
+/// assert!(section.offset().eq(offset.iter().copied()));
+/// let mut storage = DefaultFixedStorage::new();
+/// let loaded = image.fixed_into(&mut storage)?;
+/// assert_eq!(loaded, fixed);
+/// for code in [1000, 32769, 60000] {
+///     assert_eq!(loaded.correct(code, 25_000), fixed.correct(code, 25_000));
+/// }
+///
+/// // A storage too small for the tables refuses them rather than cutting them short.
+/// let mut small = image::FixedStorage::<4, 16, 8>::new();
+/// assert!(matches!(image.fixed_into(&mut small), Err(ImageError::FixedCapacity { .. })));
+/// # Ok::<(), Box<dyn core::error::Error>>(())
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedSection<'a> {
