@@ -80,6 +80,26 @@ impl Divider {
     }
 
     /// The sensor's resistance in Ω at a code (f32, firmware).
+    ///
+    /// ```
+    /// use logtrim::error::{Error, SensorFault};
+    /// use logtrim::{Divider, Placement};
+    ///
+    /// // Sensor to ground under a 10 kΩ series resistor, read ratiometrically by a 12-bit converter:
+    /// // R = R_s·code/(F − code) with F = 4096, so mid-scale is R_s itself.
+    /// let mut d = Divider::ratiometric(Placement::LowSide, 10_000.0, 12);
+    /// assert_eq!(d.resistance(2048)?, 10_000.0);
+    /// assert!((d.resistance(1024)? - 10_000.0 / 3.0).abs() < 0.01);
+    /// // Its forward model gives the code back.
+    /// assert!((d.code_f64(10_000.0 / 3.0)? - 1024.0).abs() < 1e-9);
+    ///
+    /// // The rails are faults, never temperatures: 0 is a short; with a margin of 8 codes, the top is open.
+    /// assert_eq!(d.resistance(0), Err(Error::Sensor(SensorFault::Short)));
+    /// d.open_margin = 8;
+    /// assert_eq!(d.resistance(4090), Err(Error::Sensor(SensorFault::Open)));
+    /// assert!(d.resistance(4096).is_err()); // not a 12-bit code
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn resistance(&self, code: u32) -> Result<f32, Error> {
         self.resistance_generic(code)
     }

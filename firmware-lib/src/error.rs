@@ -95,6 +95,21 @@ pub enum Error {
 
 impl Error {
     /// A stable snake_case name of the variant (used in CSV `error` columns and logs).
+    ///
+    /// ```
+    /// use logtrim::error::{Error, SensorFault};
+    /// use logtrim::Calibration;
+    ///
+    /// // A temperature far outside the calibrated range: the error names it, in °C from whole m°C.
+    /// let cal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+    /// let e = cal.correct(30000, 400.0).unwrap_err();
+    /// assert_eq!(e, Error::TemperatureOutOfRange { millicelsius: 400_000 });
+    /// assert_eq!(e.name(), "temperature_out_of_range");
+    /// assert_eq!(e.to_string(), "temperature 400 °C outside the calibrated range");
+    /// let open = Error::from(SensorFault::Open);
+    /// assert_eq!(open.name(), "sensor_fault");
+    /// assert_eq!(open.to_string(), "temperature sensor fault: sensor open circuit");
+    /// ```
     pub const fn name(&self) -> &'static str {
         match self {
             Error::CodeOutOfAdcRange { .. } => "code_out_of_adc_range",

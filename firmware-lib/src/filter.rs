@@ -81,6 +81,29 @@ impl Ema {
     }
 
     /// Adds one sample and returns the new output. A non-finite sample is refused and changes nothing.
+    ///
+    /// ```
+    /// use logtrim::filter::Ema;
+    ///
+    /// // A step through a first-order lag reaches 1 − e^(−1) = 63.2 % of its height after τ samples and
+    /// // 1 − e^(−3) = 95.0 % after 3τ (the RC lag; common practice).
+    /// let mut ema = Ema::new(4.0).unwrap();
+    /// assert_eq!(ema.update(0.0)?, 0.0); // the first sample passes through
+    /// let mut y = 0.0;
+    /// for n in 1..=12 {
+    ///     y = ema.update(1.0)?;
+    ///     if n == 4 {
+    ///         assert!((y - (1.0 - (-1.0f32).exp())).abs() < 1e-6);
+    ///     }
+    /// }
+    /// assert!((y - (1.0 - (-3.0f32).exp())).abs() < 1e-6);
+    /// // A non-finite sample is refused and leaves the state alone; a cycle without a value resets it.
+    /// assert!(ema.update(f32::NAN).is_err());
+    /// assert_eq!(ema.value(), Some(y));
+    /// assert_eq!(ema.feed(None)?, None);
+    /// assert_eq!(ema.feed(Some(2.0))?, Some(2.0));
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn update(&mut self, x: f32) -> Result<f32, Error> {
         if !x.is_finite() {
             return Err(Error::NonFinite);

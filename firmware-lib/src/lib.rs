@@ -30,6 +30,48 @@
 //! Features: `serde` (derive Serialize/Deserialize on calibration types), `defmt` (derive `defmt::Format`),
 //! `micromath` (an extra, faster and coarser f32 backend), `hal` (a measurement cycle on embedded-hal 1.0),
 //! `reference` (the host's f64 reference of the calibration: not for firmware builds).
+//!
+//! # Quick start
+//!
+//! A unit's calibration arrives as an image in EEPROM or flash; the firmware checks it once with
+//! [`Image::parse`] and then corrects every (ADC code, temperature) pair into x = ln(I_sig/I_ref), which
+//! [`Unit`] turns into the quantity the instrument shows. Here the image is written first, from the design
+//! values of an uncalibrated unit ([`Calibration::nominal`]: a 16-bit converter, the log stage's zero at
+//! code 32 768, 1 000 codes per neper at 25 °C), as the production line would write a fitted one.
+//!
+//! ```
+//! use logtrim::image::{self, ImageInfo};
+//! use logtrim::{Calibration, Image, Unit};
+//!
+//! // On the line: write the unit's image into a buffer (the bytes that go to EEPROM).
+//! let nominal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+//! let info = ImageInfo { serial: "DL-0001", calibrated_at: 1_700_000_000, sequence: 1 };
+//! let mut eeprom = [0u8; 512];
+//! let len = image::write(&mut eeprom, &info, &nominal).expect("a nominal calibration is valid");
+//!
+//! // In the field: check the bytes once, then trust them.
+//! let image = Image::parse(&eeprom[..len]).expect("the image just written");
+//! assert_eq!(image.serial(), "DL-0001");
+//! let cal = image.calibration();
+//! assert_eq!(cal, nominal); // an image stores every f32 bit for bit
+//!
+//! // A sample that absorbs 90 % of the light: I_sig/I_ref = 0.1, x = −ln 10, so the code lies
+//! // 1000·ln 10 ≈ 2302.6 codes below the zero. Its absorbance is 1 AU and its transmittance 10 %
+//! // (A = −log10 T: the definition of absorbance, common practice).
+//! let code = 32768 - 2303;
+//! let reading = cal.correct(code, 25.0)?;
+//! assert!((reading.value(Unit::Absorbance) - 1.0).abs() < 1e-3);
+//! assert!((reading.value(Unit::TransmittancePercent) - 10.0).abs() < 0.01);
+//!
+//! // The slope of a log-ratio stage is proportional to kT/q, so the same code at 50 °C means a ratio
+//! // closer to 1: x scales by T_ref/T = 298.15 K / 323.15 K.
+//! let warm = cal.correct(code, 50.0)?;
+//! assert!((warm.x / reading.x - 298.15 / 323.15).abs() < 1e-5);
+//!
+//! // Bad input is an error, never a panic: a code beyond a 16-bit converter's range.
+//! assert!(cal.correct(70_000, 25.0).is_err());
+//! # Ok::<(), logtrim::Error>(())
+//! ```
 #![no_std]
 #![cfg_attr(docsrs, feature(doc_cfg))]
 #![forbid(unsafe_code)]

@@ -15,6 +15,26 @@ use crate::fixed::{FixedCalibration, FixedReading, FixedStage};
 use crate::math::Libm;
 
 /// A correction path: its reading, its temperature, its stage, and the two steps.
+///
+/// ```
+/// use logtrim::path::CorrectionPath;
+/// use logtrim::Calibration;
+///
+/// /// Every code of a burst at one temperature: the temperature's work once, on either path.
+/// fn burst<P: CorrectionPath, const N: usize>(p: &P, t: P::Temperature, codes: [u32; N])
+///     -> [Result<P::Reading, logtrim::Error>; N] {
+///     let stage = p.stage(t);
+///     codes.map(|code| p.correct_staged(&stage, code))
+/// }
+///
+/// let cal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+/// CorrectionPath::validate(&cal)?;
+/// let readings = burst(&cal, 30.0, [10_000, 32_768, 65_535]);
+/// assert_eq!(readings[0], cal.correct(10_000, 30.0));
+/// assert_eq!(readings[1].map(|r| r.x), Ok(0.0)); // the level shift: a ratio of exactly 1
+/// assert!(readings[2].is_err()); // the top rail
+/// # Ok::<(), logtrim::Error>(())
+/// ```
 pub trait CorrectionPath {
     /// What a correction gives: [`Reading`] (f32) or [`FixedReading`] (Q24).
     type Reading: Copy + PartialEq + Debug;

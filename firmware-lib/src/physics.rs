@@ -12,6 +12,17 @@ pub const ZERO_CELSIUS_K: f64 = 273.15;
 pub const LN_10: f64 = core::f64::consts::LN_10;
 
 /// Thermal voltage kT/q in volts at an absolute temperature in kelvin (f64).
+///
+/// ```
+/// use logtrim::physics::{thermal_voltage, thermal_voltage_celsius_f32, LN_10};
+///
+/// // kT/q = 25.852 mV at 300 K (CODATA 2018, from the exact SI 2019 values of k and e).
+/// assert!((thermal_voltage(300.0) * 1e3 - 25.852).abs() < 5e-4);
+/// // The same at 25 °C in f32, as firmware computes it: 25.693 mV (CODATA 2018).
+/// assert!((thermal_voltage_celsius_f32(25.0) * 1e3 - 25.693).abs() < 1e-3);
+/// // Per decade of current ratio: ln 10 · kT/q = 59.16 mV at 25 °C (the Nernst slope; common practice).
+/// assert!((LN_10 * thermal_voltage(298.15) * 1e3 - 59.16).abs() < 5e-3);
+/// ```
 pub fn thermal_voltage(kelvin: f64) -> f64 {
     K_OVER_Q * kelvin
 }

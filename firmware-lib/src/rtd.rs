@@ -56,6 +56,21 @@ impl Rtd {
     }
 
     /// Resistance in Ω at a temperature in °C (f32, firmware).
+    ///
+    /// ```
+    /// use logtrim::Rtd;
+    ///
+    /// // IEC 60751 table values for Pt100: 100.00 Ω at 0 °C, 138.51 Ω at 100 °C, 60.26 Ω at −100 °C,
+    /// // 390.48 Ω at 850 °C.
+    /// let pt100 = Rtd::PT100;
+    /// assert!((pt100.resistance(0.0)? - 100.0).abs() < 1e-4);
+    /// assert!((pt100.resistance(100.0)? - 138.51).abs() < 0.005);
+    /// assert!((pt100.resistance(-100.0)? - 60.26).abs() < 0.005);
+    /// assert!((pt100.resistance(850.0)? - 390.48).abs() < 0.005);
+    /// // Outside −200…850 °C the standard defines no curve.
+    /// assert!(pt100.resistance(900.0).is_err());
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn resistance(&self, celsius: f32) -> Result<f32, Error> {
         self.validate()?;
         resistance(self, celsius)
@@ -68,6 +83,20 @@ impl Rtd {
     }
 
     /// Temperature in °C at a resistance in Ω (f32, firmware).
+    ///
+    /// ```
+    /// use logtrim::Rtd;
+    ///
+    /// // IEC 60751 table: a Pt1000 reads 1385.06 Ω at 100 °C and 842.71 Ω at −40 °C.
+    /// assert!((Rtd::PT1000.celsius(1385.06)? - 100.0).abs() < 0.01);
+    /// assert!((Rtd::PT1000.celsius(842.71)? - -40.0).abs() < 0.01);
+    /// // The inverse and the forward curve agree (f64, host side) to far below a millikelvin.
+    /// let t = Rtd::PT100.celsius_f64(Rtd::PT100.resistance_f64(-150.0)?)?;
+    /// assert!((t - -150.0).abs() < 1e-9);
+    /// // A shorted sensor (0 Ω) is no temperature.
+    /// assert!(Rtd::PT100.celsius(0.0).is_err());
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn celsius(&self, ohm: f32) -> Result<f32, Error> {
         self.validate()?;
         celsius(self, ohm)

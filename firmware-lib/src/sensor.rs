@@ -120,6 +120,28 @@ impl TemperatureSensor {
     }
 
     /// The temperature in °C at a code of the temperature channel (f32, firmware).
+    ///
+    /// ```
+    /// use logtrim::{Divider, Placement, Rtd, SensorElement, TemperatureSensor};
+    ///
+    /// // A Pt1000 to ground under a 1 kΩ series resistor, 16-bit converter, reported over −50…150 °C.
+    /// let channel = TemperatureSensor {
+    ///     element: SensorElement::Rtd(Rtd::PT1000),
+    ///     divider: Divider::ratiometric(Placement::LowSide, 1000.0, 16),
+    ///     min_c: -50.0,
+    ///     max_c: 150.0,
+    /// };
+    /// channel.validate()?;
+    /// // At 0 °C a Pt1000 is 1000 Ω (IEC 60751), equal to the series resistor: mid-scale.
+    /// assert!(channel.celsius(32768)?.abs() < 1e-3);
+    /// // The host's forward model and the firmware's reading agree within one code's worth.
+    /// let code = channel.code_f64(100.0)?;
+    /// assert!((channel.celsius(code.round() as u32)? - 100.0).abs() < 0.02);
+    /// // A code beyond the declared range (here 200 °C) is refused, not extrapolated.
+    /// let code_200 = channel.divider.code_f64(Rtd::PT1000.resistance_f64(200.0)?)?;
+    /// assert!(channel.celsius(code_200.round() as u32).is_err());
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn celsius(&self, code: u32) -> Result<f32, Error> {
         self.check_range()?;
         let ohm = self.divider.resistance(code)?;

@@ -109,6 +109,28 @@ pub struct Beta {
 
 impl Beta {
     /// The Beta model through two curve points (any order), with the reference at the first point.
+    ///
+    /// ```
+    /// use logtrim::thermistor::CurvePoint;
+    /// use logtrim::Beta;
+    ///
+    /// // Two points of a 10 kΩ, β = 3950 K part, made with the Beta equation
+    /// // R = R₀·exp(β·(1/T − 1/T₀)) (common practice), give its β back.
+    /// let r50 = 10_000.0 * (3950.0 * (1.0 / 323.15 - 1.0 / 298.15f64)).exp();
+    /// let beta = Beta::from_points(CurvePoint::new(25.0, 10_000.0), CurvePoint::new(50.0, r50)).unwrap();
+    /// assert!((beta.beta_k - 3950.0).abs() < 0.01);
+    /// assert_eq!((beta.r0_ohm, beta.t0_c), (10_000.0, 25.0));
+    ///
+    /// // Firmware reads the curve both ways; the Steinhart–Hart form of the same curve agrees.
+    /// assert!((beta.celsius(r50 as f32)? - 50.0).abs() < 1e-3);
+    /// assert!((beta.resistance(25.0)? - 10_000.0).abs() < 0.05);
+    /// let sh = beta.to_steinhart_hart();
+    /// assert!((sh.celsius(r50 as f32)? - 50.0).abs() < 1e-2);
+    ///
+    /// // A rising curve is no NTC.
+    /// assert!(Beta::from_points(CurvePoint::new(25.0, 10e3), CurvePoint::new(50.0, 20e3)).is_err());
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn from_points(p1: CurvePoint, p2: CurvePoint) -> Result<Beta, FitError> {
         let [(y1, l1), (y2, l2)] = [check_point(p1)?, check_point(p2)?];
         if y1 == y2 || l1 == l2 {
@@ -196,6 +218,25 @@ impl SteinhartHart {
     ///
     /// The points must be distinct in temperature and resistance, the resistance must fall as the temperature
     /// rises, and the resulting curve must be monotone over the span of the points.
+    ///
+    /// ```
+    /// use logtrim::thermistor::CurvePoint;
+    /// use logtrim::SteinhartHart;
+    ///
+    /// // Coefficients often published for a 10 kΩ NTC (from memory): A = 1.129148e-3, B = 2.34125e-4,
+    /// // C = 8.76741e-8. With them 1/T = A + B·ln R + C·(ln R)³ gives 25.00 °C at 10 kΩ.
+    /// let published = SteinhartHart { a: 1.129148e-3, b: 2.34125e-4, c: 8.76741e-8 };
+    /// assert!((published.celsius(10_000.0)? - 25.0).abs() < 0.01);
+    ///
+    /// // Three points of that curve give the same curve back (the fit is exact through three points).
+    /// let p = |t: f64| CurvePoint::new(t, published.resistance_f64(t).unwrap());
+    /// let fitted = SteinhartHart::from_points(p(0.0), p(25.0), p(70.0)).unwrap();
+    /// for t in [-20.0, 10.0, 40.0, 100.0] {
+    ///     let r = published.resistance_f64(t)?;
+    ///     assert!((fitted.celsius_f64(r)? - t).abs() < 0.01, "{t} °C");
+    /// }
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn from_points(p1: CurvePoint, p2: CurvePoint, p3: CurvePoint) -> Result<SteinhartHart, FitError> {
         let [(y1, l1), (y2, l2), (y3, l3)] = [check_point(p1)?, check_point(p2)?, check_point(p3)?];
         if y1 == y2 || y1 == y3 || y2 == y3 || l1 == l2 || l1 == l3 || l2 == l3 {

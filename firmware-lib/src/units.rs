@@ -66,11 +66,35 @@ impl Unit {
     }
 
     /// Parses a name given by [`Unit::name`].
+    ///
+    /// ```
+    /// use logtrim::Unit;
+    ///
+    /// for unit in Unit::ALL {
+    ///     assert_eq!(Unit::from_name(unit.name()), Some(unit));
+    /// }
+    /// assert_eq!(Unit::from_name("absorbance"), Some(Unit::Absorbance));
+    /// assert_eq!(Unit::from_name("Absorbance"), None); // names are exact
+    /// ```
     pub fn from_name(name: &str) -> Option<Unit> {
         Unit::ALL.iter().copied().find(|u| u.name() == name)
     }
 
     /// Converts x = ln(ratio) into this unit with the default backend.
+    ///
+    /// ```
+    /// use logtrim::Unit;
+    ///
+    /// // ISO 80000-3: 1 Np corresponds to 20/ln 10 = 8.685889638 dB for field quantities.
+    /// assert!((Unit::DbAmplitude.from_x(1.0) - 8.685_889_6).abs() < 1e-5);
+    /// // A power ratio of 2 is 3.0103 dB (common practice).
+    /// assert!((Unit::DbPower.from_x(2f32.ln()) - 3.010_3).abs() < 1e-4);
+    /// // 1 % transmittance is 2 AU of absorbance (A = −log10 T; common practice).
+    /// let x = 0.01f32.ln();
+    /// assert!((Unit::Absorbance.from_x(x) - 2.0).abs() < 1e-5);
+    /// assert!((Unit::TransmittancePercent.from_x(x) - 1.0).abs() < 1e-5);
+    /// assert!((Unit::Ratio.from_x(x) - 0.01).abs() < 1e-7);
+    /// ```
     pub fn from_x(self, x: f32) -> f32 {
         self.from_x_with::<crate::math::Libm>(x)
     }

@@ -28,6 +28,26 @@ impl Calibration {
     /// The temperature-dependent part of an f32 correction at `temp_c`, computed once and reusable for any
     /// number of log codes at that temperature ([`Calibration::correct_staged`]). A temperature that cannot
     /// be corrected is kept in the stage as its error, reported for each code that passes its own check.
+    ///
+    /// ```
+    /// use logtrim::math::Libm;
+    /// use logtrim::Calibration;
+    ///
+    /// let cal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+    /// // A burst of codes at one temperature: the temperature's work once, each code after it, every
+    /// // result bit for bit the one-call correction's.
+    /// let stage = cal.stage_with::<Libm>(37.0);
+    /// assert!(stage.error().is_none() && !stage.extrapolated());
+    /// for code in [1000, 20000, 32768, 50000, 65000] {
+    ///     assert_eq!(cal.correct_staged(&stage, code), cal.correct(code, 37.0));
+    /// }
+    /// // x at a code is (code − L)/(S·T/T_ref) for a nominal unit: a ratio of 1 at the level shift.
+    /// assert_eq!(cal.correct_staged(&stage, 32768)?.x, 0.0);
+    /// // A temperature out of range stays in the stage as its error, reported for each valid code.
+    /// let hot = cal.stage_with::<Libm>(200.0);
+    /// assert_eq!(cal.correct_staged(&hot, 30000).map(|r| r.x), Err(hot.error().unwrap()));
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn stage_with<B: Backend>(&self, temp_c: f32) -> F32Stage<B> {
         F32Stage { inner: self.temperature_stage::<F32Math<B>>(temp_c), backend: core::marker::PhantomData }
     }
@@ -47,6 +67,21 @@ impl Calibration {
     /// The code is checked as both of its neighbouring whole codes would be (a mean that touches a rail or
     /// the margin is saturated), then evaluated without rounding. An f32 holds 24 bits exactly, so a
     /// 16-bit converter's mean keeps 8 fractional bits.
+    ///
+    /// ```
+    /// use logtrim::Calibration;
+    ///
+    /// let cal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+    /// // The mean of 30000 and 30001 lies half a code from each: its x is the mean of theirs (the nominal
+    /// // equation is linear in the code).
+    /// let (lo, hi) = (cal.correct(30000, 25.0)?.x, cal.correct(30001, 25.0)?.x);
+    /// let mean = cal.correct_mean(30000.5, 25.0)?.x;
+    /// assert!((mean - (lo + hi) / 2.0).abs() < 1e-6);
+    /// // A mean that touches the top rail is saturated, as that rail's code is.
+    /// assert!(cal.correct_mean(65534.5, 25.0).is_err());
+    /// assert!(cal.correct_mean(f32::NAN, 25.0).is_err());
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     pub fn correct_mean(&self, code: f32, temp_c: f32) -> Result<Reading, Error> {
         self.correct_mean_with::<Libm>(code, temp_c)
     }

@@ -125,6 +125,19 @@ impl AdcScaling {
     }
 
     /// Checks a code against the converter's range and the rail margin.
+    ///
+    /// ```
+    /// use logtrim::calibration::AdcScaling;
+    /// use logtrim::Error;
+    ///
+    /// // A 12-bit converter (codes 0..=4095) whose end codes and 3 codes beside them are not trusted.
+    /// let adc = AdcScaling { bits: 12, rail_margin: 3, level_shift_code: 2048.0 };
+    /// assert_eq!(adc.max_code(), Ok(4095));
+    /// assert_eq!(adc.check_code(2048), Ok(()));
+    /// assert_eq!(adc.check_code(3), Err(Error::Saturated { code: 3 }));
+    /// assert_eq!(adc.check_code(4092), Err(Error::Saturated { code: 4092 }));
+    /// assert_eq!(adc.check_code(4096), Err(Error::CodeOutOfAdcRange { code: 4096, max: 4095 }));
+    /// ```
     pub fn check_code(&self, code: u32) -> Result<(), Error> {
         let max = self.max_code()?;
         if code > max {
@@ -182,6 +195,14 @@ impl Series {
     pub const ZERO: Series = Series { len: 0, coeffs: [0.0; MAX_SERIES] };
 
     /// A series from a slice of coefficients, or `None` if it is longer than [`MAX_SERIES`].
+    ///
+    /// ```
+    /// use logtrim::calibration::{Series, MAX_SERIES};
+    ///
+    /// let s = Series::from_slice(&[1.0, -0.5]).unwrap();
+    /// assert_eq!(s.terms(), &[1.0, -0.5]);
+    /// assert!(Series::from_slice(&[0.0; MAX_SERIES + 1]).is_none());
+    /// ```
     pub fn from_slice(c: &[f32]) -> Option<Series> {
         if c.len() > MAX_SERIES {
             return None;
@@ -362,6 +383,17 @@ impl Calibration {
     /// accepted temperature range, not at a few points (see the `proof` module) — a gain pole
     /// `1 + q·τ > 0.05`, a positive slope, a model monotone in x up to the top of the x range, and a
     /// residual that keeps the correction monotone.
+    ///
+    /// ```
+    /// use logtrim::error::{CalibrationDefect, Error};
+    /// use logtrim::Calibration;
+    ///
+    /// let mut cal = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+    /// assert_eq!(cal.validate(), Ok(()));
+    /// // A falling slope would invert the sign of every reading: refused before any correction.
+    /// cal.model.slope.coeffs[0] = -1000.0;
+    /// assert_eq!(cal.validate(), Err(Error::InvalidCalibration(CalibrationDefect::ZeroSlope)));
+    /// ```
     pub fn validate(&self) -> Result<(), Error> {
         use CalibrationDefect as D;
         let bad = |d| Err(Error::InvalidCalibration(d));

@@ -61,14 +61,14 @@ pub(super) fn check_x(
     q_field: &'static str,
 ) -> Result<(), RecordValueError> {
     let from_f32 = q_from_f32(x, X_FRAC).ok_or(RecordValueError::NonFinite { field: f32_field })?;
-    let bound = MAX_ABS_X_NP << X_FRAC;
-    if from_f32.abs() > bound {
+    let bound = (MAX_ABS_X_NP << X_FRAC).unsigned_abs();
+    if from_f32.unsigned_abs() > bound {
         return Err(RecordValueError::OutOfRange { field: f32_field });
     }
-    if i64::from(q).abs() > bound {
+    if i64::from(q).unsigned_abs() > bound {
         return Err(RecordValueError::OutOfRange { field: q_field });
     }
-    if (from_f32 - i64::from(q)).abs() > AGREEMENT_Q24 {
+    if from_f32.abs_diff(i64::from(q)) > AGREEMENT_Q24.unsigned_abs() {
         return Err(RecordValueError::Inconsistent { field: q_field });
     }
     Ok(())

@@ -119,6 +119,35 @@ where
     P::Reading: ThroughLayers,
 {
     /// A bank of channels, each calibration checked once ([`CorrectionPath::validate`]).
+    ///
+    /// ```
+    /// use logtrim::field::{Bank, Layers, LogChannel};
+    /// use logtrim::{Calibration, Error, Unit};
+    ///
+    /// // A sample beam and a reference beam behind one temperature sensor; the reference's calibration
+    /// // covers up to 40 °C only.
+    /// let sample = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+    /// let mut reference = Calibration::nominal(16, 32700.0, 1010.0, 25.0);
+    /// reference.temperature.max_c = 40.0;
+    /// let channel = |calibration| LogChannel { calibration, layers: Layers::FACTORY };
+    /// let bank = Bank::new([channel(sample), channel(reference)])?;
+    ///
+    /// // One temperature per cycle for both channels; each reading is bit for bit its channel's own.
+    /// let cycle = bank.cycle_from_celsius(30.0)?;
+    /// let [s, r] = bank.correct(&cycle, &[30000, 31000]);
+    /// assert_eq!(s, sample.correct(30000, 30.0));
+    /// assert_eq!(r, reference.correct(31000, 30.0));
+    /// // x = ln(I_sig/I_ref) of the two beams: their difference is the ratio of the two signals.
+    /// let ratio_db = Unit::DbPower.from_x(s?.x - r?.x);
+    /// assert!(ratio_db < 0.0);
+    ///
+    /// // At 45 °C the reference refuses the temperature; the sample channel carries on.
+    /// let hot = bank.cycle_from_celsius(45.0)?;
+    /// let [s, r] = bank.correct(&hot, &[30000, 31000]);
+    /// assert!(s.is_ok());
+    /// assert!(matches!(r, Err(Error::TemperatureOutOfRange { .. })));
+    /// # Ok::<(), Box<dyn core::error::Error>>(())
+    /// ```
     pub fn new(channels: [LogChannel<P>; N]) -> Result<Bank<P, N>, BankError> {
         for (channel, c) in channels.iter().enumerate() {
             c.calibration.validate().map_err(|error| BankError { channel, error })?;

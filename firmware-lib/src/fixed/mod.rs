@@ -234,7 +234,7 @@ impl SensorTable<'_> {
     /// The number of control points the span needs: one segment per `2^step_log2` codes, the code at the
     /// span's top included, plus three.
     pub fn knots_needed(code_lo: u32, code_hi: u32, step_log2: u8) -> usize {
-        (code_hi.saturating_sub(code_lo) >> u32::from(step_log2).min(16)) as usize + 4
+        ((code_hi.saturating_sub(code_lo) >> u32::from(step_log2).min(16)) as usize).saturating_add(4)
     }
 }
 
@@ -546,6 +546,100 @@ impl<'a> FixedCalibration<'a> {
     }
 
     /// Corrects one reading: `code` from the log channel, the temperature in m°C.
+    ///
+    /// The host tool generates the tables from a fitted calibration; this example makes the tables of an
+    /// ideal linear unit by hand, x = (code − 32769)·6/32768 Np at every temperature (control points are
+    /// stored divided by 6, so these divide exactly), with a temperature channel of 15 m°C per code.
+    ///
+    /// ```
+    /// use logtrim::error::{Error, SensorFault};
+    /// use logtrim::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+    /// use logtrim::Unit;
+    ///
+    /// let header = FixedHeader {
+    ///     layout: LAYOUT_VERSION,
+    ///     adc_max_code: 65535, // 16-bit converter
+    ///     rail_margin: 16,
+    ///     // Calibrated 0…50 °C, accepted −5…55 °C (θ = m°C · 2^10).
+    ///     temp_min: 0,
+    ///     temp_max: 50_000 << 10,
+    ///     temp_lo: -5_000 << 10,
+    ///     temp_hi: 55_000 << 10,
+    ///     // Five temperature knots 2^24 θ (16.4 K) apart from −5 °C.
+    ///     t_knots: 5,
+    ///     t_origin: -5_000 << 10,
+    ///     t_step_log2: 24,
+    ///     offset_frac: 14,
+    ///     inv_slope_frac: 42,
+    ///     bias_bend: false,
+    ///     sensitivity_limit: false,
+    ///     // Six x̃ knots 4 Np apart from −9 Np; x within ±27306·6/32768 Np.
+    ///     xa_knots: 6,
+    ///     xa_origin: -9 << 24,
+    ///     xa_step_log2: 26,
+    ///     residual_frac: 16,
+    ///     x_min: -27306 * 3072,
+    ///     x_max: 27306 * 3072,
+    /// };
+    /// // Offset 32769 codes (Q14), inverse slope 6/32768 Np per code (Q42), each divided by 6; no residual.
+    /// let (offset, inv_slope, residual) = ([10923 << 13; 7], [1 << 27; 7], [0i16; 7 * 8]);
+    /// // Temperature channel: θ = (code − 100)·15 m°C over codes 100…4000, one segment per 256 codes.
+    /// let knots: Vec<i32> = (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect();
+    /// let sensor = SensorTable {
+    ///     code_lo: 100,
+    ///     code_hi: 4000,
+    ///     step_log2: 8,
+    ///     fault_below: SensorFault::OutOfModelRange,
+    ///     far_below_code: 10,
+    ///     fault_far_below: SensorFault::Short,
+    ///     fault_above: SensorFault::OutOfModelRange,
+    ///     far_above_code: 4090,
+    ///     fault_far_above: SensorFault::Open,
+    ///     knots: &knots,
+    /// };
+    /// assert_eq!(SensorTable::knots_needed(100, 4000, 8), knots.len());
+    /// let cal = FixedCalibration {
+    ///     header,
+    ///     offset: &offset,
+    ///     inv_slope: &inv_slope,
+    ///     ln_bias: &[],
+    ///     u_min: &[],
+    ///     residual: &residual,
+    ///     sensor: Some(sensor),
+    /// };
+    /// cal.validate()?;
+    ///
+    /// // 5461 codes below the offset: x = −5461·6/32768 Np, exactly −5461·3072 in Q24.
+    /// let code = 32769 - 5461;
+    /// let r = cal.correct(code, 25_000)?;
+    /// assert_eq!(r.x, -5461 * 3072);
+    /// assert!(!r.temperature_extrapolated);
+    /// // Units as integers: decades are x/ln 10 (Q24), the ratio e^x (Q32); checked against f64.
+    /// let x = f64::from(r.x) / 16_777_216.0;
+    /// let decades = r.value(Unit::Decades)? as f64 / 16_777_216.0;
+    /// assert!((decades - x / std::f64::consts::LN_10).abs() < 1e-7);
+    /// let ratio = r.value(Unit::Ratio)? as f64 / 4_294_967_296.0;
+    /// assert!((ratio - x.exp()).abs() < 1e-6);
+    ///
+    /// // The same reading from the raw temperature code: code 1100 is (1100 − 100)·15 m°C = 15 °C.
+    /// assert_eq!(cal.theta_from_code(1100), Ok(15_000 << 10));
+    /// assert_eq!(cal.correct_raw(code, 1100), cal.correct(code, 15_000));
+    /// // A block of codes at one temperature stage: bit for bit the one-call results.
+    /// let stage = cal.stage_millicelsius(52_000)?; // beyond the calibrated 50 °C, within the accepted 55 °C
+    /// assert!(stage.extrapolated());
+    /// let codes = [1000, 20000, 40000, 60000];
+    /// let mut out = [Err(Error::NotCalibrated); 4];
+    /// assert_eq!(cal.correct_block(&stage, &codes, &mut out), 4);
+    /// for (o, &c) in out.iter().zip(&codes) {
+    ///     assert_eq!(*o, cal.correct(c, 52_000));
+    /// }
+    ///
+    /// // Refused inputs: a code at the rail, a temperature beyond the accepted range, an open sensor.
+    /// assert_eq!(cal.correct(65535, 25_000), Err(Error::Saturated { code: 65535 }));
+    /// assert!(matches!(cal.correct(code, 60_000), Err(Error::TemperatureOutOfRange { .. })));
+    /// assert_eq!(cal.correct_raw(code, 4095), Err(Error::Sensor(SensorFault::Open)));
+    /// # Ok::<(), logtrim::Error>(())
+    /// ```
     #[inline(always)]
     pub fn correct(&self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         let plan = Plan::of(&self.header);
@@ -588,7 +682,7 @@ impl<'a> FixedCalibration<'a> {
     fn end_weights(&self, end: u32) -> (usize, [i32; 4]) {
         let last = u32::from(self.header.t_knots).saturating_sub(2);
         let seg = (end >> WINDOWS_LOG2).min(last);
-        (seg as usize, window_weights(end - (seg << WINDOWS_LOG2)))
+        (seg as usize, window_weights(end.saturating_sub(seg << WINDOWS_LOG2)))
     }
 
     /// The four per-temperature values at window end `end`, exact, each checked against its limit.
@@ -618,12 +712,12 @@ impl<'a> FixedCalibration<'a> {
     #[inline(always)]
     pub(crate) fn window(&self, index: u32) -> Result<Window, Error> {
         let start = self.end_scalars(index)?;
-        let end = self.end_scalars(index + 1)?;
+        let end = self.end_scalars(index.saturating_add(1))?;
         // The spline's second derivative at the window's middle, t = (2m + 1)/32 in its segment: 32 times
         // the second-derivative basis is (31 − 2m, 6m − 61, 29 − 6m, 2m + 1), and the chord's deviation
         // term is c = h²·p''/2 with h = 1/16: c = 3·Σ W_k·c_k / 8192 for control points stored divided by 6.
         let (seg, _) = self.end_weights(index);
-        let m = (index - ((seg as u32) << WINDOWS_LOG2)).min(WINDOWS - 1) as i32;
+        let m = index.saturating_sub((seg as u32) << WINDOWS_LOG2).min(WINDOWS - 1) as i32;
         let w = [31 - 2 * m, 6 * m - 61, 29 - 6 * m, 2 * m + 1];
         let curv = |t: &[i32]| -> Result<i64, Error> {
             let c = four(t, seg).ok_or(BAD_TABLE)?;
@@ -679,8 +773,8 @@ impl<'a> FixedCalibration<'a> {
         let x = plan.x_of(&s, code, |seg| {
             let mut c = [0; 4];
             for (k, v) in c.iter_mut().enumerate() {
-                let a = self.end_column(pos.index, seg + k)?;
-                let b = self.end_column(pos.index + 1, seg + k)?;
+                let a = self.end_column(pos.index, seg.saturating_add(k))?;
+                let b = self.end_column(pos.index.saturating_add(1), seg.saturating_add(k))?;
                 *v = a + mulh16(b - a, pos.f16);
             }
             Ok(c)
@@ -839,9 +933,16 @@ impl<'a> FixedCalibration<'a> {
     /// Flash taken by the tables and the header, in bytes (the universal tables not included: see
     /// [`universal::BYTES`]).
     pub fn table_bytes(&self) -> usize {
-        let words = self.offset.len() + self.inv_slope.len() + self.ln_bias.len() + self.u_min.len();
-        let sensor = self.sensor.as_ref().map_or(0, |s| 4 * s.knots.len() + 12);
-        4 * words + 2 * self.residual.len() + sensor + core::mem::size_of::<FixedHeader>()
+        // Slice lengths: the sums saturate rather than wrap (no real table comes near usize::MAX bytes).
+        let words = [self.offset, self.inv_slope, self.ln_bias, self.u_min]
+            .iter()
+            .fold(0usize, |n, t| n.saturating_add(t.len()));
+        let sensor = self.sensor.as_ref().map_or(0, |s| s.knots.len().saturating_mul(4).saturating_add(12));
+        words
+            .saturating_mul(4)
+            .saturating_add(self.residual.len().saturating_mul(2))
+            .saturating_add(sensor)
+            .saturating_add(core::mem::size_of::<FixedHeader>())
     }
 }
 
@@ -903,8 +1004,8 @@ impl FixedReading {
             Unit::Absorbance => -decades(x),
             Unit::TransmittancePercent => {
                 let e = transcend::exp_q32(x)?;
-                // e·100 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.
-                if e > i64::MAX / 100 {
+                // e·100 + 2^7 must fit an i64; formed from shifts (64 + 32 + 4), not a 64-bit multiply.
+                if e > (i64::MAX - (1 << 7)) / 100 {
                     return Err(Error::AboveRange);
                 }
                 ((e << 6) + (e << 5) + (e << 2) + (1 << 7)) >> 8

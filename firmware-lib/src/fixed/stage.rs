@@ -46,7 +46,7 @@ impl FixedStage {
         let mut row = [0; ROW_CAPACITY];
         for (i, r) in row.iter_mut().enumerate().take(n) {
             let a = cal.end_column(pos.index, i)?;
-            let b = cal.end_column(pos.index + 1, i)?;
+            let b = cal.end_column(pos.index.saturating_add(1), i)?;
             *r = a + mulh16(b - a, pos.f16);
         }
         Ok(FixedStage {
@@ -198,7 +198,7 @@ impl<'a> StageCache<'a> {
         }
         let mut len = 0;
         for i in 0..n {
-            match (self.cal.end_column(index, i), self.cal.end_column(index + 1, i)) {
+            match (self.cal.end_column(index, i), self.cal.end_column(index.saturating_add(1), i)) {
                 (Ok(a), Ok(b)) => {
                     if let (Some(r0), Some(dr)) = (self.row0.get_mut(i), self.drow.get_mut(i)) {
                         *r0 = a;

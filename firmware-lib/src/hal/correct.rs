@@ -54,6 +54,17 @@ impl MeanCode {
     }
 
     /// The mean of `count` codes adding up to `sum`; `None` for a count of zero.
+    ///
+    /// ```
+    /// use logtrim::hal::MeanCode;
+    ///
+    /// // Three codes, 1000 + 1001 + 1001: the mean 1000⅔ is kept exactly, rounded only where asked.
+    /// let m = MeanCode::new(3002, 3).unwrap();
+    /// assert_eq!(m.floor(), Some((1000, true)));
+    /// assert_eq!(m.to_fixed(8), Some(256_171)); // round(3002·256/3) = round(256 170.67)
+    /// assert!((m.as_f32() - 1000.6667).abs() < 1e-3);
+    /// assert_eq!(MeanCode::new(0, 0), None);
+    /// ```
     pub const fn new(sum: u64, count: u32) -> Option<MeanCode> {
         if count == 0 {
             None

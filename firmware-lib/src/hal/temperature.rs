@@ -120,6 +120,19 @@ pub struct DigitalCelsius {
 
 impl DigitalCelsius {
     /// A sensor of `bits`-wide words, signed (two's complement) or not, `lsb_c` °C per count, no offset.
+    ///
+    /// ```
+    /// use logtrim::hal::{DigitalCelsius, TemperatureChannel};
+    ///
+    /// // A 13-bit two's-complement word in 1/16 °C: 0x0190 = 400 counts = 25 °C, 0x1F00 = −256 = −16 °C.
+    /// let s = DigitalCelsius::new(13, true, 0.0625).unwrap();
+    /// assert_eq!(s.celsius(0x0190), Ok(25.0));
+    /// assert_eq!(s.celsius(0x1F00), Ok(-16.0));
+    /// assert!(s.celsius(0x2000).is_err()); // wider than 13 bits
+    /// // Centi-kelvin words: 29 815 counts are 298.15 K = 25 °C.
+    /// let ck = DigitalCelsius::new(16, false, 0.01).unwrap().with_offset(-273.15).unwrap();
+    /// assert!((ck.celsius(29_815).unwrap() - 25.0).abs() < 1e-3);
+    /// ```
     pub fn new(bits: u8, signed: bool, lsb_c: f32) -> Result<Self, DigitalCelsiusError> {
         if !(2..=32).contains(&bits) {
             return Err(DigitalCelsiusError::Width);

@@ -109,14 +109,25 @@ fn check_agreement(h: &FixedHeader, c: &Calibration) -> Result<(), ImageValueErr
     Ok(())
 }
 
+/// Bytes of the first `n` tables (without padding). Sizes are u16 counts, so the sum stays far below
+/// 2^64; it saturates all the same, so that no input can make it wrap.
+fn tables_len(sizes: &Sizes, n: usize) -> u64 {
+    lf::TABLES
+        .iter()
+        .zip(sizes)
+        .take(n)
+        .fold(0u64, |sum, (t, &k)| sum.saturating_add((t.elem.size() as u64).saturating_mul(u64::from(k))))
+}
+
 /// Bytes of the tables (without padding).
 fn data_len(sizes: &Sizes) -> u64 {
-    lf::TABLES.iter().zip(sizes).map(|(t, &n)| t.elem.size() as u64 * u64::from(n)).sum()
+    tables_len(sizes, N_TABLES)
 }
 
 /// The payload length of a section with these table sizes: the fields, the tables, padding to 4 bytes.
 fn payload_len(sizes: &Sizes) -> u64 {
-    (lf::HEAD_LEN as u64 + data_len(sizes)).next_multiple_of(section::ALIGN as u64)
+    let len = (lf::HEAD_LEN as u64).saturating_add(data_len(sizes));
+    len.checked_next_multiple_of(section::ALIGN as u64).unwrap_or(u64::MAX)
 }
 
 fn len_u16(n: u64) -> u16 {
@@ -201,7 +212,7 @@ pub(super) fn decode<'a>(
         });
     }
     // The padding after the last table is zero.
-    let data_end = lf::HEAD_LEN + usize::try_from(data_len(&sizes)).unwrap_or(usize::MAX);
+    let data_end = lf::HEAD_LEN.saturating_add(usize::try_from(data_len(&sizes)).unwrap_or(usize::MAX));
     p.zeros(data_end..len)?;
     let tables = p.range(lf::HEAD_LEN..data_end)?;
     Ok(FixedSection { header, sensor, sizes, tables })
@@ -301,6 +312,63 @@ impl ExactSizeIterator for I16Values<'_> {}
 /// tables fail step 2 as invalid, so the other slot is used. The writer applies the same rules (sizes,
 /// agreement with *ranges*, `validate`) before writing a byte, so it never writes a section a reader
 /// refuses.
+///
+/// ```
+/// use logtrim::error::SensorFault;
+/// use logtrim::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
+/// use logtrim::image::{self, DefaultFixedStorage, Image, ImageError, ImageInfo};
+/// use logtrim::Calibration;
+///
+/// // The ideal linear unit of `FixedCalibration::correct`'s example: x = (code − 32769)·6/32768 Np.
+/// # let header = FixedHeader {
+/// #     layout: LAYOUT_VERSION, adc_max_code: 65535, rail_margin: 16,
+/// #     temp_min: 0, temp_max: 50_000 << 10, temp_lo: -5_000 << 10, temp_hi: 55_000 << 10,
+/// #     t_knots: 5, t_origin: -5_000 << 10, t_step_log2: 24, offset_frac: 14, inv_slope_frac: 42,
+/// #     bias_bend: false, sensitivity_limit: false, xa_knots: 6, xa_origin: -9 << 24, xa_step_log2: 26,
+/// #     residual_frac: 16, x_min: -27306 * 3072, x_max: 27306 * 3072,
+/// # };
+/// # let (offset, inv_slope, residual) = ([10923 << 13; 7], [1 << 27; 7], [0i16; 7 * 8]);
+/// # let knots: Vec<i32> = (0..19).map(|i| (i - 1) * 256 * 15 * 1024 / 6).collect();
+/// # let sensor = SensorTable {
+/// #     code_lo: 100, code_hi: 4000, step_log2: 8,
+/// #     fault_below: SensorFault::OutOfModelRange, far_below_code: 10, fault_far_below: SensorFault::Short,
+/// #     fault_above: SensorFault::OutOfModelRange, far_above_code: 4090, fault_far_above: SensorFault::Open,
+/// #     knots: &knots,
+/// # };
+/// let fixed = FixedCalibration {
+///     header,
+///     offset: &offset,
+///     inv_slope: &inv_slope,
+///     ln_bias: &[],
+///     u_min: &[],
+///     residual: &residual,
+///     sensor: Some(sensor),
+/// };
+/// // The f32 calibration the image carries beside it must describe the same converter: 16 bits, margin 16.
+/// let mut f32_cal = Calibration::nominal(16, 32769.0, 32768.0 / 6.0, 25.0);
+/// f32_cal.adc.rail_margin = 16;
+///
+/// let info = ImageInfo { serial: "DL-0003", calibrated_at: 1_700_000_000, sequence: 1 };
+/// let mut eeprom = [0u8; 1024];
+/// let len = image::write_with_fixed(&mut eeprom, &info, &f32_cal, Some(&fixed), &[])?;
+/// assert_eq!(len, image::encoded_len_with_fixed(&f32_cal, Some(&fixed), &[])?);
+///
+/// // Step 1 (parse) checks the section's structure; step 2 copies the tables into RAM and validates them.
+/// let image = Image::parse(&eeprom[..len])?;
+/// let section = image.fixed().expect("written with a fixed section");
+/// assert!(section.offset().eq(offset.iter().copied()));
+/// let mut storage = DefaultFixedStorage::new();
+/// let loaded = image.fixed_into(&mut storage)?;
+/// assert_eq!(loaded, fixed);
+/// for code in [1000, 32769, 60000] {
+///     assert_eq!(loaded.correct(code, 25_000), fixed.correct(code, 25_000));
+/// }
+///
+/// // A storage too small for the tables refuses them rather than cutting them short.
+/// let mut small = image::FixedStorage::<4, 16, 8>::new();
+/// assert!(matches!(image.fixed_into(&mut small), Err(ImageError::FixedCapacity { .. })));
+/// # Ok::<(), Box<dyn core::error::Error>>(())
+/// ```
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct FixedSection<'a> {
@@ -330,12 +398,9 @@ impl<'a> FixedSection<'a> {
 
     /// The bytes of table `i` of [`lf::TABLES`].
     fn bytes_of(&self, i: usize) -> &'a [u8] {
-        let start: u64 = data_len_before(&self.sizes, i);
-        let len = match (lf::TABLES.get(i), self.sizes.get(i)) {
-            (Some(t), Some(&n)) => t.elem.size() as u64 * u64::from(n),
-            _ => 0,
-        };
-        let (Ok(start), Ok(end)) = (usize::try_from(start), usize::try_from(start + len)) else {
+        let start = tables_len(&self.sizes, i);
+        let end = tables_len(&self.sizes, i.saturating_add(1));
+        let (Ok(start), Ok(end)) = (usize::try_from(start), usize::try_from(end)) else {
             return &[];
         };
         self.tables.get(start..end).unwrap_or(&[])
@@ -374,11 +439,6 @@ impl<'a> FixedSection<'a> {
     pub fn residual(&self) -> I16Values<'a> {
         I16Values { words: self.bytes_of(RESIDUAL).as_chunks::<2>().0.iter() }
     }
-}
-
-/// Bytes of the tables before table `i`.
-fn data_len_before(sizes: &Sizes, i: usize) -> u64 {
-    lf::TABLES.iter().zip(sizes).take(i).map(|(t, &n)| t.elem.size() as u64 * u64::from(n)).sum()
 }
 
 /// Where a unit's fixed-point tables live after they are read from an image: arrays of fixed capacity

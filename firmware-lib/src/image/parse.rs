@@ -114,7 +114,7 @@ fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
             return Err(ImageError::SectionAlignment { kind, len });
         }
         let (payload, after) = after.split_at_checked(usize::from(len)).ok_or(overrun)?;
-        let base = offset + section::HEADER_LEN;
+        let base = offset.saturating_add(section::HEADER_LEN);
         // Known sections: where they go, their length, and whether the length is fixed by the layout (the
         // fixed section's length follows from its own table sizes, checked when it is decoded).
         let slot = match kind {
@@ -134,7 +134,7 @@ fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
             *slot = Some(Part::new(kind, expected, base, payload));
         }
         found.count = found.count.saturating_add(1);
-        offset = base + usize::from(len);
+        offset = base.saturating_add(usize::from(len));
         rest = after;
     }
     Ok(found)

@@ -61,6 +61,35 @@ impl<'a> SlotRecord<'a> for Image<'a> {
 }
 
 /// Chooses the newest valid image of two slots (see the [module docs](self)).
+///
+/// ```
+/// use logtrim::image::slots::{next_write, select, ActiveCalibration};
+/// use logtrim::image::{write, ImageInfo};
+/// use logtrim::record::slots::SlotId;
+/// use logtrim::{Calibration, Error};
+///
+/// // Two slots of erased flash: nothing valid, so the next write goes to slot A with counter 1, and a
+/// // unit that boots now corrects nothing.
+/// let (mut a, mut b) = ([0xffu8; 512], [0xffu8; 512]);
+/// let plan = next_write(&a, &b).unwrap();
+/// assert_eq!((plan.slot, plan.sequence), (SlotId::A, 1));
+/// assert_eq!(ActiveCalibration::from_selection(&select(&a, &b)).correct(30000, 25.0), Err(Error::NotCalibrated));
+///
+/// // The first calibration goes to A; a re-calibration to B, never over the image in use.
+/// let first = Calibration::nominal(16, 32768.0, 1000.0, 25.0);
+/// write(&mut a, &ImageInfo { serial: "DL-0002", calibrated_at: 1_700_000_000, sequence: 1 }, &first).unwrap();
+/// let plan = next_write(&a, &b).unwrap();
+/// assert_eq!((plan.slot, plan.sequence), (SlotId::B, 2));
+/// let second = Calibration::nominal(16, 32770.0, 1001.0, 25.0);
+/// write(&mut b, &ImageInfo { serial: "DL-0002", calibrated_at: 1_700_086_400, sequence: 2 }, &second).unwrap();
+/// let chosen = select(&a, &b).unwrap();
+/// assert_eq!((chosen.slot, chosen.record.calibration()), (SlotId::B, second));
+///
+/// // A write to B cut short by a power loss: the unit falls back to A's image.
+/// b[100] ^= 0xff;
+/// let chosen = select(&a, &b).unwrap();
+/// assert_eq!((chosen.slot, chosen.record.calibration()), (SlotId::A, first));
+/// ```
 pub fn select<'a>(
     a: &'a [u8],
     b: &'a [u8],

@@ -38,7 +38,9 @@ pub fn encoded_len_with_fixed(
 ) -> Result<usize, WriteError> {
     let base = match fixed {
         None => layout::F32_IMAGE_LEN,
-        Some(f) => layout::F32_IMAGE_LEN + section::HEADER_LEN + check_for_write(f, calibration)?.0,
+        Some(f) => {
+            (layout::F32_IMAGE_LEN + section::HEADER_LEN).saturating_add(check_for_write(f, calibration)?.0)
+        }
     };
     extra_len(base, extra)
 }
@@ -132,8 +134,9 @@ fn fill(
         at = put_section(w, at, s.kind, s.payload.len(), |p| Ok(p.put_at(0, s.payload)?))?;
     }
     // The CRC follows the last section.
-    if at + layout::trailer::LEN != h.len {
-        return Err(WriteError::TooLong { len: len_u32(at + layout::trailer::LEN) });
+    let end = at.saturating_add(layout::trailer::LEN);
+    if end != h.len {
+        return Err(WriteError::TooLong { len: len_u32(end) });
     }
     Ok(())
 }
@@ -163,9 +166,9 @@ fn put_section(
     w.set_base(at);
     w.u16(&section::KIND, kind)?;
     w.u16(&section::LEN, len16)?;
-    w.set_base(at + section::HEADER_LEN);
+    w.set_base(at.saturating_add(section::HEADER_LEN));
     body(w)?;
-    Ok(w.base() + len)
+    Ok(w.base().saturating_add(len))
 }
 
 fn put_ranges(w: &mut Writer<'_>, c: &Calibration) -> Result<(), WriteError> {
@@ -276,16 +279,16 @@ fn put_fixed(w: &mut Writer<'_>, f: &FixedCalibration<'_>, model_fingerprint: u3
     for table in [f.offset, f.inv_slope, f.ln_bias, f.u_min, knots] {
         for v in table {
             w.put_at(at, &v.to_le_bytes())?;
-            at += 4;
+            at = at.saturating_add(4);
         }
     }
     for v in f.residual {
         w.put_at(at, &v.to_le_bytes())?;
-        at += 2;
+        at = at.saturating_add(2);
     }
     while !at.is_multiple_of(section::ALIGN) {
         w.put_at(at, &[0])?;
-        at += 1;
+        at = at.saturating_add(1);
     }
     Ok(())
 }

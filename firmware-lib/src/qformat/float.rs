@@ -13,6 +13,20 @@ pub const MAX_FRAC: u32 = 62;
 /// `round(f · 2^frac)` with halves rounded away from zero, computed exactly from the bits of `f`.
 ///
 /// `None` for NaN or infinity, for `frac >` [`MAX_FRAC`], and where the result would not fit in ±2^62.
+///
+/// ```
+/// use logtrim::qformat::{f32_from_q, q_from_f32};
+///
+/// // Q24: the value times 2^24. 1.5 is 25 165 824 exactly; −0.1f32 rounds to the nearest step.
+/// assert_eq!(q_from_f32(1.5, 24), Some(25_165_824));
+/// assert_eq!(q_from_f32(-0.1, 24), Some(-1_677_722));
+/// // Back to f32: every integer of up to 24 bits converts exactly.
+/// assert_eq!(f32_from_q(25_165_824, 24), 1.5);
+/// assert_eq!(f32_from_q(-(1 << 23) + 1, 0), -8_388_607.0);
+/// // NaN and magnitudes beyond ±2^62 have no Q value.
+/// assert_eq!(q_from_f32(f32::NAN, 24), None);
+/// assert_eq!(q_from_f32(1e30, 24), None);
+/// ```
 pub fn q_from_f32(f: f32, frac: u32) -> Option<i64> {
     if frac > MAX_FRAC {
         return None;

@@ -18,6 +18,21 @@ pub const THETA_FRAC: u32 = 10;
 /// θ (m°C · 2^10, the fixed path's temperature) of a temperature in °C, rounded to nearest (ties away from
 /// zero), by integer arithmetic on the f32's bits: exact for every finite f32. [`Error::NonFinite`] for
 /// NaN and infinities; magnitudes beyond any θ saturate (and are then out of range).
+///
+/// ```
+/// use logtrim::qformat::{celsius_of_theta, millicelsius, millicelsius_of_theta, theta_of_celsius};
+///
+/// // θ = m°C · 2^10: 25 °C is 25 000 m°C, 25 600 000 in θ; back to m°C and °C exactly.
+/// let theta = theta_of_celsius(25.0)?;
+/// assert_eq!(theta, 25_000 << 10);
+/// assert_eq!(millicelsius_of_theta(theta), 25_000);
+/// assert_eq!(celsius_of_theta(theta as i32), 25.0);
+/// assert_eq!(millicelsius(-40.0)?, -40_000);
+/// // Negative temperatures convert exactly the same way.
+/// assert_eq!(millicelsius_of_theta(theta_of_celsius(-0.25)?), -250);
+/// assert!(theta_of_celsius(f32::INFINITY).is_err());
+/// # Ok::<(), logtrim::Error>(())
+/// ```
 pub fn theta_of_celsius(temp_c: f32) -> Result<i64, Error> {
     if !temp_c.is_finite() {
         return Err(Error::NonFinite);

@@ -201,7 +201,10 @@ impl<'a, E: Copy + From<FormatError>> Reader<'a, E> {
     pub(crate) fn zeros(&self, range: Range<usize>) -> Result<(), E> {
         let start = range.start;
         match self.range(range)?.iter().position(|&b| b != 0) {
-            Some(i) => Err(FormatError::ReservedNotZero { offset: len_u32(self.base + start + i) }.into()),
+            Some(i) => Err(FormatError::ReservedNotZero {
+                offset: len_u32(self.base.saturating_add(start).saturating_add(i)),
+            }
+            .into()),
             None => Ok(()),
         }
     }
@@ -289,7 +292,7 @@ impl Writer<'_> {
     /// An array field of f32 values.
     pub(crate) fn f32s(&mut self, f: &Field, vs: &[f32]) -> Result<(), BufferTooSmall> {
         for (i, v) in vs.iter().enumerate() {
-            self.put_at(f.offset + 4 * i, &v.to_le_bytes())?;
+            self.put_at(f.offset.saturating_add(i.saturating_mul(4)), &v.to_le_bytes())?;
         }
         Ok(())
     }

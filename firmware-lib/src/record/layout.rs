@@ -119,7 +119,7 @@ impl Field {
 
     /// Offset one past the last byte of the field.
     pub const fn end(&self) -> usize {
-        self.offset + self.kind.size()
+        self.offset.saturating_add(self.kind.size())
     }
 
     /// Writes the field as a row of a layout table, `| part | offset | size | name | type | meaning |`,

@@ -65,6 +65,13 @@ use layout::{Field, Kind};
 pub const CRC32: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
 
 /// The CRC-32/ISO-HDLC of `bytes`.
+///
+/// ```
+/// // The catalogue's check value: CRC-32/ISO-HDLC of the ASCII digits "123456789" is 0xCBF43926
+/// // (the same CRC as IEEE 802.3 and zlib's crc32).
+/// assert_eq!(logtrim::record::crc32(b"123456789"), 0xCBF4_3926);
+/// assert_eq!(logtrim::record::crc32(b""), 0);
+/// ```
 pub fn crc32(bytes: &[u8]) -> u32 {
     CRC32.checksum(bytes)
 }
