@@ -314,6 +314,9 @@ fn option_values_parse_or_say_what_was_expected() {
     assert_eq!(parse_ohm("-10k"), Ok(-10_000.0));
     assert!(parse_ohm("10x").unwrap_err().to_string().contains("10k"));
     assert!(parse_ohm("nan").is_err() && parse_ohm("inf").is_err() && parse_ohm("").is_err());
+    // Finite digits that overflow with their multiplier; the sign and zero are the options' to judge.
+    assert!(parse_ohm("1e308k").is_err() && parse_ohm("-1e308M").is_err());
+    assert_eq!(parse_ohm("0kΩ"), Ok(0.0));
     assert_eq!(parse_point("-40:336.5k"), Ok(p(-40.0, 336_500.0)));
     assert!(parse_point("25=10k").unwrap_err().to_string().contains("T:R"));
     assert_eq!(parse_coefficients("1e-3,2e-4,-3e-7"), Ok([1e-3, 2e-4, -3e-7]));

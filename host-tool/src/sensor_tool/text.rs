@@ -37,8 +37,10 @@ pub fn parse_ohm(s: &str) -> Result<f64, ParseError> {
         Some('M') => (&t[..t.len() - 1], 1e6),
         _ => (t, 1.0),
     };
-    let v = number(digits, OHM_FORM).map_err(|_| ParseError { found: s.to_string(), expected: OHM_FORM })?;
-    Ok(v * scale)
+    let err = || ParseError { found: s.to_string(), expected: OHM_FORM };
+    let v = number(digits, OHM_FORM).map_err(|_| err())?;
+    // A finite number can overflow with its multiplier (1e308k): no resistance is that.
+    Some(v * scale).filter(|r| r.is_finite()).ok_or_else(err)
 }
 
 pub(super) const POINT_FORM: &str =
