@@ -234,10 +234,14 @@ fn chebyshev_extremes(rho: f64) -> ([f64; MAX_RESIDUAL], [f64; MAX_RESIDUAL]) {
     let mut d = [0.0; MAX_RESIDUAL];
     let (mut t0, mut t1) = (1.0, rho);
     let (mut d0, mut d1) = (0.0, 1.0);
-    for (k, (tk, dk)) in t.iter_mut().zip(d.iter_mut()).enumerate() {
-        if k == 0 {
+    // The first term is T_0 = 1, T_0' = 0 (a flag, not an enumerate: its counter's overflow check
+    // survives into release-checked builds).
+    let mut first = true;
+    for (tk, dk) in t.iter_mut().zip(d.iter_mut()) {
+        if first {
             *tk = 1.0;
             *dk = 0.0;
+            first = false;
             continue;
         }
         *tk = t1;
