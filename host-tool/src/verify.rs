@@ -49,7 +49,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use crate::calfile::CalFile;
-use crate::error_scale::db_power;
+use crate::error_scale::{db_power, ErrorScale};
 use crate::progress::{Counter, OnProgress};
 
 /// The f32 backend the f32 path is verified with.
@@ -705,7 +705,24 @@ fn tally(
 }
 
 impl std::fmt::Display for VerifyReport {
+    /// The report with errors in nepers, power dB and LSB ([`VerifyReport::render`] for another unit).
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        self.write_in(f, ErrorScale::DbPower)
+    }
+}
+
+impl VerifyReport {
+    /// The report as text, its errors in nepers, in `unit` (the unit the product speaks: mAU, % of ratio,
+    /// dB) and in LSB.
+    pub fn render(&self, unit: ErrorScale) -> String {
+        let mut s = String::new();
+        let _ = self.write_in(&mut s, unit);
+        s
+    }
+
+    fn write_in(&self, f: &mut impl std::fmt::Write, unit: ErrorScale) -> std::fmt::Result {
+        let lab = if unit == ErrorScale::DbPower { "dB" } else { unit.label() };
+        let inu = |np: f64| unit.of_np(np).abs();
         writeln!(
             f,
             "swept {} codes × {} temperatures = {} points; the reference gives a value at {}",
@@ -746,8 +763,14 @@ impl std::fmt::Display for VerifyReport {
             writeln!(f, "{name}: {verdict}")?;
             writeln!(
                 f,
-                "  error  max {:.3e} Np  {:.3e} dB  {:.4} LSB;  rms {:.3e} Np  {:.3e} dB  {:.4} LSB  ({} points)",
-                e.max_np, e.max_db, e.max_lsb, e.rms_np, e.rms_db, e.rms_lsb, e.compared
+                "  error  max {:.3e} Np  {:.3e} {lab}  {:.4} LSB;  rms {:.3e} Np  {:.3e} {lab}  {:.4} LSB  ({} points)",
+                e.max_np,
+                inu(e.max_np),
+                e.max_lsb,
+                e.rms_np,
+                inu(e.rms_np),
+                e.rms_lsb,
+                e.compared
             )?;
             if let Some(w) = &e.worst {
                 let tc = w.temp_code.map(|c| format!(" (temperature code {c})")).unwrap_or_default();

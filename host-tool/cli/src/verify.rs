@@ -69,6 +69,9 @@ pub struct VerifyArgs {
     /// Print the report as JSON instead of text.
     #[arg(long)]
     pub json: bool,
+    /// The unit the text report gives errors in, beside nepers and LSB: np, mnp, db10, db20, pct or mau.
+    #[arg(long, value_name = "UNIT", default_value = "db10", value_parser = crate::plot::parse_unit)]
+    pub error_unit: logtrim_host::error_scale::ErrorScale,
     #[command(flatten)]
     pub tables: TableArgs,
 }
@@ -162,7 +165,7 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         say!("{text}");
     } else {
         say!("{}: {} bytes of fixed-point tables", args.coeffs.display(), tables.bytes());
-        say_raw!("{report}");
+        say_raw!("{}", report.render(args.error_unit));
         say!("verified in {secs:.2} s on {} threads", rayon::current_num_threads());
     }
     if report.passed() {

@@ -546,6 +546,11 @@ fn item12_verify_says_up_front_how_long_and_says_when_it_is_sampled() {
     assert_eq!(code, 0, "{out}{err}");
     assert!(err.contains("estimated") && err.contains("sampled"), "{err}");
     assert!(out.contains("SAMPLED") && out.contains("PASS (sampled)"), "{out}");
+    assert!(out.contains(" dB ") && !out.contains("mAU"), "errors in power dB by default: {out}");
+    // An absorbance product reads the same errors in mAU.
+    let (code, out, err) = run(&["verify", s(&c), "--sample", "--error-unit", "mau"]);
+    assert_eq!(code, 0, "{out}{err}");
+    assert!(out.contains(" mAU ") && !out.contains(" dB "), "{out}");
     let (code, out, err) = run(&["verify", s(&c), "--temp-stride", "200"]);
     assert_eq!(code, 0, "{out}{err}");
     assert!(out.contains("SAMPLED: every 1 code(s) × every 200 temperature(s)"), "{out}");
