@@ -2,7 +2,8 @@
 //! `tests/c_driver/runtime.c`): the same verdict and the same error kind for every image a fitted unit's
 //! image becomes under every single-bit flip, every truncation, every single-bit flip and every byte set to
 //! small values, the extremes and its own value ±1 with the CRC made good again (so that the structure and value checks behind the CRC are
-//! reached), and the same tables after loading; the A/B choice of images over pairs of good, older,
+//! reached), and the same tables after loading; models moved across each proof of `Calibration::validate`
+//! (slope, pole, monotone in x, residual, magnitudes), with a count of the defects Rust found; the A/B choice of images over pairs of good, older,
 //! duplicate, corrupted, erased and table-less slots; trim and blank records likewise (flips, truncations,
 //! flips behind a good CRC, A/B with and without binding); the layers on readings at the ends of the Q24
 //! range; and a firmware that holds no unit data — image, trim and blank from their slots, readings through
@@ -15,7 +16,7 @@ use std::fmt::Write as _;
 use common::cc::CBuild;
 use logtrim::field::{self, Blank, FixedStandard, Layers, RecordInfo, Trim, TrimLimits};
 use logtrim::fixed::{FixedCalibration, FixedReading};
-use logtrim::image::{slots, DefaultFixedStorage, Image};
+use logtrim::image::{slots, DefaultFixedStorage, Image, ImageError, ImageValueError};
 use logtrim::record::crc32;
 use logtrim::record::slots::{Rejected, SlotId};
 use logtrim::Unit;
@@ -139,6 +140,151 @@ fn image_line(bytes: &[u8]) -> String {
         }
         Err(e) => format!("{check} {}", image_code(&e)),
     }
+}
+
+/// [`image_line`], counting the calibration defect (by name) that the Rust parser refuses the image for.
+fn tallied(bytes: &[u8], kinds: &mut std::collections::BTreeMap<String, usize>) -> String {
+    if let Err(ImageError::Value(ImageValueError::Calibration(logtrim::Error::InvalidCalibration(d)))) =
+        Image::parse(bytes)
+    {
+        *kinds.entry(format!("{d:?}")).or_insert(0) += 1;
+    }
+    image_line(bytes)
+}
+
+/// Any calibration defect: they all share one image status.
+fn bad_calibration() -> ImageError {
+    ImageError::Value(ImageValueError::Calibration(logtrim::Error::InvalidCalibration(
+        logtrim::error::CalibrationDefect::ZeroSlope,
+    )))
+}
+
+/// Where the f32 model's payload starts in an image (the section walk of the layout).
+fn model_payload(image: &[u8]) -> usize {
+    use logtrim::image::layout::{header, model_f32, section};
+    let u16_at = |at: usize| usize::from(u16::from_le_bytes([image[at], image[at + 1]]));
+    let mut at = header::LEN;
+    while u16_at(at + section::KIND.offset) != usize::from(model_f32::KIND) {
+        at += section::HEADER_LEN + u16_at(at + section::LEN.offset);
+    }
+    at + section::HEADER_LEN
+}
+
+/// Copies of a good image whose f32 model is moved across each of the proofs of `Calibration::validate`
+/// (the CRC made good again; the fixed tables then belong to another model, which the loaders report
+/// next): a slope series that dips below zero inside the range (a T_4 term), a slope tilted over (T_1),
+/// the gain pole at and around `1 + q·τ = 0.05` at either end, a bulk term that breaks monotonicity in x
+/// (constant, and a T_2 bump), a residual whose ξ slope nears x_h, and magnitudes beyond 1e30 and a bias
+/// term beyond e^60. Each family is a geometric sweep with fine steps around 1, so both sides of each
+/// boundary, and the bisection close to it, are compared.
+fn model_variants(image: &[u8]) -> Vec<(&'static str, Vec<Vec<u8>>)> {
+    use logtrim::image::layout::model_f32 as mf;
+    use logtrim::record::layout::Field;
+    let at = model_payload(image);
+    let cal = Image::parse(image).unwrap().calibration();
+    let m = cal.model;
+    let put = |b: &mut Vec<u8>, f: &Field, i: usize, v: f32| {
+        let o = at + f.offset + 4 * i;
+        b[o..o + 4].copy_from_slice(&v.to_le_bytes());
+    };
+    let put_u8 = |b: &mut Vec<u8>, f: &Field, v: u8| b[at + f.offset] = v;
+    let mut sweep: Vec<f64> = (0..40).map(|i| 10f64.powf(-1.5 + 3.0 * f64::from(i) / 39.0)).collect();
+    for e in [1e-2, 1e-3, 1e-4, 1e-5, 2e-5, 1e-6, 1e-7] {
+        sweep.extend([1.0 - e, 1.0 + e]);
+    }
+    let s0 = f64::from(m.slope.coeffs[0]);
+    let lo = f64::from(cal.temperature.min_c) - f64::from(cal.temperature.extrapolation_k);
+    let hi = f64::from(cal.temperature.max_c) + f64::from(cal.temperature.extrapolation_k);
+    let tau = |t: f64| (t - f64::from(m.t_center_c)) / f64::from(m.t_half_span_k);
+    let (ta, tb) = (tau(lo), tau(hi));
+    let e_max = (-f64::from(cal.x_range.max)).exp();
+    let xh = f64::from(m.residual.x_half_span);
+    let mut out = Vec::new();
+    let family = |f: &dyn Fn(&mut Vec<u8>, f64), ks: &[f64]| -> Vec<Vec<u8>> {
+        ks.iter()
+            .map(|&k| {
+                let mut b = image.to_vec();
+                f(&mut b, k);
+                with_crc(b)
+            })
+            .collect()
+    };
+    out.push((
+        "slope-dip",
+        family(
+            &|b, k| {
+                put_u8(b, &mf::SLOPE_LEN, m.slope.len.max(5));
+                put(b, &mf::SLOPE, 4, (k * s0) as f32);
+            },
+            &sweep,
+        ),
+    ));
+    let tilt: Vec<f64> = sweep.iter().map(|k| k / ta.abs().max(tb.abs())).collect();
+    out.push((
+        "slope-tilt",
+        family(
+            &|b, k| {
+                put_u8(b, &mf::SLOPE_LEN, m.slope.len.max(2));
+                put(b, &mf::SLOPE, 1, (k * s0) as f32);
+            },
+            &tilt,
+        ),
+    ));
+    let mut poles: Vec<f64> = (-12..=12).map(|i| f64::from(i) * 0.25).collect();
+    for end in [ta, tb] {
+        if end != 0.0 {
+            poles.extend(sweep.iter().filter(|k| (**k - 1.0).abs() < 0.1).map(|k| -0.95 / end * k));
+        }
+    }
+    out.push(("pole", family(&|b, q| put(b, &mf::POLE, 0, q as f32), &poles)));
+    out.push((
+        "bulk-constant",
+        family(
+            &|b, k| {
+                put_u8(b, &mf::BULK_LEN, m.bulk.len.max(1));
+                put(b, &mf::BULK, 0, (-k * s0 * e_max) as f32);
+            },
+            &sweep,
+        ),
+    ));
+    out.push((
+        "bulk-bump",
+        family(
+            &|b, k| {
+                put_u8(b, &mf::BULK_LEN, m.bulk.len.max(3));
+                put(b, &mf::BULK, 2, (-k * s0 * e_max) as f32);
+            },
+            &sweep,
+        ),
+    ));
+    out.push((
+        "residual-slope",
+        family(
+            &|b, k| {
+                put_u8(b, &mf::RESIDUAL_NX, m.residual.nx.max(2));
+                put_u8(b, &mf::RESIDUAL_NT, m.residual.nt.max(1));
+                put(b, &mf::RESIDUAL, 4, (k * xh) as f32);
+            },
+            &sweep,
+        ),
+    ));
+    out.push((
+        "magnitudes",
+        family(
+            &|b, k| {
+                if k < 10.0 {
+                    put_u8(b, &mf::BIAS_ENABLED, 1);
+                    put(b, &mf::LN_BETA0, 0, 0.0);
+                    put(b, &mf::LN_BETA1, 0, (k * 60.0 / ta.abs().max(tb.abs())) as f32);
+                } else {
+                    put_u8(b, &mf::SLOPE_LEN, 6);
+                    put(b, &mf::SLOPE, 5, k as f32);
+                }
+            },
+            &[0.5, 0.999, 1.001, 2.0, 1e29, 1e31, 1e35],
+        ),
+    ));
+    out
 }
 
 fn with_crc(mut bytes: Vec<u8>) -> Vec<u8> {
@@ -296,19 +442,20 @@ fn images_get_the_same_verdict_and_tables_in_c_and_rust() {
         let mut s = Script::new();
         s.commands.push_str(&format!("base {}\n", path.display()));
         // The image itself, every truncation, every single-bit flip.
-        s.push(format!("t {}", image.len()), image_line(&image));
+        let mut kinds = std::collections::BTreeMap::new();
+        s.push(format!("t {}", image.len()), tallied(&image, &mut kinds));
         for len in 0..image.len() {
-            s.push(format!("t {len}"), image_line(&image[..len]));
+            s.push(format!("t {len}"), tallied(&image[..len], &mut kinds));
         }
         for bit in 0..image.len() * 8 {
-            s.push(format!("f {bit}"), image_line(&flip(&image, bit)));
+            s.push(format!("f {bit}"), tallied(&flip(&image, bit), &mut kinds));
         }
         // Behind a good CRC: every bit flip, and every byte set to values that hit flags, counts and enums.
         let body = image.len() - 4;
         for bit in 0..body * 8 {
             let m = with_crc(flip(&image, bit));
             let crc = u32::from_le_bytes(m[body..].try_into().unwrap());
-            s.push(format!("r {bit} {crc:x}"), image_line(&m));
+            s.push(format!("r {bit} {crc:x}"), tallied(&m, &mut kinds));
         }
         for at in 0..body {
             // Small values (flags, enums, term counts and their capacities), the extremes, and the byte's
@@ -324,13 +471,34 @@ fn images_get_the_same_verdict_and_tables_in_c_and_rust() {
                 m[at] = v;
                 let m = with_crc(m);
                 let crc = u32::from_le_bytes(m[body..].try_into().unwrap());
-                s.push(format!("b {at} {v} {crc:x}"), image_line(&m));
+                s.push(format!("b {at} {v} {crc:x}"), tallied(&m, &mut kinds));
             }
+        }
+        let mutations = s.expected.len();
+        // Models moved across each proof's boundary (behind a good CRC).
+        for (family, variants) in model_variants(&image) {
+            let (mut refused, mut passed) = (0, 0);
+            for (i, v) in variants.iter().enumerate() {
+                let path = build.write(&format!("{name}-{family}-{i}.img"), v);
+                let line = tallied(v, &mut kinds);
+                if line.starts_with(&format!("{} ", image_code(&bad_calibration()))) {
+                    refused += 1;
+                } else {
+                    passed += 1;
+                }
+                s.push(format!("img {}", path.display()), line);
+            }
+            eprintln!("{name}: {family}: {refused} models refused by validation, {passed} passed it");
+            assert!(refused > 0 && passed > 0, "{name}: the {family} models do not straddle the boundary");
         }
         let n = s.expected.len();
         let accepted = s.expected.iter().filter(|l| l.starts_with("0 0 ")).count();
         s.run(&exe, name);
-        eprintln!("{name}: {n} images, {accepted} of them loaded (with identical tables) by both");
+        eprintln!("{name}: {n} images ({mutations} mutations, the rest model variants), {accepted} of them loaded (with identical tables) by both");
+        eprintln!("{name}: calibration defects Rust found, all agreed by C: {kinds:?}");
+        for kind in ["Pole", "ZeroSlope", "NotMonotone", "Coefficient"] {
+            assert!(kinds.contains_key(kind), "{name}: no image refused for {kind}");
+        }
         // The original loads, and some mutations behind a good CRC still pass every check: the tables
         // comparison is not empty.
         assert!(accepted > 10, "{name}: only {accepted} images accepted");

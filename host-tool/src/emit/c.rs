@@ -265,7 +265,7 @@ fn shared_definitions() -> String {
     use logtrim::fixed::{self as f, transcend as t};
     let mut out =
         String::from("/* ---- constants shared with logtrim::fixed (rendered from its items) ---- */\n");
-    let defs: [(&str, String, &str); 36] = [
+    let defs: [(&str, String, &str); 40] = [
         (
             "LTRM_LAYOUT_VERSION",
             format!("{}u", f::LAYOUT_VERSION),
@@ -314,6 +314,18 @@ fn shared_definitions() -> String {
             "calibration::MAX_RESIDUAL",
         ),
         ("LTRM_GAIN_FRAC", format!("{}u", logtrim::field::trim::GAIN_FRAC), "field::trim::GAIN_FRAC"),
+        (
+            "LTRM_MAX_LEVEL_SHIFT",
+            format!("{:?}f", logtrim::calibration::MAX_LEVEL_SHIFT),
+            "calibration::MAX_LEVEL_SHIFT",
+        ),
+        ("LTRM_MAX_ABS_X", format!("{:?}f", logtrim::calibration::MAX_ABS_X), "calibration::MAX_ABS_X"),
+        (
+            "LTRM_MAX_TEMPERATURE_C",
+            format!("{:?}", logtrim::calibration::MAX_TEMPERATURE_C),
+            "calibration::MAX_TEMPERATURE_C",
+        ),
+        ("LTRM_ZERO_CELSIUS_K", format!("{:?}", logtrim::physics::ZERO_CELSIUS_K), "physics::ZERO_CELSIUS_K"),
     ];
     for (name, value, from) in defs {
         let _ = writeln!(out, "#define {name} {value} /* {from} */");

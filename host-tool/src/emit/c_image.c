@@ -130,44 +130,372 @@ static float ltrm_float(uint32_t bits) {
     return v.f;
 }
 
-/* Calibration::validate of the f32 model (the same comparisons; its three slope evaluations in double,
- * as the Rust code does them: compile without contraction of a*b+c, as -std=c99 does). */
+/* ---- Calibration::validate and its proofs (calibration/proof.rs), in double ----
+ * Every step is the Rust code's f64 operation in the same order (compiled without contraction of a*b+c, as
+ * -std=c99 does), so every decision is the same: the lower and upper bounds of the bisection, the margins
+ * and the piece budget are those of the Rust code. fabs, fmin, fmax and exp are the Rust libm crate's
+ * (exp after its port of FreeBSD's e_exp.c, notice below), so no C maths library is needed and no last
+ * bit differs between the two loaders. */
+
+#define LTRM_MAX_PIECES 16384u /* proof::MAX_PIECES */
+#define LTRM_MAX_DEPTH 40u     /* proof::MAX_DEPTH */
+#define LTRM_MAX_MAGNITUDE 1e30
+#define LTRM_SLOPE_MARGIN 1e-5
+
+static int ltrm_isnan(double x) { return x != x; }
+static int ltrm_dfinite(double x) { return x - x == 0.0; }
+/* A double's bits and back (a union, as ltrm_float). */
+static uint64_t ltrm_dbits(double x) {
+    union {
+        double d;
+        uint64_t u;
+    } v;
+    v.d = x;
+    return v.u;
+}
+static double ltrm_double(uint64_t bits) {
+    union {
+        double d;
+        uint64_t u;
+    } v;
+    v.u = bits;
+    return v.d;
+}
+static double ltrm_fabs(double x) { return ltrm_double(ltrm_dbits(x) & 0x7fffffffffffffffu); }
+static double ltrm_fmax(double x, double y) { return ltrm_isnan(x) || x < y ? y : x; }
+static double ltrm_fmin(double x, double y) { return ltrm_isnan(y) || x < y ? x : y; }
+/* 2^n for a normal exponent n. */
+static double ltrm_pow2(int n) { return ltrm_double((uint64_t)(n + 1023) << 52); }
+
+/* y·2^n rounded once (libm's scalbn for the range exp needs). */
+static double ltrm_scalbn(double y, int n) {
+    if (n > 1023) {
+        y *= ltrm_pow2(1023);
+        n -= 1023;
+        if (n > 1023) {
+            y *= ltrm_pow2(1023);
+            n -= 1023;
+            if (n > 1023) n = 1023;
+        }
+    } else if (n < -1022) {
+        y *= ltrm_pow2(-1022) * ltrm_pow2(53);
+        n += 1022 - 53;
+        if (n < -1022) {
+            y *= ltrm_pow2(-1022) * ltrm_pow2(53);
+            n += 1022 - 53;
+            if (n < -1022) n = -1022;
+        }
+    }
+    return y * ltrm_pow2(n);
+}
+
+/* exp(x), the Rust libm crate's (origin: FreeBSD /usr/src/lib/msun/src/e_exp.c):
+ * ====================================================
+ * Copyright (C) 2004 by Sun Microsystems, Inc. All rights reserved.
+ *
+ * Permission to use, copy, modify, and distribute this
+ * software is freely granted, provided that this notice
+ * is preserved.
+ * ====================================================
+ */
+static double ltrm_exp(double x) {
+    static const double half[2] = { 0.5, -0.5 };
+    const double ln2hi = 6.93147180369123816490e-01, ln2lo = 1.90821492927058770002e-10;
+    const double invln2 = 1.44269504088896338700e+00;
+    const double p1 = 1.66666666666666019037e-01, p2 = -2.77777777770155933842e-03;
+    const double p3 = 6.61375632143793436117e-05, p4 = -1.65339022054652515390e-06;
+    const double p5 = 4.13813679705723846039e-08;
+    double hi, lo, c, xx, y;
+    int k, sign;
+    uint32_t hx = (uint32_t)(ltrm_dbits(x) >> 32);
+    sign = (int)(hx >> 31);
+    hx &= 0x7fffffffu;
+    if (hx >= 0x4086232bu) {
+        if (ltrm_isnan(x)) return x;
+        if (x > 709.782712893383973096) return x * ltrm_pow2(1023);
+        if (x < -745.13321910194110842) return 0.0;
+    }
+    if (hx > 0x3fd62e42u) {
+        if (hx >= 0x3ff0a2b2u)
+            k = (int)(invln2 * x + half[sign]);
+        else
+            k = 1 - sign - sign;
+        hi = x - (double)k * ln2hi;
+        lo = (double)k * ln2lo;
+        x = hi - lo;
+    } else if (hx > 0x3e300000u) {
+        k = 0;
+        hi = x;
+        lo = 0.0;
+    } else {
+        return 1.0 + x;
+    }
+    xx = x * x;
+    c = x - xx * (p1 + xx * (p2 + xx * (p3 + xx * (p4 + xx * p5))));
+    y = 1.0 + (x * c / (2.0 - c) - lo + hi);
+    return k == 0 ? y : ltrm_scalbn(y, k);
+}
+
+/* A series in powers of τ (proof::Poly). */
+typedef struct ltrm_poly {
+    double a[LTRM_MAX_SERIES];
+} ltrm_poly;
+
+static float ltrm_f32_at(const uint8_t *p, uint32_t offset) { return ltrm_float(ltrm_le32(p + offset)); }
+
+/* The monomial form of the Chebyshev series of len terms at coeffs (Poly::of). */
+static void ltrm_poly_of(ltrm_poly *p, const uint8_t *m, uint32_t len_at, uint32_t coeffs_at) {
+    double prev[LTRM_MAX_SERIES], cur[LTRM_MAX_SERIES], next[LTRM_MAX_SERIES];
+    uint32_t k, d, n = m[len_at] < LTRM_MAX_SERIES ? m[len_at] : LTRM_MAX_SERIES;
+    for (d = 0; d < LTRM_MAX_SERIES; d++) p->a[d] = prev[d] = cur[d] = 0.0;
+    cur[0] = 1.0;
+    for (k = 0; k < n; k++) {
+        double ck = ltrm_f32_at(m, coeffs_at + 4u * k), factor = k == 0u ? 1.0 : 2.0;
+        for (d = 0; d < LTRM_MAX_SERIES; d++) p->a[d] += ck * cur[d];
+        /* T_(k+1) = 2τ·T_k − T_(k−1), and T_1 = τ·T_0. */
+        next[0] = 0.0;
+        for (d = 1; d < LTRM_MAX_SERIES; d++) next[d] = factor * cur[d - 1];
+        for (d = 0; d < LTRM_MAX_SERIES; d++) next[d] -= prev[d];
+        for (d = 0; d < LTRM_MAX_SERIES; d++) {
+            prev[d] = cur[d];
+            cur[d] = next[d];
+        }
+    }
+}
+
+static double ltrm_poly_eval(const ltrm_poly *p, double x) {
+    double acc = 0.0;
+    uint32_t j;
+    for (j = LTRM_MAX_SERIES; j > 0u; j--) acc = acc * x + p->a[j - 1u];
+    return acc;
+}
+
+static double ltrm_poly_derivative(const ltrm_poly *p, double x) {
+    double acc = 0.0;
+    uint32_t j;
+    for (j = LTRM_MAX_SERIES - 1u; j >= 1u; j--) acc = acc * x + p->a[j] * (double)j;
+    return acc;
+}
+
+/* Σ |a_j| r^j: a bound of |P| on [−r, r]. */
+static double ltrm_poly_magnitude(const ltrm_poly *p, double r) {
+    double acc = 0.0;
+    uint32_t j;
+    for (j = LTRM_MAX_SERIES; j > 0u; j--) acc = acc * r + ltrm_fabs(p->a[j - 1u]);
+    return acc;
+}
+
+/* Σ_{j≥2} |a_j| j(j−1) r^(j−2): a bound of |P''| on [−r, r]. */
+static double ltrm_poly_curvature(const ltrm_poly *p, double r) {
+    double acc = 0.0;
+    uint32_t j;
+    for (j = LTRM_MAX_SERIES - 1u; j >= 2u; j--) acc = acc * r + ltrm_fabs(p->a[j]) * (double)(j * (j - 1u));
+    return acc;
+}
+
+/* Bounds of P on [u, v] (Poly::bounds). */
+static void ltrm_poly_bounds(const ltrm_poly *p, double u, double v, double *lower, double *upper) {
+    double m = 0.5 * (u + v), h = 0.5 * (v - u), r = ltrm_fmax(ltrm_fabs(u), ltrm_fabs(v));
+    double spread = ltrm_fabs(ltrm_poly_derivative(p, m)) * h + 0.5 * ltrm_poly_curvature(p, r) * h * h +
+                    1e-12 * ltrm_poly_magnitude(p, r);
+    double mid = ltrm_poly_eval(p, m);
+    *lower = mid - spread;
+    *upper = mid + spread;
+}
+
+/* The lower end of the product of two intervals. */
+static double ltrm_product_lower(double a, double b, double c, double d) {
+    return ltrm_fmin(ltrm_fmin(a * c, a * d), ltrm_fmin(b * c, b * d));
+}
+
+/* What a proof is about: the slope series, or g(τ) of monotone_in_x. */
+typedef struct ltrm_proof {
+    ltrm_poly ps, ph;
+    int monotone; /* 0: slope_positive, 1: monotone_in_x */
+    double t_c, t_h, t_ref, ex, b0, b1;
+    int bias;
+} ltrm_proof;
+
+enum { LTRM_PIECE_PROVEN, LTRM_PIECE_FAILS, LTRM_PIECE_UNDECIDED };
+
+static double ltrm_ptat(const ltrm_proof *q, double tau) { return (q->t_c + q->t_h * tau + LTRM_ZERO_CELSIUS_K) / q->t_ref; }
+static double ltrm_beta(const ltrm_proof *q, double tau) { return q->bias ? ltrm_exp(q->b0 + q->b1 * tau) : 0.0; }
+
+/* The verdict on one piece [u, v] (the closures of slope_positive and monotone_in_x). */
+static int ltrm_judge(const ltrm_proof *q, double u, double v) {
+    double lower, upper, margin;
+    if (!q->monotone) {
+        double r = ltrm_fmax(ltrm_fabs(u), ltrm_fabs(v));
+        margin = LTRM_SLOPE_MARGIN * ltrm_poly_magnitude(&q->ps, r);
+        if (!(ltrm_poly_eval(&q->ps, 0.5 * (u + v)) > margin)) return LTRM_PIECE_FAILS;
+        ltrm_poly_bounds(&q->ps, u, v, &lower, &upper);
+        return lower > margin ? LTRM_PIECE_PROVEN : LTRM_PIECE_UNDECIDED;
+    } else {
+        double mid = 0.5 * (u + v), scale, g, pu, pv, bu, bv, sl, su, hl, hu;
+        scale = ltrm_fabs(ltrm_ptat(q, mid) * ltrm_poly_eval(&q->ps, mid)) +
+                ltrm_fabs(ltrm_poly_eval(&q->ph, mid)) * (q->ex + ltrm_beta(q, mid));
+        margin = LTRM_SLOPE_MARGIN * scale;
+        g = ltrm_ptat(q, mid) * ltrm_poly_eval(&q->ps, mid) + ltrm_poly_eval(&q->ph, mid) * (q->ex + ltrm_beta(q, mid));
+        if (!(g > margin)) return LTRM_PIECE_FAILS;
+        pu = ltrm_ptat(q, u);
+        pv = ltrm_ptat(q, v);
+        bu = ltrm_beta(q, u);
+        bv = ltrm_beta(q, v);
+        ltrm_poly_bounds(&q->ps, u, v, &sl, &su);
+        ltrm_poly_bounds(&q->ph, u, v, &hl, &hu);
+        lower = ltrm_product_lower(ltrm_fmin(pu, pv), ltrm_fmax(pu, pv), sl, su) +
+                ltrm_product_lower(hl, hu, q->ex + ltrm_fmin(bu, bv), q->ex + ltrm_fmax(bu, bv));
+        return lower > margin ? LTRM_PIECE_PROVEN : LTRM_PIECE_UNDECIDED;
+    }
+}
+
+/* Whether every piece of [a, b] is proven within the budget (proof::prove: depth first, a fixed stack). */
+static int ltrm_prove(const ltrm_proof *q, double a, double b) {
+    double su[LTRM_MAX_DEPTH + 1u], sv[LTRM_MAX_DEPTH + 1u];
+    uint32_t sd[LTRM_MAX_DEPTH + 1u], top = 1u, pieces = 0u;
+    su[0] = a;
+    sv[0] = b;
+    sd[0] = 0u;
+    while (top > 0u) {
+        double u, v, m;
+        uint32_t depth;
+        top--;
+        u = su[top];
+        v = sv[top];
+        depth = sd[top];
+        if (++pieces > LTRM_MAX_PIECES) return 0;
+        switch (ltrm_judge(q, u, v)) {
+        case LTRM_PIECE_PROVEN:
+            break;
+        case LTRM_PIECE_FAILS:
+            return 0;
+        default:
+            if (depth >= LTRM_MAX_DEPTH || top + 2u > LTRM_MAX_DEPTH + 1u) return 0;
+            m = 0.5 * (u + v);
+            su[top] = m;
+            sv[top] = v;
+            sd[top] = depth + 1u;
+            su[top + 1u] = u;
+            sv[top + 1u] = m;
+            sd[top + 1u] = depth + 1u;
+            top += 2u;
+        }
+    }
+    return 1;
+}
+
+/* T_k(ρ) and T_k'(ρ) for ρ ≥ 1 (proof::chebyshev_extremes). */
+static void ltrm_chebyshev_extremes(double rho, double *t, double *d) {
+    double t0 = 1.0, t1 = rho, d0 = 0.0, d1 = 1.0, t2, d2;
+    uint32_t k;
+    t[0] = 1.0;
+    d[0] = 0.0;
+    for (k = 1; k < LTRM_MAX_RESIDUAL; k++) {
+        t[k] = t1;
+        d[k] = d1;
+        /* T_(k+1) = 2ρT_k − T_(k−1); T_(k+1)' = 2T_k + 2ρT_k' − T_(k−1)'. */
+        t2 = 2.0 * rho * t1 - t0;
+        d2 = 2.0 * t1 + 2.0 * rho * d1 - d0;
+        t0 = t1;
+        t1 = t2;
+        d0 = d1;
+        d1 = d2;
+    }
+}
+
+/* The residual is bounded and keeps x = x₀ + R monotone in x₀ (proof::residual_ok). */
+static int ltrm_residual_ok(const uint8_t *r, const uint8_t *m, double ta, double tb) {
+    double tt[LTRM_MAX_RESIDUAL], unused[LTRM_MAX_RESIDUAL], tx[LTRM_MAX_RESIDUAL], dx[LTRM_MAX_RESIDUAL];
+    double rho_t, xc, xh, slope_sum = 0.0, pad = 0.0, x_min, x_max;
+    uint32_t nx = m[LTRM_L_MODEL_RESIDUAL_NX], nt = m[LTRM_L_MODEL_RESIDUAL_NT], pass, i, j;
+    if (nx > LTRM_MAX_RESIDUAL) nx = LTRM_MAX_RESIDUAL;
+    if (nt > LTRM_MAX_RESIDUAL) nt = LTRM_MAX_RESIDUAL;
+    if (nx == 0u || nt == 0u) return 1;
+    rho_t = ltrm_fmax(1.0, ltrm_fmax(ltrm_fabs(ta), ltrm_fabs(tb)));
+    xc = ltrm_f32_at(m, LTRM_L_MODEL_RESIDUAL_X_CENTER);
+    xh = ltrm_f32_at(m, LTRM_L_MODEL_RESIDUAL_X_HALF_SPAN);
+    x_min = ltrm_f32_at(r, LTRM_L_RANGES_X_MIN);
+    x_max = ltrm_f32_at(r, LTRM_L_RANGES_X_MAX);
+    ltrm_chebyshev_extremes(rho_t, tt, unused);
+    /* |R| over the whole box first (for the range of x₀), with ξ of any size up to the bound found. */
+    for (pass = 0; pass < 2u; pass++) {
+        double lo = (x_min - pad - xc) / xh, hi = (x_max + pad - xc) / xh, size = 0.0;
+        ltrm_chebyshev_extremes(ltrm_fmax(1.0, ltrm_fmax(ltrm_fabs(lo), ltrm_fabs(hi))), tx, dx);
+        slope_sum = 0.0;
+        for (i = 0; i < nx; i++)
+            for (j = 0; j < nt; j++) {
+                double c = ltrm_fabs(ltrm_f32_at(m, LTRM_L_MODEL_RESIDUAL_COEFFS + 4u * (i * LTRM_MAX_RESIDUAL + j)));
+                size += c * tx[i] * tt[j];
+                slope_sum += c * dx[i] * tt[j];
+            }
+        if (!(size <= LTRM_MAX_MAGNITUDE)) return 0;
+        pad = size;
+    }
+    return slope_sum < (1.0 - LTRM_SLOPE_MARGIN) * xh;
+}
+
+/* Calibration::validate of the f32 model: every check in its order (each defect is LTRM_BAD_CALIBRATION).
+ * The stored f32 values are already known to be finite and the term counts within capacity. */
 static ltrm_status ltrm_check_model(const uint8_t *r, const uint8_t *m) {
-    uint32_t bits = r[LTRM_L_RANGES_ADC_BITS], max, margin = ltrm_le32(r + LTRM_L_RANGES_RAIL_MARGIN), i, k, n;
-    float t_min = ltrm_float(ltrm_le32(r + LTRM_L_RANGES_T_MIN_C)), t_max = ltrm_float(ltrm_le32(r + LTRM_L_RANGES_T_MAX_C));
-    float ext = ltrm_float(ltrm_le32(r + LTRM_L_RANGES_T_EXTRAPOLATION_K));
-    float x_min = ltrm_float(ltrm_le32(r + LTRM_L_RANGES_X_MIN)), x_max = ltrm_float(ltrm_le32(r + LTRM_L_RANGES_X_MAX));
-    float tc[3], lo, hi;
-    double center = ltrm_float(ltrm_le32(m + LTRM_L_MODEL_T_CENTER_C));
-    double half = ltrm_float(ltrm_le32(m + LTRM_L_MODEL_T_HALF_SPAN_K));
-    double pole = ltrm_float(ltrm_le32(m + LTRM_L_MODEL_POLE));
+    static const uint16_t series_at[3][2] = {
+        { LTRM_L_MODEL_OFFSET_LEN, LTRM_L_MODEL_OFFSET_COEFFS },
+        { LTRM_L_MODEL_SLOPE_LEN, LTRM_L_MODEL_SLOPE_COEFFS },
+        { LTRM_L_MODEL_BULK_LEN, LTRM_L_MODEL_BULK_COEFFS },
+    };
+    uint32_t bits = r[LTRM_L_RANGES_ADC_BITS], max, margin = ltrm_le32(r + LTRM_L_RANGES_RAIL_MARGIN), i;
+    float level = ltrm_f32_at(m, LTRM_L_MODEL_LEVEL_SHIFT_CODE);
+    float t_min = ltrm_f32_at(r, LTRM_L_RANGES_T_MIN_C), t_max = ltrm_f32_at(r, LTRM_L_RANGES_T_MAX_C);
+    float ext = ltrm_f32_at(r, LTRM_L_RANGES_T_EXTRAPOLATION_K);
+    float x_min = ltrm_f32_at(r, LTRM_L_RANGES_X_MIN), x_max = ltrm_f32_at(r, LTRM_L_RANGES_X_MAX);
+    float half = ltrm_f32_at(m, LTRM_L_MODEL_T_HALF_SPAN_K), t_ref = ltrm_f32_at(m, LTRM_L_MODEL_T_REF_K);
+    float ln_beta0 = ltrm_f32_at(m, LTRM_L_MODEL_LN_BETA0), ln_beta1 = ltrm_f32_at(m, LTRM_L_MODEL_LN_BETA1);
+    double center = ltrm_f32_at(m, LTRM_L_MODEL_T_CENTER_C), pole = ltrm_f32_at(m, LTRM_L_MODEL_POLE), ta, tb, rr;
+    int bias = m[LTRM_L_MODEL_BIAS_ENABLED] != 0u, bulk_zero = 1;
+    ltrm_proof q;
     if (bits == 0u || bits > 24u) return LTRM_BAD_CALIBRATION;
     max = (1u << bits) - 1u;
     if ((margin > 0x7fffffffu ? 0xffffffffu : 2u * margin) >= max) return LTRM_BAD_CALIBRATION;
-    if (!(t_min < t_max) || !(ext >= 0.0f) || t_min - ext < -273.0f) return LTRM_BAD_CALIBRATION;
-    if (!(x_min < x_max)) return LTRM_BAD_CALIBRATION;
-    if (!(half > 0.0) || !(ltrm_float(ltrm_le32(m + LTRM_L_MODEL_T_REF_K)) > 0.0f)) return LTRM_BAD_CALIBRATION;
-    if (!(ltrm_float(ltrm_le32(m + LTRM_L_MODEL_RESIDUAL_X_HALF_SPAN)) > 0.0f) ||
-        !(ltrm_float(ltrm_le32(m + LTRM_L_MODEL_LN_BETA0)) < 30.0f))
+    if (!((level < 0.0f ? -level : level) <= LTRM_MAX_LEVEL_SHIFT)) return LTRM_BAD_CALIBRATION;
+    if (!(t_min < t_max) || !(ext >= 0.0f) || (double)t_min - (double)ext < -LTRM_ZERO_CELSIUS_K ||
+        (double)t_max + (double)ext > LTRM_MAX_TEMPERATURE_C)
         return LTRM_BAD_CALIBRATION;
-    /* The slope at both ends of the accepted range and in its middle: positive, finite, and the gain pole's
-     * denominator above 0.05. */
-    lo = t_min - ext;
-    hi = t_max + ext;
-    tc[0] = lo;
-    tc[1] = 0.5f * (lo + hi);
-    tc[2] = hi;
-    n = m[LTRM_L_MODEL_SLOPE_LEN];
+    if (!(x_min < x_max)) return LTRM_BAD_CALIBRATION;
+    if (!((x_min < 0.0f ? -x_min : x_min) <= LTRM_MAX_ABS_X && (x_max < 0.0f ? -x_max : x_max) <= LTRM_MAX_ABS_X))
+        return LTRM_BAD_CALIBRATION;
+    if (!(half > 0.0f) || !(t_ref > 0.0f)) return LTRM_BAD_CALIBRATION;
+    if (!(ltrm_f32_at(m, LTRM_L_MODEL_RESIDUAL_X_HALF_SPAN) > 0.0f) || !(ln_beta0 < 30.0f)) return LTRM_BAD_CALIBRATION;
+    /* The τ range of the accepted temperatures (proof::tau_range), and magnitudes within f32. */
+    ta = ((double)t_min - (double)ext - center) / (double)half;
+    tb = ((double)t_max + (double)ext - center) / (double)half;
+    if (!(ltrm_dfinite(ta) && ltrm_dfinite(tb))) return LTRM_BAD_CALIBRATION;
+    rr = ltrm_fmax(ltrm_fabs(ta), ltrm_fabs(tb));
     for (i = 0; i < 3u; i++) {
-        double tau = ((double)tc[i] - center) / half, den = 1.0 + pole * tau, two_t = tau + tau, b1 = 0.0, b2 = 0.0, s;
-        for (k = n; k > 1u; k--) {
-            double b0 = (double)ltrm_float(ltrm_le32(m + LTRM_L_MODEL_SLOPE_COEFFS + 4u * (k - 1u))) + two_t * b1 - b2;
-            b2 = b1;
-            b1 = b0;
-        }
-        s = n == 0u ? 0.0 : (double)ltrm_float(ltrm_le32(m + LTRM_L_MODEL_SLOPE_COEFFS)) + tau * b1 - b2;
-        if (!(den > 0.05 && s > 0.0 && s - s == 0.0)) return LTRM_BAD_CALIBRATION;
+        ltrm_poly_of(&q.ps, m, series_at[i][0], series_at[i][1]);
+        if (!(ltrm_poly_magnitude(&q.ps, rr) <= LTRM_MAX_MAGNITUDE)) return LTRM_BAD_CALIBRATION;
     }
+    /* β(τ) = exp(b₀ + b₁τ) stays within f32 over the range. */
+    if (bias && !((double)ln_beta0 + ltrm_fabs((double)ln_beta1) * ltrm_fmax(ltrm_fabs(ta), ltrm_fabs(tb)) < 60.0))
+        return LTRM_BAD_CALIBRATION;
+    /* The gain pole: 1 + q·τ > 0.05 (linear, so its ends suffice). */
+    if (!(1.0 + pole * ta > 0.05) || !(1.0 + pole * tb > 0.05)) return LTRM_BAD_CALIBRATION;
+    /* The slope, positive with its margin over the range. */
+    ltrm_poly_of(&q.ps, m, LTRM_L_MODEL_SLOPE_LEN, LTRM_L_MODEL_SLOPE_COEFFS);
+    ltrm_poly_of(&q.ph, m, LTRM_L_MODEL_BULK_LEN, LTRM_L_MODEL_BULK_COEFFS);
+    q.monotone = 0;
+    q.t_c = center;
+    q.t_h = half;
+    q.t_ref = t_ref;
+    q.ex = ltrm_exp((double)x_max);
+    q.b0 = ln_beta0;
+    q.b1 = ln_beta1;
+    q.bias = bias;
+    if (!ltrm_prove(&q, ta, tb)) return LTRM_BAD_CALIBRATION;
+    /* Monotone in x (nothing to prove without a bulk term), then the residual. */
+    for (i = 0; i < m[LTRM_L_MODEL_BULK_LEN] && i < LTRM_MAX_SERIES; i++)
+        if (ltrm_f32_at(m, LTRM_L_MODEL_BULK_COEFFS + 4u * i) != 0.0f) bulk_zero = 0;
+    q.monotone = 1;
+    if (!bulk_zero && !ltrm_prove(&q, ta, tb)) return LTRM_BAD_CALIBRATION;
+    if (!ltrm_residual_ok(r, m, ta, tb)) return LTRM_BAD_CALIBRATION;
     return LTRM_OK;
 }
 

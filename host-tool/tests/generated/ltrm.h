@@ -61,6 +61,10 @@ extern "C" {
 #define LTRM_MAX_SERIES 6u /* calibration::MAX_SERIES */
 #define LTRM_MAX_RESIDUAL 4u /* calibration::MAX_RESIDUAL */
 #define LTRM_GAIN_FRAC 30u /* field::trim::GAIN_FRAC */
+#define LTRM_MAX_LEVEL_SHIFT 67108864.0f /* calibration::MAX_LEVEL_SHIFT */
+#define LTRM_MAX_ABS_X 100.0f /* calibration::MAX_ABS_X */
+#define LTRM_MAX_TEMPERATURE_C 1000.0 /* calibration::MAX_TEMPERATURE_C */
+#define LTRM_ZERO_CELSIUS_K 273.15 /* physics::ZERO_CELSIUS_K */
 #define LTRM_GAIN_ONE_Q30 1073741824 /* field::trim::GAIN_ONE_Q30 */
 #define LTRM_NO_WINDOW 0xffffffffu /* a stage cache without a window */
 #define LTRM_TRIM_CLEARED 0u /* field::TrimKind::Cleared */
