@@ -361,19 +361,20 @@ pub fn check_cli_values(data: &[u8]) {
 }
 
 /// The driver of the C differential: reads `m CODE MILLICELSIUS` or `r CODE TEMP_CODE` lines and prints the
-/// status and x of the emitted evaluator.
+/// status and x of the C library (`ltrm.h`, `ltrm.c`) on the unit's emitted data (`unit.c`, `unit_cal`).
 const C_DRIVER: &str = r#"
 #include <stdio.h>
-#include "unit.h"
+#include "ltrm.h"
+extern const ltrm_fixed unit_cal;
 int main(void) {
     char kind;
     unsigned long code;
     long long t;
     while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
-        lt_reading r;
-        lt_status st = kind == 'm' ? lt_correct(&LT_UNIT, (uint32_t)code, (int32_t)t, &r)
-                                   : lt_correct_raw(&LT_UNIT, (uint32_t)code, (uint32_t)t, &r);
-        if (st == LT_OK) printf("%d %ld\n", (int)st, (long)r.x); else printf("%d\n", (int)st);
+        ltrm_reading r;
+        ltrm_status st = kind == 'm' ? ltrm_correct(&unit_cal, (uint32_t)code, (int32_t)t, &r)
+                                     : ltrm_correct_raw(&unit_cal, (uint32_t)code, (uint32_t)t, &r);
+        if (st == LTRM_OK) printf("%d %ld\n", (int)st, (long)r.x); else printf("%d\n", (int)st);
     }
     return 0;
 }
@@ -384,9 +385,9 @@ thread_local! {
     static C_BUILD: RefCell<Option<(String, std::path::PathBuf)>> = const { RefCell::new(None) };
 }
 
-/// A calibration file (up to the first NUL byte) and readings (the bytes after it): the C evaluator that
-/// `logtrim emit --format c` writes, compiled with the system's C compiler, gives the same status and the
-/// same x as the Rust fixed path on every reading.
+/// A calibration file (up to the first NUL byte) and readings (the bytes after it): the C library
+/// (`logtrim c-library`) with the unit's data that `logtrim emit --format c` writes, compiled with the
+/// system's C compiler, gives the same status and the same x as the Rust fixed path on every reading.
 pub fn check_c_differential(data: &[u8]) {
     use logtrim_host::calfile::CalFile;
     use logtrim_host::emit::{self, Format, Provenance};
@@ -408,13 +409,15 @@ pub fn check_c_differential(data: &[u8]) {
         }
         let dir = std::env::temp_dir().join(format!("logtrim-fuzz-c-{}", std::process::id()));
         std::fs::create_dir_all(&dir).expect("a scratch folder");
-        std::fs::write(dir.join("unit.h"), &header).expect("the header is written");
+        std::fs::write(dir.join("ltrm.h"), emit::c::library_header()).expect("the library header is written");
+        std::fs::write(dir.join("ltrm.c"), emit::c::library_source()).expect("the library is written");
+        std::fs::write(dir.join("unit.c"), &header).expect("the unit's data are written");
         std::fs::write(dir.join("driver.c"), C_DRIVER).expect("the driver is written");
         let exe = dir.join("driver");
         let out = std::process::Command::new(std::env::var("CC").unwrap_or_else(|_| "cc".into()))
             .args(["-std=c99", "-O1", "-Wall", "-Werror", "-o"])
             .arg(&exe)
-            .arg(dir.join("driver.c"))
+            .args([dir.join("driver.c"), dir.join("unit.c"), dir.join("ltrm.c")])
             .output()
             .expect("a C compiler runs");
         assert!(out.status.success(), "the emitted C does not compile:\n{}", String::from_utf8_lossy(&out.stderr));
