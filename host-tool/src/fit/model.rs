@@ -123,6 +123,11 @@ impl Spec {
                     let (a, b) = v.split_once('x').ok_or(format!("residual size {v:?} is not of the form NxM"))?;
                     s.residual_x = a.trim().parse().map_err(|_| format!("residual size {v:?} is not NxM"))?;
                     s.residual_t = b.trim().parse().map_err(|_| format!("residual size {v:?} is not NxM"))?;
+                    if s.residual_x == 0 || s.residual_t == 0 {
+                        return Err(format!(
+                            "residual size {v:?}: both counts must be at least 1 (leave the term out for no residual)"
+                        ));
+                    }
                 }
                 other => {
                     return Err(format!(
@@ -549,6 +554,9 @@ mod tests {
         assert!(Spec::parse("offset=0").is_err());
         assert!(Spec::parse("offset=x").unwrap_err().contains("not a whole number"));
         assert!(Spec::parse("wobble").unwrap_err().contains("unknown model term"));
+        // A residual with no terms on one axis is no residual: refused, so a size always round-trips.
+        assert!(Spec::parse("offset=3,residual=0x2").unwrap_err().contains("at least 1"));
+        assert!(Spec::parse("offset=3,residual=2x0").is_err());
         assert!(Spec::parse("residual=9x1").is_err());
     }
 
