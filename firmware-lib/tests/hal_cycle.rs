@@ -91,6 +91,16 @@ fn code_at(x: f32) -> u16 {
 }
 
 /// A measurement has a value exactly when it has no error and its flags allow one.
+/// A measurement without a value (nor x), consistent, and with which of its two channels still gave a
+/// reading (data, kept beside the fault).
+fn no_value(m: &Measurement, log_read: bool, temperature_read: bool) {
+    assert_eq!(m.value(), None);
+    assert_eq!(m.x(), None);
+    assert_eq!(m.log_code().is_some(), log_read, "{m:?}");
+    assert_eq!(m.temperature_c().is_some(), temperature_read, "{m:?}");
+    assert!(consistent(m));
+}
+
 fn consistent(m: &Measurement) -> bool {
     m.value().is_some() == m.error().is_none()
         && m.value().is_some() == m.status().allows_value()
@@ -275,11 +285,7 @@ fn spi_error_is_a_converter_error() {
 
     assert_eq!(m.error(), Some(CycleError::Converter { channel: Channel::Log, kind: ErrorKind::Bus }));
     assert!(m.status().converter_error);
-    assert_eq!(m.value(), None);
-    assert_eq!(m.x(), None);
-    assert_eq!(m.log_code(), None);
-    assert!(m.temperature_c().is_some());
-    assert!(consistent(&m));
+    no_value(&m, false, true);
 }
 
 #[test]
@@ -333,10 +339,7 @@ fn open_thermistor_is_a_sensor_fault() {
         finish(cycle);
         assert!(m.status().sensor_fault);
         assert_eq!(m.error(), Some(CycleError::Temperature(Error::Sensor(fault))));
-        assert_eq!(m.value(), None);
-        assert_eq!(m.temperature_c(), None);
-        assert!(m.log_code().is_some());
-        assert!(consistent(&m));
+        no_value(&m, true, false);
     }
 }
 

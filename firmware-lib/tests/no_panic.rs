@@ -90,25 +90,22 @@ const EDGE_F64: [f64; 18] = [
 ];
 const EDGE_CODES: [u32; 11] = [0, 1, 2, 4095, 4096, 32768, 65535, 65536, 1 << 24, u32::MAX - 1, u32::MAX];
 
-/// Any f32: arbitrary bit patterns (NaN, ±∞, subnormals), edge values and ordinary magnitudes.
-fn any_f32() -> BoxedStrategy<f32> {
-    prop_oneof![
-        3 => proptest::num::f32::ANY,
-        2 => prop::sample::select(&EDGE_F32[..]),
-        3 => -1e4f32..1e4f32,
-    ]
-    .boxed()
+/// `fn $name() -> any $t`: arbitrary bit patterns (NaN, ±∞, subnormals), the edge values and ordinary
+/// magnitudes; one definition for both widths.
+macro_rules! any_float {
+    ($name:ident, $t:ident, $edges:expr, $ordinary:expr) => {
+        fn $name() -> BoxedStrategy<$t> {
+            prop_oneof![
+                3 => proptest::num::$t::ANY,
+                2 => prop::sample::select(&$edges[..]),
+                3 => $ordinary,
+            ]
+            .boxed()
+        }
+    };
 }
-
-/// Any f64, likewise.
-fn any_f64() -> BoxedStrategy<f64> {
-    prop_oneof![
-        3 => proptest::num::f64::ANY,
-        2 => prop::sample::select(&EDGE_F64[..]),
-        3 => -1e5f64..1e5f64,
-    ]
-    .boxed()
-}
+any_float!(any_f32, f32, EDGE_F32, -1e4f32..1e4f32);
+any_float!(any_f64, f64, EDGE_F64, -1e5f64..1e5f64);
 
 /// Any u32, with the rails and ADC limits over-represented.
 fn any_code() -> BoxedStrategy<u32> {

@@ -209,27 +209,16 @@ fn model_variants(image: &[u8]) -> Vec<(&'static str, Vec<Vec<u8>>)> {
             })
             .collect()
     };
-    out.push((
-        "slope-dip",
-        family(
-            &|b, k| {
-                put_u8(b, &mf::SLOPE_LEN, m.slope.len.max(5));
-                put(b, &mf::SLOPE, 4, (k * s0) as f32);
-            },
-            &sweep,
-        ),
-    ));
+    // One coefficient of a series set to (sign·k)·s0·scale, the series lengthened to hold it.
+    let term = |len: &'static Field, n: u8, coeffs: &'static Field, i: usize, sign: f64, scale: f64| {
+        move |b: &mut Vec<u8>, k: f64| {
+            put_u8(b, len, n.max(i as u8 + 1));
+            put(b, coeffs, i, (sign * k * s0 * scale) as f32);
+        }
+    };
+    out.push(("slope-dip", family(&term(&mf::SLOPE_LEN, m.slope.len, &mf::SLOPE, 4, 1.0, 1.0), &sweep)));
     let tilt: Vec<f64> = sweep.iter().map(|k| k / ta.abs().max(tb.abs())).collect();
-    out.push((
-        "slope-tilt",
-        family(
-            &|b, k| {
-                put_u8(b, &mf::SLOPE_LEN, m.slope.len.max(2));
-                put(b, &mf::SLOPE, 1, (k * s0) as f32);
-            },
-            &tilt,
-        ),
-    ));
+    out.push(("slope-tilt", family(&term(&mf::SLOPE_LEN, m.slope.len, &mf::SLOPE, 1, 1.0, 1.0), &tilt)));
     let mut poles: Vec<f64> = (-12..=12).map(|i| f64::from(i) * 0.25).collect();
     for end in [ta, tb] {
         if end != 0.0 {
@@ -237,26 +226,9 @@ fn model_variants(image: &[u8]) -> Vec<(&'static str, Vec<Vec<u8>>)> {
         }
     }
     out.push(("pole", family(&|b, q| put(b, &mf::POLE, 0, q as f32), &poles)));
-    out.push((
-        "bulk-constant",
-        family(
-            &|b, k| {
-                put_u8(b, &mf::BULK_LEN, m.bulk.len.max(1));
-                put(b, &mf::BULK, 0, (-k * s0 * e_max) as f32);
-            },
-            &sweep,
-        ),
-    ));
-    out.push((
-        "bulk-bump",
-        family(
-            &|b, k| {
-                put_u8(b, &mf::BULK_LEN, m.bulk.len.max(3));
-                put(b, &mf::BULK, 2, (-k * s0 * e_max) as f32);
-            },
-            &sweep,
-        ),
-    ));
+    let bulk = |i| term(&mf::BULK_LEN, m.bulk.len, &mf::BULK, i, -1.0, e_max);
+    out.push(("bulk-constant", family(&bulk(0), &sweep)));
+    out.push(("bulk-bump", family(&bulk(2), &sweep)));
     out.push((
         "residual-slope",
         family(

@@ -89,36 +89,50 @@ fn calfile(cal: Calibration) -> CalFile {
     f
 }
 
+/// The invented unit's file, fit outcome and data, for a report.
+struct Fixture {
+    file: CalFile,
+    outcome: FitOutcome,
+    data: FitData,
+    options: FitOptions,
+}
+
+impl Fixture {
+    fn bent() -> Self {
+        let cal = units::bent();
+        Fixture {
+            file: calfile(cal),
+            outcome: outcome(cal),
+            data: data(&cal),
+            options: FitOptions::default(),
+        }
+    }
+
+    /// The report of the fixture's fit from the chamber file `source`, in dB (power).
+    fn report<'a>(&'a self, source: &'a str) -> FitReport<'a> {
+        FitReport {
+            calfile: &self.file,
+            outcome: &self.outcome,
+            data: &self.data,
+            options: &self.options,
+            source,
+            unit: ErrorScale::DbPower,
+        }
+    }
+}
+
 #[test]
 fn report_snapshot() {
-    let cal = units::bent();
-    let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
-    let opts = FitOptions::default();
-    let r = FitReport {
-        calfile: &f,
-        outcome: &out,
-        data: &d,
-        options: &opts,
-        source: "chamber/GD-0417.csv",
-        unit: ErrorScale::DbPower,
-    };
+    let fixture = Fixture::bent();
+    let r = fixture.report("chamber/GD-0417.csv");
     let links = [ChartLink { title: "Error in x against x".into(), file: "GD-0417-error-vs-x.svg".into() }];
     insta::assert_snapshot!("fit_report", r.render_markdown(&links));
 }
 
 #[test]
 fn report_structure() {
-    let cal = units::bent();
-    let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
-    let opts = FitOptions::default();
-    let r = FitReport {
-        calfile: &f,
-        outcome: &out,
-        data: &d,
-        options: &opts,
-        source: "cal.csv",
-        unit: ErrorScale::DbPower,
-    };
+    let fixture = Fixture::bent();
+    let r = fixture.report("cal.csv");
     let md = r.render_markdown(&[]);
     let headings: Vec<&str> = md.lines().filter(|l| l.starts_with('#')).collect();
     assert_eq!(
@@ -163,19 +177,10 @@ fn report_structure() {
 
 #[test]
 fn written_report_links_charts_that_exist() {
-    let cal = units::bent();
-    let (f, out, d) = (calfile(cal), outcome(cal), data(&cal));
-    let opts = FitOptions::default();
+    let fixture = Fixture::bent();
     let dir = std::env::temp_dir().join(format!("logtrim-report-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
-    let r = FitReport {
-        calfile: &f,
-        outcome: &out,
-        data: &d,
-        options: &opts,
-        source: "cal.csv",
-        unit: ErrorScale::DbPower,
-    };
+    let r = fixture.report("cal.csv");
     let files = r.write_to(&dir).unwrap();
     assert_eq!(files.len(), 3);
     assert!(files[0].ends_with("GD-0417-fit-report.md"));

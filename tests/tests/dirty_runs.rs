@@ -76,6 +76,19 @@ fn with_faults(name: &str, faults: ChamberFaults) -> FrontEnd {
     FrontEnd { chamber_faults: Some(faults), ..preset(name).unwrap() }
 }
 
+/// No row of `c` outside `want` (the glitched ones) is set aside as a glitch.
+fn no_clean_row_is_a_glitch(want: &[usize], c: &Checked) {
+    for g in c.out.screening.set_aside.iter().filter(|r| r.reason == Reason::Glitch) {
+        assert!(
+            want.contains(&g.row),
+            "clean row {} set aside as a glitch: {}\n{:?}\nglitched: {want:?}",
+            g.row,
+            c.label,
+            c.out.screening.set_aside
+        );
+    }
+}
+
 /// Every glitched reading is set aside (as a glitch; at a rail, where a glitch pushed it there; or with an
 /// unsettled sweep it belongs to), and no clean reading is set aside as a glitch.
 fn check_glitches(sim: &Simulation, done: &[Checked]) {
@@ -85,15 +98,7 @@ fn check_glitches(sim: &Simulation, done: &[Checked]) {
         for w in &want {
             assert!(got.contains(w), "glitched row {w} not set aside: {}", c.label);
         }
-        for g in c.out.screening.set_aside.iter().filter(|r| r.reason == Reason::Glitch) {
-            assert!(
-                want.contains(&g.row),
-                "clean row {} set aside as a glitch: {}\n{:?}\nglitched: {want:?}",
-                g.row,
-                c.label,
-                c.out.screening.set_aside
-            );
-        }
+        no_clean_row_is_a_glitch(&want, c);
     }
 }
 
@@ -121,15 +126,7 @@ fn small_glitches_near_the_noise_are_found_or_harmless() {
     let (sim, done) = run(&with_faults("gas-uncompensated", faults), PLAN_384, 43, 2);
     for (unit, c) in done.iter().enumerate() {
         let want = glitched(&sim, unit);
-        for g in c.out.screening.set_aside.iter().filter(|r| r.reason == Reason::Glitch) {
-            assert!(
-                want.contains(&g.row),
-                "clean row {} set aside as a glitch: {}\n{:?}\nglitched: {want:?}",
-                g.row,
-                c.label,
-                c.out.screening.set_aside
-            );
-        }
+        no_clean_row_is_a_glitch(&want, c);
     }
 }
 

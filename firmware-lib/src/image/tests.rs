@@ -1041,32 +1041,23 @@ mod fixed_section {
         let size_err = |table, found, expected| {
             Err(ImageError::Value(ImageValueError::FixedTableSize { table, found, expected }))
         };
-        // A count that disagrees with the dimensions.
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::OFFSET_LEN), &8u16.to_le_bytes())),
-            size_err("offset", 8, 7)
-        );
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::U_MIN_LEN), &0u16.to_le_bytes())),
-            size_err("u_min", 0, 7)
-        );
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::RESIDUAL_LEN), &64u16.to_le_bytes())),
-            size_err("residual", 64, 56)
-        );
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::SENSOR_KNOTS_LEN), &20u16.to_le_bytes())),
-            size_err("sensor_knots", 20, 19)
-        );
-        // Dimensions that disagree with the counts: the first table that does not fit is named.
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::T_KNOTS), &6u16.to_le_bytes())),
-            size_err("offset", 7, 8)
-        );
-        assert_eq!(
-            Image::parse(&edit(&img, at(&lf::XA_KNOTS), &7u16.to_le_bytes())),
-            size_err("residual", 56, 63)
-        );
+        // A count that disagrees with the dimensions, then dimensions that disagree with the counts (the first
+        // table that does not fit is named): the field, its new value, and the table named with its sizes.
+        let cases: [(&crate::record::layout::Field, u16, &str, u32, u32); 6] = [
+            (&lf::OFFSET_LEN, 8, "offset", 8, 7),
+            (&lf::U_MIN_LEN, 0, "u_min", 0, 7),
+            (&lf::RESIDUAL_LEN, 64, "residual", 64, 56),
+            (&lf::SENSOR_KNOTS_LEN, 20, "sensor_knots", 20, 19),
+            (&lf::T_KNOTS, 6, "offset", 7, 8),
+            (&lf::XA_KNOTS, 7, "residual", 56, 63),
+        ];
+        for (field, value, table, found, expected) in cases {
+            assert_eq!(
+                Image::parse(&edit(&img, at(field), &value.to_le_bytes())),
+                size_err(table, found, expected),
+                "{table}"
+            );
+        }
         // A bias-bend table without the bias bend.
         assert_eq!(Image::parse(&edit(&img, at(&lf::BIAS_BEND), &[0])), size_err("ln_bias", 7, 0));
         // A sensor table whose span calls for more knots (4200 codes in 256-code steps: 17 segments, not 16).
