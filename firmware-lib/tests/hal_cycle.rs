@@ -181,13 +181,11 @@ fn clean_cycle_with_exact_transactions_and_delays() {
     assert!(consistent(&m));
 }
 
-#[test]
-fn slope_is_proportional_to_absolute_temperature() {
-    // kT/q is proportional to absolute temperature (SI: k/e = 8.617333262e-5 V/K): the same code 2000 above
-    // the level shift reads 298.15/308.15 Np at 35 °C. The temperature comes from a digital sensor in
-    // 1/16 °C: 35 °C is 560 counts.
-    let log = SpiSar16::new(SpiMock::new(&conversions(&[code_at(1.0)])));
-    let temp = SpiSar16::new(SpiMock::new(&conversions(&[560])));
+/// One single-sample cycle in nepers of the log code `code`, its temperature from a 13-bit digital sensor in
+/// 1/16 °C reading `counts`; every bus transaction used.
+fn digital_sensor_cycle(code: u16, counts: u16) -> Measurement {
+    let log = SpiSar16::new(SpiMock::new(&conversions(&[code])));
+    let temp = SpiSar16::new(SpiMock::new(&conversions(&[counts])));
     let sensor = DigitalCelsius::new(13, true, 0.0625).unwrap();
     let cfg = CycleConfig::single(Unit::Nepers).check::<1>().unwrap();
     let mut cycle = Cycle::new(log, temp, sensor, Some(unit()), cfg);
@@ -195,6 +193,15 @@ fn slope_is_proportional_to_absolute_temperature() {
     let (log, temp, _, _) = cycle.release();
     log.release().done();
     temp.release().done();
+    m
+}
+
+#[test]
+fn slope_is_proportional_to_absolute_temperature() {
+    // kT/q is proportional to absolute temperature (SI: k/e = 8.617333262e-5 V/K): the same code 2000 above
+    // the level shift reads 298.15/308.15 Np at 35 °C. The temperature comes from a digital sensor in
+    // 1/16 °C: 35 °C is 560 counts.
+    let m = digital_sensor_cycle(code_at(1.0), 560);
     assert_eq!(m.temperature_c(), Some(35.0));
     let x = f64::from(m.x().unwrap());
     assert!((x - 298.15 / 308.15).abs() < 1e-6, "{x}");
@@ -402,15 +409,7 @@ fn temperature_extrapolated_and_out_of_range() {
     for (counts, extrapolated, out) in
         [(25 * 16, false, false), (53 * 16, true, false), (56 * 16, false, true)]
     {
-        let log = SpiSar16::new(SpiMock::new(&conversions(&[code_at(0.5)])));
-        let temp = SpiSar16::new(SpiMock::new(&conversions(&[counts])));
-        let sensor = DigitalCelsius::new(13, true, 0.0625).unwrap();
-        let cfg = CycleConfig::single(Unit::Nepers).check::<1>().unwrap();
-        let mut cycle = Cycle::new(log, temp, sensor, Some(unit()), cfg);
-        let m = cycle.measure(&mut NoopDelay::new());
-        let (log, temp, _, _) = cycle.release();
-        log.release().done();
-        temp.release().done();
+        let m = digital_sensor_cycle(code_at(0.5), counts);
         assert_eq!(m.status().temperature_extrapolated, extrapolated, "{counts}");
         assert_eq!(m.status().temperature_out_of_range, out, "{counts}");
         assert_eq!(m.value().is_some(), !out, "{counts}");

@@ -399,6 +399,19 @@ fn expected_for_flip(byte: usize, got: &ImageError) -> bool {
     }
 }
 
+/// Every prefix of `img` is refused as truncated: until the declared length can be read, the header is what
+/// is missing; then the declared length.
+fn check_every_truncation(img: &[u8]) {
+    for n in 0..img.len() {
+        let want = if n < header::TOTAL_LEN.end() { header::LEN } else { img.len() };
+        assert_eq!(
+            Image::parse(&img[..n]).unwrap_err(),
+            ImageError::Format(FormatError::Truncated { needed: want as u32, available: n as u32 }),
+            "length {n}"
+        );
+    }
+}
+
 fn check_every_bit_flip(img: &[u8]) -> usize {
     let mut work = img.to_vec();
     // A slot: the image followed by erased flash, parsed with parse_prefix.
@@ -441,16 +454,9 @@ fn every_single_bit_flip_of_a_larger_image_is_rejected() {
 #[test]
 fn every_truncation_is_rejected() {
     let img = typical();
+    check_every_truncation(&img);
     for n in 0..img.len() {
-        // Until the declared length can be read, the header is what is missing; then the declared length.
-        let want = if n < header::TOTAL_LEN.end() { header::LEN } else { img.len() };
-        let e = Image::parse(&img[..n]).unwrap_err();
-        assert_eq!(
-            e,
-            ImageError::Format(FormatError::Truncated { needed: want as u32, available: n as u32 }),
-            "length {n}"
-        );
-        assert_eq!(Image::parse_prefix(&img[..n]).unwrap_err(), e);
+        assert_eq!(Image::parse_prefix(&img[..n]).unwrap_err(), Image::parse(&img[..n]).unwrap_err());
     }
 }
 
@@ -1003,16 +1009,7 @@ mod fixed_section {
     #[test]
     fn every_truncation_of_an_image_with_the_section_is_rejected() {
         let img = image_with(&owned(5, true, true).view());
-        for n in 0..img.len() {
-            // Until the declared length can be read, the header is what is missing; then the declared length.
-            let want = if n < header::TOTAL_LEN.end() { header::LEN } else { img.len() };
-            let e = Image::parse(&img[..n]).unwrap_err();
-            assert_eq!(
-                e,
-                ImageError::Format(FormatError::Truncated { needed: want as u32, available: n as u32 }),
-                "length {n}"
-            );
-        }
+        check_every_truncation(&img);
         // A section cut short inside an image whose lengths were rewritten to match (a writer that lost the
         // end of the tables): refused by the section's own sizes.
         for cut in [4usize, 8, 84, 200] {
