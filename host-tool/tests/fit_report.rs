@@ -99,7 +99,7 @@ struct Fixture {
 
 impl Fixture {
     fn bent() -> Self {
-        let cal = units::bent();
+        let cal = units::fitted_shape();
         Fixture {
             file: calfile(cal),
             outcome: outcome(cal),

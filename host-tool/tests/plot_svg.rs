@@ -142,7 +142,7 @@ fn no_data_is_an_error_not_an_empty_chart() {
 
 #[test]
 fn heat_map_of_the_f32_error_over_code_and_temperature() {
-    let cal = units::bent();
+    let cal = units::fitted_shape();
     let (nx, ny) = (40, 12);
     let map = figures::f32_error_map(&cal, nx, ny, "coarse grid").unwrap();
     // The grid holds what it says: recompute a few cells directly from firmware-lib.
@@ -188,7 +188,7 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
 
 #[test]
 fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
-    let cal = units::bent();
+    let cal = units::fitted_shape();
     let tables = build(&cal, None, &TableOptions::default()).unwrap();
     let fixed = tables.view();
     let (nx, ny, per_cell) = (40, 12, 9);

@@ -1,46 +1,16 @@
 //! Hand-made calibrations shared by the crate's unit tests (invented values), so that no test module
-//! keeps its own copy: an f32 unit with every code-domain term in use, and a linear fixed-point unit.
+//! keeps its own copy: the f32 units of [`calibrations`] (shared with every crate's tests), and a linear
+//! fixed-point unit.
 
 use std::vec;
 use std::vec::Vec;
 
 use crate::calibration::{BiasTerm, Calibration, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL};
+
+pub(crate) mod calibrations;
 use crate::error::SensorFault;
 use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
-
-/// A 16-bit unit calibrated over −20…85 °C with a strong low-end (bias-current) bend, a visible high-end
-/// (bulk-resistance) bend, a compensating pole and a bias term on the reference input of `reference` codes;
-/// no residual.
-pub(crate) fn bent(reference: f32) -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
-    c.model.t_center_c = 32.5;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.12;
-    c.model.offset = Series::from_slice(&[120.0, 35.0, -4.0]).unwrap_or(Series::ZERO);
-    c.model.slope = Series::from_slice(&[1900.0, 40.0, 3.0]).unwrap_or(Series::ZERO);
-    c.model.bulk = Series::from_slice(&[6.0, 0.3]).unwrap_or(Series::ZERO);
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -10.5, ln_beta1: 3.6, reference };
-    c
-}
-
-/// [`bent`] with a reference term of −2.5 codes and a small residual: every model term in use.
-pub(crate) fn hard() -> Calibration {
-    let mut c = bent(-2.5);
-    let mut r = Residual::OFF;
-    r.nx = 3;
-    r.nt = 2;
-    r.x_center = -2.5;
-    r.x_half_span = 6.5;
-    r.coeffs[0] = 1e-3;
-    r.coeffs[1] = -2e-4;
-    r.coeffs[MAX_RESIDUAL] = 5e-4;
-    r.coeffs[2 * MAX_RESIDUAL + 1] = 7e-5;
-    c.model.residual = r;
-    c
-}
+pub(crate) use calibrations::{bent, hard};
 
 /// The x range's ends of [`linear_fixed`]: 27306 codes from the centre, Q24 Np.
 pub(crate) const LINEAR_X_LIM: i32 = 27306 * 3072;

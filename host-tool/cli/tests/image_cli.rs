@@ -4,27 +4,22 @@
 
 mod common;
 
+#[path = "../../tests/common/mod.rs"]
+mod fixtures;
+
 use std::path::Path;
 
 use common::{code, logtrim_in, stderr, stdout};
-use logtrim::calibration::{BiasTerm, Series, TemperatureRange, XRange};
+use fixtures::units;
 use logtrim::image::layout;
 use logtrim::{Calibration, Image};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::image_file::load_fixed;
 use logtrim_host::tables::TableOptions;
 
-/// A gas detector's reference-channel unit, invented for the test.
+/// A gas detector's reference-channel unit, invented for the test, saved as `COEFFS.json`.
 fn coeffs(dir: &Path, unit: Option<&str>) -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 2100.0, 25.0);
-    c.adc.rail_margin = 12;
-    c.temperature = TemperatureRange { min_c: -10.0, max_c: 60.0, extrapolation_k: 3.0 };
-    c.x_range = XRange { min: -7.0, max: 3.0, min_sensitivity: 0.1 };
-    c.model.t_center_c = 25.0;
-    c.model.t_half_span_k = 40.0;
-    c.model.offset = Series::from_slice(&[80.0, 12.5]).unwrap();
-    c.model.slope = Series::from_slice(&[2000.0, 25.0]).unwrap();
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -11.0, ln_beta1: 2.8, reference: 0.0 };
+    let c = units::gas_reference();
     let mut f = CalFile::new(c, unit.map(str::to_string));
     f.created_unix_s = 1_767_225_600;
     f.save(&dir.join("COEFFS.json")).unwrap();

@@ -1,74 +1,14 @@
-//! Hand-made calibrations of invented front ends, for the fixed-path tests, benches and figures.
-//!
-//! They stand in for the simulator's presets: 16-bit ADC, 5000–6000 codes per neper, a strong low-end bend
-//! when hot (bias current doubling about every 10 K, common practice), a visible high-end bend (bulk
-//! resistance), offset drift, and a small fitted residual.
+//! Hand-made calibrations of invented front ends, for the fixed-path tests, benches and figures: the ones
+//! every crate's tests share (their one home is firmware-lib's `src/test_units/calibrations.rs`), and the
+//! list of the named ones.
 #![allow(dead_code)]
 
-use logtrim::calibration::{BiasTerm, Residual, Series, TemperatureRange, XRange};
+use logtrim::calibration::{BiasTerm, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL};
 use logtrim::Calibration;
 
-fn series(c: &[f32]) -> Series {
-    Series::from_slice(c).unwrap_or(Series::ZERO)
-}
-
-/// Uncompensated (slope ∝ T), −20…85 °C with 5 K extrapolation, strong hot bias bend that the sensitivity
-/// limit cuts into at the hot end, bulk bend at the top.
-pub fn hard_uncompensated() -> Calibration {
-    let mut c = Calibration::nominal(16, 44000.0, 5200.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -6.5, max: 3.0, min_sensitivity: 0.05 };
-    c.model.t_center_c = 32.5;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = 0.0;
-    c.model.offset = series(&[150.0, 60.0, -8.0]);
-    c.model.slope = series(&[5200.0, 30.0, 6.0]);
-    c.model.bulk = series(&[14.0, 1.5]);
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -7.2, ln_beta1: 3.6, reference: -3.0 };
-    c.model.residual = Residual { nx: 3, nt: 2, x_center: -1.75, x_half_span: 4.75, ..Residual::OFF };
-    c.model.residual.coeffs[0] = 0.002;
-    c.model.residual.coeffs[1] = -0.001;
-    c.model.residual.coeffs[4] = 0.003;
-    c.model.residual.coeffs[8] = -0.0015;
-    c
-}
-
-/// Compensated (a +3400 ppm/K resistor in the gain divider cancels most of the kT/q drift), −20…85 °C,
-/// the same strong bias bend.
-pub fn hard_compensated() -> Calibration {
-    let mut c = hard_uncompensated();
-    // T_K/T_ref over τ: 1 + τ·52.5/305.65 ≈ 1 + 0.172τ; the pole takes 85 % of it.
-    c.model.pole = 0.146;
-    c.model.slope = series(&[5600.0, 25.0, -4.0]);
-    c.adc.level_shift_code = 42000.0;
-    c
-}
-
-/// Compensated, 0…70 °C with 3 K extrapolation, a milder bias bend, 6000 codes per neper.
-pub fn mild_compensated() -> Calibration {
-    let mut c = Calibration::nominal(16, 41000.0, 6000.0, 25.0);
-    c.adc.rail_margin = 8;
-    c.temperature = TemperatureRange { min_c: 0.0, max_c: 70.0, extrapolation_k: 3.0 };
-    c.x_range = XRange { min: -6.0, max: 3.5, min_sensitivity: 0.1 };
-    c.model.t_center_c = 35.0;
-    c.model.t_half_span_k = 35.0;
-    c.model.pole = 0.10;
-    c.model.offset = series(&[-80.0, 25.0]);
-    c.model.slope = series(&[6000.0, 12.0]);
-    c.model.bulk = series(&[9.0, 0.5]);
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -9.0, ln_beta1: 2.4, reference: 0.0 };
-    c
-}
-
-/// An ideal unit: no bias term, no bends (the plain path through the tables).
-pub fn ideal() -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 5000.0, 25.0);
-    c.adc.rail_margin = 4;
-    c.temperature = TemperatureRange { min_c: -10.0, max_c: 60.0, extrapolation_k: 0.0 };
-    c.x_range = XRange { min: -6.0, max: 6.0, min_sensitivity: 0.0 };
-    c
-}
+#[path = "../../../firmware-lib/src/test_units/calibrations.rs"]
+mod calibrations;
+pub use calibrations::*;
 
 /// Every hand-made unit with a name.
 pub fn all() -> Vec<(&'static str, Calibration)> {
@@ -78,23 +18,4 @@ pub fn all() -> Vec<(&'static str, Calibration)> {
         ("mild_compensated", mild_compensated()),
         ("ideal", ideal()),
     ]
-}
-
-/// A calibration with bends at both ends (the shape of a fitted unit), over −20…85 °C: every term of the
-/// model but the residual.
-pub fn bent() -> Calibration {
-    let mut c = Calibration::nominal(16, 30000.0, 3600.0, 32.5);
-    c.temperature.min_c = -20.0;
-    c.temperature.max_c = 85.0;
-    c.x_range.min = -6.9;
-    c.x_range.max = 4.6;
-    c.x_range.min_sensitivity = 0.1;
-    c.adc.rail_margin = 8;
-    c.model.t_half_span_k = 52.5;
-    c.model.pole = -0.1;
-    c.model.offset = series(&[150.0, 40.0, -6.0]);
-    c.model.slope = series(&[3500.0, 25.0]);
-    c.model.bulk = series(&[12.0]);
-    c.model.bias = BiasTerm { enabled: true, ln_beta0: -8.5, ln_beta1: 3.6, reference: -3.5 };
-    c
 }
