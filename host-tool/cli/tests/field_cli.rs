@@ -4,19 +4,16 @@
 
 mod common;
 
-use common::{logtrim, s, scratch};
+use common::{logtrim, s, scratch, write_design};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 /// An aged photometer (+3 mV at the output, +0.8 % gain since calibration): simulated and fitted.
 fn aged_unit(d: &Path, offset_v: f64, gain: f64) -> PathBuf {
     let fe = d.join("fe.json");
-    let (code, out, err) =
-        logtrim(&["simulate", "--preset", "photometer-compensated", "--write-preset", s(&fe)]);
-    assert_eq!(code, 0, "{out}{err}");
-    let mut json: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(&fe).unwrap()).unwrap();
-    json["aging"] = serde_json::json!({ "output_offset_v": offset_v, "gain_factor": gain });
-    std::fs::write(&fe, serde_json::to_string_pretty(&json).unwrap()).unwrap();
+    write_design("photometer-compensated", &fe, |json| {
+        json["aging"] = serde_json::json!({ "output_offset_v": offset_v, "gain_factor": gain });
+    });
     let sim = d.join("sim");
     let (code, out, err) = logtrim(&[
         "simulate",

@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::{logtrim, s, scratch};
+use common::{file_names, logtrim, s, scratch};
 use std::path::Path;
 use std::process::Command;
 
@@ -27,15 +27,6 @@ fn simulate(dir: &Path, units: &str) {
         "3",
     ]);
     assert_eq!(code, 0, "{out}{err}");
-}
-
-fn files_in(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .collect();
-    v.sort();
-    v
 }
 
 #[test]
@@ -120,7 +111,7 @@ fn fit_errors_name_the_problem_and_leave_no_file() {
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("--model"), "{err}");
     assert!(!out.exists());
-    assert_eq!(files_in(&d), vec!["one.csv".to_string()], "no partial or temporary files");
+    assert_eq!(file_names(&d), vec!["one.csv".to_string()], "no partial or temporary files");
     std::fs::remove_dir_all(&d).unwrap();
 }
 
@@ -183,7 +174,7 @@ fn a_batch_fits_every_unit_and_a_failed_unit_stops_no_other() {
     assert!(stdout.contains("4 units: 3 passed, 0 failed acceptance"), "{stdout}");
     assert!(stdout.contains("1 could not be calibrated"), "{stdout}");
     assert!(stdout.contains("BAD-1") && stdout.contains("ERROR"), "{stdout}");
-    let files: Vec<String> = files_in(&out).into_iter().filter(|f| !f.starts_with("summary.")).collect();
+    let files: Vec<String> = file_names(&out).into_iter().filter(|f| !f.starts_with("summary.")).collect();
     assert_eq!(files.len(), 6, "{files:?}");
     assert!(files.iter().all(|f| !f.contains("BAD") && !f.starts_with('.')), "{files:?}");
     // Each image inspects clean.

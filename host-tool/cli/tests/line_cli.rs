@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{logtrim, logtrim_words, s, scratch};
+use common::{file_names, logtrim, logtrim_words, s, scratch, write_design};
 use std::path::{Path, PathBuf};
 
 const SMALL: &str = "--preset gas-uncompensated --setpoints 5 --ratios 21 --repeats 3 --validation 300";
@@ -18,13 +18,12 @@ fn unit(dir: &Path, serial: &str, seed: &str, extra: &str) -> PathBuf {
     out.join("cal.csv")
 }
 
-fn names(dir: &Path) -> Vec<String> {
-    let mut v: Vec<String> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-        .collect();
-    v.sort();
-    v
+/// A small chamber run (5 set-points, 21 ratios, 100 validation readings) of the design file `fe` into
+/// the folder `out`, with the repeats and seed of `more`.
+fn simulate_design(fe: &Path, out: &Path, more: &str) {
+    let words = format!("simulate --setpoints 5 --ratios 21 --validation 100 {more}");
+    let (code, o, e) = logtrim_words(&words, &["--frontend", s(fe), "--out-dir", s(out)]);
+    assert_eq!(code, 0, "{o}{e}");
 }
 
 fn json(path: &Path) -> serde_json::Value {
@@ -61,7 +60,7 @@ fn a_batch_gives_verdicts_a_summary_and_no_image_for_failures() {
     // With a generous limit on rows set aside, B1 (a third of its rows unsettled) passes …
     let (code, o, e) = logtrim(&["fit", s(&folder), "-o", s(&out), "--max-set-aside", "0.5"]);
     assert_eq!(code, 1, "C1 could not be calibrated: {o}{e}");
-    assert!(names(&out).contains(&"B1.bin".to_string()), "{:?}", names(&out));
+    assert!(file_names(&out).contains(&"B1.bin".to_string()), "{:?}", file_names(&out));
     // … and with the product's default limits it fails: its image of the earlier run is removed, its
     // calibration file is kept and marked, the unreadable unit is named, the others pass.
     let (code, o, e) = logtrim(&["fit", s(&folder), "-o", s(&out)]);
@@ -75,7 +74,7 @@ fn a_batch_gives_verdicts_a_summary_and_no_image_for_failures() {
         "{o}"
     );
     assert_eq!(
-        names(&out),
+        file_names(&out),
         ["A1.bin", "A1.json", "A2.bin", "A2.json", "B1.json", "summary.csv", "summary.json"]
             .map(String::from)
     );
@@ -116,7 +115,7 @@ fn serials_that_share_a_file_name_refuse_the_batch() {
     let (code, _, e) = logtrim(&["fit", s(&file), "-o", s(&out)]);
     assert_eq!(code, 2, "{e}");
     assert!(e.contains("\"A/B\"") && e.contains("\"A_b\"") && e.contains("share the file name"), "{e}");
-    assert!(!out.exists() || names(&out).is_empty(), "nothing is written");
+    assert!(!out.exists() || file_names(&out).is_empty(), "nothing is written");
     std::fs::remove_dir_all(&d).unwrap();
 }
 
@@ -151,17 +150,9 @@ fn the_fit_refuses_exactly_the_rows_apply_rejects() {
     // and what else the firmware says): the fit lists the f32 path's refusals, which are apply's.
     let d = scratch("line-refused");
     let fe = d.join("fe.json");
-    let (code, _, e) = logtrim(&["simulate", "--preset", "gas-uncompensated", "--write-preset", s(&fe)]);
-    assert_eq!(code, 0, "{e}");
-    let mut v = json(&fe);
-    v["output_stage"]["level_shift_v"] = serde_json::json!(2.95);
-    std::fs::write(&fe, serde_json::to_string_pretty(&v).unwrap()).unwrap();
+    write_design("gas-uncompensated", &fe, |v| v["output_stage"]["level_shift_v"] = serde_json::json!(2.95));
     let out = d.join("run");
-    let (code, o, e) = logtrim_words(
-        "simulate --setpoints 5 --ratios 21 --repeats 2 --validation 100 --seed 6",
-        &["--frontend", s(&fe), "--out-dir", s(&out)],
-    );
-    assert_eq!(code, 0, "{o}{e}");
+    simulate_design(&fe, &out, "--repeats 2 --seed 6");
     let coeffs = d.join("c.json");
     let (code, o, e) = logtrim(&["fit", s(&out.join("cal.csv")), "-o", s(&coeffs)]);
     assert_eq!(code, 0, "{o}{e}");
@@ -231,17 +222,9 @@ fn apply_corrects_each_unit_with_its_own_calibration() {
 /// (front-end file, cal.csv).
 fn twelve_bit_run(d: &Path) -> (PathBuf, PathBuf) {
     let fe = d.join("fe12.json");
-    let (code, _, e) = logtrim(&["simulate", "--preset", "gas-uncompensated", "--write-preset", s(&fe)]);
-    assert_eq!(code, 0, "{e}");
-    let mut v = json(&fe);
-    v["adc"]["bits"] = serde_json::json!(12);
-    std::fs::write(&fe, serde_json::to_string_pretty(&v).unwrap()).unwrap();
+    write_design("gas-uncompensated", &fe, |v| v["adc"]["bits"] = serde_json::json!(12));
     let out = d.join("run12");
-    let (code, o, e) = logtrim_words(
-        "simulate --setpoints 5 --ratios 21 --repeats 3 --validation 100 --seed 8",
-        &["--frontend", s(&fe), "--out-dir", s(&out)],
-    );
-    assert_eq!(code, 0, "{o}{e}");
+    simulate_design(&fe, &out, "--repeats 3 --seed 8");
     (fe, out.join("cal.csv"))
 }
 
@@ -321,7 +304,7 @@ fn a_batch_takes_the_image_options_and_writes_a_report_per_unit() {
     );
     assert_eq!(code, 0, "{o}{e}");
     assert_eq!(
-        names(&out),
+        file_names(&out),
         ["H1.hex", "H1.json", "H2.hex", "H2.json", "summary.csv", "summary.json"].map(String::from)
     );
     for serial in ["H1", "H2"] {

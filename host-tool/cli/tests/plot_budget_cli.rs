@@ -4,7 +4,7 @@ mod common;
 
 use std::path::{Path, PathBuf};
 
-use common::{logtrim, scratch};
+use common::{logtrim, scratch, write_preset};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{self, FitOptions};
@@ -182,9 +182,7 @@ fn budget_json_adds_up_and_bad_files_are_located() {
 fn budget_takes_the_design_that_simulate_reads() {
     let d = scratch("budget-design");
     let fe = d.join("fe.json");
-    let (code, _, stderr) =
-        logtrim(&["simulate", "--preset", "photometer-compensated", "--write-preset", fe.to_str().unwrap()]);
-    assert_eq!(code, 0, "{stderr}");
+    write_preset("photometer-compensated", &fe);
     let (code, from_file, stderr) = logtrim(&["budget", "--design", fe.to_str().unwrap(), "--json"]);
     assert_eq!(code, 0, "{stderr}");
     let (code, from_preset, _) = logtrim(&["budget", "--preset", "photometer-compensated", "--json"]);

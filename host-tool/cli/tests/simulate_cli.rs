@@ -2,7 +2,7 @@
 
 mod common;
 
-use common::{logtrim, scratch};
+use common::{logtrim, scratch, write_preset};
 use std::path::Path;
 
 const SMALL: &[&str] = &["--setpoints", "5", "--ratios", "9", "--repeats", "1", "--validation", "200"];
@@ -18,9 +18,7 @@ fn run_small(extra: &[&str], out: &Path) -> (i32, String, String) {
 fn written_preset_simulates_exactly_like_the_preset() {
     let d = scratch("preset");
     let json = d.join("mine.json");
-    let (code, out, err) =
-        logtrim(&["simulate", "--preset", "gas-uncompensated", "--write-preset", json.to_str().unwrap()]);
-    assert_eq!(code, 0, "{out}{err}");
+    write_preset("gas-uncompensated", &json);
     let (a, b) = (d.join("a"), d.join("b"));
     let (code, out, err) = run_small(&["--preset", "gas-uncompensated", "--seed", "42"], &a);
     assert_eq!(code, 0, "{out}{err}");

@@ -55,3 +55,28 @@ pub fn scratch(name: &str) -> PathBuf {
 pub fn s(p: &Path) -> &str {
     p.to_str().unwrap()
 }
+
+/// The names of the files in `dir`, sorted.
+pub fn file_names(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    v.sort();
+    v
+}
+
+/// Writes the design of the preset `name` to `path` (`simulate --write-preset`).
+pub fn write_preset(name: &str, path: &Path) {
+    let (code, out, err) = logtrim(&["simulate", "--preset", name, "--write-preset", s(path)]);
+    assert_eq!(code, 0, "{out}{err}");
+}
+
+/// The design of the preset `name` with `edit` applied to its JSON (a front end of the test's own), written
+/// to `path`.
+pub fn write_design(name: &str, path: &Path, edit: impl FnOnce(&mut serde_json::Value)) {
+    write_preset(name, path);
+    let mut v: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    edit(&mut v);
+    std::fs::write(path, serde_json::to_string_pretty(&v).unwrap()).unwrap();
+}
