@@ -4,9 +4,9 @@
 #[path = "../tests/common/mod.rs"]
 mod common;
 
+use common::samples::{self, Input};
 use common::{ntc, units};
-use divan::black_box;
-use logtrim::Unit;
+use divan::counter::ItemsCount;
 use logtrim_host::tables::{self, TableOptions, TemperatureChannel};
 
 const N: usize = 4096;
@@ -14,39 +14,15 @@ const N: usize = 4096;
 struct Setup {
     cal: logtrim::Calibration,
     tables: tables::FixedTables,
-    inputs: Vec<(u32, u32, i32, f32)>,
+    inputs: Vec<Input>,
 }
 
 fn setup() -> Setup {
     let cal = units::hard_uncompensated();
     let channel = TemperatureChannel { codes: ntc::CODES, celsius: &ntc::celsius };
     let tables = tables::build(&cal, Some(&channel), &TableOptions::default()).expect("tables");
-    let tcodes: Vec<(u32, f64)> = ntc::CODES
-        .filter_map(|c| ntc::celsius(c).ok().map(|t| (c, t)))
-        .filter(|&(_, t)| (-20.0..=85.0).contains(&t))
-        .collect();
-    let mut s: u64 = 0x9e37_79b9_7f4a_7c15;
-    let mut next = move || {
-        s ^= s << 13;
-        s ^= s >> 7;
-        s ^= s << 17;
-        s
-    };
-    let inputs = (0..N)
-        .map(|_| {
-            let (tc, t) = tcodes[(next() % tcodes.len() as u64) as usize];
-            let x = -6.5 + 9.5 * (next() % 1_000_000) as f64 / 1e6;
-            let code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
-            (code, tc, (t * 1000.0).round() as i32, t as f32)
-        })
-        .collect();
+    let inputs = samples::inputs(&cal, N, 0x9e37_79b9_7f4a_7c15);
     Setup { cal, tables, inputs }
-}
-
-fn ntc_celsius_f32(code: u32) -> f32 {
-    let c = code as f32;
-    let r = 10_000.0 * c / (4095.0 - c);
-    1.0 / (1.0 / 298.15 + <logtrim::math::Libm as logtrim::math::Backend>::ln(r / 10_000.0) / 3950.0) - 273.15
 }
 
 fn main() {
@@ -58,15 +34,7 @@ fn main() {
 fn fixed_raw_to_db(b: divan::Bencher) {
     let s = setup();
     let f = s.tables.view();
-    b.counter(divan::counter::ItemsCount::new(N)).bench_local(|| {
-        let mut acc = 0i64;
-        for &(code, tc, _, _) in &s.inputs {
-            if let Ok(r) = f.correct_raw(black_box(code), black_box(tc)) {
-                acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-            }
-        }
-        acc
-    });
+    b.counter(ItemsCount::new(N)).bench_local(|| samples::run_fixed_raw(&f, &s.inputs));
 }
 
 /// Fixed path, log code and m°C to power dB.
@@ -74,31 +42,14 @@ fn fixed_raw_to_db(b: divan::Bencher) {
 fn fixed_mc_to_db(b: divan::Bencher) {
     let s = setup();
     let f = s.tables.view();
-    b.counter(divan::counter::ItemsCount::new(N)).bench_local(|| {
-        let mut acc = 0i64;
-        for &(code, _, mc, _) in &s.inputs {
-            if let Ok(r) = f.correct(black_box(code), black_box(mc)) {
-                acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-            }
-        }
-        acc
-    });
+    b.counter(ItemsCount::new(N)).bench_local(|| samples::run_fixed_mc(&f, &s.inputs));
 }
 
 /// Naive f32 path with libm, raw codes (β equation for the NTC) to power dB.
 #[divan::bench(sample_count = 50)]
 fn naive_f32_raw_to_db(b: divan::Bencher) {
     let s = setup();
-    b.counter(divan::counter::ItemsCount::new(N)).bench_local(|| {
-        let mut acc = 0.0f32;
-        for &(code, tc, _, _) in &s.inputs {
-            let t = ntc_celsius_f32(black_box(tc));
-            if let Ok(r) = s.cal.correct(black_box(code), t) {
-                acc += Unit::DbPower.from_x(r.x);
-            }
-        }
-        acc
-    });
+    b.counter(ItemsCount::new(N)).bench_local(|| samples::run_naive_raw(&s.cal, &s.inputs));
 }
 
 /// Fixed path through a `StageCache`, raw codes to power dB, on a stream whose temperature code changes
@@ -106,16 +57,12 @@ fn naive_f32_raw_to_db(b: divan::Bencher) {
 #[divan::bench(sample_count = 50)]
 fn fixed_cached_raw_to_db(b: divan::Bencher) {
     let s = setup();
-    let held: Vec<(u32, u32)> =
-        s.inputs.iter().enumerate().map(|(k, &(code, _, _, _))| (code, s.inputs[k - k % 64].1)).collect();
+    let held: Vec<Input> = s
+        .inputs
+        .iter()
+        .enumerate()
+        .map(|(k, &i)| Input { temp_code: s.inputs[k - k % 64].temp_code, ..i })
+        .collect();
     let mut cache = logtrim::fixed::StageCache::new(s.tables.view());
-    b.counter(divan::counter::ItemsCount::new(N)).bench_local(|| {
-        let mut acc = 0i64;
-        for &(code, tc) in &held {
-            if let Ok(r) = cache.correct_raw(black_box(code), black_box(tc)) {
-                acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-            }
-        }
-        acc
-    });
+    b.counter(ItemsCount::new(N)).bench_local(|| samples::run_fixed_cached(&mut cache, &held));
 }

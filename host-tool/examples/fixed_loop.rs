@@ -23,80 +23,18 @@ mod common;
 
 use std::hint::black_box;
 
+use common::samples::{
+    inputs, run_fixed_cached, run_fixed_mc, run_fixed_raw, run_naive_mc, run_naive_raw, Input,
+};
 use common::{ntc, units};
 use logtrim::fixed::{FixedCalibration, StageCache};
-use logtrim::{Calibration, Unit};
+use logtrim::Unit;
 use logtrim_host::tables::{self, TableOptions, TemperatureChannel};
 
 /// Log samples per temperature reading in the `fixed-cached` stream.
 const HOLD: usize = 64;
 /// Codes per block (a DMA buffer) in the `fixed-block` stream.
 const BLOCK: usize = 256;
-
-/// One input: log code, temperature channel code, temperature in m°C and in °C.
-#[derive(Clone, Copy)]
-struct Input {
-    code: u32,
-    temp_code: u32,
-    mc: i32,
-    celsius: f32,
-}
-
-fn inputs(cal: &Calibration, n: usize) -> Vec<Input> {
-    // Temperature codes whose temperature is inside the calibrated range.
-    let tr = cal.temperature;
-    let tcodes: Vec<(u32, f64)> = ntc::CODES
-        .filter_map(|c| ntc::celsius(c).ok().map(|t| (c, t)))
-        .filter(|&(_, t)| t >= f64::from(tr.min_c) && t <= f64::from(tr.max_c))
-        .collect();
-    let mut s: u64 = 0x2545_f491_4f6c_dd1d;
-    let mut next = move || {
-        s ^= s << 13;
-        s ^= s >> 7;
-        s ^= s << 17;
-        s
-    };
-    (0..n)
-        .map(|_| {
-            let (temp_code, t) = tcodes[(next() % tcodes.len() as u64) as usize];
-            // A log code from x uniform over the calibrated x range at that temperature.
-            let x = f64::from(cal.x_range.min)
-                + (f64::from(cal.x_range.max - cal.x_range.min)) * (next() % 1_000_000) as f64 / 1e6;
-            let code = cal.forward_code_f64(x, t).round().clamp(0.0, 65535.0) as u32;
-            Input { code, temp_code, mc: (t * 1000.0).round() as i32, celsius: t as f32 }
-        })
-        .collect()
-}
-
-/// The f32 β equation of the NTC channel (the naive firmware's linearisation).
-#[inline(always)]
-fn ntc_celsius_f32(code: u32) -> f32 {
-    let c = code as f32;
-    let r = 10_000.0 * c / (4095.0 - c);
-    1.0 / (1.0 / 298.15 + <logtrim::math::Libm as logtrim::math::Backend>::ln(r / 10_000.0) / 3950.0) - 273.15
-}
-
-#[inline(never)]
-fn run_fixed_raw(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
-    let mut acc = 0i64;
-    for i in inp {
-        if let Ok(r) = f.correct_raw(black_box(i.code), black_box(i.temp_code)) {
-            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-        }
-    }
-    acc
-}
-
-#[inline(never)]
-fn run_fixed_mc(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
-    let mut acc = 0i64;
-    for i in inp {
-        if let Ok(r) = f.correct(black_box(i.code), black_box(i.mc)) {
-            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-        }
-    }
-    acc
-}
 
 #[inline(never)]
 fn run_fixed_staged(f: &FixedCalibration<'_>, inp: &[Input], stages: &[logtrim::fixed::FixedStage]) -> i64 {
@@ -126,40 +64,6 @@ fn run_fixed_block(f: &FixedCalibration<'_>, inp: &[Input], stages: &[logtrim::f
     acc
 }
 
-#[inline(never)]
-fn run_fixed_cached(cache: &mut StageCache<'_>, inp: &[Input]) -> i64 {
-    let mut acc = 0i64;
-    for i in inp {
-        if let Ok(r) = cache.correct_raw(black_box(i.code), black_box(i.temp_code)) {
-            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-        }
-    }
-    acc
-}
-
-#[inline(never)]
-fn run_naive_raw(cal: &Calibration, inp: &[Input]) -> f32 {
-    let mut acc = 0.0f32;
-    for i in inp {
-        let t = ntc_celsius_f32(black_box(i.temp_code));
-        if let Ok(r) = cal.correct(black_box(i.code), t) {
-            acc += Unit::DbPower.from_x(r.x);
-        }
-    }
-    acc
-}
-
-#[inline(never)]
-fn run_naive_mc(cal: &Calibration, inp: &[Input]) -> f32 {
-    let mut acc = 0.0f32;
-    for i in inp {
-        if let Ok(r) = cal.correct(black_box(i.code), black_box(i.celsius)) {
-            acc += Unit::DbPower.from_x(r.x);
-        }
-    }
-    acc
-}
-
 fn main() {
     let args: Vec<String> = std::env::args().collect();
     let path = args.get(1).map(String::as_str).unwrap_or("fixed-raw");
@@ -174,7 +78,7 @@ fn main() {
         }
     };
     let f = tables.view();
-    let mut inp = inputs(&cal, n);
+    let mut inp = inputs(&cal, n, 0x2545_f491_4f6c_dd1d);
     // For the staged paths: 64 temperatures, sample k at temperature k mod 64 (log codes drawn there).
     let temps: Vec<Input> = inp.iter().take(64).copied().collect();
     let stages: Vec<_> = temps.iter().filter_map(|i| f.stage_millicelsius(i.mc).ok()).collect();

@@ -3,4 +3,5 @@
 
 pub mod cc;
 pub mod ntc;
+pub mod samples;
 pub mod units;
