@@ -5,8 +5,8 @@
 
 use std::hint::black_box;
 
-use logtrim::fixed::{FixedCalibration, StageCache};
-use logtrim::{Calibration, Unit};
+use logtrim::fixed::{FixedCalibration, FixedReading, StageCache};
+use logtrim::{Calibration, Error, Reading, Unit};
 
 use super::ntc;
 
@@ -53,63 +53,56 @@ pub fn ntc_celsius_f32(code: u32) -> f32 {
     1.0 / (1.0 / 298.15 + <logtrim::math::Libm as logtrim::math::Backend>::ln(r / 10_000.0) / 3950.0) - 273.15
 }
 
-/// The fixed path from raw codes (log code, temperature channel code) to power dB.
-#[inline(never)]
-pub fn run_fixed_raw(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
+/// The sum of the power-dB values of the fixed-path readings `correct` gives for `inp`.
+#[inline(always)]
+fn sum_fixed(inp: &[Input], mut correct: impl FnMut(&Input) -> Result<FixedReading, Error>) -> i64 {
     let mut acc = 0i64;
     for i in inp {
-        if let Ok(r) = f.correct_raw(black_box(i.code), black_box(i.temp_code)) {
+        if let Ok(r) = correct(i) {
             acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
         }
     }
     acc
+}
+
+/// The sum of the power-dB values of the f32 readings `correct` gives for `inp`.
+#[inline(always)]
+fn sum_naive(inp: &[Input], correct: impl Fn(&Input) -> Result<Reading, Error>) -> f32 {
+    let mut acc = 0.0f32;
+    for i in inp {
+        if let Ok(r) = correct(i) {
+            acc += Unit::DbPower.from_x(r.x);
+        }
+    }
+    acc
+}
+
+/// The fixed path from raw codes (log code, temperature channel code) to power dB.
+#[inline(never)]
+pub fn run_fixed_raw(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
+    sum_fixed(inp, |i| f.correct_raw(black_box(i.code), black_box(i.temp_code)))
 }
 
 /// The fixed path from the log code and m°C to power dB.
 #[inline(never)]
 pub fn run_fixed_mc(f: &FixedCalibration<'_>, inp: &[Input]) -> i64 {
-    let mut acc = 0i64;
-    for i in inp {
-        if let Ok(r) = f.correct(black_box(i.code), black_box(i.mc)) {
-            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-        }
-    }
-    acc
+    sum_fixed(inp, |i| f.correct(black_box(i.code), black_box(i.mc)))
 }
 
 /// The fixed path through a stage cache, raw codes to power dB.
 #[inline(never)]
 pub fn run_fixed_cached(cache: &mut StageCache<'_>, inp: &[Input]) -> i64 {
-    let mut acc = 0i64;
-    for i in inp {
-        if let Ok(r) = cache.correct_raw(black_box(i.code), black_box(i.temp_code)) {
-            acc = acc.wrapping_add(r.value(Unit::DbPower).unwrap_or(0));
-        }
-    }
-    acc
+    sum_fixed(inp, |i| cache.correct_raw(black_box(i.code), black_box(i.temp_code)))
 }
 
 /// The naive f32 path from raw codes (the β equation for the channel) to power dB.
 #[inline(never)]
 pub fn run_naive_raw(cal: &Calibration, inp: &[Input]) -> f32 {
-    let mut acc = 0.0f32;
-    for i in inp {
-        let t = ntc_celsius_f32(black_box(i.temp_code));
-        if let Ok(r) = cal.correct(black_box(i.code), t) {
-            acc += Unit::DbPower.from_x(r.x);
-        }
-    }
-    acc
+    sum_naive(inp, |i| cal.correct(black_box(i.code), ntc_celsius_f32(black_box(i.temp_code))))
 }
 
 /// The naive f32 path from the log code and °C to power dB.
 #[inline(never)]
 pub fn run_naive_mc(cal: &Calibration, inp: &[Input]) -> f32 {
-    let mut acc = 0.0f32;
-    for i in inp {
-        if let Ok(r) = cal.correct(black_box(i.code), black_box(i.celsius)) {
-            acc += Unit::DbPower.from_x(r.x);
-        }
-    }
-    acc
+    sum_naive(inp, |i| cal.correct(black_box(i.code), black_box(i.celsius)))
 }
