@@ -178,20 +178,8 @@ fn celsius<F: Real>(rtd: &Rtd, ohm: F) -> Result<F, Error> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use logtrim_checks::published::IEC_60751_PT100;
     use logtrim_checks::within;
-
-    /// IEC 60751:2008 Pt100 table (values as given in the project's numerics guide, there marked
-    /// "from memory"): (°C, Ω).
-    const IEC_60751_PT100: [(f64, f64); 8] = [
-        (-200.0, 18.5201),
-        (-100.0, 60.2558),
-        (-50.0, 80.3063),
-        (25.0, 109.7347),
-        (100.0, 138.5055),
-        (200.0, 175.8560),
-        (400.0, 247.0920),
-        (850.0, 390.4811),
-    ];
 
     #[test]
     fn pt100_matches_the_iec_60751_table_f64() {

@@ -1,11 +1,28 @@
 //! Shared helpers for logtrim's cross-crate checks (`tests/`) and runnable examples (`examples/`).
 //!
 //! Nothing here is part of the firmware or the host tool: it holds tolerance checks used by the
-//! reference tests.
+//! reference tests, and the published tables that more than one crate's tests check against
+//! ([`published`]).
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
 /// `|got − want| ≤ abs + rel·|want|`: a tolerance check that cannot pass silently for negative values.
 pub fn within(got: f64, want: f64, abs: f64, rel: f64) -> bool {
     (got - want).abs() <= abs + rel * want.abs()
+}
+
+/// Published reference values that the tests of more than one crate check against, each with its source.
+pub mod published {
+    /// IEC 60751:2008 Pt100 table (values as given in the project's numerics guide, there marked
+    /// "from memory"): (°C, Ω).
+    pub const IEC_60751_PT100: [(f64, f64); 8] = [
+        (-200.0, 18.5201),
+        (-100.0, 60.2558),
+        (-50.0, 80.3063),
+        (25.0, 109.7347),
+        (100.0, 138.5055),
+        (200.0, 175.8560),
+        (400.0, 247.0920),
+        (850.0, 390.4811),
+    ];
 }

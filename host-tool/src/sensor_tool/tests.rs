@@ -1,3 +1,4 @@
+use logtrim_checks::published::IEC_60751_PT100;
 use logtrim_checks::within;
 
 use super::*;
@@ -63,19 +64,6 @@ fn beta_from_two_points_is_the_secant_beta() {
     let e = ElementSpec::Points(pts.to_vec()).element().unwrap();
     assert!(matches!(e, SensorElement::NtcBeta(_)));
 }
-
-/// IEC 60751:2008 Pt100 table (values as given in the project's numerics guide, there marked
-/// "from memory"): (°C, Ω).
-const IEC_60751_PT100: [(f64, f64); 8] = [
-    (-200.0, 18.5201),
-    (-100.0, 60.2558),
-    (-50.0, 80.3063),
-    (25.0, 109.7347),
-    (100.0, 138.5055),
-    (200.0, 175.8560),
-    (400.0, 247.0920),
-    (850.0, 390.4811),
-];
 
 #[test]
 fn rtd_table_matches_iec_60751_at_its_points() {
