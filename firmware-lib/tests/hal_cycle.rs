@@ -8,13 +8,16 @@
 
 mod common;
 
+mod hal_mocks;
+
 use embedded_hal::spi::{self, Operation, SpiDevice};
 use embedded_hal_mock::eh1::delay::{CheckedDelay, NoopDelay, Transaction as Delay};
-use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as Spi};
+use embedded_hal_mock::eh1::spi::Mock as SpiMock;
+use hal_mocks::{conversions, Script};
 use logtrim::calibration::{TemperatureRange, XRange};
 use logtrim::error::SensorFault;
 use logtrim::filter::Ema;
-use logtrim::hal::adc::{self, AdcChannel, ErrorType};
+use logtrim::hal::adc::{self, AdcChannel};
 use logtrim::hal::temperature::{from_fn, FromFn};
 use logtrim::hal::{
     Channel, Coding, ConfigError, Corrector, Cycle, CycleConfig, CycleError, DigitalCelsius, ErrorKind,
@@ -55,16 +58,6 @@ fn ntc(code: u32) -> Result<f32, Error> {
 
 type Ntc = FromFn<fn(u32) -> Result<f32, Error>>;
 type MockCycle<const N: usize> = Cycle<SpiSar16<SpiMock<u8>>, SpiSar16<SpiMock<u8>>, Ntc, Calibration, N>;
-
-/// The SPI transactions of a burst of conversions: one transaction with one two-byte read each.
-fn conversions(codes: &[u16]) -> Vec<Spi<u8>> {
-    codes
-        .iter()
-        .flat_map(|c| {
-            [Spi::transaction_start(), Spi::read_vec(c.to_be_bytes().to_vec()), Spi::transaction_end()]
-        })
-        .collect()
-}
 
 fn mock_cycle<const N: usize>(
     log: &[u16],
@@ -124,19 +117,6 @@ impl<D: SpiDevice<Error = spi::ErrorKind>> SpiDevice for FailAfter<D> {
         }
         self.ok -= 1;
         self.inner.transaction(ops)
-    }
-}
-
-/// A converter channel that plays back a script of codes, then times out.
-struct Script(std::vec::IntoIter<u32>);
-
-impl ErrorType for Script {
-    type Error = adc::ErrorKind;
-}
-
-impl AdcChannel for Script {
-    fn read(&mut self) -> Result<u32, Self::Error> {
-        self.0.next().ok_or(adc::ErrorKind::Timeout)
     }
 }
 

@@ -8,11 +8,14 @@
 //! LSB-equivalent: an error in x divided by ∂x/∂code of the f64 reference ([`Calibration::correct_f64`]),
 //! the unit `logtrim verify` uses.
 
+#[path = "../../firmware-lib/tests/hal_mocks/mod.rs"]
+mod hal_mocks;
+
 use embedded_hal_mock::eh1::delay::{CheckedDelay, NoopDelay, Transaction as Delay};
-use embedded_hal_mock::eh1::spi::{Mock as SpiMock, Transaction as Spi};
+use embedded_hal_mock::eh1::spi::Mock as SpiMock;
+use hal_mocks::{conversions, Script};
 use logtrim::error::SensorFault;
 use logtrim::fixed::FixedCalibration;
-use logtrim::hal::adc::{self, AdcChannel, ErrorType};
 use logtrim::hal::temperature::{from_fn, FromFn};
 use logtrim::hal::{
     Corrector, Cycle, CycleConfig, FixedSensorTable, Measurement, Oversampling, SpiSar16, TemperatureChannel,
@@ -69,15 +72,6 @@ fn ntc_code(t: f64) -> u16 {
         }
     }
     lo as u16
-}
-
-fn conversions(codes: &[u16]) -> Vec<Spi<u8>> {
-    codes
-        .iter()
-        .flat_map(|c| {
-            [Spi::transaction_start(), Spi::read_vec(c.to_be_bytes().to_vec()), Spi::transaction_end()]
-        })
-        .collect()
 }
 
 type Ntc = FromFn<Box<dyn Fn(u32) -> Result<f32, Error>>>;
@@ -149,19 +143,6 @@ fn the_same_transactions_and_a_reading_within_a_quarter_lsb() {
         assert!((db - 10.0 / std::f64::consts::LN_10 * f64::from(b.x().unwrap())).abs() < 1e-4, "{db}");
         assert_eq!(f.frac_bits, 24);
         assert!((f.value as f64 / f64::from(1u32 << 24) - db).abs() < 1e-5);
-    }
-}
-
-/// A converter channel that plays back a script of codes, then times out.
-struct Script(std::vec::IntoIter<u32>);
-
-impl ErrorType for Script {
-    type Error = adc::ErrorKind;
-}
-
-impl AdcChannel for Script {
-    fn read(&mut self) -> Result<u32, Self::Error> {
-        self.0.next().ok_or(adc::ErrorKind::Timeout)
     }
 }
 
