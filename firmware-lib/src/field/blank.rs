@@ -99,39 +99,6 @@ impl Blank {
         Blank::new(BlankParts { info, x: reading.x, x_q24, temp_mc, samples })
     }
 
-    /// Parses exactly one blank record (see [the order of the checks](super::header#order-of-the-checks)).
-    pub fn parse(bytes: &[u8]) -> Result<Blank, RecordError> {
-        header::parse(bytes, Extent::Exact).map(|(b, _)| b)
-    }
-
-    /// Parses a blank record at the start of `bytes` and returns the bytes after it, unchecked.
-    pub fn parse_prefix(bytes: &[u8]) -> Result<(Blank, &[u8]), RecordError> {
-        header::parse(bytes, Extent::Prefix)
-    }
-
-    /// Writes the record at the start of `buf` ([`layout::BLANK_LEN`] bytes) and returns its length.
-    pub fn write(&self, buf: &mut [u8]) -> Result<usize, BufferTooSmall> {
-        header::write(self, buf)
-    }
-
-    /// The record as bytes.
-    pub fn to_bytes(&self) -> [u8; layout::BLANK_LEN] {
-        let mut out = [0u8; layout::BLANK_LEN];
-        // The buffer has exactly the record's length: writing cannot fail.
-        let _ = self.write(&mut out);
-        out
-    }
-
-    /// Every field.
-    pub fn parts(&self) -> BlankParts {
-        self.parts
-    }
-
-    /// Write counter, time and factory binding.
-    pub fn info(&self) -> RecordInfo {
-        self.parts.info
-    }
-
     /// x at the blank for the f32 path, Np.
     pub fn x(&self) -> f32 {
         self.parts.x
@@ -153,6 +120,8 @@ impl Blank {
         Reading { x: reading.x - self.parts.x, ..*reading }
     }
 }
+
+header::record_methods!(Blank, BlankParts, "blank", layout::BLANK_LEN);
 
 #[deny(clippy::float_arithmetic)]
 impl Blank {

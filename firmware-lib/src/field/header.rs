@@ -106,17 +106,7 @@ pub enum RecordError {
     Value(RecordValueError),
 }
 
-impl From<RecordValueError> for RecordError {
-    fn from(e: RecordValueError) -> Self {
-        RecordError::Value(e)
-    }
-}
-
-impl From<FormatError> for RecordError {
-    fn from(e: FormatError) -> Self {
-        RecordError::Format(e)
-    }
-}
+crate::record::wrap_errors!(RecordError { Value(RecordValueError), Format(FormatError) });
 
 impl fmt::Display for RecordError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -134,6 +124,49 @@ impl core::error::Error for RecordError {}
 pub(super) const fn framing(record: RecordType, version: u16, len: usize) -> Framing {
     Framing { record, version, header_len: header::END, len: header::LEN, min_len: len, max_len: len }
 }
+
+/// The methods every field record has, the same for each: parsing (exactly one record, or one at the start of
+/// bytes), writing, its bytes, its parts and its header's information. `record_methods!(Record, Parts,
+/// "name", LEN)` for a record type `Record` with the fields `Parts` and `LEN` bytes.
+macro_rules! record_methods {
+    ($record:ident, $parts:ident, $name:literal, $len:path) => {
+        impl $record {
+            #[doc = concat!("Parses exactly one ", $name, " record (see [the order of the checks](super::header#order-of-the-checks)).")]
+            pub fn parse(bytes: &[u8]) -> Result<$record, RecordError> {
+                header::parse(bytes, Extent::Exact).map(|(record, _)| record)
+            }
+
+            #[doc = concat!("Parses a ", $name, " record at the start of `bytes` and returns the bytes after it, unchecked.")]
+            pub fn parse_prefix(bytes: &[u8]) -> Result<($record, &[u8]), RecordError> {
+                header::parse(bytes, Extent::Prefix)
+            }
+
+            #[doc = concat!("Writes the record at the start of `buf` ([`", stringify!($len), "`] bytes) and returns its length.")]
+            pub fn write(&self, buf: &mut [u8]) -> Result<usize, BufferTooSmall> {
+                header::write(self, buf)
+            }
+
+            /// The record as bytes.
+            pub fn to_bytes(&self) -> [u8; $len] {
+                let mut out = [0u8; $len];
+                // The buffer has exactly the record's length: writing cannot fail.
+                let _ = self.write(&mut out);
+                out
+            }
+
+            /// Every field.
+            pub fn parts(&self) -> $parts {
+                self.parts
+            }
+
+            /// Write counter, time and factory binding.
+            pub fn info(&self) -> RecordInfo {
+                self.parts.info
+            }
+        }
+    };
+}
+pub(crate) use record_methods;
 
 /// A field record as the shared framing reads and writes it: its framing, and its payload.
 pub(crate) trait Codec: Sized + Copy {

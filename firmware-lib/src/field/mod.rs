@@ -146,17 +146,7 @@ pub enum FieldError {
     Value(RecordValueError),
 }
 
-impl From<RecordValueError> for FieldError {
-    fn from(e: RecordValueError) -> Self {
-        FieldError::Value(e)
-    }
-}
-
-impl From<Error> for FieldError {
-    fn from(e: Error) -> Self {
-        FieldError::Correction(e)
-    }
-}
+crate::record::wrap_errors!(FieldError { Value(RecordValueError), Correction(Error) });
 
 impl fmt::Display for FieldError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {

@@ -328,39 +328,6 @@ impl Trim {
         }
     }
 
-    /// Parses exactly one trim record (see [the order of the checks](super::header#order-of-the-checks)).
-    pub fn parse(bytes: &[u8]) -> Result<Trim, RecordError> {
-        header::parse(bytes, Extent::Exact).map(|(t, _)| t)
-    }
-
-    /// Parses a trim record at the start of `bytes` and returns the bytes after it, unchecked.
-    pub fn parse_prefix(bytes: &[u8]) -> Result<(Trim, &[u8]), RecordError> {
-        header::parse(bytes, Extent::Prefix)
-    }
-
-    /// Writes the record at the start of `buf` ([`layout::TRIM_LEN`] bytes) and returns its length.
-    pub fn write(&self, buf: &mut [u8]) -> Result<usize, BufferTooSmall> {
-        header::write(self, buf)
-    }
-
-    /// The record as bytes.
-    pub fn to_bytes(&self) -> [u8; layout::TRIM_LEN] {
-        let mut out = [0u8; layout::TRIM_LEN];
-        // The buffer has exactly the record's length: writing cannot fail.
-        let _ = self.write(&mut out);
-        out
-    }
-
-    /// Every field.
-    pub fn parts(&self) -> TrimParts {
-        self.parts
-    }
-
-    /// Write counter, time and factory binding.
-    pub fn info(&self) -> RecordInfo {
-        self.parts.info
-    }
-
     /// What kind of trim.
     pub fn kind(&self) -> TrimKind {
         self.parts.kind
@@ -496,6 +463,8 @@ impl Trim {
         Ok(trim)
     }
 }
+
+header::record_methods!(Trim, TrimParts, "trim", layout::TRIM_LEN);
 
 impl Codec for Trim {
     const FRAMING: Framing = header::framing(RecordType::Trim, tl::VERSION_VALUE, layout::TRIM_LEN);

@@ -59,6 +59,21 @@ mod tests;
 
 pub use error::{BufferTooSmall, FormatError, RecordType};
 
+/// `impl From<Source> for Target` for each `Variant(Source)` listed: the conversions `?` makes from the
+/// errors of a record's parts to the error of the whole, one line each.
+macro_rules! wrap_errors {
+    ($target:ident { $($variant:ident($source:ty)),+ $(,)? }) => {
+        $(
+            impl From<$source> for $target {
+                fn from(e: $source) -> Self {
+                    $target::$variant(e)
+                }
+            }
+        )+
+    };
+}
+pub(crate) use wrap_errors;
+
 use layout::{Field, Kind};
 
 /// The record CRC: CRC-32/ISO-HDLC (IEEE 802.3, reflected, polynomial 0x04C11DB7) from the `crc` crate.
