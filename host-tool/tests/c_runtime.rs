@@ -21,23 +21,15 @@ use logtrim::record::crc32;
 use logtrim::record::slots::{Rejected, SlotId};
 use logtrim::Unit;
 use logtrim_host::calfile::CalFile;
-use logtrim_host::demo::fit_data;
 use logtrim_host::emit::c::{error_code, field_code, image_code, record_code, rejected_code};
-use logtrim_host::fit::{fit, FitOptions};
 use logtrim_host::frontend::preset;
 use logtrim_host::image_file::{build_image, build_image_with};
-use logtrim_host::simulate::{simulate, Plan};
 use logtrim_host::tables::TableOptions;
 
 /// A fitted unit of a simulator preset (seeded simulation), with the raw NTC channel of `photometer-ntc`
 /// when `ntc`.
 fn fitted(name: &str, ntc: bool) -> CalFile {
-    let fe = preset(name).unwrap();
-    let plan = Plan { validation_count: 10, ..Plan::default() };
-    let sim = simulate(&fe, &plan).unwrap();
-    let out = fit(&fit_data(&sim.chamber, 0).unwrap(), &FitOptions::default()).unwrap();
-    let mut f = CalFile::new(out.calibration, Some(format!("{}-0007", &name[..3].to_uppercase())));
-    f.created_unix_s = 1_767_225_600;
+    let mut f = common::fitted::preset_unit(name, "0007");
     if ntc {
         f.temperature_sensor = preset("photometer-ntc").unwrap().firmware_sensor();
     }

@@ -6,27 +6,20 @@
 //!
 //! Prints the image sizes (run with `--nocapture` to see them).
 
+mod common;
+
 use logtrim::fixed::FixedCalibration;
 use logtrim::image::{DefaultFixedStorage, Image};
 use logtrim_host::calfile::CalFile;
-use logtrim_host::demo::fit_data;
-use logtrim_host::fit::{fit, FitOptions};
 use logtrim_host::frontend::preset;
 use logtrim_host::image_file::{build_image_with, load_fixed};
-use logtrim_host::simulate::{simulate, Plan};
 use logtrim_host::tables::TableOptions;
 
 /// The flash page budget of the issue.
 const BUDGET: usize = 4096;
 
 fn fitted(name: &str) -> CalFile {
-    let fe = preset(name).unwrap();
-    let plan = Plan { validation_count: 10, ..Plan::default() };
-    let sim = simulate(&fe, &plan).unwrap();
-    let out = fit(&fit_data(&sim.chamber, 0).unwrap(), &FitOptions::default()).unwrap();
-    let mut f = CalFile::new(out.calibration, Some(format!("{}-0001", &name[..3].to_uppercase())));
-    f.created_unix_s = 1_767_225_600;
-    f
+    common::fitted::preset_unit(name, "0001")
 }
 
 /// Every log code at the ends and the middle of the accepted temperature range, in m°C.

@@ -110,6 +110,16 @@ fn libm_within_one_ulp() {
     documented("`logf`/`expf` within 1 ULP");
 }
 
+/// Each bound (figure, text) is in the docs, and each measured figure is within its bound and at least half
+/// of it (a bound far above what is measured would say little).
+fn within_documented(who: &str, checks: [(&str, f64, (f64, &str)); 3]) {
+    for (name, got, (bound, text)) in checks {
+        documented(text);
+        assert!(got <= bound, "{who} {name}: measured {got:e} above the documented {bound:e}");
+        assert!(got >= 0.5 * bound, "{who} {name}: measured {got:e}, far below the documented {bound:e}");
+    }
+}
+
 #[test]
 fn micromath_within_its_documented_bounds() {
     // (measured quantity, documented bound as written in the docs' table)
@@ -124,17 +134,14 @@ fn micromath_within_its_documented_bounds() {
     report("micromath ln, 1e-6 <= x < 1", &below);
     report("micromath ln, 1 <= x < 1e6", &above);
     report("micromath exp, -20 <= x <= 20", &exps);
-    for (_, text) in [LN_BELOW_1_ABS, LN_ABOVE_1_ABS, EXP_REL] {
-        documented(text);
-    }
-    for (name, got, (bound, _)) in [
-        ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
-        ("ln at or above 1 (abs)", above.max_abs, LN_ABOVE_1_ABS),
-        ("exp (rel)", exps.max_rel, EXP_REL),
-    ] {
-        assert!(got <= bound, "micromath {name}: measured {got:e} above the documented {bound:e}");
-        assert!(got >= 0.5 * bound, "micromath {name}: measured {got:e}, far below the documented {bound:e}");
-    }
+    within_documented(
+        "micromath",
+        [
+            ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
+            ("ln at or above 1 (abs)", above.max_abs, LN_ABOVE_1_ABS),
+            ("exp (rel)", exps.max_rel, EXP_REL),
+        ],
+    );
 }
 
 /// The `Micromath` backend as the correction calls it: micromath's `ln` below 1 taken as −ln(1/x), its `exp`
@@ -149,15 +156,12 @@ fn the_micromath_backend_within_its_documented_bounds() {
     let exps = measure(&lin_spaced(-20.0, 20.0, 6), Micromath::exp, f64::exp);
     report("Micromath backend ln, 1e-6 <= x < 1", &below);
     report("Micromath backend exp, -20 <= x <= 20", &exps);
-    for (_, text) in [LN_BELOW_1_ABS, EXP_REL] {
-        documented(text);
-    }
-    for (name, got, (bound, _)) in [
-        ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
-        ("ln at or above 1 (abs)", above.max_abs, LN_BELOW_1_ABS),
-        ("exp (rel)", exps.max_rel, EXP_REL),
-    ] {
-        assert!(got <= bound, "Micromath backend {name}: measured {got:e} above the documented {bound:e}");
-        assert!(got >= 0.5 * bound, "Micromath backend {name}: measured {got:e}, far below {bound:e}");
-    }
+    within_documented(
+        "Micromath backend",
+        [
+            ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
+            ("ln at or above 1 (abs)", above.max_abs, LN_BELOW_1_ABS),
+            ("exp (rel)", exps.max_rel, EXP_REL),
+        ],
+    );
 }

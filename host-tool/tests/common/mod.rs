@@ -2,6 +2,7 @@
 #![allow(dead_code)]
 
 pub mod cc;
+pub mod fitted;
 pub mod ntc;
 pub mod samples;
 pub mod units;
