@@ -140,20 +140,25 @@ fn no_data_is_an_error_not_an_empty_chart() {
     assert!(matches!(render_heat_map(&map), Err(PlotError::NoData { .. })));
 }
 
-/// Renders a heat map of `cells` cells, `valued` of them with a value, keeps it as `file`, runs `check` on
-/// the document and its texts, and checks one filled rectangle per cell, plus the colour bar's 96 steps and
-/// the grey key (grey: the cells without a value, and the key).
+/// Renders a heat map of `cells` cells, `valued` of them with a value, keeps it as `file`, checks that each
+/// of `want` matches a text of it (`matches(text, want)`), runs `check` on the document and its texts, and
+/// checks one filled rectangle per cell, plus the colour bar's 96 steps and the grey key (grey: the cells
+/// without a value, and the key).
 fn heat_map_svg(
     map: &HeatMap,
     file: &str,
-    cells: usize,
-    valued: usize,
+    (cells, valued): (usize, usize),
+    (want, matches): (&[&str], fn(&str, &str) -> bool),
     check: impl FnOnce(&roxmltree::Document, &[String]),
 ) {
     let svg = render_heat_map(map).unwrap();
     keep(file, &svg);
     let doc = parse(&svg);
-    check(&doc, &texts(&doc));
+    let t = texts(&doc);
+    for w in want {
+        assert!(t.iter().any(|s| matches(s, w)), "text {w:?} missing in {t:?}");
+    }
+    check(&doc, &t);
     let rects = doc.descendants().filter(|n| n.has_tag_name("rect")).count();
     assert!(rects >= cells + 96, "{rects} rectangles");
     assert_eq!(count_coloured(&doc, "rect", "fill", "#C4C4C4"), cells - valued + 1, "grey cells and the key");
@@ -186,16 +191,13 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
     }
     assert!(valued > nx * ny / 2, "most cells are in range: {valued}");
     assert!(valued < nx * ny, "the margin shows refused cells");
-    heat_map_svg(&map, "heat_map.svg", nx * ny, valued, |_, t| {
-        for want in [
-            "f32 correction against the f64 reference",
-            "ADC code of the log channel",
-            "temperature [°C]",
-            "error of f32 [LSB]",
-        ] {
-            assert!(t.iter().any(|s| s == want), "text {want:?} missing in {t:?}");
-        }
-    });
+    let texts = [
+        "f32 correction against the f64 reference",
+        "ADC code of the log channel",
+        "temperature [°C]",
+        "error of f32 [LSB]",
+    ];
+    heat_map_svg(&map, "heat_map.svg", (nx * ny, valued), (&texts, |s, want| s == want), |_, _| {});
 }
 
 #[test]
@@ -241,25 +243,29 @@ fn heat_map_of_the_fixed_point_error_over_code_and_temperature() {
     // The default tables hold this hard unit to a fraction of an LSB (`logtrim verify`'s bound is ¼).
     assert!(worst > 0.0 && worst < 0.25, "worst cell {worst} LSB");
 
-    heat_map_svg(&map, "fixed_heat_map.svg", nx * ny, valued, |doc, t| {
-        for want in [
-            "fixed-point correction against the f64 reference",
-            "coarse grid; worst of 9 codes per cell",
-            "ADC code of the log channel",
-            "temperature [°C]",
-            "error of fixed point [LSB]",
-            "refused by the", // the grey key, wrapped
-        ] {
-            assert!(t.iter().any(|s| s.contains(want)), "text {want:?} missing in {t:?}");
-        }
-        // The colour scale: the bar's 96 steps run through the diverging palette from end to end, and it is
-        // symmetric about zero (ticks of both signs).
-        for k in [0usize, 47, 48, 95] {
-            let c = hex(scale_colour(&DIVERGING, (k as f64 + 0.5) / 96.0));
-            assert!(count_coloured(doc, "rect", "fill", &c) >= 1, "colour bar step {k} ({c})");
-        }
-        assert!(t.iter().any(|s| s.starts_with('-') || s.starts_with('−')), "negative ticks: {t:?}");
-    });
+    let texts = [
+        "fixed-point correction against the f64 reference",
+        "coarse grid; worst of 9 codes per cell",
+        "ADC code of the log channel",
+        "temperature [°C]",
+        "error of fixed point [LSB]",
+        "refused by the", // the grey key, wrapped
+    ];
+    heat_map_svg(
+        &map,
+        "fixed_heat_map.svg",
+        (nx * ny, valued),
+        (&texts, |s, want| s.contains(want)),
+        |doc, t| {
+            // The colour scale: the bar's 96 steps run through the diverging palette from end to end, and it is
+            // symmetric about zero (ticks of both signs).
+            for k in [0usize, 47, 48, 95] {
+                let c = hex(scale_colour(&DIVERGING, (k as f64 + 0.5) / 96.0));
+                assert!(count_coloured(doc, "rect", "fill", &c) >= 1, "colour bar step {k} ({c})");
+            }
+            assert!(t.iter().any(|s| s.starts_with('-') || s.starts_with('−')), "negative ticks: {t:?}");
+        },
+    );
     // No codes per cell is a bad grid, not a panic.
     assert!(matches!(figures::fixed_error_map(&cal, &fixed, nx, ny, 0, ""), Err(PlotError::BadGrid { .. })));
 }

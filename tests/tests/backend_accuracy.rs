@@ -110,10 +110,16 @@ fn libm_within_one_ulp() {
     documented("`logf`/`expf` within 1 ULP");
 }
 
-/// Each bound (figure, text) is in the docs, and each measured figure is within its bound and at least half
-/// of it (a bound far above what is measured would say little).
-fn within_documented(who: &str, checks: [(&str, f64, (f64, &str)); 3]) {
-    for (name, got, (bound, text)) in checks {
+/// Bound (figure, text as the docs' table writes it).
+type Bound = (f64, &'static str);
+
+/// Each bound is in the docs, and each measured figure (ln below 1 and at or above 1 absolute, exp
+/// relative) is within its bound and at least half of it (a bound far above what is measured would say
+/// little).
+fn within_documented(who: &str, below: &Stats, above: &Stats, exps: &Stats, bounds: [Bound; 3]) {
+    let names = ["ln below 1 (abs)", "ln at or above 1 (abs)", "exp (rel)"];
+    let measured = [below.max_abs, above.max_abs, exps.max_rel];
+    for ((name, got), (bound, text)) in names.into_iter().zip(measured).zip(bounds) {
         documented(text);
         assert!(got <= bound, "{who} {name}: measured {got:e} above the documented {bound:e}");
         assert!(got >= 0.5 * bound, "{who} {name}: measured {got:e}, far below the documented {bound:e}");
@@ -123,9 +129,9 @@ fn within_documented(who: &str, checks: [(&str, f64, (f64, &str)); 3]) {
 #[test]
 fn micromath_within_its_documented_bounds() {
     // (measured quantity, documented bound as written in the docs' table)
-    const LN_BELOW_1_ABS: (f64, &str) = (0.12, "`ln` below 1: 0.12 absolute");
-    const LN_ABOVE_1_ABS: (f64, &str) = (7e-5, "`ln` at or above 1: 7e-5 absolute");
-    const EXP_REL: (f64, &str) = (2.5e-3, "`exp`: 2.5e-3 relative");
+    const LN_BELOW_1_ABS: Bound = (0.12, "`ln` below 1: 0.12 absolute");
+    const LN_ABOVE_1_ABS: Bound = (7e-5, "`ln` at or above 1: 7e-5 absolute");
+    const EXP_REL: Bound = (2.5e-3, "`exp`: 2.5e-3 relative");
     let ln = |x: f32| micromath::F32Ext::ln(x);
     let exp = |x: f32| micromath::F32Ext::exp(x);
     let below = measure(&log_spaced(1e-6, 1.0, 4), ln, f64::ln);
@@ -134,14 +140,7 @@ fn micromath_within_its_documented_bounds() {
     report("micromath ln, 1e-6 <= x < 1", &below);
     report("micromath ln, 1 <= x < 1e6", &above);
     report("micromath exp, -20 <= x <= 20", &exps);
-    within_documented(
-        "micromath",
-        [
-            ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
-            ("ln at or above 1 (abs)", above.max_abs, LN_ABOVE_1_ABS),
-            ("exp (rel)", exps.max_rel, EXP_REL),
-        ],
-    );
+    within_documented("micromath", &below, &above, &exps, [LN_BELOW_1_ABS, LN_ABOVE_1_ABS, EXP_REL]);
 }
 
 /// The `Micromath` backend as the correction calls it: micromath's `ln` below 1 taken as −ln(1/x), its `exp`
@@ -149,19 +148,12 @@ fn micromath_within_its_documented_bounds() {
 #[test]
 fn the_micromath_backend_within_its_documented_bounds() {
     use logtrim::math::{Backend, Micromath};
-    const LN_BELOW_1_ABS: (f64, &str) = (7e-5, "backend `ln` below 1: 7e-5 absolute");
-    const EXP_REL: (f64, &str) = (2.5e-3, "backend `exp`: 2.5e-3 relative");
+    const LN_BELOW_1_ABS: Bound = (7e-5, "backend `ln` below 1: 7e-5 absolute");
+    const EXP_REL: Bound = (2.5e-3, "backend `exp`: 2.5e-3 relative");
     let below = measure(&log_spaced(1e-6, 1.0, 4), Micromath::ln, f64::ln);
     let above = measure(&log_spaced(1.0, 1e6, 5), Micromath::ln, f64::ln);
     let exps = measure(&lin_spaced(-20.0, 20.0, 6), Micromath::exp, f64::exp);
     report("Micromath backend ln, 1e-6 <= x < 1", &below);
     report("Micromath backend exp, -20 <= x <= 20", &exps);
-    within_documented(
-        "Micromath backend",
-        [
-            ("ln below 1 (abs)", below.max_abs, LN_BELOW_1_ABS),
-            ("ln at or above 1 (abs)", above.max_abs, LN_BELOW_1_ABS),
-            ("exp (rel)", exps.max_rel, EXP_REL),
-        ],
-    );
+    within_documented("Micromath backend", &below, &above, &exps, [LN_BELOW_1_ABS, LN_BELOW_1_ABS, EXP_REL]);
 }
