@@ -304,36 +304,28 @@ static STATUS_NO_VALID: std::sync::LazyLock<usize> = std::sync::LazyLock::new(||
     logtrim_host::emit::c::STATUSES.iter().position(|(n, _)| *n == "LTRM_NO_VALID_RECORD").unwrap()
 });
 
+/// A record's header as the C driver prints it: counter, time, factory binding.
+fn record_info_text(i: &RecordInfo) -> String {
+    format!(" {} {} {:08x}", i.sequence, i.written_at, i.factory)
+}
+
 fn trim_text(t: &Trim) -> String {
     let p = t.parts();
-    format!(
-        " {} {} {:08x} {} {} {} {} {:08x} {:08x} {:08x} {:08x}",
-        p.info.sequence,
-        p.info.written_at,
-        p.info.factory,
+    let [s0, s1] = p.standards.map(f32::to_bits);
+    let (offset, gain) = (p.offset.to_bits(), p.gain.to_bits());
+    let values = format!(
+        " {} {} {} {} {offset:08x} {gain:08x} {s0:08x} {s1:08x}",
         p.kind.code(),
         p.offset_q24,
         p.gain_q30,
-        p.temp_mc,
-        p.offset.to_bits(),
-        p.gain.to_bits(),
-        p.standards[0].to_bits(),
-        p.standards[1].to_bits()
-    )
+        p.temp_mc
+    );
+    record_info_text(&p.info) + &values
 }
 
 fn blank_text(b: &Blank) -> String {
     let p = b.parts();
-    format!(
-        " {} {} {:08x} {} {:08x} {} {}",
-        p.info.sequence,
-        p.info.written_at,
-        p.info.factory,
-        p.x_q24,
-        p.x.to_bits(),
-        p.temp_mc,
-        p.samples
-    )
+    record_info_text(&p.info) + &format!(" {} {:08x} {} {}", p.x_q24, p.x.to_bits(), p.temp_mc, p.samples)
 }
 
 fn record_line(trim: bool, bytes: &[u8]) -> String {
