@@ -10,6 +10,19 @@
 
 use super::{BiasTerm, Calibration, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL};
 
+/// A 16-bit unit of `Calibration::nominal` (level shift in codes, slope in codes per neper, reference °C)
+/// with its rail margin, its calibrated temperature range (°C from, to, K of extrapolation) and its x
+/// range (Np from, to, minimum sensitivity).
+pub fn unit(nominal: [f32; 3], rail_margin: u32, temperature: [f32; 3], x: [f32; 3]) -> Calibration {
+    let mut c = Calibration::nominal(16, nominal[0], nominal[1], nominal[2]);
+    c.adc.rail_margin = rail_margin;
+    let [min_c, max_c, extrapolation_k] = temperature;
+    c.temperature = TemperatureRange { min_c, max_c, extrapolation_k };
+    let [min, max, min_sensitivity] = x;
+    c.x_range = XRange { min, max, min_sensitivity };
+    c
+}
+
 /// A series of the coefficients `c` (none past the sixth).
 pub fn series(c: &[f32]) -> Series {
     Series::from_slice(c).unwrap_or(Series::ZERO)
@@ -18,10 +31,7 @@ pub fn series(c: &[f32]) -> Series {
 /// Uncompensated (slope ∝ T), −20…85 °C with 5 K extrapolation, strong hot bias bend that the sensitivity
 /// limit cuts into at the hot end, bulk bend at the top.
 pub fn hard_uncompensated() -> Calibration {
-    let mut c = Calibration::nominal(16, 44000.0, 5200.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -6.5, max: 3.0, min_sensitivity: 0.05 };
+    let mut c = unit([44000.0, 5200.0, 25.0], 16, [-20.0, 85.0, 5.0], [-6.5, 3.0, 0.05]);
     c.model.t_center_c = 32.5;
     c.model.t_half_span_k = 52.5;
     c.model.pole = 0.0;
@@ -50,10 +60,7 @@ pub fn hard_compensated() -> Calibration {
 
 /// Compensated, 0…70 °C with 3 K extrapolation, a milder bias bend, 6000 codes per neper.
 pub fn mild_compensated() -> Calibration {
-    let mut c = Calibration::nominal(16, 41000.0, 6000.0, 25.0);
-    c.adc.rail_margin = 8;
-    c.temperature = TemperatureRange { min_c: 0.0, max_c: 70.0, extrapolation_k: 3.0 };
-    c.x_range = XRange { min: -6.0, max: 3.5, min_sensitivity: 0.1 };
+    let mut c = unit([41000.0, 6000.0, 25.0], 8, [0.0, 70.0, 3.0], [-6.0, 3.5, 0.1]);
     c.model.t_center_c = 35.0;
     c.model.t_half_span_k = 35.0;
     c.model.pole = 0.10;
@@ -66,11 +73,7 @@ pub fn mild_compensated() -> Calibration {
 
 /// An ideal unit: no bias term, no bends (the plain path through the tables).
 pub fn ideal() -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 5000.0, 25.0);
-    c.adc.rail_margin = 4;
-    c.temperature = TemperatureRange { min_c: -10.0, max_c: 60.0, extrapolation_k: 0.0 };
-    c.x_range = XRange { min: -6.0, max: 6.0, min_sensitivity: 0.0 };
-    c
+    unit([32768.0, 5000.0, 25.0], 4, [-10.0, 60.0, 0.0], [-6.0, 6.0, 0.0])
 }
 
 /// A calibration with bends at both ends (the shape of a fitted unit), over −20…85 °C: every term of the
@@ -95,10 +98,7 @@ pub fn fitted_shape() -> Calibration {
 /// A gas detector's reference-channel unit: 2100 codes per neper, −10…60 °C with 3 K extrapolation, a bias
 /// bend, no bulk bend.
 pub fn gas_reference() -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 2100.0, 25.0);
-    c.adc.rail_margin = 12;
-    c.temperature = TemperatureRange { min_c: -10.0, max_c: 60.0, extrapolation_k: 3.0 };
-    c.x_range = XRange { min: -7.0, max: 3.0, min_sensitivity: 0.1 };
+    let mut c = unit([32768.0, 2100.0, 25.0], 12, [-10.0, 60.0, 3.0], [-7.0, 3.0, 0.1]);
     c.model.t_center_c = 25.0;
     c.model.t_half_span_k = 40.0;
     c.model.offset = series(&[80.0, 12.5]);
@@ -111,10 +111,7 @@ pub fn gas_reference() -> Calibration {
 /// (bulk-resistance) bend, a compensating pole and a bias term on the reference input of `reference` codes;
 /// no residual.
 pub fn bent(reference: f32) -> Calibration {
-    let mut c = Calibration::nominal(16, 32768.0, 2400.0, 25.0);
-    c.adc.rail_margin = 16;
-    c.temperature = TemperatureRange { min_c: -20.0, max_c: 85.0, extrapolation_k: 5.0 };
-    c.x_range = XRange { min: -9.0, max: 4.0, min_sensitivity: 0.05 };
+    let mut c = unit([32768.0, 2400.0, 25.0], 16, [-20.0, 85.0, 5.0], [-9.0, 4.0, 0.05]);
     c.model.t_center_c = 32.5;
     c.model.t_half_span_k = 52.5;
     c.model.pole = -0.12;
