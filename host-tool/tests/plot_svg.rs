@@ -140,6 +140,9 @@ fn no_data_is_an_error_not_an_empty_chart() {
     assert!(matches!(render_heat_map(&map), Err(PlotError::NoData { .. })));
 }
 
+/// How a wanted text is found among a chart's texts: `matches(text, wanted)`.
+type TextMatch = fn(&str, &str) -> bool;
+
 /// Renders a heat map of `cells` cells, `valued` of them with a value, keeps it as `file`, checks that each
 /// of `want` matches a text of it (`matches(text, want)`), runs `check` on the document and its texts, and
 /// checks one filled rectangle per cell, plus the colour bar's 96 steps and the grey key (grey: the cells
@@ -148,7 +151,7 @@ fn heat_map_svg(
     map: &HeatMap,
     file: &str,
     (cells, valued): (usize, usize),
-    (want, matches): (&[&str], fn(&str, &str) -> bool),
+    (want, matches): (&[&str], TextMatch),
     check: impl FnOnce(&roxmltree::Document, &[String]),
 ) {
     let svg = render_heat_map(map).unwrap();
