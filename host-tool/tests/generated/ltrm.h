@@ -17,7 +17,7 @@ extern "C" {
 #define LTRM_VERSION_MAJOR 0
 #define LTRM_VERSION_MINOR 1
 #define LTRM_VERSION_PATCH 0
-#define LTRM_IMAGE_VERSION 2u /* calibration image format (image::layout::header::VERSION_VALUE) */
+#define LTRM_IMAGE_VERSION 3u /* calibration image format (image::layout::header::VERSION_VALUE) */
 #define LTRM_TRIM_VERSION 1u /* trim record format */
 #define LTRM_BLANK_VERSION 1u /* blank record format */
 #define LTRM_MAGIC_IMAGE "LTCI"
@@ -132,7 +132,8 @@ typedef enum ltrm_status {
     LTRM_OTHER_CALIBRATION, /* a record made on another factory calibration */
     LTRM_OFFSET_PAST_LIMIT, /* trim offset past the limit: a fault, not a drift to trim */
     LTRM_GAIN_PAST_LIMIT, /* trim gain past the limit: a fault, not a drift to trim */
-    LTRM_NO_VALID_RECORD /* neither slot holds a usable record */
+    LTRM_NO_VALID_RECORD, /* neither slot holds a usable record */
+    LTRM_BAD_SENSOR /* the temperature sensor's description fails its validation */
 } ltrm_status;
 
 /* Output units, in the order of logtrim::Unit::ALL. */
@@ -235,8 +236,23 @@ typedef struct ltrm_ram {
     int16_t *residual; uint32_t r_capacity;
 } ltrm_ram;
 
+/* The raw temperature channel's description (image section 0x8004, logtrim::TemperatureSensor): the element
+ * (0 NTC by Beta: coeff = R0 ohm, T0 degC, beta K; 1 NTC by Steinhart-Hart: coeff = A, B, C; 2 platinum RTD:
+ * coeff[0] = R0 ohm), the divider (placement 0 element to ground, 1 to supply; series resistor, ADC bits, the
+ * supply's code, the open and short fault bands) and the range it reports. */
+typedef struct ltrm_sensor {
+    uint8_t element;
+    uint8_t placement;
+    uint8_t bits;
+    float coeff[3];
+    float series_ohm;
+    uint32_t full_scale_code, open_margin, short_margin;
+    float min_c, max_c;
+} ltrm_sensor;
+
 /* What an image says about itself besides its tables. identity is the fingerprint trim and blank records
- * bind to (logtrim::field::fingerprint_of_image); serial is NUL-terminated printable ASCII. */
+ * bind to (logtrim::field::fingerprint_of_image); serial is NUL-terminated printable ASCII; has_sensor is 1
+ * when the image describes a raw temperature channel (in sensor), for an f32 firmware to linearise it. */
 typedef struct ltrm_image_info {
     uint16_t version;
     uint32_t sequence;
@@ -245,6 +261,8 @@ typedef struct ltrm_image_info {
     uint32_t crc;
     uint32_t identity;
     uint32_t len; /* bytes of the image, header to CRC */
+    int has_sensor;
+    ltrm_sensor sensor;
 } ltrm_image_info;
 
 /* The two slots of an A/B pair. */
