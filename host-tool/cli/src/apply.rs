@@ -22,8 +22,8 @@ pub enum PathArg {
     F32,
     /// f32 with micromath's fast approximations.
     F32Micromath,
-    /// The integer fixed-point path (parts without an FPU), from the tables `logtrim emit` would write
-    /// with its default sizes.
+    /// The integer fixed-point path (parts without an FPU), from the tables `logtrim emit` and `logtrim
+    /// image` write with the same table sizes (--t-knots, --xa-knots, --sensor-segments).
     Fixed,
 }
 
@@ -59,6 +59,23 @@ pub struct ApplyArgs {
     /// Only the rows of this unit (readings with a unit column), corrected with the calibration given.
     #[arg(long, value_name = "SERIAL")]
     unit: Option<String>,
+    /// Table sizes of the fixed path (with --path fixed only), as for `emit` and `image`.
+    #[command(flatten)]
+    tables: crate::emit::TableArgs,
+}
+
+impl ApplyArgs {
+    /// The fixed path's table options; sizes other than the defaults with another path are refused, since
+    /// they would change nothing.
+    fn table_options(&self) -> Result<logtrim_host::tables::TableOptions, Failure> {
+        let options = self.tables.options();
+        if self.path != PathArg::Fixed && options != logtrim_host::tables::TableOptions::default() {
+            return Err(Failure::input(
+                "--t-knots, --xa-knots and --sensor-segments size the fixed path's tables: they need --path fixed",
+            ));
+        }
+        Ok(options)
+    }
 }
 
 /// The calibration file of `serial` in the folder `dir` (SERIAL.json as a batch writes it), checked to be
@@ -100,7 +117,7 @@ fn correct_with(
         PathArg::F32Micromath => correct_rows_layered(&cal, readings, Arithmetic::F32Micromath, &layers),
         PathArg::Fixed => {
             let tables = file
-                .fixed_tables(&logtrim_host::tables::TableOptions::default())
+                .fixed_tables(&args.table_options()?)
                 .map_err(|e| Failure::input(format!("{}: {e}", source.display())))?;
             correct_rows_fixed_layered(&tables.view(), readings, &layers)
         }
@@ -116,6 +133,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         &[Some(&args.output)],
         &[],
     )?;
+    args.table_options()?;
     if matches!(args.path, PathArg::F32Micromath) {
         note!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
     }
@@ -268,7 +286,7 @@ fn run_streaming(args: &ApplyArgs) -> Result<(), Failure> {
     warn_unbound(&layers);
     let tables = match args.path {
         PathArg::Fixed => Some(
-            file.fixed_tables(&logtrim_host::tables::TableOptions::default())
+            file.fixed_tables(&args.table_options()?)
                 .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?,
         ),
         _ => None,
