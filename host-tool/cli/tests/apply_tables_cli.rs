@@ -12,23 +12,14 @@ use std::path::Path;
 
 use common::{logtrim, scratch};
 use fixtures::units;
-use logtrim::{Beta, Divider, Image, Placement, SensorElement, TemperatureSensor};
+use logtrim::{Image, TemperatureSensor};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::correct::x_of_q24;
 use logtrim_host::image_file::load_fixed;
 
-/// A 12-bit NTC channel (10 kΩ, β 3950 K, invented values) over the unit's whole temperature range.
+/// The raw NTC channel of the `photometer-ntc` preset (12-bit, −40…125 °C, invented values).
 fn ntc() -> TemperatureSensor {
-    TemperatureSensor {
-        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
-        divider: Divider {
-            open_margin: 8,
-            short_margin: 8,
-            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
-        },
-        min_c: -40.0,
-        max_c: 125.0,
-    }
+    logtrim_host::frontend::preset("photometer-ntc").unwrap().firmware_sensor().unwrap()
 }
 
 /// Writes the calibration file and readings over the code range and the calibrated temperatures (by °C, or
@@ -64,7 +55,7 @@ fn apply_on_the_fixed_path_takes_the_table_sizes_of_emit_and_image() {
     for raw in [false, true] {
         let d = scratch(if raw { "apply-tables-raw" } else { "apply-tables" });
         let (c, r) = unit(&d, raw);
-        let sizes = ["--t-knots", "6", "--xa-knots", "12", "--sensor-segments", "32"];
+        let sizes = ["--t-knots", "6", "--xa-knots", "12", "--sensor-segments", "64"];
         let out = d.join("out.csv");
         let o = out.to_str().unwrap();
         let (code, text, err) =
