@@ -129,7 +129,8 @@ pub struct CalData {
 pub struct ReadingRow {
     /// The line of the file the row starts on (1-based).
     pub line: u64,
-    /// The log channel's ADC code.
+    /// The log channel's ADC code (in a readings file possibly beyond the converter: the firmware refuses
+    /// such a row with its own status).
     pub code: u32,
     /// The unit's temperature in °C, or why the temperature channel's code gave none.
     pub temp_c: Result<f64, logtrim::Error>,
@@ -923,7 +924,12 @@ impl<'o, R: io::Read> Source<'o, R> {
 
     fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {
         self.check_count(rec)?;
-        let code = self.code(rec)?;
+        // A code beyond the converter that a u32 holds is the firmware's to refuse: the row gets its status
+        // (`code_out_of_adc_range`), as on the MCU, and the rest of the file is corrected.
+        let code = match parse_code(field(rec, self.columns.code), u32::MAX) {
+            Ok(c) if c > self.max_code => c,
+            _ => self.code(rec)?,
+        };
         let temp_c = self.temperature(rec)?;
         let ratio = match self.columns.ratio {
             Some(c) => Some(self.ratio(rec, c)?),

@@ -1,7 +1,9 @@
-//! `apply --path fixed` with the table sizes `emit` and `image` take: the rows it writes are the rows the
-//! tables of an image made with the same sizes give, read back through the firmware's loader, for a unit
-//! whose temperature arrives in °C and for one that reads a raw NTC channel; sizes with another path are
-//! refused.
+//! `apply` row by row as the firmware: on the fixed path with the table sizes `emit` and `image` take (the
+//! rows it writes are the rows the tables of an image made with the same sizes give, read back through the
+//! firmware's loader; sizes with another path are refused); the temperature the firmware read from a raw
+//! channel in a column of its own; sensor open and short told apart; a code beyond the converter refused
+//! in its row, the rest of the file corrected. Each for a unit whose temperature arrives in °C and for one
+//! that reads a raw NTC channel.
 
 mod common;
 
@@ -109,4 +111,53 @@ fn table_sizes_without_the_fixed_path_are_refused() {
     assert!(err.contains("they need --path fixed"), "{err}");
     assert!(!out.exists());
     let _ = std::fs::remove_dir_all(&d);
+}
+
+#[test]
+fn each_row_gets_the_firmware_s_status_and_a_raw_channel_its_temperature() {
+    for raw in [false, true] {
+        let d = scratch(if raw { "apply-rows-raw" } else { "apply-rows" });
+        let (c, _) = unit(&d, raw);
+        let file = CalFile::load(Path::new(&c)).unwrap();
+        // A good row, a code beyond the 16-bit converter, then (raw) the channel's rails: the low-side NTC's
+        // code 0 is a short, its top an open circuit.
+        let (good_t, t) = if raw { ("1800", "temp_code") } else { ("25", "temp_c") };
+        let mut csv = format!("id,code,{t}\n1,30000,{good_t}\n2,70000,{good_t}\n");
+        if raw {
+            csv.push_str("3,30000,0\n4,30000,4095\n");
+        }
+        let r = d.join("rows.csv");
+        std::fs::write(&r, csv).unwrap();
+        for path in ["f32", "fixed"] {
+            let out = d.join(format!("{path}.csv"));
+            let o = out.to_str().unwrap();
+            let (code, text, err) = logtrim(&["apply", &c, r.to_str().unwrap(), "--path", path, "-o", o]);
+            assert_eq!(code, 0, "{text}{err}");
+            let got = rows(&out);
+            let col = |name: &str| got[0].iter().position(|h| h == name);
+            let e = col("error").unwrap();
+            assert!(got[1][e].is_empty() && !got[1][col("ln_ratio").unwrap()].is_empty(), "{got:?}");
+            assert_eq!(got[2][e], "code_out_of_adc_range", "{path}");
+            let Some(tc) = col("firmware_temp_c") else {
+                assert!(!raw, "{path}: no firmware_temp_c column");
+                continue;
+            };
+            assert!(raw, "{path}: a digital unit's output has no firmware_temp_c");
+            assert_eq!((got[3][e].as_str(), got[4][e].as_str()), ("sensor_short", "sensor_open"), "{path}");
+            assert!(got[3][tc].is_empty() && got[4][tc].is_empty());
+            // What each firmware reads at code 1800: the description in f32, or the fixed path's table.
+            let read: f64 = got[1][tc].parse().unwrap();
+            let want = if path == "f32" {
+                f64::from(ntc().celsius(1800).unwrap())
+            } else {
+                let tables = file.fixed_tables(&logtrim_host::tables::TableOptions::default()).unwrap();
+                let theta = tables.view().theta_from_code(1800).unwrap();
+                f64::from(theta) / 1024.0 / 1000.0
+            };
+            assert!((read - want).abs() <= 1e-6 * want.abs(), "{path}: {read} vs {want}");
+            // The row beyond the converter still shows the temperature the channel gave.
+            assert_eq!(got[2][tc], got[1][tc]);
+        }
+        let _ = std::fs::remove_dir_all(&d);
+    }
 }
