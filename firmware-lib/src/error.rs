@@ -94,7 +94,8 @@ pub enum Error {
 }
 
 impl Error {
-    /// A stable snake_case name of the variant (used in CSV `error` columns and logs).
+    /// A stable snake_case name of the variant (used in CSV `error` columns and logs); a sensor fault is named
+    /// by its kind.
     ///
     /// ```
     /// use logtrim::error::{Error, SensorFault};
@@ -106,8 +107,11 @@ impl Error {
     /// assert_eq!(e, Error::TemperatureOutOfRange { millicelsius: 400_000 });
     /// assert_eq!(e.name(), "temperature_out_of_range");
     /// assert_eq!(e.to_string(), "temperature 400 °C outside the calibrated range");
+    /// // A sensor fault is named by its kind, as the C library's statuses name it (LTRM_SENSOR_OPEN, …).
     /// let open = Error::from(SensorFault::Open);
-    /// assert_eq!(open.name(), "sensor_fault");
+    /// assert_eq!(open.name(), "sensor_open");
+    /// assert_eq!(Error::from(SensorFault::Short).name(), "sensor_short");
+    /// assert_eq!(Error::from(SensorFault::OutOfModelRange).name(), "sensor_out_of_model_range");
     /// assert_eq!(open.to_string(), "temperature sensor fault: sensor open circuit");
     /// ```
     pub const fn name(&self) -> &'static str {
@@ -117,7 +121,9 @@ impl Error {
             Error::BelowRange => "below_range",
             Error::AboveRange => "above_range",
             Error::TemperatureOutOfRange { .. } => "temperature_out_of_range",
-            Error::Sensor(_) => "sensor_fault",
+            Error::Sensor(SensorFault::Open) => "sensor_open",
+            Error::Sensor(SensorFault::Short) => "sensor_short",
+            Error::Sensor(SensorFault::OutOfModelRange) => "sensor_out_of_model_range",
             Error::NonFinite => "non_finite",
             Error::InvalidCalibration(_) => "invalid_calibration",
             Error::NotCalibrated => "not_calibrated",

@@ -2,9 +2,12 @@
 //!
 //! The output keeps every input column in order and adds, per row: one column per output unit of
 //! [`Unit::ALL`] (`ln_ratio`, `decades`, `db_power`, `db_amplitude`, `absorbance`, `transmittance_pct`,
-//! `linear_ratio`), `temperature_extrapolated` (`1` where the temperature lay outside the calibrated range
-//! within the allowed extrapolation, else `0`) and `error`. A row the firmware refuses has empty values and
-//! the error variant's name (`below_range`, `saturated`, …) in `error`; the run goes on.
+//! `linear_ratio`), for readings with a raw `temp_code` column `firmware_temp_c` (the temperature the
+//! firmware read from it, °C: the sensor description in f32 on the f32 paths, the sensor table's θ on the
+//! fixed path; empty where the channel gave none), `temperature_extrapolated` (`1` where the temperature
+//! lay outside the calibrated range within the allowed extrapolation, else `0`) and `error`. A row the
+//! firmware refuses has empty values and the error variant's name (`below_range`, `saturated`,
+//! `sensor_open`, `code_out_of_adc_range`, …) in `error`; the run goes on.
 //!
 //! The rows are corrected by [`crate::correct`] (f32 or fixed path, with field layers from
 //! [`crate::records`]); with a blank the values are relative to it (`absorbance` is then the absorbance
@@ -18,12 +21,28 @@ use logtrim::{Error, Unit};
 use crate::correct::RowValue;
 use crate::data::Readings;
 
-/// Columns `apply` adds after the input's.
-pub fn added_columns() -> Vec<&'static str> {
+/// The column of the temperature the firmware read from a raw temperature channel, °C.
+pub const FIRMWARE_TEMP_COLUMN: &str = "firmware_temp_c";
+
+/// Columns `apply` adds after the input's (`raw`: the readings have a `temp_code` column).
+pub fn added_columns_for(raw: bool) -> Vec<&'static str> {
     let mut v: Vec<&'static str> = Unit::ALL.iter().map(|u| u.name()).collect();
+    if raw {
+        v.push(FIRMWARE_TEMP_COLUMN);
+    }
     v.push("temperature_extrapolated");
     v.push("error");
     v
+}
+
+/// Columns `apply` adds after the input's, for readings in °C.
+pub fn added_columns() -> Vec<&'static str> {
+    added_columns_for(false)
+}
+
+/// Whether a readings header has a raw `temp_code` column (the rule of [`crate::data`]).
+fn has_temp_code(headers: &[String]) -> bool {
+    headers.iter().any(|h| h.trim().eq_ignore_ascii_case("temp_code"))
 }
 
 /// Counts of an apply run.
@@ -72,6 +91,7 @@ pub fn write_results<W: Write>(
 /// of one chunk.
 pub struct ResultsWriter<W: Write> {
     w: csv::Writer<W>,
+    raw: bool,
     summary: ApplySummary,
     rec: csv::ByteRecord,
     buf: ryu::Buffer,
@@ -81,7 +101,8 @@ impl<W: Write> ResultsWriter<W> {
     /// Checks the input's header against the added columns and writes the output's header; `path` names
     /// the input in errors.
     pub fn new(headers: &[String], path: &str, out: W) -> Result<Self, ApplyError> {
-        let added = added_columns();
+        let raw = has_temp_code(headers);
+        let added = added_columns_for(raw);
         for h in headers {
             if let Some(c) = added.iter().find(|a| a.eq_ignore_ascii_case(h.trim())) {
                 return Err(ApplyError::ColumnClash { path: path.to_string(), column: (*c).to_string() });
@@ -93,27 +114,48 @@ impl<W: Write> ResultsWriter<W> {
         w.write_record(&header).map_err(csv_io)?;
         Ok(ResultsWriter {
             w,
+            raw,
             summary: ApplySummary::default(),
             rec: csv::ByteRecord::new(),
             buf: ryu::Buffer::new(),
         })
     }
 
-    /// Writes rows (a chunk of the input, or all of it) with their results, in order.
+    /// Writes rows (a chunk of the input, or all of it) with their results, in order; for a raw
+    /// temperature channel, the temperature read is each row's `temp_c` (the f32 paths' reading).
     pub fn write(
         &mut self,
         readings: &Readings,
         results: &[Result<RowValue, Error>],
     ) -> Result<(), ApplyError> {
+        let temps: Vec<Option<f64>> = readings.rows.iter().map(|r| r.temp_c.as_ref().ok().copied()).collect();
+        self.write_with_temperatures(readings, results, &temps, true)
+    }
+
+    /// [`write`](Self::write) with the temperature each row's firmware read (°C; `None` where it read
+    /// none), written with f32 digits when `f32_digits`.
+    pub fn write_with_temperatures(
+        &mut self,
+        readings: &Readings,
+        results: &[Result<RowValue, Error>],
+        temps: &[Option<f64>],
+        f32_digits: bool,
+    ) -> Result<(), ApplyError> {
+        let raw = self.raw;
         let summary = &mut self.summary;
         summary.rows += readings.rows.len();
         let rec = &mut self.rec;
         let buf = &mut self.buf;
-        for (row, res) in readings.rows.iter().zip(results) {
+        for ((row, res), temp) in readings.rows.iter().zip(results).zip(temps) {
             rec.clear();
             for f in row.record.iter() {
                 rec.push_field(f);
             }
+            let push_temp = |rec: &mut csv::ByteRecord, buf: &mut ryu::Buffer| match temp {
+                Some(t) if f32_digits => rec.push_field(buf.format(*t as f32).as_bytes()),
+                Some(t) => rec.push_field(buf.format(*t).as_bytes()),
+                None => rec.push_field(b""),
+            };
             match res {
                 Ok(r) => {
                     for v in r.units {
@@ -122,6 +164,9 @@ impl<W: Write> ResultsWriter<W> {
                         } else {
                             rec.push_field(buf.format(v).as_bytes());
                         }
+                    }
+                    if raw {
+                        push_temp(rec, buf);
                     }
                     rec.push_field(if r.temperature_extrapolated { b"1" } else { b"0" });
                     rec.push_field(b"");
@@ -132,6 +177,9 @@ impl<W: Write> ResultsWriter<W> {
                 Err(e) => {
                     for _ in Unit::ALL {
                         rec.push_field(b"");
+                    }
+                    if raw {
+                        push_temp(rec, buf);
                     }
                     rec.push_field(b"");
                     rec.push_field(e.name().as_bytes());

@@ -583,7 +583,15 @@ impl BudgetSpec {
 impl Budget {
     /// The budget as a table for the terminal.
     pub fn render_table(&self) -> String {
+        self.render_table_in(None)
+    }
+
+    /// [`render_table`](Self::render_table) with one more column: every size in the unit the product speaks
+    /// (a magnitude: mAU of an error of +e Np and of −e Np are the same size).
+    pub fn render_table_in(&self, unit: Option<crate::error_scale::ErrorScale>) -> String {
         use std::fmt::Write;
+        let extra_head = unit.map_or_else(String::new, |u| format!(" {:>13}", format!("[{}]", u.label())));
+        let extra = |np: f64| unit.map_or_else(String::new, |u| format!(" {:>13.3e}", u.of_np(np).abs()));
         let s_ = &self.spec;
         let mut s = String::new();
         let _ = writeln!(
@@ -606,7 +614,7 @@ impl Budget {
             self.min_slope_lsb_per_np, self.max_dx_dt_np_per_k
         );
         let head = format!(
-            "{:<40} {:<5} {:>9} {:>10} {:>13} {:>13} {:>10}  {}",
+            "{:<40} {:<5} {:>9} {:>10} {:>13} {:>13} {:>10}{extra_head}  {}",
             "contribution",
             "kind",
             "[LSB]",
@@ -621,8 +629,16 @@ impl Budget {
             let lsb = lsb.map_or_else(|| "".to_string(), |v| format!("{v:.3}"));
             let _ = writeln!(
                 s,
-                "{:<40} {:<5} {:>9} {:>10.3e} {:>13.3e} {:>13.3e} {:>10.4}  {}",
-                name, kind, lsb, z.np, z.db_10log10, z.db_20log10, z.pct_of_ratio, at
+                "{:<40} {:<5} {:>9} {:>10.3e} {:>13.3e} {:>13.3e} {:>10.4}{}  {}",
+                name,
+                kind,
+                lsb,
+                z.np,
+                z.db_10log10,
+                z.db_20log10,
+                z.pct_of_ratio,
+                extra(z.np),
+                at
             );
         };
         let kind = |k: Kind| match k {
@@ -632,7 +648,7 @@ impl Budget {
         for c in &self.contributions {
             row(&mut s, &c.name, kind(c.kind), c.lsb, &c.size, &c.worst_at);
         }
-        let _ = writeln!(s, "{}", "-".repeat(110));
+        let _ = writeln!(s, "{}", "-".repeat(110 + extra_head.chars().count()));
         row(&mut s, "root-sum-square", "", None, &self.rss, "");
         row(&mut s, "worst case (linear sum)", "", None, &self.worst_case, "");
         let _ = writeln!(s, "\nremoved by calibration (not in the totals; size uncorrected):");

@@ -165,6 +165,12 @@ pub fn correct_rows_layered(
         .collect()
 }
 
+/// A row's raw temperature code, as written in its `temp_code` column (checked by the reader).
+fn temp_code(readings: &Readings, r: &crate::data::ReadingRow) -> Option<u32> {
+    let field = r.record.get(readings.columns.temperature)?;
+    std::str::from_utf8(field).ok()?.trim().parse::<u32>().ok()
+}
+
 /// The factory fixed-path reading of every row of `readings` (in parallel), as on the MCU.
 ///
 /// A `temp_c` column is passed as m°C (rounded); a `temp_code` column goes through the tables' own
@@ -174,18 +180,12 @@ pub fn factory_readings_fixed(
     readings: &Readings,
 ) -> Vec<Result<FixedReading, Error>> {
     let raw = readings.columns.temperature_kind == TemperatureColumn::Code;
-    let col = readings.columns.temperature;
     readings
         .rows
         .par_iter()
         .map(|r| {
             if raw {
-                let code = r
-                    .record
-                    .get(col)
-                    .and_then(|b| std::str::from_utf8(b).ok())
-                    .and_then(|t| t.trim().parse::<u32>().ok())
-                    .ok_or(Error::NonFinite)?;
+                let code = temp_code(readings, r).ok_or(Error::NonFinite)?;
                 fixed.correct_raw(r.code, code)
             } else {
                 let t = r.temp_c?;
@@ -196,6 +196,21 @@ pub fn factory_readings_fixed(
                 }
                 fixed.correct(r.code, mc as i32)
             }
+        })
+        .collect()
+}
+
+/// The temperature the fixed path reads for each row of readings with a raw `temp_code` column: the
+/// tables' sensor table at the code (θ, as °C); `None` where it reads none (a fault, no sensor table) and
+/// for readings in °C.
+pub fn fixed_temperatures(fixed: &FixedCalibration<'_>, readings: &Readings) -> Vec<Option<f64>> {
+    let raw = readings.columns.temperature_kind == TemperatureColumn::Code;
+    readings
+        .rows
+        .iter()
+        .map(|r| {
+            let theta = fixed.theta_from_code(temp_code(readings, r)?).ok()?;
+            raw.then(|| f64::from(theta) / (1000.0 * f64::from(1u32 << logtrim::fixed::THETA_FRAC)))
         })
         .collect()
 }

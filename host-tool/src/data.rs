@@ -80,8 +80,11 @@ pub struct Columns {
     pub temperature: usize,
     /// Which of the two the temperature column is.
     pub temperature_kind: TemperatureColumn,
-    /// `ratio`, if present.
+    /// `ratio`, if present; or, in chamber data and standards, `absorbance` (see
+    /// [`Columns::ratio_as_absorbance`]).
     pub ratio: Option<usize>,
+    /// The ratio column is `absorbance` A (a certified filter's value): the ratio is 10^(−A).
+    pub ratio_as_absorbance: bool,
     /// `unit`, if present.
     pub unit: Option<usize>,
     /// `weight`, if present.
@@ -129,7 +132,8 @@ pub struct CalData {
 pub struct ReadingRow {
     /// The line of the file the row starts on (1-based).
     pub line: u64,
-    /// The log channel's ADC code.
+    /// The log channel's ADC code (in a readings file possibly beyond the converter: the firmware refuses
+    /// such a row with its own status).
     pub code: u32,
     /// The unit's temperature in °C, or why the temperature channel's code gave none.
     pub temp_c: Result<f64, logtrim::Error>,
@@ -354,6 +358,16 @@ pub enum DataError {
         first: usize,
         /// Second position (1-based).
         second: usize,
+    },
+    /// Both a `ratio` and an `absorbance` column give the known ratio.
+    #[error("{path}: header: both ratio (column {ratio}) and absorbance (column {absorbance}); expected one of them")]
+    TwoRatioColumns {
+        /// The file.
+        path: String,
+        /// Position of `ratio` (1-based).
+        ratio: usize,
+        /// Position of `absorbance` (1-based).
+        absorbance: usize,
     },
     /// Both temperature columns are present.
     #[error("{path}: header: both temp_c (column {celsius}) and temp_code (column {code}); expected exactly one temperature column")]
@@ -755,14 +769,39 @@ impl<'o, R: io::Read> Source<'o, R> {
                 ))
             }
         };
-        let ratio = find("ratio")?;
+        let mut ratio = find("ratio")?;
+        let mut ratio_as_absorbance = false;
+        // Chamber data and standards may give the known ratio as an absorbance (certified filters). (apply
+        // refuses readings with an absorbance column: it writes one.)
+        match (ratio, find("absorbance")?) {
+            (Some(r), Some(a)) => {
+                return Err(DataError::TwoRatioColumns {
+                    path: path.to_string(),
+                    ratio: r + 1,
+                    absorbance: a + 1,
+                })
+            }
+            (None, Some(a)) => (ratio, ratio_as_absorbance) = (Some(a), true),
+            _ => {}
+        }
         if need_ratio && ratio.is_none() {
-            return Err(missing("ratio", "the applied ratio I_sig/I_ref of each calibration point"));
+            return Err(missing(
+                "ratio",
+                "the applied ratio I_sig/I_ref of each calibration point (or its absorbance, in an absorbance column)",
+            ));
         }
         let unit = find("unit")?;
         let weight = find("weight")?;
-        let columns =
-            Columns { code, temperature, temperature_kind, ratio, unit, weight, count: headers.len() };
+        let columns = Columns {
+            code,
+            temperature,
+            temperature_kind,
+            ratio,
+            ratio_as_absorbance,
+            unit,
+            weight,
+            count: headers.len(),
+        };
         Ok(Source {
             csv,
             window,
@@ -863,6 +902,26 @@ impl<'o, R: io::Read> Source<'o, R> {
 
     fn ratio(&self, rec: &ByteRecord, c: usize) -> Result<f64, Box<RowError>> {
         let (lo, hi) = RATIO_SPAN;
+        if self.columns.ratio_as_absorbance {
+            // A = −log10(ratio) (common practice): within the ratio span, |A| ≤ 30.
+            let a = parse_f64(field(rec, c)).and_then(|a| {
+                if !a.is_finite() {
+                    Err(Problem::NotFinite)
+                } else if !(-hi.log10()..=-lo.log10()).contains(&a) {
+                    Err(Problem::Implausible { min: -hi.log10(), max: -lo.log10() })
+                } else {
+                    Ok(a)
+                }
+            });
+            return a.map(|a| 10f64.powf(-a)).map_err(|p| {
+                self.err(
+                    rec,
+                    c,
+                    p,
+                    format!("a finite absorbance A = −log10(ratio) within {} … {}", -hi.log10(), -lo.log10()),
+                )
+            });
+        }
         plausible_positive(field(rec, c)).map_err(|p| {
             self.err(rec, c, p, format!("a positive finite ratio I_sig/I_ref within {lo:e} … {hi:e}"))
         })
@@ -923,7 +982,12 @@ impl<'o, R: io::Read> Source<'o, R> {
 
     fn reading_row(&mut self, rec: &ByteRecord, line: u64) -> Result<ReadingRow, Box<RowError>> {
         self.check_count(rec)?;
-        let code = self.code(rec)?;
+        // A code beyond the converter that a u32 holds is the firmware's to refuse: the row gets its status
+        // (`code_out_of_adc_range`), as on the MCU, and the rest of the file is corrected.
+        let code = match parse_code(field(rec, self.columns.code), u32::MAX) {
+            Ok(c) if c > self.max_code => c,
+            _ => self.code(rec)?,
+        };
         let temp_c = self.temperature(rec)?;
         let ratio = match self.columns.ratio {
             Some(c) => Some(self.ratio(rec, c)?),

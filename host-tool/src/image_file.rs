@@ -63,6 +63,12 @@ pub enum ImageFileError {
     /// The calibration cannot be written as an image.
     #[error("cannot build the image: {0}")]
     Write(image::WriteError),
+    /// The image's temperature-sensor description or table does not agree with the calibration file's.
+    #[error("the image's temperature sensor disagrees with the calibration file: {what}")]
+    SensorDisagrees {
+        /// What differs.
+        what: String,
+    },
     /// The fixed-point tables for the image's fixed section could not be generated.
     #[error("cannot build the fixed-point tables for the image: {0}")]
     Tables(TableError),
@@ -118,10 +124,14 @@ pub fn build_image(file: &CalFile, serial: Option<&str>, sequence: u32) -> Resul
     build_image_with(file, serial, sequence, None)
 }
 
-/// Builds the image of a calibration file, with the fixed section of its fixed-point tables
-/// ([`CalFile::fixed_tables`] with `tables`, a temperature-sensor table included when the file describes a
-/// raw temperature channel) when `tables` is given. The serial is `serial` if given, else the file's `unit`,
-/// else empty; the calibration time is the file's `created_unix_s`.
+/// Builds the image of a calibration file: the f32 calibration, the raw temperature channel's description
+/// when the file has one (section *sensor*, for either path), and the fixed section of its fixed-point
+/// tables ([`CalFile::fixed_tables`] with `tables`, a temperature-sensor table included when the file
+/// describes a raw temperature channel) when `tables` is given. A residual table of zeros (a fit that chose
+/// no residual, a front end without a bend left for it) is stored empty: the fixed path reads an empty table
+/// as zero everywhere, bit for bit as the zeros. The serial is `serial` if given, else the file's `unit`,
+/// else empty; the calibration time is the file's `created_unix_s`. The image is read back before it is
+/// returned, and its sensor description must be the file's ([`ImageFileError::SensorDisagrees`]).
 pub fn build_image_with(
     file: &CalFile,
     serial: Option<&str>,
@@ -130,18 +140,57 @@ pub fn build_image_with(
 ) -> Result<Vec<u8>, ImageFileError> {
     let serial = serial.or(file.unit.as_deref()).unwrap_or("");
     let info = ImageInfo { serial, calibrated_at: file.created_unix_s, sequence };
-    let fixed = tables.map(|o| file.fixed_tables(o)).transpose().map_err(ImageFileError::Tables)?;
+    let mut fixed = tables.map(|o| file.fixed_tables(o)).transpose().map_err(ImageFileError::Tables)?;
+    if let Some(t) = fixed.as_mut() {
+        if t.residual.iter().all(|&r| r == 0) {
+            t.residual.clear();
+        }
+    }
     let view = fixed.as_ref().map(FixedTables::view);
-    let cal = &file.calibration;
+    let contents = image::Contents {
+        calibration: &file.calibration,
+        sensor: file.temperature_sensor.as_ref(),
+        fixed: view.as_ref(),
+        extra: &[],
+    };
     let write_err = |e| match e {
         image::WriteError::BadSerial => ImageFileError::Serial { serial: serial.to_string() },
         other => ImageFileError::Write(other),
     };
-    let len = image::encoded_len_with_fixed(cal, view.as_ref(), &[]).map_err(write_err)?;
+    let len = image::encoded_len_of(&contents).map_err(write_err)?;
     let mut buf = vec![0u8; len];
-    let n = image::write_with_fixed(&mut buf, &info, cal, view.as_ref(), &[]).map_err(write_err)?;
+    let n = image::write_contents(&mut buf, &info, &contents).map_err(write_err)?;
     buf.truncate(n);
+    check_sensor(file, &buf)?;
     Ok(buf)
+}
+
+/// The image's sensor description (section *sensor*) and its fixed section's sensor table agree with the
+/// calibration file's temperature channel: the same description bit for bit, and a table exactly when the
+/// file describes a raw channel.
+pub fn check_sensor(file: &CalFile, bytes: &[u8]) -> Result<(), ImageFileError> {
+    let img = Image::parse(bytes)
+        .map_err(|e| ImageFileError::SensorDisagrees { what: format!("the image is refused: {e}") })?;
+    let want = file.temperature_sensor;
+    if img.sensor() != want {
+        let say = |s: Option<logtrim::TemperatureSensor>| s.map_or("none".to_string(), |s| format!("{s:?}"));
+        return Err(ImageFileError::SensorDisagrees {
+            what: format!(
+                "the image's sensor section is {}, the file's sensor {}",
+                say(img.sensor()),
+                say(want)
+            ),
+        });
+    }
+    if let Some(sec) = img.fixed() {
+        if sec.sensor().is_some() != want.is_some() {
+            let (has, file_has) = if want.is_some() { ("no", "a raw") } else { ("a", "no raw") };
+            return Err(ImageFileError::SensorDisagrees {
+                what: format!("the fixed section has {has} sensor table, the file describes {file_has} temperature channel"),
+            });
+        }
+    }
+    Ok(())
 }
 
 /// A storage large enough for any fixed section (a section payload holds at most 65 532 bytes), so that
@@ -372,6 +421,7 @@ fn section_name(kind: u16) -> &'static str {
         layout::ranges::KIND => "ranges",
         layout::model_f32::KIND => "model_f32",
         layout::fixed::KIND => "fixed (fixed-point tables)",
+        layout::sensor::KIND => "sensor (temperature channel)",
         k if k & layout::section::OPTIONAL_BIT != 0 => "optional (not known to this build)",
         _ => "unknown",
     }
@@ -455,8 +505,44 @@ pub fn describe(img: &Image<'_>) -> String {
         let row = &r.coeffs[i * logtrim::calibration::MAX_RESIDUAL..][..usize::from(r.nt)];
         let _ = writeln!(s, "    r[{i}]     [{}]", list(row));
     }
+    describe_sensor(&mut s, img.sensor());
     describe_fixed(&mut s, img);
     s
+}
+
+/// The sensor section's part of [`describe`].
+fn describe_sensor(s: &mut String, sensor: Option<logtrim::TemperatureSensor>) {
+    use logtrim::sensor::SensorElement;
+    let Some(t) = sensor else {
+        let _ = writeln!(s, "temperature sensor: none in the image (temperatures arrive in °C)");
+        return;
+    };
+    let element = match t.element {
+        SensorElement::NtcBeta(b) => {
+            format!("NTC (Beta) R0 {} Ω at {} °C, β {} K", num(b.r0_ohm), num(b.t0_c), num(b.beta_k))
+        }
+        SensorElement::NtcSteinhartHart(sh) => {
+            format!("NTC (Steinhart–Hart) A {}, B {}, C {}", num(sh.a), num(sh.b), num(sh.c))
+        }
+        SensorElement::Rtd(r) => format!("platinum RTD R0 {} Ω", num(r.r0_ohm)),
+    };
+    let d = &t.divider;
+    let placement = match d.placement {
+        logtrim::Placement::LowSide => "to ground",
+        logtrim::Placement::HighSide => "to supply",
+    };
+    let _ = writeln!(s, "temperature sensor (for either path)");
+    let _ = writeln!(s, "  element    {element}, {placement}");
+    let _ = writeln!(
+        s,
+        "  divider    series {} Ω, {} bits, full scale {}, open margin {}, short margin {}",
+        num(d.series_ohm),
+        d.bits,
+        codes(d.full_scale_code),
+        codes(d.open_margin),
+        codes(d.short_margin)
+    );
+    let _ = writeln!(s, "  range      {} to {} °C", num(t.min_c), num(t.max_c));
 }
 
 /// A count of codes in words: "1 code", "8 codes".
@@ -596,6 +682,7 @@ pub fn describe_json(img: &Image<'_>) -> serde_json::Value {
             "name": section_name(s.kind),
         })).collect::<Vec<_>>(),
         "calibration": img.calibration(),
+        "temperature_sensor": img.sensor(),
         "fixed": fixed_json(img),
     })
 }

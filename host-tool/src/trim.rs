@@ -9,7 +9,7 @@
 //! the two must agree within 2^-10, and both must lie within the limits.
 //!
 //! The standards file is a readings CSV (`code`, `temp_c` or `temp_code`) with a `ratio` column: the
-//! standard's known ratio. Rows with the same ratio are readings of the same standard; one distinct ratio
+//! standard's known ratio (or an `absorbance` column, A = −log10 ratio, as filters are certified). Rows with the same ratio are readings of the same standard; one distinct ratio
 //! gives a one-point trim (offset), two a two-point trim (offset and gain).
 
 use logtrim::field::{self, FixedStandard, RecordInfo, Standard, Trim, TrimLimits, TrimParts};
@@ -75,7 +75,7 @@ pub struct TrimOutcome {
 #[non_exhaustive]
 pub enum TrimError {
     /// The standards file has no `ratio` column.
-    #[error("{path}: no ratio column: each reading of a standard needs the standard's known ratio")]
+    #[error("{path}: no ratio column: each reading of a standard needs the standard's known ratio (or its absorbance, for filters certified in absorbance)")]
     NoRatio {
         /// The file.
         path: String,

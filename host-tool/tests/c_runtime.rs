@@ -110,8 +110,31 @@ fn digest(c: &FixedCalibration<'_>, identity: u32) -> u64 {
 }
 
 fn info_text(img: &Image<'_>) -> String {
+    let sensor = img.sensor().map_or(String::new(), |s| {
+        use logtrim::sensor::SensorElement as E;
+        let (element, c) = match s.element {
+            E::NtcBeta(b) => (0, [b.r0_ohm, b.t0_c, b.beta_k]),
+            E::NtcSteinhartHart(sh) => (1, [sh.a, sh.b, sh.c]),
+            E::Rtd(r) => (2, [r.r0_ohm, 0.0, 0.0]),
+        };
+        let d = &s.divider;
+        let placement = u8::from(d.placement == logtrim::Placement::HighSide);
+        format!(
+            " sensor {element} {placement} {} {:08x} {:08x} {:08x} {:08x} {} {} {} {:08x} {:08x}",
+            d.bits,
+            c[0].to_bits(),
+            c[1].to_bits(),
+            c[2].to_bits(),
+            d.series_ohm.to_bits(),
+            d.full_scale_code,
+            d.open_margin,
+            d.short_margin,
+            s.min_c.to_bits(),
+            s.max_c.to_bits()
+        )
+    });
     format!(
-        " {} {} [{}] {:08x} {:08x} {}",
+        " {} {} [{}] {:08x} {:08x} {}{sensor}",
         img.sequence(),
         img.calibrated_at(),
         img.serial(),
@@ -735,7 +758,7 @@ int main(void) {
     int s;
     printf("%s %d.%d.%d %u %u %u %s\n", LTRM_VERSION_STRING, LTRM_VERSION_MAJOR, LTRM_VERSION_MINOR,
            LTRM_VERSION_PATCH, LTRM_IMAGE_VERSION, LTRM_TRIM_VERSION, LTRM_LAYOUT_VERSION, LTRM_MAGIC_IMAGE);
-    for (s = 0; s <= (int)LTRM_NO_VALID_RECORD + 1; s++) printf("%s\n", ltrm_status_text((ltrm_status)s));
+    for (s = 0; s <= (int)LTRM_BAD_SENSOR + 1; s++) printf("%s\n", ltrm_status_text((ltrm_status)s));
     return 0;
 }
 "#,

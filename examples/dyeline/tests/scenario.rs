@@ -125,7 +125,7 @@ fn the_committed_image_inspects_clean_and_is_the_calibration_files() {
     let read = image_file::read_file(&crate_dir().join("calibration/QM-DL2-0117.bin")).unwrap();
     assert_eq!(read.bytes, EEPROM);
     let img = boot::load(EEPROM).unwrap();
-    assert!(image_file::describe(&img).starts_with("image        version 2, 268 bytes, CRC-32 "));
+    assert!(image_file::describe(&img).starts_with("image        version 3, 268 bytes, CRC-32 "));
     assert_eq!(img.serial(), "QM-DL2-0117");
     assert_eq!(img.sequence(), 1);
     assert_eq!(img.calibrated_at(), file.created_unix_s);

@@ -253,7 +253,8 @@ pub struct FixedCalibration<'a> {
     pub ln_bias: &'a [i32],
     /// u_min(T), `t_knots + 2` control points, or empty without [`FixedHeader::sensitivity_limit`].
     pub u_min: &'a [i32],
-    /// r(x̃, T): `(t_knots + 2)` rows of `(xa_knots + 2)` control points, row-major (row = temperature).
+    /// r(x̃, T): `(t_knots + 2)` rows of `(xa_knots + 2)` control points, row-major (row = temperature), or
+    /// empty for a residual of zero everywhere (the same corrections as a table of zeros, bit for bit).
     pub residual: &'a [i16],
     /// The temperature channel, when it is a raw sensor read by ADC.
     pub sensor: Option<SensorTable<'a>>,
@@ -755,6 +756,11 @@ impl<'a> FixedCalibration<'a> {
             if stride > 0xffff || row > 0xffff || col as u32 >= stride {
                 return None;
             }
+            // An empty table is a residual of zero everywhere: the same values, and the same refusals, as a
+            // full table of zeros.
+            if self.residual.is_empty() {
+                return (row < u32::from(self.header.t_knots) + 2).then_some(0);
+            }
             self.residual.get((row * stride + col as u32) as usize).copied()
         };
         match (at(0), at(1), at(2), at(3)) {
@@ -899,7 +905,7 @@ impl<'a> FixedCalibration<'a> {
             && self.inv_slope.len() == nt + 2
             && (!h.bias_bend || self.ln_bias.len() == nt + 2)
             && (!h.sensitivity_limit || self.u_min.len() == nt + 2)
-            && Some(self.residual.len()) == (nt + 2).checked_mul(nxa + 2);
+            && (self.residual.is_empty() || Some(self.residual.len()) == (nt + 2).checked_mul(nxa + 2));
         if !(scales_ok && lens_ok) {
             return bad(D::Coefficient);
         }

@@ -58,6 +58,9 @@ pub enum ImageValueError {
     /// The fixed-point tables fail
     /// [`FixedCalibration::validate`](crate::fixed::FixedCalibration::validate).
     Fixed(Error),
+    /// The temperature sensor's description (section `0x8004`) fails
+    /// [`TemperatureSensor::validate`](crate::sensor::TemperatureSensor::validate).
+    Sensor(Error),
 }
 
 /// Why bytes were refused as a calibration image. Every defect has its own variant; the checks run in the
@@ -204,6 +207,7 @@ impl fmt::Display for ImageValueError {
                 "fixed section was built from calibration {stored:#010x}, not from this image's ({found:#010x})"
             ),
             ImageValueError::Fixed(e) => write!(f, "fixed-point tables do not validate: {e}"),
+            ImageValueError::Sensor(e) => write!(f, "temperature sensor's description does not validate: {e}"),
         }
     }
 }

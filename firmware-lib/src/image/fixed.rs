@@ -62,7 +62,8 @@ fn fault_of(code: u8) -> Option<SensorFault> {
 }
 
 /// The sizes the dimensions call for: the rule of [`FixedCalibration::validate`], made exact (a table that
-/// is not used is empty; a sensor table has exactly [`SensorTable::knots_needed`] control points).
+/// is not used is empty; a sensor table has exactly [`SensorTable::knots_needed`] control points). The
+/// residual's is its full grid; [`check_sizes`] also accepts it empty.
 fn expected_sizes(h: &FixedHeader, sensor: Option<&SensorTable<'_>>) -> Sizes {
     let nt = u32::from(h.t_knots) + 2;
     let nx = u32::from(h.xa_knots) + 2;
@@ -83,15 +84,16 @@ fn expected_sizes(h: &FixedHeader, sensor: Option<&SensorTable<'_>>) -> Sizes {
     e
 }
 
-/// Each table's size against its dimensions; the first that differs is the error.
+/// Each table's size against its dimensions; the first that differs is the error. The residual table may
+/// also be empty (a residual of zero everywhere).
 fn check_sizes(
     h: &FixedHeader,
     sensor: Option<&SensorTable<'_>>,
     found: &Sizes,
 ) -> Result<(), ImageValueError> {
     let expected = expected_sizes(h, sensor);
-    for ((t, &found), &expected) in lf::TABLES.iter().zip(found).zip(&expected) {
-        if found != expected {
+    for (i, ((t, &found), &expected)) in lf::TABLES.iter().zip(found).zip(&expected).enumerate() {
+        if found != expected && !(i == RESIDUAL && found == 0) {
             return Err(ImageValueError::FixedTableSize { table: t.name, found, expected });
         }
     }

@@ -64,12 +64,12 @@ pub mod header {
     /// The four bytes every image starts with.
     pub const MAGIC_VALUE: [u8; 4] = RecordType::CalibrationImage.magic();
     /// The format version this build writes and reads.
-    pub const VERSION_VALUE: u16 = 2;
+    pub const VERSION_VALUE: u16 = 3;
 
     /// Magic.
     pub const MAGIC: Field = magic_field("`LTCI` (0x4C 0x54 0x43 0x49)");
     /// Format version.
-    pub const VERSION: Field = version_field("format version, 2");
+    pub const VERSION: Field = version_field("format version, 3");
     /// Number of sections in the body.
     pub const SECTION_COUNT: Field =
         VERSION.then("section_count", Kind::U16, "number of sections that follow");
@@ -240,6 +240,85 @@ pub mod model_f32 {
     ];
 }
 
+/// Section `0x8004`: the temperature channel's description ([`TemperatureSensor`]: the element, the
+/// divider and ADC that read it, the range it reports), for either path: an f32 firmware linearises its raw
+/// temperature channel with it ([`Image::celsius`](super::Image::celsius)). Present when the unit reads a
+/// raw temperature channel, absent when its temperature arrives in °C. Optional: a reader that does not know
+/// it skips it; [`Image::parse`](super::Image::parse) checks it with [`TemperatureSensor::validate`].
+///
+/// [`TemperatureSensor`]: crate::sensor::TemperatureSensor
+/// [`TemperatureSensor::validate`]: crate::sensor::TemperatureSensor::validate
+pub mod sensor {
+    use super::{Field, Kind};
+
+    /// Section type.
+    pub const KIND: u16 = 0x8004;
+
+    /// The element's model.
+    pub const ELEMENT: Field = Field::first(
+        "element",
+        Kind::U8,
+        "0 NTC by the Beta model, 1 NTC by Steinhart–Hart, 2 platinum RTD by Callendar–Van Dusen",
+    );
+    /// Where the element sits in the divider.
+    pub const PLACEMENT: Field = ELEMENT.then(
+        "placement",
+        Kind::U8,
+        "0 element to ground (low side), 1 element to supply (high side)",
+    );
+    /// ADC resolution of the temperature channel.
+    pub const BITS: Field = PLACEMENT.then("bits", Kind::U8, "ADC resolution of the channel, 1..=24 bits");
+    /// Padding.
+    pub const RESERVED: Field = BITS.then("reserved", Kind::Reserved(1), "zero");
+    /// The element's first coefficient.
+    pub const COEFF_A: Field =
+        RESERVED.then("coeff_a", Kind::F32, "Beta: R₀ in Ω; Steinhart–Hart: A in 1/K; RTD: R₀ in Ω");
+    /// The element's second coefficient.
+    pub const COEFF_B: Field =
+        COEFF_A.then("coeff_b", Kind::F32, "Beta: T₀ in °C; Steinhart–Hart: B; RTD: zero");
+    /// The element's third coefficient.
+    pub const COEFF_C: Field =
+        COEFF_B.then("coeff_c", Kind::F32, "Beta: β in K; Steinhart–Hart: C; RTD: zero");
+    /// Series resistor.
+    pub const SERIES_OHM: Field = COEFF_C.then("series_ohm", Kind::F32, "the divider's series resistor, Ω");
+    /// Full-scale code.
+    pub const FULL_SCALE_CODE: Field = SERIES_OHM.then(
+        "full_scale_code",
+        Kind::U32,
+        "code equivalent of the divider's supply (2^bits when the ADC reference is the supply)",
+    );
+    /// Open-circuit band.
+    pub const OPEN_MARGIN: Field =
+        FULL_SCALE_CODE.then("open_margin", Kind::U32, "codes this close to the open-circuit rail read open");
+    /// Short-circuit band.
+    pub const SHORT_MARGIN: Field =
+        OPEN_MARGIN.then("short_margin", Kind::U32, "codes this close to the short-circuit rail read short");
+    /// Lowest reported temperature.
+    pub const MIN_C: Field =
+        SHORT_MARGIN.then("min_c", Kind::F32, "lowest temperature the channel reports, °C");
+    /// Highest reported temperature.
+    pub const MAX_C: Field = MIN_C.then("max_c", Kind::F32, "highest temperature the channel reports, °C");
+
+    /// Payload length.
+    pub const LEN: usize = MAX_C.end();
+    /// The fields in order.
+    pub const FIELDS: &[Field] = &[
+        ELEMENT,
+        PLACEMENT,
+        BITS,
+        RESERVED,
+        COEFF_A,
+        COEFF_B,
+        COEFF_C,
+        SERIES_OHM,
+        FULL_SCALE_CODE,
+        OPEN_MARGIN,
+        SHORT_MARGIN,
+        MIN_C,
+        MAX_C,
+    ];
+}
+
 /// Section `0x8003`: the integer fixed-point form of the calibration ([`FixedCalibration`]): the
 /// [`FixedHeader`] scalars, the table sizes, the temperature sensor's description, then the tables. Optional:
 /// a reader that corrects in f32 may ignore it; [`Image::parse`](super::Image::parse) checks its structure
@@ -333,8 +412,11 @@ pub mod fixed {
         "entries of `u_min`: t_knots + 2 with the sensitivity limit, else 0",
     );
     /// Residual table length.
-    pub const RESIDUAL_LEN: Field =
-        U_MIN_LEN.then("residual_len", Kind::U16, "entries of `residual`: (t_knots + 2)·(xa_knots + 2)");
+    pub const RESIDUAL_LEN: Field = U_MIN_LEN.then(
+        "residual_len",
+        Kind::U16,
+        "entries of `residual`: (t_knots + 2)·(xa_knots + 2), or 0 for a residual of zero everywhere",
+    );
     /// Sensor table length.
     pub const SENSOR_KNOTS_LEN: Field = RESIDUAL_LEN.then(
         "sensor_knots_len",
@@ -482,6 +564,8 @@ pub mod trailer {
 pub const MIN_LEN: usize = header::LEN + trailer::LEN;
 /// The largest image this build accepts or writes (a generous flash page budget).
 pub const MAX_LEN: usize = 65536;
+/// Bytes the temperature-sensor section adds to an image (its header and payload).
+pub const SENSOR_SECTION_LEN: usize = section::HEADER_LEN + sensor::LEN;
 /// Total length of an image that holds the two required sections and nothing else.
 pub const F32_IMAGE_LEN: usize =
     header::LEN + section::HEADER_LEN + ranges::LEN + section::HEADER_LEN + model_f32::LEN + trailer::LEN;
@@ -493,6 +577,7 @@ const _: () = assert!(ranges::LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(model_f32::LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(MAX_LEN.is_multiple_of(section::ALIGN));
 const _: () = assert!(fixed::HEAD_LEN.is_multiple_of(section::ALIGN));
+const _: () = assert!(sensor::LEN.is_multiple_of(section::ALIGN));
 
 /// One part of the layout, for the table in the docs and the tests that check the layout.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -514,6 +599,7 @@ pub const PARTS: &[Part] = &[
     Part { name: "section header", kind: None, fields: section::FIELDS, tables: &[] },
     Part { name: "ranges", kind: Some(ranges::KIND), fields: ranges::FIELDS, tables: &[] },
     Part { name: "model_f32", kind: Some(model_f32::KIND), fields: model_f32::FIELDS, tables: &[] },
+    Part { name: "sensor", kind: Some(sensor::KIND), fields: sensor::FIELDS, tables: &[] },
     Part { name: "fixed", kind: Some(fixed::KIND), fields: fixed::FIELDS, tables: fixed::TABLES },
     Part { name: "trailer", kind: None, fields: trailer::FIELDS, tables: &[] },
 ];

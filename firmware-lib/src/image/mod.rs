@@ -8,7 +8,7 @@
 //! reading and writing of its fields and the A/B slot rule are [`crate::record`]'s; its layout, its
 //! sections and its value checks are this module's.
 //!
-//! # Format (version 1)
+//! # Format (version 3)
 //!
 //! Little-endian throughout; `f32` values are IEEE 754 binary32 bit patterns, stored bit-exact.
 //!
@@ -20,28 +20,37 @@
 //! * The **header** carries the magic `LTCI`, the format version, the number of sections, the total length,
 //!   a sequence counter for the two-slot layout, the calibration time (u64 Unix seconds, UTC) and the unit
 //!   serial (16 bytes of printable ASCII, NUL-padded).
-//! * The **body** is a sequence of typed sections. Version 1 defines two required ones, each exactly once,
-//!   in any order: `0x0001` *ranges* (the calibrated ADC, temperature and x ranges) and `0x0002` *model_f32*
-//!   (the f32 model: every field of [`Calibration`] not in *ranges*, including unused coefficients, so an
-//!   image round-trips a calibration bit for bit). One more is defined and optional: `0x8003` *fixed*, the
+//! * The **body** is a sequence of typed sections. Two are required, each exactly once, in any order:
+//!   `0x0001` *ranges* (the calibrated ADC, temperature and x ranges) and `0x0002` *model_f32* (the f32
+//!   model: every field of [`Calibration`] not in *ranges*, including unused coefficients, so an image
+//!   round-trips a calibration bit for bit). Two more are defined and optional: `0x8004` *sensor*, the raw
+//!   temperature channel's description ([`TemperatureSensor`], for either path: [`Image::sensor`],
+//!   [`Image::celsius`]), present when the unit reads a raw temperature channel; and `0x8003` *fixed*, the
 //!   integer fixed-point form of the same calibration ([`FixedCalibration`](crate::fixed::FixedCalibration):
-//!   its header's scalars, the size of every table, the temperature sensor's description, then the
-//!   tables), for cores without an FPU (see [`FixedSection`] for how it is checked and loaded without
-//!   allocation).
+//!   its header's scalars, the size of every table, the temperature sensor's table, then the tables), for
+//!   cores without an FPU (see [`FixedSection`] for how it is checked and loaded without allocation). Its
+//!   residual table may be empty: the residual is then zero everywhere (a unit whose fit chose no residual
+//!   and whose front end has no bend left for it).
 //! * A section type with bit 15 set is **optional**: a reader that does not know it skips it (it is still
 //!   covered by the CRC). A type with bit 15 clear is **critical**: a reader that does not know it refuses
-//!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8004`–`0x80ff` are reserved
+//!   the image ([`ImageError::UnknownSection`]). Types `0x0003`–`0x00ff` and `0x8005`–`0x80ff` are reserved
 //!   for this project.
 //! * The **trailer** is the CRC-32/ISO-HDLC of every byte before it ([`crate::record::crc32`]).
 //!
-//! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes; with the fixed
-//! section of tables with 16 temperature knots and 40 x̃ knots it is 2 024 bytes, 2 168 with
-//! the bias bend and the sensitivity limit, and 524 bytes more with a 128-segment temperature-sensor table.
+//! Versions are exact: a reader refuses an image of another version by name
+//! ([`FormatError::UnsupportedVersion`](crate::record::FormatError::UnsupportedVersion)). Version 2 had no
+//! *sensor* section and no empty residual table; version 1 did not bind the fixed section to its model.
+//!
+//! An image of the two required sections only is [`layout::F32_IMAGE_LEN`] = 268 bytes, 44 bytes more with
+//! the sensor section ([`layout::SENSOR_SECTION_LEN`]); with the fixed section of tables with 16 temperature
+//! knots and 40 x̃ knots it is 2 024 bytes, 2 168 with the bias bend and the sensitivity limit, and 524 bytes
+//! more with a 128-segment temperature-sensor table.
 //!
 //! The full layout, rendered from the constants in [`layout`] (offsets within each part; in an image written
 //! by [`write`](fn@write) the *ranges* payload starts at byte 44, the *model_f32* payload at byte 80 and the
 //! CRC at byte 264; [`write_with_fixed`] puts the *fixed* section's header at byte 264 and its payload at
-//! byte 268):
+//! byte 268; [`write_contents`] puts the *sensor* section, when there is one, at byte 264, and everything
+//! after it 44 bytes later):
 //!
 #![doc = include_str!("LAYOUT.md")]
 //!
@@ -102,18 +111,22 @@ mod error;
 mod fixed;
 pub mod layout;
 mod parse;
+mod sensor;
 pub mod slots;
 mod write;
 
 pub use error::{ImageError, ImageValueError, WriteError};
 pub use fixed::{DefaultFixedStorage, FixedSection, FixedStorage, I16Values, I32Values};
 pub use write::{
-    encoded_len, encoded_len_with_fixed, write, write_with_fixed, write_with_sections, ImageInfo,
+    encoded_len, encoded_len_of, encoded_len_with_fixed, write, write_contents, write_with_fixed,
+    write_with_sections, Contents, ImageInfo,
 };
 
 use crate::calibration::Calibration;
+use crate::error::Error;
 use crate::fixed::FixedCalibration;
 use crate::record::frame::{array, Extent};
+use crate::sensor::TemperatureSensor;
 
 /// A section of an image: its type and payload.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -136,6 +149,7 @@ pub struct Image<'a> {
     serial: &'a str,
     crc: u32,
     calibration: Calibration,
+    sensor: Option<TemperatureSensor>,
     fixed: Option<FixedSection<'a>>,
 }
 
@@ -156,6 +170,20 @@ impl<'a> Image<'a> {
     /// The unit's calibration.
     pub fn calibration(&self) -> Calibration {
         self.calibration
+    }
+
+    /// The raw temperature channel's description (section `0x8004`, checked with
+    /// [`TemperatureSensor::validate`]), if the unit reads one; `None` when its temperature arrives in °C.
+    pub fn sensor(&self) -> Option<TemperatureSensor> {
+        self.sensor
+    }
+
+    /// The temperature in °C at a code of the raw temperature channel, by the image's own sensor
+    /// description ([`TemperatureSensor::celsius`], f32): what an f32 firmware passes to the correction.
+    /// [`Error::NotCalibrated`] when the image carries no sensor description, [`Error::Sensor`] for a code in
+    /// a fault band or outside the channel's range.
+    pub fn celsius(&self, temp_code: u32) -> Result<f32, Error> {
+        self.sensor.as_ref().ok_or(Error::NotCalibrated)?.celsius(temp_code)
     }
 
     /// The fixed section, if the image has one (structurally checked; see [`FixedSection`]).
@@ -263,11 +291,14 @@ const _: () = {
     is_format::<Section<'static>>();
     is_format::<Sections<'static>>();
     is_format::<ImageInfo<'static>>();
+    is_format::<Contents<'static>>();
     is_format::<ImageError>();
     is_format::<ImageValueError>();
     is_format::<WriteError>();
     is_format::<slots::ActiveCalibration>();
 };
 
+#[cfg(test)]
+mod format3_tests;
 #[cfg(test)]
 mod tests;

@@ -4,8 +4,8 @@
 
 use core::ops::Deref;
 
-use super::layout::{self, fixed as lf, header, model_f32, ranges, section};
-use super::{fixed, Image, ImageError, ImageValueError};
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section, sensor as ls};
+use super::{fixed, sensor, Image, ImageError, ImageValueError};
 use crate::calibration::{
     AdcScaling, BiasTerm, Calibration, Model, Residual, Series, TemperatureRange, XRange, MAX_RESIDUAL,
     MAX_SERIES,
@@ -14,7 +14,7 @@ use crate::record::frame::{array, len_u32, Extent, Framing, Reader};
 use crate::record::layout::Field;
 use crate::record::RecordType;
 
-/// How an image is framed: `LTCI`, version 2, its total length a u32 at offset 8, from a header and a CRC
+/// How an image is framed: `LTCI`, version 3, its total length a u32 at offset 8, from a header and a CRC
 /// up to [`layout::MAX_LEN`].
 pub(super) const FRAMING: Framing = Framing {
     record: RecordType::CalibrationImage,
@@ -53,6 +53,7 @@ pub(super) fn parse(bytes: &[u8], extent: Extent) -> Result<(Image<'_>, &[u8]), 
     let calibration = decode(&ranges_part, &model_part)?;
     check_values(&calibration)?;
     let model_fingerprint = crate::field::fingerprint_of_payloads(ranges_part.bytes(), model_part.bytes());
+    let sensor = found.sensor.as_ref().map(sensor::decode).transpose()?;
     let fixed =
         found.fixed.as_ref().map(|p| fixed::decode(p, &calibration, model_fingerprint)).transpose()?;
     let image = Image {
@@ -63,6 +64,7 @@ pub(super) fn parse(bytes: &[u8], extent: Extent) -> Result<(Image<'_>, &[u8]), 
         serial,
         crc: framed.crc,
         calibration,
+        sensor,
         fixed,
     };
     Ok((image, framed.rest))
@@ -97,12 +99,13 @@ struct Found<'a> {
     count: u32,
     ranges: Option<Part<'a>>,
     model: Option<Part<'a>>,
+    sensor: Option<Part<'a>>,
     fixed: Option<Part<'a>>,
 }
 
 /// Walks the body's sections: bounds, alignment, known lengths, duplicates, unknown critical types.
 fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
-    let mut found = Found { count: 0, ranges: None, model: None, fixed: None };
+    let mut found = Found { count: 0, ranges: None, model: None, sensor: None, fixed: None };
     let mut rest = body;
     let mut offset = header::LEN;
     while !rest.is_empty() {
@@ -120,6 +123,7 @@ fn walk(body: &[u8]) -> Result<Found<'_>, ImageError> {
         let slot = match kind {
             ranges::KIND => Some((&mut found.ranges, ranges::LEN, true)),
             model_f32::KIND => Some((&mut found.model, model_f32::LEN, true)),
+            ls::KIND => Some((&mut found.sensor, ls::LEN, true)),
             lf::KIND => Some((&mut found.fixed, lf::HEAD_LEN, false)),
             k if k & section::OPTIONAL_BIT != 0 => None,
             k => return Err(ImageError::UnknownSection { kind: k }),

@@ -3,12 +3,13 @@
 //! the parser refuses and never leaves a half-written buffer behind an error.
 
 use super::fixed::{check_for_write, fault_code};
-use super::layout::{self, fixed as lf, header, model_f32, ranges, section};
+use super::layout::{self, fixed as lf, header, model_f32, ranges, section, sensor as ls};
 use super::parse::{check_values, FRAMING};
-use super::{Section, WriteError};
+use super::{sensor, Section, WriteError};
 use crate::calibration::Calibration;
 use crate::fixed::FixedCalibration;
 use crate::record::frame::{self, len_u32, Writer};
+use crate::sensor::TemperatureSensor;
 
 /// What the header says about the unit, besides its calibration.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -21,6 +22,29 @@ pub struct ImageInfo<'s> {
     /// The write counter: of two valid slots, the one with the higher counter is used
     /// (see [`slots`](super::slots)).
     pub sequence: u32,
+}
+
+/// Everything an image carries besides its header: the calibration (the two required sections), the
+/// temperature channel's description, the fixed-point tables and extra optional sections.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Contents<'c> {
+    /// The f32 calibration (sections *ranges* and *model_f32*).
+    pub calibration: &'c Calibration,
+    /// The raw temperature channel's description (section *sensor*), for a unit that reads one.
+    pub sensor: Option<&'c TemperatureSensor>,
+    /// The fixed-point tables (section *fixed*), for cores without an FPU.
+    pub fixed: Option<&'c FixedCalibration<'c>>,
+    /// Further optional sections (bit 15 set, not a type the writer produces itself, payloads a multiple
+    /// of 4 bytes).
+    pub extra: &'c [Section<'c>],
+}
+
+impl<'c> Contents<'c> {
+    /// An image of the calibration alone.
+    pub fn of(calibration: &'c Calibration) -> Self {
+        Contents { calibration, sensor: None, fixed: None, extra: &[] }
+    }
 }
 
 /// The length of an image holding the required sections and `extra`, or why it cannot be written.
@@ -36,13 +60,19 @@ pub fn encoded_len_with_fixed(
     fixed: Option<&FixedCalibration<'_>>,
     extra: &[Section<'_>],
 ) -> Result<usize, WriteError> {
-    let base = match fixed {
-        None => layout::F32_IMAGE_LEN,
-        Some(f) => {
-            (layout::F32_IMAGE_LEN + section::HEADER_LEN).saturating_add(check_for_write(f, calibration)?.0)
-        }
-    };
-    extra_len(base, extra)
+    encoded_len_of(&Contents { calibration, sensor: None, fixed, extra })
+}
+
+/// The length of an image of `contents`, or why it cannot be written.
+pub fn encoded_len_of(contents: &Contents<'_>) -> Result<usize, WriteError> {
+    let mut base = layout::F32_IMAGE_LEN;
+    if contents.sensor.is_some() {
+        base += layout::SENSOR_SECTION_LEN;
+    }
+    if let Some(f) = contents.fixed {
+        base = (base + section::HEADER_LEN).saturating_add(check_for_write(f, contents.calibration)?.0);
+    }
+    extra_len(base, contents.extra)
 }
 
 fn extra_len(base: usize, extra: &[Section<'_>]) -> Result<usize, WriteError> {
@@ -51,6 +81,7 @@ fn extra_len(base: usize, extra: &[Section<'_>]) -> Result<usize, WriteError> {
         let bad = WriteError::BadSection { kind: s.kind };
         if s.kind & section::OPTIONAL_BIT == 0
             || s.kind == lf::KIND
+            || s.kind == ls::KIND
             || !s.payload.len().is_multiple_of(section::ALIGN)
             || s.payload.len() > usize::from(u16::MAX)
         {
@@ -92,13 +123,30 @@ pub fn write_with_fixed(
     fixed: Option<&FixedCalibration<'_>>,
     extra: &[Section<'_>],
 ) -> Result<usize, WriteError> {
+    write_contents(buf, info, &Contents { calibration, sensor: None, fixed, extra })
+}
+
+/// Writes an image of `contents`: the required sections, the sensor section if a sensor is given (checked
+/// with [`TemperatureSensor::validate`]), the fixed section if tables are given (checked as for
+/// [`write_with_fixed`]), then the extra sections. Returns the image's length.
+pub fn write_contents(
+    buf: &mut [u8],
+    info: &ImageInfo<'_>,
+    contents: &Contents<'_>,
+) -> Result<usize, WriteError> {
     let serial = encode_serial(info.serial)?;
-    check_values(calibration)?;
-    let len = encoded_len_with_fixed(calibration, fixed, extra)?;
-    let sections = 2 + usize::from(fixed.is_some()) + extra.len();
+    check_values(contents.calibration)?;
+    if let Some(s) = contents.sensor {
+        sensor::check(s)?;
+    }
+    let len = encoded_len_of(contents)?;
+    let sections = 2
+        + usize::from(contents.sensor.is_some())
+        + usize::from(contents.fixed.is_some())
+        + contents.extra.len();
     let count = u16::try_from(sections).map_err(|_| WriteError::TooLong { len: len_u32(len) })?;
     let head = Head { serial, count, len, info };
-    frame::write(buf, len, |w| fill(w, &head, calibration, fixed, extra))
+    frame::write(buf, len, |w| fill(w, &head, contents))
 }
 
 struct Head<'i> {
@@ -110,13 +158,8 @@ struct Head<'i> {
 
 /// Writes the whole image but its CRC (which [`frame::write`] adds) into a buffer of the length computed
 /// from the same layout.
-fn fill(
-    w: &mut Writer<'_>,
-    h: &Head<'_>,
-    calibration: &Calibration,
-    fixed: Option<&FixedCalibration<'_>>,
-    extra: &[Section<'_>],
-) -> Result<(), WriteError> {
+fn fill(w: &mut Writer<'_>, h: &Head<'_>, contents: &Contents<'_>) -> Result<(), WriteError> {
+    let calibration = contents.calibration;
     FRAMING.put_head(w, h.len)?;
     w.u16(&header::SECTION_COUNT, h.count)?;
     w.u32(&header::SEQUENCE, h.info.sequence)?;
@@ -125,12 +168,15 @@ fn fill(
     let mut at = header::LEN;
     at = put_section(w, at, ranges::KIND, ranges::LEN, |p| put_ranges(p, calibration))?;
     at = put_section(w, at, model_f32::KIND, model_f32::LEN, |p| put_model(p, calibration))?;
-    if let Some(f) = fixed {
+    if let Some(s) = contents.sensor {
+        at = put_section(w, at, ls::KIND, ls::LEN, |p| sensor::put(p, s))?;
+    }
+    if let Some(f) = contents.fixed {
         let (len, _) = check_for_write(f, calibration)?;
         let model = crate::field::fingerprint(calibration)?;
         at = put_section(w, at, lf::KIND, len, |p| put_fixed(p, f, model))?;
     }
-    for s in extra {
+    for s in contents.extra {
         at = put_section(w, at, s.kind, s.payload.len(), |p| Ok(p.put_at(0, s.payload)?))?;
     }
     // The CRC follows the last section.

@@ -9,7 +9,7 @@ use std::vec::Vec;
 use std::{format, vec};
 
 use crate::field::layout as fl;
-use crate::image::layout::{self as il, fixed as lf, header, model_f32, ranges, section, trailer};
+use crate::image::layout::{self as il, fixed as lf, header, model_f32, ranges, section, sensor, trailer};
 use crate::record::layout::{Field, ALIGN, TRAILER_LEN};
 
 // -------------------------------------------------------------------------------------------------------
@@ -82,6 +82,7 @@ fn the_image_layout_table_states_the_constants() {
         ("section header", section::HEADER_LEN),
         ("ranges", ranges::LEN),
         ("model_f32", model_f32::LEN),
+        ("sensor", sensor::LEN),
         ("fixed", lf::HEAD_LEN),
         ("trailer", trailer::LEN),
     ];
@@ -236,6 +237,9 @@ fn claims() -> Vec<Claim> {
         claim("image/mod.rs", "CRC at byte {}", crc_at),
         claim("image/mod.rs", "section's header at byte {}", crc_at),
         claim("image/mod.rs", "its payload at byte {}", crc_at + section::HEADER_LEN),
+        claim("image/mod.rs", "{} bytes more with the sensor section", il::SENSOR_SECTION_LEN),
+        claim("image/mod.rs", "the *sensor* section, when there is one, at byte {}", crc_at),
+        claim("image/mod.rs", "everything after it {} bytes later", il::SENSOR_SECTION_LEN),
         claim("image/mod.rs", "are {}-byte multiples", ALIGN),
         claim("image/error.rs", "longer than {} bytes", header::SERIAL.size()),
         claim("image/error.rs", "a multiple of {} bytes", ALIGN),

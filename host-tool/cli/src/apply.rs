@@ -4,7 +4,7 @@ use std::path::{Path, PathBuf};
 
 use clap::{Args, ValueEnum};
 use logtrim::field::Layers;
-use logtrim_host::apply::{write_results, ApplySummary, ResultsWriter};
+use logtrim_host::apply::{ApplySummary, ResultsWriter};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::correct::{
     correct_rows_fixed_layered, correct_rows_layered, read_unit_readings, sensor_converter, Arithmetic,
@@ -22,8 +22,8 @@ pub enum PathArg {
     F32,
     /// f32 with micromath's fast approximations.
     F32Micromath,
-    /// The integer fixed-point path (parts without an FPU), from the tables `logtrim emit` would write
-    /// with its default sizes.
+    /// The integer fixed-point path (parts without an FPU), from the tables `logtrim emit` and `logtrim
+    /// image` write with the same table sizes (--t-knots, --xa-knots, --sensor-segments).
     Fixed,
 }
 
@@ -59,6 +59,23 @@ pub struct ApplyArgs {
     /// Only the rows of this unit (readings with a unit column), corrected with the calibration given.
     #[arg(long, value_name = "SERIAL")]
     unit: Option<String>,
+    /// Table sizes of the fixed path (with --path fixed only), as for `emit` and `image`.
+    #[command(flatten)]
+    tables: crate::emit::TableArgs,
+}
+
+impl ApplyArgs {
+    /// The fixed path's table options; sizes other than the defaults with another path are refused, since
+    /// they would change nothing.
+    fn table_options(&self) -> Result<logtrim_host::tables::TableOptions, Failure> {
+        let options = self.tables.options();
+        if self.path != PathArg::Fixed && options != logtrim_host::tables::TableOptions::default() {
+            return Err(Failure::input(
+                "--t-knots, --xa-knots and --sensor-segments size the fixed path's tables: they need --path fixed",
+            ));
+        }
+        Ok(options)
+    }
 }
 
 /// The calibration file of `serial` in the folder `dir` (SERIAL.json as a batch writes it), checked to be
@@ -83,29 +100,36 @@ fn unit_calibration(dir: &std::path::Path, serial: &str) -> Result<CalFile, Fail
     Ok(file)
 }
 
+/// Rows corrected: each row's result and the temperature its firmware read (°C, for a raw channel).
+type Corrected = (Vec<Result<logtrim_host::correct::RowValue, logtrim::Error>>, Vec<Option<f64>>);
+
 /// Corrects `readings` with one calibration file and its layers, on the chosen path.
 fn correct_with(
     args: &ApplyArgs,
     file: &CalFile,
     readings: &logtrim_host::data::Readings,
     source: &std::path::Path,
-) -> Result<(Vec<Result<logtrim_host::correct::RowValue, logtrim::Error>>, logtrim::field::Layers), Failure> {
+) -> Result<(Corrected, logtrim::field::Layers), Failure> {
     let cal = file.calibration;
     let limits = args.limits.limits()?;
     let layers = layers_from_files(&cal, args.trim.as_deref(), args.blank.as_deref(), &limits)
         .map_err(crate::trim::layer_failure)?;
     warn_unbound(&layers);
-    let results = match args.path {
-        PathArg::F32 => correct_rows_layered(&cal, readings, Arithmetic::F32, &layers),
-        PathArg::F32Micromath => correct_rows_layered(&cal, readings, Arithmetic::F32Micromath, &layers),
+    let f32_temps = || readings.rows.iter().map(|r| r.temp_c.as_ref().ok().copied()).collect();
+    let corrected = match args.path {
+        PathArg::F32 => (correct_rows_layered(&cal, readings, Arithmetic::F32, &layers), f32_temps()),
+        PathArg::F32Micromath => {
+            (correct_rows_layered(&cal, readings, Arithmetic::F32Micromath, &layers), f32_temps())
+        }
         PathArg::Fixed => {
             let tables = file
-                .fixed_tables(&logtrim_host::tables::TableOptions::default())
+                .fixed_tables(&args.table_options()?)
                 .map_err(|e| Failure::input(format!("{}: {e}", source.display())))?;
-            correct_rows_fixed_layered(&tables.view(), readings, &layers)
+            let temps = logtrim_host::correct::fixed_temperatures(&tables.view(), readings);
+            (correct_rows_fixed_layered(&tables.view(), readings, &layers), temps)
         }
     };
-    Ok((results, layers))
+    Ok((corrected, layers))
 }
 
 /// Runs the verb. A readings file of one unit streams through in chunks; readings with a unit column, or a
@@ -116,6 +140,7 @@ pub fn run(args: ApplyArgs) -> Result<(), Failure> {
         &[Some(&args.output)],
         &[],
     )?;
+    args.table_options()?;
     if matches!(args.path, PathArg::F32Micromath) {
         note!("warning: {}", logtrim_host::correct::MICROMATH_WARNING);
     }
@@ -175,7 +200,7 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
     for e in &readings.skipped {
         note!("skipped: {e}");
     }
-    let (readings, results, layers) = if readings.units.is_empty() {
+    let (readings, results, temps, layers) = if readings.units.is_empty() {
         if folder {
             return Err(Failure::input(format!(
                 "{} is a folder of calibrations: the readings {} need a unit column naming each row's unit",
@@ -183,8 +208,8 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
                 args.readings.display()
             )));
         }
-        let (r, l) = correct_with(args, &first, &readings, &args.coeffs)?;
-        (readings, r, l)
+        let ((r, t), l) = correct_with(args, &first, &readings, &args.coeffs)?;
+        (readings, r, t, l)
     } else if let Some(u) = &args.unit {
         let Some(i) = readings.units.iter().position(|s| s == u) else {
             return Err(Failure::input(format!(
@@ -199,8 +224,8 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
         if left_out > 0 {
             say!("--unit {u}: {left_out} rows of other units left out");
         }
-        let (r, l) = correct_with(args, &file, &sub, &args.coeffs)?;
-        (sub, r, l)
+        let ((r, t), l) = correct_with(args, &file, &sub, &args.coeffs)?;
+        (sub, r, t, l)
     } else if !folder {
         let own = first.unit.clone().unwrap_or_default();
         let others: Vec<&String> = readings.units.iter().filter(|s| **s != own).collect();
@@ -215,11 +240,12 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
                 if own.is_empty() { "an unnamed unit".to_string() } else { format!("unit {own:?}") }
             )));
         }
-        let (r, l) = correct_with(args, &first, &readings, &args.coeffs)?;
-        (readings, r, l)
+        let ((r, t), l) = correct_with(args, &first, &readings, &args.coeffs)?;
+        (readings, r, t, l)
     } else {
         // Each unit's rows with its own calibration, back in file order.
         let mut results = vec![Err(logtrim::Error::NotCalibrated); readings.rows.len()];
+        let mut temps = vec![None; readings.rows.len()];
         let mut layers = logtrim::field::Layers::FACTORY;
         let mut where_: Vec<Vec<usize>> = vec![Vec::new(); readings.units.len()];
         for (k, r) in readings.rows.iter().enumerate() {
@@ -237,10 +263,11 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
                     first.unit.as_deref().unwrap_or("")
                 )));
             }
-            let (r, l) = correct_with(args, &file, &readings.of_unit(i as u32), &args.coeffs)?;
+            let ((r, t), l) = correct_with(args, &file, &readings.of_unit(i as u32), &args.coeffs)?;
             layers = l;
-            for (k, v) in where_[i].iter().zip(r) {
+            for ((k, v), t) in where_[i].iter().zip(r).zip(t) {
                 results[*k] = v;
+                temps[*k] = t;
             }
         }
         say!(
@@ -248,11 +275,16 @@ fn run_by_unit(args: &ApplyArgs) -> Result<(), Failure> {
             readings.units.len(),
             args.coeffs.display()
         );
-        (readings, results, layers)
+        (readings, results, temps, layers)
     };
     let mut out = AtomicFile::create(&args.output)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
-    let summary = write_results(&readings, &results, &mut out).map_err(Failure::input)?;
+    let mut writer =
+        ResultsWriter::new(&readings.headers, &readings.path, &mut out).map_err(Failure::input)?;
+    writer
+        .write_with_temperatures(&readings, &results, &temps, args.path != PathArg::Fixed)
+        .map_err(Failure::input)?;
+    let (summary, _) = writer.finish().map_err(Failure::input)?;
     out.commit().map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;
     report(&layers, &summary, &args.output)?;
     Ok(())
@@ -268,7 +300,7 @@ fn run_streaming(args: &ApplyArgs) -> Result<(), Failure> {
     warn_unbound(&layers);
     let tables = match args.path {
         PathArg::Fixed => Some(
-            file.fixed_tables(&logtrim_host::tables::TableOptions::default())
+            file.fixed_tables(&args.table_options()?)
                 .map_err(|e| Failure::input(format!("{}: {e}", args.coeffs.display())))?,
         ),
         _ => None,
@@ -305,14 +337,22 @@ fn run_streaming(args: &ApplyArgs) -> Result<(), Failure> {
             units: stream.units().to_vec(),
             skipped: Vec::new(),
         };
-        let results = match &tables {
-            None if args.path == PathArg::F32Micromath => {
-                correct_rows_layered(&cal, &chunk, Arithmetic::F32Micromath, &layers)
+        match &tables {
+            None => {
+                let arith = if args.path == PathArg::F32Micromath {
+                    Arithmetic::F32Micromath
+                } else {
+                    Arithmetic::F32
+                };
+                let results = correct_rows_layered(&cal, &chunk, arith, &layers);
+                writer.write(&chunk, &results).map_err(Failure::input)?;
             }
-            None => correct_rows_layered(&cal, &chunk, Arithmetic::F32, &layers),
-            Some(t) => correct_rows_fixed_layered(&t.view(), &chunk, &layers),
-        };
-        writer.write(&chunk, &results).map_err(Failure::input)?;
+            Some(t) => {
+                let results = correct_rows_fixed_layered(&t.view(), &chunk, &layers);
+                let temps = logtrim_host::correct::fixed_temperatures(&t.view(), &chunk);
+                writer.write_with_temperatures(&chunk, &results, &temps, false).map_err(Failure::input)?;
+            }
+        }
     }
     let skipped = stream.finish().map_err(Failure::input)?;
     let (summary, out) = writer.finish().map_err(Failure::input)?;

@@ -88,6 +88,10 @@ pub struct BudgetArgs {
     /// Print the budget as JSON instead of a table.
     #[arg(long)]
     json: bool,
+    /// A column of every size in the unit the product speaks, beside nepers: np, mnp, db10, db20, pct or
+    /// mau (milli-absorbance units). Text table only.
+    #[arg(long, value_name = "UNIT", value_parser = crate::plot::parse_unit, conflicts_with = "json")]
+    error_unit: Option<logtrim_host::error_scale::ErrorScale>,
     /// Write the figures used (file, options and defaults together) to FILE as JSON, to start a design
     /// file from.
     #[arg(long, value_name = "FILE")]
@@ -172,7 +176,7 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
     if args.json {
         say_raw!("{}", budget.to_json());
     } else {
-        say_raw!("{}", budget.render_table());
+        say_raw!("{}", budget.render_table_in(args.error_unit));
     }
     Ok(())
 }

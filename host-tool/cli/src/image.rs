@@ -103,8 +103,17 @@ pub fn run(args: Args) -> Result<(), Failure> {
         Some(sec) => {
             let h = sec.header();
             let sensor = if sec.sensor().is_some() { ", sensor table" } else { "" };
-            format!("fixed-point tables {}×{} knots{sensor}", h.t_knots, h.xa_knots)
+            let residual = if sec.len_of(&logtrim::image::layout::fixed::RESIDUAL) == 0 {
+                ", residual none (zero everywhere)"
+            } else {
+                ""
+            };
+            format!("fixed-point tables {}×{} knots{sensor}{residual}", h.t_knots, h.xa_knots)
         }
+    };
+    let fixed = match img.sensor() {
+        Some(_) => format!("{fixed}; temperature sensor description"),
+        None => fixed,
     };
     say!(
         "{}: {} byte image ({place}; {fixed}), serial {:?}, sequence {}, CRC-32 {:#010x}",

@@ -23,7 +23,9 @@ pub struct SimulateArgs {
     #[arg(long, default_value_t = 1)]
     seed: u64,
     /// Directory to write cal.csv, readings.csv, truth.csv, frontend.json and manifest.json into
-    /// (created if missing).
+    /// (created if missing); for a front end with an `aging` key (a unit drifted since its calibration)
+    /// also standards.csv (readings of two reference standards, for `logtrim trim`) and blank.csv (readings
+    /// of a blank, for `logtrim blank`).
     #[arg(long, value_name = "DIR")]
     out_dir: Option<PathBuf>,
     /// Chamber temperature set-points, evenly spaced over the operating range, ends included.
@@ -42,7 +44,8 @@ pub struct SimulateArgs {
     /// a `unit` column to every CSV file.
     #[arg(long, value_name = "N", default_value_t = 1)]
     units: usize,
-    /// Write the chosen front end's description to FILE as JSON (to start your own from it); with
+    /// Write the chosen front end's description to FILE as JSON (to start your own from it), every key
+    /// included: the optional ones (spread, aging, chamber_faults) as null where the preset has none; with
     /// --out-dir the simulation runs as well.
     #[arg(long, value_name = "FILE")]
     write_preset: Option<PathBuf>,
@@ -123,7 +126,7 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
     )?;
     let fe = with_faults(chosen_frontend(&args)?, &args)?;
     if let Some(path) = &args.write_preset {
-        logtrim_host::output::write_atomic(path, fe.to_json().as_bytes())
+        logtrim_host::output::write_atomic(path, fe.to_json_every_key().as_bytes())
             .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
         say!("wrote {} (front end {:?})", path.display(), fe.name);
     }

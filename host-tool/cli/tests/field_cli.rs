@@ -304,3 +304,55 @@ fn refusals_name_the_problem_and_leave_no_file() {
     assert!(leftovers.is_empty(), "temporary files left: {leftovers:?}");
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+#[test]
+fn standards_may_be_given_in_absorbance_as_certified_filters_are() {
+    let d = scratch("absorbance-standards");
+    let coeffs = aged_unit(&d, 3e-3, 1.008);
+    let by_ratio_file = d.join("sim/standards.csv");
+    // The same standards with their ratio written as an absorbance A = −log10(ratio) (common practice).
+    let text = std::fs::read_to_string(&by_ratio_file).unwrap();
+    let mut lines = text.lines();
+    let head: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let r = head.iter().position(|h| *h == "ratio").unwrap();
+    let mut out_csv =
+        head.iter().map(|h| if *h == "ratio" { "absorbance" } else { h }).collect::<Vec<_>>().join(",");
+    out_csv.push('\n');
+    for l in lines {
+        let mut f: Vec<String> = l.split(',').map(str::to_string).collect();
+        f[r] = format!("{:e}", -f[r].parse::<f64>().unwrap().log10());
+        out_csv.push_str(&f.join(","));
+        out_csv.push('\n');
+    }
+    let absorbance = d.join("standards-au.csv");
+    std::fs::write(&absorbance, out_csv).unwrap();
+    let trim_of = |standards: &Path, name: &str| {
+        let out = d.join(name);
+        let (code, text, err) =
+            logtrim(&["trim", s(&coeffs), s(standards), "-o", s(&out), "--written-at", "1767225600"]);
+        assert_eq!(code, 0, "{text}{err}");
+        logtrim::field::Trim::parse(&std::fs::read(&out).unwrap()).unwrap()
+    };
+    let (by_ratio, by_au) = (trim_of(&by_ratio_file, "t1.bin"), trim_of(&absorbance, "t2.bin"));
+    // The same trim, to the last bits the round trip through log10 can move.
+    assert!(
+        (by_ratio.offset() - by_au.offset()).abs() <= 1e-6,
+        "{} vs {}",
+        by_ratio.offset(),
+        by_au.offset()
+    );
+    assert!((by_ratio.gain() - by_au.gain()).abs() <= 1e-6, "{} vs {}", by_ratio.gain(), by_au.gain());
+    // Both columns at once is ambiguous, and refused by name.
+    let both = d.join("both.csv");
+    let text = std::fs::read_to_string(&absorbance).unwrap().replacen("absorbance", "absorbance,ratio", 1);
+    let text: String = text
+        .lines()
+        .enumerate()
+        .map(|(i, l)| if i == 0 { format!("{l}\n") } else { format!("{l},0.5\n") })
+        .collect();
+    std::fs::write(&both, text).unwrap();
+    let (code, _, err) = logtrim(&["trim", s(&coeffs), s(&both), "-o", s(&d.join("t3.bin"))]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("both ratio") && err.contains("absorbance"), "{err}");
+    let _ = std::fs::remove_dir_all(&d);
+}

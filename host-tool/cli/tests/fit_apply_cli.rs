@@ -122,7 +122,7 @@ fn apply_errors_and_refused_rows() {
     let coeffs = d.join("coeffs.json");
     let (code, _, err) = logtrim(&["fit", s(&d.join("cal.csv")), "-o", s(&coeffs), "-q"]);
     assert_eq!(code, 0, "{err}");
-    // Rows outside the ADC range are refused by the reader; rows the firmware refuses are kept, named.
+    // Rows the firmware refuses are kept, named.
     let r = d.join("r.csv");
     std::fs::write(&r, "code,temp_c,tag\n30000,25,a\n0,25,rail\n30000,150,hot\n").unwrap();
     let out = d.join("o.csv");
@@ -132,11 +132,17 @@ fn apply_errors_and_refused_rows() {
     let text = std::fs::read_to_string(&out).unwrap();
     assert!(text.contains(",rail,") && text.contains("saturated"), "{text}");
     assert!(text.contains("temperature_out_of_range"), "{text}");
-    std::fs::write(&r, "code,temp_c\n70000,25\n").unwrap();
-    let (code, _, err) = logtrim(&["apply", s(&coeffs), s(&r), "-o", s(&d.join("o2.csv"))]);
+    // A code beyond the converter is the firmware's to refuse, in its row (issue 18); a code no ADC can give
+    // (negative, not an integer) is a bad file.
+    std::fs::write(&r, "code,temp_c\n70000,25\n30000,25\n").unwrap();
+    let (code, stdout, err) = logtrim(&["apply", s(&coeffs), s(&r), "-o", s(&d.join("o2.csv"))]);
+    assert_eq!(code, 0, "{err}");
+    assert!(stdout.contains("2 rows: 1 corrected, 1 rejected (1 code_out_of_adc_range)"), "{stdout}");
+    std::fs::write(&r, "code,temp_c\n-5,25\n").unwrap();
+    let (code, _, err) = logtrim(&["apply", s(&coeffs), s(&r), "-o", s(&d.join("o4.csv"))]);
     assert_eq!(code, 2, "{err}");
-    assert!(err.contains("70000") && err.contains("line 2"), "{err}");
-    assert!(!d.join("o2.csv").exists());
+    assert!(err.contains("-5") && err.contains("line 2"), "{err}");
+    assert!(!d.join("o4.csv").exists());
     let (code, _, err) = logtrim(&["apply", s(&r), s(&r), "-o", s(&d.join("o3.csv"))]);
     assert_eq!(code, 2, "{err}");
     std::fs::remove_dir_all(&d).unwrap();

@@ -67,7 +67,12 @@ fn images_carry_the_fixed_point_tables_by_default() {
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     // The tables the library builds for the file, bit for bit, read back through the firmware's loader.
     let file = CalFile::load(&dir.path().join("COEFFS.json")).unwrap();
-    let want = file.fixed_tables(&TableOptions::default()).unwrap();
+    let mut want = file.fixed_tables(&TableOptions::default()).unwrap();
+    // This unit's fit chose no residual and its front end has no bend left for one: the residual table is
+    // all zeros, and the image stores it empty (image format 3), which the fixed path reads as zeros.
+    assert!(!want.residual.is_empty() && want.residual.iter().all(|&r| r == 0));
+    let zeros = 2 * want.residual.len();
+    want.residual.clear();
     let dims = format!("fixed-point tables {}×{} knots", want.header.t_knots, want.header.xa_knots);
     assert!(stdout(&o).contains(&dims), "{}", stdout(&o));
     let bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
@@ -78,13 +83,15 @@ fn images_carry_the_fixed_point_tables_by_default() {
         + 2 * want.residual.len();
     assert_eq!(bytes.len(), 268 + 4 + layout::fixed::HEAD_LEN + tables.next_multiple_of(4));
     assert!(bytes.len() <= 4096, "{} bytes", bytes.len());
+    // More than half the table bytes were the zeros (1 512 of 2 244 in the default image).
+    assert!(zeros > tables, "{zeros} bytes of zeros left out, {tables} bytes of tables kept");
 
     let o = logtrim_in(&["inspect", "UNIT.bin"], dir.path());
     assert_eq!(code(&o), 0, "{}", stderr(&o));
     let out = stdout(&o);
     assert!(out.contains(&format!("UNIT.bin: binary, {} bytes", bytes.len())), "{out}");
     let section = layout::fixed::HEAD_LEN + tables.next_multiple_of(4);
-    assert!(out.contains(&format!("0x8003      {section} bytes  fixed (fixed-point tables)")), "{out}");
+    assert!(out.contains(&format!("0x8003     {section:>5} bytes  fixed (fixed-point tables)")), "{out}");
     assert!(out.contains("fixed-point tables: load and validate (ok)"), "{out}");
     assert!(out.contains(&format!("t grid     {} knots", want.header.t_knots)), "{out}");
     assert!(out.contains("accepted -13.000 to 63.000 °C"), "{out}");
@@ -113,7 +120,9 @@ fn images_carry_the_fixed_point_tables_by_default() {
     // The options are the most knots the power-of-two steps may take.
     let (nt, nx) = (usize::from(t.header.t_knots), usize::from(t.header.xa_knots));
     assert!(nt <= 8 && nx <= 24 && nt < usize::from(want.header.t_knots), "{nt} × {nx}");
-    assert_eq!(t.residual.len(), (nt + 2) * (nx + 2));
+    // Still a residual of zeros, still stored empty; the x̃ grid is in the header all the same.
+    assert!(t.residual.is_empty());
+    assert!(stdout(&o).contains("residual none (zero everywhere)"), "{}", stdout(&o));
 }
 
 #[test]
@@ -210,13 +219,22 @@ fn bad_images_exit_1_with_the_specific_error() {
         ),
         ("erased.bin", vec![0xff; 268], "not a calibration image: starts with ff ff ff ff"),
         (
-            "v3.bin",
+            "v4.bin",
             {
                 let mut b = good.clone();
-                b[4] = 3;
+                b[4] = 4;
                 b
             },
-            "format version 3 is not supported",
+            "format version 4 is not supported",
+        ),
+        (
+            "v2.bin",
+            {
+                let mut b = good.clone();
+                b[4] = 2;
+                b
+            },
+            "format version 2 is not supported",
         ),
         (
             "v1.bin",
@@ -288,4 +306,94 @@ fn bad_input_exits_2_and_writes_nothing() {
     let o = logtrim_in(&["image", "COEFFS.json", "-o", "a.bin"], dir.path());
     assert_eq!(code(&o), 0);
     assert!(stderr(&o).contains("warning: no serial"), "{}", stderr(&o));
+}
+
+/// The same unit read through a raw NTC channel (a 47 kΩ part on a 33 kΩ divider, 12-bit; the part's values
+/// invented for the test).
+fn raw_channel_coeffs(dir: &Path) -> logtrim::TemperatureSensor {
+    coeffs(dir, Some("ABS-RAW-0007"));
+    let mut f = CalFile::load(&dir.join("COEFFS.json")).unwrap();
+    let sensor = logtrim::TemperatureSensor {
+        element: logtrim::SensorElement::NtcBeta(logtrim::Beta {
+            r0_ohm: 47_000.0,
+            t0_c: 25.0,
+            beta_k: 3950.0,
+        }),
+        divider: logtrim::Divider {
+            open_margin: 8,
+            short_margin: 8,
+            ..logtrim::Divider::ratiometric(logtrim::Placement::LowSide, 33_000.0, 12)
+        },
+        min_c: -20.0,
+        max_c: 80.0,
+    };
+    f.temperature_sensor = Some(sensor);
+    f.save(&dir.join("COEFFS.json")).unwrap();
+    sensor
+}
+
+#[test]
+fn a_raw_channel_unit_s_image_carries_its_sensor_for_either_path() {
+    let dir = tempfile::tempdir().unwrap();
+    let sensor = raw_channel_coeffs(dir.path());
+    for (name, extra) in [("F32.bin", &["--no-fixed"][..]), ("FIXED.bin", &[][..])] {
+        let o = logtrim_in(&[&["image", "COEFFS.json", "-o", name][..], extra].concat(), dir.path());
+        assert_eq!(code(&o), 0, "{}", stderr(&o));
+        assert!(stdout(&o).contains("temperature sensor description"), "{}", stdout(&o));
+        let bytes = std::fs::read(dir.path().join(name)).unwrap();
+        let img = Image::parse(&bytes).unwrap();
+        // The calibration file's description, bit for bit, and the f32 firmware's reading from it.
+        assert_eq!(img.sensor(), Some(sensor));
+        for code in [0, 8, 9, 1000, 2048, 3000, 4087, 4088, 4095] {
+            assert_eq!(img.celsius(code).map(f32::to_bits), sensor.celsius(code).map(f32::to_bits), "{code}");
+        }
+        // At T₀ the NTC is 47 kΩ: 47/(33 + 47) of the 4096-code supply (common practice for NTC dividers).
+        let at_25 = (4096.0f64 * 47.0 / 80.0).round() as u32;
+        assert!((img.celsius(at_25).unwrap() - 25.0).abs() < 0.05);
+        // Both paths agree on the channel: the fixed section's table exactly when the sensor section is there.
+        assert_eq!(img.fixed().map(|f| f.sensor().is_some()), (name == "FIXED.bin").then_some(true));
+
+        let described = stdout(&logtrim_in(&["inspect", name], dir.path()));
+        for line in [
+            "0x8004        40 bytes  sensor (temperature channel)",
+            "element    NTC (Beta) R0 47000 Ω at 25 °C, β 3950 K, to ground",
+            "series 33000 Ω, 12 bits, full scale 4096 codes, open margin 8 codes",
+            "range      -20 to 80 °C",
+        ] {
+            assert!(described.contains(line), "{line} in {described}");
+        }
+        let o = logtrim_in(&["inspect", "--json", name], dir.path());
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let back: logtrim::TemperatureSensor =
+            serde_json::from_value(v["temperature_sensor"].clone()).unwrap();
+        assert_eq!(back, sensor);
+    }
+    // A digital-sensor unit has no sensor section, and inspect says so.
+    let dir = tempfile::tempdir().unwrap();
+    coeffs(dir.path(), Some("GD-REF-00731"));
+    assert_eq!(code(&logtrim_in(&["image", "COEFFS.json", "-o", "UNIT.bin"], dir.path())), 0);
+    let img_bytes = std::fs::read(dir.path().join("UNIT.bin")).unwrap();
+    assert_eq!(Image::parse(&img_bytes).unwrap().sensor(), None);
+    let out = stdout(&logtrim_in(&["inspect", "UNIT.bin"], dir.path()));
+    assert!(out.contains("temperature sensor: none in the image (temperatures arrive in °C)"), "{out}");
+    assert!(!out.contains("0x8004"), "{out}");
+}
+
+#[test]
+fn the_sensor_check_at_image_writing_refuses_an_image_that_disagrees_with_the_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let sensor = raw_channel_coeffs(dir.path());
+    let file = CalFile::load(&dir.path().join("COEFFS.json")).unwrap();
+    let bytes = logtrim_host::image_file::build_image(&file, None, 1).unwrap();
+    assert_eq!(logtrim_host::image_file::check_sensor(&file, &bytes).map_err(|e| e.to_string()), Ok(()));
+    // The same image held against a file whose channel has another series resistor, or no channel.
+    let mut other = file.clone();
+    let mut s = sensor;
+    s.divider.series_ohm = 30_000.0;
+    other.temperature_sensor = Some(s);
+    let e = logtrim_host::image_file::check_sensor(&other, &bytes).unwrap_err().to_string();
+    assert!(e.contains("temperature sensor disagrees with the calibration file"), "{e}");
+    other.temperature_sensor = None;
+    let e = logtrim_host::image_file::check_sensor(&other, &bytes).unwrap_err().to_string();
+    assert!(e.contains("the file's sensor none"), "{e}");
 }

@@ -213,3 +213,36 @@ fn budget_takes_the_design_that_simulate_reads() {
     assert!(stderr.contains("no such preset"), "{stderr}");
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+#[test]
+fn budget_gives_its_sizes_in_the_unit_the_product_speaks() {
+    // A design with a raw NTC channel and one whose temperature arrives in °C: the same column.
+    for name in ["photometer-ntc", "gas-uncompensated"] {
+        let (code, plain, err) = logtrim(&["budget", "--preset", name]);
+        assert_eq!(code, 0, "{err}");
+        let (code, out, err) = logtrim(&["budget", "--preset", name, "--error-unit", "mau"]);
+        assert_eq!(code, 0, "{err}");
+        let head = out.lines().find(|l| l.starts_with("contribution")).unwrap();
+        assert!(head.contains("[% ratio]         [mAU]  largest at"), "{head}");
+        // Every row with a size: mAU = 1000·x/ln 10 (absorbance A = −log10 of the ratio, common practice),
+        // which is 100 times the power decibels of the same error (10·x/ln 10).
+        let mut rows = 0;
+        for line in out.lines().skip_while(|l| !l.starts_with("contribution")).skip(1) {
+            // The scientific figures of a row: Np, dB 10·log10, dB 20·log10, then the new column.
+            let sci: Vec<f64> =
+                line.split_whitespace().filter(|w| w.contains('e')).filter_map(|w| w.parse().ok()).collect();
+            let [np, db10, _, mau] = sci[..] else { continue };
+            assert!((mau - 100.0 * db10).abs() <= 1e-3 * mau, "{line}");
+            assert!((mau - 1000.0 * np / std::f64::consts::LN_10).abs() <= 2e-3 * mau, "{line}");
+            rows += 1;
+        }
+        assert!(rows >= 5, "{out}");
+        // Without the option the table is the one it was.
+        assert!(!plain.contains("[mAU]"), "{plain}");
+    }
+    let (code, _, err) = logtrim(&["budget", "--preset", "photometer-ntc", "--error-unit", "furlong"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("mau"), "{err}");
+    let (code, _, err) = logtrim(&["budget", "--preset", "photometer-ntc", "--error-unit", "mau", "--json"]);
+    assert_eq!(code, 2, "{err}");
+}

@@ -38,7 +38,7 @@ use logtrim::Unit;
 
 /// Status codes of the C library, in the order of the generated `enum ltrm_status`, each with what it
 /// means (also the text of `ltrm_status_text`).
-pub const STATUSES: [(&str, &str); 46] = [
+pub const STATUSES: [(&str, &str); 47] = [
     ("LTRM_OK", "ok"),
     ("LTRM_CODE_OUT_OF_ADC_RANGE", "code above the converter's largest code"),
     ("LTRM_SATURATED", "code within the rail margin"),
@@ -88,6 +88,7 @@ pub const STATUSES: [(&str, &str); 46] = [
     ("LTRM_OFFSET_PAST_LIMIT", "trim offset past the limit: a fault, not a drift to trim"),
     ("LTRM_GAIN_PAST_LIMIT", "trim gain past the limit: a fault, not a drift to trim"),
     ("LTRM_NO_VALID_RECORD", "neither slot holds a usable record"),
+    ("LTRM_BAD_SENSOR", "the temperature sensor's description fails its validation"),
 ];
 
 /// The index of a status in [`STATUSES`] by its C name (a programming error if it is not there).
@@ -154,6 +155,7 @@ pub fn image_code(e: &ImageError) -> usize {
         ImageError::Value(ImageValueError::FixedTableSize { .. }) => "LTRM_FIXED_TABLE_SIZE",
         ImageError::Value(ImageValueError::FixedMismatch { .. }) => "LTRM_FIXED_MISMATCH",
         ImageError::Value(ImageValueError::FixedOtherCalibration { .. }) => "LTRM_FIXED_OTHER_CALIBRATION",
+        ImageError::Value(ImageValueError::Sensor(_)) => "LTRM_BAD_SENSOR",
         ImageError::Value(_) => "LTRM_BAD_FIXED_TABLES",
         ImageError::FixedCapacity { .. } => "LTRM_FIXED_CAPACITY",
         _ => "LTRM_BAD_TABLE",
@@ -411,11 +413,14 @@ fn layout_definitions() -> String {
     part_offsets(&mut out, "RANGES", il::ranges::FIELDS);
     part_offsets(&mut out, "MODEL", il::model_f32::FIELDS);
     part_offsets(&mut out, "FIXED", il::fixed::FIELDS);
+    part_offsets(&mut out, "SENSOR", il::sensor::FIELDS);
     part_offsets(&mut out, "REC", fl::header::FIELDS);
     part_offsets(&mut out, "BLANK", fl::blank::FIELDS);
     part_offsets(&mut out, "TRIM", fl::trim::FIELDS);
-    let lens: [(&str, usize); 14] = [
+    let lens: [(&str, usize); 16] = [
         ("HDR_LEN", il::header::LEN),
+        ("SENSOR_KIND", usize::from(il::sensor::KIND)),
+        ("SENSOR_LEN", il::sensor::LEN),
         ("SECTION_HEADER_LEN", il::section::HEADER_LEN),
         ("SECTION_OPTIONAL_BIT", usize::from(il::section::OPTIONAL_BIT)),
         ("RANGES_KIND", usize::from(il::ranges::KIND)),

@@ -284,6 +284,11 @@ static inline ltrm_status ltrm_end_column(const ltrm_fixed *c, uint32_t end, uin
         row = seg + k;
         /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
         if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
+        /* An empty table is a residual of zero everywhere: the refusals of a full table of zeros. */
+        if (c->residual_len == 0u) {
+            if (row >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
+            continue;
+        }
         i = row * stride + col;
         if (i >= c->residual_len) return LTRM_BAD_TABLE;
         v += w[k] * (int32_t)c->residual[i];

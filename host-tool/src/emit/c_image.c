@@ -634,8 +634,8 @@ static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8
     }
     /* Saturating, as the Rust code: 65537 * 65537 does not fit 32 bits. */
     expected[5] = (uint64_t)nt * nx > 0xffffffffu ? 0xffffffffu : nt * nx;
-    for (i = 0; i < 6u; i++)
-        if (s->sizes[i] != expected[i]) return LTRM_FIXED_TABLE_SIZE;
+    for (i = 0; i < 6u; i++) /* the residual may also be empty: zero everywhere */
+        if (s->sizes[i] != expected[i] && !(i == 5u && s->sizes[i] == 0u)) return LTRM_FIXED_TABLE_SIZE;
     /* The converter of the ranges section (its bits already checked to be 1..=24). */
     bits = ranges[LTRM_L_RANGES_ADC_BITS];
     if (bits == 0u || bits > 24u || h->adc_max_code != (1u << bits) - 1u) return LTRM_FIXED_MISMATCH;
@@ -648,6 +648,72 @@ static ltrm_status ltrm_decode_fixed(const uint8_t *p, uint32_t len, const uint8
     if ((st = ltrm_zeros(p + LTRM_L_FIXED_HEAD_LEN + data, len - LTRM_L_FIXED_HEAD_LEN - data)) != LTRM_OK) return st;
     s->tables = p + LTRM_L_FIXED_HEAD_LEN;
     return LTRM_OK;
+}
+
+/* The Steinhart-Hart curve 1/T = A + B*L + C*L^3 (L = ln R) rises with L over the whole range: always for
+ * C >= 0 (B > 0 is checked before); for C < 0 where |L| < k = sqrt(B/(3|C|)), i.e. where the closed form's
+ * |y| = |1.5*(A - 1/T)/(B*k)| < 1 at both ends, squared here so that no square root is needed. */
+static int ltrm_sh_monotone(const ltrm_sensor *s) {
+    double a = s->coeff[0], b = s->coeff[1], c = s->coeff[2], ends[2], d;
+    uint32_t i;
+    if (c >= 0.0) return 1;
+    ends[0] = 1.0 / ((double)s->min_c + 273.15);
+    ends[1] = 1.0 / ((double)s->max_c + 273.15);
+    for (i = 0; i < 2u; i++) {
+        d = a - ends[i];
+        if (!(6.75 * -c * d * d < b * b * b)) return 0;
+    }
+    return 1;
+}
+
+/* The sensor section (image::sensor::decode): reserved byte, element and placement codes, an RTD's unused
+ * coefficients zero, every f32 finite, then the checks of TemperatureSensor::validate on the element, the
+ * divider, the range and a Steinhart-Hart curve's rise over the range (in closed form, where the Rust code
+ * inverts the curve at both ends: the two can differ only for a curve that turns within rounding of an end
+ * of the range). */
+static ltrm_status ltrm_decode_sensor(const uint8_t *p, ltrm_sensor *s) {
+    static const uint8_t floats[6] = { LTRM_L_SENSOR_COEFF_A, LTRM_L_SENSOR_COEFF_B, LTRM_L_SENSOR_COEFF_C,
+                                       LTRM_L_SENSOR_SERIES_OHM, LTRM_L_SENSOR_MIN_C, LTRM_L_SENSOR_MAX_C };
+    const double zero_c_k = 273.15;
+    uint32_t i;
+    ltrm_status st;
+    int ok;
+    if ((st = ltrm_zeros(p + LTRM_L_SENSOR_RESERVED, LTRM_L_SENSOR_RESERVED_SIZE)) != LTRM_OK) return st;
+    s->element = p[LTRM_L_SENSOR_ELEMENT];
+    if (s->element > 2u) return LTRM_BAD_ENUM;
+    if (s->element == 2u) {
+        if ((st = ltrm_zeros(p + LTRM_L_SENSOR_COEFF_B, 4u)) != LTRM_OK) return st;
+        if ((st = ltrm_zeros(p + LTRM_L_SENSOR_COEFF_C, 4u)) != LTRM_OK) return st;
+    }
+    s->placement = p[LTRM_L_SENSOR_PLACEMENT];
+    if (s->placement > 1u) return LTRM_BAD_ENUM;
+    for (i = 0; i < 6u; i++)
+        if (!ltrm_finite(ltrm_le32(p + floats[i]))) return LTRM_NON_FINITE;
+    for (i = 0; i < 3u; i++) s->coeff[i] = ltrm_float(ltrm_le32(p + floats[i]));
+    s->series_ohm = ltrm_float(ltrm_le32(p + LTRM_L_SENSOR_SERIES_OHM));
+    s->min_c = ltrm_float(ltrm_le32(p + LTRM_L_SENSOR_MIN_C));
+    s->max_c = ltrm_float(ltrm_le32(p + LTRM_L_SENSOR_MAX_C));
+    s->bits = p[LTRM_L_SENSOR_BITS];
+    s->full_scale_code = ltrm_le32(p + LTRM_L_SENSOR_FULL_SCALE_CODE);
+    s->open_margin = ltrm_le32(p + LTRM_L_SENSOR_OPEN_MARGIN);
+    s->short_margin = ltrm_le32(p + LTRM_L_SENSOR_SHORT_MARGIN);
+    /* The element's coefficients. */
+    if (s->element == 0u)
+        ok = s->coeff[0] > 0.0f && s->coeff[2] > 0.0f && (double)s->coeff[1] > -zero_c_k;
+    else if (s->element == 1u)
+        ok = s->coeff[1] > 0.0f;
+    else
+        ok = s->coeff[0] > 0.0f;
+    if (!ok) return LTRM_BAD_SENSOR;
+    /* The divider: bits 1..=24, a series resistor, a supply of 2 codes or more, a code between the bands. */
+    if (s->bits == 0u || s->bits > 24u) return LTRM_BAD_SENSOR;
+    if (!(s->series_ohm > 0.0f) || s->full_scale_code < 2u) return LTRM_BAD_SENSOR;
+    if ((uint64_t)s->open_margin + s->short_margin + 1u >= s->full_scale_code) return LTRM_BAD_SENSOR;
+    /* The range: ends in order, above absolute zero, within -200..850 degC for an RTD. */
+    ok = s->min_c < s->max_c && (double)s->min_c > -zero_c_k;
+    if (s->element == 2u) ok = ok && (double)s->min_c >= -200.0 && (double)s->max_c <= 850.0;
+    if (ok && s->element == 1u) ok = ltrm_sh_monotone(s);
+    return ok ? LTRM_OK : LTRM_BAD_SENSOR;
 }
 
 /* A parsed image: where its parts are, for loading. */
@@ -680,7 +746,7 @@ static ltrm_status ltrm_image_header(const uint8_t *b, ltrm_image_info *info) {
  * values (serial, the f32 sections, the fixed section's structure). */
 static ltrm_status ltrm_image_parse(const uint8_t *b, uint32_t avail, int prefix, ltrm_parsed *out) {
     uint32_t total, offset, count = 0u, kind, len = 0u;
-    const uint8_t *ranges = 0, *model = 0, *fixed = 0;
+    const uint8_t *ranges = 0, *model = 0, *fixed = 0, *sensor = 0;
     uint32_t fixed_len = 0u;
     ltrm_status st;
     if ((st = ltrm_frame(&ltrm_image_framing, b, avail, prefix, &total)) != LTRM_OK) return st;
@@ -696,10 +762,12 @@ static ltrm_status ltrm_image_parse(const uint8_t *b, uint32_t avail, int prefix
         if (kind == LTRM_L_RANGES_KIND) slot = &ranges;
         else if (kind == LTRM_L_MODEL_KIND) slot = &model;
         else if (kind == LTRM_L_FIXED_KIND) slot = &fixed;
+        else if (kind == LTRM_L_SENSOR_KIND) slot = &sensor;
         else if ((kind & LTRM_L_SECTION_OPTIONAL_BIT) == 0u) return LTRM_UNKNOWN_SECTION;
         if (slot) {
             if (*slot) return LTRM_DUPLICATE_SECTION;
-            if ((kind == LTRM_L_RANGES_KIND && len != LTRM_L_RANGES_LEN) || (kind == LTRM_L_MODEL_KIND && len != LTRM_L_MODEL_LEN))
+            if ((kind == LTRM_L_RANGES_KIND && len != LTRM_L_RANGES_LEN) || (kind == LTRM_L_MODEL_KIND && len != LTRM_L_MODEL_LEN) ||
+                (kind == LTRM_L_SENSOR_KIND && len != LTRM_L_SENSOR_LEN))
                 return LTRM_SECTION_LENGTH;
             *slot = b + offset + LTRM_L_SECTION_HEADER_LEN;
             if (kind == LTRM_L_FIXED_KIND) fixed_len = len;
@@ -712,6 +780,8 @@ static ltrm_status ltrm_image_parse(const uint8_t *b, uint32_t avail, int prefix
     if ((st = ltrm_image_header(b, &out->info)) != LTRM_OK) return st;
     if ((st = ltrm_check_f32_sections(ranges, model)) != LTRM_OK) return st;
     out->info.identity = ltrm_crc32(ltrm_crc32(0u, ranges, LTRM_L_RANGES_LEN), model, LTRM_L_MODEL_LEN);
+    out->info.has_sensor = sensor != 0;
+    if (sensor && (st = ltrm_decode_sensor(sensor, &out->info.sensor)) != LTRM_OK) return st;
     out->has_fixed = fixed != 0;
     if (fixed && (st = ltrm_decode_fixed(fixed, fixed_len, ranges, out->info.identity, &out->fixed)) != LTRM_OK)
         return st;
@@ -749,7 +819,8 @@ static ltrm_status ltrm_validate_fixed(const ltrm_fixed *c) {
           c->xa_origin < lim))
         return LTRM_BAD_FIXED_TABLES;
     if (!(c->offset_len == nt + 2u && c->inv_slope_len == nt + 2u && (!c->bias_bend || c->ln_bias_len == nt + 2u) &&
-          (!c->sensitivity_limit || c->u_min_len == nt + 2u) && c->residual_len == (nt + 2u) * (nxa + 2u)))
+          (!c->sensitivity_limit || c->u_min_len == nt + 2u) &&
+          (c->residual_len == 0u || c->residual_len == (nt + 2u) * (nxa + 2u))))
         return LTRM_BAD_FIXED_TABLES;
     /* Control points stored divided by 6 within the range divided by 6. */
     for (i = 0; i < c->inv_slope_len; i++)

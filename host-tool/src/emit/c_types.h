@@ -87,8 +87,23 @@ typedef struct ltrm_ram {
     int16_t *residual; uint32_t r_capacity;
 } ltrm_ram;
 
+/* The raw temperature channel's description (image section 0x8004, logtrim::TemperatureSensor): the element
+ * (0 NTC by Beta: coeff = R0 ohm, T0 degC, beta K; 1 NTC by Steinhart-Hart: coeff = A, B, C; 2 platinum RTD:
+ * coeff[0] = R0 ohm), the divider (placement 0 element to ground, 1 to supply; series resistor, ADC bits, the
+ * supply's code, the open and short fault bands) and the range it reports. */
+typedef struct ltrm_sensor {
+    uint8_t element;
+    uint8_t placement;
+    uint8_t bits;
+    float coeff[3];
+    float series_ohm;
+    uint32_t full_scale_code, open_margin, short_margin;
+    float min_c, max_c;
+} ltrm_sensor;
+
 /* What an image says about itself besides its tables. identity is the fingerprint trim and blank records
- * bind to (logtrim::field::fingerprint_of_image); serial is NUL-terminated printable ASCII. */
+ * bind to (logtrim::field::fingerprint_of_image); serial is NUL-terminated printable ASCII; has_sensor is 1
+ * when the image describes a raw temperature channel (in sensor), for an f32 firmware to linearise it. */
 typedef struct ltrm_image_info {
     uint16_t version;
     uint32_t sequence;
@@ -97,6 +112,8 @@ typedef struct ltrm_image_info {
     uint32_t crc;
     uint32_t identity;
     uint32_t len; /* bytes of the image, header to CRC */
+    int has_sensor;
+    ltrm_sensor sensor;
 } ltrm_image_info;
 
 /* The two slots of an A/B pair. */

@@ -446,6 +446,21 @@ impl FrontEnd {
         crate::file_error::to_json_line(self)
     }
 
+    /// The optional keys of a description: absent (or `null`) means none.
+    pub const OPTIONAL_KEYS: [&'static str; 3] = ["spread", "aging", "chamber_faults"];
+
+    /// [`to_json`](Self::to_json) with every key, the optional ones ([`FrontEnd::OPTIONAL_KEYS`]) as `null`
+    /// where the description has none: a file to start one's own from, which names every key it may hold.
+    pub fn to_json_every_key(&self) -> String {
+        let mut v = serde_json::to_value(self).unwrap_or_default();
+        if let Some(map) = v.as_object_mut() {
+            for key in Self::OPTIONAL_KEYS {
+                map.entry(key).or_insert(serde_json::Value::Null);
+            }
+        }
+        crate::file_error::to_json_line(&v)
+    }
+
     /// Checks every parameter against what the model can describe, over the operating range widened by
     /// 50 K on either side (so that chamber jitter and extrapolation stay inside the model).
     pub fn validate(&self) -> Result<(), FrontEndError> {

@@ -62,9 +62,25 @@ static uint64_t digest(const ltrm_fixed *c) {
     return h;
 }
 
+/* A float's bits (the sensor's values are compared bit for bit). */
+static unsigned long fbits(float f) {
+    union {
+        float f;
+        uint32_t u;
+    } v;
+    v.f = f;
+    return (unsigned long)v.u;
+}
+
 static void print_info(const ltrm_image_info *in) {
+    const ltrm_sensor *s = &in->sensor;
     printf(" %lu %llu [%s] %08lx %08lx %lu", (unsigned long)in->sequence, (unsigned long long)in->calibrated_at,
            in->serial, (unsigned long)in->identity, (unsigned long)in->crc, (unsigned long)in->len);
+    if (in->has_sensor)
+        printf(" sensor %u %u %u %08lx %08lx %08lx %08lx %lu %lu %lu %08lx %08lx", s->element, s->placement, s->bits,
+               fbits(s->coeff[0]), fbits(s->coeff[1]), fbits(s->coeff[2]), fbits(s->series_ohm),
+               (unsigned long)s->full_scale_code, (unsigned long)s->open_margin, (unsigned long)s->short_margin,
+               fbits(s->min_c), fbits(s->max_c));
 }
 
 /* An image checked alone and loaded: both statuses, and what was loaded. */

@@ -14,6 +14,8 @@ fn inspect(img: &Image<'_>) {
         keep(s);
     }
     keep(img.section(o(0x8003)));
+    keep(img.sensor());
+    keep(img.celsius(o(2048)));
     if let Some(f) = img.fixed() {
         keep((f.header(), f.sensor()));
         for t in layout::fixed::TABLES {
@@ -60,6 +62,11 @@ pub fn run() {
         let mut buf = [0u8; 2048];
         keep(image::encoded_len_with_fixed(&cal, Some(&fixed), &extra));
         keep(image::write_with_fixed(o(&mut buf[..]), &info, &cal, Some(&fixed), &extra));
+        let sensor = crate::sensors::sensor();
+        let contents =
+            image::Contents { calibration: &cal, sensor: Some(&sensor), fixed: Some(&fixed), extra: &extra };
+        keep(image::encoded_len_of(&contents));
+        keep(image::write_contents(o(&mut buf[..]), &info, &contents));
     });
 
     // The layout's descriptions (what the C header and the docs are generated from).
