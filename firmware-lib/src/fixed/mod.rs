@@ -106,6 +106,7 @@
 #![deny(clippy::float_arithmetic)]
 
 pub mod arith;
+mod code_table;
 pub mod interp;
 mod stage;
 pub mod transcend;
@@ -114,6 +115,7 @@ pub mod universal;
 #[cfg(test)]
 mod tests;
 
+pub use code_table::{CodeTable, TABLE_ERROR_LOG2, TABLE_KNOTS};
 pub use stage::{FixedStage, StageCache, ROW_CAPACITY, STAGE_MEMO};
 
 use crate::error::{CalibrationDefect, Error, SensorFault};

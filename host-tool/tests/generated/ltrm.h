@@ -47,6 +47,8 @@ extern "C" {
 #define LTRM_RESIDUAL_FRAC_MAX 30u /* fixed::RESIDUAL_FRAC_RANGE */
 #define LTRM_ROW_CAPACITY 66u /* fixed::ROW_CAPACITY */
 #define LTRM_STAGE_MEMO 4u /* fixed::STAGE_MEMO */
+#define LTRM_TABLE_KNOTS 72u /* fixed::TABLE_KNOTS */
+#define LTRM_TABLE_ERROR_LOG2 6u /* fixed::TABLE_ERROR_LOG2 */
 #define LTRM_BEND_FLOOR_BIT 14u /* X_FRAC + transcend::BEND_FIRST_EXP */
 #define LTRM_BEND_OCTAVES 15u /* transcend::BEND_OCTAVES */
 #define LTRM_BEND_SEGMENTS 8u /* transcend::BEND_SEGMENTS */
@@ -223,6 +225,19 @@ typedef struct ltrm_stage_cache {
     uint32_t code_lo, code_hi;
 } ltrm_stage_cache;
 
+/* A stage cache and x over the log code axis for its window (logtrim::fixed::CodeTable): knot k at code
+ * base + (k - 1) * 2^step holds x at the window's start and its change to the window's end; usable[i] says
+ * whether codes base + i * 2^step .. are interpolated from knots i..i+3 (else the stage cache corrects
+ * them, exactly as the direct path). Start it with ltrm_code_table_init; one table belongs to one
+ * calibration. About 1.3 KiB. */
+typedef struct ltrm_code_table {
+    ltrm_stage_cache cache;
+    uint32_t window; /* LTRM_NO_WINDOW when empty */
+    uint32_t base, step;
+    int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
+    uint8_t usable[LTRM_TABLE_KNOTS];
+} ltrm_code_table;
+
 /* ---- run-time images and field records ---- */
 
 /* Caller-owned RAM that a unit's tables are copied into when its image is loaded (the C side of
@@ -326,6 +341,18 @@ void ltrm_correct_block(const ltrm_fixed *c, const ltrm_stage *s, const uint32_t
 void ltrm_stage_cache_init(ltrm_stage_cache *k, const ltrm_fixed *c);
 ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code, ltrm_reading *out);
 ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out);
+/* The per-sample path at a held or slowly wandering temperature (logtrim::fixed::CodeTable): x from a table
+ * over the log code for the temperature's window, within the bound `logtrim verify` proves for it (its
+ * "code table" row), and bit for bit ltrm_correct's where the table falls back. One table belongs to one
+ * calibration: initialise it again after loading another. */
+void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c);
+ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out);
+ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out);
+/* Many log codes at one temperature (a DMA buffer): status[i] and out[i] are the one-sample call's for codes[i]. */
+void ltrm_code_table_block(ltrm_code_table *t, int32_t temp_mc, const uint32_t *codes, uint32_t n, ltrm_reading *out,
+                           ltrm_status *status);
+void ltrm_code_table_block_raw(ltrm_code_table *t, uint32_t temp_code, const uint32_t *codes, uint32_t n,
+                               ltrm_reading *out, ltrm_status *status);
 /* The reading in a unit: Q32 for LTRM_RATIO, Q24 for the others. */
 ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_t *out);
 
