@@ -60,7 +60,7 @@ use crate::error::Error;
 pub const TABLE_KNOTS: usize = 72;
 /// An interval is used where its estimated errors are below `2^−TABLE_ERROR_LOG2` LSB each (the cubic's
 /// test below writes the 1/64 out).
-pub const TABLE_ERROR_LOG2: u32 = 6;
+pub const TABLE_ERROR_LOG2: u32 = 4;
 /// Largest knot difference (and change across a window) a usable interval may have.
 const DIFF_LIMIT: i64 = 1 << 29;
 
@@ -73,6 +73,9 @@ pub struct CodeTable<'a> {
     cache: StageCache<'a>,
     /// The window the table was built for ([`NO_WINDOW`]: none).
     window: u32,
+    /// The last θ and its Q16 fraction in the window (valid while a window is kept).
+    theta: i32,
+    f16: u32,
     /// Knot `k` is at code `base + (k − 1)·2^step`.
     base: u32,
     step: u32,
@@ -85,7 +88,9 @@ pub struct CodeTable<'a> {
 }
 
 /// x of a code at one set of per-temperature values and residual columns (`rows` gives columns
-/// `seg..seg + 4`), or `None` where the direct path gives an error.
+/// `seg..seg + 4`), or `None` where the direct path gives an error other than x outside the calibrated
+/// range (a knot just beyond that range holds the smooth continuation, so that the intervals at the
+/// range's ends can be interpolated; each sample's x is checked against the range).
 #[inline(always)]
 fn knot_x(
     cache: &StageCache<'_>,
@@ -97,7 +102,7 @@ fn knot_x(
     if cache.plan.check_code(&cache.cal, code).is_err() {
         return None;
     }
-    match cache.plan.x_of(s, code, rows) {
+    match cache.plan.x_unranged(s, code, rows) {
         Ok(x) if x > -X_LIMIT && x < X_LIMIT => Some(i64::from(x)),
         _ => None,
     }
@@ -109,6 +114,8 @@ impl<'a> CodeTable<'a> {
         CodeTable {
             cache: StageCache::new(cal),
             window: NO_WINDOW,
+            theta: 0,
+            f16: 0,
             base: 0,
             step: 0,
             x0: [0; TABLE_KNOTS],
@@ -198,11 +205,16 @@ impl<'a> CodeTable<'a> {
 
     #[inline(always)]
     fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
-        let pos = self.cache.grid.window_of(theta)?;
-        if pos.index != self.window {
-            self.build(pos.index)?;
+        // The last temperature again (held, or a raw channel's code repeated): its window and fraction.
+        if theta != self.theta || self.window == NO_WINDOW {
+            let pos = self.cache.grid.window_of(theta)?;
+            if pos.index != self.window {
+                self.build(pos.index)?;
+            }
+            self.theta = theta;
+            self.f16 = pos.f16;
         }
-        if let Some(x) = self.lookup(code, pos.f16) {
+        if let Some(x) = self.lookup(code, self.f16) {
             let p = &self.cache.plan;
             if x < p.x_min {
                 return Err(Error::BelowRange);
@@ -352,8 +364,11 @@ impl<'a> CodeTable<'a> {
             // Sums, not 64-bit products (a runtime helper on a Cortex-M0).
             let d3 = [e[2] - (e[1] + e[1]) + e[0], e[3] - (e[2] + e[2]) + e[1], e[4] - (e[3] + e[3]) + e[2]];
             let e4 = (d3[1] - d3[0]).abs().max((d3[2] - d3[1]).abs());
-            // The cubic's error, about (3/128)·e4, within 1/64 of an LSB (|Δ1|/2^step): 3·e4 ≤ 2·|Δ1|/2^step.
-            if e4 + e4 + e4 > i64::from((2 * (e[2].unsigned_abs() as u32)) >> step) {
+            // The cubic's error, about (3/128)·e4, within 2^−TABLE_ERROR_LOG2 of an LSB (|Δ1|/2^step):
+            // 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted value fits a u32), in
+            // 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper on a Cortex-M0).
+            let e4 = u32::try_from(e4).unwrap_or(u32::MAX);
+            if e4 >= 1 << 30 || 3 * e4 > ((e[2].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step {
                 return Some(false);
             }
         }

@@ -410,6 +410,25 @@ impl Plan {
         code: u32,
         columns: impl FnOnce(usize) -> Result<[i32; 4], Error>,
     ) -> Result<i32, Error> {
+        let x = self.x_unranged(s, code, columns)?;
+        if x < self.x_min {
+            return Err(Error::BelowRange);
+        }
+        if x > self.x_max {
+            return Err(Error::AboveRange);
+        }
+        Ok(x)
+    }
+
+    /// [`Plan::x_of`] without the check against the calibrated x range (the code table's knots just
+    /// beyond it).
+    #[inline(always)]
+    pub(crate) fn x_unranged(
+        &self,
+        s: &Scalars,
+        code: u32,
+        columns: impl FnOnce(usize) -> Result<[i32; 4], Error>,
+    ) -> Result<i32, Error> {
         // code·2^qo < 2^30 (checked) and −2^29 < O < 2^30: |d| < 1.5·2^30; u is the high word of d·A with
         // 0 < A < 2^32: |u| < 1.5·2^30.
         let d = ((code << self.qo) as i32) - s.offset;
@@ -435,14 +454,7 @@ impl Plan {
         // Columns are below 2^29.6 in magnitude, so the per-sample spline fits an i32; shifted by at least
         // 2 bits it is below 2^27.6 and x fits.
         let r = (spline6(c, (p & ((1 << self.xs) - 1)) >> (self.xs - 16)) + self.rround) >> self.rshift;
-        let x = xa + r;
-        if x < self.x_min {
-            return Err(Error::BelowRange);
-        }
-        if x > self.x_max {
-            return Err(Error::AboveRange);
-        }
-        Ok(x)
+        Ok(xa + r)
     }
 }
 

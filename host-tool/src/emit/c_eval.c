@@ -381,8 +381,8 @@ static inline ltrm_status ltrm_xa(const ltrm_fixed *c, const ltrm_scalars *s, ui
     return LTRM_OK;
 }
 
-/* Step 5: the residual from its four columns at the temperature, then x and its range. */
-static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+/* Step 5 without the range: x~ plus the residual from its four columns at the temperature. */
+static inline int32_t ltrm_x_unranged(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4]) {
     uint32_t fr, n;
     int32_t r;
     fr = c->residual_frac < LTRM_RESIDUAL_FRAC_MIN ? LTRM_RESIDUAL_FRAC_MIN
@@ -390,7 +390,12 @@ static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_
     n = fr + LTRM_COLUMN_GUARD - LTRM_X_FRAC;
     r = ltrm_spline6(cols, t16);
     if (n > 0u) r = ltrm_asr32(r + (1 << (n - 1u)), n);
-    r += xa;
+    return r + xa;
+}
+
+/* Step 5: the residual from its four columns at the temperature, then x and its range. */
+static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+    int32_t r = ltrm_x_unranged(c, xa, t16, cols);
     if (r < c->x_min) return LTRM_BELOW_RANGE;
     if (r > c->x_max) return LTRM_ABOVE_RANGE;
     *x = r;
@@ -586,7 +591,8 @@ inline ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, 
 /* ---- the code table (logtrim::fixed::CodeTable): x over the log code for the cached temperature window ---- */
 
 /* x of a code at one end (mode 0), the middle (1) or the other end (2) of the cached window: the direct path's
- * per-code part; 0 where it gives an error or x is not within +-LTRM_X_LIMIT. */
+ * per-code part without the calibrated x range (knots just beyond it continue the curve); 0 where it gives
+ * another error or x is not within +-LTRM_X_LIMIT. */
 static inline int ltrm_knot_x(const ltrm_stage_cache *k, const ltrm_scalars *s, uint32_t code, int mode, int64_t *x) {
     const ltrm_fixed *c = k->cal;
     uint32_t seg, t16, i;
@@ -598,7 +604,7 @@ static inline int ltrm_knot_x(const ltrm_stage_cache *k, const ltrm_scalars *s, 
         int32_t a = k->row0[seg + i], d = k->drow[seg + i];
         cols[i] = mode == 0 ? a : (mode == 1 ? a + ltrm_mulh16(d, 1u << 15) : a + d);
     }
-    if (ltrm_x_finish(c, xa, t16, cols, &v) != LTRM_OK) return 0;
+    v = ltrm_x_unranged(c, xa, t16, cols);
     if (!(v > -LTRM_X_LIMIT && v < LTRM_X_LIMIT)) return 0;
     *x = v;
     return 1;
@@ -608,7 +614,7 @@ static inline int64_t ltrm_abs_i64(int64_t v) { return v < 0 ? -v : v; }
 
 /* The build-time checks of interval i: its six knots exist, their differences are below 2^29 at both ends of the
  * window, the cubic's estimated error (3/128 of the fourth difference) and the line's in temperature are each
- * below 1/64 of an LSB. Sums, never a 64-bit product. */
+ * below 2^-LTRM_TABLE_ERROR_LOG2 of an LSB. Sums and 32-bit products, never a 64-bit product. */
 static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step, const uint8_t *valid, const uint32_t *bent) {
     uint32_t lsb = 0xffffffffu, j, limit;
     int end;
@@ -632,7 +638,8 @@ static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step,
         e4 = ltrm_abs_i64(d3[1] - d3[0]);
         b = ltrm_abs_i64(d3[2] - d3[1]);
         if (b > e4) e4 = b;
-        if (e4 + e4 + e4 > (int64_t)((2u * (uint32_t)a) >> step)) return 0;
+        /* 3/128 of e4 within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|e[2]| / 2^step); |e[2]| < 2^29. */
+        if (e4 >= ((int64_t)1 << 30) || 3u * (uint32_t)e4 > (((uint32_t)a << (7u - LTRM_TABLE_ERROR_LOG2)) >> step)) return 0;
     }
     limit = lsb >> (step + LTRM_TABLE_ERROR_LOG2 - 1u);
     if (lsb == 0u) return 0;
@@ -727,9 +734,14 @@ static inline ltrm_status ltrm_code_table_theta(ltrm_code_table *t, uint32_t cod
     uint32_t index, f16;
     int32_t x;
     ltrm_status st;
-    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-    if (index != t->window && (st = ltrm_code_table_build(t, index)) != LTRM_OK) return st;
-    if (ltrm_code_table_lookup(t, code, f16, &x)) {
+    /* The last temperature again (held, or a raw channel's code repeated): its window and fraction. */
+    if (theta != t->theta || t->window == LTRM_NO_WINDOW) {
+        if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+        if (index != t->window && (st = ltrm_code_table_build(t, index)) != LTRM_OK) return st;
+        t->theta = theta;
+        t->f16 = f16;
+    }
+    if (ltrm_code_table_lookup(t, code, t->f16, &x)) {
         if (x < c->x_min) return LTRM_BELOW_RANGE;
         if (x > c->x_max) return LTRM_ABOVE_RANGE;
         out->x = x;
@@ -743,6 +755,8 @@ inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
     uint32_t i;
     ltrm_stage_cache_init(&t->cache, c);
     t->window = LTRM_NO_WINDOW;
+    t->theta = 0;
+    t->f16 = 0u;
     t->base = 0u;
     t->step = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) {

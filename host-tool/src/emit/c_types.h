@@ -83,6 +83,8 @@ typedef struct ltrm_stage_cache {
 typedef struct ltrm_code_table {
     ltrm_stage_cache cache;
     uint32_t window; /* LTRM_NO_WINDOW when empty */
+    int32_t theta;   /* the last theta and its Q16 fraction in the window (valid while a window is kept) */
+    uint32_t f16;
     uint32_t base, step;
     int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
     uint8_t usable[LTRM_TABLE_KNOTS];

@@ -48,7 +48,7 @@ extern "C" {
 #define LTRM_ROW_CAPACITY 66u /* fixed::ROW_CAPACITY */
 #define LTRM_STAGE_MEMO 4u /* fixed::STAGE_MEMO */
 #define LTRM_TABLE_KNOTS 72u /* fixed::TABLE_KNOTS */
-#define LTRM_TABLE_ERROR_LOG2 6u /* fixed::TABLE_ERROR_LOG2 */
+#define LTRM_TABLE_ERROR_LOG2 4u /* fixed::TABLE_ERROR_LOG2 */
 #define LTRM_BEND_FLOOR_BIT 14u /* X_FRAC + transcend::BEND_FIRST_EXP */
 #define LTRM_BEND_OCTAVES 15u /* transcend::BEND_OCTAVES */
 #define LTRM_BEND_SEGMENTS 8u /* transcend::BEND_SEGMENTS */
@@ -233,6 +233,8 @@ typedef struct ltrm_stage_cache {
 typedef struct ltrm_code_table {
     ltrm_stage_cache cache;
     uint32_t window; /* LTRM_NO_WINDOW when empty */
+    int32_t theta;   /* the last theta and its Q16 fraction in the window (valid while a window is kept) */
+    uint32_t f16;
     uint32_t base, step;
     int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
     uint8_t usable[LTRM_TABLE_KNOTS];
