@@ -69,39 +69,33 @@ BENCH_API void bench_reset(void) {
 /* The call alone: what the runner subtracts from every path. */
 BENCH_API void bench_empty(uint32_t i) { bench_out_buf[i].status = (int32_t)(bench_code[i] ^ bench_temp[i]); }
 
+/* The temperature as the unit reads it: a raw channel's code (the library's *_raw entry points) or m°C. */
+#if NAIVE_RAW
+#define BY_TEMP(f) f##_raw
+#define TEMP(i) (bench_temp[i])
+#else
+#define BY_TEMP(f) f
+#define TEMP(i) ((int32_t)bench_temp[i])
+#endif
+
 /* One call per sample, the temperature converted at every sample. */
 BENCH_API void bench_direct(uint32_t i) {
     ltrm_reading r;
-    ltrm_status st;
-#if NAIVE_RAW
-    st = ltrm_correct_raw(&LT_UNIT, bench_code[i], bench_temp[i], &r);
-#else
-    st = ltrm_correct(&LT_UNIT, bench_code[i], (int32_t)bench_temp[i], &r);
-#endif
+    ltrm_status st = BY_TEMP(ltrm_correct)(&LT_UNIT, bench_code[i], TEMP(i), &r);
     put(i, st, &r);
 }
 
 /* Through the stage cache kept across samples. */
 BENCH_API void bench_cached(uint32_t i) {
     ltrm_reading r;
-    ltrm_status st;
-#if NAIVE_RAW
-    st = ltrm_stage_cache_correct_raw(&bench_cache, bench_code[i], bench_temp[i], &r);
-#else
-    st = ltrm_stage_cache_correct(&bench_cache, bench_code[i], (int32_t)bench_temp[i], &r);
-#endif
+    ltrm_status st = BY_TEMP(ltrm_stage_cache_correct)(&bench_cache, bench_code[i], TEMP(i), &r);
     put(i, st, &r);
 }
 
 /* Through the code table kept across samples. */
 BENCH_API void bench_table(uint32_t i) {
     ltrm_reading r;
-    ltrm_status st;
-#if NAIVE_RAW
-    st = ltrm_code_table_correct_raw(&bench_table_state, bench_code[i], bench_temp[i], &r);
-#else
-    st = ltrm_code_table_correct(&bench_table_state, bench_code[i], (int32_t)bench_temp[i], &r);
-#endif
+    ltrm_status st = BY_TEMP(ltrm_code_table_correct)(&bench_table_state, bench_code[i], TEMP(i), &r);
     put(i, st, &r);
 }
 
@@ -110,11 +104,7 @@ BENCH_API void bench_table(uint32_t i) {
 BENCH_API void bench_table_prime(uint32_t i) {
     ltrm_reading r;
     ltrm_status st;
-#if NAIVE_RAW
-    ltrm_code_table_block_raw(&bench_table_state, bench_temp[i], &bench_code[i], 1u, &r, &st);
-#else
-    ltrm_code_table_block(&bench_table_state, (int32_t)bench_temp[i], &bench_code[i], 1u, &r, &st);
-#endif
+    BY_TEMP(ltrm_code_table_block)(&bench_table_state, TEMP(i), &bench_code[i], 1u, &r, &st);
 }
 
 ltrm_reading bench_block_out[BENCH_MAX];
@@ -123,11 +113,7 @@ ltrm_status bench_block_status[BENCH_MAX];
 BENCH_API void bench_tblock(uint32_t n) {
     uint32_t i;
     if (n > BENCH_MAX) n = BENCH_MAX;
-#if NAIVE_RAW
-    ltrm_code_table_block_raw(&bench_table_state, bench_temp[0], bench_code, n, bench_block_out, bench_block_status);
-#else
-    ltrm_code_table_block(&bench_table_state, (int32_t)bench_temp[0], bench_code, n, bench_block_out, bench_block_status);
-#endif
+    BY_TEMP(ltrm_code_table_block)(&bench_table_state, TEMP(0), bench_code, n, bench_block_out, bench_block_status);
     for (i = 0; i < n; i++) put(i, bench_block_status[i], &bench_block_out[i]);
 }
 

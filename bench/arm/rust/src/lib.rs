@@ -126,36 +126,34 @@ pub extern "C" fn bench_direct(i: u32) {
     put(i as usize, r);
 }
 
+/// Sample `i` through a kept state (the stage cache or the code table: the same two entry points).
+macro_rules! through {
+    ($state:ident, $i:expr) => {{
+        let (code, t) = input($i as usize);
+        // SAFETY: as above.
+        let r = unsafe {
+            if RAW {
+                $state.correct_raw(code, t)
+            } else {
+                $state.correct(code, t as i32)
+            }
+        };
+        put($i as usize, r);
+    }};
+}
+
 /// Through the stage cache kept across samples.
 #[no_mangle]
 #[inline(never)]
 pub extern "C" fn bench_cached(i: u32) {
-    let (code, t) = input(i as usize);
-    // SAFETY: as above.
-    let r = unsafe {
-        if RAW {
-            bench_cache.correct_raw(code, t)
-        } else {
-            bench_cache.correct(code, t as i32)
-        }
-    };
-    put(i as usize, r);
+    through!(bench_cache, i)
 }
 
 /// Through the code table kept across samples.
 #[no_mangle]
 #[inline(never)]
 pub extern "C" fn bench_table(i: u32) {
-    let (code, t) = input(i as usize);
-    // SAFETY: as above.
-    let r = unsafe {
-        if RAW {
-            bench_table_state.correct_raw(code, t)
-        } else {
-            bench_table_state.correct(code, t as i32)
-        }
-    };
-    put(i as usize, r);
+    through!(bench_table_state, i)
 }
 
 /// The code table's block at sample `i`'s temperature for the slice of codes `i..i + n`.
