@@ -222,6 +222,21 @@ static void print_reading(ltrm_status st, const ltrm_reading *r) {
     }
 }
 
+/* Eight codes from `code`, `stride` apart (saturating), corrected as one block, printed on one line. */
+static void print_block(const ltrm_status *sts, const ltrm_reading *out) {
+    uint32_t i;
+    for (i = 0; i < 8; i++) {
+        if (i) printf(" | ");
+        print_reading(sts[i], &out[i]);
+    }
+    printf("\n");
+}
+
+static void block_codes(uint32_t code, uint32_t stride, uint32_t *codes) {
+    uint32_t i;
+    for (i = 0; i < 8; i++) codes[i] = code + stride * i < code ? 0xffffffffu : code + stride * i;
+}
+
 int main(int argc, char **argv) {
     char kind;
     unsigned long code;
@@ -257,16 +272,12 @@ int main(int argc, char **argv) {
         } else if (kind == 'u') {
             st = ltrm_code_table_correct_raw(&table, (uint32_t)code, (uint32_t)t, &r);
         } else if (kind == 'B') {
-            uint32_t codes[8], i;
+            uint32_t codes[8];
             ltrm_reading out[8];
             ltrm_status sts[8];
-            for (i = 0; i < 8; i++) codes[i] = (uint32_t)code + 9u * i < (uint32_t)code ? 0xffffffffu : (uint32_t)code + 9u * i;
+            block_codes((uint32_t)code, 9u, codes);
             ltrm_code_table_block(&table, (int32_t)t, codes, 8, out, sts);
-            for (i = 0; i < 8; i++) {
-                if (i) printf(" | ");
-                print_reading(sts[i], &out[i]);
-            }
-            printf("\n");
+            print_block(sts, out);
             continue;
         } else if (kind == 'c') {
             st = ltrm_stage_cache_correct_raw(&cache, (uint32_t)code, (uint32_t)t, &r);
@@ -278,7 +289,7 @@ int main(int argc, char **argv) {
             if (st == LTRM_OK) st = ltrm_correct_staged(unit, &s, (uint32_t)code, &r);
         } else if (kind == 'b') {
             static ltrm_stage s;
-            uint32_t codes[8], i;
+            uint32_t codes[8];
             ltrm_reading out[8];
             ltrm_status sts[8];
             st = ltrm_stage_millicelsius(unit, (int32_t)t, &s);
@@ -286,13 +297,9 @@ int main(int argc, char **argv) {
                 printf("%d\n", (int)st);
                 continue;
             }
-            for (i = 0; i < 8; i++) codes[i] = (uint32_t)code + i < (uint32_t)code ? 0xffffffffu : (uint32_t)code + i;
+            block_codes((uint32_t)code, 1u, codes);
             ltrm_correct_block(unit, &s, codes, 8, out, sts);
-            for (i = 0; i < 8; i++) {
-                if (i) printf(" | ");
-                print_reading(sts[i], &out[i]);
-            }
-            printf("\n");
+            print_block(sts, out);
             continue;
         } else if (kind == 'm') {
             st = ltrm_correct(unit, (uint32_t)code, (int32_t)t, &r);
