@@ -5,9 +5,13 @@
 # at a time in the unicorn CPU emulator on realistic streams of two units, next to a naive float correction
 # on the same inputs. Sources in bench/arm/ (C driver, Rust driver crate, emulator runner, report).
 #
-# Prints instructions per sample, an M0 cycle estimate, library-helper calls per sample, the helpers each
-# build links, flash, per-sample code, static RAM, the stage cache's size, the stack high-water mark, and
-# whether every ARM result matches the host library bit for bit (exit 1 if not).
+# Paths: the direct correction, the stage cache, the code table (x over the log code for the temperature's
+# window), a block at one temperature through a stage and through the code table, and the naive float.
+# Prints instructions per sample (and, for the stage cache and the code table, the hits apart from the
+# samples that built them, and those builds), an M0 cycle estimate, library-helper calls per sample, the
+# helpers each build links, flash, per-sample code, static RAM, the stage cache's and the code table's
+# sizes, the stack high-water mark, and whether every ARM result matches the host library bit for bit
+# (exit 1 if not).
 #
 # Usage: scripts/bench-arm.sh [SAMPLES]      (default 256 samples per stream)
 #

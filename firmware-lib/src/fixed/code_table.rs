@@ -140,10 +140,11 @@ impl<'a> CodeTable<'a> {
         self.cache.clear();
     }
 
-    /// The intervals the current table interpolates, out of those it has (for reports and tests).
+    /// The intervals the current table interpolates, out of those it can have (each needs the knot before
+    /// and two after its four: `TABLE_KNOTS − 5`; 0 without a table), for reports and tests.
     pub fn usable_intervals(&self) -> (usize, usize) {
         let n = self.usable.iter().filter(|&&u| u).count();
-        (n, if self.window == NO_WINDOW { 0 } else { TABLE_KNOTS.saturating_sub(3) })
+        (n, if self.window == NO_WINDOW { 0 } else { TABLE_KNOTS.saturating_sub(5) })
     }
 
     /// [`FixedCalibration::correct`] through the table: x within the verified bound of the direct path's
