@@ -5,9 +5,13 @@
 # at a time in the unicorn CPU emulator on realistic streams of two units, next to a naive float correction
 # on the same inputs. Sources in bench/arm/ (C driver, Rust driver crate, emulator runner, report).
 #
-# Prints instructions per sample, an M0 cycle estimate, library-helper calls per sample, the helpers each
-# build links, flash, per-sample code, static RAM, the stage cache's size, the stack high-water mark, and
-# whether every ARM result matches the host library bit for bit (exit 1 if not).
+# Paths: the direct correction, the stage cache, the code table (x over the log code for the temperature's
+# window), a block at one temperature through a stage and through the code table, and the naive float.
+# Prints instructions per sample (and, for the stage cache and the code table, the hits apart from the
+# samples that built them, and those builds), an M0 cycle estimate, library-helper calls per sample, the
+# helpers each build links, flash, per-sample code, static RAM, the stage cache's and the code table's
+# sizes, the stack high-water mark, and whether every ARM result matches the host library bit for bit
+# (exit 1 if not).
 #
 # Usage: scripts/bench-arm.sh [SAMPLES]      (default 256 samples per stream)
 #
@@ -69,7 +73,8 @@ declare -A CPU=(
   [m4]="-mcpu=cortex-m4 -mthumb -mfloat-abi=hard -mfpu=fpv4-sp-d16"
 )
 declare -A TRIPLE=([m0]=thumbv6m-none-eabi [m4]=thumbv7em-none-eabihf)
-ENTRY=(-Wl,-u,bench_reset -Wl,-u,bench_empty -Wl,-u,bench_direct -Wl,-u,bench_cached -Wl,-u,bench_stage_at -Wl,-u,bench_block -Wl,-u,bench_naive)
+ENTRY=(-Wl,-u,bench_reset -Wl,-u,bench_empty -Wl,-u,bench_direct -Wl,-u,bench_cached -Wl,-u,bench_stage_at -Wl,-u,bench_block
+  -Wl,-u,bench_table -Wl,-u,bench_table_prime -Wl,-u,bench_tblock -Wl,-u,bench_naive)
 LINK=(-nostartfiles -T "$ROOT/bench/arm/link.ld" -Wl,--gc-sections --specs=nosys.specs)
 
 echo "=== builds (gcc $(arm-none-eabi-gcc -dumpversion), rustc) and emulation, $N samples per stream ==="
@@ -96,7 +101,7 @@ for unit in ntc digital; do
       arm-none-eabi-gcc ${CPU[$core]} "${LINK[@]}" "${ENTRY[@]}" \
         "$OUT/rust-$opt/${TRIPLE[$core]}/release/liblogtrim_arm_bench.a" -o "$relf"
       python3 "$ROOT/bench/arm/runner.py" "$celf" "$data/bench.json" --core "$core" --label "C $core -$opt" \
-        --paths direct,cached,block --json "$OUT/results/$unit.c.$core.$opt.json" >/dev/null
+        --paths direct,cached,table,block,tblock --json "$OUT/results/$unit.c.$core.$opt.json" >/dev/null
       # The same with the library and the unit's data in the driver's translation unit (a build per serial).
       oelf="$OUT/elf/$unit.c1.$core.$opt.elf"
       # shellcheck disable=SC2086
@@ -104,11 +109,11 @@ for unit in ntc digital; do
         -DBENCH_NAIVE=0 -I "$data" -I "$ROOT/bench/arm/c" "$ROOT/bench/arm/c/one_unit.c" \
         "${LINK[@]}" "${ENTRY[@]}" -lm -o "$oelf"
       python3 "$ROOT/bench/arm/runner.py" "$oelf" "$data/bench.json" --core "$core" --label "C one TU $core -$opt" \
-        --paths direct,cached,block --json "$OUT/results/$unit.c1.$core.$opt.json" >/dev/null
+        --paths direct,cached,table,block,tblock --json "$OUT/results/$unit.c1.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$nelf" "$data/bench.json" --core "$core" --label "naive $core -$opt" \
         --paths naive --json "$OUT/results/$unit.naive.$core.$opt.json" >/dev/null
       python3 "$ROOT/bench/arm/runner.py" "$relf" "$data/bench.json" --core "$core" --label "Rust $core -$opt" \
-        --paths direct,cached,block --json "$OUT/results/$unit.rust.$core.$opt.json" >/dev/null
+        --paths direct,cached,table,block,tblock --json "$OUT/results/$unit.rust.$core.$opt.json" >/dev/null
       echo "  $unit $core -$opt: C and Rust measured"
     done
   done

@@ -50,7 +50,7 @@ def main():
         streams = ["new", "held", "wander"]
         rows = []
         for st in streams:
-            for p in ("direct", "cached", "block", "naive"):
+            for p in ("direct", "cached", "table", "block", "tblock", "naive"):
                 for lang in LANGS:
                     if any(res.get((unit, lang, c, o), {}).get("streams", {}).get(st, {}).get(p) for c, o in CORES):
                         rows.append((st, p, lang))
@@ -68,10 +68,23 @@ def main():
                 for c, o in CORES))
         for c, o in CORES:
             for lang in ("c", "c1", "rust"):
-                r = res.get((unit, lang, c, o), {}).get("streams", {}).get("held", {}).get("block")
-                if r and "stage_insns" in r:
-                    print(f"  ({CORE_NAME[c]} -{o} {NAME[lang]}: building the block's stage "
-                          f"{fmt(r['stage_insns'])} instructions, once per block)")
+                for p, what in (("block", "the block's stage"), ("tblock", "the block's code table")):
+                    r = res.get((unit, lang, c, o), {}).get("streams", {}).get("held", {}).get(p)
+                    if r and "stage_insns" in r:
+                        print(f"  ({CORE_NAME[c]} -{o} {NAME[lang]}: building {what} "
+                              f"{fmt(r['stage_insns'])} instructions, once per block)")
+        print("\nthe same per sample without the samples that built a stage or a table (more than four times the "
+              "median), and those builds: hits; builds x mean")
+        print(f"{'stream / path':<26}" + "".join(f"{CORE_NAME[c] + ' -' + o:>24}" for c, o in CORES))
+        for st, p, lang in rows:
+            if p not in ("cached", "table"):
+                continue
+            label = f"{st} / {p} ({NAME[lang]})"
+            print(f"{label:<26}" + "".join(
+                cell((unit, lang, c, o), st, p,
+                     lambda r: f"{fmt(r.get('insns_hit_mean'))}; {r.get('builds', 0)} x {fmt(r.get('build_insns_mean'))}",
+                     24)
+                for c, o in CORES))
         print("\nCortex-M0 cycles per sample, estimated: fast (single-cycle) / small (32-cycle) multiplier")
         print(f"{'stream / path':<26}" + "".join(f"{'Cortex-M0 -' + o:>24}" for c, o in CORES if c == "m0"))
         for st, p, lang in rows:
@@ -95,7 +108,7 @@ def main():
             stack = max(v["stack"] for s in r["streams"].values() for p, v in s.items())
             code = "; ".join(f"{p} {v['functions']} B ({v['executed']} B run)" for p, v in r["code"].items())
             print(f"  {CORE_NAME[c]} -{o} {l.upper():<5} flash {r['flash']:>6} B, static RAM {r['static_ram']} B "
-                  f"+ stage cache {r['cache_bytes']} B, stack {stack} B")
+                  f"+ stage cache {r['cache_bytes']} B (code table {r.get('table_bytes', 0)} B), stack {stack} B")
             print(f"      per-sample code (functions entered, wrapper included): {code}")
             print(f"      helpers linked: {', '.join(r['helpers_linked']) or 'none'}")
         print("\nagreement with the host library (status, x, dB, ratio of every sample)")

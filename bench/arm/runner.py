@@ -232,6 +232,7 @@ class Runner:
         self.calls = Counter()
         self.pending_cond = None
         self.executed = set()
+        self.per_addr = Counter() if getattr(self, "profiling", False) else None
 
     def _on_block(self, mu, addr, size, _):
         n, cyc, muls, cond_end, end, addrs = self.img.block(addr, size)
@@ -245,6 +246,9 @@ class Runner:
         if h:
             self.calls[h] += 1
         self.executed.add((addr, size))
+        if self.per_addr is not None:
+            for a in addrs:
+                self.per_addr[a] += 1
 
     def call(self, name, *args):
         addr = self.img.symbols[name][0]
@@ -307,10 +311,15 @@ def main():
     ap.add_argument("--label", required=True)
     ap.add_argument("--paths", default="direct,cached")
     ap.add_argument("--json")
+    ap.add_argument("--profile", metavar="PATH",
+                    help="print where PATH's instructions go, per (inlined) source function and line: the ELF "
+                         "needs -g (debug information changes no code)")
     a = ap.parse_args()
     bench = json.load(open(a.bench))
     img = Image(a.elf)
     run = Runner(img, a.core)
+    run.profiling = bool(a.profile)
+    profile = defaultdict(list)  # stream -> [(instructions, address -> executions) per sample]
     paths = [p for p in a.paths.split(",") if f"bench_{p}" in img.symbols]
     result = {"label": a.label, "core": a.core, "streams": {}, "helpers_linked": sorted(set(img.helpers.values()))}
     path_exec = defaultdict(set)
@@ -325,37 +334,53 @@ def main():
             run.paint_stack()
             counts, cycles, muls, calls = [], [], [], Counter()
             extra = {}
-            if p == "block":
-                # One temperature for the whole stream (a DMA buffer): the stage once, then the block.
+            if p == "table" and stream["name"] == "new":
+                # A new temperature at every sample builds a table at every sample: its cost is the build
+                # (reported on the held and wandering streams), and emulating it would take minutes.
+                continue
+            if p in ("block", "tblock"):
+                # One temperature for the whole stream (a DMA buffer): the stage (or the code table) once,
+                # then the block.
                 if len(set(stream["temp"])) != 1:
                     continue
-                ins, cyc, mul, c = run.call("bench_stage_at", 0)
+                ins, cyc, mul, c = run.call("bench_stage_at" if p == "block" else "bench_table_prime", 0)
                 extra = {"stage_insns": ins - base[0], "stage_cycles": cyc, "stage_helper_calls": dict(c)}
                 path_exec[p] |= run.executed
-                ins, cyc, mul, c = run.call("bench_block", n)
+                ins, cyc, mul, c = run.call(f"bench_{p}", n)
                 per = (ins - sum(base) / n) / n
                 counts = [per] * n
                 cycles = [cyc / n] * n
                 muls = [mul / n] * n
                 calls.update({k: v / n * n for k, v in c.items()})
                 path_exec[p] |= run.executed
-            for i in range(n if p != "block" else 0):
+            for i in range(n if p not in ("block", "tblock") else 0):
                 ins, cyc, mul, c = run.call(f"bench_{p}", i)
                 counts.append(ins - base[i])
                 cycles.append(cyc)
                 muls.append(mul)
                 calls.update(c)
                 path_exec[p] |= run.executed
+                if p == a.profile:
+                    profile[stream["name"]].append((ins, run.per_addr))
             stack = run.stack_used()
             outs = run.read_outputs_exact(n)
             mismatches = None
-            if p in ("direct", "cached", "block"):
-                want = stream["direct" if p == "block" else p]
+            if p in ("direct", "cached", "block", "table", "tblock"):
+                want = stream[{"block": "direct", "tblock": "table"}.get(p, p)]
                 mismatches = sum(1 for o, w in zip(outs, want) if list(o) != list(w))
                 first = next((i for i, (o, w) in enumerate(zip(outs, want)) if list(o) != list(w)), None)
             else:
                 first = None
             base_cyc = sum(run.call("bench_empty", i)[1] for i in range(n)) / n
+            if p not in ("block", "tblock"):
+                # Samples that rebuilt their stage or table (more than four times the median) apart from the
+                # others (the hits): what a held temperature costs once the build is paid.
+                med = sorted(counts)[n // 2]
+                hits = [k for k in counts if k <= 4 * med]
+                builds = [k for k in counts if k > 4 * med]
+                extra["insns_hit_mean"] = sum(hits) / len(hits)
+                extra["builds"] = len(builds)
+                extra["build_insns_mean"] = sum(builds) / len(builds) if builds else None
             sres[p] = {
                 "insns_mean": sum(counts) / n,
                 "insns_max": max(counts),
@@ -392,9 +417,48 @@ def main():
     result["static_ram"] = sum(ram.values())
     result["static_ram_objects"] = ram
     result["cache_bytes"] = img.symbols.get("bench_cache", (0, 0, ""))[1]
+    result["table_bytes"] = img.symbols.get("bench_table_state", (0, 0, ""))[1]
     if a.json:
         json.dump(result, open(a.json, "w"), indent=1)
-    print(json.dumps(result, indent=1))
+    if a.profile:
+        print_profile(a.elf, profile, {s["name"]: len(s["code"]) for s in bench["streams"]})
+    else:
+        print(json.dumps(result, indent=1))
+
+
+def print_profile(elf, per_sample, samples):
+    """Instructions per sample by the innermost (inlined) function and by source line, from addr2line; the
+    samples that built a stage or table (more than four times the median) are left out."""
+    profile = {}
+    for name, runs in per_sample.items():
+        med = sorted(k for k, _ in runs)[len(runs) // 2]
+        kept = [c for k, c in runs if k <= 4 * med]
+        samples[name] = len(kept)
+        profile[name] = sum(kept, Counter())
+    addrs = sorted({x for c in profile.values() for x in c})
+    if not addrs:
+        print("no samples profiled")
+        return
+    # Without -i, addr2line names the innermost inlined function of each address and its line.
+    where = {}
+    lines = tool("arm-none-eabi-addr2line", "-e", elf, "-f", "-C", *[hex(x) for x in addrs]).splitlines()
+    for i, x in enumerate(addrs):
+        fn, loc = lines[2 * i], lines[2 * i + 1]
+        where[x] = (fn, loc.split("/")[-1].split(" ")[0])
+    for name, c in profile.items():
+        n = samples[name]
+        by_fn, by_line = Counter(), Counter()
+        for x, k in c.items():
+            fn, loc = where[x]
+            by_fn[fn] += k
+            by_line[(fn, loc)] += k
+        total = sum(c.values()) / n
+        print(f"== stream {name}: {total:,.0f} instructions per sample (call included) ==")
+        for fn, k in by_fn.most_common(25):
+            print(f"  {k / n:8.1f}  {fn}")
+        print("  -- lines --")
+        for (fn, loc), k in by_line.most_common(40):
+            print(f"  {k / n:8.1f}  {loc:28s} {fn}")
 
 
 if __name__ == "__main__":

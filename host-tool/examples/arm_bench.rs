@@ -8,7 +8,7 @@
 //!   three temperatures of the calibration);
 //! * `bench.json`: the input streams (log code, temperature code or m°C) and, for each, the results of
 //!   the host library's fixed path (status, x, power dB, ratio) one call at a time and through the
-//!   stage cache in stream order: what the ARM builds must reproduce bit for bit.
+//!   stage cache and through the code table in stream order: what the ARM builds must reproduce bit for bit.
 //!
 //! `arm_bench COEFFS.json OUT_DIR [SAMPLES]`. Streams are drawn by a seeded generator over the calibrated
 //! ranges: `new` (a new temperature at every sample), `held` (one temperature), `wander` (an oversampled
@@ -18,7 +18,7 @@
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
-use logtrim::fixed::{FixedCalibration, FixedReading, StageCache};
+use logtrim::fixed::{CodeTable, FixedCalibration, FixedReading, StageCache};
 use logtrim::{Error, Unit};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::emit::{self, c::status_code, Format, Provenance};
@@ -51,6 +51,8 @@ struct Stream {
     direct: Vec<[i64; 6]>,
     /// The same through one stage cache over the stream, in order.
     cached: Vec<[i64; 6]>,
+    /// The same through one code table over the stream, in order.
+    table: Vec<[i64; 6]>,
 }
 
 #[derive(Serialize)]
@@ -216,7 +218,13 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         let mut cache = StageCache::new(view);
         let cached =
             code.iter().zip(&temp).map(|(&c, &t)| outputs(correct_cached(&mut cache, raw, c, t))).collect();
-        streams.push(Stream { name, code, temp, direct, cached });
+        let mut table = CodeTable::new(view);
+        let table = code
+            .iter()
+            .zip(&temp)
+            .map(|(&c, &t)| outputs(if raw { table.correct_raw(c, t) } else { table.correct(c, t as i32) }))
+            .collect();
+        streams.push(Stream { name, code, temp, direct, cached, table });
     }
     let doc = Doc {
         unit: file.unit.clone().unwrap_or_default(),

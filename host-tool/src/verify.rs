@@ -36,13 +36,21 @@
 //! (within 1e-12 Np), with the Newton solve of the bend warm-started from the previous code.
 //! [`VerifyOptions::exact_reference`] runs `correct_f64`'s own steps instead.
 //!
+//! The fixed path's code table ([`CodeTable`], the per-sample path of a held or slowly wandering
+//! temperature) interpolates x itself, so it is not bit for bit the staged path: it is verified on its
+//! own ("fixed, code table" in the report), every code of every row through a table kept for the row
+//! (built for the row's temperature window, then the temperature's fraction in that window), against the
+//! same reference and bound. The grid's temperatures fall at many fractions of each window (steps of at
+//! most 0.05 K in windows of about half a kelvin, or every temperature code), so the line in temperature
+//! is checked across the window, not just at its ends.
+//!
 //! Temperature rows run in parallel (rayon).
 
 // Comparisons are written as `!(a > b)` on purpose: a NaN makes them true and so is rejected.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 use logtrim::calibration::{F64Stage, ReadingF64, ReferenceSweep};
-use logtrim::fixed::{FixedCalibration, X_FRAC};
+use logtrim::fixed::{CodeTable, FixedCalibration, X_FRAC};
 use logtrim::math::{Backend, Libm, Micromath};
 use logtrim::{Calibration, Error};
 use rayon::prelude::*;
@@ -81,6 +89,9 @@ pub struct VerifyOptions {
     pub check_fixed: bool,
     /// Verify the f32 path.
     pub check_f32: bool,
+    /// Verify the fixed path's code table ([`CodeTable`], the per-sample path at a held or slowly wandering
+    /// temperature) on its own: every point through a table kept per temperature row.
+    pub check_table: bool,
     /// Evaluate the reference at every point by the exact path of [`Calibration::correct_f64`] (staged once
     /// per temperature) instead of the warm-started sweep ([`ReferenceSweep`]: the same statuses, values
     /// within 1e-12 Np, fewer `exp` calls).
@@ -98,6 +109,7 @@ impl Default for VerifyOptions {
             f32_backend: F32Backend::Libm,
             check_fixed: true,
             check_f32: true,
+            check_table: true,
             exact_reference: false,
         }
     }
@@ -221,6 +233,8 @@ pub struct VerifyReport {
     pub fixed: PathReport,
     /// The f32 path.
     pub f32: PathReport,
+    /// The fixed path through its code table ([`CodeTable`]).
+    pub table: PathReport,
     /// The f32 backend.
     pub f32_backend: F32Backend,
     /// Every how many log codes were verified (1: every code).
@@ -243,9 +257,13 @@ impl VerifyReport {
     pub fn f32_passed(&self) -> bool {
         !self.f32.checked || (self.f32.errors.max_lsb <= self.bound_lsb && self.f32.status.outside == 0)
     }
-    /// Both paths passed.
+    /// Whether the code table is within the bound and agrees outside the edge band.
+    pub fn table_passed(&self) -> bool {
+        !self.table.checked || (self.table.errors.max_lsb <= self.bound_lsb && self.table.status.outside == 0)
+    }
+    /// Every verified path passed.
     pub fn passed(&self) -> bool {
-        self.fixed_passed() && self.f32_passed()
+        self.fixed_passed() && self.f32_passed() && self.table_passed()
     }
 }
 
@@ -350,8 +368,10 @@ struct RowOut {
     reference_values: u64,
     fixed: Acc,
     f32: Acc,
+    table: Acc,
     fixed_examples: Vec<Disagreement>,
     f32_examples: Vec<Disagreement>,
+    table_examples: Vec<Disagreement>,
 }
 
 const MAX_EXAMPLES: usize = 10;
@@ -464,9 +484,12 @@ pub fn run_with_progress(
         total.reference_values += r.reference_values;
         total.fixed = total.fixed.merge(r.fixed);
         total.f32 = total.f32.merge(r.f32);
-        for (dst, src) in
-            [(&mut total.fixed_examples, r.fixed_examples), (&mut total.f32_examples, r.f32_examples)]
-        {
+        total.table = total.table.merge(r.table);
+        for (dst, src) in [
+            (&mut total.fixed_examples, r.fixed_examples),
+            (&mut total.f32_examples, r.f32_examples),
+            (&mut total.table_examples, r.table_examples),
+        ] {
             let room = MAX_EXAMPLES.saturating_sub(dst.len());
             dst.extend(src.into_iter().take(room));
         }
@@ -497,6 +520,7 @@ pub fn run_with_progress(
         edge_codes: opts.edge_codes,
         fixed: report(opts.check_fixed, &total.fixed, total.fixed_examples),
         f32: report(opts.check_f32, &total.f32, total.f32_examples),
+        table: report(opts.check_table, &total.table, total.table_examples),
         f32_backend: opts.f32_backend,
         code_stride: opts.code_stride,
         temp_stride: opts.temp_stride,
@@ -590,10 +614,13 @@ fn row<B: Backend>(
         }
     });
     let f32_stage = g.celsius.map(|t| cal.stage_with::<B>(t as f32));
+    // The code table, one per row: built for the row's temperature window at the first code, then an
+    // index and an interpolation per code (or its stage cache where the table falls back).
+    let mut table = CodeTable::new(*fixed);
     let n = codes.len();
     let mut statuses = Vec::with_capacity(n);
     // (index, path status) of each point where a path disagrees with the reference.
-    let mut pending: [Vec<(usize, Status)>; 2] = [Vec::new(), Vec::new()];
+    let mut pending: [Vec<(usize, Status)>; 3] = [Vec::new(), Vec::new(), Vec::new()];
     let mut out = RowOut::default();
     let temp_c = g.celsius.unwrap_or(f64::NAN);
     let at = (temp_c, g.code);
@@ -624,6 +651,13 @@ fn row<B: Backend>(
         if opts.check_fixed {
             tally(&mut out.fixed, &mut pending[0], i, code, &r, d, fx, at);
         }
+        if opts.check_table {
+            let tx = match g.code {
+                Some(tc) => table.correct_raw(code, tc),
+                None => table.correct(code, g.millicelsius),
+            };
+            tally(&mut out.table, &mut pending[2], i, code, &r, d, tx.map(|v| f64::from(v.x) / q), at);
+        }
         if opts.check_f32 {
             tally(&mut out.f32, &mut pending[1], i, code, &r, d, f3, at);
         }
@@ -638,10 +672,10 @@ fn row<B: Backend>(
         (lo..=hi).any(|j| !statuses[j].same_kind(&statuses[i]))
     };
     for (k, list) in pending.iter().enumerate() {
-        let (acc, examples) = if k == 0 {
-            (&mut out.fixed, &mut out.fixed_examples)
-        } else {
-            (&mut out.f32, &mut out.f32_examples)
+        let (acc, examples) = match k {
+            0 => (&mut out.fixed, &mut out.fixed_examples),
+            1 => (&mut out.f32, &mut out.f32_examples),
+            _ => (&mut out.table, &mut out.table_examples),
         };
         for (i, p) in list {
             let r = &statuses[*i];
@@ -747,9 +781,11 @@ impl VerifyReport {
             F32Backend::Libm => "f32 (libm)",
             F32Backend::Micromath => "f32 (micromath)",
         };
-        for (name, p, ok) in
-            [("fixed", &self.fixed, self.fixed_passed()), (backend, &self.f32, self.f32_passed())]
-        {
+        for (name, p, ok) in [
+            ("fixed", &self.fixed, self.fixed_passed()),
+            ("fixed, code table", &self.table, self.table_passed()),
+            (backend, &self.f32, self.f32_passed()),
+        ] {
             if !p.checked {
                 writeln!(f, "{name}: not verified")?;
                 continue;

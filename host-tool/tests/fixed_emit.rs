@@ -13,7 +13,7 @@ use std::path::{Path, PathBuf};
 
 use common::cc::CBuild;
 use common::{ntc, units};
-use logtrim::fixed::{FixedCalibration, FixedReading, StageCache};
+use logtrim::fixed::{CodeTable, FixedCalibration, FixedReading, StageCache};
 use logtrim::image::{self, ImageInfo};
 use logtrim::{Error, Unit};
 use logtrim_host::emit::c::{status_code, CName};
@@ -110,7 +110,8 @@ fn emitted_json_round_trips() {
 
 /// One input line for the C driver and the Rust path: `m CODE TEMP_MC`, `r CODE TEMP_CODE`, `w CODE TEMP_MC`
 /// (through a temperature stage), `b CODE TEMP_MC` (the block of the eight codes from CODE at one stage),
-/// `c`/`k` (through one stage cache kept across lines, by temperature code or m°C).
+/// `c`/`k` (through one stage cache kept across lines, by temperature code or m°C), `t`/`u` (through one code
+/// table kept across lines, by m°C or temperature code), `B` (the block of eight codes through the code table).
 fn inputs() -> Vec<(char, u32, i64)> {
     let mut v = Vec::new();
     let codes: Vec<u32> = (0..=65535u32)
@@ -151,6 +152,19 @@ fn inputs() -> Vec<(char, u32, i64)> {
         v.push(('k', code, 24_900 + (i * 37) % 700));
         v.push(('c', code, 1500 + i % 5));
     }
+    // Through the code table: a temperature wandering over two kelvin in 3 m°C steps (window ends crossed), by
+    // m°C and by temperature code, codes over the whole converter (the table's intervals, its fallbacks
+    // and every status), bad temperatures, and blocks.
+    for (i, &code) in codes.iter().enumerate() {
+        let i = i as i64;
+        v.push(('t', code, 24_000 + (i * 3) % 2000));
+        v.push(('u', code, 1400 + (i / 7) % 40));
+        if i % 50 == 0 {
+            v.push(('t', code, 90_001));
+            v.push(('u', code, 4095));
+            v.push(('B', code, 31_000 + i));
+        }
+    }
     // Through one stage cache kept across lines: temperatures repeated (hits), changed (misses), bad ones
     // (uncached errors), and m°C keys next to temperature codes of the same number.
     for &code in &codes {
@@ -177,8 +191,23 @@ fn reading_text(r: &Result<FixedReading, Error>) -> String {
     s
 }
 
-fn rust_line(c: &FixedCalibration<'_>, cache: &mut StageCache<'_>, kind: char, code: u32, t: i64) -> String {
+fn rust_line(
+    c: &FixedCalibration<'_>,
+    cache: &mut StageCache<'_>,
+    table: &mut CodeTable<'_>,
+    kind: char,
+    code: u32,
+    t: i64,
+) -> String {
     let r: Result<FixedReading, Error> = match kind {
+        't' => table.correct(code, t as i32),
+        'u' => table.correct_raw(code, t as u32),
+        'B' => {
+            let codes: Vec<u32> = (0..8).map(|k| code.saturating_add(k * 9)).collect();
+            let mut out = vec![Err(Error::NotCalibrated); 8];
+            assert_eq!(table.correct_block(t as i32, &codes, &mut out), 8);
+            return out.iter().map(reading_text).collect::<Vec<_>>().join(" | ");
+        }
         'm' => c.correct(code, t as i32),
         'c' => cache.correct_raw(code, t as u32),
         'k' => cache.correct(code, t as i32),
@@ -222,11 +251,27 @@ static void print_reading(ltrm_status st, const ltrm_reading *r) {
     }
 }
 
+/* Eight codes from `code`, `stride` apart (saturating), corrected as one block, printed on one line. */
+static void print_block(const ltrm_status *sts, const ltrm_reading *out) {
+    uint32_t i;
+    for (i = 0; i < 8; i++) {
+        if (i) printf(" | ");
+        print_reading(sts[i], &out[i]);
+    }
+    printf("\n");
+}
+
+static void block_codes(uint32_t code, uint32_t stride, uint32_t *codes) {
+    uint32_t i;
+    for (i = 0; i < 8; i++) codes[i] = code + stride * i < code ? 0xffffffffu : code + stride * i;
+}
+
 int main(int argc, char **argv) {
     char kind;
     unsigned long code;
     long long t;
     static ltrm_stage_cache cache;
+    static ltrm_code_table table;
     static ltrm_fixed loaded;
     static uint8_t image[LTRM_L_MAX];
     const ltrm_fixed *unit = &hard;
@@ -247,10 +292,23 @@ int main(int argc, char **argv) {
         unit = &loaded;
     }
     ltrm_stage_cache_init(&cache, unit);
+    ltrm_code_table_init(&table, unit);
     while (scanf(" %c %lu %lld", &kind, &code, &t) == 3) {
         ltrm_reading r;
         ltrm_status st;
-        if (kind == 'c') {
+        if (kind == 't') {
+            st = ltrm_code_table_correct(&table, (uint32_t)code, (int32_t)t, &r);
+        } else if (kind == 'u') {
+            st = ltrm_code_table_correct_raw(&table, (uint32_t)code, (uint32_t)t, &r);
+        } else if (kind == 'B') {
+            uint32_t codes[8];
+            ltrm_reading out[8];
+            ltrm_status sts[8];
+            block_codes((uint32_t)code, 9u, codes);
+            ltrm_code_table_block(&table, (int32_t)t, codes, 8, out, sts);
+            print_block(sts, out);
+            continue;
+        } else if (kind == 'c') {
             st = ltrm_stage_cache_correct_raw(&cache, (uint32_t)code, (uint32_t)t, &r);
         } else if (kind == 'k') {
             st = ltrm_stage_cache_correct(&cache, (uint32_t)code, (int32_t)t, &r);
@@ -260,7 +318,7 @@ int main(int argc, char **argv) {
             if (st == LTRM_OK) st = ltrm_correct_staged(unit, &s, (uint32_t)code, &r);
         } else if (kind == 'b') {
             static ltrm_stage s;
-            uint32_t codes[8], i;
+            uint32_t codes[8];
             ltrm_reading out[8];
             ltrm_status sts[8];
             st = ltrm_stage_millicelsius(unit, (int32_t)t, &s);
@@ -268,13 +326,9 @@ int main(int argc, char **argv) {
                 printf("%d\n", (int)st);
                 continue;
             }
-            for (i = 0; i < 8; i++) codes[i] = (uint32_t)code + i < (uint32_t)code ? 0xffffffffu : (uint32_t)code + i;
+            block_codes((uint32_t)code, 1u, codes);
             ltrm_correct_block(unit, &s, codes, 8, out, sts);
-            for (i = 0; i < 8; i++) {
-                if (i) printf(" | ");
-                print_reading(sts[i], &out[i]);
-            }
-            printf("\n");
+            print_block(sts, out);
             continue;
         } else if (kind == 'm') {
             st = ltrm_correct(unit, (uint32_t)code, (int32_t)t, &r);
@@ -299,13 +353,20 @@ fn agree(exe: &Path, args: &[&str], view: FixedCalibration<'_>, label: &str) {
     let lines: Vec<&str> = text.lines().collect();
     assert_eq!(lines.len(), inputs.len(), "{label}");
     let mut cache = StageCache::new(view);
+    let mut table = CodeTable::new(view);
     let mut ok = 0;
+    let mut from_table = 0;
     for ((k, code, t), line) in inputs.iter().zip(&lines) {
-        let want = rust_line(&view, &mut cache, *k, *code, *t);
+        let want = rust_line(&view, &mut cache, &mut table, *k, *code, *t);
+        if *k == 't' && want != rust_line(&view, &mut cache, &mut table, 'm', *code, *t) {
+            from_table += 1;
+        }
         assert_eq!(*line, want, "{label}: input {k} {code} {t}");
         ok += usize::from(line.starts_with("0 "));
     }
     assert!(ok > 4000, "{label}: only {ok} inputs gave a value: the comparison would prove little");
+    // The code table's own values (not its fallbacks to the direct path) were compared too.
+    assert!(from_table > 100, "{label}: only {from_table} code-table values differ from the direct path's");
 }
 
 #[test]

@@ -39,6 +39,9 @@ bench_out bench_out_buf[BENCH_MAX];
 
 /* The stage cache a firmware would keep (its size is reported as state). */
 ltrm_stage_cache bench_cache;
+/* The code table a firmware would keep (its size is reported as state): x over the log code for the
+ * temperature window of the last sample. */
+ltrm_code_table bench_table_state;
 
 static void put(uint32_t i, ltrm_status st, const ltrm_reading *r) {
     bench_out *o = &bench_out_buf[i];
@@ -58,39 +61,64 @@ static void put(uint32_t i, ltrm_status st, const ltrm_reading *r) {
     o->ratio = o->ratio_status == LTRM_OK ? v : 0;
 }
 
-BENCH_API void bench_reset(void) { ltrm_stage_cache_init(&bench_cache, &LT_UNIT); }
+BENCH_API void bench_reset(void) {
+    ltrm_stage_cache_init(&bench_cache, &LT_UNIT);
+    ltrm_code_table_init(&bench_table_state, &LT_UNIT);
+}
 
 /* The call alone: what the runner subtracts from every path. */
 BENCH_API void bench_empty(uint32_t i) { bench_out_buf[i].status = (int32_t)(bench_code[i] ^ bench_temp[i]); }
 
+/* The temperature as the unit reads it: a raw channel's code (the library's *_raw entry points) or m°C. */
+#if NAIVE_RAW
+#define BY_TEMP(f) f##_raw
+#define TEMP(i) (bench_temp[i])
+#else
+#define BY_TEMP(f) f
+#define TEMP(i) ((int32_t)bench_temp[i])
+#endif
+
 /* One call per sample, the temperature converted at every sample. */
 BENCH_API void bench_direct(uint32_t i) {
     ltrm_reading r;
-    ltrm_status st;
-#if NAIVE_RAW
-    st = ltrm_correct_raw(&LT_UNIT, bench_code[i], bench_temp[i], &r);
-#else
-    st = ltrm_correct(&LT_UNIT, bench_code[i], (int32_t)bench_temp[i], &r);
-#endif
+    ltrm_status st = BY_TEMP(ltrm_correct)(&LT_UNIT, bench_code[i], TEMP(i), &r);
     put(i, st, &r);
 }
 
 /* Through the stage cache kept across samples. */
 BENCH_API void bench_cached(uint32_t i) {
     ltrm_reading r;
-    ltrm_status st;
-#if NAIVE_RAW
-    st = ltrm_stage_cache_correct_raw(&bench_cache, bench_code[i], bench_temp[i], &r);
-#else
-    st = ltrm_stage_cache_correct(&bench_cache, bench_code[i], (int32_t)bench_temp[i], &r);
-#endif
+    ltrm_status st = BY_TEMP(ltrm_stage_cache_correct)(&bench_cache, bench_code[i], TEMP(i), &r);
     put(i, st, &r);
+}
+
+/* Through the code table kept across samples. */
+BENCH_API void bench_table(uint32_t i) {
+    ltrm_reading r;
+    ltrm_status st = BY_TEMP(ltrm_code_table_correct)(&bench_table_state, bench_code[i], TEMP(i), &r);
+    put(i, st, &r);
+}
+
+/* The code table's block API at sample 0's temperature: the first n codes as one block, then each result
+ * stored as the other paths store theirs. bench_table_prime builds the table first (a block of one code). */
+BENCH_API void bench_table_prime(uint32_t i) {
+    ltrm_reading r;
+    ltrm_status st;
+    BY_TEMP(ltrm_code_table_block)(&bench_table_state, TEMP(i), &bench_code[i], 1u, &r, &st);
+}
+
+ltrm_reading bench_block_out[BENCH_MAX];
+ltrm_status bench_block_status[BENCH_MAX];
+
+BENCH_API void bench_tblock(uint32_t n) {
+    uint32_t i;
+    if (n > BENCH_MAX) n = BENCH_MAX;
+    BY_TEMP(ltrm_code_table_block)(&bench_table_state, TEMP(0), bench_code, n, bench_block_out, bench_block_status);
+    for (i = 0; i < n; i++) put(i, bench_block_status[i], &bench_block_out[i]);
 }
 
 /* The block API: the stage at one temperature, then a block of codes at it. */
 ltrm_stage bench_stage;
-ltrm_reading bench_block_out[BENCH_MAX];
-ltrm_status bench_block_status[BENCH_MAX];
 
 /* Builds the stage at sample i's temperature: what a block pays once. */
 BENCH_API void bench_stage_at(uint32_t i) {

@@ -83,24 +83,24 @@ const MEMO: usize = STAGE_MEMO;
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct StageCache<'a> {
-    cal: FixedCalibration<'a>,
+    pub(super) cal: FixedCalibration<'a>,
     /// The kept window's index on the grid, [`NO_WINDOW`] when empty.
-    window: u32,
-    values: Window,
+    pub(super) window: u32,
+    pub(super) values: Window,
     /// The residual's columns at the window's start and their change to its end.
-    row0: [i32; ROW_CAPACITY],
-    drow: [i32; ROW_CAPACITY],
+    pub(super) row0: [i32; ROW_CAPACITY],
+    pub(super) drow: [i32; ROW_CAPACITY],
     /// Columns available (all of them for tables that validate).
-    len: usize,
+    pub(super) len: usize,
     /// `(temperature code + 1, θ)` of recent codes; 0 marks an empty entry.
     memo: [(u32, i32); MEMO],
     /// The header's per-sample and temperature values, gathered once.
-    plan: Plan,
-    grid: Grid,
+    pub(super) plan: Plan,
+    pub(super) grid: Grid,
 }
 
 /// [`StageCache::window`] when no window is kept (no grid has that many windows).
-const NO_WINDOW: u32 = u32::MAX;
+pub(super) const NO_WINDOW: u32 = u32::MAX;
 
 impl<'a> StageCache<'a> {
     /// An empty cache over a calibration (validate the calibration first, as for direct use).
@@ -147,7 +147,7 @@ impl<'a> StageCache<'a> {
 
     /// θ of a temperature code, remembered for the next time.
     #[inline(always)]
-    fn theta_of_code(&mut self, temp_code: u32) -> Result<i32, Error> {
+    pub(super) fn theta_of_code(&mut self, temp_code: u32) -> Result<i32, Error> {
         let key = temp_code.checked_add(1);
         let slot = self.memo.get_mut(temp_code as usize % MEMO);
         if let (Some(key), Some(slot)) = (key, slot) {
@@ -162,7 +162,7 @@ impl<'a> StageCache<'a> {
     }
 
     #[inline(always)]
-    fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
+    pub(super) fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
         let pos = self.grid.window_of(theta)?;
         if pos.index != self.window && !self.load(pos.index)? {
             // A row wider than the cache: the direct path, uncached (tables `validate` refuses).
@@ -189,7 +189,7 @@ impl<'a> StageCache<'a> {
     /// Columns the residual table does not have (tables `validate` refuses) are left out, so a code that
     /// needs one gets the direct path's error.
     #[inline(never)]
-    fn load(&mut self, index: u32) -> Result<bool, Error> {
+    pub(super) fn load(&mut self, index: u32) -> Result<bool, Error> {
         self.window = NO_WINDOW;
         let values = self.cal.window(index)?;
         let n = usize::from(self.cal.header.xa_knots) + 2;

@@ -256,6 +256,72 @@ fn stage_cache_is_bit_identical_to_the_direct_path() {
     }
 }
 
+/// The code table's reading against the direct path's: the same status, or x within a quarter of the
+/// local code step (the direct path's x change to the next code) plus two Q24 units; where one of the two
+/// is outside the calibrated x range, the other's x is within that of the range's end.
+fn near_direct(c: &FixedCalibration<'_>, t: Result<FixedReading, Error>, code: u32, mc: i32) -> bool {
+    let d = c.correct(code, mc);
+    let step = |x: i32| {
+        let n = c.correct(code.saturating_add(1), mc).or_else(|_| c.correct(code.saturating_sub(1), mc));
+        n.map_or(1, |n| (i64::from(n.x) - i64::from(x)).abs().max(1))
+    };
+    // 4·|a − b| ≤ step + 8: within a quarter of the step and two units.
+    let near = |a: i32, b: i32, x: i32| 4 * (i64::from(a) - i64::from(b)).abs() <= step(x) + 8;
+    let h = &c.header;
+    let edge = |x: i32| if x < h.x_min / 2 + h.x_max / 2 { h.x_min } else { h.x_max };
+    match (t, d) {
+        (Ok(a), Ok(b)) => a.temperature_extrapolated == b.temperature_extrapolated && near(a.x, b.x, b.x),
+        (Err(a), Err(b)) => a == b,
+        (Ok(a), Err(Error::BelowRange | Error::AboveRange)) => near(a.x, edge(a.x), a.x),
+        (Err(Error::BelowRange | Error::AboveRange), Ok(b)) => near(b.x, edge(b.x), b.x),
+        _ => false,
+    }
+}
+
+#[test]
+fn code_table_follows_the_direct_path() {
+    // A wandering temperature through one table (window ends crossed), codes over the whole converter and
+    // beyond: within a quarter of the local code step of the direct path, the same errors elsewhere; a
+    // block at one temperature gives the one-sample results.
+    for o in [linear(), bent(), drifting()] {
+        let c = o.view();
+        let mut table = CodeTable::new(c);
+        let mut interpolated = 0;
+        for k in 0..400i32 {
+            let mc = 20_000 + (k * 37) % 3000 - 1500 + if k % 97 == 0 { 90_000 } else { 0 };
+            for code in (0..=65535u32).step_by(1999 + k as usize).chain([15, 16, 17, 65519, 65520, u32::MAX])
+            {
+                let t = table.correct(code, mc);
+                assert!(
+                    near_direct(&c, t, code, mc),
+                    "code {code} at {mc} m°C: {t:?} vs {:?}",
+                    c.correct(code, mc)
+                );
+                interpolated += usize::from(t.is_ok() && t != c.correct(code, mc));
+            }
+        }
+        // The table's own values were compared, not only its fallbacks (the linear unit's table is exact).
+        assert!(!o.header.bias_bend || interpolated > 100, "{interpolated} values from the table");
+        let codes: Vec<u32> = (0..=65535u32).step_by(257).chain([0, u32::MAX]).collect();
+        let mut out = vec![Err(Error::NotCalibrated); codes.len()];
+        for mc in [21_000, -9_999, 49_999] {
+            assert_eq!(table.correct_block(mc, &codes, &mut out), codes.len());
+            for (o, &code) in out.iter().zip(&codes) {
+                assert_eq!(*o, table.correct(code, mc), "code {code} at {mc} m°C");
+            }
+        }
+        for tc in [2000u32, 5000, 9] {
+            assert_eq!(table.correct_block_raw(tc, &codes, &mut out), codes.len());
+            for (o, &code) in out.iter().zip(&codes) {
+                assert_eq!(*o, table.correct_raw(code, tc), "code {code}, temperature code {tc}");
+            }
+        }
+        table.clear();
+        assert_eq!(table.usable_intervals().1, 0);
+        assert_eq!(table.calibration(), &c);
+    }
+}
+
 #[test]
 fn cache_stage_and_direct_path_agree_on_random_tables() {
     // Scales and contents anywhere in their ranges (valid or not): the three forms run the same integer
@@ -468,6 +534,8 @@ fn garbage_tables_never_panic_or_wrap() {
             }
             let tc = rng.next() as u32;
             assert_eq!(StageCache::new(c).correct_raw(code, tc), c.correct_raw(code, tc));
+            // The code table builds from any content without a panic or a wrap.
+            let _ = CodeTable::new(c).correct_raw(code, tc);
             if let Ok(s) = c.stage_code(tc) {
                 assert_eq!(c.correct_staged(&s, code), c.correct_raw(code, tc));
             }

@@ -25,6 +25,7 @@ fn verify_passes_fails_and_refuses() {
     let (code, out, err) = logtrim(&[&["verify", c.as_str()][..], &SAMPLED].concat());
     assert_eq!(code, 0, "{out}{err}");
     assert!(out.contains("fixed: PASS") && out.contains("f32 (libm): PASS"), "{out}");
+    assert!(out.contains("fixed, code table: PASS"), "{out}");
     // A bound nothing meets is a failed check, exit 1.
     let (code, out, _) = logtrim(&[&["verify", c.as_str(), "--bound-lsb", "1e-9"][..], &SAMPLED].concat());
     assert_eq!(code, 1, "{out}");

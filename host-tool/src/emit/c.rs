@@ -267,7 +267,7 @@ fn shared_definitions() -> String {
     use logtrim::fixed::{self as f, transcend as t};
     let mut out =
         String::from("/* ---- constants shared with logtrim::fixed (rendered from its items) ---- */\n");
-    let defs: [(&str, String, &str); 40] = [
+    let defs: [(&str, String, &str); 42] = [
         (
             "LTRM_LAYOUT_VERSION",
             format!("{}u", f::LAYOUT_VERSION),
@@ -294,6 +294,8 @@ fn shared_definitions() -> String {
         ("LTRM_RESIDUAL_FRAC_MAX", format!("{}u", f::RESIDUAL_FRAC_RANGE.1), "fixed::RESIDUAL_FRAC_RANGE"),
         ("LTRM_ROW_CAPACITY", format!("{}u", f::ROW_CAPACITY), "fixed::ROW_CAPACITY"),
         ("LTRM_STAGE_MEMO", format!("{}u", f::STAGE_MEMO), "fixed::STAGE_MEMO"),
+        ("LTRM_TABLE_KNOTS", format!("{}u", f::TABLE_KNOTS), "fixed::TABLE_KNOTS"),
+        ("LTRM_TABLE_ERROR_LOG2", format!("{}u", f::TABLE_ERROR_LOG2), "fixed::TABLE_ERROR_LOG2"),
         (
             "LTRM_BEND_FLOOR_BIT",
             format!("{}u", f::X_FRAC as i32 + t::BEND_FIRST_EXP),

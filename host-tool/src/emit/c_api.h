@@ -16,6 +16,18 @@ void ltrm_correct_block(const ltrm_fixed *c, const ltrm_stage *s, const uint32_t
 void ltrm_stage_cache_init(ltrm_stage_cache *k, const ltrm_fixed *c);
 ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code, ltrm_reading *out);
 ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out);
+/* The per-sample path at a held or slowly wandering temperature (logtrim::fixed::CodeTable): x from a table
+ * over the log code for the temperature's window, within the bound `logtrim verify` proves for it (its
+ * "code table" row), and bit for bit ltrm_correct's where the table falls back. One table belongs to one
+ * calibration: initialise it again after loading another. */
+void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c);
+ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out);
+ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out);
+/* Many log codes at one temperature (a DMA buffer): status[i] and out[i] are the one-sample call's for codes[i]. */
+void ltrm_code_table_block(ltrm_code_table *t, int32_t temp_mc, const uint32_t *codes, uint32_t n, ltrm_reading *out,
+                           ltrm_status *status);
+void ltrm_code_table_block_raw(ltrm_code_table *t, uint32_t temp_code, const uint32_t *codes, uint32_t n,
+                               ltrm_reading *out, ltrm_status *status);
 /* The reading in a unit: Q32 for LTRM_RATIO, Q24 for the others. */
 ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_t *out);
 

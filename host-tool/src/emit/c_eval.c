@@ -386,8 +386,8 @@ static inline ltrm_status ltrm_xa(const ltrm_fixed *c, const ltrm_scalars *s, ui
     return LTRM_OK;
 }
 
-/* Step 5: the residual from its four columns at the temperature, then x and its range. */
-static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+/* Step 5 without the range: x~ plus the residual from its four columns at the temperature. */
+static inline int32_t ltrm_x_unranged(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4]) {
     uint32_t fr, n;
     int32_t r;
     fr = c->residual_frac < LTRM_RESIDUAL_FRAC_MIN ? LTRM_RESIDUAL_FRAC_MIN
@@ -395,7 +395,12 @@ static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_
     n = fr + LTRM_COLUMN_GUARD - LTRM_X_FRAC;
     r = ltrm_spline6(cols, t16);
     if (n > 0u) r = ltrm_asr32(r + (1 << (n - 1u)), n);
-    r += xa;
+    return r + xa;
+}
+
+/* Step 5: the residual from its four columns at the temperature, then x and its range. */
+static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_t t16, const int32_t cols[4], int32_t *x) {
+    int32_t r = ltrm_x_unranged(c, xa, t16, cols);
     if (r < c->x_min) return LTRM_BELOW_RANGE;
     if (r > c->x_max) return LTRM_ABOVE_RANGE;
     *x = r;
@@ -556,19 +561,26 @@ static inline ltrm_status ltrm_stage_cache_check_code(const ltrm_stage_cache *k,
     return ltrm_check_code(k->cal, code);
 }
 
+/* theta of a temperature code, remembered in the cache for the next time. */
+static inline ltrm_status ltrm_stage_cache_theta_of_code(ltrm_stage_cache *k, uint32_t temp_code, int32_t *theta) {
+    uint32_t slot = temp_code % LTRM_STAGE_MEMO;
+    ltrm_status st;
+    if (temp_code != UINT32_MAX && k->memo_key[slot] == temp_code + 1u) {
+        *theta = k->memo_theta[slot];
+        return LTRM_OK;
+    }
+    if ((st = ltrm_theta_from_code(k->cal, temp_code, theta)) != LTRM_OK) return st;
+    if (temp_code != UINT32_MAX) { k->memo_key[slot] = temp_code + 1u; k->memo_theta[slot] = *theta; }
+    return LTRM_OK;
+}
+
 /* ltrm_correct_raw through a stage cache. */
 inline ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uint32_t temp_code,
                                                    ltrm_reading *out) {
-    uint32_t slot = temp_code % LTRM_STAGE_MEMO;
     int32_t theta = 0;
     ltrm_status st = ltrm_stage_cache_check_code(k, code);
     if (st != LTRM_OK) return st;
-    if (temp_code != UINT32_MAX && k->memo_key[slot] == temp_code + 1u) {
-        theta = k->memo_theta[slot];
-    } else {
-        if ((st = ltrm_theta_from_code(k->cal, temp_code, &theta)) != LTRM_OK) return st;
-        if (temp_code != UINT32_MAX) { k->memo_key[slot] = temp_code + 1u; k->memo_theta[slot] = theta; }
-    }
+    if ((st = ltrm_stage_cache_theta_of_code(k, temp_code, &theta)) != LTRM_OK) return st;
     return ltrm_stage_cache_theta(k, code, theta, out);
 }
 
@@ -579,6 +591,225 @@ inline ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, 
     if (st != LTRM_OK) return st;
     if ((st = ltrm_theta_from_millicelsius(k->cal, temp_mc, &theta)) != LTRM_OK) return st;
     return ltrm_stage_cache_theta(k, code, theta, out);
+}
+
+/* ---- the code table (logtrim::fixed::CodeTable): x over the log code for the cached temperature window ---- */
+
+/* x of a code at one end (mode 0), the middle (1) or the other end (2) of the cached window: the direct path's
+ * per-code part without the calibrated x range (knots just beyond it continue the curve); 0 where it gives
+ * another error or x is not within +-LTRM_X_LIMIT. */
+static inline int ltrm_knot_x(const ltrm_stage_cache *k, const ltrm_scalars *s, uint32_t code, int mode, int64_t *x) {
+    const ltrm_fixed *c = k->cal;
+    uint32_t seg, t16, i;
+    int32_t xa, cols[4], v;
+    if (ltrm_check_code(c, code) != LTRM_OK) return 0;
+    if (ltrm_xa(c, s, code, &xa, &seg, &t16) != LTRM_OK) return 0;
+    if ((uint64_t)seg + 4u > (uint64_t)k->len) return 0;
+    for (i = 0; i < 4u; i++) {
+        int32_t a = k->row0[seg + i], d = k->drow[seg + i];
+        cols[i] = mode == 0 ? a : (mode == 1 ? a + ltrm_mulh16(d, 1u << 15) : a + d);
+    }
+    v = ltrm_x_unranged(c, xa, t16, cols);
+    if (!(v > -LTRM_X_LIMIT && v < LTRM_X_LIMIT)) return 0;
+    *x = v;
+    return 1;
+}
+
+static inline int64_t ltrm_abs_i64(int64_t v) { return v < 0 ? -v : v; }
+
+/* The build-time checks of interval i: its six knots exist, their differences are below 2^29 at both ends of the
+ * window, the cubic's estimated error (3/128 of the fourth difference) and the line's in temperature are each
+ * below 2^-LTRM_TABLE_ERROR_LOG2 of an LSB. Sums and 32-bit products, never a 64-bit product. */
+static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step, const uint8_t *valid, const uint32_t *bent) {
+    uint32_t lsb = 0xffffffffu, j, limit;
+    int end;
+    for (j = i - 1u; j < i + 5u; j++)
+        if (!valid[j]) return 0;
+    for (end = 0; end < 2; end++) {
+        int64_t x[6], e[5], d3[3], e4, a, b;
+        for (j = 0; j < 6u; j++) {
+            x[j] = t->x0[i - 1u + j];
+            if (end) x[j] += t->dx[i - 1u + j];
+        }
+        for (j = 0; j < 5u; j++) {
+            e[j] = x[j + 1u] - x[j];
+            if (ltrm_abs_i64(e[j]) >= ((int64_t)1 << 29)) return 0;
+        }
+        a = ltrm_abs_i64(e[2]);
+        if ((uint32_t)a < lsb) lsb = (uint32_t)a;
+        d3[0] = e[2] - (e[1] + e[1]) + e[0];
+        d3[1] = e[3] - (e[2] + e[2]) + e[1];
+        d3[2] = e[4] - (e[3] + e[3]) + e[2];
+        e4 = ltrm_abs_i64(d3[1] - d3[0]);
+        b = ltrm_abs_i64(d3[2] - d3[1]);
+        if (b > e4) e4 = b;
+        /* 3/128 of e4 within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|e[2]| / 2^step); |e[2]| < 2^29. */
+        if (e4 >= ((int64_t)1 << 30) || 3u * (uint32_t)e4 > (((uint32_t)a << (7u - LTRM_TABLE_ERROR_LOG2)) >> step)) return 0;
+    }
+    limit = lsb >> (step + LTRM_TABLE_ERROR_LOG2 - 1u);
+    if (lsb == 0u) return 0;
+    for (j = i; j < i + 4u; j++)
+        if (bent[j] > limit) return 0;
+    return 1;
+}
+
+/* Loads window `index` into the stage cache and builds the table for it: x at every knot at the window's start,
+ * middle and end. */
+static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
+    ltrm_stage_cache *k = &t->cache;
+    const ltrm_fixed *c = k->cal;
+    uint32_t qo = c->offset_frac > 30u ? 30u : c->offset_frac, lo = k->code_lo, hi = k->code_hi, step = 0u, base, i;
+    ltrm_scalars s0, s1, s2;
+    uint8_t valid[LTRM_TABLE_KNOTS];
+    uint32_t bent[LTRM_TABLE_KNOTS];
+    int kept = 0;
+    ltrm_status st;
+    t->window = LTRM_NO_WINDOW;
+    for (i = 0; i < LTRM_TABLE_KNOTS; i++) t->usable[i] = 0u;
+    if ((st = ltrm_stage_cache_load(k, index, &kept)) != LTRM_OK) return st;
+    if (!kept) {
+        t->window = index;
+        return LTRM_OK;
+    }
+    if (hi > (LTRM_CODE_LIMIT >> qo) - 1u) hi = (LTRM_CODE_LIMIT >> qo) - 1u;
+    /* The knot step: the smallest power of two that spans lo..=hi with the table's knots. */
+    while (step < 16u) {
+        uint32_t b = lo & ~((1u << step) - 1u);
+        if (((hi > b ? hi - b : 0u) >> step) + 4u <= LTRM_TABLE_KNOTS) break;
+        step++;
+    }
+    base = lo & ~((1u << step) - 1u);
+    ltrm_window_at(&k->values, 0u, &s0);
+    ltrm_window_at(&k->values, 1u << 15, &s1);
+    if ((st = ltrm_end_scalars(c, index + 1u, &s2)) != LTRM_OK) return st;
+    for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
+        uint32_t q = (base >> step) + i;
+        int64_t a, m, b, e;
+        valid[i] = 0u;
+        bent[i] = 0xffffffffu;
+        if (q < i || q == 0u || q - 1u > (0xffffffffu >> step)) continue;
+        if (!ltrm_knot_x(k, &s0, (q - 1u) << step, 0, &a) || !ltrm_knot_x(k, &s1, (q - 1u) << step, 1, &m) ||
+            !ltrm_knot_x(k, &s2, (q - 1u) << step, 2, &b))
+            continue;
+        if (ltrm_abs_i64(b - a) >= ((int64_t)1 << 29)) continue;
+        t->x0[i] = (int32_t)a;
+        t->dx[i] = (int32_t)(b - a);
+        valid[i] = 1u;
+        e = ltrm_abs_i64(m + m - a - b);
+        bent[i] = e > 0xffffffffLL ? 0xffffffffu : (uint32_t)e;
+    }
+    for (i = 1u; i + 4u < LTRM_TABLE_KNOTS; i++) t->usable[i] = (uint8_t)ltrm_interval_ok(t, i, step, valid, bent);
+    t->base = base;
+    t->step = step;
+    t->window = index;
+    return LTRM_OK;
+}
+
+/* x from the table for a checked code at the window fraction f16: 1, or 0 where the interval is not usable. */
+static inline int ltrm_code_table_lookup(const ltrm_code_table *t, uint32_t code, uint32_t f16, int32_t *x) {
+    uint32_t p, i, tt, g, wa, wb;
+    int32_t pm, p0, p1, p2, e0, e1, e2, d0, d1;
+    const int32_t *a, *d;
+    if (code < t->base) return 0;
+    p = code - t->base;
+    i = p >> t->step;
+    if (i + 4u > LTRM_TABLE_KNOTS || !t->usable[i]) return 0;
+    a = t->x0 + i;
+    d = t->dx + i;
+    f16 &= 0xffffu;
+    pm = a[0] + ltrm_mulh16(d[0], f16);
+    p0 = a[1] + ltrm_mulh16(d[1], f16);
+    p1 = a[2] + ltrm_mulh16(d[2], f16);
+    p2 = a[3] + ltrm_mulh16(d[3], f16);
+    e0 = p0 - pm;
+    e1 = p1 - p0;
+    e2 = p2 - p1;
+    d0 = e1 - e0;
+    d1 = e2 - e1;
+    tt = (p & ((1u << t->step) - 1u)) << (16u - t->step);
+    g = (tt * (65536u - tt)) >> 16;
+    wa = (((g * (131072u - tt)) >> 16) * 10923u) >> 16;
+    wb = (((g * (65536u + tt)) >> 16) * 10923u) >> 16;
+    *x = p0 + ltrm_mulh16(e1, tt) - (ltrm_mulh16(d0, wa) + ltrm_mulh16(d1, wb));
+    return 1;
+}
+
+static inline ltrm_status ltrm_code_table_theta(ltrm_code_table *t, uint32_t code, int32_t theta, ltrm_reading *out) {
+    const ltrm_fixed *c = t->cache.cal;
+    uint32_t index, f16;
+    int32_t x;
+    ltrm_status st;
+    /* The last temperature again (held, or a raw channel's code repeated): its window and fraction. */
+    if (theta != t->theta || t->window == LTRM_NO_WINDOW) {
+        if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+        if (index != t->window && (st = ltrm_code_table_build(t, index)) != LTRM_OK) return st;
+        t->theta = theta;
+        t->f16 = f16;
+    }
+    if (ltrm_code_table_lookup(t, code, t->f16, &x)) {
+        if (x < c->x_min) return LTRM_BELOW_RANGE;
+        if (x > c->x_max) return LTRM_ABOVE_RANGE;
+        out->x = x;
+        out->temperature_extrapolated = ltrm_extrapolated(c, theta);
+        return LTRM_OK;
+    }
+    return ltrm_stage_cache_theta(&t->cache, code, theta, out);
+}
+
+inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
+    uint32_t i;
+    ltrm_stage_cache_init(&t->cache, c);
+    t->window = LTRM_NO_WINDOW;
+    t->theta = 0;
+    t->f16 = 0u;
+    t->base = 0u;
+    t->step = 0u;
+    for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
+        t->x0[i] = 0;
+        t->dx[i] = 0;
+        t->usable[i] = 0u;
+    }
+}
+
+inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_theta_from_millicelsius(t->cache.cal, temp_mc, &theta)) != LTRM_OK) return st;
+    return ltrm_code_table_theta(t, code, theta, out);
+}
+
+inline ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
+    int32_t theta = 0;
+    ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
+    if (st != LTRM_OK) return st;
+    if ((st = ltrm_stage_cache_theta_of_code(&t->cache, temp_code, &theta)) != LTRM_OK) return st;
+    return ltrm_code_table_theta(t, code, theta, out);
+}
+
+static inline void ltrm_code_table_codes(ltrm_code_table *t, ltrm_status ts, int32_t theta, const uint32_t *codes, uint32_t n,
+                                         ltrm_reading *out, ltrm_status *status) {
+    uint32_t i;
+    for (i = 0; i < n; i++) {
+        ltrm_status st = ltrm_stage_cache_check_code(&t->cache, codes[i]);
+        if (st == LTRM_OK) st = ts;
+        if (st == LTRM_OK) st = ltrm_code_table_theta(t, codes[i], theta, &out[i]);
+        status[i] = st;
+    }
+}
+
+inline void ltrm_code_table_block(ltrm_code_table *t, int32_t temp_mc, const uint32_t *codes, uint32_t n, ltrm_reading *out,
+                                  ltrm_status *status) {
+    int32_t theta = 0;
+    ltrm_status ts = ltrm_theta_from_millicelsius(t->cache.cal, temp_mc, &theta);
+    ltrm_code_table_codes(t, ts, theta, codes, n, out, status);
+}
+
+inline void ltrm_code_table_block_raw(ltrm_code_table *t, uint32_t temp_code, const uint32_t *codes, uint32_t n,
+                                      ltrm_reading *out, ltrm_status *status) {
+    int32_t theta = 0;
+    ltrm_status ts = ltrm_stage_cache_theta_of_code(&t->cache, temp_code, &theta);
+    ltrm_code_table_codes(t, ts, theta, codes, n, out, status);
 }
 
 /* x*c / 2^32 rounded to nearest (ties up), from the exact product's two words. */

@@ -75,6 +75,21 @@ typedef struct ltrm_stage_cache {
     uint32_t code_lo, code_hi;
 } ltrm_stage_cache;
 
+/* A stage cache and x over the log code axis for its window (logtrim::fixed::CodeTable): knot k at code
+ * base + (k - 1) * 2^step holds x at the window's start and its change to the window's end; usable[i] says
+ * whether codes base + i * 2^step .. are interpolated from knots i..i+3 (else the stage cache corrects
+ * them, exactly as the direct path). Start it with ltrm_code_table_init; one table belongs to one
+ * calibration. About 1.3 KiB. */
+typedef struct ltrm_code_table {
+    ltrm_stage_cache cache;
+    uint32_t window; /* LTRM_NO_WINDOW when empty */
+    int32_t theta;   /* the last theta and its Q16 fraction in the window (valid while a window is kept) */
+    uint32_t f16;
+    uint32_t base, step;
+    int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
+    uint8_t usable[LTRM_TABLE_KNOTS];
+} ltrm_code_table;
+
 /* ---- run-time images and field records ---- */
 
 /* Caller-owned RAM that a unit's tables are copied into when its image is loaded (the C side of

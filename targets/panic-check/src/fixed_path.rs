@@ -1,8 +1,8 @@
 //! The integer path: `FixedCalibration` (tables from an image's fixed section), its stages, the stage
-//! cache, readings in every unit, and the transcendental kernels.
+//! cache, the code table, readings in every unit, and the transcendental kernels.
 
 use crate::{bytes, keep, o};
-use logtrim::fixed::{arith, interp, transcend, FixedCalibration, StageCache};
+use logtrim::fixed::{arith, interp, transcend, CodeTable, FixedCalibration, StageCache};
 use logtrim::image::DefaultFixedStorage;
 use logtrim::{Image, Unit};
 
@@ -57,6 +57,17 @@ pub fn run() {
         keep(cache.calibration().table_bytes());
         cache.clear();
         keep(cache.correct(o(1), o(1)));
+        let mut table = CodeTable::new(cal);
+        keep(table.correct(code, temp_mc));
+        keep(table.correct_raw(code, temp_code));
+        let codes = [code, o(1u32), o(2u32)];
+        let mut out = [Err(logtrim::Error::NonFinite); 3];
+        keep(table.correct_block(temp_mc, &codes, &mut out));
+        keep(table.correct_block_raw(temp_code, &codes, &mut out));
+        keep(out);
+        keep(table.usable_intervals());
+        keep(table.calibration().table_bytes());
+        table.clear();
     });
     keep(transcend::bend_q24(o(0)));
     keep(transcend::exp_q32(o(0)));

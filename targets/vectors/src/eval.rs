@@ -4,7 +4,7 @@
 
 use logtrim::calibration::Calibration;
 use logtrim::field::{Blank, BlankParts, FixedStandard, RecordInfo, Standard, Trim, TrimLimits};
-use logtrim::fixed::{FixedCalibration, FixedReading};
+use logtrim::fixed::{CodeTable, FixedCalibration, FixedReading};
 use logtrim::image::{DefaultFixedStorage, ImageError};
 use logtrim::math::{Libm, Micromath};
 use logtrim::record::crc32;
@@ -51,11 +51,14 @@ pub enum Kind {
     RecordParse = 14,
     /// `Unit::from_x` (libm) and `from_x_with::<Micromath>`: unit index, x.
     UnitFromX = 15,
+    /// `CodeTable::correct_block` of two codes at one temperature (the table built for the first, the
+    /// second from the same table), the second's reading: unit, code, m°C, first code.
+    FixedTable = 16,
 }
 
 impl Kind {
     /// Every kind, in code order.
-    pub const ALL: [Kind; 15] = [
+    pub const ALL: [Kind; 16] = [
         Kind::F32Correct,
         Kind::F32Micromath,
         Kind::F32Mean,
@@ -71,6 +74,7 @@ impl Kind {
         Kind::Blank,
         Kind::RecordParse,
         Kind::UnitFromX,
+        Kind::FixedTable,
     ];
 
     /// The kind of a record's code.
@@ -195,6 +199,13 @@ pub fn eval(kind: Kind, input: &[u32; 5], units: &[TestUnit<'_>], images: &[&[u8
                 let [r] = out;
                 r
             });
+            fixed_outcome(r)
+        }
+        Kind::FixedTable => {
+            let mut table = CodeTable::new(unit()?.fixed);
+            let mut out = [Err(logtrim::Error::NonFinite), Err(logtrim::Error::NonFinite)];
+            table.correct_block(c as i32, &[d, b], &mut out);
+            let [_, r] = out;
             fixed_outcome(r)
         }
         Kind::SensorCode => {

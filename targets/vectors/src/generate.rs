@@ -179,6 +179,7 @@ fn inputs(
             ]
         }
         Kind::UnitFromX => [(i % 7) as u32, value(rng, -20.0, 5.0), 0, 0, 0],
+        Kind::FixedTable => [unit, log_code(rng, cal, temp), mc, log_code(rng, cal, temp), 0],
     }
 }
 

@@ -11,7 +11,7 @@
 #![allow(non_upper_case_globals, static_mut_refs)]
 
 use logtrim::error::SensorFault;
-use logtrim::fixed::{FixedReading, StageCache};
+use logtrim::fixed::{CodeTable, FixedReading, StageCache};
 use logtrim::{Error, Unit};
 
 mod unit {
@@ -89,11 +89,18 @@ fn input(i: usize) -> (u32, u32) {
     unsafe { (bench_code.get(i).copied().unwrap_or(0), bench_temp.get(i).copied().unwrap_or(0)) }
 }
 
+/// The code table a firmware would keep (x over the log code for the last temperature window).
+#[no_mangle]
+pub static mut bench_table_state: CodeTable<'static> = CodeTable::new(unit::LOGTRIM_FIXED);
+
 #[no_mangle]
 #[inline(never)]
 pub extern "C" fn bench_reset() {
     // SAFETY: as above.
-    unsafe { bench_cache = StageCache::new(unit::LOGTRIM_FIXED) }
+    unsafe {
+        bench_cache = StageCache::new(unit::LOGTRIM_FIXED);
+        bench_table_state = CodeTable::new(unit::LOGTRIM_FIXED);
+    }
 }
 
 /// The call alone: what the runner subtracts from every path.
@@ -119,20 +126,70 @@ pub extern "C" fn bench_direct(i: u32) {
     put(i as usize, r);
 }
 
+/// Sample `i` through a kept state (the stage cache or the code table: the same two entry points).
+macro_rules! through {
+    ($state:ident, $i:expr) => {{
+        let (code, t) = input($i as usize);
+        // SAFETY: as above.
+        let r = unsafe {
+            if RAW {
+                $state.correct_raw(code, t)
+            } else {
+                $state.correct(code, t as i32)
+            }
+        };
+        put($i as usize, r);
+    }};
+}
+
 /// Through the stage cache kept across samples.
 #[no_mangle]
 #[inline(never)]
 pub extern "C" fn bench_cached(i: u32) {
-    let (code, t) = input(i as usize);
+    through!(bench_cache, i)
+}
+
+/// Through the code table kept across samples.
+#[no_mangle]
+#[inline(never)]
+pub extern "C" fn bench_table(i: u32) {
+    through!(bench_table_state, i)
+}
+
+/// The code table's block at sample `i`'s temperature for the slice of codes `i..i + n`.
+fn table_block(i: usize, n: usize) {
+    let (_, t) = input(i);
     // SAFETY: as above.
-    let r = unsafe {
-        if RAW {
-            bench_cache.correct_raw(code, t)
-        } else {
-            bench_cache.correct(code, t as i32)
+    unsafe {
+        let n = n.min(MAX.saturating_sub(i));
+        if let (Some(codes), Some(out)) = (bench_code.get(i..i + n), bench_block_buf.get_mut(i..i + n)) {
+            if RAW {
+                bench_table_state.correct_block_raw(t, codes, out);
+            } else {
+                bench_table_state.correct_block(t as i32, codes, out);
+            }
         }
-    };
-    put(i as usize, r);
+    }
+}
+
+/// Builds the code table at sample `i`'s temperature (a block of one code).
+#[no_mangle]
+#[inline(never)]
+pub extern "C" fn bench_table_prime(i: u32) {
+    table_block(i as usize, 1);
+}
+
+/// The first `n` codes as one block through the code table at sample 0's temperature, then each result
+/// stored as the other paths store theirs.
+#[no_mangle]
+#[inline(never)]
+pub extern "C" fn bench_tblock(n: u32) {
+    let n = (n as usize).min(MAX);
+    table_block(0, n);
+    for i in 0..n {
+        // SAFETY: as above.
+        put(i, unsafe { bench_block_buf.get(i).copied().unwrap_or(Err(Error::NotCalibrated)) });
+    }
 }
 
 /// The stage a block of codes is corrected at (the block API).

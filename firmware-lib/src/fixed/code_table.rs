@@ -1,0 +1,386 @@
+//! The per-sample path at table-lookup cost: a [`CodeTable`] holds, for the temperature window of the last
+//! reading, x over the log code axis (a table of at most [`TABLE_KNOTS`] knots `2^s` codes apart), so that a
+//! sample at a held or slowly wandering temperature is an index, a cubic over four knots and a line in
+//! temperature, in 32-bit products only.
+//!
+//! # What it computes
+//!
+//! For the window `[θ₀, θ₁)` of θ (the grid's window, a sixteenth of a temperature knot step) the table
+//! keeps, at every knot code `c_k`, the direct path's x at both ends of the window, `x(c_k, θ₀)` and its
+//! change to `x(c_k, θ₁)`; both are exact [`FixedCalibration::correct`] values. A sample at `(code, θ)`
+//! with θ at the Q16 fraction `f` of the window:
+//!
+//! 1. takes the four knots around the code and moves each along the line in temperature,
+//!    `p_k = x(c_k, θ₀) + f·(x(c_k, θ₁) − x(c_k, θ₀))`;
+//! 2. interpolates them with the cubic through four equally spaced points (Lagrange) at the code's
+//!    fraction `t` between the middle two, written with second differences `δ` so that every product is
+//!    a 16-bit weight times a 32-bit value: `x = p₀ + t·(p₁ − p₀) − t(1 − t)/6·((2 − t)·δ₀ + (1 + t)·δ₁)`;
+//! 3. checks x against the calibrated range, as the direct path does.
+//!
+//! An interval is used only where the build found it safe (all checks at table-build time, none per
+//! sample): its six neighbouring knots are values at both ends and the middle of the window, their
+//! differences fit the per-sample arithmetic (below), the cubic's estimated error from the fourth
+//! difference `(3/128)·|Δ⁴x|` and the line's in temperature (the middle of the window against the mean
+//! of its ends) are each below 2^−[`TABLE_ERROR_LOG2`] = 1/16 of the local LSB (the x step of one code,
+//! `|p₁ − p₀|/2^s`).
+//! Any other sample, and every sample whose temperature is outside the table's window until the table is
+//! rebuilt, goes through the [`StageCache`] the table keeps, i.e. the direct path exactly, errors
+//! included. So near a status boundary (a rail, the sensitivity limit, the calibrated x range) and in a
+//! bend the table cannot hold, the result is bit for bit the direct path's.
+//!
+//! A value from the table is **not** bit for bit the direct path's (it interpolates x, where the direct
+//! path interpolates the per-temperature values): `logtrim verify` checks this path on its own at every
+//! code of its grid against the f64 reference (the `code table` row of its report), with the same ¼-LSB
+//! bound. The C library (`ltrm_code_table_*`) runs the same integer operations and agrees bit for bit.
+//!
+//! # Overflow
+//!
+//! Knot values are x in Q24, within ±[`X_LIMIT`](super::X_LIMIT) (checked when built). For a usable
+//! interval the build proves: every knot's change across the window and every difference of neighbouring
+//! knots, at both ends of the window, below 2^29 in magnitude. A knot moved along the line stays within
+//! one unit of the segment between its two ends, so the per-sample differences stay below 2^29 + 2 and the
+//! second differences below 2^30 + 4; the weights `t(1 − t)(2 − t)/6` and `t(1 − t)(1 + t)/6` are below
+//! 1/12 (Q16), so the cubic's correction is below 2^27 and x below 2^30.7 + 2^27. No division, no 64-bit
+//! product per sample; the build uses 64-bit additions and comparisons only.
+//!
+//! # Cost
+//!
+//! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,288 bytes in C, 1,476 in Rust,
+//! the stage cache's 620 and 808 included). Building the table for a window evaluates the direct path's
+//! per-code part three times per knot (216 chains; 101,000–139,000 instructions on a Cortex-M0); it
+//! happens when a sample's temperature leaves the window (a window is `2^(t_step_log2 − 4)` θ, half a
+//! kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample once the table is built at
+//! 461–637 instructions on a Cortex-M0 and 237–340 on a Cortex-M4F (with its dB and ratio), against
+//! 746–943 and 454–556 through the stage cache.
+
+use super::arith::mulh16;
+use super::interp::four;
+use super::stage::{StageCache, NO_WINDOW};
+use super::{FixedCalibration, FixedReading, Scalars, X_LIMIT};
+use crate::error::Error;
+
+/// Knots of a [`CodeTable`]: the knot step is the smallest power of two that spans the converter's
+/// usable codes with this many knots (1024 codes for a 16-bit converter, 64 for a 12-bit one).
+pub const TABLE_KNOTS: usize = 72;
+/// An interval is used where its estimated errors are below `2^−TABLE_ERROR_LOG2` LSB each (1/16: with the
+/// direct path's own error the code table stays far inside the ¼-LSB bound; `logtrim verify` measures
+/// 0.05 LSB worst on the bench units).
+pub const TABLE_ERROR_LOG2: u32 = 4;
+/// Largest knot difference (and change across a window) a usable interval may have.
+const DIFF_LIMIT: i64 = 1 << 29;
+
+/// The per-sample path of a firmware whose temperature is held or wanders slowly: a [`StageCache`] and a
+/// table of x over the code axis for the cached temperature window (see the module docs). About 1.3 KiB
+/// of RAM, no heap; build it once with [`CodeTable::new`] and keep it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct CodeTable<'a> {
+    cache: StageCache<'a>,
+    /// The window the table was built for ([`NO_WINDOW`]: none).
+    window: u32,
+    /// The last θ and its Q16 fraction in the window (valid while a window is kept).
+    theta: i32,
+    f16: u32,
+    /// Knot `k` is at code `base + (k − 1)·2^step`.
+    base: u32,
+    step: u32,
+    /// x (Q24) at the window's start and its change to the window's end, per knot.
+    x0: [i32; TABLE_KNOTS],
+    dx: [i32; TABLE_KNOTS],
+    /// `usable[i]`: codes in `[base + i·2^step, base + (i + 1)·2^step)` are interpolated from knots
+    /// `i..i + 4`.
+    usable: [bool; TABLE_KNOTS],
+}
+
+/// x of a code at one set of per-temperature values and residual columns (`rows` gives columns
+/// `seg..seg + 4`), or `None` where the direct path gives an error other than x outside the calibrated
+/// range (a knot just beyond that range holds the smooth continuation, so that the intervals at the
+/// range's ends can be interpolated; each sample's x is checked against the range).
+#[inline(always)]
+fn knot_x(
+    cache: &StageCache<'_>,
+    s: &Scalars,
+    code: u32,
+    rows: impl Fn(usize) -> Result<[i32; 4], Error>,
+) -> Option<i64> {
+    // The direct path's code checks (the code limit of the tables included).
+    if cache.plan.check_code(&cache.cal, code).is_err() {
+        return None;
+    }
+    match cache.plan.x_unranged(s, code, rows) {
+        Ok(x) if x > -X_LIMIT && x < X_LIMIT => Some(i64::from(x)),
+        _ => None,
+    }
+}
+
+impl<'a> CodeTable<'a> {
+    /// An empty table over a calibration (validate the calibration first, as for direct use).
+    pub const fn new(cal: FixedCalibration<'a>) -> CodeTable<'a> {
+        CodeTable {
+            cache: StageCache::new(cal),
+            window: NO_WINDOW,
+            theta: 0,
+            f16: 0,
+            base: 0,
+            step: 0,
+            x0: [0; TABLE_KNOTS],
+            dx: [0; TABLE_KNOTS],
+            usable: [false; TABLE_KNOTS],
+        }
+    }
+
+    /// The calibration the table corrects with.
+    pub fn calibration(&self) -> &FixedCalibration<'a> {
+        self.cache.calibration()
+    }
+
+    /// Forgets the table and the cached window (the next call builds them again).
+    pub fn clear(&mut self) {
+        self.window = NO_WINDOW;
+        self.cache.clear();
+    }
+
+    /// The intervals the current table interpolates, out of those it can have (each needs the knot before
+    /// and two after its four: `TABLE_KNOTS − 5`; 0 without a table), for reports and tests.
+    pub fn usable_intervals(&self) -> (usize, usize) {
+        let n = self.usable.iter().filter(|&&u| u).count();
+        (n, if self.window == NO_WINDOW { 0 } else { TABLE_KNOTS.saturating_sub(5) })
+    }
+
+    /// [`FixedCalibration::correct`] through the table: x within the verified bound of the direct path's
+    /// (bit for bit where the table falls back, errors included).
+    #[inline(always)]
+    pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
+        self.cache.plan.check_code(&self.cache.cal, code)?;
+        let theta = self.cache.grid.theta_from_millicelsius(temp_mc)?;
+        self.correct_theta(code, theta)
+    }
+
+    /// [`FixedCalibration::correct_raw`] through the table (the θ of recent temperature codes is
+    /// remembered, as in [`StageCache`]).
+    #[inline(always)]
+    pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
+        self.cache.plan.check_code(&self.cache.cal, code)?;
+        let theta = self.cache.theta_of_code(temp_code)?;
+        self.correct_theta(code, theta)
+    }
+
+    /// Many log codes at one temperature in m°C (a DMA buffer): `out[i]` is [`CodeTable::correct`] of
+    /// `codes[i]`, the temperature converted once. Stops at the shorter slice; returns the count written.
+    pub fn correct_block(
+        &mut self,
+        temp_mc: i32,
+        codes: &[u32],
+        out: &mut [Result<FixedReading, Error>],
+    ) -> usize {
+        let theta = self.cache.grid.theta_from_millicelsius(temp_mc);
+        self.block(theta, codes, out)
+    }
+
+    /// [`CodeTable::correct_block`] with the temperature channel's code.
+    pub fn correct_block_raw(
+        &mut self,
+        temp_code: u32,
+        codes: &[u32],
+        out: &mut [Result<FixedReading, Error>],
+    ) -> usize {
+        let theta = self.cache.theta_of_code(temp_code);
+        self.block(theta, codes, out)
+    }
+
+    fn block(
+        &mut self,
+        theta: Result<i32, Error>,
+        codes: &[u32],
+        out: &mut [Result<FixedReading, Error>],
+    ) -> usize {
+        let mut n = 0;
+        for (o, &code) in out.iter_mut().zip(codes) {
+            // The code is checked first, then the temperature, as in the one-sample calls.
+            *o = match self.cache.plan.check_code(&self.cache.cal, code) {
+                Err(e) => Err(e),
+                Ok(()) => match theta {
+                    Err(e) => Err(e),
+                    Ok(t) => self.correct_theta(code, t),
+                },
+            };
+            n += 1;
+        }
+        n
+    }
+
+    #[inline(always)]
+    fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
+        // The last temperature again (held, or a raw channel's code repeated): its window and fraction.
+        if theta != self.theta || self.window == NO_WINDOW {
+            let pos = self.cache.grid.window_of(theta)?;
+            if pos.index != self.window {
+                self.build(pos.index)?;
+            }
+            self.theta = theta;
+            self.f16 = pos.f16;
+        }
+        if let Some(x) = self.lookup(code, self.f16) {
+            let p = &self.cache.plan;
+            if x < p.x_min {
+                return Err(Error::BelowRange);
+            }
+            if x > p.x_max {
+                return Err(Error::AboveRange);
+            }
+            return Ok(FixedReading { x, temperature_extrapolated: self.cache.grid.extrapolated(theta) });
+        }
+        self.cache.correct_theta(code, theta)
+    }
+
+    /// x from the table for a checked code at the window fraction `f16`, or `None` where the interval is
+    /// not usable.
+    #[inline(always)]
+    fn lookup(&self, code: u32, f16: u32) -> Option<i32> {
+        let p = code.checked_sub(self.base)?;
+        let i = (p >> self.step) as usize;
+        if !*self.usable.get(i)? {
+            return None;
+        }
+        let (a, d) = (four(&self.x0, i)?, four(&self.dx, i)?);
+        // Bounds in the module docs: each |d| < 2^29, each knot within X_LIMIT.
+        let f = f16 & 0xffff;
+        let pm = a[0] + mulh16(d[0], f);
+        let p0 = a[1] + mulh16(d[1], f);
+        let p1 = a[2] + mulh16(d[2], f);
+        let p2 = a[3] + mulh16(d[3], f);
+        let (e0, e1, e2) = (p0 - pm, p1 - p0, p2 - p1);
+        let (d0, d1) = (e1 - e0, e2 - e1);
+        // The code's Q16 fraction between knots 1 and 2 (step ≤ 16).
+        let t = (p & ((1 << self.step) - 1)) << (16 - self.step);
+        let g = (t * (65536 - t)) >> 16; // t(1 − t), at most 2^14
+        let wa = (((g * (131072 - t)) >> 16) * 10923) >> 16; // t(1 − t)(2 − t)/6
+        let wb = (((g * (65536 + t)) >> 16) * 10923) >> 16; // t(1 − t)(1 + t)/6
+        Some(p0 + mulh16(e1, t) - (mulh16(d0, wa) + mulh16(d1, wb)))
+    }
+
+    /// Loads window `index` into the stage cache and builds the table for it (out of line: the rare path).
+    #[inline(never)]
+    fn build(&mut self, index: u32) -> Result<(), Error> {
+        self.window = NO_WINDOW;
+        self.usable = [false; TABLE_KNOTS];
+        if !self.cache.load(index)? {
+            // A row wider than the cache: every sample takes the direct path.
+            self.window = index;
+            return Ok(());
+        }
+        let c = &self.cache;
+        let (lo, hi) = (c.plan.code_lo, c.plan.code_hi);
+        // The knot step: the smallest power of two that spans lo..=hi with the table's knots.
+        let mut step = 0;
+        while step < 16 && ((hi.saturating_sub(lo & !((1 << step) - 1))) >> step) as usize + 4 > TABLE_KNOTS {
+            step += 1;
+        }
+        let base = lo & !((1u32 << step) - 1);
+        let start = c.values.at(0);
+        let mid = c.values.at(1 << 15);
+        let end = c.cal.end_scalars(index.saturating_add(1))?;
+        let (row0, drow) = match (c.row0.get(..c.len), c.drow.get(..c.len)) {
+            (Some(a), Some(b)) => (a, b),
+            _ => return Ok(()),
+        };
+        let at_start = |seg: usize| four(row0, seg).ok_or(super::BAD_TABLE);
+        let at_mid = |seg: usize| -> Result<[i32; 4], Error> {
+            let (a, d) = (four(row0, seg).ok_or(super::BAD_TABLE)?, four(drow, seg).ok_or(super::BAD_TABLE)?);
+            Ok([
+                a[0] + mulh16(d[0], 1 << 15),
+                a[1] + mulh16(d[1], 1 << 15),
+                a[2] + mulh16(d[2], 1 << 15),
+                a[3] + mulh16(d[3], 1 << 15),
+            ])
+        };
+        let at_end = |seg: usize| -> Result<[i32; 4], Error> {
+            let (a, d) = (four(row0, seg).ok_or(super::BAD_TABLE)?, four(drow, seg).ok_or(super::BAD_TABLE)?);
+            Ok([a[0] + d[0], a[1] + d[1], a[2] + d[2], a[3] + d[3]])
+        };
+        // Each knot: x at the window's start (`x0`) and its change to the end (`dx`), stored where x exists
+        // at the start, the middle and the end and the change is below 2^29; `bent` is twice the line's
+        // error at the middle, |2·x(θ½) − x(θ₀) − x(θ₁)| (saturated).
+        let mut valid = [false; TABLE_KNOTS];
+        let mut bent = [u32::MAX; TABLE_KNOTS];
+        for k in 0..TABLE_KNOTS {
+            let code = match (base >> step).checked_add(k as u32).and_then(|v| v.checked_sub(1)) {
+                Some(v) if v <= u32::MAX >> step => v << step,
+                _ => continue,
+            };
+            let (a, m, b) = (
+                knot_x(c, &start, code, at_start),
+                knot_x(c, &mid, code, at_mid),
+                knot_x(c, &end, code, at_end),
+            );
+            if let (Some(a), Some(m), Some(b)) = (a, m, b) {
+                if (b - a).abs() < DIFF_LIMIT {
+                    if let (Some(x0), Some(dx), Some(v), Some(e)) =
+                        (self.x0.get_mut(k), self.dx.get_mut(k), valid.get_mut(k), bent.get_mut(k))
+                    {
+                        // |a| < X_LIMIT and |b − a| < 2^29: both fit an i32.
+                        *x0 = a as i32;
+                        *dx = (b - a) as i32;
+                        *v = true;
+                        *e = u32::try_from((m + m - a - b).abs()).unwrap_or(u32::MAX);
+                    }
+                }
+            }
+        }
+        // Interval i (codes base + i·2^step ..) uses knots i..i + 4; its checks need knots i − 1 ..= i + 4.
+        for i in 1..TABLE_KNOTS.saturating_sub(4) {
+            let ok = self.interval_ok(i, step, &valid, &bent).unwrap_or(false);
+            if let Some(u) = self.usable.get_mut(i) {
+                *u = ok;
+            }
+        }
+        self.base = base;
+        self.step = step;
+        self.window = index;
+        Ok(())
+    }
+
+    /// The build-time checks of interval `i` (module docs): `None` where a knot is missing.
+    fn interval_ok(
+        &self,
+        i: usize,
+        step: u32,
+        valid: &[bool; TABLE_KNOTS],
+        bent: &[u32; TABLE_KNOTS],
+    ) -> Option<bool> {
+        let lo = i.checked_sub(1)?;
+        if !valid.get(lo..i + 5)?.iter().all(|&v| v) {
+            return Some(false);
+        }
+        let mut lsb = u32::MAX;
+        for end in [false, true] {
+            // Six knots' values at one end of the window, in i64.
+            let mut x = [0i64; 6];
+            for (j, v) in x.iter_mut().enumerate() {
+                let a = i64::from(*self.x0.get(lo + j)?);
+                *v = if end { a + i64::from(*self.dx.get(lo + j)?) } else { a };
+            }
+            let e = [x[1] - x[0], x[2] - x[1], x[3] - x[2], x[4] - x[3], x[5] - x[4]];
+            if e.iter().any(|d| d.abs() >= DIFF_LIMIT) {
+                return Some(false);
+            }
+            // The interval's own difference (knots i + 1, i + 2): below 2^29.
+            lsb = lsb.min(e[2].unsigned_abs() as u32);
+            // Third differences at i − 1, i, i + 1 and their changes (the fourth differences).
+            // Sums, not 64-bit products (a runtime helper on a Cortex-M0).
+            let d3 = [e[2] - (e[1] + e[1]) + e[0], e[3] - (e[2] + e[2]) + e[1], e[4] - (e[3] + e[3]) + e[2]];
+            let e4 = (d3[1] - d3[0]).abs().max((d3[2] - d3[1]).abs());
+            // The cubic's error, about (3/128)·e4, within 2^−TABLE_ERROR_LOG2 of an LSB (|Δ1|/2^step):
+            // 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted value fits a u32), in
+            // 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper on a Cortex-M0).
+            let e4 = u32::try_from(e4).unwrap_or(u32::MAX);
+            if e4 >= 1 << 30 || 3 * e4 > ((e[2].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step {
+                return Some(false);
+            }
+        }
+        // The line in temperature, off by bent/2 at the middle, within 2^−TABLE_ERROR_LOG2 of an LSB at the
+        // four knots.
+        let limit = lsb >> (step + TABLE_ERROR_LOG2 - 1);
+        Some(lsb > 0 && bent.get(i..i + 4)?.iter().all(|&b| b <= limit))
+    }
+}
