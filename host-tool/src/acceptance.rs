@@ -32,9 +32,11 @@
 //! | `min_sensitivity` | 0.1 | over the required (else calibrated) ratios and temperatures, the front end's sensitivity ∂code/∂x relative to ideal is at least this |
 //! | `verify_bound_lsb` | none | `logtrim verify`'s exhaustive check of both firmware paths passes at this bound (LSB equivalents); slow, so off unless asked |
 //!
-//! A unit fitted against a population (`fit --population`) is also checked against it: its scores on the
-//! population's modes, as a squared Mahalanobis distance, must lie within the χ² quantile at 0.005 false
-//! alarms per unit (`population_distance`); a unit outside the population fails with that reason.
+//! A unit fitted against a population (`fit --population`) is also checked against it: the squared
+//! Mahalanobis distance of its parameters (all but its own offset and slope) from the population's mean,
+//! under the population's covariance, must lie within the χ² quantile at 0.005 false alarms per unit
+//! (`population_distance`); a unit outside the population fails with that reason, its residuals are
+//! judged against its noise as every unit's are (`max_residual_ratio`).
 //!
 //! The defaults are loose enough that a clean chamber run of a healthy unit passes them with room (its
 //! residual ratio is about 1.0, its cross-validation ratio about 1.0–1.3), and tight enough that a unit

@@ -73,8 +73,8 @@ pub struct ModesCv {
     pub rms_np: f64,
     /// max |error| in x, nepers.
     pub max_np: f64,
-    /// The rms over the noise floor of the units (their fits at every set-point).
-    pub rms_ratio: f64,
+    /// The rms over the lot's noise floor (none without one).
+    pub rms_ratio: Option<f64>,
 }
 
 /// A population model ([module docs](self)).
@@ -105,8 +105,8 @@ pub struct PopulationModel {
     pub repeats: usize,
     /// The lot's noise in codes (median over units of the rms residual of their fits).
     pub noise_codes: f64,
-    /// The lot's noise floor in x (median over units), nepers.
-    pub noise_floor_np: f64,
+    /// The lot's noise floor in x (median over units), nepers; none when no unit's noise could be measured.
+    pub noise_floor_np: Option<f64>,
     /// θ̄.
     pub mean: Vec<f64>,
     /// Every mode found, largest first.
@@ -309,7 +309,9 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
         opt.production_c.clone()
     };
     let sigma = median(units.iter().map(|u| u.noise_codes).collect());
-    let noise_floor_np = median(units.iter().map(|u| u.noise_floor_np).filter(|v| v.is_finite()).collect());
+    let noise_floor_np =
+        Some(median(units.iter().map(|u| u.noise_floor_np).filter(|v| v.is_finite()).collect()))
+            .filter(|v| v.is_finite());
     let thetas: Vec<Vec<f64>> = units.iter().map(|u| u.theta.clone()).collect();
     let all = modes::Modes::of(&thetas, spec, &norm, t, x)
         .ok_or_else(|| PopulationError::Lot("the units' spread could not be decomposed".into()))?;
@@ -359,7 +361,12 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
         }
         if complete && n > 0 {
             let rms = (ss / n as f64).sqrt();
-            cv.push(ModesCv { modes: k, rms_np: rms, max_np: max, rms_ratio: rms / noise_floor_np });
+            cv.push(ModesCv {
+                modes: k,
+                rms_np: rms,
+                max_np: max,
+                rms_ratio: noise_floor_np.map(|f| rms / f),
+            });
         }
     }
     let best = cv.iter().map(|c| c.rms_np).fold(f64::INFINITY, f64::min);
@@ -550,13 +557,13 @@ impl PopulationModel {
         let mut s = String::new();
         let _ = writeln!(
             s,
-            "population of {} units, model {}, {:.1} … {:.1} °C, noise {:.2} codes rms (floor {:.3e} Np)",
+            "population of {} units, model {}, {:.1} … {:.1} °C, noise {:.2} codes rms (floor {} Np)",
             self.units.len(),
             self.model,
             self.temperature_c[0],
             self.temperature_c[1],
             self.noise_codes,
-            self.noise_floor_np
+            self.noise_floor_np.map_or("unknown".to_string(), |f| format!("{f:.3e}"))
         );
         let _ = writeln!(s, "modes of the unit-to-unit spread (own offset and slope removed):");
         let mut cum = 0.0;
@@ -580,11 +587,12 @@ impl PopulationModel {
         for c in &self.cv {
             let _ = writeln!(
                 s,
-                "  {} {} mode(s): rms {:.3e} Np ({:.2}x noise floor), max {:.3e} Np",
+                "  {} {} mode(s): rms {:.3e} Np ({}), max {:.3e} Np",
                 if c.modes == self.modes_kept { "*" } else { " " },
                 c.modes,
                 c.rms_np,
-                c.rms_ratio,
+                c.rms_ratio
+                    .map_or("no noise floor".to_string(), |r| format!("{r:.2}x the lot's noise floor")),
                 c.max_np
             );
         }
