@@ -34,9 +34,9 @@
 //!
 //! A unit fitted against a population (`fit --population`) is also checked against it: the squared
 //! Mahalanobis distance of its parameters (all but its own offset and slope) from the population's mean,
-//! under the population's covariance, must lie within the χ² quantile at 0.005 false alarms per unit
-//! (`population_distance`); a unit outside the population fails with that reason, its residuals are
-//! judged against its noise as every unit's are (`max_residual_ratio`).
+//! under the population's covariance, must lie within Hotelling's prediction limit for a lot of that many
+//! units at 0.005 false alarms per unit (`population_distance`); a unit outside the population fails with
+//! that reason, and its residuals are judged against its noise as every unit's are (`max_residual_ratio`).
 //!
 //! The defaults are loose enough that a clean chamber run of a healthy unit passes them with room (its
 //! residual ratio is about 1.0, its cross-validation ratio about 1.0–1.3), and tight enough that a unit
@@ -436,7 +436,7 @@ fn population_check(p: &crate::fit::prior::PopulationFit) -> Check {
         value: p.distance2,
         limit,
         text: format!(
-            "population: squared distance {:.2} from its mean over {} parameters (limit {:.2}, χ² at {} false alarms per unit); scores [{}] σ on the {} mode(s) kept{}",
+            "population: squared distance {:.2} from its mean over {} parameters (limit {:.2}, the prediction limit at {} false alarms per unit); scores [{}] σ on the {} mode(s) kept{}",
             p.distance2,
             p.dof,
             limit,

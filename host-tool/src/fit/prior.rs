@@ -40,6 +40,8 @@ pub struct Prior {
     pub root: Vec<Vec<f64>>,
     /// σ: the population's noise in codes, by which `root` is scaled.
     pub sigma: f64,
+    /// Units the population was estimated from (for the check's limit).
+    pub lot_units: usize,
     /// Rows of the score map S: a unit's mode scores are `S·(θ − θ̄)` (in standard deviations of the
     /// population).
     pub scores: Vec<Vec<f64>>,
@@ -55,7 +57,10 @@ pub struct PopulationFit {
     pub distance2: f64,
     /// Its degrees of freedom: the parameters the prior holds.
     pub dof: usize,
-    /// The χ² quantile of `dof` degrees of freedom at the false-alarm budget [`FALSE_ALARMS`].
+    /// The limit at the false-alarm budget [`FALSE_ALARMS`]: Hotelling's prediction limit for a new unit
+    /// of a population whose mean and spread were estimated from n units,
+    /// `q·(n−1)·(n+1)/(n·(n−q))·F(q, n−q)` at the quantile, which the χ² quantile of q degrees of freedom
+    /// becomes for a large lot (common practice in multivariate process control).
     pub threshold: f64,
 }
 
@@ -105,7 +110,7 @@ impl Prior {
         let distance2 =
             self.prior_residuals(&params.to_vec()).iter().map(|v| v * v).sum::<f64>() / self.sigma.powi(2);
         let dof = self.root.len();
-        let threshold = super::robust::chi2_threshold(dof, 1, FALSE_ALARMS);
+        let threshold = prediction_limit(dof, self.lot_units);
         PopulationFit { scores, distance2, dof, threshold }
     }
 
@@ -137,6 +142,21 @@ impl Prior {
             }
         }
         (count > 0).then(|| ((sum / count as f64).sqrt(), max, held.len()))
+    }
+}
+
+/// Hotelling's prediction limit of the squared Mahalanobis distance of a new unit in `q` dimensions from
+/// a population estimated from `n` units, at the quantile `1 − FALSE_ALARMS` (the χ² quantile when `n ≤ q`
+/// leaves no F distribution).
+pub fn prediction_limit(q: usize, n: usize) -> f64 {
+    use statrs::distribution::{ContinuousCDF, FisherSnedecor};
+    if n <= q + 1 || q == 0 {
+        return super::robust::chi2_threshold(q, 1, FALSE_ALARMS);
+    }
+    let (qf, nf) = (q as f64, n as f64);
+    match FisherSnedecor::new(qf, nf - qf) {
+        Ok(f) => qf * (nf - 1.0) * (nf + 1.0) / (nf * (nf - qf)) * f.inverse_cdf(1.0 - FALSE_ALARMS),
+        Err(_) => super::robust::chi2_threshold(q, 1, FALSE_ALARMS),
     }
 }
 

@@ -328,6 +328,7 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
                 .map(|k| {
                     let k = k.min(m.directions.len());
                     let prior = modes::prior(
+                        others.len(),
                         spec,
                         norm,
                         &m.mean,
@@ -434,6 +435,7 @@ impl PopulationModel {
         let directions: Vec<Vec<f64>> =
             self.modes.iter().take(self.modes_kept).map(|m| m.direction.clone()).collect();
         modes::prior(
+            self.units.len(),
             spec,
             self.norm,
             &self.mean,

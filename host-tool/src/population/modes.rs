@@ -148,10 +148,12 @@ impl Modes {
     }
 }
 
-/// The prior of a population: mean, the first `k` of `directions`, the `floor` variances, the noise in
-/// codes `sigma`, the normalisation and the ranges (temperature, x) that the grid of the scores spans.
+/// The prior of a population of `lot_units` units: mean, the first `k` of `directions`, the `floor`
+/// variances, the noise in codes `sigma`, the normalisation and the ranges (temperature, x) that the grid
+/// of the scores spans.
 #[allow(clippy::too_many_arguments)]
 pub fn prior(
+    lot_units: usize,
     spec: Spec,
     norm: Norm,
     mean: &[f64],
@@ -199,5 +201,5 @@ pub fn prior(
     let map = lstsq(&basis, &jac)?;
     let scores: Vec<Vec<f64>> = (0..k).map(|m| map.row(m).iter().copied().collect()).collect();
     let ok = root.iter().chain(&scores).flatten().all(|v| v.is_finite());
-    ok.then(|| Prior { spec, norm, temperature_c: t, mean: mean.to_vec(), root, sigma, scores })
+    ok.then(|| Prior { spec, norm, temperature_c: t, mean: mean.to_vec(), root, sigma, lot_units, scores })
 }
