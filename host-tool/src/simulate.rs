@@ -119,6 +119,10 @@ pub struct SimUnit {
     pub outlier: bool,
 }
 
+/// How far beyond the operating range a chosen set-point may lie, K: a plan made from measured
+/// temperatures may name the range's ends as its units read them.
+pub const SETPOINT_MARGIN_K: f64 = 2.0;
+
 /// How many times its design's spread an outlier of a lot is drawn with.
 pub const OUTLIER_SPREAD: f64 = 5.0;
 
@@ -128,7 +132,8 @@ pub struct Lot {
     /// Units drawn, at seeded places in the lot, with [`OUTLIER_SPREAD`] times the design's unit-to-unit
     /// spread: units of another process that a population check should flag (at most `units`).
     pub outliers: usize,
-    /// The chamber set-points, °C, instead of the plan's evenly spaced ones (empty: the plan's).
+    /// The chamber set-points, °C, instead of the plan's evenly spaced ones (empty: the plan's); each within
+    /// [`SETPOINT_MARGIN_K`] of the operating range.
     pub setpoints_c: Vec<f64>,
 }
 
@@ -261,8 +266,8 @@ pub enum SimError {
         /// What is needed.
         expected: &'static str,
     },
-    /// A chosen set-point lies outside the operating range.
-    #[error("set-point {temp_c} °C: expected a temperature within the operating range {min_c} … {max_c} °C")]
+    /// A chosen set-point lies outside the operating range (and [`SETPOINT_MARGIN_K`] beyond).
+    #[error("set-point {temp_c} °C: expected a temperature within {min_c} … {max_c} °C (the operating range and 2 K beyond)")]
     SetPoint {
         /// The set-point.
         temp_c: f64,
@@ -544,10 +549,9 @@ pub fn simulate_lot(fe: &FrontEnd, plan: &Plan, lot: &Lot) -> Result<Simulation,
         lot.setpoints_c.clone()
     };
     let o = &fe.operating;
-    if let Some(t) =
-        setpoints_c.iter().find(|t| !(t.is_finite() && (o.temp_min_c..=o.temp_max_c).contains(*t)))
-    {
-        return Err(SimError::SetPoint { temp_c: *t, min_c: o.temp_min_c, max_c: o.temp_max_c });
+    let (lo, hi) = (o.temp_min_c - SETPOINT_MARGIN_K, o.temp_max_c + SETPOINT_MARGIN_K);
+    if let Some(t) = setpoints_c.iter().find(|t| !(t.is_finite() && (lo..=hi).contains(*t))) {
+        return Err(SimError::SetPoint { temp_c: *t, min_c: lo, max_c: hi });
     }
     let outliers = outlier_places(plan.seed, plan.units, lot.outliers);
     let wide = widened(fe, OUTLIER_SPREAD);

@@ -127,8 +127,7 @@ pub fn run(fe: &FrontEnd, opt: &TrialOptions) -> Result<TrialOutcome, TrialError
     let model =
         characterise(&jobs, &CharacteriseOptions { fit: fit_opt.clone(), production_c: vec![] })?.model;
     let plan = plan(&model, &PlanOptions { setpoints: opt.setpoints, ..PlanOptions::default() })?;
-    let o = &fe.operating;
-    let temps: Vec<f64> = plan.setpoints_c.iter().map(|t| t.clamp(o.temp_min_c, o.temp_max_c)).collect();
+    let temps = plan.setpoints_c.clone();
     let chamber =
         ChamberPlan { setpoints: temps.len(), ratios_per_setpoint: plan.ratios, repeats: opt.repeats };
     let prod_plan = Plan {
