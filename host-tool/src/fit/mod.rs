@@ -601,7 +601,12 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     let mut unsettled: Vec<UnsettledSweep> = Vec::new();
     for _ in 0..MAX_ROUNDS {
         let mut rf = row_fit(&found.params, &norm, data, &preps, &live);
-        noise = screen::noise(&layout, &rf, &fitted_on);
+        noise = screen::noise(&layout, &rf, &fitted_on).map(|m| match &opt.population {
+            // The temperature reading's noise is the design's, measured on the whole lot: two or three
+            // set-points may hold too few rows where ∂code/∂T is large to measure it.
+            Some(p) => NoiseModel { temperature_k_rms: p.noise_temperature_k, ..m },
+            None => m,
+        });
         let Some(model) = noise else { break };
         rf.set_noise(&model);
         if !opt.screen {

@@ -42,6 +42,9 @@ pub struct Prior {
     pub sigma: f64,
     /// Units the population was estimated from (for the check's limit).
     pub lot_units: usize,
+    /// The temperature reading's noise as the codes see it, K rms (the lot's median): a unit fitted against
+    /// the population takes it instead of its own estimate.
+    pub noise_temperature_k: f64,
     /// Rows of the score map S: a unit's mode scores are `S·(θ − θ̄)` (in standard deviations of the
     /// population).
     pub scores: Vec<Vec<f64>>,

@@ -105,6 +105,8 @@ pub struct PopulationModel {
     pub repeats: usize,
     /// The lot's noise in codes (median over units of the rms residual of their fits).
     pub noise_codes: f64,
+    /// The temperature reading's noise as the codes see it (median over units), K rms.
+    pub noise_temperature_k: f64,
     /// The lot's noise floor in x (median over units), nepers; none when no unit's noise could be measured.
     pub noise_floor_np: Option<f64>,
     /// θ̄.
@@ -166,6 +168,7 @@ struct LotUnit {
     groups: Vec<Vec<Prep>>,
     noise_codes: f64,
     noise_floor_np: f64,
+    noise_temperature_k: f64,
     temp: (f64, f64),
 }
 
@@ -279,6 +282,7 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
                 theta: out.params.to_vec(),
                 noise_codes: (ss / rows.len().max(1) as f64).sqrt(),
                 noise_floor_np: out.noise_floor_np.unwrap_or(f64::NAN),
+                noise_temperature_k: out.screening.noise.map_or(f64::NAN, |n| n.temperature_k_rms),
                 groups,
                 temp: (f64::from(t.min_c), f64::from(t.max_c)),
             })
@@ -389,6 +393,14 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
         ratios: lot_ratios(&readable),
         repeats: lot_repeats(&readable),
         noise_codes: sigma,
+        noise_temperature_k: {
+            let t = median(units.iter().map(|u| u.noise_temperature_k).filter(|v| v.is_finite()).collect());
+            if t.is_finite() {
+                t
+            } else {
+                0.0
+            }
+        },
         noise_floor_np,
         mean: all.mean.clone(),
         modes: all
@@ -445,6 +457,7 @@ impl PopulationModel {
             (self.temperature_c[0], self.temperature_c[1]),
             (self.x[0], self.x[1]),
         )
+        .map(|pr| Prior { noise_temperature_k: self.noise_temperature_k, ..pr })
         .filter(|pr| pr.n_params() == p)
         .ok_or_else(|| bad("mean, modes and floor do not make a usable prior (a covariance that is not positive definite)".into()))
     }
@@ -504,6 +517,12 @@ impl PopulationModel {
         let [x0, x1] = self.x;
         if !(x0.is_finite() && x1.is_finite() && x0 < x1) {
             return Err(bad(format!("x [{x0}, {x1}]: expected a finite range, min < max")));
+        }
+        if !(self.noise_temperature_k.is_finite() && self.noise_temperature_k >= 0.0) {
+            return Err(bad(format!(
+                "noise_temperature_k {}: expected a number ≥ 0",
+                self.noise_temperature_k
+            )));
         }
         if !(self.noise_codes.is_finite() && self.noise_codes > 0.0) {
             return Err(bad(format!("noise_codes {}: expected a positive number", self.noise_codes)));

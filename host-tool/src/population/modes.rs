@@ -201,5 +201,15 @@ pub fn prior(
     let map = lstsq(&basis, &jac)?;
     let scores: Vec<Vec<f64>> = (0..k).map(|m| map.row(m).iter().copied().collect()).collect();
     let ok = root.iter().chain(&scores).flatten().all(|v| v.is_finite());
-    ok.then(|| Prior { spec, norm, temperature_c: t, mean: mean.to_vec(), root, sigma, lot_units, scores })
+    ok.then(|| Prior {
+        spec,
+        norm,
+        temperature_c: t,
+        mean: mean.to_vec(),
+        root,
+        sigma,
+        lot_units,
+        noise_temperature_k: 0.0,
+        scores,
+    })
 }
