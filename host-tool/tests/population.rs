@@ -183,16 +183,16 @@ fn the_summary_names_modes_and_cross_validation() {
     assert!(s.contains("mode  1") && s.contains("leave-one-unit-out") && s.contains("modes kept"), "{s}");
 }
 
+/// A plan of `units` units, `setpoints` set-points of `ratios` ratios, one sweep, one validation reading.
+fn tiny(seed: u64, units: usize, setpoints: usize, ratios: usize) -> Plan {
+    let chamber = ChamberPlan { setpoints, ratios_per_setpoint: ratios, repeats: 1 };
+    Plan { seed, chamber, validation_count: 1, units }
+}
+
 #[test]
 fn a_lot_too_small_is_refused() {
     let fe = preset("photometer-compensated").unwrap();
-    let plan = Plan {
-        seed: 3,
-        chamber: ChamberPlan { setpoints: 4, ratios_per_setpoint: 9, repeats: 1 },
-        validation_count: 1,
-        units: 3,
-    };
-    let sim = simulate_lot(&fe, &plan, &Lot::default()).unwrap();
+    let sim = simulate_lot(&fe, &tiny(3, 3, 4, 9), &Lot::default()).unwrap();
     let jobs: Vec<logtrim_host::batch::UnitJob> = (0..3)
         .map(|i| logtrim_host::batch::UnitJob {
             serial: sim.units[i].serial.clone(),
@@ -208,12 +208,7 @@ fn a_lot_too_small_is_refused() {
 #[test]
 fn simulated_lots_record_their_outliers_and_set_points() {
     let fe = preset("gas-uncompensated").unwrap();
-    let plan = Plan {
-        seed: 77,
-        chamber: ChamberPlan { setpoints: 2, ratios_per_setpoint: 5, repeats: 1 },
-        validation_count: 1,
-        units: 8,
-    };
+    let plan = tiny(77, 8, 2, 5);
     let lot = Lot { outliers: 2, setpoints_c: vec![-5.0, 40.0, 85.0] };
     let sim = simulate_lot(&fe, &plan, &lot).unwrap();
     let marked: Vec<usize> = (0..8).filter(|&i| sim.units[i].outlier).collect();

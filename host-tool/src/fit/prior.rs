@@ -14,12 +14,9 @@
 //! the sum is the negative log posterior times σ². It is minimised by Levenberg–Marquardt from θ̄, the data
 //! and the prior rows stacked. The population module ([`crate::population`]) builds the prior from a lot.
 
-use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt};
-use nalgebra::{DMatrix, DVector, Dyn, Owned};
 use serde::Serialize;
 
 use super::model::{Norm, Params, Prep, Spec};
-use super::select::x_errors;
 
 /// The false-alarm budget of the population check: the expected share of units of the population that it
 /// flags.
@@ -95,14 +92,7 @@ impl Prior {
     pub fn fit(&self, rows: &[Prep]) -> Option<Params> {
         let mut start = Params::zero(self.spec);
         start.set_vec(&self.mean);
-        let problem = Problem { rows, params: start.clone(), prior: self };
-        let (done, _) = LevenbergMarquardt::new().with_patience(100).minimize(problem);
-        let cost = |p: &Params| {
-            let data: f64 = rows.iter().map(|r| (r.sw * (r.code - p.predict(r))).powi(2)).sum();
-            data + self.prior_residuals(&p.to_vec()).iter().map(|v| v * v).sum::<f64>()
-        };
-        let (c0, c1) = (cost(&start), cost(&done.params));
-        let best = if c1.is_finite() && c1 <= c0 { done.params } else { start };
+        let (best, _) = super::solve::refine_with(&start, rows, Some((&self.mean, &self.root)));
         best.to_vec().iter().all(|v| v.is_finite()).then_some(best)
     }
 
@@ -120,31 +110,7 @@ impl Prior {
     /// Leave-one-interior-set-point-out cross-validation of the fit against the prior: (rms, max, folds) of
     /// the error in x of the rows held out, `None` with fewer than three set-points.
     pub fn cross_validate(&self, groups: &[Vec<Prep>]) -> Option<(f64, f64, usize)> {
-        let n = groups.len();
-        let held: Vec<usize> = match n {
-            0..=2 => return None,
-            3 => vec![1],
-            _ => (1..n - 1).collect(),
-        };
-        let (mut sum, mut count, mut max) = (0.0, 0usize, 0.0f64);
-        for &j in &held {
-            let train: Vec<Prep> = groups
-                .iter()
-                .enumerate()
-                .filter(|(i, _)| *i != j)
-                .flat_map(|(_, g)| g.iter().copied())
-                .collect();
-            let p = self.fit(&train)?;
-            for e in x_errors(&p, &groups[j]) {
-                if !e.is_finite() {
-                    return None;
-                }
-                sum += e * e;
-                count += 1;
-                max = max.max(e.abs());
-            }
-        }
-        (count > 0).then(|| ((sum / count as f64).sqrt(), max, held.len()))
+        super::select::cross_validate_with(groups, |train| self.fit(train))
     }
 }
 
@@ -163,47 +129,23 @@ pub fn prediction_limit(q: usize, n: usize) -> f64 {
     }
 }
 
-struct Problem<'a> {
-    rows: &'a [Prep],
-    params: Params,
-    prior: &'a Prior,
-}
+#[cfg(test)]
+mod tests {
+    use super::*;
 
-impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
-    type ResidualStorage = Owned<f64, Dyn>;
-    type JacobianStorage = Owned<f64, Dyn, Dyn>;
-    type ParameterStorage = Owned<f64, Dyn>;
-
-    fn set_params(&mut self, x: &DVector<f64>) {
-        self.params.set_vec(x.as_slice());
-    }
-
-    fn params(&self) -> DVector<f64> {
-        DVector::from_vec(self.params.to_vec())
-    }
-
-    fn residuals(&self) -> Option<DVector<f64>> {
-        let mut v: Vec<f64> = self.rows.iter().map(|r| r.sw * (r.code - self.params.predict(r))).collect();
-        v.extend(self.prior.prior_residuals(&self.params.to_vec()));
-        v.iter().all(|e| e.is_finite()).then(|| DVector::from_vec(v))
-    }
-
-    fn jacobian(&self) -> Option<DMatrix<f64>> {
-        let p = self.params.spec.n_params();
-        let n = self.rows.len();
-        let mut m = DMatrix::<f64>::zeros(n + self.prior.root.len(), p);
-        let mut g = Vec::with_capacity(p);
-        for (k, r) in self.rows.iter().enumerate() {
-            self.params.residual_and_gradient(r, &mut g);
-            for (j, v) in g.iter().enumerate().take(p) {
-                m[(k, j)] = *v;
-            }
-        }
-        for (k, r) in self.prior.root.iter().enumerate() {
-            for (j, v) in r.iter().enumerate().take(p) {
-                m[(n + k, j)] = *v;
-            }
-        }
-        m.iter().all(|e| e.is_finite()).then_some(m)
+    #[test]
+    fn the_prediction_limit_is_hotellings_and_tends_to_chi_squared() {
+        // χ² with 6 degrees of freedom, upper 0.5 % point: 18.548 (standard statistical tables; from memory).
+        assert!(
+            (prediction_limit(6, 10_000_000) - 18.548).abs() < 0.01,
+            "{}",
+            prediction_limit(6, 10_000_000)
+        );
+        // A small lot widens the limit: its mean and spread are themselves uncertain (common practice).
+        let (l30, l20) = (prediction_limit(6, 30), prediction_limit(6, 20));
+        assert!(l30 > 18.548 && l20 > l30, "{l30} {l20}");
+        // Hotelling's form for n = 30, q = 6: 6·29·31/(30·24) · F(6, 24) at 0.995.
+        let f = 6.0 * 29.0 * 31.0 / (30.0 * 24.0);
+        assert!((l30 / f - 4.20).abs() < 0.02, "F quantile {}", l30 / f);
     }
 }
