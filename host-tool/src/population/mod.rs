@@ -103,12 +103,6 @@ pub struct PopulationModel {
     pub ratios: usize,
     /// Sweeps per set-point in the lot.
     pub repeats: usize,
-    /// The lot's noise in codes (median over units of the rms residual of their fits).
-    pub noise_codes: f64,
-    /// The temperature reading's noise as the codes see it (median over units), K rms.
-    pub noise_temperature_k: f64,
-    /// The lot's noise floor in x (median over units), nepers; none when no unit's noise could be measured.
-    pub noise_floor_np: Option<f64>,
     /// θ̄.
     pub mean: Vec<f64>,
     /// Every mode found, largest first.
@@ -117,6 +111,12 @@ pub struct PopulationModel {
     pub modes_kept: usize,
     /// The floor variances per parameter that the modes kept leave.
     pub floor: Vec<f64>,
+    /// The lot's noise in codes (median over units of the rms residual of their fits).
+    pub noise_codes: f64,
+    /// The lot's noise floor in x (median over units), nepers; none when no unit's noise could be measured.
+    pub noise_floor_np: Option<f64>,
+    /// The temperature reading's noise as the codes see it (median over units), K rms.
+    pub noise_temperature_k: f64,
     /// The production set-points the cross-validation fitted from, °C.
     pub production_c: Vec<f64>,
     /// Leave-one-unit-out figures per number of modes.
@@ -124,20 +124,16 @@ pub struct PopulationModel {
 }
 
 /// Why a population could not be made or read.
-#[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
+#[derive(Debug, thiserror::Error)]
 pub enum PopulationError {
     /// The file could not be read or parsed.
     #[error(transparent)]
     File(#[from] FileError),
-    /// The file's contents are not a usable population.
-    #[error("{path}: {what}")]
-    Invalid {
-        /// The file.
-        path: String,
-        /// What is wrong, and what was expected.
-        what: String,
-    },
+    /// The file's contents are not a usable population: the file (where known), what is wrong and what
+    /// was expected.
+    #[error("{0}")]
+    Invalid(String),
     /// The lot cannot make a population.
     #[error("characterisation lot: {0}")]
     Lot(String),
@@ -441,7 +437,7 @@ impl PopulationModel {
 
     /// The prior of the modes kept, for [`crate::fit::FitOptions::population`].
     pub fn prior(&self) -> Result<Prior, PopulationError> {
-        let bad = |what: String| PopulationError::Invalid { path: String::new(), what };
+        let bad = PopulationError::Invalid;
         let spec = self.spec().map_err(|e| bad(format!("model: {e}")))?;
         let p = spec.n_params();
         let directions: Vec<Vec<f64>> =
@@ -464,7 +460,7 @@ impl PopulationModel {
 
     /// Checks the values against each other; `path` names the file in errors.
     pub fn check(&self, path: &str) -> Result<(), PopulationError> {
-        let bad = |what: String| PopulationError::Invalid { path: path.to_string(), what };
+        let bad = |what: String| PopulationError::Invalid(format!("{path}: {what}"));
         if self.format != FORMAT {
             return Err(bad(format!("format {:?}: expected {FORMAT:?}", self.format)));
         }
@@ -540,7 +536,7 @@ impl PopulationModel {
             ));
         }
         self.prior().map_err(|e| match e {
-            PopulationError::Invalid { what, .. } => bad(what),
+            PopulationError::Invalid(what) => bad(what),
             other => other,
         })?;
         Ok(())

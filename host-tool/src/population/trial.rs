@@ -93,27 +93,14 @@ pub struct TrialOutcome {
     pub pooled: (f64, f64, usize),
 }
 
-/// Why a trial could not run.
-#[derive(Debug, thiserror::Error)]
-#[non_exhaustive]
-pub enum TrialError {
-    /// The simulation failed.
-    #[error(transparent)]
-    Simulate(#[from] SimError),
-    /// The data could not be taken from the simulation.
-    #[error(transparent)]
-    Data(#[from] DemoError),
-    /// The population could not be made or planned.
-    #[error(transparent)]
-    Population(#[from] PopulationError),
-}
-
 /// Runs a trial on design `fe` (a digital temperature channel).
-pub fn run(fe: &FrontEnd, opt: &TrialOptions) -> Result<TrialOutcome, TrialError> {
+pub fn run(fe: &FrontEnd, opt: &TrialOptions) -> Result<TrialOutcome, PopulationError> {
+    let sim = |e: SimError| PopulationError::Lot(format!("simulating the trial: {e}"));
+    let data = |e: DemoError| PopulationError::Lot(format!("the trial's data: {e}"));
     let chamber =
         ChamberPlan { setpoints: opt.lot_setpoints, ratios_per_setpoint: opt.ratios, repeats: opt.repeats };
     let lot_plan = Plan { seed: opt.lot_seed, chamber, validation_count: 1, units: opt.lot_units };
-    let lot = simulate_lot(fe, &lot_plan, &Lot::default())?;
+    let lot = simulate_lot(fe, &lot_plan, &Lot::default()).map_err(sim)?;
     let jobs = (0..lot.units.len())
         .map(|i| {
             Ok(UnitJob {
@@ -122,7 +109,8 @@ pub fn run(fe: &FrontEnd, opt: &TrialOptions) -> Result<TrialOutcome, TrialError
                 unreadable: None,
             })
         })
-        .collect::<Result<Vec<UnitJob>, DemoError>>()?;
+        .collect::<Result<Vec<UnitJob>, DemoError>>()
+        .map_err(data)?;
     let fit_opt = FitOptions { bits: fe.adc.bits, ..FitOptions::default() };
     let model =
         characterise(&jobs, &CharacteriseOptions { fit: fit_opt.clone(), production_c: vec![] })?.model;
@@ -136,14 +124,15 @@ pub fn run(fe: &FrontEnd, opt: &TrialOptions) -> Result<TrialOutcome, TrialError
         validation_count: opt.validation,
         units: opt.production_units,
     };
-    let prod = simulate_lot(fe, &prod_plan, &Lot { outliers: opt.outliers, setpoints_c: temps })?;
+    let prod =
+        simulate_lot(fe, &prod_plan, &Lot { outliers: opt.outliers, setpoints_c: temps }).map_err(sim)?;
     let prior = Arc::new(model.prior()?);
     let with_prior = FitOptions { population: Some(prior), ..fit_opt };
     let limits = AcceptanceLimits::default();
     let mut units = Vec::new();
     let (mut ours, mut val): (Vec<Option<f64>>, Vec<SimReading>) = (Vec::new(), Vec::new());
     for (i, u) in prod.units.iter().enumerate() {
-        let data = fit_data(&prod.chamber, i)?;
+        let data = fit_data(&prod.chamber, i).map_err(data)?;
         let rows: Vec<SimReading> = prod.validation.iter().filter(|r| r.unit == i).copied().collect();
         let unit = match fit(&data, &with_prior) {
             Ok(out) => {
