@@ -181,6 +181,7 @@ fn the_plan_beats_set_points_bunched_at_one_end() {
 fn the_summary_names_modes_and_cross_validation() {
     let s = photometer_three().model.render_summary();
     assert!(s.contains("mode  1") && s.contains("leave-one-unit-out") && s.contains("modes kept"), "{s}");
+    assert!(s.contains("predicted error in x over the range for a unit fitted from"), "{s}");
 }
 
 /// A plan of `units` units, `setpoints` set-points of `ratios` ratios, one sweep, one validation reading.

@@ -614,6 +614,16 @@ impl PopulationModel {
             );
         }
         let _ = writeln!(s, "modes kept: {}", self.modes_kept);
+        if let Ok(p) = plan::predict(self, &self.production_c, self.ratios) {
+            let _ = writeln!(
+                s,
+                "predicted error in x over the range for a unit fitted from {} °C, {} ratios each: rms {:.2}x the noise-only limit, worst point {:.2}x",
+                prod.join(", "),
+                self.ratios,
+                p.rms_ratio,
+                p.worst_ratio
+            );
+        }
         s
     }
 }
