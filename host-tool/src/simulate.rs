@@ -535,6 +535,12 @@ fn widened(fe: &FrontEnd, factor: f64) -> FrontEnd {
 /// draw the model refuses is drawn again from the rest of its stream (at most 20 times).
 pub fn simulate_lot(fe: &FrontEnd, plan: &Plan, lot: &Lot) -> Result<Simulation, SimError> {
     fe.validate()?;
+    // Chosen set-points are the plan's number of set-points (for its size checks and the manifest).
+    let mut plan = *plan;
+    if !lot.setpoints_c.is_empty() {
+        plan.chamber.setpoints = lot.setpoints_c.len();
+    }
+    let plan = &plan;
     check_plan(plan)?;
     if lot.outliers > plan.units || (lot.outliers > 0 && fe.spread.is_none()) {
         return Err(SimError::Plan {

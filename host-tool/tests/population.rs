@@ -225,7 +225,7 @@ fn simulated_lots_record_their_outliers_and_set_points() {
     let plain = simulate_lot(&fe, &plan, &Lot::default()).unwrap();
     assert!((0..8).filter(|i| !marked.contains(i)).all(|i| sim.units[i].frontend == plain.units[i].frontend));
     // Refused: a set-point outside the operating range, more outliers than units.
-    let bad = Lot { outliers: 0, setpoints_c: vec![87.5] };
+    let bad = Lot { outliers: 0, setpoints_c: vec![0.0, 87.5] };
     assert!(matches!(simulate_lot(&fe, &plan, &bad), Err(SimError::SetPoint { .. })));
     let bad = Lot { outliers: 9, setpoints_c: vec![] };
     assert!(matches!(simulate_lot(&fe, &plan, &bad), Err(SimError::Plan { what: "outliers", .. })));
