@@ -25,12 +25,18 @@
 //! | key | default | a unit passes when |
 //! |---|---|---|
 //! | `max_residual_ratio` | 2.0 | at every set-point, the rms of the fitted rows' errors in x, each in units of its own noise (the unit's noise through the local slope), is at most this: about 1 for a fit that leaves only noise; with 40 rows a clean fit exceeds 1.4 about once in a thousand set-points |
-//! | `max_cv_ratio` | 2.0 | the cross-validated rms error in x (leave one interior set-point out) is at most this many times the rms noise of the rows held out; units fitted with a fixed model size are cross-validated for this check |
+//! | `max_cv_ratio` | 2.0 | the cross-validated rms error in x (leave one interior set-point out) is at most this many times the rms noise of the rows held out; units fitted with a fixed model size are cross-validated for this check; a unit fitted against a population from two set-points, which none can cross-validate, is judged by the population check instead |
 //! | `max_set_aside_share` | 0.2 | at most this share of the rows was set aside (rails, stray temperatures, unsettled sweeps, glitches) |
 //! | `required_temperature_c` | none | the calibrated temperature range covers `min … max` (°C). The end set-points jitter: give the span the product needs, a little inside them |
 //! | `required_ratio` | none | the calibrated x range covers `ln min … ln max` (ratios I_sig/I_ref) |
 //! | `min_sensitivity` | 0.1 | over the required (else calibrated) ratios and temperatures, the front end's sensitivity ∂code/∂x relative to ideal is at least this |
 //! | `verify_bound_lsb` | none | `logtrim verify`'s exhaustive check of both firmware paths passes at this bound (LSB equivalents); slow, so off unless asked |
+//!
+//! A unit fitted against a population (`fit --population`) is also checked against it: the squared
+//! Mahalanobis distance of its parameters (all but its own offset and slope) from the population's mean,
+//! under the population's covariance, must lie within Hotelling's prediction limit for a lot of that many
+//! units at 0.005 false alarms per unit (`population_distance`); a unit outside the population fails with
+//! that reason, and its residuals are judged against its noise as every unit's are (`max_residual_ratio`).
 //!
 //! The defaults are loose enough that a clean chamber run of a healthy unit passes them with room (its
 //! residual ratio is about 1.0, its cross-validation ratio about 1.0–1.3), and tight enough that a unit
@@ -295,7 +301,10 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
         };
         checks.push(Check { name: "max_residual_ratio", passed: value <= limit, value, limit, text });
     }
-    if let Some(limit) = limits.max_cv_ratio {
+    // A unit fitted against a population from two set-points cannot be cross-validated: the population
+    // check below stands in for it.
+    let cv_possible = outcome.population.is_none() || outcome.chosen_cv().is_some();
+    if let Some(limit) = limits.max_cv_ratio.filter(|_| cv_possible) {
         let floor = outcome.cv_noise_np.unwrap_or(f64::NAN);
         let (value, text) = match outcome.chosen_cv() {
             Some(cv) => {
@@ -410,8 +419,34 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
             ),
         });
     }
+    if let Some(p) = &outcome.population {
+        checks.push(population_check(p));
+    }
     let passed = checks.iter().all(|c| c.passed);
     Ok(Verdict { passed, checks })
+}
+
+/// The population check of a unit fitted against a population: its squared Mahalanobis distance from the
+/// population's mean against the χ² quantile at the check's false-alarm budget.
+fn population_check(p: &crate::fit::prior::PopulationFit) -> Check {
+    let limit = p.threshold;
+    let scores: Vec<String> = p.scores.iter().map(|s| format!("{s:+.2}")).collect();
+    Check {
+        name: "population_distance",
+        passed: p.inside(),
+        value: p.distance2,
+        limit,
+        text: format!(
+            "population: squared distance {:.2} from its mean over {} parameters (limit {:.2}, the prediction limit at {} false alarms per unit); scores [{}] σ on the {} mode(s) kept{}",
+            p.distance2,
+            p.dof,
+            limit,
+            crate::fit::prior::FALSE_ALARMS,
+            scores.join(", "),
+            p.scores.len(),
+            if p.inside() { "" } else { ": the unit lies outside the population" }
+        ),
+    }
 }
 
 /// The lowest sensitivity (∂code/∂x relative to ideal, as the firmware computes it) over a grid of

@@ -24,6 +24,7 @@
 //! | [`fit`] | fitting a calibration to chamber data, model-size selection, the fit's summary |
 //! | [`batch`] | chamber data into one job per unit; fitting one unit, or a production-line batch in parallel, with its summary |
 //! | [`acceptance`] | a product's acceptance limits and every unit's verdict (PASS/FAIL with reasons) |
+//! | [`population`] | population models from a characterisation lot: modes of the unit-to-unit spread, the production plan, the prior a unit is fitted against |
 //! | [`sensor_tool`] | temperature channels from data sheets: thermistor coefficients, R–T tables, settings files |
 //! | **the firmware's paths, run on the host** | |
 //! | [`correct`] | correcting readings row by row with the firmware's f32 and fixed paths and field layers |
@@ -67,6 +68,7 @@ pub mod image_file;
 pub mod output;
 #[cfg(feature = "plot")]
 pub mod plot;
+pub mod population;
 pub mod progress;
 pub mod records;
 pub mod report;

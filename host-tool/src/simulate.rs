@@ -55,6 +55,7 @@ enum Purpose {
     Standards = 4,
     Blank = 5,
     Faults = 6,
+    Outliers = 7,
 }
 
 /// Reference standards read by an aged unit's standards run.
@@ -113,6 +114,27 @@ pub struct SimUnit {
     pub serial: String,
     /// Its exact front end.
     pub frontend: FrontEnd,
+    /// Whether it was drawn as a unit that does not belong to the lot ([`Lot::outliers`]).
+    #[serde(skip_serializing_if = "std::ops::Not::not")]
+    pub outlier: bool,
+}
+
+/// How far beyond the operating range a chosen set-point may lie, K: a plan made from measured
+/// temperatures may name the range's ends as its units read them.
+pub const SETPOINT_MARGIN_K: f64 = 2.0;
+
+/// How many times its design's spread an outlier of a lot is drawn with.
+pub const OUTLIER_SPREAD: f64 = 5.0;
+
+/// What a lot adds to a plan: chosen set-points and units that do not belong.
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct Lot {
+    /// Units drawn, at seeded places in the lot, with [`OUTLIER_SPREAD`] times the design's unit-to-unit
+    /// spread: units of another process that a population check should flag (at most `units`).
+    pub outliers: usize,
+    /// The chamber set-points, °C, instead of the plan's evenly spaced ones (empty: the plan's); each within
+    /// [`SETPOINT_MARGIN_K`] of the operating range.
+    pub setpoints_c: Vec<f64>,
 }
 
 /// One reading of a chamber run, with the truth behind it.
@@ -226,6 +248,8 @@ pub struct Simulation {
     pub standards: Vec<SimReading>,
     /// Every aged unit's blank run (empty for a unit without ageing).
     pub blank: Vec<SimReading>,
+    /// The chamber set-points, °C.
+    pub setpoints_c: Vec<f64>,
 }
 
 /// Errors of a simulation.
@@ -241,6 +265,16 @@ pub enum SimError {
         value: usize,
         /// What is needed.
         expected: &'static str,
+    },
+    /// A chosen set-point lies outside the operating range (and [`SETPOINT_MARGIN_K`] beyond).
+    #[error("set-point {temp_c} °C: expected a temperature within {min_c} … {max_c} °C (the operating range and 2 K beyond)")]
+    SetPoint {
+        /// The set-point.
+        temp_c: f64,
+        /// The range's lower end.
+        min_c: f64,
+        /// The range's upper end.
+        max_c: f64,
     },
     /// The front end (or a unit drawn from it) is invalid.
     #[error(transparent)]
@@ -283,6 +317,17 @@ fn spaced(a: f64, b: f64, n: usize) -> Vec<f64> {
 /// any [`FrontEnd::aging`] is ignored. Its [`FrontEnd::chamber_faults`] are drawn from a stream of their
 /// own, so the run is the clean run of the same seed with some readings changed.
 pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) -> Vec<ChamberRow> {
+    chamber_run_at(fe, &setpoints(fe, plan.setpoints), plan, unit, seed)
+}
+
+/// [`chamber_run`] at the set-points `sps` (°C) instead of the plan's evenly spaced ones.
+pub fn chamber_run_at(
+    fe: &FrontEnd,
+    sps: &[f64],
+    plan: &ChamberPlan,
+    unit: usize,
+    seed: u64,
+) -> Vec<ChamberRow> {
     let calibrated = fe.as_calibrated();
     let fe = &calibrated;
     let mut rng = rng_for(seed, Purpose::Chamber, unit);
@@ -290,8 +335,7 @@ pub fn chamber_run(fe: &FrontEnd, plan: &ChamberPlan, unit: usize, seed: u64) ->
     let faults = fe.chamber_faults;
     let ratios = sweep_ratios(fe, plan.ratios_per_setpoint);
     let jitter = fe.operating.setpoint_jitter_k_rms;
-    let sps = setpoints(fe, plan.setpoints);
-    let mut rows = Vec::with_capacity(plan.setpoints * plan.repeats * ratios.len());
+    let mut rows = Vec::with_capacity(sps.len() * plan.repeats * ratios.len());
     for (k, &sp) in sps.iter().enumerate() {
         // An unsettled set-point: the pair lags on the side the chamber came from.
         let from = if k == 0 { 25.0 } else { sps[k - 1] };
@@ -444,16 +488,96 @@ pub fn serial(i: usize) -> String {
 
 /// Runs a whole simulation: draws the units, then each unit's chamber and validation runs.
 pub fn simulate(fe: &FrontEnd, plan: &Plan) -> Result<Simulation, SimError> {
+    simulate_lot(fe, plan, &Lot::default())
+}
+
+/// The units of a lot that do not belong: `count` distinct places among `units`, drawn from their own
+/// stream.
+pub fn outlier_places(seed: u64, units: usize, count: usize) -> Vec<usize> {
+    let mut rng = rng_for(seed, Purpose::Outliers, 0);
+    let mut all: Vec<usize> = (0..units).collect();
+    let count = count.min(units);
+    for i in 0..count {
+        let j = rng.random_range(i..units);
+        all.swap(i, j);
+    }
+    let mut chosen = all[..count].to_vec();
+    chosen.sort_unstable();
+    chosen
+}
+
+/// The design's spread, `factor` times wider.
+fn widened(fe: &FrontEnd, factor: f64) -> FrontEnd {
+    let mut wide = fe.clone();
+    if let Some(s) = &mut wide.spread {
+        for v in [
+            &mut s.ideality,
+            &mut s.mismatch_v,
+            &mut s.bulk_resistance_rel,
+            &mut s.offset_v,
+            &mut s.offset_drift_v_per_k,
+            &mut s.bias_rel,
+            &mut s.gain_rel,
+            &mut s.tempco_per_k,
+            &mut s.level_shift_v,
+            &mut s.adc_gain_error,
+            &mut s.adc_offset_codes,
+            &mut s.sensor_offset_k,
+            &mut s.sensor_element_rel,
+        ] {
+            *v *= factor;
+        }
+    }
+    wide
+}
+
+/// [`simulate`] of a lot: with chosen set-points and units that do not belong ([`Lot`]). An outlier whose
+/// draw the model refuses is drawn again from the rest of its stream (at most 20 times).
+pub fn simulate_lot(fe: &FrontEnd, plan: &Plan, lot: &Lot) -> Result<Simulation, SimError> {
     fe.validate()?;
+    // Chosen set-points are the plan's number of set-points (for its size checks and the manifest).
+    let mut plan = *plan;
+    if !lot.setpoints_c.is_empty() {
+        plan.chamber.setpoints = lot.setpoints_c.len();
+    }
+    let plan = &plan;
     check_plan(plan)?;
-    let units: Vec<SimUnit> = if plan.units == 1 {
-        vec![SimUnit { serial: serial(0), frontend: fe.clone() }]
+    if lot.outliers > plan.units || (lot.outliers > 0 && fe.spread.is_none()) {
+        return Err(SimError::Plan {
+            what: "outliers",
+            value: lot.outliers,
+            expected: "at most the number of units, and a design with a unit-to-unit spread",
+        });
+    }
+    let setpoints_c = if lot.setpoints_c.is_empty() {
+        setpoints(fe, plan.chamber.setpoints)
+    } else {
+        lot.setpoints_c.clone()
+    };
+    let o = &fe.operating;
+    let (lo, hi) = (o.temp_min_c - SETPOINT_MARGIN_K, o.temp_max_c + SETPOINT_MARGIN_K);
+    if let Some(t) = setpoints_c.iter().find(|t| !(t.is_finite() && (lo..=hi).contains(*t))) {
+        return Err(SimError::SetPoint { temp_c: *t, min_c: lo, max_c: hi });
+    }
+    let outliers = outlier_places(plan.seed, plan.units, lot.outliers);
+    let wide = widened(fe, OUTLIER_SPREAD);
+    let units: Vec<SimUnit> = if plan.units == 1 && outliers.is_empty() {
+        vec![SimUnit { serial: serial(0), frontend: fe.clone(), outlier: false }]
     } else {
         (0..plan.units)
             .map(|i| {
                 let s = serial(i);
                 let mut rng = rng_for(plan.seed, Purpose::UnitDraw, i);
-                fe.draw_unit(&s, &mut rng).map(|frontend| SimUnit { serial: s, frontend })
+                let outlier = outliers.contains(&i);
+                let mut drawn =
+                    if outlier { wide.draw_unit(&s, &mut rng) } else { fe.draw_unit(&s, &mut rng) };
+                for _ in 0..20 {
+                    if !(outlier && drawn.is_err()) {
+                        break;
+                    }
+                    drawn = wide.draw_unit(&s, &mut rng);
+                }
+                drawn.map(|frontend| SimUnit { serial: s, frontend, outlier })
             })
             .collect::<Result<_, _>>()?
     };
@@ -463,7 +587,7 @@ pub fn simulate(fe: &FrontEnd, plan: &Plan) -> Result<Simulation, SimError> {
     let mut blank = Vec::new();
     for (i, u) in units.iter().enumerate() {
         let fe = &u.frontend;
-        chamber.extend(chamber_run(fe, &plan.chamber, i, plan.seed));
+        chamber.extend(chamber_run_at(fe, &setpoints_c, &plan.chamber, i, plan.seed));
         let first_id = (i * plan.validation_count) as u64 + 1;
         validation.extend(validation_run(fe, plan.validation_count, i, first_id, plan.seed));
         if fe.aging.is_some() {
@@ -472,7 +596,16 @@ pub fn simulate(fe: &FrontEnd, plan: &Plan) -> Result<Simulation, SimError> {
             blank.extend(blank_run(fe, blank_ratio(fe), t, FIELD_READINGS, i, plan.seed));
         }
     }
-    Ok(Simulation { nominal: fe.clone(), plan: *plan, units, chamber, validation, standards, blank })
+    Ok(Simulation {
+        nominal: fe.clone(),
+        plan: *plan,
+        units,
+        chamber,
+        validation,
+        standards,
+        blank,
+        setpoints_c,
+    })
 }
 
 fn check_plan(plan: &Plan) -> Result<(), SimError> {
@@ -674,7 +807,8 @@ impl Simulation {
             "generator": format!("logtrim {} simulate — generated file, do not edit", env!("CARGO_PKG_VERSION")),
             "frontend": self.nominal.name,
             "plan": self.plan,
-            "setpoints_c": setpoints(&self.nominal, self.plan.chamber.setpoints),
+            "setpoints_c": self.setpoints_c,
+            "outliers": self.units.iter().filter(|u| u.outlier).map(|u| u.serial.as_str()).collect::<Vec<_>>(),
             "units": self.units.iter().map(|u| u.serial.as_str()).collect::<Vec<_>>(),
             "rows": { "cal": self.chamber.len(), "validation": self.validation.len() },
             "oracle": self.oracle_stats(),

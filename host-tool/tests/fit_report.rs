@@ -66,6 +66,7 @@ fn outcome(cal: Calibration) -> FitOutcome {
         cv_noise_np: Some(1.9e-4),
         notes: vec!["an invented note for the snapshot".into()],
         screening: Default::default(),
+        population: None,
     }
 }
 

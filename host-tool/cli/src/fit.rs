@@ -54,6 +54,11 @@ pub struct FitArgs {
     /// offset=3,slope=2,bulk=1,pole,bias,residual=3x2.
     #[arg(long, value_name = "TERMS", value_parser = parse_model)]
     model: Option<Spec>,
+    /// Fit against a population (POP.json from `logtrim characterise`): the population's model size and
+    /// temperature range, the unit's shape held to the population's spread, so two or three set-points
+    /// suffice; a unit outside the population fails acceptance (population_distance).
+    #[arg(long, value_name = "POP.json", conflicts_with = "model")]
+    population: Option<PathBuf>,
     /// Most Chebyshev terms of any series over temperature the search may use.
     #[arg(long, default_value_t = FitOptions::default().max_series as u8, value_name = "N",
           value_parser = clap::value_parser!(u8).range(1..=MAX_SERIES as i64))]
@@ -277,13 +282,30 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
         Some(p) => Some(load_settings(p).map_err(Failure::input)?),
         None => None,
     };
-    let (bits, bits_given) = adc_bits(&args)?;
-    let opt = options(&args, bits)?;
+    let (mut bits, mut bits_given) = adc_bits(&args)?;
+    let prior = match &args.population {
+        Some(p) => {
+            let (prior, pop_bits) = crate::population::load_prior(p, bits, bits_given)?;
+            (bits, bits_given) = (pop_bits, true);
+            Some(prior)
+        }
+        None => None,
+    };
+    let mut opt = options(&args, bits)?;
+    if let Some(p) = prior {
+        opt.spec = Some(p.spec);
+        opt.population = Some(p);
+    }
     let limits = args.limits.limits()?;
     let image = args.image.options()?;
     // Every output is checked before anything is written: the calibration file (or the batch's folder)
     // and the report's folder.
-    let inputs = [Some(args.input.as_path()), args.sensor.as_deref(), args.design.as_deref()];
+    let inputs = [
+        Some(args.input.as_path()),
+        args.sensor.as_deref(),
+        args.design.as_deref(),
+        args.population.as_deref(),
+    ];
     crate::check_outputs(&inputs, &[], &[args.report.as_deref()])?;
     if args.input.is_dir() {
         crate::check_outputs(&inputs, &[], &[Some(&args.output)])?;
@@ -331,7 +353,7 @@ pub fn run(args: FitArgs) -> Result<(), Failure> {
     let done = fit_units(&jobs, &opts, &args.output, &crate::progress::on(&bar));
     crate::progress::finish(bar);
     let done = done.map_err(Failure::input)?;
-    if let (Some(s), None) = (done.spec, &args.model) {
+    if let (Some(s), None, None) = (done.spec, &args.model, &args.population) {
         say!(
             "model for the batch (cross-validated on up to {} pilot units): {}",
             logtrim_host::batch::PILOT_UNITS,

@@ -23,6 +23,7 @@ mod fit;
 mod image;
 mod inspect;
 mod plot;
+mod population;
 mod progress;
 mod sensor;
 mod simulate;
@@ -65,6 +66,12 @@ enum Command {
     /// Fit a calibration (COEFFS.json) from chamber data and judge it against acceptance limits (PASS/FAIL,
     /// exit 3 on FAIL); a batch gets a file per unit, an image per unit that passed, and a summary.
     Fit(fit::FitArgs),
+    /// Make a population model (POP.json) from a characterisation lot run at the full set of set-points:
+    /// the modes of the unit-to-unit spread, how many the lot supports (leave-one-unit-out), a summary.
+    Characterise(population::CharacteriseArgs),
+    /// Recommend a production plan from a population model: N set-points and the ratios per set-point,
+    /// with the error in x predicted across the range (then `fit --population`).
+    Plan(population::PlanArgs),
     /// Correct a readings CSV with a calibration, as the firmware would, and write the results.
     Apply(apply::ApplyArgs),
     /// Simulate chamber calibration and validation runs of a front end, with the truth kept apart.
@@ -206,6 +213,8 @@ fn main() -> ExitCode {
         Command::Simulate(args) => simulate::run(args),
         Command::Demo(args) => demo::run(args),
         Command::Fit(args) => fit::run(args),
+        Command::Characterise(args) => population::run_characterise(args),
+        Command::Plan(args) => population::run_plan(args),
         Command::Apply(args) => apply::run(args),
         Command::Image(args) => image::run(args),
         Command::Inspect(args) => inspect::run(args),

@@ -8,6 +8,7 @@ use logtrim_host::error_scale::{db_amplitude, db_power};
 use logtrim_host::frontend::{FrontEnd, PRESETS};
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
 
+use crate::population::Temps;
 use crate::Failure;
 
 /// Options of `logtrim simulate`.
@@ -29,8 +30,16 @@ pub struct SimulateArgs {
     #[arg(long, value_name = "DIR")]
     out_dir: Option<PathBuf>,
     /// Chamber temperature set-points, evenly spaced over the operating range, ends included.
-    #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().setpoints)]
+    #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().setpoints, conflicts_with = "setpoints_at")]
     setpoints: usize,
+    /// Chamber set-points at these temperatures instead, °C, comma-separated (a production plan's, as
+    /// `logtrim plan` prints them).
+    #[arg(long, value_name = "T1,T2,…", allow_hyphen_values = true, value_parser = crate::population::parse_temps)]
+    setpoints_at: Option<Temps>,
+    /// Units of the batch drawn from outside the population: at seeded places, with 5x the design's
+    /// unit-to-unit spread (marked in units.json and manifest.json).
+    #[arg(long, value_name = "N", default_value_t = 0)]
+    outliers: usize,
     /// Ratios per sweep, log-spaced over the operating range, ends included.
     #[arg(long, value_name = "N", default_value_t = ChamberPlan::default().ratios_per_setpoint)]
     ratios: usize,
@@ -136,17 +145,19 @@ pub fn run(args: SimulateArgs) -> Result<(), Failure> {
         }
         return Err(Failure::input("nothing to do: give --out-dir DIR to simulate, or --write-preset FILE"));
     };
+    let setpoints_c = args.setpoints_at.clone().map(|t| t.0).unwrap_or_default();
     let plan = Plan {
         seed: args.seed,
         chamber: ChamberPlan {
-            setpoints: args.setpoints,
+            setpoints: if setpoints_c.is_empty() { args.setpoints } else { setpoints_c.len() },
             ratios_per_setpoint: args.ratios,
             repeats: args.repeats,
         },
         validation_count: args.validation,
         units: args.units,
     };
-    let mut sim = simulate::simulate(&fe, &plan).map_err(Failure::input)?;
+    let lot = simulate::Lot { outliers: args.outliers, setpoints_c };
+    let mut sim = simulate::simulate_lot(&fe, &plan, &lot).map_err(Failure::input)?;
     if let Some(s) = &args.serial {
         if args.units != 1 {
             return Err(Failure::input("--serial names a single unit; a batch's units are U0001, U0002, …"));
@@ -195,8 +206,11 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) -> Res
         fe.ideal_slope_v_per_neper(25.0) * LN_10,
         fe.code_slope(0.0, 25.0)
     );
-    let sps: Vec<String> =
-        simulate::setpoints(fe, p.chamber.setpoints).iter().map(|t| format!("{t:.1}")).collect();
+    let sps: Vec<String> = sim.setpoints_c.iter().map(|t| format!("{t:.1}")).collect();
+    let outliers: Vec<&str> = sim.units.iter().filter(|u| u.outlier).map(|u| u.serial.as_str()).collect();
+    if !outliers.is_empty() {
+        say!("  units from outside the population (5x the spread): {}", outliers.join(", "));
+    }
     let width = written.iter().map(|w| w.path.display().to_string().chars().count()).max().unwrap_or(0);
     for w in written {
         let name = w.path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();

@@ -21,6 +21,7 @@
 
 pub mod model;
 pub mod noise;
+pub mod prior;
 pub mod robust;
 pub mod screen;
 pub mod select;
@@ -138,6 +139,11 @@ pub struct FitOptions {
     /// Screen the rows (rails, stray temperatures, unsettled set-points, glitches) and set aside those
     /// that must not be fitted; off, every row is fitted as given.
     pub screen: bool,
+    /// A normalisation to use instead of the one made from the data (a population's common one).
+    pub norm: Option<Norm>,
+    /// A population's prior ([`prior`]): the unit is fitted with the population's model size,
+    /// normalisation and calibrated temperature range, its parameters held to the population's spread.
+    pub population: Option<std::sync::Arc<prior::Prior>>,
 }
 
 impl Default for FitOptions {
@@ -155,6 +161,8 @@ impl Default for FitOptions {
             min_span_decades: 1.0,
             min_rows_per_setpoint: 8,
             screen: true,
+            norm: None,
+            population: None,
         }
     }
 }
@@ -383,6 +391,8 @@ pub struct FitOutcome {
     pub notes: Vec<String>,
     /// Rows set aside and rows refused.
     pub screening: Screening,
+    /// For a unit fitted against a population: its scores and distance from the population.
+    pub population: Option<prior::PopulationFit>,
 }
 
 impl FitOutcome {
@@ -560,7 +570,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     let tc = 0.5 * (tmin + tmax);
     let (xmin_data, xmax_data) = (rmin.ln(), rmax.ln());
     let level = median(in_sp.iter().map(|&i| f64::from(data.code[i])).collect()).round();
-    let norm = Norm {
+    let computed = Norm {
         level,
         t_center_c: (tc * 64.0).round() / 64.0,
         t_half_span_k: (0.5 * (tmax - tmin)).max(1.0),
@@ -568,6 +578,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         x_center: 0.5 * (xmin_data + xmax_data),
         x_half_span: (0.5 * (xmax_data - xmin_data)).max(0.5),
     };
+    let norm = opt.population.as_ref().map(|p| p.norm).or(opt.norm).unwrap_or(computed);
     let weight = |i: usize| data.weight.get(i).copied().unwrap_or(1.0);
     let preps: Vec<Prep> = (0..n)
         .map(|i| Prep::new(&norm, f64::from(data.code[i]), data.temp_c[i], data.ratio[i].ln(), weight(i)))
@@ -590,7 +601,12 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     let mut unsettled: Vec<UnsettledSweep> = Vec::new();
     for _ in 0..MAX_ROUNDS {
         let mut rf = row_fit(&found.params, &norm, data, &preps, &live);
-        noise = screen::noise(&layout, &rf, &fitted_on);
+        noise = screen::noise(&layout, &rf, &fitted_on).map(|m| match &opt.population {
+            // The temperature reading's noise is the design's, measured on the whole lot: two or three
+            // set-points may hold too few rows where ∂code/∂T is large to measure it.
+            Some(p) => NoiseModel { temperature_k_rms: p.noise_temperature_k, ..m },
+            None => m,
+        });
         let Some(model) = noise else { break };
         rf.set_noise(&model);
         if !opt.screen {
@@ -633,7 +649,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
     for &(i, _) in &glitch_z {
         reason[i] = Some(Reason::Glitch);
     }
-    if opt.spec.is_some() && fitted_on != searched_on {
+    if opt.spec.is_some() && opt.population.is_none() && fitted_on != searched_on {
         // The fixed size's own cross-validation, again on the rows kept.
         let groups = groups_of(&layout, &preps, &fitted_on);
         let per_group = (opt.search_rows / nsp.max(1)).max(opt.min_rows_per_setpoint);
@@ -670,6 +686,8 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         Some(m) => (m, m),
         None => (end_margin(&|x| x <= xmin + edge), end_margin(&|x| x >= xmax - edge)),
     };
+    // A unit fitted against a population is calibrated over the population's range.
+    let (tmin, tmax) = opt.population.as_ref().map_or((tmin, tmax), |p| p.temperature_c);
     let env = Envelope {
         bits: opt.bits,
         rail_margin: margin,
@@ -786,6 +804,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         })
         .collect();
     let judged = live.iter().filter(|&&l| l).count();
+    let population = opt.population.as_ref().map(|p| p.check(&params));
     let screening = Screening {
         rows: n,
         rows_fitted: kept.len(),
@@ -806,6 +825,7 @@ pub fn fit(data: &FitData, opt: &FitOptions) -> Result<FitOutcome, FitError> {
         cv_noise_np,
         notes,
         screening,
+        population,
     })
 }
 
@@ -863,6 +883,9 @@ fn refit(
 ) -> Result<Params, FitError> {
     let per_group = (opt.search_rows / nsp.max(1)).max(opt.min_rows_per_setpoint);
     let search: Vec<Prep> = groups.iter().flat_map(|g| thin(g, per_group)).collect();
+    if let Some(prior) = &opt.population {
+        return prior.fit(&search).ok_or_else(|| failed("fit against the population"));
+    }
     let (mut p, _) = fit_spec(&search, spec, Some(warm)).ok_or_else(|| failed("refit"))?;
     let all: Vec<Prep> = groups.iter().flatten().copied().collect();
     if all.len() > search.len() {
@@ -880,6 +903,14 @@ fn search(groups: &[Vec<Prep>], opt: &FitOptions, nsp_all: usize) -> Result<Sear
     let search: Vec<Prep> = search_groups.iter().flatten().copied().collect();
     let mut notes = Vec::new();
     let mut cv = Vec::new();
+    if let Some(prior) = &opt.population {
+        // The population's size, fitted against its prior; cross-validated where three set-points allow.
+        let params = prior.fit(&search).ok_or_else(|| failed("fit against the population"))?;
+        if let Some((rms, max, folds)) = prior.cross_validate(&search_groups) {
+            cv.push(CvRecord { spec: prior.spec, rms, max, folds, chosen: true });
+        }
+        return Ok(Searched { spec: prior.spec, params, cv, notes });
+    }
     let base = Spec {
         offset_terms: 2,
         slope_terms: 1,

@@ -158,7 +158,8 @@ impl Spec {
 }
 
 /// The normalisation of a fit's variables.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Norm {
     /// L: level-shift code subtracted from every code.
     pub level: f64,

@@ -142,6 +142,15 @@ pub fn x_errors(params: &Params, rows: &[Prep]) -> Vec<f64> {
 
 /// Cross-validates one size: `groups[i]` are the rows of set-point i (ordered by temperature).
 pub fn cross_validate(groups: &[Vec<Prep>], spec: Spec, warm: &Params) -> Option<(f64, f64, usize)> {
+    cross_validate_with(groups, |train| fit_spec(train, spec, Some(warm)).map(|(p, _)| p))
+}
+
+/// Cross-validates a way of fitting, `fit_rows` (the training rows to the parameters), by holding out each
+/// interior set-point in turn: (rms, max, folds) of the error in x of the rows held out.
+pub fn cross_validate_with<F>(groups: &[Vec<Prep>], fit_rows: F) -> Option<(f64, f64, usize)>
+where
+    F: Fn(&[Prep]) -> Option<Params> + Sync,
+{
     let n = groups.len();
     let held: Vec<usize> = if n >= 4 {
         (1..n - 1).collect()
@@ -162,7 +171,7 @@ pub fn cross_validate(groups: &[Vec<Prep>], spec: Spec, warm: &Params) -> Option
                 .filter(|(i, _)| *i != j)
                 .flat_map(|(_, g)| g.iter().copied())
                 .collect();
-            let (p, _) = fit_spec(&train, spec, Some(warm))?;
+            let p = fit_rows(&train)?;
             Some(x_errors(&p, &groups[j]))
         })
         .collect();

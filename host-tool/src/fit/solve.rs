@@ -152,6 +152,23 @@ pub fn sse(params: &Params, rows: &[Prep]) -> f64 {
 struct Problem<'a> {
     rows: &'a [Prep],
     params: Params,
+    /// A Gaussian prior's rows, stacked under the data's: residuals `R·(θ − θ̄)` (θ̄, then the rows of R).
+    prior: Option<(&'a [f64], &'a [Vec<f64>])>,
+}
+
+impl Problem<'_> {
+    fn prior_residuals(&self) -> Vec<f64> {
+        let Some((mean, root)) = self.prior else { return Vec::new() };
+        let theta = self.params.to_vec();
+        root.iter()
+            .map(|r| r.iter().zip(theta.iter().zip(mean)).map(|(a, (t, m))| a * (t - m)).sum())
+            .collect()
+    }
+
+    /// Σ residual², the prior's included.
+    fn cost(&self) -> f64 {
+        sse(&self.params, self.rows) + self.prior_residuals().iter().map(|v| v * v).sum::<f64>()
+    }
 }
 
 impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
@@ -169,18 +186,25 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
 
     fn residuals(&self) -> Option<DVector<f64>> {
         let f = |r: &Prep| r.sw * (r.code - self.params.predict(r));
-        let v: Vec<f64> = if self.rows.len() >= PARALLEL_ROWS {
+        let mut v: Vec<f64> = if self.rows.len() >= PARALLEL_ROWS {
             self.rows.par_iter().map(f).collect()
         } else {
             self.rows.iter().map(f).collect()
         };
+        v.extend(self.prior_residuals());
         v.iter().all(|e| e.is_finite()).then(|| DVector::from_vec(v))
     }
 
     fn jacobian(&self) -> Option<DMatrix<f64>> {
         let p = self.params.spec.n_params();
         let n = self.rows.len();
-        let mut m = DMatrix::<f64>::zeros(n, p);
+        let root = self.prior.map_or(&[][..], |(_, r)| r);
+        let mut m = DMatrix::<f64>::zeros(n + root.len(), p);
+        for (k, r) in root.iter().enumerate() {
+            for (j, v) in r.iter().enumerate().take(p) {
+                m[(n + k, j)] = *v;
+            }
+        }
         let fill = |chunk: &[Prep], m: &mut DMatrix<f64>, r0: usize| {
             let mut g = Vec::with_capacity(p);
             for (k, r) in chunk.iter().enumerate() {
@@ -215,10 +239,16 @@ impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
 /// Refines all parameters by Levenberg–Marquardt from `start`; returns the refined parameters and SSE.
 /// A refinement that does not lower the SSE returns the start.
 pub fn refine(start: &Params, rows: &[Prep]) -> (Params, f64) {
-    let s0 = sse(start, rows);
-    let problem = Problem { rows, params: start.clone() };
+    refine_with(start, rows, None)
+}
+
+/// [`refine`] with a Gaussian prior's rows `R·(θ − θ̄)` stacked under the data's (`prior`: θ̄ and the rows
+/// of R); the SSE returned includes them.
+pub fn refine_with(start: &Params, rows: &[Prep], prior: Option<(&[f64], &[Vec<f64>])>) -> (Params, f64) {
+    let problem = Problem { rows, params: start.clone(), prior };
+    let s0 = problem.cost();
     let (done, _report) = LevenbergMarquardt::new().with_patience(60).minimize(problem);
-    let s1 = sse(&done.params, rows);
+    let s1 = done.cost();
     if s1.is_finite() && s1 <= s0 {
         (done.params, s1)
     } else {
