@@ -426,25 +426,35 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
     Ok(Verdict { passed, checks })
 }
 
-/// The population check of a unit fitted against a population: its squared Mahalanobis distance from the
-/// population's mean against the χ² quantile at the check's false-alarm budget.
+/// The population check of a unit fitted against a population: the squared Mahalanobis distances from the
+/// population's mean of its shape (the parameters the prior holds) and of its own terms (offset and slope,
+/// against the lot's spread of them), each against its prediction limit at half the check's false-alarm
+/// budget.
 fn population_check(p: &crate::fit::prior::PopulationFit) -> Check {
     let limit = p.threshold;
     let scores: Vec<String> = p.scores.iter().map(|s| format!("{s:+.2}")).collect();
+    let why = match (p.distance2 <= p.threshold, p.own_distance2 <= p.own_threshold) {
+        (true, true) => "",
+        (false, true) => ": the unit's shape lies outside the population",
+        (true, false) => ": the unit's offset and slope lie outside the lot's spread",
+        (false, false) => ": the unit's shape, offset and slope lie outside the population",
+    };
     Check {
         name: "population_distance",
         passed: p.inside(),
         value: p.distance2,
         limit,
         text: format!(
-            "population: squared distance {:.2} from its mean over {} parameters (limit {:.2}, the prediction limit at {} false alarms per unit); scores [{}] σ on the {} mode(s) kept{}",
+            "population: squared distance {:.2} from its mean over {} parameters (limit {:.2}), own offset and slope {:.2} (limit {:.2}), prediction limits at {} false alarms per unit in all; scores [{}] σ on the {} mode(s) kept{}",
             p.distance2,
             p.dof,
             limit,
+            p.own_distance2,
+            p.own_threshold,
             crate::fit::prior::FALSE_ALARMS,
             scores.join(", "),
             p.scores.len(),
-            if p.inside() { "" } else { ": the unit lies outside the population" }
+            why
         ),
     }
 }

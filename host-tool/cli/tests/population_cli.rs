@@ -42,10 +42,24 @@ fn the_readme_walk_through_runs_as_written() {
         serde_json::from_str(&std::fs::read_to_string(d.join("units/summary.json")).unwrap()).unwrap();
     let units = summary.as_array().or_else(|| summary["units"].as_array()).unwrap();
     assert_eq!(units.len(), 8);
+    // The simulator's ground truth: which units were drawn from outside the population.
+    let truth: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("line/units.json")).unwrap()).unwrap();
+    let outliers: Vec<&str> = truth["units"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|u| u["outlier"] == true)
+        .map(|u| u["serial"].as_str().unwrap())
+        .collect();
+    assert_eq!(outliers.len(), 1, "{truth}");
     for u in units {
         assert_ne!(u["verdict"], "ERROR", "{u}");
         let checks = u["checks"].as_array().unwrap();
-        assert!(checks.iter().any(|c| c["name"] == "population_distance"), "{u}");
+        let population = checks.iter().find(|c| c["name"] == "population_distance").expect("the check");
+        // The unit drawn from outside is flagged by the population check; the others pass it.
+        let outside = outliers.contains(&u["serial"].as_str().unwrap());
+        assert_eq!(population["passed"], !outside, "{u}");
     }
     // A unit's calibration file is an ordinary one, over the population's temperature range.
     let unit: serde_json::Value =

@@ -45,6 +45,9 @@ pub struct Prior {
     /// Rows of the score map S: a unit's mode scores are `S·(θ − θ̄)` (in standard deviations of the
     /// population).
     pub scores: Vec<Vec<f64>>,
+    /// The unit's own terms (indices in θ) and the inverse of their covariance over the lot: the fit leaves
+    /// them free, the check holds them to the lot's spread (a zero matrix checks nothing).
+    pub own: ([usize; 2], [[f64; 2]; 2]),
 }
 
 /// What the population check found for one unit.
@@ -57,17 +60,22 @@ pub struct PopulationFit {
     pub distance2: f64,
     /// Its degrees of freedom: the parameters the prior holds.
     pub dof: usize,
-    /// The limit at the false-alarm budget [`FALSE_ALARMS`]: Hotelling's prediction limit for a new unit
-    /// of a population whose mean and spread were estimated from n units,
+    /// The limit at half the false-alarm budget [`FALSE_ALARMS`]: Hotelling's prediction limit for a new
+    /// unit of a population whose mean and spread were estimated from n units,
     /// `q·(n−1)·(n+1)/(n·(n−q))·F(q, n−q)` at the quantile, which the χ² quantile of q degrees of freedom
     /// becomes for a large lot (common practice in multivariate process control).
     pub threshold: f64,
+    /// The squared Mahalanobis distance of the unit's own terms (constant offset and slope) from the lot's
+    /// mean under the lot's covariance of them: a unit whose offset or gain lies outside the lot's spread.
+    pub own_distance2: f64,
+    /// Its limit: the prediction limit in 2 dimensions at the other half of the budget.
+    pub own_threshold: f64,
 }
 
 impl PopulationFit {
     /// Whether the unit lies within the population.
     pub fn inside(&self) -> bool {
-        self.distance2 <= self.threshold
+        self.distance2 <= self.threshold && self.own_distance2 <= self.own_threshold
     }
 }
 
@@ -103,8 +111,12 @@ impl Prior {
         let distance2 =
             self.prior_residuals(&params.to_vec()).iter().map(|v| v * v).sum::<f64>() / self.sigma.powi(2);
         let dof = self.root.len();
-        let threshold = prediction_limit(dof, self.lot_units);
-        PopulationFit { scores, distance2, dof, threshold }
+        let threshold = prediction_limit(dof, self.lot_units, FALSE_ALARMS / 2.0);
+        let ([a, b], w) = self.own;
+        let o = [d.get(a).copied().unwrap_or(0.0), d.get(b).copied().unwrap_or(0.0)];
+        let own_distance2 = (0..2).map(|i| (0..2).map(|j| o[i] * w[i][j] * o[j]).sum::<f64>()).sum::<f64>();
+        let own_threshold = prediction_limit(2, self.lot_units, FALSE_ALARMS / 2.0);
+        PopulationFit { scores, distance2, dof, threshold, own_distance2, own_threshold }
     }
 
     /// Leave-one-interior-set-point-out cross-validation of the fit against the prior: (rms, max, folds) of
@@ -115,17 +127,17 @@ impl Prior {
 }
 
 /// Hotelling's prediction limit of the squared Mahalanobis distance of a new unit in `q` dimensions from
-/// a population estimated from `n` units, at the quantile `1 − FALSE_ALARMS` (the χ² quantile when `n ≤ q`
+/// a population estimated from `n` units, at the quantile `1 − alpha` (the χ² quantile when `n ≤ q`
 /// leaves no F distribution).
-pub fn prediction_limit(q: usize, n: usize) -> f64 {
+pub fn prediction_limit(q: usize, n: usize, alpha: f64) -> f64 {
     use statrs::distribution::{ContinuousCDF, FisherSnedecor};
     if n <= q + 1 || q == 0 {
-        return super::robust::chi2_threshold(q, 1, FALSE_ALARMS);
+        return super::robust::chi2_threshold(q, 1, alpha);
     }
     let (qf, nf) = (q as f64, n as f64);
     match FisherSnedecor::new(qf, nf - qf) {
-        Ok(f) => qf * (nf - 1.0) * (nf + 1.0) / (nf * (nf - qf)) * f.inverse_cdf(1.0 - FALSE_ALARMS),
-        Err(_) => super::robust::chi2_threshold(q, 1, FALSE_ALARMS),
+        Ok(f) => qf * (nf - 1.0) * (nf + 1.0) / (nf * (nf - qf)) * f.inverse_cdf(1.0 - alpha),
+        Err(_) => super::robust::chi2_threshold(q, 1, alpha),
     }
 }
 
@@ -137,12 +149,12 @@ mod tests {
     fn the_prediction_limit_is_hotellings_and_tends_to_chi_squared() {
         // χ² with 6 degrees of freedom, upper 0.5 % point: 18.548 (standard statistical tables; from memory).
         assert!(
-            (prediction_limit(6, 10_000_000) - 18.548).abs() < 0.01,
+            (prediction_limit(6, 10_000_000, FALSE_ALARMS) - 18.548).abs() < 0.01,
             "{}",
-            prediction_limit(6, 10_000_000)
+            prediction_limit(6, 10_000_000, FALSE_ALARMS)
         );
         // A small lot widens the limit: its mean and spread are themselves uncertain (common practice).
-        let (l30, l20) = (prediction_limit(6, 30), prediction_limit(6, 20));
+        let (l30, l20) = (prediction_limit(6, 30, FALSE_ALARMS), prediction_limit(6, 20, FALSE_ALARMS));
         assert!(l30 > 18.548 && l20 > l30, "{l30} {l20}");
         // Hotelling's form for n = 30, q = 6: 6·29·31/(30·24) · F(6, 24) at 0.995.
         let f = 6.0 * 29.0 * 31.0 / (30.0 * 24.0);

@@ -111,6 +111,9 @@ pub struct PopulationModel {
     pub modes_kept: usize,
     /// The floor variances per parameter that the modes kept leave.
     pub floor: Vec<f64>,
+    /// The lot's covariance of the units' own terms (the constant offset and slope coefficients, in θ's
+    /// units): the population check holds a unit's own terms to it.
+    pub own_covariance: [[f64; 2]; 2],
     /// The lot's noise in codes (median over units of the rms residual of their fits).
     pub noise_codes: f64,
     /// The lot's noise floor in x (median over units), nepers; none when no unit's noise could be measured.
@@ -407,11 +410,27 @@ pub fn characterise(jobs: &[UnitJob], opt: &CharacteriseOptions) -> Result<Chara
             .collect(),
         modes_kept: kept,
         floor: all.floor(spec, kept),
+        own_covariance: own_covariance(&thetas, &all.mean, modes::own_terms(spec)),
         production_c,
         cv,
     };
     model.prior().map_err(|e| PopulationError::Lot(e.to_string()))?;
     Ok(Characterised { model, left_out })
+}
+
+/// The lot's covariance of the own terms `own` of `thetas` about `mean`.
+fn own_covariance(thetas: &[Vec<f64>], mean: &[f64], own: [usize; 2]) -> [[f64; 2]; 2] {
+    let n = thetas.len().saturating_sub(1).max(1) as f64;
+    let dev = |t: &Vec<f64>, k: usize| {
+        t.get(own[k]).copied().unwrap_or(0.0) - mean.get(own[k]).copied().unwrap_or(0.0)
+    };
+    let mut c = [[0.0; 2]; 2];
+    for (i, row) in c.iter_mut().enumerate() {
+        for (j, v) in row.iter_mut().enumerate() {
+            *v = thetas.iter().map(|t| dev(t, i) * dev(t, j)).sum::<f64>() / n;
+        }
+    }
+    c
 }
 
 /// The distinct ratios of the lot's first unit.
@@ -453,7 +472,13 @@ impl PopulationModel {
             (self.temperature_c[0], self.temperature_c[1]),
             (self.x[0], self.x[1]),
         )
-        .map(|pr| Prior { noise_temperature_k: self.noise_temperature_k, ..pr })
+        .and_then(|pr| {
+            let [[a, b], [c, d]] = self.own_covariance;
+            let det = a * d - b * c;
+            let inverse = [[d / det, -b / det], [-c / det, a / det]];
+            let own = (pr.own.0, inverse);
+            (det > 0.0 && a > 0.0).then_some(Prior { noise_temperature_k: self.noise_temperature_k, own, ..pr })
+        })
         .filter(|pr| pr.n_params() == p)
         .ok_or_else(|| bad("mean, modes and floor do not make a usable prior (a covariance that is not positive definite)".into()))
     }
@@ -502,6 +527,18 @@ impl PopulationModel {
         let finite = self.mean.iter().chain(&self.floor).chain(self.modes.iter().flat_map(|m| &m.direction));
         if let Some(v) = finite.clone().find(|v| !v.is_finite()) {
             return Err(bad(format!("value {v} in mean, floor or modes is not a finite number")));
+        }
+        let [[a, b], [c, d]] = self.own_covariance;
+        if !([a, b, c, d].iter().all(|v| v.is_finite())
+            && a > 0.0
+            && d > 0.0
+            && b == c
+            && a * d - b * c > 0.0)
+        {
+            return Err(bad(format!(
+                "own_covariance {:?}: expected a finite, symmetric, positive definite 2 × 2 matrix",
+                self.own_covariance
+            )));
         }
         if self.floor.iter().any(|v| *v < 0.0) {
             return Err(bad("floor: variances must not be negative".into()));

@@ -211,5 +211,6 @@ pub fn prior(
         lot_units,
         noise_temperature_k: 0.0,
         scores,
+        own: (own, [[0.0; 2]; 2]),
     })
 }
