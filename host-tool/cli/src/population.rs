@@ -52,6 +52,10 @@ pub struct CharacteriseArgs {
     /// The design's description (front-end JSON): the log channel's ADC bits are taken from it.
     #[arg(long, value_name = "FRONTEND.json")]
     design: Option<PathBuf>,
+    /// Temperature-channel description (JSON of logtrim's TemperatureSensor) for a lot whose data have a
+    /// temp_code column (a raw thermistor or RTD channel); give the same file to `fit --population`.
+    #[arg(long, value_name = "SENSOR.json")]
+    sensor: Option<PathBuf>,
     /// Fix the population's model size instead of the batch's cross-validated choice (no residual term).
     #[arg(long, value_name = "TERMS", value_parser = Spec::parse)]
     model: Option<Spec>,
@@ -77,13 +81,17 @@ fn bits_of(bits: Option<u8>, design: Option<&Path>) -> Result<u8, Failure> {
 
 /// Runs `characterise`.
 pub fn run_characterise(args: CharacteriseArgs) -> Result<(), Failure> {
-    let inputs = [Some(args.input.as_path()), args.design.as_deref()];
+    let inputs = [Some(args.input.as_path()), args.design.as_deref(), args.sensor.as_deref()];
     crate::check_outputs(&inputs, &[Some(&args.output)], &[])?;
+    let sensor = match &args.sensor {
+        Some(p) => Some(logtrim_host::sensor_tool::load_settings(p).map_err(Failure::input)?),
+        None => None,
+    };
     if args.model.is_some_and(|s| s.has_residual()) {
         return Err(Failure::input("--model: a population's model has no residual term; leave it out"));
     }
     let bits = bits_of(args.bits, args.design.as_deref())?;
-    let how = ChamberRead { adc_bits: bits, skip_bad_rows: false, sensor: None, unit: None };
+    let how = ChamberRead { adc_bits: bits, skip_bad_rows: false, sensor: sensor.as_ref(), unit: None };
     let data = read_chamber_data(&args.input, &how).map_err(Failure::input)?;
     let opt = CharacteriseOptions {
         fit: FitOptions { bits, spec: args.model, ..FitOptions::default() },

@@ -139,3 +139,56 @@ fn bad_input_is_refused_with_a_specific_message() {
     assert!(!d.join("x").exists());
     let _ = std::fs::remove_dir_all(&d);
 }
+
+#[test]
+fn a_lot_with_a_raw_thermistor_channel_is_characterised_and_fitted_with_its_sensor_file() {
+    let d = scratch("population-raw");
+    let p = |name: &str| d.join(name).to_str().unwrap().to_string();
+    let sim = |units: &str, at: &[&str], seed: &str, out: &str| {
+        let mut args = vec!["simulate", "--preset", "photometer-ntc", "--units", units];
+        args.extend_from_slice(at);
+        args.extend_from_slice(&["--ratios", "9", "--repeats", "1", "--validation", "1", "--seed", seed]);
+        let out = p(out);
+        args.extend_from_slice(&["--out-dir", &out]);
+        let (code, _, err) = logtrim(&args);
+        assert_eq!(code, 0, "{err}");
+    };
+    sim("8", &["--setpoints", "5"], "5", "lot");
+    // The sensor file is the design's own temperature channel.
+    let design: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("lot/frontend.json")).unwrap()).unwrap();
+    std::fs::write(d.join("ntc.json"), design["temperature_sensor"]["sensor"].to_string()).unwrap();
+    // Without the sensor file the temp_code column cannot be read: refused, naming the column.
+    let (code, _, err) = logtrim(&["characterise", &p("lot/cal.csv"), "-o", &p("pop.json")]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("temp_code") && err.contains("cal.csv"), "{err}");
+    assert!(!d.join("pop.json").exists());
+    let (code, out, err) =
+        logtrim(&["characterise", &p("lot/cal.csv"), "--sensor", &p("ntc.json"), "-o", &p("pop.json")]);
+    assert_eq!(code, 0, "{out}{err}");
+    sim("3", &["--setpoints-at", "0,35,70"], "6", "line");
+    let (code, out, err) = logtrim(&[
+        "fit",
+        &p("line/cal.csv"),
+        "--population",
+        &p("pop.json"),
+        "--sensor",
+        &p("ntc.json"),
+        "-o",
+        &p("units"),
+    ]);
+    assert!(code == 0 || code == 3, "{out}{err}");
+    // Each unit was judged with the population check, and its calibration file carries the sensor.
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("units/summary.json")).unwrap()).unwrap();
+    let units = summary.as_array().or_else(|| summary["units"].as_array()).unwrap();
+    assert_eq!(units.len(), 3);
+    for u in units {
+        assert_ne!(u["verdict"], "ERROR", "{u}");
+        assert!(u["checks"].as_array().unwrap().iter().any(|c| c["name"] == "population_distance"), "{u}");
+    }
+    let unit: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(d.join("units/U0001.json")).unwrap()).unwrap();
+    assert!(unit["temperature_sensor"].is_object(), "{unit}");
+    let _ = std::fs::remove_dir_all(&d);
+}
