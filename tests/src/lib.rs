@@ -26,3 +26,23 @@ pub mod published {
         (850.0, 390.4811),
     ];
 }
+
+/// A seeded xorshift generator (Marsaglia 2003, shifts 13, 7, 17), so that tests and benches that draw
+/// garbage or streams draw the same on every run. Not a source of randomness for anything else.
+pub struct XorShift64(pub u64);
+
+impl XorShift64 {
+    /// The next 64-bit state (the seed must not be 0).
+    #[allow(clippy::should_implement_trait)]
+    pub fn next(&mut self) -> u64 {
+        self.0 ^= self.0 << 13;
+        self.0 ^= self.0 >> 7;
+        self.0 ^= self.0 << 17;
+        self.0
+    }
+
+    /// Uniform in [0, 1): the top 53 bits of [`next`](Self::next).
+    pub fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}

@@ -465,16 +465,15 @@ fn validate_names_the_defect() {
     check(&|o| o.sensor.truncate(10), D::Coefficient);
 }
 
-/// A seeded xorshift generator (Marsaglia 2003), so the garbage below is the same on every run.
-struct Rng(u64);
+// The seeded generator, so the garbage below is the same on every run.
+use logtrim_checks::XorShift64 as Rng;
 
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
+/// Table words: mostly extremes and small values, some uniform.
+trait Word {
+    fn i32(&mut self) -> i32;
+}
+
+impl Word for Rng {
     fn i32(&mut self) -> i32 {
         // Mostly extremes and small values, some uniform.
         match self.next() % 6 {
