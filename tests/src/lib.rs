@@ -46,3 +46,10 @@ impl XorShift64 {
         (self.next() >> 11) as f64 / (1u64 << 53) as f64
     }
 }
+
+/// The points `(t, x)` of a regular grid, `t` outer: `t = lo + span·i/n` for `i = 0..=n` from
+/// `t = (lo, span, n)`, and `x` likewise, both ends included (the sweeps a correction is checked over).
+pub fn grid(t: (f64, f64, u32), x: (f64, f64, u32)) -> impl Iterator<Item = (f64, f64)> {
+    let at = |(lo, span, n): (f64, f64, u32), i: u32| lo + span * f64::from(i) / f64::from(n);
+    (0..=t.2).flat_map(move |i| (0..=x.2).map(move |j| (at(t, i), at(x, j))))
+}
