@@ -1,8 +1,9 @@
 //! Shared helpers for logtrim's cross-crate checks (`tests/`) and runnable examples (`examples/`).
 //!
 //! Nothing here is part of the firmware or the host tool: it holds tolerance checks used by the
-//! reference tests, and the published tables that more than one crate's tests check against
-//! ([`published`]).
+//! reference tests, the seeded generator tests and benches draw inputs with ([`XorShift64`]), the regular
+//! grid correction sweeps run over ([`grid`]), and the published tables that more than one crate's tests
+//! check against ([`published`]).
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
 
