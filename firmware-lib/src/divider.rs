@@ -60,6 +60,13 @@ impl Divider {
         Divider { placement, series_ohm, bits, full_scale_code, open_margin: 0, short_margin: 0 }
     }
 
+    /// The same divider with codes within `open` of the open-circuit rail reported as
+    /// [`SensorFault::Open`] and within `short` of the short-circuit rail as [`SensorFault::Short`].
+    #[must_use]
+    pub const fn with_margins(self, open: u32, short: u32) -> Divider {
+        Divider { open_margin: open, short_margin: short, ..self }
+    }
+
     /// The largest code of the converter, or an error for unusable bits.
     pub fn max_code(&self) -> Result<u32, Error> {
         if self.bits == 0 || self.bits > 24 {
@@ -194,7 +201,7 @@ mod tests {
     use logtrim_checks::within;
 
     fn low() -> Divider {
-        Divider { open_margin: 8, short_margin: 4, ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12) }
+        Divider::ratiometric(Placement::LowSide, 10_000.0, 12).with_margins(8, 4)
     }
 
     #[test]

@@ -94,6 +94,12 @@ pub struct TemperatureSensor {
 }
 
 impl TemperatureSensor {
+    /// A channel of `element` behind `divider`, reported over `min_c…max_c` °C (checked by
+    /// [`validate`](Self::validate), not here).
+    pub const fn new(element: SensorElement, divider: Divider, min_c: f32, max_c: f32) -> TemperatureSensor {
+        TemperatureSensor { element, divider, min_c, max_c }
+    }
+
     /// Checks the whole channel once, when it is loaded: the element's coefficients, the divider, the
     /// range (finite, `min_c < max_c`, above absolute zero, within −200…850 °C for an RTD) and that the
     /// element's curve is monotone over the range (for Steinhart–Hart).
@@ -199,16 +205,9 @@ mod tests {
     use logtrim_checks::within;
 
     fn ntc_channel() -> TemperatureSensor {
-        TemperatureSensor {
-            element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
-            divider: Divider {
-                open_margin: 16,
-                short_margin: 16,
-                ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
-            },
-            min_c: -40.0,
-            max_c: 125.0,
-        }
+        let beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 };
+        let divider = Divider::ratiometric(Placement::LowSide, 10_000.0, 12).with_margins(16, 16);
+        TemperatureSensor::new(SensorElement::NtcBeta(beta), divider, -40.0, 125.0)
     }
 
     fn pt1000_channel() -> TemperatureSensor {

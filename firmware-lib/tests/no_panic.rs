@@ -375,10 +375,8 @@ fn any_sensor() -> impl Strategy<Value = TemperatureSensor> {
 /// Realistic channels (invented values): an NTC by Beta, the same by Steinhart–Hart, a Pt1000.
 fn realistic_sensors() -> [TemperatureSensor; 3] {
     let beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 };
-    let divider =
-        Divider { open_margin: 8, short_margin: 8, ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12) };
-    let ntc =
-        TemperatureSensor { element: SensorElement::NtcBeta(beta), divider, min_c: -40.0, max_c: 125.0 };
+    let divider = Divider::ratiometric(Placement::LowSide, 10_000.0, 12).with_margins(8, 8);
+    let ntc = TemperatureSensor::new(SensorElement::NtcBeta(beta), divider, -40.0, 125.0);
     let sh = TemperatureSensor { element: SensorElement::NtcSteinhartHart(beta.to_steinhart_hart()), ..ntc };
     let rtd = TemperatureSensor {
         element: SensorElement::Rtd(Rtd::PT1000),

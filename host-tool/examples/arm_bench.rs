@@ -25,21 +25,8 @@ use logtrim_host::emit::{self, c::status_code, Format, Provenance};
 use logtrim_host::tables::TableOptions;
 use serde::Serialize;
 
-/// A seeded xorshift generator.
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
-    /// Uniform in [0, 1).
-    fn unit(&mut self) -> f64 {
-        (self.next() >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
+// The seeded generator the streams are drawn with.
+use logtrim_checks::XorShift64 as Rng;
 
 #[derive(Serialize)]
 struct Stream {

@@ -22,11 +22,10 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 use ihex::Record;
-use logtrim::fixed::FixedCalibration;
 use logtrim::image::{self, layout, FixedStorage, Image, ImageError, ImageInfo};
 
 use crate::calfile::CalFile;
-use crate::tables::{FixedTables, SensorTableOwned, TableError, TableOptions};
+use crate::tables::{FixedTables, TableError, TableOptions};
 
 /// The file formats of an image.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -206,31 +205,7 @@ pub fn load_fixed(img: &Image<'_>) -> Result<Option<FixedTables>, ImageError> {
     }
     let mut storage = Box::new(HostFixedStorage::new());
     let view = img.fixed_into(&mut storage)?;
-    Ok(Some(owned(&view)))
-}
-
-/// The owned form of a fixed calibration.
-pub fn owned(view: &FixedCalibration<'_>) -> FixedTables {
-    FixedTables {
-        header: view.header,
-        offset: view.offset.to_vec(),
-        inv_slope: view.inv_slope.to_vec(),
-        ln_bias: view.ln_bias.to_vec(),
-        u_min: view.u_min.to_vec(),
-        residual: view.residual.to_vec(),
-        sensor: view.sensor.as_ref().map(|s| SensorTableOwned {
-            code_lo: s.code_lo,
-            code_hi: s.code_hi,
-            step_log2: s.step_log2,
-            fault_below: s.fault_below,
-            far_below_code: s.far_below_code,
-            fault_far_below: s.fault_far_below,
-            fault_above: s.fault_above,
-            far_above_code: s.far_above_code,
-            fault_far_above: s.fault_far_above,
-            knots: s.knots.to_vec(),
-        }),
-    }
+    Ok(Some(FixedTables::from(&view)))
 }
 
 /// Parses an address: decimal, or hexadecimal with a `0x` prefix; `_` separators are allowed.

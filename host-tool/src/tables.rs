@@ -161,6 +161,43 @@ pub struct FixedTables {
     pub sensor: Option<SensorTableOwned>,
 }
 
+/// A sensor table of type `$to` with the span and faults of `$s` and the knots given: the one list of
+/// the fields [`SensorTable`] and [`SensorTableOwned`] share, for the conversions both ways.
+macro_rules! sensor_table {
+    ($s:expr => $to:ident, knots: $knots:expr) => {
+        $to {
+            code_lo: $s.code_lo,
+            code_hi: $s.code_hi,
+            step_log2: $s.step_log2,
+            fault_below: $s.fault_below,
+            far_below_code: $s.far_below_code,
+            fault_far_below: $s.fault_far_below,
+            fault_above: $s.fault_above,
+            far_above_code: $s.far_above_code,
+            fault_far_above: $s.fault_far_above,
+            knots: $knots,
+        }
+    };
+}
+
+/// The owned form of a fixed calibration (the inverse of [`FixedTables::view`]).
+impl From<&FixedCalibration<'_>> for FixedTables {
+    fn from(view: &FixedCalibration<'_>) -> FixedTables {
+        FixedTables {
+            header: view.header,
+            offset: view.offset.to_vec(),
+            inv_slope: view.inv_slope.to_vec(),
+            ln_bias: view.ln_bias.to_vec(),
+            u_min: view.u_min.to_vec(),
+            residual: view.residual.to_vec(),
+            sensor: view
+                .sensor
+                .as_ref()
+                .map(|s| sensor_table!(s => SensorTableOwned, knots: s.knots.to_vec())),
+        }
+    }
+}
+
 impl FixedTables {
     /// The tables as the firmware's borrowed form.
     pub fn view(&self) -> FixedCalibration<'_> {
@@ -171,18 +208,7 @@ impl FixedTables {
             ln_bias: &self.ln_bias,
             u_min: &self.u_min,
             residual: &self.residual,
-            sensor: self.sensor.as_ref().map(|s| SensorTable {
-                code_lo: s.code_lo,
-                code_hi: s.code_hi,
-                step_log2: s.step_log2,
-                fault_below: s.fault_below,
-                far_below_code: s.far_below_code,
-                fault_far_below: s.fault_far_below,
-                fault_above: s.fault_above,
-                far_above_code: s.far_above_code,
-                fault_far_above: s.fault_far_above,
-                knots: &s.knots,
-            }),
+            sensor: self.sensor.as_ref().map(|s| sensor_table!(s => SensorTable, knots: &s.knots)),
         }
     }
 

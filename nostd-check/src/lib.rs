@@ -26,16 +26,8 @@ fn demo_calibration() -> Calibration {
 }
 
 fn demo_sensor(element: SensorElement) -> TemperatureSensor {
-    TemperatureSensor {
-        element,
-        divider: Divider {
-            open_margin: 8,
-            short_margin: 8,
-            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
-        },
-        min_c: -40.0,
-        max_c: 125.0,
-    }
+    let divider = Divider::ratiometric(Placement::LowSide, 10_000.0, 12).with_margins(8, 8);
+    TemperatureSensor::new(element, divider, -40.0, 125.0)
 }
 
 /// x = ln(I_sig/I_ref) of a code at a temperature, default backend; NaN on error.

@@ -41,16 +41,9 @@ fn unit() -> (Calibration, FixedTables) {
 /// A 10 kΩ NTC (β = 3950 K at 25 °C, typical catalogue values, common practice) on the low side of a 10 kΩ
 /// ratiometric divider, read by a 16-bit converter; codes within 64 of a rail are a broken sensor.
 fn ntc() -> TemperatureSensor {
-    TemperatureSensor {
-        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 }),
-        divider: Divider {
-            open_margin: 64,
-            short_margin: 64,
-            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 16)
-        },
-        min_c: -40.0,
-        max_c: 125.0,
-    }
+    let beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3950.0 };
+    let divider = Divider::ratiometric(Placement::LowSide, 10_000.0, 16).with_margins(64, 64);
+    TemperatureSensor::new(SensorElement::NtcBeta(beta), divider, -40.0, 125.0)
 }
 
 /// The sensor's code at a temperature, found by bisection on its own (monotone) code → °C function. A code

@@ -78,26 +78,22 @@ BENCH_API void bench_empty(uint32_t i) { bench_out_buf[i].status = (int32_t)(ben
 #define TEMP(i) ((int32_t)bench_temp[i])
 #endif
 
+/* A bench entry `name`: sample i corrected by the library's `entry` on `state`, its results stored. */
+#define BENCH_PATH(name, entry, state)                                      \
+    BENCH_API void name(uint32_t i) {                                       \
+        ltrm_reading r;                                                     \
+        ltrm_status st = BY_TEMP(entry)(state, bench_code[i], TEMP(i), &r); \
+        put(i, st, &r);                                                     \
+    }
+
 /* One call per sample, the temperature converted at every sample. */
-BENCH_API void bench_direct(uint32_t i) {
-    ltrm_reading r;
-    ltrm_status st = BY_TEMP(ltrm_correct)(&LT_UNIT, bench_code[i], TEMP(i), &r);
-    put(i, st, &r);
-}
+BENCH_PATH(bench_direct, ltrm_correct, &LT_UNIT)
 
 /* Through the stage cache kept across samples. */
-BENCH_API void bench_cached(uint32_t i) {
-    ltrm_reading r;
-    ltrm_status st = BY_TEMP(ltrm_stage_cache_correct)(&bench_cache, bench_code[i], TEMP(i), &r);
-    put(i, st, &r);
-}
+BENCH_PATH(bench_cached, ltrm_stage_cache_correct, &bench_cache)
 
 /* Through the code table kept across samples. */
-BENCH_API void bench_table(uint32_t i) {
-    ltrm_reading r;
-    ltrm_status st = BY_TEMP(ltrm_code_table_correct)(&bench_table_state, bench_code[i], TEMP(i), &r);
-    put(i, st, &r);
-}
+BENCH_PATH(bench_table, ltrm_code_table_correct, &bench_table_state)
 
 /* The code table's block API at sample 0's temperature: the first n codes as one block, then each result
  * stored as the other paths store theirs. bench_table_prime builds the table first (a block of one code). */

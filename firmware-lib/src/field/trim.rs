@@ -452,13 +452,31 @@ impl Trim {
     ) -> Result<Trim, FieldError> {
         let o = q_from_f32(offset, X_FRAC).ok_or(FieldError::NonFinite)?;
         let g = q_from_f32(gain, GAIN_FRAC).ok_or(FieldError::NonFinite)?;
+        Trim::checked(limits, o, g, |offset_q24, gain_q30| TrimParts {
+            info,
+            kind,
+            offset,
+            gain,
+            offset_q24,
+            gain_q30,
+            standards,
+            temp_mc,
+        })
+    }
+
+    /// The trim `parts` makes of the offset `o` (Q24) and gain `g` (Q30) once both are within the limits
+    /// (and so fit an i32), checked as a whole against the limits.
+    fn checked(
+        limits: &TrimLimits,
+        o: i64,
+        g: i64,
+        parts: impl FnOnce(i32, i32) -> TrimParts,
+    ) -> Result<Trim, FieldError> {
         limits.check_offset(o)?;
         limits.check_gain(g)?;
-        // Within the limits, both fit an i32.
         let offset_q24 = i32::try_from(o).map_err(|_| FieldError::BadLimits)?;
         let gain_q30 = i32::try_from(g).map_err(|_| FieldError::BadLimits)?;
-        let trim =
-            Trim::new(TrimParts { info, kind, offset, gain, offset_q24, gain_q30, standards, temp_mc })?;
+        let trim = Trim::new(parts(offset_q24, gain_q30))?;
         limits.check(&trim)?;
         Ok(trim)
     }
@@ -606,12 +624,8 @@ impl Trim {
         temp_mc: i32,
         limits: &TrimLimits,
     ) -> Result<Trim, FieldError> {
-        limits.check_offset(o)?;
-        limits.check_gain(g)?;
-        let offset_q24 = i32::try_from(o).map_err(|_| FieldError::BadLimits)?;
-        let gain_q30 = i32::try_from(g).map_err(|_| FieldError::BadLimits)?;
         let [s1, s2] = standards_q24;
-        let trim = Trim::new(TrimParts {
+        Trim::checked(limits, o, g, |offset_q24, gain_q30| TrimParts {
             info,
             kind,
             offset: f32_from_q(o, X_FRAC),
@@ -620,8 +634,6 @@ impl Trim {
             gain_q30,
             standards: [f32_from_q(i64::from(s1), X_FRAC), f32_from_q(i64::from(s2), X_FRAC)],
             temp_mc,
-        })?;
-        limits.check(&trim)?;
-        Ok(trim)
+        })
     }
 }

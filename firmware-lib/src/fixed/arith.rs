@@ -140,16 +140,14 @@ pub fn top_bit(v: i32) -> u32 {
 mod tests {
     use super::*;
 
-    /// A seeded xorshift generator (Marsaglia 2003).
-    struct Rng(u64);
+    use logtrim_checks::XorShift64 as Rng;
 
-    impl Rng {
-        fn next(&mut self) -> u64 {
-            self.0 ^= self.0 << 13;
-            self.0 ^= self.0 >> 7;
-            self.0 ^= self.0 << 17;
-            self.0
-        }
+    /// Operands drawn mostly from the edges (MIN, MAX, ±1, 0, the Q16 unit), some uniform.
+    trait Operand {
+        fn i32(&mut self) -> i32;
+    }
+
+    impl Operand for Rng {
         fn i32(&mut self) -> i32 {
             match self.next() % 5 {
                 0 => [i32::MIN, i32::MAX, -1, 0, 1, 65535, 65536, -65536, -65537][(self.next() % 9) as usize],

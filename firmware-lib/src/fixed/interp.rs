@@ -147,6 +147,7 @@ pub fn four<T: Copy>(table: &[T], start: usize) -> Option<[T; 4]> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::test_units::bspline_basis6;
 
     #[test]
     fn basis16_is_a_partition_of_unity_at_every_fraction() {
@@ -155,16 +156,9 @@ mod tests {
             let w = basis16(t);
             assert_eq!(w.iter().sum::<u32>(), 65536, "t={t}");
             assert!(w.iter().all(|&x| x <= 43691), "t={t}: {w:?}");
-            let x = f64::from(t) / 65536.0;
-            let s = 1.0 - x;
-            let exact = [
-                s * s * s / 6.0,
-                (3.0 * x * x * x - 6.0 * x * x + 4.0) / 6.0,
-                (-3.0 * x * x * x + 3.0 * x * x + 3.0 * x + 1.0) / 6.0,
-                x * x * x / 6.0,
-            ];
+            let exact = bspline_basis6(f64::from(t) / 65536.0);
             for k in 0..4 {
-                worst = worst.max((f64::from(w[k]) / 65536.0 - exact[k]).abs());
+                worst = worst.max((f64::from(w[k]) / 65536.0 - exact[k] / 6.0).abs());
             }
         }
         assert_eq!(basis16(0), [10923, 43691, 10922, 0]);
@@ -180,14 +174,7 @@ mod tests {
             let w = basis6(t);
             assert_eq!(w.iter().sum::<u32>(), 49152, "t={t}");
             assert!(w.iter().all(|&x| x <= 32772), "t={t}: {w:?}");
-            let x = f64::from(t) / 65536.0;
-            let s = 1.0 - x;
-            let exact = [
-                s * s * s,
-                3.0 * x * x * x - 6.0 * x * x + 4.0,
-                -3.0 * x * x * x + 3.0 * x * x + 3.0 * x + 1.0,
-                x * x * x,
-            ];
+            let exact = bspline_basis6(f64::from(t) / 65536.0);
             for k in 0..4 {
                 worst = worst.max((f64::from(w[k]) / 8192.0 - exact[k]).abs());
             }
@@ -203,9 +190,7 @@ mod tests {
         for m in 0..=16u32 {
             let w = window_weights(m);
             assert_eq!(w.iter().sum::<i32>(), 24576);
-            let x = f64::from(m) / 16.0;
-            let s = 1.0 - x;
-            let exact = [s * s * s, 3.0 * x * x * x - 6.0 * x * x + 4.0, 0.0, x * x * x];
+            let exact = bspline_basis6(f64::from(m) / 16.0);
             for k in [0, 1, 3] {
                 assert_eq!(f64::from(w[k]), exact[k] * 4096.0, "m={m} k={k}");
             }

@@ -11,7 +11,7 @@ const Q24: i64 = 1 << 24;
 /// The x range's ends: 27306 codes from the centre.
 const X_LIM: i32 = 27306 * 3072;
 
-use crate::test_units::{linear_fixed as linear, LinearFixed as Owned, LINEAR_X_LIM};
+use crate::test_units::{bspline_basis6, linear_fixed as linear, LinearFixed as Owned, LINEAR_X_LIM};
 
 /// The error of a temperature outside the calibrated range, given in m°C.
 fn t_err(millicelsius: i32) -> Error {
@@ -168,14 +168,7 @@ fn temperature_windows_follow_the_spline() {
     let spline = |cp: &[i32], theta: f64| -> f64 {
         let p = (theta - f64::from(o.header.t_origin)) / f64::from(1u32 << o.header.t_step_log2);
         let seg = (p.floor() as usize).min(usize::from(o.header.t_knots) - 2);
-        let t = p - seg as f64;
-        let s = 1.0 - t;
-        let b = [
-            s * s * s,
-            3.0 * t * t * t - 6.0 * t * t + 4.0,
-            -3.0 * t * t * t + 3.0 * t * t + 3.0 * t + 1.0,
-            t * t * t,
-        ];
+        let b = bspline_basis6(p - seg as f64);
         (0..4).map(|k| b[k] * f64::from(cp[seg + k])).sum()
     };
     let mut worst = 0f64;
@@ -465,16 +458,15 @@ fn validate_names_the_defect() {
     check(&|o| o.sensor.truncate(10), D::Coefficient);
 }
 
-/// A seeded xorshift generator (Marsaglia 2003), so the garbage below is the same on every run.
-struct Rng(u64);
+// The seeded generator, so the garbage below is the same on every run.
+use logtrim_checks::XorShift64 as Rng;
 
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        self.0
-    }
+/// Table words: mostly extremes and small values, some uniform.
+trait Word {
+    fn i32(&mut self) -> i32;
+}
+
+impl Word for Rng {
     fn i32(&mut self) -> i32 {
         // Mostly extremes and small values, some uniform.
         match self.next() % 6 {

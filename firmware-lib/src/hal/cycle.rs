@@ -444,13 +444,8 @@ mod tests {
     /// and signed-zero f32 values included (seeded xorshift, lengths 0..=40).
     #[test]
     fn sort_small_orders_like_core_sort() {
-        let mut state = 0x9e37_79b9_7f4a_7c15u64;
-        let mut next = || {
-            state ^= state << 13;
-            state ^= state >> 7;
-            state ^= state << 17;
-            state
-        };
+        let mut rng = logtrim_checks::XorShift64(0x9e37_79b9_7f4a_7c15);
+        let mut next = || rng.next();
         for len in 0..=40 {
             for _ in 0..20 {
                 let mut codes: std::vec::Vec<u32> = (0..len).map(|_| (next() % 50) as u32).collect();

@@ -164,29 +164,8 @@ pub enum WriteError {
     Value(ImageValueError),
 }
 
-impl From<ImageValueError> for ImageError {
-    fn from(e: ImageValueError) -> Self {
-        ImageError::Value(e)
-    }
-}
-
-impl From<FormatError> for ImageError {
-    fn from(e: FormatError) -> Self {
-        ImageError::Format(e)
-    }
-}
-
-impl From<ImageValueError> for WriteError {
-    fn from(e: ImageValueError) -> Self {
-        WriteError::Value(e)
-    }
-}
-
-impl From<BufferTooSmall> for WriteError {
-    fn from(e: BufferTooSmall) -> Self {
-        WriteError::BufferTooSmall(e)
-    }
-}
+crate::record::wrap_errors!(ImageError { Value(ImageValueError), Format(FormatError) });
+crate::record::wrap_errors!(WriteError { Value(ImageValueError), BufferTooSmall(BufferTooSmall) });
 
 impl fmt::Display for ImageValueError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {

@@ -12,6 +12,18 @@ use crate::error::SensorFault;
 use crate::fixed::{FixedCalibration, FixedHeader, SensorTable, LAYOUT_VERSION};
 pub(crate) use calibrations::{bent, hard};
 
+/// Six times the uniform cubic B-spline basis at `t ∈ [0, 1]`, in f64 (de Boor, "A Practical Guide to
+/// Splines"): the reference the integer basis weights and spline paths are checked against.
+pub(crate) fn bspline_basis6(t: f64) -> [f64; 4] {
+    let s = 1.0 - t;
+    [
+        s * s * s,
+        3.0 * t * t * t - 6.0 * t * t + 4.0,
+        -3.0 * t * t * t + 3.0 * t * t + 3.0 * t + 1.0,
+        t * t * t,
+    ]
+}
+
 /// The x range's ends of [`linear_fixed`]: 27306 codes from the centre, Q24 Np.
 pub(crate) const LINEAR_X_LIM: i32 = 27306 * 3072;
 

@@ -1,6 +1,11 @@
 use super::*;
 use logtrim::calibration::{BiasTerm, Series};
 
+/// The check grid between and beyond the set-points: −18…82 °C in 5 K steps, x from −5 to 4 Np in 0.45 Np steps.
+fn sweep() -> impl Iterator<Item = (f64, f64)> {
+    logtrim_checks::grid((-18.0, 100.0, 20), (-5.0, 9.0, 20))
+}
+
 /// A synthetic unit in firmware-lib's own model family, sampled with noise.
 fn synthetic(seed: u64, with_bias: bool) -> (Calibration, FitData) {
     synthetic_inl(seed, with_bias, 0.0)
@@ -51,14 +56,10 @@ fn recovers_a_unit_of_its_own_family() {
     // Between set-points, the fitted calibration must agree with the truth to well under the noise
     // (0.7 LSB at ~3500 codes/neper ≈ 2e-4 Np).
     let mut worst: f64 = 0.0;
-    for ti in 0..=20 {
-        let t = -18.0 + 5.0 * f64::from(ti);
-        for xi in 0..=20 {
-            let x = -5.0 + 9.0 * f64::from(xi) / 20.0;
-            let code = truth.forward_code_f64(x, t);
-            if let (Ok(a), Ok(b)) = (out.calibration.correct_f64(code, t), truth.correct_f64(code, t)) {
-                worst = worst.max((a.x - b.x).abs());
-            }
+    for (t, x) in sweep() {
+        let code = truth.forward_code_f64(x, t);
+        if let (Ok(a), Ok(b)) = (out.calibration.correct_f64(code, t), truth.correct_f64(code, t)) {
+            worst = worst.max((a.x - b.x).abs());
         }
     }
     if std::env::var_os("LOGTRIM_DEBUG_FIT").is_some() {
@@ -115,14 +116,10 @@ fn effects_outside_the_physics_are_absorbed() {
         4.0 * (std::f64::consts::PI * u).sin()
     };
     let mut worst: f64 = 0.0;
-    for ti in 0..=20 {
-        let t = -18.0 + 5.0 * f64::from(ti);
-        for xi in 0..=20 {
-            let x = -5.0 + 9.0 * f64::from(xi) / 20.0;
-            let ideal = truth.forward_code_f64(x, t);
-            if let Ok(a) = out.calibration.correct_f64(ideal + bow(ideal), t) {
-                worst = worst.max((a.x - x).abs());
-            }
+    for (t, x) in sweep() {
+        let ideal = truth.forward_code_f64(x, t);
+        if let Ok(a) = out.calibration.correct_f64(ideal + bow(ideal), t) {
+            worst = worst.max((a.x - x).abs());
         }
     }
     if std::env::var_os("LOGTRIM_DEBUG_FIT").is_some() {

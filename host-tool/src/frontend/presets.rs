@@ -171,16 +171,9 @@ fn gas_uncompensated() -> FrontEnd {
 /// 12-bit ADC's input to ground, a 10 kΩ series resistor to the ADC's reference (so the code rises as
 /// the NTC cools), valid −40…125 °C; 8 codes at either rail count as open or short (invented figures).
 fn photometer_ntc_channel() -> TemperatureSensor {
-    TemperatureSensor {
-        element: SensorElement::NtcBeta(Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 }),
-        divider: Divider {
-            open_margin: 8,
-            short_margin: 8,
-            ..Divider::ratiometric(Placement::LowSide, 10_000.0, 12)
-        },
-        min_c: -40.0,
-        max_c: 125.0,
-    }
+    let beta = Beta { r0_ohm: 10_000.0, t0_c: 25.0, beta_k: 3900.0 };
+    let divider = Divider::ratiometric(Placement::LowSide, 10_000.0, 12).with_margins(8, 8);
+    TemperatureSensor::new(SensorElement::NtcBeta(beta), divider, -40.0, 125.0)
 }
 
 /// The bench photometer of [`photometer_compensated`] in a cost-reduced build: instead of a digital

@@ -200,18 +200,15 @@ fn inversion_recovers_x_everywhere_including_deep_in_the_bend() {
     for p in PRESETS {
         let fe = p.frontend();
         let o = fe.operating;
-        for ti in 0..=6 {
-            let t = o.temp_min_c + (o.temp_max_c - o.temp_min_c) * f64::from(ti) / 6.0;
-            for xi in 0..=40 {
-                // From 3 Np below the calibrated range (where the bias current swamps the signal) to 1 above.
-                let x = o.ratio_min.ln() - 3.0
-                    + (o.ratio_max.ln() - o.ratio_min.ln() + 4.0) * f64::from(xi) / 40.0;
-                let code = fe.code_exact(x, t);
-                let back = fe.invert_code(code, t).unwrap();
-                // Exact within the conditioning of the curve: the code's rounding error over the local slope.
-                let tol = 1e-9 + 4.0 * f64::EPSILON * code.abs() / fe.code_slope(x, t);
-                assert!((back - x).abs() <= tol, "{} at {t} °C, x {x}: {back}", p.name);
-            }
+        let temps = (o.temp_min_c, o.temp_max_c - o.temp_min_c, 6);
+        // From 3 Np below the calibrated range (where the bias current swamps the signal) to 1 above.
+        let xs = (o.ratio_min.ln() - 3.0, o.ratio_max.ln() - o.ratio_min.ln() + 4.0, 40);
+        for (t, x) in logtrim_checks::grid(temps, xs) {
+            let code = fe.code_exact(x, t);
+            let back = fe.invert_code(code, t).unwrap();
+            // Exact within the conditioning of the curve: the code's rounding error over the local slope.
+            let tol = 1e-9 + 4.0 * f64::EPSILON * code.abs() / fe.code_slope(x, t);
+            assert!((back - x).abs() <= tol, "{} at {t} °C, x {x}: {back}", p.name);
         }
     }
 }

@@ -63,10 +63,10 @@ pub fn error_vs_x(
     unit: ErrorScale,
     subtitle: &str,
 ) -> LineFigure {
-    let nominal = nominal_of(cal);
     let groups = crate::fit::setpoints(&data.temp_c, gap_k);
-    let mut panels = Vec::new();
-    for (which, c) in [("before correction (nominal equation)", &nominal), ("after correction", cal)] {
+    let title = "Error in x against x, per chamber set-point";
+    let axis = "x = ln(I_sig/I_ref) [Np]";
+    before_and_after(cal, (title, subtitle, (1200, 560)), axis, unit, |c, _| {
         let mut refused = 0usize;
         let mut series = Vec::new();
         for g in &groups {
@@ -91,14 +91,29 @@ pub fn error_vs_x(
                 style: Style::LineAndMarkers,
             });
         }
-        panels.push(error_panel(which, refused, "x = ln(I_sig/I_ref) [Np]", unit, series));
-    }
-    LineFigure {
-        title: "Error in x against x, per chamber set-point".into(),
-        subtitle: subtitle.to_string(),
-        panels,
-        size: (1200, 560),
-    }
+        (refused, series)
+    })
+}
+
+/// A figure (`title`, `subtitle`, `size`) of two panels of errors in x against `x_label`: before correction
+/// (the nominal equation of [`nominal_of`]) and after (`cal`). `panel` gives each panel's count of refused
+/// readings and its series, from the calibration to use and whether it is the corrected one.
+fn before_and_after(
+    cal: &Calibration,
+    (title, subtitle, size): (&str, &str, (u32, u32)),
+    x_label: &str,
+    unit: ErrorScale,
+    mut panel: impl FnMut(&Calibration, bool) -> (usize, Vec<super::Series>),
+) -> LineFigure {
+    let nominal = nominal_of(cal);
+    let panels = [("before correction (nominal equation)", &nominal, false), ("after correction", cal, true)]
+        .into_iter()
+        .map(|(which, c, after)| {
+            let (refused, series) = panel(c, after);
+            error_panel(which, refused, x_label, unit, series)
+        })
+        .collect();
+    LineFigure { title: title.into(), subtitle: subtitle.to_string(), panels, size }
 }
 
 /// A panel of errors in x against `x_label`, captioned `which` with the count of refused readings, if any.
@@ -145,11 +160,9 @@ pub fn error_vs_temperature(
     let width = if t1 > t0 { (t1 - t0) / bins as f64 } else { 1.0 };
     let bin_of = |t: f64| (((t - t0) / width) as usize).min(bins - 1);
     let centre = |k: usize| t0 + (k as f64 + 0.5) * width;
-    let nominal = nominal_of(cal);
-    let mut panels = Vec::new();
-    for (which, c, with_oracle) in
-        [("before correction (nominal equation)", &nominal, false), ("after correction", cal, true)]
-    {
+    let title = "Error against temperature over the validation run";
+    let axis = "unit's true temperature [°C]";
+    before_and_after(cal, (title, subtitle, (1200, 540)), axis, unit, |c, with_oracle| {
         let mut acc = vec![(0.0f64, 0.0f64, 0usize); bins];
         let mut oracle = vec![(0.0f64, 0usize); bins];
         let mut refused = 0usize;
@@ -190,14 +203,8 @@ pub fn error_vs_temperature(
                 style: Style::Dashed,
             });
         }
-        panels.push(error_panel(which, refused, "unit's true temperature [°C]", unit, series));
-    }
-    LineFigure {
-        title: "Error against temperature over the validation run".into(),
-        subtitle: subtitle.to_string(),
-        panels,
-        size: (1200, 540),
-    }
+        (refused, series)
+    })
 }
 
 /// The codes of the calibrated x range at every calibrated temperature, with a 4 % margin each side so the
@@ -221,31 +228,33 @@ fn code_span(cal: &Calibration) -> (f64, f64) {
     (c0.max(0.0), c1.min(max_code))
 }
 
+/// The axes of the error maps: the codes of [`code_span`] and the calibrated temperature range.
+fn map_axes(cal: &Calibration) -> (Axis, Axis) {
+    let (c0, c1) = code_span(cal);
+    let t = &cal.temperature;
+    (
+        Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
+        Axis { label: "temperature [°C]".into(), min: f64::from(t.min_c), max: f64::from(t.max_c) },
+    )
+}
+
 /// The error of the f32 correction ([`Calibration::correct`]) against the f64 reference
 /// ([`Calibration::correct_f64`]) at the same code and the same (f32) temperature, in LSB (the x error over
 /// ∂x/∂code), over `nx × ny` cells of (ADC code, temperature). The temperature axis is the calibrated
 /// range; the code axis spans the codes of the calibrated x range at every temperature, with a 4 % margin
 /// so the refused edges show. A cell the firmware refuses has no value.
 pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) -> Result<HeatMap, PlotError> {
-    let t = &cal.temperature;
-    let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
-    let (c0, c1) = code_span(cal);
-    let grid = Grid::from_fn(
-        Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
-        Axis { label: "temperature [°C]".into(), min: tmin, max: tmax },
-        nx,
-        ny,
-        |code, temp| {
-            let code = code.round() as u32;
-            let t32 = temp as f32;
-            match (cal.correct(code, t32), cal.correct_f64(f64::from(code), f64::from(t32))) {
-                (Ok(a), Ok(b)) if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 => {
-                    (f64::from(a.x) - b.x) / b.dx_dcode
-                }
-                _ => f64::NAN,
+    let (codes, temps) = map_axes(cal);
+    let grid = Grid::from_fn(codes, temps, nx, ny, |code, temp| {
+        let code = code.round() as u32;
+        let t32 = temp as f32;
+        match (cal.correct(code, t32), cal.correct_f64(f64::from(code), f64::from(t32))) {
+            (Ok(a), Ok(b)) if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 => {
+                (f64::from(a.x) - b.x) / b.dx_dcode
             }
-        },
-    )?;
+            _ => f64::NAN,
+        }
+    })?;
     Ok(HeatMap {
         title: "f32 correction against the f64 reference".into(),
         subtitle: subtitle.to_string(),
@@ -280,40 +289,32 @@ pub fn fixed_error_map(
             expected: "at least one code per cell",
         });
     }
-    let t = &cal.temperature;
-    let (tmin, tmax) = (f64::from(t.min_c), f64::from(t.max_c));
-    let (c0, c1) = code_span(cal);
-    let cell = (c1 - c0) / nx.max(1) as f64;
+    let (codes, temps) = map_axes(cal);
+    let cell = (codes.max - codes.min) / nx.max(1) as f64;
     let q24 = f64::from(1u32 << X_FRAC);
-    let grid = Grid::from_fn(
-        Axis { label: "ADC code of the log channel".into(), min: c0, max: c1 },
-        Axis { label: "temperature [°C]".into(), min: tmin, max: tmax },
-        nx,
-        ny,
-        |centre, temp| {
-            let mc = (temp * 1000.0).round() as i32;
-            let temp = f64::from(mc) / 1000.0;
-            let (first, last) = ((centre - 0.5 * cell).ceil(), (centre + 0.5 * cell).floor());
-            let mut worst = f64::NAN;
-            for k in 0..codes_per_cell {
-                let f = if codes_per_cell == 1 { 0.5 } else { f64::from(k) / f64::from(codes_per_cell - 1) };
-                let code = (first + (last - first).max(0.0) * f).round();
-                if !(0.0..=f64::from(u32::MAX)).contains(&code) {
-                    continue;
-                }
-                let code = code as u32;
-                if let (Ok(a), Ok(b)) = (fixed.correct(code, mc), cal.correct_f64(f64::from(code), temp)) {
-                    if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 {
-                        let e = (f64::from(a.x) / q24 - b.x) / b.dx_dcode;
-                        if worst.is_nan() || e.abs() > worst.abs() {
-                            worst = e;
-                        }
+    let grid = Grid::from_fn(codes, temps, nx, ny, |centre, temp| {
+        let mc = (temp * 1000.0).round() as i32;
+        let temp = f64::from(mc) / 1000.0;
+        let (first, last) = ((centre - 0.5 * cell).ceil(), (centre + 0.5 * cell).floor());
+        let mut worst = f64::NAN;
+        for k in 0..codes_per_cell {
+            let f = if codes_per_cell == 1 { 0.5 } else { f64::from(k) / f64::from(codes_per_cell - 1) };
+            let code = (first + (last - first).max(0.0) * f).round();
+            if !(0.0..=f64::from(u32::MAX)).contains(&code) {
+                continue;
+            }
+            let code = code as u32;
+            if let (Ok(a), Ok(b)) = (fixed.correct(code, mc), cal.correct_f64(f64::from(code), temp)) {
+                if b.dx_dcode.is_finite() && b.dx_dcode != 0.0 {
+                    let e = (f64::from(a.x) / q24 - b.x) / b.dx_dcode;
+                    if worst.is_nan() || e.abs() > worst.abs() {
+                        worst = e;
                     }
                 }
             }
-            worst
-        },
-    )?;
+        }
+        worst
+    })?;
     Ok(HeatMap {
         title: "fixed-point correction against the f64 reference".into(),
         subtitle: if subtitle.is_empty() {
