@@ -92,7 +92,10 @@ fn check_sizes(
     found: &Sizes,
 ) -> Result<(), ImageValueError> {
     let expected = expected_sizes(h, sensor);
-    for (i, ((t, &found), &expected)) in lf::TABLES.iter().zip(found).zip(&expected).enumerate() {
+    // A bounded range, not `enumerate`: its counter's increment is an overflow check under
+    // `overflow-checks`, which the release-checked panic proof would see as a panic path.
+    let tables = lf::TABLES.iter().zip(found).zip(&expected);
+    for (i, ((t, &found), &expected)) in (0..lf::TABLES.len()).zip(tables) {
         if found != expected && !(i == RESIDUAL && found == 0) {
             return Err(ImageValueError::FixedTableSize { table: t.name, found, expected });
         }
