@@ -184,9 +184,9 @@ pub fn check_csv(data: &[u8]) {
                 }
             }
             if let Ok(rd) = read_readings(data, "fuzz.csv", &opts) {
-                let max = (1u32 << bits) - 1;
+                // A reading's code may lie beyond the converter (any u32): the firmware refuses that row
+                // with its own status, so the reader keeps it; calibration rows (above) stay within it.
                 for r in &rd.rows {
-                    assert!(r.code <= max);
                     if let Ok(t) = r.temp_c {
                         assert!(t.is_finite());
                     }
