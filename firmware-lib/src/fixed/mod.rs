@@ -538,6 +538,16 @@ pub(crate) struct WindowPos {
     pub(crate) f16: u32,
 }
 
+/// A window's place on the temperature grid ([`FixedCalibration::window_ends`]): the segment whose four
+/// control points give both ends, the window's number `m` in it, and the window weights at `m` and `m + 1`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct WindowEnds {
+    pub(crate) seg: usize,
+    pub(crate) m: u32,
+    pub(crate) w0: [i32; 4],
+    pub(crate) w1: [i32; 4],
+}
+
 /// The error every inconsistent table content gives.
 pub(crate) const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficient);
 
@@ -730,50 +740,79 @@ impl<'a> FixedCalibration<'a> {
         })
     }
 
-    /// The window `index`: both ends' values and the curvature of the offset and the inverse slope.
+    /// Where window `index` lies on the temperature grid: its segment and the window weights at both of its
+    /// ends. The end of a segment's last window (`m = 16`) is the next segment's start, the same value
+    /// from the same control points (the first weight at `m = 16` is 0, the others those of the next
+    /// segment's start), so both ends use the four control points of one segment: one load, two weights.
+    #[inline(always)]
+    pub(crate) fn window_ends(&self, index: u32) -> WindowEnds {
+        let last = u32::from(self.header.t_knots).saturating_sub(2);
+        let seg = (index >> WINDOWS_LOG2).min(last);
+        let m = index.saturating_sub(seg << WINDOWS_LOG2);
+        WindowEnds { seg: seg as usize, m, w0: window_weights(m), w1: window_weights(m.saturating_add(1)) }
+    }
+
+    /// The window `index`: both ends' values and the curvature of the offset and the inverse slope, each
+    /// table's four control points read once for all three.
     #[inline(always)]
     pub(crate) fn window(&self, index: u32) -> Result<Window, Error> {
-        let start = self.end_scalars(index)?;
-        let end = self.end_scalars(index.saturating_add(1))?;
+        let h = &self.header;
+        let e = self.window_ends(index);
+        let ends = |t: &[i32]| -> Result<([i32; 4], i64, i64), Error> {
+            let c = four(t, e.seg).ok_or(BAD_TABLE)?;
+            Ok((c, window_value(c, e.w0), window_value(c, e.w1)))
+        };
+        let pair = |t: &[i32], on: bool, limit: i32, off: i32| -> Result<(i32, i32), Error> {
+            if !on {
+                return Ok((off, off));
+            }
+            let (_, a, b) = ends(t)?;
+            Ok((bounded(a, limit)?, bounded(b, limit)?))
+        };
+        let (ci, a0, a1) = ends(self.inv_slope)?;
+        let (co, o0, o1) = ends(self.offset)?;
+        let (l0, l1) = pair(self.ln_bias, h.bias_bend, BIAS_LIMIT, 0)?;
+        let (u0, u1) = pair(self.u_min, h.sensitivity_limit, BIAS_LIMIT, i32::MIN)?;
         // The spline's second derivative at the window's middle, t = (2m + 1)/32 in its segment: 32 times
         // the second-derivative basis is (31 − 2m, 6m − 61, 29 − 6m, 2m + 1), and the chord's deviation
         // term is c = h²·p''/2 with h = 1/16: c = 3·Σ W_k·c_k / 8192 for control points stored divided by 6.
-        let (seg, _) = self.end_weights(index);
-        let m = index.saturating_sub((seg as u32) << WINDOWS_LOG2).min(WINDOWS - 1) as i32;
+        let m = e.m.min(WINDOWS - 1) as i32;
         let w = [31 - 2 * m, 6 * m - 61, 29 - 6 * m, 2 * m + 1];
-        let curv = |t: &[i32]| -> Result<i64, Error> {
-            let c = four(t, seg).ok_or(BAD_TABLE)?;
+        let curv = |c: [i32; 4]| -> i64 {
+            // Σ W_k·c_k = hi·2^16 + lo from the control points' halves, |W_k| ≤ 61: |hi| < 2^23, |lo| < 2^24.
+            // floor(3·(hi·2^16 + lo) / 2^13) = 24·hi + floor(3·lo / 2^13) exactly, below 2^28: 32-bit sums,
+            // no 64-bit product (a runtime helper on a Cortex-M0).
             let hi = w[0] * (c[0] >> 16) + w[1] * (c[1] >> 16) + w[2] * (c[2] >> 16) + w[3] * (c[3] >> 16);
             let lo = w[0] * (c[0] & 0xffff)
                 + w[1] * (c[1] & 0xffff)
                 + w[2] * (c[2] & 0xffff)
                 + w[3] * (c[3] & 0xffff);
-            let v = (i64::from(hi) << 16) + i64::from(lo);
-            // Times 3 as a sum: a 64-bit product would call a runtime helper on a Cortex-M0.
-            Ok((v + v + v) >> 13)
+            i64::from(((hi + hi + hi) << 3) + ((lo + lo + lo) >> 13))
         };
-        let (o0, o1) = (i64::from(start.offset), i64::from(end.offset));
+        let offset = |v: i64| v > i64::from(OFFSET_RANGE.0) && v < i64::from(OFFSET_RANGE.1);
+        let inv_slope = |v: i64| v > 0 && v < INV_SLOPE_LIMIT;
+        if !(inv_slope(a0) && inv_slope(a1) && offset(o0) && offset(o1)) {
+            return Err(BAD_TABLE);
+        }
         let (off_dc, curv_offset) =
-            parabola(o0, o1, curv(self.offset)?, i64::from(OFFSET_RANGE.0), i64::from(OFFSET_RANGE.1))?;
-        let (a0, a1) = (i64::from(start.inv_slope), i64::from(end.inv_slope));
-        let (inv_dc, curv_inv_slope) = parabola(a0, a1, curv(self.inv_slope)?, 0, INV_SLOPE_LIMIT)?;
+            parabola(o0, o1, curv(co), i64::from(OFFSET_RANGE.0), i64::from(OFFSET_RANGE.1))?;
+        let (inv_dc, curv_inv_slope) = parabola(a0, a1, curv(ci), 0, INV_SLOPE_LIMIT)?;
         Ok(Window {
-            start,
-            slope: [off_dc, inv_dc, end.ln_bias - start.ln_bias, end.u_min - start.u_min],
+            start: Scalars { offset: o0 as i32, inv_slope: a0 as u32, ln_bias: l0, u_min: u0 },
+            slope: [off_dc, inv_dc, l1 - l0, u1 - u0],
             curv: [curv_offset, curv_inv_slope],
         })
     }
 
-    /// Residual column `col` collapsed over temperature at window end `end` (Q(`residual_frac` + 12), below
-    /// 2^29.6).
+    /// Residual column `col` collapsed over temperature at both ends of a window (Q(`residual_frac` + 12),
+    /// each below 2^29.6).
     #[inline(always)]
-    pub(crate) fn end_column(&self, end: u32, col: usize) -> Result<i32, Error> {
-        let (seg, w) = self.end_weights(end);
+    pub(crate) fn column_ends(&self, e: &WindowEnds, col: usize) -> Result<(i32, i32), Error> {
         // Row and stride below 2^16 (any wider grid is refused): the index is a 32-bit product, with no
         // overflow check (which would call a 64-bit multiply helper on a Cortex-M0).
         let stride = u32::from(self.header.xa_knots) + 2;
         let at = |k: u32| -> Option<i16> {
-            let row = seg as u32 + k;
+            let row = e.seg as u32 + k;
             if stride > 0xffff || row > 0xffff || col as u32 >= stride {
                 return None;
             }
@@ -785,27 +824,51 @@ impl<'a> FixedCalibration<'a> {
             self.residual.get((row * stride + col as u32) as usize).copied()
         };
         match (at(0), at(1), at(2), at(3)) {
-            (Some(a), Some(b), Some(c), Some(d)) => Ok(window_collapse([a, b, c, d], w)),
+            (Some(a), Some(b), Some(c), Some(d)) => {
+                Ok((window_collapse([a, b, c, d], e.w0), window_collapse([a, b, c, d], e.w1)))
+            }
             _ => Err(BAD_TABLE),
         }
     }
 
-    /// The direct path from θ: both window ends' scalars, the four residual columns the code needs at both
+    /// The residual's columns `col..col + 4` at a Q16 fraction of a window: both ends from the same four
+    /// rows, interpolated. What [`FixedCalibration::column_ends`] gives column by column, with one check
+    /// per row.
+    #[inline(always)]
+    fn columns_at(&self, e: &WindowEnds, col: usize, f16: u32) -> Result<[i32; 4], Error> {
+        let stride = u32::from(self.header.xa_knots) + 2;
+        let row0 = e.seg as u32;
+        // The same refusals as column by column: rows and stride below 2^16, the four columns in the row.
+        if stride > 0xffff || row0 > 0xffff - 3 || col as u32 > stride.saturating_sub(4) || stride < 4 {
+            return Err(BAD_TABLE);
+        }
+        let rows = if self.residual.is_empty() {
+            if row0 + 3 >= u32::from(self.header.t_knots) + 2 {
+                return Err(BAD_TABLE);
+            }
+            [[0; 4]; 4]
+        } else {
+            let at =
+                |k: u32| four(self.residual, ((row0 + k) * stride + col as u32) as usize).ok_or(BAD_TABLE);
+            [at(0)?, at(1)?, at(2)?, at(3)?]
+        };
+        let [[a0, a1, a2, a3], [b0, b1, b2, b3], [c0, c1, c2, c3], [d0, d1, d2, d3]] = rows;
+        let at = |c: [i16; 4]| {
+            let a = window_collapse(c, e.w0);
+            a + mulh16(window_collapse(c, e.w1) - a, f16)
+        };
+        Ok([at([a0, b0, c0, d0]), at([a1, b1, c1, d1]), at([a2, b2, c2, d2]), at([a3, b3, c3, d3])])
+    }
+
+    /// The direct path from θ: the window's scalars, the four residual columns the code needs at both
     /// ends, all interpolated at θ's fraction; exactly what a [`FixedStage`] or a [`StageCache`] at
     /// θ computes for this code.
     #[inline(always)]
     pub(crate) fn correct_theta(&self, plan: &Plan, code: u32, theta: i32) -> Result<FixedReading, Error> {
         let pos = self.window_of(theta)?;
         let s = self.window(pos.index)?.at(pos.f16);
-        let x = plan.x_of(&s, code, |seg| {
-            let mut c = [0; 4];
-            for (k, v) in c.iter_mut().enumerate() {
-                let a = self.end_column(pos.index, seg.saturating_add(k))?;
-                let b = self.end_column(pos.index.saturating_add(1), seg.saturating_add(k))?;
-                *v = a + mulh16(b - a, pos.f16);
-            }
-            Ok(c)
-        })?;
+        let e = self.window_ends(pos.index);
+        let x = plan.x_of(&s, code, |seg| self.columns_at(&e, seg, pos.f16))?;
         Ok(FixedReading { x, temperature_extrapolated: self.extrapolated(theta) })
     }
 

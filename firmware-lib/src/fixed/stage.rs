@@ -43,10 +43,10 @@ impl FixedStage {
         if n > ROW_CAPACITY {
             return Err(BAD_TABLE);
         }
+        let ends = cal.window_ends(pos.index);
         let mut row = [0; ROW_CAPACITY];
         for (i, r) in row.iter_mut().enumerate().take(n) {
-            let a = cal.end_column(pos.index, i)?;
-            let b = cal.end_column(pos.index.saturating_add(1), i)?;
+            let (a, b) = cal.column_ends(&ends, i)?;
             *r = a + mulh16(b - a, pos.f16);
         }
         Ok(FixedStage {
@@ -196,10 +196,11 @@ impl<'a> StageCache<'a> {
         if n > ROW_CAPACITY {
             return Ok(false);
         }
+        let ends = self.cal.window_ends(index);
         let mut len = 0;
         for i in 0..n {
-            match (self.cal.end_column(index, i), self.cal.end_column(index.saturating_add(1), i)) {
-                (Ok(a), Ok(b)) => {
+            match self.cal.column_ends(&ends, i) {
+                Ok((a, b)) => {
                     if let (Some(r0), Some(dr)) = (self.row0.get_mut(i), self.drow.get_mut(i)) {
                         *r0 = a;
                         *dr = b - a;

@@ -275,13 +275,27 @@ static inline ltrm_status ltrm_end_scalars(const ltrm_fixed *c, uint32_t end, lt
     return LTRM_OK;
 }
 
-/* Residual column `col` collapsed over temperature at window end `end`. */
-static inline ltrm_status ltrm_end_column(const ltrm_fixed *c, uint32_t end, uint32_t col, int32_t *out) {
-    uint32_t seg, k, stride = (uint32_t)c->xa_knots + 2u, row, i;
-    int32_t w[4], v = 0;
-    ltrm_end_weights(c, end, &seg, w);
+/* Window `index`'s segment and the window weights at both its ends (logtrim::fixed::WindowEnds): the end of a
+ * segment's last window is the next segment's start, the same value from the same four control points. */
+typedef struct ltrm_ends {
+    uint32_t seg, m;
+    int32_t w0[4], w1[4];
+} ltrm_ends;
+
+static inline void ltrm_window_ends(const ltrm_fixed *c, uint32_t index, ltrm_ends *e) {
+    uint32_t last = c->t_knots >= 2u ? c->t_knots - 2u : 0u;
+    e->seg = (index >> LTRM_WINDOWS_LOG2) < last ? (index >> LTRM_WINDOWS_LOG2) : last;
+    e->m = index - (e->seg << LTRM_WINDOWS_LOG2);
+    ltrm_window_weights(e->m, e->w0);
+    ltrm_window_weights(e->m < LTRM_WINDOWS ? e->m + 1u : LTRM_WINDOWS, e->w1);
+}
+
+/* Residual column `col` collapsed over temperature at both ends of a window. */
+static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, int32_t *lo, int32_t *hi) {
+    uint32_t k, stride = (uint32_t)c->xa_knots + 2u, row, i;
+    int32_t a = 0, b = 0, v;
     for (k = 0; k < 4u; k++) {
-        row = seg + k;
+        row = e->seg + k;
         /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
         if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
         /* An empty table is a residual of zero everywhere: the refusals of a full table of zeros. */
@@ -291,9 +305,39 @@ static inline ltrm_status ltrm_end_column(const ltrm_fixed *c, uint32_t end, uin
         }
         i = row * stride + col;
         if (i >= c->residual_len) return LTRM_BAD_TABLE;
-        v += w[k] * (int32_t)c->residual[i];
+        v = c->residual[i];
+        a += e->w0[k] * v;
+        b += e->w1[k] * v;
     }
-    *out = v;
+    *lo = a;
+    *hi = b;
+    return LTRM_OK;
+}
+
+/* The residual's columns col..col+3 at a Q16 fraction of a window: ltrm_column_ends of each, interpolated,
+ * with the same refusals checked once. */
+static inline ltrm_status ltrm_columns_at(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, uint32_t f16, int32_t out[4]) {
+    uint32_t stride = (uint32_t)c->xa_knots + 2u, j, k;
+    const int16_t *r;
+    int32_t a, b, v;
+    if (stride > 0xffffu || e->seg > 0xffffu - 3u || stride < 4u || col > stride - 4u) return LTRM_BAD_TABLE;
+    if (c->residual_len == 0u) {
+        if (e->seg + 3u >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
+        for (j = 0; j < 4u; j++) out[j] = 0;
+        return LTRM_OK;
+    }
+    if ((e->seg + 3u) * stride + col + 4u > c->residual_len) return LTRM_BAD_TABLE;
+    r = c->residual + e->seg * stride + col;
+    for (j = 0; j < 4u; j++) {
+        a = 0;
+        b = 0;
+        for (k = 0; k < 4u; k++) {
+            v = r[k * stride + j];
+            a += e->w0[k] * v;
+            b += e->w1[k] * v;
+        }
+        out[j] = a + ltrm_mulh16(b - a, f16);
+    }
     return LTRM_OK;
 }
 
@@ -327,36 +371,59 @@ static inline ltrm_status ltrm_curvature(const int32_t *t, uint32_t len, uint32_
     hi = w[0] * ltrm_asr32(t[0], 16) + w[1] * ltrm_asr32(t[1], 16) + w[2] * ltrm_asr32(t[2], 16) + w[3] * ltrm_asr32(t[3], 16);
     lo = w[0] * (int32_t)((uint32_t)t[0] & 0xffffu) + w[1] * (int32_t)((uint32_t)t[1] & 0xffffu) +
          w[2] * (int32_t)((uint32_t)t[2] & 0xffffu) + w[3] * (int32_t)((uint32_t)t[3] & 0xffffu);
-    *out = (int64_t)hi * 65536 + lo;
-    *out = ltrm_asr64(*out + *out + *out, 13);
+    /* floor(3 * (hi * 2^16 + lo) / 2^13) = 24 * hi + floor(3 * lo / 2^13): |hi| < 2^23, |lo| < 2^24, 32 bits. */
+    *out = (int64_t)(hi * 24 + ltrm_asr32(lo * 3, 13));
+    return LTRM_OK;
+}
+
+/* A table's values at both ends of a window, from one segment's four control points. */
+static inline ltrm_status ltrm_ends_values(const int32_t *t, uint32_t len, const ltrm_ends *e, int64_t *v0, int64_t *v1) {
+    if ((uint64_t)e->seg + 4u > (uint64_t)len) return LTRM_BAD_TABLE;
+    *v0 = ltrm_window_value(t + e->seg, e->w0);
+    *v1 = ltrm_window_value(t + e->seg, e->w1);
     return LTRM_OK;
 }
 
 /* Window `index`: both ends and the curvatures. */
 static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, ltrm_window *w) {
-    ltrm_scalars a, b;
-    uint32_t seg, m;
-    int32_t ew[4], cw[4];
-    int64_t cv;
+    ltrm_ends e;
+    uint32_t m;
+    int32_t cw[4], l0 = 0, l1 = 0, u0 = INT32_MIN, u1 = INT32_MIN;
+    int64_t a0, a1, o0, o1, v0, v1, cv;
     ltrm_status st;
-    if ((st = ltrm_end_scalars(c, index, &a)) != LTRM_OK) return st;
-    if ((st = ltrm_end_scalars(c, index + 1u, &b)) != LTRM_OK) return st;
-    ltrm_end_weights(c, index, &seg, ew);
-    m = index - (seg << LTRM_WINDOWS_LOG2);
-    if (m > LTRM_WINDOWS - 1u) m = LTRM_WINDOWS - 1u;
+    ltrm_window_ends(c, index, &e);
+    if ((st = ltrm_ends_values(c->inv_slope, c->inv_slope_len, &e, &a0, &a1)) != LTRM_OK) return st;
+    if ((st = ltrm_ends_values(c->offset, c->offset_len, &e, &o0, &o1)) != LTRM_OK) return st;
+    if (c->bias_bend) {
+        if ((st = ltrm_ends_values(c->ln_bias, c->ln_bias_len, &e, &v0, &v1)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v0, LTRM_BIAS_LIMIT, &l0)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v1, LTRM_BIAS_LIMIT, &l1)) != LTRM_OK) return st;
+    }
+    if (c->sensitivity_limit) {
+        if ((st = ltrm_ends_values(c->u_min, c->u_min_len, &e, &v0, &v1)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v0, LTRM_BIAS_LIMIT, &u0)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v1, LTRM_BIAS_LIMIT, &u1)) != LTRM_OK) return st;
+    }
+    if (!(a0 > 0 && a0 < LTRM_INV_SLOPE_LIMIT && a1 > 0 && a1 < LTRM_INV_SLOPE_LIMIT && o0 > LTRM_OFFSET_MIN &&
+          o0 < LTRM_OFFSET_MAX && o1 > LTRM_OFFSET_MIN && o1 < LTRM_OFFSET_MAX))
+        return LTRM_BAD_TABLE;
+    m = e.m < LTRM_WINDOWS - 1u ? e.m : LTRM_WINDOWS - 1u;
     cw[0] = 31 - 2 * (int32_t)m;
     cw[1] = 6 * (int32_t)m - 61;
     cw[2] = 29 - 6 * (int32_t)m;
     cw[3] = 2 * (int32_t)m + 1;
-    if ((st = ltrm_curvature(c->offset, c->offset_len, seg, cw, &cv)) != LTRM_OK) return st;
-    if ((st = ltrm_parabola(a.offset, b.offset, cv, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &w->slope[0], &w->curv[0])) != LTRM_OK)
+    if ((st = ltrm_curvature(c->offset, c->offset_len, e.seg, cw, &cv)) != LTRM_OK) return st;
+    if ((st = ltrm_parabola(o0, o1, cv, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &w->slope[0], &w->curv[0])) != LTRM_OK)
         return st;
-    if ((st = ltrm_curvature(c->inv_slope, c->inv_slope_len, seg, cw, &cv)) != LTRM_OK) return st;
-    if ((st = ltrm_parabola(a.inv_slope, b.inv_slope, cv, 0, LTRM_INV_SLOPE_LIMIT, &w->slope[1], &w->curv[1])) != LTRM_OK)
+    if ((st = ltrm_curvature(c->inv_slope, c->inv_slope_len, e.seg, cw, &cv)) != LTRM_OK) return st;
+    if ((st = ltrm_parabola(a0, a1, cv, 0, LTRM_INV_SLOPE_LIMIT, &w->slope[1], &w->curv[1])) != LTRM_OK)
         return st;
-    w->slope[2] = b.ln_bias - a.ln_bias;
-    w->slope[3] = b.u_min - a.u_min;
-    w->start = a;
+    w->start.offset = (int32_t)o0;
+    w->start.inv_slope = (uint32_t)a0;
+    w->start.ln_bias = l0;
+    w->start.u_min = u0;
+    w->slope[2] = l1 - l0;
+    w->slope[3] = u1 - u0;
     return LTRM_OK;
 }
 
@@ -409,20 +476,18 @@ static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_
 
 /* The direct path from theta: both window ends, the four columns the code needs, interpolated. */
 static inline ltrm_status ltrm_correct_theta(const ltrm_fixed *c, uint32_t code, int32_t theta, ltrm_reading *out) {
-    uint32_t index, f16, seg, t16, k;
+    uint32_t index, f16, seg, t16;
     ltrm_window w;
     ltrm_scalars s;
-    int32_t xa, cols[4], lo, hi;
+    ltrm_ends e;
+    int32_t xa, cols[4];
     ltrm_status st;
     if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
     if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
     ltrm_window_at(&w, f16, &s);
     if ((st = ltrm_xa(c, &s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
-    for (k = 0; k < 4u; k++) {
-        if ((st = ltrm_end_column(c, index, seg + k, &lo)) != LTRM_OK) return st;
-        if ((st = ltrm_end_column(c, index + 1u, seg + k, &hi)) != LTRM_OK) return st;
-        cols[k] = lo + ltrm_mulh16(hi - lo, f16);
-    }
+    ltrm_window_ends(c, index, &e);
+    if ((st = ltrm_columns_at(c, &e, seg, f16, cols)) != LTRM_OK) return st;
     if ((st = ltrm_x_finish(c, xa, t16, cols, &out->x)) != LTRM_OK) return st;
     out->temperature_extrapolated = ltrm_extrapolated(c, theta);
     return LTRM_OK;
@@ -450,15 +515,16 @@ inline ltrm_status ltrm_correct_raw(const ltrm_fixed *c, uint32_t code, uint32_t
 static inline ltrm_status ltrm_stage_theta(const ltrm_fixed *c, int32_t theta, ltrm_stage *s) {
     uint32_t index, f16, n = (uint32_t)c->xa_knots + 2u, i;
     ltrm_window w;
+    ltrm_ends e;
     int32_t lo, hi;
     ltrm_status st;
     if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
     if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
     if (n > LTRM_ROW_CAPACITY) return LTRM_BAD_TABLE;
+    ltrm_window_ends(c, index, &e);
     for (i = 0; i < LTRM_ROW_CAPACITY; i++) s->row[i] = 0;
     for (i = 0; i < n; i++) {
-        if ((st = ltrm_end_column(c, index, i, &lo)) != LTRM_OK) return st;
-        if ((st = ltrm_end_column(c, index + 1u, i, &hi)) != LTRM_OK) return st;
+        if ((st = ltrm_column_ends(c, &e, i, &lo, &hi)) != LTRM_OK) return st;
         s->row[i] = lo + ltrm_mulh16(hi - lo, f16);
     }
     ltrm_window_at(&w, f16, &s->s);
@@ -516,15 +582,17 @@ static inline ltrm_status ltrm_stage_cache_load(ltrm_stage_cache *k, uint32_t in
     const ltrm_fixed *c = k->cal;
     uint32_t n = (uint32_t)c->xa_knots + 2u, i;
     ltrm_window w;
+    ltrm_ends e;
     int32_t lo, hi;
     ltrm_status st;
     k->window = LTRM_NO_WINDOW;
     *kept = 0;
     if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
     if (n > LTRM_ROW_CAPACITY) return LTRM_OK;
+    ltrm_window_ends(c, index, &e);
     k->len = 0u;
     for (i = 0; i < n; i++) {
-        if (ltrm_end_column(c, index, i, &lo) != LTRM_OK || ltrm_end_column(c, index + 1u, i, &hi) != LTRM_OK) break;
+        if (ltrm_column_ends(c, &e, i, &lo, &hi) != LTRM_OK) break;
         k->row0[i] = lo;
         k->drow[i] = hi - lo;
         k->len = i + 1u;
