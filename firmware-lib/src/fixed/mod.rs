@@ -319,19 +319,35 @@ impl Window {
     }
 }
 
-/// The quadratic form of one value over a window (see [`Window`]): `(d − c, c)`, checked so that `q(f)`
-/// stays strictly within `(lo, hi)` for every fraction (it lies within `|c|/4` and the floors' few units
-/// of the chord), and every intermediate (`d`, `d − c`, `c`) fits an i32.
+/// The quadratic form of the offset over a window (see [`Window`]): `(d − c, c)`, checked so that `q(f)`
+/// stays strictly within [`OFFSET_RANGE`] for every fraction (it lies within `|c|/4` and the floors' few
+/// units of the chord). With both ends inside that range (checked by the caller) and `|c| < 2^27` (any
+/// table: see [`FixedCalibration::window`]), every sum here is a 32-bit one: `|d| < 1.5·2^30`,
+/// `|d − c| < 1.75·2^30`.
 #[inline(always)]
-fn parabola(q0: i64, q1: i64, c: i64, lo: i64, hi: i64) -> Result<(i32, i32), Error> {
-    let d = q1 - q0;
-    let dc = d - c;
-    let reach = c.abs() + 4;
-    if q0.min(q1) - reach > lo && q0.max(q1) + reach < hi && d.abs() < 1 << 31 && dc.abs() < 1 << 31 {
-        Ok((dc as i32, c as i32))
+fn parabola_offset(q0: i32, q1: i32, c: i32) -> Result<(i32, i32), Error> {
+    let reach = c.unsigned_abs() as i32 + 4;
+    if q0.min(q1) - reach > OFFSET_RANGE.0 && q0.max(q1) + reach < OFFSET_RANGE.1 {
+        Ok((q1 - q0 - c, c))
     } else {
         Err(BAD_TABLE)
     }
+}
+
+/// The same for the inverse slope, whose ends lie in `(0, 2^32)`: `q(f)` strictly within that range, and
+/// `d` and `d − c` within ±2^31 (exclusive), all in 32 bits (`min − reach > 0` is `min > reach`,
+/// `max + reach < 2^32` is `max ≤ u32::MAX − reach`).
+#[inline(always)]
+fn parabola_inv_slope(q0: u32, q1: u32, c: i32) -> Result<(i32, i32), Error> {
+    let reach = c.unsigned_abs() + 4;
+    let diff = q1.abs_diff(q0);
+    if q0.min(q1) > reach && q0.max(q1) <= u32::MAX - reach && diff < 1 << 31 {
+        let d = if q1 >= q0 { diff as i32 } else { -(diff as i32) };
+        if let Some(dc) = d.checked_sub(c).filter(|&v| v != i32::MIN) {
+            return Ok((dc, c));
+        }
+    }
+    Err(BAD_TABLE)
 }
 
 /// The header's values the per-sample part of a correction uses, gathered once with their shift counts
@@ -778,27 +794,28 @@ impl<'a> FixedCalibration<'a> {
         // term is c = h²·p''/2 with h = 1/16: c = 3·Σ W_k·c_k / 8192 for control points stored divided by 6.
         let m = e.m.min(WINDOWS - 1) as i32;
         let w = [31 - 2 * m, 6 * m - 61, 29 - 6 * m, 2 * m + 1];
-        let curv = |c: [i32; 4]| -> i64 {
-            // Σ W_k·c_k = hi·2^16 + lo from the control points' halves, |W_k| ≤ 61: |hi| < 2^23, |lo| < 2^24.
-            // floor(3·(hi·2^16 + lo) / 2^13) = 24·hi + floor(3·lo / 2^13) exactly, below 2^28: 32-bit sums,
-            // no 64-bit product (a runtime helper on a Cortex-M0).
+        let curv = |c: [i32; 4]| -> i32 {
+            // Σ W_k·c_k = hi·2^16 + lo from the control points' halves, Σ|W_k| ≤ 122: |hi| < 2^22, |lo| < 2^23.
+            // floor(3·(hi·2^16 + lo) / 2^13) = 24·hi + floor(3·lo / 2^13) exactly, below 2^27 for any
+            // control points: 32-bit sums, no 64-bit product (a runtime helper on a Cortex-M0).
             let hi = w[0] * (c[0] >> 16) + w[1] * (c[1] >> 16) + w[2] * (c[2] >> 16) + w[3] * (c[3] >> 16);
             let lo = w[0] * (c[0] & 0xffff)
                 + w[1] * (c[1] & 0xffff)
                 + w[2] * (c[2] & 0xffff)
                 + w[3] * (c[3] & 0xffff);
-            i64::from(((hi + hi + hi) << 3) + ((lo + lo + lo) >> 13))
+            ((hi + hi + hi) << 3) + ((lo + lo + lo) >> 13)
         };
         let offset = |v: i64| v > i64::from(OFFSET_RANGE.0) && v < i64::from(OFFSET_RANGE.1);
         let inv_slope = |v: i64| v > 0 && v < INV_SLOPE_LIMIT;
         if !(inv_slope(a0) && inv_slope(a1) && offset(o0) && offset(o1)) {
             return Err(BAD_TABLE);
         }
-        let (off_dc, curv_offset) =
-            parabola(o0, o1, curv(co), i64::from(OFFSET_RANGE.0), i64::from(OFFSET_RANGE.1))?;
-        let (inv_dc, curv_inv_slope) = parabola(a0, a1, curv(ci), 0, INV_SLOPE_LIMIT)?;
+        // Checked above: the offsets fit an i32, the inverse slopes a u32.
+        let (o0, o1, a0, a1) = (o0 as i32, o1 as i32, a0 as u32, a1 as u32);
+        let (off_dc, curv_offset) = parabola_offset(o0, o1, curv(co))?;
+        let (inv_dc, curv_inv_slope) = parabola_inv_slope(a0, a1, curv(ci))?;
         Ok(Window {
-            start: Scalars { offset: o0 as i32, inv_slope: a0 as u32, ln_bias: l0, u_min: u0 },
+            start: Scalars { offset: o0, inv_slope: a0, ln_bias: l0, u_min: u0 },
             slope: [off_dc, inv_dc, l1 - l0, u1 - u0],
             curv: [curv_offset, curv_inv_slope],
         })

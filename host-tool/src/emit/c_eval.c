@@ -317,9 +317,9 @@ static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends 
 /* The residual's columns col..col+3 at a Q16 fraction of a window: ltrm_column_ends of each, interpolated,
  * with the same refusals checked once. */
 static inline ltrm_status ltrm_columns_at(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, uint32_t f16, int32_t out[4]) {
-    uint32_t stride = (uint32_t)c->xa_knots + 2u, j, k;
-    const int16_t *r;
-    int32_t a, b, v;
+    uint32_t stride = (uint32_t)c->xa_knots + 2u, j;
+    const int16_t *r0, *r1, *r2, *r3;
+    int32_t a, b;
     if (stride > 0xffffu || e->seg > 0xffffu - 3u || stride < 4u || col > stride - 4u) return LTRM_BAD_TABLE;
     if (c->residual_len == 0u) {
         if (e->seg + 3u >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
@@ -327,15 +327,13 @@ static inline ltrm_status ltrm_columns_at(const ltrm_fixed *c, const ltrm_ends *
         return LTRM_OK;
     }
     if ((e->seg + 3u) * stride + col + 4u > c->residual_len) return LTRM_BAD_TABLE;
-    r = c->residual + e->seg * stride + col;
+    r0 = c->residual + e->seg * stride + col;
+    r1 = r0 + stride;
+    r2 = r1 + stride;
+    r3 = r2 + stride;
     for (j = 0; j < 4u; j++) {
-        a = 0;
-        b = 0;
-        for (k = 0; k < 4u; k++) {
-            v = r[k * stride + j];
-            a += e->w0[k] * v;
-            b += e->w1[k] * v;
-        }
+        a = e->w0[0] * r0[j] + e->w0[1] * r1[j] + e->w0[2] * r2[j] + e->w0[3] * r3[j];
+        b = e->w1[0] * r0[j] + e->w1[1] * r1[j] + e->w1[2] * r2[j] + e->w1[3] * r3[j];
         out[j] = a + ltrm_mulh16(b - a, f16);
     }
     return LTRM_OK;
@@ -349,30 +347,39 @@ static inline void ltrm_window_at(const ltrm_window *w, uint32_t f16, ltrm_scala
     out->u_min = w->start.u_min + ltrm_mulh16(w->slope[3], f16);
 }
 
-static inline int64_t ltrm_abs64(int64_t v) { return v < 0 ? -v : v; }
+/* The offset's parabola over a window: (d - c, c), checked to stay within the offset's range. Both ends lie
+ * within it and |c| < 2^27, so every sum fits 32 bits. */
+static inline ltrm_status ltrm_parabola_offset(int32_t q0, int32_t q1, int32_t c, int32_t *dc, int32_t *cc) {
+    int32_t reach = (c < 0 ? -c : c) + 4;
+    if (!((q0 < q1 ? q0 : q1) - reach > LTRM_OFFSET_MIN && (q0 > q1 ? q0 : q1) + reach < LTRM_OFFSET_MAX)) return LTRM_BAD_TABLE;
+    *dc = q1 - q0 - c;
+    *cc = c;
+    return LTRM_OK;
+}
 
-/* The parabola of one value over a window: (d - c, c), checked to stay within (lo, hi). */
-static inline ltrm_status ltrm_parabola(int64_t q0, int64_t q1, int64_t c, int64_t lo, int64_t hi, int32_t *dc, int32_t *cc) {
-    int64_t d = q1 - q0, e = d - c, reach = ltrm_abs64(c) + 4;
-    if (!((q0 < q1 ? q0 : q1) - reach > lo && (q0 > q1 ? q0 : q1) + reach < hi && ltrm_abs64(d) < ((int64_t)1 << 31) &&
-          ltrm_abs64(e) < ((int64_t)1 << 31)))
-        return LTRM_BAD_TABLE;
-    *dc = (int32_t)e;
-    *cc = (int32_t)c;
+/* The inverse slope's: both ends in (0, 2^32), the parabola too, d and d - c within +-2^31 (exclusive). */
+static inline ltrm_status ltrm_parabola_inv_slope(uint32_t q0, uint32_t q1, int32_t c, int32_t *dc, int32_t *cc) {
+    uint32_t reach = (c < 0 ? 0u - (uint32_t)c : (uint32_t)c) + 4u, diff = q1 >= q0 ? q1 - q0 : q0 - q1;
+    int32_t d;
+    if (!((q0 < q1 ? q0 : q1) > reach && (q0 > q1 ? q0 : q1) <= UINT32_MAX - reach && diff < 0x80000000u)) return LTRM_BAD_TABLE;
+    d = q1 >= q0 ? (int32_t)diff : -(int32_t)diff;
+    if ((c > 0 && d <= INT32_MIN + c) || (c < 0 && d > INT32_MAX + c)) return LTRM_BAD_TABLE;
+    *dc = d - c;
+    *cc = c;
     return LTRM_OK;
 }
 
 /* The chord's deviation term c = 3 * sum W_k c_k / 8192 of a spline over a window (W: 32 times the
  * second-derivative basis at the window's middle). */
-static inline ltrm_status ltrm_curvature(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int64_t *out) {
+static inline ltrm_status ltrm_curvature(const int32_t *t, uint32_t len, uint32_t seg, const int32_t w[4], int32_t *out) {
     int32_t hi, lo;
     if ((uint64_t)seg + 4u > (uint64_t)len) return LTRM_BAD_TABLE;
     t += seg;
     hi = w[0] * ltrm_asr32(t[0], 16) + w[1] * ltrm_asr32(t[1], 16) + w[2] * ltrm_asr32(t[2], 16) + w[3] * ltrm_asr32(t[3], 16);
     lo = w[0] * (int32_t)((uint32_t)t[0] & 0xffffu) + w[1] * (int32_t)((uint32_t)t[1] & 0xffffu) +
          w[2] * (int32_t)((uint32_t)t[2] & 0xffffu) + w[3] * (int32_t)((uint32_t)t[3] & 0xffffu);
-    /* floor(3 * (hi * 2^16 + lo) / 2^13) = 24 * hi + floor(3 * lo / 2^13): |hi| < 2^23, |lo| < 2^24, 32 bits. */
-    *out = (int64_t)(hi * 24 + ltrm_asr32(lo * 3, 13));
+    /* floor(3 * (hi * 2^16 + lo) / 2^13) = 24 * hi + floor(3 * lo / 2^13): |hi| < 2^22, |lo| < 2^23, 32 bits. */
+    *out = hi * 24 + ltrm_asr32(lo * 3, 13);
     return LTRM_OK;
 }
 
@@ -385,13 +392,14 @@ static inline ltrm_status ltrm_ends_values(const int32_t *t, uint32_t len, const
 }
 
 /* Window `index`: both ends and the curvatures. */
-static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, ltrm_window *w) {
+static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, ltrm_ends *ends, ltrm_window *w) {
     ltrm_ends e;
     uint32_t m;
-    int32_t cw[4], l0 = 0, l1 = 0, u0 = INT32_MIN, u1 = INT32_MIN;
-    int64_t a0, a1, o0, o1, v0, v1, cv;
+    int32_t cw[4], l0 = 0, l1 = 0, u0 = INT32_MIN, u1 = INT32_MIN, cv;
+    int64_t a0, a1, o0, o1, v0, v1;
     ltrm_status st;
     ltrm_window_ends(c, index, &e);
+    *ends = e;
     if ((st = ltrm_ends_values(c->inv_slope, c->inv_slope_len, &e, &a0, &a1)) != LTRM_OK) return st;
     if ((st = ltrm_ends_values(c->offset, c->offset_len, &e, &o0, &o1)) != LTRM_OK) return st;
     if (c->bias_bend) {
@@ -413,11 +421,9 @@ static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, 
     cw[2] = 29 - 6 * (int32_t)m;
     cw[3] = 2 * (int32_t)m + 1;
     if ((st = ltrm_curvature(c->offset, c->offset_len, e.seg, cw, &cv)) != LTRM_OK) return st;
-    if ((st = ltrm_parabola(o0, o1, cv, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &w->slope[0], &w->curv[0])) != LTRM_OK)
-        return st;
+    if ((st = ltrm_parabola_offset((int32_t)o0, (int32_t)o1, cv, &w->slope[0], &w->curv[0])) != LTRM_OK) return st;
     if ((st = ltrm_curvature(c->inv_slope, c->inv_slope_len, e.seg, cw, &cv)) != LTRM_OK) return st;
-    if ((st = ltrm_parabola(a0, a1, cv, 0, LTRM_INV_SLOPE_LIMIT, &w->slope[1], &w->curv[1])) != LTRM_OK)
-        return st;
+    if ((st = ltrm_parabola_inv_slope((uint32_t)a0, (uint32_t)a1, cv, &w->slope[1], &w->curv[1])) != LTRM_OK) return st;
     w->start.offset = (int32_t)o0;
     w->start.inv_slope = (uint32_t)a0;
     w->start.ln_bias = l0;
@@ -483,10 +489,9 @@ static inline ltrm_status ltrm_correct_theta(const ltrm_fixed *c, uint32_t code,
     int32_t xa, cols[4];
     ltrm_status st;
     if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    if ((st = ltrm_window_load(c, index, &e, &w)) != LTRM_OK) return st;
     ltrm_window_at(&w, f16, &s);
     if ((st = ltrm_xa(c, &s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
-    ltrm_window_ends(c, index, &e);
     if ((st = ltrm_columns_at(c, &e, seg, f16, cols)) != LTRM_OK) return st;
     if ((st = ltrm_x_finish(c, xa, t16, cols, &out->x)) != LTRM_OK) return st;
     out->temperature_extrapolated = ltrm_extrapolated(c, theta);
@@ -519,9 +524,8 @@ static inline ltrm_status ltrm_stage_theta(const ltrm_fixed *c, int32_t theta, l
     int32_t lo, hi;
     ltrm_status st;
     if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    if ((st = ltrm_window_load(c, index, &e, &w)) != LTRM_OK) return st;
     if (n > LTRM_ROW_CAPACITY) return LTRM_BAD_TABLE;
-    ltrm_window_ends(c, index, &e);
     for (i = 0; i < LTRM_ROW_CAPACITY; i++) s->row[i] = 0;
     for (i = 0; i < n; i++) {
         if ((st = ltrm_column_ends(c, &e, i, &lo, &hi)) != LTRM_OK) return st;
@@ -587,9 +591,8 @@ static inline ltrm_status ltrm_stage_cache_load(ltrm_stage_cache *k, uint32_t in
     ltrm_status st;
     k->window = LTRM_NO_WINDOW;
     *kept = 0;
-    if ((st = ltrm_window_load(c, index, &w)) != LTRM_OK) return st;
+    if ((st = ltrm_window_load(c, index, &e, &w)) != LTRM_OK) return st;
     if (n > LTRM_ROW_CAPACITY) return LTRM_OK;
-    ltrm_window_ends(c, index, &e);
     k->len = 0u;
     for (i = 0; i < n; i++) {
         if (ltrm_column_ends(c, &e, i, &lo, &hi) != LTRM_OK) break;
