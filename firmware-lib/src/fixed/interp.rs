@@ -85,13 +85,36 @@ pub fn spline6(c: [i32; 4], t: u32) -> i32 {
 /// Six times the basis at `t = m/16` times 16³, for `m` in `0..=16`: exact integers, each at most 2^14,
 /// summing to `6·16³ = 24576`.
 #[inline(always)]
-pub fn window_weights(m: u32) -> [i32; 4] {
-    let m = m.min(WINDOWS) as i32;
+pub const fn window_weights(m: u32) -> [i32; 4] {
+    let m = (if m < WINDOWS { m } else { WINDOWS }) as i32;
     let s = WINDOWS as i32 - m;
     let (m2, m3) = (m * m, m * m * m);
     let w0 = s * s * s;
     let w1 = 3 * m3 - 6 * 16 * m2 + 4 * 4096;
     [w0, w1, 24576 - w0 - w1 - m3, m3]
+}
+
+/// [`window_weights`] at every window end `m = 0..=16`, made at compile time (272 bytes of flash): a sample
+/// looks up the weights of its window's two ends instead of evaluating two cubics.
+// Indexing in a constant's initialiser: an index out of range fails the build, not a run.
+#[allow(clippy::indexing_slicing)]
+pub const WINDOW_WEIGHTS: [[i32; 4]; WINDOWS as usize + 1] = {
+    let mut t = [[0; 4]; WINDOWS as usize + 1];
+    let mut m = 0;
+    while m <= WINDOWS as usize {
+        t[m] = window_weights(m as u32);
+        m += 1;
+    }
+    t
+};
+
+/// [`window_weights`] of `m` (clamped to 16) from [`WINDOW_WEIGHTS`].
+#[inline(always)]
+pub fn window_weights_at(m: u32) -> [i32; 4] {
+    match WINDOW_WEIGHTS.get(m.min(WINDOWS) as usize) {
+        Some(w) => *w,
+        None => window_weights(m),
+    }
 }
 
 /// The exact value `floor(Σ w_k·c_k / 4096)` of a temperature spline at a window end, from control points
@@ -183,6 +206,13 @@ mod tests {
         assert_eq!(basis6(32768), [1024, 23552, 23552, 1024]);
         // Each weight within 2 units of Q13 of six times the basis (the per-sample splines' error budget).
         assert!(worst < 2.0 / 8192.0, "{worst}");
+    }
+
+    #[test]
+    fn window_weights_table_is_the_function() {
+        for m in 0..40u32 {
+            assert_eq!(window_weights_at(m), window_weights(m), "m={m}");
+        }
     }
 
     #[test]

@@ -130,8 +130,8 @@ use crate::qformat::millicelsius_of_theta;
 use crate::units::Unit;
 use arith::{mul_hi_u, mulh16};
 use interp::{
-    four, sensor_value, sensor_weights, spline6, window_collapse, window_value, window_weights, WINDOWS,
-    WINDOWS_LOG2, WINDOW_DEN_LOG2,
+    four, sensor_value, sensor_weights, spline6, window_collapse, window_value, window_weights,
+    window_weights_at, WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
 };
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
@@ -765,7 +765,12 @@ impl<'a> FixedCalibration<'a> {
         let last = u32::from(self.header.t_knots).saturating_sub(2);
         let seg = (index >> WINDOWS_LOG2).min(last);
         let m = index.saturating_sub(seg << WINDOWS_LOG2);
-        WindowEnds { seg: seg as usize, m, w0: window_weights(m), w1: window_weights(m.saturating_add(1)) }
+        WindowEnds {
+            seg: seg as usize,
+            m,
+            w0: window_weights_at(m),
+            w1: window_weights_at(m.saturating_add(1)),
+        }
     }
 
     /// The window `index`: both ends' values and the curvature of the offset and the inverse slope, each

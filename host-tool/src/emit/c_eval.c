@@ -116,6 +116,15 @@ static inline void ltrm_window_weights(uint32_t m, int32_t w[4]) {
     w[2] = 24576 - w[0] - w[1] - w[3];
 }
 
+/* ltrm_window_weights at every window end m = 0..16 (logtrim::fixed::interp::WINDOW_WEIGHTS), constants. */
+#define LTRM_WW0(m) ((16 - (m)) * (16 - (m)) * (16 - (m)))
+#define LTRM_WW1(m) (3 * (m) * (m) * (m) - 6 * 16 * (m) * (m) + 4 * 4096)
+#define LTRM_WW(m) { LTRM_WW0(m), LTRM_WW1(m), 24576 - LTRM_WW0(m) - LTRM_WW1(m) - (m) * (m) * (m), (m) * (m) * (m) }
+static const int32_t ltrm_window_w[17][4] = {
+    LTRM_WW(0), LTRM_WW(1), LTRM_WW(2), LTRM_WW(3), LTRM_WW(4), LTRM_WW(5), LTRM_WW(6), LTRM_WW(7), LTRM_WW(8),
+    LTRM_WW(9), LTRM_WW(10), LTRM_WW(11), LTRM_WW(12), LTRM_WW(13), LTRM_WW(14), LTRM_WW(15), LTRM_WW(16)
+};
+
 /* floor(sum w_k c_k / 4096) of control points stored divided by 6, exact. */
 static inline int64_t ltrm_window_value(const int32_t *c, const int32_t w[4]) {
     int32_t hi = w[0] * ltrm_asr32(c[0], 16) + w[1] * ltrm_asr32(c[1], 16) + w[2] * ltrm_asr32(c[2], 16) +
@@ -279,15 +288,15 @@ static inline ltrm_status ltrm_end_scalars(const ltrm_fixed *c, uint32_t end, lt
  * segment's last window is the next segment's start, the same value from the same four control points. */
 typedef struct ltrm_ends {
     uint32_t seg, m;
-    int32_t w0[4], w1[4];
+    const int32_t *w0, *w1;
 } ltrm_ends;
 
 static inline void ltrm_window_ends(const ltrm_fixed *c, uint32_t index, ltrm_ends *e) {
     uint32_t last = c->t_knots >= 2u ? c->t_knots - 2u : 0u;
     e->seg = (index >> LTRM_WINDOWS_LOG2) < last ? (index >> LTRM_WINDOWS_LOG2) : last;
     e->m = index - (e->seg << LTRM_WINDOWS_LOG2);
-    ltrm_window_weights(e->m, e->w0);
-    ltrm_window_weights(e->m < LTRM_WINDOWS ? e->m + 1u : LTRM_WINDOWS, e->w1);
+    e->w0 = ltrm_window_w[e->m < LTRM_WINDOWS ? e->m : LTRM_WINDOWS];
+    e->w1 = ltrm_window_w[e->m < LTRM_WINDOWS ? e->m + 1u : LTRM_WINDOWS];
 }
 
 /* Residual column `col` collapsed over temperature at both ends of a window. */
