@@ -134,6 +134,25 @@ static inline int64_t ltrm_window_value(const int32_t *c, const int32_t w[4]) {
     return (int64_t)hi * (1 << (16 - LTRM_COLUMN_GUARD)) + (int64_t)(lo >> LTRM_COLUMN_GUARD);
 }
 
+/* ltrm_window_value when strictly within (lo, hi), for lo >= -2^29 and hi <= 2^30 (wider ones are narrowed to
+ * that), else 0: the same value in 32 bits. A value v = 16 h + (l >> 12) in such a range has its high halves'
+ * sum h within +-2^26 (l >> 12 is in [0, 2^18.6)), so h is checked first and the sum then fits an int32_t.
+ * The Rust side keeps the 64-bit form (faster there); both are exact. */
+static inline int ltrm_window_value_within(const int32_t *c, const int32_t w[4], int32_t lo, int32_t hi, int32_t *out) {
+    int32_t h = w[0] * ltrm_asr32(c[0], 16) + w[1] * ltrm_asr32(c[1], 16) + w[2] * ltrm_asr32(c[2], 16) +
+                w[3] * ltrm_asr32(c[3], 16), v;
+    uint32_t l;
+    if (lo < -(1 << 29)) lo = -(1 << 29);
+    if (hi > (1 << 30)) hi = 1 << 30;
+    if (!(h > -(1 << 26) && h < (1 << 26))) return 0;
+    l = (uint32_t)w[0] * ((uint32_t)c[0] & 0xffffu) + (uint32_t)w[1] * ((uint32_t)c[1] & 0xffffu) +
+        (uint32_t)w[2] * ((uint32_t)c[2] & 0xffffu) + (uint32_t)w[3] * ((uint32_t)c[3] & 0xffffu);
+    v = h * (1 << (16 - LTRM_COLUMN_GUARD)) + (int32_t)(l >> LTRM_COLUMN_GUARD);
+    if (!(v > lo && v < hi)) return 0;
+    *out = v;
+    return 1;
+}
+
 /* Six times the basis at a Q16 fraction, in Q24 (the sensor's weights). */
 static inline void ltrm_sensor_weights(uint32_t t16, int32_t w[4]) {
     uint32_t t = t16 & 0xffffu;
@@ -404,36 +423,39 @@ static inline ltrm_status ltrm_ends_values(const int32_t *t, uint32_t len, const
 static inline ltrm_status ltrm_window_load(const ltrm_fixed *c, uint32_t index, ltrm_ends *ends, ltrm_window *w) {
     ltrm_ends e;
     uint32_t m;
-    int32_t cw[4], l0 = 0, l1 = 0, u0 = INT32_MIN, u1 = INT32_MIN, cv;
-    int64_t a0, a1, o0, o1, v0, v1;
+    int32_t cw[4], o0, o1, l0 = 0, l1 = 0, u0 = INT32_MIN, u1 = INT32_MIN, cv;
+    int64_t a0, a1;
     ltrm_status st;
     ltrm_window_ends(c, index, &e);
     *ends = e;
     if ((st = ltrm_ends_values(c->inv_slope, c->inv_slope_len, &e, &a0, &a1)) != LTRM_OK) return st;
-    if ((st = ltrm_ends_values(c->offset, c->offset_len, &e, &o0, &o1)) != LTRM_OK) return st;
+    if ((uint64_t)e.seg + 4u > (uint64_t)c->offset_len) return LTRM_BAD_TABLE;
+    if (!ltrm_window_value_within(c->offset + e.seg, e.w0, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &o0) ||
+        !ltrm_window_value_within(c->offset + e.seg, e.w1, LTRM_OFFSET_MIN, LTRM_OFFSET_MAX, &o1))
+        return LTRM_BAD_TABLE;
     if (c->bias_bend) {
-        if ((st = ltrm_ends_values(c->ln_bias, c->ln_bias_len, &e, &v0, &v1)) != LTRM_OK) return st;
-        if ((st = ltrm_bounded(v0, LTRM_BIAS_LIMIT, &l0)) != LTRM_OK) return st;
-        if ((st = ltrm_bounded(v1, LTRM_BIAS_LIMIT, &l1)) != LTRM_OK) return st;
+        if ((uint64_t)e.seg + 4u > (uint64_t)c->ln_bias_len) return LTRM_BAD_TABLE;
+        if (!ltrm_window_value_within(c->ln_bias + e.seg, e.w0, -LTRM_BIAS_LIMIT, LTRM_BIAS_LIMIT, &l0) ||
+            !ltrm_window_value_within(c->ln_bias + e.seg, e.w1, -LTRM_BIAS_LIMIT, LTRM_BIAS_LIMIT, &l1))
+            return LTRM_BAD_TABLE;
     }
     if (c->sensitivity_limit) {
-        if ((st = ltrm_ends_values(c->u_min, c->u_min_len, &e, &v0, &v1)) != LTRM_OK) return st;
-        if ((st = ltrm_bounded(v0, LTRM_BIAS_LIMIT, &u0)) != LTRM_OK) return st;
-        if ((st = ltrm_bounded(v1, LTRM_BIAS_LIMIT, &u1)) != LTRM_OK) return st;
+        if ((uint64_t)e.seg + 4u > (uint64_t)c->u_min_len) return LTRM_BAD_TABLE;
+        if (!ltrm_window_value_within(c->u_min + e.seg, e.w0, -LTRM_BIAS_LIMIT, LTRM_BIAS_LIMIT, &u0) ||
+            !ltrm_window_value_within(c->u_min + e.seg, e.w1, -LTRM_BIAS_LIMIT, LTRM_BIAS_LIMIT, &u1))
+            return LTRM_BAD_TABLE;
     }
-    if (!(a0 > 0 && a0 < LTRM_INV_SLOPE_LIMIT && a1 > 0 && a1 < LTRM_INV_SLOPE_LIMIT && o0 > LTRM_OFFSET_MIN &&
-          o0 < LTRM_OFFSET_MAX && o1 > LTRM_OFFSET_MIN && o1 < LTRM_OFFSET_MAX))
-        return LTRM_BAD_TABLE;
+    if (!(a0 > 0 && a0 < LTRM_INV_SLOPE_LIMIT && a1 > 0 && a1 < LTRM_INV_SLOPE_LIMIT)) return LTRM_BAD_TABLE;
     m = e.m < LTRM_WINDOWS - 1u ? e.m : LTRM_WINDOWS - 1u;
     cw[0] = 31 - 2 * (int32_t)m;
     cw[1] = 6 * (int32_t)m - 61;
     cw[2] = 29 - 6 * (int32_t)m;
     cw[3] = 2 * (int32_t)m + 1;
     if ((st = ltrm_curvature(c->offset, c->offset_len, e.seg, cw, &cv)) != LTRM_OK) return st;
-    if ((st = ltrm_parabola_offset((int32_t)o0, (int32_t)o1, cv, &w->slope[0], &w->curv[0])) != LTRM_OK) return st;
+    if ((st = ltrm_parabola_offset(o0, o1, cv, &w->slope[0], &w->curv[0])) != LTRM_OK) return st;
     if ((st = ltrm_curvature(c->inv_slope, c->inv_slope_len, e.seg, cw, &cv)) != LTRM_OK) return st;
     if ((st = ltrm_parabola_inv_slope((uint32_t)a0, (uint32_t)a1, cv, &w->slope[1], &w->curv[1])) != LTRM_OK) return st;
-    w->start.offset = (int32_t)o0;
+    w->start.offset = o0;
     w->start.inv_slope = (uint32_t)a0;
     w->start.ln_bias = l0;
     w->start.u_min = u0;
