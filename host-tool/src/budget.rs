@@ -56,6 +56,8 @@ pub use design::read_design;
 
 use serde::Serialize;
 
+use crate::output::number::Num;
+
 /// ln 10.
 const LN10: f64 = std::f64::consts::LN_10;
 
@@ -459,7 +461,7 @@ impl BudgetSpec {
         let a = &self.adc;
         let n = f64::from(a.oversampling);
         let m = f64::from(t.readings_averaged);
-        let at = |x: f64, tc: f64| format!("x = {x:.3} Np (ratio {:.3e}), {tc} °C", x.exp());
+        let at = |x: f64, tc: f64| format!("x = {:.3} Np (ratio {:.3e}), {tc} °C", Num(x), x.exp());
         let at_t = |tc: f64| format!("{tc} °C (smallest slope)");
         // ∂x/∂code is largest where the slope is smallest: at one end of the range (S is linear in T).
         let (t_code, dxdc) = [t.min_c, t.max_c]
@@ -626,10 +628,10 @@ impl Budget {
                 name,
                 kind,
                 lsb,
-                z.np,
-                z.db_10log10,
-                z.db_20log10,
-                z.pct_of_ratio,
+                Num(z.np),
+                Num(z.db_10log10),
+                Num(z.db_20log10),
+                Num(z.pct_of_ratio),
                 extra(z.np),
                 at
             );

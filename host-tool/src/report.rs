@@ -17,6 +17,7 @@ use std::path::{Path, PathBuf};
 use crate::calfile::CalFile;
 use crate::error_scale::{db_power, ErrorScale};
 use crate::fit::{FitData, FitOptions, FitOutcome};
+use crate::output::number::Num;
 #[cfg(feature = "plot")]
 use crate::plot::{self, figures, PlotError};
 
@@ -188,7 +189,7 @@ impl FitReport<'_> {
             let _ = writeln!(
                 s,
                 "| {:.2} | {} | {} | {} | {} | {} | {} |",
-                p.temp_c,
+                Num(p.temp_c),
                 p.rows,
                 p.refused,
                 sci(p.rms_np),
@@ -252,10 +253,15 @@ impl FitReport<'_> {
         let xr = &cal.x_range;
         let (xmin, xmax) = (f64::from(xr.min), f64::from(xr.max));
         let _ = writeln!(s, "| quantity | from | to |\n|---|---:|---:|");
-        let _ = writeln!(s, "| temperature [°C] | {:.2} | {:.2} |", t.min_c, t.max_c);
-        let _ = writeln!(s, "| x = ln ratio [Np] | {:.4} | {:.4} |", xmin, xmax);
+        let _ = writeln!(s, "| temperature [°C] | {:.2} | {:.2} |", Num::from(t.min_c), Num::from(t.max_c));
+        let _ = writeln!(s, "| x = ln ratio [Np] | {:.4} | {:.4} |", Num(xmin), Num(xmax));
         let _ = writeln!(s, "| ratio I_sig/I_ref | {:.4e} | {:.4e} |", xmin.exp(), xmax.exp());
-        let _ = writeln!(s, "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n", db_power(xmin), db_power(xmax));
+        let _ = writeln!(
+            s,
+            "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n",
+            Num(db_power(xmin)),
+            Num(db_power(xmax))
+        );
         if t.extrapolation_k > 0.0 {
             let _ = write!(
                 s,
@@ -304,7 +310,7 @@ fn terms(n: usize) -> String {
 /// A figure in 3-significant-digit scientific notation; a missing figure as "—".
 fn sci(v: f64) -> String {
     if v.is_finite() {
-        format!("{v:.3e}")
+        format!("{:.3e}", Num(v))
     } else {
         "—".to_string()
     }
