@@ -1,8 +1,10 @@
 //! The fit report: a Markdown page a test engineer files with the unit's record, and the charts it links.
 //!
 //! [`FitReport::render_markdown`] renders the page; with the feature `plot`, `FitReport::write_to` writes, into one directory, `<unit>-fit-report.md` and the charts it links
-//! (`<unit>-error-vs-x.svg`: the error in x at each chamber set-point before and after correction;
-//! `<unit>-f32-error-map.svg`: the f32 correction against the f64 reference over code and temperature).
+//! (`<unit>-error-vs-x.svg`: the error in x at each chamber set-point before and after correction, the
+//! corrected points over the band of the fit's noise floor; `<unit>-f32-error-map.svg`: the f32 correction
+//! against the f64 reference over code and temperature, on the scale of `verify`'s ¼-LSB bound, with the
+//! worst error as a share of it).
 //! Without a serial the prefix is `unit`. Every file is built in memory first and written atomically.
 //!
 //! The page holds the unit, the date of the calibration, the data it came from, the model chosen and how,
@@ -92,7 +94,8 @@ impl FitReport<'_> {
             utc(self.calfile.created_unix_s),
             self.outcome.chosen.describe()
         );
-        let vs_x = figures::error_vs_x(cal, self.data, self.options.setpoint_gap_k, self.unit, &sub);
+        let floor = self.outcome.noise_floor_np;
+        let vs_x = figures::error_vs_x(cal, self.data, self.options.setpoint_gap_k, floor, self.unit, &sub);
         let map = figures::f32_error_map(cal, 96, 40, &sub)?;
         let charts = [
             (format!("{prefix}-error-vs-x.svg"), vs_x.title.clone(), plot::render_lines(&vs_x)?),

@@ -132,6 +132,56 @@ fn plot_draws_the_fixed_point_error_map_on_request() {
 }
 
 #[test]
+fn plot_draws_corrected_points_over_the_noise_floor_and_maps_against_the_bound() {
+    // The demo's units: one whose temperature is a raw NTC channel, one whose sensor reads °C.
+    let d = scratch("plot-floor");
+    let (code, _, err) = logtrim(&["demo", "--out-dir", d.to_str().unwrap(), "--validation", "200"]);
+    assert_eq!(code, 0, "{err}");
+    for name in ["photometer-ntc", "photometer-compensated"] {
+        let unit = d.join(name);
+        let out = unit.join("charts");
+        let arg = |f: &str| unit.join(f).to_str().unwrap().to_string();
+        let (code, stdout, err) = logtrim(&[
+            "plot",
+            &arg("coeffs.json"),
+            &arg("cal.csv"),
+            "-o",
+            &arg("charts"),
+            "--map-cells",
+            "24x8",
+        ]);
+        assert_eq!(code, 0, "{name}: {stdout}{err}");
+        let file = |suffix: &str| {
+            let f = std::fs::read_dir(&out)
+                .unwrap()
+                .map(|e| e.unwrap().path())
+                .find(|p| p.file_name().unwrap().to_str().unwrap().ends_with(suffix));
+            std::fs::read_to_string(f.unwrap_or_else(|| panic!("{name}: no *{suffix}"))).unwrap()
+        };
+        let svg = file("-error-vs-x.svg");
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let text: String = doc.descendants().filter_map(|n| n.text()).collect::<Vec<_>>().join("|");
+        // The band's legend says where the floor comes from: the fit's own noise, in the chart's unit.
+        let floor = CalFile::load(&unit.join("coeffs.json")).unwrap().fit.unwrap()["noise_floor_np"]
+            .as_f64()
+            .unwrap();
+        assert!(floor > 0.0);
+        assert!(
+            text.contains("noise floor ±σ/√n: σ = ") && text.contains("mNp from the unit's repeats (fit)"),
+            "{name}: {text}"
+        );
+        let bands = doc.descendants().filter(|n| n.has_tag_name("polygon")).count();
+        assert_eq!(bands, 1, "{name}: one shaded band");
+        let svg = file("-f32-error-map.svg");
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let said =
+            doc.descendants().filter_map(|n| n.text()).any(|t| t.contains("% of verify's 0.25-LSB bound"));
+        assert!(said, "{name}: the map's subtitle names the bound");
+    }
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
 fn budget_json_adds_up_and_bad_files_are_located() {
     let (code, stdout, stderr) = logtrim(&["budget", "--json", "--bits", "14", "--oversampling", "4"]);
     assert_eq!(code, 0, "{stderr}");
