@@ -4,7 +4,7 @@ mod common;
 
 use std::path::{Path, PathBuf};
 
-use common::{logtrim, scratch, write_preset};
+use common::{logtrim, logtrim_words, scratch, write_preset};
 use logtrim_host::calfile::CalFile;
 use logtrim_host::demo::fit_data;
 use logtrim_host::fit::{self, FitOptions};
@@ -288,26 +288,9 @@ fn budget_takes_the_design_that_simulate_reads() {
 fn budget_takes_the_sensor_file_the_other_verbs_read() {
     let d = scratch("budget-sensor");
     let sensor = d.join("ntc.json");
-    let (code, _, err) = logtrim(&[
-        "sensor",
-        "settings",
-        "--beta",
-        "3950",
-        "--r0",
-        "10k",
-        "--series",
-        "10k",
-        "--placement",
-        "low",
-        "--bits",
-        "12",
-        "--min",
-        "-40",
-        "--max",
-        "125",
-        "-o",
-        sensor.to_str().unwrap(),
-    ]);
+    let settings =
+        "sensor settings --beta 3950 --r0 10k --series 10k --placement low --bits 12 --min -40 --max 125";
+    let (code, _, err) = logtrim_words(settings, &["-o", sensor.to_str().unwrap()]);
     assert_eq!(code, 0, "{err}");
     let noise = |v: &serde_json::Value| v["spec"]["temperature"]["sensor_noise_k_rms"].as_f64().unwrap();
     // A digital design with the raw channel instead, and a raw-channel design with another channel.

@@ -50,11 +50,15 @@ impl Validators {
         Validators(v.into())
     }
 
+    /// What the schema `name` finds wrong with `value`, each with its place.
+    fn errors(&self, name: &str, value: &Value) -> Vec<String> {
+        let (_, v) = self.0.iter().find(|(n, _)| *n == name).expect("a schema of that name");
+        v.iter_errors(value).map(|e| format!("{} at {}", e, e.instance_path())).collect()
+    }
+
     /// Asserts that `value` (named `what` in the message) is valid against the schema `name`.
     fn check(&self, name: &str, value: &Value, what: &str) {
-        let (_, v) = self.0.iter().find(|(n, _)| *n == name).expect("a schema of that name");
-        let errors: Vec<String> =
-            v.iter_errors(value).map(|e| format!("{} at {}", e, e.instance_path())).collect();
+        let errors = self.errors(name, value);
         assert!(errors.is_empty(), "{what} against schemas/{name}.schema.json:\n{}", errors.join("\n"));
     }
 
@@ -110,27 +114,13 @@ fn a_key_the_readers_refuse_the_schemas_refuse() {
     let fe = root().join("examples/dyeline/frontend.json");
     let mut bad = read_json(&fe);
     bad["adc"]["bitz"] = 12.into();
-    let errors: Vec<String> =
-        v.0.iter()
-            .find(|(n, _)| *n == "frontend")
-            .unwrap()
-            .1
-            .iter_errors(&bad)
-            .map(|e| e.to_string())
-            .collect();
+    let errors = v.errors("frontend", &bad);
     assert!(errors.iter().any(|e| e.contains("bitz")), "{errors:?}");
     let e = logtrim_host::frontend::FrontEnd::from_json(&bad.to_string(), "fe.json").unwrap_err().to_string();
     assert!(e.contains("bitz"), "{e}");
     let mut bad = read_json(&root().join("fuzz/seeds/design_json/ntc.json"));
     bad["element"]["ntc_beta"]["beta"] = 3900.into();
-    let errors: Vec<String> =
-        v.0.iter()
-            .find(|(n, _)| *n == "sensor")
-            .unwrap()
-            .1
-            .iter_errors(&bad)
-            .map(|e| e.to_string())
-            .collect();
+    let errors = v.errors("sensor", &bad);
     assert!(errors.iter().any(|e| e.contains("beta")), "{errors:?}");
     assert!(logtrim_host::sensor_tool::settings_from_json(&bad.to_string(), "s.json").is_err());
 }
@@ -183,16 +173,8 @@ fn the_files_the_tool_writes_and_reads_validate_against_their_schemas() {
     assert_eq!(code, 0, "{out}{err}");
     v.check_file("population", &d.join("pop.json"));
     sim("2", &["--setpoints-at", "0,35,70"], "line");
-    let (code, out, err) = logtrim(&[
-        "fit",
-        &p("line/cal.csv"),
-        "--population",
-        &p("pop.json"),
-        "--sensor",
-        &p("ntc.json"),
-        "-o",
-        &p("units"),
-    ]);
+    let fit = format!("fit {} --population {} --sensor {}", p("line/cal.csv"), p("pop.json"), p("ntc.json"));
+    let (code, out, err) = logtrim_words(&fit, &["-o", &p("units")]);
     assert!(code == 0 || code == 3, "{out}{err}");
     let mut units = Vec::new();
     json_files(&d.join("units"), &mut units);

@@ -164,6 +164,16 @@ fn bad_figures_are_named() {
     assert!(s.compute().unwrap_err().to_string().starts_with("front_end.slope_drift_ppm_per_k = -30000"));
 }
 
+/// The `photometer-ntc` design, its raw channel and the channel's noise in codes.
+fn ntc_design() -> (FrontEnd, logtrim::sensor::TemperatureSensor, f64) {
+    let fe = preset("photometer-ntc").expect("preset");
+    let crate::frontend::TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor
+    else {
+        panic!("a raw channel")
+    };
+    (fe, sensor, noise_codes_rms)
+}
+
 #[test]
 fn a_figures_file_of_an_earlier_version_is_named_as_such() {
     let d = tempfile::tempdir().unwrap();
@@ -184,13 +194,9 @@ fn a_figures_file_of_an_earlier_version_is_named_as_such() {
 
 #[test]
 fn a_sensor_file_gives_the_same_figures_as_the_designs_own_raw_channel() {
-    use crate::frontend::TemperatureMeasurement;
     // The raw channel of the design, given as a sensor file to a design that reads its temperature digitally,
     // gives the same temperature noise as the design that has it.
-    let ntc = preset("photometer-ntc").expect("preset");
-    let TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = ntc.temperature_sensor else {
-        panic!("a raw channel")
-    };
+    let (ntc, sensor, noise_codes_rms) = ntc_design();
     let own = BudgetSpec::from_design(&ntc).unwrap();
     let given = BudgetSpec::from_design(&preset("photometer-compensated").unwrap())
         .unwrap()
@@ -260,10 +266,7 @@ fn a_designs_temperature_noise_comes_from_its_sensor() {
     assert!(within(s.temperature.sensor_noise_k_rms, want, 0.0, 1e-12));
     // A raw channel: noise and quantisation in codes at its coarsest resolution over the operating range,
     // found here from the firmware's own f64 conversion of neighbouring codes.
-    let fe = preset("photometer-ntc").expect("preset");
-    let TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor else {
-        panic!("a raw channel")
-    };
+    let (fe, sensor, noise_codes_rms) = ntc_design();
     let code = |t: f64| sensor.code_f64(t).unwrap().round() as u32;
     let (a, b) = (code(fe.operating.temp_min_c), code(fe.operating.temp_max_c));
     let coarsest = (a.min(b)..a.max(b))
