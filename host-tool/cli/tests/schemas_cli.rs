@@ -1,6 +1,6 @@
 //! The JSON Schemas in `schemas/` against the files the tool reads: every shipped example and every file the
 //! tool writes and reads back validates against its schema (with a validator from the registry, not one of
-//! ours), and every key a schema names is a key its type serialises, and the other way round.
+//! ours: boon), and every key a schema names is a key its type serialises, and the other way round.
 
 mod common;
 
@@ -31,29 +31,34 @@ fn schema(name: &str) -> Value {
 }
 
 /// Validators of every schema, with the schemas registered under their `$id` for the references between them.
-struct Validators(Vec<(&'static str, jsonschema::Validator)>);
+struct Validators(boon::Schemas, Vec<(&'static str, boon::SchemaIndex)>);
 
 impl Validators {
     fn new() -> Validators {
-        let mut registry = jsonschema::Registry::new();
+        let mut compiler = boon::Compiler::new();
         for name in SCHEMAS {
-            registry = registry.add(format!("{BASE}{name}.schema.json"), schema(name)).expect("registers");
+            compiler.add_resource(&format!("{BASE}{name}.schema.json"), schema(name)).expect("registers");
         }
-        let registry = registry.prepare().expect("the schemas' references resolve");
-        let v = SCHEMAS.map(|name| {
-            let validator = jsonschema::options()
-                .with_registry(&registry)
-                .build(&schema(name))
-                .unwrap_or_else(|e| panic!("schemas/{name}.schema.json: {e}"));
-            (name, validator)
-        });
-        Validators(v.into())
+        let mut schemas = boon::Schemas::new();
+        let index = SCHEMAS
+            .iter()
+            .map(|name| {
+                let i = compiler
+                    .compile(&format!("{BASE}{name}.schema.json"), &mut schemas)
+                    .unwrap_or_else(|e| panic!("schemas/{name}.schema.json: {e}"));
+                (*name, i)
+            })
+            .collect();
+        Validators(schemas, index)
     }
 
     /// What the schema `name` finds wrong with `value`, each with its place.
     fn errors(&self, name: &str, value: &Value) -> Vec<String> {
-        let (_, v) = self.0.iter().find(|(n, _)| *n == name).expect("a schema of that name");
-        v.iter_errors(value).map(|e| format!("{} at {}", e, e.instance_path())).collect()
+        let (_, i) = self.1.iter().find(|(n, _)| *n == name).expect("a schema of that name");
+        match self.0.validate(value, *i) {
+            Ok(()) => Vec::new(),
+            Err(e) => format!("{e}").lines().map(str::to_string).collect(),
+        }
     }
 
     /// Asserts that `value` (named `what` in the message) is valid against the schema `name`.
