@@ -47,6 +47,7 @@ use serde::{Deserialize, Serialize};
 use crate::calfile::CalFile;
 use crate::file_error::{parse_json, read_text, FileError};
 use crate::fit::FitOutcome;
+use crate::output::number::Num;
 
 /// The `format` of a limits file.
 pub const FORMAT: &str = "logtrim-acceptance";
@@ -291,7 +292,7 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
                 s.residual_ratio(),
                 format!(
                     "fit residual at {:.1} °C: its rows' errors are {:.2}x their noise, rms (rms error {:.3e} Np, rms noise {:.3e} Np; limit {limit:.2}x)",
-                    s.temp_c,
+                    Num(s.temp_c),
                     s.residual_ratio(),
                     s.rms_np,
                     s.noise_np
@@ -357,9 +358,11 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
             value: short,
             limit: 0.0,
             text: format!(
-                "temperature range: calibrated {t_lo:.2} … {t_hi:.2} °C, required {:.2} … {:.2} °C{}",
-                span.min,
-                span.max,
+                "temperature range: calibrated {:.2} … {:.2} °C, required {:.2} … {:.2} °C{}",
+                Num(t_lo),
+                Num(t_hi),
+                Num(span.min),
+                Num(span.max),
                 if short > 0.0 { format!(" ({short:.2} K short)") } else { String::new() }
             ),
         });
@@ -395,7 +398,7 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
             text: format!(
                 "lowest sensitivity {value:.3} of ideal at ratio {:.4e}, {:.1} °C (limit {limit:.3})",
                 at.0.exp(),
-                at.1
+                Num(at.1)
             ),
         });
     }
@@ -432,7 +435,7 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
 /// budget.
 fn population_check(p: &crate::fit::prior::PopulationFit) -> Check {
     let limit = p.threshold;
-    let scores: Vec<String> = p.scores.iter().map(|s| format!("{s:+.2}")).collect();
+    let scores: Vec<String> = p.scores.iter().map(|s| format!("{:+.2}", Num(*s))).collect();
     let why = match (p.distance2 <= p.threshold, p.own_distance2 <= p.own_threshold) {
         (true, true) => "",
         (false, true) => ": the unit's shape lies outside the population",

@@ -20,6 +20,7 @@ use logtrim::{Error, Unit};
 
 use crate::correct::RowValue;
 use crate::data::Readings;
+use crate::output::number::shortest;
 
 /// The column of the temperature the firmware read from a raw temperature channel, °C.
 pub const FIRMWARE_TEMP_COLUMN: &str = "firmware_temp_c";
@@ -152,17 +153,17 @@ impl<W: Write> ResultsWriter<W> {
                 rec.push_field(f);
             }
             let push_temp = |rec: &mut csv::ByteRecord, buf: &mut ryu::Buffer| match temp {
-                Some(t) if f32_digits => rec.push_field(buf.format(*t as f32).as_bytes()),
-                Some(t) => rec.push_field(buf.format(*t).as_bytes()),
+                Some(t) if f32_digits => rec.push_field(shortest(buf, *t as f32).as_bytes()),
+                Some(t) => rec.push_field(shortest(buf, *t).as_bytes()),
                 None => rec.push_field(b""),
             };
             match res {
                 Ok(r) => {
                     for v in r.units {
                         if r.f32_digits {
-                            rec.push_field(buf.format(v as f32).as_bytes());
+                            rec.push_field(shortest(buf, v as f32).as_bytes());
                         } else {
-                            rec.push_field(buf.format(v).as_bytes());
+                            rec.push_field(shortest(buf, v).as_bytes());
                         }
                     }
                     if raw {

@@ -601,7 +601,8 @@ pub fn write_summary(units: &[UnitResult], dir: &Path) -> Result<[PathBuf; 2], F
     let csv_path = dir.join("summary.csv");
     let json_path = dir.join("summary.json");
     let mut w = csv::Writer::from_writer(Vec::new());
-    let opt = |v: Option<f64>| v.map(|v| format!("{v:.6e}")).unwrap_or_default();
+    let opt =
+        |v: Option<f64>| v.map(|v| format!("{:.6e}", crate::output::number::Num(v))).unwrap_or_default();
     let head = [
         "serial",
         "source",

@@ -2,9 +2,12 @@
 //! their root-sum-square and their worst case, from a few figures of the design ([`BudgetSpec`]).
 //!
 //! A design is described once, as a front-end description ([`crate::frontend::FrontEnd`], the file that
-//! `simulate` reads): [`BudgetSpec::from_design`] takes the budget's figures from it. Before a design is
-//! described part by part, its figures can be given directly (a figures file of [`BudgetSpec`], whose every
-//! field has a default, or the `budget` verb's options).
+//! `simulate` reads, `schemas/frontend.schema.json`): [`BudgetSpec::from_design`] takes the budget's figures
+//! from it, and [`BudgetSpec::with_sensor`] those of a raw temperature channel from a sensor file (the file
+//! `fit --sensor` reads). The few figures a description does not hold (oversampling, the reference's drift,
+//! the temperature sensor's accuracy, readings averaged, the calibration temperature, the arithmetic's
+//! error) keep their defaults unless the caller sets them; there is no file of budget figures
+//! ([`read_design`] names an earlier version's figures file as such).
 //!
 //! # The law
 //!
@@ -26,7 +29,7 @@
 //! | arithmetic and tables | the figure given in LSB `· ∂x/∂code` | bound |
 //! | temperature sensor accuracy | `δT · |∂x/∂T|`, `∂x/∂T = −x·α·S_ref/S(T)` at a fixed code | bound |
 //! | temperature sensor noise | `σ_T/√M · |∂x/∂T|` (M readings averaged) | rms |
-//! | reference drift | `|V(x,T)/S(T)|·δ/(1+δ)`, `δ = drift·|T − T_cal|` (`|x|·δ/(1+δ)` with a ratiometric level shift) | bound |
+//! | reference drift | `|V(x,T)/S(T)|·δ/(1+δ)`, `δ = drift·|T − T_cal|` (the level shift is a voltage the reference does not scale) | bound |
 //!
 //! with `∂x/∂code = LSB/S(T)`. The root-sum-square treats the contributions as uncorrelated (common
 //! practice); the worst case adds them linearly. Each is given in nepers, in dB (10·log10 for power-like
@@ -49,16 +52,19 @@
 
 mod design;
 
-use serde::{Deserialize, Serialize};
+pub use design::read_design;
+
+use serde::Serialize;
+
+use crate::output::number::Num;
 
 /// ln 10.
 const LN10: f64 = std::f64::consts::LN_10;
 
-/// A design's figures. Every field has a default, so a file need only give what differs.
-#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+/// A design's figures ([`BudgetSpec::from_design`]; [`Default`] for a design not yet described).
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
 pub struct BudgetSpec {
-    /// Free text: what the design is, or what wrote the file (ignored by the budget).
+    /// Free text: which design the figures are of (ignored by the budget).
     #[serde(skip_serializing_if = "String::is_empty")]
     pub note: String,
     /// The log channel's converter.
@@ -74,8 +80,7 @@ pub struct BudgetSpec {
 }
 
 /// The log channel's converter.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct AdcSpec {
     /// Resolution, bits (1..=24).
     pub bits: u8,
@@ -94,29 +99,22 @@ impl Default for AdcSpec {
 }
 
 /// The converter's reference.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ReferenceSpec {
     /// Initial tolerance, as a fraction (removed by calibration).
     pub tolerance: f64,
     /// Drift not removed by calibration, ppm/K.
     pub drift_ppm_per_k: f64,
-    /// Whether the level shift V₀ is derived from the converter's own reference (a divider of it), so that a
-    /// reference error scales it together with the codes and only the log part `S·x` is misread; `false`
-    /// (the default) for a level shift from an independent voltage, which the reference error misreads
-    /// in full (see the reference drift's row in the module docs).
-    pub ratiometric_level_shift: bool,
 }
 
 impl Default for ReferenceSpec {
     fn default() -> Self {
-        ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 10.0, ratiometric_level_shift: false }
+        ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 10.0 }
     }
 }
 
 /// The front end's transfer `V = V₀ + S(T)·x`.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FrontEndSpec {
     /// Slope at `slope_at_c`, V per decade of ratio.
     pub slope_v_per_decade: f64,
@@ -146,8 +144,7 @@ impl Default for FrontEndSpec {
 }
 
 /// The temperature range and the temperature sensor.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TemperatureSpec {
     /// Lowest operating temperature, °C.
     pub min_c: f64,
@@ -177,8 +174,7 @@ impl Default for TemperatureSpec {
 }
 
 /// The firmware's arithmetic and tables.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(default, deny_unknown_fields)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ArithmeticSpec {
     /// Largest error of the correction's arithmetic and table interpolation, LSB. The default ¼ LSB is
     /// the project's own target for the fixed-point path; give the figure its verification measured.
@@ -195,15 +191,35 @@ impl Default for ArithmeticSpec {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum BudgetError {
-    /// The file could not be read, or is not well-formed JSON of a budget.
+    /// The design's file could not be read, or is not well-formed JSON.
     #[error(transparent)]
     File(#[from] crate::file_error::FileError),
+    /// The file is a figures file of an earlier version, which `budget` no longer reads.
+    #[error(
+        "{path}: the key `{key}` is of a budget figures file, which logtrim no longer reads; expected the \
+         design's front-end description (the file `simulate --frontend` reads and `simulate --write-preset` \
+         writes, schemas/frontend.schema.json); give the figures it does not describe as options \
+         (--oversampling, --ref-drift-ppm, --sensor-accuracy, --readings-averaged, --arithmetic-lsb)"
+    )]
+    FiguresFile {
+        /// The file.
+        path: String,
+        /// The first key of the figures file found in it.
+        key: String,
+    },
     /// The design description does not validate.
     #[error(transparent)]
     Design(#[from] crate::frontend::FrontEndError),
     /// The design's raw temperature channel gives no code somewhere over its operating range.
-    #[error("the design's temperature channel: {0}; expected a channel that reads over the operating range")]
-    DesignSensor(logtrim::Error),
+    #[error(
+        "the temperature channel at {at_c} °C: {error}; expected a channel that reads over the operating range"
+    )]
+    DesignSensor {
+        /// The temperature it cannot read, °C.
+        at_c: f64,
+        /// firmware-lib's verdict.
+        error: logtrim::Error,
+    },
     /// A figure is outside what the budget can use.
     #[error("{field} = {value}: expected {expected}")]
     Invalid {
@@ -296,21 +312,6 @@ pub struct Budget {
 }
 
 impl BudgetSpec {
-    /// Parses a spec from JSON text (checked by [`BudgetSpec::compute`]); `path` only names the source in errors.
-    pub fn from_json(text: &str, path: &str) -> Result<BudgetSpec, BudgetError> {
-        Ok(crate::file_error::parse_json(text, path)?)
-    }
-
-    /// Reads a spec from a JSON file.
-    pub fn load(path: &std::path::Path) -> Result<BudgetSpec, BudgetError> {
-        BudgetSpec::from_json(&crate::file_error::read_text(path)?, &path.display().to_string())
-    }
-
-    /// The spec as pretty JSON with a trailing newline.
-    pub fn to_json(&self) -> String {
-        crate::file_error::to_json_line(self)
-    }
-
     /// Checks every figure.
     pub fn validate(&self) -> Result<(), BudgetError> {
         let bad = |field, value: f64, expected| Err(BudgetError::Invalid { field, value, expected });
@@ -419,11 +420,9 @@ impl BudgetSpec {
     }
 
     /// The ideal law's (fractional) code at x and `t_c`, with the reference off nominal by the fraction
-    /// `delta` (the level shift scales with it only when it is ratiometric).
+    /// `delta` (the level shift is a voltage of its own, which the reference does not scale).
     pub fn code(&self, x: f64, t_c: f64, delta: f64) -> f64 {
-        let v0 =
-            self.front_end.zero_v * if self.reference.ratiometric_level_shift { 1.0 + delta } else { 1.0 };
-        (v0 + self.slope_v_per_np(t_c) * x) / (self.lsb_v() * (1.0 + delta))
+        (self.front_end.zero_v + self.slope_v_per_np(t_c) * x) / (self.lsb_v() * (1.0 + delta))
     }
 
     /// The firmware's reading of a code at the temperature it measured: the ideal law inverted with nominal
@@ -462,7 +461,7 @@ impl BudgetSpec {
         let a = &self.adc;
         let n = f64::from(a.oversampling);
         let m = f64::from(t.readings_averaged);
-        let at = |x: f64, tc: f64| format!("x = {x:.3} Np (ratio {:.3e}), {tc} °C", x.exp());
+        let at = |x: f64, tc: f64| format!("x = {:.3} Np (ratio {:.3e}), {tc} °C", Num(x), x.exp());
         let at_t = |tc: f64| format!("{tc} °C (smallest slope)");
         // ∂x/∂code is largest where the slope is smallest: at one end of the range (S is linear in T).
         let (t_code, dxdc) = [t.min_c, t.max_c]
@@ -556,12 +555,8 @@ impl BudgetSpec {
             )
         });
         assumptions.push(format!(
-            "reference drift counted from {t_cal} °C; the level shift is {}",
-            if self.reference.ratiometric_level_shift {
-                "ratiometric (only the log part scales)"
-            } else {
-                "absolute (it scales with the reference)"
-            }
+            "reference drift counted from {t_cal} °C; the level shift is a voltage of its own, which a reference \
+             error misreads in full"
         ));
         Ok(Budget {
             generator: format!("logtrim {} budget", env!("CARGO_PKG_VERSION")),
@@ -633,10 +628,10 @@ impl Budget {
                 name,
                 kind,
                 lsb,
-                z.np,
-                z.db_10log10,
-                z.db_20log10,
-                z.pct_of_ratio,
+                Num(z.np),
+                Num(z.db_10log10),
+                Num(z.db_20log10),
+                Num(z.pct_of_ratio),
                 extra(z.np),
                 at
             );

@@ -68,7 +68,7 @@ pub fn load_json<T: DeserializeOwned>(path: &Path) -> Result<T, FileError> {
 /// Pretty JSON of plain data, with a trailing newline.
 pub fn to_json_line<T: serde::Serialize>(value: &T) -> String {
     // Plain data with string keys: serialising cannot fail.
-    let mut s = serde_json::to_string_pretty(value).unwrap_or_default();
+    let mut s = crate::output::number::to_json_pretty(value).unwrap_or_default();
     s.push('\n');
     s
 }

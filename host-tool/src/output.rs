@@ -36,6 +36,10 @@
 //! A batch that writes thousands of files renames without waiting for the disk
 //! ([`AtomicFile::commit_deferred`]) and flushes the whole file system once at the end
 //! ([`sync_all_deferred`]).
+//!
+//! How a number is printed in any of them (no negative zeros) is [`number`]'s.
+
+pub mod number;
 
 use std::fmt;
 use std::fs::{File, OpenOptions};

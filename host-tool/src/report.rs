@@ -1,8 +1,10 @@
 //! The fit report: a Markdown page a test engineer files with the unit's record, and the charts it links.
 //!
 //! [`FitReport::render_markdown`] renders the page; with the feature `plot`, `FitReport::write_to` writes, into one directory, `<unit>-fit-report.md` and the charts it links
-//! (`<unit>-error-vs-x.svg`: the error in x at each chamber set-point before and after correction;
-//! `<unit>-f32-error-map.svg`: the f32 correction against the f64 reference over code and temperature).
+//! (`<unit>-error-vs-x.svg`: the error in x at each chamber set-point before and after correction, the
+//! corrected points over the band of the fit's noise floor; `<unit>-f32-error-map.svg`: the f32 correction
+//! against the f64 reference over code and temperature, on the scale of `verify`'s ¼-LSB bound, with the
+//! worst error as a share of it).
 //! Without a serial the prefix is `unit`. Every file is built in memory first and written atomically.
 //!
 //! The page holds the unit, the date of the calibration, the data it came from, the model chosen and how,
@@ -17,6 +19,7 @@ use std::path::{Path, PathBuf};
 use crate::calfile::CalFile;
 use crate::error_scale::{db_power, ErrorScale};
 use crate::fit::{FitData, FitOptions, FitOutcome};
+use crate::output::number::Num;
 #[cfg(feature = "plot")]
 use crate::plot::{self, figures, PlotError};
 
@@ -91,7 +94,8 @@ impl FitReport<'_> {
             utc(self.calfile.created_unix_s),
             self.outcome.chosen.describe()
         );
-        let vs_x = figures::error_vs_x(cal, self.data, self.options.setpoint_gap_k, self.unit, &sub);
+        let floor = self.outcome.noise_floor_np;
+        let vs_x = figures::error_vs_x(cal, self.data, self.options.setpoint_gap_k, floor, self.unit, &sub);
         let map = figures::f32_error_map(cal, 96, 40, &sub)?;
         let charts = [
             (format!("{prefix}-error-vs-x.svg"), vs_x.title.clone(), plot::render_lines(&vs_x)?),
@@ -188,7 +192,7 @@ impl FitReport<'_> {
             let _ = writeln!(
                 s,
                 "| {:.2} | {} | {} | {} | {} | {} | {} |",
-                p.temp_c,
+                Num(p.temp_c),
                 p.rows,
                 p.refused,
                 sci(p.rms_np),
@@ -252,10 +256,15 @@ impl FitReport<'_> {
         let xr = &cal.x_range;
         let (xmin, xmax) = (f64::from(xr.min), f64::from(xr.max));
         let _ = writeln!(s, "| quantity | from | to |\n|---|---:|---:|");
-        let _ = writeln!(s, "| temperature [°C] | {:.2} | {:.2} |", t.min_c, t.max_c);
-        let _ = writeln!(s, "| x = ln ratio [Np] | {:.4} | {:.4} |", xmin, xmax);
+        let _ = writeln!(s, "| temperature [°C] | {:.2} | {:.2} |", Num::from(t.min_c), Num::from(t.max_c));
+        let _ = writeln!(s, "| x = ln ratio [Np] | {:.4} | {:.4} |", Num(xmin), Num(xmax));
         let _ = writeln!(s, "| ratio I_sig/I_ref | {:.4e} | {:.4e} |", xmin.exp(), xmax.exp());
-        let _ = writeln!(s, "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n", db_power(xmin), db_power(xmax));
+        let _ = writeln!(
+            s,
+            "| ratio [dB, 10·log10] | {:.3} | {:.3} |\n",
+            Num(db_power(xmin)),
+            Num(db_power(xmax))
+        );
         if t.extrapolation_k > 0.0 {
             let _ = write!(
                 s,
@@ -304,7 +313,7 @@ fn terms(n: usize) -> String {
 /// A figure in 3-significant-digit scientific notation; a missing figure as "—".
 fn sci(v: f64) -> String {
     if v.is_finite() {
-        format!("{v:.3e}")
+        format!("{:.3e}", Num(v))
     } else {
         "—".to_string()
     }

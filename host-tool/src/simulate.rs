@@ -821,7 +821,7 @@ impl Simulation {
             m["rows"]["blank"] = serde_json::json!(self.blank.len());
             m["field_temp_c"] = serde_json::json!(field_temp_c(&self.nominal));
         }
-        let mut s = serde_json::to_string_pretty(&m).unwrap_or_default();
+        let mut s = crate::output::number::to_json_pretty(&m).unwrap_or_default();
         s.push('\n');
         s
     }
@@ -832,7 +832,7 @@ impl Simulation {
             "generator": format!("logtrim {} simulate — generated file, do not edit", env!("CARGO_PKG_VERSION")),
             "units": self.units,
         });
-        let mut s = serde_json::to_string_pretty(&m).unwrap_or_default();
+        let mut s = crate::output::number::to_json_pretty(&m).unwrap_or_default();
         s.push('\n');
         s
     }

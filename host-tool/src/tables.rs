@@ -301,6 +301,33 @@ pub fn fit_spline(segments: usize, positions: &[f64], values: &[f64]) -> Result<
     Ok(c.iter().copied().collect())
 }
 
+/// Weight of the continuation row of [`fit_spline_continued`] against the data rows (whose basis values
+/// are at most 2/3): small enough to leave a well-determined fit as it is.
+const CONTINUATION_WEIGHT: f64 = 1e-3;
+
+/// [`fit_spline`] for samples that end inside the last segment: the last segment's own control point is
+/// then seen only through the small basis weights near its start (`t³/6`, or not at all when the samples
+/// end at its start), and least squares alone throws it far off (a raw channel's table whose span is just
+/// past a multiple of its step: −16 054 °C for a 10 kΩ NTC at 32 segments). One weighted row asks that the
+/// last two segments be one cubic (the third difference of the last four control points is zero): the
+/// curve's natural continuation past the data, which the firmware never evaluates.
+fn fit_spline_continued(segments: usize, positions: &[f64], values: &[f64]) -> Result<Vec<f64>, TableError> {
+    let n = segments + 3;
+    let mut a = design(segments, positions).insert_row(positions.len(), 0.0);
+    let row = positions.len();
+    for (k, w) in [(n - 4, -1.0), (n - 3, 3.0), (n - 2, -3.0), (n - 1, 1.0)] {
+        a[(row, k)] = w * CONTINUATION_WEIGHT;
+    }
+    let qr = a.qr();
+    let mut b = DMatrix::from_column_slice(values.len(), 1, values).insert_row(values.len(), 0.0);
+    b = qr.q().transpose() * b;
+    let c = qr.r().solve_upper_triangular(&b).ok_or_else(|| TableError::Model {
+        what: "spline fit",
+        detail: format!("{} samples do not determine {n} control points", positions.len()),
+    })?;
+    Ok(c.iter().copied().collect())
+}
+
 /// The largest number of fraction bits ≤ `max_frac` at which every value, and `extra` more, fits in
 /// `limit` (a magnitude), or an error naming the table.
 fn choose_frac(
@@ -741,8 +768,26 @@ fn sensor_table(ch: &TemperatureChannel<'_>, max_segments: usize) -> Result<Sens
         }
         code += stride;
     }
-    let c = fit_spline(segments, &pos, &val)?;
-    let knots = to_i32("sensor temperature", &c, THETA_PER_C / 6.0)?;
+    let c = fit_spline_continued(segments, &pos, &val)?;
+    let knots = to_i32("sensor temperature", &c, THETA_PER_C / 6.0).map_err(|_| {
+        // Name the segment and the value; the step is the choice the user has.
+        let (k, v) = c
+            .iter()
+            .enumerate()
+            .find(|(_, v)| !((*v * THETA_PER_C / 6.0).abs() <= f64::from(i32::MAX)))
+            .map_or((0, f64::NAN), |(k, v)| (k, *v));
+        let seg = k.saturating_sub(3).min(segments - 1) as u64;
+        let first = u64::from(code_lo) + (seg << step_log2);
+        TableError::Sensor(format!(
+            "control point {k} of the table ({segments} segments of {step} codes), near codes {first} … {}, is \
+             {v:.1} °C, beyond the ±{:.0} °C its integer format holds; choose another sensor_segments (a \
+             step of {} or {} codes)",
+            (first + step).min(u64::from(code_hi)),
+            f64::from(i32::MAX) / THETA_PER_C * 6.0,
+            step / 2,
+            step * 2
+        ))
+    })?;
     Ok(SensorTableOwned {
         code_lo,
         code_hi,

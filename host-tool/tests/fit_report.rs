@@ -199,3 +199,17 @@ fn written_report_links_charts_that_exist() {
     }
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+#[test]
+fn a_set_point_just_below_zero_prints_without_a_sign() {
+    // A chamber set-point at 0 °C whose mean reading is a hair below it: "-0.00 °C" before the tool had one
+    // home for its figures.
+    let mut f = Fixture::bent();
+    f.outcome.setpoints[1].temp_c = -0.002;
+    let md = f.report("chamber.csv").render_markdown(&[]);
+    assert!(md.contains("| 0.00 | 123 |"), "{md}");
+    let text = logtrim_host::fit::render_report(&f.outcome);
+    let line = text.lines().find(|l| l.contains("0.00 °C")).unwrap_or_else(|| panic!("{text}"));
+    assert!(line.trim_start().starts_with("0.00 °C"), "{line}");
+    assert!(!md.contains("-0.00") && !text.contains("-0.00"), "{md}\n{text}");
+}

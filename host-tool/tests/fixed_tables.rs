@@ -87,6 +87,45 @@ fn raw_temperature_channel_meets_a_quarter_lsb_sampled() {
     }
 }
 
+/// A sensor table of any number of segments builds (a span just past a multiple of the step left the last
+/// segment's own control point to a few samples near its start, which least squares threw to −16 054 °C, past
+/// the integer format), and reads the channel as the firmware would: the `photometer-ntc` preset's channel,
+/// the one the table was refused for at 32 segments.
+#[test]
+fn a_sensor_table_of_any_size_builds_and_reads_its_channel() {
+    let sensor = logtrim_host::frontend::preset("photometer-ntc").unwrap().firmware_sensor().unwrap();
+    let max = sensor.divider.max_code().unwrap();
+    let celsius = |c: u32| sensor.celsius_f64(c);
+    let channel = TemperatureChannel { codes: 0..=max, celsius: &celsius };
+    let cal = units::ideal();
+    // (segments asked for, the step in codes they give over this channel's span of 148..=3991)
+    let mut by_step: Vec<(usize, f64)> = Vec::new();
+    for segments in [8, 12, 16, 24, 31, 32, 33, 48, 64, 96, 128] {
+        let opts = TableOptions { sensor_segments: segments, ..Default::default() };
+        let t =
+            tables::build(&cal, Some(&channel), &opts).unwrap_or_else(|e| panic!("{segments} segments: {e}"));
+        let s = t.sensor.as_ref().unwrap();
+        // The table against the sensor's f64 curve at every code of its span, in K.
+        let worst = (s.code_lo..=s.code_hi)
+            .map(|c| {
+                let got = f64::from(t.view().theta_from_code(c).unwrap()) / 1024.0 / 1000.0;
+                (got - celsius(c).unwrap()).abs()
+            })
+            .fold(0.0, f64::max);
+        eprintln!("{segments} segments: step 2^{}, worst {worst:.4} K", s.step_log2);
+        assert!(worst.is_finite(), "{segments} segments");
+        by_step.push((usize::from(s.step_log2), worst));
+    }
+    // A cubic spline's error falls steeply with its knot spacing (as its fourth power for a smooth curve,
+    // common practice, from memory): at least threefold each time the step halves. A wild control point at
+    // the end of the span would not fall.
+    by_step.dedup_by_key(|p| p.0);
+    for w in by_step.windows(2) {
+        assert_eq!(w[0].0, w[1].0 + 1, "{by_step:?}");
+        assert!(w[1].1 * 3.0 < w[0].1, "step 2^{} → 2^{}: {by_step:?}", w[0].0, w[1].0);
+    }
+}
+
 /// Every extreme input on real tables: no panic, no wrap (overflow checks are on), and the same status as
 /// the reference wherever the reference's status is not at an edge.
 #[test]

@@ -200,7 +200,34 @@ fn heat_map_of_the_f32_error_over_code_and_temperature() {
         "temperature [°C]",
         "error of f32 [LSB]",
     ];
-    heat_map_svg(&map, "heat_map.svg", (nx * ny, valued), (&texts, |s, want| s == want), |_, _| {});
+    // On the scale of the ¼-LSB bound that `verify` holds the paths to (the project's target, common to
+    // both paths): the subtitle gives the worst error as its share, and the colour bar ends at ±0.25 LSB.
+    assert_eq!(map.scale, ColourScale::DivergingAtLeast(0.25));
+    let worst = g.finite_range().map(|(lo, hi)| lo.abs().max(hi.abs())).unwrap();
+    assert!(map.subtitle.contains("% of verify's 0.25-LSB bound (scale ±0.25 LSB)"), "{}", map.subtitle);
+    assert!(map.subtitle.contains(&format!("{:.2} %", 100.0 * worst / 0.25)), "{}", map.subtitle);
+    heat_map_svg(&map, "heat_map.svg", (nx * ny, valued), (&texts, |s, want| s == want), |doc, t| {
+        assert!(
+            t.iter().any(|s| s == "0.25") && t.iter().any(|s| s == "-0.25"),
+            "the bound on the bar: {t:?}"
+        );
+        // Errors far inside the bound are drawn in (nearly) the middle colour of the scale, not stretched
+        // to the colour scale's ends.
+        let middle = scale_colour(&DIVERGING, 0.5);
+        let near = |f: &str| {
+            let c = |k: usize| i32::from_str_radix(&f[1 + 2 * k..3 + 2 * k], 16).unwrap_or(-99);
+            (c(0) - i32::from(middle.0)).abs() <= 4
+                && (c(1) - i32::from(middle.1)).abs() <= 4
+                && (c(2) - i32::from(middle.2)).abs() <= 4
+        };
+        let cells = doc
+            .descendants()
+            .filter(|n| n.has_tag_name("rect"))
+            .filter_map(|n| n.attribute("fill"))
+            .filter(|f| f.len() == 7 && near(f))
+            .count();
+        assert!(cells >= valued, "{cells} cells near the middle colour of {valued} with a value");
+    });
 }
 
 #[test]
@@ -304,11 +331,20 @@ fn fitted_photometer() -> (Calibration, FitData, Vec<ValidationPoint>) {
 #[test]
 fn charts_of_a_fitted_unit() {
     let (cal, data, val) = fitted_photometer();
-    let fig = figures::error_vs_x(&cal, &data, 2.0, ErrorScale::MilliNp, "simulated photometer");
+    let fig = figures::error_vs_x(&cal, &data, 2.0, Some(4e-4), ErrorScale::MilliNp, "simulated photometer");
     assert_eq!(fig.panels.len(), 2);
     let after = &fig.panels[1];
-    assert_eq!(after.series.len(), 4, "one series per set-point");
-    for s in &after.series {
+    assert_eq!(after.series.len(), 5, "one series per set-point and the noise floor's band");
+    let (band, after_points) = after.series.split_last().unwrap();
+    assert_eq!(band.style, Style::Band);
+    assert!(
+        band.label.starts_with("noise floor ±σ/√n: σ = 0.4 mNp from the unit's repeats (fit), n = "),
+        "{}",
+        band.label
+    );
+    for s in after_points {
+        // Noisy points are points: nothing joins them.
+        assert_eq!(s.style, Style::Markers, "{}", s.label);
         // One point per ratio (repeats averaged); a refused ratio at an end leaves a point out.
         assert!((12..=15).contains(&s.points.len()), "{}: {} points", s.label, s.points.len());
         // After correction the error is near the noise (0.7 LSB over ~1800 codes/Np: under 1 mNp).
@@ -324,9 +360,24 @@ fn charts_of_a_fitted_unit() {
     for s in &after.series {
         assert_eq!(t.iter().filter(|x| **x == s.label).count(), 1, "legend entry {}", s.label);
     }
-    for k in 0..4 {
-        assert_eq!(count_coloured(&doc, "polyline", "stroke", &hex(series_colour(k))), 3);
+    for (k, s) in after_points.iter().enumerate() {
+        // A line in the "before" panel and the legend's swatch; none after correction.
+        assert_eq!(count_coloured(&doc, "polyline", "stroke", &hex(series_colour(k))), 2, "{}", s.label);
+        // A marker at every point in both panels, and the legend's.
+        let before_points = fig.panels[0].series[k].points.len();
+        let markers = count_coloured(&doc, "circle", "fill", &hex(series_colour(k)));
+        assert_eq!(markers, before_points + s.points.len() + 1, "{}", s.label);
     }
+    // The band: one shaded polygon in the panel (its four corners at ±σ/√n) and the legend's swatch.
+    let grey = |n: &roxmltree::Node| n.attribute("fill").is_some_and(|f| f.eq_ignore_ascii_case("#969696"));
+    let polygons: Vec<_> = doc.descendants().filter(|n| n.has_tag_name("polygon") && grey(n)).collect();
+    assert_eq!(polygons.len(), 1, "the band");
+    assert_eq!(polygons[0].attribute("points").unwrap().split_whitespace().count(), 4);
+    assert_eq!(
+        doc.descendants().filter(|n| n.has_tag_name("rect") && grey(n)).count(),
+        1,
+        "its legend swatch"
+    );
 
     let fig = figures::error_vs_temperature(&cal, &val, 10, ErrorScale::DbPower, "validation");
     let after = &fig.panels[1];

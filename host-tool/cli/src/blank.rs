@@ -5,6 +5,7 @@ use std::path::PathBuf;
 use clap::Args;
 use logtrim::Unit;
 use logtrim_host::calfile::CalFile;
+use logtrim_host::output::number::Num;
 
 use crate::trim::{stored_crc, unit_readings, RecordArgs};
 use crate::Failure;
@@ -43,11 +44,11 @@ pub fn run(args: BlankArgs) -> Result<(), Failure> {
     let x = b.x;
     say!(
         "  x = {:+.6} Np (f32 path), {:+.6} Np (fixed path): ratio {:.6}, {:+.4} dB (power), {:+.5} AU",
-        x,
-        logtrim_host::correct::x_of_q24(b.x_q24),
+        Num::from(x),
+        Num(logtrim_host::correct::x_of_q24(b.x_q24)),
         Unit::Ratio.from_x(x),
-        Unit::DbPower.from_x(x),
-        Unit::Absorbance.from_x(x)
+        Num::from(Unit::DbPower.from_x(x)),
+        Num::from(Unit::Absorbance.from_x(x))
     );
     logtrim_host::output::write_atomic(&args.output, &out.bytes)
         .map_err(|e| Failure::input(format!("{}: {e}", args.output.display())))?;

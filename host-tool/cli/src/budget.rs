@@ -1,35 +1,38 @@
 //! `logtrim budget`: the error budget of a design, from its front-end description (the file `simulate`
-//! reads) or a JSON file of its figures, and/or options.
+//! reads), the sensor file the other verbs read, and options.
 
 use std::path::PathBuf;
 
 use clap::Args;
-use logtrim_host::budget::BudgetSpec;
-use logtrim_host::frontend::{preset, FrontEnd, PRESETS};
+use logtrim_host::budget::{read_design, BudgetSpec};
+use logtrim_host::frontend::{preset, TemperatureMeasurement, PRESETS};
+use logtrim_host::sensor_tool::load_settings;
 
 use crate::values::{real, Span, CELSIUS, RATIO};
 use crate::Failure;
 
-/// Options of `logtrim budget`. Options override the figures of the design or the file; figures given by
-/// none take their defaults (see --write-spec for a file holding every figure).
+/// Options of `logtrim budget`. The design's front-end description (a file or a preset) gives the figures
+/// it describes; --sensor gives a raw temperature channel's; options override both; figures given by none
+/// take their defaults (--json lists every figure used).
 ///
 /// The budget uses the ideal log-ratio law (slope ∝ absolute temperature unless --slope-drift-ppm is
 /// given). The reference's tolerance is taken as removed by calibration and its drift as not; the
 /// temperature sensor's accuracy is the part a calibration with the same sensor does not absorb.
 #[derive(Args, Debug)]
 pub struct BudgetArgs {
-    /// The design's figures as JSON (every field optional): adc, reference, front_end, temperature,
-    /// arithmetic.
-    #[arg(value_name = "FIGURES.json", conflicts_with_all = ["design", "preset"])]
-    spec: Option<PathBuf>,
     /// The design's front-end description (the JSON file `logtrim simulate --frontend` reads and
-    /// --write-preset writes): its converter, slope law, level shift, ranges and temperature sensor's noise
-    /// give the budget's figures.
-    #[arg(long, value_name = "FRONTEND.json", conflicts_with = "preset")]
+    /// --write-preset writes, schemas/frontend.schema.json): its converter, slope law, level shift, ranges
+    /// and temperature sensor's noise give the budget's figures.
+    #[arg(value_name = "FRONTEND.json", conflicts_with = "preset")]
     design: Option<PathBuf>,
     /// A built-in front end's description as the design (see `logtrim simulate --list-presets`).
     #[arg(long, value_name = "NAME")]
     preset: Option<String>,
+    /// A raw temperature channel's description (the SENSOR.json `fit --sensor` reads, `logtrim sensor
+    /// settings` writes): the temperature noise becomes its quantisation at its coarsest K per code over the
+    /// range, with the design's raw-channel noise in codes if it has one (else quantisation alone).
+    #[arg(long, value_name = "SENSOR.json")]
+    sensor: Option<PathBuf>,
     /// ADC resolution, bits.
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u8).range(1..=24))]
     bits: Option<u8>,
@@ -48,10 +51,6 @@ pub struct BudgetArgs {
     /// Reference drift that calibration does not remove, ppm/K.
     #[arg(long, value_name = "PPM_PER_K", value_parser = real(Span::closed(0.0, 1e5)))]
     ref_drift_ppm: Option<f64>,
-    /// The level shift is derived from the converter's reference (a divider of it): a reference error then
-    /// misreads only the log part.
-    #[arg(long)]
-    ratiometric_level_shift: bool,
     /// The front end's slope, V per decade of ratio, at --slope-at.
     #[arg(long, value_name = "V", value_parser = real(Span::closed(1e-6, 1000.0)))]
     slope: Option<f64>,
@@ -79,9 +78,16 @@ pub struct BudgetArgs {
     /// Temperature sensor error that calibration does not absorb, K.
     #[arg(long, value_name = "K", value_parser = real(Span::closed(0.0, 1000.0)))]
     sensor_accuracy: Option<f64>,
-    /// Temperature sensor noise per reading, K rms.
+    /// Temperature sensor noise per reading, K rms (overrides the design's and --sensor's).
     #[arg(long, value_name = "K", value_parser = real(Span::closed(0.0, 1000.0)))]
     sensor_noise: Option<f64>,
+    /// Temperature readings averaged per corrected reading (M).
+    #[arg(long, value_name = "M", value_parser = clap::value_parser!(u32).range(1..=1 << 24))]
+    readings_averaged: Option<u32>,
+    /// The calibration temperature the reference drift is counted from, °C [default: the middle of the
+    /// range].
+    #[arg(long, value_name = "C", allow_negative_numbers = true, value_parser = real(CELSIUS))]
+    calibration_t: Option<f64>,
     /// Error of the firmware's arithmetic and table interpolation, LSB (default 0.25).
     #[arg(long, value_name = "LSB", value_parser = real(Span::closed(0.0, 1e6)))]
     arithmetic_lsb: Option<f64>,
@@ -92,21 +98,12 @@ pub struct BudgetArgs {
     /// mau (milli-absorbance units). Text table only.
     #[arg(long, value_name = "UNIT", value_parser = crate::plot::parse_unit, conflicts_with = "json")]
     error_unit: Option<logtrim_host::error_scale::ErrorScale>,
-    /// Write the figures used (file, options and defaults together) to FILE as JSON, to start a design
-    /// file from.
-    #[arg(long, value_name = "FILE")]
-    write_spec: Option<PathBuf>,
 }
 
 /// Runs the verb.
 pub fn run(args: BudgetArgs) -> Result<(), Failure> {
-    crate::check_outputs(
-        &[args.spec.as_deref(), args.design.as_deref()],
-        &[args.write_spec.as_deref()],
-        &[],
-    )?;
     let design = match (&args.design, &args.preset) {
-        (Some(p), _) => Some(FrontEnd::load(p).map_err(Failure::input)?),
+        (Some(p), _) => Some(read_design(p).map_err(Failure::input)?),
         (None, Some(name)) => Some(preset(name).ok_or_else(|| {
             let names: Vec<&str> = PRESETS.iter().map(|p| p.name).collect();
             Failure::input(format!(
@@ -116,10 +113,13 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
         })?),
         (None, None) => None,
     };
-    let mut s = match (&args.spec, &design) {
-        (Some(p), _) => BudgetSpec::load(p).map_err(Failure::input)?,
-        (None, Some(fe)) => BudgetSpec::from_design(fe).map_err(Failure::input)?,
-        (None, None) => BudgetSpec::default(),
+    let sensor = match &args.sensor {
+        Some(p) => Some(load_settings(p).map_err(Failure::input)?),
+        None => None,
+    };
+    let mut s = match &design {
+        Some(fe) => BudgetSpec::from_design(fe).map_err(Failure::input)?,
+        None => BudgetSpec::default(),
     };
     let set = |slot: &mut f64, v: Option<f64>| {
         if let Some(v) = v {
@@ -136,9 +136,6 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
     }
     set(&mut s.reference.tolerance, args.ref_tolerance);
     set(&mut s.reference.drift_ppm_per_k, args.ref_drift_ppm);
-    if args.ratiometric_level_shift {
-        s.reference.ratiometric_level_shift = true;
-    }
     set(&mut s.front_end.slope_v_per_decade, args.slope);
     set(&mut s.front_end.slope_at_c, args.slope_at);
     if args.slope_drift_ppm.is_some() {
@@ -150,29 +147,36 @@ pub fn run(args: BudgetArgs) -> Result<(), Failure> {
     set(&mut s.temperature.min_c, args.t_min);
     set(&mut s.temperature.max_c, args.t_max);
     set(&mut s.temperature.sensor_accuracy_k, args.sensor_accuracy);
-    set(&mut s.temperature.sensor_noise_k_rms, args.sensor_noise);
+    if let Some(m) = args.readings_averaged {
+        s.temperature.readings_averaged = m;
+    }
+    if args.calibration_t.is_some() {
+        s.temperature.calibration_c = args.calibration_t;
+    }
     set(&mut s.arithmetic.error_lsb, args.arithmetic_lsb);
-    let source = match (&args.spec, &args.design, &args.preset) {
-        (Some(p), _, _) | (None, Some(p), _) => Some(p.display().to_string()),
-        (None, None, Some(name)) => Some(format!("preset {name}")),
-        (None, None, None) => None,
+    let source = match (&args.design, &args.preset) {
+        (Some(p), _) => Some(p.display().to_string()),
+        (None, Some(name)) => Some(format!("preset {name}")),
+        (None, None) => None,
     };
-    let budget = s.compute().map_err(|e| match &source {
+    let with_source = |e: logtrim_host::budget::BudgetError| match &source {
         Some(src) => Failure::input(format!("{src} (with the options given): {e}")),
         None => Failure::input(e),
-    })?;
-    if let Some(path) = &args.write_spec {
-        let mut written = s.clone();
-        if written.note.is_empty() {
-            written.note = format!(
-                "generated by logtrim {} budget --write-spec: edit the figures to your design",
-                env!("CARGO_PKG_VERSION")
-            );
-        }
-        logtrim_host::output::write_atomic(path, written.to_json().as_bytes())
-            .map_err(|e| Failure::input(format!("{}: {e}", path.display())))?;
-        note!("wrote {}", path.display());
+    };
+    if let (Some(sensor), Some(path)) = (&sensor, &args.sensor) {
+        let noise_codes = match design.as_ref().map(|fe| fe.temperature_sensor) {
+            Some(TemperatureMeasurement::Raw { noise_codes_rms, .. }) => noise_codes_rms,
+            _ => 0.0,
+        };
+        s = s.with_sensor(sensor, noise_codes).map_err(|e| match e {
+            e @ logtrim_host::budget::BudgetError::DesignSensor { .. } => {
+                Failure::input(format!("--sensor {}: {e}", path.display()))
+            }
+            e => with_source(e),
+        })?;
     }
+    set(&mut s.temperature.sensor_noise_k_rms, args.sensor_noise);
+    let budget = s.compute().map_err(with_source)?;
     if args.json {
         say_raw!("{}", budget.to_json());
     } else {

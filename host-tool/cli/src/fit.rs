@@ -16,6 +16,7 @@ use logtrim_host::fit::model::Spec;
 use logtrim_host::fit::{render_report, render_screening, FitOptions};
 use logtrim_host::frontend::FrontEnd;
 use logtrim_host::image_file::{self, ImageFormat};
+use logtrim_host::output::number::Num;
 use logtrim_host::sensor_tool::load_settings;
 use logtrim_host::tables::TableOptions;
 
@@ -469,10 +470,10 @@ fn fit_single(
         let c = &out.calibration;
         say!(
             "calibrated range: {:.2} … {:.2} °C, x {:.3} … {:.3} Np (ratio {:.4e} … {:.4e})",
-            c.temperature.min_c,
-            c.temperature.max_c,
-            c.x_range.min,
-            c.x_range.max,
+            Num::from(c.temperature.min_c),
+            Num::from(c.temperature.max_c),
+            Num::from(c.x_range.min),
+            Num::from(c.x_range.max),
             f64::from(c.x_range.min).exp(),
             f64::from(c.x_range.max).exp()
         );

@@ -107,7 +107,9 @@ pub fn run(args: PlotArgs) -> Result<(), Failure> {
 
     // Every chart is drawn before the first file is written.
     let mut out: Vec<(String, String)> = Vec::new();
-    let vs_x = figures::error_vs_x(&cal, &data, args.setpoint_gap, args.error_unit, &sub);
+    // The unit's noise floor as its fit measured it, for the band under the corrected points.
+    let floor = file.fit.as_ref().and_then(|f| f.get("noise_floor_np")).and_then(serde_json::Value::as_f64);
+    let vs_x = figures::error_vs_x(&cal, &data, args.setpoint_gap, floor, args.error_unit, &sub);
     out.push((format!("{prefix}-error-vs-x.svg"), render_lines(&vs_x).map_err(Failure::input)?));
     if let (Some(r), Some(t)) = (&args.validation, &args.truth) {
         // Validation readings are read as the unit's firmware reads them (a raw temperature code in f32).

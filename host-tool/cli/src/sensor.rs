@@ -15,6 +15,7 @@ use logtrim_host::sensor_tool::{
 };
 
 use crate::Failure;
+use logtrim_host::output::number::Num;
 
 /// Options of `logtrim sensor`.
 #[derive(Args, Debug)]
@@ -271,7 +272,7 @@ fn fit_points(args: &FitArgs, steinhart_hart: bool) -> Result<(), Failure> {
     for (label, p) in args.points.iter().map(|p| ("given", p)).chain(args.checks.iter().map(|p| ("check", p)))
     {
         match element.celsius_f64(p.ohm) {
-            Ok(t) => say!("{label:>10} {:>14} {t:>14.4} {:>12.5}", p.ohm, t - p.celsius),
+            Ok(t) => say!("{label:>10} {:>14} {:>14.4} {:>12.5}", p.ohm, Num(t), Num(t - p.celsius)),
             Err(e) => say!("{label:>10} {:>14} {:>14} ({e})", p.ohm, "-"),
         }
     }

@@ -9,6 +9,7 @@ use logtrim::Unit;
 use logtrim_host::calfile::CalFile;
 use logtrim_host::correct::{read_unit_readings, x_of_q24};
 use logtrim_host::data::Readings;
+use logtrim_host::output::number::Num;
 use logtrim_host::records::LayerError;
 use logtrim_host::tables::{FixedTables, TableOptions};
 
@@ -210,13 +211,13 @@ fn report(
         line(&[
             (i + 1).to_string(),
             format!("{:.6}", s.ratio),
-            format!("{:+.5}", s.known_x),
+            format!("{:+.5}", Num(s.known_x)),
             s.readings.to_string(),
-            format!("{:+.5}", s.error_before()),
-            format!("{:+.5}", s.error_before() * d),
-            format!("{:+.5}", s.error_after()),
-            format!("{:+.5}", s.error_after_fixed()),
-            format!("{:.5}", s.trimmed_rms_f32),
+            format!("{:+.5}", Num(s.error_before())),
+            format!("{:+.5}", Num(s.error_before() * d)),
+            format!("{:+.5}", Num(s.error_after())),
+            format!("{:+.5}", Num(s.error_after_fixed())),
+            format!("{:.5}", Num(s.trimmed_rms_f32)),
         ])?;
     }
     let g = f64::from(t.gain);
@@ -224,8 +225,8 @@ fn report(
         "trim: {}, x' = g·x + o with g = {:.6} ({:+.3} %), o = {:+.6} Np at ratio 1 (limits |o| ≤ {:.4} Np, |g − 1| ≤ {:.2} %)",
         t.kind.name(),
         g,
-        (g - 1.0) * 100.0,
-        t.offset,
+        Num((g - 1.0) * 100.0),
+        Num::from(t.offset),
         limits.max_offset_np(),
         f64::from(limits.max_gain_error()) * 100.0
     );
@@ -234,7 +235,7 @@ fn report(
         t.gain_q30,
         f64::from(t.gain_q30) / f64::from(1u32 << 30),
         t.offset_q24,
-        x_of_q24(t.offset_q24)
+        Num(x_of_q24(t.offset_q24))
     );
     Ok(())
 }

@@ -97,3 +97,27 @@ fn a_raw_ntc_channel_meets_the_target_through_the_binary() {
         run(seed);
     }
 }
+
+#[test]
+fn the_sensor_table_takes_any_number_of_segments() {
+    // The demo's raw-channel unit at table sizes whose step leaves a short last segment (refused before
+    // with "sensor temperature does not fit its integer format"), and the default.
+    let d = common::scratch("raw-segments");
+    let (code, _, err) = common::logtrim(&["demo", "--preset", "photometer-ntc", "--out-dir", common::s(&d)]);
+    assert_eq!(code, 0, "{err}");
+    let coeffs = d.join("photometer-ntc/coeffs.json");
+    for segments in ["16", "24", "32", "33", "128"] {
+        let img = d.join(format!("unit-{segments}.bin"));
+        let (code, out, err) = common::logtrim(&[
+            "image",
+            common::s(&coeffs),
+            "--sensor-segments",
+            segments,
+            "-o",
+            common::s(&img),
+        ]);
+        assert_eq!(code, 0, "{segments}: {out}{err}");
+        assert!(out.contains("sensor table"), "{segments}: {out}");
+    }
+    std::fs::remove_dir_all(&d).unwrap();
+}

@@ -186,3 +186,30 @@ fn bad_input_exits_2_naming_the_option_and_writes_nothing() {
     assert!(!f.exists());
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+#[test]
+fn a_figure_that_rounds_to_zero_prints_without_a_sign() {
+    // The curve through three points meets them to within rounding: its errors there are ±1e-13 K or so,
+    // which printed with five decimals read "-0.00000" before the tool had one home for its figures.
+    let (code, out, err) = logtrim(&[
+        "sensor",
+        "steinhart-hart",
+        "--point",
+        "0:32650",
+        "--point",
+        "25:10000",
+        "--point",
+        "85:1070",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let given: Vec<&str> = out.lines().filter(|l| l.trim_start().starts_with("given")).collect();
+    assert_eq!(given.len(), 3, "{out}");
+    for line in given {
+        assert!(line.ends_with(" 0.00000"), "{line}");
+    }
+    for word in out.split_whitespace() {
+        let digits = word.strip_prefix('-').unwrap_or("");
+        let zero = digits.starts_with('0') && digits.chars().all(|c| c == '0' || c == '.');
+        assert!(!zero, "{word:?} in:\n{out}");
+    }
+}

@@ -76,27 +76,18 @@ fn dx_dt_matches_finite_differences_of_the_reference_model() {
 
 #[test]
 fn reference_error_matches_the_reference_model_with_a_gain_error() {
-    for ratiometric in [false, true] {
-        let fe = ideal_frontend(2.0);
-        let mut s = spec_of(&fe);
-        s.reference.ratiometric_level_shift = ratiometric;
-        let delta = 2e-3;
-        // A reference high by δ: every code is 1/(1 + δ) of nominal, the converter's gain error in the model;
-        // a ratiometric level shift rises with the reference.
-        let mut off = fe.clone();
-        off.adc.gain_error = 1.0 / (1.0 + delta) - 1.0;
-        if ratiometric {
-            off.output_stage.level_shift_v *= 1.0 + delta;
-        }
-        for (x, t) in POINTS {
-            let read = fe.invert_code(off.code_exact(x, t), t).unwrap();
-            let want = read - x;
-            let got = s.reference_error(x, t, delta);
-            assert!(
-                within(got, want, 1e-15, 1e-7),
-                "ratiometric {ratiometric}, x={x} t={t}: {got} vs {want}"
-            );
-        }
+    let fe = ideal_frontend(2.0);
+    let s = spec_of(&fe);
+    let delta = 2e-3;
+    // A reference high by δ: every code is 1/(1 + δ) of nominal, the converter's gain error in the model; the
+    // level shift is a voltage of its own, which stays.
+    let mut off = fe.clone();
+    off.adc.gain_error = 1.0 / (1.0 + delta) - 1.0;
+    for (x, t) in POINTS {
+        let read = fe.invert_code(off.code_exact(x, t), t).unwrap();
+        let want = read - x;
+        let got = s.reference_error(x, t, delta);
+        assert!(within(got, want, 1e-15, 1e-7), "x={x} t={t}: {got} vs {want}");
     }
 }
 
@@ -108,7 +99,7 @@ fn round_design() -> BudgetSpec {
     BudgetSpec {
         note: "round figures, worked by hand".into(),
         adc: AdcSpec { bits: 16, vref_v: 4.096, noise_lsb_rms: 0.3, oversampling: 9 },
-        reference: ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 20.0, ratiometric_level_shift: false },
+        reference: ReferenceSpec { tolerance: 0.001, drift_ppm_per_k: 20.0 },
         front_end: FrontEndSpec {
             slope_v_per_decade: 0.25 * LN10,
             slope_at_c: 25.0,
@@ -171,12 +162,52 @@ fn bad_figures_are_named() {
     let mut s = round_design();
     s.front_end.slope_drift_ppm_per_k = Some(-30_000.0);
     assert!(s.compute().unwrap_err().to_string().starts_with("front_end.slope_drift_ppm_per_k = -30000"));
-    let e = BudgetSpec::from_json("{\"adc\": {\"bitz\": 12}}", "d.json").unwrap_err().to_string();
-    assert!(e.starts_with("d.json: line 1, column"), "{e}");
-    assert!(e.contains("bitz"), "{e}");
-    let s = BudgetSpec::from_json("{\"adc\": {\"bits\": 12}}", "d.json").unwrap();
-    assert_eq!(s.adc.bits, 12);
-    assert_eq!(s.adc.vref_v, AdcSpec::default().vref_v, "missing figures take their defaults");
+}
+
+/// The `photometer-ntc` design, its raw channel and the channel's noise in codes.
+fn ntc_design() -> (FrontEnd, logtrim::sensor::TemperatureSensor, f64) {
+    let fe = preset("photometer-ntc").expect("preset");
+    let crate::frontend::TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor
+    else {
+        panic!("a raw channel")
+    };
+    (fe, sensor, noise_codes_rms)
+}
+
+#[test]
+fn a_figures_file_of_an_earlier_version_is_named_as_such() {
+    let d = tempfile::tempdir().unwrap();
+    let old = d.path().join("figures.json");
+    std::fs::write(&old, "{\"adc\": {\"bits\": 12}, \"reference\": {\"ratiometric_level_shift\": true}}")
+        .unwrap();
+    let e = read_design(&old).unwrap_err().to_string();
+    assert!(e.contains("figures.json: the key `reference` is of a budget figures file"), "{e}");
+    assert!(e.contains("schemas/frontend.schema.json"), "{e}");
+    // A description is read as `FrontEnd::load` reads it, its errors located.
+    let fe = d.path().join("fe.json");
+    std::fs::write(&fe, preset("photometer-ntc").unwrap().to_json()).unwrap();
+    assert_eq!(read_design(&fe).unwrap(), preset("photometer-ntc").unwrap());
+    std::fs::write(&fe, "{\"name\": \"x\", \"adcc\": 1}").unwrap();
+    let e = read_design(&fe).unwrap_err().to_string();
+    assert!(e.contains("fe.json: line 1, column") && e.contains("adcc"), "{e}");
+}
+
+#[test]
+fn a_sensor_file_gives_the_same_figures_as_the_designs_own_raw_channel() {
+    // The raw channel of the design, given as a sensor file to a design that reads its temperature digitally,
+    // gives the same temperature noise as the design that has it.
+    let (ntc, sensor, noise_codes_rms) = ntc_design();
+    let own = BudgetSpec::from_design(&ntc).unwrap();
+    let given = BudgetSpec::from_design(&preset("photometer-compensated").unwrap())
+        .unwrap()
+        .with_sensor(&sensor, noise_codes_rms)
+        .unwrap();
+    assert!(within(given.temperature.sensor_noise_k_rms, own.temperature.sensor_noise_k_rms, 0.0, 1e-12));
+    // A channel that cannot read part of the range is refused with the temperature it cannot read.
+    let mut narrow = BudgetSpec::from_design(&ntc).unwrap();
+    narrow.temperature.max_c = 400.0;
+    let e = narrow.with_sensor(&sensor, 0.0).unwrap_err().to_string();
+    assert!(e.starts_with("the temperature channel at "), "{e}");
 }
 
 #[test]
@@ -196,7 +227,6 @@ fn a_design_description_gives_the_budget_its_figures() {
     );
     assert_eq!((s.temperature.min_c, s.temperature.max_c), (want.temperature.min_c, want.temperature.max_c));
     assert_eq!((s.adc.noise_lsb_rms, s.reference.tolerance), (fe.adc.noise_codes_rms, 0.0));
-    assert!(!s.reference.ratiometric_level_shift);
     // So its law is the reference model's, as for `spec_of`.
     for (x, t) in POINTS {
         assert!(within(s.code(x, t, 0.0), fe.code_exact(x, t), 1e-15, 1e-12), "x={x} t={t}");
@@ -236,10 +266,7 @@ fn a_designs_temperature_noise_comes_from_its_sensor() {
     assert!(within(s.temperature.sensor_noise_k_rms, want, 0.0, 1e-12));
     // A raw channel: noise and quantisation in codes at its coarsest resolution over the operating range,
     // found here from the firmware's own f64 conversion of neighbouring codes.
-    let fe = preset("photometer-ntc").expect("preset");
-    let TemperatureMeasurement::Raw { sensor, noise_codes_rms, .. } = fe.temperature_sensor else {
-        panic!("a raw channel")
-    };
+    let (fe, sensor, noise_codes_rms) = ntc_design();
     let code = |t: f64| sensor.code_f64(t).unwrap().round() as u32;
     let (a, b) = (code(fe.operating.temp_min_c), code(fe.operating.temp_max_c));
     let coarsest = (a.min(b)..a.max(b))

@@ -31,6 +31,8 @@ use logtrim::calibration::{TemperatureRange, XRange, MAX_SERIES};
 use logtrim::Calibration;
 use serde::Serialize;
 
+use crate::output::number::Num;
+
 use model::{Envelope, Norm, Params, Prep, Spec};
 use noise::NoiseModel;
 use screen::{Layout, RowFit};
@@ -1033,7 +1035,7 @@ pub fn render_report(out: &FitOutcome) -> String {
         let _ = writeln!(
             s,
             "{:>8.2} °C {:>7} {:>6} {:>8} {:>10.3e} {:>11.3e} {:>11.3e} {:>11.3e} {:>10.2}",
-            p.temp_c,
+            Num(p.temp_c),
             p.rows,
             p.set_aside,
             p.refused,
@@ -1117,7 +1119,9 @@ pub fn render_screening(out: &FitOutcome, data: &FitData) -> String {
         );
         for r in sc.set_aside.iter().take(LISTED_ROWS) {
             let resid = match (r.residual_codes, r.residual_sigmas, r.residual_np) {
-                (Some(c), Some(z), Some(x)) => format!("residual {c:+.1} codes = {z:+.1} σ = {x:+.3e} Np"),
+                (Some(c), Some(z), Some(x)) => {
+                    format!("residual {:+.1} codes = {:+.1} σ = {:+.3e} Np", Num(c), Num(z), Num(x))
+                }
                 _ => String::new(),
             };
             let _ = writeln!(
@@ -1125,7 +1129,7 @@ pub fn render_screening(out: &FitOutcome, data: &FitData) -> String {
                 "  {}: code {}, {:.3} °C, ratio {:.6e}: {}  {resid}",
                 data.place(r.row),
                 r.code,
-                r.temp_c,
+                Num(r.temp_c),
                 r.ratio,
                 r.reason.describe()
             );
@@ -1136,7 +1140,7 @@ pub fn render_screening(out: &FitOutcome, data: &FitData) -> String {
         let _ = writeln!(
             s,
             "unsettled set-point near {:.2} °C: reading {} of each ratio ({} rows) drifts against the later ones by up to {:.1} codes ({:.3e} Np), rms {:.1} codes (χ² {:.1} > {:.1}, {} dof): set aside",
-            u.temp_c, u.sweep, u.count, u.max_drift_codes, u.max_drift_np, u.rms_drift_codes, u.chi2, u.threshold, u.dof
+            Num(u.temp_c), u.sweep, u.count, u.max_drift_codes, u.max_drift_np, u.rms_drift_codes, u.chi2, u.threshold, u.dof
         );
     }
     if !sc.refused.is_empty() {
@@ -1148,7 +1152,7 @@ pub fn render_screening(out: &FitOutcome, data: &FitData) -> String {
                 "  {}: code {}, {:.4} °C, ratio {:.6e}: {}",
                 data.place(r.row),
                 r.code,
-                r.temp_c,
+                Num(r.temp_c),
                 r.ratio,
                 r.status
             );

@@ -42,8 +42,9 @@
 //!
 //! # The description of a design
 //!
-//! [`FrontEnd`] is the one description of a design, as JSON (`FrontEnd::load`, `FrontEnd::to_json`; every
-//! field is documented on its type, and unknown fields are refused). `simulate` runs it, `demo` runs its
+//! [`FrontEnd`] is the one description of a design, as JSON (`schemas/frontend.schema.json`;
+//! `FrontEnd::load`, `FrontEnd::to_json`; every field is documented on its type, and unknown fields are
+//! refused). `simulate` runs it, `demo` runs its
 //! presets, and `budget` takes its figures from it ([`crate::budget::BudgetSpec::from_design`]).
 //!
 //! | key | type | what it describes |

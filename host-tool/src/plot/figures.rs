@@ -3,10 +3,15 @@
 //!
 //! | figure | what it shows |
 //! |---|---|
-//! | [`error_vs_x`] | the error in x against x at each chamber set-point, before and after correction |
+//! | [`error_vs_x`] | the error in x against x at each chamber set-point, before and after correction (points, with the noise floor's band) |
 //! | [`error_vs_temperature`] | rms and max error per temperature bin over a validation run, before and after |
-//! | [`f32_error_map`] | the f32 correction's error against the f64 reference over (ADC code, temperature), in LSB |
+//! | [`f32_error_map`] | the f32 correction's error against the f64 reference over (ADC code, temperature), in LSB, on the scale of the ¼-LSB bound |
 //! | [`fixed_error_map`] | the same for the integer fixed-point correction, worst of several codes per cell |
+//!
+//! The error maps are coloured on a scale of at least ± the bound `verify` holds both firmware paths to
+//! (¼ LSB by default, [`crate::verify::VerifyOptions`]), and their subtitle gives the worst error as a share
+//! of it: an f32 error of 1e-4 LSB is a map of the middle colour, which is what a calibration reader needs
+//! to see (the arithmetic is far inside the bound), not a map stretched to its own noise.
 //!
 //! Corrections are made with firmware-lib's f32 [`Calibration::correct`] and its fixed-point
 //! [`FixedCalibration::correct`], the code the MCU runs.
@@ -55,20 +60,27 @@ fn error_of(cal: &Calibration, code: u32, temp_c: f64, x_true: f64) -> Option<f6
 ///
 /// Rows are grouped into set-points as the fit groups them (a gap above `gap_k` starts a new one); each
 /// point is the mean error over the repeats at one applied ratio. Readings the firmware refuses are left
-/// out and counted in the panel's caption.
+/// out and counted in the panel's caption. Before correction the points of a set-point are joined (the
+/// error is systematic); after correction they are points only, over a band of ±σ/√n about zero: σ is
+/// `noise_floor_np`, the unit's noise in x as the fit measured it from its repeats (the calibration file's
+/// `fit.noise_floor_np`), and n the median number of readings behind a point. Without a noise floor there
+/// is no band.
 pub fn error_vs_x(
     cal: &Calibration,
     data: &FitData,
     gap_k: f64,
+    noise_floor_np: Option<f64>,
     unit: ErrorScale,
     subtitle: &str,
 ) -> LineFigure {
     let groups = crate::fit::setpoints(&data.temp_c, gap_k);
     let title = "Error in x against x, per chamber set-point";
     let axis = "x = ln(I_sig/I_ref) [Np]";
-    before_and_after(cal, (title, subtitle, (1200, 560)), axis, unit, |c, _| {
+    before_and_after(cal, (title, subtitle, (1200, 560)), axis, unit, |c, after| {
         let mut refused = 0usize;
         let mut series = Vec::new();
+        let mut counts = Vec::new();
+        let (mut x_lo, mut x_hi) = (f64::INFINITY, f64::NEG_INFINITY);
         for g in &groups {
             let mean_t = g.iter().map(|&i| data.temp_c[i]).sum::<f64>() / g.len().max(1) as f64;
             let mut by_ratio: BTreeMap<u64, (f64, f64, usize)> = BTreeMap::new();
@@ -85,10 +97,30 @@ pub fn error_vs_x(
                 }
             }
             let points = by_ratio.values().map(|&(x, sum, n)| (x, unit.of_np(sum / n as f64))).collect();
+            for &(x, _, n) in by_ratio.values() {
+                counts.push(n);
+                (x_lo, x_hi) = (x_lo.min(x), x_hi.max(x));
+            }
             series.push(super::Series {
                 label: format!("{mean_t:.1} °C"),
                 points,
-                style: Style::LineAndMarkers,
+                style: if after { Style::Markers } else { Style::LineAndMarkers },
+            });
+        }
+        if let (true, Some(sigma)) =
+            (after && x_lo < x_hi, noise_floor_np.filter(|v| v.is_finite() && *v > 0.0))
+        {
+            counts.sort_unstable();
+            let n = counts.get(counts.len() / 2).copied().unwrap_or(1).max(1);
+            let h = unit.of_np(sigma / (n as f64).sqrt()).abs();
+            series.push(super::Series {
+                label: format!(
+                    "noise floor ±σ/√n: σ = {} {u} from the unit's repeats (fit), n = {n}",
+                    super::tick(unit.of_np(sigma).abs()),
+                    u = unit.label()
+                ),
+                points: vec![(x_lo, h), (x_hi, h)],
+                style: Style::Band,
             });
         }
         (refused, series)
@@ -257,13 +289,34 @@ pub fn f32_error_map(cal: &Calibration, nx: usize, ny: usize, subtitle: &str) ->
     })?;
     Ok(HeatMap {
         title: "f32 correction against the f64 reference".into(),
-        subtitle: subtitle.to_string(),
+        subtitle: against_bound(subtitle, &grid),
         grid,
         value_label: "error of f32 [LSB]".into(),
-        scale: ColourScale::Diverging,
+        scale: ColourScale::DivergingAtLeast(verify_bound_lsb()),
         no_value_label: "refused by the firmware (out of range)".into(),
         size: (1000, 620),
     })
+}
+
+/// The bound `verify` holds both paths to by default, LSB.
+fn verify_bound_lsb() -> f64 {
+    crate::verify::VerifyOptions::default().bound_lsb
+}
+
+/// The subtitle of an error map: `subtitle`, then the worst |error| against the bound of `verify`.
+fn against_bound(subtitle: &str, grid: &Grid) -> String {
+    let bound = verify_bound_lsb();
+    let worst = grid.finite_range().map_or(f64::NAN, |(lo, hi)| lo.abs().max(hi.abs()));
+    let share = format!("{:.2}", crate::output::number::Num(100.0 * worst / bound));
+    let said = format!(
+        "worst |error| {} LSB, {share} % of verify's {bound}-LSB bound (scale ±{bound} LSB)",
+        super::tick(worst)
+    );
+    if subtitle.is_empty() {
+        said
+    } else {
+        format!("{subtitle}; {said}")
+    }
 }
 
 /// The error of the integer fixed-point correction ([`FixedCalibration::correct`], the tables of the
@@ -317,14 +370,17 @@ pub fn fixed_error_map(
     })?;
     Ok(HeatMap {
         title: "fixed-point correction against the f64 reference".into(),
-        subtitle: if subtitle.is_empty() {
-            format!("worst of {codes_per_cell} codes per cell")
-        } else {
-            format!("{subtitle}; worst of {codes_per_cell} codes per cell")
-        },
+        subtitle: against_bound(
+            &if subtitle.is_empty() {
+                format!("worst of {codes_per_cell} codes per cell")
+            } else {
+                format!("{subtitle}; worst of {codes_per_cell} codes per cell")
+            },
+            &grid,
+        ),
         grid,
         value_label: "error of fixed point [LSB]".into(),
-        scale: ColourScale::Diverging,
+        scale: ColourScale::DivergingAtLeast(verify_bound_lsb()),
         no_value_label: "refused by the firmware (out of range)".into(),
         size: (1000, 620),
     })

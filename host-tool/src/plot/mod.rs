@@ -73,6 +73,9 @@ pub enum Style {
     Markers,
     /// A dashed line (a reference level such as a noise floor).
     Dashed,
+    /// A shaded band about zero: each point is (x, half-width), the band spans ±half-width along x (a noise
+    /// floor the other series' points are read against). Drawn under the other series, in grey.
+    Band,
 }
 
 /// One series of points.
@@ -214,10 +217,13 @@ impl Grid {
 }
 
 /// How a heat map maps values to colours.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub enum ColourScale {
     /// [`DIVERGING`], symmetric about zero: ±(largest |value|).
     Diverging,
+    /// [`DIVERGING`], symmetric about zero, at least ±the bound given (a tolerance the values are read
+    /// against: values well inside it stay near the middle colour).
+    DivergingAtLeast(f64),
     /// [`SEQUENTIAL`] from the smallest to the largest value.
     Sequential,
     /// Diverging if the values take both signs, sequential otherwise.
@@ -326,7 +332,8 @@ pub fn render_lines(fig: &LineFigure) -> Result<String, PlotError> {
     for p in &fig.panels {
         for (i, s) in p.series.iter().enumerate() {
             if !legend.iter().any(|(l, _, _)| *l == s.label) {
-                legend.push((s.label.clone(), series_colour(i), s.style));
+                let c = if s.style == Style::Band { BAND } else { series_colour(i) };
+                legend.push((s.label.clone(), c, s.style));
             }
         }
     }
@@ -376,8 +383,21 @@ fn header<'a>(root: &Area<'a>, title: &str, subtitle: &str) -> DrawResult<Area<'
     Ok(root.split_vertically(used).1)
 }
 
+/// The colour of a [`Style::Band`].
+const BAND: RGBColor = RGBColor(150, 150, 150);
+
 fn draw_panel(area: &Area<'_>, panel: &Panel) -> DrawResult<()> {
-    let pts = || panel.series.iter().flat_map(|s| &s.points).filter(|p| finite_point(p));
+    // A band's point (x, h) spans ±h: both ends count for the axes.
+    let all: Vec<(f64, f64)> = panel
+        .series
+        .iter()
+        .flat_map(|s| {
+            let mirror = s.style == Style::Band;
+            s.points.iter().flat_map(move |&(x, y)| [(x, y), (x, if mirror { -y } else { y })])
+        })
+        .filter(finite_point)
+        .collect();
+    let pts = || all.iter();
     let (x0, x1) = pts().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.0), b.max(p.0)));
     let (y0, y1) = pts().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.1), b.max(p.1)));
     if !(x0.is_finite() && y0.is_finite()) {
@@ -415,10 +435,18 @@ fn draw_panel(area: &Area<'_>, panel: &Panel) -> DrawResult<()> {
             BLACK.stroke_width(1),
         )))?;
     }
+    for s in panel.series.iter().filter(|s| s.style == Style::Band) {
+        for run in runs(&s.points) {
+            let mut outline: Vec<(f64, f64)> = run.iter().map(|&(x, h)| (x, h.abs())).collect();
+            outline.extend(run.iter().rev().map(|&(x, h)| (x, -h.abs())));
+            chart.draw_series(std::iter::once(Polygon::new(outline, BAND.mix(0.3).filled())))?;
+        }
+    }
     for (i, s) in panel.series.iter().enumerate() {
         let c = series_colour(i);
         for run in runs(&s.points) {
             match s.style {
+                Style::Band => {}
                 Style::Line | Style::LineAndMarkers => {
                     chart.draw_series(LineSeries::new(run.iter().copied(), c.stroke_width(2)))?;
                 }
@@ -451,6 +479,9 @@ fn draw_legend(
         match s {
             Style::Markers => {
                 area.draw(&Circle::new((x + 12, y), 3, c.filled()))?;
+            }
+            Style::Band => {
+                area.draw(&Rectangle::new([(x, y - 6), (x + 24, y + 6)], c.mix(0.3).filled()))?;
             }
             Style::Dashed => {
                 area.draw(&PathElement::new(vec![(x, y), (x + 9, y)], c.stroke_width(2)))?;
@@ -504,12 +535,16 @@ pub fn render_heat_map(map: &HeatMap) -> Result<String, PlotError> {
         return Err(PlotError::NoData { chart: map.title.clone() });
     };
     let diverging = match map.scale {
-        ColourScale::Diverging => true,
+        ColourScale::Diverging | ColourScale::DivergingAtLeast(_) => true,
         ColourScale::Sequential => false,
         ColourScale::Auto => lo < 0.0 && hi > 0.0,
     };
     let (vmin, vmax) = if diverging {
-        let m = lo.abs().max(hi.abs());
+        let at_least = match map.scale {
+            ColourScale::DivergingAtLeast(b) if b.is_finite() => b.abs(),
+            _ => 0.0,
+        };
+        let m = lo.abs().max(hi.abs()).max(at_least);
         if m > 0.0 {
             (-m, m)
         } else {

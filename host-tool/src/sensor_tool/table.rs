@@ -11,6 +11,7 @@ use logtrim::Divider;
 use super::settings::check_range;
 use super::{bad, rejected, Input, SensorToolError};
 use crate::file_error::FileError;
+use crate::output::number::Num;
 use crate::output::AtomicFile;
 
 /// Most rows a table may have (a guard against a typo'd step).
@@ -232,8 +233,8 @@ pub fn write_table<W: std::io::Write>(
                             let _ = write!(
                                 s,
                                 " {:>12.4} {:>10.4} {:>10.4}",
-                                t,
-                                f64::from(t) - r.celsius,
+                                Num::from(t),
+                                Num(f64::from(t) - r.celsius),
                                 c.k_per_code
                             );
                         }
