@@ -25,6 +25,7 @@ use ihex::Record;
 use logtrim::image::{self, layout, FixedStorage, Image, ImageError, ImageInfo};
 
 use crate::calfile::CalFile;
+use crate::output::number::Num;
 use crate::tables::{FixedTables, TableError, TableOptions};
 
 /// The file formats of an image.
@@ -564,22 +565,22 @@ fn describe_fixed(s: &mut String, img: &Image<'_>) {
         s,
         "  t grid     {} knots from {:.3} °C, step {:.3} K; calibrated {:.3} to {:.3} °C, accepted {:.3} to {:.3} °C",
         h.t_knots,
-        theta_c(h.t_origin),
+        Num(theta_c(h.t_origin)),
         2f64.powi(i32::from(h.t_step_log2)) / 1_024_000.0,
-        theta_c(h.temp_min),
-        theta_c(h.temp_max),
-        theta_c(h.temp_lo),
-        theta_c(h.temp_hi)
+        Num(theta_c(h.temp_min)),
+        Num(theta_c(h.temp_max)),
+        Num(theta_c(h.temp_lo)),
+        Num(theta_c(h.temp_hi))
     );
     let step = 2f64.powi(i32::from(h.xa_step_log2) - logtrim::fixed::X_FRAC as i32);
     let _ = writeln!(
         s,
         "  x̃ grid     {} knots from {:.4} Np, step {:.4} Np; x range {:.4} to {:.4} Np",
         h.xa_knots,
-        q24(h.xa_origin),
+        Num(q24(h.xa_origin)),
         step,
-        q24(h.x_min),
-        q24(h.x_max)
+        Num(q24(h.x_min)),
+        Num(q24(h.x_max))
     );
     let _ = writeln!(
         s,

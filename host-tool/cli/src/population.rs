@@ -1,6 +1,7 @@
 //! `logtrim characterise` and `logtrim plan`: a population model from a characterisation lot, and a
 //! production plan from the model; `fit --population` fits production units against it.
 
+use logtrim_host::output::number::Num;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
@@ -140,7 +141,7 @@ pub fn run_plan(args: PlanArgs) -> Result<(), Failure> {
     }
     let p = plan(&model, &opt).map_err(Failure::check)?;
     say_raw!("{}", render(&p));
-    let temps: Vec<String> = p.setpoints_c.iter().map(|t| format!("{t:.1}")).collect();
+    let temps: Vec<String> = p.setpoints_c.iter().map(|&t| format!("{:.1}", Num(t))).collect();
     say!(
         "chamber time: {} set-point(s) per production unit instead of the lot's; simulate it with --setpoints-at {} --ratios {}",
         p.setpoints_c.len(),

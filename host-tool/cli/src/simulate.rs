@@ -6,6 +6,7 @@ use std::path::PathBuf;
 use clap::Args;
 use logtrim_host::error_scale::{db_amplitude, db_power};
 use logtrim_host::frontend::{FrontEnd, PRESETS};
+use logtrim_host::output::number::Num;
 use logtrim_host::simulate::{self, ChamberPlan, Plan};
 
 use crate::population::Temps;
@@ -206,7 +207,7 @@ fn summary(sim: &simulate::Simulation, written: &[simulate::WrittenFile]) -> Res
         fe.ideal_slope_v_per_neper(25.0) * LN_10,
         fe.code_slope(0.0, 25.0)
     );
-    let sps: Vec<String> = sim.setpoints_c.iter().map(|t| format!("{t:.1}")).collect();
+    let sps: Vec<String> = sim.setpoints_c.iter().map(|&t| format!("{:.1}", Num(t))).collect();
     let outliers: Vec<&str> = sim.units.iter().filter(|u| u.outlier).map(|u| u.serial.as_str()).collect();
     if !outliers.is_empty() {
         say!("  units from outside the population (5x the spread): {}", outliers.join(", "));

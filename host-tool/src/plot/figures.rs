@@ -102,7 +102,7 @@ pub fn error_vs_x(
                 (x_lo, x_hi) = (x_lo.min(x), x_hi.max(x));
             }
             series.push(super::Series {
-                label: format!("{mean_t:.1} °C"),
+                label: format!("{:.1} °C", crate::output::number::Num(mean_t)),
                 points,
                 style: if after { Style::Markers } else { Style::LineAndMarkers },
             });

@@ -41,6 +41,7 @@ use crate::file_error::{parse_json, read_text, FileError};
 use crate::fit::model::{Norm, Params, Prep, Spec};
 use crate::fit::prior::Prior;
 use crate::fit::{fit, setpoints, FitData, FitOptions};
+use crate::output::number::Num;
 
 /// The `format` of a population file.
 pub const FORMAT: &str = "logtrim-population";
@@ -614,8 +615,8 @@ impl PopulationModel {
             "population of {} units, model {}, {:.1} … {:.1} °C, noise {:.2} codes rms (floor {} Np)",
             self.units.len(),
             self.model,
-            self.temperature_c[0],
-            self.temperature_c[1],
+            Num(self.temperature_c[0]),
+            Num(self.temperature_c[1]),
             self.noise_codes,
             self.noise_floor_np.map_or("unknown".to_string(), |f| format!("{f:.3e}"))
         );
@@ -632,7 +633,7 @@ impl PopulationModel {
                 100.0 * cum
             );
         }
-        let prod: Vec<String> = self.production_c.iter().map(|t| format!("{t:.1}")).collect();
+        let prod: Vec<String> = self.production_c.iter().map(|&t| format!("{:.1}", Num(t))).collect();
         let _ = writeln!(
             s,
             "leave-one-unit-out, each unit fitted from the set-points at {} °C, error in x at the others:",

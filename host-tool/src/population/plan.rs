@@ -17,6 +17,7 @@ use super::modes::{grid, x_jacobian, GRID};
 use super::{PopulationError, PopulationModel};
 use crate::fit::model::{Params, Prep};
 use crate::fit::prior::Prior;
+use crate::output::number::Num;
 
 /// Most combinations searched exhaustively.
 const MAX_COMBINATIONS: usize = 20_000;
@@ -240,7 +241,7 @@ pub fn plan(model: &PopulationModel, opt: &PlanOptions) -> Result<PlanOutcome, P
 pub fn render(out: &PlanOutcome) -> String {
     use std::fmt::Write;
     let mut s = String::new();
-    let temps: Vec<String> = out.setpoints_c.iter().map(|t| format!("{t:.1}")).collect();
+    let temps: Vec<String> = out.setpoints_c.iter().map(|&t| format!("{:.1}", Num(t))).collect();
     let _ = writeln!(
         s,
         "set-points: {} °C; {} ratios per set-point (log-spaced), {} sweep(s) each",
@@ -259,7 +260,7 @@ pub fn render(out: &PlanOutcome) -> String {
     }
     let _ = writeln!(s, "across the range (rms over x):");
     for (t, r) in &out.profile {
-        let _ = writeln!(s, "  {t:>7.1} °C  {r:.3}x");
+        let _ = writeln!(s, "  {:>7.1} °C  {r:.3}x", Num(*t));
     }
     s
 }
