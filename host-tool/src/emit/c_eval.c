@@ -55,6 +55,30 @@ static inline int32_t ltrm_mul_hi_u(int32_t a, uint32_t b) {
 #endif
 }
 
+/* floor(a*b / 2^32) of two unsigned operands. */
+static inline uint32_t ltrm_mul_hi_uu(uint32_t a, uint32_t b) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (uint32_t)(((uint64_t)a * b) >> 32);
+#else
+    uint32_t al = a & 0xffffu, ah = a >> 16, bl = b & 0xffffu, bh = b >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    return ah * bh + (m1 >> 16) + (m2 >> 16);
+#endif
+}
+
+/* x*c / 2^32 rounded to nearest (ties up), exactly, for a constant c >= 0 whose middle sum fits (see
+ * logtrim::fixed::arith::round32_constant_fits): four 16x16-bit products without sign handling on ARMv6-M. */
+static inline int32_t ltrm_mul_round32_by(int32_t x, int32_t c) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)ltrm_asr64((int64_t)x * c + 2147483648LL, 32);
+#else
+    int32_t xh = ltrm_asr32(x, 16), ch = c >> 16;
+    uint32_t xl = (uint32_t)x & 0xffffu, cl = (uint32_t)c & 0xffffu;
+    int32_t mid = xh * (int32_t)cl + (int32_t)(xl * (uint32_t)ch) + (int32_t)((xl * cl) >> 16) + 32768;
+    return xh * ch + ltrm_asr32(mid, 16);
+#endif
+}
+
 /* floor(a*w / 2^16) for w < 2^16: two products. */
 static inline int32_t ltrm_mulh16(int32_t a, uint32_t w) {
     int32_t ah = ltrm_asr32(a, 16);
@@ -160,16 +184,19 @@ static inline ltrm_status ltrm_bend_q24(int32_t v, int32_t *out) {
     return LTRM_OK;
 }
 
-/* e^x, x Q24, result Q32. */
+/* e^x, x Q24, result Q32: the reduction in 32 bits (x bounded first), the same (k, r) as r = 128x - k*LN2_Q31. */
 static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
-    int32_t k = ltrm_asr32(ltrm_mulh16(x, LTRM_HALF_INV_LN2_Q16), 23), sh;
-    int32_t lh = LTRM_LN2_Q31 >> 16, ll = LTRM_LN2_Q31 & 0xffff;
-    int64_t r = (int64_t)x * 128 - ((int64_t)(k * lh) * 65536 + (int64_t)(k * ll));
+    int32_t k, a, r, sh;
     uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
+    if (x >= LTRM_EXP_X_ABOVE) return LTRM_ABOVE_RANGE;
+    if (x < LTRM_EXP_X_ZERO) { *out = 0; return LTRM_OK; }
+    k = ltrm_asr32(ltrm_asr32(x, 14) * (int32_t)LTRM_HALF_INV_LN2_Q16, 25);
+    a = x - k * LTRM_LN2_Q24;
+    if (a < 0) { k -= 1; a += LTRM_LN2_Q24; }
+    else if (a >= LTRM_LN2_Q24) { k += 1; a -= LTRM_LN2_Q24; }
+    r = a * 128 - k * LTRM_LN2_Q31_REST;
     if (r < 0) { k -= 1; r += LTRM_LN2_Q31; }
     else if (r >= LTRM_LN2_Q31) { k += 1; r -= LTRM_LN2_Q31; }
-    if (k > 30) return LTRM_ABOVE_RANGE;
-    if (k < -36) { *out = 0; return LTRM_OK; }
     ru = (uint32_t)r;
     j = ru >> (31u - LTRM_EXP64_LOG2);
     rho = ru & ((1u << (31u - LTRM_EXP64_LOG2)) - 1u);
@@ -180,7 +207,7 @@ static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
     q = rho30 + rho2h + ((rho3 * 10923u) >> 16);
     if (j >= LTRM_EXP64_LEN) return LTRM_ABOVE_RANGE;
     base = (uint32_t)ltrm_exp64[j];
-    m = base + ((uint32_t)ltrm_mul_hi_u((int32_t)(q << 6), base) >> 4);
+    m = base + (ltrm_mul_hi_uu(q << 6, base) >> 4);
     sh = k + 2;
     if (sh >= 32) *out = (int64_t)m * ((int64_t)1 << 32);
     else if (sh > 0) *out = (int64_t)(m >> (32 - sh)) * ((int64_t)1 << 32) + (int64_t)((m & (0xffffffffu >> sh)) << sh);
@@ -827,8 +854,8 @@ inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_
     switch (unit) {
     case LTRM_NEPERS: *out = r->x; return LTRM_OK;
     case LTRM_DECADES: *out = ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
-    case LTRM_DB_POWER: *out = (int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32); return LTRM_OK;
-    case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
+    case LTRM_DB_POWER: *out = (int64_t)r->x * 4 + ltrm_mul_round32_by(r->x, LTRM_DB10_FRAC_Q32); return LTRM_OK;
+    case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32_by(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
     case LTRM_ABSORBANCE: *out = -(int64_t)ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
     case LTRM_TRANSMITTANCE_PERCENT:
         if ((st = ltrm_exp_q32(r->x, &e)) != LTRM_OK) return st;
