@@ -88,31 +88,29 @@ pub fn bend_q24(v: i32) -> Result<i32, Error> {
     Ok(spline16(c, pos as u32 & 0xffff))
 }
 
+/// `(k, v)` moved by one step of `m` into `0 ≤ v < m` where it is within one step of it (`k·m + v` kept).
+#[inline(always)]
+fn one_step(k: i32, v: i32, m: i32) -> (i32, i32) {
+    if v < 0 {
+        (k - 1, v + m)
+    } else if v >= m {
+        (k + 1, v - m)
+    } else {
+        (k, v)
+    }
+}
+
 /// `(k, r)` with `128·x = k·LN2_Q31 + r` and `0 ≤ r < LN2_Q31` (r is `x − k·ln 2` in Q31), for x in
 /// `[EXP_X_ZERO, EXP_X_ABOVE)`, in 32-bit arithmetic; k is then in −36..=30.
 #[inline(always)]
 fn reduce(x: i32) -> (i32, u32) {
     // x in [EXP_X_ZERO, EXP_X_ABOVE), |x| < 2^29: |x >> 14| < 2^15 and its product with the Q16 reciprocal
     // below 2^31. k = floor(x / ln 2) within one (the truncations err by less than 0.002), k in −38..=31.
-    let mut k = ((x >> 14) * HALF_INV_LN2_Q16 as i32) >> 25;
+    let k = ((x >> 14) * HALF_INV_LN2_Q16 as i32) >> 25;
     // a = x − k·LN2_Q24 in [0, LN2_Q24) after one step (|k·LN2_Q24| < 2^29).
-    let mut a = x - k * LN2_Q24;
-    if a < 0 {
-        k -= 1;
-        a += LN2_Q24;
-    } else if a >= LN2_Q24 {
-        k += 1;
-        a -= LN2_Q24;
-    }
+    let (k, a) = one_step(k, x - k * LN2_Q24, LN2_Q24);
     // r = 128·x − k·LN2_Q31 = 128·a − k·LN2_Q31_REST, in (−2^13, LN2_Q31 + 2^13): one step into [0, LN2_Q31).
-    let mut r = (a << 7) - k * LN2_Q31_REST;
-    if r < 0 {
-        k -= 1;
-        r += LN2_Q31;
-    } else if r >= LN2_Q31 {
-        k += 1;
-        r -= LN2_Q31;
-    }
+    let (k, r) = one_step(k, (a << 7) - k * LN2_Q31_REST, LN2_Q31);
     // r in [0, LN2_Q31): non-negative.
     (k, r as u32)
 }
