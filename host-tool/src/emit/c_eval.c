@@ -704,44 +704,41 @@ static inline int64_t ltrm_knot_at(const ltrm_code_table *t, uint32_t k, int end
  * a virtual one) and the line's in temperature are each below 2^-LTRM_TABLE_ERROR_LOG2 of an LSB. Sums and 32-bit
  * products, never a 64-bit product. */
 static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step, const uint8_t *kind, const int32_t *bent) {
-    /* Runs are named by their first knot, i - 2 + r. */
     uint32_t lsb = 0xffffffffu, j, limit, runs[2], nruns, shift, r;
     int end;
     for (j = i; j < i + 4u; j++)
         if (kind[j] == LTRM_KNOT_MISSING) return 0;
     if (kind[i + 1u] != LTRM_KNOT_REAL || kind[i + 2u] != LTRM_KNOT_REAL) return 0;
-    if (kind[i] != LTRM_KNOT_REAL) { runs[0] = 3u; nruns = 1u; shift = 2u; }
-    else if (kind[i + 3u] != LTRM_KNOT_REAL) { runs[0] = 0u; nruns = 1u; shift = 2u; }
-    else { runs[0] = 1u; runs[1] = 2u; nruns = 2u; shift = 0u; }
+    if (kind[i] != LTRM_KNOT_REAL) { runs[0] = i + 1u; nruns = 1u; shift = 2u; }
+    else if (kind[i + 3u] != LTRM_KNOT_REAL) {
+        if (i < 2u) return 0;
+        runs[0] = i - 2u; nruns = 1u; shift = 2u;
+    } else if (i == 0u) { runs[0] = i; nruns = 1u; shift = 0u; }
+    else { runs[0] = i - 1u; runs[1] = i; nruns = 2u; shift = 0u; }
     for (end = 0; end < 2; end++) {
-        /* Knots i - 2 ..= i + 5 at this end of the window, loaded once (0 outside the table). */
-        int64_t v[8], f[7], d3[5], e4 = -1;
+        int64_t e[3], e4 = -1;
         uint32_t a;
-        for (j = 0; j < 8u; j++) {
-            uint32_t k = i + j;
-            v[j] = 0;
-            if (k >= 2u && k - 2u < LTRM_TABLE_KNOTS) v[j] = ltrm_knot_at(t, k - 2u, end);
+        for (j = 0; j < 3u; j++) {
+            e[j] = ltrm_knot_at(t, i + j + 1u, end) - ltrm_knot_at(t, i + j, end);
+            if (ltrm_abs_i64(e[j]) >= ((int64_t)1 << 29)) return 0;
         }
-        for (j = 0; j < 7u; j++) f[j] = v[j + 1u] - v[j];
-        for (j = 2u; j < 5u; j++)
-            if (ltrm_abs_i64(f[j]) >= ((int64_t)1 << 29)) return 0;
-        a = (uint32_t)ltrm_abs_i64(f[3]);
+        a = (uint32_t)ltrm_abs_i64(e[1]);
         if (a < lsb) lsb = a;
-        for (j = 0; j < 5u; j++) d3[j] = f[j + 2u] - (f[j + 1u] + f[j + 1u]) + f[j];
         for (r = 0; r < nruns; r++) {
-            uint32_t w = runs[r], k;
-            int ok = 1;
-            int64_t d4;
-            for (j = 0; ok && j < 5u; j++) {
-                k = i + w + j;
-                if (k < 2u || k - 2u >= LTRM_TABLE_KNOTS || kind[k - 2u] != LTRM_KNOT_REAL) ok = 0;
-            }
+            uint32_t w = runs[r];
+            int64_t f[4], d3a, d3b, d4;
+            int ok = w + 5u <= LTRM_TABLE_KNOTS;
+            for (j = 0; ok && j < 5u; j++)
+                if (kind[w + j] != LTRM_KNOT_REAL) ok = 0;
             if (!ok) continue;
-            d4 = ltrm_abs_i64(d3[w + 1u] - d3[w]);
+            for (j = 0; j < 4u; j++) f[j] = ltrm_knot_at(t, w + j + 1u, end) - ltrm_knot_at(t, w + j, end);
+            d3a = f[2] - (f[1] + f[1]) + f[0];
+            d3b = f[3] - (f[2] + f[2]) + f[1];
+            d4 = ltrm_abs_i64(d3b - d3a);
             if (d4 > e4) e4 = d4;
         }
         if (e4 < 0) return 0;
-        /* 3/128 of e4 (four times that one-sided) within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|f[3]| / 2^step). */
+        /* 3/128 of e4 (four times that one-sided) within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|e[1]| / 2^step). */
         if (e4 >= ((int64_t)1 << (30u - shift)) || 3u * ((uint32_t)e4 << shift) > ((a << (7u - LTRM_TABLE_ERROR_LOG2)) >> step))
             return 0;
     }
@@ -863,9 +860,6 @@ inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
     t->f16 = 0u;
     t->base = 0u;
     t->step = 0u;
-    t->memo_mc = 0;
-    t->memo_theta = 0;
-    t->has_memo = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
         t->x0[i] = 0;
         t->dx[i] = 0;
@@ -877,12 +871,7 @@ inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, in
     int32_t theta = 0;
     ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
     if (st != LTRM_OK) return st;
-    /* The same temperature again (held): its theta, converted once. */
-    if (t->has_memo && temp_mc == t->memo_mc) return ltrm_code_table_theta(t, code, t->memo_theta, out);
     if ((st = ltrm_theta_from_millicelsius(t->cache.cal, temp_mc, &theta)) != LTRM_OK) return st;
-    t->memo_mc = temp_mc;
-    t->memo_theta = theta;
-    t->has_memo = 1u;
     return ltrm_code_table_theta(t, code, theta, out);
 }
 

@@ -86,8 +86,6 @@ typedef struct ltrm_code_table {
     int32_t theta;   /* the last theta and its Q16 fraction in the window (valid while a window is kept) */
     uint32_t f16;
     uint32_t base, step;
-    int32_t memo_mc, memo_theta; /* the last temperature in m°C that converted, and its theta */
-    uint32_t has_memo;
     int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
     uint8_t usable[LTRM_TABLE_KNOTS];
 } ltrm_code_table;
