@@ -429,6 +429,14 @@ impl<'a> CodeTable<'a> {
         }
     }
 
+    /// x of knot `k` at the window's start or end (out of line: the build calls it often, and a copy at
+    /// each call would cost flash for no speed that matters).
+    #[inline(never)]
+    fn knot_at(&self, k: usize, end: bool) -> Option<i64> {
+        let a = i64::from(*self.x0.get(k)?);
+        Some(if end { a + i64::from(*self.dx.get(k)?) } else { a })
+    }
+
     /// The build-time checks of interval `i` (module docs): `None` where a knot is out of the table.
     fn interval_ok(
         &self,
@@ -448,49 +456,62 @@ impl<'a> CodeTable<'a> {
         // the run beside those four, the estimate times four (the one-sided cubic's error factor,
         // max |t(t − 1)(t − 2)(t − 3)|/24 over [0, 1], is 1.78 times the centred 3/128, and the fourth
         // difference beside the interval is not the one in it: at the swamped end it grows towards the end).
-        let (runs, shift) = if !real(i) {
-            ([Some(i + 1), None], 2)
+        // Runs are named by their first knot, i − 2 + r.
+        let (runs, shift): ([Option<usize>; 2], u32) = if !real(i) {
+            ([Some(3), None], 2)
         } else if !real(i + 3) {
-            ([i.checked_sub(2), None], 2)
+            ([Some(0), None], 2)
         } else {
-            ([i.checked_sub(1), Some(i)], 0)
+            ([Some(1), Some(2)], 0)
         };
         let mut lsb = u32::MAX;
         for end in [false, true] {
-            let x = |k: usize| -> Option<i64> {
-                let a = i64::from(*self.x0.get(k)?);
-                Some(if end { a + i64::from(*self.dx.get(k)?) } else { a })
-            };
+            // Knots i − 2 ..= i + 5 at this end of the window, loaded once (0 outside the table; a value is
+            // used only where its knot is real, or is one of the interval's four).
+            let mut v = [0i64; 8];
+            for (j, vj) in v.iter_mut().enumerate() {
+                if let Some(x) = (i + j).checked_sub(2).and_then(|k| self.knot_at(k, end)) {
+                    *vj = x;
+                }
+            }
+            let mut f = [0i64; 7];
+            for (fj, (a, b)) in f.iter_mut().zip(v.iter().zip(v.iter().skip(1))) {
+                *fj = b - a;
+            }
             // The differences of the four knots the sample uses: below 2^29.
-            let e = [x(i + 1)? - x(i)?, x(i + 2)? - x(i + 1)?, x(i + 3)? - x(i + 2)?];
-            if e.iter().any(|d| d.abs() >= DIFF_LIMIT) {
+            if [f[2], f[3], f[4]].iter().any(|d| d.abs() >= DIFF_LIMIT) {
                 return Some(false);
             }
             // The interval's own difference (knots i + 1, i + 2): below 2^29.
-            lsb = lsb.min(e[1].unsigned_abs() as u32);
+            lsb = lsb.min(f[3].unsigned_abs() as u32);
+            // Third differences and their changes (the fourth difference of the run from knot i − 2 + r).
+            // Sums, not 64-bit products (a runtime helper on a Cortex-M0).
+            let d3 = [
+                f[2] - (f[1] + f[1]) + f[0],
+                f[3] - (f[2] + f[2]) + f[1],
+                f[4] - (f[3] + f[3]) + f[2],
+                f[5] - (f[4] + f[4]) + f[3],
+                f[6] - (f[5] + f[5]) + f[4],
+            ];
+            let d4 =
+                [(d3[1] - d3[0]).abs(), (d3[2] - d3[1]).abs(), (d3[3] - d3[2]).abs(), (d3[4] - d3[3]).abs()];
             let mut e4: Option<i64> = None;
-            for &w in runs.iter().flatten() {
-                if !(0..5).all(|j| real(w + j)) {
-                    continue;
+            for &r in runs.iter().flatten() {
+                if (0..5).all(|j| (i + r + j).checked_sub(2).is_some_and(real)) {
+                    let d = *d4.get(r)?;
+                    e4 = Some(e4.map_or(d, |m| m.max(d)));
                 }
-                // Third differences at w and w + 1 and their change (the fourth difference). Sums, not
-                // 64-bit products (a runtime helper on a Cortex-M0).
-                let v = [x(w)?, x(w + 1)?, x(w + 2)?, x(w + 3)?, x(w + 4)?];
-                let f = [v[1] - v[0], v[2] - v[1], v[3] - v[2], v[4] - v[3]];
-                let d3 = [f[2] - (f[1] + f[1]) + f[0], f[3] - (f[2] + f[2]) + f[1]];
-                let d4 = (d3[1] - d3[0]).abs();
-                e4 = Some(e4.map_or(d4, |m| m.max(d4)));
             }
             let Some(e4) = e4 else {
                 return Some(false);
             };
-            // The cubic's error, about (3/128)·e4 (four times that one-sided), within 2^−TABLE_ERROR_LOG2 of an
-            // LSB (|Δ1|/2^step): 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted value
-            // fits a u32), in 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper on a
-            // Cortex-M0).
+            // The cubic's error, about (3/128)·e4 (four times that one-sided), within 2^−TABLE_ERROR_LOG2 of
+            // an LSB (|Δ1|/2^step): 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted
+            // value fits a u32), in 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper
+            // on a Cortex-M0).
             let e4 = u32::try_from(e4).unwrap_or(u32::MAX);
             if e4 >= 1 << (30 - shift)
-                || 3 * (e4 << shift) > ((e[1].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step
+                || 3 * (e4 << shift) > ((f[3].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step
             {
                 return Some(false);
             }
