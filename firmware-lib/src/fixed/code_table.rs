@@ -429,9 +429,7 @@ impl<'a> CodeTable<'a> {
         }
     }
 
-    /// x of knot `k` at the window's start or end (out of line: the build calls it often, and a copy at
-    /// each call would cost flash for no speed that matters).
-    #[inline(never)]
+    /// x of knot `k` at the window's start or end.
     fn knot_at(&self, k: usize, end: bool) -> Option<i64> {
         let a = i64::from(*self.x0.get(k)?);
         Some(if end { a + i64::from(*self.dx.get(k)?) } else { a })
