@@ -57,7 +57,7 @@
 //!
 //! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,288 bytes in C, 1,476 in Rust,
 //! the stage cache's 620 and 808 included). Building the table for a window evaluates the direct path's
-//! per-code part three times per knot (216 chains) and checks every interval (123,000–186,000
+//! per-code part three times per knot (216 chains) and checks every interval (124,000–186,000
 //! instructions on a Cortex-M0); it happens when a sample's temperature leaves the window (a window is
 //! `2^(t_step_log2 − 4)` θ, half a kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample
 //! once the table is built at 383–542 instructions on a Cortex-M0 and 212–327 on a Cortex-M4F (with its
