@@ -9,7 +9,8 @@
 # window), a block at one temperature through a stage and through the code table, and the naive float.
 # Prints instructions per sample (and, for the stage cache and the code table, the hits apart from the
 # samples that built them, and those builds), an M0 cycle estimate, library-helper calls per sample, the
-# helpers each build links, flash, per-sample code, static RAM, the stage cache's and the code table's
+# helpers each build links, flash, per-sample code (all of it, and a hit's and the build's apart), the code
+# table's fallbacks to the stage cache, static RAM, the stage cache's and the code table's
 # sizes, the stack high-water mark, and whether every ARM result matches the host library bit for bit
 # (exit 1 if not).
 #
@@ -63,7 +64,9 @@ for unit in ntc digital; do
 import json, sys
 d, desc = sys.argv[1], sys.argv[2]
 b = json.load(open(d + "/bench.json"))
-json.dump({"desc": desc, "table_bytes": b["table_bytes"], "universal_bytes": b["universal_bytes"]}, open(d + "/meta.json", "w"))
+fallbacks = {s["name"]: [s["table_fallbacks"], s["table_valid_codes"]] for s in b["streams"]}
+json.dump({"desc": desc, "table_bytes": b["table_bytes"], "universal_bytes": b["universal_bytes"],
+           "table_fallbacks": fallbacks}, open(d + "/meta.json", "w"))
 EOF
   echo "  $unit: ${DESC[$unit]}"
 done

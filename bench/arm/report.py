@@ -5,7 +5,7 @@
 
 Each file is named UNIT.LANG.CORE.OPT.json. Prints, per unit: instructions per sample for every stream and
 path and build, the Cortex-M0 cycle estimates, the library-helper calls per sample, the helpers each
-build links, flash, the per-sample code, static RAM, the stage cache's size and the stack high-water
+build links, flash, the per-sample code (all of it, then a hit's and the build's apart), static RAM, the stage cache's size and the stack high-water
 mark, and whether every result matched the host bit for bit.
 """
 import glob
@@ -85,6 +85,12 @@ def main():
                      lambda r: f"{fmt(r.get('insns_hit_mean'))}; {r.get('builds', 0)} x {fmt(r.get('build_insns_mean'))}",
                      24)
                 for c, o in CORES))
+        fb = meta.get("table_fallbacks", {})
+        if fb:
+            print("  code table: samples whose code it does not interpolate (they take the stage cache), of the "
+                  "samples whose code the converter accepts: " + "; ".join(
+                      f"{st} {k} of {n} ({100.0 * k / n if n else 0:.1f} %)" for st, (k, n) in fb.items()
+                      if st != "new"))
         print("\nCortex-M0 cycles per sample, estimated: fast (single-cycle) / small (32-cycle) multiplier")
         print(f"{'stream / path':<26}" + "".join(f"{'Cortex-M0 -' + o:>24}" for c, o in CORES if c == "m0"))
         for st, p, lang in rows:
@@ -107,9 +113,13 @@ def main():
             r = res[(unit, l, c, o)]
             stack = max(v["stack"] for s in r["streams"].values() for p, v in s.items())
             code = "; ".join(f"{p} {v['functions']} B ({v['executed']} B run)" for p, v in r["code"].items())
+            hit = "; ".join(
+                f"{p} {v['hit']['functions']} B ({v['hit']['executed']} B run), build apart "
+                f"{v['build_only']['functions']} B" for p, v in r["code"].items() if "hit" in v)
             print(f"  {CORE_NAME[c]} -{o} {l.upper():<5} flash {r['flash']:>6} B, static RAM {r['static_ram']} B "
                   f"+ stage cache {r['cache_bytes']} B (code table {r.get('table_bytes', 0)} B), stack {stack} B")
             print(f"      per-sample code (functions entered, wrapper included): {code}")
+            print(f"      a hit's code (functions entered by samples that build nothing): {hit}")
             print(f"      helpers linked: {', '.join(r['helpers_linked']) or 'none'}")
         print("\nagreement with the host library (status, x, dB, ratio of every sample)")
         for l, c, o in builds:

@@ -323,6 +323,10 @@ def main():
     paths = [p for p in a.paths.split(",") if f"bench_{p}" in img.symbols]
     result = {"label": a.label, "core": a.core, "streams": {}, "helpers_linked": sorted(set(img.helpers.values()))}
     path_exec = defaultdict(set)
+    # The blocks a hit runs (a sample that builds nothing: the per-sample samples at most four times the
+    # median, and a block's per-code call) and those a build runs (the other samples, a block's stage).
+    hit_exec = defaultdict(set)
+    build_exec = defaultdict(set)
     for stream in bench["streams"]:
         n = len(stream["code"])
         run.write_u32s("bench_code", stream["code"])
@@ -346,13 +350,16 @@ def main():
                 ins, cyc, mul, c = run.call("bench_stage_at" if p == "block" else "bench_table_prime", 0)
                 extra = {"stage_insns": ins - base[0], "stage_cycles": cyc, "stage_helper_calls": dict(c)}
                 path_exec[p] |= run.executed
+                build_exec[p] |= run.executed
                 ins, cyc, mul, c = run.call(f"bench_{p}", n)
+                hit_exec[p] |= run.executed
                 per = (ins - sum(base) / n) / n
                 counts = [per] * n
                 cycles = [cyc / n] * n
                 muls = [mul / n] * n
                 calls.update({k: v / n * n for k, v in c.items()})
                 path_exec[p] |= run.executed
+            sample_exec = []
             for i in range(n if p not in ("block", "tblock") else 0):
                 ins, cyc, mul, c = run.call(f"bench_{p}", i)
                 counts.append(ins - base[i])
@@ -360,6 +367,7 @@ def main():
                 muls.append(mul)
                 calls.update(c)
                 path_exec[p] |= run.executed
+                sample_exec.append(run.executed)
                 if p == a.profile:
                     profile[stream["name"]].append((ins, run.per_addr))
             stack = run.stack_used()
@@ -377,6 +385,8 @@ def main():
                 # others (the hits): what a held temperature costs once the build is paid.
                 med = sorted(counts)[n // 2]
                 hits = [k for k in counts if k <= 4 * med]
+                for k, ex in zip(counts, sample_exec):
+                    (hit_exec if k <= 4 * med else build_exec)[p].update(ex)
                 builds = [k for k in counts if k > 4 * med]
                 extra["insns_hit_mean"] = sum(hits) / len(hits)
                 extra["builds"] = len(builds)
@@ -396,7 +406,7 @@ def main():
             }
         result["streams"][stream["name"]] = sres
     # The code each path runs: every function it entered, its bench_* wrapper included (the evaluator is
-    # largely inlined into it), with the bytes actually executed as a lower bound.
+    # largely inlined into it), with the bytes actually executed as a lower bound; then a hit's and a build's.
     result["code"] = {}
     for p, blocks in path_exec.items():
         total, sizes = function_sizes(img, blocks)
@@ -406,6 +416,18 @@ def main():
         executed = sum(img.insn_size(a) for a in insns)
         result["code"][p] = {"functions": total, "executed": executed,
                              "by_function": dict(sorted(sizes.items(), key=lambda kv: -kv[1]))}
+        # A hit's code apart (the functions and bytes entered on samples that build nothing), and the build's
+        # code (functions entered only by the samples or calls that built a stage or a table).
+        hit = hit_exec.get(p, set())
+        hit_total, hit_sizes = function_sizes(img, hit)
+        hit_insns = set()
+        for b in hit:
+            hit_insns.update(img.block(*b)[5])
+        build_only = set(function_sizes(img, build_exec.get(p, set()))[1]) - set(hit_sizes)
+        result["code"][p]["hit"] = {"functions": hit_total, "executed": sum(img.insn_size(a) for a in hit_insns),
+                                    "by_function": dict(sorted(hit_sizes.items(), key=lambda kv: -kv[1]))}
+        result["code"][p]["build_only"] = {"functions": sum(img.symbols[f][1] for f in build_only if f in img.symbols),
+                                           "names": sorted(build_only)}
     sec = {name: size for name, _, size in img.sections}
     result["flash"] = sec.get(".text", 0) + sec.get(".ARM.exidx", 0) + sec.get(".data", 0)
     # Static RAM of the evaluator: data and bss objects other than the bench's buffers, its stage cache

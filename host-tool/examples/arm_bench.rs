@@ -40,6 +40,10 @@ struct Stream {
     cached: Vec<[i64; 6]>,
     /// The same through one code table over the stream, in order.
     table: Vec<[i64; 6]>,
+    /// The samples of `table` whose code the table did not interpolate (they took the stage cache), of those
+    /// whose code the direct path accepts.
+    table_fallbacks: usize,
+    table_valid_codes: usize,
 }
 
 #[derive(Serialize)]
@@ -206,12 +210,20 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         let cached =
             code.iter().zip(&temp).map(|(&c, &t)| outputs(correct_cached(&mut cache, raw, c, t))).collect();
         let mut table = CodeTable::new(view);
+        let (mut table_fallbacks, mut table_valid_codes) = (0, 0);
         let table = code
             .iter()
             .zip(&temp)
-            .map(|(&c, &t)| outputs(if raw { table.correct_raw(c, t) } else { table.correct(c, t as i32) }))
+            .map(|(&c, &t)| {
+                let r = if raw { table.correct_raw(c, t) } else { table.correct(c, t as i32) };
+                if view.check_code(c).is_ok() {
+                    table_valid_codes += 1;
+                    table_fallbacks += usize::from(!table.interpolates(c));
+                }
+                outputs(r)
+            })
             .collect();
-        streams.push(Stream { name, code, temp, direct, cached, table });
+        streams.push(Stream { name, code, temp, direct, cached, table, table_fallbacks, table_valid_codes });
     }
     let doc = Doc {
         unit: file.unit.clone().unwrap_or_default(),

@@ -101,6 +101,55 @@ pub fn mul_hi_u_split(a: i32, b: u32) -> i32 {
     }
 }
 
+/// `floor(a·b / 2^32)` of two unsigned operands: the high word of [`mul_magnitudes`] on ARMv6-M (no sign
+/// handling), the compiler's 64-bit product elsewhere (see [`mul_parts`]).
+#[inline(always)]
+pub fn mul_hi_uu(a: u32, b: u32) -> u32 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_magnitudes(a, b).0
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        ((u64::from(a) * u64::from(b)) >> 32) as u32
+    }
+}
+
+/// Whether [`mul_round32_by`] is exact for the constant `c` (checked where a constant is declared):
+/// `c ≥ 0` and, with `c = ch·2^16 + cl`, the largest middle sum `(2^15 − 1)·cl + (2^16 − 1)·ch + (cl − 1) +
+/// 2^15` below 2^31 (the smallest, `−2^15·cl`, is above −2^31 for any `cl < 2^16`).
+pub const fn round32_constant_fits(c: i32) -> bool {
+    let (ch, cl) = ((c >> 16) as i64, (c & 0xffff) as i64);
+    c >= 0 && 32_768 * cl + 65_535 * ch + (1 << 15) < 1 << 31
+}
+
+/// `x·c / 2^32` rounded to nearest (ties up), exactly, for a constant `c` that
+/// [`round32_constant_fits`]: on ARMv6-M from four 16 × 16-bit products with no sign handling
+/// (`x = xh·2^16 + xl` with `xh` signed and `xl` unsigned: `xh·ch + ⌊(xh·cl + xl·ch + ⌊xl·cl/2^16⌋ +
+/// 2^15)/2^16⌋`, each partial sum within ±2^31 by the constant's check), the compiler's 64-bit product
+/// elsewhere. Both are the exact rounded value, so they agree bit for bit.
+#[inline(always)]
+pub fn mul_round32_by(x: i32, c: i32) -> i32 {
+    #[cfg(all(target_arch = "arm", not(target_has_atomic = "32")))]
+    {
+        mul_round32_split(x, c)
+    }
+    #[cfg(not(all(target_arch = "arm", not(target_has_atomic = "32"))))]
+    {
+        ((i64::from(x) * i64::from(c) + (1 << 31)) >> 32) as i32
+    }
+}
+
+/// [`mul_round32_by`] from 16 × 16-bit products (the ARMv6-M form; public for its test on the host).
+#[inline(always)]
+pub fn mul_round32_split(x: i32, c: i32) -> i32 {
+    let (xh, xl) = (x >> 16, (x & 0xffff) as u32);
+    let (ch, cl) = (c >> 16, (c & 0xffff) as u32);
+    // |xh| ≤ 2^15, xl < 2^16, ch and cl below 2^16 with the constant's check: the sum fits an i32.
+    let mid = xh * cl as i32 + (xl * ch as u32) as i32 + ((xl * cl) >> 16) as i32 + (1 << 15);
+    xh * ch + (mid >> 16)
+}
+
 /// `floor(a·w / 2^16)` for a weight `w < 2^16`: `ah·w + floor(al·w / 2^16)` with `|ah·w| < 2^31` and
 /// `al·w < 2^32` (unsigned). The result's magnitude is below `|a|`.
 #[inline(always)]
@@ -181,6 +230,37 @@ mod tests {
             assert_eq!(i64::from(mul_hi_u_split(a, u32::MAX)), (i64::from(a) * i64::from(u32::MAX)) >> 32);
             assert_eq!(i64::from(mul_hi_u(a, u32::MAX)), (i64::from(a) * i64::from(u32::MAX)) >> 32);
             assert_eq!(i64::from(mulh16(a, 65535)), (i64::from(a) * 65535) >> 16);
+        }
+    }
+
+    #[test]
+    fn unsigned_high_words_and_rounded_constant_products_are_exact() {
+        // Against the u64/i64 products of the Rust core library (common practice: a reference implementation).
+        let mut rng = Rng(0x0bad_cafe_1234_5678);
+        // Constants that fit the rounded product's check (the dB one among them) and its limits.
+        let consts = [1_472_936_782, 0, 1, 65_536, 1_073_676_288, 1_073_709_057];
+        for &c in &consts {
+            assert!(round32_constant_fits(c), "{c}");
+        }
+        assert!(!round32_constant_fits(-1));
+        assert!(!round32_constant_fits(i32::MAX));
+        assert!(!round32_constant_fits(1_073_709_058));
+        for _ in 0..200_000 {
+            let (a, b) = (rng.next() as u32, rng.next() as u32);
+            assert_eq!(u64::from(mul_hi_uu(a, b)), (u64::from(a) * u64::from(b)) >> 32, "{a} · {b}");
+            assert_eq!(u64::from(mul_magnitudes(a, b).0), (u64::from(a) * u64::from(b)) >> 32, "{a} · {b}");
+            let x = rng.i32();
+            for &c in &consts {
+                let want = ((i64::from(x) * i64::from(c) + (1 << 31)) >> 32) as i32;
+                assert_eq!(mul_round32_split(x, c), want, "{x} · {c}");
+                assert_eq!(mul_round32_by(x, c), want, "{x} · {c}");
+            }
+        }
+        for x in [i32::MIN, i32::MIN + 1, -1, 0, 1, i32::MAX, -65_536, 65_535] {
+            for &c in &consts {
+                let want = ((i64::from(x) * i64::from(c) + (1 << 31)) >> 32) as i32;
+                assert_eq!(mul_round32_split(x, c), want, "{x} · {c}");
+            }
         }
     }
 

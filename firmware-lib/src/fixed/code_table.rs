@@ -18,12 +18,22 @@
 //! 3. checks x against the calibrated range, as the direct path does.
 //!
 //! An interval is used only where the build found it safe (all checks at table-build time, none per
-//! sample): its six neighbouring knots are values at both ends and the middle of the window, their
-//! differences fit the per-sample arithmetic (below), the cubic's estimated error from the fourth
-//! difference `(3/128)·|Δ⁴x|` and the line's in temperature (the middle of the window against the mean
-//! of its ends) are each below 2^−[`TABLE_ERROR_LOG2`] = 1/16 of the local LSB (the x step of one code,
-//! `|p₁ − p₀|/2^s`).
-//! Any other sample, and every sample whose temperature is outside the table's window until the table is
+//! sample): its four knots have values at both ends and the middle of the window, their differences fit
+//! the per-sample arithmetic (below), the cubic's estimated error from the fourth difference
+//! `(3/128)·|Δ⁴x|` of the runs of five knots around it and the line's in temperature (the middle of the
+//! window against the mean of its ends) are each below 2^−[`TABLE_ERROR_LOG2`] = 1/16 of the local LSB
+//! (the x step of one code, `|p₁ − p₀|/2^s`).
+//!
+//! At the ends of the curve (the converter's ends, the edge of the x̃ grid, the swamped end where the
+//! sensitivity falls below its limit) the knot beyond the last one the direct path can evaluate is a
+//! **virtual knot**: the cubic continuation `4·x₁ − 6·x₂ + 4·x₃ − x₄` of the four real knots beside it
+//! (at both ends of the window and in the line's bend). So the interval next to the end interpolates with
+//! the cubic through those four real knots, and every code between the first and the last real knot can
+//! be interpolated; its error estimate is the fourth difference of the five real knots beside it, taken
+//! four times (the one-sided cubic's error factor is 1.78 and the fourth difference grows towards the
+//! swamped end). What remains for the stage cache is less than one knot step at each end of the curve and
+//! the intervals whose checks fail (at the swamped end on a hot unit).
+//! Any such sample, and every sample whose temperature is outside the table's window until the table is
 //! rebuilt, goes through the [`StageCache`] the table keeps, i.e. the direct path exactly, errors
 //! included. So near a status boundary (a rail, the sensitivity limit, the calibrated x range) and in a
 //! bend the table cannot hold, the result is bit for bit the direct path's.
@@ -35,9 +45,9 @@
 //!
 //! # Overflow
 //!
-//! Knot values are x in Q24, within ±[`X_LIMIT`](super::X_LIMIT) (checked when built). For a usable
-//! interval the build proves: every knot's change across the window and every difference of neighbouring
-//! knots, at both ends of the window, below 2^29 in magnitude. A knot moved along the line stays within
+//! Knot values are x in Q24, within ±[`X_LIMIT`](super::X_LIMIT) (checked when built, virtual knots
+//! included). For a usable interval the build proves: each of its four knots' change across the window and
+//! each difference of its neighbouring knots, at both ends of the window, below 2^29 in magnitude. A knot moved along the line stays within
 //! one unit of the segment between its two ends, so the per-sample differences stay below 2^29 + 2 and the
 //! second differences below 2^30 + 4; the weights `t(1 − t)(2 − t)/6` and `t(1 − t)(1 + t)/6` are below
 //! 1/12 (Q16), so the cubic's correction is below 2^27 and x below 2^30.7 + 2^27. No division, no 64-bit
@@ -47,11 +57,11 @@
 //!
 //! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,288 bytes in C, 1,476 in Rust,
 //! the stage cache's 620 and 808 included). Building the table for a window evaluates the direct path's
-//! per-code part three times per knot (216 chains; 101,000–139,000 instructions on a Cortex-M0); it
-//! happens when a sample's temperature leaves the window (a window is `2^(t_step_log2 − 4)` θ, half a
-//! kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample once the table is built at
-//! 461–637 instructions on a Cortex-M0 and 237–340 on a Cortex-M4F (with its dB and ratio), against
-//! 746–943 and 454–556 through the stage cache.
+//! per-code part three times per knot (216 chains) and checks every interval (124,000–186,000
+//! instructions on a Cortex-M0); it happens when a sample's temperature leaves the window (a window is
+//! `2^(t_step_log2 − 4)` θ, half a kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample
+//! once the table is built at 383–542 instructions on a Cortex-M0 and 212–327 on a Cortex-M4F (with its
+//! dB and ratio), against 702–901 and 446–552 through the stage cache.
 
 use super::arith::mulh16;
 use super::interp::four;
@@ -68,6 +78,36 @@ pub const TABLE_KNOTS: usize = 72;
 pub const TABLE_ERROR_LOG2: u32 = 4;
 /// Largest knot difference (and change across a window) a usable interval may have.
 const DIFF_LIMIT: i64 = 1 << 29;
+/// A knot the direct path gives no x for (and no virtual one replaces).
+const MISSING: u8 = 0;
+/// A knot with the direct path's x.
+const REAL: u8 = 1;
+/// A knot past the end of a run of real ones, their cubic's continuation.
+const VIRTUAL: u8 = 2;
+
+/// `v` within ±i32::MAX (saturated).
+fn saturate(v: i64) -> i32 {
+    if v >= i64::from(i32::MAX) {
+        i32::MAX
+    } else if v <= -i64::from(i32::MAX) {
+        -i32::MAX
+    } else {
+        v as i32
+    }
+}
+
+/// The cubic continuation `4·v₁ − 6·v₂ + 4·v₃ − v₄` of four values (`src`, nearest first), in sums.
+fn extrapolate(v: &[i32; TABLE_KNOTS], src: [usize; 4]) -> Option<i64> {
+    let [a, b, c, d] = [
+        i64::from(*v.get(src[0])?),
+        i64::from(*v.get(src[1])?),
+        i64::from(*v.get(src[2])?),
+        i64::from(*v.get(src[3])?),
+    ];
+    let (ac, b2) = (a + c, b + b);
+    // 4(a + c) − 6b − d
+    Some((ac + ac + ac + ac) - (b2 + b2 + b2) - d)
+}
 
 /// The per-sample path of a firmware whose temperature is held or wanders slowly: a [`StageCache`] and a
 /// table of x over the code axis for the cached temperature window (see the module docs). About 1.3 KiB
@@ -140,11 +180,17 @@ impl<'a> CodeTable<'a> {
         self.cache.clear();
     }
 
-    /// The intervals the current table interpolates, out of those it can have (each needs the knot before
-    /// and two after its four: `TABLE_KNOTS − 5`; 0 without a table), for reports and tests.
+    /// The intervals the current table interpolates, out of those it can have (one per four consecutive
+    /// knots: `TABLE_KNOTS − 3`; 0 without a table), for reports and tests.
     pub fn usable_intervals(&self) -> (usize, usize) {
         let n = self.usable.iter().filter(|&&u| u).count();
-        (n, if self.window == NO_WINDOW { 0 } else { TABLE_KNOTS.saturating_sub(5) })
+        (n, if self.window == NO_WINDOW { 0 } else { TABLE_KNOTS.saturating_sub(3) })
+    }
+
+    /// Whether the current table interpolates `code` (a sample at it in the table's window builds nothing
+    /// and takes no fallback to the stage cache), for reports and tests; `false` without a table.
+    pub fn interpolates(&self, code: u32) -> bool {
+        self.window != NO_WINDOW && self.lookup(code, 0).is_some()
     }
 
     /// [`FixedCalibration::correct`] through the table: x within the verified bound of the direct path's
@@ -300,9 +346,9 @@ impl<'a> CodeTable<'a> {
         };
         // Each knot: x at the window's start (`x0`) and its change to the end (`dx`), stored where x exists
         // at the start, the middle and the end and the change is below 2^29; `bent` is twice the line's
-        // error at the middle, |2·x(θ½) − x(θ₀) − x(θ₁)| (saturated).
-        let mut valid = [false; TABLE_KNOTS];
-        let mut bent = [u32::MAX; TABLE_KNOTS];
+        // error at the middle, 2·x(θ½) − x(θ₀) − x(θ₁) (saturated at ±i32::MAX).
+        let mut kind = [MISSING; TABLE_KNOTS];
+        let mut bent = [i32::MAX; TABLE_KNOTS];
         for k in 0..TABLE_KNOTS {
             let code = match (base >> step).checked_add(k as u32).and_then(|v| v.checked_sub(1)) {
                 Some(v) if v <= u32::MAX >> step => v << step,
@@ -316,20 +362,21 @@ impl<'a> CodeTable<'a> {
             if let (Some(a), Some(m), Some(b)) = (a, m, b) {
                 if (b - a).abs() < DIFF_LIMIT {
                     if let (Some(x0), Some(dx), Some(v), Some(e)) =
-                        (self.x0.get_mut(k), self.dx.get_mut(k), valid.get_mut(k), bent.get_mut(k))
+                        (self.x0.get_mut(k), self.dx.get_mut(k), kind.get_mut(k), bent.get_mut(k))
                     {
                         // |a| < X_LIMIT and |b − a| < 2^29: both fit an i32.
                         *x0 = a as i32;
                         *dx = (b - a) as i32;
-                        *v = true;
-                        *e = u32::try_from((m + m - a - b).abs()).unwrap_or(u32::MAX);
+                        *v = REAL;
+                        *e = saturate(m + m - a - b);
                     }
                 }
             }
         }
-        // Interval i (codes base + i·2^step ..) uses knots i..i + 4; its checks need knots i − 1 ..= i + 4.
-        for i in 1..TABLE_KNOTS.saturating_sub(4) {
-            let ok = self.interval_ok(i, step, &valid, &bent).unwrap_or(false);
+        self.extend_ends(&mut kind, &mut bent);
+        // Interval i (codes base + i·2^step ..) uses knots i..i + 4.
+        for i in 0..TABLE_KNOTS.saturating_sub(3) {
+            let ok = self.interval_ok(i, step, &kind, &bent).unwrap_or(false);
             if let Some(u) = self.usable.get_mut(i) {
                 *u = ok;
             }
@@ -340,47 +387,180 @@ impl<'a> CodeTable<'a> {
         Ok(())
     }
 
-    /// The build-time checks of interval `i` (module docs): `None` where a knot is missing.
+    /// One virtual knot past each end of a run of real knots (module docs): where knot `k` is missing and
+    /// the four on one side of it (only one) are real, it gets their cubic's continuation,
+    /// `4·x₁ − 6·x₂ + 4·x₃ − x₄` (nearest first) at both ends of the window and in the line's bend, if its
+    /// values stay within `X_LIMIT` and its change below 2^29. Sums in i64, no product.
+    fn extend_ends(&mut self, kind: &mut [u8; TABLE_KNOTS], bent: &mut [i32; TABLE_KNOTS]) {
+        let real = *kind;
+        let is_real = |k: usize| real.get(k) == Some(&REAL);
+        for k in 0..TABLE_KNOTS {
+            if is_real(k) {
+                continue;
+            }
+            let up = (1..=4).all(|j| is_real(k + j));
+            let down = k >= 4 && (1..=4).all(|j| is_real(k - j));
+            let src = match (up, down) {
+                (true, false) => [k + 1, k + 2, k + 3, k + 4],
+                (false, true) => [k - 1, k - 2, k - 3, k - 4],
+                _ => continue,
+            };
+            let a = extrapolate(&self.x0, src);
+            let d = extrapolate(&self.dx, src);
+            let e = if src.iter().any(|&j| bent.get(j).is_none_or(|b| b.unsigned_abs() >= i32::MAX as u32)) {
+                None
+            } else {
+                extrapolate(bent, src)
+            };
+            if let (Some(a), Some(d), Some(e)) = (a, d, e) {
+                if a.abs() < i64::from(X_LIMIT) && (a + d).abs() < i64::from(X_LIMIT) && d.abs() < DIFF_LIMIT
+                {
+                    if let (Some(x0), Some(dx), Some(v), Some(b)) =
+                        (self.x0.get_mut(k), self.dx.get_mut(k), kind.get_mut(k), bent.get_mut(k))
+                    {
+                        // Both within the bounds just checked: they fit an i32.
+                        *x0 = a as i32;
+                        *dx = d as i32;
+                        *v = VIRTUAL;
+                        *b = saturate(e);
+                    }
+                }
+            }
+        }
+    }
+
+    /// x of knot `k` at the window's start or end.
+    fn knot_at(&self, k: usize, end: bool) -> Option<i64> {
+        let a = i64::from(*self.x0.get(k)?);
+        Some(if end { a + i64::from(*self.dx.get(k)?) } else { a })
+    }
+
+    /// The build-time checks of interval `i` (module docs): `None` where a knot is out of the table.
     fn interval_ok(
         &self,
         i: usize,
         step: u32,
-        valid: &[bool; TABLE_KNOTS],
-        bent: &[u32; TABLE_KNOTS],
+        kind: &[u8; TABLE_KNOTS],
+        bent: &[i32; TABLE_KNOTS],
     ) -> Option<bool> {
-        let lo = i.checked_sub(1)?;
-        if !valid.get(lo..i + 5)?.iter().all(|&v| v) {
+        let used = kind.get(i..i + 4)?;
+        let real = |k: usize| kind.get(k) == Some(&REAL);
+        // The four knots exist; a virtual one only at an end of them.
+        if used.contains(&MISSING) || !(real(i + 1) && real(i + 2)) {
             return Some(false);
         }
+        // The runs of five real knots whose fourth differences estimate the cubic's error: the two around
+        // the interval, or, where the interval's cubic continues four real knots through a virtual one,
+        // the run beside those four, the estimate times four (the one-sided cubic's error factor,
+        // max |t(t − 1)(t − 2)(t − 3)|/24 over [0, 1], is 1.78 times the centred 3/128, and the fourth
+        // difference beside the interval is not the one in it: at the swamped end it grows towards the end).
+        // Runs are named by their first knot, i − 2 + r.
+        let (runs, shift): ([Option<usize>; 2], u32) = if !real(i) {
+            ([Some(3), None], 2)
+        } else if !real(i + 3) {
+            ([Some(0), None], 2)
+        } else {
+            ([Some(1), Some(2)], 0)
+        };
         let mut lsb = u32::MAX;
         for end in [false, true] {
-            // Six knots' values at one end of the window, in i64.
-            let mut x = [0i64; 6];
-            for (j, v) in x.iter_mut().enumerate() {
-                let a = i64::from(*self.x0.get(lo + j)?);
-                *v = if end { a + i64::from(*self.dx.get(lo + j)?) } else { a };
+            // Knots i − 2 ..= i + 5 at this end of the window, loaded once (0 outside the table; a value is
+            // used only where its knot is real, or is one of the interval's four).
+            let mut v = [0i64; 8];
+            for (j, vj) in v.iter_mut().enumerate() {
+                if let Some(x) = (i + j).checked_sub(2).and_then(|k| self.knot_at(k, end)) {
+                    *vj = x;
+                }
             }
-            let e = [x[1] - x[0], x[2] - x[1], x[3] - x[2], x[4] - x[3], x[5] - x[4]];
-            if e.iter().any(|d| d.abs() >= DIFF_LIMIT) {
+            let mut f = [0i64; 7];
+            for (fj, (a, b)) in f.iter_mut().zip(v.iter().zip(v.iter().skip(1))) {
+                *fj = b - a;
+            }
+            // The differences of the four knots the sample uses: below 2^29.
+            if [f[2], f[3], f[4]].iter().any(|d| d.abs() >= DIFF_LIMIT) {
                 return Some(false);
             }
             // The interval's own difference (knots i + 1, i + 2): below 2^29.
-            lsb = lsb.min(e[2].unsigned_abs() as u32);
-            // Third differences at i − 1, i, i + 1 and their changes (the fourth differences).
+            lsb = lsb.min(f[3].unsigned_abs() as u32);
+            // Third differences and their changes (the fourth difference of the run from knot i − 2 + r).
             // Sums, not 64-bit products (a runtime helper on a Cortex-M0).
-            let d3 = [e[2] - (e[1] + e[1]) + e[0], e[3] - (e[2] + e[2]) + e[1], e[4] - (e[3] + e[3]) + e[2]];
-            let e4 = (d3[1] - d3[0]).abs().max((d3[2] - d3[1]).abs());
-            // The cubic's error, about (3/128)·e4, within 2^−TABLE_ERROR_LOG2 of an LSB (|Δ1|/2^step):
-            // 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted value fits a u32), in
-            // 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper on a Cortex-M0).
+            let d3 = [
+                f[2] - (f[1] + f[1]) + f[0],
+                f[3] - (f[2] + f[2]) + f[1],
+                f[4] - (f[3] + f[3]) + f[2],
+                f[5] - (f[4] + f[4]) + f[3],
+                f[6] - (f[5] + f[5]) + f[4],
+            ];
+            let d4 =
+                [(d3[1] - d3[0]).abs(), (d3[2] - d3[1]).abs(), (d3[3] - d3[2]).abs(), (d3[4] - d3[3]).abs()];
+            let mut e4: Option<i64> = None;
+            for &r in runs.iter().flatten() {
+                if (0..5).all(|j| (i + r + j).checked_sub(2).is_some_and(real)) {
+                    let d = *d4.get(r)?;
+                    e4 = Some(e4.map_or(d, |m| m.max(d)));
+                }
+            }
+            let Some(e4) = e4 else {
+                return Some(false);
+            };
+            // The cubic's error, about (3/128)·e4 (four times that one-sided), within 2^−TABLE_ERROR_LOG2 of
+            // an LSB (|Δ1|/2^step): 3·e4 ≤ |Δ1|·2^(7 − TABLE_ERROR_LOG2)/2^step (|Δ1| < 2^29: the shifted
+            // value fits a u32), in 32 bits once e4 < 2^30 (a 64-bit product by 3 would call a runtime helper
+            // on a Cortex-M0).
             let e4 = u32::try_from(e4).unwrap_or(u32::MAX);
-            if e4 >= 1 << 30 || 3 * e4 > ((e[2].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step {
+            if e4 >= 1 << (30 - shift)
+                || 3 * (e4 << shift) > ((f[3].unsigned_abs() as u32) << (7 - TABLE_ERROR_LOG2)) >> step
+            {
                 return Some(false);
             }
         }
         // The line in temperature, off by bent/2 at the middle, within 2^−TABLE_ERROR_LOG2 of an LSB at the
         // four knots.
         let limit = lsb >> (step + TABLE_ERROR_LOG2 - 1);
-        Some(lsb > 0 && bent.get(i..i + 4)?.iter().all(|&b| b <= limit))
+        Some(lsb > 0 && bent.get(i..i + 4)?.iter().all(|&b| b.unsigned_abs() <= limit))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::test_units::linear_fixed;
+
+    /// On the linear unit (x linear in the code: every interval passes its checks) with its x̃ grid starting
+    /// at −4 Np (code 10924, between knots: below it the direct path and the knots are below range), the
+    /// only codes the direct path accepts that the table leaves to the stage cache are those before the
+    /// first knot it can evaluate (340 codes): less than one knot step (without the virtual knots it would
+    /// be more than two, as an interval would need two real knots beyond its own).
+    #[test]
+    fn only_codes_beyond_the_end_knots_fall_back() {
+        let mut unit = linear_fixed();
+        unit.header.xa_origin = -4 << 24;
+        let c = unit.view();
+        assert_eq!(c.validate(), Ok(()));
+        for mc in [1_000, 25_000, 49_000] {
+            let mut table = CodeTable::new(c);
+            let mut ok = 0u32;
+            let mut fallbacks = 0u32;
+            for code in 0..=65_535u32 {
+                let direct = c.correct(code, mc);
+                let t = table.correct(code, mc);
+                if direct.is_ok() {
+                    ok += 1;
+                    fallbacks += u32::from(!table.interpolates(code));
+                    // The linear unit's table is exact where it interpolates.
+                    assert_eq!(t, direct, "code {code} at {mc} m°C");
+                }
+            }
+            let step = 1u32 << table.step;
+            assert!(fallbacks > 0, "the grid's end is inside the converter");
+            assert!(ok > 40_000, "{ok} codes in range");
+            assert!(
+                fallbacks < 2 * step,
+                "{fallbacks} of {ok} codes fall back at {mc} m°C (knot step {step})"
+            );
+            let (used, of) = table.usable_intervals();
+            assert_eq!(of, TABLE_KNOTS - 3);
+            assert!(used > 40, "{used} intervals");
+        }
     }
 }

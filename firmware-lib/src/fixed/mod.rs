@@ -1088,10 +1088,13 @@ fn decades(x: i32) -> i64 {
     i64::from(mul_round32(x, INV_LN10_Q32))
 }
 
-/// Power dB (Q24) of x (Q24): `x·10/ln 10 = 4x + x·0.3429…`.
+/// [`DB10_FRAC_Q32`] suits the product without sign handling ([`arith::mul_round32_by`]).
+const _: () = assert!(arith::round32_constant_fits(DB10_FRAC_Q32));
+
+/// Power dB (Q24) of x (Q24): `x·10/ln 10 = 4x + x·0.3429…`, the product rounded exactly.
 #[inline(always)]
 fn db_power(x: i32) -> i64 {
-    (i64::from(x) << 2) + i64::from(mul_round32(x, DB10_FRAC_Q32))
+    (i64::from(x) << 2) + i64::from(arith::mul_round32_by(x, DB10_FRAC_Q32))
 }
 
 /// Fraction bits of [`FixedReading::value`] for a unit: 32 for [`Unit::Ratio`], 24 for the others.

@@ -267,7 +267,7 @@ fn shared_definitions() -> String {
     use logtrim::fixed::{self as f, transcend as t};
     let mut out =
         String::from("/* ---- constants shared with logtrim::fixed (rendered from its items) ---- */\n");
-    let defs: [(&str, String, &str); 42] = [
+    let defs: [(&str, String, &str); 46] = [
         (
             "LTRM_LAYOUT_VERSION",
             format!("{}u", f::LAYOUT_VERSION),
@@ -309,6 +309,10 @@ fn shared_definitions() -> String {
         ("LTRM_EXP64_LEN", format!("{}u", t::EXP64_LEN), "transcend::EXP64_LEN"),
         ("LTRM_HALF_INV_LN2_Q16", format!("{}u", t::HALF_INV_LN2_Q16), "transcend::HALF_INV_LN2_Q16"),
         ("LTRM_LN2_Q31", format!("{}", t::LN2_Q31), "transcend::LN2_Q31"),
+        ("LTRM_LN2_Q24", format!("{}", t::LN2_Q24), "transcend::LN2_Q24"),
+        ("LTRM_LN2_Q31_REST", format!("{}", t::LN2_Q31_REST), "transcend::LN2_Q31_REST"),
+        ("LTRM_EXP_X_ABOVE", format!("{}", t::EXP_X_ABOVE), "transcend::EXP_X_ABOVE"),
+        ("LTRM_EXP_X_ZERO", format!("({})", t::EXP_X_ZERO), "transcend::EXP_X_ZERO"),
         ("LTRM_INV_LN10_Q32", format!("{}", f::INV_LN10_Q32), "fixed::INV_LN10_Q32"),
         ("LTRM_DB10_FRAC_Q32", format!("{}", f::DB10_FRAC_Q32), "fixed::DB10_FRAC_Q32"),
         ("LTRM_MAX_SERIES", format!("{}u", logtrim::calibration::MAX_SERIES), "calibration::MAX_SERIES"),

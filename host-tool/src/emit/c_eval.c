@@ -55,6 +55,30 @@ static inline int32_t ltrm_mul_hi_u(int32_t a, uint32_t b) {
 #endif
 }
 
+/* floor(a*b / 2^32) of two unsigned operands. */
+static inline uint32_t ltrm_mul_hi_uu(uint32_t a, uint32_t b) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (uint32_t)(((uint64_t)a * b) >> 32);
+#else
+    uint32_t al = a & 0xffffu, ah = a >> 16, bl = b & 0xffffu, bh = b >> 16;
+    uint32_t p0 = al * bl, m1 = al * bh + (p0 >> 16), m2 = (m1 & 0xffffu) + ah * bl;
+    return ah * bh + (m1 >> 16) + (m2 >> 16);
+#endif
+}
+
+/* x*c / 2^32 rounded to nearest (ties up), exactly, for a constant c >= 0 whose middle sum fits (see
+ * logtrim::fixed::arith::round32_constant_fits): four 16x16-bit products without sign handling on ARMv6-M. */
+static inline int32_t ltrm_mul_round32_by(int32_t x, int32_t c) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)ltrm_asr64((int64_t)x * c + 2147483648LL, 32);
+#else
+    int32_t xh = ltrm_asr32(x, 16), ch = c >> 16;
+    uint32_t xl = (uint32_t)x & 0xffffu, cl = (uint32_t)c & 0xffffu;
+    int32_t mid = xh * (int32_t)cl + (int32_t)(xl * (uint32_t)ch) + (int32_t)((xl * cl) >> 16) + 32768;
+    return xh * ch + ltrm_asr32(mid, 16);
+#endif
+}
+
 /* floor(a*w / 2^16) for w < 2^16: two products. */
 static inline int32_t ltrm_mulh16(int32_t a, uint32_t w) {
     int32_t ah = ltrm_asr32(a, 16);
@@ -188,16 +212,19 @@ static inline ltrm_status ltrm_bend_q24(int32_t v, int32_t *out) {
     return LTRM_OK;
 }
 
-/* e^x, x Q24, result Q32. */
+/* e^x, x Q24, result Q32: the reduction in 32 bits (x bounded first), the same (k, r) as r = 128x - k*LN2_Q31. */
 static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
-    int32_t k = ltrm_asr32(ltrm_mulh16(x, LTRM_HALF_INV_LN2_Q16), 23), sh;
-    int32_t lh = LTRM_LN2_Q31 >> 16, ll = LTRM_LN2_Q31 & 0xffff;
-    int64_t r = (int64_t)x * 128 - ((int64_t)(k * lh) * 65536 + (int64_t)(k * ll));
+    int32_t k, a, r, sh;
     uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
+    if (x >= LTRM_EXP_X_ABOVE) return LTRM_ABOVE_RANGE;
+    if (x < LTRM_EXP_X_ZERO) { *out = 0; return LTRM_OK; }
+    k = ltrm_asr32(ltrm_asr32(x, 14) * (int32_t)LTRM_HALF_INV_LN2_Q16, 25);
+    a = x - k * LTRM_LN2_Q24;
+    if (a < 0) { k -= 1; a += LTRM_LN2_Q24; }
+    else if (a >= LTRM_LN2_Q24) { k += 1; a -= LTRM_LN2_Q24; }
+    r = a * 128 - k * LTRM_LN2_Q31_REST;
     if (r < 0) { k -= 1; r += LTRM_LN2_Q31; }
     else if (r >= LTRM_LN2_Q31) { k += 1; r -= LTRM_LN2_Q31; }
-    if (k > 30) return LTRM_ABOVE_RANGE;
-    if (k < -36) { *out = 0; return LTRM_OK; }
     ru = (uint32_t)r;
     j = ru >> (31u - LTRM_EXP64_LOG2);
     rho = ru & ((1u << (31u - LTRM_EXP64_LOG2)) - 1u);
@@ -208,7 +235,7 @@ static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
     q = rho30 + rho2h + ((rho3 * 10923u) >> 16);
     if (j >= LTRM_EXP64_LEN) return LTRM_ABOVE_RANGE;
     base = (uint32_t)ltrm_exp64[j];
-    m = base + ((uint32_t)ltrm_mul_hi_u((int32_t)(q << 6), base) >> 4);
+    m = base + (ltrm_mul_hi_uu(q << 6, base) >> 4);
     sh = k + 2;
     if (sh >= 32) *out = (int64_t)m * ((int64_t)1 << 32);
     else if (sh > 0) *out = (int64_t)(m >> (32 - sh)) * ((int64_t)1 << 32) + (int64_t)((m & (0xffffffffu >> sh)) << sh);
@@ -719,39 +746,108 @@ static inline int ltrm_knot_x(const ltrm_stage_cache *k, const ltrm_scalars *s, 
 
 static inline int64_t ltrm_abs_i64(int64_t v) { return v < 0 ? -v : v; }
 
-/* The build-time checks of interval i: its six knots exist, their differences are below 2^29 at both ends of the
- * window, the cubic's estimated error (3/128 of the fourth difference) and the line's in temperature are each
- * below 2^-LTRM_TABLE_ERROR_LOG2 of an LSB. Sums and 32-bit products, never a 64-bit product. */
-static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step, const uint8_t *valid, const uint32_t *bent) {
-    uint32_t lsb = 0xffffffffu, j, limit;
-    int end;
-    for (j = i - 1u; j < i + 5u; j++)
-        if (!valid[j]) return 0;
-    for (end = 0; end < 2; end++) {
-        int64_t x[6], e[5], d3[3], e4, a, b;
-        for (j = 0; j < 6u; j++) {
-            x[j] = t->x0[i - 1u + j];
-            if (end) x[j] += t->dx[i - 1u + j];
+/* Knot kinds of a table build (logtrim::fixed::code_table). */
+#define LTRM_KNOT_MISSING 0u
+#define LTRM_KNOT_REAL 1u
+#define LTRM_KNOT_VIRTUAL 2u
+
+static inline int32_t ltrm_saturate(int64_t v) {
+    return v >= INT32_MAX ? INT32_MAX : (v <= -(int64_t)INT32_MAX ? -INT32_MAX : (int32_t)v);
+}
+
+/* The cubic continuation 4*v1 - 6*v2 + 4*v3 - v4 of four values (nearest first), in sums. */
+static inline int64_t ltrm_extrapolate(const int32_t *v, const uint32_t src[4]) {
+    int64_t ac = (int64_t)v[src[0]] + v[src[2]], b2 = (int64_t)v[src[1]] + v[src[1]];
+    return (ac + ac + ac + ac) - (b2 + b2 + b2) - (int64_t)v[src[3]];
+}
+
+/* One virtual knot past each end of a run of real knots: where knot k is missing and the four on one side of it
+ * (only one) are real, their cubic's continuation at both ends of the window and in the line's bend, if its values
+ * stay within +-LTRM_X_LIMIT and its change below 2^29. */
+static void ltrm_extend_ends(ltrm_code_table *t, uint8_t *kind, int32_t *bent) {
+    uint8_t real[LTRM_TABLE_KNOTS];
+    uint32_t k, j;
+    for (k = 0; k < LTRM_TABLE_KNOTS; k++) real[k] = kind[k] == LTRM_KNOT_REAL;
+    for (k = 0; k < LTRM_TABLE_KNOTS; k++) {
+        int up = k + 4u < LTRM_TABLE_KNOTS, down = k >= 4u, sat = 0;
+        uint32_t src[4];
+        int64_t a, d, e;
+        if (real[k]) continue;
+        for (j = 1u; j <= 4u; j++) {
+            if (up && !real[k + j]) up = 0;
+            if (down && !real[k - j]) down = 0;
         }
-        for (j = 0; j < 5u; j++) {
-            e[j] = x[j + 1u] - x[j];
+        if (up == down) continue;
+        for (j = 0; j < 4u; j++) {
+            src[j] = up ? k + 1u + j : k - 1u - j;
+            if (bent[src[j]] == INT32_MAX || bent[src[j]] == -INT32_MAX) sat = 1;
+        }
+        if (sat) continue;
+        a = ltrm_extrapolate(t->x0, src);
+        d = ltrm_extrapolate(t->dx, src);
+        e = ltrm_extrapolate(bent, src);
+        if (!(ltrm_abs_i64(a) < LTRM_X_LIMIT && ltrm_abs_i64(a + d) < LTRM_X_LIMIT && ltrm_abs_i64(d) < ((int64_t)1 << 29)))
+            continue;
+        t->x0[k] = (int32_t)a;
+        t->dx[k] = (int32_t)d;
+        kind[k] = LTRM_KNOT_VIRTUAL;
+        bent[k] = ltrm_saturate(e);
+    }
+}
+
+/* x of knot k at one end of the window. */
+static inline int64_t ltrm_knot_at(const ltrm_code_table *t, uint32_t k, int end) {
+    return end ? (int64_t)t->x0[k] + t->dx[k] : (int64_t)t->x0[k];
+}
+
+/* The build-time checks of interval i (knots i..i+3): the four knots exist (a virtual one only at an end of them),
+ * their differences are below 2^29 at both ends of the window, the cubic's estimated error (3/128 of the fourth
+ * difference of the runs of five real knots around it; four times that where it continues four real knots through
+ * a virtual one) and the line's in temperature are each below 2^-LTRM_TABLE_ERROR_LOG2 of an LSB. Sums and 32-bit
+ * products, never a 64-bit product. */
+static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step, const uint8_t *kind, const int32_t *bent) {
+    uint32_t lsb = 0xffffffffu, j, limit, runs[2], nruns, shift, r;
+    int end;
+    for (j = i; j < i + 4u; j++)
+        if (kind[j] == LTRM_KNOT_MISSING) return 0;
+    if (kind[i + 1u] != LTRM_KNOT_REAL || kind[i + 2u] != LTRM_KNOT_REAL) return 0;
+    if (kind[i] != LTRM_KNOT_REAL) { runs[0] = i + 1u; nruns = 1u; shift = 2u; }
+    else if (kind[i + 3u] != LTRM_KNOT_REAL) {
+        if (i < 2u) return 0;
+        runs[0] = i - 2u; nruns = 1u; shift = 2u;
+    } else if (i == 0u) { runs[0] = i; nruns = 1u; shift = 0u; }
+    else { runs[0] = i - 1u; runs[1] = i; nruns = 2u; shift = 0u; }
+    for (end = 0; end < 2; end++) {
+        int64_t e[3], e4 = -1;
+        uint32_t a;
+        for (j = 0; j < 3u; j++) {
+            e[j] = ltrm_knot_at(t, i + j + 1u, end) - ltrm_knot_at(t, i + j, end);
             if (ltrm_abs_i64(e[j]) >= ((int64_t)1 << 29)) return 0;
         }
-        a = ltrm_abs_i64(e[2]);
-        if ((uint32_t)a < lsb) lsb = (uint32_t)a;
-        d3[0] = e[2] - (e[1] + e[1]) + e[0];
-        d3[1] = e[3] - (e[2] + e[2]) + e[1];
-        d3[2] = e[4] - (e[3] + e[3]) + e[2];
-        e4 = ltrm_abs_i64(d3[1] - d3[0]);
-        b = ltrm_abs_i64(d3[2] - d3[1]);
-        if (b > e4) e4 = b;
-        /* 3/128 of e4 within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|e[2]| / 2^step); |e[2]| < 2^29. */
-        if (e4 >= ((int64_t)1 << 30) || 3u * (uint32_t)e4 > (((uint32_t)a << (7u - LTRM_TABLE_ERROR_LOG2)) >> step)) return 0;
+        a = (uint32_t)ltrm_abs_i64(e[1]);
+        if (a < lsb) lsb = a;
+        for (r = 0; r < nruns; r++) {
+            uint32_t w = runs[r];
+            int64_t f[4], d3a, d3b, d4;
+            int ok = w + 5u <= LTRM_TABLE_KNOTS;
+            for (j = 0; ok && j < 5u; j++)
+                if (kind[w + j] != LTRM_KNOT_REAL) ok = 0;
+            if (!ok) continue;
+            for (j = 0; j < 4u; j++) f[j] = ltrm_knot_at(t, w + j + 1u, end) - ltrm_knot_at(t, w + j, end);
+            d3a = f[2] - (f[1] + f[1]) + f[0];
+            d3b = f[3] - (f[2] + f[2]) + f[1];
+            d4 = ltrm_abs_i64(d3b - d3a);
+            if (d4 > e4) e4 = d4;
+        }
+        if (e4 < 0) return 0;
+        /* 3/128 of e4 (four times that one-sided) within 2^-LTRM_TABLE_ERROR_LOG2 of an LSB (|e[1]| / 2^step). */
+        if (e4 >= ((int64_t)1 << (30u - shift)) || 3u * ((uint32_t)e4 << shift) > ((a << (7u - LTRM_TABLE_ERROR_LOG2)) >> step))
+            return 0;
     }
     limit = lsb >> (step + LTRM_TABLE_ERROR_LOG2 - 1u);
     if (lsb == 0u) return 0;
     for (j = i; j < i + 4u; j++)
-        if (bent[j] > limit) return 0;
+        if ((uint32_t)(bent[j] < 0 ? -bent[j] : bent[j]) > limit) return 0;
     return 1;
 }
 
@@ -762,8 +858,8 @@ static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
     const ltrm_fixed *c = k->cal;
     uint32_t qo = c->offset_frac > 30u ? 30u : c->offset_frac, lo = k->code_lo, hi = k->code_hi, step = 0u, base, i;
     ltrm_scalars s0, s1, s2;
-    uint8_t valid[LTRM_TABLE_KNOTS];
-    uint32_t bent[LTRM_TABLE_KNOTS];
+    uint8_t kind[LTRM_TABLE_KNOTS];
+    int32_t bent[LTRM_TABLE_KNOTS];
     int kept = 0;
     ltrm_status st;
     t->window = LTRM_NO_WINDOW;
@@ -786,9 +882,9 @@ static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
     if ((st = ltrm_end_scalars(c, index + 1u, &s2)) != LTRM_OK) return st;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
         uint32_t q = (base >> step) + i;
-        int64_t a, m, b, e;
-        valid[i] = 0u;
-        bent[i] = 0xffffffffu;
+        int64_t a, m, b;
+        kind[i] = LTRM_KNOT_MISSING;
+        bent[i] = INT32_MAX;
         if (q < i || q == 0u || q - 1u > (0xffffffffu >> step)) continue;
         if (!ltrm_knot_x(k, &s0, (q - 1u) << step, 0, &a) || !ltrm_knot_x(k, &s1, (q - 1u) << step, 1, &m) ||
             !ltrm_knot_x(k, &s2, (q - 1u) << step, 2, &b))
@@ -796,11 +892,11 @@ static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
         if (ltrm_abs_i64(b - a) >= ((int64_t)1 << 29)) continue;
         t->x0[i] = (int32_t)a;
         t->dx[i] = (int32_t)(b - a);
-        valid[i] = 1u;
-        e = ltrm_abs_i64(m + m - a - b);
-        bent[i] = e > 0xffffffffLL ? 0xffffffffu : (uint32_t)e;
+        kind[i] = LTRM_KNOT_REAL;
+        bent[i] = ltrm_saturate(m + m - a - b);
     }
-    for (i = 1u; i + 4u < LTRM_TABLE_KNOTS; i++) t->usable[i] = (uint8_t)ltrm_interval_ok(t, i, step, valid, bent);
+    ltrm_extend_ends(t, kind, bent);
+    for (i = 0; i + 3u < LTRM_TABLE_KNOTS; i++) t->usable[i] = (uint8_t)ltrm_interval_ok(t, i, step, kind, bent);
     t->base = base;
     t->step = step;
     t->window = index;
@@ -929,8 +1025,8 @@ inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_
     switch (unit) {
     case LTRM_NEPERS: *out = r->x; return LTRM_OK;
     case LTRM_DECADES: *out = ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
-    case LTRM_DB_POWER: *out = (int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32); return LTRM_OK;
-    case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
+    case LTRM_DB_POWER: *out = (int64_t)r->x * 4 + ltrm_mul_round32_by(r->x, LTRM_DB10_FRAC_Q32); return LTRM_OK;
+    case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32_by(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
     case LTRM_ABSORBANCE: *out = -(int64_t)ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
     case LTRM_TRANSMITTANCE_PERCENT:
         if ((st = ltrm_exp_q32(r->x, &e)) != LTRM_OK) return st;

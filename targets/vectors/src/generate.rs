@@ -17,11 +17,14 @@ use rand_chacha::ChaCha8Rng;
 use crate::eval::{self, Kind, TestUnit};
 use crate::format::{encode, Record};
 
-/// Records per kind: the corrections get the most.
+/// Records per kind: the corrections get the most. The Cortex-M0 build of `targets/qemu` (the vectors and
+/// the library in the emulated machine's 256 KiB of flash) is at its limit: the micromath correction, which
+/// the fixed path does not share, gives up a few records to the fixed path's code.
 fn count(kind: Kind) -> usize {
     match kind {
         Kind::F32Correct | Kind::FixedCorrect => 400,
-        Kind::F32Micromath | Kind::FixedRaw | Kind::ImageParse => 200,
+        Kind::F32Micromath => 184,
+        Kind::FixedRaw | Kind::ImageParse => 200,
         _ => 120,
     }
 }
