@@ -58,6 +58,7 @@ use serde::Serialize;
 
 use crate::calfile::CalFile;
 use crate::error_scale::{db_power, ErrorScale};
+use crate::output::number::Num;
 use crate::progress::{Counter, OnProgress};
 
 /// The f32 backend the f32 path is verified with.
@@ -813,7 +814,10 @@ impl VerifyReport {
                 writeln!(
                     f,
                     "  worst  code {} at {:.3} °C{tc}: x {:.7} vs reference {:.7}",
-                    w.code, w.temp_c, w.x, w.x_ref
+                    w.code,
+                    Num(w.temp_c),
+                    Num(w.x),
+                    Num(w.x_ref)
                 )?;
             }
             let s = &p.status;
@@ -826,7 +830,10 @@ impl VerifyReport {
                 writeln!(
                     f,
                     "    code {} at {:.3} °C: reference {}, path {}",
-                    d.code, d.temp_c, d.reference, d.path
+                    d.code,
+                    Num(d.temp_c),
+                    d.reference,
+                    d.path
                 )?;
             }
         }
