@@ -101,7 +101,7 @@ pub fn mul_hi_u_split(a: i32, b: u32) -> i32 {
     }
 }
 
-/// `floor(a·b / 2^32)` of two unsigned operands: the high word of [`mul_magnitudes`] on ARMv6-M (no sign
+/// `floor(a·b / 2^32)` of two unsigned operands: the high word of `mul_magnitudes` on ARMv6-M (no sign
 /// handling), the compiler's 64-bit product elsewhere (see [`mul_parts`]).
 #[inline(always)]
 pub fn mul_hi_uu(a: u32, b: u32) -> u32 {
