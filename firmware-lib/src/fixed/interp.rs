@@ -137,6 +137,64 @@ pub fn window_collapse(c: [i16; 4], w: [i32; 4]) -> i32 {
     w[0] * i32::from(c[0]) + w[1] * i32::from(c[1]) + w[2] * i32::from(c[2]) + w[3] * i32::from(c[3])
 }
 
+/// `floor(x·t / 2^20)` for a Q20 fraction `t < 2^20`, within two units below: [`mulh16`] of the fraction's
+/// top 16 bits plus a sixteenth of [`mulh16`] of its low 4 bits (each a floor, so never above the exact
+/// value).
+#[inline(always)]
+pub fn mulh20(x: i32, t: u32) -> i32 {
+    mulh16(x, (t >> 4) & 0xffff) + (mulh16(x, t & 15) >> 4)
+}
+
+/// The value of a spline over temperature (control points stored divided by 6) at a Q20 fraction `t` of its
+/// segment, from its power form `a0 + a1·t + a2·t² + a3·t³`, whose coefficients are integer sums of the
+/// stored control points (`a0 = c0 + 4c1 + c2`, `a1 = 3(c2 − c0)`, `a2 = 3(c0 + c2) − 6c1`,
+/// `a3 = c3 − c0 + 3(c1 − c2)`), by Horner's rule with three [`mulh20`] products: never above the exact
+/// value and at most 6 units below it (each product loses less than two units, the later steps scale that
+/// by `t < 1`), in the value's own units. The fraction needs its 20 bits: a 16-bit one would move a knot
+/// step of 16 K by up to 0.24 mK, a few thousandths of an LSB on a unit whose slope follows the absolute
+/// temperature. `None` where the control points' differences are too large for the 32-bit steps
+/// (`|c2 − c0| ≥ 2^28`, `|c0 − 2c1 + c2| ≥ 2^27`, `|c1 − c2| ≥ 2^26` or `|c3 − c0| ≥ 2^27`: then
+/// `|a1| < 2^29.6` and `|a2|, |a3| < 2^28.6`, so the first sum is below 2^29.6 and the second below 2^30.6;
+/// a real table's neighbouring control points differ by a few percent of their size);
+/// [`super::FixedCalibration::validate`] refuses tables with such a segment.
+#[inline(always)]
+pub fn spline_at(c: [i32; 4], t: u32) -> Option<i64> {
+    // The coefficients from differences in 32 bits (a 64-bit product by 3 would call a runtime helper on a
+    // Cortex-M0): d = c2 − c0, e = (c0 − c1) + (c2 − c1), f = c1 − c2, g = c3 − c0, each checked.
+    let d = c[2].checked_sub(c[0])?;
+    let e = c[0].checked_sub(c[1])?.checked_add(c[2].checked_sub(c[1])?)?;
+    let f = c[1].checked_sub(c[2])?;
+    let g = c[3].checked_sub(c[0])?;
+    // |d| < 2^28, |e| < 2^27, |f| < 2^26, |g| < 2^27: a1 = 3d, a2 = 3e, a3 = g + 3f within the steps' limits.
+    if !(d.unsigned_abs() < 1 << 28
+        && e.unsigned_abs() < 1 << 27
+        && f.unsigned_abs() < 1 << 26
+        && g.unsigned_abs() < 1 << 27)
+    {
+        return None;
+    }
+    let (a1, a2, a3) = (3 * d, 3 * e, g + 3 * f);
+    let t = t & 0xf_ffff;
+    let v = a2 + mulh20(a3, t);
+    let v = a1 + mulh20(v, t);
+    Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(mulh20(v, t)))
+}
+
+/// `floor(Σ w_k·c_k / 2)` of four i16 control points over temperature with the [`basis6`] weights `w` at
+/// a fraction of their segment: a residual column at that temperature in the format of
+/// [`window_collapse`] (six times the basis times 2^12), below 2^29.6. The weights' rounding errors sum to
+/// zero, so the column's error is their size (a unit or two of Q13) times the spread of the four control
+/// points, not times their magnitude.
+#[inline(always)]
+pub fn collapse6(c: [i16; 4], w: [u32; 4]) -> i32 {
+    // Each weight below 2^16, the four summing to 49152: |Σ| ≤ 2^15·49152 < 2^31.
+    (w[0] as i32 * i32::from(c[0])
+        + w[1] as i32 * i32::from(c[1])
+        + w[2] as i32 * i32::from(c[2])
+        + w[3] as i32 * i32::from(c[3]))
+        >> 1
+}
+
 /// Six times the basis at a Q16 fraction `t16`, in Q24: each weight at most 2^26, the four summing to
 /// exactly `6·2^24`. `t²` is exact in Q32 and then truncated to Q24, `t³` truncated to Q24.
 #[inline(always)]
@@ -236,6 +294,52 @@ mod tests {
             let w = window_weights(m);
             let want: i64 = (0..4).map(|k| i64::from(w[k]) * i64::from(c[k])).sum::<i64>() >> 12;
             assert_eq!(window_value(c, w), want);
+        }
+    }
+
+    #[test]
+    fn spline_at_is_the_spline_within_six_units() {
+        // Against the f64 basis (de Boor): smooth and rough control points, every 97th fraction.
+        let sets: [[i32; 4]; 4] = [
+            [10 << 20, 20 << 20, 40 << 20, 80 << 20],
+            [715_827_882, 715_000_000, 714_000_000, 713_500_000],
+            [-89_478_485, -80_000_000, -60_000_000, -30_000_000],
+            [3, -7, 11, -13],
+        ];
+        for c in sets {
+            for t in (0..1u32 << 20).step_by(1553).chain([(1 << 20) - 1]) {
+                let b = bspline_basis6(f64::from(t) / f64::from(1u32 << 20));
+                let exact: f64 = (0..4).map(|k| b[k] * f64::from(c[k])).sum();
+                let v = spline_at(c, t).unwrap() as f64;
+                assert!(v <= exact + 1e-6 && v > exact - 6.0, "{c:?} t={t}: {v} vs {exact}");
+            }
+        }
+        // Coefficients beyond the 32-bit steps are refused, not wrapped.
+        assert_eq!(spline_at([i32::MIN, i32::MAX, i32::MIN, i32::MAX], 1000), None);
+        assert_eq!(spline_at([0, 0, 1 << 28, 0], 0), None);
+        assert_eq!(spline_at([i32::MAX, -1, i32::MIN, 0], 0), None);
+        assert!(spline_at([0, 0, (1 << 26) - 1, 0], (1 << 20) - 1).is_some());
+        // mulh20 against the exact floor.
+        for (x, t) in [(i32::MAX, (1u32 << 20) - 1), (i32::MIN, 12345), (-7, 3), (123_456_789, 999_999)] {
+            let exact = (i64::from(x) * i64::from(t)) >> 20;
+            let v = i64::from(mulh20(x, t));
+            assert!(v <= exact && v > exact - 2, "{x} {t}: {v} vs {exact}");
+        }
+    }
+
+    #[test]
+    fn collapse6_is_the_window_format() {
+        // At t = 0 and t = 1/2 the basis6 weights are exact: twice the window weights at m = 0 and m = 8.
+        let c: [i16; 4] = [-32768, 32767, -1234, 5678];
+        for (t, m) in [(0, 0), (32768, 8)] {
+            assert_eq!(collapse6(c, basis6(t)), window_collapse(c, window_weights(m)), "t={t}");
+        }
+        // Extreme control points at every fraction: no overflow, within the weights' rounding of the f64 value.
+        for t in (0..65536u32).step_by(61) {
+            let b = bspline_basis6(f64::from(t) / 65536.0);
+            let exact: f64 = (0..4).map(|k| b[k] * f64::from(c[k]) * 4096.0).sum();
+            let v = f64::from(collapse6(c, basis6(t)));
+            assert!((v - exact).abs() < 2.0 * 65536.0 / 2.0, "t={t}: {v} vs {exact}");
         }
     }
 

@@ -20,20 +20,19 @@
 //!    flagged).
 //! 3. Four tables over temperature, cubic B-splines on one uniform grid whose knot step is `2^t_step_log2`
 //!    θ, give the offset `O(T)` (codes, level shift included), the inverse slope `A(T) = 1/S(T)` (nepers per
-//!    code), the bias floor `λ(T) = ln β(T)` and the sensitivity limit `u_min(T)`. Each knot step is cut
-//!    into 16 **windows**; the splines are evaluated exactly at the two ends of θ's window and interpolated
-//!    linearly inside it (the window is a fraction of a kelvin, so the interpolation's error is a few
-//!    thousandths of an LSB; `verify` measures it with everything else). The apparent x is
-//!    `u = (code − O)·A` (the `w` of the model).
+//!    code), the bias floor `λ(T) = ln β(T)` and the sensitivity limit `u_min(T)`. Each is evaluated at θ
+//!    itself ([`interp::spline_at`]: the segment's power form from its four control points, Horner's rule
+//!    with θ's 20-bit fraction of the segment, six 32 × 16-bit products). The apparent x is `u = (code − O)·A` (the `w`
+//!    of the model).
 //! 4. Where the sensitivity ∂w/∂x is below the calibration's minimum (`u < u_min`) the reading is
 //!    [`Error::BelowRange`]. With a bias term, the bias bend is removed analytically:
 //!    `x̃ = u + G(u − λ)` with the universal `G(v) = ln(1 − e^(−v))` (see [`transcend`]), so that
 //!    `x̃ = ln(e^u − β)` exactly when the front end has no bulk resistance and no residual.
 //! 5. What is left, `r(x̃, T) = x − x̃` (the bulk-resistance bend, the fitted residual, the interaction of the
 //!    two), is smooth: a bicubic B-spline over (x̃, T) stored as i16 with one scale. Its columns over
-//!    temperature are evaluated at the window's ends and interpolated like the scalars; over x̃ (knot step
-//!    `2^xa_step_log2` in Q24) it is a per-sample spline. `x = x̃ + r`, and x outside the calibrated x range
-//!    is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
+//!    temperature are collapsed at θ with the spline weights of θ's fraction ([`interp::collapse6`]); over
+//!    x̃ (knot step `2^xa_step_log2` in Q24) it is a per-sample spline. `x = x̃ + r`, and x outside the
+//!    calibrated x range is [`Error::BelowRange`]/[`Error::AboveRange`], as in the f32 path.
 //! 6. [`FixedReading::value`] turns x into any [`Unit`] (`e^x` for the linear units from [`transcend`]).
 //!
 //! Steps 2–3 depend on the temperature only. [`FixedCalibration::correct`] and
@@ -41,17 +40,23 @@
 //! code needs. A firmware that reads many log codes at one temperature (a DMA buffer) builds a
 //! [`FixedStage`] once ([`FixedCalibration::stage_millicelsius`], [`FixedCalibration::stage_code`]:
 //! the scalars and the whole residual row at θ) and calls [`FixedCalibration::correct_staged`] or
-//! [`FixedCalibration::correct_block`] per code. A [`StageCache`] keeps the window of the last temperature
-//! (and the last few temperature codes' θ): while the temperature stays in that window, held or wandering,
-//! a sample costs the interpolation and the log channel's work alone. All of them give bit-identical
-//! results, errors included, because they run the same integer operations on the same values.
+//! [`FixedCalibration::correct_block`] per code: bit for bit the direct path, errors included, because they
+//! run the same integer operations on the same values.
+//!
+//! A [`StageCache`] keeps the temperature window of the last reading instead (a sixteenth of a knot step,
+//! and the last few temperature codes' θ): each value is evaluated exactly at the window's two ends, each
+//! knot step is cut into 16 such windows, and inside one the offset and the inverse slope follow the
+//! parabola through both ends with the spline's curvature, the other values and the residual's columns a
+//! line. While the temperature stays in that window, held or wandering, a sample costs the interpolation
+//! and the log channel's work alone. Its results are within a few thousandths of an LSB of the direct
+//! path's (the interpolation's error), not bit for bit; `logtrim verify` checks them on their own.
 //!
 //! A [`CodeTable`] goes one step further for a held or slowly wandering temperature: it keeps x itself
 //! over the log code for the temperature's window (a cubic over four knots, a line in temperature), so
 //! that a sample is a lookup. Its values are not bit for bit the direct path's: each of its two
 //! interpolations is estimated, when the table is built, within a sixteenth of an LSB, it falls back to
-//! the direct path where it cannot be, and `logtrim verify` checks it on its own against the f64
-//! reference (0.05 LSB worst on the bench units).
+//! the stage cache where it cannot be, and `logtrim verify` checks it on its own against the f64
+//! reference (0.07 LSB worst on the bench units).
 //!
 //! Why `x̃` and not `u` as the residual's coordinate: near the swamped low end `x − u` behaves like
 //! `ln(u − λ)` and moves with temperature; no uniform (u, T) grid of a few KiB interpolates it to ¼ LSB on a
@@ -71,12 +76,13 @@
 //! | temperature input | i32 | m°C |
 //! | θ, internal temperature; [`FixedHeader`] temperatures | i32 | m°C · 2^10 (Q10 m°C, ≈ 1 µK) |
 //! | [`SensorTable::knots`] | i32 | θ / 6 |
+//! | θ's fraction of its segment | u32 | Q20 (`0..2^20`) |
 //! | window fraction, knot fractions | u32 | Q16 (`0..2^16`) |
 //! | per-sample spline weights ([`interp::basis6`], the bend's [`interp::basis16`]) | u32 | six times the basis in Q13; the basis in Q16 |
 //! | window weights ([`interp::window_weights`]) | i32 | six times the basis · 16³, exact |
 //! | sensor weights ([`interp::sensor_weights`]) | i32 | six times the basis, Q24 |
 //! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
-//! | [`FixedCalibration::inv_slope`] A(T) = 1/S(T) | i32 (u32 at a window end) | Np/code · 2^`inv_slope_frac` / 6, `offset_frac + inv_slope_frac = 56` |
+//! | [`FixedCalibration::inv_slope`] A(T) = 1/S(T) | i32 (u32 at θ or a window end) | Np/code · 2^`inv_slope_frac` / 6, `offset_frac + inv_slope_frac = 56` |
 //! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np / 6 |
 //! | `d = code·2^offset_frac − O` | i32 | codes · 2^`offset_frac` |
 //! | u = high word of `d·A`, v = u − λ, x̃, x, [`FixedReading::x`], [`FixedHeader::x_min`]/`x_max` | i32 | Q24 Np |
@@ -90,10 +96,10 @@
 //! # Overflow
 //!
 //! Every product is a 16 × 16-bit product inside [`arith`] (bounds there). What the sums may reach is
-//! bounded where the values enter: a value evaluated from the tables at a window end (an exact i64) must lie
+//! bounded where the values enter: a value evaluated from the tables at θ or at a window end (an i64) must lie
 //! within its range or the correction is [`Error::InvalidCalibration`]: O within `(−2^29, 2^30)`
 //! ([`OFFSET_RANGE`]), A within `(0, 2^32)` ([`INV_SLOPE_LIMIT`]; the window's parabolas are checked to stay
-//! inside these too), λ and u_min within ±2^29 ([`BIAS_LIMIT`]); a residual column is below 2^29.6 for any
+//! inside these too, and a segment's power form must fit [`interp::spline_at`]'s 32-bit steps), λ and u_min within ±2^29 ([`BIAS_LIMIT`]); a residual column is below 2^29.6 for any
 //! i16 content, and `residual_frac ≥ 14` puts the residual in Q24 below 2^27.6; a code must satisfy
 //! `code·2^offset_frac < 2^30` ([`CODE_LIMIT`]). From these: `|d| < 1.5·2^30`, `|u| < 1.5·2^30`,
 //! `|v| < 2^30.9`, `|x̃| < 2^30.6`, `|x| < 2^30.8`. Shift counts from a header are clamped, and every table access is checked. So no input and
@@ -130,8 +136,8 @@ use crate::qformat::millicelsius_of_theta;
 use crate::units::Unit;
 use arith::{mul_hi_u, mulh16};
 use interp::{
-    four, sensor_value, sensor_weights, spline6, window_collapse, window_value, window_weights,
-    window_weights_at, WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
+    basis6, collapse6, four, sensor_value, sensor_weights, spline6, spline_at, window_collapse, window_value,
+    window_weights, window_weights_at, WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
 };
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
@@ -564,6 +570,16 @@ pub(crate) struct WindowEnds {
     pub(crate) w1: [i32; 4],
 }
 
+/// Where a temperature lies on the grid for an evaluation at θ itself ([`FixedCalibration::pos_at`]): the
+/// segment, θ's Q20 fraction in it (the window's number and the window's Q16 fraction) and the [`basis6`]
+/// weights at its top 16 bits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct TempPos {
+    pub(crate) seg: usize,
+    pub(crate) t20: u32,
+    pub(crate) w: [u32; 4],
+}
+
 /// The error every inconsistent table content gives.
 pub(crate) const BAD_TABLE: Error = Error::InvalidCalibration(CalibrationDefect::Coefficient);
 
@@ -853,44 +869,105 @@ impl<'a> FixedCalibration<'a> {
         }
     }
 
-    /// The residual's columns `col..col + 4` at a Q16 fraction of a window: both ends from the same four
-    /// rows, interpolated. What [`FixedCalibration::column_ends`] gives column by column, with one check
-    /// per row.
+    /// Where θ lies on the temperature grid for an evaluation at θ itself: its segment, its Q20 fraction in
+    /// the segment and the [`basis6`] weights at the fraction's top 16 bits. The accepted range is checked as for the windows.
     #[inline(always)]
-    fn columns_at(&self, e: &WindowEnds, col: usize, f16: u32) -> Result<[i32; 4], Error> {
+    pub(crate) fn pos_at(&self, theta: i32) -> Result<TempPos, Error> {
+        let pos = self.window_of(theta)?;
+        let seg = pos.index >> WINDOWS_LOG2;
+        // Within the accepted range θ lies before the grid's last knot (`validate`).
+        if seg > u32::from(self.header.t_knots).saturating_sub(2) {
+            return Err(BAD_TABLE);
+        }
+        let t20 = ((pos.index & (WINDOWS - 1)) << 16) | pos.f16;
+        Ok(TempPos { seg: seg as usize, t20, w: basis6(t20 >> WINDOWS_LOG2) })
+    }
+
+    /// The four per-temperature values at θ ([`spline_at`] on each table's segment), each checked against
+    /// its limit.
+    #[inline(always)]
+    pub(crate) fn scalars_at(&self, p: &TempPos) -> Result<Scalars, Error> {
+        let h = &self.header;
+        let value = |t: &[i32]| -> Result<i64, Error> {
+            spline_at(four(t, p.seg).ok_or(BAD_TABLE)?, p.t20).ok_or(BAD_TABLE)
+        };
+        let inv_slope = value(self.inv_slope)?;
+        if !(inv_slope > 0 && inv_slope < INV_SLOPE_LIMIT) {
+            return Err(BAD_TABLE);
+        }
+        let offset = value(self.offset)?;
+        if !(offset > i64::from(OFFSET_RANGE.0) && offset < i64::from(OFFSET_RANGE.1)) {
+            return Err(BAD_TABLE);
+        }
+        Ok(Scalars {
+            // Checked just above: the offset fits an i32, the inverse slope a u32.
+            offset: offset as i32,
+            inv_slope: inv_slope as u32,
+            ln_bias: if h.bias_bend { bounded(value(self.ln_bias)?, BIAS_LIMIT)? } else { 0 },
+            u_min: if h.sensitivity_limit { bounded(value(self.u_min)?, BIAS_LIMIT)? } else { i32::MIN },
+        })
+    }
+
+    /// The residual's rows `seg..seg + 4` at columns `col..col + 4`, as four columns of four control points
+    /// over temperature (zeros for an empty table), with the refusals of a table too small for them.
+    #[inline(always)]
+    fn residual_block(&self, seg: usize, col: usize) -> Result<[[i16; 4]; 4], Error> {
+        // Row and stride below 2^16 (any wider grid is refused): the index is a 32-bit product, with no
+        // overflow check (which would call a 64-bit multiply helper on a Cortex-M0).
         let stride = u32::from(self.header.xa_knots) + 2;
-        let row0 = e.seg as u32;
-        // The same refusals as column by column: rows and stride below 2^16, the four columns in the row.
+        let row0 = seg as u32;
         if stride > 0xffff || row0 > 0xffff - 3 || col as u32 > stride.saturating_sub(4) || stride < 4 {
             return Err(BAD_TABLE);
         }
-        let rows = if self.residual.is_empty() {
+        if self.residual.is_empty() {
+            // An empty table is a residual of zero everywhere: the same values, and the same refusals, as a
+            // full table of zeros.
             if row0 + 3 >= u32::from(self.header.t_knots) + 2 {
                 return Err(BAD_TABLE);
             }
-            [[0; 4]; 4]
-        } else {
-            let at =
-                |k: u32| four(self.residual, ((row0 + k) * stride + col as u32) as usize).ok_or(BAD_TABLE);
-            [at(0)?, at(1)?, at(2)?, at(3)?]
-        };
-        let [[a0, a1, a2, a3], [b0, b1, b2, b3], [c0, c1, c2, c3], [d0, d1, d2, d3]] = rows;
-        let at = |c: [i16; 4]| {
-            let a = window_collapse(c, e.w0);
-            a + mulh16(window_collapse(c, e.w1) - a, f16)
-        };
-        Ok([at([a0, b0, c0, d0]), at([a1, b1, c1, d1]), at([a2, b2, c2, d2]), at([a3, b3, c3, d3])])
+            return Ok([[0; 4]; 4]);
+        }
+        let at = |k: u32| four(self.residual, ((row0 + k) * stride + col as u32) as usize).ok_or(BAD_TABLE);
+        let [[a0, a1, a2, a3], [b0, b1, b2, b3], [c0, c1, c2, c3], [d0, d1, d2, d3]] =
+            [at(0)?, at(1)?, at(2)?, at(3)?];
+        Ok([[a0, b0, c0, d0], [a1, b1, c1, d1], [a2, b2, c2, d2], [a3, b3, c3, d3]])
     }
 
-    /// The direct path from θ: the window's scalars, the four residual columns the code needs at both
-    /// ends, all interpolated at θ's fraction; exactly what a [`FixedStage`] or a [`StageCache`] at
-    /// θ computes for this code.
+    /// The residual's columns `col..col + 4` at θ ([`collapse6`] of each column's four control points).
+    #[inline(always)]
+    pub(crate) fn columns_theta(&self, p: &TempPos, col: usize) -> Result<[i32; 4], Error> {
+        let [a, b, c, d] = self.residual_block(p.seg, col)?;
+        Ok([collapse6(a, p.w), collapse6(b, p.w), collapse6(c, p.w), collapse6(d, p.w)])
+    }
+
+    /// Residual column `col` alone at θ, the same value as in [`FixedCalibration::columns_theta`] (a
+    /// stage's row).
+    #[inline(always)]
+    pub(crate) fn column_at(&self, p: &TempPos, col: usize) -> Result<i32, Error> {
+        let stride = u32::from(self.header.xa_knots) + 2;
+        let at = |k: u32| -> Option<i16> {
+            let row = p.seg as u32 + k;
+            if stride > 0xffff || row > 0xffff || col as u32 >= stride {
+                return None;
+            }
+            if self.residual.is_empty() {
+                return (row < u32::from(self.header.t_knots) + 2).then_some(0);
+            }
+            self.residual.get((row * stride + col as u32) as usize).copied()
+        };
+        match (at(0), at(1), at(2), at(3)) {
+            (Some(a), Some(b), Some(c), Some(d)) => Ok(collapse6([a, b, c, d], p.w)),
+            _ => Err(BAD_TABLE),
+        }
+    }
+
+    /// The direct path from θ: the scalars and the four residual columns the code needs, evaluated at θ
+    /// itself; exactly what a [`FixedStage`] at θ computes for this code.
     #[inline(always)]
     pub(crate) fn correct_theta(&self, plan: &Plan, code: u32, theta: i32) -> Result<FixedReading, Error> {
-        let pos = self.window_of(theta)?;
-        let s = self.window(pos.index)?.at(pos.f16);
-        let e = self.window_ends(pos.index);
-        let x = plan.x_of(&s, code, |seg| self.columns_at(&e, seg, pos.f16))?;
+        let p = self.pos_at(theta)?;
+        let s = self.scalars_at(&p)?;
+        let x = plan.x_of(&s, code, |seg| self.columns_theta(&p, seg))?;
         Ok(FixedReading { x, temperature_extrapolated: self.extrapolated(theta) })
     }
 
@@ -1016,9 +1093,12 @@ impl<'a> FixedCalibration<'a> {
             return bad(D::Coefficient);
         }
         // Control points stored divided by 6 within the range divided by 6: every value at a window end (six
-        // times a convex combination of them) is then within the range the per-sample arithmetic relies on.
-        let within =
-            |t: &[i32], lo: i64, hi: i64| t.iter().all(|&c| i64::from(c) * 6 > lo && i64::from(c) * 6 < hi);
+        // times a convex combination of them) is then within the range the per-sample arithmetic relies on,
+        // and so is every value at θ itself, which [`spline_at`] gives at most 6 units below the exact one
+        // (hence the margin at the low end).
+        let within = |t: &[i32], lo: i64, hi: i64| {
+            t.iter().all(|&c| i64::from(c) * 6 > lo + 6 && i64::from(c) * 6 < hi)
+        };
         let in_range = |t: &[i32], limit: i32| within(t, -i64::from(limit), i64::from(limit));
         if self.inv_slope.iter().any(|&s| s <= 0) {
             return bad(D::ZeroSlope);
@@ -1027,6 +1107,17 @@ impl<'a> FixedCalibration<'a> {
             && within(self.inv_slope, 0, INV_SLOPE_LIMIT)
             && (!h.bias_bend || in_range(self.ln_bias, BIAS_LIMIT))
             && (!h.sensitivity_limit || in_range(self.u_min, BIAS_LIMIT)))
+        {
+            return bad(D::Coefficient);
+        }
+        // Every segment's power form must fit [`spline_at`]'s 32-bit steps.
+        let fits = |t: &[i32]| {
+            (0..nt.saturating_sub(1)).all(|seg| four(t, seg).and_then(|c| spline_at(c, 0)).is_some())
+        };
+        if !(fits(self.offset)
+            && fits(self.inv_slope)
+            && (!h.bias_bend || fits(self.ln_bias))
+            && (!h.sensitivity_limit || fits(self.u_min)))
         {
             return bad(D::Coefficient);
         }

@@ -3,9 +3,13 @@
 //! [`FixedCalibration::correct_block`]) and a [`StageCache`] that keeps the window of the last temperature,
 //! so that a held or slowly wandering temperature costs the interpolation inside the window only.
 //!
-//! Both compute exactly what the direct path computes ([`FixedCalibration::correct`]): the scalars and the
-//! residual's columns at the two ends of θ's window, interpolated at θ's fraction with the same integer
-//! operations. They only compute them for every column at once, instead of for the four a code needs.
+//! A stage computes exactly what the direct path computes ([`FixedCalibration::correct`]): the scalars and
+//! the residual's columns at θ itself, with the same integer operations, only for every column at once
+//! instead of for the four a code needs. The cache instead evaluates the scalars and the columns at the two
+//! ends of θ's window (a sixteenth of a knot step) and interpolates inside it, along a parabola for the
+//! offset and the inverse slope and a line for the rest: its results are within a few thousandths of an
+//! LSB of the direct path's, not bit for bit, and `logtrim verify` checks them on their own against the
+//! f64 reference ("fixed, stage cache").
 
 use super::arith::mulh16;
 use super::interp::four;
@@ -35,24 +39,22 @@ impl FixedStage {
         self.extrapolated
     }
 
-    /// The stage at θ: both window ends evaluated, every column interpolated.
+    /// The stage at θ: the scalars and every residual column evaluated at θ itself.
     pub(crate) fn build(cal: &FixedCalibration<'_>, theta: i32) -> Result<FixedStage, Error> {
-        let pos = cal.window_of(theta)?;
-        let window = cal.window(pos.index)?;
+        let p = cal.pos_at(theta)?;
+        let scalars = cal.scalars_at(&p)?;
         let n = usize::from(cal.header.xa_knots) + 2;
         if n > ROW_CAPACITY {
             return Err(BAD_TABLE);
         }
-        let ends = cal.window_ends(pos.index);
         let mut row = [0; ROW_CAPACITY];
         for (i, r) in row.iter_mut().enumerate().take(n) {
-            let (a, b) = cal.column_ends(&ends, i)?;
-            *r = a + mulh16(b - a, pos.f16);
+            *r = cal.column_at(&p, i)?;
         }
         Ok(FixedStage {
             extrapolated: cal.extrapolated(theta),
             plan: Plan::of(&cal.header),
-            scalars: window.at(pos.f16),
+            scalars,
             row,
             len: n,
         })
@@ -74,9 +76,11 @@ const MEMO: usize = STAGE_MEMO;
 /// window (a fraction of a kelvin wide) costs the interpolation of four scalars and four residual columns
 /// and the log channel's work; one in another window loads that window first (both ends of every column,
 /// about the work of ten samples). The θ of the last few temperature codes is remembered too, so a raw
-/// channel that toggles between neighbouring codes is linearised once per code. Results are bit-identical
-/// to [`FixedCalibration::correct_raw`] and [`FixedCalibration::correct`] for every input, errors included
-/// (only successful windows and temperatures are kept).
+/// channel that toggles between neighbouring codes is linearised once per code. Results depend on the
+/// inputs alone, never on the cache's history (a window's values are a function of its index), and lie
+/// within a few thousandths of an LSB of [`FixedCalibration::correct_raw`] and
+/// [`FixedCalibration::correct`] (module docs); errors are the direct path's, except that a reading that
+/// close to the calibrated x range's ends may fall on the other side of them.
 ///
 /// The cache owns its calibration (a [`FixedCalibration`] is a few slices and a header), so a window can
 /// never be reused with other tables. About 700 bytes of RAM, no heap.

@@ -369,28 +369,131 @@ static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends 
     return LTRM_OK;
 }
 
-/* The residual's columns col..col+3 at a Q16 fraction of a window: ltrm_column_ends of each, interpolated,
- * with the same refusals checked once. */
-static inline ltrm_status ltrm_columns_at(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, uint32_t f16, int32_t out[4]) {
+/* floor(x*t / 2^20) for a Q20 fraction, within two units below (logtrim::fixed::interp::mulh20). */
+static inline int32_t ltrm_mulh20(int32_t x, uint32_t t) {
+    return ltrm_mulh16(x, (t >> 4) & 0xffffu) + ltrm_asr32(ltrm_mulh16(x, t & 15u), 4u);
+}
+
+/* a - b and a + b in int32, 0 where the exact result does not fit (no 64-bit arithmetic). */
+static inline int ltrm_sub32(int32_t a, int32_t b, int32_t *out) {
+    if (b < 0 ? a > INT32_MAX + b : a < INT32_MIN + b) return 0;
+    *out = a - b;
+    return 1;
+}
+static inline int ltrm_add32(int32_t a, int32_t b, int32_t *out) {
+    if (b < 0 ? a < INT32_MIN - b : a > INT32_MAX - b) return 0;
+    *out = a + b;
+    return 1;
+}
+static inline uint32_t ltrm_abs32(int32_t v) { return v < 0 ? 0u - (uint32_t)v : (uint32_t)v; }
+
+/* A temperature spline's value at a Q20 fraction of its segment, from its power form by Horner's rule
+ * (logtrim::fixed::interp::spline_at): the coefficients from checked 32-bit differences; 0 when a difference is
+ * too large for the 32-bit steps. */
+static inline int ltrm_spline_at(const int32_t *c, uint32_t t, int64_t *out) {
+    int32_t d, p, q, e, f, g, a1, a2, a3, v;
+    if (!ltrm_sub32(c[2], c[0], &d) || !ltrm_sub32(c[0], c[1], &p) || !ltrm_sub32(c[2], c[1], &q) ||
+        !ltrm_add32(p, q, &e) || !ltrm_sub32(c[1], c[2], &f) || !ltrm_sub32(c[3], c[0], &g))
+        return 0;
+    if (!(ltrm_abs32(d) < (1u << 28) && ltrm_abs32(e) < (1u << 27) && ltrm_abs32(f) < (1u << 26) &&
+          ltrm_abs32(g) < (1u << 27)))
+        return 0;
+    a1 = 3 * d;
+    a2 = 3 * e;
+    a3 = g + 3 * f;
+    t &= 0xfffffu;
+    v = a2 + ltrm_mulh20(a3, t);
+    v = a1 + ltrm_mulh20(v, t);
+    *out = (int64_t)c[0] + 4 * (int64_t)c[1] + c[2] + ltrm_mulh20(v, t);
+    return 1;
+}
+
+/* floor(sum w_k c_k / 2) of four residual control points over temperature with basis6 weights: a column at theta in
+ * the window-end format (logtrim::fixed::interp::collapse6). */
+static inline int32_t ltrm_collapse6(const uint32_t w[4], int32_t a, int32_t b, int32_t c, int32_t d) {
+    return ltrm_asr32((int32_t)w[0] * a + (int32_t)w[1] * b + (int32_t)w[2] * c + (int32_t)w[3] * d, 1u);
+}
+
+/* Where theta lies for an evaluation at theta itself (logtrim::fixed::TempPos): segment, Q20 fraction, weights. */
+typedef struct ltrm_pos {
+    uint32_t seg, t20;
+    uint32_t w[4];
+} ltrm_pos;
+
+static inline ltrm_status ltrm_pos_at(const ltrm_fixed *c, int32_t theta, ltrm_pos *p) {
+    uint32_t index, f16;
+    ltrm_status st;
+    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
+    p->seg = index >> LTRM_WINDOWS_LOG2;
+    if (p->seg > (c->t_knots >= 2u ? c->t_knots - 2u : 0u)) return LTRM_BAD_TABLE;
+    p->t20 = ((index & (LTRM_WINDOWS - 1u)) << 16) | f16;
+    ltrm_basis6(p->t20 >> LTRM_WINDOWS_LOG2, p->w);
+    return LTRM_OK;
+}
+
+static inline ltrm_status ltrm_value_at(const int32_t *t, uint32_t len, const ltrm_pos *p, int64_t *v) {
+    if ((uint64_t)p->seg + 4u > (uint64_t)len) return LTRM_BAD_TABLE;
+    return ltrm_spline_at(t + p->seg, p->t20, v) ? LTRM_OK : LTRM_BAD_TABLE;
+}
+
+/* The four per-temperature values at theta itself, each checked against its limit. */
+static inline ltrm_status ltrm_scalars_at(const ltrm_fixed *c, const ltrm_pos *p, ltrm_scalars *s) {
+    int64_t v;
+    ltrm_status st;
+    if ((st = ltrm_value_at(c->inv_slope, c->inv_slope_len, p, &v)) != LTRM_OK) return st;
+    if (!(v > 0 && v < LTRM_INV_SLOPE_LIMIT)) return LTRM_BAD_TABLE;
+    s->inv_slope = (uint32_t)v;
+    if ((st = ltrm_value_at(c->offset, c->offset_len, p, &v)) != LTRM_OK) return st;
+    if (!(v > LTRM_OFFSET_MIN && v < LTRM_OFFSET_MAX)) return LTRM_BAD_TABLE;
+    s->offset = (int32_t)v;
+    s->ln_bias = 0;
+    if (c->bias_bend) {
+        if ((st = ltrm_value_at(c->ln_bias, c->ln_bias_len, p, &v)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v, LTRM_BIAS_LIMIT, &s->ln_bias)) != LTRM_OK) return st;
+    }
+    s->u_min = INT32_MIN;
+    if (c->sensitivity_limit) {
+        if ((st = ltrm_value_at(c->u_min, c->u_min_len, p, &v)) != LTRM_OK) return st;
+        if ((st = ltrm_bounded(v, LTRM_BIAS_LIMIT, &s->u_min)) != LTRM_OK) return st;
+    }
+    return LTRM_OK;
+}
+
+/* The residual's columns col..col+3 at theta, with the refusals of a table too small for them. */
+static inline ltrm_status ltrm_columns_theta(const ltrm_fixed *c, const ltrm_pos *p, uint32_t col, int32_t out[4]) {
     uint32_t stride = (uint32_t)c->xa_knots + 2u, j;
     const int16_t *r0, *r1, *r2, *r3;
-    int32_t a, b;
-    if (stride > 0xffffu || e->seg > 0xffffu - 3u || stride < 4u || col > stride - 4u) return LTRM_BAD_TABLE;
+    if (stride > 0xffffu || p->seg > 0xffffu - 3u || stride < 4u || col > stride - 4u) return LTRM_BAD_TABLE;
     if (c->residual_len == 0u) {
-        if (e->seg + 3u >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
+        if (p->seg + 3u >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
         for (j = 0; j < 4u; j++) out[j] = 0;
         return LTRM_OK;
     }
-    if ((e->seg + 3u) * stride + col + 4u > c->residual_len) return LTRM_BAD_TABLE;
-    r0 = c->residual + e->seg * stride + col;
+    if ((p->seg + 3u) * stride + col + 4u > c->residual_len) return LTRM_BAD_TABLE;
+    r0 = c->residual + p->seg * stride + col;
     r1 = r0 + stride;
     r2 = r1 + stride;
     r3 = r2 + stride;
-    for (j = 0; j < 4u; j++) {
-        a = e->w0[0] * r0[j] + e->w0[1] * r1[j] + e->w0[2] * r2[j] + e->w0[3] * r3[j];
-        b = e->w1[0] * r0[j] + e->w1[1] * r1[j] + e->w1[2] * r2[j] + e->w1[3] * r3[j];
-        out[j] = a + ltrm_mulh16(b - a, f16);
+    for (j = 0; j < 4u; j++) out[j] = ltrm_collapse6(p->w, r0[j], r1[j], r2[j], r3[j]);
+    return LTRM_OK;
+}
+
+/* Residual column `col` alone at theta (a stage's row): the value ltrm_columns_theta gives. */
+static inline ltrm_status ltrm_column_at(const ltrm_fixed *c, const ltrm_pos *p, uint32_t col, int32_t *out) {
+    uint32_t k, stride = (uint32_t)c->xa_knots + 2u, row, i;
+    int32_t v[4] = {0, 0, 0, 0};
+    for (k = 0; k < 4u; k++) {
+        row = p->seg + k;
+        if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
+        if (c->residual_len == 0u) {
+            if (row >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
+            continue;
+        }
+        i = row * stride + col;
+        if (i >= c->residual_len) return LTRM_BAD_TABLE;
+        v[k] = c->residual[i];
     }
+    *out = ltrm_collapse6(p->w, v[0], v[1], v[2], v[3]);
     return LTRM_OK;
 }
 
@@ -538,19 +641,17 @@ static inline ltrm_status ltrm_x_finish(const ltrm_fixed *c, int32_t xa, uint32_
     return LTRM_OK;
 }
 
-/* The direct path from theta: both window ends, the four columns the code needs, interpolated. */
+/* The direct path from theta: the scalars and the four columns the code needs, at theta itself. */
 static inline ltrm_status ltrm_correct_theta(const ltrm_fixed *c, uint32_t code, int32_t theta, ltrm_reading *out) {
-    uint32_t index, f16, seg, t16;
-    ltrm_window w;
+    uint32_t seg, t16;
+    ltrm_pos p;
     ltrm_scalars s;
-    ltrm_ends e;
     int32_t xa, cols[4];
     ltrm_status st;
-    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-    if ((st = ltrm_window_load(c, index, &e, &w)) != LTRM_OK) return st;
-    ltrm_window_at(&w, f16, &s);
+    if ((st = ltrm_pos_at(c, theta, &p)) != LTRM_OK) return st;
+    if ((st = ltrm_scalars_at(c, &p, &s)) != LTRM_OK) return st;
     if ((st = ltrm_xa(c, &s, code, &xa, &seg, &t16)) != LTRM_OK) return st;
-    if ((st = ltrm_columns_at(c, &e, seg, f16, cols)) != LTRM_OK) return st;
+    if ((st = ltrm_columns_theta(c, &p, seg, cols)) != LTRM_OK) return st;
     if ((st = ltrm_x_finish(c, xa, t16, cols, &out->x)) != LTRM_OK) return st;
     out->temperature_extrapolated = ltrm_extrapolated(c, theta);
     return LTRM_OK;
@@ -574,22 +675,17 @@ inline ltrm_status ltrm_correct_raw(const ltrm_fixed *c, uint32_t code, uint32_t
     return ltrm_correct_theta(c, code, theta, out);
 }
 
-/* The stage at theta: both window ends, every column interpolated. */
+/* The stage at theta: the scalars and every column at theta itself. */
 static inline ltrm_status ltrm_stage_theta(const ltrm_fixed *c, int32_t theta, ltrm_stage *s) {
-    uint32_t index, f16, n = (uint32_t)c->xa_knots + 2u, i;
-    ltrm_window w;
-    ltrm_ends e;
-    int32_t lo, hi;
+    uint32_t n = (uint32_t)c->xa_knots + 2u, i;
+    ltrm_pos p;
     ltrm_status st;
-    if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-    if ((st = ltrm_window_load(c, index, &e, &w)) != LTRM_OK) return st;
+    if ((st = ltrm_pos_at(c, theta, &p)) != LTRM_OK) return st;
+    if ((st = ltrm_scalars_at(c, &p, &s->s)) != LTRM_OK) return st;
     if (n > LTRM_ROW_CAPACITY) return LTRM_BAD_TABLE;
     for (i = 0; i < LTRM_ROW_CAPACITY; i++) s->row[i] = 0;
-    for (i = 0; i < n; i++) {
-        if ((st = ltrm_column_ends(c, &e, i, &lo, &hi)) != LTRM_OK) return st;
-        s->row[i] = lo + ltrm_mulh16(hi - lo, f16);
-    }
-    ltrm_window_at(&w, f16, &s->s);
+    for (i = 0; i < n; i++)
+        if ((st = ltrm_column_at(c, &p, i, &s->row[i])) != LTRM_OK) return st;
     s->extrapolated = ltrm_extrapolated(c, theta);
     s->len = n;
     return LTRM_OK;

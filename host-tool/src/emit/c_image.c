@@ -822,20 +822,29 @@ static ltrm_status ltrm_validate_fixed(const ltrm_fixed *c) {
           (!c->sensitivity_limit || c->u_min_len == nt + 2u) &&
           (c->residual_len == 0u || c->residual_len == (nt + 2u) * (nxa + 2u))))
         return LTRM_BAD_FIXED_TABLES;
-    /* Control points stored divided by 6 within the range divided by 6. */
+    /* Control points stored divided by 6 within the range divided by 6 (six units inside at the low end: the
+     * evaluation at theta may fall that far below the exact value). */
     for (i = 0; i < c->inv_slope_len; i++)
         if (c->inv_slope[i] <= 0) return LTRM_BAD_FIXED_TABLES;
     for (i = 0; i < c->offset_len; i++)
-        if (!((int64_t)c->offset[i] * 6 > LTRM_OFFSET_MIN && (int64_t)c->offset[i] * 6 < LTRM_OFFSET_MAX))
+        if (!((int64_t)c->offset[i] * 6 > (int64_t)LTRM_OFFSET_MIN + 6 && (int64_t)c->offset[i] * 6 < LTRM_OFFSET_MAX))
             return LTRM_BAD_FIXED_TABLES;
     for (i = 0; i < c->inv_slope_len; i++)
         if (!((int64_t)c->inv_slope[i] * 6 < LTRM_INV_SLOPE_LIMIT)) return LTRM_BAD_FIXED_TABLES;
     for (i = 0; c->bias_bend && i < c->ln_bias_len; i++)
-        if (!((int64_t)c->ln_bias[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT && (int64_t)c->ln_bias[i] * 6 < LTRM_BIAS_LIMIT))
+        if (!((int64_t)c->ln_bias[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + 6 && (int64_t)c->ln_bias[i] * 6 < LTRM_BIAS_LIMIT))
             return LTRM_BAD_FIXED_TABLES;
     for (i = 0; c->sensitivity_limit && i < c->u_min_len; i++)
-        if (!((int64_t)c->u_min[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT && (int64_t)c->u_min[i] * 6 < LTRM_BIAS_LIMIT))
+        if (!((int64_t)c->u_min[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + 6 && (int64_t)c->u_min[i] * 6 < LTRM_BIAS_LIMIT))
             return LTRM_BAD_FIXED_TABLES;
+    /* Every segment's power form fits ltrm_spline_at's 32-bit steps. */
+    for (i = 0; i + 1u < nt; i++) {
+        int64_t v;
+        if (!ltrm_spline_at(c->offset + i, 0u, &v) || !ltrm_spline_at(c->inv_slope + i, 0u, &v) ||
+            (c->bias_bend && !ltrm_spline_at(c->ln_bias + i, 0u, &v)) ||
+            (c->sensitivity_limit && !ltrm_spline_at(c->u_min + i, 0u, &v)))
+            return LTRM_BAD_FIXED_TABLES;
+    }
     if (c->has_sensor) {
         uint32_t span = c->sensor_code_hi > c->sensor_code_lo ? c->sensor_code_hi - c->sensor_code_lo : 0u;
         if (c->sensor_code_lo > c->sensor_code_hi || c->sensor_step_log2 > 16u ||
