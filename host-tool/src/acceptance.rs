@@ -409,8 +409,13 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
         let opts = crate::verify::VerifyOptions { bound_lsb: bound, ..Default::default() };
         let report = crate::verify::run_file(file, &tables.view(), &opts, &crate::progress::quiet)
             .map_err(|e| JudgeError::Verify(e.to_string()))?;
-        let worst =
-            report.fixed.errors.max_lsb.max(report.f32.errors.max_lsb).max(report.table.errors.max_lsb);
+        let worst = report
+            .fixed
+            .errors
+            .max_lsb
+            .max(report.f32.errors.max_lsb)
+            .max(report.table.errors.max_lsb)
+            .max(report.cache.errors.max_lsb);
         checks.push(Check {
             name: "verify_bound_lsb",
             passed: report.passed(),
@@ -418,7 +423,7 @@ pub fn judge(outcome: &FitOutcome, file: &CalFile, limits: &AcceptanceLimits) ->
             limit: bound,
             text: format!(
                 "verify: worst {worst:.4} LSB over the paths, {} status disagreement(s) off the edges (bound {bound} LSB)",
-                report.fixed.status.outside + report.f32.status.outside + report.table.status.outside
+                report.fixed.status.outside + report.f32.status.outside + report.table.status.outside + report.cache.status.outside
             ),
         });
     }

@@ -36,6 +36,10 @@
 //! (within 1e-12 Np), with the Newton solve of the bend warm-started from the previous code.
 //! [`VerifyOptions::exact_reference`] runs `correct_f64`'s own steps instead.
 //!
+//! The fixed path's stage cache ([`StageCache`]) evaluates the per-temperature values at the ends of the
+//! temperature's window and interpolates inside it, so it is not bit for bit the staged path either: it is
+//! verified on its own ("fixed, stage cache"), every code of every row through a cache kept for the row.
+//!
 //! The fixed path's code table ([`CodeTable`], the per-sample path of a held or slowly wandering
 //! temperature) interpolates x itself, so it is not bit for bit the staged path: it is verified on its
 //! own ("fixed, code table" in the report), every code of every row through a table kept for the row
@@ -50,7 +54,7 @@
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
 use logtrim::calibration::{F64Stage, ReadingF64, ReferenceSweep};
-use logtrim::fixed::{CodeTable, FixedCalibration, X_FRAC};
+use logtrim::fixed::{CodeTable, FixedCalibration, StageCache, X_FRAC};
 use logtrim::math::{Backend, Libm, Micromath};
 use logtrim::{Calibration, Error};
 use rayon::prelude::*;
@@ -93,6 +97,9 @@ pub struct VerifyOptions {
     /// Verify the fixed path's code table ([`CodeTable`], the per-sample path at a held or slowly wandering
     /// temperature) on its own: every point through a table kept per temperature row.
     pub check_table: bool,
+    /// Verify the fixed path's stage cache ([`StageCache`]: the values at the temperature window's ends,
+    /// interpolated inside it) on its own: every point through a cache kept per temperature row.
+    pub check_cache: bool,
     /// Evaluate the reference at every point by the exact path of [`Calibration::correct_f64`] (staged once
     /// per temperature) instead of the warm-started sweep ([`ReferenceSweep`]: the same statuses, values
     /// within 1e-12 Np, fewer `exp` calls).
@@ -111,6 +118,7 @@ impl Default for VerifyOptions {
             check_fixed: true,
             check_f32: true,
             check_table: true,
+            check_cache: true,
             exact_reference: false,
         }
     }
@@ -236,6 +244,8 @@ pub struct VerifyReport {
     pub f32: PathReport,
     /// The fixed path through its code table ([`CodeTable`]).
     pub table: PathReport,
+    /// The fixed path through its stage cache ([`StageCache`]).
+    pub cache: PathReport,
     /// The f32 backend.
     pub f32_backend: F32Backend,
     /// Every how many log codes were verified (1: every code).
@@ -262,9 +272,13 @@ impl VerifyReport {
     pub fn table_passed(&self) -> bool {
         !self.table.checked || (self.table.errors.max_lsb <= self.bound_lsb && self.table.status.outside == 0)
     }
+    /// Whether the stage cache is within the bound and agrees outside the edge band.
+    pub fn cache_passed(&self) -> bool {
+        !self.cache.checked || (self.cache.errors.max_lsb <= self.bound_lsb && self.cache.status.outside == 0)
+    }
     /// Every verified path passed.
     pub fn passed(&self) -> bool {
-        self.fixed_passed() && self.f32_passed() && self.table_passed()
+        self.fixed_passed() && self.f32_passed() && self.table_passed() && self.cache_passed()
     }
 }
 
@@ -370,9 +384,11 @@ struct RowOut {
     fixed: Acc,
     f32: Acc,
     table: Acc,
+    cache: Acc,
     fixed_examples: Vec<Disagreement>,
     f32_examples: Vec<Disagreement>,
     table_examples: Vec<Disagreement>,
+    cache_examples: Vec<Disagreement>,
 }
 
 const MAX_EXAMPLES: usize = 10;
@@ -486,10 +502,12 @@ pub fn run_with_progress(
         total.fixed = total.fixed.merge(r.fixed);
         total.f32 = total.f32.merge(r.f32);
         total.table = total.table.merge(r.table);
+        total.cache = total.cache.merge(r.cache);
         for (dst, src) in [
             (&mut total.fixed_examples, r.fixed_examples),
             (&mut total.f32_examples, r.f32_examples),
             (&mut total.table_examples, r.table_examples),
+            (&mut total.cache_examples, r.cache_examples),
         ] {
             let room = MAX_EXAMPLES.saturating_sub(dst.len());
             dst.extend(src.into_iter().take(room));
@@ -522,6 +540,7 @@ pub fn run_with_progress(
         fixed: report(opts.check_fixed, &total.fixed, total.fixed_examples),
         f32: report(opts.check_f32, &total.f32, total.f32_examples),
         table: report(opts.check_table, &total.table, total.table_examples),
+        cache: report(opts.check_cache, &total.cache, total.cache_examples),
         f32_backend: opts.f32_backend,
         code_stride: opts.code_stride,
         temp_stride: opts.temp_stride,
@@ -618,10 +637,12 @@ fn row<B: Backend>(
     // The code table, one per row: built for the row's temperature window at the first code, then an
     // index and an interpolation per code (or its stage cache where the table falls back).
     let mut table = CodeTable::new(*fixed);
+    // The stage cache, one per row: the row's window loaded at the first code.
+    let mut cache = StageCache::new(*fixed);
     let n = codes.len();
     let mut statuses = Vec::with_capacity(n);
     // (index, path status) of each point where a path disagrees with the reference.
-    let mut pending: [Vec<(usize, Status)>; 3] = [Vec::new(), Vec::new(), Vec::new()];
+    let mut pending: [Vec<(usize, Status)>; 4] = [Vec::new(), Vec::new(), Vec::new(), Vec::new()];
     let mut out = RowOut::default();
     let temp_c = g.celsius.unwrap_or(f64::NAN);
     let at = (temp_c, g.code);
@@ -659,6 +680,13 @@ fn row<B: Backend>(
             };
             tally(&mut out.table, &mut pending[2], i, code, &r, d, tx.map(|v| f64::from(v.x) / q), at);
         }
+        if opts.check_cache {
+            let cx = match g.code {
+                Some(tc) => cache.correct_raw(code, tc),
+                None => cache.correct(code, g.millicelsius),
+            };
+            tally(&mut out.cache, &mut pending[3], i, code, &r, d, cx.map(|v| f64::from(v.x) / q), at);
+        }
         if opts.check_f32 {
             tally(&mut out.f32, &mut pending[1], i, code, &r, d, f3, at);
         }
@@ -676,7 +704,8 @@ fn row<B: Backend>(
         let (acc, examples) = match k {
             0 => (&mut out.fixed, &mut out.fixed_examples),
             1 => (&mut out.f32, &mut out.f32_examples),
-            _ => (&mut out.table, &mut out.table_examples),
+            2 => (&mut out.table, &mut out.table_examples),
+            _ => (&mut out.cache, &mut out.cache_examples),
         };
         for (i, p) in list {
             let r = &statuses[*i];
@@ -784,6 +813,7 @@ impl VerifyReport {
         };
         for (name, p, ok) in [
             ("fixed", &self.fixed, self.fixed_passed()),
+            ("fixed, stage cache", &self.cache, self.cache_passed()),
             ("fixed, code table", &self.table, self.table_passed()),
             (backend, &self.f32, self.f32_passed()),
         ] {

@@ -104,8 +104,9 @@ pub fn run(args: &VerifyArgs) -> Result<(), Failure> {
         },
         check_fixed: args.path != PathArg::F32,
         check_f32: args.path != PathArg::Fixed,
-        // The code table is the fixed path's too: verified with it.
+        // The code table and the stage cache are the fixed path's too: verified with it.
         check_table: args.path != PathArg::F32,
+        check_cache: args.path != PathArg::F32,
         exact_reference: args.exact_reference,
     };
     let (codes, temps) = verify::plan(&file, &opts).map_err(Failure::input)?;
