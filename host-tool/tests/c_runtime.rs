@@ -827,3 +827,97 @@ int main() {
     assert!(out.status.success(), "c++ failed:\n{}", String::from_utf8_lossy(&out.stderr));
     assert_eq!(CBuild::run(&exe, &[], String::new()), "ok 16777216\n");
 }
+
+/// The C kernel of the temperature splines at θ (`ltrm_spline_at`, the library's source compiled into the
+/// driver) against `logtrim::fixed::interp::spline_at`: the same value or the same refusal, at the edges of
+/// its 32-bit limits (each difference at its limit and one inside, words that overflow when subtracted) and
+/// on random control points and fractions.
+#[test]
+fn temperature_spline_kernel_agrees_with_rust_at_its_limits() {
+    use logtrim::fixed::interp::spline_at;
+    let Some(build) = CBuild::new("spline") else { return };
+    build.write(
+        "spline.c",
+        br#"#include <stdio.h>
+#include "ltrm.c"
+int main(void) {
+    long a, b, c, d;
+    unsigned long t;
+    while (scanf("%ld %ld %ld %ld %lu", &a, &b, &c, &d, &t) == 5) {
+        int32_t cp[4];
+        int64_t v = 0;
+        int ok;
+        cp[0] = (int32_t)a; cp[1] = (int32_t)b; cp[2] = (int32_t)c; cp[3] = (int32_t)d;
+        ok = ltrm_spline_at(cp, (uint32_t)t, &v);
+        printf("%d %lld\n", ok, ok ? (long long)v : 0LL);
+    }
+    return 0;
+}
+"#,
+    );
+    let cc = std::env::var("CC").unwrap_or_else(|_| "cc".into());
+    let exe = build.dir.join("spline");
+    let out = std::process::Command::new(&cc)
+        .args(["-std=c99", "-O2", "-o"])
+        .arg(&exe)
+        .arg(build.dir.join("spline.c"))
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "cc failed:\n{}", String::from_utf8_lossy(&out.stderr));
+    let mut cases: Vec<([i32; 4], u32)> = Vec::new();
+    let base = [0i32, 1 << 29, -(1 << 30), i32::MAX - (1 << 27), i32::MIN + (1 << 27)];
+    for &b in &base {
+        for k in [-1i64, 0, 1] {
+            // d = c2 − c0 at ±2^28, e = c0 − 2c1 + c2 at ±2^27, f = c1 − c2 at ±2^26, g = c3 − c0 at ±2^27.
+            for s in [-1i64, 1] {
+                let at = |v: i64| v.clamp(i64::from(i32::MIN), i64::from(i32::MAX)) as i32;
+                let b64 = i64::from(b);
+                let lim = |n: u32| s * ((1i64 << n) + k);
+                cases.push(([b, b, at(b64 + lim(28)), b], 777_777));
+                cases.push(([b, at(b64 - lim(27) / 2), b, b], 5));
+                cases.push(([b, at(b64 + lim(26)), b, b], 1 << 19));
+                cases.push(([b, b, b, at(b64 + lim(27))], (1 << 20) - 1));
+            }
+        }
+    }
+    for w in
+        [[i32::MAX, -1, i32::MIN, 0], [i32::MIN, i32::MAX, i32::MIN, i32::MAX], [i32::MAX; 4], [i32::MIN; 4]]
+    {
+        cases.push((w, 123_456));
+    }
+    let mut rng = 0x9e37_79b9_7f4a_7c15u64;
+    let mut next = || {
+        rng ^= rng << 13;
+        rng ^= rng >> 7;
+        rng ^= rng << 17;
+        rng
+    };
+    for _ in 0..4000 {
+        let c0 = next() as i32;
+        let spread = 1i64 << (next() % 31);
+        let mut c = [c0; 4];
+        for v in c.iter_mut().skip(1) {
+            *v = (i64::from(c0) + (next() as i64 % spread)).clamp(i64::from(i32::MIN), i64::from(i32::MAX))
+                as i32;
+        }
+        cases.push((c, (next() % (1 << 20)) as u32));
+    }
+    let input: String =
+        cases.iter().map(|(c, t)| format!("{} {} {} {} {t}\n", c[0], c[1], c[2], c[3])).collect();
+    let out = CBuild::run(&exe, &[], input);
+    let lines: Vec<&str> = out.lines().collect();
+    assert_eq!(lines.len(), cases.len());
+    let mut refused = 0;
+    for ((c, t), line) in cases.iter().zip(&lines) {
+        let want = match spline_at(*c, *t) {
+            Some(v) => format!("1 {v}"),
+            None => {
+                refused += 1;
+                "0 0".to_string()
+            }
+        };
+        assert_eq!(*line, want, "{c:?} at {t}");
+    }
+    // Both sides of the limits were reached.
+    assert!(refused > 100 && refused < cases.len() - 100, "{refused} of {} refused", cases.len());
+}

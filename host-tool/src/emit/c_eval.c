@@ -374,33 +374,26 @@ static inline int32_t ltrm_mulh20(int32_t x, uint32_t t) {
     return ltrm_mulh16(x, (t >> 4) & 0xffffu) + ltrm_asr32(ltrm_mulh16(x, t & 15u), 4u);
 }
 
-/* a - b and a + b in int32, 0 where the exact result does not fit (no 64-bit arithmetic). */
-static inline int ltrm_sub32(int32_t a, int32_t b, int32_t *out) {
-    if (b < 0 ? a > INT32_MAX + b : a < INT32_MIN + b) return 0;
-    *out = a - b;
-    return 1;
-}
-static inline int ltrm_add32(int32_t a, int32_t b, int32_t *out) {
-    if (b < 0 ? a < INT32_MIN - b : a > INT32_MAX - b) return 0;
-    *out = a + b;
-    return 1;
-}
-static inline uint32_t ltrm_abs32(int32_t v) { return v < 0 ? 0u - (uint32_t)v : (uint32_t)v; }
+/* |v| < 2^k for a two's complement word, as one unsigned comparison. */
+static inline int ltrm_within32(uint32_t v, unsigned k) { return v + ((1u << k) - 1u) < (2u << k) - 1u; }
 
 /* A temperature spline's value at a Q20 fraction of its segment, from its power form by Horner's rule
- * (logtrim::fixed::interp::spline_at): the coefficients from checked 32-bit differences; 0 when a difference is
- * too large for the 32-bit steps. */
+ * (logtrim::fixed::interp::spline_at). The control points' differences d = c2 - c0, p = c0 - c1, q = c2 - c1,
+ * e = p + q, f = c1 - c2, g = c3 - c0 are formed as unsigned words and refused, as the Rust checked operations
+ * refuse them, where one of them does not fit an int32 (the sign rule of two's complement, one test for all six)
+ * or is too large for the 32-bit steps; no 64-bit arithmetic. */
 static inline int ltrm_spline_at(const int32_t *c, uint32_t t, int64_t *out) {
-    int32_t d, p, q, e, f, g, a1, a2, a3, v;
-    if (!ltrm_sub32(c[2], c[0], &d) || !ltrm_sub32(c[0], c[1], &p) || !ltrm_sub32(c[2], c[1], &q) ||
-        !ltrm_add32(p, q, &e) || !ltrm_sub32(c[1], c[2], &f) || !ltrm_sub32(c[3], c[0], &g))
+    uint32_t u0 = (uint32_t)c[0], u1 = (uint32_t)c[1], u2 = (uint32_t)c[2], u3 = (uint32_t)c[3];
+    uint32_t d = u2 - u0, p = u0 - u1, q = u2 - u1, e = p + q, f = u1 - u2, g = u3 - u0;
+    uint32_t ovf = ((u2 ^ u0) & (u2 ^ d)) | ((u0 ^ u1) & (u0 ^ p)) | ((u2 ^ u1) & (u2 ^ q)) | (~(p ^ q) & (p ^ e)) |
+                   ((u1 ^ u2) & (u1 ^ f)) | ((u3 ^ u0) & (u3 ^ g));
+    int32_t a1, a2, a3, v;
+    if ((ovf >> 31) || !(ltrm_within32(d, 28) && ltrm_within32(e, 27) && ltrm_within32(f, 26) && ltrm_within32(g, 27)))
         return 0;
-    if (!(ltrm_abs32(d) < (1u << 28) && ltrm_abs32(e) < (1u << 27) && ltrm_abs32(f) < (1u << 26) &&
-          ltrm_abs32(g) < (1u << 27)))
-        return 0;
-    a1 = 3 * d;
-    a2 = 3 * e;
-    a3 = g + 3 * f;
+    /* Within +-2^28: the words convert to the int32 values they hold. */
+    a1 = 3 * (int32_t)d;
+    a2 = 3 * (int32_t)e;
+    a3 = (int32_t)g + 3 * (int32_t)f;
     t &= 0xfffffu;
     v = a2 + ltrm_mulh20(a3, t);
     v = a1 + ltrm_mulh20(v, t);
