@@ -19,12 +19,13 @@
 //!   an exact integer (at most 2^14). A value is then exact: `Σ w_k·c_k / 4096` split into the control
 //!   points' high and low halves, 8 products, no rounding but the final floor. The control points over
 //!   temperature are stored divided by 6.
-//! * **The sensor** ([`sensor_weights`], [`sensor_value`]): the code's fraction inside a segment has at most
-//!   16 bits; six times the basis in Q24 (from the exact t² and a truncated t³) and four exact
-//!   [`mul_wide`] products keep the temperature within a microkelvin of the spline over steep segments.
-//!   Its control points are stored divided by 6.
+//! * **At the temperature itself** ([`spline_at`], [`collapse6`]): the direct path and a stage evaluate
+//!   each spline over temperature on its segment's power form by Horner's rule with θ's 20-bit fraction
+//!   ([`mulh20`]); the residual's columns take the [`basis6`] weights of the fraction's top 16 bits. The
+//!   sensor table's spline over the temperature code takes the same form at the code's exact 16-bit
+//!   fraction ([`spline_at16`]). Their control points are stored divided by 6.
 
-use super::arith::{mul_wide, mulh16};
+use super::arith::mulh16;
 
 /// log2 of the number of windows per knot step of the temperature grid.
 pub const WINDOWS_LOG2: u32 = 4;
@@ -159,6 +160,20 @@ pub fn mulh20(x: i32, t: u32) -> i32 {
 /// [`super::FixedCalibration::validate`] refuses tables with such a segment.
 #[inline(always)]
 pub fn spline_at(c: [i32; 4], t: u32) -> Option<i64> {
+    horner(c, t & 0xf_ffff, mulh20)
+}
+
+/// [`spline_at`] at a fraction of at most 16 bits (`t < 2^16`, the temperature channel's code inside a
+/// segment of the sensor table, exact), with [`mulh16`] products: at most 3 units below the exact value,
+/// never above it.
+#[inline(always)]
+pub fn spline_at16(c: [i32; 4], t: u32) -> Option<i64> {
+    horner(c, t & 0xffff, mulh16)
+}
+
+/// The power form of [`spline_at`] by Horner's rule with a floored product `mul(v, t)`.
+#[inline(always)]
+fn horner(c: [i32; 4], t: u32, mul: impl Fn(i32, u32) -> i32) -> Option<i64> {
     // The coefficients from differences in 32 bits (a 64-bit product by 3 would call a runtime helper on a
     // Cortex-M0): d = c2 − c0, e = (c0 − c1) + (c2 − c1), f = c1 − c2, g = c3 − c0, each checked.
     let d = c[2].checked_sub(c[0])?;
@@ -174,10 +189,9 @@ pub fn spline_at(c: [i32; 4], t: u32) -> Option<i64> {
         return None;
     }
     let (a1, a2, a3) = (3 * d, 3 * e, g + 3 * f);
-    let t = t & 0xf_ffff;
-    let v = a2 + mulh20(a3, t);
-    let v = a1 + mulh20(v, t);
-    Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(mulh20(v, t)))
+    let v = a2 + mul(a3, t);
+    let v = a1 + mul(v, t);
+    Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(mul(v, t)))
 }
 
 /// `floor(Σ w_k·c_k / 2)` of four i16 control points over temperature with the [`basis6`] weights `w` at
@@ -193,28 +207,6 @@ pub fn collapse6(c: [i16; 4], w: [u32; 4]) -> i32 {
         + w[2] as i32 * i32::from(c[2])
         + w[3] as i32 * i32::from(c[3]))
         >> 1
-}
-
-/// Six times the basis at a Q16 fraction `t16`, in Q24: each weight at most 2^26, the four summing to
-/// exactly `6·2^24`. `t²` is exact in Q32 and then truncated to Q24, `t³` truncated to Q24.
-#[inline(always)]
-pub fn sensor_weights(t16: u32) -> [i32; 4] {
-    let t = t16 & 0xffff;
-    let t2 = ((t * t) >> 8) as i32; // Q24
-    let t3 = mulh16(t2, t); // Q24
-    let t1 = (t << 8) as i32; // Q24
-    let one = 1i32 << 24;
-    // (1 − t)³, at least 0 (the truncated powers can make it −1 near t = 1: it saturates there).
-    let s3 = (one - 3 * t1 + 3 * t2 - t3).max(0);
-    let w1 = 3 * t3 - 6 * t2 + 4 * one;
-    [s3, w1, 6 * one - s3 - w1 - t3, t3]
-}
-
-/// `floor(Σ w_k·c_k / 2^24)` of four control points (stored divided by 6) and [`sensor_weights`]: four exact
-/// products.
-#[inline(always)]
-pub fn sensor_value(c: [i32; 4], w: [i32; 4]) -> i64 {
-    (mul_wide(w[0], c[0]) + mul_wide(w[1], c[1]) + mul_wide(w[2], c[2]) + mul_wide(w[3], c[3])) >> 24
 }
 
 /// Four consecutive entries of `table` from `start`, or `None` past the end.
@@ -341,16 +333,5 @@ mod tests {
             let v = f64::from(collapse6(c, basis6(t)));
             assert!((v - exact).abs() < 2.0 * 65536.0 / 2.0, "t={t}: {v} vs {exact}");
         }
-    }
-
-    #[test]
-    fn sensor_weights_sum_to_six() {
-        for t in (0..65536u32).step_by(7).chain([65535]) {
-            let w = sensor_weights(t);
-            assert_eq!(w.iter().map(|&v| i64::from(v)).sum::<i64>(), 6 << 24);
-            assert!(w.iter().all(|&v| (0..=4 << 24).contains(&v)), "t={t}: {w:?}");
-        }
-        assert_eq!(sensor_weights(0), [1 << 24, 4 << 24, 1 << 24, 0]);
-        assert_eq!(sensor_weights(32768), [1 << 21, 23 << 21, 23 << 21, 1 << 21]);
     }
 }

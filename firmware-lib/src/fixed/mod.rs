@@ -80,7 +80,6 @@
 //! | window fraction, knot fractions | u32 | Q16 (`0..2^16`) |
 //! | per-sample spline weights ([`interp::basis6`], the bend's [`interp::basis16`]) | u32 | six times the basis in Q13; the basis in Q16 |
 //! | window weights ([`interp::window_weights`]) | i32 | six times the basis · 16³, exact |
-//! | sensor weights ([`interp::sensor_weights`]) | i32 | six times the basis, Q24 |
 //! | [`FixedCalibration::offset`] O(T) | i32 | codes · 2^`offset_frac` / 6 |
 //! | [`FixedCalibration::inv_slope`] A(T) = 1/S(T) | i32 (u32 at θ or a window end) | Np/code · 2^`inv_slope_frac` / 6, `offset_frac + inv_slope_frac = 56` |
 //! | [`FixedCalibration::ln_bias`] λ(T), [`FixedCalibration::u_min`] | i32 | Q24 Np / 6 |
@@ -136,8 +135,8 @@ use crate::qformat::millicelsius_of_theta;
 use crate::units::Unit;
 use arith::{mul_hi_u, mulh16};
 use interp::{
-    basis6, collapse6, four, sensor_value, sensor_weights, spline6, spline_at, window_collapse, window_value,
-    window_weights, window_weights_at, WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
+    basis6, collapse6, four, spline6, spline_at, spline_at16, window_collapse, window_value, window_weights,
+    window_weights_at, WINDOWS, WINDOWS_LOG2, WINDOW_DEN_LOG2,
 };
 
 /// Version of the layout of [`FixedCalibration`]; [`FixedCalibration::validate`] refuses others.
@@ -989,7 +988,7 @@ impl<'a> FixedCalibration<'a> {
         let seg = (pos >> k) as usize;
         let t16 = (pos & ((1 << k) - 1)) << (16 - k);
         let c = four(s.knots, seg).ok_or(BAD_TABLE)?;
-        bounded(sensor_value(c, sensor_weights(t16)), THETA_LIMIT)
+        bounded(spline_at16(c, t16).ok_or(BAD_TABLE)?, THETA_LIMIT)
     }
 
     /// The temperature stage at a temperature in m°C.
@@ -1127,6 +1126,11 @@ impl<'a> FixedCalibration<'a> {
                 || s.knots.len() < SensorTable::knots_needed(s.code_lo, s.code_hi, s.step_log2)
                 || !in_range(s.knots, THETA_LIMIT)
             {
+                return bad(D::Coefficient);
+            }
+            // Every segment a code in the span reaches must fit [`spline_at16`]'s 32-bit steps.
+            let segments = ((s.code_hi - s.code_lo) >> s.step_log2) as usize + 1;
+            if !(0..segments).all(|seg| four(s.knots, seg).and_then(|c| spline_at16(c, 0)).is_some()) {
                 return bad(D::Coefficient);
             }
         }

@@ -177,18 +177,42 @@ static inline int ltrm_window_value_within(const int32_t *c, const int32_t w[4],
     return 1;
 }
 
-/* Six times the basis at a Q16 fraction, in Q24 (the sensor's weights). */
-static inline void ltrm_sensor_weights(uint32_t t16, int32_t w[4]) {
-    uint32_t t = t16 & 0xffffu;
-    int32_t t2 = (int32_t)((t * t) >> 8), t3 = ltrm_mulh16(t2, t), t1 = (int32_t)(t << 8), one = 1 << 24;
-    int32_t s3 = one - 3 * t1 + 3 * t2 - t3;
-    if (s3 < 0) s3 = 0;
-    int32_t w1 = 3 * t3 - 6 * t2 + 4 * one;
-    w[0] = s3;
-    w[1] = w1;
-    w[2] = 6 * one - s3 - w1 - t3;
-    w[3] = t3;
+/* floor(x*t / 2^20) for a Q20 fraction, within two units below (logtrim::fixed::interp::mulh20). */
+static inline int32_t ltrm_mulh20(int32_t x, uint32_t t) {
+    return ltrm_mulh16(x, (t >> 4) & 0xffffu) + ltrm_asr32(ltrm_mulh16(x, t & 15u), 4u);
 }
+
+/* |v| < 2^k for a two's complement word, as one unsigned comparison. */
+static inline int ltrm_within32(uint32_t v, unsigned k) { return v + ((1u << k) - 1u) < (2u << k) - 1u; }
+
+/* A spline's value (control points stored divided by 6) at a fraction of its segment, from its power form by
+ * Horner's rule with floored products of 20 (q20) or 16 bits (logtrim::fixed::interp::spline_at, spline_at16). The control points' differences d = c2 - c0, p = c0 - c1, q = c2 - c1,
+ * e = p + q, f = c1 - c2, g = c3 - c0 are formed as unsigned words and refused, as the Rust checked operations
+ * refuse them, where one of them does not fit an int32 (the sign rule of two's complement, one test for all six)
+ * or is too large for the 32-bit steps; no 64-bit arithmetic. */
+static inline int ltrm_horner(const int32_t *c, uint32_t t, int q20, int64_t *out) {
+    uint32_t u0 = (uint32_t)c[0], u1 = (uint32_t)c[1], u2 = (uint32_t)c[2], u3 = (uint32_t)c[3];
+    uint32_t d = u2 - u0, p = u0 - u1, q = u2 - u1, e = p + q, f = u1 - u2, g = u3 - u0;
+    uint32_t ovf = ((u2 ^ u0) & (u2 ^ d)) | ((u0 ^ u1) & (u0 ^ p)) | ((u2 ^ u1) & (u2 ^ q)) | (~(p ^ q) & (p ^ e)) |
+                   ((u1 ^ u2) & (u1 ^ f)) | ((u3 ^ u0) & (u3 ^ g));
+    int32_t a1, a2, a3, v;
+    if ((ovf >> 31) || !(ltrm_within32(d, 28) && ltrm_within32(e, 27) && ltrm_within32(f, 26) && ltrm_within32(g, 27)))
+        return 0;
+    /* Within +-2^28: the words convert to the int32 values they hold. */
+    a1 = 3 * (int32_t)d;
+    a2 = 3 * (int32_t)e;
+    a3 = (int32_t)g + 3 * (int32_t)f;
+    t &= q20 ? 0xfffffu : 0xffffu;
+    v = a2 + (q20 ? ltrm_mulh20(a3, t) : ltrm_mulh16(a3, t));
+    v = a1 + (q20 ? ltrm_mulh20(v, t) : ltrm_mulh16(v, t));
+    *out = (int64_t)c[0] + 4 * (int64_t)c[1] + c[2] + (q20 ? ltrm_mulh20(v, t) : ltrm_mulh16(v, t));
+    return 1;
+}
+
+/* At a Q20 fraction of a temperature segment (logtrim::fixed::interp::spline_at). */
+static inline int ltrm_spline_at(const int32_t *c, uint32_t t, int64_t *out) { return ltrm_horner(c, t, 1, out); }
+/* At the temperature code's exact 16-bit fraction of a sensor segment (logtrim::fixed::interp::spline_at16). */
+static inline int ltrm_spline_at16(const int32_t *c, uint32_t t, int64_t *out) { return ltrm_horner(c, t, 0, out); }
 
 /* A value of the tables at a window end (or the sensor's), checked against its limit. */
 static inline ltrm_status ltrm_bounded(int64_t v, int32_t limit, int32_t *out) {
@@ -255,7 +279,6 @@ static inline ltrm_status ltrm_check_code(const ltrm_fixed *c, uint32_t code) {
 /* theta (m°C * 1024) from the temperature channel's code. */
 static inline ltrm_status ltrm_theta_from_code(const ltrm_fixed *c, uint32_t code, int32_t *theta) {
     uint32_t k, pos, seg;
-    int32_t w[4];
     int64_t v;
     if (!c->has_sensor) return LTRM_NOT_CALIBRATED;
     if (code < c->sensor_code_lo) return code < c->far_below_code ? c->fault_far_below : c->fault_below;
@@ -264,10 +287,8 @@ static inline ltrm_status ltrm_theta_from_code(const ltrm_fixed *c, uint32_t cod
     pos = code - c->sensor_code_lo;
     seg = pos >> k;
     if ((uint64_t)seg + 4u > (uint64_t)c->sensor_len) return LTRM_BAD_TABLE;
-    ltrm_sensor_weights((pos & ((1u << k) - 1u)) << (16u - k), w);
-    v = ltrm_mul_wide(w[0], c->sensor_knots[seg]) + ltrm_mul_wide(w[1], c->sensor_knots[seg + 1u]) +
-        ltrm_mul_wide(w[2], c->sensor_knots[seg + 2u]) + ltrm_mul_wide(w[3], c->sensor_knots[seg + 3u]);
-    return ltrm_bounded(ltrm_asr64(v, 24), LTRM_THETA_LIMIT, theta);
+    if (!ltrm_spline_at16(c->sensor_knots + seg, (pos & ((1u << k) - 1u)) << (16u - k), &v)) return LTRM_BAD_TABLE;
+    return ltrm_bounded(v, LTRM_THETA_LIMIT, theta);
 }
 
 /* theta of a temperature in m°C, the accepted range checked first. */
@@ -367,38 +388,6 @@ static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends 
     *lo = a;
     *hi = b;
     return LTRM_OK;
-}
-
-/* floor(x*t / 2^20) for a Q20 fraction, within two units below (logtrim::fixed::interp::mulh20). */
-static inline int32_t ltrm_mulh20(int32_t x, uint32_t t) {
-    return ltrm_mulh16(x, (t >> 4) & 0xffffu) + ltrm_asr32(ltrm_mulh16(x, t & 15u), 4u);
-}
-
-/* |v| < 2^k for a two's complement word, as one unsigned comparison. */
-static inline int ltrm_within32(uint32_t v, unsigned k) { return v + ((1u << k) - 1u) < (2u << k) - 1u; }
-
-/* A temperature spline's value at a Q20 fraction of its segment, from its power form by Horner's rule
- * (logtrim::fixed::interp::spline_at). The control points' differences d = c2 - c0, p = c0 - c1, q = c2 - c1,
- * e = p + q, f = c1 - c2, g = c3 - c0 are formed as unsigned words and refused, as the Rust checked operations
- * refuse them, where one of them does not fit an int32 (the sign rule of two's complement, one test for all six)
- * or is too large for the 32-bit steps; no 64-bit arithmetic. */
-static inline int ltrm_spline_at(const int32_t *c, uint32_t t, int64_t *out) {
-    uint32_t u0 = (uint32_t)c[0], u1 = (uint32_t)c[1], u2 = (uint32_t)c[2], u3 = (uint32_t)c[3];
-    uint32_t d = u2 - u0, p = u0 - u1, q = u2 - u1, e = p + q, f = u1 - u2, g = u3 - u0;
-    uint32_t ovf = ((u2 ^ u0) & (u2 ^ d)) | ((u0 ^ u1) & (u0 ^ p)) | ((u2 ^ u1) & (u2 ^ q)) | (~(p ^ q) & (p ^ e)) |
-                   ((u1 ^ u2) & (u1 ^ f)) | ((u3 ^ u0) & (u3 ^ g));
-    int32_t a1, a2, a3, v;
-    if ((ovf >> 31) || !(ltrm_within32(d, 28) && ltrm_within32(e, 27) && ltrm_within32(f, 26) && ltrm_within32(g, 27)))
-        return 0;
-    /* Within +-2^28: the words convert to the int32 values they hold. */
-    a1 = 3 * (int32_t)d;
-    a2 = 3 * (int32_t)e;
-    a3 = (int32_t)g + 3 * (int32_t)f;
-    t &= 0xfffffu;
-    v = a2 + ltrm_mulh20(a3, t);
-    v = a1 + ltrm_mulh20(v, t);
-    *out = (int64_t)c[0] + 4 * (int64_t)c[1] + c[2] + ltrm_mulh20(v, t);
-    return 1;
 }
 
 /* floor(sum w_k c_k / 2) of four residual control points over temperature with basis6 weights: a column at theta in

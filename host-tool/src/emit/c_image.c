@@ -851,8 +851,13 @@ static ltrm_status ltrm_validate_fixed(const ltrm_fixed *c) {
             (uint64_t)c->sensor_len < (uint64_t)(span >> c->sensor_step_log2) + 4u)
             return LTRM_BAD_FIXED_TABLES;
         for (i = 0; i < c->sensor_len; i++)
-            if (!((int64_t)c->sensor_knots[i] * 6 > -lim && (int64_t)c->sensor_knots[i] * 6 < lim))
+            if (!((int64_t)c->sensor_knots[i] * 6 > -lim + 6 && (int64_t)c->sensor_knots[i] * 6 < lim))
                 return LTRM_BAD_FIXED_TABLES;
+        /* Every segment a code in the span reaches fits ltrm_spline_at16's 32-bit steps. */
+        for (i = 0; i <= span >> c->sensor_step_log2; i++) {
+            int64_t v;
+            if (!ltrm_spline_at16(c->sensor_knots + i, 0u, &v)) return LTRM_BAD_FIXED_TABLES;
+        }
     }
     return LTRM_OK;
 }
