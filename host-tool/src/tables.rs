@@ -27,8 +27,8 @@ use logtrim::calibration::F64StageTerms;
 use logtrim::error::SensorFault;
 use logtrim::fixed::{
     FixedCalibration, FixedHeader, SensorTable, CODE_LIMIT, INV_SLOPE_LIMIT, LAYOUT_VERSION, OFFSET_RANGE,
-    RESIDUAL_FRAC_RANGE, ROW_CAPACITY, SLOPE_FRAC_SUM, THETA_FRAC, T_STEP_LOG2_RANGE, XA_STEP_LOG2_RANGE,
-    X_FRAC,
+    RESIDUAL_FRAC_RANGE, ROW_CAPACITY, SLOPE_FRAC_SUM, SPLINE_MARGIN, THETA_FRAC, T_STEP_LOG2_RANGE,
+    XA_STEP_LOG2_RANGE, X_FRAC,
 };
 use logtrim::Calibration;
 use nalgebra::DMatrix;
@@ -364,7 +364,7 @@ fn to_i32(what: &'static str, values: &[f64], scale: f64) -> Result<Vec<i32>, Ta
 /// Control points of the bias floor or the sensitivity limit, Q24 divided by 6, within the firmware's bound
 /// ([`logtrim::fixed::BIAS_LIMIT`] at full scale).
 fn bias_scale(what: &'static str, c: &[f64]) -> Result<Vec<i32>, TableError> {
-    let limit = f64::from(logtrim::fixed::BIAS_LIMIT);
+    let limit = f64::from(logtrim::fixed::BIAS_LIMIT) - f64::from(SPLINE_MARGIN) - 64.0;
     if let Some(v) = c.iter().find(|v| !(v.abs() * X_SCALE < limit)) {
         return Err(TableError::Range { what, detail: format!("{v} Np beyond ±{} Np", limit / X_SCALE) });
     }
@@ -521,7 +521,9 @@ pub fn build(
     }
     // Offset scale: every code shifted below 2^30 and the offset within (−2^29, 2^30); the inverse slope
     // then has `56 − offset_frac` fraction bits and must stay below 2^32 (module docs of `fixed`).
-    let (o_lo, o_hi) = (f64::from(OFFSET_RANGE.0) + 64.0, f64::from(OFFSET_RANGE.1) - 64.0);
+    // Control points [`SPLINE_MARGIN`] (and a little) inside the ranges, as `validate` asks.
+    let margin = f64::from(SPLINE_MARGIN) + 64.0;
+    let (o_lo, o_hi) = (f64::from(OFFSET_RANGE.0) + margin, f64::from(OFFSET_RANGE.1) - margin);
     let code_limit = f64::from(CODE_LIMIT) - 64.0;
     let offset_frac = (0..=30u32)
         .rev()
@@ -535,7 +537,7 @@ pub fn build(
         })?;
     let inv_slope_frac = SLOPE_FRAC_SUM - offset_frac;
     let peak = inv_slope_c.iter().fold(0f64, |m, &v| m.max(v)) * 2f64.powi(inv_slope_frac as i32);
-    if !(peak < INV_SLOPE_LIMIT as f64 - 64.0) {
+    if !(peak < INV_SLOPE_LIMIT as f64 - margin) {
         return Err(TableError::Range {
             what: "inverse slope",
             detail: format!(

@@ -149,31 +149,36 @@ pub fn mulh20(x: i32, t: u32) -> i32 {
 /// The value of a spline over temperature (control points stored divided by 6) at a Q20 fraction `t` of its
 /// segment, from its power form `a0 + a1·t + a2·t² + a3·t³`, whose coefficients are integer sums of the
 /// stored control points (`a0 = c0 + 4c1 + c2`, `a1 = 3(c2 − c0)`, `a2 = 3(c0 + c2) − 6c1`,
-/// `a3 = c3 − c0 + 3(c1 − c2)`), by Horner's rule with three [`mulh20`] products: never above the exact
-/// value and at most 6 units below it (each product loses less than two units, the later steps scale that
-/// by `t < 1`), in the value's own units. The fraction needs its 20 bits: a 16-bit one would move a knot
-/// step of 16 K by up to 0.24 mK, a few thousandths of an LSB on a unit whose slope follows the absolute
-/// temperature. `None` where the control points' differences are too large for the 32-bit steps
-/// (`|c2 − c0| ≥ 2^28`, `|c0 − 2c1 + c2| ≥ 2^27`, `|c1 − c2| ≥ 2^26` or `|c3 − c0| ≥ 2^27`: then
-/// `|a1| < 2^29.6` and `|a2|, |a3| < 2^28.6`, so the first sum is below 2^29.6 and the second below 2^30.6;
-/// a real table's neighbouring control points differ by a few percent of their size);
-/// [`super::FixedCalibration::validate`] refuses tables with such a segment.
+/// `a3 = c3 − c0 + 3(c1 − c2)`), by Horner's rule: the two inner products with the fraction's top 16 bits
+/// ([`mulh16`]), the outer one with all 20 ([`mulh20`]). The outer product carries the slope term `a1·t`,
+/// which needs the 20 bits (a 16-bit fraction would move a knot step of 16 K by up to 0.24 mK, a few
+/// thousandths of an LSB on a unit whose slope follows the absolute temperature); the inner ones carry the
+/// curvature, whose share of the lost 4 bits is `(|a2| + 2|a3|)·2^−16`. So the value is within
+/// `(|a2| + 2|a3|)/2^16 + 4` units of the exact one in the value's own units (a few units on real tables,
+/// below [`super::SPLINE_MARGIN`] for any accepted coefficients). `None` where the control points'
+/// differences are too large for the 32-bit steps (`|c2 − c0| ≥ 2^28`, `|c0 − 2c1 + c2| ≥ 2^27`,
+/// `|c1 − c2| ≥ 2^26` or `|c3 − c0| ≥ 2^27`: then `|a1| < 2^29.6` and `|a2|, |a3| < 2^28.6`, so the first
+/// sum is below 2^29.6 and the second below 2^30.6; a real table's neighbouring control points differ by a
+/// few percent of their size); [`super::FixedCalibration::validate`] refuses tables with such a segment.
 #[inline(always)]
 pub fn spline_at(c: [i32; 4], t: u32) -> Option<i64> {
-    horner(c, t & 0xf_ffff, mulh20)
+    let t = t & 0xf_ffff;
+    horner(c, t >> 4, |v| mulh20(v, t))
 }
 
 /// [`spline_at`] at a fraction of at most 16 bits (`t < 2^16`, the temperature channel's code inside a
-/// segment of the sensor table, exact), with [`mulh16`] products: at most 3 units below the exact value,
+/// segment of the sensor table, exact), every product a [`mulh16`]: at most 3 units below the exact value,
 /// never above it.
 #[inline(always)]
 pub fn spline_at16(c: [i32; 4], t: u32) -> Option<i64> {
-    horner(c, t & 0xffff, mulh16)
+    let t = t & 0xffff;
+    horner(c, t, |v| mulh16(v, t))
 }
 
-/// The power form of [`spline_at`] by Horner's rule with a floored product `mul(v, t)`.
+/// The power form of [`spline_at`] by Horner's rule: the inner products with the 16-bit fraction `t16`, the
+/// outer one by `last`.
 #[inline(always)]
-fn horner(c: [i32; 4], t: u32, mul: impl Fn(i32, u32) -> i32) -> Option<i64> {
+fn horner(c: [i32; 4], t16: u32, last: impl Fn(i32) -> i32) -> Option<i64> {
     // The coefficients from differences in 32 bits (a 64-bit product by 3 would call a runtime helper on a
     // Cortex-M0): d = c2 − c0, e = (c0 − c1) + (c2 − c1), f = c1 − c2, g = c3 − c0, each checked.
     let d = c[2].checked_sub(c[0])?;
@@ -189,9 +194,9 @@ fn horner(c: [i32; 4], t: u32, mul: impl Fn(i32, u32) -> i32) -> Option<i64> {
         return None;
     }
     let (a1, a2, a3) = (3 * d, 3 * e, g + 3 * f);
-    let v = a2 + mul(a3, t);
-    let v = a1 + mul(v, t);
-    Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(mul(v, t)))
+    let v = a2 + mulh16(a3, t16);
+    let v = a1 + mulh16(v, t16);
+    Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(last(v)))
 }
 
 /// `floor(Σ w_k·c_k / 2)` of four i16 control points over temperature with the [`basis6`] weights `w` at
@@ -290,7 +295,7 @@ mod tests {
     }
 
     #[test]
-    fn spline_at_is_the_spline_within_six_units() {
+    fn spline_at_is_the_spline_within_its_bound() {
         // Against the f64 basis (de Boor): smooth and rough control points, every 97th fraction.
         let sets: [[i32; 4]; 4] = [
             [10 << 20, 20 << 20, 40 << 20, 80 << 20],
@@ -303,7 +308,16 @@ mod tests {
                 let b = bspline_basis6(f64::from(t) / f64::from(1u32 << 20));
                 let exact: f64 = (0..4).map(|k| b[k] * f64::from(c[k])).sum();
                 let v = spline_at(c, t).unwrap() as f64;
-                assert!(v <= exact + 1e-6 && v > exact - 6.0, "{c:?} t={t}: {v} vs {exact}");
+                let (a2, a3) =
+                    (3.0 * f64::from(c[0] - 2 * c[1] + c[2]), f64::from(c[3] - c[0] + 3 * (c[1] - c[2])));
+                let tol = (a2.abs() + 2.0 * a3.abs()) / 65536.0 + 4.0;
+                assert!((v - exact).abs() <= tol, "{c:?} t={t}: {v} vs {exact} (tolerance {tol})");
+                // At the exact 16-bit fractions, spline_at16: never above, at most 3 units below.
+                let t16 = t >> 4;
+                let b = bspline_basis6(f64::from(t16) / 65536.0);
+                let exact: f64 = (0..4).map(|k| b[k] * f64::from(c[k])).sum();
+                let v = spline_at16(c, t16).unwrap() as f64;
+                assert!(v <= exact + 1e-6 && v > exact - 3.0, "{c:?} t16={t16}: {v} vs {exact}");
             }
         }
         // Coefficients beyond the 32-bit steps are refused, not wrapped.

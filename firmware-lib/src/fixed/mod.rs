@@ -21,8 +21,9 @@
 //! 3. Four tables over temperature, cubic B-splines on one uniform grid whose knot step is `2^t_step_log2`
 //!    θ, give the offset `O(T)` (codes, level shift included), the inverse slope `A(T) = 1/S(T)` (nepers per
 //!    code), the bias floor `λ(T) = ln β(T)` and the sensitivity limit `u_min(T)`. Each is evaluated at θ
-//!    itself ([`interp::spline_at`]: the segment's power form from its four control points, Horner's rule
-//!    with θ's 20-bit fraction of the segment, six 32 × 16-bit products). The apparent x is `u = (code − O)·A` (the `w`
+//!    itself ([`interp::spline_at`]: the segment's power form from its four control points by Horner's
+//!    rule, the curvature's two products with the top 16 bits of θ's fraction of the segment and the last
+//!    one with all 20). The apparent x is `u = (code − O)·A` (the `w`
 //!    of the model).
 //! 4. Where the sensitivity ∂w/∂x is below the calibration's minimum (`u < u_min`) the reading is
 //!    [`Error::BelowRange`]. With a bias term, the bias bend is removed analytically:
@@ -159,6 +160,12 @@ pub const THETA_LIMIT: i32 = 1 << 30;
 pub const BIAS_LIMIT: i32 = 1 << 29;
 /// `code·2^offset_frac` must stay below this.
 pub const CODE_LIMIT: u32 = 1 << 30;
+/// How far inside its range every control point of the tables over temperature and of the sensor table
+/// must lie (in the value's units, six times the stored control point): a value at θ from
+/// [`interp::spline_at`] is within `2^14 + 4` units of the spline's exact value, which lies within the
+/// control points' range ([`FixedCalibration::validate`]; `logtrim_host::tables::build` keeps its values
+/// inside it too).
+pub const SPLINE_MARGIN: i32 = 1 << 15;
 /// Smallest and largest `t_step_log2` (knot steps from 1 K to 268 K).
 pub const T_STEP_LOG2_RANGE: (u8, u8) = (20, 28);
 /// Smallest and largest `xa_step_log2` (x̃ knot steps from 1/256 Np to 16 Np).
@@ -1091,12 +1098,13 @@ impl<'a> FixedCalibration<'a> {
         if !(scales_ok && lens_ok) {
             return bad(D::Coefficient);
         }
-        // Control points stored divided by 6 within the range divided by 6: every value at a window end (six
-        // times a convex combination of them) is then within the range the per-sample arithmetic relies on,
-        // and so is every value at θ itself, which [`spline_at`] gives at most 6 units below the exact one
-        // (hence the margin at the low end).
+        // Control points stored divided by 6 within the range divided by 6, [`SPLINE_MARGIN`] inside it: every
+        // value at a window end (six times a convex combination of them) is then within the range the
+        // per-sample arithmetic relies on, and so is every value at θ itself, which [`spline_at`] and
+        // [`spline_at16`] give within the margin of the exact one.
+        let m = i64::from(SPLINE_MARGIN);
         let within = |t: &[i32], lo: i64, hi: i64| {
-            t.iter().all(|&c| i64::from(c) * 6 > lo + 6 && i64::from(c) * 6 < hi)
+            t.iter().all(|&c| i64::from(c) * 6 > lo + m && i64::from(c) * 6 < hi - m)
         };
         let in_range = |t: &[i32], limit: i32| within(t, -i64::from(limit), i64::from(limit));
         if self.inv_slope.iter().any(|&s| s <= 0) {

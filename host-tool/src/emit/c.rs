@@ -267,7 +267,7 @@ fn shared_definitions() -> String {
     use logtrim::fixed::{self as f, transcend as t};
     let mut out =
         String::from("/* ---- constants shared with logtrim::fixed (rendered from its items) ---- */\n");
-    let defs: [(&str, String, &str); 46] = [
+    let defs: [(&str, String, &str); 47] = [
         (
             "LTRM_LAYOUT_VERSION",
             format!("{}u", f::LAYOUT_VERSION),
@@ -283,6 +283,7 @@ fn shared_definitions() -> String {
         ("LTRM_OFFSET_MAX", format!("{}", f::OFFSET_RANGE.1), "fixed::OFFSET_RANGE"),
         ("LTRM_INV_SLOPE_LIMIT", format!("{}LL", f::INV_SLOPE_LIMIT), "fixed::INV_SLOPE_LIMIT"),
         ("LTRM_THETA_LIMIT", format!("{}", f::THETA_LIMIT), "fixed::THETA_LIMIT"),
+        ("LTRM_SPLINE_MARGIN", format!("{}", f::SPLINE_MARGIN), "fixed::SPLINE_MARGIN"),
         ("LTRM_BIAS_LIMIT", format!("{}", f::BIAS_LIMIT), "fixed::BIAS_LIMIT"),
         ("LTRM_X_LIMIT", format!("{}", f::X_LIMIT), "fixed::X_LIMIT"),
         ("LTRM_SLOPE_FRAC_SUM", format!("{}u", f::SLOPE_FRAC_SUM), "fixed::SLOPE_FRAC_SUM"),

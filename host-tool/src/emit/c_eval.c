@@ -186,33 +186,36 @@ static inline int32_t ltrm_mulh20(int32_t x, uint32_t t) {
 static inline int ltrm_within32(uint32_t v, unsigned k) { return v + ((1u << k) - 1u) < (2u << k) - 1u; }
 
 /* A spline's value (control points stored divided by 6) at a fraction of its segment, from its power form by
- * Horner's rule with floored products of 20 (q20) or 16 bits (logtrim::fixed::interp::spline_at, spline_at16). The control points' differences d = c2 - c0, p = c0 - c1, q = c2 - c1,
- * e = p + q, f = c1 - c2, g = c3 - c0 are formed as unsigned words and refused, as the Rust checked operations
- * refuse them, where one of them does not fit an int32 (the sign rule of two's complement, one test for all six)
- * or is too large for the 32-bit steps; no 64-bit arithmetic. */
-static inline int ltrm_horner(const int32_t *c, uint32_t t, int q20, int64_t *out) {
-    uint32_t u0 = (uint32_t)c[0], u1 = (uint32_t)c[1], u2 = (uint32_t)c[2], u3 = (uint32_t)c[3];
-    uint32_t d = u2 - u0, p = u0 - u1, q = u2 - u1, e = p + q, f = u1 - u2, g = u3 - u0;
-    uint32_t ovf = ((u2 ^ u0) & (u2 ^ d)) | ((u0 ^ u1) & (u0 ^ p)) | ((u2 ^ u1) & (u2 ^ q)) | (~(p ^ q) & (p ^ e)) |
-                   ((u1 ^ u2) & (u1 ^ f)) | ((u3 ^ u0) & (u3 ^ g));
-    int32_t a1, a2, a3, v;
-    if ((ovf >> 31) || !(ltrm_within32(d, 28) && ltrm_within32(e, 27) && ltrm_within32(f, 26) && ltrm_within32(g, 27)))
-        return 0;
-    /* Within +-2^28: the words convert to the int32 values they hold. */
-    a1 = 3 * (int32_t)d;
-    a2 = 3 * (int32_t)e;
-    a3 = (int32_t)g + 3 * (int32_t)f;
-    t &= q20 ? 0xfffffu : 0xffffu;
-    v = a2 + (q20 ? ltrm_mulh20(a3, t) : ltrm_mulh16(a3, t));
-    v = a1 + (q20 ? ltrm_mulh20(v, t) : ltrm_mulh16(v, t));
-    *out = (int64_t)c[0] + 4 * (int64_t)c[1] + c[2] + (q20 ? ltrm_mulh20(v, t) : ltrm_mulh16(v, t));
-    return 1;
-}
-
+ * Horner's rule (logtrim::fixed::interp::spline_at, spline_at16): the inner products with the fraction's top 16
+ * bits, the outer one with all of it (20 bits at a temperature, 16 in the sensor table). The
+ * control points' differences d = c2 - c0, p = c0 - c1, q = c2 - c1, e = p + q, f = c1 - c2, g = c3 - c0 are
+ * formed as unsigned words and refused, as the Rust checked operations refuse them, where one of them does not
+ * fit an int32 (the sign rule of two's complement, one test for all six) or is too large for the 32-bit steps;
+ * no 64-bit arithmetic. */
+#define LTRM_HORNER(NAME, MUL, MASK, SHIFT)                                                                              \
+    static inline int NAME(const int32_t *c, uint32_t t, int64_t *out) {                                          \
+        uint32_t u0 = (uint32_t)c[0], u1 = (uint32_t)c[1], u2 = (uint32_t)c[2], u3 = (uint32_t)c[3];              \
+        uint32_t d = u2 - u0, p = u0 - u1, q = u2 - u1, e = p + q, f = u1 - u2, g = u3 - u0;                      \
+        uint32_t ovf = ((u2 ^ u0) & (u2 ^ d)) | ((u0 ^ u1) & (u0 ^ p)) | ((u2 ^ u1) & (u2 ^ q)) |                 \
+                       (~(p ^ q) & (p ^ e)) | ((u1 ^ u2) & (u1 ^ f)) | ((u3 ^ u0) & (u3 ^ g));                    \
+        int32_t a1, a2, a3, v;                                                                                    \
+        if ((ovf >> 31) ||                                                                                        \
+            !(ltrm_within32(d, 28) && ltrm_within32(e, 27) && ltrm_within32(f, 26) && ltrm_within32(g, 27)))      \
+            return 0;                                                                                             \
+        /* Within +-2^28: the words convert to the int32 values they hold. */                                     \
+        a1 = 3 * (int32_t)d;                                                                                      \
+        a2 = 3 * (int32_t)e;                                                                                      \
+        a3 = (int32_t)g + 3 * (int32_t)f;                                                                         \
+        t &= MASK;                                                                                                \
+        v = a2 + ltrm_mulh16(a3, t >> SHIFT);                                                                     \
+        v = a1 + ltrm_mulh16(v, t >> SHIFT);                                                                      \
+        *out = (int64_t)c[0] + 4 * (int64_t)c[1] + c[2] + MUL(v, t);                                              \
+        return 1;                                                                                                 \
+    }
 /* At a Q20 fraction of a temperature segment (logtrim::fixed::interp::spline_at). */
-static inline int ltrm_spline_at(const int32_t *c, uint32_t t, int64_t *out) { return ltrm_horner(c, t, 1, out); }
+LTRM_HORNER(ltrm_spline_at, ltrm_mulh20, 0xfffffu, 4u)
 /* At the temperature code's exact 16-bit fraction of a sensor segment (logtrim::fixed::interp::spline_at16). */
-static inline int ltrm_spline_at16(const int32_t *c, uint32_t t, int64_t *out) { return ltrm_horner(c, t, 0, out); }
+LTRM_HORNER(ltrm_spline_at16, ltrm_mulh16, 0xffffu, 0u)
 
 /* A value of the tables at a window end (or the sensor's), checked against its limit. */
 static inline ltrm_status ltrm_bounded(int64_t v, int32_t limit, int32_t *out) {

@@ -822,20 +822,25 @@ static ltrm_status ltrm_validate_fixed(const ltrm_fixed *c) {
           (!c->sensitivity_limit || c->u_min_len == nt + 2u) &&
           (c->residual_len == 0u || c->residual_len == (nt + 2u) * (nxa + 2u))))
         return LTRM_BAD_FIXED_TABLES;
-    /* Control points stored divided by 6 within the range divided by 6 (six units inside at the low end: the
-     * evaluation at theta may fall that far below the exact value). */
+    /* Control points stored divided by 6 within the range divided by 6, LTRM_SPLINE_MARGIN inside it (an
+     * evaluation at theta lies within that margin of the exact value). */
     for (i = 0; i < c->inv_slope_len; i++)
         if (c->inv_slope[i] <= 0) return LTRM_BAD_FIXED_TABLES;
     for (i = 0; i < c->offset_len; i++)
-        if (!((int64_t)c->offset[i] * 6 > (int64_t)LTRM_OFFSET_MIN + 6 && (int64_t)c->offset[i] * 6 < LTRM_OFFSET_MAX))
+        if (!((int64_t)c->offset[i] * 6 > (int64_t)LTRM_OFFSET_MIN + LTRM_SPLINE_MARGIN &&
+              (int64_t)c->offset[i] * 6 < (int64_t)LTRM_OFFSET_MAX - LTRM_SPLINE_MARGIN))
             return LTRM_BAD_FIXED_TABLES;
     for (i = 0; i < c->inv_slope_len; i++)
-        if (!((int64_t)c->inv_slope[i] * 6 < LTRM_INV_SLOPE_LIMIT)) return LTRM_BAD_FIXED_TABLES;
+        if (!((int64_t)c->inv_slope[i] * 6 > LTRM_SPLINE_MARGIN &&
+              (int64_t)c->inv_slope[i] * 6 < LTRM_INV_SLOPE_LIMIT - LTRM_SPLINE_MARGIN))
+            return LTRM_BAD_FIXED_TABLES;
     for (i = 0; c->bias_bend && i < c->ln_bias_len; i++)
-        if (!((int64_t)c->ln_bias[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + 6 && (int64_t)c->ln_bias[i] * 6 < LTRM_BIAS_LIMIT))
+        if (!((int64_t)c->ln_bias[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + LTRM_SPLINE_MARGIN &&
+              (int64_t)c->ln_bias[i] * 6 < (int64_t)LTRM_BIAS_LIMIT - LTRM_SPLINE_MARGIN))
             return LTRM_BAD_FIXED_TABLES;
     for (i = 0; c->sensitivity_limit && i < c->u_min_len; i++)
-        if (!((int64_t)c->u_min[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + 6 && (int64_t)c->u_min[i] * 6 < LTRM_BIAS_LIMIT))
+        if (!((int64_t)c->u_min[i] * 6 > -(int64_t)LTRM_BIAS_LIMIT + LTRM_SPLINE_MARGIN &&
+              (int64_t)c->u_min[i] * 6 < (int64_t)LTRM_BIAS_LIMIT - LTRM_SPLINE_MARGIN))
             return LTRM_BAD_FIXED_TABLES;
     /* Every segment's power form fits ltrm_spline_at's 32-bit steps. */
     for (i = 0; i + 1u < nt; i++) {
@@ -851,7 +856,7 @@ static ltrm_status ltrm_validate_fixed(const ltrm_fixed *c) {
             (uint64_t)c->sensor_len < (uint64_t)(span >> c->sensor_step_log2) + 4u)
             return LTRM_BAD_FIXED_TABLES;
         for (i = 0; i < c->sensor_len; i++)
-            if (!((int64_t)c->sensor_knots[i] * 6 > -lim + 6 && (int64_t)c->sensor_knots[i] * 6 < lim))
+            if (!((int64_t)c->sensor_knots[i] * 6 > -lim + LTRM_SPLINE_MARGIN && (int64_t)c->sensor_knots[i] * 6 < lim - LTRM_SPLINE_MARGIN))
                 return LTRM_BAD_FIXED_TABLES;
         /* Every segment a code in the span reaches fits ltrm_spline_at16's 32-bit steps. */
         for (i = 0; i <= span >> c->sensor_step_log2; i++) {
