@@ -43,6 +43,25 @@
 //! code of its grid against the f64 reference (the `code table` row of its report), with the same ¼-LSB
 //! bound. The C library (`ltrm_code_table_*`) runs the same integer operations and agrees bit for bit.
 //!
+//! # A hit
+//!
+//! A sample is a **hit** when its code lies in a usable interval and its temperature in the table's **hit
+//! range**; a hit makes one unsigned comparison per input and nothing else before the interpolation:
+//!
+//! - the code: `(code − base) >> step` below the interval count and marked usable. Such a code lies between
+//!   two real knots, which passed the direct path's code checks, so it passes them too.
+//! - the temperature: the hit range is the θ of the table's window that lie in the accepted range and on
+//!   the same side of each end of the calibrated range as the temperature that set it (so that
+//!   `temperature_extrapolated` is one flag for all of them), kept as θ and as the m°C whose θ lie in it.
+//!   A temperature in m°C is compared with the m°C range; a temperature code is a hit when it is the last
+//!   one whose θ fell in the range (its window fraction is kept with it).
+//!
+//! Every other sample takes the out-of-line rare path: the checks in the direct path's order, the window
+//! (the table is built when θ leaves it) and the hit range around θ. A new temperature code in the hit
+//! range (a wandering raw channel) costs its linearisation (or the stage cache's memo) and is then a hit.
+//! A hit gives exactly what the rare path gives for the same input (`fixed::tests`, a kept table against a
+//! fresh one on every input).
+//!
 //! # Overflow
 //!
 //! Knot values are x in Q24, within ±[`X_LIMIT`](super::X_LIMIT) (checked when built, virtual knots
@@ -132,6 +151,9 @@ pub struct CodeTable<'a> {
     /// The calibrated x range (the header's), kept beside the table.
     x_min: i32,
     x_max: i32,
+    /// A temperature code + 1 whose θ lies in the hit range (0: none), and that θ's Q16 fraction.
+    raw_key: u32,
+    raw_f16: u32,
     /// Knot `k` is at code `base + (k − 1)·2^step`.
     base: u32,
     step: u32,
@@ -179,6 +201,8 @@ impl<'a> CodeTable<'a> {
             f_shift: 0,
             x_min: cal.header.x_min,
             x_max: cal.header.x_max,
+            raw_key: 0,
+            raw_f16: 0,
             base: 0,
             step: 0,
             x0: [0; TABLE_KNOTS],
@@ -197,6 +221,7 @@ impl<'a> CodeTable<'a> {
         self.window = NO_WINDOW;
         self.th_n = 0;
         self.mc_n = 0;
+        self.raw_key = 0;
         self.usable = [false; TABLE_KNOTS];
         self.cache.clear();
     }
@@ -241,20 +266,43 @@ impl<'a> CodeTable<'a> {
     /// remembered, as in [`StageCache`]).
     #[inline(always)]
     pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        if let (Some((p, i)), Some(theta)) = (self.interval(code), self.cache.remembered_theta(temp_code)) {
-            if (theta as u32).wrapping_sub(self.th_lo as u32) < self.th_n {
-                return self.hit(p, i, theta);
+        // A hit's temperature code is the one remembered (its θ in the hit range, its fraction kept).
+        if let Some((p, i)) = self.interval(code) {
+            if temp_code.checked_add(1) == Some(self.raw_key) {
+                return self.hit_at(p, i, self.raw_f16);
             }
         }
         self.correct_raw_other(code, temp_code)
     }
 
-    /// [`CodeTable::correct_raw`] for the samples that are not hits (out of line: the rare path).
+    /// [`CodeTable::correct_raw`] for the samples that are not hits (out of line: the rare path); a
+    /// temperature code whose θ ends in the hit range is remembered with its fraction.
     #[inline(never)]
     fn correct_raw_other(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.cache.plan.check_code(&self.cache.cal, code)?;
+        // A code in a usable interval passes its checks.
+        let interval = self.interval(code);
+        if interval.is_none() {
+            self.cache.plan.check_code(&self.cache.cal, code)?;
+        }
         let theta = self.cache.theta_of_code(temp_code)?;
-        self.correct_theta(code, theta)
+        // Another temperature code in the hit range (a wandering temperature): a hit once its θ is known.
+        let r = match interval {
+            Some((p, i)) if self.in_hit_range(theta) => self.hit(p, i, theta),
+            _ => self.correct_theta(code, theta),
+        };
+        if let Some(key) = temp_code.checked_add(1) {
+            if self.in_hit_range(theta) {
+                self.raw_key = key;
+                self.raw_f16 = self.f16(theta);
+            }
+        }
+        r
+    }
+
+    /// θ lies in the hit range.
+    #[inline(always)]
+    fn in_hit_range(&self, theta: i32) -> bool {
+        (theta as u32).wrapping_sub(self.th_lo as u32) < self.th_n
     }
 
     /// Many log codes at one temperature in m°C (a DMA buffer): `out[i]` is [`CodeTable::correct`] of
@@ -305,7 +353,7 @@ impl<'a> CodeTable<'a> {
     #[inline(always)]
     fn at_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
         if let Some((p, i)) = self.interval(code) {
-            if (theta as u32).wrapping_sub(self.th_lo as u32) < self.th_n {
+            if self.in_hit_range(theta) {
                 return self.hit(p, i, theta);
             }
         }
@@ -320,7 +368,7 @@ impl<'a> CodeTable<'a> {
         if pos.index != self.window {
             self.build(pos.index)?;
         }
-        if (theta as u32).wrapping_sub(self.th_lo as u32) >= self.th_n {
+        if !self.in_hit_range(theta) {
             self.hit_range(pos.index, theta);
         }
         match self.interval(code) {
@@ -358,6 +406,8 @@ impl<'a> CodeTable<'a> {
         self.extrapolated = extrapolated;
         self.w_start = start as i32;
         self.f_shift = g.wb - 16;
+        // The remembered fraction belongs to the old range.
+        self.raw_key = 0;
     }
 
     /// The usable interval of a code, if any: its offset from the table's base and its index. A code in
@@ -378,8 +428,18 @@ impl<'a> CodeTable<'a> {
     /// calibrated range.
     #[inline(always)]
     fn hit(&self, p: u32, i: usize, theta: i32) -> Result<FixedReading, Error> {
-        // θ − w_start is in [0, 2^wb): its Q16 fraction.
-        let f16 = (theta as u32).wrapping_sub(self.w_start as u32) >> self.f_shift;
+        self.hit_at(p, i, self.f16(theta))
+    }
+
+    /// The Q16 fraction in the window of a θ in the hit range (θ − w_start is in [0, 2^wb)).
+    #[inline(always)]
+    fn f16(&self, theta: i32) -> u32 {
+        (theta as u32).wrapping_sub(self.w_start as u32) >> self.f_shift
+    }
+
+    /// A hit at the fraction `f16` of a temperature in the hit range.
+    #[inline(always)]
+    fn hit_at(&self, p: u32, i: usize, f16: u32) -> Result<FixedReading, Error> {
         let x = self.lookup(p, i, f16).ok_or(super::BAD_TABLE)?;
         if x < self.x_min {
             return Err(Error::BelowRange);
@@ -417,6 +477,7 @@ impl<'a> CodeTable<'a> {
         self.window = NO_WINDOW;
         self.th_n = 0;
         self.mc_n = 0;
+        self.raw_key = 0;
         self.usable = [false; TABLE_KNOTS];
         if !self.cache.load(index)? {
             // A row wider than the cache: every sample takes the direct path.

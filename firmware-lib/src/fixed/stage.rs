@@ -161,16 +161,6 @@ impl<'a> StageCache<'a> {
         self.cal.theta_from_code(temp_code)
     }
 
-    /// θ of a temperature code if it is remembered (the code table's hit; nothing is computed).
-    #[inline(always)]
-    pub(super) fn remembered_theta(&self, temp_code: u32) -> Option<i32> {
-        let key = temp_code.checked_add(1)?;
-        match self.memo.get(temp_code as usize % MEMO) {
-            Some(&(k, theta)) if k == key => Some(theta),
-            _ => None,
-        }
-    }
-
     #[inline(always)]
     pub(super) fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
         let pos = self.grid.window_of(theta)?;

@@ -375,6 +375,25 @@ fn a_kept_code_table_gives_what_a_fresh_one_gives() {
                 hits += usize::from(hit && want.is_ok());
             }
         }
+        // A remembered temperature code after an m°C sample moved the table (another window, the other side
+        // of a calibrated end): raw, m°C, raw again.
+        for (k, (&tc, &mc)) in temp_codes.iter().zip(temps.iter().step_by(3)).enumerate() {
+            for code in codes(k).take(3) {
+                for (raw, t) in [(true, tc as i32), (false, mc), (true, tc as i32)] {
+                    let (got, want) = if raw {
+                        (table.correct_raw(code, t as u32), CodeTable::new(c).correct_raw(code, t as u32))
+                    } else {
+                        (table.correct(code, t), CodeTable::new(c).correct(code, t))
+                    };
+                    assert_eq!(
+                        got,
+                        want,
+                        "code {code}, {} {t}",
+                        if raw { "temperature code" } else { "m°C" }
+                    );
+                }
+            }
+        }
         assert!(hits > 5_000, "{hits} hits compared");
     }
 }

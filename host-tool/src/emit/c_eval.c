@@ -884,6 +884,7 @@ static LTRM_RARE ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t 
     t->window = LTRM_NO_WINDOW;
     t->th_n = 0u;
     t->mc_n = 0u;
+    t->raw_key = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) t->usable[i] = 0u;
     if ((st = ltrm_stage_cache_load(k, index, &kept)) != LTRM_OK) return st;
     if (!kept) {
@@ -931,16 +932,26 @@ static LTRM_RARE ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t 
 #define LTRM_HIT static inline
 #endif
 
+/* ltrm_mulh16, the same floor(a*w / 2^16): one long multiply on a core that has it (two 16x16-bit products on
+ * ARMv6-M). */
+static inline int32_t ltrm_mulh16_hit(int32_t a, uint32_t w) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)ltrm_asr64((int64_t)a * (int64_t)w, 16);
+#else
+    return ltrm_mulh16(a, w);
+#endif
+}
+
 /* x from usable interval i for the code base + p at the window fraction f16. */
 static inline int32_t ltrm_code_table_x(const ltrm_code_table *t, uint32_t p, uint32_t i, uint32_t f16) {
     uint32_t tt, g, wa, wb;
     int32_t pm, p0, p1, p2, e0, e1, e2, d0, d1;
     const int32_t *a = t->x0 + i, *d = t->dx + i;
     f16 &= 0xffffu;
-    pm = a[0] + ltrm_mulh16(d[0], f16);
-    p0 = a[1] + ltrm_mulh16(d[1], f16);
-    p1 = a[2] + ltrm_mulh16(d[2], f16);
-    p2 = a[3] + ltrm_mulh16(d[3], f16);
+    pm = a[0] + ltrm_mulh16_hit(d[0], f16);
+    p0 = a[1] + ltrm_mulh16_hit(d[1], f16);
+    p1 = a[2] + ltrm_mulh16_hit(d[2], f16);
+    p2 = a[3] + ltrm_mulh16_hit(d[3], f16);
     e0 = p0 - pm;
     e1 = p1 - p0;
     e2 = p2 - p1;
@@ -950,7 +961,7 @@ static inline int32_t ltrm_code_table_x(const ltrm_code_table *t, uint32_t p, ui
     g = (tt * (65536u - tt)) >> 16;
     wa = (((g * (131072u - tt)) >> 16) * 10923u) >> 16;
     wb = (((g * (65536u + tt)) >> 16) * 10923u) >> 16;
-    return p0 + ltrm_mulh16(e1, tt) - (ltrm_mulh16(d0, wa) + ltrm_mulh16(d1, wb));
+    return p0 + ltrm_mulh16_hit(e1, tt) - (ltrm_mulh16_hit(d0, wa) + ltrm_mulh16_hit(d1, wb));
 }
 
 /* The usable interval of a code: 1 with its offset from the base and its index, else 0. A code in a usable
@@ -961,14 +972,25 @@ LTRM_HIT int ltrm_code_table_interval(const ltrm_code_table *t, uint32_t code, u
     return *i < LTRM_TABLE_KNOTS - 3u && t->usable[*i];
 }
 
-/* A hit: x from interval i (the code base + p) at theta in the hit range, checked against the calibrated range. */
-LTRM_HIT ltrm_status ltrm_code_table_hit(const ltrm_code_table *t, uint32_t p, uint32_t i, int32_t theta, ltrm_reading *out) {
-    int32_t x = ltrm_code_table_x(t, p, i, ((uint32_t)theta - (uint32_t)t->w_start) >> t->f_shift);
+/* The Q16 fraction in the window of a theta in the hit range. */
+LTRM_HIT uint32_t ltrm_code_table_f16(const ltrm_code_table *t, int32_t theta) {
+    return ((uint32_t)theta - (uint32_t)t->w_start) >> t->f_shift;
+}
+
+/* A hit: x from interval i (the code base + p) at the fraction f16 of a temperature in the hit range, checked
+ * against the calibrated range. */
+LTRM_HIT ltrm_status ltrm_code_table_hit_at(const ltrm_code_table *t, uint32_t p, uint32_t i, uint32_t f16, ltrm_reading *out) {
+    int32_t x = ltrm_code_table_x(t, p, i, f16);
     if (x < t->x_min) return LTRM_BELOW_RANGE;
     if (x > t->x_max) return LTRM_ABOVE_RANGE;
     out->x = x;
     out->temperature_extrapolated = t->extrapolated;
     return LTRM_OK;
+}
+
+/* A hit at theta in the hit range. */
+LTRM_HIT ltrm_status ltrm_code_table_hit(const ltrm_code_table *t, uint32_t p, uint32_t i, int32_t theta, ltrm_reading *out) {
+    return ltrm_code_table_hit_at(t, p, i, ltrm_code_table_f16(t, theta), out);
 }
 
 /* The hit range around an accepted theta in window `index` (the table's): the window's theta within the accepted
@@ -1002,6 +1024,7 @@ static void ltrm_code_table_hit_range(ltrm_code_table *t, uint32_t index, int32_
     t->extrapolated = ltrm_extrapolated(c, theta);
     t->w_start = (int32_t)start;
     t->f_shift = wb - 16u;
+    t->raw_key = 0u; /* its fraction belongs to the old range */
 }
 
 /* A checked code at an accepted theta that is not a hit (out of line: the rare path): the table's window (built
@@ -1038,7 +1061,7 @@ inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
     t->x_min = c->x_min;
     t->x_max = c->x_max;
     t->raw_key = 0u;
-    t->raw_theta = 0;
+    t->raw_f16 = 0u;
     t->base = 0u;
     t->step = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
@@ -1066,32 +1089,31 @@ inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, in
     return ltrm_code_table_correct_other(t, code, temp_mc, out);
 }
 
-/* ltrm_code_table_correct_raw for the samples that are not hits (out of line: the rare path). */
+/* ltrm_code_table_correct_raw for the samples that are not hits (out of line: the rare path); a temperature code
+ * whose theta ends in the hit range is remembered with its fraction. */
 static LTRM_RARE ltrm_status ltrm_code_table_correct_raw_other(ltrm_code_table *t, uint32_t code, uint32_t temp_code,
                                                                ltrm_reading *out) {
     int32_t theta = 0;
-    ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
-    if (st != LTRM_OK) return st;
+    uint32_t p, i;
+    int in = ltrm_code_table_interval(t, code, &p, &i); /* then the code passes its checks */
+    ltrm_status st;
+    if (!in && (st = ltrm_stage_cache_check_code(&t->cache, code)) != LTRM_OK) return st;
     if ((st = ltrm_stage_cache_theta_of_code(&t->cache, temp_code, &theta)) != LTRM_OK) return st;
-    if (temp_code != UINT32_MAX) {
+    /* Another temperature code in the hit range (a wandering temperature): a hit once its theta is known. */
+    if (in && (uint32_t)theta - (uint32_t)t->th_lo < t->th_n) st = ltrm_code_table_hit(t, p, i, theta, out);
+    else st = ltrm_code_table_theta(t, code, theta, out);
+    if (temp_code != UINT32_MAX && (uint32_t)theta - (uint32_t)t->th_lo < t->th_n) {
         t->raw_key = temp_code + 1u;
-        t->raw_theta = theta;
+        t->raw_f16 = ltrm_code_table_f16(t, theta);
     }
-    return ltrm_code_table_theta(t, code, theta, out);
+    return st;
 }
 
-/* A hit's temperature code is the last one or one the stage cache remembers (nothing is computed for it). */
+/* A hit's temperature code is the last one remembered (its theta in the hit range, its fraction kept). */
 inline ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
     uint32_t p, i, key = temp_code + 1u;
-    if (ltrm_code_table_interval(t, code, &p, &i) && key != 0u) {
-        if (key != t->raw_key) {
-            uint32_t slot = temp_code % LTRM_STAGE_MEMO;
-            if (t->cache.memo_key[slot] != key) return ltrm_code_table_correct_raw_other(t, code, temp_code, out);
-            t->raw_key = key;
-            t->raw_theta = t->cache.memo_theta[slot];
-        }
-        if ((uint32_t)t->raw_theta - (uint32_t)t->th_lo < t->th_n) return ltrm_code_table_hit(t, p, i, t->raw_theta, out);
-    }
+    if (ltrm_code_table_interval(t, code, &p, &i) && key == t->raw_key && key != 0u)
+        return ltrm_code_table_hit_at(t, p, i, t->raw_f16, out);
     return ltrm_code_table_correct_raw_other(t, code, temp_code, out);
 }
 

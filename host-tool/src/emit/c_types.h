@@ -92,8 +92,8 @@ typedef struct ltrm_code_table {
     int32_t w_start; /* theta of the window's start; (theta - w_start) >> f_shift is the Q16 fraction */
     uint32_t f_shift;
     int32_t x_min, x_max; /* the calibrated x range (Q24), kept beside the table */
-    uint32_t raw_key;     /* the last temperature code + 1 (0: none) and its theta */
-    int32_t raw_theta;
+    uint32_t raw_key; /* a temperature code + 1 whose theta is in the hit range (0: none), and its fraction */
+    uint32_t raw_f16;
     uint32_t window; /* LTRM_NO_WINDOW when empty */
     uint8_t usable[LTRM_TABLE_KNOTS];
     int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
