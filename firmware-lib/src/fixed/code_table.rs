@@ -74,13 +74,14 @@
 //!
 //! # Cost
 //!
-//! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,288 bytes in C, 1,476 in Rust,
+//! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,324 bytes in C, 1,512 in Rust,
 //! the stage cache's 620 and 808 included). Building the table for a window evaluates the direct path's
-//! per-code part three times per knot (216 chains) and checks every interval (124,000–186,000
+//! per-code part three times per knot (216 chains) and checks every interval (111,000–181,000
 //! instructions on a Cortex-M0); it happens when a sample's temperature leaves the window (a window is
 //! `2^(t_step_log2 − 4)` θ, half a kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample
-//! once the table is built at 383–542 instructions on a Cortex-M0 and 212–327 on a Cortex-M4F (with its
-//! dB and ratio), against 702–901 and 446–552 through the stage cache.
+//! once the table is built (hits, fallbacks and new temperature codes, with its dB and ratio) at 339–435
+//! instructions on a Cortex-M0 and 193–260 on a Cortex-M4F, against 702–901 and 446–552 through the stage
+//! cache; the code the most common sample enters is about 1 KiB on a Cortex-M0.
 
 use super::arith::mulh16;
 use super::interp::four;
@@ -381,10 +382,12 @@ impl<'a> CodeTable<'a> {
     /// accepted range, on θ's side of each end of the calibrated range, and the m°C whose θ lie in it.
     fn hit_range(&mut self, index: u32, theta: i32) {
         let g = &self.cache.grid;
-        let start = i64::from(g.t_origin) + (i64::from(index) << g.wb);
-        // θ − t_origin stays below 2^31 (window_of), the window ends there at the latest.
+        // index = (θ − t_origin) >> wb with 0 ≤ θ − t_origin < 2^31 (window_of): index << wb < 2^31, and
+        // wb ≤ 24 (shifts in 32 bits: a 64-bit one is a runtime helper on a Cortex-M0).
+        let start = i64::from(g.t_origin) + i64::from(index << g.wb);
+        // θ − t_origin stays below 2^31, the window ends there at the latest.
         let mut lo = start.max(i64::from(g.temp_lo));
-        let mut hi = (start + (1i64 << g.wb) - 1)
+        let mut hi = (start + i64::from(1u32 << g.wb) - 1)
             .min(i64::from(g.temp_hi))
             .min(i64::from(g.t_origin) + i64::from(i32::MAX));
         let (t, min, max) = (i64::from(theta), i64::from(g.temp_min), i64::from(g.temp_max));

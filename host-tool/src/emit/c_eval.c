@@ -1000,9 +1000,10 @@ static void ltrm_code_table_hit_range(ltrm_code_table *t, uint32_t index, int32_
     uint32_t wb = c->t_step_log2 < LTRM_T_STEP_MIN ? LTRM_T_STEP_MIN : (c->t_step_log2 > LTRM_T_STEP_MAX ? LTRM_T_STEP_MAX : c->t_step_log2);
     int64_t start, lo, hi, mlo, mhi;
     wb -= LTRM_WINDOWS_LOG2;
-    start = (int64_t)c->t_origin + (int64_t)((uint64_t)index << wb);
+    /* index = (theta - t_origin) >> wb with 0 <= theta - t_origin < 2^31 (ltrm_window_of): 32-bit shifts. */
+    start = (int64_t)c->t_origin + (int64_t)(index << wb);
     lo = start > c->temp_lo ? start : c->temp_lo;
-    hi = start + ((int64_t)1 << wb) - 1;
+    hi = start + (int64_t)(1u << wb) - 1;
     if (hi > c->temp_hi) hi = c->temp_hi;
     /* theta - t_origin stays below 2^31 (ltrm_window_of). */
     if (hi > (int64_t)c->t_origin + INT32_MAX) hi = (int64_t)c->t_origin + INT32_MAX;
