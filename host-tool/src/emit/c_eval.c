@@ -1170,13 +1170,7 @@ inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_
             return LTRM_OK;
         }
         if (e > INT64_MAX / 100) return LTRM_ABOVE_RANGE;
-        {
-            /* e*100 from shifts, kept apart so that no 64-bit multiply (a runtime helper on ARMv6-M) is formed. */
-            int64_t e64 = e * 64, e32 = e * 32;
-            LTRM_OPAQUE(e64);
-            LTRM_OPAQUE(e32);
-            *out = (e64 + e32 + e * 4 + 128) >> 8;
-        }
+        *out = (e * 64 + e * 32 + e * 4 + 128) >> 8;
         return LTRM_OK;
     }
     return LTRM_BAD_TABLE;
