@@ -5,7 +5,8 @@
 
 Each file is named UNIT.LANG.CORE.OPT.json. Prints, per unit: instructions per sample for every stream and
 path and build, the Cortex-M0 cycle estimates, the library-helper calls per sample, the helpers each
-build links, flash, the per-sample code (all of it, then a hit's and the build's apart), static RAM, the stage cache's size and the stack high-water
+build links, flash, the per-sample code (all of it, then a hit's and the build's apart, and the most common
+sample's), static RAM, the stage cache's size and the stack high-water
 mark, and whether every result matched the host bit for bit.
 """
 import glob
@@ -120,6 +121,11 @@ def main():
                   f"+ stage cache {r['cache_bytes']} B (code table {r.get('table_bytes', 0)} B), stack {stack} B")
             print(f"      per-sample code (functions entered, wrapper included): {code}")
             print(f"      a hit's code (functions entered by samples that build nothing): {hit}")
+            common = "; ".join(
+                f"{p} {v['common']['functions']} B ({v['common']['executed']} B run; {100 * v['common']['share']:.0f} %)"
+                for p, v in r["code"].items() if "common" in v)
+            if common:
+                print(f"      the most common sample's code (the functions most samples enter; their share): {common}")
             print(f"      helpers linked: {', '.join(r['helpers_linked']) or 'none'}")
         print("\nagreement with the host library (status, x, dB, ratio of every sample)")
         for l, c, o in builds:

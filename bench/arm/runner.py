@@ -326,6 +326,8 @@ def main():
     # The blocks a hit runs (a sample that builds nothing: the per-sample samples at most four times the
     # median, and a block's per-code call) and those a build runs (the other samples, a block's stage).
     hit_exec = defaultdict(set)
+    common_exec = defaultdict(set)
+    common_count, common_total = Counter(), Counter()
     build_exec = defaultdict(set)
     for stream in bench["streams"]:
         n = len(stream["code"])
@@ -387,6 +389,16 @@ def main():
                 hits = [k for k in counts if k <= 4 * med]
                 for k, ex in zip(counts, sample_exec):
                     (hit_exec if k <= 4 * med else build_exec)[p].update(ex)
+                # The most common sample at a held or wandering temperature: the set of functions that most
+                # samples of the stream enter (a code-table hit, apart from its fallbacks to the stage cache
+                # and new temperature codes).
+                sets = [frozenset(function_sizes(img, ex)[1]) for ex in sample_exec] if stream["name"] != "new" else []
+                mode = Counter(sets).most_common(1)[0][0] if sets else None
+                for fs, ex in zip(sets, sample_exec):
+                    if fs == mode:
+                        common_exec[p].update(ex)
+                common_count[p] += sum(1 for fs in sets if fs == mode)
+                common_total[p] += len(sets)
                 builds = [k for k in counts if k > 4 * med]
                 extra["insns_hit_mean"] = sum(hits) / len(hits)
                 extra["builds"] = len(builds)
@@ -423,6 +435,15 @@ def main():
         hit_insns = set()
         for b in hit:
             hit_insns.update(img.block(*b)[5])
+        if common_exec.get(p):
+            common_total_b, common_sizes = function_sizes(img, common_exec[p])
+            common_insns = set()
+            for b in common_exec[p]:
+                common_insns.update(img.block(*b)[5])
+            result["code"][p]["common"] = {
+                "functions": common_total_b, "executed": sum(img.insn_size(a) for a in common_insns),
+                "share": common_count[p] / common_total[p],
+                "by_function": dict(sorted(common_sizes.items(), key=lambda kv: -kv[1]))}
         build_only = set(function_sizes(img, build_exec.get(p, set()))[1]) - set(hit_sizes)
         result["code"][p]["hit"] = {"functions": hit_total, "executed": sum(img.insn_size(a) for a in hit_insns),
                                     "by_function": dict(sorted(hit_sizes.items(), key=lambda kv: -kv[1]))}

@@ -43,6 +43,25 @@
 //! code of its grid against the f64 reference (the `code table` row of its report), with the same ¼-LSB
 //! bound. The C library (`ltrm_code_table_*`) runs the same integer operations and agrees bit for bit.
 //!
+//! # A hit
+//!
+//! A sample is a **hit** when its code lies in a usable interval and its temperature in the table's **hit
+//! range**; a hit makes one unsigned comparison per input and nothing else before the interpolation:
+//!
+//! - the code: `(code − base) >> step` below the interval count and marked usable. Such a code lies between
+//!   two real knots, which passed the direct path's code checks, so it passes them too.
+//! - the temperature: the hit range is the θ of the table's window that lie in the accepted range and on
+//!   the same side of each end of the calibrated range as the temperature that set it (so that
+//!   `temperature_extrapolated` is one flag for all of them), kept as θ and as the m°C whose θ lie in it.
+//!   A temperature in m°C is compared with the m°C range; a temperature code is a hit when it is the last
+//!   one whose θ fell in the range (its window fraction is kept with it).
+//!
+//! Every other sample takes the out-of-line rare path: the checks in the direct path's order, the window
+//! (the table is built when θ leaves it) and the hit range around θ. A new temperature code in the hit
+//! range (a wandering raw channel) costs its linearisation (or the stage cache's memo) and is then a hit.
+//! A hit gives exactly what the rare path gives for the same input (`fixed::tests`, a kept table against a
+//! fresh one on every input).
+//!
 //! # Overflow
 //!
 //! Knot values are x in Q24, within ±[`X_LIMIT`](super::X_LIMIT) (checked when built, virtual knots
@@ -55,18 +74,19 @@
 //!
 //! # Cost
 //!
-//! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,288 bytes in C, 1,476 in Rust,
+//! RAM: the stage cache plus `TABLE_KNOTS` × 9 bytes and a few words (1,324 bytes in C, 1,512 in Rust,
 //! the stage cache's 620 and 808 included). Building the table for a window evaluates the direct path's
-//! per-code part three times per knot (216 chains) and checks every interval (124,000–186,000
+//! per-code part three times per knot (216 chains) and checks every interval (111,000–181,000
 //! instructions on a Cortex-M0); it happens when a sample's temperature leaves the window (a window is
 //! `2^(t_step_log2 − 4)` θ, half a kelvin for the usual grid). `scripts/bench-arm.sh` measures a sample
-//! once the table is built at 383–542 instructions on a Cortex-M0 and 212–327 on a Cortex-M4F (with its
-//! dB and ratio), against 702–901 and 446–552 through the stage cache.
+//! once the table is built (hits, fallbacks and new temperature codes, with its dB and ratio) at 339–435
+//! instructions on a Cortex-M0 and 193–260 on a Cortex-M4F, against 702–901 and 446–552 through the stage
+//! cache; the code the most common sample enters is about 1 KiB on a Cortex-M0.
 
 use super::arith::mulh16;
 use super::interp::four;
 use super::stage::{StageCache, NO_WINDOW};
-use super::{FixedCalibration, FixedReading, Scalars, X_LIMIT};
+use super::{FixedCalibration, FixedReading, Scalars, THETA_FRAC, X_LIMIT};
 use crate::error::Error;
 
 /// Knots of a [`CodeTable`]: the knot step is the smallest power of two that spans the converter's
@@ -118,9 +138,23 @@ pub struct CodeTable<'a> {
     cache: StageCache<'a>,
     /// The window the table was built for ([`NO_WINDOW`]: none).
     window: u32,
-    /// The last θ and its Q16 fraction in the window (valid while a window is kept).
-    theta: i32,
-    f16: u32,
+    /// The temperatures a hit takes without any check but one: θ in `[th_lo, th_lo + th_n)` and m°C in
+    /// `[mc_lo, mc_lo + mc_n)` lie in the window, in the accepted range and on one side of each end of the
+    /// calibrated range (`extrapolated` for all of them); empty (`th_n = mc_n = 0`) without a window.
+    th_lo: i32,
+    th_n: u32,
+    mc_lo: i32,
+    mc_n: u32,
+    extrapolated: bool,
+    /// θ of the window's start and the shift of `θ − w_start` to its Q16 fraction.
+    w_start: i32,
+    f_shift: u32,
+    /// The calibrated x range (the header's), kept beside the table.
+    x_min: i32,
+    x_max: i32,
+    /// A temperature code + 1 whose θ lies in the hit range (0: none), and that θ's Q16 fraction.
+    raw_key: u32,
+    raw_f16: u32,
     /// Knot `k` is at code `base + (k − 1)·2^step`.
     base: u32,
     step: u32,
@@ -159,8 +193,17 @@ impl<'a> CodeTable<'a> {
         CodeTable {
             cache: StageCache::new(cal),
             window: NO_WINDOW,
-            theta: 0,
-            f16: 0,
+            th_lo: 0,
+            th_n: 0,
+            mc_lo: 0,
+            mc_n: 0,
+            extrapolated: false,
+            w_start: 0,
+            f_shift: 0,
+            x_min: cal.header.x_min,
+            x_max: cal.header.x_max,
+            raw_key: 0,
+            raw_f16: 0,
             base: 0,
             step: 0,
             x0: [0; TABLE_KNOTS],
@@ -177,6 +220,10 @@ impl<'a> CodeTable<'a> {
     /// Forgets the table and the cached window (the next call builds them again).
     pub fn clear(&mut self) {
         self.window = NO_WINDOW;
+        self.th_n = 0;
+        self.mc_n = 0;
+        self.raw_key = 0;
+        self.usable = [false; TABLE_KNOTS];
         self.cache.clear();
     }
 
@@ -190,13 +237,27 @@ impl<'a> CodeTable<'a> {
     /// Whether the current table interpolates `code` (a sample at it in the table's window builds nothing
     /// and takes no fallback to the stage cache), for reports and tests; `false` without a table.
     pub fn interpolates(&self, code: u32) -> bool {
-        self.window != NO_WINDOW && self.lookup(code, 0).is_some()
+        self.window != NO_WINDOW && self.interval(code).is_some()
     }
 
     /// [`FixedCalibration::correct`] through the table: x within the verified bound of the direct path's
     /// (bit for bit where the table falls back, errors included).
     #[inline(always)]
     pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
+        // A hit: a code in a usable interval (so between the rails) at a temperature in the hit range (so
+        // accepted, in the table's window): one unsigned comparison each, nothing else checked.
+        if let Some((p, i)) = self.interval(code) {
+            if (temp_mc as u32).wrapping_sub(self.mc_lo as u32) < self.mc_n {
+                // Within the accepted range: θ fits.
+                return self.hit(p, i, temp_mc << THETA_FRAC);
+            }
+        }
+        self.correct_other(code, temp_mc)
+    }
+
+    /// [`CodeTable::correct`] for the samples that are not hits (out of line: the rare path).
+    #[inline(never)]
+    fn correct_other(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         self.cache.plan.check_code(&self.cache.cal, code)?;
         let theta = self.cache.grid.theta_from_millicelsius(temp_mc)?;
         self.correct_theta(code, theta)
@@ -206,9 +267,43 @@ impl<'a> CodeTable<'a> {
     /// remembered, as in [`StageCache`]).
     #[inline(always)]
     pub fn correct_raw(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
-        self.cache.plan.check_code(&self.cache.cal, code)?;
+        // A hit's temperature code is the one remembered (its θ in the hit range, its fraction kept).
+        if let Some((p, i)) = self.interval(code) {
+            if temp_code.checked_add(1) == Some(self.raw_key) {
+                return self.hit_at(p, i, self.raw_f16);
+            }
+        }
+        self.correct_raw_other(code, temp_code)
+    }
+
+    /// [`CodeTable::correct_raw`] for the samples that are not hits (out of line: the rare path); a
+    /// temperature code whose θ ends in the hit range is remembered with its fraction.
+    #[inline(never)]
+    fn correct_raw_other(&mut self, code: u32, temp_code: u32) -> Result<FixedReading, Error> {
+        // A code in a usable interval passes its checks.
+        let interval = self.interval(code);
+        if interval.is_none() {
+            self.cache.plan.check_code(&self.cache.cal, code)?;
+        }
         let theta = self.cache.theta_of_code(temp_code)?;
-        self.correct_theta(code, theta)
+        // Another temperature code in the hit range (a wandering temperature): a hit once its θ is known.
+        let r = match interval {
+            Some((p, i)) if self.in_hit_range(theta) => self.hit(p, i, theta),
+            _ => self.correct_theta(code, theta),
+        };
+        if let Some(key) = temp_code.checked_add(1) {
+            if self.in_hit_range(theta) {
+                self.raw_key = key;
+                self.raw_f16 = self.f16(theta);
+            }
+        }
+        r
+    }
+
+    /// θ lies in the hit range.
+    #[inline(always)]
+    fn in_hit_range(&self, theta: i32) -> bool {
+        (theta as u32).wrapping_sub(self.th_lo as u32) < self.th_n
     }
 
     /// Many log codes at one temperature in m°C (a DMA buffer): `out[i]` is [`CodeTable::correct`] of
@@ -247,7 +342,7 @@ impl<'a> CodeTable<'a> {
                 Err(e) => Err(e),
                 Ok(()) => match theta {
                     Err(e) => Err(e),
-                    Ok(t) => self.correct_theta(code, t),
+                    Ok(t) => self.at_theta(code, t),
                 },
             };
             n += 1;
@@ -255,39 +350,113 @@ impl<'a> CodeTable<'a> {
         n
     }
 
+    /// A checked code at an accepted θ: a hit, or the rare path.
     #[inline(always)]
-    fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
-        // The last temperature again (held, or a raw channel's code repeated): its window and fraction.
-        if theta != self.theta || self.window == NO_WINDOW {
-            let pos = self.cache.grid.window_of(theta)?;
-            if pos.index != self.window {
-                self.build(pos.index)?;
+    fn at_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
+        if let Some((p, i)) = self.interval(code) {
+            if self.in_hit_range(theta) {
+                return self.hit(p, i, theta);
             }
-            self.theta = theta;
-            self.f16 = pos.f16;
         }
-        if let Some(x) = self.lookup(code, self.f16) {
-            let p = &self.cache.plan;
-            if x < p.x_min {
-                return Err(Error::BelowRange);
-            }
-            if x > p.x_max {
-                return Err(Error::AboveRange);
-            }
-            return Ok(FixedReading { x, temperature_extrapolated: self.cache.grid.extrapolated(theta) });
-        }
-        self.cache.correct_theta(code, theta)
+        self.correct_theta(code, theta)
     }
 
-    /// x from the table for a checked code at the window fraction `f16`, or `None` where the interval is
-    /// not usable.
-    #[inline(always)]
-    fn lookup(&self, code: u32, f16: u32) -> Option<i32> {
-        let p = code.checked_sub(self.base)?;
-        let i = (p >> self.step) as usize;
-        if !*self.usable.get(i)? {
-            return None;
+    /// A checked code at an accepted θ that is not a hit (out of line: the rare path): the table's window
+    /// (built when θ leaves it) and the hit range around θ, then the table or the stage cache.
+    #[inline(never)]
+    fn correct_theta(&mut self, code: u32, theta: i32) -> Result<FixedReading, Error> {
+        let pos = self.cache.grid.window_of(theta)?;
+        if pos.index != self.window {
+            self.build(pos.index)?;
         }
+        if !self.in_hit_range(theta) {
+            self.hit_range(pos.index, theta);
+        }
+        match self.interval(code) {
+            Some((p, i)) => self.hit(p, i, theta),
+            None => self.cache.correct_theta(code, theta),
+        }
+    }
+
+    /// The hit range around an accepted θ in window `index` (the table's): the window's θ within the
+    /// accepted range, on θ's side of each end of the calibrated range, and the m°C whose θ lie in it.
+    fn hit_range(&mut self, index: u32, theta: i32) {
+        let g = &self.cache.grid;
+        // index = (θ − t_origin) >> wb with 0 ≤ θ − t_origin < 2^31 (window_of): index << wb < 2^31, and
+        // wb ≤ 24 (shifts in 32 bits: a 64-bit one is a runtime helper on a Cortex-M0).
+        let start = i64::from(g.t_origin) + i64::from(index << g.wb);
+        // θ − t_origin stays below 2^31, the window ends there at the latest.
+        let mut lo = start.max(i64::from(g.temp_lo));
+        let mut hi = (start + i64::from(1u32 << g.wb) - 1)
+            .min(i64::from(g.temp_hi))
+            .min(i64::from(g.t_origin) + i64::from(i32::MAX));
+        let (t, min, max) = (i64::from(theta), i64::from(g.temp_min), i64::from(g.temp_max));
+        let extrapolated = g.extrapolated(theta);
+        if t < min {
+            hi = hi.min(min - 1);
+        } else if t > max {
+            lo = lo.max(max + 1);
+        } else {
+            lo = lo.max(min);
+            hi = hi.min(max);
+        }
+        // Every θ in [lo, hi] is an i32 (θ itself is in it); m°C·2^10 in it: ceil(lo/2^10) ..= floor(hi/2^10).
+        let (mlo, mhi) = ((lo + (1 << THETA_FRAC) - 1) >> THETA_FRAC, hi >> THETA_FRAC);
+        self.th_lo = lo as i32;
+        self.th_n = if hi >= lo { (hi - lo + 1) as u32 } else { 0 };
+        self.mc_lo = mlo as i32;
+        self.mc_n = if mhi >= mlo { (mhi - mlo + 1) as u32 } else { 0 };
+        self.extrapolated = extrapolated;
+        self.w_start = start as i32;
+        self.f_shift = g.wb - 16;
+        // The remembered fraction belongs to the old range.
+        self.raw_key = 0;
+    }
+
+    /// The usable interval of a code, if any: its offset from the table's base and its index. A code in
+    /// a usable interval lies between two real knots, so it passes the direct path's code checks.
+    #[inline(always)]
+    fn interval(&self, code: u32) -> Option<(u32, usize)> {
+        // Below the base, the difference wraps past every interval.
+        let p = code.wrapping_sub(self.base);
+        let i = (p >> self.step) as usize;
+        if i < TABLE_KNOTS - 3 && *self.usable.get(i)? {
+            Some((p, i))
+        } else {
+            None
+        }
+    }
+
+    /// A hit: x from interval `i` (the code `base + p`) at θ in the hit range, checked against the
+    /// calibrated range.
+    #[inline(always)]
+    fn hit(&self, p: u32, i: usize, theta: i32) -> Result<FixedReading, Error> {
+        self.hit_at(p, i, self.f16(theta))
+    }
+
+    /// The Q16 fraction in the window of a θ in the hit range (θ − w_start is in [0, 2^wb)).
+    #[inline(always)]
+    fn f16(&self, theta: i32) -> u32 {
+        (theta as u32).wrapping_sub(self.w_start as u32) >> self.f_shift
+    }
+
+    /// A hit at the fraction `f16` of a temperature in the hit range.
+    #[inline(always)]
+    fn hit_at(&self, p: u32, i: usize, f16: u32) -> Result<FixedReading, Error> {
+        let x = self.lookup(p, i, f16).ok_or(super::BAD_TABLE)?;
+        if x < self.x_min {
+            return Err(Error::BelowRange);
+        }
+        if x > self.x_max {
+            return Err(Error::AboveRange);
+        }
+        Ok(FixedReading { x, temperature_extrapolated: self.extrapolated })
+    }
+
+    /// x from usable interval `i` for the code `base + p` at the window fraction `f16` (`None` only for an
+    /// interval past the table, which [`CodeTable::interval`] never gives).
+    #[inline(always)]
+    fn lookup(&self, p: u32, i: usize, f16: u32) -> Option<i32> {
         let (a, d) = (four(&self.x0, i)?, four(&self.dx, i)?);
         // Bounds in the module docs: each |d| < 2^29, each knot within X_LIMIT.
         let f = f16 & 0xffff;
@@ -309,6 +478,9 @@ impl<'a> CodeTable<'a> {
     #[inline(never)]
     fn build(&mut self, index: u32) -> Result<(), Error> {
         self.window = NO_WINDOW;
+        self.th_n = 0;
+        self.mc_n = 0;
+        self.raw_key = 0;
         self.usable = [false; TABLE_KNOTS];
         if !self.cache.load(index)? {
             // A row wider than the cache: every sample takes the direct path.

@@ -364,6 +364,89 @@ fn code_table_follows_the_direct_path() {
 }
 
 #[test]
+fn a_kept_code_table_gives_what_a_fresh_one_gives() {
+    // A hit skips every check but one per input: it must give exactly what a table built for the sample
+    // gives (the rare path, all checks made). Temperatures step across the ends of the calibrated and the
+    // accepted range, window edges and back, one m°C and one temperature code at a time; codes across the
+    // converter, its rails and beyond.
+    let (lo, hi) = (-5_000, 55_000);
+    let mut temps: Vec<i32> = vec![];
+    // Window edges every 1024 m°C from −5 °C (20.6 °C is one).
+    for centre in [lo, 0, 20_600, 50_000, hi] {
+        temps.extend((-40..=40).map(|k| centre + k * 3));
+        temps.extend((-40..=40).rev().map(|k| centre + k * 5));
+    }
+    temps.extend([i32::MIN, i32::MAX, 20_000, 20_000, -1, 0, 1, 49_999, 50_000, 50_001]);
+    // A code the table interpolates first (a sample that is not a hit takes the rare path, which moves
+    // the table to its temperature).
+    let codes = |k: usize| {
+        [30_000].into_iter().chain((0..=65535u32).step_by(4093 + k % 7)).chain([
+            16,
+            17,
+            65518,
+            65519,
+            u32::MAX,
+        ])
+    };
+    for o in [linear(), drifting()] {
+        let c = o.view();
+        let mut table = CodeTable::new(c);
+        let mut hits = 0;
+        for (k, &mc) in temps.iter().enumerate() {
+            for code in codes(k) {
+                let want = CodeTable::new(c).correct(code, mc);
+                let hit = table.interpolates(code);
+                let got = table.correct(code, mc);
+                assert_eq!(got, want, "code {code} at {mc} m°C");
+                // The flag, against the direct path's (the table's x is checked in the test above).
+                if let (Ok(got), Ok(direct)) = (got, c.correct(code, mc)) {
+                    assert_eq!(got.temperature_extrapolated, direct.temperature_extrapolated, "{mc} m°C");
+                }
+                hits += usize::from(hit && want.is_ok());
+            }
+        }
+        // Temperature codes 100…4000 are 0…58.5 °C: both ends of the calibrated range, a fault band beyond.
+        let mut temp_codes: Vec<u32> = vec![];
+        for centre in [100u32, 2000, 3433, 3767] {
+            temp_codes.extend((centre - 20..centre + 20).flat_map(|t| [t, t, t.saturating_sub(1)]));
+        }
+        temp_codes.extend([0, 9, 4001, 4095, u32::MAX, u32::MAX, 2000]);
+        for (k, &tc) in temp_codes.iter().enumerate() {
+            for code in codes(k) {
+                let want = CodeTable::new(c).correct_raw(code, tc);
+                let hit = table.interpolates(code);
+                let got = table.correct_raw(code, tc);
+                assert_eq!(got, want, "code {code}, temperature code {tc}");
+                if let (Ok(got), Ok(direct)) = (got, c.correct_raw(code, tc)) {
+                    assert_eq!(got.temperature_extrapolated, direct.temperature_extrapolated, "code {tc}");
+                }
+                hits += usize::from(hit && want.is_ok());
+            }
+        }
+        // A remembered temperature code after an m°C sample moved the table (another window, the other side
+        // of a calibrated end): raw, m°C, raw again.
+        for (k, (&tc, &mc)) in temp_codes.iter().zip(temps.iter().step_by(3)).enumerate() {
+            for code in codes(k).take(3) {
+                for (raw, t) in [(true, tc as i32), (false, mc), (true, tc as i32)] {
+                    let (got, want) = if raw {
+                        (table.correct_raw(code, t as u32), CodeTable::new(c).correct_raw(code, t as u32))
+                    } else {
+                        (table.correct(code, t), CodeTable::new(c).correct(code, t))
+                    };
+                    assert_eq!(
+                        got,
+                        want,
+                        "code {code}, {} {t}",
+                        if raw { "temperature code" } else { "m°C" }
+                    );
+                }
+            }
+        }
+        assert!(hits > 5_000, "{hits} hits compared");
+    }
+}
+
+#[test]
 fn cache_stage_and_direct_path_agree_on_random_tables() {
     // Scales and contents anywhere in their ranges (valid or not): a stage runs the direct path's integer
     // operations, so they agree on every value and every error; the stage cache's results depend on the

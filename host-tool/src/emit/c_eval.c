@@ -239,17 +239,29 @@ static inline ltrm_status ltrm_bend_q24(int32_t v, int32_t *out) {
     return LTRM_OK;
 }
 
+/* A value the compiler may not see as the constant it is (one multiply, not a chain of shifts and adds on a
+ * core whose multiply takes one cycle). */
+#if defined(__GNUC__)
+#define LTRM_OPAQUE(v) __asm__("" : "+r"(v))
+#else
+#define LTRM_OPAQUE(v) ((void)0)
+#endif
+
 /* e^x, x Q24, result Q32: the reduction in 32 bits (x bounded first), the same (k, r) as r = 128x - k*LN2_Q31. */
 static inline ltrm_status ltrm_exp_q32(int32_t x, int64_t *out) {
-    int32_t k, a, r, sh;
+    int32_t k, a, r, sh, ln2, rest;
     uint32_t ru, j, rho, rho30, rq, rho2h, rho3, q, base, m;
     if (x >= LTRM_EXP_X_ABOVE) return LTRM_ABOVE_RANGE;
     if (x < LTRM_EXP_X_ZERO) { *out = 0; return LTRM_OK; }
     k = ltrm_asr32(ltrm_asr32(x, 14) * (int32_t)LTRM_HALF_INV_LN2_Q16, 25);
-    a = x - k * LTRM_LN2_Q24;
+    ln2 = LTRM_LN2_Q24;
+    rest = LTRM_LN2_Q31_REST;
+    LTRM_OPAQUE(ln2);
+    LTRM_OPAQUE(rest);
+    a = x - k * ln2;
     if (a < 0) { k -= 1; a += LTRM_LN2_Q24; }
     else if (a >= LTRM_LN2_Q24) { k += 1; a -= LTRM_LN2_Q24; }
-    r = a * 128 - k * LTRM_LN2_Q31_REST;
+    r = a * 128 - k * rest;
     if (r < 0) { k -= 1; r += LTRM_LN2_Q31; }
     else if (r >= LTRM_LN2_Q31) { k += 1; r -= LTRM_LN2_Q31; }
     ru = (uint32_t)r;
@@ -805,6 +817,13 @@ inline ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, 
 
 /* ---- the code table (logtrim::fixed::CodeTable): x over the log code for the cached temperature window ---- */
 
+/* The rare paths (builds, fallbacks) out of line, so that a hit does not enter them. */
+#if defined(__GNUC__)
+#define LTRM_RARE __attribute__((noinline))
+#else
+#define LTRM_RARE
+#endif
+
 /* x of a code at one end (mode 0), the middle (1) or the other end (2) of the cached window: the direct path's
  * per-code part without the calibrated x range (knots just beyond it continue the curve); 0 where it gives
  * another error or x is not within +-LTRM_X_LIMIT. */
@@ -934,7 +953,7 @@ static int ltrm_interval_ok(const ltrm_code_table *t, uint32_t i, uint32_t step,
 
 /* Loads window `index` into the stage cache and builds the table for it: x at every knot at the window's start,
  * middle and end. */
-static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
+static LTRM_RARE ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
     ltrm_stage_cache *k = &t->cache;
     const ltrm_fixed *c = k->cal;
     uint32_t qo = c->offset_frac > 30u ? 30u : c->offset_frac, lo = k->code_lo, hi = k->code_hi, step = 0u, base, i;
@@ -944,6 +963,9 @@ static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
     int kept = 0;
     ltrm_status st;
     t->window = LTRM_NO_WINDOW;
+    t->th_n = 0u;
+    t->mc_n = 0u;
+    t->raw_key = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) t->usable[i] = 0u;
     if ((st = ltrm_stage_cache_load(k, index, &kept)) != LTRM_OK) return st;
     if (!kept) {
@@ -984,22 +1006,33 @@ static ltrm_status ltrm_code_table_build(ltrm_code_table *t, uint32_t index) {
     return LTRM_OK;
 }
 
-/* x from the table for a checked code at the window fraction f16: 1, or 0 where the interval is not usable. */
-static inline int ltrm_code_table_lookup(const ltrm_code_table *t, uint32_t code, uint32_t f16, int32_t *x) {
-    uint32_t p, i, tt, g, wa, wb;
+/* The hit's arithmetic inlined into each entry point (one copy per entry; a hit enters only its own). */
+#if defined(__GNUC__)
+#define LTRM_HIT static inline __attribute__((always_inline))
+#else
+#define LTRM_HIT static inline
+#endif
+
+/* ltrm_mulh16, the same floor(a*w / 2^16): one long multiply on a core that has it (two 16x16-bit products on
+ * ARMv6-M). */
+static inline int32_t ltrm_mulh16_hit(int32_t a, uint32_t w) {
+#if !(defined(__ARM_ARCH_6M__) || (defined(__thumb__) && !defined(__thumb2__)))
+    return (int32_t)ltrm_asr64((int64_t)a * (int64_t)w, 16);
+#else
+    return ltrm_mulh16(a, w);
+#endif
+}
+
+/* x from usable interval i for the code base + p at the window fraction f16. */
+static inline int32_t ltrm_code_table_x(const ltrm_code_table *t, uint32_t p, uint32_t i, uint32_t f16) {
+    uint32_t tt, g, wa, wb;
     int32_t pm, p0, p1, p2, e0, e1, e2, d0, d1;
-    const int32_t *a, *d;
-    if (code < t->base) return 0;
-    p = code - t->base;
-    i = p >> t->step;
-    if (i + 4u > LTRM_TABLE_KNOTS || !t->usable[i]) return 0;
-    a = t->x0 + i;
-    d = t->dx + i;
+    const int32_t *a = t->x0 + i, *d = t->dx + i;
     f16 &= 0xffffu;
-    pm = a[0] + ltrm_mulh16(d[0], f16);
-    p0 = a[1] + ltrm_mulh16(d[1], f16);
-    p1 = a[2] + ltrm_mulh16(d[2], f16);
-    p2 = a[3] + ltrm_mulh16(d[3], f16);
+    pm = a[0] + ltrm_mulh16_hit(d[0], f16);
+    p0 = a[1] + ltrm_mulh16_hit(d[1], f16);
+    p1 = a[2] + ltrm_mulh16_hit(d[2], f16);
+    p2 = a[3] + ltrm_mulh16_hit(d[3], f16);
     e0 = p0 - pm;
     e1 = p1 - p0;
     e2 = p2 - p1;
@@ -1009,38 +1042,108 @@ static inline int ltrm_code_table_lookup(const ltrm_code_table *t, uint32_t code
     g = (tt * (65536u - tt)) >> 16;
     wa = (((g * (131072u - tt)) >> 16) * 10923u) >> 16;
     wb = (((g * (65536u + tt)) >> 16) * 10923u) >> 16;
-    *x = p0 + ltrm_mulh16(e1, tt) - (ltrm_mulh16(d0, wa) + ltrm_mulh16(d1, wb));
-    return 1;
+    return p0 + ltrm_mulh16_hit(e1, tt) - (ltrm_mulh16_hit(d0, wa) + ltrm_mulh16_hit(d1, wb));
 }
 
-static inline ltrm_status ltrm_code_table_theta(ltrm_code_table *t, uint32_t code, int32_t theta, ltrm_reading *out) {
+/* The usable interval of a code: 1 with its offset from the base and its index, else 0. A code in a usable
+ * interval lies between two real knots, so it passes the direct path's code checks. */
+LTRM_HIT int ltrm_code_table_interval(const ltrm_code_table *t, uint32_t code, uint32_t *p, uint32_t *i) {
+    *p = code - t->base; /* below the base, the difference wraps past every interval */
+    *i = *p >> t->step;
+    return *i < LTRM_TABLE_KNOTS - 3u && t->usable[*i];
+}
+
+/* The Q16 fraction in the window of a theta in the hit range. */
+LTRM_HIT uint32_t ltrm_code_table_f16(const ltrm_code_table *t, int32_t theta) {
+    return ((uint32_t)theta - (uint32_t)t->w_start) >> t->f_shift;
+}
+
+/* A hit: x from interval i (the code base + p) at the fraction f16 of a temperature in the hit range, checked
+ * against the calibrated range. */
+LTRM_HIT ltrm_status ltrm_code_table_hit_at(const ltrm_code_table *t, uint32_t p, uint32_t i, uint32_t f16, ltrm_reading *out) {
+    int32_t x = ltrm_code_table_x(t, p, i, f16);
+    if (x < t->x_min) return LTRM_BELOW_RANGE;
+    if (x > t->x_max) return LTRM_ABOVE_RANGE;
+    out->x = x;
+    out->temperature_extrapolated = t->extrapolated;
+    return LTRM_OK;
+}
+
+/* A hit at theta in the hit range. */
+LTRM_HIT ltrm_status ltrm_code_table_hit(const ltrm_code_table *t, uint32_t p, uint32_t i, int32_t theta, ltrm_reading *out) {
+    return ltrm_code_table_hit_at(t, p, i, ltrm_code_table_f16(t, theta), out);
+}
+
+/* The hit range around an accepted theta in window `index` (the table's): the window's theta within the accepted
+ * range, on theta's side of each end of the calibrated range, and the m°C whose theta lie in it. */
+static void ltrm_code_table_hit_range(ltrm_code_table *t, uint32_t index, int32_t theta) {
     const ltrm_fixed *c = t->cache.cal;
-    uint32_t index, f16;
-    int32_t x;
+    uint32_t wb = c->t_step_log2 < LTRM_T_STEP_MIN ? LTRM_T_STEP_MIN : (c->t_step_log2 > LTRM_T_STEP_MAX ? LTRM_T_STEP_MAX : c->t_step_log2);
+    int64_t start, lo, hi, mlo, mhi;
+    wb -= LTRM_WINDOWS_LOG2;
+    /* index = (theta - t_origin) >> wb with 0 <= theta - t_origin < 2^31 (ltrm_window_of): 32-bit shifts. */
+    start = (int64_t)c->t_origin + (int64_t)(index << wb);
+    lo = start > c->temp_lo ? start : c->temp_lo;
+    hi = start + (int64_t)(1u << wb) - 1;
+    if (hi > c->temp_hi) hi = c->temp_hi;
+    /* theta - t_origin stays below 2^31 (ltrm_window_of). */
+    if (hi > (int64_t)c->t_origin + INT32_MAX) hi = (int64_t)c->t_origin + INT32_MAX;
+    if (theta < c->temp_min) {
+        if (hi > (int64_t)c->temp_min - 1) hi = (int64_t)c->temp_min - 1;
+    } else if (theta > c->temp_max) {
+        if (lo < (int64_t)c->temp_max + 1) lo = (int64_t)c->temp_max + 1;
+    } else {
+        if (lo < c->temp_min) lo = c->temp_min;
+        if (hi > c->temp_max) hi = c->temp_max;
+    }
+    /* Every theta in [lo, hi] is an int32_t (theta is in it); m°C * 2^10 in it: ceil(lo / 2^10) ..= floor(hi / 2^10). */
+    mlo = ltrm_asr64(lo + (1 << LTRM_THETA_FRAC) - 1, LTRM_THETA_FRAC);
+    mhi = ltrm_asr64(hi, LTRM_THETA_FRAC);
+    t->th_lo = (int32_t)lo;
+    t->th_n = hi >= lo ? (uint32_t)(hi - lo + 1) : 0u;
+    t->mc_lo = (int32_t)mlo;
+    t->mc_n = mhi >= mlo ? (uint32_t)(mhi - mlo + 1) : 0u;
+    t->extrapolated = ltrm_extrapolated(c, theta);
+    t->w_start = (int32_t)start;
+    t->f_shift = wb - 16u;
+    t->raw_key = 0u; /* its fraction belongs to the old range */
+}
+
+/* A checked code at an accepted theta that is not a hit (out of line: the rare path): the table's window (built
+ * when theta leaves it) and the hit range around theta, then the table or the stage cache. */
+static LTRM_RARE ltrm_status ltrm_code_table_theta(ltrm_code_table *t, uint32_t code, int32_t theta, ltrm_reading *out) {
+    uint32_t index, f16, p, i;
     ltrm_status st;
-    /* The last temperature again (held, or a raw channel's code repeated): its window and fraction. */
-    if (theta != t->theta || t->window == LTRM_NO_WINDOW) {
-        if ((st = ltrm_window_of(c, theta, &index, &f16)) != LTRM_OK) return st;
-        if (index != t->window && (st = ltrm_code_table_build(t, index)) != LTRM_OK) return st;
-        t->theta = theta;
-        t->f16 = f16;
-    }
-    if (ltrm_code_table_lookup(t, code, t->f16, &x)) {
-        if (x < c->x_min) return LTRM_BELOW_RANGE;
-        if (x > c->x_max) return LTRM_ABOVE_RANGE;
-        out->x = x;
-        out->temperature_extrapolated = ltrm_extrapolated(c, theta);
-        return LTRM_OK;
-    }
+    if ((st = ltrm_window_of(t->cache.cal, theta, &index, &f16)) != LTRM_OK) return st;
+    if (index != t->window && (st = ltrm_code_table_build(t, index)) != LTRM_OK) return st;
+    if (!((uint32_t)theta - (uint32_t)t->th_lo < t->th_n)) ltrm_code_table_hit_range(t, index, theta);
+    if (ltrm_code_table_interval(t, code, &p, &i)) return ltrm_code_table_hit(t, p, i, theta, out);
     return ltrm_stage_cache_theta(&t->cache, code, theta, out);
+}
+
+/* A checked code at an accepted theta: a hit, or the rare path. */
+static inline ltrm_status ltrm_code_table_at_theta(ltrm_code_table *t, uint32_t code, int32_t theta, ltrm_reading *out) {
+    uint32_t p, i;
+    if (ltrm_code_table_interval(t, code, &p, &i) && (uint32_t)theta - (uint32_t)t->th_lo < t->th_n)
+        return ltrm_code_table_hit(t, p, i, theta, out);
+    return ltrm_code_table_theta(t, code, theta, out);
 }
 
 inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
     uint32_t i;
     ltrm_stage_cache_init(&t->cache, c);
     t->window = LTRM_NO_WINDOW;
-    t->theta = 0;
-    t->f16 = 0u;
+    t->th_lo = 0;
+    t->mc_lo = 0;
+    t->th_n = 0u;
+    t->mc_n = 0u;
+    t->extrapolated = 0;
+    t->w_start = 0;
+    t->f_shift = 0u;
+    t->x_min = c->x_min;
+    t->x_max = c->x_max;
+    t->raw_key = 0u;
+    t->raw_f16 = 0u;
     t->base = 0u;
     t->step = 0u;
     for (i = 0; i < LTRM_TABLE_KNOTS; i++) {
@@ -1050,7 +1153,8 @@ inline void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c) {
     }
 }
 
-inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+/* ltrm_code_table_correct for the samples that are not hits (out of line: the rare path). */
+static LTRM_RARE ltrm_status ltrm_code_table_correct_other(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
     int32_t theta = 0;
     ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
     if (st != LTRM_OK) return st;
@@ -1058,12 +1162,41 @@ inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, in
     return ltrm_code_table_theta(t, code, theta, out);
 }
 
-inline ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
+/* A hit is a code in a usable interval (so between the rails) at a temperature in the hit range (so accepted, in
+ * the table's window): one unsigned comparison each, nothing else checked. */
+inline ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out) {
+    uint32_t p, i;
+    if (ltrm_code_table_interval(t, code, &p, &i) && (uint32_t)temp_mc - (uint32_t)t->mc_lo < t->mc_n)
+        return ltrm_code_table_hit(t, p, i, temp_mc * (1 << LTRM_THETA_FRAC), out); /* accepted: theta fits */
+    return ltrm_code_table_correct_other(t, code, temp_mc, out);
+}
+
+/* ltrm_code_table_correct_raw for the samples that are not hits (out of line: the rare path); a temperature code
+ * whose theta ends in the hit range is remembered with its fraction. */
+static LTRM_RARE ltrm_status ltrm_code_table_correct_raw_other(ltrm_code_table *t, uint32_t code, uint32_t temp_code,
+                                                               ltrm_reading *out) {
     int32_t theta = 0;
-    ltrm_status st = ltrm_stage_cache_check_code(&t->cache, code);
-    if (st != LTRM_OK) return st;
+    uint32_t p, i;
+    int in = ltrm_code_table_interval(t, code, &p, &i); /* then the code passes its checks */
+    ltrm_status st;
+    if (!in && (st = ltrm_stage_cache_check_code(&t->cache, code)) != LTRM_OK) return st;
     if ((st = ltrm_stage_cache_theta_of_code(&t->cache, temp_code, &theta)) != LTRM_OK) return st;
-    return ltrm_code_table_theta(t, code, theta, out);
+    /* Another temperature code in the hit range (a wandering temperature): a hit once its theta is known. */
+    if (in && (uint32_t)theta - (uint32_t)t->th_lo < t->th_n) st = ltrm_code_table_hit(t, p, i, theta, out);
+    else st = ltrm_code_table_theta(t, code, theta, out);
+    if (temp_code != UINT32_MAX && (uint32_t)theta - (uint32_t)t->th_lo < t->th_n) {
+        t->raw_key = temp_code + 1u;
+        t->raw_f16 = ltrm_code_table_f16(t, theta);
+    }
+    return st;
+}
+
+/* A hit's temperature code is the last one remembered (its theta in the hit range, its fraction kept). */
+inline ltrm_status ltrm_code_table_correct_raw(ltrm_code_table *t, uint32_t code, uint32_t temp_code, ltrm_reading *out) {
+    uint32_t p, i, key = temp_code + 1u;
+    if (ltrm_code_table_interval(t, code, &p, &i) && key == t->raw_key && key != 0u)
+        return ltrm_code_table_hit_at(t, p, i, t->raw_f16, out);
+    return ltrm_code_table_correct_raw_other(t, code, temp_code, out);
 }
 
 static inline void ltrm_code_table_codes(ltrm_code_table *t, ltrm_status ts, int32_t theta, const uint32_t *codes, uint32_t n,
@@ -1072,7 +1205,7 @@ static inline void ltrm_code_table_codes(ltrm_code_table *t, ltrm_status ts, int
     for (i = 0; i < n; i++) {
         ltrm_status st = ltrm_stage_cache_check_code(&t->cache, codes[i]);
         if (st == LTRM_OK) st = ts;
-        if (st == LTRM_OK) st = ltrm_code_table_theta(t, codes[i], theta, &out[i]);
+        if (st == LTRM_OK) st = ltrm_code_table_at_theta(t, codes[i], theta, &out[i]);
         status[i] = st;
     }
 }
@@ -1110,11 +1243,16 @@ inline ltrm_status ltrm_value(const ltrm_reading *r, ltrm_unit_kind unit, int64_
     case LTRM_DB_AMPLITUDE: *out = 2 * ((int64_t)r->x * 4 + ltrm_mul_round32_by(r->x, LTRM_DB10_FRAC_Q32)); return LTRM_OK;
     case LTRM_ABSORBANCE: *out = -(int64_t)ltrm_mul_round32(r->x, LTRM_INV_LN10_Q32); return LTRM_OK;
     case LTRM_TRANSMITTANCE_PERCENT:
+    case LTRM_RATIO:
+        /* One call of the exponential (inlined once). */
         if ((st = ltrm_exp_q32(r->x, &e)) != LTRM_OK) return st;
+        if (unit == LTRM_RATIO) {
+            *out = e;
+            return LTRM_OK;
+        }
         if (e > INT64_MAX / 100) return LTRM_ABOVE_RANGE;
         *out = (e * 64 + e * 32 + e * 4 + 128) >> 8;
         return LTRM_OK;
-    case LTRM_RATIO: return ltrm_exp_q32(r->x, out);
     }
     return LTRM_BAD_TABLE;
 }

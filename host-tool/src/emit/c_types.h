@@ -81,13 +81,23 @@ typedef struct ltrm_stage_cache {
  * them, exactly as the direct path). Start it with ltrm_code_table_init; one table belongs to one
  * calibration. About 1.3 KiB. */
 typedef struct ltrm_code_table {
-    ltrm_stage_cache cache;
-    uint32_t window; /* LTRM_NO_WINDOW when empty */
-    int32_t theta;   /* the last theta and its Q16 fraction in the window (valid while a window is kept) */
-    uint32_t f16;
+    /* What a hit reads first (small offsets, so that a Cortex-M0 reaches each with one load). */
     uint32_t base, step;
-    int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
+    /* The temperatures a hit takes with one check: theta in [th_lo, th_lo + th_n) and m°C in
+     * [mc_lo, mc_lo + mc_n) lie in the window, the accepted range and on one side of each end of the
+     * calibrated range (extrapolated for all of them or none); empty without a window. */
+    int32_t th_lo, mc_lo;
+    uint32_t th_n, mc_n;
+    int extrapolated;
+    int32_t w_start; /* theta of the window's start; (theta - w_start) >> f_shift is the Q16 fraction */
+    uint32_t f_shift;
+    int32_t x_min, x_max; /* the calibrated x range (Q24), kept beside the table */
+    uint32_t raw_key; /* a temperature code + 1 whose theta is in the hit range (0: none), and its fraction */
+    uint32_t raw_f16;
+    uint32_t window; /* LTRM_NO_WINDOW when empty */
     uint8_t usable[LTRM_TABLE_KNOTS];
+    int32_t x0[LTRM_TABLE_KNOTS], dx[LTRM_TABLE_KNOTS];
+    ltrm_stage_cache cache;
 } ltrm_code_table;
 
 /* ---- run-time images and field records ---- */
