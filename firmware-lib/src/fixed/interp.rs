@@ -172,7 +172,7 @@ pub fn spline_at(c: [i32; 4], t: u32) -> Option<i64> {
 #[inline(always)]
 pub fn spline_at16(c: [i32; 4], t: u32) -> Option<i64> {
     let t = t & 0xffff;
-    horner(c, t, |v| mulh16(v, t))
+    horner(c, t, |v| mulh16(v, t & 0xffff))
 }
 
 /// The power form of [`spline_at`] by Horner's rule: the inner products with the 16-bit fraction `t16`, the
@@ -186,16 +186,17 @@ fn horner(c: [i32; 4], t16: u32, last: impl Fn(i32) -> i32) -> Option<i64> {
     let f = c[1].checked_sub(c[2])?;
     let g = c[3].checked_sub(c[0])?;
     // |d| < 2^28, |e| < 2^27, |f| < 2^26, |g| < 2^27: a1 = 3d, a2 = 3e, a3 = g + 3f within the steps' limits.
-    if !(d.unsigned_abs() < 1 << 28
-        && e.unsigned_abs() < 1 << 27
-        && f.unsigned_abs() < 1 << 26
-        && g.unsigned_abs() < 1 << 27)
-    {
+    let within = |v: i32, k: u32| -(1 << k) < v && v < 1 << k;
+    if !(within(d, 28) && within(e, 27) && within(f, 26) && within(g, 27)) {
         return None;
     }
-    let (a1, a2, a3) = (3 * d, 3 * e, g + 3 * f);
-    let v = a2 + mulh16(a3, t16);
-    let v = a1 + mulh16(v, t16);
+    // Within these limits no sum below can overflow (|a3| < 2^28.3, |v| < 2^29.2 and then < 2^30.2); the
+    // sums are checked all the same, a flag test each, so that the optimiser sees no overflow either.
+    let (a1, a2, a3) = (3 * d, 3 * e, g.checked_add(3 * f)?);
+    // (The fraction below 2^16, as every caller passes it, masked where the optimiser sees it.)
+    let t16 = t16 & 0xffff;
+    let v = a2.checked_add(mulh16(a3, t16))?;
+    let v = a1.checked_add(mulh16(v, t16))?;
     Some(i64::from(c[0]) + 4 * i64::from(c[1]) + i64::from(c[2]) + i64::from(last(v)))
 }
 

@@ -1104,7 +1104,8 @@ impl<'a> FixedCalibration<'a> {
         // [`spline_at16`] give within the margin of the exact one.
         let m = i64::from(SPLINE_MARGIN);
         let within = |t: &[i32], lo: i64, hi: i64| {
-            t.iter().all(|&c| i64::from(c) * 6 > lo + m && i64::from(c) * 6 < hi - m)
+            let (lo, hi) = (lo.saturating_add(m), hi.saturating_sub(m));
+            t.iter().all(|&c| i64::from(c) * 6 > lo && i64::from(c) * 6 < hi)
         };
         let in_range = |t: &[i32], limit: i32| within(t, -i64::from(limit), i64::from(limit));
         if self.inv_slope.iter().any(|&s| s <= 0) {
@@ -1137,8 +1138,8 @@ impl<'a> FixedCalibration<'a> {
                 return bad(D::Coefficient);
             }
             // Every segment a code in the span reaches must fit [`spline_at16`]'s 32-bit steps.
-            let segments = ((s.code_hi - s.code_lo) >> s.step_log2) as usize + 1;
-            if !(0..segments).all(|seg| four(s.knots, seg).and_then(|c| spline_at16(c, 0)).is_some()) {
+            let last = ((s.code_hi - s.code_lo) >> s.step_log2) as usize;
+            if !(0..=last).all(|seg| four(s.knots, seg).and_then(|c| spline_at16(c, 0)).is_some()) {
                 return bad(D::Coefficient);
             }
         }

@@ -89,7 +89,9 @@ pub fn run() {
     let w = interp::window_weights(u);
     keep(interp::window_value(c, w));
     keep(interp::window_collapse([o(0i16); 4], w));
-    let sw = interp::sensor_weights(u);
-    keep(interp::sensor_value(c, sw));
+    keep(interp::spline_at(c, u));
+    keep(interp::spline_at16(c, u));
+    keep(interp::mulh20(a, u));
+    keep(interp::collapse6([o(0i16); 4], interp::basis6(u)));
     keep(interp::four(&c[..], o(0usize)));
 }
