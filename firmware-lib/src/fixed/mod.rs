@@ -758,10 +758,16 @@ impl<'a> FixedCalibration<'a> {
     /// The four per-temperature values at window end `end`, exact, each checked against its limit.
     #[inline(always)]
     pub(crate) fn end_scalars(&self, end: u32) -> Result<Scalars, Error> {
-        let h = &self.header;
         let (seg, w) = self.end_weights(end);
-        let value = |t: &[i32]| -> Result<i64, Error> { Ok(window_value(four(t, seg).ok_or(BAD_TABLE)?, w)) };
-        let at = |t: &[i32], limit: i32| -> Result<i32, Error> { bounded(value(t)?, limit) };
+        self.scalars_with(|t| Ok(window_value(four(t, seg).ok_or(BAD_TABLE)?, w)))
+    }
+
+    /// The four per-temperature values from `value` of each table, each checked against its limit: the
+    /// inverse slope within `(0, 2^32)`, the offset within [`OFFSET_RANGE`], λ and u_min within ±[`BIAS_LIMIT`]
+    /// (where the header uses them).
+    #[inline(always)]
+    fn scalars_with(&self, value: impl Fn(&[i32]) -> Result<i64, Error>) -> Result<Scalars, Error> {
+        let h = &self.header;
         let inv_slope = value(self.inv_slope)?;
         if !(inv_slope > 0 && inv_slope < INV_SLOPE_LIMIT) {
             return Err(BAD_TABLE);
@@ -771,10 +777,11 @@ impl<'a> FixedCalibration<'a> {
             return Err(BAD_TABLE);
         }
         Ok(Scalars {
+            // Checked just above: the offset fits an i32, the inverse slope a u32.
             offset: offset as i32,
             inv_slope: inv_slope as u32,
-            ln_bias: if h.bias_bend { at(self.ln_bias, BIAS_LIMIT)? } else { 0 },
-            u_min: if h.sensitivity_limit { at(self.u_min, BIAS_LIMIT)? } else { i32::MIN },
+            ln_bias: if h.bias_bend { bounded(value(self.ln_bias)?, BIAS_LIMIT)? } else { 0 },
+            u_min: if h.sensitivity_limit { bounded(value(self.u_min)?, BIAS_LIMIT)? } else { i32::MIN },
         })
     }
 
@@ -852,11 +859,19 @@ impl<'a> FixedCalibration<'a> {
     /// each below 2^29.6).
     #[inline(always)]
     pub(crate) fn column_ends(&self, e: &WindowEnds, col: usize) -> Result<(i32, i32), Error> {
+        let c = self.column_rows(e.seg, col)?;
+        Ok((window_collapse(c, e.w0), window_collapse(c, e.w1)))
+    }
+
+    /// Residual column `col` of the four rows from `seg` (zeros for an empty table), with the refusals of a
+    /// table too small for them.
+    #[inline(always)]
+    fn column_rows(&self, seg: usize, col: usize) -> Result<[i16; 4], Error> {
         // Row and stride below 2^16 (any wider grid is refused): the index is a 32-bit product, with no
         // overflow check (which would call a 64-bit multiply helper on a Cortex-M0).
         let stride = u32::from(self.header.xa_knots) + 2;
         let at = |k: u32| -> Option<i16> {
-            let row = e.seg as u32 + k;
+            let row = seg as u32 + k;
             if stride > 0xffff || row > 0xffff || col as u32 >= stride {
                 return None;
             }
@@ -868,9 +883,7 @@ impl<'a> FixedCalibration<'a> {
             self.residual.get((row * stride + col as u32) as usize).copied()
         };
         match (at(0), at(1), at(2), at(3)) {
-            (Some(a), Some(b), Some(c), Some(d)) => {
-                Ok((window_collapse([a, b, c, d], e.w0), window_collapse([a, b, c, d], e.w1)))
-            }
+            (Some(a), Some(b), Some(c), Some(d)) => Ok([a, b, c, d]),
             _ => Err(BAD_TABLE),
         }
     }
@@ -893,25 +906,7 @@ impl<'a> FixedCalibration<'a> {
     /// its limit.
     #[inline(always)]
     pub(crate) fn scalars_at(&self, p: &TempPos) -> Result<Scalars, Error> {
-        let h = &self.header;
-        let value = |t: &[i32]| -> Result<i64, Error> {
-            spline_at(four(t, p.seg).ok_or(BAD_TABLE)?, p.t20).ok_or(BAD_TABLE)
-        };
-        let inv_slope = value(self.inv_slope)?;
-        if !(inv_slope > 0 && inv_slope < INV_SLOPE_LIMIT) {
-            return Err(BAD_TABLE);
-        }
-        let offset = value(self.offset)?;
-        if !(offset > i64::from(OFFSET_RANGE.0) && offset < i64::from(OFFSET_RANGE.1)) {
-            return Err(BAD_TABLE);
-        }
-        Ok(Scalars {
-            // Checked just above: the offset fits an i32, the inverse slope a u32.
-            offset: offset as i32,
-            inv_slope: inv_slope as u32,
-            ln_bias: if h.bias_bend { bounded(value(self.ln_bias)?, BIAS_LIMIT)? } else { 0 },
-            u_min: if h.sensitivity_limit { bounded(value(self.u_min)?, BIAS_LIMIT)? } else { i32::MIN },
-        })
+        self.scalars_with(|t| spline_at(four(t, p.seg).ok_or(BAD_TABLE)?, p.t20).ok_or(BAD_TABLE))
     }
 
     /// The residual's rows `seg..seg + 4` at columns `col..col + 4`, as four columns of four control points
@@ -950,21 +945,7 @@ impl<'a> FixedCalibration<'a> {
     /// stage's row).
     #[inline(always)]
     pub(crate) fn column_at(&self, p: &TempPos, col: usize) -> Result<i32, Error> {
-        let stride = u32::from(self.header.xa_knots) + 2;
-        let at = |k: u32| -> Option<i16> {
-            let row = p.seg as u32 + k;
-            if stride > 0xffff || row > 0xffff || col as u32 >= stride {
-                return None;
-            }
-            if self.residual.is_empty() {
-                return (row < u32::from(self.header.t_knots) + 2).then_some(0);
-            }
-            self.residual.get((row * stride + col as u32) as usize).copied()
-        };
-        match (at(0), at(1), at(2), at(3)) {
-            (Some(a), Some(b), Some(c), Some(d)) => Ok(collapse6([a, b, c, d], p.w)),
-            _ => Err(BAD_TABLE),
-        }
+        Ok(collapse6(self.column_rows(p.seg, col)?, p.w))
     }
 
     /// The direct path from θ: the scalars and the four residual columns the code needs, evaluated at θ

@@ -381,12 +381,13 @@ static inline void ltrm_window_ends(const ltrm_fixed *c, uint32_t index, ltrm_en
     e->w1 = ltrm_window_w[e->m < LTRM_WINDOWS ? e->m + 1u : LTRM_WINDOWS];
 }
 
-/* Residual column `col` collapsed over temperature at both ends of a window. */
-static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, int32_t *lo, int32_t *hi) {
+/* Residual column `col` of the four rows from `seg` (zeros for an empty table), with the refusals of a table too
+ * small for them. */
+static inline ltrm_status ltrm_column_rows(const ltrm_fixed *c, uint32_t seg, uint32_t col, int32_t v[4]) {
     uint32_t k, stride = (uint32_t)c->xa_knots + 2u, row, i;
-    int32_t a = 0, b = 0, v;
     for (k = 0; k < 4u; k++) {
-        row = e->seg + k;
+        row = seg + k;
+        v[k] = 0;
         /* Row and stride below 2^16: a 32-bit product (no 64-bit multiply helper on a Cortex-M0). */
         if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
         /* An empty table is a residual of zero everywhere: the refusals of a full table of zeros. */
@@ -396,12 +397,18 @@ static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends 
         }
         i = row * stride + col;
         if (i >= c->residual_len) return LTRM_BAD_TABLE;
-        v = c->residual[i];
-        a += e->w0[k] * v;
-        b += e->w1[k] * v;
+        v[k] = c->residual[i];
     }
-    *lo = a;
-    *hi = b;
+    return LTRM_OK;
+}
+
+/* Residual column `col` collapsed over temperature at both ends of a window. */
+static inline ltrm_status ltrm_column_ends(const ltrm_fixed *c, const ltrm_ends *e, uint32_t col, int32_t *lo, int32_t *hi) {
+    int32_t v[4];
+    ltrm_status st = ltrm_column_rows(c, e->seg, col, v);
+    if (st != LTRM_OK) return st;
+    *lo = e->w0[0] * v[0] + e->w0[1] * v[1] + e->w0[2] * v[2] + e->w0[3] * v[3];
+    *hi = e->w1[0] * v[0] + e->w1[1] * v[1] + e->w1[2] * v[2] + e->w1[3] * v[3];
     return LTRM_OK;
 }
 
@@ -477,19 +484,9 @@ static inline ltrm_status ltrm_columns_theta(const ltrm_fixed *c, const ltrm_pos
 
 /* Residual column `col` alone at theta (a stage's row): the value ltrm_columns_theta gives. */
 static inline ltrm_status ltrm_column_at(const ltrm_fixed *c, const ltrm_pos *p, uint32_t col, int32_t *out) {
-    uint32_t k, stride = (uint32_t)c->xa_knots + 2u, row, i;
-    int32_t v[4] = {0, 0, 0, 0};
-    for (k = 0; k < 4u; k++) {
-        row = p->seg + k;
-        if (stride > 0xffffu || row > 0xffffu || col >= stride) return LTRM_BAD_TABLE;
-        if (c->residual_len == 0u) {
-            if (row >= (uint32_t)c->t_knots + 2u) return LTRM_BAD_TABLE;
-            continue;
-        }
-        i = row * stride + col;
-        if (i >= c->residual_len) return LTRM_BAD_TABLE;
-        v[k] = c->residual[i];
-    }
+    int32_t v[4];
+    ltrm_status st = ltrm_column_rows(c, p->seg, col, v);
+    if (st != LTRM_OK) return st;
     *out = ltrm_collapse6(p->w, v[0], v[1], v[2], v[3]);
     return LTRM_OK;
 }
