@@ -6,8 +6,9 @@
 //! # What it computes
 //!
 //! For the window `[θ₀, θ₁)` of θ (the grid's window, a sixteenth of a temperature knot step) the table
-//! keeps, at every knot code `c_k`, the direct path's x at both ends of the window, `x(c_k, θ₀)` and its
-//! change to `x(c_k, θ₁)`; both are exact [`FixedCalibration::correct`] values. A sample at `(code, θ)`
+//! keeps, at every knot code `c_k`, x at both ends of the window, `x(c_k, θ₀)` and its change to
+//! `x(c_k, θ₁)`, from the per-temperature values the [`StageCache`] evaluates exactly at those ends (within
+//! a few Q24 units of [`FixedCalibration::correct`] there, which evaluates at θ itself). A sample at `(code, θ)`
 //! with θ at the Q16 fraction `f` of the window:
 //!
 //! 1. takes the four knots around the code and moves each along the line in temperature,
@@ -34,12 +35,12 @@
 //! swamped end). What remains for the stage cache is less than one knot step at each end of the curve and
 //! the intervals whose checks fail (at the swamped end on a hot unit).
 //! Any such sample, and every sample whose temperature is outside the table's window until the table is
-//! rebuilt, goes through the [`StageCache`] the table keeps, i.e. the direct path exactly, errors
-//! included. So near a status boundary (a rail, the sensitivity limit, the calibrated x range) and in a
-//! bend the table cannot hold, the result is bit for bit the direct path's.
+//! rebuilt, goes through the [`StageCache`] the table keeps, errors included. So near a status boundary (a
+//! rail, the sensitivity limit, the calibrated x range) and in a bend the table cannot hold, the result is
+//! bit for bit the stage cache's (which `logtrim verify` checks on its own too).
 //!
 //! A value from the table is **not** bit for bit the direct path's (it interpolates x, where the direct
-//! path interpolates the per-temperature values): `logtrim verify` checks this path on its own at every
+//! path evaluates the per-temperature values at θ): `logtrim verify` checks this path on its own at every
 //! code of its grid against the f64 reference (the `code table` row of its report), with the same ¼-LSB
 //! bound. The C library (`ltrm_code_table_*`) runs the same integer operations and agrees bit for bit.
 //!
@@ -94,7 +95,7 @@ use crate::error::Error;
 pub const TABLE_KNOTS: usize = 72;
 /// An interval is used where its estimated errors are below `2^−TABLE_ERROR_LOG2` LSB each (1/16: with the
 /// direct path's own error the code table stays far inside the ¼-LSB bound; `logtrim verify` measures
-/// 0.05 LSB worst on the bench units).
+/// 0.07 LSB worst on the bench units).
 pub const TABLE_ERROR_LOG2: u32 = 4;
 /// Largest knot difference (and change across a window) a usable interval may have.
 const DIFF_LIMIT: i64 = 1 << 29;
@@ -241,7 +242,7 @@ impl<'a> CodeTable<'a> {
     }
 
     /// [`FixedCalibration::correct`] through the table: x within the verified bound of the direct path's
-    /// (bit for bit where the table falls back, errors included).
+    /// (bit for bit the stage cache's where the table falls back, errors included).
     #[inline(always)]
     pub fn correct(&mut self, code: u32, temp_mc: i32) -> Result<FixedReading, Error> {
         // A hit: a code in a usable interval (so between the rails) at a temperature in the hit range (so

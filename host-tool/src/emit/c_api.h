@@ -18,7 +18,7 @@ ltrm_status ltrm_stage_cache_correct_raw(ltrm_stage_cache *k, uint32_t code, uin
 ltrm_status ltrm_stage_cache_correct(ltrm_stage_cache *k, uint32_t code, int32_t temp_mc, ltrm_reading *out);
 /* The per-sample path at a held or slowly wandering temperature (logtrim::fixed::CodeTable): x from a table
  * over the log code for the temperature's window, within the bound `logtrim verify` proves for it (its
- * "code table" row), and bit for bit ltrm_correct's where the table falls back. One table belongs to one
+ * "code table" row), and bit for bit the stage cache's where the table falls back. One table belongs to one
  * calibration: initialise it again after loading another. */
 void ltrm_code_table_init(ltrm_code_table *t, const ltrm_fixed *c);
 ltrm_status ltrm_code_table_correct(ltrm_code_table *t, uint32_t code, int32_t temp_mc, ltrm_reading *out);
